@@ -1,0 +1,25 @@
+# Two entry points for a fresh machine with Python 3.11+: `make demo` and `make test`.
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test venv clean bench fuzz
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+venv: $(STAMP)
+
+demo: $(STAMP)
+	$(PY) spectra_demo/generate.py
+	$(VENV)/bin/lumeval inspect spectra_demo/downlights/*.csv
+
+test: $(STAMP)
+	$(PY) -m pytest
+
+clean:
+	rm -rf $(VENV) build *.egg-info

@@ -1,0 +1,63 @@
+"""One exception family for everything lumeval reports to its user.
+
+Every message follows one pattern, ``WHERE: what is wrong — what would fix it``, where
+WHERE is ``FILE``, ``FILE:LINE`` or ``FILE: field NAME``. The CLI maps every
+:class:`LumevalError` to exit code 2 and prints the message alone (``--debug`` adds the
+traceback).
+"""
+
+from __future__ import annotations
+
+
+class LumevalError(Exception):
+    """Base class of every error lumeval reports to its user."""
+
+    def __init__(
+        self,
+        problem: str,
+        *,
+        file: str | None = None,
+        line: int | None = None,
+        field: str | None = None,
+        fix: str | None = None,
+    ) -> None:
+        self.problem = problem
+        self.file = file
+        self.line = line
+        self.field = field
+        self.fix = fix
+        super().__init__(self.message)
+
+    @property
+    def where(self) -> str:
+        parts = []
+        if self.file is not None:
+            parts.append(str(self.file) + (f":{self.line}" if self.line is not None else ""))
+        elif self.line is not None:
+            parts.append(f"line {self.line}")
+        if self.field is not None:
+            parts.append(f"field {self.field!r}")
+        return " ".join(parts)
+
+    @property
+    def message(self) -> str:
+        text = self.problem
+        if self.fix:
+            text += f" \u2014 {self.fix}"
+        return f"{self.where}: {text}" if self.where else text
+
+
+class InputError(LumevalError):
+    """A spectrum file (or other data input) that cannot be read or used."""
+
+
+class CriteriaError(LumevalError):
+    """A criteria, claims or instrument file that is malformed or contradictory."""
+
+
+class ComputationError(LumevalError):
+    """A figure that cannot be computed honestly from valid input."""
+
+
+class UsageError(LumevalError):
+    """Bad command-line usage that the argument parser itself does not catch."""

@@ -1,0 +1,43 @@
+"""lumeval: judge a light source's colour quality from its measured spectrum.
+
+The public Python API mirrors the command line. Names are resolved lazily so that
+``import lumeval`` (and ``lumeval --help``) stays light: colour-science is imported only when
+a computation needs it.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+__version__ = "0.1.0"
+
+#: public name -> module that defines it. Add an entry when a new public function lands.
+_API = {
+    # errors
+    "LumevalError": "lumeval.errors",
+    "InputError": "lumeval.errors",
+    "CriteriaError": "lumeval.errors",
+    "ComputationError": "lumeval.errors",
+    # spectra
+    "SpectrumSet": "lumeval.spectra.model",
+    # metrics
+    "planck_exitance": "lumeval.metrics.planck",
+    "tristimulus": "lumeval.metrics.colorimetry",
+    "cct_duv_ohno": "lumeval.metrics.colorimetry",
+    "planckian_uv": "lumeval.metrics.colorimetry",
+}
+
+__all__ = sorted(_API) + ["__version__"]
+
+
+def __getattr__(name: str):
+    module = _API.get(name)
+    if module is None:
+        raise AttributeError(f"module 'lumeval' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return __all__

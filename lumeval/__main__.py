@@ -1,0 +1,3 @@
+from lumeval.cli import main
+
+main()

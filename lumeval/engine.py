@@ -1,0 +1,241 @@
+"""Evaluate many spectra at once: every figure lumeval reports, as array operations.
+
+The engine is the one place where the metric modules meet. It takes a :class:`SpectrumSet`,
+prepares it onto a computation grid (:func:`lumeval.spectra.prepare.prepare`), and evaluates
+chunk by chunk so that memory stays bounded however many spectra come:
+
+1. tristimulus values (CIE 1931 2°), x y, u v (CIE 1960), u' v' (CIE 1976);
+2. CCT and Duv by Ohno (2014) on a Planckian table computed with c2 = 1.4388e-2 m K;
+3. CIE 13.3-1995 colour rendering (Ra, R1..R14, DC) against the reference at that CCT;
+4. CIE 224:2017 / ANSI/IES TM-30-18/-20 Rf, Rg and the 16 hue-bin values;
+5. photometric ratios (LER, S/P, melanopic DER per CIE S 026) and the peak wavelength.
+
+Nothing here prints, reads files or knows about terminals.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import warnings as _warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .spectra.model import SpectrumSet
+
+#: Spectra evaluated per chunk. The largest intermediate arrays are (chunk, 99, W) for the
+#: TM-30 samples: 256 × 99 × 471 doubles ≈ 95 MB.
+DEFAULT_CHUNK = 256
+
+#: CIE 13.3-1995 §5.3: the test source should be within DC = 5.4e-3 of the Planckian locus in
+#: CIE 1960 (u, v) for the index to be meaningful.
+CRI_DC_LIMIT = 5.4e-3
+
+FIGURE_NAMES: tuple[str, ...] = (
+    ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv", "Ra")
+    + tuple(f"R{i}" for i in range(1, 15))
+    + ("dc", "Rf", "Rg", "cie2017_Rf")
+    + tuple(f"Rf_h{j}" for j in range(1, 17))
+    + tuple(f"Rcs_h{j}" for j in range(1, 17))
+    + tuple(f"Rhs_h{j}" for j in range(1, 17))
+    + ("ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm")
+)
+
+#: Units of each figure, for reports and criteria messages.
+FIGURE_UNITS: dict[str, str] = {
+    "cct_K": "K",
+    "ler_lm_per_W": "lm/W",
+    "peak_nm": "nm",
+    **{f"Rcs_h{j}": "%" for j in range(1, 17)},
+    **{f"Rhs_h{j}": "rad" for j in range(1, 17)},
+}
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    """All figures for N spectra (arrays of shape (N,) unless stated).
+
+    ``cct_K`` is NaN where CCT is undefined (``cct_reason`` says why); every figure that needs
+    a reference illuminant (CRI, TM-30) is then NaN too. ``warnings[i]`` lists everything a
+    report must show about spectrum i: what the readers did to the data, why a figure is
+    undefined, and validity limits that were exceeded.
+    """
+
+    spectra: SpectrumSet
+    XYZ: np.ndarray
+    x: np.ndarray
+    y: np.ndarray
+    u: np.ndarray
+    v: np.ndarray
+    u_prime: np.ndarray
+    v_prime: np.ndarray
+    cct_K: np.ndarray
+    duv: np.ndarray
+    cct_reason: tuple[str, ...]
+    cri: object
+    tm30: object
+    photometry: object
+    warnings: tuple[tuple[str, ...], ...]
+    methods: dict = field(default_factory=dict)
+
+    def __len__(self) -> int:
+        return self.x.shape[0]
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return self.spectra.names
+
+    @property
+    def cie2017_Rf(self) -> np.ndarray:
+        return np.asarray(self.tm30.Rf)
+
+    def figure(self, name: str) -> np.ndarray:
+        """The figure ``name`` (one of :data:`FIGURE_NAMES`) as an array of shape (N,)."""
+        if name in ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv"):
+            return np.asarray(getattr(self, name), dtype=float)
+        if name == "Ra":
+            return np.asarray(self.cri.Ra, dtype=float)
+        if name == "dc":
+            return np.asarray(self.cri.dc, dtype=float)
+        if name in ("Rf", "cie2017_Rf"):
+            return np.asarray(self.tm30.Rf, dtype=float)
+        if name == "Rg":
+            return np.asarray(self.tm30.Rg, dtype=float)
+        if name in ("ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm"):
+            return np.asarray(getattr(self.photometry, name), dtype=float)
+        for prefix, attr in (("Rf_h", "Rf_h"), ("Rcs_h", "Rcs_h"), ("Rhs_h", "Rhs_h")):
+            if name.startswith(prefix) and name[len(prefix):].isdigit():
+                j = int(name[len(prefix):])
+                if 1 <= j <= 16:
+                    return np.asarray(getattr(self.tm30, attr), dtype=float)[:, j - 1]
+        if name.startswith("R") and name[1:].isdigit():
+            i = int(name[1:])
+            if 1 <= i <= 14:
+                return np.asarray(self.cri.R, dtype=float)[:, i - 1]
+        raise KeyError(f"unknown figure {name!r}")
+
+    def reference_spd(self, i: int) -> np.ndarray:
+        """The CIE 13.3 reference SPD (Planckian < 5000 K, CIE daylight ≥ 5000 K) of spectrum i
+        at its CCT, on the spectrum's grid, scaled to the same luminance (Y) as the test SPD.
+        NaN where the CCT is undefined."""
+        from .metrics.colorimetry import tristimulus
+        from .metrics.reference import cri_reference_spd
+
+        wl = self.spectra.wavelengths_nm
+        ref = cri_reference_spd(wl, np.array([self.cct_K[i]]))[0]
+        if not np.all(np.isfinite(ref)):
+            return ref
+        y_ref = tristimulus(wl, ref)[1]
+        return ref * (self.XYZ[i, 1] / y_ref)
+
+
+def _concat(parts: list):
+    """Concatenate per-chunk results: arrays along axis 0, tuples end to end, dataclasses
+    field by field."""
+    first = parts[0]
+    if dataclasses.is_dataclass(first):
+        return type(first)(**{f.name: _concat([getattr(p, f.name) for p in parts]) for f in dataclasses.fields(first)})
+    if isinstance(first, np.ndarray):
+        return np.concatenate(parts, axis=0) if first.ndim else first
+    if isinstance(first, tuple):
+        return sum(parts, ())
+    return first
+
+
+def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
+    from .metrics.colorimetry import cct_duv_ohno, tristimulus, upvp_from_XYZ, uv_from_XYZ, xy_from_XYZ
+    from .metrics.cri import cie133_cri
+    from .metrics.photometry import photometry
+    from .metrics.tm30 import tm30
+
+    XYZ = tristimulus(wl, values)
+    xy = xy_from_XYZ(XYZ)
+    uv = uv_from_XYZ(XYZ)
+    upvp = upvp_from_XYZ(XYZ)
+    cct = cct_duv_ohno(uv)
+    cri = cie133_cri(wl, values, cct.cct_K)
+    fid = tm30(wl, values, cct.cct_K)
+    phot = photometry(wl, values)
+    return XYZ, xy, uv, upvp, cct, cri, fid, phot
+
+
+def _warnings_for(spectra: SpectrumSet, cct, cri, caught: list[str]) -> tuple[tuple[str, ...], ...]:
+    out = []
+    dc = np.asarray(cri.dc, dtype=float)
+    for i in range(len(spectra)):
+        w = list(spectra.notes[i])
+        if cct.reason[i]:
+            w.append(f"CCT undefined: {cct.reason[i]}; CRI and TM-30 figures are not computed.")
+        elif np.isfinite(dc[i]) and dc[i] >= CRI_DC_LIMIT:
+            w.append(
+                f"DC = {dc[i]:.4f} is not below {CRI_DC_LIMIT} (CIE 13.3 §5.3): the source is too far from "
+                "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
+            )
+        w.extend(caught)
+        out.append(tuple(w))
+    return tuple(out)
+
+
+def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK) -> Evaluation:
+    """Evaluate every figure for every spectrum in ``spectra``.
+
+    Parameters
+    ----------
+    spectra : SpectrumSet
+        Spectra as read. They are prepared onto the computation grid first (see
+        :func:`lumeval.spectra.prepare.prepare`); what preparation did is recorded in the
+        result's warnings.
+    chunk_size : int
+        Spectra evaluated together; bounds peak memory for large lots.
+
+    Returns
+    -------
+    Evaluation
+    """
+    from .spectra.prepare import prepare
+
+    prepared = prepare(spectra)
+    wl = prepared.wavelengths_nm
+    n = len(prepared)
+    parts = []
+    caught_all: list[str] = []
+    for start in range(0, n, max(1, chunk_size)):
+        with _warnings.catch_warnings(record=True) as caught:
+            _warnings.simplefilter("always")
+            parts.append(_evaluate_chunk(wl, prepared.values[start : start + chunk_size]))
+        for c in caught:
+            msg = f"computation warning: {c.message}"
+            if msg not in caught_all:
+                caught_all.append(msg)
+    XYZ, xy, uv, upvp, cct, cri, fid, phot = (_concat([p[k] for p in parts]) for k in range(8))
+    return Evaluation(
+        spectra=prepared,
+        XYZ=XYZ,
+        x=xy[:, 0],
+        y=xy[:, 1],
+        u=uv[:, 0],
+        v=uv[:, 1],
+        u_prime=upvp[:, 0],
+        v_prime=upvp[:, 1],
+        cct_K=cct.cct_K,
+        duv=cct.duv,
+        cct_reason=cct.reason,
+        cri=cri,
+        tm30=fid,
+        photometry=phot,
+        warnings=_warnings_for(prepared, cct, cri, caught_all),
+        methods=METHODS,
+    )
+
+
+#: The methods and editions every report names.
+METHODS: dict[str, str] = {
+    "observer": "CIE 1931 2° (colorimetry, CCT, CRI); CIE 1964 10° (CIE 224 / TM-30)",
+    "integration": "sum at the data's own 1 nm or 5 nm spacing (CIE 15:2004 §7.1)",
+    "interpolation": "other spacings Sprague-interpolated to 1 nm (CIE 167:2005); see the input-files guide",
+    "cct": "Ohno (2014) LEUKOS 10(1):47-55, Planckian locus with c2 = 1.4388e-2 m K (CIE 15:2004)",
+    "duv_sign": "positive above the Planckian locus (ANSI C78.377)",
+    "cri": "CIE 13.3-1995, reference Planckian < 5000 K, CIE daylight ≥ 5000 K",
+    "fidelity": "CIE 224:2017 / ANSI/IES TM-30-18 (Rf, Rg, 16 hue bins)",
+    "melanopic": "CIE S 026/E:2018 melanopic daylight (D65) efficacy ratio",
+}

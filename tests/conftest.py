@@ -1,0 +1,30 @@
+"""Shared test helpers. Reference data come from colour-science's copies of CIE tables."""
+
+from __future__ import annotations
+
+import warnings
+
+import numpy as np
+import pytest
+
+
+@pytest.fixture(scope="session")
+def colour():
+    from lumeval._colour import load
+
+    return load()
+
+
+def cie_illuminant(colour, name: str):
+    """(wavelengths, values) of a CIE illuminant as colour-science ships it (CIE 15:2004 tables)."""
+    sd = colour.SDS_ILLUMINANTS[name]
+    return np.asarray(sd.wavelengths, dtype=float), np.asarray(sd.values, dtype=float)
+
+
+@pytest.fixture(scope="session")
+def luxpy():
+    """The independent colour library used as a test oracle (GPLv3: used, never copied)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        import luxpy as lx
+    return lx

@@ -1,0 +1,474 @@
+"""CIE 224:2017 colour fidelity index and ANSI/IES TM-30 (-18, -20) Rf, Rg and hue-bin values.
+
+Vectorised over N spectra: every array operation runs over all spectra at once (the 99 colour
+evaluation samples, the CIECAM02 / CAM02-UCS conversion, the hue-bin averages and the gamut
+polygons). One spectrum is the case N = 1.
+
+Sources
+-------
+- CIE 224:2017 *CIE 2017 Colour Fidelity Index for accurate scientific use* (CIE TC 1-90):
+  the 99 colour evaluation samples (CES), the CIE 1964 10° observer for all colorimetry except
+  the CCT, the reference illuminant (Planckian below 4000 K, CIE daylight above 5000 K, a blend
+  of the two normalised to equal Y in between), CIECAM02 with L_A = 100 cd/m², Y_b = 20,
+  average surround and complete adaptation (D = 1), the CAM02-UCS uniform space, the colour
+  difference ΔE′ (Euclidean in J′a′b′) and the scaling ``Rf = 10 ln(exp((100 − 6.73 ΔE′)/10) + 1)``
+  (CIE 224:2017 §4; clause numbers quoted from memory, not re-read for this module).
+- ANSI/IES TM-30-18 and TM-30-20 *IES Method for Evaluating Light Source Color Rendition*: the
+  same Rf (TM-30-18 aligned its fidelity index with CIE 224:2017, including c = 6.73), plus
+  16 hue bins of 22.5° defined on the *reference* hue angle of each CES, the bin-average
+  (a′, b′) of test and reference, the gamut index Rg = 100 · A_test / A_ref from the areas of the
+  two 16-gon polygons through the bin averages, the local fidelity Rf,hj (Rf scaling applied to
+  the bin-mean ΔE′), the local chroma shift Rcs,hj and the local hue shift Rhs,hj, both projected
+  on the unit vector bisecting bin j and divided by the radius of the reference bin average.
+- CES spectral reflectances: colour-science 0.4.7's copy of the CIE 224:2017 1 nm table
+  (``colour/quality/datasets/tcs_cfi2017_1_nm.csv.gz``, 380-780 nm); on a 5 nm grid every fifth
+  row is used (colour's 5 nm file is exactly that subsample).
+- CIECAM02 and CAM02-UCS: colour-science's vectorised ``XYZ_to_CIECAM02`` and
+  ``JMh_CIECAM02_to_CAM02UCS`` (CIE 159:2004; Luo, Cui & Li (2006) Color Res. Appl. 31(4):320-330).
+- Reference SPDs: :mod:`lumeval.metrics.reference` (Planck with c2 = 1.4388e-2 m K; CIE daylight
+  with M1, M2 rounded to three decimals and the 5 nm S0, S1, S2 basis interpolated *linearly* to
+  1 nm — see "Differences from colour-science" below).
+
+Wavelength range and grid
+-------------------------
+Spectra arrive prepared (uniform 1 nm or 5 nm, integer wavelengths, covering 380-780 nm; see
+the shared interface notes). CIE 224:2017 evaluates over 380-780 nm: the spectra are cropped to
+that range here, and all sums (test, reference, CES, CMFs) run over it on the spectra's own grid.
+
+Differences from colour-science 0.4.7 (measured; see tests/test_metrics_tm30.py)
+--------------------------------------------------------------------------------
+1. CCT: lumeval passes its own Ohno (2014) CCT (CIE 1931 2°, computed on the prepared grid);
+   colour computes Ohno 2013 on the 380-780 nm crop. The caller supplies ``cct_K``.
+2. Daylight basis on a 1 nm grid: colour interpolates the 5 nm S0, S1, S2 with Sprague; lumeval
+   interpolates linearly, as CIE 15:2004 §3.1 recommends for the D-illuminant functions (the 5 nm
+   table itself was produced by linear interpolation of the 10 nm data: Kránicz & Schanda (2000)
+   Color Res. Appl. 25(4):250-259, abstract). On a 5 nm grid both are identical. The
+   effect on Rf / Rg for daylight-range sources is reported by the tests.
+3. Blend normalisation (4000-5000 K): both components are scaled to equal Y before mixing.
+   colour normalises with the CIE 1931 2° ȳ; this module uses the observer given by
+   ``blend_observer`` (default: CIE 1964 10°, the observer of every other CIE 224 / TM-30
+   tristimulus computation). See :data:`BLEND_OBSERVER_DEFAULT`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+from ..errors import InputError
+from .colorimetry import OBSERVER_2, OBSERVER_10, cmfs_at
+from .reference import daylight_spd, planckian_spd
+
+#: Wavelength range of the CIE 224:2017 computation (nm).
+CFI_RANGE_NM = (380.0, 780.0)
+#: Scaling constant of the Rf formula (CIE 224:2017; ANSI/IES TM-30-18 onward).
+C_F = 6.73
+#: CIECAM02 viewing conditions of CIE 224:2017 / TM-30-18: adapting luminance (cd/m²),
+#: relative background luminance, surround; complete adaptation (D = 1).
+L_A = 100.0
+Y_B = 20.0
+#: Number of hue bins (TM-30-18) and their width in degrees.
+N_BINS = 16
+BIN_WIDTH_DEG = 22.5
+#: Below this CCT the reference is Planckian, above ``BLEND_HI_K`` CIE daylight, in between a
+#: blend (CIE 224:2017; TM-30-18).
+BLEND_LO_K = 4000.0
+BLEND_HI_K = 5000.0
+#: Observer whose ȳ sets the equal-Y normalisation of the two blend components.
+BLEND_OBSERVER_DEFAULT = OBSERVER_10
+
+REFERENCE_PLANCKIAN = "Planckian"
+REFERENCE_DAYLIGHT = "CIE daylight"
+REFERENCE_BLEND = "blend"
+
+
+@dataclass(frozen=True)
+class TM30Result:
+    """CIE 224:2017 / ANSI/IES TM-30-18 figures for N spectra (NaN where not computable).
+
+    Attributes
+    ----------
+    Rf : ndarray (N,)
+        Fidelity index Rf (CIE 224:2017 Rf; TM-30-18 Rf).
+    Rg : ndarray (N,)
+        Gamut index Rg = 100 · A_test / A_ref (TM-30-18).
+    Rf_ces : ndarray (N, 99)
+        Special fidelity index of each colour evaluation sample, Rf,CESi.
+    delta_E_ces : ndarray (N, 99)
+        ΔE′ (CAM02-UCS) of each CES between test and reference.
+    Rf_h : ndarray (N, 16)
+        Local fidelity index per hue bin, Rf,hj (Rf scaling of the bin-mean ΔE′).
+    Rcs_h : ndarray (N, 16)
+        Local chroma shift per hue bin, Rcs,hj, in PERCENT (TM-30 reports it as a percentage).
+    Rhs_h : ndarray (N, 16)
+        Local hue shift per hue bin, Rhs,hj: dimensionless (the tangential shift of the bin
+        average divided by the reference bin radius; for small shifts it approximates the
+        hue-angle shift in radians). TM-30-18 reports it unscaled; it is not a percentage.
+    avg_ab_test, avg_ab_ref : ndarray (N, 16, 2)
+        Bin-average (a′, b′) in CAM02-UCS under the test source and the reference.
+    bin_count : ndarray (N, 16) of int
+        Number of CES whose reference hue falls in each bin.
+    hue_bin : ndarray (N, 99) of int
+        Bin index (0-15) of each CES, from its reference hue angle h (floor(h / 22.5°)).
+    Jab_test, Jab_ref : ndarray (N, 99, 3)
+        CAM02-UCS (J′, a′, b′) of each CES under the test source and the reference.
+    cct_K : ndarray (N,)
+        The CCT used to build the reference (as passed in).
+    daylight_fraction : ndarray (N,)
+        Share of CIE daylight in the reference: 0 (Planckian), 1 (daylight), between for blends.
+    reference : tuple of str (N,)
+        'Planckian', 'CIE daylight', 'blend', or '' where no reference was built.
+    reason : tuple of str (N,)
+        Empty where the figures were computed, otherwise why they are NaN.
+    spacing_nm : float
+        Grid spacing the computation ran on (1 or 5 nm).
+    blend_observer : str
+        Observer whose ȳ normalised the blend components.
+    """
+
+    Rf: np.ndarray
+    Rg: np.ndarray
+    Rf_ces: np.ndarray
+    delta_E_ces: np.ndarray
+    Rf_h: np.ndarray
+    Rcs_h: np.ndarray
+    Rhs_h: np.ndarray
+    avg_ab_test: np.ndarray
+    avg_ab_ref: np.ndarray
+    bin_count: np.ndarray
+    hue_bin: np.ndarray
+    Jab_test: np.ndarray
+    Jab_ref: np.ndarray
+    cct_K: np.ndarray
+    daylight_fraction: np.ndarray
+    reference: tuple[str, ...]
+    reason: tuple[str, ...]
+    spacing_nm: float
+    blend_observer: str
+
+
+# --------------------------------------------------------------------------- data
+
+
+@lru_cache(maxsize=None)
+def _ces_table() -> tuple[np.ndarray, np.ndarray]:
+    """The 99 CES reflectances at 1 nm, 380-780 nm: (wl (401,), R (99, 401))."""
+    import os
+
+    from .._colour import load
+
+    load()
+    from colour.quality import cfi2017
+
+    path = os.path.join(cfi2017.ROOT_RESOURCES_CIE2017, "tcs_cfi2017_1_nm.csv.gz")
+    data = np.genfromtxt(path, delimiter=",")
+    wl = data[:, 0].astype(float)
+    R = np.ascontiguousarray(data[:, 1:].T)
+    if R.shape != (99, 401) or wl[0] != 380.0 or wl[-1] != 780.0:  # pragma: no cover
+        raise RuntimeError(f"unexpected CES table shape {R.shape} in {path}")
+    return wl, R
+
+
+def ces_reflectances(wavelengths_nm) -> np.ndarray:
+    """The 99 CIE 224:2017 CES reflectances sampled at ``wavelengths_nm`` (integers in 380-780).
+
+    Returns shape (99, W). Source: colour-science 0.4.7's copy of the CIE 224:2017 1 nm table.
+    """
+    wl_t, R = _ces_table()
+    idx = np.rint(np.asarray(wavelengths_nm, dtype=float) - wl_t[0]).astype(int)
+    return R[:, idx]
+
+
+# --------------------------------------------------------------------------- input checks
+
+
+def _crop_grid(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray, float]:
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    if wl.ndim != 1 or wl.size < 2:
+        raise InputError(
+            "wavelengths must be a 1-D array of at least two values",
+            fix="prepare the spectra (lumeval.spectra) before computing metrics",
+        )
+    vals = np.asarray(values, dtype=float)
+    if vals.ndim == 1:
+        vals = vals[None, :]
+    if vals.ndim != 2 or vals.shape[1] != wl.size:
+        raise InputError(
+            f"values of shape {np.shape(values)} do not match {wl.size} wavelengths",
+            fix="pass values of shape (N, W) or (W,) on the wavelength grid",
+        )
+    d = np.diff(wl)
+    step = float(d[0])
+    if not (np.allclose(d, step, rtol=0, atol=1e-9) and step in (1.0, 5.0)):
+        raise InputError(
+            "CIE 224:2017 / TM-30 need a uniform 1 nm or 5 nm grid",
+            fix="prepare the spectra (Sprague-interpolate to 1 nm) first",
+        )
+    if not np.allclose(wl, np.rint(wl), rtol=0, atol=1e-9):
+        raise InputError("wavelengths must be integers (nm)", fix="prepare the spectra first")
+    lo, hi = CFI_RANGE_NM
+    if wl[0] > lo or wl[-1] < hi:
+        raise InputError(
+            f"spectrum covers {wl[0]:g}-{wl[-1]:g} nm; CIE 224:2017 needs 380-780 nm",
+            fix="extend or re-measure the spectrum to cover 380-780 nm",
+        )
+    keep = (wl >= lo - 1e-9) & (wl <= hi + 1e-9)
+    wl_c = np.rint(wl[keep])
+    if (wl_c[0] - lo) % step or (hi - wl_c[-1]) % step or wl_c[0] != lo or wl_c[-1] != hi:
+        raise InputError(
+            f"the {step:g} nm grid does not fall on 380 nm and 780 nm",
+            fix="prepare the spectra on integer wavelengths that are multiples of the spacing",
+        )
+    return wl_c, vals[:, keep], step
+
+
+# --------------------------------------------------------------------------- reference
+
+
+def reference_spd(
+    wavelengths_nm, cct_K, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
+) -> tuple[np.ndarray, np.ndarray]:
+    """CIE 224:2017 / TM-30-18 reference illuminant at ``cct_K`` on ``wavelengths_nm``.
+
+    Planckian radiator for T < 4000 K, CIE daylight for T > 5000 K, and for
+    4000 K ≤ T ≤ 5000 K the blend ``S_r = (1 − m) S_P / Y_P + m S_D / Y_D`` with
+    m = (T − 4000 K) / 1000 K, each component normalised to equal Y computed on the same grid
+    with ``blend_observer``'s ȳ (CIE 224:2017 §4 reference illuminant; TM-30-18 §4 — clause
+    numbers from memory).
+
+    Returns
+    -------
+    spd : ndarray (N, W)
+        Relative SPD (scale arbitrary: every use is relative colorimetry). NaN rows where the
+        CCT is not finite.
+    daylight_fraction : ndarray (N,)
+        m as above (0 below 4000 K, 1 above 5000 K), NaN where the CCT is not finite.
+    """
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    T = np.atleast_1d(np.asarray(cct_K, dtype=float))
+    out = np.full((T.size, wl.size), np.nan)
+    ok = np.isfinite(T) & (T > 0)
+    m = np.where(ok, np.clip((T - BLEND_LO_K) / (BLEND_HI_K - BLEND_LO_K), 0.0, 1.0), np.nan)
+    need_p = ok & (T <= BLEND_HI_K)
+    need_d = ok & (T >= BLEND_LO_K)
+    P = np.zeros((T.size, wl.size))
+    D = np.zeros((T.size, wl.size))
+    if need_p.any():
+        P[need_p] = planckian_spd(wl, T[need_p])
+    if need_d.any():
+        D[need_d] = daylight_spd(wl, T[need_d])
+    pl = ok & (T < BLEND_LO_K)
+    dl = ok & (T > BLEND_HI_K)
+    bl = need_p & need_d
+    out[pl] = P[pl]
+    out[dl] = D[dl]
+    if bl.any():
+        ybar = cmfs_at(wl, blend_observer)[:, 1]
+        YP = P[bl] @ ybar
+        YD = D[bl] @ ybar
+        mb = m[bl][:, None]
+        out[bl] = (1.0 - mb) * P[bl] / YP[:, None] + mb * D[bl] / YD[:, None]
+    return out, m
+
+
+# --------------------------------------------------------------------------- core
+
+
+def _Rf_scale(delta_E):
+    """Rf = 10 ln(exp((100 − 6.73 ΔE′)/10) + 1) (CIE 224:2017; TM-30-18), via log1p."""
+    return 10.0 * np.log1p(np.exp((100.0 - C_F * np.asarray(delta_E)) / 10.0))
+
+
+def _jab(wl, S, R, cmf10):
+    """CAM02-UCS J′a′b′ of the CES under the light sources ``S`` (M, W): (M, 99, 3), h (M, 99).
+
+    Relative colorimetry with the CIE 1964 10° observer: XYZ = 100 Σ R S x̄ / Σ S ȳ (the white
+    has Y_w = 100); CIECAM02 with L_A = 100, Y_b = 20, average surround, D = 1 (discounting the
+    illuminant), then CAM02-UCS (CIE 224:2017).
+    """
+    from .._colour import load
+
+    colour = load()
+    from colour.appearance import VIEWING_CONDITIONS_CIECAM02, XYZ_to_CIECAM02
+    from colour.models import JMh_CIECAM02_to_CAM02UCS
+
+    XYZ_w = S @ cmf10  # (M, 3)
+    k = 100.0 / XYZ_w[:, 1]
+    XYZ_w = XYZ_w * k[:, None]
+    XYZ = np.empty((S.shape[0], R.shape[0], 3))
+    for c in range(3):
+        XYZ[:, :, c] = (S * cmf10[:, c]) @ R.T
+    XYZ *= k[:, None, None]
+    with colour.utilities.domain_range_scale("reference"):
+        spec = XYZ_to_CIECAM02(
+            XYZ,
+            XYZ_w[:, None, :],
+            L_A,
+            Y_B,
+            VIEWING_CONDITIONS_CIECAM02["Average"],
+            discount_illuminant=True,
+            compute_H=False,
+        )
+        J = np.asarray(spec.J, dtype=float)
+        M = np.asarray(spec.M, dtype=float)
+        h = np.asarray(spec.h, dtype=float)
+        Jab = np.asarray(JMh_CIECAM02_to_CAM02UCS(np.stack([J, M, h], axis=-1)), dtype=float)
+    return Jab, h
+
+
+def _polygon_area(ab):
+    """Signed area of the polygon through the points ``ab`` (N, K, 2), shoelace formula."""
+    a, b = ab[..., 0], ab[..., 1]
+    return 0.5 * np.sum(a * np.roll(b, -1, axis=-1) - np.roll(a, -1, axis=-1) * b, axis=-1)
+
+
+def tm30_from_reference(
+    wavelengths_nm, values, reference_values, cct_K=None, *, reference_kind=None,
+    daylight_fraction=None, blend_observer: str = BLEND_OBSERVER_DEFAULT,
+) -> TM30Result:
+    """TM-30-18 figures for test spectra against given reference spectra (same grid).
+
+    The engine behind :func:`tm30`; exposed so that a caller (or a test) can supply its own
+    reference illuminant. ``values`` and ``reference_values`` are (N, W) or (W,) on the same
+    prepared grid; rows with any non-finite value or non-positive Y10 give NaN figures.
+    """
+    wl, S_t, step = _crop_grid(wavelengths_nm, values)
+    _, S_r, _ = _crop_grid(wavelengths_nm, reference_values)
+    n = S_t.shape[0]
+    if S_r.shape[0] != n:
+        raise InputError(
+            f"{S_r.shape[0]} reference spectra for {n} test spectra",
+            fix="pass one reference spectrum per test spectrum",
+        )
+    cct = np.full(n, np.nan) if cct_K is None else np.broadcast_to(
+        np.asarray(cct_K, dtype=float), (n,)).copy()
+    frac = np.full(n, np.nan) if daylight_fraction is None else np.asarray(daylight_fraction, float)
+    kinds = tuple(reference_kind) if reference_kind is not None else ("",) * n
+    reasons = [""] * n
+
+    cmf10 = cmfs_at(wl, OBSERVER_10)
+    R = ces_reflectances(wl)
+    Yt = S_t @ cmf10[:, 1]
+    Yr = S_r @ cmf10[:, 1]
+    ok = np.all(np.isfinite(S_t), axis=1) & np.all(np.isfinite(S_r), axis=1)
+    ok &= np.isfinite(Yt) & np.isfinite(Yr) & (Yt > 0) & (Yr > 0)
+    for i in np.flatnonzero(~ok):
+        if not np.all(np.isfinite(S_r[i])):
+            reasons[i] = "no reference illuminant (CCT undefined)"
+        elif not np.all(np.isfinite(S_t[i])):
+            reasons[i] = "spectrum contains non-finite values"
+        else:
+            reasons[i] = "spectrum has no luminous content (Y10 ≤ 0)"
+
+    def nan(*shape):
+        return np.full((n, *shape), np.nan)
+
+    Rf, Rg = nan(), nan()
+    Rf_ces, dE = nan(99), nan(99)
+    Rf_h, Rcs_h, Rhs_h = nan(N_BINS), nan(N_BINS), nan(N_BINS)
+    avg_t, avg_r = nan(N_BINS, 2), nan(N_BINS, 2)
+    counts = np.zeros((n, N_BINS), dtype=int)
+    hue_bin = np.full((n, 99), -1, dtype=int)
+    Jab_t, Jab_r = nan(99, 3), nan(99, 3)
+
+    idx = np.flatnonzero(ok)
+    if idx.size:
+        m = idx.size
+        Jab, h = _jab(wl, np.concatenate([S_t[idx], S_r[idx]]), R, cmf10)
+        jt, jr = Jab[:m], Jab[m:]
+        hr = h[m:]
+        de = np.sqrt(np.sum((jt - jr) ** 2, axis=-1))  # ΔE′, (m, 99)
+        bins = np.clip(np.floor(hr / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
+        onehot = (bins[:, :, None] == np.arange(N_BINS)[None, None, :]).astype(float)  # (m,99,16)
+        cnt = onehot.sum(axis=1)  # (m, 16)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            at = np.einsum("mkc,mkb->mbc", jt[..., 1:], onehot) / cnt[..., None]
+            ar = np.einsum("mkc,mkb->mbc", jr[..., 1:], onehot) / cnt[..., None]
+            de_bin = np.einsum("mk,mkb->mb", de, onehot) / cnt
+            theta = np.deg2rad(BIN_WIDTH_DEG * np.arange(N_BINS) + BIN_WIDTH_DEG / 2.0)
+            cos, sin = np.cos(theta), np.sin(theta)
+            rr = np.hypot(ar[..., 0], ar[..., 1])
+            da = at[..., 0] - ar[..., 0]
+            db = at[..., 1] - ar[..., 1]
+            Rcs_h[idx] = 100.0 * (da * cos + db * sin) / rr
+            Rhs_h[idx] = (-da * sin + db * cos) / rr
+            Rg[idx] = 100.0 * _polygon_area(at) / _polygon_area(ar)
+        Rf[idx] = _Rf_scale(de.mean(axis=1))
+        Rf_ces[idx] = _Rf_scale(de)
+        dE[idx] = de
+        Rf_h[idx] = _Rf_scale(de_bin)
+        avg_t[idx], avg_r[idx] = at, ar
+        counts[idx] = cnt.astype(int)
+        hue_bin[idx] = bins
+        Jab_t[idx], Jab_r[idx] = jt, jr
+        for i in idx[np.any(cnt == 0, axis=1)]:
+            reasons[i] = "a hue bin holds no sample: Rg and bin values are undefined"
+
+    return TM30Result(
+        Rf=Rf, Rg=Rg, Rf_ces=Rf_ces, delta_E_ces=dE, Rf_h=Rf_h, Rcs_h=Rcs_h, Rhs_h=Rhs_h,
+        avg_ab_test=avg_t, avg_ab_ref=avg_r, bin_count=counts, hue_bin=hue_bin,
+        Jab_test=Jab_t, Jab_ref=Jab_r, cct_K=cct, daylight_fraction=frac,
+        reference=kinds, reason=tuple(reasons), spacing_nm=step, blend_observer=blend_observer,
+    )
+
+
+def tm30(
+    wavelengths_nm, values, cct_K, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
+) -> TM30Result:
+    """CIE 224:2017 Rf and ANSI/IES TM-30-18/-20 Rf, Rg and hue-bin figures, vectorised.
+
+    Parameters
+    ----------
+    wavelengths_nm : array_like, shape (W,)
+        Prepared grid: uniform 1 nm or 5 nm on integer wavelengths, covering 380-780 nm
+        (cropped to 380-780 nm here, as CIE 224:2017 computes over that range).
+    values : array_like, shape (N, W) or (W,)
+        Spectral power distributions (any radiometric scale: the method is relative).
+    cct_K : array_like, shape (N,) or scalar
+        CCT of each spectrum from lumeval's Ohno (2014) CCT with the CIE 1931 2° observer
+        (CIE 224:2017 computes the CCT with the 2° observer). NaN gives NaN figures and an
+        empty ``reference`` entry; no exception.
+    blend_observer : str
+        Observer whose ȳ normalises the Planckian and daylight components of the 4000-5000 K
+        blend (default CIE 1964 10°; colour-science uses CIE 1931 2°).
+
+    Returns
+    -------
+    TM30Result
+        Arrays of shape (N,), (N, 99), (N, 16) and (N, 16, 2); see :class:`TM30Result`.
+
+    Notes
+    -----
+    ΔE′_i = ‖J′a′b′_test,i − J′a′b′_ref,i‖; Rf from the mean ΔE′ over the 99 CES; Rf,CESi from
+    each ΔE′_i (CIE 224:2017). Bins: j = floor(h_ref,i / 22.5°); Rf,hj from the bin-mean ΔE′;
+    with the unit vector (cos θj, sin θj), θj = (j + ½)·22.5°, and the bin averages
+    (a′_t, b′_t), (a′_r, b′_r): Rcs,hj = 100·(Δa′ cos θj + Δb′ sin θj) / ‖(a′_r, b′_r)‖ in %,
+    Rhs,hj = (−Δa′ sin θj + Δb′ cos θj) / ‖(a′_r, b′_r)‖; Rg = 100·A_t/A_r with A the
+    polygon areas through the 16 bin averages (ANSI/IES TM-30-18 §4-5; clause numbers from
+    memory).
+    """
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    vals = np.asarray(values, dtype=float)
+    n = 1 if vals.ndim == 1 else vals.shape[0]
+    cct = np.broadcast_to(np.atleast_1d(np.asarray(cct_K, dtype=float)), (n,)).copy()
+    wl_c, _, _ = _crop_grid(wl, vals)
+    keep = (wl >= CFI_RANGE_NM[0] - 1e-9) & (wl <= CFI_RANGE_NM[1] + 1e-9)
+    ref, frac = reference_spd(wl_c, cct, blend_observer=blend_observer)
+    kinds = []
+    for T in cct:
+        if not np.isfinite(T) or T <= 0:
+            kinds.append("")
+        elif T < BLEND_LO_K:
+            kinds.append(REFERENCE_PLANCKIAN)
+        elif T > BLEND_HI_K:
+            kinds.append(REFERENCE_DAYLIGHT)
+        else:
+            kinds.append(REFERENCE_BLEND)
+    vals2 = vals[None, :] if vals.ndim == 1 else vals
+    res = tm30_from_reference(
+        wl_c, vals2[:, keep], ref, cct, reference_kind=kinds, daylight_fraction=frac,
+        blend_observer=blend_observer,
+    )
+    return res

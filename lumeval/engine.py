@@ -58,7 +58,8 @@ class Evaluation:
     ``cct_K`` is NaN where CCT is undefined (``cct_reason`` says why); every figure that needs
     a reference illuminant (CRI, TM-30) is then NaN too. ``warnings[i]`` lists everything a
     report must show about spectrum i: what the readers did to the data, why a figure is
-    undefined, and validity limits that were exceeded.
+    undefined, and validity limits that were exceeded. ``run_warnings`` holds warnings raised by
+    the computation libraries during the vectorised run (they cannot be tied to one spectrum).
     """
 
     spectra: SpectrumSet
@@ -76,6 +77,7 @@ class Evaluation:
     tm30: object
     photometry: object
     warnings: tuple[tuple[str, ...], ...]
+    run_warnings: tuple[str, ...] = ()
     methods: dict = field(default_factory=dict)
 
     def __len__(self) -> int:
@@ -142,6 +144,22 @@ def _concat(parts: list):
     return first
 
 
+#: Per-sample detail arrays (CAM02-UCS coordinates of the 99 CES, U*V*W* of the 14 TCS...)
+#: that reports of single spectra use, but a large lot does not need: ``evaluate(...,
+#: keep_details=False)`` replaces them by empty (N, 0) arrays to bound memory.
+_DETAIL_FIELDS = ("Jab_test", "Jab_ref", "delta_E_ces", "hue_bin", "UVW_test", "UVW_reference", "delta_E")
+
+
+def _strip_details(result):
+    changes = {}
+    for f in dataclasses.fields(result):
+        if f.name in _DETAIL_FIELDS:
+            a = getattr(result, f.name)
+            if isinstance(a, np.ndarray) and a.ndim >= 2:
+                changes[f.name] = np.empty((a.shape[0], 0))
+    return dataclasses.replace(result, **changes) if changes else result
+
+
 def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     from .metrics.colorimetry import cct_duv_ohno, tristimulus, upvp_from_XYZ, uv_from_XYZ, xy_from_XYZ
     from .metrics.cri import cie133_cri
@@ -159,7 +177,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     return XYZ, xy, uv, upvp, cct, cri, fid, phot
 
 
-def _warnings_for(spectra: SpectrumSet, cct, cri, caught: list[str]) -> tuple[tuple[str, ...], ...]:
+def _warnings_for(spectra: SpectrumSet, cct, cri) -> tuple[tuple[str, ...], ...]:
     out = []
     dc = np.asarray(cri.dc, dtype=float)
     for i in range(len(spectra)):
@@ -171,12 +189,11 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, caught: list[str]) -> tuple[tu
                 f"DC = {dc[i]:.4f} is not below {CRI_DC_LIMIT} (CIE 13.3 §5.3): the source is too far from "
                 "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
             )
-        w.extend(caught)
         out.append(tuple(w))
     return tuple(out)
 
 
-def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK) -> Evaluation:
+def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
     """Evaluate every figure for every spectrum in ``spectra``.
 
     Parameters
@@ -187,6 +204,9 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK) -> Evalua
         result's warnings.
     chunk_size : int
         Spectra evaluated together; bounds peak memory for large lots.
+    keep_details : bool
+        Keep per-sample detail arrays (CES/TCS coordinates) for reports; pass False for large
+        lots, where they would dominate memory (about 7 kB per spectrum).
 
     Returns
     -------
@@ -202,7 +222,10 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK) -> Evalua
     for start in range(0, n, max(1, chunk_size)):
         with _warnings.catch_warnings(record=True) as caught:
             _warnings.simplefilter("always")
-            parts.append(_evaluate_chunk(wl, prepared.values[start : start + chunk_size]))
+            part = _evaluate_chunk(wl, prepared.values[start : start + chunk_size])
+        if not keep_details:
+            part = part[:5] + (_strip_details(part[5]), _strip_details(part[6])) + part[7:]
+        parts.append(part)
         for c in caught:
             msg = f"computation warning: {c.message}"
             if msg not in caught_all:
@@ -223,7 +246,8 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK) -> Evalua
         cri=cri,
         tm30=fid,
         photometry=phot,
-        warnings=_warnings_for(prepared, cct, cri, caught_all),
+        warnings=_warnings_for(prepared, cct, cri),
+        run_warnings=tuple(caught_all),
         methods=METHODS,
     )
 

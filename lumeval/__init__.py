@@ -20,6 +20,10 @@ _API = {
     "ComputationError": "lumeval.errors",
     # spectra
     "SpectrumSet": "lumeval.spectra.model",
+    # the main job
+    "evaluate": "lumeval.engine",
+    "Evaluation": "lumeval.engine",
+    "inspect_files": "lumeval.commands.inspect",
     # metrics
     "planck_exitance": "lumeval.metrics.planck",
     "tristimulus": "lumeval.metrics.colorimetry",

@@ -14,37 +14,19 @@ class OutputFormat(str, Enum):
     csv = "csv"
 
 
-def inspect_files(paths) -> "object":
+def inspect_files(paths):
     """Python twin of ``lumeval inspect``: read, prepare and evaluate the spectra in ``paths``.
 
-    Returns an :class:`lumeval.engine.Evaluation`. Raises :class:`lumeval.errors.InputError`
-    naming the file and the problem when a file cannot be used.
+    Files on different wavelength grids are brought onto one 1 nm grid (see
+    :func:`lumeval.spectra.prepare.prepare`). Returns a :class:`lumeval.engine.Evaluation`;
+    raises :class:`lumeval.errors.InputError` naming the file and the problem when a file
+    cannot be used.
     """
     from ..engine import evaluate
-    from ..spectra.read import read_spectra
-    from ..spectra.model import SpectrumSet
-
-    sets = [read_spectra(p) for p in paths]
     from ..spectra.prepare import prepare
+    from ..spectra.read import read_spectra
 
-    prepared = prepare_all(sets, prepare)
-    return evaluate(prepared)
-
-
-def prepare_all(sets, prepare):
-    """Prepare several sets and join them on one grid (1 nm when their grids differ)."""
-    from ..spectra.model import SpectrumSet
-
-    prepared = [prepare(s) for s in sets]
-    grids = {(p.wavelengths_nm[0], p.wavelengths_nm[-1], p.spacing_nm, p.wavelengths_nm.size) for p in prepared}
-    if len(grids) > 1:
-        joined = SpectrumSet.concatenate_resampled(prepared) if hasattr(SpectrumSet, "concatenate_resampled") else None
-        if joined is None:
-            from ..spectra.prepare import prepare as _p
-
-            joined = _p(prepared)
-        return joined
-    return SpectrumSet.concatenate(prepared)
+    return evaluate(prepare([read_spectra(p) for p in paths]))
 
 
 def register(app: typer.Typer) -> None:

@@ -20,6 +20,7 @@ _API = {
     "ComputationError": "lumeval.errors",
     # spectra
     "SpectrumSet": "lumeval.spectra.model",
+    "read_spectra": "lumeval.spectra.read", "read_many": "lumeval.spectra.read", "prepare": "lumeval.spectra.prepare",
     # the main job
     "evaluate": "lumeval.engine",
     "Evaluation": "lumeval.engine",

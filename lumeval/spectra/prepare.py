@@ -1,0 +1,422 @@
+"""Bring raw spectra onto the computation grid, or refuse them with a reason.
+
+The computation grid (rule set in the shared interfaces): a uniform grid of exactly 1 nm or
+5 nm on integer wavelengths, inside 360-830 nm, covering at least 380-780 nm.
+
+Rules, applied to each spectrum set in this order (every change leaves a note on the
+spectrum, and notes travel into every report):
+
+1. **Wavelengths** must be finite and strictly monotonic; descending data are sorted (note);
+   duplicates are an error.
+2. **Values** must be finite. Within 360-830 nm the peak must be positive and the data must
+   not be constant (an all-zero or flat "spectrum" is an export error). Negative values down to
+   ``NEGATIVE_CLIP_FRACTION`` (5 %) of the peak are treated as measurement noise around zero
+   and set to zero (note); anything more negative is an error (a baseline or dark-subtraction
+   fault that clipping would hide). The 5 % limit is our rule (common practice, no source).
+3. **Spacing**: data at exactly 1 nm or 5 nm on integer wavelengths are used as measured
+   (CIE 15:2004 §7.1 summation). Other uniform spacings are interpolated to 1 nm with the
+   Sprague (1880) fifth-order method that CIE 167:2005 recommends for uniformly spaced data.
+   Irregular grids are interpolated to 1 nm with a not-a-knot cubic spline, the method CIE
+   15:2004 recommends for non-uniformly spaced data (as cited by colour-science's
+   ``SpectralDistribution`` documentation — secondary source). Spacing coarser than 5 nm is
+   warned about (CIE 15 tabulates at 5 nm; narrow LED and fluorescent features are poorly
+   resolved); spacing coarser than ``MAX_SPACING_NM`` (10 nm) is refused: a blue LED pump has a
+   FWHM of about 20 nm, so coarser sampling gives fewer than two samples across it and the
+   figures would depend more on the interpolation than on the lamp (our rule; common practice,
+   no source). Interpolation overshoot below zero is set to zero (note).
+4. **Range**: data outside 360-830 nm are dropped (note). Data short of 380-780 nm are
+   extended to 380/780 nm by repeating the end values (CIE 15:2004 §7.2.2.1 practice) with a
+   warning. Data starting above ``MAX_START_NM`` (400 nm) or ending below ``MIN_END_NM``
+   (700 nm) are refused: for an equal-energy spectrum the CIE 1931 colour-matching functions
+   carry 0.49 % of z̄ below 400 nm and 0.15 % of x̄ above 700 nm (computed from colour-science's
+   CIE 1931 table, 360-830 nm), but these grow to 1.5 % of z̄ below 410 nm and 0.6 % of x̄
+   above 680 nm; and the red test colours (CIE 13.3 R9, TM-30 red hue bins) need the red end
+   measured, not guessed.
+5. Several sets on **different grids** are all interpolated to 1 nm on the union of their
+   ranges (notes say so); a spectrum shorter than the union is extended as in rule 4.
+
+Functions here are pure: arrays in, arrays out, no I/O.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from ..errors import InputError
+from .model import SpectrumSet
+
+CIE_MIN_NM = 360.0
+CIE_MAX_NM = 830.0
+REQUIRED_START_NM = 380.0
+REQUIRED_END_NM = 780.0
+MAX_START_NM = 400.0
+MIN_END_NM = 700.0
+WARN_SPACING_NM = 5.0
+MAX_SPACING_NM = 10.0
+NEGATIVE_CLIP_FRACTION = 0.05
+
+# Sprague (1880) boundary coefficients, CIE 167:2005 (as tabulated in colour-science's
+# SpragueInterpolator.SPRAGUE_C_COEFFICIENTS): two extra points at each end from six data points.
+_SPRAGUE_C = (
+    np.array(
+        [
+            [884, -1960, 3033, -2648, 1080, -180],
+            [508, -540, 488, -367, 144, -24],
+            [-24, 144, -367, 488, -540, 508],
+            [-180, 1080, -2648, 3033, -1960, 884],
+        ],
+        dtype=float,
+    )
+    / 209.0
+)
+
+# Sprague fifth-order polynomial coefficients a1..a5 as linear combinations of the six points
+# p[i-2] .. p[i+3] around interval [x_i, x_{i+1}] (Westland, Ripamonti & Cheung, "Computational
+# Colour Science using MATLAB", 2nd ed. 2012, the reference colour-science cites).
+_SPRAGUE_A = (
+    np.array(
+        [
+            [2, -16, 0, 16, -2, 0],
+            [-1, 16, -30, 16, -1, 0],
+            [-9, 39, -70, 66, -33, 7],
+            [13, -64, 126, -124, 61, -12],
+            [-5, 25, -50, 50, -25, 5],
+        ],
+        dtype=float,
+    )
+    / 24.0
+)
+
+
+def sprague_matrix(n_in: int, x_frac: np.ndarray) -> np.ndarray:
+    """Sprague (1880) interpolation as a linear operator on uniformly spaced data.
+
+    Parameters
+    ----------
+    n_in : int
+        Number of uniformly spaced input samples (at least 6).
+    x_frac : ndarray, shape (M,)
+        Output positions in units of the input spacing, measured from the first sample
+        (0 <= x_frac <= n_in - 1).
+
+    Returns
+    -------
+    ndarray, shape (M, n_in)
+        Matrix ``A`` such that ``values @ A.T`` interpolates (N, n_in) data to (N, M).
+
+    Notes
+    -----
+    Method: CIE 167:2005 recommends Sprague (1880) for uniformly spaced spectral data; the
+    boundary extension (two synthetic points per end) and the quintic coefficients are those
+    tabulated by Westland et al. (2012) and used by colour-science's ``SpragueInterpolator``,
+    against which the tests check this operator.
+    """
+    if n_in < 6:
+        raise ValueError("Sprague interpolation needs at least 6 points")
+    x_frac = np.asarray(x_frac, dtype=float)
+    # extended sample vector e (n_in + 4) = E @ p, with E (n_in+4, n_in)
+    ext = np.zeros((n_in + 4, n_in))
+    ext[2 : n_in + 2] = np.eye(n_in)
+    ext[0, :6] = _SPRAGUE_C[0]
+    ext[1, :6] = _SPRAGUE_C[1]
+    ext[n_in + 2, n_in - 6 :] = _SPRAGUE_C[2]
+    ext[n_in + 3, n_in - 6 :] = _SPRAGUE_C[3]
+    i = np.clip(np.floor(x_frac).astype(int), 0, n_in - 2)
+    t = x_frac - i
+    out = np.zeros((x_frac.size, n_in))
+    # rows of ext for p[i-2]..p[i+3] are ext[i .. i+5]
+    win = np.stack([ext[i + k] for k in range(6)], axis=1)  # (M, 6, n_in)
+    a = np.einsum("jk,mkn->mjn", _SPRAGUE_A, win)  # (M, 5, n_in)
+    out += win[:, 2, :]
+    tp = t[:, None]
+    for power in range(1, 6):
+        out += a[:, power - 1, :] * tp**power
+    return out
+
+
+def sprague(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarray:
+    """Sprague-interpolate uniform (N, W) data on ``wl`` to ``wl_out`` (inside ``wl``'s range)."""
+    h = wl[1] - wl[0]
+    mat = sprague_matrix(wl.size, (wl_out - wl[0]) / h)
+    return np.atleast_2d(values) @ mat.T
+
+
+def cubic_spline(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarray:
+    """Not-a-knot cubic spline of (N, W) data on an irregular grid, evaluated at ``wl_out``.
+
+    CIE 15:2004 recommends a cubic spline for non-uniformly spaced data (secondary: quoted by
+    colour-science's ``SpectralDistribution`` documentation).
+    """
+    from scipy.interpolate import CubicSpline
+
+    if wl.size < 4:
+        return np.vstack([np.interp(wl_out, wl, v) for v in np.atleast_2d(values)])
+    return CubicSpline(wl, np.atleast_2d(values), axis=1, bc_type="not-a-knot")(wl_out)
+
+
+def _fmt(x: float) -> str:
+    return f"{x:g}"
+
+
+def _label(spectra: SpectrumSet, i: int) -> str:
+    return spectra.sources[i] if spectra.sources[i] else spectra.names[i]
+
+
+def _err(spectra: SpectrumSet, i: int, problem: str, fix: str) -> InputError:
+    src = spectra.sources[i]
+    file, _, col = src.partition("#")
+    return InputError(problem, file=file or spectra.names[i], field=col or None, fix=fix)
+
+
+def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: list[list[str]]):
+    """Validate values inside 360-830 nm; clip small negative noise. Returns new values."""
+    inside = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
+    if not np.any(inside):
+        raise _err(
+            spectra,
+            0,
+            f"no data inside 360-830 nm (the data run from {_fmt(wl[0])} to {_fmt(wl[-1])} nm)",
+            "check the wavelength unit (nm expected) and that this is a visible-light spectrum",
+        )
+    vals = vals.copy()
+    for i in range(vals.shape[0]):
+        v = vals[i, inside]
+        bad = ~np.isfinite(vals[i])
+        if bad.any():
+            k = int(np.argmax(bad))
+            raise _err(
+                spectra,
+                i,
+                f"value at {_fmt(wl[k])} nm is not a finite number",
+                "fill in or correct the value",
+            )
+        peak = float(v.max())
+        if peak <= 0:
+            raise _err(
+                spectra,
+                i,
+                "no positive value between 360 and 830 nm (all zero or negative)",
+                "check the export: the spectrum column seems empty or inverted",
+            )
+        if float(v.min()) == peak:
+            raise _err(
+                spectra,
+                i,
+                f"every value between 360 and 830 nm is the same ({_fmt(peak)})",
+                "check the export: a measured spectrum varies with wavelength",
+            )
+        low = float(v.min())
+        if low < 0:
+            if -low > NEGATIVE_CLIP_FRACTION * peak:
+                k = int(np.argmin(np.where(inside, vals[i], np.inf)))
+                raise _err(
+                    spectra,
+                    i,
+                    f"value {_fmt(low)} at {_fmt(wl[k])} nm is {(-low / peak) * 100:.1f} % of the peak "
+                    f"below zero, more than the {NEGATIVE_CLIP_FRACTION * 100:g} % lumeval treats as noise",
+                    "check the dark/baseline subtraction of the measurement",
+                )
+            n_neg = int(np.sum(vals[i] < 0))
+            notes[i].append(
+                f"{n_neg} value(s) below zero (down to {low:.3g}, {(-low / peak) * 100:.2g} % of the peak) "
+                "treated as noise and set to zero"
+            )
+            vals[i] = np.maximum(vals[i], 0.0)
+    return vals
+
+
+def _on_integer_grid(wl: np.ndarray) -> bool:
+    return bool(np.allclose(wl, np.round(wl), rtol=0, atol=1e-9))
+
+
+def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
+    wl = np.asarray(spectra.wavelengths_nm, dtype=float)
+    vals = np.array(spectra.values, dtype=float)
+    notes = [list(n) for n in spectra.notes]
+    n = len(spectra)
+    if wl.size < 2 or not np.all(np.isfinite(wl)):
+        raise _err(spectra, 0, "the wavelengths are missing or not finite numbers", "check the wavelength column")
+    d = np.diff(wl)
+    if np.all(d < 0):
+        order = np.argsort(wl)
+        wl, vals = wl[order], vals[:, order]
+        for k in range(n):
+            notes[k].append("wavelengths were in descending order; sorted ascending")
+        d = np.diff(wl)
+    if not np.all(d > 0):
+        k = int(np.argmax(d <= 0))
+        raise _err(
+            spectra,
+            0,
+            f"wavelengths are not strictly increasing ({_fmt(wl[k])} nm is followed by {_fmt(wl[k + 1])} nm)",
+            "sort the data by wavelength and remove duplicate rows",
+        )
+
+    vals = _check_values(spectra, wl, vals, notes)
+
+    # coverage check on the raw data (after cropping to 360-830)
+    lo = max(wl[0], CIE_MIN_NM)
+    hi = min(wl[-1], CIE_MAX_NM)
+    if lo > MAX_START_NM or hi < MIN_END_NM:
+        which = []
+        if lo > MAX_START_NM:
+            which.append(f"start at {_fmt(lo)} nm (after {_fmt(MAX_START_NM)} nm)")
+        if hi < MIN_END_NM:
+            which.append(f"end at {_fmt(hi)} nm (before {_fmt(MIN_END_NM)} nm)")
+        raise _err(
+            spectra,
+            0,
+            "the data " + " and ".join(which) + ": too short to compute the colour figures honestly",
+            "measure or export at least 400-700 nm, ideally 380-780 nm",
+        )
+
+    # spacing inside the used range
+    used = (wl >= CIE_MIN_NM - 1e-9) & (wl <= CIE_MAX_NM + 1e-9)
+    idx = np.flatnonzero(used)
+    i0, i1 = idx[0], idx[-1]
+    dd = np.diff(wl[idx[0] : idx[-1] + 1]) if idx.size > 1 else np.array([np.inf])
+    max_gap = float(dd.max())
+    if max_gap > MAX_SPACING_NM + 1e-9:
+        k = idx[0] + int(np.argmax(dd))
+        raise _err(
+            spectra,
+            0,
+            f"a gap of {_fmt(max_gap)} nm between {_fmt(wl[k])} and {_fmt(wl[k + 1])} nm: spacing "
+            f"coarser than {_fmt(MAX_SPACING_NM)} nm cannot resolve lamp spectra",
+            "measure or export at 5 nm spacing or finer (1 nm preferred)",
+        )
+    uniform = bool(np.allclose(d, d[0], rtol=0, atol=1e-6))
+    if max_gap > WARN_SPACING_NM + 1e-9:
+        for k in range(n):
+            notes[k].append(
+                f"data spacing is {_fmt(max_gap)} nm, coarser than the 5 nm CIE 15 recommends: "
+                "narrow emission peaks may be misrepresented"
+            )
+
+    step = float(d[0])
+    as_measured = uniform and (abs(step - 1) < 1e-9 or abs(step - 5) < 1e-9) and _on_integer_grid(wl)
+    if as_measured:
+        keep = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
+        wl_new, vals_new = np.round(wl[keep]), vals[:, keep]
+        h = step
+    else:
+        h = 1.0
+        src_wl, src_vals = wl[i0 : i1 + 1], vals[:, i0 : i1 + 1]
+        start = np.ceil(src_wl[0] - 1e-9)
+        end = np.floor(src_wl[-1] + 1e-9)
+        wl_new = np.arange(start, end + 0.5, 1.0)
+        if uniform and src_wl.size >= 6:
+            vals_new = sprague(src_wl, src_vals, wl_new)
+            how = f"uniform {_fmt(step)} nm data interpolated to 1 nm (Sprague, CIE 167:2005)"
+        else:
+            vals_new = cubic_spline(src_wl, src_vals, wl_new)
+            how = "irregularly spaced data interpolated to 1 nm (cubic spline, CIE 15:2004 practice)"
+        for k in range(n):
+            notes[k].append(how)
+        neg = vals_new < 0
+        for k in range(n):
+            if neg[k].any():
+                notes[k].append(
+                    f"interpolation overshot below zero at {int(neg[k].sum())} wavelength(s) "
+                    f"(down to {vals_new[k].min():.3g}); set to zero"
+                )
+        vals_new = np.maximum(vals_new, 0.0)
+    if wl[0] < CIE_MIN_NM - 1e-9 or wl[-1] > CIE_MAX_NM + 1e-9:
+        parts = []
+        if wl[0] < CIE_MIN_NM - 1e-9:
+            parts.append(f"below 360 nm (from {_fmt(wl[0])} nm)")
+        if wl[-1] > CIE_MAX_NM + 1e-9:
+            parts.append(f"above 830 nm (to {_fmt(wl[-1])} nm)")
+        for k in range(n):
+            notes[k].append("data " + " and ".join(parts) + " dropped (CIE 15 range 360-830 nm)")
+
+    wl_new, vals_new = _extend(wl_new, vals_new, h, REQUIRED_START_NM, REQUIRED_END_NM, notes)
+    return SpectrumSet(
+        wl_new,
+        vals_new,
+        spectra.names,
+        spectra.sources,
+        tuple(tuple(x) for x in notes),
+        spectra.metadata,
+    )
+
+
+def _extend(wl, vals, h, start, end, notes):
+    """Extend (N, W) data on a uniform grid of step h by constant end values to cover start..end."""
+    n_lo = int(np.ceil((wl[0] - start) / h - 1e-9)) if wl[0] > start else 0
+    n_hi = int(np.ceil((end - wl[-1]) / h - 1e-9)) if wl[-1] < end else 0
+    if n_lo == 0 and n_hi == 0:
+        return wl, vals
+    lo_wl = wl[0] - h * np.arange(n_lo, 0, -1)
+    hi_wl = wl[-1] + h * np.arange(1, n_hi + 1)
+    new_wl = np.concatenate([lo_wl, wl, hi_wl])
+    new_vals = np.concatenate(
+        [np.repeat(vals[:, :1], n_lo, axis=1), vals, np.repeat(vals[:, -1:], n_hi, axis=1)], axis=1
+    )
+    parts = []
+    if n_lo:
+        parts.append(f"down to {_fmt(new_wl[0])} nm (data start at {_fmt(wl[0])} nm)")
+    if n_hi:
+        parts.append(f"up to {_fmt(new_wl[-1])} nm (data end at {_fmt(wl[-1])} nm)")
+    for k in range(len(notes)):
+        notes[k].append(
+            "EXTRAPOLATED: spectrum extended "
+            + " and ".join(parts)
+            + " by repeating the end values (CIE 15:2004 §7.2.2.1); figures depend on this assumption"
+        )
+    return new_wl, new_vals
+
+
+def prepare(spectra: SpectrumSet | Sequence[SpectrumSet]) -> SpectrumSet:
+    """Bring spectra onto the computation grid (see the module docstring for every rule).
+
+    Parameters
+    ----------
+    spectra : SpectrumSet or sequence of SpectrumSet
+        Raw spectra as read. Several sets may have different grids.
+
+    Returns
+    -------
+    SpectrumSet
+        Values (N, W) on a uniform 1 nm or 5 nm integer grid inside 360-830 nm covering at
+        least 380-780 nm; ``notes`` say what was done to each spectrum.
+
+    Raises
+    ------
+    InputError
+        When a spectrum cannot be used honestly (naming its file and column).
+    """
+    if isinstance(spectra, SpectrumSet):
+        return _prepare_one(spectra)
+    sets = [_prepare_one(s) for s in spectra]
+    if not sets:
+        raise ValueError("no spectra to prepare")
+    if len(sets) == 1:
+        return sets[0]
+    first = sets[0].wavelengths_nm
+    if all(s.wavelengths_nm.shape == first.shape and np.array_equal(s.wavelengths_nm, first) for s in sets):
+        return SpectrumSet.concatenate(sets)
+    lo = min(float(s.wavelengths_nm[0]) for s in sets)
+    hi = max(float(s.wavelengths_nm[-1]) for s in sets)
+    grid = np.arange(lo, hi + 0.5, 1.0)
+    out = []
+    for s in sets:
+        wl = s.wavelengths_nm
+        notes = [list(x) for x in s.notes]
+        if not (s.spacing_nm == 1.0 and wl[0] == lo and wl[-1] == hi):
+            inner = grid[(grid >= wl[0]) & (grid <= wl[-1])]
+            if s.spacing_nm == 1.0:
+                vals = s.values[:, np.searchsorted(wl, inner)]
+            else:
+                vals = np.maximum(sprague(wl, s.values, inner), 0.0)
+                for k in range(len(s)):
+                    notes[k].append(
+                        f"{_fmt(s.spacing_nm)} nm data interpolated to 1 nm (Sprague, CIE 167:2005) "
+                        "to share one grid with the other spectra evaluated with it"
+                    )
+            inner_wl, vals = _extend(inner, vals, 1.0, lo, hi, notes)
+            s = SpectrumSet(inner_wl, vals, s.names, s.sources, tuple(tuple(x) for x in notes), s.metadata)
+        out.append(s)
+    return SpectrumSet.concatenate(out)

@@ -1,0 +1,115 @@
+"""Read spectrum files of any supported kind: the public entry points.
+
+* :func:`read_spectra` reads one file (CSV/text, IES TM-27 XML or lumeval JSON, recognised by
+  content, then by extension) into a raw :class:`SpectrumSet`.
+* :func:`read_many` reads many files; a bad file never stops the others.
+
+Reading does not judge whether the data are fit to compute with: call
+:func:`lumeval.spectra.prepare.prepare` (or use ``read_many(..., prepared=True)``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from pathlib import Path
+
+from ..errors import InputError
+from .model import SpectrumSet
+from .text import MAX_TEXT_BYTES, _decode, _read_bytes, parse_text
+
+XML_SUFFIXES = {".xml", ".spdx", ".tm27"}
+JSON_SUFFIXES = {".json"}
+
+
+def _kind(path: Path, raw: bytes) -> str:
+    head = raw[:512].lstrip(b"\xef\xbb\xbf \t\r\n")
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):
+        # UTF-16: peek at the decoded start
+        try:
+            head = raw[:1024].decode("utf-16", errors="ignore").lstrip().encode("utf-8")
+        except Exception:  # pragma: no cover - defensive
+            head = b""
+    if head.startswith(b"<"):
+        return "xml"
+    if head.startswith((b"{", b"[")):
+        return "json"
+    suffix = path.suffix.lower()
+    if suffix in XML_SUFFIXES:
+        return "xml"
+    if suffix in JSON_SUFFIXES:
+        return "json"
+    return "text"
+
+
+def read_spectra(path: str | Path) -> SpectrumSet:
+    """Read one spectrum file.
+
+    Parameters
+    ----------
+    path : str or Path
+        A CSV/text file (two columns, or a wavelength column and one column per spectrum),
+        an IES TM-27 XML file, or a lumeval JSON spectra file. See ``docs/input-files.md``.
+
+    Returns
+    -------
+    SpectrumSet
+        The spectra as read: ascending wavelengths in nm, values as given. ``sources`` are
+        ``path`` (one spectrum) or ``path#column``; ``notes`` say what reading changed
+        (sorting, unit conversion); ``metadata`` holds the file's key/value header lines and
+        ``lumeval.*`` keys describing how it was read (``lumeval.scale`` is ``absolute``,
+        ``relative`` or ``unknown``).
+
+    Raises
+    ------
+    InputError
+        ``FILE:LINE: what is wrong — what would fix it``.
+    """
+    p = Path(path)
+    file = str(path)
+    raw = _read_bytes(p, MAX_TEXT_BYTES)
+    kind = _kind(p, raw)
+    if kind == "xml":
+        from .tm27 import parse_tm27
+
+        return parse_tm27(raw, file)
+    if kind == "json":
+        from .jsonio import parse_json
+
+        return parse_json(raw, file)
+    return parse_text(_decode(raw, file), file)
+
+
+def read_many(
+    paths: Iterable[str | Path], *, prepared: bool = False
+) -> tuple[list[SpectrumSet | None], list[tuple[str, InputError]]]:
+    """Read many files; a file that fails never stops the others.
+
+    Parameters
+    ----------
+    paths : iterable of str or Path
+    prepared : bool
+        Also run :func:`~lumeval.spectra.prepare.prepare` on each file's spectra (so a file
+        whose data cannot be used is reported here rather than later).
+
+    Returns
+    -------
+    sets : list of SpectrumSet or None
+        One entry per path, in order; None where the file failed.
+    errors : list of (str, InputError)
+        The failed paths and their errors, in order.
+    """
+    sets: list[SpectrumSet | None] = []
+    errors: list[tuple[str, InputError]] = []
+    for path in paths:
+        try:
+            s = read_spectra(path)
+            if prepared:
+                from .prepare import prepare
+
+                s = prepare(s)
+        except InputError as exc:
+            sets.append(None)
+            errors.append((str(path), exc))
+        else:
+            sets.append(s)
+    return sets, errors

@@ -1,0 +1,544 @@
+"""Read spectra from delimited text (CSV and its relatives).
+
+The rules are documented for users in ``docs/input-files.md``; in short:
+
+* **Encoding**: UTF-8 (with or without BOM), UTF-16 with BOM; anything else is read as
+  Windows-1252 / Latin-1 (so a ``µ`` written by an old instrument survives).
+* **Lines**: LF, CRLF or CR. Blank lines are ignored. Lines starting with ``#``, ``%`` or
+  ``//`` are comments.
+* **Delimiter**: tab, semicolon, comma or runs of white space, chosen as the one under which the
+  most lines read as rows of two or more numbers (ties: tab, ``;``, ``,``, white space).
+* **Decimal comma**: accepted when the delimiter is not a comma and every decimal mark in the
+  data is a comma. A file mixing ``.`` and ``,`` marks is refused (thousands separators are not
+  supported).
+* **Layout**: optional lines of metadata, an optional header row (same number of cells as the
+  data, first cell not a number), the data rows (first column wavelength, then one column per
+  spectrum), optional trailing text. Key/value-looking lines (``key: value``, ``key = value``,
+  ``key;value``) become metadata.
+* **Units**: the wavelength column's header (or a ``wavelength unit`` metadata line) may say
+  ``nm``, ``µm``/``um`` or ``Å``; other units (cm⁻¹, THz, eV) are refused.
+* **Order**: ascending or descending (sorted, with a note); duplicate or non-monotonic
+  wavelengths are an error naming the line.
+* **Cells**: every cell must be a finite number; an empty, ``NaN``, ``N/A`` or ``inf`` cell is an
+  error naming the line and column.
+
+Nothing here judges whether the data are good enough to compute with: that is
+:func:`lumeval.spectra.prepare.prepare`.
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from .model import SpectrumSet
+
+#: Refuse files larger than this many bytes (a spectrum file is kilobytes; 64 MB is a lot run).
+MAX_TEXT_BYTES = 64 * 1024 * 1024
+
+_NUMBER = re.compile(r"^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
+_MISSING = {"", "nan", "na", "n/a", "n.a.", "-", "--", "null", "none", "?"}
+_INFINITE = {"inf", "+inf", "-inf", "infinity", "+infinity", "-infinity"}
+_COMMENT_PREFIXES = ("#", "%", "//")
+_DELIMITERS = ("\t", ";", ",", None)  # None = runs of white space
+_DELIM_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", None: "white space"}
+_LINE_SPLIT = re.compile(r"\r\n|\r|\n")
+_KEY_VALUE = re.compile(r"^\s*([^:=]{1,80}?)\s*[:=]\s*(.*?)\s*$")
+
+# unit hints ---------------------------------------------------------------------------------
+_WL_UNITS = [
+    (re.compile(r"(?<![a-z])nm\b|nanomet", re.I), "nm", 1.0),
+    (re.compile(r"[µμ]m\b|(?<![a-z])um\b|micron|micromet", re.I), "µm", 1000.0),
+    (re.compile(r"Å|angstr", re.I), "Å", 0.1),
+]
+_WL_BAD_UNITS = re.compile(r"cm\s*[-−⁻]\s*1|cm\^-1|wavenumber|thz|\bhz\b|\bev\b|electron.?volt", re.I)
+_ABSOLUTE = re.compile(
+    r"(?<![a-z])[mµμun]?w\s*(/|·|\*|\s|per|m)|watt|(?<![a-z])[mµμu]?w\b|lm\b|cd\b|lux|lx\b", re.I
+)
+_RELATIVE = re.compile(r"relative|\brel\b|a\.\s*u\.|\bau\b|arb|normali[sz]ed|%|percent|counts", re.I)
+
+
+def _decode(raw: bytes, file: str) -> str:
+    if raw.startswith(b"\xef\xbb\xbf"):
+        try:
+            return raw[3:].decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise InputError(
+                f"starts with a UTF-8 byte-order mark but byte {exc.start + 3} is not UTF-8",
+                file=file,
+                fix="save the file as UTF-8",
+            ) from None
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            return raw.decode("utf-16")
+        except UnicodeDecodeError:
+            raise InputError(
+                "starts with a UTF-16 byte-order mark but is not valid UTF-16",
+                file=file,
+                fix="save the file as UTF-8",
+            ) from None
+    if b"\x00" in raw:
+        raise InputError(
+            "contains NUL bytes: this is a binary file, not a text spectrum file",
+            file=file,
+            fix="export the spectrum as CSV/text, IES TM-27 XML or lumeval JSON",
+        )
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError:
+        return raw.decode("cp1252", errors="strict") if _cp1252_ok(raw) else raw.decode("latin-1")
+
+
+def _cp1252_ok(raw: bytes) -> bool:
+    try:
+        raw.decode("cp1252")
+        return True
+    except UnicodeDecodeError:
+        return False
+
+
+def _split(line: str, delim: str | None) -> list[str]:
+    """Split one line into stripped cells, dropping trailing empty cells."""
+    if delim is None:
+        cells = line.split()
+    else:
+        try:
+            cells = next(csv.reader([line], delimiter=delim, quotechar='"', skipinitialspace=True))
+        except (csv.Error, StopIteration):
+            cells = line.split(delim)
+        cells = [c.strip() for c in cells]
+    while cells and cells[-1] == "":
+        cells.pop()
+    return cells
+
+
+def _is_number(cell: str, decimal_comma: bool) -> bool:
+    if decimal_comma and "," in cell:
+        if "." in cell or cell.count(",") > 1:
+            return False
+        cell = cell.replace(",", ".")
+    return bool(_NUMBER.match(cell))
+
+
+def _to_float(cell: str, decimal_comma: bool) -> float:
+    if decimal_comma:
+        cell = cell.replace(",", ".")
+    return float(cell)
+
+
+def _content_lines(text: str) -> list[tuple[int, str]]:
+    """(1-based line number, text) of every non-blank line."""
+    out = []
+    for i, line in enumerate(_LINE_SPLIT.split(text), start=1):
+        s = line.strip().strip("\ufeff")
+        if s:
+            out.append((i, s))
+    return out
+
+
+def _is_comment(s: str) -> bool:
+    return s.startswith(_COMMENT_PREFIXES)
+
+
+def _choose_delimiter(lines: list[tuple[int, str]]) -> tuple[str | None, int]:
+    best, best_score = None, -1
+    for d in _DELIMITERS:
+        score = 0
+        for _, s in lines:
+            if _is_comment(s) or not (s[0].isdigit() or s[0] in "+-."):
+                continue
+            cells = _split(s, d)
+            if len(cells) >= 2 and all(_is_number(c, d != ",") for c in cells):
+                score += 1
+        if score > best_score:
+            best, best_score = d, score
+    return best, best_score
+
+
+def _key_value(s: str, delim: str | None) -> tuple[str, str] | None:
+    s = s.lstrip("#%/ \t")
+    m = _KEY_VALUE.match(s)
+    if m and re.search(r"[^\W\d_]", m.group(1)):
+        return m.group(1).strip(), m.group(2).strip()
+    if delim is not None:
+        cells = _split(s, delim)
+        if len(cells) == 2 and cells[0] and re.search(r"[^\W\d_]", cells[0]) and len(cells[0]) <= 80:
+            return cells[0], cells[1]
+    return None
+
+
+def _describe_cell(cell: str) -> str:
+    c = cell.strip().lower()
+    if c == "":
+        return "an empty cell"
+    if c in _MISSING:
+        return f"a missing value ({cell!r})"
+    if c in _INFINITE:
+        return f"an infinite value ({cell!r})"
+    return f"{cell!r}, which is not a number"
+
+
+def _wavelength_unit(header_cell: str | None, meta: dict, file: str, line: int | None):
+    texts = []
+    if header_cell:
+        texts.append(header_cell)
+    for k, v in meta.items():
+        kl = k.lower()
+        if "wavelength" in kl and ("unit" in kl or kl.strip() in {"wavelength", "wavelengths"}):
+            texts.append(v)
+        elif kl in {"x unit", "x-unit", "xunit", "x units", "x axis unit"}:
+            texts.append(v)
+    for t in texts:
+        if _WL_BAD_UNITS.search(t):
+            raise InputError(
+                f"the wavelength column is given in {t!r}, which lumeval does not read",
+                file=file,
+                line=line,
+                fix="export the spectrum against wavelength in nm (or µm)",
+            )
+        for rx, name, factor in _WL_UNITS:
+            if rx.search(t):
+                return name, factor
+    return None, 1.0
+
+
+def _scale(header_cell: str | None, meta: dict) -> tuple[str, str | None]:
+    declared = meta.get("lumeval.scale")
+    if declared in {"absolute", "relative", "unknown"}:
+        return declared, meta.get("lumeval.value_unit")
+    texts = []
+    if header_cell:
+        texts.append(header_cell)
+    for k, v in meta.items():
+        kl = k.lower()
+        if kl in {"unit", "units", "y unit", "y-unit", "yunit", "y units", "scale", "spectral quantity",
+                  "spectralquantity", "quantity", "value unit", "values"}:
+            texts.append(v)
+    for t in texts:
+        if _RELATIVE.search(t):
+            return "relative", t
+        if _ABSOLUTE.search(t):
+            return "absolute", t
+    return "unknown", None
+
+
+def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
+    """Parse the decoded text of a delimited spectrum file.
+
+    Parameters
+    ----------
+    text : str
+        The file's text.
+    file : str
+        The path as the user gave it (used in messages and in ``sources``).
+    stem : str, optional
+        The display name of a single unnamed spectrum (default: the file's stem).
+
+    Returns
+    -------
+    SpectrumSet
+        Raw spectra as read (ascending wavelengths in nm), not yet prepared.
+
+    Raises
+    ------
+    InputError
+        Naming the file, the line and what would fix it.
+    """
+    stem = stem if stem is not None else Path(file).stem
+    lines = _content_lines(text)
+    if not lines:
+        raise InputError("the file is empty", file=file, fix="export the spectrum data into it")
+    delim, score = _choose_delimiter(lines)
+    if score <= 0:
+        first = next((ln for ln, s in lines if not _is_comment(s)), lines[0][0])
+        raise InputError(
+            "no rows of numbers (wavelength, value) found",
+            file=file,
+            line=first,
+            fix="give one row per wavelength: wavelength then value(s), separated by comma, "
+            "semicolon, tab or spaces",
+        )
+    non_comment = [(ln, s) for ln, s in lines if not _is_comment(s)]
+
+    # decimal mark: comma when the delimiter is not a comma and no data cell uses a point
+    def all_numeric(cells, dc):
+        return len(cells) >= 2 and all(_is_number(c, dc) for c in cells)
+
+    decimal_comma = False
+    if delim != ",":
+        saw_comma = saw_point = None
+        for ln, s in non_comment:
+            cells = _split(s, delim)
+            if not all_numeric(cells, True):
+                continue
+            for c in cells:
+                if "," in c and saw_comma is None:
+                    saw_comma = ln
+                if "." in c and saw_point is None:
+                    saw_point = ln
+        if saw_comma is not None and saw_point is not None:
+            raise InputError(
+                "the data mix decimal points and decimal commas "
+                f"(a comma on line {saw_comma}, a point on line {saw_point})",
+                file=file,
+                line=max(saw_comma, saw_point),
+                fix="use one decimal mark throughout, with no thousands separators",
+            )
+        decimal_comma = saw_comma is not None
+
+    # find the data block
+    start = next(i for i, (_, s) in enumerate(non_comment) if all_numeric(_split(s, delim), decimal_comma))
+    first_ln, first_s = non_comment[start]
+    ncols = len(_split(first_s, delim))
+    rows: list[tuple[int, list[str]]] = []
+    footer: list[tuple[int, str]] = []
+    for ln, s in non_comment[start:]:
+        cells = _split(s, delim)
+        is_row = len(cells) >= 2 and _is_number(cells[0], decimal_comma) and not footer
+        if not is_row and not footer and len(cells) >= 1 and _is_number(cells[0], decimal_comma):
+            # a wavelength with no value
+            raise InputError(
+                f"wavelength {cells[0]} has no value (the data have {ncols - 1} value column(s))",
+                file=file,
+                line=ln,
+                fix="fill in the missing value or delete the row",
+            )
+        if is_row:
+            rows.append((ln, cells))
+        else:
+            if footer or not _is_comment(s):
+                if cells and _is_number(cells[0], decimal_comma) and footer:
+                    raise InputError(
+                        f"the data are interrupted by text on line {footer[0][0]} ({footer[0][1][:40]!r})",
+                        file=file,
+                        line=footer[0][0],
+                        fix="delete that line or turn it into a comment starting with '#'",
+                    )
+                footer.append((ln, s))
+    # a footer that is followed by nothing numeric is fine; check the footer for resumed data
+    for ln, s in footer:
+        cells = _split(s, delim)
+        if len(cells) >= 2 and _is_number(cells[0], decimal_comma):
+            raise InputError(
+                f"the data are interrupted by text on line {footer[0][0]} ({footer[0][1][:40]!r})",
+                file=file,
+                line=footer[0][0],
+                fix="delete that line or turn it into a comment starting with '#'",
+            )
+
+    # header row and metadata before the data
+    before = non_comment[:start]
+    header: list[str] | None = None
+    header_ln: int | None = None
+    if before:
+        hln, hs = before[-1]
+        hcells = _split(hs, delim)
+        if delim is None and len(hcells) != ncols:
+            alt = [c.strip() for c in re.split(r"\t|\s{2,}", hs) if c.strip()]
+            if len(alt) == ncols:
+                hcells = alt
+        if len(hcells) == ncols:
+            if _is_number(hcells[0], decimal_comma):
+                bad = next((c for c in hcells if not _is_number(c, decimal_comma)), hcells[-1])
+                raise InputError(
+                    f"this looks like a data row but holds {_describe_cell(bad)}",
+                    file=file,
+                    line=hln,
+                    fix="every cell must be a number: fill in or correct it, or delete the row",
+                )
+            header = [c.strip().strip('"') for c in hcells]
+            header_ln = hln
+            before = before[:-1]
+
+    meta: dict[str, str] = {}
+    text_lines: list[str] = []
+
+    def add_meta(s: str) -> None:
+        kv = _key_value(s, delim)
+        if kv is None:
+            t = s.lstrip("#%/ \t").strip()
+            if t:
+                text_lines.append(t)
+            return
+        k, v = kv
+        if k in meta:
+            meta[k] = meta[k] + "; " + v
+        else:
+            meta[k] = v
+
+    for ln, s in lines:
+        if _is_comment(s):
+            add_meta(s)
+    for _, s in before:
+        add_meta(s)
+    for _, s in footer:
+        add_meta(s)
+    if text_lines:
+        meta["comment"] = "\n".join(text_lines)
+
+    # parse numbers
+    n_rows = len(rows)
+    data = np.empty((n_rows, ncols))
+    names_hdr = header
+    for r, (ln, cells) in enumerate(rows):
+        if len(cells) != ncols:
+            what = "fewer" if len(cells) < ncols else "more"
+            raise InputError(
+                f"this row has {len(cells)} cells, {what} than the {ncols} of the first data row "
+                f"(line {first_ln})",
+                file=file,
+                line=ln,
+                fix="give every row a wavelength and one value per spectrum column; fill in empty cells",
+            )
+        for c, cell in enumerate(cells):
+            if not _is_number(cell, decimal_comma):
+                col = (
+                    f" in column {names_hdr[c]!r}"
+                    if names_hdr and names_hdr[c]
+                    else f" in column {c + 1}"
+                )
+                raise InputError(
+                    f"{_describe_cell(cell)}{col}",
+                    file=file,
+                    line=ln,
+                    fix="every cell must be a finite number: fill in or correct it, or delete the row",
+                )
+            data[r, c] = _to_float(cell, decimal_comma)
+    if not np.all(np.isfinite(data)):
+        r, c = np.argwhere(~np.isfinite(data))[0]
+        raise InputError(
+            f"the number {rows[r][1][c]!r} in column {c + 1} is too large to represent",
+            file=file,
+            line=rows[r][0],
+            fix="correct the value",
+        )
+
+    # wavelengths: units, order
+    wl_unit, factor = _wavelength_unit(header[0] if header else None, meta, file, header_ln)
+    wl = data[:, 0] * factor
+    if factor != 1.0:
+        wl = np.round(wl, 6)
+    notes: list[str] = []
+    if wl_unit == "µm":
+        notes.append("wavelengths were given in µm and converted to nm")
+    elif wl_unit == "Å":
+        notes.append("wavelengths were given in Å and converted to nm")
+    if wl_unit is None and wl.size and np.nanmax(wl) <= 3.0 and np.nanmin(wl) > 0:
+        raise InputError(
+            f"wavelengths run from {wl.min():g} to {wl.max():g} with no unit stated: "
+            "they look like micrometres, not nanometres",
+            file=file,
+            line=header_ln or rows[0][0],
+            fix="state the unit in the wavelength column header, e.g. 'wavelength (µm)', or convert to nm",
+        )
+    if n_rows < 2:
+        raise InputError(
+            "only one data row: a spectrum needs values at many wavelengths",
+            file=file,
+            line=rows[0][0],
+            fix="export the full spectrum",
+        )
+    d = np.diff(wl)
+    if np.all(d < 0):
+        order = np.argsort(wl)
+        wl = wl[order]
+        data = data[order]
+        rows = [rows[i] for i in order]
+        notes.append("wavelengths were in descending order; sorted ascending")
+        d = np.diff(wl)
+    if not np.all(d > 0):
+        k = int(np.argmax(d <= 0))
+        ln_prev, ln_here = rows[k][0], rows[k + 1][0]
+        if d[k] == 0:
+            problem = f"wavelength {data[k + 1, 0]:g} repeats the one on line {ln_prev}"
+            fix = "delete or correct the duplicate row"
+        else:
+            problem = (
+                f"wavelength {data[k + 1, 0]:g} comes after {data[k, 0]:g} (line {ln_prev}): "
+                "wavelengths must run in one direction"
+            )
+            fix = "sort the rows by wavelength and check for pasted blocks"
+        raise InputError(problem, file=file, line=ln_here, fix=fix)
+
+    values = data[:, 1:].T
+    n = values.shape[0]
+    names: list[str] = []
+    sources: list[str] = []
+    metas: list[dict] = []
+    for j in range(n):
+        col_name = header[j + 1] if header else ""
+        if n == 1:
+            name = col_name if header and col_name and not _generic_value_name(col_name) else stem
+            src = file
+        else:
+            name = col_name or f"{stem}#{j + 1}"
+            src = f"{file}#{col_name}" if col_name else f"{file}#{j + 1}"
+        m = dict(meta)
+        scale, unit = _scale(col_name or None, meta)
+        m["lumeval.scale"] = scale
+        if unit:
+            m["lumeval.value_unit"] = unit
+        m["lumeval.wavelength_unit"] = wl_unit or "nm (assumed: no unit stated)"
+        m["lumeval.delimiter"] = _DELIM_NAMES[delim] + (" with decimal comma" if decimal_comma else "")
+        if header:
+            m["lumeval.column"] = col_name
+        names.append(name)
+        sources.append(src)
+        metas.append(m)
+    return SpectrumSet(
+        wl, values, tuple(names), tuple(sources), tuple(tuple(notes) for _ in range(n)), tuple(metas)
+    )
+
+
+_GENERIC = re.compile(
+    r"^\s*(value|values|intensity|irradiance|radiance|power|flux|spd|spectrum|data|y|s|"
+    r"spectral\s+\w+|relative\s+\w+|counts)?\s*([\[(].*[\])])?\s*$",
+    re.I,
+)
+
+
+def _generic_value_name(col: str) -> bool:
+    """True when a single value column's header is a generic label, not a spectrum name."""
+    return bool(_GENERIC.match(col))
+
+
+def read_text(path: str | Path, raw: bytes | None = None) -> SpectrumSet:
+    """Read a delimited text spectrum file (see the module docstring for the rules)."""
+    file = str(path)
+    if raw is None:
+        raw = _read_bytes(path, MAX_TEXT_BYTES)
+    return parse_text(_decode(raw, file), file)
+
+
+def _read_bytes(path: str | Path, limit: int) -> bytes:
+    file = str(path)
+    p = Path(path)
+    try:
+        size = p.stat().st_size
+        if size > limit:
+            raise InputError(
+                f"is {size / 1e6:.1f} MB, more than the {limit / 1e6:.0f} MB lumeval reads",
+                file=file,
+                fix="split the file or check that it is really a spectrum file",
+            )
+        with open(p, "rb") as fh:
+            raw = fh.read(limit + 1)
+    except FileNotFoundError:
+        raise InputError("no such file", file=file, fix="check the path") from None
+    except IsADirectoryError:
+        raise InputError("is a directory, not a file", file=file, fix="name the spectrum file") from None
+    except PermissionError:
+        raise InputError("cannot be read (permission denied)", file=file, fix="check file permissions") from None
+    except OSError as exc:
+        raise InputError(f"cannot be read ({exc.strerror or exc})", file=file, fix="check the path") from None
+    if len(raw) > limit:
+        raise InputError(
+            f"is more than the {limit / 1e6:.0f} MB lumeval reads",
+            file=file,
+            fix="split the file or check that it is really a spectrum file",
+        )
+    return raw

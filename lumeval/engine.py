@@ -177,9 +177,10 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     return XYZ, xy, uv, upvp, cct, cri, fid, phot
 
 
-def _warnings_for(spectra: SpectrumSet, cct, cri) -> tuple[tuple[str, ...], ...]:
+def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...], ...]:
     out = []
     dc = np.asarray(cri.dc, dtype=float)
+    fid_reason = getattr(fid, "reason", ("",) * len(spectra))
     for i in range(len(spectra)):
         w = list(spectra.notes[i])
         if cct.reason[i]:
@@ -189,6 +190,8 @@ def _warnings_for(spectra: SpectrumSet, cct, cri) -> tuple[tuple[str, ...], ...]
                 f"DC = {dc[i]:.4f} is not below {CRI_DC_LIMIT} (CIE 13.3 §5.3): the source is too far from "
                 "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
             )
+        if not cct.reason[i] and fid_reason[i]:
+            w.append(f"TM-30: {fid_reason[i]}.")
         out.append(tuple(w))
     return tuple(out)
 
@@ -246,7 +249,7 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_deta
         cri=cri,
         tm30=fid,
         photometry=phot,
-        warnings=_warnings_for(prepared, cct, cri),
+        warnings=_warnings_for(prepared, cct, cri, fid),
         run_warnings=tuple(caught_all),
         methods=METHODS,
     )

@@ -51,8 +51,12 @@ def _fmt(v, spec: str) -> str:
     if not math.isfinite(f):
         return "n/a"
     if spec == "int":
-        return f"{f:.0f}" if abs(f) >= 0.5 else "0"
-    return format(f, spec)
+        spec = ".0f"
+    text = format(f, spec)
+    # a value that rounds to zero prints without a sign ("-0" or "+0.00" would suggest a direction)
+    if float(text) == 0.0:
+        text = format(0.0, spec.replace("+", ""))
+    return text
 
 
 def _rows(ev, idx):

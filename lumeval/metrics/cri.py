@@ -1,8 +1,10 @@
 """CIE 13.3-1995 colour rendering index (Ra, R1..R14), vectorised over many spectra.
 
 Method (CIE 13.3-1995, "Method of measuring and specifying colour rendering properties of light
-sources", the Test-Colour Method; clause titles are given below, clause *numbers* are quoted
-from memory and were not re-read in the standard):
+sources", the Test-Colour Method). The standard itself was not available to us: the steps
+below are cited by the topic of the clause (titles paraphrased from memory, clause and equation
+*numbers* deliberately not given because we could not verify them); every equation was checked
+numerically against colour-science's and luxpy's independent implementations (see the tests):
 
 1. Reference illuminant (CIE 13.3 "Reference illuminant"): the Planckian radiator below 5000 K,
    a phase of CIE daylight from 5000 K, at the CCT of the test source. The CCT is lumeval's own

@@ -1,0 +1,210 @@
+"""Read criteria files (TOML, parsed with the standard library's ``tomllib``: no code runs).
+
+Every problem becomes a :class:`lumeval.errors.CriteriaError` naming the file, the line and
+the key, what is wrong and what is allowed (with the closest valid name for a typo). Unknown
+keys are errors, contradictory limits are errors; nothing is silently ignored.
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from pathlib import Path
+
+from ..errors import CriteriaError
+from .model import CLAUSE_KINDS, COMMON_KEYS, Criteria, ParseError, suggest
+
+#: Format marker: ``lumeval_criteria = 1`` (optional; other values are refused).
+FORMAT_KEY = "lumeval_criteria"
+FORMAT_VERSION = 1
+
+#: Keys of the identification block.
+IDENTIFICATION_KEYS: dict[str, str] = {
+    "project": "the project or tender the criteria belong to",
+    "lot": "the lot, batch or bid package",
+    "product": "the product reference or luminaire type",
+    "reference": "the specification clause or document reference",
+    "issued_by": "who wrote the criteria",
+    "date": "date of issue (TOML date or string)",
+    "notes": "free text",
+}
+
+TOP_LEVEL_KEYS = (FORMAT_KEY, "identification", "clause")
+
+_HEADER_AOT = re.compile(r"^\[\[\s*([^\]]+?)\s*\]\]")
+_HEADER = re.compile(r"^\[\s*([^\]]+?)\s*\]")
+_KEY = re.compile(r"""^("([^"]*)"|'([^']*)'|[A-Za-z0-9_\-]+)\s*=""")
+
+
+def locate_lines(text: str) -> dict[tuple, int]:
+    """Map TOML paths to line numbers (1-based).
+
+    Keys are ``(table,)`` for ``[table]``, ``(table, i)`` for the i-th ``[[table]]`` and the
+    same with a key appended for ``key = value`` lines. Good enough for the flat files lumeval
+    reads (tables, arrays of tables, keys); continuation lines of multi-line values are not
+    mistaken for keys because a key line must start a statement at the line's beginning.
+    """
+    out: dict[tuple, int] = {}
+    current: tuple = ()
+    counters: dict[str, int] = {}
+    in_multiline = False
+    for lineno, raw in enumerate(text.splitlines(), 1):
+        s = raw.strip()
+        if in_multiline:
+            if s.count('"""') % 2 == 1 or s.count("'''") % 2 == 1:
+                in_multiline = False
+            continue
+        if not s or s.startswith("#"):
+            continue
+        m = _HEADER_AOT.match(s)
+        if m:
+            name = m.group(1).strip().strip('"')
+            i = counters.get(name, -1) + 1
+            counters[name] = i
+            current = (name, i)
+            out.setdefault(current, lineno)
+            continue
+        m = _HEADER.match(s)
+        if m:
+            current = (m.group(1).strip().strip('"'),)
+            out.setdefault(current, lineno)
+            continue
+        m = _KEY.match(s)
+        if m:
+            key = m.group(2) if m.group(2) is not None else (m.group(3) if m.group(3) is not None else m.group(1))
+            out.setdefault(current + (key,), lineno)
+            rest = s[m.end():]
+            if rest.count('"""') % 2 == 1 or rest.count("'''") % 2 == 1:
+                in_multiline = True
+    return out
+
+
+class _Where:
+    def __init__(self, file: str, lines: dict[tuple, int]) -> None:
+        self.file, self.lines = file, lines
+
+    def line(self, path: tuple, key: str | None = None) -> int | None:
+        if key is not None and path + (key,) in self.lines:
+            return self.lines[path + (key,)]
+        return self.lines.get(path)
+
+    def error(self, path: tuple, key: str | None, problem: str, fix: str | None = None) -> CriteriaError:
+        return CriteriaError(problem, file=self.file, line=self.line(path, key), field=key, fix=fix)
+
+
+def _unknown_key(where: _Where, path: tuple, key: str, allowed, what: str, other_kinds: str = "") -> CriteriaError:
+    s = suggest(key, allowed)
+    hint = f"did you mean {s!r}? " if s else ""
+    return where.error(path, key, f"unknown key {key!r} in {what}{other_kinds}", f"{hint}allowed: {', '.join(allowed)}")
+
+
+def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
+    """Parse the text of a criteria file.
+
+    Parameters
+    ----------
+    text : str
+        TOML text.
+    file : str
+        The name used in error messages.
+
+    Returns
+    -------
+    Criteria
+
+    Raises
+    ------
+    CriteriaError
+        For any problem, with the line, the key, what is wrong and what would fix it.
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = re.search(r"line (\d+)", msg)
+        line = int(m.group(1)) if m else (max(1, len(text.splitlines())) if "end of document" in msg else None)
+        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
+        raise CriteriaError(f"not valid TOML: {problem}", file=file, line=line, fix="check quotes, brackets and `key = value` syntax") from None
+    where = _Where(file, locate_lines(text))
+
+    for key in data:
+        if key not in TOP_LEVEL_KEYS:
+            raise _unknown_key(where, (), key, TOP_LEVEL_KEYS, "the top level")
+    if FORMAT_KEY in data and data[FORMAT_KEY] != FORMAT_VERSION:
+        raise where.error((), FORMAT_KEY, f"unsupported format version {data[FORMAT_KEY]!r}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
+
+    ident_raw = data.get("identification", {})
+    if not isinstance(ident_raw, dict):
+        raise where.error((), "identification", "`identification` must be a table", "write it as [identification] with key = value lines")
+    ident: dict[str, str] = {}
+    for key, value in ident_raw.items():
+        if key not in IDENTIFICATION_KEYS:
+            raise _unknown_key(where, ("identification",), key, list(IDENTIFICATION_KEYS), "[identification]")
+        if isinstance(value, (dict, list)):
+            raise where.error(("identification",), key, "must be a single value (text or date)", f'write {key} = "..."')
+        ident[key] = str(value)
+
+    clauses_raw = data.get("clause")
+    if clauses_raw is None:
+        raise CriteriaError("the file has no clauses", file=file, fix="add at least one [[clause]] table (see `lumeval criteria new`)")
+    if not isinstance(clauses_raw, list) or not all(isinstance(c, dict) for c in clauses_raw):
+        raise where.error((), "clause", "`clause` must be an array of tables", "write each clause as a [[clause]] table")
+    if not clauses_raw:
+        raise CriteriaError("the file has no clauses", file=file, fix="add at least one [[clause]] table")
+
+    clauses = []
+    seen_ids: dict[str, int] = {}
+    kinds = list(CLAUSE_KINDS)
+    for i, table in enumerate(clauses_raw):
+        path = ("clause", i)
+        line = where.line(path)
+        kind = table.get("kind")
+        if kind is None:
+            if "figure" in table:
+                kind = "figure"
+            else:
+                raise where.error(path, None, f"clause {i + 1} has no `kind`", f"add kind = one of {', '.join(kinds)} (or give `figure` for a figure clause)")
+        if not isinstance(kind, str) or kind not in CLAUSE_KINDS:
+            s = suggest(str(kind), kinds)
+            hint = f"did you mean {s!r}? " if s else ""
+            raise where.error(path, "kind", f"unknown clause kind {kind!r}", f"{hint}allowed: {', '.join(kinds)}")
+        cls = CLAUSE_KINDS[kind]
+        allowed = list(COMMON_KEYS) + list(cls.KEYS)
+        for key in table:
+            if key not in allowed:
+                owners = [k for k, c in CLAUSE_KINDS.items() if key in c.KEYS]
+                other = f" (it belongs to kind {', '.join(repr(o) for o in owners)})" if owners else ""
+                raise _unknown_key(where, path, key, allowed, f"a {kind!r} clause", other)
+        cid = table.get("id", f"C{i + 1}")
+        if not isinstance(cid, str) or not cid.strip():
+            raise where.error(path, "id", f"must be a non-empty string, got {cid!r}", 'write e.g. id = "R9"')
+        if cid in seen_ids:
+            raise where.error(path, "id", f"duplicate clause id {cid!r} (also clause {seen_ids[cid] + 1})", "give each clause its own id")
+        seen_ids[cid] = i
+        common = {"id": cid, "line": line}
+        for key in ("label", "note"):
+            v = table.get(key, "")
+            if not isinstance(v, str):
+                raise where.error(path, key, f"must be a string, got {v!r}", f'write {key} = "..."')
+            common[key] = v
+        try:
+            clauses.append(cls.parse(table, common))
+        except ParseError as exc:
+            raise where.error(path, exc.key, exc.problem, exc.fix) from None
+    return Criteria(tuple(clauses), ident, file)
+
+
+def load_criteria(path) -> Criteria:
+    """Read and parse a criteria file (see :func:`parse_criteria`)."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise CriteriaError("no such file", file=str(path), fix="check the path given to --criteria") from None
+    except IsADirectoryError:
+        raise CriteriaError("is a directory, not a criteria file", file=str(path), fix="give the path of a .toml file") from None
+    except UnicodeDecodeError:
+        raise CriteriaError("is not UTF-8 text", file=str(path), fix="save the criteria file as UTF-8 TOML") from None
+    except OSError as exc:
+        raise CriteriaError(f"cannot be read ({exc.strerror})", file=str(path), fix="check permissions") from None
+    return parse_criteria(text, str(path))

@@ -1,0 +1,666 @@
+"""The acceptance-criteria model: clause kinds, their keys, their evaluation.
+
+A criteria file is a list of clauses. Each clause has a *kind*; each kind is a class
+registered in :data:`CLAUSE_KINDS` that declares the keys it accepts (:class:`KeySpec`),
+parses a TOML table into a frozen clause object, evaluates that clause for N spectra at once,
+and words it for a tender. New kinds plug in with :func:`register_clause_kind` (for example
+lot clauses, which declare ``SCOPE = "lot"`` and evaluate against lot statistics instead of
+per-sample figures; the loader, the ``explain`` wording and the documentation check pick
+registered kinds up without change).
+
+Evaluation is vectorised: a clause receives an *evaluation* object with ``figure(name)``
+returning arrays of shape (N,) and the attributes ``x, y, u_prime, v_prime, cct_K, duv``
+(:class:`lumeval.engine.Evaluation` provides them), and returns :class:`ClauseResult` objects
+with per-spectrum arrays.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+from typing import Any, Callable, ClassVar
+
+import numpy as np
+
+from ..engine import FIGURE_NAMES, FIGURE_UNITS
+from . import presets, regions
+from .verdicts import ClauseResult, margin_to_limits, simple_outcomes
+
+# --------------------------------------------------------------------------- figures
+
+#: What each figure is and the standard that defines it (for messages and tender wording).
+FIGURE_DESCRIPTIONS: dict[str, tuple[str, str]] = {
+    "x": ("chromaticity coordinate x", "CIE 15:2004, CIE 1931 2° observer"),
+    "y": ("chromaticity coordinate y", "CIE 15:2004, CIE 1931 2° observer"),
+    "u": ("CIE 1960 UCS coordinate u", "CIE 15:2004"),
+    "v": ("CIE 1960 UCS coordinate v", "CIE 15:2004"),
+    "u_prime": ("CIE 1976 UCS coordinate u'", "CIE 15:2004"),
+    "v_prime": ("CIE 1976 UCS coordinate v'", "CIE 15:2004"),
+    "cct_K": ("correlated colour temperature (CCT)", "CIE 15:2004; computed by Ohno (2014)"),
+    "duv": ("Duv, the signed distance from the Planckian locus in CIE 1960 (u, v)", "ANSI C78.377"),
+    "Ra": ("general colour rendering index Ra", "CIE 13.3-1995"),
+    "dc": ("CIE 13.3 chromaticity distance DC from the Planckian locus", "CIE 13.3-1995"),
+    "Rf": ("fidelity index Rf", "ANSI/IES TM-30-20 (identical to CIE 224:2017 Rf)"),
+    "Rg": ("gamut index Rg", "ANSI/IES TM-30-20"),
+    "cie2017_Rf": ("colour fidelity index Rf", "CIE 224:2017"),
+    "ler_lm_per_W": ("luminous efficacy of radiation (LER)", "CIE 15:2004 / ISO 23539, Km = 683 lm/W"),
+    "sp_ratio": ("scotopic-to-photopic (S/P) ratio", "CIE scotopic and photopic luminous efficiency functions"),
+    "melanopic_der": ("melanopic daylight (D65) efficacy ratio (melanopic DER)", "CIE S 026/E:2018"),
+    "peak_nm": ("peak wavelength of the spectrum", "common practice"),
+}
+for _i in range(1, 15):
+    FIGURE_DESCRIPTIONS[f"R{_i}"] = (f"special colour rendering index R{_i}", "CIE 13.3-1995")
+for _j in range(1, 17):
+    FIGURE_DESCRIPTIONS[f"Rf_h{_j}"] = (f"local fidelity index Rf,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
+    FIGURE_DESCRIPTIONS[f"Rcs_h{_j}"] = (f"local chroma shift Rcs,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
+    FIGURE_DESCRIPTIONS[f"Rhs_h{_j}"] = (f"local hue shift Rhs,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
+
+
+def figure_unit(name: str) -> str:
+    return FIGURE_UNITS.get(name, "")
+
+
+def suggest(name: str, choices, *, cutoff: float = 0.5) -> str | None:
+    """The closest valid name to ``name`` (difflib), case-insensitive; None when nothing is close."""
+    choices = list(choices)
+    low = {c.lower(): c for c in choices}
+    if str(name).lower() in low:
+        return low[str(name).lower()]
+    m = difflib.get_close_matches(str(name).lower(), list(low), n=1, cutoff=cutoff)
+    return low[m[0]] if m else None
+
+
+def fmt_number(v: float | None, unit: str = "") -> str:
+    """A limit or value as a human reads it (no trailing zeros; unit appended)."""
+    if v is None:
+        return "—"
+    if not np.isfinite(v):
+        return "undefined"
+    text = f"{v:.6g}" if abs(v) >= 1e-3 or v == 0 else f"{v:.2e}"
+    sp = "" if unit in ("", "%") else " "
+    return f"{text}{sp}{unit}"
+
+
+def limit_text(lower: float | None, upper: float | None, unit: str) -> str:
+    if lower is not None and upper is not None:
+        return f"{fmt_number(lower, unit)} … {fmt_number(upper, unit)}"
+    if lower is not None:
+        return f"≥ {fmt_number(lower, unit)}"
+    return f"≤ {fmt_number(upper, unit)}"
+
+
+def _cct_reasons(ev, n: int) -> tuple[str, ...] | None:
+    reasons = getattr(ev, "cct_reason", None)
+    if reasons is None or len(reasons) != n:
+        return None
+    return tuple(f"CCT undefined: {r}" if r else "" for r in reasons)
+
+
+def figure_result(
+    ev, *, clause_id: str, label: str, kind: str, figure: str, lower, upper, source: str, group: str, line
+) -> ClauseResult:
+    """Judge ``lower ≤ figure ≤ upper`` for every spectrum (simple acceptance)."""
+    m = np.asarray(ev.figure(figure), dtype=float)
+    unit = figure_unit(figure)
+    margin = margin_to_limits(m, lower, upper)
+    margin = np.where(np.isfinite(m), margin, np.nan)
+    outcome, reason = simple_outcomes(margin, _cct_reasons(ev, m.size))
+    return ClauseResult(
+        clause_id=clause_id,
+        label=label,
+        kind=kind,
+        figure=figure,
+        unit=unit,
+        measured=m,
+        lower=None if lower is None else float(lower),
+        upper=None if upper is None else float(upper),
+        limit_text=limit_text(lower, upper, unit),
+        margin=margin,
+        outcome=outcome,
+        details={},
+        reason=reason,
+        source=source,
+        group=group,
+        line=line,
+    )
+
+
+# --------------------------------------------------------------------------- registry
+
+
+@dataclass(frozen=True)
+class KeySpec:
+    """One key a clause kind accepts: its name, what values are allowed, what it means."""
+
+    name: str
+    allowed: str
+    meaning: str
+    required: bool = False
+
+
+#: Keys every clause accepts, whatever its kind.
+COMMON_KEYS: dict[str, KeySpec] = {
+    k.name: k
+    for k in (
+        KeySpec("kind", "one of the clause kinds", "what kind of requirement this is (may be omitted when `figure` is given)"),
+        KeySpec("id", "non-empty string, unique in the file", "a short name for the clause in reports (default: C1, C2, ...)"),
+        KeySpec("label", "string", "the requirement in your own words, shown in reports"),
+        KeySpec("note", "string", "free text carried into the tender wording"),
+    )
+}
+
+
+class ParseError(Exception):
+    """Raised by clause parsers; the loader turns it into a CriteriaError with the line."""
+
+    def __init__(self, key: str | None, problem: str, fix: str | None = None) -> None:
+        super().__init__(problem)
+        self.key, self.problem, self.fix = key, problem, fix
+
+
+class ClauseKind:
+    """Base class of clause kinds. Subclasses are frozen dataclasses.
+
+    Class attributes
+    ----------------
+    KIND : str
+        The value of ``kind`` in the criteria file.
+    TITLE : str
+        A short title for documentation.
+    SCOPE : str
+        ``"sample"`` (judged per spectrum) or, for future kinds, ``"lot"``.
+    KEYS : dict of str -> KeySpec
+        Kind-specific keys (the :data:`COMMON_KEYS` are accepted too).
+    """
+
+    KIND: ClassVar[str] = ""
+    TITLE: ClassVar[str] = ""
+    SCOPE: ClassVar[str] = "sample"
+    KEYS: ClassVar[dict[str, KeySpec]] = {}
+
+    # set by every subclass as dataclass fields
+    clause_id: str
+    label: str
+    note: str
+    line: int | None
+
+    @classmethod
+    def parse(cls, table: dict, common: dict) -> "ClauseKind":  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def evaluate(self, ev) -> tuple[ClauseResult, ...]:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def tender_text(self) -> str:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def sources(self) -> tuple[str, ...]:
+        return ()
+
+
+CLAUSE_KINDS: dict[str, type[ClauseKind]] = {}
+
+
+def register_clause_kind(cls: type[ClauseKind]) -> type[ClauseKind]:
+    """Register a clause kind (usable as a class decorator)."""
+    if not cls.KIND:
+        raise ValueError("a clause kind needs KIND")
+    overlap = set(cls.KEYS) & set(COMMON_KEYS)
+    if overlap:
+        raise ValueError(f"clause kind {cls.KIND!r} redefines common keys {sorted(overlap)}")
+    CLAUSE_KINDS[cls.KIND] = cls
+    return cls
+
+
+# --------------------------------------------------------------------------- value helpers
+
+
+def is_number(v: Any) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def number(table: dict, key: str, *, positive: bool = False, allow_zero: bool = True) -> float | None:
+    if key not in table:
+        return None
+    v = table[key]
+    if not is_number(v):
+        raise ParseError(key, f"must be a number, got {v!r}", "write a plain number, e.g. 90 or 0.0035")
+    v = float(v)
+    if not np.isfinite(v):
+        raise ParseError(key, f"must be a finite number, got {v}", "write a finite number")
+    if positive and (v < 0 or (v == 0 and not allow_zero)):
+        raise ParseError(key, f"must be greater than zero, got {v:g}", "write a positive number")
+    return v
+
+
+def string(table: dict, key: str) -> str | None:
+    if key not in table:
+        return None
+    v = table[key]
+    if not isinstance(v, str):
+        raise ParseError(key, f"must be a string, got {v!r}", f'write it in quotes, e.g. {key} = "..."')
+    return v
+
+
+# --------------------------------------------------------------------------- figure clauses
+
+
+@register_clause_kind
+@dataclass(frozen=True)
+class FigureClause(ClauseKind):
+    """A minimum, maximum or range on any figure lumeval computes (CCT band, Duv band, Ra, R9 ...)."""
+
+    KIND: ClassVar[str] = "figure"
+    TITLE: ClassVar[str] = "Minimum, maximum or range on one figure"
+    KEYS: ClassVar[dict[str, KeySpec]] = {
+        k.name: k
+        for k in (
+            KeySpec("figure", "a figure name (see the list of figures)", "the figure judged, e.g. \"R9\", \"cct_K\", \"duv\"", True),
+            KeySpec("min", "number", "lowest acceptable value (inclusive)"),
+            KeySpec("max", "number", "highest acceptable value (inclusive)"),
+            KeySpec("range", "array of two numbers [low, high]", "acceptable range (inclusive); instead of min and max"),
+        )
+    }
+
+    clause_id: str
+    label: str
+    note: str
+    line: int | None
+    figure: str
+    lower: float | None
+    upper: float | None
+
+    @classmethod
+    def parse(cls, table: dict, common: dict) -> "FigureClause":
+        fig = table.get("figure")
+        if fig is None:
+            raise ParseError(None, "a figure clause needs `figure`", 'add e.g. figure = "R9"')
+        if not isinstance(fig, str):
+            raise ParseError("figure", f"must be a figure name in quotes, got {fig!r}", 'write e.g. figure = "R9"')
+        if fig not in FIGURE_NAMES:
+            s = suggest(fig, FIGURE_NAMES)
+            hint = f"did you mean {s!r}? " if s else ""
+            raise ParseError("figure", f"unknown figure {fig!r}", f"{hint}allowed: {', '.join(_figure_summary())}")
+        lo, hi = number(table, "min"), number(table, "max")
+        if "range" in table:
+            if lo is not None or hi is not None:
+                raise ParseError("range", "`range` cannot be combined with `min` or `max`", "use either range = [low, high] or min/max")
+            r = table["range"]
+            if not (isinstance(r, list) and len(r) == 2 and all(is_number(v) for v in r)):
+                raise ParseError("range", f"must be an array of two numbers, got {r!r}", "write e.g. range = [2870, 3220]")
+            lo, hi = float(r[0]), float(r[1])
+            if not (np.isfinite(lo) and np.isfinite(hi)):
+                raise ParseError("range", "limits must be finite numbers", "write finite numbers")
+            if lo > hi:
+                raise ParseError("range", f"low limit {lo:g} is above high limit {hi:g}", "write range = [low, high] with low ≤ high")
+        elif lo is None and hi is None:
+            raise ParseError(None, f"clause on {fig!r} has no limit", "add min = ..., max = ... or range = [low, high]")
+        if lo is not None and hi is not None and lo > hi:
+            raise ParseError("min", f"min = {lo:g} is above max = {hi:g}", "the limits contradict each other; swap or correct them")
+        unit = figure_unit(fig)
+        label = common["label"] or f"{fig} {limit_text(lo, hi, unit)}"
+        return cls(common["id"], label, common["note"], common["line"], fig, lo, hi)
+
+    def evaluate(self, ev) -> tuple[ClauseResult, ...]:
+        desc, std = FIGURE_DESCRIPTIONS.get(self.figure, (self.figure, ""))
+        return (
+            figure_result(
+                ev,
+                clause_id=self.clause_id,
+                label=self.label,
+                kind=self.KIND,
+                figure=self.figure,
+                lower=self.lower,
+                upper=self.upper,
+                source=std,
+                group=self.clause_id,
+                line=self.line,
+            ),
+        )
+
+    def tender_text(self) -> str:
+        desc, std = FIGURE_DESCRIPTIONS.get(self.figure, (self.figure, ""))
+        unit = figure_unit(self.figure)
+        if self.lower is not None and self.upper is not None:
+            req = f"shall be between {fmt_number(self.lower, unit)} and {fmt_number(self.upper, unit)} inclusive"
+        elif self.lower is not None:
+            req = f"shall be at least {fmt_number(self.lower, unit)}"
+        else:
+            req = f"shall not exceed {fmt_number(self.upper, unit)}"
+        return f"The {desc} (`{self.figure}`, {std}) {req}."
+
+    def sources(self) -> tuple[str, ...]:
+        return (FIGURE_DESCRIPTIONS.get(self.figure, ("", ""))[1],)
+
+
+def _figure_summary() -> list[str]:
+    return ["x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R1..R14", "dc", "Rf", "Rg",
+            "cie2017_Rf", "Rf_h1..Rf_h16", "Rcs_h1..Rcs_h16", "Rhs_h1..Rhs_h16", "ler_lm_per_W", "sp_ratio",
+            "melanopic_der", "peak_nm"]
+
+
+# --------------------------------------------------------------------------- ANSI quadrangle
+
+
+@register_clause_kind
+@dataclass(frozen=True)
+class AnsiQuadrangleClause(ClauseKind):
+    """Chromaticity inside the ANSI C78.377-2017 quadrangle of a nominal CCT category."""
+
+    KIND: ClassVar[str] = "ansi_quadrangle"
+    TITLE: ClassVar[str] = "Inside an ANSI C78.377-2017 nominal-CCT quadrangle"
+    KEYS: ClassVar[dict[str, KeySpec]] = {
+        k.name: k
+        for k in (
+            KeySpec(
+                "nominal_cct",
+                'one of 2200, 2500, 2700, 3000, 3500, 4000, 4500, 5000, 5700, 6500, or "flexible"',
+                "the nominal CCT category of ANSI C78.377-2017 Table 1",
+                True,
+            ),
+            KeySpec("target_cct_K", "number, 2200 … 7000 (only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
+            KeySpec("tolerance_K", "positive number (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
+        )
+    }
+
+    clause_id: str
+    label: str
+    note: str
+    line: int | None
+    nominal: int | None
+    target_cct_K: float | None
+    tolerance_K: float | None
+
+    @classmethod
+    def parse(cls, table: dict, common: dict) -> "AnsiQuadrangleClause":
+        nom = table.get("nominal_cct")
+        allowed = ", ".join(str(k) for k in regions.ANSI_C78377_2017) + ', "flexible"'
+        if nom is None:
+            raise ParseError(None, "an ansi_quadrangle clause needs `nominal_cct`", f"add nominal_cct = one of {allowed}")
+        tgt, tol = number(table, "target_cct_K"), number(table, "tolerance_K", positive=True, allow_zero=False)
+        if isinstance(nom, str) and nom.lower() == "flexible":
+            if tgt is None:
+                raise ParseError(None, 'nominal_cct = "flexible" needs `target_cct_K`', "add target_cct_K = e.g. 3800")
+            lo, hi = regions.ANSI_FLEXIBLE_RANGE_K
+            if not lo <= tgt <= hi:
+                raise ParseError("target_cct_K", f"{tgt:g} K is outside the flexible range {lo:.0f}-{hi:.0f} K", f"write a value between {lo:.0f} and {hi:.0f}")
+            label = common["label"] or f"inside ANSI C78.377-2017 flexible {tgt:.0f} K quadrangle"
+            return cls(common["id"], label, common["note"], common["line"], None, tgt, tol)
+        if not (is_number(nom) and float(nom) in regions.ANSI_C78377_2017):
+            raise ParseError("nominal_cct", f"{nom!r} is not a nominal CCT category of ANSI C78.377-2017", f"allowed: {allowed}")
+        for k in ("target_cct_K", "tolerance_K"):
+            if k in table:
+                raise ParseError(k, f"`{k}` applies only to a flexible category", f'remove it, or set nominal_cct = "flexible"')
+        label = common["label"] or f"inside ANSI C78.377-2017 {int(nom)} K quadrangle"
+        return cls(common["id"], label, common["note"], common["line"], int(nom), None, None)
+
+    @property
+    def quadrangle(self) -> regions.Quadrangle:
+        if self.nominal is not None:
+            return regions.ansi_quadrangle(self.nominal)
+        return regions.ansi_flexible_quadrangle(self.target_cct_K, self.tolerance_K)
+
+    def evaluate(self, ev) -> tuple[ClauseResult, ...]:
+        q = self.quadrangle
+        upvp = np.stack([np.asarray(ev.u_prime, float), np.asarray(ev.v_prime, float)], axis=-1)
+        margin = q.margin(upvp)
+        outcome, reason = simple_outcomes(margin)
+        cct, duv = np.asarray(ev.cct_K, float), np.asarray(ev.duv, float)
+        lo, hi = q.cct_range_K
+        lim = (
+            f"inside {q.name} quadrangle: CCT {lo:.0f}–{hi:.0f} K, Duv {q.duv_edges[0, 0]:+.4f}…{q.duv_edges[0, 1]:+.4f} "
+            f"at {lo:.0f} K and {q.duv_edges[1, 0]:+.4f}…{q.duv_edges[1, 1]:+.4f} at {hi:.0f} K"
+        )
+        return (
+            ClauseResult(
+                clause_id=self.clause_id,
+                label=self.label,
+                kind=self.KIND,
+                figure="u'v'",
+                unit="Δu'v'",
+                measured=margin,
+                lower=0.0,
+                upper=None,
+                limit_text=lim,
+                margin=margin,
+                outcome=outcome,
+                details={"cct_K": cct, "duv": duv, "u_prime": upvp[:, 0], "v_prime": upvp[:, 1], "delta_upvp": margin},
+                reason=reason,
+                source=q.source,
+                group=self.clause_id,
+                line=self.line,
+            ),
+        )
+
+    def tender_text(self) -> str:
+        q = self.quadrangle
+        lo, hi = q.cct_range_K
+        if self.nominal is not None:
+            cat = regions.ANSI_C78377_2017[self.nominal]
+            what = (
+                f"the {self.nominal} K nominal CCT category of ANSI C78.377-2017 (Table 1: target CCT "
+                f"{cat.target_cct_K:.0f} ± {cat.tolerance_K:.0f} K, target Duv {cat.target_duv:+.4f} ± 0.006)"
+            )
+        else:
+            what = f"the ANSI C78.377-2017 flexible-CCT quadrangle for {self.target_cct_K:.0f} K (CCT {lo:.0f}–{hi:.0f} K)"
+        return (
+            f"The chromaticity shall lie inside the quadrangle of {what}, with corners at CCT {lo:.0f} K and "
+            f"{hi:.0f} K and Duv equal to the standard's flexible-CCT target at each edge ± 0.006."
+        )
+
+    def sources(self) -> tuple[str, ...]:
+        return (regions.ANSI_EDITION + " Table 1", "Ohno (2014) LEUKOS 10(1):47-55 for CCT/Duv")
+
+
+# --------------------------------------------------------------------------- SDCM ellipse
+
+
+@register_clause_kind
+@dataclass(frozen=True)
+class SdcmClause(ClauseKind):
+    """Chromaticity within n steps (SDCM) of a colour-matching ellipse."""
+
+    KIND: ClassVar[str] = "sdcm"
+    TITLE: ClassVar[str] = "Within n steps of an SDCM (MacAdam-type) ellipse"
+    KEYS: ClassVar[dict[str, KeySpec]] = {
+        k.name: k
+        for k in (
+            KeySpec("max_steps", "positive number", "largest acceptable number of steps from the centre", True),
+            KeySpec("centre", '"F6500", "F5000", "F4000", "F3500", "F3000" or "F2700"', "an IEC 60081 colour centre with its ellipse"),
+            KeySpec("macadam1942", "integer 1 … 25", "one of MacAdam's (1942) 25 ellipses (Wyszecki & Stiles Table 2(5.4.1))"),
+            KeySpec("centre_xy", "array of two numbers [x, y]", "your own centre (CIE 1931 x, y); needs g11, g12, g22"),
+            KeySpec("g11", "number", "coefficient of Δx² of your 1-step ellipse"),
+            KeySpec("g12", "number", "coefficient of Δx·Δy (the form is g11 Δx² + 2 g12 Δx Δy + g22 Δy²)"),
+            KeySpec("g22", "number", "coefficient of Δy² of your 1-step ellipse"),
+        )
+    }
+
+    clause_id: str
+    label: str
+    note: str
+    line: int | None
+    ellipse: regions.SdcmEllipse
+    max_steps: float
+
+    @classmethod
+    def parse(cls, table: dict, common: dict) -> "SdcmClause":
+        steps = number(table, "max_steps", positive=True, allow_zero=False)
+        if steps is None:
+            raise ParseError(None, "an sdcm clause needs `max_steps`", "add max_steps = e.g. 3")
+        given = [k for k in ("centre", "macadam1942", "centre_xy") if k in table]
+        if len(given) != 1:
+            raise ParseError(
+                given[1] if len(given) > 1 else None,
+                "give exactly one of `centre`, `macadam1942` or `centre_xy`" + (f" (found {', '.join(given)})" if given else ""),
+                'e.g. centre = "F3000", or centre_xy = [0.44, 0.40] with g11, g12, g22',
+            )
+        gkeys = [k for k in ("g11", "g12", "g22") if k in table]
+        if given[0] != "centre_xy" and gkeys:
+            raise ParseError(gkeys[0], f"`{gkeys[0]}` applies only with `centre_xy`", "remove it, or give your own centre_xy")
+        if given[0] == "centre":
+            c = string(table, "centre")
+            if c not in regions.IEC60081_CENTRES:
+                s = suggest(c, regions.IEC60081_CENTRES)
+                hint = f"did you mean {s!r}? " if s else ""
+                raise ParseError("centre", f"unknown centre {c!r}", f"{hint}allowed: {', '.join(regions.IEC60081_CENTRES)}")
+            ell = regions.iec60081_ellipse(c)
+        elif given[0] == "macadam1942":
+            k = table["macadam1942"]
+            if not (isinstance(k, int) and not isinstance(k, bool) and 1 <= k <= 25):
+                raise ParseError("macadam1942", f"must be an integer from 1 to 25, got {k!r}", "pick an ellipse number from Wyszecki & Stiles Table 2(5.4.1)")
+            ell = regions.macadam1942_ellipse(k)
+        else:
+            c = table["centre_xy"]
+            if not (isinstance(c, list) and len(c) == 2 and all(is_number(v) for v in c) and all(0 < float(v) < 1 for v in c)):
+                raise ParseError("centre_xy", f"must be [x, y] with 0 < x, y < 1, got {c!r}", "write e.g. centre_xy = [0.4338, 0.4030]")
+            if len(gkeys) != 3:
+                missing = [k for k in ("g11", "g12", "g22") if k not in table]
+                raise ParseError(None, f"centre_xy needs the ellipse coefficients; missing {', '.join(missing)}", "add g11, g12 and g22 of your 1-step ellipse")
+            g = [number(table, k) for k in ("g11", "g12", "g22")]
+            ell = regions.SdcmEllipse(f"user ellipse at ({c[0]}, {c[1]})", np.array(c, float), g[0], g[1], g[2], "user-given centre and coefficients")
+            if not ell.is_positive_definite:
+                raise ParseError("g11", "g11, g12, g22 do not describe an ellipse (need g11 > 0, g22 > 0, g11·g22 > g12²)", "check the coefficients and their signs")
+        label = common["label"] or f"within {steps:g} steps of {ell.name}"
+        return cls(common["id"], label, common["note"], common["line"], ell, steps)
+
+    def evaluate(self, ev) -> tuple[ClauseResult, ...]:
+        xy = np.stack([np.asarray(ev.x, float), np.asarray(ev.y, float)], axis=-1)
+        st = self.ellipse.steps(xy)
+        margin = self.max_steps - st
+        outcome, reason = simple_outcomes(margin)
+        d = self.ellipse.margin_upvp(xy, self.max_steps)
+        return (
+            ClauseResult(
+                clause_id=self.clause_id,
+                label=self.label,
+                kind=self.KIND,
+                figure="SDCM steps",
+                unit="steps",
+                measured=st,
+                lower=None,
+                upper=float(self.max_steps),
+                limit_text=f"≤ {self.max_steps:g} steps from {self.ellipse.name} (x, y = {self.ellipse.centre_xy[0]:.4f}, {self.ellipse.centre_xy[1]:.4f})",
+                margin=margin,
+                outcome=outcome,
+                details={"steps": st, "delta_upvp": d, "x": xy[:, 0], "y": xy[:, 1]},
+                reason=reason,
+                source=self.ellipse.source,
+                group=self.clause_id,
+                line=self.line,
+            ),
+        )
+
+    def tender_text(self) -> str:
+        e = self.ellipse
+        return (
+            f"The chromaticity shall lie within {self.max_steps:g} steps (standard deviations of colour matching, SDCM) "
+            f"of {e.name} centred at x = {e.centre_xy[0]:.4f}, y = {e.centre_xy[1]:.4f} (CIE 1931), steps computed as "
+            f"√(g11 Δx² + 2 g12 Δx Δy + g22 Δy²) with g11 = {e.g11:.4g}, g12 = {e.g12:.4g}, g22 = {e.g22:.4g}."
+        )
+
+    def sources(self) -> tuple[str, ...]:
+        return (self.ellipse.source,)
+
+
+# --------------------------------------------------------------------------- TM-30 Annex E
+
+
+@register_clause_kind
+@dataclass(frozen=True)
+class Tm30DesignIntentClause(ClauseKind):
+    """ANSI/IES TM-30-20 Annex E design-intent priority level (P1-P3, V1-V3, F1-F3)."""
+
+    KIND: ClassVar[str] = "tm30_design_intent"
+    TITLE: ClassVar[str] = "ANSI/IES TM-30-20 Annex E design-intent level"
+    KEYS: ClassVar[dict[str, KeySpec]] = {
+        "level": KeySpec("level", ", ".join(f'"{k}"' for k in presets.LEVELS), "the design intent (Preference, Vividness, Fidelity) and priority level", True)
+    }
+
+    clause_id: str
+    label: str
+    note: str
+    line: int | None
+    level: str
+
+    @classmethod
+    def parse(cls, table: dict, common: dict) -> "Tm30DesignIntentClause":
+        lv = table.get("level")
+        if lv is None:
+            raise ParseError(None, "a tm30_design_intent clause needs `level`", f"add level = one of {', '.join(presets.LEVELS)}")
+        if not isinstance(lv, str) or lv not in presets.TM30_ANNEX_E:
+            s = suggest(str(lv), presets.LEVELS, cutoff=0.4)
+            hint = f"did you mean {s!r}? " if s else ""
+            raise ParseError("level", f"unknown design-intent level {lv!r}", f"{hint}allowed: {', '.join(presets.LEVELS)}")
+        label = common["label"] or f"TM-30 Annex E {presets.level_title(lv)}"
+        return cls(common["id"], label, common["note"], common["line"], lv)
+
+    def evaluate(self, ev) -> tuple[ClauseResult, ...]:
+        out = []
+        for c in presets.TM30_ANNEX_E[self.level]:
+            unit = figure_unit(c.figure)
+            out.append(
+                figure_result(
+                    ev,
+                    clause_id=f"{self.clause_id}:{c.figure}",
+                    label=f"{self.level}: {c.figure} {limit_text(c.lower, c.upper, unit)}",
+                    kind=self.KIND,
+                    figure=c.figure,
+                    lower=c.lower,
+                    upper=c.upper,
+                    source=presets.TM30_ANNEX_E_SOURCE,
+                    group=self.clause_id,
+                    line=self.line,
+                )
+            )
+        return tuple(out)
+
+    def tender_text(self) -> str:
+        parts = []
+        for c in presets.TM30_ANNEX_E[self.level]:
+            parts.append(f"{c.figure} {limit_text(c.lower, c.upper, figure_unit(c.figure))}")
+        return (
+            f"The light source shall meet ANSI/IES TM-30-20 Annex E, {presets.level_title(self.level)}: "
+            + "; ".join(parts)
+            + " (Rf, Rg and hue-bin values per ANSI/IES TM-30-20; Rcs,h1 in percent)."
+        )
+
+    def sources(self) -> tuple[str, ...]:
+        return ("ANSI/IES TM-30-20 Annex E",)
+
+
+# --------------------------------------------------------------------------- the criteria
+
+
+@dataclass(frozen=True)
+class Criteria:
+    """A parsed criteria file.
+
+    Attributes
+    ----------
+    clauses : tuple of ClauseKind, in file order
+    identification : dict of str -> str
+    file : str
+    """
+
+    clauses: tuple
+    identification: dict
+    file: str = "<criteria>"
+
+    def evaluate(self, ev) -> "CheckResult":
+        """Judge every clause for every spectrum of ``ev`` (an Evaluation)."""
+        from .verdicts import CheckResult
+
+        results: list[ClauseResult] = []
+        for c in self.clauses:
+            if c.SCOPE != "sample":
+                continue
+            results.extend(c.evaluate(ev))
+        n = len(np.asarray(ev.x))
+        names = tuple(getattr(ev, "names", None) or (f"spectrum {i + 1}" for i in range(n)))
+        spectra = getattr(ev, "spectra", None)
+        sources = tuple(getattr(spectra, "sources", None) or ("",) * n)
+        warnings = tuple(getattr(ev, "warnings", None) or ((),) * n)
+        return CheckResult(names, sources, warnings, tuple(results), dict(self.identification), self.file)
+
+
+Parser = Callable[[dict, dict], ClauseKind]

@@ -1,0 +1,52 @@
+"""ANSI/IES TM-30-20 Annex E design-intent presets (Preference, Vividness, Fidelity).
+
+Each level is a set of conditions on TM-30 figures (Rf, Rg, Rcs,h1 in percent, Rf,h1).
+
+Source and how sure we are
+--------------------------
+ANSI/IES TM-30-20, *IES Method for Evaluating Light Source Color Rendition*, Annex E
+(recommended specification criteria by design intent and priority level). **Secondary**: the
+thresholds below were not read in the Annex itself; they agree exactly between the project's
+reference notes and the independent table in luxpy 1.12.5 (``_IES_TM30_ANNEX_E_TABLE``,
+documented there as "Annex E table (default as published)"); the test suite checks our
+presets against luxpy's classifier. Values are compared unrounded (lumeval does not round
+Rf, Rg or Rcs,h1 before comparing; a reported Rf of 77.96 does not meet Rf ≥ 78).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+TM30_ANNEX_E_SOURCE = "ANSI/IES TM-30-20 Annex E (thresholds secondary: agree with luxpy 1.12.5's table)"
+
+DESIGN_INTENTS = {"P": "Preference", "V": "Vividness", "F": "Fidelity"}
+
+
+@dataclass(frozen=True)
+class Condition:
+    """One condition of a design-intent level: ``lower ≤ figure ≤ upper`` (None = unbounded)."""
+
+    figure: str
+    lower: float | None
+    upper: float | None
+
+
+#: level -> conditions. Rcs_h1 in percent.
+TM30_ANNEX_E: dict[str, tuple[Condition, ...]] = {
+    "P1": (Condition("Rf", 78, None), Condition("Rg", 95, None), Condition("Rcs_h1", -1, 15)),
+    "P2": (Condition("Rf", 75, None), Condition("Rg", 92, None), Condition("Rcs_h1", -7, 19)),
+    "P3": (Condition("Rf", 70, None), Condition("Rg", 89, None), Condition("Rcs_h1", -12, 23)),
+    "V1": (Condition("Rg", 118, None), Condition("Rcs_h1", 15, None)),
+    "V2": (Condition("Rg", 110, None), Condition("Rcs_h1", 6, None)),
+    "V3": (Condition("Rg", 100, None), Condition("Rcs_h1", 0, None)),
+    "F1": (Condition("Rf", 95, None),),
+    "F2": (Condition("Rf", 90, None), Condition("Rf_h1", 90, None)),
+    "F3": (Condition("Rf", 85, None), Condition("Rf_h1", 85, None)),
+}
+
+LEVELS: tuple[str, ...] = tuple(TM30_ANNEX_E)
+
+
+def level_title(level: str) -> str:
+    """E.g. ``"Preference priority level 1 (P1)"``."""
+    return f"{DESIGN_INTENTS[level[0]]} priority level {level[1]} ({level})"

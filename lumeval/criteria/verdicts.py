@@ -1,0 +1,208 @@
+"""Verdict results: what a clause found for N spectra, and the overall verdict.
+
+Designed so that decision rules under measurement uncertainty can plug in later: every
+:class:`ClauseResult` carries optional per-spectrum ``uncertainty`` (standard uncertainty in
+the figure's units) and ``p_conformance`` (probability that the true value conforms), the
+name of the ``decision_rule`` applied, and an outcome per spectrum that may be
+``indeterminate``. With the default *simple acceptance* rule (the measured value decides)
+``uncertainty`` and ``p_conformance`` are None and no outcome is indeterminate.
+
+Outcomes and exit codes
+-----------------------
+Per clause and spectrum: ``pass``, ``fail``, ``indeterminate`` (a decision rule could not
+decide) or ``not judged`` (the figure is undefined for that spectrum, e.g. Ra when the CCT is
+undefined). Per spectrum the verdict is ``fail`` if any clause fails, else ``indeterminate`` if
+any is indeterminate, else ``not judged`` if any clause could not be judged, else ``pass``.
+The exit code is 0 only when every spectrum passes (or nothing was judged because there were
+no spectra); otherwise 1 — an indeterminate or unjudged clause must never look like a pass to
+a script. Exit code 2 (bad input) is raised before any verdict exists.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+PASS = "pass"
+FAIL = "fail"
+INDETERMINATE = "indeterminate"
+NOT_JUDGED = "not judged"
+
+#: Every outcome, in increasing order of severity for the overall verdict.
+OUTCOMES = (PASS, NOT_JUDGED, INDETERMINATE, FAIL)
+
+SIMPLE_ACCEPTANCE = "simple acceptance (the measured value decides; no guard band)"
+
+
+@dataclass(frozen=True)
+class ClauseResult:
+    """The verdict of one clause (or one condition of a preset) for N spectra.
+
+    Attributes
+    ----------
+    clause_id : str
+        Identifier from the criteria file (or derived from it).
+    label : str
+        Short human statement of the requirement, e.g. ``"R9 ≥ 50"``.
+    kind : str
+        The clause kind (``figure``, ``ansi_quadrangle``, ``sdcm``, ``tm30_design_intent``...).
+    figure : str
+        The figure judged (a lumeval figure name, or e.g. ``"u'v'"`` / ``"SDCM steps"``).
+    unit : str
+        Unit of ``measured``, ``lower``, ``upper`` and ``margin`` ("" for dimensionless).
+    measured : ndarray (N,)
+        The measured value in ``unit`` (NaN where undefined).
+    lower, upper : float or None
+        The acceptance limits in ``unit`` (None = unbounded on that side).
+    limit_text : str
+        The limits as a human reads them.
+    margin : ndarray (N,)
+        Distance to the nearest limit in ``unit``; positive inside the acceptance zone,
+        negative outside, NaN where undefined.
+    outcome : tuple of str (N,)
+        One of :data:`OUTCOMES` per spectrum.
+    details : dict of str -> ndarray (N,)
+        Further figures shown next to the verdict, e.g. ``delta_upvp`` (signed Δu'v' to a
+        region boundary, positive inside), ``cct_K``, ``duv``, ``steps``.
+    reason : tuple of str (N,)
+        Why a spectrum was not judged ("" otherwise).
+    source : str
+        The standard, edition and table (or other source) the clause relies on.
+    group : str
+        The criteria-file clause this result belongs to (a preset gives several results).
+    line : int or None
+        Line of the clause in the criteria file.
+    uncertainty : ndarray (N,) or None
+        Standard uncertainty of ``measured`` (for decision rules under uncertainty).
+    p_conformance : ndarray (N,) or None
+        Probability of conformance under the decision rule.
+    decision_rule : str
+    """
+
+    clause_id: str
+    label: str
+    kind: str
+    figure: str
+    unit: str
+    measured: np.ndarray
+    lower: float | None
+    upper: float | None
+    limit_text: str
+    margin: np.ndarray
+    outcome: tuple[str, ...]
+    details: dict = field(default_factory=dict)
+    reason: tuple[str, ...] = ()
+    source: str = ""
+    group: str = ""
+    line: int | None = None
+    uncertainty: np.ndarray | None = None
+    p_conformance: np.ndarray | None = None
+    decision_rule: str = SIMPLE_ACCEPTANCE
+
+    def __len__(self) -> int:
+        return len(self.outcome)
+
+    @property
+    def failed(self) -> np.ndarray:
+        """Boolean (N,): the clause failed for that spectrum."""
+        return np.array([o == FAIL for o in self.outcome], dtype=bool)
+
+
+def margin_to_limits(measured, lower: float | None, upper: float | None) -> np.ndarray:
+    """Signed distance of ``measured`` (N,) to the interval [lower, upper], positive inside.
+
+    The margin is the distance to the nearer limit when inside and minus the distance to the
+    violated limit when outside (plain arithmetic on the figure's own scale).
+    """
+    m = np.asarray(measured, dtype=float)
+    parts = []
+    if lower is not None:
+        parts.append(m - float(lower))
+    if upper is not None:
+        parts.append(float(upper) - m)
+    if not parts:
+        return np.full(m.shape, np.inf)
+    return np.minimum.reduce(parts) if len(parts) > 1 else parts[0]
+
+
+def simple_outcomes(margin, undefined_reason: tuple[str, ...] | None = None) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """Outcomes under simple acceptance: pass where margin ≥ 0, fail where < 0, not judged
+    where the margin is NaN. Returns (outcome, reason) tuples of length N."""
+    mg = np.asarray(margin, dtype=float)
+    out, why = [], []
+    for i, v in enumerate(mg):
+        if not np.isfinite(v) and not (np.isinf(v) and v > 0):
+            out.append(NOT_JUDGED)
+            r = undefined_reason[i] if undefined_reason and undefined_reason[i] else "the figure is undefined for this spectrum"
+            why.append(r)
+        elif v >= 0:
+            out.append(PASS)
+            why.append("")
+        else:
+            out.append(FAIL)
+            why.append("")
+    return tuple(out), tuple(why)
+
+
+def combine_outcomes(outcomes: list[str]) -> str:
+    """The overall outcome of several: the most severe of :data:`OUTCOMES` (pass if empty)."""
+    worst = PASS
+    for o in outcomes:
+        if OUTCOMES.index(o) > OUTCOMES.index(worst):
+            worst = o
+    return worst
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """All clause results for N spectra against one criteria file.
+
+    Attributes
+    ----------
+    names, sources : tuple of str (N,)
+        The spectra judged.
+    warnings : tuple of tuple of str (N,)
+        What reading/preparing/evaluating did or found for each spectrum.
+    results : tuple of ClauseResult
+        In the order the criteria file lists the clauses.
+    identification : dict
+        The criteria file's identification block.
+    criteria_file : str
+    """
+
+    names: tuple[str, ...]
+    sources: tuple[str, ...]
+    warnings: tuple[tuple[str, ...], ...]
+    results: tuple[ClauseResult, ...]
+    identification: dict
+    criteria_file: str
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def verdict(self, i: int) -> str:
+        """Overall outcome for spectrum i."""
+        return combine_outcomes([r.outcome[i] for r in self.results])
+
+    @property
+    def verdicts(self) -> tuple[str, ...]:
+        return tuple(self.verdict(i) for i in range(len(self)))
+
+    @property
+    def overall(self) -> str:
+        """The overall outcome across all spectra."""
+        return combine_outcomes(list(self.verdicts))
+
+    @property
+    def exit_code(self) -> int:
+        """0 when every spectrum passes (or there is nothing to judge), 1 otherwise."""
+        return 0 if all(v == PASS for v in self.verdicts) else 1
+
+    def counts(self) -> dict[str, int]:
+        """Number of (spectrum, clause) outcomes of each kind."""
+        c = {o: 0 for o in OUTCOMES}
+        for r in self.results:
+            for o in r.outcome:
+                c[o] += 1
+        return c

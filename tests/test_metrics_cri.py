@@ -321,3 +321,16 @@ def test_mismatched_shapes_are_refused():
         cie133_cri(wl, np.ones((2, wl.size - 1)), [4000.0, 4000.0])
     with pytest.raises(InputError):
         cie133_cri(wl, np.ones((2, wl.size)), [4000.0])
+
+
+@pytest.mark.parametrize("scale", [1e-6, 3.7, 1e6])
+def test_absolute_level_does_not_matter(colour, scale):
+    """Source: CIE 13.3 works on relative spectral distributions (each source normalised to
+    Y = 100), so multiplying a spectrum by a constant leaves every Ri unchanged."""
+    wl = np.arange(380.0, 781.0, 5.0)
+    S = np.array([cie_illuminant(colour, n)[1] for n in ("FL3", "FL7", "FL10")])
+    cct = _ohno_cct(wl, S)
+    a = cie133_cri(wl, S, cct)
+    b = cie133_cri(wl, S * scale, cct)
+    np.testing.assert_allclose(b.R, a.R, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(b.dc, a.dc, rtol=0, atol=1e-14)

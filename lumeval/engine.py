@@ -47,7 +47,6 @@ FIGURE_UNITS: dict[str, str] = {
     "ler_lm_per_W": "lm/W",
     "peak_nm": "nm",
     **{f"Rcs_h{j}": "%" for j in range(1, 17)},
-    **{f"Rhs_h{j}": "rad" for j in range(1, 17)},
 }
 
 

@@ -27,8 +27,9 @@ from .spectra.model import SpectrumSet
 #: TM-30 samples: 256 × 99 × 471 doubles ≈ 95 MB.
 DEFAULT_CHUNK = 256
 
-#: CIE 13.3-1995 §5.3: the test source should be within DC = 5.4e-3 of the Planckian locus in
-#: CIE 1960 (u, v) for the index to be meaningful.
+#: CIE 13.3-1995: the test source should be within DC = 5.4e-3 of its reference in CIE 1960
+#: (u, v) for the index to be meaningful. Secondary source (the standard's text was not at hand;
+#: the limit as quoted by open implementations citing CIE 13.3, see lumeval.metrics.cri).
 CRI_DC_LIMIT = 5.4e-3
 
 FIGURE_NAMES: tuple[str, ...] = (
@@ -186,7 +187,7 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...],
             w.append(f"CCT undefined: {cct.reason[i]}; CRI and TM-30 figures are not computed.")
         elif np.isfinite(dc[i]) and dc[i] >= CRI_DC_LIMIT:
             w.append(
-                f"DC = {dc[i]:.4f} is not below {CRI_DC_LIMIT} (CIE 13.3 §5.3): the source is too far from "
+                f"DC = {dc[i]:.4f} is not below {CRI_DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
                 "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
             )
         if not cct.reason[i] and fid_reason[i]:

@@ -24,7 +24,11 @@ def cie_illuminant(colour, name: str):
 @pytest.fixture(scope="session")
 def luxpy():
     """The independent colour library used as a test oracle (GPLv3: used, never copied)."""
+    # importing luxpy changes numpy's global floating-point error settings (divide/invalid ->
+    # raise); restore them so that later tests see numpy's defaults
+    saved = np.geterr()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         import luxpy as lx
+    np.seterr(**saved)
     return lx

@@ -27,10 +27,6 @@ from .spectra.model import SpectrumSet
 #: TM-30 samples: 256 × 99 × 471 doubles ≈ 95 MB.
 DEFAULT_CHUNK = 256
 
-#: CIE 13.3-1995: the test source should be within DC = 5.4e-3 of its reference in CIE 1960
-#: (u, v) for the index to be meaningful. Secondary source (the standard's text was not at hand;
-#: the limit as quoted by open implementations citing CIE 13.3, see lumeval.metrics.cri).
-CRI_DC_LIMIT = 5.4e-3
 
 FIGURE_NAMES: tuple[str, ...] = (
     ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv", "Ra")
@@ -178,6 +174,8 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
 
 
 def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...], ...]:
+    from .metrics.cri import DC_LIMIT
+
     out = []
     dc = np.asarray(cri.dc, dtype=float)
     fid_reason = getattr(fid, "reason", ("",) * len(spectra))
@@ -185,9 +183,9 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...],
         w = list(spectra.notes[i])
         if cct.reason[i]:
             w.append(f"CCT undefined: {cct.reason[i]}; CRI and TM-30 figures are not computed.")
-        elif np.isfinite(dc[i]) and dc[i] >= CRI_DC_LIMIT:
+        elif np.isfinite(dc[i]) and not cri.within_dc_limit[i]:
             w.append(
-                f"DC = {dc[i]:.4f} is not below {CRI_DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
+                f"DC = {dc[i]:.4f} is not below {DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
                 "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
             )
         if not cct.reason[i] and fid_reason[i]:

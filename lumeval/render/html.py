@@ -1,0 +1,822 @@
+"""The HTML report: one self-contained file to send to a client or a supplier.
+
+Layout (our own design): verdict summary first; then the key figures per spectrum, the
+figures (spectrum against its reference, chromaticity diagram, R1..R14, TM-30 hue bins, and
+for a lot the distributions of the key figures) and the tables behind them; then the notes
+on the data, the provenance (input files with SHA-256, software versions, methods and
+standard editions, date and time) and the cautions.
+
+The file needs nothing but itself: figures are inline SVG (text drawn as paths), the style
+sheet is inline, there is no script, no font file and no URL fetched when it is viewed. A
+print style sheet lays it out for A4 and US Letter alike (15 mm margins, 178 mm content
+width). Verdicts are given in words and symbols (✓ PASS, ✗ FAIL, ? INDETERMINATE,
+– NOT JUDGED); colour only repeats them.
+
+Entry points
+------------
+:func:`write_html_report` (the ``--html FILE`` option), :func:`write_plots` (the
+``--plots DIR`` option), :func:`render_html_report` (the HTML as a string) and
+:func:`report_figures` (the figures as matplotlib objects). All accept the same optional
+inputs:
+
+``verdicts``
+    Either a ``lumeval.criteria.verdicts.CheckResult`` (anything with ``.results``, a
+    sequence of clause results with ``label, figure, unit, measured (N,), lower, upper,
+    limit_text, margin (N,), outcome (N,), reason (N,)``), or a plain sequence of rows, each
+    a mapping or object with the keys ``sample, clause, figure, measured, unit, limit,
+    lower, upper, margin, outcome`` (``"pass" | "fail" | "indeterminate" | "not judged"``;
+    or ``passed``: True/False/None) and optionally ``reason``.
+``limits``
+    ``{figure name: (lower or None, upper or None)}`` drawn on the charts; by default taken
+    from the verdict rows' ``lower``/``upper`` (the tightest per figure).
+``regions``
+    Sequence of chromaticity regions to draw: mappings ``{"label", "vertices", "space"}``
+    (space ``"uv"``, ``"u'v'"`` or ``"xy"``), or objects with ``name`` and
+    ``corners_upvp`` (a quadrangle), or ``(ellipse, n_steps)`` pairs where the ellipse has
+    ``name`` and ``boundary_xy(n_steps)``.
+``lot``
+    Lot statistics: a sequence of rows (mappings, shown as a table with their keys as
+    columns), or a mapping ``{"title": str, "rows": [...], "notes": [str, ...]}``.
+"""
+
+from __future__ import annotations
+
+import html as _html
+import math
+import os
+import re
+import tempfile
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import UsageError
+
+#: Spectra up to this many get their own SPD, CRI and hue-bin charts; more are drawn as a lot.
+PER_SAMPLE_MAX = 6
+
+#: Figures whose distributions are drawn for a lot (plus any figure a limit names).
+LOT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+
+_UNITS = {"cct_K": "K", "ler_lm_per_W": "lm/W", "peak_nm": "nm"}
+
+_OUTCOME_ORDER = ("pass", "not judged", "indeterminate", "fail")
+_OUTCOME_TEXT = {
+    "pass": ("✓", "PASS"),
+    "fail": ("✗", "FAIL"),
+    "indeterminate": ("?", "INDETERMINATE"),
+    "not judged": ("–", "NOT JUDGED"),
+}
+
+
+# --------------------------------------------------------------------------- inputs
+
+
+@dataclass(frozen=True)
+class VerdictRow:
+    """One (spectrum, clause) verdict as the report shows it."""
+
+    sample: str | None
+    clause: str
+    figure: str
+    measured: float | str | None
+    unit: str
+    limit: str
+    lower: float | None
+    upper: float | None
+    margin: float | None
+    outcome: str
+    reason: str = ""
+
+
+def _get(obj, *names, default=None):
+    for n in names:
+        if isinstance(obj, Mapping):
+            if n in obj:
+                return obj[n]
+        elif hasattr(obj, n):
+            return getattr(obj, n)
+    return default
+
+
+def _opt_float(v):
+    if v is None:
+        return None
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        return None
+
+
+def _outcome_of(row) -> str:
+    o = _get(row, "outcome", "verdict")
+    if o is not None:
+        o = str(o).strip().lower().replace("_", " ")
+        if o in ("passed", "ok"):
+            o = "pass"
+        if o in ("failed",):
+            o = "fail"
+        if o not in _OUTCOME_TEXT:
+            raise ValueError(f"unknown verdict outcome {o!r}")
+        return o
+    p = _get(row, "passed")
+    return "not judged" if p is None else ("pass" if bool(p) else "fail")
+
+
+def verdict_rows(verdicts, names: Sequence[str]) -> list[VerdictRow]:
+    """Normalise the ``verdicts`` input (see the module docstring) to :class:`VerdictRow` s."""
+    if verdicts is None:
+        return []
+    rows: list[VerdictRow] = []
+    results = _get(verdicts, "results") if not isinstance(verdicts, (list, tuple)) else None
+    if results is not None:
+        vnames = list(_get(verdicts, "names", default=names) or names)
+        for r in results:
+            outcome = tuple(r.outcome)
+            measured = np.atleast_1d(np.asarray(r.measured, dtype=float))
+            margin = np.atleast_1d(np.asarray(r.margin, dtype=float))
+            reason = tuple(getattr(r, "reason", ()) or ())
+            for i, o in enumerate(outcome):
+                rows.append(
+                    VerdictRow(
+                        sample=vnames[i] if i < len(vnames) else str(i + 1),
+                        clause=str(getattr(r, "label", "")),
+                        figure=str(getattr(r, "figure", "")),
+                        measured=float(measured[i]) if i < measured.size else None,
+                        unit=str(getattr(r, "unit", "") or ""),
+                        limit=str(getattr(r, "limit_text", "") or ""),
+                        lower=_opt_float(getattr(r, "lower", None)),
+                        upper=_opt_float(getattr(r, "upper", None)),
+                        margin=float(margin[i]) if i < margin.size else None,
+                        outcome=_outcome_of({"outcome": o}),
+                        reason=reason[i] if i < len(reason) else "",
+                    )
+                )
+        return rows
+    for row in verdicts:
+        m = _get(row, "measured")
+        rows.append(
+            VerdictRow(
+                sample=None if _get(row, "sample") is None else str(_get(row, "sample")),
+                clause=str(_get(row, "clause", "label", "criterion", default="")),
+                figure=str(_get(row, "figure", default="") or ""),
+                measured=m if isinstance(m, str) else _opt_float(m),
+                unit=str(_get(row, "unit", default="") or ""),
+                limit=str(_get(row, "limit", "limit_text", default="") or ""),
+                lower=_opt_float(_get(row, "lower", "min")),
+                upper=_opt_float(_get(row, "upper", "max")),
+                margin=_opt_float(_get(row, "margin")),
+                outcome=_outcome_of(row),
+                reason=str(_get(row, "reason", "note", default="") or ""),
+            )
+        )
+    return rows
+
+
+def _limits_from_rows(rows: list[VerdictRow]) -> dict[str, tuple[float | None, float | None]]:
+    out: dict[str, list] = {}
+    for r in rows:
+        if not r.figure or (r.lower is None and r.upper is None):
+            continue
+        lo, hi = out.get(r.figure, [None, None])
+        if r.lower is not None:
+            lo = r.lower if lo is None else max(lo, r.lower)
+        if r.upper is not None:
+            hi = r.upper if hi is None else min(hi, r.upper)
+        out[r.figure] = [lo, hi]
+    return {k: (v[0], v[1]) for k, v in out.items()}
+
+
+def _regions(regions) -> list[dict]:
+    out = []
+    for r in regions or ():
+        if isinstance(r, Mapping):
+            out.append({"label": str(r.get("label", "region")), "vertices": np.asarray(r["vertices"], float),
+                        "space": r.get("space", "uv")})
+        elif isinstance(r, tuple) and len(r) == 2 and hasattr(r[0], "boundary_xy"):
+            ell, steps = r
+            out.append({"label": f"{getattr(ell, 'name', 'ellipse')}, {steps:g} steps",
+                        "vertices": np.asarray(ell.boundary_xy(steps, 240), float), "space": "xy"})
+        elif hasattr(r, "corners_upvp"):
+            out.append({"label": str(getattr(r, "name", "quadrangle")), "vertices": np.asarray(r.corners_upvp, float),
+                        "space": "u'v'"})
+        else:
+            raise ValueError(f"cannot draw region {r!r}: give a mapping with 'vertices' and 'space'")
+    return out
+
+
+def _lot_block(lot):
+    if lot is None:
+        return None
+    if isinstance(lot, Mapping):
+        return {"title": str(lot.get("title", "Lot statistics")), "rows": list(lot.get("rows", ())),
+                "notes": [str(n) for n in lot.get("notes", ())]}
+    rows = _get(lot, "rows")
+    if rows is not None and not isinstance(lot, (list, tuple)):
+        return {"title": str(_get(lot, "title", default="Lot statistics")), "rows": list(rows),
+                "notes": [str(n) for n in (_get(lot, "notes", default=()) or ())]}
+    return {"title": "Lot statistics", "rows": list(lot), "notes": []}
+
+
+def _row_dict(row) -> dict:
+    if isinstance(row, Mapping):
+        return dict(row)
+    if hasattr(row, "__dataclass_fields__"):
+        return {k: getattr(row, k) for k in row.__dataclass_fields__}
+    return dict(vars(row))
+
+
+# --------------------------------------------------------------------------- figures
+
+
+@dataclass(frozen=True)
+class ReportFigure:
+    """A figure of the report: ``key`` (file stem), ``title``, ``caption``, matplotlib ``figure``."""
+
+    key: str
+    title: str
+    caption: str
+    figure: object
+
+
+def _slug(s: str) -> str:
+    s = re.sub(r"[^A-Za-z0-9]+", "-", s).strip("-").lower()
+    return s[:40] or "spectrum"
+
+
+def _fig(ev, name: str) -> np.ndarray:
+    try:
+        return np.asarray(ev.figure(name), dtype=float)
+    except (KeyError, AttributeError):
+        return np.full(len(ev.spectra.names), np.nan)
+
+
+def _matrix(ev, prefix: str, k: int) -> np.ndarray:
+    return np.stack([_fig(ev, f"{prefix}{j}") for j in range(1, k + 1)], axis=-1)
+
+
+def _reference_label(cct: float) -> str:
+    if not math.isfinite(cct):
+        return "reference (undefined)"
+    kind = "Planckian" if cct < 5000 else "CIE daylight"
+    return f"CIE 13.3 reference: {kind} at {cct:.0f} K"
+
+
+def _sample_failed(rows: list[VerdictRow], names: Sequence[str]) -> list[bool | None]:
+    out: list[bool | None] = []
+    for n in names:
+        mine = [r.outcome for r in rows if r.sample == n]
+        if not mine:
+            out.append(None)
+        elif "fail" in mine:
+            out.append(True)
+        elif all(o == "pass" for o in mine):
+            out.append(False)
+        else:
+            out.append(None)
+    return out
+
+
+def report_figures(
+    evaluation,
+    *,
+    verdicts=None,
+    limits: Mapping | None = None,
+    regions=None,
+    lot=None,
+    per_sample_max: int = PER_SAMPLE_MAX,
+) -> list[ReportFigure]:
+    """All figures of the report, in report order (see the module docstring for the inputs)."""
+    from . import plots
+
+    ev = evaluation
+    names = list(ev.spectra.names)
+    n = len(names)
+    rows = verdict_rows(verdicts, names)
+    lim = dict(_limits_from_rows(rows))
+    if limits:
+        lim.update({k: tuple(v) for k, v in limits.items()})
+    failed = _sample_failed(rows, names)
+    as_lot = lot is not None or n > per_sample_max
+    wl = ev.spectra.wavelengths_nm
+    cct = _fig(ev, "cct_K")
+    figs: list[ReportFigure] = []
+
+    figs.append(ReportFigure(
+        "chromaticity", "Chromaticity near the Planckian locus",
+        "CIE 1960 (u, v) diagram: Planckian locus (black), isotemperature lines (grey, labelled in K), "
+        "lines of constant Duv (grey dashed)"
+        + (", the criteria region(s) (blue dashed, hatched)" if regions else "")
+        + (", every sample, their centroid (+) and spread (2σ ellipse)" if as_lot and n >= 2
+           else (", the samples" if n > 1 else ", the sample"))
+        + ". Markers: ✗ failed a criterion, filled circle passed, hollow circle not judged.",
+        plots.chromaticity_figure(_fig(ev, "u"), _fig(ev, "v"), labels=names, failed=failed,
+                                  regions=_regions(regions), show_centroid=as_lot and n >= 2),
+    ))
+
+    if n <= per_sample_max:
+        for i, name in enumerate(names):
+            slug = f"{i + 1:02d}-{_slug(name)}"
+            ref = ev.reference_spd(i)
+            figs.append(ReportFigure(
+                f"spd-{slug}", f"Spectrum: {name}",
+                "Test spectrum (solid) and its CIE 13.3 reference at the same CCT (dashed), both scaled to the "
+                "same luminous content Y, then jointly to a highest value of 1. Grey: outside 380–780 nm.",
+                plots.spd_figure(wl, ev.spectra.values[i], ref, test_label=name, reference_label=_reference_label(cct[i])),
+            ))
+            figs.append(ReportFigure(
+                f"cri-{slug}", f"Colour rendering indices: {name}",
+                "Ra and R1–R14 (CIE 13.3-1995). Black ticks mark criteria limits; a hatched bar is outside its limit.",
+                plots.cri_figure(_matrix(ev, "R", 14)[i], _fig(ev, "Ra")[i], limits=lim),
+            ))
+            figs.append(ReportFigure(
+                f"hue-bins-{slug}", f"TM-30 hue bins: {name}",
+                "Per hue bin (CIE 224:2017 / ANSI/IES TM-30): chroma shift Rcs,h, hue shift Rhs,h and local "
+                "fidelity Rf,h.",
+                plots.hue_bin_figure(_matrix(ev, "Rcs_h", 16)[i], _matrix(ev, "Rhs_h", 16)[i], _matrix(ev, "Rf_h", 16)[i],
+                                     limits=lim),
+            ))
+    else:
+        with np.errstate(all="ignore"):
+            k = int(np.nanargmin(np.abs(cct - np.nanmedian(cct)))) if np.any(np.isfinite(cct)) else 0
+        figs.append(ReportFigure(
+            "spd-lot", f"Spectra of all {n} samples",
+            "Every spectrum (thin lines), each scaled to the same luminous content Y, with the CIE 13.3 reference of "
+            f"the sample nearest the median CCT ({names[k]}, dashed); jointly scaled to a highest value of 1.",
+            plots.spd_figure(wl, ev.spectra.values, ev.reference_spd(k), test_label=f"{n} samples",
+                             reference_label=_reference_label(cct[k])),
+        ))
+        figs.append(ReportFigure(
+            "cri-lot", f"Colour rendering indices of {n} samples",
+            "Median bar with min–max whisker per index (CIE 13.3-1995); black ticks: criteria limits.",
+            plots.cri_figure(_matrix(ev, "R", 14), _fig(ev, "Ra"), limits=lim),
+        ))
+        figs.append(ReportFigure(
+            "hue-bins-lot", f"TM-30 hue bins of {n} samples",
+            "Median with min–max whisker per hue bin: chroma shift, hue shift, local fidelity.",
+            plots.hue_bin_figure(_matrix(ev, "Rcs_h", 16), _matrix(ev, "Rhs_h", 16), _matrix(ev, "Rf_h", 16), limits=lim),
+        ))
+
+    if as_lot and n >= 2:
+        keys = list(LOT_FIGURES)
+        for f in lim:
+            if f not in keys and len(keys) < 10 and np.any(np.isfinite(_fig(ev, f))):
+                keys.append(f)
+        figs.append(ReportFigure(
+            "distributions", f"Distributions over {n} samples",
+            "Every sample (dot; ✗ failed a criterion), the interquartile box with the median (thick line), "
+            "and the criteria limits (dashed, labelled min/max).",
+            plots.distribution_figure({k: _fig(ev, k) for k in keys}, limits=lim, failed=failed, units=_UNITS),
+        ))
+    return figs
+
+
+# --------------------------------------------------------------------------- writing
+
+
+def _atomic_write(path: Path, data: bytes) -> None:
+    parent = path.parent if str(path.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(dir=parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def _check_target_dir(d: Path, what: str, option: str) -> None:
+    if not d.is_dir():
+        raise UsageError(f"cannot write the {what}: directory {str(d)!r} does not exist",
+                         field=option, fix="create the directory first or choose another path")
+    if not os.access(d, os.W_OK):
+        raise UsageError(f"cannot write the {what}: directory {str(d)!r} is not writable",
+                         field=option, fix="choose a writable directory")
+
+
+def write_plots(
+    directory,
+    evaluation,
+    *,
+    verdicts=None,
+    limits: Mapping | None = None,
+    regions=None,
+    lot=None,
+    formats: Sequence[str] = ("svg", "png"),
+    per_sample_max: int = PER_SAMPLE_MAX,
+) -> list[Path]:
+    """Write every report figure as ``DIR/<key>.svg`` and ``DIR/<key>.png`` (each atomically).
+
+    The directory is created when its parent exists. Returns the paths written, in report
+    order. Raises :class:`lumeval.errors.UsageError` when the directory cannot be used; in
+    that case nothing is written.
+    """
+    from .plots import figure_png, figure_svg
+
+    d = Path(directory)
+    if d.exists() and not d.is_dir():
+        raise UsageError(f"cannot write plots: {str(d)!r} is a file", field="--plots", fix="give a directory")
+    if not d.exists():
+        _check_target_dir(d.parent if str(d.parent) else Path("."), "plots", "--plots")
+    bad = [f for f in formats if f not in ("svg", "png")]
+    if bad:
+        raise UsageError(f"unknown plot format(s) {bad}", field="--plots", fix="use svg and/or png")
+    figs = report_figures(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
+                          per_sample_max=per_sample_max)
+    d.mkdir(exist_ok=True)
+    out = []
+    for f in figs:
+        for fmt in formats:
+            p = d / f"{f.key}.{fmt}"
+            _atomic_write(p, figure_svg(f.figure).encode("utf-8") if fmt == "svg" else figure_png(f.figure))
+            out.append(p)
+    return out
+
+
+def write_html_report(
+    path,
+    evaluation,
+    *,
+    verdicts=None,
+    limits: Mapping | None = None,
+    regions=None,
+    lot=None,
+    inputs: Sequence | None = None,
+    title: str | None = None,
+    command: str | None = None,
+    generated_at=None,
+    per_sample_max: int = PER_SAMPLE_MAX,
+) -> Path:
+    """Write the self-contained HTML report to ``path`` atomically; returns the path.
+
+    Raises :class:`lumeval.errors.UsageError` (nothing written) when the target directory
+    does not exist or is not writable. See :func:`render_html_report` for the parameters.
+    """
+    p = Path(path)
+    if p.is_dir():
+        raise UsageError(f"cannot write the HTML report: {str(p)!r} is a directory", field="--html",
+                         fix="give a file name, e.g. report.html")
+    _check_target_dir(p.parent if str(p.parent) else Path("."), "HTML report", "--html")
+    text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
+                              title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max)
+    _atomic_write(p, text.encode("utf-8"))
+    return p
+
+
+# --------------------------------------------------------------------------- HTML
+
+
+def _e(s) -> str:
+    return _html.escape(str(s), quote=True)
+
+
+def _num(v, spec: str = "g") -> str:
+    if v is None:
+        return "n/a"
+    if isinstance(v, str):
+        return _e(v)
+    f = float(v)
+    if not math.isfinite(f):
+        return "n/a"
+    if spec == "int":
+        return f"{f:.0f}" if abs(f) >= 0.5 else "0"
+    if spec == "g":
+        if abs(f) >= 1000:
+            return f"{f:.0f}"
+        return f"{f:.4g}"
+    if spec == "+g":
+        s = _num(f, "g")
+        return s if s.startswith("-") else "+" + s
+    return format(f, spec).replace("-", "−") if spec.startswith("+") else format(f, spec)
+
+
+def _badge(outcome: str) -> str:
+    sym, word = _OUTCOME_TEXT[outcome]
+    cls = outcome.replace(" ", "-")
+    return f'<span class="badge {cls}"><span class="sym" aria-hidden="true">{sym}</span> {word}</span>'
+
+
+def _worst(outcomes) -> str:
+    worst = "pass"
+    for o in outcomes:
+        if _OUTCOME_ORDER.index(o) > _OUTCOME_ORDER.index(worst):
+            worst = o
+    return worst
+
+
+_ID_RE = re.compile(r'\bid="([^"]+)"')
+_HREF_RE = re.compile(r'((?:xlink:)?href)="#([^"]+)"')
+_URL_RE = re.compile(r"url\(#([^)]+)\)")
+
+
+def inline_svg(svg: str, prefix: str, label: str) -> str:
+    """Prepare a standalone SVG document for inlining into HTML.
+
+    Drops the XML declaration, DOCTYPE and metadata, prefixes every id (and every reference
+    to one) with ``prefix`` so that several figures can share one document, makes the figure
+    scale with the page (width 100 %, height from the viewBox) and labels it for screen readers.
+    """
+    s = re.sub(r"<\?xml[^>]*\?>", "", svg)
+    s = re.sub(r"<!DOCTYPE[^>]*>", "", s, flags=re.S)
+    s = re.sub(r"<metadata>.*?</metadata>", "", s, flags=re.S)
+    s = _ID_RE.sub(lambda m: f'id="{prefix}-{m.group(1)}"', s)
+    s = _HREF_RE.sub(lambda m: f'{m.group(1)}="#{prefix}-{m.group(2)}"', s)
+    s = _URL_RE.sub(lambda m: f"url(#{prefix}-{m.group(1)})", s)
+    s = re.sub(r'<svg\b([^>]*?)\swidth="[^"]*"', r"<svg\1", s, count=1)
+    s = re.sub(r'<svg\b([^>]*?)\sheight="[^"]*"', r"<svg\1", s, count=1)
+    s = s.replace("<svg ", f'<svg class="chart" role="img" aria-label="{_e(label)}" ', 1)
+    return s.strip()
+
+
+_CSS = """
+:root { --ink:#1a1a1a; --muted:#555; --rule:#c8c8c8; --pass:#0072B2; --fail:#D55E00; --warn:#E69F00; }
+* { box-sizing: border-box; }
+html { color: var(--ink); background: #fff; }
+body { font-family: system-ui, "Segoe UI", "Helvetica Neue", Arial, sans-serif; font-size: 15px; line-height: 1.45;
+       max-width: 60rem; margin: 0 auto; padding: 1.5rem 1.25rem 3rem; }
+h1 { font-size: 1.6rem; margin: 0 0 .25rem; }
+h2 { font-size: 1.2rem; margin: 2rem 0 .6rem; padding-bottom: .2rem; border-bottom: 2px solid var(--ink); }
+h3 { font-size: 1.02rem; margin: 1.4rem 0 .4rem; }
+p.sub { color: var(--muted); margin: 0 0 1rem; }
+table { border-collapse: collapse; width: 100%; margin: .4rem 0 1rem; font-size: .86rem; font-variant-numeric: tabular-nums; }
+th, td { border-bottom: 1px solid var(--rule); padding: .25rem .45rem; text-align: left; vertical-align: top; }
+th { background: #f2f2f2; font-weight: 600; }
+td.n, th.n { text-align: right; white-space: nowrap; }
+.summary { border: 2px solid var(--ink); border-left-width: 10px; padding: .8rem 1rem; margin: 1rem 0; }
+.summary.pass { border-color: var(--pass); } .summary.fail { border-color: var(--fail); }
+.summary.indeterminate, .summary.not-judged { border-color: var(--warn); }
+.summary .big { font-size: 1.35rem; font-weight: 700; }
+.badge { display: inline-block; font-weight: 700; padding: 0 .35rem; border: 1.5px solid currentColor; border-radius: 3px;
+         white-space: nowrap; }
+.badge.pass { color: var(--pass); } .badge.fail { color: #a33d00; } .badge.indeterminate, .badge.not-judged { color: #7a5600; }
+tr.fail td { background: #fdf0e8; }
+figure { margin: 1rem 0 1.5rem; break-inside: avoid; page-break-inside: avoid; }
+figure svg.chart { display: block; width: 100%; height: auto; max-width: 178mm; }
+figcaption { font-size: .85rem; color: var(--muted); margin-top: .3rem; }
+figcaption b { color: var(--ink); }
+ul.notes li { margin: .15rem 0; }
+.cautions { border: 1.5px solid var(--ink); padding: .6rem 1rem; }
+code, .mono { font-family: ui-monospace, "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: .82rem; word-break: break-all; }
+footer { margin-top: 2rem; color: var(--muted); font-size: .8rem; }
+@page { margin: 15mm; }
+@media print {
+  body { font-size: 9.5pt; max-width: none; padding: 0; }
+  h2 { break-after: avoid; page-break-after: avoid; }
+  h3 { break-after: avoid; page-break-after: avoid; }
+  table { font-size: 8pt; }
+  tr, .summary, .cautions { break-inside: avoid; page-break-inside: avoid; }
+  thead { display: table-header-group; }
+  section.sample { break-before: page; page-break-before: always; }
+  .summary, tr.fail td, th { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+}
+"""
+
+
+def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Sequence[bool] | None = None,
+           row_classes: Sequence[str] | None = None) -> str:
+    """An HTML table; ``rows`` cells are HTML already (escape text before), headers are text."""
+    numeric = numeric or [False] * len(headers)
+    num_attr = [' class="n"' if x else "" for x in numeric]
+    out = ["<table>", "<thead><tr>"]
+    out += [f'<th scope="col"{a}>{_e(h)}</th>' for h, a in zip(headers, num_attr)]
+    out.append("</tr></thead><tbody>")
+    for k, r in enumerate(rows):
+        cls = f' class="{row_classes[k]}"' if row_classes and row_classes[k] else ""
+        out.append(f"<tr{cls}>" + "".join(f"<td{a}>{cell}</td>" for cell, a in zip(r, num_attr)) + "</tr>")
+    out.append("</tbody></table>")
+    return "".join(out)
+
+
+def render_html_report(
+    evaluation,
+    *,
+    verdicts=None,
+    limits: Mapping | None = None,
+    regions=None,
+    lot=None,
+    inputs: Sequence | None = None,
+    title: str | None = None,
+    command: str | None = None,
+    generated_at=None,
+    per_sample_max: int = PER_SAMPLE_MAX,
+) -> str:
+    """The report as one HTML document (a string).
+
+    Parameters
+    ----------
+    evaluation : lumeval.engine.Evaluation
+        Or any object with ``spectra`` (a SpectrumSet), ``figure(name) -> (N,)``,
+        ``reference_spd(i) -> (W,)``, ``warnings`` (N tuples of str) and optionally
+        ``methods`` (dict) and ``cct_reason``.
+    verdicts, limits, regions, lot
+        See the module docstring.
+    inputs : sequence of paths, optional
+        Files hashed in the provenance; default the spectra's source files (plus the
+        criteria file when ``verdicts`` names one).
+    title : str, optional
+    command : str, optional
+        The command line that made the report, shown in the provenance.
+    generated_at : datetime, optional
+        Default: now.
+    per_sample_max : int
+        Up to this many spectra get their own charts.
+    """
+    from .provenance import collect_provenance, input_paths_from_sources
+
+    try:
+        from .tables import CAUTIONS
+    except ImportError:  # pragma: no cover - the tables module is part of the package
+        CAUTIONS = ()
+
+    ev = evaluation
+    names = list(ev.spectra.names)
+    n = len(names)
+    rows = verdict_rows(verdicts, names)
+    figs = report_figures(ev, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
+                          per_sample_max=per_sample_max)
+    if inputs is None:
+        inputs = input_paths_from_sources(ev.spectra.sources)
+        crit = _get(verdicts, "criteria_file") if verdicts is not None and not isinstance(verdicts, (list, tuple)) else None
+        if crit:
+            inputs.append(str(crit))
+    prov = collect_provenance(inputs, methods=getattr(ev, "methods", None) or None, generated_at=generated_at)
+    title = title or ("Colour quality report: " + (names[0] if n == 1 else f"{n} spectra"))
+
+    from .plots import figure_svg
+
+    body: list[str] = []
+    body.append(f"<header><h1>{_e(title)}</h1><p class=\"sub\">{n} spectr{'a' if n != 1 else 'um'} · generated "
+                f"{_e(prov.generated_at)} · lumeval {_e(dict(prov.versions).get('lumeval', '?'))}</p></header>")
+
+    # ---- verdict summary
+    body.append('<section id="verdict"><h2>Verdict</h2>')
+    if not rows:
+        body.append('<div class="summary not-judged"><p class="big">' + _badge("not judged")
+                    + " No acceptance criteria were given: figures only.</p></div>")
+    else:
+        overall = _worst(r.outcome for r in rows)
+        counts = {o: sum(r.outcome == o for r in rows) for o in _OUTCOME_ORDER}
+        per_sample = {}
+        for r in rows:
+            per_sample.setdefault(r.sample or "(lot)", []).append(r.outcome)
+        summary_words = {
+            "pass": "Every criterion is met.",
+            "fail": "At least one criterion is not met.",
+            "indeterminate": "No criterion fails, but at least one cannot be decided.",
+            "not judged": "No criterion fails, but at least one could not be judged.",
+        }[overall]
+        body.append(f'<div class="summary {overall.replace(" ", "-")}"><p class="big">{_badge(overall)} {_e(summary_words)}</p>'
+                    f"<p>{len(rows)} checks: " + ", ".join(
+                        f"{counts[o]} {_OUTCOME_TEXT[o][1].lower()}" for o in _OUTCOME_ORDER if counts[o]) + ".</p></div>")
+        if len(per_sample) > 1:
+            body.append(_table(["Sample", "Verdict", "Checks failed"],
+                               [[_e(s), _badge(_worst(o)), str(sum(x == "fail" for x in o))] for s, o in per_sample.items()],
+                               numeric=[False, False, True],
+                               row_classes=["fail" if "fail" in o else "" for o in per_sample.values()]))
+        vrows, classes = [], []
+        for r in rows:
+            unit = f" {r.unit}" if r.unit else ""
+            meas = _num(r.measured) + (unit if isinstance(r.measured, (int, float)) and math.isfinite(float(r.measured)) else "")
+            marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else _num(r.margin, "+g") + unit
+            vrows.append([_e(r.sample or "lot"), _e(r.clause), meas, _e(r.limit), marg,
+                          _badge(r.outcome) + (f"<br><small>{_e(r.reason)}</small>" if r.reason else "")])
+            classes.append("fail" if r.outcome == "fail" else "")
+        body.append("<h3>Checks</h3>")
+        body.append(_table(["Sample", "Criterion", "Measured", "Limit", "Margin (+ inside)", "Verdict"], vrows,
+                           numeric=[False, False, True, False, True, False], row_classes=classes))
+    body.append("</section>")
+
+    # ---- key figures
+    body.append('<section id="figures-table"><h2>Key figures</h2>')
+    fx = {k: _fig(ev, k) for k in ("x", "y", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg",
+                                   "ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm")}
+    body.append("<h3>Chromaticity (CIE 1931 2°)</h3>")
+    body.append(_table(
+        ["Spectrum", "x", "y", "u′", "v′", "CCT (K)", "Duv"],
+        [[_e(names[i]), _num(fx["x"][i], ".4f"), _num(fx["y"][i], ".4f"), _num(fx["u_prime"][i], ".4f"),
+          _num(fx["v_prime"][i], ".4f"), _num(fx["cct_K"][i], ".0f"), _num(fx["duv"][i], "+.4f")] for i in range(n)],
+        numeric=[False] + [True] * 6))
+    body.append("<h3>Colour rendering and photometry</h3>")
+    body.append(_table(
+        ["Spectrum", "Ra", "R9", "Rf", "Rg", "LER (lm/W)", "S/P", "mel-DER", "peak (nm)"],
+        [[_e(names[i]), _num(fx["Ra"][i], "int"), _num(fx["R9"][i], "int"), _num(fx["Rf"][i], "int"),
+          _num(fx["Rg"][i], "int"), _num(fx["ler_lm_per_W"][i], ".0f"), _num(fx["sp_ratio"][i], ".2f"),
+          _num(fx["melanopic_der"][i], ".3f"), _num(fx["peak_nm"][i], ".0f")] for i in range(n)],
+        numeric=[False] + [True] * 8))
+    body.append('<p class="sub">Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. '
+                "LER: luminous efficacy of radiation. mel-DER: melanopic daylight efficacy ratio (CIE S 026). "
+                "n/a: undefined for that spectrum (see the notes).</p>")
+    body.append("</section>")
+
+    # ---- lot statistics
+    lb = _lot_block(lot)
+    if lb is not None:
+        body.append(f'<section id="lot"><h2>{_e(lb["title"])}</h2>')
+        dicts = [_row_dict(r) for r in lb["rows"]]
+        cols: list[str] = []
+        for d in dicts:
+            cols += [k for k in d if k not in cols]
+        if dicts:
+            def cell(v):
+                if isinstance(v, (bool, np.bool_)):
+                    return _badge("pass" if v else "fail")
+                if isinstance(v, str) and v.strip().lower() in _OUTCOME_TEXT:
+                    return _badge(v.strip().lower())
+                if isinstance(v, (int, float, np.floating, np.integer)):
+                    return _num(float(v))
+                return _e(v if v is not None else "")
+            body.append(_table(cols, [[cell(d.get(c)) for c in cols] for d in dicts],
+                               numeric=[all(isinstance(d.get(c), (int, float, np.floating, np.integer))
+                                            and not isinstance(d.get(c), bool) for d in dicts) for c in cols]))
+        else:
+            body.append("<p>No lot statistics.</p>")
+        if lb["notes"]:
+            body.append('<ul class="notes">' + "".join(f"<li>{_e(x)}</li>" for x in lb["notes"]) + "</ul>")
+        body.append("</section>")
+
+    # ---- figures
+    body.append('<section id="charts"><h2>Figures</h2>')
+    per_sample_figs: dict[str, list[ReportFigure]] = {}
+    for k, f in enumerate(figs):
+        m = re.match(r"(spd|cri|hue-bins)-(\d\d)-", f.key)
+        if m:
+            per_sample_figs.setdefault(m.group(2), []).append(f)
+            continue
+        body.append(_figure_html(f, k, figure_svg))
+    body.append("</section>")
+    for idx, (num, fl) in enumerate(sorted(per_sample_figs.items())):
+        i = int(num) - 1
+        body.append(f'<section class="sample" id="sample-{num}"><h2>{_e(names[i])}</h2>')
+        body.append(f'<p class="sub">Source: <span class="mono">{_e(ev.spectra.sources[i])}</span></p>')
+        for f in fl:
+            body.append(_figure_html(f, figs.index(f), figure_svg))
+        R = _matrix(ev, "R", 14)[i]
+        body.append("<h3>Special colour rendering indices (CIE 13.3)</h3>")
+        body.append(_table([f"R{j}" for j in range(1, 15)], [[_num(v, "int") for v in R]], numeric=[True] * 14))
+        body.append("<h3>Hue bins (CIE 224:2017 / TM-30)</h3>")
+        body.append(_table(["bin"] + [f"h{j}" for j in range(1, 17)], [
+            ["Rf,h"] + [_num(v, "int") for v in _matrix(ev, "Rf_h", 16)[i]],
+            ["Rcs,h (%)"] + [_num(v, "+.0f") for v in _matrix(ev, "Rcs_h", 16)[i]],
+            ["Rhs,h"] + [_num(v, "+.2f") for v in _matrix(ev, "Rhs_h", 16)[i]],
+        ], numeric=[False] + [True] * 16))
+        body.append("</section>")
+
+    # ---- notes on the data
+    warns = list(getattr(ev, "warnings", ()) or ())
+    body.append('<section id="notes"><h2>Notes on the data</h2>')
+    if any(warns):
+        body.append('<ul class="notes">')
+        for i, w in enumerate(warns):
+            for msg in w:
+                body.append(f"<li><b>{_e(names[i])}</b>: {_e(msg)}</li>")
+        body.append("</ul>")
+    else:
+        body.append("<p>Nothing to note: every spectrum was used as read and every figure is defined.</p>")
+    body.append("</section>")
+
+    # ---- provenance
+    body.append('<section id="provenance"><h2>Provenance</h2>')
+    body.append("<h3>Input files</h3>")
+    if prov.files:
+        body.append(_table(["File", "SHA-256", "Bytes"], [
+            [f'<span class="mono">{_e(f.path)}</span>', f'<span class="mono">{_e(f.sha256 or "unreadable")}</span>',
+             _e(f.size_bytes if f.size_bytes is not None else "n/a")] for f in prov.files], numeric=[False, False, True]))
+    else:
+        body.append("<p>No input files (spectra given in memory).</p>")
+    body.append("<h3>Software</h3>")
+    body.append(_table(["Package", "Version"], [[_e(a), _e(b)] for a, b in prov.versions]))
+    body.append("<h3>Methods and standard editions</h3>")
+    body.append(_table(["Topic", "Method"], [[_e(a), _e(b)] for a, b in prov.methods]))
+    meta = [["Generated", _e(prov.generated_at)]]
+    if command:
+        meta.append(["Command", f'<span class="mono">{_e(command)}</span>'])
+    body.append(_table(["", ""], meta))
+    body.append("</section>")
+
+    # ---- cautions
+    body.append('<section id="cautions"><h2>Cautions</h2><div class="cautions"><ul>'
+                + "".join(f"<li>{_e(c)}</li>" for c in CAUTIONS) + "</ul></div></section>")
+    body.append("<footer>Made with lumeval. This file is self-contained: it loads nothing from the network.</footer>")
+
+    return (
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+        "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+        f"<title>{_e(title)}</title>\n<style>{_CSS}</style>\n</head>\n<body>\n"
+        + "\n".join(body)
+        + "\n</body>\n</html>\n"
+    )
+
+
+def _figure_html(f: ReportFigure, k: int, figure_svg) -> str:
+    svg = inline_svg(figure_svg(f.figure), f"f{k}", f.title)
+    return (f'<figure id="fig-{_e(f.key)}" data-figure="{_e(f.key)}">{svg}'
+            f"<figcaption><b>{_e(f.title)}.</b> {_e(f.caption)}</figcaption></figure>")

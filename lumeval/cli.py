@@ -15,6 +15,7 @@ import typer
 #: Command modules, in the order their commands appear in ``--help``.
 _COMMAND_MODULES = [
     "lumeval.commands.inspect",
+    "lumeval.commands.convert",
 ]
 
 app = typer.Typer(

@@ -366,7 +366,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
             return
         k, v = kv
         if k in meta:
-            meta[k] = meta[k] + "; " + v
+            meta[k] = meta[k] + "\n" + v
         else:
             meta[k] = v
 

@@ -1,0 +1,69 @@
+"""``lumeval convert IN OUT``: convert spectra between CSV, IES TM-27 XML and lumeval JSON."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+
+def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None, force: bool = False) -> int:
+    """Python twin of ``lumeval convert``: read ``src`` and write it to ``dst``.
+
+    The output format follows ``dst``'s extension (.csv, .xml/.spdx, .json). Data are written
+    unchanged (no interpolation or clipping: conversion is not preparation) with Python's
+    shortest round-trip number formatting, so CSV → TM-27 XML → CSV reproduces the numbers
+    exactly; header metadata travel along. The output is written atomically; the input is
+    never overwritten; an existing output is replaced only with ``force``.
+
+    Returns the number of spectra written. Raises :class:`lumeval.errors.InputError` /
+    :class:`lumeval.errors.UsageError` (nothing written).
+    """
+    from ..errors import UsageError
+    from ..spectra.read import read_spectra
+    from ..spectra.write import kind_for, serialise, write_atomic
+
+    src_p, dst_p = Path(src), Path(dst)
+    kind = kind_for(dst_p)
+    import os
+
+    try:
+        same = src_p.resolve() == dst_p.resolve() or (
+            dst_p.exists() and src_p.exists() and os.path.samefile(src_p, dst_p)
+        )
+    except OSError:
+        same = False
+    if same:
+        raise UsageError(
+            "the output would overwrite the input", file=str(dst), fix="give a different output file name"
+        )
+    if dst_p.exists() and not force:
+        raise UsageError("the output file exists already", file=str(dst), fix="choose a new name or add --force")
+    spectra = read_spectra(src_p)
+    if column is not None:
+        matches = [i for i, n in enumerate(spectra.names) if n == column]
+        if not matches:
+            raise UsageError(
+                f"no spectrum named {column!r} (there are: {', '.join(spectra.names)[:200]})",
+                file=str(src),
+                fix="give one of these names to --column",
+            )
+        spectra = spectra.subset(matches[:1])
+    data = serialise(spectra, kind)
+    write_atomic(dst_p, data)
+    return len(spectra)
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("convert")
+    def convert_cmd(
+        src: Path = typer.Argument(..., help="Input spectrum file (CSV/text, IES TM-27 XML or lumeval JSON).",
+                                   show_default=False),
+        dst: Path = typer.Argument(..., help="Output file: .csv, .xml (IES TM-27-14) or .json (lumeval JSON).",
+                                   show_default=False),
+        column: str = typer.Option(None, "--column", "-c", help="Convert only the spectrum with this name."),
+        force: bool = typer.Option(False, "--force", help="Replace the output file if it exists."),
+    ) -> None:
+        """Convert spectra between CSV, IES TM-27 XML and lumeval JSON, keeping header metadata."""
+        n = convert_file(src, dst, column=column, force=force)
+        typer.echo(f"wrote {n} {'spectrum' if n == 1 else 'spectra'} to {dst}", err=True)

@@ -1,0 +1,174 @@
+"""lumeval's own JSON spectra format: read and write.
+
+Schema (version 1; documented for users in ``docs/input-files.md``)::
+
+    {
+      "format": "lumeval-spectra",        # required, exactly this string
+      "version": 1,                        # required, integer 1
+      "wavelengths_nm": [380, 381, ...],   # required, W finite numbers, one direction
+      "spectra": [                         # required, at least one
+        {"name": "LED A",                  # required, string
+         "values": [0.01, 0.02, ...],      # required, W finite numbers
+         "metadata": {"key": "value"}}     # optional, string -> string
+      ]
+    }
+
+Unknown keys are ignored. ``NaN`` and ``Infinity`` are refused. Numbers are written with
+Python's shortest round-trip float repr, so writing and reading back is exact.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from .model import SpectrumSet
+
+FORMAT = "lumeval-spectra"
+VERSION = 1
+MAX_JSON_BYTES = 64 * 1024 * 1024
+
+
+def _line_of(text: str, pos: int) -> int:
+    return text.count("\n", 0, pos) + 1
+
+
+def _reject_constant(name: str):
+    raise ValueError(f"non-finite number {name}")
+
+
+def parse_json(raw: bytes, file: str) -> SpectrumSet:
+    """Parse lumeval JSON spectra (see the module docstring) into a raw SpectrumSet."""
+    if len(raw) > MAX_JSON_BYTES:
+        raise InputError(
+            f"JSON document is larger than {MAX_JSON_BYTES / 1e6:.0f} MB", file=file, fix="split the file"
+        )
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"JSON must be UTF-8; byte {exc.start} is not", file=file, fix="save the file as UTF-8"
+        ) from None
+    try:
+        doc = json.loads(text, parse_constant=_reject_constant)
+    except json.JSONDecodeError as exc:
+        raise InputError(
+            f"not valid JSON ({exc.msg})", file=file, line=exc.lineno, fix="repair or re-export the JSON file"
+        ) from None
+    except ValueError as exc:  # NaN / Infinity, or an over-long integer
+        raise InputError(
+            f"not usable JSON ({exc})", file=file, fix="every number must be a finite decimal number"
+        ) from None
+    except RecursionError:
+        raise InputError("JSON is nested too deeply", file=file, fix="check that this is a lumeval spectra file") from None
+
+    def bad(field: str, problem: str, fix: str) -> InputError:
+        return InputError(problem, file=file, field=field, fix=fix)
+
+    if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+        raise bad(
+            "format",
+            f'not a lumeval spectra document (expected "format": "{FORMAT}")',
+            "see docs/input-files.md for the JSON schema, or use CSV / IES TM-27 XML",
+        )
+    if doc.get("version") != VERSION or isinstance(doc.get("version"), bool):
+        raise bad("version", f"unsupported version {doc.get('version')!r}", f"this lumeval reads version {VERSION}")
+    wl = _numbers(doc.get("wavelengths_nm"), "wavelengths_nm", bad)
+    if wl.size < 2:
+        raise bad("wavelengths_nm", "needs at least two wavelengths", "export the full spectrum")
+    spectra = doc.get("spectra")
+    if not isinstance(spectra, list) or not spectra:
+        raise bad("spectra", "must be a non-empty list", 'give a list of {"name": ..., "values": [...]} objects')
+    names, values, metas = [], [], []
+    for k, sp in enumerate(spectra):
+        where = f"spectra[{k}]"
+        if not isinstance(sp, dict):
+            raise bad(where, "must be an object", 'give {"name": ..., "values": [...]}')
+        name = sp.get("name")
+        if not isinstance(name, str) or not name.strip():
+            raise bad(f"{where}.name", "must be a non-empty string", "name the spectrum")
+        v = _numbers(sp.get("values"), f"{where}.values", bad)
+        if v.size != wl.size:
+            raise bad(
+                f"{where}.values",
+                f"has {v.size} values for {wl.size} wavelengths",
+                "give one value per wavelength",
+            )
+        meta = sp.get("metadata", {})
+        if not isinstance(meta, dict) or not all(isinstance(a, str) and isinstance(b, str) for a, b in meta.items()):
+            raise bad(f"{where}.metadata", "must map strings to strings", 'write e.g. {"Instrument": "XYZ"}')
+        m = dict(meta)
+        m.setdefault("lumeval.scale", "unknown")
+        m["lumeval.format"] = "lumeval JSON"
+        m.setdefault("lumeval.wavelength_unit", "nm")
+        names.append(name)
+        values.append(v)
+        metas.append(m)
+    d = np.diff(wl)
+    notes: tuple[str, ...] = ()
+    vals = np.vstack(values)
+    if np.all(d < 0):
+        order = np.argsort(wl)
+        wl, vals = wl[order], vals[:, order]
+        notes = ("wavelengths were in descending order; sorted ascending",)
+        d = np.diff(wl)
+    if not np.all(d > 0):
+        k = int(np.argmax(d <= 0))
+        raise bad(
+            f"wavelengths_nm[{k + 1}]",
+            f"wavelength {wl[k + 1]:g} {'repeats' if d[k] == 0 else 'breaks the order after'} {wl[k]:g}",
+            "give each wavelength once, in one direction",
+        )
+    n = len(names)
+    sources = (file,) if n == 1 else tuple(f"{file}#{nm}" for nm in names)
+    return SpectrumSet(wl, vals, tuple(names), sources, tuple(notes for _ in range(n)), tuple(metas))
+
+
+def _numbers(x, field: str, bad) -> np.ndarray:
+    if not isinstance(x, list):
+        raise bad(field, "must be a list of numbers", "give a JSON array of numbers")
+    out = np.empty(len(x))
+    for i, v in enumerate(x):
+        if isinstance(v, bool) or not isinstance(v, (int, float)):
+            raise bad(f"{field}[{i}]", f"{json.dumps(v)[:30]} is not a number", "give a finite number")
+        try:
+            f = float(v)
+        except OverflowError:
+            f = math.inf
+        if not math.isfinite(f):
+            raise bad(f"{field}[{i}]", f"{str(v)[:30]} is not a finite number", "give a finite number")
+        out[i] = f
+    return out
+
+
+def read_json(path: str | Path) -> SpectrumSet:
+    """Read a lumeval JSON spectra file."""
+    from .text import _read_bytes
+
+    return parse_json(_read_bytes(path, MAX_JSON_BYTES), str(path))
+
+
+_DERIVED = ("lumeval.format", "lumeval.delimiter", "lumeval.column", "lumeval.tm27_version",
+            "lumeval.tm27_namespace")
+
+
+def to_json_bytes(spectra: SpectrumSet) -> bytes:
+    """Serialise ``spectra`` in lumeval's JSON format (exact round trip)."""
+    doc = {
+        "format": FORMAT,
+        "version": VERSION,
+        "wavelengths_nm": [float(w) for w in spectra.wavelengths_nm],
+        "spectra": [
+            {
+                "name": spectra.names[i],
+                "values": [float(v) for v in spectra.values[i]],
+                "metadata": {str(k): str(v) for k, v in spectra.metadata[i].items() if k not in _DERIVED},
+            }
+            for i in range(len(spectra))
+        ],
+    }
+    return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode("utf-8")

@@ -1,0 +1,128 @@
+"""Write spectra as CSV, IES TM-27 XML or lumeval JSON, atomically.
+
+The output kind follows the file extension: ``.csv``/``.txt`` → CSV, ``.xml``/``.spdx`` →
+IES TM-27-14 XML (one spectrum per file), ``.json`` → lumeval JSON. Files are written to a
+temporary file in the same directory and moved into place with :func:`os.replace`, so a
+reader never sees half a file and a failure leaves nothing behind.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from ..errors import InputError, UsageError
+from .model import SpectrumSet
+
+CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
+XML_SUFFIXES = {".xml", ".spdx"}
+JSON_SUFFIXES = {".json"}
+
+#: metadata keys describing how a file was read; not written back as file metadata
+_DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format", "lumeval.tm27_version", "lumeval.tm27_namespace")
+
+
+def to_csv_bytes(spectra: SpectrumSet) -> bytes:
+    """Serialise as CSV: ``# key: value`` metadata lines, a header row, one row per wavelength.
+
+    Numbers use Python's shortest round-trip repr, so reading the file back is exact.
+    Metadata shared by every spectrum is written once; per-spectrum keys are written as
+    ``# [name] key: value``... only shared keys are kept (CSV has one header block).
+    """
+    lines: list[str] = []
+    metas = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
+    shared = dict(metas[0]) if metas else {}
+    for m in metas[1:]:
+        for k in list(shared):
+            if m.get(k) != shared[k]:
+                del shared[k]
+    for k, v in shared.items():
+        for vl in str(v).split("\n"):
+            lines.append(f"# {_clean(k)}: {_clean(vl)}")
+    header = ["wavelength (nm)"] + [_quote(n) for n in spectra.names]
+    lines.append(",".join(header))
+    vals = spectra.values
+    for j, wl in enumerate(spectra.wavelengths_nm):
+        lines.append(",".join([repr(float(wl))] + [repr(float(v)) for v in vals[:, j]]))
+    return ("\n".join(lines) + "\n").encode("utf-8")
+
+
+def _clean(s: str) -> str:
+    return str(s).replace("\r", " ").replace("\n", " ")
+
+
+def _quote(name: str) -> str:
+    name = _clean(name)
+    if any(c in name for c in ',"') or name != name.strip():
+        return '"' + name.replace('"', '""') + '"'
+    return name
+
+
+def kind_for(path: str | Path) -> str:
+    """The output kind ('csv', 'xml', 'json') for ``path``'s extension."""
+    suffix = Path(path).suffix.lower()
+    if suffix in CSV_SUFFIXES:
+        return "csv"
+    if suffix in XML_SUFFIXES:
+        return "xml"
+    if suffix in JSON_SUFFIXES:
+        return "json"
+    raise UsageError(
+        f"cannot tell the output format from the extension {suffix or '(none)'!r}",
+        file=str(path),
+        fix="name the output .csv, .xml (IES TM-27) or .json (lumeval JSON)",
+    )
+
+
+def serialise(spectra: SpectrumSet, kind: str) -> bytes:
+    """Serialise ``spectra`` as ``kind`` ('csv', 'xml' or 'json')."""
+    if kind == "csv":
+        return to_csv_bytes(spectra)
+    if kind == "json":
+        from .jsonio import to_json_bytes
+
+        return to_json_bytes(spectra)
+    if kind == "xml":
+        if len(spectra) != 1:
+            raise UsageError(
+                f"IES TM-27 XML holds one spectrum per file, and there are {len(spectra)}",
+                fix="choose one with --column NAME, or convert to .csv or .json",
+            )
+        from .tm27 import to_tm27_bytes
+
+        return to_tm27_bytes(spectra, 0)
+    raise ValueError(kind)
+
+
+def write_atomic(path: str | Path, data: bytes) -> None:
+    """Write ``data`` to ``path`` via a temporary file in the same directory and os.replace."""
+    p = Path(path)
+    directory = p.parent if str(p.parent) else Path(".")
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=directory)
+    except OSError as exc:
+        raise InputError(
+            f"cannot write here ({exc.strerror or exc})", file=str(path), fix="check the directory exists and is writable"
+        ) from None
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, p)
+    except BaseException as exc:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        if isinstance(exc, OSError):
+            raise InputError(
+                f"cannot write the file ({exc.strerror or exc})", file=str(path), fix="check the path and free space"
+            ) from None
+        raise
+
+
+def write_spectra(spectra: SpectrumSet, path: str | Path) -> None:
+    """Write ``spectra`` to ``path`` (format from the extension), atomically."""
+    write_atomic(path, serialise(spectra, kind_for(path)))

@@ -16,7 +16,7 @@ Conventions (apply to every figure here)
   data extend beyond those ranges. The *unweighted* radiant integral ∫S dλ in the luminous
   efficacy of radiation does: LER is computed over the spectrum's measured range within
   360-830 nm, and a different range gives a different number. Example: an equal-energy
-  spectrum has LER = 154.9 lm/W over 360-830 nm but 182.0 lm/W over 380-780 nm (1 nm grid).
+  spectrum has LER = 155.0 lm/W over 360-830 nm but 182.0 lm/W over 380-780 nm (1 nm grid).
   Compare LER values only between spectra measured over the same range.
 - **Constants.** Km = 683 lm/W and K′m = 1700 lm/W, the rounded maximum photopic and scotopic
   luminous efficacies (Wyszecki & Stiles, *Color Science*, 2nd ed., 1982/2000, as quoted by

@@ -31,6 +31,7 @@ _API = {
     "cct_duv_ohno": "lumeval.metrics.colorimetry",
     "planckian_uv": "lumeval.metrics.colorimetry",
     "tm30": "lumeval.metrics.tm30", "TM30Result": "lumeval.metrics.tm30", "cie2017_rf": "lumeval.metrics.tm30",
+    "photometry": "lumeval.metrics.photometry", "PhotometryResult": "lumeval.metrics.photometry",
 }
 
 __all__ = sorted(_API) + ["__version__"]

@@ -17,7 +17,11 @@ Conventions (apply to every figure here)
   efficacy of radiation does: LER is computed over the spectrum's measured range within
   360-830 nm, and a different range gives a different number. Example: an equal-energy
   spectrum has LER = 155.0 lm/W over 360-830 nm but 182.0 lm/W over 380-780 nm (1 nm grid).
-  Compare LER values only between spectra measured over the same range.
+  Compare LER values only between spectra measured over the same range. Where the readers
+  extended a short spectrum to 380-780 nm by repeating its end values (a warning says so), the
+  extension counts as measured power here too. The integration rule matters as well: the
+  trapezoid rule (as in colour-science's ``luminous_efficacy``) halves the two end samples and
+  gives 155.7 lm/W instead of 155.3 lm/W for CIE illuminant A over 360-780 nm at 1 nm.
 - **Constants.** Km = 683 lm/W and K′m = 1700 lm/W, the rounded maximum photopic and scotopic
   luminous efficacies (Wyszecki & Stiles, *Color Science*, 2nd ed., 1982/2000, as quoted by
   colour-science's ``CONSTANT_K_M`` / ``CONSTANT_KP_M``; CIE 15:2004 Eq. 7.1 uses Km = 683 lm/W

@@ -430,3 +430,25 @@ def test_shape_mismatch_raises_input_error():
     wl = np.arange(380.0, 781.0, 5.0)
     with pytest.raises(InputError):
         T.tm30(wl, np.ones((2, wl.size - 1)), [3000.0, 3000.0])
+
+
+def test_rf_scaling_formula_and_range(led_sets):
+    """CIE 224:2017 scaling Rf = 10 ln(exp((100 − 6.73 ΔE′)/10) + 1), applied to the mean ΔE′ of
+    the 99 CES (Rf), each CES (Rf,CES) and each hue bin's mean (Rf,h, TM-30-18), evaluated here
+    from the returned ΔE′ with numpy's exp/log; all values lie in (0, 10 ln(e^10 + 1)]."""
+    wl, v = led_sets[1]
+    cct, _ = _ohno(wl, v)
+    res = T.tm30(wl, v, cct)
+
+    def scale(de):
+        return 10.0 * np.log(np.exp((100.0 - 6.73 * de) / 10.0) + 1.0)
+
+    np.testing.assert_allclose(res.Rf, scale(res.delta_E_ces.mean(axis=1)), rtol=0, atol=1e-9)
+    np.testing.assert_allclose(res.Rf_ces, scale(res.delta_E_ces), rtol=0, atol=1e-9)
+    for i in range(0, v.shape[0], 17):
+        for j in range(16):
+            sel = res.hue_bin[i] == j
+            assert sel.sum() == res.bin_count[i, j]
+            np.testing.assert_allclose(res.Rf_h[i, j], scale(res.delta_E_ces[i, sel].mean()), atol=1e-9)
+    for a in (res.Rf, res.Rf_ces, res.Rf_h):
+        assert np.all((a > 0) & (a <= RF_IDENTICAL + 1e-12))

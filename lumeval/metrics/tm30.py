@@ -51,13 +51,16 @@ Rf,CES, Rf,h, Rcs,h and Rhs,h (1 nm and 5 nm). The rules differ in three places:
    are identical. Effect on 1 nm daylight/blend sources: Rf ≤ 6e-3, Rg ≤ 1.4e-3.
 3. Blend normalisation (4000-5000 K): both components are scaled to equal Y before mixing.
    colour uses the CIE 1931 2° ȳ for both methods; luxpy 1.12.5 uses the CIE 1964 10° ȳ for
-   TM-30-18/-20/-24 and the 2° ȳ for CIE 224:2017. :func:`tm30` follows luxpy's TM-30 choice
-   (``blend_observer``, default 10°) and :func:`cie2017_rf` its CIE 224 choice (2°). This was not
-   read in the standards' text (not available to us); the effect is ≤ 1.3e-4 in Rf.
+   TM-30-18/-20/-24 and the 2° ȳ for CIE 224:2017; the R package colorSpec (``computeTM30``,
+   TM-30-20) also scales both components to Y10 = 100. :func:`tm30` follows the two independent
+   TM-30 implementations (``blend_observer``, default 10°) and :func:`cie2017_rf` luxpy's CIE 224
+   choice (2°). This was not read in the standards' text (not available to us); the effect is
+   ≤ 1.3e-4 in Rf.
 
 Known limit: under very warm references (measured: 1000 K and 1100 K Planckian) some hue bins
-hold no CES; Rg and those bins' Rf,h / Rcs,h / Rhs,h are then NaN (colour-science gives NaN too)
-while Rf stays defined. ``reason`` says so.
+hold no CES; Rg and those bins' Rf,h / Rcs,h / Rhs,h are then NaN (colour-science gives NaN too;
+colorSpec instead drops the empty bins from the polygons, which TM-30 does not describe) while
+Rf stays defined. ``reason`` says so.
 """
 
 from __future__ import annotations

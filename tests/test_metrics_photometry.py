@@ -222,6 +222,20 @@ def test_sp_ratio_against_colour_luminous_flux(colour, name, expected):
     assert round(ours, 2) == expected
 
 
+@pytest.mark.parametrize("name", ["A", "D65", "FL2", "LED-B3"])
+def test_sp_ratio_against_luxpy(colour, luxpy, name):
+    # luxpy.spd_to_power with its own CIE 1951 scotopic table ('1951_20_scotopic', K'm = 1700)
+    # and CIE 1931 V(λ) (Km = 683). luxpy's 1 nm V'(λ) is the CIE 5 nm table linearly
+    # interpolated (0.9974 at 508 nm where the CIE 1 nm table, which colour-science and we use,
+    # has 1.000), so S/P differs by up to 1.3e-4 for smooth spectra and 3.7e-4 for FL2's lines.
+    wl, s = _on_grid(colour, name, 1)
+    data = np.vstack([wl, s])
+    scot = luxpy.spd_to_power(data, ptype="pu", cieobs="1951_20_scotopic", K=1700.0)
+    phot = luxpy.spd_to_power(data, ptype="pu", cieobs="1931_2", K=683.0)
+    theirs = float(np.ravel(scot / phot)[0])
+    assert photometry(wl, s).sp_ratio[0] == pytest.approx(theirs, rel=5e-4)
+
+
 # --------------------------------------------------------------------------- peak wavelength
 
 

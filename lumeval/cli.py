@@ -16,6 +16,8 @@ import typer
 _COMMAND_MODULES = [
     "lumeval.commands.inspect",
     "lumeval.commands.convert",
+    "lumeval.commands.check",
+    "lumeval.commands.criteria_cmd",
 ]
 
 app = typer.Typer(

@@ -1,0 +1,46 @@
+"""Acceptance criteria: the model, its TOML loader, chromaticity regions, verdicts and claims.
+
+Python API (the ``lumeval check``, ``lumeval criteria`` and ``lumeval claims`` commands are
+thin layers over it)::
+
+    from lumeval.criteria import load_criteria, check
+    criteria = load_criteria("tender_criteria.toml")
+    result = check(evaluation, criteria)        # CheckResult, vectorised over N spectra
+    result.verdicts, result.exit_code
+
+    from lumeval.criteria import load_claims
+    claims_check = load_claims("supplier_claims.toml").check(evaluation)
+"""
+
+from __future__ import annotations
+
+from .claims import Claims, ClaimsCheck, load_claims, parse_claims
+from .loader import load_criteria, parse_criteria
+from .model import CLAUSE_KINDS, ClauseKind, Criteria, register_clause_kind
+from .verdicts import FAIL, INDETERMINATE, NOT_JUDGED, PASS, CheckResult, ClauseResult
+
+
+def check(evaluation, criteria: Criteria) -> CheckResult:
+    """Judge ``criteria`` for every spectrum of ``evaluation`` (see :meth:`Criteria.evaluate`)."""
+    return criteria.evaluate(evaluation)
+
+
+__all__ = [
+    "CLAUSE_KINDS",
+    "CheckResult",
+    "Claims",
+    "ClaimsCheck",
+    "ClauseKind",
+    "ClauseResult",
+    "Criteria",
+    "FAIL",
+    "INDETERMINATE",
+    "NOT_JUDGED",
+    "PASS",
+    "check",
+    "load_claims",
+    "load_criteria",
+    "parse_claims",
+    "parse_criteria",
+    "register_clause_kind",
+]

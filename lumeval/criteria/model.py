@@ -407,10 +407,7 @@ class AnsiQuadrangleClause(ClauseKind):
         outcome, reason = simple_outcomes(margin)
         cct, duv = np.asarray(ev.cct_K, float), np.asarray(ev.duv, float)
         lo, hi = q.cct_range_K
-        lim = (
-            f"inside {q.name} quadrangle: CCT {lo:.0f}–{hi:.0f} K, Duv {q.duv_edges[0, 0]:+.4f}…{q.duv_edges[0, 1]:+.4f} "
-            f"at {lo:.0f} K and {q.duv_edges[1, 0]:+.4f}…{q.duv_edges[1, 1]:+.4f} at {hi:.0f} K"
-        )
+        lim = f"CCT {lo:.0f}–{hi:.0f} K, Duv target ± {regions.ANSI_DUV_TOLERANCE}"
         return (
             ClauseResult(
                 clause_id=self.clause_id,
@@ -520,7 +517,7 @@ class SdcmClause(ClauseKind):
             ell = regions.SdcmEllipse(f"user ellipse at ({c[0]}, {c[1]})", np.array(c, float), g[0], g[1], g[2], "user-given centre and coefficients")
             if not ell.is_positive_definite:
                 raise ParseError("g11", "g11, g12, g22 do not describe an ellipse (need g11 > 0, g22 > 0, g11·g22 > g12²)", "check the coefficients and their signs")
-        label = common["label"] or f"within {steps:g} steps of {ell.name}"
+        label = common["label"] or f"within {steps:g} SDCM steps of {ell.name}"
         return cls(common["id"], label, common["note"], common["line"], ell, steps)
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
@@ -539,7 +536,7 @@ class SdcmClause(ClauseKind):
                 measured=st,
                 lower=None,
                 upper=float(self.max_steps),
-                limit_text=f"≤ {self.max_steps:g} steps from {self.ellipse.name} (x, y = {self.ellipse.centre_xy[0]:.4f}, {self.ellipse.centre_xy[1]:.4f})",
+                limit_text=f"≤ {self.max_steps:g} steps; centre x, y = {self.ellipse.centre_xy[0]:.4f}, {self.ellipse.centre_xy[1]:.4f}",
                 margin=margin,
                 outcome=outcome,
                 details={"steps": st, "delta_upvp": d, "x": xy[:, 0], "y": xy[:, 1]},

@@ -1,0 +1,89 @@
+"""``lumeval check``: judge spectra against a criteria file, clause by clause."""
+
+from __future__ import annotations
+
+import sys
+from enum import Enum
+from pathlib import Path
+
+import typer
+
+
+class OutputFormat(str, Enum):
+    terminal = "terminal"
+    json = "json"
+    csv = "csv"
+
+
+def check_files(paths, criteria_path):
+    """Python twin of ``lumeval check``: read the criteria, evaluate the spectra, judge them.
+
+    The criteria file is read first, so a bad criteria file is reported before any spectrum
+    is computed. Returns a :class:`lumeval.criteria.CheckResult`; raises
+    :class:`lumeval.errors.CriteriaError` / :class:`lumeval.errors.InputError` on bad input.
+    """
+    from ..criteria import load_criteria
+    from .inspect import inspect_files
+
+    criteria = load_criteria(criteria_path)
+    ev = inspect_files(paths)
+    return criteria.evaluate(ev)
+
+
+def emit(text: str, output: Path | None) -> None:
+    """Print ``text`` or write it atomically to ``output``."""
+    if output is None:
+        typer.echo(text, nl=False)
+    else:
+        from ..spectra.write import write_atomic
+
+        write_atomic(output, text.encode("utf-8"))
+
+
+def plain_text(renderables) -> str:
+    """Render rich renderables to plain text (no colour codes) for a file."""
+    import io
+
+    from rich.console import Console
+
+    console = Console(file=io.StringIO(), record=True, width=140, color_system=None)
+    for r in renderables:
+        console.print(r)
+    return console.export_text()
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("check")
+    def check_cmd(
+        files: list[Path] = typer.Argument(..., help="Spectrum files (CSV, IES TM-27 XML, JSON).", show_default=False),
+        criteria: Path = typer.Option(..., "--criteria", "-c", help="Acceptance criteria file (TOML; see docs/criteria.md).", show_default=False),
+        output_format: OutputFormat = typer.Option(
+            OutputFormat.terminal, "--format", "-f", help="terminal report, one JSON document, or CSV (one row per spectrum and clause)."
+        ),
+        output: Path = typer.Option(None, "--output", "-o", help="Write the JSON/CSV/terminal text to this file instead of the screen."),
+    ) -> None:
+        """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
+        every requirement; 1: a requirement failed (or could not be decided); 2: bad input."""
+        result = check_files(files, criteria)
+        if output_format is OutputFormat.json:
+            from ..render.verdicts import check_to_json
+
+            emit(check_to_json(result), output)
+        elif output_format is OutputFormat.csv:
+            from ..render.verdicts import check_to_csv
+
+            emit(check_to_csv(result), output)
+        else:
+            from ..render.verdicts import check_renderables
+
+            if output is None:
+                from rich.console import Console
+
+                console = Console()
+                for r in check_renderables(result):
+                    console.print(r)
+            else:
+                emit(plain_text(check_renderables(result)), output)
+        # sys.exit (not typer.Exit): the entry point runs click with standalone_mode=False,
+        # which would turn typer.Exit into a return value and lose the code.
+        sys.exit(result.exit_code)

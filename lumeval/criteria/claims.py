@@ -1,0 +1,301 @@
+"""Datasheet claims checked against the supplier's own SPD.
+
+A claims file (TOML) lists what a supplier states, e.g. ``Ra = ">= 90"`` or ``cct_K = 3000``.
+Each claim is judged for every spectrum given: **supported**, **contradicted** (with by how
+much) or **not checkable** from spectral data (an undefined figure, or a property an SPD does
+not determine such as luminous flux or lifetime).
+
+How a claim is read (defaults are common practice, no source; the file's ``[tolerances]``
+table overrides the tolerance per figure, in the figure's own units):
+
+* ``">= v"`` / ``"> v"`` (minimum claims, e.g. "Ra ≥ 90"): supported when measured ≥ v − t.
+* ``"<= v"`` / ``"< v"``: supported when measured ≤ v + t.
+  Default t for these: half a unit of the last digit written (a datasheet "90" stands for
+  anything that rounds to 90; "0.85" for anything that rounds to 0.85).
+* ``"v ± d"`` (explicit tolerance): supported when |measured − v| ≤ d (no further tolerance).
+* a plain value ``v`` (a nominal claim, e.g. "CCT 3000 K"):
+  - ``cct_K``: when v is a nominal category of ANSI C78.377-2017 Table 1, supported when the
+    measured CCT lies within that category's target ± tolerance (e.g. 3000 → 2870-3220 K);
+    for other values within 2200-7000 K, ± the flexible-CCT tolerance formula of
+    :func:`lumeval.criteria.regions.ansi_flexible_tolerance_K` (memory, see there);
+  - ``duv``: ± 0.006 (the ANSI C78.377 Duv tolerance);
+  - every other figure: half a unit of the last digit written.
+
+By how much a claim is contradicted is ``measured − bound`` in the figure's units (negative
+when the product falls short of a minimum claim).
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass
+from decimal import Decimal
+from pathlib import Path
+
+import numpy as np
+
+from ..engine import FIGURE_NAMES
+from ..errors import CriteriaError
+from . import regions
+from .loader import locate_lines
+from .model import figure_unit, fmt_number, is_number, suggest
+
+SUPPORTED = "supported"
+CONTRADICTED = "contradicted"
+NOT_CHECKABLE = "not checkable"
+
+FORMAT_KEY = "lumeval_claims"
+FORMAT_VERSION = 1
+TOP_LEVEL_KEYS = (FORMAT_KEY, "supplier", "claims", "tolerances")
+SUPPLIER_KEYS = ("name", "product", "datasheet", "date", "notes")
+
+#: Claims a supplier may state that an SPD cannot confirm or contradict, with the reason.
+NOT_CHECKABLE_KEYS: dict[str, str] = {
+    "luminous_flux_lm": "luminous flux needs an absolute photometric measurement, not a relative SPD",
+    "efficacy_lm_per_W": "luminaire efficacy needs flux and electrical power, which an SPD does not give",
+    "power_W": "electrical power is not in the spectrum",
+    "lifetime_h": "lifetime (e.g. L70) needs a maintenance test, not a spectrum",
+    "sdcm_steps": "colour consistency (SDCM) is a property of many samples of a product, not of one SPD",
+    "flicker": "temporal light modulation is not in a time-averaged spectrum",
+    "beam_angle_deg": "the beam angle is a photometric (intensity distribution) property",
+    "ugr": "glare rating depends on the luminaire and the room, not on the spectrum",
+}
+
+_CLAIM_RE = re.compile(
+    r"""^\s*(?P<op>>=|≥|=>|>|<=|≤|=<|<|=)?\s*
+        (?P<value>[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*
+        (?:(?:±|\+/-|\+-)\s*(?P<tol>\d+(?:\.\d*)?(?:[eE][-+]?\d+)?))?\s*
+        (?P<unit>K|%|lm/W|nm)?\s*$""",
+    re.VERBOSE,
+)
+
+
+def _half_unit(text: str) -> float:
+    """Half a unit of the last digit written: "90" -> 0.5, "0.85" -> 0.005, "3000" -> 0.5."""
+    d = Decimal(text.lstrip("+-"))
+    exp = d.as_tuple().exponent
+    return 0.5 * 10.0 ** (exp if isinstance(exp, int) else 0)
+
+
+@dataclass(frozen=True)
+class Claim:
+    """One parsed claim: ``lower ≤ figure ≤ upper`` after tolerance (None = unbounded)."""
+
+    key: str
+    figure: str
+    text: str
+    stated_lower: float | None
+    stated_upper: float | None
+    lower: float | None
+    upper: float | None
+    tolerance_note: str
+    line: int | None
+    not_checkable: str = ""
+
+
+@dataclass(frozen=True)
+class ClaimResult:
+    """A claim judged for N spectra."""
+
+    claim: Claim
+    measured: np.ndarray
+    excess: np.ndarray  # measured − violated bound where contradicted, 0 where supported, NaN otherwise
+    outcome: tuple[str, ...]
+    reason: tuple[str, ...]
+    unit: str
+
+
+@dataclass(frozen=True)
+class Claims:
+    """A parsed claims file."""
+
+    claims: tuple[Claim, ...]
+    supplier: dict
+    file: str
+
+    def check(self, ev) -> "ClaimsCheck":
+        """Judge every claim for every spectrum of ``ev`` (an Evaluation)."""
+        n = len(np.asarray(ev.x))
+        out = []
+        reasons_cct = getattr(ev, "cct_reason", None)
+        for c in self.claims:
+            unit = figure_unit(c.figure) if c.figure else ""
+            if c.not_checkable:
+                out.append(ClaimResult(c, np.full(n, np.nan), np.full(n, np.nan), (NOT_CHECKABLE,) * n, (c.not_checkable,) * n, unit))
+                continue
+            m = np.asarray(ev.figure(c.figure), dtype=float)
+            excess = np.zeros(n)
+            outcome, reason = [], []
+            for i in range(n):
+                if not np.isfinite(m[i]):
+                    outcome.append(NOT_CHECKABLE)
+                    r = reasons_cct[i] if reasons_cct is not None and reasons_cct[i] else ""
+                    reason.append(f"{c.figure} is undefined for this spectrum" + (f" ({r})" if r else ""))
+                    excess[i] = np.nan
+                elif c.lower is not None and m[i] < c.lower:
+                    outcome.append(CONTRADICTED)
+                    reason.append("")
+                    excess[i] = m[i] - (c.stated_lower if c.stated_lower is not None else c.lower)
+                elif c.upper is not None and m[i] > c.upper:
+                    outcome.append(CONTRADICTED)
+                    reason.append("")
+                    excess[i] = m[i] - (c.stated_upper if c.stated_upper is not None else c.upper)
+                else:
+                    outcome.append(SUPPORTED)
+                    reason.append("")
+            out.append(ClaimResult(c, m, excess, tuple(outcome), tuple(reason), unit))
+        names = tuple(getattr(ev, "names", None) or (f"spectrum {i + 1}" for i in range(n)))
+        warnings = tuple(getattr(ev, "warnings", None) or ((),) * n)
+        return ClaimsCheck(names, warnings, tuple(out), dict(self.supplier), self.file)
+
+
+@dataclass(frozen=True)
+class ClaimsCheck:
+    names: tuple[str, ...]
+    warnings: tuple[tuple[str, ...], ...]
+    results: tuple[ClaimResult, ...]
+    supplier: dict
+    claims_file: str
+
+    def verdict(self, i: int) -> str:
+        oc = [r.outcome[i] for r in self.results]
+        if CONTRADICTED in oc:
+            return CONTRADICTED
+        if SUPPORTED in oc:
+            return SUPPORTED
+        return NOT_CHECKABLE
+
+    @property
+    def exit_code(self) -> int:
+        """1 when any claim is contradicted for any spectrum, else 0."""
+        return 1 if any(CONTRADICTED in r.outcome for r in self.results) else 0
+
+
+def _nominal_cct_bounds(v: float) -> tuple[float, float, str] | None:
+    if v in regions.ANSI_C78377_2017:
+        c = regions.ANSI_C78377_2017[int(v)]
+        return c.target_cct_K - c.tolerance_K, c.target_cct_K + c.tolerance_K, (
+            f"ANSI C78.377-2017 {int(v)} K category: {c.target_cct_K:.0f} ± {c.tolerance_K:.0f} K"
+        )
+    lo, hi = regions.ANSI_FLEXIBLE_RANGE_K
+    if lo <= v <= hi:
+        t = float(regions.ansi_flexible_tolerance_K(v))
+        return v - t, v + t, f"± {t:.0f} K (ANSI C78.377 flexible-CCT tolerance formula, quoted from memory)"
+    return None
+
+
+def parse_claims(text: str, file: str = "<claims>") -> Claims:
+    """Parse a claims file. Raises CriteriaError with line and key on any problem."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = re.search(r"line (\d+)", msg)
+        line = int(m.group(1)) if m else None
+        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
+        raise CriteriaError(f"not valid TOML: {problem}", file=file, line=line, fix="check quotes, brackets and `key = value` syntax") from None
+    lines = locate_lines(text)
+
+    def err(path, key, problem, fix=None):
+        ln = lines.get(path + ((key,) if key else ()), lines.get(path))
+        return CriteriaError(problem, file=file, line=ln, field=key, fix=fix)
+
+    for k in data:
+        if k not in TOP_LEVEL_KEYS:
+            s = suggest(k, TOP_LEVEL_KEYS)
+            raise err((), k, f"unknown key {k!r} at the top level", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(TOP_LEVEL_KEYS)}")
+    if FORMAT_KEY in data and data[FORMAT_KEY] != FORMAT_VERSION:
+        raise err((), FORMAT_KEY, f"unsupported format version {data[FORMAT_KEY]!r}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
+    supplier = {}
+    for k, v in (data.get("supplier") or {}).items():
+        if k not in SUPPLIER_KEYS:
+            s = suggest(k, SUPPLIER_KEYS)
+            raise err(("supplier",), k, f"unknown key {k!r} in [supplier]", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(SUPPLIER_KEYS)}")
+        supplier[k] = str(v)
+    raw = data.get("claims")
+    if not isinstance(raw, dict) or not raw:
+        raise CriteriaError("the file has no claims", file=file, line=lines.get(("claims",)), fix='add a [claims] table, e.g. Ra = ">= 90"')
+    allowed_keys = list(FIGURE_NAMES) + list(NOT_CHECKABLE_KEYS)
+    tol_raw = data.get("tolerances") or {}
+    if not isinstance(tol_raw, dict):
+        raise err((), "tolerances", "`tolerances` must be a table", "write [tolerances] with figure = number lines")
+    tolerances: dict[str, float] = {}
+    for k, v in tol_raw.items():
+        if k not in FIGURE_NAMES:
+            s = suggest(k, FIGURE_NAMES)
+            raise err(("tolerances",), k, f"unknown figure {k!r}", (f"did you mean {s!r}? " if s else "") + "use a figure name, as in [claims]")
+        if not is_number(v) or not np.isfinite(v) or v < 0:
+            raise err(("tolerances",), k, f"must be a non-negative number, got {v!r}", "write the tolerance in the figure's own units, e.g. Ra = 1")
+        tolerances[k] = float(v)
+
+    claims = []
+    for key, value in raw.items():
+        line = lines.get(("claims", key))
+        if key not in allowed_keys:
+            s = suggest(key, allowed_keys)
+            raise err(("claims",), key, f"unknown claim {key!r}", (f"did you mean {s!r}? " if s else "") + "use a lumeval figure name (cct_K, duv, Ra, R9, Rf, Rg, ...) or one of " + ", ".join(NOT_CHECKABLE_KEYS))
+        text = str(value)
+        if key in NOT_CHECKABLE_KEYS:
+            claims.append(Claim(key, "", text, None, None, None, None, "", line, NOT_CHECKABLE_KEYS[key]))
+            continue
+        if is_number(value):
+            text = repr(value) if isinstance(value, float) else str(value)
+            m = _CLAIM_RE.match(text)
+        elif isinstance(value, str):
+            m = _CLAIM_RE.match(value)
+        else:
+            m = None
+        if m is None:
+            raise err(("claims",), key, f"cannot read the claim {value!r}", 'write e.g. ">= 90", "<= 0.003", "3000 K", "100 ± 3" or a plain number')
+        unit = m.group("unit")
+        if unit and unit != figure_unit(key):
+            raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(key) or 'none'!r})", f"write {key} in {figure_unit(key) or 'plain numbers'}")
+        v = float(m.group("value"))
+        op = m.group("op") or ""
+        t_override = tolerances.get(key)
+        if m.group("tol") is not None:
+            if op not in ("", "="):
+                raise err(("claims",), key, "a ± tolerance cannot be combined with a comparison", 'write either ">= v" or "v ± d"')
+            d = float(m.group("tol"))
+            claims.append(Claim(key, key, text, v - d, v + d, v - d, v + d, f"stated ± {fmt_number(d)}", line))
+            continue
+        if op in (">=", "≥", "=>", ">"):
+            t = t_override if t_override is not None else _half_unit(m.group("value"))
+            note = "tolerance from [tolerances]" if t_override is not None else "read at the precision written (half a unit of the last digit)"
+            claims.append(Claim(key, key, text, v, None, v - t, None, f"{note}: {fmt_number(t)}", line))
+        elif op in ("<=", "≤", "=<", "<"):
+            t = t_override if t_override is not None else _half_unit(m.group("value"))
+            note = "tolerance from [tolerances]" if t_override is not None else "read at the precision written (half a unit of the last digit)"
+            claims.append(Claim(key, key, text, None, v, None, v + t, f"{note}: {fmt_number(t)}", line))
+        else:
+            if t_override is not None:
+                lo, hi, note = v - t_override, v + t_override, f"± {fmt_number(t_override)} from [tolerances]"
+            elif key == "cct_K":
+                b = _nominal_cct_bounds(v)
+                if b is None:
+                    raise err(("claims",), key, f"no default tolerance for a nominal CCT of {v:g} K", "give one: cct_K = \"%g ± 100\" or a [tolerances] entry" % v)
+                lo, hi, note = b
+            elif key == "duv":
+                lo, hi, note = v - regions.ANSI_DUV_TOLERANCE, v + regions.ANSI_DUV_TOLERANCE, "± 0.006 (ANSI C78.377 Duv tolerance)"
+            else:
+                t = _half_unit(m.group("value"))
+                lo, hi, note = v - t, v + t, f"read at the precision written: ± {fmt_number(t)}"
+            claims.append(Claim(key, key, text, lo, hi, lo, hi, note, line))
+    return Claims(tuple(claims), supplier, file)
+
+
+def load_claims(path) -> Claims:
+    """Read and parse a claims file."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise CriteriaError("no such file", file=str(path), fix="check the path given to --claims") from None
+    except IsADirectoryError:
+        raise CriteriaError("is a directory, not a claims file", file=str(path), fix="give the path of a .toml file") from None
+    except UnicodeDecodeError:
+        raise CriteriaError("is not UTF-8 text", file=str(path), fix="save the claims file as UTF-8 TOML") from None
+    except OSError as exc:
+        raise CriteriaError(f"cannot be read ({exc.strerror})", file=str(path), fix="check permissions") from None
+    return parse_claims(text, str(path))

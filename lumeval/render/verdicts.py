@@ -1,0 +1,474 @@
+"""Renderings of verdicts (``lumeval check``) and claim checks (``lumeval claims``).
+
+Terminal (rich renderables), JSON and CSV of the same results; nothing is computed here.
+
+Terminal layout (our own): for each spectrum a verdict line, then one row per clause in the
+order of the criteria file — requirement, measured value, limit, margin, result. A failure is
+impossible to miss without colour: the result cell reads ``✘ FAIL`` in capitals, the row is
+marked with ``>>`` in the first column, and the verdict line spells the number of failed
+clauses; colour (red/green) only repeats what the words say. An undefined figure prints as
+"n/a" with the reason below the table, never as a number. Margins are positive inside the
+acceptance zone.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+from .tables import CAUTIONS
+
+JSON_SCHEMA_VERSION = 1
+
+_WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "indeterminate": "? INDETERMINATE", "not judged": "– NOT JUDGED"}
+_STYLE = {"pass": "green", "fail": "bold red", "indeterminate": "bold yellow", "not judged": "bold yellow"}
+_CLAIM_WORD = {"supported": "✔ supported", "contradicted": "✘ CONTRADICTED", "not checkable": "– not checkable"}
+_CLAIM_STYLE = {"supported": "green", "contradicted": "bold red", "not checkable": "yellow"}
+
+#: Display precision per figure (format spec for values; margins use the same with a sign).
+_SPEC = {
+    "cct_K": ".0f",
+    "duv": ".4f",
+    "x": ".4f",
+    "y": ".4f",
+    "u": ".4f",
+    "v": ".4f",
+    "u_prime": ".4f",
+    "v_prime": ".4f",
+    "dc": ".4f",
+    "sp_ratio": ".3f",
+    "melanopic_der": ".3f",
+    "peak_nm": ".0f",
+    "ler_lm_per_W": ".1f",
+}
+
+
+def _spec(figure: str) -> str:
+    if figure in _SPEC:
+        return _SPEC[figure]
+    if figure.startswith("Rhs_h"):
+        return ".3f"
+    return ".1f"  # indices and Rcs (%): one decimal so 89.6 against 90 is visible
+
+
+def _f(v, spec: str, unit: str = "") -> str:
+    f = float(v)
+    if not math.isfinite(f):
+        return "n/a"
+    text = format(f, spec)
+    if float(text) == 0.0:
+        text = format(0.0, spec.replace("+", ""))
+    sp = "" if unit in ("", "%") else " "
+    return f"{text}{sp}{unit}" if unit else text
+
+
+def _num(v):
+    f = float(v)
+    return f if math.isfinite(f) else None
+
+
+def _extra_decimals(margin: float, spec: str) -> int:
+    """Extra decimals needed so that a non-zero margin does not print as zero (at most 6):
+    a value of -7.03 % against a limit of -7 % must not read "-7.0 %, margin 0.0"."""
+    f = float(margin)
+    if not math.isfinite(f) or f == 0.0:
+        return 0
+    for k in range(0, 7):
+        if float(format(abs(f), _more(spec, k))) != 0.0:
+            return k
+    return 6
+
+
+def _more(spec: str, k: int) -> str:
+    """``spec`` (like "+.1f") with ``k`` more decimals."""
+    head, _, tail = spec.partition(".")
+    digits = int(tail[:-1] or 0)
+    return f"{head}.{digits + k}{tail[-1]}"
+
+
+def measured_text(r, i: int) -> str:
+    """The measured value of result ``r`` for spectrum ``i`` as a person reads it."""
+    if r.kind == "ansi_quadrangle":
+        cct, duv = r.details["cct_K"][i], r.details["duv"][i]
+        return f"CCT {_f(cct, '.0f')} K, Duv {_f(duv, '+.4f')}"
+    if r.kind == "sdcm":
+        return f"{_f(r.measured[i], _more('.2f', _extra_decimals(r.margin[i], '.2f')))} steps"
+    spec = _spec(r.figure)
+    return _f(r.measured[i], _more(spec, _extra_decimals(r.margin[i], spec)), r.unit)
+
+
+def margin_text(r, i: int) -> str:
+    """The margin (positive inside the acceptance zone), never printed as a misleading zero."""
+    if r.kind == "ansi_quadrangle":
+        return f"{_f(r.margin[i], _more('+.4f', _extra_decimals(r.margin[i], '.4f')))} Δu'v'"
+    if r.kind == "sdcm":
+        k = _extra_decimals(r.margin[i], ".2f")
+        return f"{_f(r.margin[i], _more('+.2f', k))} steps ({_f(r.details['delta_upvp'][i], '+.4f')} Δu'v')"
+    spec = _spec(r.figure)
+    return _f(r.margin[i], "+" + _more(spec, _extra_decimals(r.margin[i], spec)), r.unit)
+
+
+# --------------------------------------------------------------------------- terminal
+
+
+def _header(title: str, file: str, ident: dict):
+    from rich.text import Text
+
+    t = Text()
+    t.append(title + "\n", style="bold")
+    t.append(f"file: {file}\n")
+    for k, v in ident.items():
+        t.append(f"{k}: {v}\n")
+    return t
+
+
+def check_renderables(result) -> list:
+    """Rich renderables for a :class:`~lumeval.criteria.verdicts.CheckResult`."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    out = [_header("Acceptance check", result.criteria_file, result.identification)]
+    n_clauses = len(result.results)
+    for i, name in enumerate(result.names):
+        v = result.verdict(i)
+        nfail = sum(1 for r in result.results if r.outcome[i] == "fail")
+        nopen = sum(1 for r in result.results if r.outcome[i] in ("indeterminate", "not judged"))
+        line = Text("\n")
+        if v == "pass":
+            line.append("✔ PASS  ", style="bold green")
+            tail = f"all {n_clauses} requirements met"
+        elif v == "fail":
+            line.append("✘ FAIL  ", style="bold red")
+            tail = f"{nfail} of {n_clauses} requirements FAILED"
+        else:
+            line.append(f"? {v.upper()}  ", style="bold yellow")
+            tail = f"{nopen} of {n_clauses} requirements could not be decided — not a pass"
+        line.append(name, style="bold")
+        line.append(f" — {tail}")
+        if result.sources[i]:
+            line.append(f"\n  file: {result.sources[i]}", style="dim")
+        out.append(line)
+        t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
+        t.add_column("", no_wrap=True)
+        t.add_column("id", no_wrap=True)
+        t.add_column("requirement", ratio=3)
+        t.add_column("measured", justify="right", ratio=2)
+        t.add_column("margin", justify="right", ratio=2)
+        t.add_column("result", no_wrap=True)
+        notes = []
+        for r in result.results:
+            o = r.outcome[i]
+            mark = ">>" if o != "pass" else ""
+            style = "bold red" if o == "fail" else ("yellow" if o != "pass" else None)
+            req = Text(r.label)
+            if r.limit_text not in r.label:
+                req.append(f"\n{r.limit_text}", style="dim")
+            t.add_row(mark, r.clause_id, req, measured_text(r, i), margin_text(r, i), Text(_WORD[o], style=_STYLE[o]), style=style)
+            if r.reason and r.reason[i]:
+                notes.append(f"{r.clause_id}: {r.reason[i]}")
+        out.append(t)
+        for w in result.warnings[i] if i < len(result.warnings) else ():
+            notes.append(w)
+        if notes:
+            nt = Text()
+            for s in notes:
+                nt.append(f"  note: {s}\n")
+            out.append(nt)
+    out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
+    out.append(_sources_text(result))
+    out.append(_cautions_text())
+    return out
+
+
+def _overall_text(overall: str, n: int, nfail: int):
+    from rich.text import Text
+
+    t = Text("\n")
+    if overall == "pass":
+        t.append(f"OVERALL: ✔ PASS — all {n} spectra meet every requirement", style="bold green")
+    elif overall == "fail":
+        t.append(f"OVERALL: ✘ FAIL — {nfail} of {n} spectra failed at least one requirement", style="bold red")
+    else:
+        t.append(f"OVERALL: ? {overall.upper()} — some requirements could not be decided; this is not a pass", style="bold yellow")
+    return t
+
+
+def _sources_text(result):
+    from rich.text import Text
+
+    seen = []
+    for r in result.results:
+        if r.source and r.source not in seen:
+            seen.append(r.source)
+    t = Text("\nSources of the limits and regions:\n", style="dim")
+    for s in seen:
+        t.append(f"  - {s}\n", style="dim")
+    t.append(f"  Decision rule: {result.results[0].decision_rule if result.results else 'n/a'}; margins are positive inside the acceptance zone.\n", style="dim")
+    return t
+
+
+def _cautions_text():
+    from rich.text import Text
+
+    t = Text("Cautions:\n", style="dim")
+    for c in CAUTIONS:
+        t.append(f"  - {c}\n", style="dim")
+    return t
+
+
+def print_check(result, console=None) -> None:
+    from rich.console import Console
+
+    console = console or Console()
+    for r in check_renderables(result):
+        console.print(r)
+
+
+# --------------------------------------------------------------------------- JSON / CSV
+
+
+def check_record(result) -> dict:
+    """The check result as a JSON-ready dict (schema documented in docs/criteria.md)."""
+    spectra = []
+    for i, name in enumerate(result.names):
+        clauses = []
+        for r in result.results:
+            rec = {
+                "id": r.clause_id,
+                "group": r.group,
+                "kind": r.kind,
+                "label": r.label,
+                "figure": r.figure,
+                "unit": r.unit,
+                "measured": _num(r.measured[i]),
+                "lower": r.lower,
+                "upper": r.upper,
+                "limit": r.limit_text,
+                "margin": _num(r.margin[i]),
+                "outcome": r.outcome[i],
+                "reason": (r.reason[i] if r.reason else "") or None,
+                "details": {k: _num(v[i]) for k, v in r.details.items()},
+                "uncertainty": None if r.uncertainty is None else _num(r.uncertainty[i]),
+                "p_conformance": None if r.p_conformance is None else _num(r.p_conformance[i]),
+                "decision_rule": r.decision_rule,
+                "source": r.source,
+                "line": r.line,
+            }
+            clauses.append(rec)
+        spectra.append(
+            {
+                "name": name,
+                "source": result.sources[i],
+                "verdict": result.verdict(i),
+                "warnings": list(result.warnings[i]) if i < len(result.warnings) else [],
+                "clauses": clauses,
+            }
+        )
+    return {
+        "lumeval_check": JSON_SCHEMA_VERSION,
+        "criteria_file": result.criteria_file,
+        "identification": result.identification,
+        "overall": result.overall,
+        "exit_code": result.exit_code,
+        "spectra": spectra,
+        "cautions": list(CAUTIONS),
+    }
+
+
+def check_to_json(result) -> str:
+    return json.dumps(check_record(result), indent=2, ensure_ascii=False) + "\n"
+
+
+CHECK_CSV_COLUMNS = (
+    "spectrum", "source", "verdict", "clause_id", "group", "kind", "label", "figure", "unit", "measured",
+    "lower", "upper", "limit", "margin", "delta_upvp", "outcome", "reason",
+)
+
+
+def check_to_csv(result) -> str:
+    """One row per (spectrum, clause); undefined numbers are empty cells."""
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=CHECK_CSV_COLUMNS, lineterminator="\n")
+    w.writeheader()
+
+    def cell(v):
+        if v is None:
+            return ""
+        f = float(v)
+        return repr(f) if math.isfinite(f) else ""
+
+    for i, name in enumerate(result.names):
+        for r in result.results:
+            w.writerow(
+                {
+                    "spectrum": name,
+                    "source": result.sources[i],
+                    "verdict": result.verdict(i),
+                    "clause_id": r.clause_id,
+                    "group": r.group,
+                    "kind": r.kind,
+                    "label": r.label,
+                    "figure": r.figure,
+                    "unit": r.unit,
+                    "measured": cell(r.measured[i]),
+                    "lower": cell(r.lower),
+                    "upper": cell(r.upper),
+                    "limit": r.limit_text,
+                    "margin": cell(r.margin[i]),
+                    "delta_upvp": cell(r.details["delta_upvp"][i]) if "delta_upvp" in r.details else "",
+                    "outcome": r.outcome[i],
+                    "reason": r.reason[i] if r.reason else "",
+                }
+            )
+    return buf.getvalue()
+
+
+# --------------------------------------------------------------------------- claims
+
+
+def claims_renderables(check) -> list:
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    out = [_header("Datasheet claims against the supplier's spectrum", check.claims_file, check.supplier)]
+    for i, name in enumerate(check.names):
+        v = check.verdict(i)
+        ncon = sum(1 for r in check.results if r.outcome[i] == "contradicted")
+        line = Text(f"\n{name}  —  ", style="bold")
+        if v == "contradicted":
+            line.append(f"✘ {ncon} CLAIM(S) CONTRADICTED by the spectrum", style="bold red")
+        elif v == "supported":
+            line.append("✔ every checkable claim is supported", style="bold green")
+        else:
+            line.append("– no claim could be checked from the spectrum", style="bold yellow")
+        out.append(line)
+        t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
+        for col, kw in (("", {"no_wrap": True}), ("claim", {}), ("as stated", {}), ("measured", {"justify": "right"}),
+                        ("accepted as", {}), ("by how much", {"justify": "right"}), ("result", {"no_wrap": True})):
+            t.add_column(col, **kw)
+        notes = []
+        for r in check.results:
+            o = r.outcome[i]
+            c = r.claim
+            spec = _spec(c.figure) if c.figure else ".3g"
+            accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
+            by = _f(r.excess[i], "+" + spec, r.unit) if o == "contradicted" else ""
+            t.add_row(">>" if o == "contradicted" else "", c.key, c.text, _f(r.measured[i], spec, r.unit) if not c.not_checkable else "—",
+                      accepted, by, Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
+            if r.reason[i]:
+                notes.append(f"{c.key}: {r.reason[i]}")
+        out.append(t)
+        for w in check.warnings[i] if i < len(check.warnings) else ():
+            notes.append(w)
+        if notes:
+            nt = Text()
+            for s in notes:
+                nt.append(f"  note: {s}\n")
+            out.append(nt)
+    tol = Text("\nHow each claim was read:\n", style="dim")
+    for r in check.results:
+        if r.claim.tolerance_note:
+            tol.append(f"  - {r.claim.key} {r.claim.text}: {r.claim.tolerance_note}\n", style="dim")
+    out.append(tol)
+    t = Text("\n")
+    if check.exit_code:
+        t.append("OVERALL: ✘ the datasheet over-claims: at least one claim is contradicted by the supplier's own spectrum", style="bold red")
+    else:
+        t.append("OVERALL: ✔ no claim is contradicted by the spectrum", style="bold green")
+    out.append(t)
+    out.append(_cautions_text())
+    return out
+
+
+def _accepted(c, unit: str, spec: str) -> str:
+    if c.lower is not None and c.upper is not None:
+        return f"{_f(c.lower, spec)} … {_f(c.upper, spec, unit)}"
+    if c.lower is not None:
+        return f"≥ {_f(c.lower, spec, unit)}"
+    return f"≤ {_f(c.upper, spec, unit)}"
+
+
+def print_claims(check, console=None) -> None:
+    from rich.console import Console
+
+    console = console or Console()
+    for r in claims_renderables(check):
+        console.print(r)
+
+
+def claims_record(check) -> dict:
+    spectra = []
+    for i, name in enumerate(check.names):
+        spectra.append(
+            {
+                "name": name,
+                "verdict": check.verdict(i),
+                "warnings": list(check.warnings[i]) if i < len(check.warnings) else [],
+                "claims": [
+                    {
+                        "key": r.claim.key,
+                        "figure": r.claim.figure or None,
+                        "as_stated": r.claim.text,
+                        "unit": r.unit,
+                        "measured": _num(r.measured[i]),
+                        "accepted_lower": r.claim.lower,
+                        "accepted_upper": r.claim.upper,
+                        "how_read": r.claim.tolerance_note or None,
+                        "excess": _num(r.excess[i]),
+                        "outcome": r.outcome[i],
+                        "reason": r.reason[i] or None,
+                        "line": r.claim.line,
+                    }
+                    for r in check.results
+                ],
+            }
+        )
+    return {
+        "lumeval_claims_check": JSON_SCHEMA_VERSION,
+        "claims_file": check.claims_file,
+        "supplier": check.supplier,
+        "exit_code": check.exit_code,
+        "spectra": spectra,
+        "cautions": list(CAUTIONS),
+    }
+
+
+def claims_to_json(check) -> str:
+    return json.dumps(claims_record(check), indent=2, ensure_ascii=False) + "\n"
+
+
+CLAIMS_CSV_COLUMNS = ("spectrum", "claim", "as_stated", "unit", "measured", "accepted_lower", "accepted_upper", "excess", "outcome", "reason")
+
+
+def claims_to_csv(check) -> str:
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=CLAIMS_CSV_COLUMNS, lineterminator="\n")
+    w.writeheader()
+
+    def cell(v):
+        if v is None:
+            return ""
+        f = float(v)
+        return repr(f) if math.isfinite(f) else ""
+
+    for i, name in enumerate(check.names):
+        for r in check.results:
+            w.writerow(
+                {
+                    "spectrum": name,
+                    "claim": r.claim.key,
+                    "as_stated": r.claim.text,
+                    "unit": r.unit,
+                    "measured": cell(r.measured[i]),
+                    "accepted_lower": cell(r.claim.lower),
+                    "accepted_upper": cell(r.claim.upper),
+                    "excess": cell(r.excess[i]),
+                    "outcome": r.outcome[i],
+                    "reason": r.reason[i],
+                }
+            )
+    return buf.getvalue()

@@ -319,17 +319,6 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
                         fix="delete that line or turn it into a comment starting with '#'",
                     )
                 footer.append((ln, s))
-    # a footer that is followed by nothing numeric is fine; check the footer for resumed data
-    for ln, s in footer:
-        cells = _split(s, delim)
-        if len(cells) >= 2 and _is_number(cells[0], decimal_comma):
-            raise InputError(
-                f"the data are interrupted by text on line {footer[0][0]} ({footer[0][1][:40]!r})",
-                file=file,
-                line=footer[0][0],
-                fix="delete that line or turn it into a comment starting with '#'",
-            )
-
     # header row and metadata before the data
     before = non_comment[:start]
     header: list[str] | None = None
@@ -350,7 +339,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
                     line=hln,
                     fix="every cell must be a number: fill in or correct it, or delete the row",
                 )
-            header = [c.strip().strip('"') for c in hcells]
+            header = [c.strip().strip('"') if delim is None else c.strip() for c in hcells]
             header_ln = hln
             before = before[:-1]
 
@@ -494,16 +483,17 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     )
 
 
-_GENERIC = re.compile(
-    r"^\s*(value|values|intensity|irradiance|radiance|power|flux|spd|spectrum|data|y|s|"
-    r"spectral\s+\w+|relative\s+\w+|counts)?\s*([\[(].*[\])])?\s*$",
-    re.I,
-)
+_GENERIC_WORDS = {
+    "value", "values", "intensity", "irradiance", "radiance", "power", "flux", "spd", "spectrum", "spectral",
+    "data", "relative", "absolute", "counts", "energy", "signal", "y", "s", "distribution", "density",
+    "normalised", "normalized", "rel", "abs", "measured", "measurement", "radiant", "exitance", "a.u.",
+}
 
 
 def _generic_value_name(col: str) -> bool:
     """True when a single value column's header is a generic label, not a spectrum name."""
-    return bool(_GENERIC.match(col))
+    words = re.sub(r"[\[(].*?[\])]", " ", col).replace("_", " ").replace("-", " ").lower().split()
+    return all(w in _GENERIC_WORDS for w in words)
 
 
 def read_text(path: str | Path, raw: bytes | None = None) -> SpectrumSet:

@@ -71,6 +71,7 @@ class Evaluation:
     cct_reason: tuple[str, ...]
     cri: object
     tm30: object
+    cie2017_Rf: np.ndarray
     photometry: object
     warnings: tuple[tuple[str, ...], ...]
     run_warnings: tuple[str, ...] = ()
@@ -83,10 +84,6 @@ class Evaluation:
     def names(self) -> tuple[str, ...]:
         return self.spectra.names
 
-    @property
-    def cie2017_Rf(self) -> np.ndarray:
-        return np.asarray(self.tm30.Rf)
-
     def figure(self, name: str) -> np.ndarray:
         """The figure ``name`` (one of :data:`FIGURE_NAMES`) as an array of shape (N,)."""
         if name in ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv"):
@@ -95,8 +92,10 @@ class Evaluation:
             return np.asarray(self.cri.Ra, dtype=float)
         if name == "dc":
             return np.asarray(self.cri.dc, dtype=float)
-        if name in ("Rf", "cie2017_Rf"):
+        if name == "Rf":
             return np.asarray(self.tm30.Rf, dtype=float)
+        if name == "cie2017_Rf":
+            return np.asarray(self.cie2017_Rf, dtype=float)
         if name == "Rg":
             return np.asarray(self.tm30.Rg, dtype=float)
         if name in ("ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm"):
@@ -160,7 +159,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     from .metrics.colorimetry import cct_duv_ohno, tristimulus, upvp_from_XYZ, uv_from_XYZ, xy_from_XYZ
     from .metrics.cri import cie133_cri
     from .metrics.photometry import photometry
-    from .metrics.tm30 import tm30
+    from .metrics.tm30 import cie2017_rf, tm30
 
     XYZ = tristimulus(wl, values)
     xy = xy_from_XYZ(XYZ)
@@ -169,8 +168,9 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     cct = cct_duv_ohno(uv)
     cri = cie133_cri(wl, values, cct.cct_K)
     fid = tm30(wl, values, cct.cct_K)
+    rf2017 = cie2017_rf(wl, values, cct.cct_K, tm30_result=fid)
     phot = photometry(wl, values)
-    return XYZ, xy, uv, upvp, cct, cri, fid, phot
+    return XYZ, xy, uv, upvp, cct, cri, fid, phot, rf2017
 
 
 def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...], ...]:
@@ -231,7 +231,7 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_deta
             msg = f"computation warning: {c.message}"
             if msg not in caught_all:
                 caught_all.append(msg)
-    XYZ, xy, uv, upvp, cct, cri, fid, phot = (_concat([p[k] for p in parts]) for k in range(8))
+    XYZ, xy, uv, upvp, cct, cri, fid, phot, rf2017 = (_concat([p[k] for p in parts]) for k in range(9))
     return Evaluation(
         spectra=prepared,
         XYZ=XYZ,
@@ -246,6 +246,7 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_deta
         cct_reason=cct.reason,
         cri=cri,
         tm30=fid,
+        cie2017_Rf=rf2017,
         photometry=phot,
         warnings=_warnings_for(prepared, cct, cri, fid),
         run_warnings=tuple(caught_all),

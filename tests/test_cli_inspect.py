@@ -72,7 +72,9 @@ def test_inspect_json_reproduces_cie15_table_T81(f_series_files):
         assert len(s["tm30"]["Rf_h"]) == len(s["tm30"]["Rcs_h"]) == len(s["tm30"]["Rhs_h"]) == 16
         for key in ("u_prime", "v_prime", "duv", "ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm"):
             assert isinstance(s[key], float), key
-        assert s["cie2017"]["Rf"] == pytest.approx(s["tm30"]["Rf"], abs=1e-9)
+        # CIE 224 and TM-30-18 Rf are one calculation; they may differ only by the blend
+        # normalisation observer between 4000 and 5000 K (≤ 1.3e-4, see lumeval.metrics.tm30)
+        assert s["cie2017"]["Rf"] == pytest.approx(s["tm30"]["Rf"], abs=2e-4)
         assert isinstance(s["warnings"], list)
 
 

@@ -18,6 +18,7 @@ _COMMAND_MODULES = [
     "lumeval.commands.convert",
     "lumeval.commands.check",
     "lumeval.commands.criteria_cmd",
+    "lumeval.commands.lot",
 ]
 
 app = typer.Typer(

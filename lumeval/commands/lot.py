@@ -1,0 +1,443 @@
+"""``lumeval lot``: many samples of one product — figures, lot statistics, yield, outliers.
+
+The Python twin is :func:`run_lot`. It streams: files are read one at a time, spectra are
+evaluated in batches of :data:`BATCH_SPECTRA` and only the per-sample figures are kept, so
+memory stays bounded (about 1 kB per sample) however many samples come. A file that cannot be
+read (or a column of a wide CSV that cannot be used) is recorded with its reason and never
+stops the others.
+
+Inputs: files, folders (every file directly inside with a spectrum-file extension, sorted by
+name; sub-folders are not entered) and glob patterns (``*``, ``?``, ``[...]``; ``**`` matches
+folders recursively), expanded by lumeval so they work the same on every shell. Wide CSVs (a
+wavelength column and one column per sample) give one sample per column, named by its header.
+
+Exit codes: 0 when every judged requirement passes (or nothing was judged); 1 when a lot
+clause fails, or when a sample fails a per-sample clause and the criteria have no
+``lot_yield`` clause (with a yield clause the lot may contain failing samples up to the
+allowed share); 2 for bad usage, unreadable criteria, or when any input could not be read
+(reported after every readable sample has been judged and the outputs written: a lot with
+unread samples cannot be declared to pass).
+"""
+
+from __future__ import annotations
+
+import glob
+import os
+import sys
+from dataclasses import dataclass, field
+from enum import Enum
+from pathlib import Path
+from typing import Callable, Sequence
+
+import numpy as np
+import typer
+
+#: Spectra evaluated together (bounded memory; the engine chunks further inside).
+BATCH_SPECTRA = 2048
+#: File extensions taken from folders.
+SPECTRUM_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".xml", ".spdx", ".tm27", ".json")
+#: Figures kept per sample (every figure of the engine).
+_GLOB_CHARS = set("*?[")
+
+
+class OutputFormat(str, Enum):
+    terminal = "terminal"
+    json = "json"
+    csv = "csv"
+
+
+@dataclass(frozen=True)
+class Unreadable:
+    """An input that gave no sample: the path (or ``path#column``) and the reason."""
+
+    source: str
+    message: str
+
+
+@dataclass(frozen=True)
+class LotRun:
+    """Everything ``lumeval lot`` found for a lot.
+
+    Attributes
+    ----------
+    names, sources : tuple of str (N,)
+    warnings : tuple of tuple of str (N,)
+    figures : dict of str -> ndarray (N,)
+        Every figure of :data:`lumeval.engine.FIGURE_NAMES`.
+    xy : ndarray (N, 2)
+    stats : lumeval.lot.LotStatistics
+    check : lumeval.criteria.verdicts.CheckResult or None
+        Per-sample clause results (None without criteria or without per-sample clauses).
+    lot_results : tuple of LotClauseResult
+    unreadable : tuple of Unreadable
+    files : int
+        Input files found (after expanding folders and patterns).
+    criteria_file : str or None
+    identification : dict
+    """
+
+    names: tuple[str, ...]
+    sources: tuple[str, ...]
+    warnings: tuple[tuple[str, ...], ...]
+    figures: dict
+    xy: np.ndarray
+    stats: object
+    check: object | None
+    lot_results: tuple
+    unreadable: tuple[Unreadable, ...]
+    files: int
+    criteria_file: str | None = None
+    identification: dict = field(default_factory=dict)
+    has_yield_clause: bool = False
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    @property
+    def sample_verdicts(self) -> tuple[str, ...] | None:
+        return self.check.verdicts if self.check is not None else None
+
+    @property
+    def failed(self) -> bool:
+        """A lot clause failed, or (without a yield clause) a sample failed its clauses."""
+        if any(r.outcome != "pass" for r in self.lot_results):
+            return True
+        v = self.sample_verdicts
+        if v is not None and not self.has_yield_clause:
+            return any(o != "pass" for o in v)
+        return False
+
+    @property
+    def exit_code(self) -> int:
+        if self.unreadable:
+            return 2
+        return 1 if self.failed else 0
+
+
+# --------------------------------------------------------------------------- inputs
+
+
+def expand_inputs(paths: Sequence[str | os.PathLike]) -> tuple[list[str], list[Unreadable]]:
+    """Expand files, folders and glob patterns into a list of files (in the order given, each
+    once), and record inputs that name nothing."""
+    files: list[str] = []
+    seen: set[str] = set()
+    problems: list[Unreadable] = []
+
+    def add(p: str) -> None:
+        key = os.path.abspath(p)
+        if key not in seen:
+            seen.add(key)
+            files.append(p)
+
+    for raw in paths:
+        p = str(raw)
+        if os.path.isdir(p):
+            inside = sorted(
+                e.path
+                for e in os.scandir(p)
+                if e.is_file() and not e.name.startswith(".") and e.name.lower().endswith(SPECTRUM_SUFFIXES)
+            )
+            if not inside:
+                problems.append(Unreadable(p, f"{p}: the folder holds no spectrum files ({', '.join(SPECTRUM_SUFFIXES)}) — give the files or a pattern"))
+            for f in inside:
+                add(f)
+        elif os.path.exists(p):
+            add(p)
+        elif _GLOB_CHARS & set(p):
+            hits = sorted(h for h in glob.glob(p, recursive=True) if os.path.isfile(h))
+            if not hits:
+                problems.append(Unreadable(p, f"{p}: the pattern matches no files — check the pattern and the folder"))
+            for f in hits:
+                add(f)
+        else:
+            problems.append(Unreadable(p, f"{p}: no such file or folder — check the path"))
+    return files, problems
+
+
+def _read_one(path: str):
+    """(prepared SpectrumSet or None, [Unreadable]) for one file; salvages the usable columns
+    of a wide file when some columns cannot be prepared."""
+    from ..errors import LumevalError
+    from ..spectra.prepare import prepare
+    from ..spectra.read import read_spectra
+
+    try:
+        raw = read_spectra(path)
+    except LumevalError as exc:
+        return None, [Unreadable(path, exc.message)]
+    except OSError as exc:
+        return None, [Unreadable(path, f"{path}: cannot be read ({exc.strerror or exc}) — check the file and its permissions")]
+    try:
+        return prepare(raw), []
+    except LumevalError as exc:
+        if len(raw) == 1:
+            return None, [Unreadable(path, exc.message)]
+    good, bad = [], []
+    for i in range(len(raw)):
+        one = raw.subset([i])
+        try:
+            good.append(prepare(one))
+        except LumevalError as exc:
+            bad.append(Unreadable(raw.sources[i], exc.message))
+    if not good:
+        return None, bad
+    from .inspect import prepare_all
+
+    return prepare_all(good, prepare), bad
+
+
+def _grid_key(s) -> tuple:
+    wl = s.wavelengths_nm
+    return (float(wl[0]), float(wl[-1]), wl.size)
+
+
+def _concat_clause(parts: list):
+    """Join per-batch ClauseResults of one clause into one."""
+    from dataclasses import replace
+
+    first = parts[0]
+    if len(parts) == 1:
+        return first
+    cat = lambda name: np.concatenate([np.asarray(getattr(p, name), dtype=float) for p in parts])  # noqa: E731
+    details = {k: np.concatenate([np.asarray(p.details[k]) for p in parts]) for k in first.details}
+    opt = {}
+    for name in ("uncertainty", "p_conformance"):
+        opt[name] = cat(name) if getattr(first, name) is not None else None
+    return replace(
+        first,
+        measured=cat("measured"),
+        margin=cat("margin"),
+        outcome=sum((p.outcome for p in parts), ()),
+        reason=sum((tuple(p.reason) for p in parts), ()),
+        details=details,
+        **opt,
+    )
+
+
+def run_lot(
+    paths: Sequence[str | os.PathLike],
+    criteria=None,
+    *,
+    ellipse=None,
+    nominal_xy=None,
+    batch_spectra: int = BATCH_SPECTRA,
+    progress: Callable[[int, int, int], None] | None = None,
+) -> LotRun:
+    """Python twin of ``lumeval lot``: read, evaluate, judge and summarise a lot.
+
+    Parameters
+    ----------
+    paths : sequence of str or Path
+        Files, folders and glob patterns (see the module docstring).
+    criteria : lumeval.criteria.model.Criteria, optional
+        Per-sample clauses give each sample's verdict and the yield; lot clauses (see
+        :mod:`lumeval.criteria.lot_clauses`) are judged on the lot statistics.
+    ellipse, nominal_xy
+        Passed to :func:`lumeval.lot.lot_statistics`. Without them, an ``sdcm`` clause of the
+        criteria supplies the nominal ellipse, else an ``ansi_quadrangle`` clause the nominal
+        centre.
+    batch_spectra : int
+        Spectra evaluated together.
+    progress : callable(files_done, files_total, samples_done), optional
+        Called after each file (for a progress bar).
+
+    Returns
+    -------
+    LotRun
+    """
+    from ..engine import FIGURE_NAMES, evaluate
+    from ..lot import lot_statistics
+    from ..spectra.model import SpectrumSet
+
+    files, unreadable = expand_inputs(paths)
+    names: list[str] = []
+    sources: list[str] = []
+    warns: list[tuple[str, ...]] = []
+    fig_parts: list[np.ndarray] = []
+    xy_parts: list[np.ndarray] = []
+    clause_parts: list[list] = []
+    pending: dict[tuple, list] = {}
+    pending_n = 0
+    done = 0
+
+    sample_criteria = None
+    if criteria is not None:
+        from ..criteria.lot_clauses import has_sample_clauses
+
+        if has_sample_clauses(criteria):
+            sample_criteria = criteria
+
+    def flush() -> None:
+        nonlocal pending, pending_n
+        for group in pending.values():
+            s = group[0] if len(group) == 1 else SpectrumSet.concatenate(group)
+            ev = evaluate(s, keep_details=False)
+            names.extend(ev.spectra.names)
+            sources.extend(ev.spectra.sources)
+            warns.extend(ev.warnings)
+            fig_parts.append(np.column_stack([ev.figure(k) for k in FIGURE_NAMES]))
+            xy_parts.append(np.column_stack([ev.x, ev.y]))
+            if sample_criteria is not None:
+                clause_parts.append(list(sample_criteria.evaluate(ev).results))
+        pending = {}
+        pending_n = 0
+
+    for k, path in enumerate(files):
+        s, bad = _read_one(path)
+        unreadable.extend(bad)
+        if s is not None:
+            pending.setdefault(_grid_key(s), []).append(s)
+            pending_n += len(s)
+            done += len(s)
+        if pending_n >= batch_spectra:
+            flush()
+        if progress is not None:
+            progress(k + 1, len(files), done)
+    flush()
+
+    n = len(names)
+    figs_mat = np.vstack(fig_parts) if fig_parts else np.empty((0, len(FIGURE_NAMES)))
+    figures = {k: figs_mat[:, j] for j, k in enumerate(FIGURE_NAMES)}
+    xy = np.vstack(xy_parts) if xy_parts else np.empty((0, 2))
+
+    check = None
+    if sample_criteria is not None and clause_parts:
+        from ..criteria.verdicts import CheckResult
+
+        results = tuple(_concat_clause([p[j] for p in clause_parts]) for j in range(len(clause_parts[0])))
+        check = CheckResult(tuple(names), tuple(sources), tuple(warns), results, dict(criteria.identification), criteria.file)
+
+    if criteria is not None and ellipse is None and nominal_xy is None:
+        ellipse, nominal_xy = _nominal_from_criteria(criteria)
+
+    stats = lot_statistics(
+        figures,
+        xy,
+        ellipse=ellipse,
+        nominal_xy=nominal_xy,
+        verdicts=check.verdicts if check is not None else None,
+    )
+    lot_results: tuple = ()
+    has_yield = False
+    if criteria is not None:
+        from ..criteria.lot_clauses import LotYieldClause, evaluate_lot_clauses, lot_clauses
+
+        lot_results = evaluate_lot_clauses(criteria, stats, xy, check.verdicts if check is not None else None)
+        has_yield = any(isinstance(c, LotYieldClause) for c in lot_clauses(criteria))
+    return LotRun(
+        names=tuple(names),
+        sources=tuple(sources),
+        warnings=tuple(warns),
+        figures=figures,
+        xy=xy,
+        stats=stats,
+        check=check,
+        lot_results=lot_results,
+        unreadable=tuple(unreadable),
+        files=len(files),
+        criteria_file=getattr(criteria, "file", None) if criteria is not None else None,
+        identification=dict(getattr(criteria, "identification", {}) or {}) if criteria is not None else {},
+        has_yield_clause=has_yield,
+    )
+
+
+def _nominal_from_criteria(criteria):
+    """(ellipse, nominal_xy) implied by the criteria: an ``sdcm`` clause's ellipse, else an
+    ``ansi_quadrangle`` clause's centre (with the nearest standard ellipse's coefficients)."""
+    for c in criteria.clauses:
+        e = getattr(c, "ellipse", None)
+        if getattr(c, "KIND", "") == "sdcm" and e is not None:
+            return e, None
+    for c in criteria.clauses:
+        if getattr(c, "KIND", "") == "ansi_quadrangle":
+            q = getattr(c, "quadrangle", None)
+            q = q() if callable(q) else q
+            centre = getattr(q, "centre_upvp", None)
+            if centre is not None:
+                from ..lot import nearest_standard_ellipse, xy_from_upvp
+
+                return nearest_standard_ellipse(np.asarray(centre)), xy_from_upvp(np.asarray(centre))
+    return None, None
+
+
+# --------------------------------------------------------------------------- CLI
+
+
+def _write_atomic(path: Path, text: str) -> None:
+    path = Path(path)
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    try:
+        with open(tmp, "w", encoding="utf-8", newline="") as f:
+            f.write(text)
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("lot")
+    def lot_cmd(
+        paths: list[str] = typer.Argument(
+            ..., help="Spectrum files, folders and glob patterns (quote patterns); wide CSVs give one sample per column.", show_default=False
+        ),
+        criteria_file: Path = typer.Option(None, "--criteria", "-c", help="Criteria file (TOML) with per-sample and lot clauses."),
+        output_format: OutputFormat = typer.Option(
+            OutputFormat.terminal, "--format", "-f", help="What to print: terminal summary, lot JSON, or per-sample CSV."
+        ),
+        samples_csv: Path = typer.Option(None, "--samples-csv", help="Also write the per-sample CSV to this file."),
+        json_file: Path = typer.Option(None, "--json", help="Also write the lot JSON to this file."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+    ) -> None:
+        """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
+        from ..errors import UsageError
+
+        for out in (samples_csv, json_file):
+            if out is not None and (out.is_dir() or not out.parent.exists()):
+                raise UsageError(f"cannot write {out}", fix="give a file path in an existing folder")
+        criteria = None
+        if criteria_file is not None:
+            from ..criteria import lot_clauses  # noqa: F401  (registers the lot clause kinds)
+            from ..criteria.loader import load_criteria
+
+            criteria = load_criteria(criteria_file)
+
+        show = not quiet and sys.stderr.isatty()
+        if show:
+            from rich.console import Console
+            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+            with Progress(
+                TextColumn("reading and evaluating"),
+                BarColumn(),
+                MofNCompleteColumn(),
+                TextColumn("files · {task.fields[samples]} samples"),
+                TimeElapsedColumn(),
+                console=Console(stderr=True),
+                transient=True,
+            ) as bar:
+                task = bar.add_task("lot", total=None, samples=0)
+
+                def tick(k, total, samples):
+                    bar.update(task, completed=k, total=total, samples=samples)
+
+                run = run_lot(paths, criteria, progress=tick)
+        else:
+            run = run_lot(paths, criteria)
+
+        from ..render import lot_report
+
+        if samples_csv is not None:
+            _write_atomic(samples_csv, lot_report.samples_csv(run))
+        if json_file is not None:
+            _write_atomic(json_file, lot_report.lot_json(run))
+        if output_format is OutputFormat.json:
+            typer.echo(lot_report.lot_json(run), nl=False)
+        elif output_format is OutputFormat.csv:
+            typer.echo(lot_report.samples_csv(run), nl=False)
+        else:
+            lot_report.print_lot(run)
+        # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which
+        # would turn typer.Exit into a return value and lose the code.
+        sys.exit(run.exit_code)

@@ -1,0 +1,434 @@
+"""Renderings of a production lot (:class:`lumeval.commands.lot.LotRun`): terminal, JSON, CSV.
+
+Nothing is computed here beyond formatting. Numbers in JSON and CSV are unrounded; an
+undefined figure is ``null`` (JSON) or an empty cell (CSV). The terminal summary rounds as the
+inspect report does (x, y, u', v' to 4 decimals, Δu'v' to 5, CCT to 1 K, indices to 0.1 for
+lot statistics so that spreads below one unit stay visible).
+
+Lot JSON (``schema_version`` 1; names never change meaning, new names may be added)::
+
+    lumeval_version, schema_version, kind = "lot",
+    counts {samples, files, unreadable, passed, failed, not_judged, indeterminate, outliers},
+    criteria {file, identification} | null,
+    verdict {exit_code, failed, lot_clauses [{id, label, kind, figure, unit, measured, limit,
+             margin, outcome, reason, source, line}], yield {total, passed, failed,
+             not_judged, indeterminate, percent} | null},
+    statistics {ddof, percentile_method, figures {name: {count, undefined, mean, std, min,
+                max, median, p05, p95}}},
+    chromaticity {centroid_xy, centroid_upvp, nominal_xy, nominal_upvp, ellipse, ellipse_source,
+                  max_pairwise_delta_upvp, max_pair [name, name], delta_upvp_centroid
+                  {max, p95}, steps_centroid {max, p95}},
+    outlier_rule, notes, unreadable [{source, message}],
+    samples [{name, source, verdict, outlier, outlier_reasons, delta_upvp_centroid,
+              steps_centroid, delta_upvp_nominal, steps_nominal, x, y, cct_K, duv, Ra, R9,
+              Rf, Rg, warnings}],
+    cautions
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+import numpy as np
+
+from .tables import CAUTIONS
+
+JSON_SCHEMA_VERSION = 1
+
+#: Figures shown in the terminal summary table, with their label and format.
+SUMMARY_FIGURES: tuple[tuple[str, str, str], ...] = (
+    ("cct_K", "CCT (K)", ".0f"),
+    ("duv", "Duv", "+.4f"),
+    ("Ra", "Ra", ".1f"),
+    ("R9", "R9", ".1f"),
+    ("Rf", "Rf (TM-30)", ".1f"),
+    ("Rg", "Rg (TM-30)", ".1f"),
+    ("ler_lm_per_W", "LER (lm/W)", ".1f"),
+    ("sp_ratio", "S/P", ".3f"),
+    ("melanopic_der", "mel. DER", ".3f"),
+    ("peak_nm", "peak (nm)", ".0f"),
+)
+#: Figures per sample in the lot JSON (the full set is in the per-sample CSV).
+JSON_SAMPLE_FIGURES = ("x", "y", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+
+_SHOW_MAX = 20
+
+
+def _num(v):
+    if v is None:
+        return None
+    f = float(v)
+    return f if math.isfinite(f) else None
+
+
+def _fmt(v, spec: str) -> str:
+    if v is None:
+        return "n/a"
+    f = float(v)
+    if not math.isfinite(f):
+        return "n/a"
+    s = format(f, spec)
+    return "0" + s[2:] if s.startswith(("-0", "+0")) and float(s) == 0 and spec.startswith("+") else s
+
+
+def _counts(run) -> dict:
+    v = run.sample_verdicts
+    return {
+        "samples": len(run),
+        "files": run.files,
+        "unreadable": len(run.unreadable),
+        "passed": None if v is None else sum(o == "pass" for o in v),
+        "failed": None if v is None else sum(o == "fail" for o in v),
+        "not_judged": None if v is None else sum(o == "not judged" for o in v),
+        "indeterminate": None if v is None else sum(o == "indeterminate" for o in v),
+        "outliers": int(np.sum(run.stats.outlier)),
+    }
+
+
+def _pct(a, q):
+    a = np.asarray(a, dtype=float)
+    a = a[np.isfinite(a)]
+    if a.size == 0:
+        return None
+    return float(np.percentile(a, q, method=run_percentile_method()))
+
+
+def run_percentile_method() -> str:
+    from ..lot import PERCENTILE_METHOD
+
+    return PERCENTILE_METHOD
+
+
+def _max(a):
+    a = np.asarray(a, dtype=float)
+    return float(np.nanmax(a)) if a.size and np.isfinite(a).any() else None
+
+
+def _arr(a, i):
+    return None if a is None else _num(a[i])
+
+
+def lot_document(run) -> dict:
+    """The lot JSON document (see the module docstring)."""
+    from .. import __version__
+
+    st = run.stats
+    verdicts = run.sample_verdicts
+    pair = st.max_pair
+    samples = []
+    for i in range(len(run)):
+        rec = {
+            "name": run.names[i],
+            "source": run.sources[i],
+            "verdict": verdicts[i] if verdicts is not None else None,
+            "outlier": bool(st.outlier[i]),
+            "outlier_reasons": list(st.outlier_reasons[i]),
+            "delta_upvp_centroid": _num(st.d_upvp_centroid[i]),
+            "steps_centroid": _num(st.steps_centroid[i]),
+            "delta_upvp_nominal": _arr(st.d_upvp_nominal, i),
+            "steps_nominal": _arr(st.steps_nominal, i),
+        }
+        for k in JSON_SAMPLE_FIGURES:
+            rec[k] = _num(run.figures[k][i])
+        rec["warnings"] = list(run.warnings[i])
+        samples.append(rec)
+    y = st.yield_
+    return {
+        "lumeval_version": __version__,
+        "schema_version": JSON_SCHEMA_VERSION,
+        "kind": "lot",
+        "counts": _counts(run),
+        "criteria": None if run.criteria_file is None else {"file": run.criteria_file, "identification": dict(run.identification)},
+        "verdict": {
+            "exit_code": run.exit_code,
+            "failed": run.failed,
+            "lot_clauses": [
+                {
+                    "id": r.clause_id,
+                    "label": r.label,
+                    "kind": r.kind,
+                    "figure": r.figure,
+                    "unit": r.unit,
+                    "measured": _num(r.measured),
+                    "limit": r.limit_text,
+                    "lower": r.lower,
+                    "upper": r.upper,
+                    "margin": _num(r.margin),
+                    "outcome": r.outcome,
+                    "reason": r.reason or None,
+                    "source": r.source,
+                    "line": r.line,
+                    "decision_rule": r.decision_rule,
+                }
+                for r in run.lot_results
+            ],
+            "yield": None
+            if y is None
+            else {
+                "total": y.total,
+                "passed": y.passed,
+                "failed": y.failed,
+                "not_judged": y.not_judged,
+                "indeterminate": y.indeterminate,
+                "percent": _num(y.percent),
+            },
+        },
+        "statistics": {
+            "ddof": st.ddof,
+            "percentile_method": st.percentile_method,
+            "figures": {
+                f.name: {
+                    "count": f.count,
+                    "undefined": f.undefined,
+                    "mean": _num(f.mean),
+                    "std": _num(f.std),
+                    "min": _num(f.min),
+                    "max": _num(f.max),
+                    "median": _num(f.median),
+                    "p05": _num(f.p05),
+                    "p95": _num(f.p95),
+                }
+                for f in st.figures
+            },
+        },
+        "chromaticity": {
+            "centroid_xy": [_num(v) for v in st.centroid_xy],
+            "centroid_upvp": [_num(v) for v in st.centroid_upvp],
+            "nominal_xy": None if st.nominal_xy is None else [_num(v) for v in st.nominal_xy],
+            "nominal_upvp": None if st.nominal_upvp is None else [_num(v) for v in st.nominal_upvp],
+            "ellipse": st.ellipse_name or None,
+            "ellipse_source": st.ellipse_source or None,
+            "max_pairwise_delta_upvp": _num(st.max_pairwise_d_upvp),
+            "max_pair": [run.names[pair[0]], run.names[pair[1]]] if pair[0] >= 0 and len(run) >= 2 else None,
+            "delta_upvp_centroid": {"max": _max(st.d_upvp_centroid), "p95": _pct(st.d_upvp_centroid, 95)},
+            "steps_centroid": {"max": _max(st.steps_centroid), "p95": _pct(st.steps_centroid, 95)},
+        },
+        "outlier_rule": st.outlier_rule,
+        "notes": list(st.notes),
+        "unreadable": [{"source": u.source, "message": u.message} for u in run.unreadable],
+        "samples": samples,
+        "cautions": list(CAUTIONS),
+    }
+
+
+def lot_json(run) -> str:
+    return json.dumps(lot_document(run), indent=1, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def csv_columns(run) -> list[str]:
+    """Columns of the per-sample CSV."""
+    cols = ["name", "source", "verdict", "outlier", "outlier_reasons", "delta_upvp_centroid", "steps_centroid",
+            "delta_upvp_nominal", "steps_nominal"]
+    cols += list(run.figures)
+    if run.check is not None:
+        cols += [f"clause:{r.clause_id}" for r in run.check.results]
+    cols += ["warnings"]
+    return cols
+
+
+def _cell(v) -> str:
+    if v is None:
+        return ""
+    f = float(v)
+    return repr(f) if math.isfinite(f) else ""
+
+
+def samples_csv(run) -> str:
+    """One row per sample: verdict, outlier flag and reasons, Δu'v' and steps, every figure,
+    each per-sample clause's outcome, and the warnings (joined with " | ")."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(csv_columns(run))
+    st = run.stats
+    verdicts = run.sample_verdicts
+    fig_mat = np.column_stack([run.figures[k] for k in run.figures]) if run.figures else np.empty((len(run), 0))
+    for i in range(len(run)):
+        row = [
+            run.names[i],
+            run.sources[i],
+            verdicts[i] if verdicts is not None else "",
+            "yes" if st.outlier[i] else "no",
+            " | ".join(st.outlier_reasons[i]),
+            _cell(st.d_upvp_centroid[i]),
+            _cell(st.steps_centroid[i]),
+            _cell(None if st.d_upvp_nominal is None else st.d_upvp_nominal[i]),
+            _cell(None if st.steps_nominal is None else st.steps_nominal[i]),
+        ]
+        row += [_cell(v) for v in fig_mat[i]]
+        if run.check is not None:
+            row += [r.outcome[i] for r in run.check.results]
+        row.append(" | ".join(run.warnings[i]))
+        w.writerow(row)
+    return buf.getvalue()
+
+
+# --------------------------------------------------------------------------- terminal
+
+
+def lot_renderables(run) -> list:
+    """The rich renderables of the terminal lot summary, in order."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    st = run.stats
+    out = []
+    c = _counts(run)
+    head = Text()
+    head.append(f"Lot: {c['samples']} samples judged", style="bold")
+    head.append(f" from {c['files']} file(s)")
+    if c["unreadable"]:
+        head.append(f"; {c['unreadable']} input(s) could not be read (listed below)", style="bold red")
+    else:
+        head.append("; every input was read")
+    out.append(head)
+    if run.criteria_file:
+        ident = ", ".join(f"{k}: {v}" for k, v in run.identification.items())
+        out.append(Text(f"Criteria: {run.criteria_file}" + (f" ({ident})" if ident else "")))
+
+    # verdict
+    if run.check is not None or run.lot_results:
+        t = Table(title="Requirements", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
+        t.add_column("requirement", ratio=1)
+        t.add_column("result", ratio=2)
+        if run.check is not None:
+            for r in run.check.results:
+                fails = sum(o == "fail" for o in r.outcome)
+                nj = sum(o == "not judged" for o in r.outcome)
+                mg = np.asarray(r.margin, dtype=float)
+                worst = float(np.nanmin(mg)) if np.isfinite(mg).any() else float("nan")
+                res = f"{fails} of {len(r.outcome)} samples fail" if fails else "every sample passes"
+                if nj:
+                    res += f", {nj} not judged"
+                unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
+                res += f" (worst margin {_fmt(worst, '.4g')}{unit})"
+                t.add_row(r.label, _result_text(res, fails == 0 and nj == 0))
+        for r in run.lot_results:
+            unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
+            res = f"{r.outcome}: {_fmt(r.measured, '.4g')}{unit}, limit {r.limit_text}, margin {_fmt(r.margin, '.4g')}{unit}"
+            if r.reason:
+                res += f" ({r.reason})"
+            if r.sample_outcome is not None:
+                nf = sum(o == "fail" for o in r.sample_outcome)
+                if nf:
+                    res += f"; {nf} sample(s) beyond the limit"
+            t.add_row(r.label, _result_text(res, r.outcome == "pass"))
+        out.append(t)
+        y = st.yield_
+        if y is not None:
+            out.append(
+                Text(
+                    f"Yield: {y.passed} of {y.total} samples pass every per-sample requirement ({_fmt(y.percent, '.1f')} %); "
+                    f"{y.failed} fail, {y.not_judged} not judged, {y.indeterminate} indeterminate."
+                )
+            )
+        if run.check is not None and not run.has_yield_clause:
+            out.append(Text("No lot_yield clause: every sample must pass for the lot to pass.", style="dim"))
+
+    # chromaticity consistency
+    t = Table(title="Chromaticity consistency (CIE 1931 2°; Δu'v' in CIE 1976 UCS)", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
+    t.add_column("", style="bold", no_wrap=True)
+    t.add_column("value")
+    t.add_row("centroid x, y", f"{_fmt(st.centroid_xy[0], '.4f')}, {_fmt(st.centroid_xy[1], '.4f')}")
+    t.add_row("centroid u', v'", f"{_fmt(st.centroid_upvp[0], '.4f')}, {_fmt(st.centroid_upvp[1], '.4f')}")
+    pair = st.max_pair
+    pair_txt = f" ({run.names[pair[0]]} – {run.names[pair[1]]})" if pair[0] >= 0 and len(run) >= 2 else ""
+    t.add_row("largest pairwise Δu'v'", _fmt(st.max_pairwise_d_upvp, ".5f") + pair_txt)
+    t.add_row("Δu'v' from centroid: p95 / max", f"{_fmt(_pct(st.d_upvp_centroid, 95), '.5f')} / {_fmt(_max(st.d_upvp_centroid), '.5f')}")
+    if st.ellipse_name:
+        t.add_row("steps from centroid: p95 / max", f"{_fmt(_pct(st.steps_centroid, 95), '.2f')} / {_fmt(_max(st.steps_centroid), '.2f')}  ({st.ellipse_name} coefficients)")
+    if st.nominal_xy is not None:
+        t.add_row("nominal centre x, y", f"{_fmt(st.nominal_xy[0], '.4f')}, {_fmt(st.nominal_xy[1], '.4f')}")
+        t.add_row("Δu'v' from nominal: p95 / max", f"{_fmt(_pct(st.d_upvp_nominal, 95), '.5f')} / {_fmt(_max(st.d_upvp_nominal), '.5f')}")
+        t.add_row("steps from nominal: p95 / max", f"{_fmt(_pct(st.steps_nominal, 95), '.2f')} / {_fmt(_max(st.steps_nominal), '.2f')}")
+    out.append(t)
+
+    # figure statistics
+    t = Table(
+        title=f"Figures (std with ddof = {st.ddof}; percentiles: numpy '{st.percentile_method}')",
+        title_justify="left",
+        box=box.SIMPLE_HEAVY,
+        pad_edge=False,
+    )
+    shown = []
+    for name, label, spec in SUMMARY_FIGURES:
+        try:
+            shown.append((st.summary(name), label, spec))
+        except KeyError:
+            continue
+    any_undef = any(f.undefined for f, _, _ in shown)
+    cols = ("figure", "mean", "std", "min", "p5", "p95", "max") + (("n/a",) if any_undef else ())
+    for col in cols:
+        t.add_column(col, justify="left" if col == "figure" else "right", no_wrap=True)
+    for f, label, spec in shown:
+        sd_spec = ".4f" if f.name == "duv" else (".1f" if spec == ".0f" else (".4f" if spec == ".3f" else ".2f"))
+        row = [label, _fmt(f.mean, spec), _fmt(f.std, sd_spec), _fmt(f.min, spec), _fmt(f.p05, spec), _fmt(f.p95, spec), _fmt(f.max, spec)]
+        t.add_row(*(row + ([str(f.undefined)] if any_undef else [])))
+    out.append(t)
+
+    # outliers
+    idx = np.flatnonzero(st.outlier)
+    if idx.size:
+        t = Table(title=f"Outliers: {idx.size} sample(s) flagged (not removed from any statistic)", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
+        t.add_column("sample", no_wrap=True)
+        t.add_column("why")
+        for i in idx[:_SHOW_MAX]:
+            t.add_row(run.names[i], "; ".join(st.outlier_reasons[i]))
+        out.append(t)
+        if idx.size > _SHOW_MAX:
+            out.append(Text(f"… and {idx.size - _SHOW_MAX} more (see the per-sample CSV or JSON)."))
+    else:
+        out.append(Text("Outliers: none flagged."))
+    out.append(Text(f"Outlier rule: {st.outlier_rule}.", style="dim"))
+
+    # unreadable
+    if run.unreadable:
+        t = Table(title=f"Could not be read: {len(run.unreadable)}", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
+        t.add_column("reason")
+        for u in run.unreadable[:_SHOW_MAX]:
+            t.add_row(u.message)
+        out.append(t)
+        if len(run.unreadable) > _SHOW_MAX:
+            out.append(Text(f"… and {len(run.unreadable) - _SHOW_MAX} more (see the lot JSON)."))
+
+    # warnings summary
+    nw = sum(1 for w in run.warnings if w)
+    if nw:
+        out.append(Text(f"{nw} sample(s) carry warnings (interpolation, validity limits...): see the per-sample CSV or JSON.", style="yellow"))
+    for note in st.notes:
+        out.append(Text(f"Note: {note}.", style="dim"))
+    for cau in CAUTIONS:
+        out.append(Text(f"Caution: {cau}", style="dim"))
+    out.append(Text(_verdict_line(run), style="bold"))
+    return out
+
+
+def _result_text(text, ok):
+    from rich.text import Text
+
+    return Text(("✓ " if ok else "✗ ") + text, style="green" if ok else "red")
+
+
+def _verdict_line(run) -> str:
+    code = run.exit_code
+    if run.check is None and not run.lot_results:
+        base = "No criteria given: statistics only, nothing judged."
+    elif run.failed:
+        base = "Lot verdict: FAIL."
+    else:
+        base = "Lot verdict: PASS."
+    if run.unreadable:
+        base += f" {len(run.unreadable)} input(s) could not be read, so the lot is not fully judged (exit code 2)."
+    return base if code != 0 or run.unreadable else base
+
+
+def print_lot(run, console=None) -> None:
+    """Print the terminal summary (plain text when not a terminal)."""
+    from rich.console import Console
+
+    console = console or Console(highlight=False, soft_wrap=False)
+    for r in lot_renderables(run):
+        console.print(r)

@@ -1,0 +1,203 @@
+"""prepare(): the computation-grid rule, interpolation against colour-science, refusals.
+
+Outside truths used here:
+- colour-science 0.4.7's ``SpragueInterpolator`` (CIE 167:2005 Sprague method) and
+  ``CubicSplineInterpolator`` are the oracles for our vectorised interpolation operators.
+- CIE 15:2004 Table T.8.1 (via colour-science's shipped F-series SPDs at 5 nm): the data must
+  reach the metrics exactly as measured (no interpolation) — checked value by value.
+- The limits (400/700 nm, 10 nm, 5 % negative) are our documented rules; the tests check them
+  on both sides of each limit.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from lumeval._colour import load
+from lumeval.errors import InputError
+from lumeval.spectra.model import SpectrumSet
+from lumeval.spectra.prepare import cubic_spline, prepare, sprague, sprague_matrix
+
+
+def _set(wl, values, name="s"):
+    values = np.atleast_2d(values)
+    n = values.shape[0]
+    names = tuple(f"{name}{i}" for i in range(n))
+    return SpectrumSet(np.asarray(wl, float), values, names, tuple(f"{name}.csv#{i}" for i in range(n)))
+
+
+def _led(wl):
+    wl = np.asarray(wl, float)
+    return 0.9 * np.exp(-0.5 * ((wl - 450) / 10) ** 2) + 0.75 * np.exp(-0.5 * ((wl - 590) / 55) ** 2)
+
+
+@pytest.mark.parametrize("step", [2.0, 2.5, 4.0, 10.0, 0.5])
+def test_sprague_matches_colour_science(step):
+    colour = load()
+    rng = np.random.default_rng(int(step * 10))
+    wl = np.arange(380, 780 + step / 2, step)
+    y = rng.random((4, wl.size))
+    out = np.arange(380, 781, 1.0)
+    ours = sprague(wl, y, out)
+    ref = np.vstack([colour.SpragueInterpolator(wl, row)(out) for row in y])
+    np.testing.assert_allclose(ours, ref, rtol=0, atol=1e-12)
+
+
+def test_sprague_passes_through_the_data():
+    m = sprague_matrix(9, np.arange(9.0))
+    np.testing.assert_allclose(m, np.eye(9), atol=1e-12)
+
+
+def test_cubic_spline_matches_colour_science():
+    colour = load()
+    rng = np.random.default_rng(7)
+    wl = np.sort(rng.uniform(375, 785, 90))
+    y = rng.random((3, wl.size))
+    out = np.arange(np.ceil(wl[0]), np.floor(wl[-1]) + 1)
+    ref = np.vstack([colour.CubicSplineInterpolator(wl, row)(out) for row in y])
+    np.testing.assert_allclose(cubic_spline(wl, y, out), ref, rtol=0, atol=1e-10)
+
+
+@pytest.mark.parametrize("name", [f"FL{i}" for i in range(1, 13)])
+def test_cie_f_series_reach_the_metrics_as_measured(name):
+    """CIE F1-F12 (5 nm, 380-780 nm, CIE 15:2004 Table T.8.1 inputs) are used exactly as measured."""
+    sd = load().SDS_ILLUMINANTS[name]
+    p = prepare(_set(sd.wavelengths, sd.values))
+    np.testing.assert_array_equal(p.wavelengths_nm, sd.wavelengths)
+    np.testing.assert_array_equal(p.values[0], sd.values)
+    assert p.notes == ((),)
+
+
+def test_prepare_is_idempotent():
+    wl = np.arange(372.0, 801.0, 2.0)
+    s = _set(wl, np.vstack([_led(wl), _led(wl + 5) - 0.005]))
+    once = prepare(s)
+    twice = prepare(once)
+    np.testing.assert_array_equal(once.values, twice.values)
+    np.testing.assert_array_equal(once.wavelengths_nm, twice.wavelengths_nm)
+    assert once.notes == twice.notes
+
+
+def test_one_nm_grid_uniform_data_off_integers_is_resampled():
+    wl = np.arange(380.5, 781.0, 1.0)
+    p = prepare(_set(wl, _led(wl)))
+    # interpolated onto 381..780 nm (inside the data), then 380 nm added by repeating 381 nm
+    assert p.spacing_nm == 1.0 and p.wavelengths_nm[0] == 380 and p.wavelengths_nm[-1] == 780
+    assert p.values[0][0] == p.values[0][1]
+    assert any("Sprague" in n for n in p.notes[0])
+    assert any("EXTRAPOLATED" in n and "data start at 381 nm" in n for n in p.notes[0])
+    # a smooth function is reproduced closely (Sprague is exact for quartics inside the range)
+    np.testing.assert_allclose(p.values[0][1:], _led(p.wavelengths_nm[1:]), atol=2e-4)
+
+
+def test_irregular_data_interpolated_close_to_truth():
+    rng = np.random.default_rng(3)
+    wl = np.unique(np.concatenate([[378.0, 782.0], rng.uniform(378, 782, 300)]))
+    p = prepare(_set(wl, _led(wl)))
+    assert p.spacing_nm == 1.0
+    np.testing.assert_allclose(p.values[0], _led(p.wavelengths_nm), atol=5e-4)
+
+
+@pytest.mark.parametrize(
+    "start,end,ok",
+    [(400, 700, True), (401, 780, False), (380, 699, False), (399, 701, True)],
+)
+def test_coverage_limits(start, end, ok):
+    wl = np.arange(start, end + 1, 1.0)
+    s = _set(wl, _led(wl))
+    if ok:
+        p = prepare(s)
+        assert p.wavelengths_nm[0] == 380 and p.wavelengths_nm[-1] == 780
+        # extension repeats the end values (CIE 15:2004 §7.2.2.1 practice)
+        assert np.all(p.values[0][p.wavelengths_nm <= start] == _led(start))
+        assert np.all(p.values[0][p.wavelengths_nm >= end] == _led(end))
+        assert any(n.startswith("EXTRAPOLATED") for n in p.notes[0])
+    else:
+        with pytest.raises(InputError, match="too short"):
+            prepare(s)
+
+
+@pytest.mark.parametrize("step,outcome", [(5, "clean"), (8, "warn"), (10, "warn"), (12, "refuse"), (20, "refuse")])
+def test_spacing_limits(step, outcome):
+    wl = np.arange(380, 781, step, dtype=float)
+    s = _set(wl, _led(wl))
+    if outcome == "refuse":
+        with pytest.raises(InputError, match="coarser than 10 nm"):
+            prepare(s)
+        return
+    p = prepare(s)
+    warned = any("coarser than the 5 nm" in n for n in p.notes[0])
+    assert warned == (outcome == "warn")
+
+
+@pytest.mark.parametrize("offset,ok", [(-0.04, True), (-0.2, False)])
+def test_negative_values(offset, ok):
+    wl = np.arange(380, 781, 5.0)
+    v = _led(wl)
+    v = v + offset * v.max() * (v < 0.05)  # negative only where the signal is low
+    s = _set(wl, v)
+    if ok:
+        p = prepare(s)
+        assert p.values.min() == 0.0
+        assert any("set to zero" in n for n in p.notes[0])
+        # positive values untouched
+        np.testing.assert_array_equal(p.values[0][v > 0], v[v > 0])
+    else:
+        with pytest.raises(InputError, match="below zero"):
+            prepare(s)
+
+
+def test_bad_spectrum_is_named_in_a_wide_set():
+    wl = np.arange(380, 781, 5.0)
+    s = SpectrumSet(wl, np.vstack([_led(wl), np.zeros_like(wl)]), ("good", "dead"), ("f.csv#good", "f.csv#dead"))
+    with pytest.raises(InputError) as info:
+        prepare(s)
+    assert info.value.file == "f.csv" and info.value.field == "dead"
+
+
+def test_descending_and_duplicates_in_api_input():
+    wl = np.arange(780, 379, -5.0)
+    p = prepare(_set(wl, _led(wl)))
+    assert p.wavelengths_nm[0] == 380 and any("descending" in n for n in p.notes[0])
+    wl2 = np.array([380.0, 385, 385, 390] + list(range(395, 781, 5)))
+    with pytest.raises(InputError, match="not strictly increasing"):
+        prepare(_set(wl2, _led(wl2)))
+
+
+def test_sets_on_different_grids_share_a_1nm_union_grid():
+    wl5 = np.arange(380, 781, 5.0)
+    wl1 = np.arange(360, 831, 1.0)
+    a = _set(wl5, _led(wl5), "a")
+    b = _set(wl1, _led(wl1), "b")
+    p = prepare([a, b])
+    assert p.spacing_nm == 1.0 and p.wavelengths_nm[0] == 360 and p.wavelengths_nm[-1] == 830
+    assert p.names == ("a0", "b0")
+    # the 1 nm set is untouched
+    np.testing.assert_array_equal(p.values[1], _led(wl1))
+    # the 5 nm set: Sprague inside its range (exact at its nodes), end values outside, with notes
+    at_nodes = np.isin(p.wavelengths_nm, wl5)
+    np.testing.assert_allclose(p.values[0][at_nodes], _led(wl5), atol=1e-12)
+    assert np.all(p.values[0][p.wavelengths_nm < 380] == _led(380))
+    assert any("share one grid" in n for n in p.notes[0])
+    assert any("EXTRAPOLATED" in n for n in p.notes[0])
+    assert p.notes[1] == ()
+
+
+def test_same_grid_sets_are_concatenated_unchanged():
+    wl5 = np.arange(380, 781, 5.0)
+    p = prepare([_set(wl5, _led(wl5), "a"), _set(wl5, _led(wl5 + 3), "b")])
+    assert p.spacing_nm == 5.0 and p.notes == ((), ())
+
+
+def test_many_spectra_are_prepared_quickly():
+    import time
+
+    wl = np.arange(380, 781, 2.0)
+    vals = np.tile(_led(wl), (2000, 1)) * np.linspace(0.5, 1.5, 2000)[:, None]
+    s = SpectrumSet(wl, vals, tuple(map(str, range(2000))), tuple(f"lot.csv#{i}" for i in range(2000)))
+    t = time.perf_counter()
+    p = prepare(s)
+    dt = time.perf_counter() - t
+    assert p.values.shape == (2000, 401)
+    assert dt < 2.0, dt

@@ -228,8 +228,8 @@ def test_hue_bin_panels_match_colour_science_tm30(colour, evaluate_sd):
     fig = plots.hue_bin_figure(get("Rcs_h"), get("Rhs_h"), get("Rf_h"))
     spec = colour.colour_fidelity_index(sd, True, method="ANSI/IES TM-30-18")
     ax_cs, ax_hs, ax_f = fig.axes
-    cs = np.array([p.get_height() for p in ax_cs.patches if p.get_gid() == "Rcs_h-values"])
-    hs = np.array([p.get_height() for p in ax_hs.patches if p.get_gid() == "Rhs_h-values"])
+    cs = np.array([p.get_height() for p in ax_cs.patches if (p.get_gid() or "").startswith("Rcs_h-values-h")])
+    hs = np.array([p.get_height() for p in ax_hs.patches if (p.get_gid() or "").startswith("Rhs_h-values-h")])
     rf = _lines(fig, "Rf_h-values")["Rf_h-values"]
     assert cs.size == 16 and hs.size == 16 and rf.shape == (16, 2)
     # colour-science returns R_cs in percent and R_hs in radians, bins ordered h1..h16

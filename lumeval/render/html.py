@@ -54,7 +54,8 @@ import numpy as np
 
 from ..errors import UsageError
 
-#: Spectra up to this many get their own SPD, CRI and hue-bin charts; more are drawn as a lot.
+#: Spectra up to this many get their own SPD, CRI and hue-bin charts; more (or any lot) are drawn
+#: together: all spectra in one SPD chart, medians with min-max whiskers, distributions.
 PER_SAMPLE_MAX = 6
 
 #: Figures whose distributions are drawn for a lot (plus any figure a limit names).
@@ -316,7 +317,7 @@ def report_figures(
                                   regions=_regions(regions), show_centroid=as_lot and n >= 2),
     ))
 
-    if n <= per_sample_max:
+    if not as_lot:
         for i, name in enumerate(names):
             slug = f"{i + 1:02d}-{_slug(name)}"
             ref = ev.reference_spd(i)

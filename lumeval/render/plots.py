@@ -516,7 +516,9 @@ def hue_bin_figure(Rcs_h, Rhs_h, Rf_h, *, limits: Mapping | None = None, title: 
                 bottom = np.nanmin(rng[0] if rng is not None else mid) if np.any(fin) else 0.0
                 ax.set_ylim(min(50.0, np.floor(bottom / 10) * 10 if np.isfinite(bottom) else 50.0), max(100.0, top) + 4)
             else:
-                ax.bar(x[fin], mid[fin], width=0.7, color=col, ec="black", lw=0.5, gid=f"{key}-values")
+                bars = ax.bar(x[fin], mid[fin], width=0.7, color=col, ec="black", lw=0.5)
+                for j, patch in zip(x[fin], bars):
+                    patch.set_gid(f"{key}-values-h{j}")
                 ax.axhline(0, color="black", lw=0.7)
                 m = np.nanmax(np.abs(np.concatenate([mid[fin], *(r[np.isfinite(r)] for r in (rng or ()))]))) if np.any(fin) else 0.0
                 floor = 20.0 if key == "Rcs_h" else 0.2

@@ -1,0 +1,226 @@
+"""The HTML report: valid HTML, self-contained, verdict first, provenance and cautions present,
+written atomically; --plots writes SVG and PNG.
+
+Outside references: html5lib (a WHATWG-conformant parser, strict mode raises on any parse
+error), the ``sha256sum`` tool of GNU coreutils for the file hashes, numpy's own
+``__version__``.
+"""
+
+from __future__ import annotations
+
+import glob
+import hashlib
+import os
+import re
+import shutil
+import subprocess
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from lumeval.errors import UsageError
+from lumeval.render import html as H
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = sorted(glob.glob(str(ROOT / "spectra_demo" / "downlights" / "*.csv")))
+
+CRITERIA = """lumeval_criteria = 1
+[identification]
+project = "report test"
+[[clause]]
+figure = "Ra"
+min = 80
+[[clause]]
+figure = "R9"
+min = 50
+[[clause]]
+kind = "ansi_quadrangle"
+nominal_cct = 3000
+"""
+
+
+@pytest.fixture(scope="module")
+def demo_eval():
+    if not DEMO:
+        pytest.skip("spectra_demo/downlights has no CSV files")
+    from lumeval.commands.inspect import inspect_files
+
+    return inspect_files(DEMO)
+
+
+@pytest.fixture(scope="module")
+def check_result(demo_eval):
+    from lumeval.criteria import check, parse_criteria
+
+    return check(demo_eval, parse_criteria(CRITERIA, file="crit.toml"))
+
+
+@pytest.fixture(scope="module")
+def report(demo_eval, check_result, tmp_path_factory):
+    from lumeval.criteria.regions import ansi_quadrangle
+
+    d = tmp_path_factory.mktemp("report")
+    p = H.write_html_report(d / "report.html", demo_eval, verdicts=check_result, regions=[ansi_quadrangle(3000)],
+                            command="lumeval check crit.toml spectra_demo/downlights/*.csv")
+    return p, p.read_text(encoding="utf-8")
+
+
+def test_report_parses_as_html5_without_errors(report):
+    html5lib = pytest.importorskip("html5lib")
+    parser = html5lib.HTMLParser(strict=True, namespaceHTMLElements=False)
+    doc = parser.parse(report[1])  # raises html5lib.html5parser.ParseError on any error
+    assert doc.find("body") is not None
+    assert len(doc.findall(".//figure")) >= 3
+
+
+def test_every_inline_svg_is_well_formed_xml_and_ids_are_unique(report):
+    text = report[1]
+    svgs = re.findall(r"<svg\b.*?</svg>", text, flags=re.S)
+    assert len(svgs) == text.count("<figure ")
+    for s in svgs:
+        ET.fromstring(s)
+    ids = re.findall(r'\bid="([^"]+)"', text)
+    dup = {i for i in ids if ids.count(i) > 1}
+    assert not dup, sorted(dup)[:5]
+    # every in-document reference resolves to an id of the document
+    refs = set(re.findall(r'href="#([^"]+)"', text)) | set(re.findall(r"url\(#([^)]+)\)", text))
+    assert refs <= set(ids)
+
+
+def test_report_fetches_nothing_at_view_time(report):
+    text = report[1]
+    low = text.lower()
+    for tag in ("<script", "<link", "<iframe", "<object", "<embed", "<img", "@import", "@font-face"):
+        assert tag not in low, tag
+    # every src/href/url() is an in-document fragment; namespace declarations (xmlns) are not fetched
+    external = re.findall(r'\b(?:src|href|xlink:href)\s*=\s*"(?!#)([^"]*)"', text)
+    external += re.findall(r"url\(\s*['\"]?(?!#)([^)'\"]*)", text)
+    assert external == []
+    assert not re.search(r"(?<!xmlns=\")(?<!xmlns:xlink=\")https?://", text.replace('xmlns="http://www.w3.org/2000/svg"', "")
+                         .replace('xmlns:xlink="http://www.w3.org/1999/xlink"', ""))
+
+
+def test_order_verdict_then_figures_then_provenance_then_cautions(report):
+    text = report[1]
+    pos = [text.index(k) for k in ('id="verdict"', 'id="charts"', 'id="provenance"', 'id="cautions"')]
+    assert pos == sorted(pos)
+
+
+def test_verdicts_in_words_and_symbols(report, check_result):
+    text = report[1]
+    verdict = text[text.index('id="verdict"'): text.index('id="figures-table"')]
+    # the demo fails R9 >= 50 for some candidates (see spectra_demo/generate.py): overall FAIL
+    assert check_result.overall == "fail"
+    assert "✗</span> FAIL" in verdict and "✓</span> PASS" in verdict
+    assert "At least one criterion is not met." in verdict
+    n_rows = sum(len(r.outcome) for r in check_result.results)
+    n_fail = sum(o == "fail" for r in check_result.results for o in r.outcome)
+    assert f"{n_rows} checks" in verdict and f"{n_fail} fail" in verdict
+    import html as _html
+
+    for r in check_result.results:
+        assert _html.escape(r.label) in verdict
+
+
+def test_provenance_hashes_versions_methods_time(report, demo_eval):
+    text = report[1]
+    prov = text[text.index('id="provenance"'): text.index('id="cautions"')]
+    tool = shutil.which("sha256sum")
+    for f in DEMO:
+        if tool:
+            expected = subprocess.run([tool, f], capture_output=True, text=True, check=True).stdout.split()[0]
+        else:  # pragma: no cover - coreutils is on every Debian machine
+            expected = hashlib.sha256(Path(f).read_bytes()).hexdigest()
+        assert expected in prov, f
+    assert f">{np.__version__}<" in prov
+    import colour  # noqa: PLC0415
+
+    assert f">{colour.__version__}<" in prov
+    assert "CIE 13.3-1995" in prov and "Ohno (2014)" in prov
+    assert re.search(r"20\d\d-\d\d-\d\dT\d\d:\d\d:\d\d[+-]\d\d:\d\d", prov)
+    assert "lumeval check crit.toml" in prov
+
+
+def test_cautions_present(report):
+    c = report[1][report[1].index('id="cautions"'):]
+    for needle in ("IEC 62471", "flicker", "electrical", "measured spectrum", "contract", "local codes"):
+        assert needle in c, needle
+
+
+def test_key_figures_shown_with_standard_rounding(report, demo_eval):
+    text = report[1]
+    for i, name in enumerate(demo_eval.spectra.names):
+        assert f"<td>{name}</td>" in text
+        assert f'<td class="n">{demo_eval.x[i]:.4f}</td>' in text
+        assert f'<td class="n">{demo_eval.cct_K[i]:.0f}</td>' in text
+
+
+def test_warnings_travel_into_the_report(demo_eval, tmp_path):
+    from dataclasses import replace
+
+    w = list(demo_eval.warnings)
+    w[0] = w[0] + ("interpolated from 2 nm to 1 nm (test note)",)
+    ev = replace(demo_eval, warnings=tuple(w))
+    text = H.render_html_report(ev, per_sample_max=0)
+    assert "interpolated from 2 nm to 1 nm (test note)" in text
+
+
+def test_generic_rows_lot_table_and_lot_figures(demo_eval):
+    names = demo_eval.spectra.names
+    ra = demo_eval.figure("Ra")
+    rows = [{"sample": n, "clause": "Ra ≥ 85", "figure": "Ra", "measured": float(ra[i]), "limit": "≥ 85", "lower": 85,
+             "margin": float(ra[i] - 85), "passed": bool(ra[i] >= 85)} for i, n in enumerate(names)]
+    lot = {"title": "Lot statistics (test)", "rows": [{"figure": "Ra", "mean": float(np.mean(ra)), "min": float(ra.min()),
+                                                       "verdict": "pass"}], "notes": ["n = 5"]}
+    text = H.render_html_report(demo_eval, verdicts=rows, lot=lot)
+    assert "Lot statistics (test)" in text and "n = 5" in text
+    assert 'data-figure="distributions"' in text
+    # lot mode: no per-sample sections, centroid drawn
+    assert 'id="sample-01"' not in text and "centroid" in text
+    failing = sum(not r["passed"] for r in rows)
+    assert text.count('<tr class="fail">') >= failing
+
+
+def test_no_criteria_means_not_judged(demo_eval):
+    text = H.render_html_report(demo_eval, per_sample_max=1)
+    assert "NOT JUDGED" in text and "No acceptance criteria were given" in text
+
+
+def test_write_is_atomic_and_keeps_the_old_file_on_failure(demo_eval, tmp_path, monkeypatch):
+    target = tmp_path / "r.html"
+    target.write_text("old")
+
+    def boom(*a, **k):
+        raise RuntimeError("render failed")
+
+    monkeypatch.setattr(H, "render_html_report", boom)
+    with pytest.raises(RuntimeError):
+        H.write_html_report(target, demo_eval)
+    assert target.read_text() == "old"
+    assert os.listdir(tmp_path) == ["r.html"]
+
+
+def test_write_refuses_missing_directory_cleanly(demo_eval, tmp_path):
+    with pytest.raises(UsageError) as e:
+        H.write_html_report(tmp_path / "nope" / "r.html", demo_eval)
+    assert "does not exist" in e.value.message and "--html" in e.value.message
+    assert not (tmp_path / "nope").exists()
+    with pytest.raises(UsageError):
+        H.write_plots(tmp_path / "a" / "b", demo_eval)
+    assert not (tmp_path / "a").exists()
+
+
+def test_write_plots_writes_svg_and_png_per_figure(demo_eval, tmp_path):
+    sub = demo_eval  # five spectra: per-sample figures
+    paths = H.write_plots(tmp_path / "plots", sub, per_sample_max=1)  # lot mode: 5 figures
+    stems = sorted({p.stem for p in paths})
+    assert stems == sorted(["chromaticity", "spd-lot", "cri-lot", "hue-bins-lot", "distributions"])
+    for p in paths:
+        data = p.read_bytes()
+        if p.suffix == ".png":
+            assert data[:8] == b"\x89PNG\r\n\x1a\n"
+        else:
+            ET.fromstring(data)
+    assert not [f for f in os.listdir(tmp_path / "plots") if f.endswith(".tmp")]

@@ -173,7 +173,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     return XYZ, xy, uv, upvp, cct, cri, fid, phot, rf2017
 
 
-def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...], ...]:
+def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str, ...], ...]:
     from .metrics.cri import DC_LIMIT
 
     out = []
@@ -190,6 +190,8 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid) -> tuple[tuple[str, ...],
             )
         if not cct.reason[i] and fid_reason[i]:
             w.append(f"TM-30: {fid_reason[i]}.")
+        if phot.reason[i]:
+            w.append(f"photometry: {phot.reason[i]}.")
         out.append(tuple(w))
     return tuple(out)
 
@@ -248,7 +250,7 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_deta
         tm30=fid,
         cie2017_Rf=rf2017,
         photometry=phot,
-        warnings=_warnings_for(prepared, cct, cri, fid),
+        warnings=_warnings_for(prepared, cct, cri, fid, phot),
         run_warnings=tuple(caught_all),
         methods=METHODS,
     )
@@ -263,5 +265,7 @@ METHODS: dict[str, str] = {
     "duv_sign": "positive above the Planckian locus (ANSI C78.377)",
     "cri": "CIE 13.3-1995, reference Planckian < 5000 K, CIE daylight ≥ 5000 K",
     "fidelity": "CIE 224:2017 / ANSI/IES TM-30-18 (Rf, Rg, 16 hue bins)",
-    "melanopic": "CIE S 026/E:2018 melanopic daylight (D65) efficacy ratio",
+    "photometry": "Km = 683 lm/W, K'm = 1700 lm/W; sums over the measured range within 360-830 nm",
+    "melanopic": "CIE S 026/E:2018 melanopic daylight (D65) efficacy ratio; action spectra CIE dataset "
+    "10.25039/CIE.DS.vqqhzp5a (CC BY-SA 4.0)",
 }

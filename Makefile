@@ -21,5 +21,9 @@ demo: $(STAMP)
 test: $(STAMP)
 	$(PY) -m pytest
 
+# On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
+fuzz: $(STAMP)
+	LUMEVAL_FUZZ_EXAMPLES=3500 $(PY) -m pytest -s -p no:cacheprovider tests/test_spectra_fuzz.py
+
 clean:
 	rm -rf $(VENV) build *.egg-info

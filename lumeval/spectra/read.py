@@ -64,9 +64,15 @@ def read_spectra(path: str | Path) -> SpectrumSet:
     InputError
         ``FILE:LINE: what is wrong — what would fix it``.
     """
-    p = Path(path)
-    file = str(path)
-    raw = _read_bytes(p, MAX_TEXT_BYTES)
+    return parse_spectra(_read_bytes(Path(path), MAX_TEXT_BYTES), str(path))
+
+
+def parse_spectra(raw: bytes, file: str) -> SpectrumSet:
+    """Parse the bytes of a spectrum file named ``file`` (format by content, then extension).
+
+    The in-memory twin of :func:`read_spectra` (used for uploads and by the fuzz tests).
+    """
+    p = Path(file)
     kind = _kind(p, raw)
     if kind == "xml":
         from .tm27 import parse_tm27

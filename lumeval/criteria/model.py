@@ -593,7 +593,7 @@ class Tm30DesignIntentClause(ClauseKind):
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         out = []
-        for c in presets.TM30_ANNEX_E[self.level]:
+        for c in presets.effective_conditions(self.level):
             unit = figure_unit(c.figure)
             out.append(
                 figure_result(
@@ -613,7 +613,7 @@ class Tm30DesignIntentClause(ClauseKind):
 
     def tender_text(self) -> str:
         parts = []
-        for c in presets.TM30_ANNEX_E[self.level]:
+        for c in presets.effective_conditions(self.level):
             parts.append(f"{c.figure} {limit_text(c.lower, c.upper, figure_unit(c.figure))}")
         return (
             f"The light source shall meet ANSI/IES TM-30-20 Annex E, {presets.level_title(self.level)}: "

@@ -11,6 +11,11 @@ reference notes and the independent table in luxpy 1.12.5 (``_IES_TM30_ANNEX_E_T
 documented there as "Annex E table (default as published)"); the test suite checks our
 presets against luxpy's classifier. Values are compared unrounded (lumeval does not round
 Rf, Rg or Rcs,h1 before comparing; a reported Rf of 77.96 does not meet Rf ≥ 78).
+
+Levels are nested: priority level 1 is the most demanding, and a source meets level k only
+when it also meets every lower level of the same intent (:func:`effective_conditions`). For the
+Preference and Vividness levels the tables are nested already; for Fidelity this adds
+Rf,h1 ≥ 90 (from F2) to F1's Rf ≥ 95. luxpy's classifier treats the levels the same way.
 """
 
 from __future__ import annotations
@@ -45,6 +50,22 @@ TM30_ANNEX_E: dict[str, tuple[Condition, ...]] = {
 }
 
 LEVELS: tuple[str, ...] = tuple(TM30_ANNEX_E)
+
+
+def effective_conditions(level: str) -> tuple[Condition, ...]:
+    """The conditions a source must meet for ``level``: the intersection, figure by figure, of
+    the conditions of ``level`` and of every lower priority level of the same intent."""
+    intent, k = level[0], int(level[1])
+    bounds: dict[str, list] = {}
+    for j in range(k, 4):
+        for c in TM30_ANNEX_E[f"{intent}{j}"]:
+            lo, hi = bounds.get(c.figure, [None, None])
+            if c.lower is not None:
+                lo = c.lower if lo is None else max(lo, c.lower)
+            if c.upper is not None:
+                hi = c.upper if hi is None else min(hi, c.upper)
+            bounds[c.figure] = [lo, hi]
+    return tuple(Condition(f, lo, hi) for f, (lo, hi) in bounds.items())
 
 
 def level_title(level: str) -> str:

@@ -1,0 +1,89 @@
+"""The instrument file: defaults, parsing, and errors that name the line and key."""
+
+from __future__ import annotations
+
+import pytest
+
+from lumeval.errors import CriteriaError, InputError
+from lumeval.uncertainty import InstrumentModel, MonteCarloSettings, instrument_from_table, load_instrument
+
+
+def _write(tmp_path, text, name="inst.toml"):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def test_defaults_are_documented_values():
+    m = InstrumentModel()
+    assert (m.wavelength_offset_nm, m.noise_relative, m.noise_absolute, m.bandwidth_nm, m.photometric_scale,
+            m.stray_light) == (0.2, 0.005, 0.0005, 2.0, 0.02, 0.0005)
+    assert not m.is_zero and InstrumentModel(0, 0, 0, 0, 0, 0).is_zero
+    s = MonteCarloSettings()
+    assert s.draws == 2000 and s.coverage == 0.95 and not s.adaptive
+
+
+def test_full_file(tmp_path):
+    p = _write(tmp_path, """# lab instrument
+[instrument]
+name = "sphere, lab 2"
+wavelength_offset_nm = 0.1
+noise_relative = 0.002
+noise_absolute = 1e-4
+bandwidth_nm = 4
+photometric_scale = 0.03
+stray_light = 0.0
+
+[monte_carlo]
+draws = "adaptive"
+seed = 42
+""")
+    m, s = load_instrument(p)
+    assert m.name == "sphere, lab 2" and m.bandwidth_nm == 4.0 and m.stray_light == 0.0
+    assert s.adaptive and s.seed == 42
+    assert str(p) in m.source and "defaults" not in m.source
+
+
+def test_partial_file_keeps_defaults_and_says_so(tmp_path):
+    m, s = load_instrument(_write(tmp_path, "[instrument]\nbandwidth_nm = 5\n"))
+    assert m.bandwidth_nm == 5.0 and m.noise_relative == 0.005
+    assert "defaults for" in m.source and s.draws == 2000
+
+
+@pytest.mark.parametrize(
+    "text, line, words",
+    [
+        ("[instrument]\nbandwith_nm = 2\n", 2, "unknown key 'bandwith_nm'"),
+        ("[instrument]\nnoise_relative = 0.5\nbandwidth_nm = -1\n", 3, "≥ 0"),
+        ("[instrument]\nnoise_relative = 2\n", 2, "not a percentage"),
+        ('[instrument]\nwavelength_offset_nm = "0.2 nm"\n', 2, "must be a number"),
+        ("[instrument]\nstray_light = true\n", 2, "must be a number"),
+        ("[instrument]\n\n[monte_carlo]\ndraws = 10\n", 4, "draws"),
+        ("[instrument]\n[monte_carlo]\nseed = -1\n", 3, "seed"),
+        ("[instrument]\n[monte_carlo]\nrepeats = 3\n", 3, "unknown key 'repeats'"),
+        ("[instrument]\nnoise_relative = \n", 2, "not valid TOML"),
+        ("[instrumnet]\nnoise_relative = 0.1\n", 1, "unknown table"),
+    ],
+)
+def test_errors_name_file_line_and_key(tmp_path, text, line, words):
+    p = _write(tmp_path, text)
+    with pytest.raises(CriteriaError) as e:
+        load_instrument(p)
+    assert e.value.line == line, e.value.message
+    assert words in e.value.message
+    assert e.value.message.startswith(f"{p}:{line}")
+
+
+def test_missing_table_and_missing_file(tmp_path):
+    with pytest.raises(CriteriaError) as e:
+        load_instrument(_write(tmp_path, "[monte_carlo]\ndraws = 500\n"))
+    assert "no [instrument] table" in e.value.message
+    with pytest.raises(InputError):
+        load_instrument(tmp_path / "absent.toml")
+
+
+def test_table_inside_a_criteria_file():
+    text = '[identification]\nname = "x"\n\n[instrument]\nnoise_relative = 0.01\nfoo = 1\n'
+    with pytest.raises(CriteriaError) as e:
+        instrument_from_table({"noise_relative": 0.01, "foo": 1}, file="crit.toml", text=text)
+    assert e.value.line == 6 and e.value.field == "instrument.foo"

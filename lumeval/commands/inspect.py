@@ -36,8 +36,23 @@ def register(app: typer.Typer) -> None:
         output_format: OutputFormat = typer.Option(
             OutputFormat.terminal, "--format", "-f", help="terminal report, one JSON document, or CSV (one row per spectrum)."
         ),
+        validate_only: bool = typer.Option(
+            False, "--validate-only", help="Only read and check the files: list what reading did (sorted, clipped, "
+            "interpolated, extrapolated) or why a file is refused; compute nothing. Exit 2 if any file is refused."
+        ),
     ) -> None:
         """Compute every colour-quality figure for each spectrum and print them."""
+        if validate_only:
+            from ..spectra.validate import render_validation, validate_files
+
+            checks = validate_files(files)
+            typer.echo(render_validation(checks, output_format.value), nl=False)
+            failed = sum(not c.ok for c in checks)
+            if failed:
+                from ..errors import InputError
+
+                raise InputError(f"{failed} of {len(checks)} entries refused by the readers", fix="see the report above")
+            return
         ev = inspect_files(files)
         if output_format is OutputFormat.json:
             from ..render.tables import to_json

@@ -132,3 +132,31 @@ def format_report(checks: list[SpectrumCheck]) -> str:
         if c.error:
             lines.append(f"      {c.error}")
     return "\n".join(lines) + ("\n" if lines else "")
+
+
+def render_validation(checks: list[SpectrumCheck], fmt: str = "terminal") -> str:
+    """Render validation results as ``terminal`` (plain text), ``json`` or ``csv`` text."""
+    if fmt == "json":
+        import json
+
+        from .. import __version__
+
+        doc = {"lumeval_version": __version__, "validation": [c.as_dict() for c in checks]}
+        return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+    if fmt == "csv":
+        import csv
+        import io
+
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(["file", "ok", "name", "source", "points", "start_nm", "end_nm", "spacing_nm", "grid", "scale",
+                    "notes", "error"])
+        for c in checks:
+            grid = f"{c.grid_nm[0]:g}-{c.grid_nm[1]:g}/{c.grid_nm[2]:g}" if c.grid_nm else ""
+            w.writerow([
+                c.file, c.ok, c.name or "", c.source or "", c.points or "",
+                c.range_nm[0] if c.range_nm else "", c.range_nm[1] if c.range_nm else "",
+                c.spacing_nm if c.spacing_nm else "", grid, c.scale or "", " | ".join(c.notes), c.error or "",
+            ])
+        return buf.getvalue()
+    return format_report(checks)

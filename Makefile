@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test venv clean bench fuzz
+.PHONY: demo test venv clean bench fuzz browser-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -24,6 +24,11 @@ test: $(STAMP)
 # On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
 fuzz: $(STAMP)
 	LUMEVAL_FUZZ_EXAMPLES=3500 $(PY) -m pytest -s -p no:cacheprovider tests/test_spectra_fuzz.py
+
+# Headless Chromium for the browser test (Debian package; needs root, as on CI). The test
+# installs it itself when missing; this target lets CI do it up front.
+browser-deps:
+	command -v chromium >/dev/null 2>&1 || (apt-get update && DEBIAN_FRONTEND=noninteractive apt-get install -y chromium)
 
 clean:
 	rm -rf $(VENV) build *.egg-info

@@ -64,7 +64,7 @@ def ensure_chromium(timeout_s: float = 900.0) -> tuple[str | None, str]:
         return None, "Chromium is not installed and installing it needs root (apt-get install -y chromium)"
     env = dict(os.environ, DEBIAN_FRONTEND="noninteractive")
     log = []
-    for cmd in (["apt-get", "update"], ["apt-get", "install", "-y", "--no-install-recommends", "chromium"]):
+    for cmd in (["apt-get", "update"], ["apt-get", "install", "-y", "chromium"]):
         try:
             r = subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=timeout_s)
         except (OSError, subprocess.TimeoutExpired) as exc:

@@ -560,6 +560,7 @@ td.n, th.n { text-align: right; white-space: nowrap; }
          white-space: nowrap; }
 .badge.pass { color: var(--pass); } .badge.fail { color: #a33d00; } .badge.indeterminate, .badge.not-judged { color: #7a5600; }
 tr.fail td { background: #fdf0e8; }
+table.dense th, table.dense td { padding: .2rem .15rem; font-size: .78rem; }
 figure { margin: 1rem 0 1.5rem; break-inside: avoid; page-break-inside: avoid; }
 figure svg.chart { display: block; width: 100%; height: auto; max-width: 178mm; }
 figcaption { font-size: .85rem; color: var(--muted); margin-top: .3rem; }
@@ -574,6 +575,7 @@ footer { margin-top: 2rem; color: var(--muted); font-size: .8rem; }
   h2 { break-after: avoid; page-break-after: avoid; }
   h3 { break-after: avoid; page-break-after: avoid; }
   table { font-size: 8pt; }
+  table.dense th, table.dense td { font-size: 7pt; padding: 1pt 1.5pt; }
   tr, .summary, .cautions { break-inside: avoid; page-break-inside: avoid; }
   thead { display: table-header-group; }
   section.sample { break-before: page; page-break-before: always; }
@@ -583,11 +585,11 @@ footer { margin-top: 2rem; color: var(--muted); font-size: .8rem; }
 
 
 def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Sequence[bool] | None = None,
-           row_classes: Sequence[str] | None = None) -> str:
+           row_classes: Sequence[str] | None = None, cls: str = "") -> str:
     """An HTML table; ``rows`` cells are HTML already (escape text before), headers are text."""
     numeric = numeric or [False] * len(headers)
     num_attr = [' class="n"' if x else "" for x in numeric]
-    out = ["<table>", "<thead><tr>"]
+    out = [f'<table class="{cls}">' if cls else "<table>", "<thead><tr>"]
     out += [f'<th scope="col"{a}>{_e(h)}</th>' for h, a in zip(headers, num_attr)]
     out.append("</tr></thead><tbody>")
     for k, r in enumerate(rows):
@@ -762,13 +764,13 @@ def render_html_report(
             body.append(_figure_html(f, figs.index(f), figure_svg))
         R = _matrix(ev, "R", 14)[i]
         body.append("<h3>Special colour rendering indices (CIE 13.3)</h3>")
-        body.append(_table([f"R{j}" for j in range(1, 15)], [[_num(v, "int") for v in R]], numeric=[True] * 14))
+        body.append(_table([f"R{j}" for j in range(1, 15)], [[_num(v, "int") for v in R]], numeric=[True] * 14, cls="dense"))
         body.append("<h3>Hue bins (CIE 224:2017 / TM-30)</h3>")
         body.append(_table(["bin"] + [f"h{j}" for j in range(1, 17)], [
             ["Rf,h"] + [_num(v, "int") for v in _matrix(ev, "Rf_h", 16)[i]],
             ["Rcs,h (%)"] + [_num(v, "+.0f") for v in _matrix(ev, "Rcs_h", 16)[i]],
             ["Rhs,h"] + [_num(v, "+.2f") for v in _matrix(ev, "Rhs_h", 16)[i]],
-        ], numeric=[False] + [True] * 16))
+        ], numeric=[False] + [True] * 16, cls="dense"))
         body.append("</section>")
 
     # ---- notes on the data

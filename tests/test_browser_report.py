@@ -1,0 +1,125 @@
+"""The HTML report opened from disk in a real headless Chromium (Debian's ``chromium``).
+
+What is checked, in the browser itself (DevTools protocol, see tools/chromium.py):
+no console errors, uncaught exceptions or error log entries; no request other than the
+report's own file:// URL; every figure rendered with a non-zero size; the verdicts present as
+text (words and symbols); printing to A4 and US Letter works and every figure fits the
+printable width; a screenshot saved under the test's tmp dir.
+
+Chromium is installed by this test's setup when missing (``apt-get update`` and
+``apt-get install -y chromium``, as root, as on the project's machines and in CI; ``make
+browser-deps`` does the same). The test is skipped only when that is impossible, with a loud
+message saying why.
+"""
+
+from __future__ import annotations
+
+import glob
+import sys
+import warnings
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT / "tools"))
+
+from chromium import Browser, ensure_chromium  # noqa: E402
+
+pytestmark = pytest.mark.browser
+
+DEMO = sorted(glob.glob(str(ROOT / "spectra_demo" / "downlights" / "*.csv")))
+
+CRITERIA = """lumeval_criteria = 1
+[identification]
+project = "browser test"
+[[clause]]
+figure = "Ra"
+min = 80
+[[clause]]
+figure = "R9"
+min = 50
+[[clause]]
+kind = "ansi_quadrangle"
+nominal_cct = 3000
+"""
+
+FIGURES_JS = """Array.from(document.querySelectorAll('figure')).map(f => {
+  const s = f.querySelector('svg'); const r = s ? s.getBoundingClientRect() : {width: 0, height: 0};
+  return {key: f.dataset.figure, width: r.width, height: r.height,
+          drawn: s ? s.querySelectorAll('path, use').length : 0};
+})"""
+
+
+@pytest.fixture(scope="module")
+def chromium(request):
+    path, how = ensure_chromium()
+    if path is None:
+        msg = f"BROWSER TEST SKIPPED: headless Chromium is not available and could not be installed: {how}"
+        warnings.warn(msg)
+        sys.stderr.write("\n" + "!" * 78 + "\n" + msg + "\n" + "!" * 78 + "\n")
+        pytest.skip(msg)
+    return path
+
+
+@pytest.fixture(scope="module")
+def reports(tmp_path_factory):
+    """Two reports: the demo candidates judged against criteria, and the same spectra as a lot."""
+    if not DEMO:
+        pytest.skip("spectra_demo/downlights has no CSV files")
+    from lumeval.commands.inspect import inspect_files
+    from lumeval.criteria import check, parse_criteria
+    from lumeval.criteria.regions import ansi_quadrangle
+    from lumeval.render.html import write_html_report
+
+    ev = inspect_files(DEMO)
+    result = check(ev, parse_criteria(CRITERIA, file="crit.toml"))
+    d = tmp_path_factory.mktemp("browser")
+    one = write_html_report(d / "check.html", ev, verdicts=result, regions=[ansi_quadrangle(3000)])
+    lot = write_html_report(d / "lot.html", ev, verdicts=result, regions=[ansi_quadrangle(3000)],
+                            lot=[{"figure": "Ra", "n": len(ev), "verdict": "pass"}])
+    return result, one, lot
+
+
+@pytest.mark.parametrize("which", ["check", "lot"])
+def test_report_renders_in_chromium(chromium, reports, which, tmp_path):
+    result, one, lot = reports
+    path = one if which == "check" else lot
+    n_figures = path.read_text(encoding="utf-8").count("<figure ")
+    url = path.resolve().as_uri()
+    with Browser(chromium) as b:
+        s = b.open(url)
+        figs = b.evaluate(s, FIGURES_JS)
+        text = b.evaluate(s, "document.body.innerText")
+        shot = b.screenshot(s, tmp_path / f"{which}.png")
+        b.evaluate(s, "1")
+        errors = b.console_errors(s)
+        requests = b.requested_urls(s)
+        pdfs = {paper: b.print_pdf(s, paper=paper) for paper in ("A4", "Letter")}
+        b.call("Emulation.setEmulatedMedia", {"media": "print"}, session=s)
+        # A4 printable width: 210 mm - 2 x 15 mm margins = 180 mm = 680 CSS px (96 px per inch)
+        b.call("Emulation.setDeviceMetricsOverride", {"width": 680, "height": 1000, "deviceScaleFactor": 1,
+                                                      "mobile": False}, session=s)
+        print_figs = b.evaluate(s, FIGURES_JS)
+        overflow = b.evaluate(s, "document.documentElement.scrollWidth")
+
+    assert errors == [], errors
+    assert requests == [url], requests
+    assert len(figs) == n_figures >= 4
+    for f in figs:
+        assert f["width"] > 100 and f["height"] > 50, f
+        assert f["drawn"] > 20, f
+    # verdicts as text, in words and symbols
+    assert "✗ FAIL" in text and "✓ PASS" in text
+    assert ("FAIL" in text) == (result.overall == "fail")
+    for r in result.results:
+        assert r.label in text
+    assert "IEC 62471" in text
+    # the screenshot exists and is a PNG of the whole page
+    data = shot.read_bytes()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n" and len(data) > 50_000
+    for paper, pdf in pdfs.items():
+        assert pdf[:5] == b"%PDF-" and len(pdf) > 20_000, paper
+    for f in print_figs:
+        assert 0 < f["width"] <= 680, f
+    assert overflow <= 680

@@ -55,6 +55,9 @@ _WL_UNITS = [
     (re.compile(r"[µμ]m\b|(?<![a-z])um\b|micron|micromet", re.I), "µm", 1000.0),
     (re.compile(r"Å|angstr", re.I), "Å", 0.1),
 ]
+_WAVELENGTH_LABEL = re.compile(
+    r"wave|wl|lambda|λ|nm\b|[µμu]m\b|wellenl|longueur|lunghezza|longitud|golflengte|våglängd|^x\b|^\s*$", re.I
+)
 _WL_BAD_UNITS = re.compile(r"cm\s*[-−⁻]\s*1|cm\^-1|wavenumber|thz|\bhz\b|\bev\b|electron.?volt", re.I)
 _ABSOLUTE = re.compile(
     r"(?<![a-z])[mµμun]?w\s*(/|·|\*|\s|per|m)|watt|(?<![a-z])[mµμu]?w\b|lm\b|cd\b|lux|lx\b", re.I
@@ -339,9 +342,13 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
                     line=hln,
                     fix="every cell must be a number: fill in or correct it, or delete the row",
                 )
-            header = [c.strip().strip('"') if delim is None else c.strip() for c in hcells]
-            header_ln = hln
-            before = before[:-1]
+            # A "key;value" metadata line just before the data also has ncols cells: take the
+            # line as the header only if its first cell names a wavelength axis, it is the
+            # only line before the data, or it names three or more columns.
+            if _WAVELENGTH_LABEL.search(hcells[0]) or len(before) == 1 or ncols >= 3:
+                header = [c.strip().strip('"') if delim is None else c.strip() for c in hcells]
+                header_ln = hln
+                before = before[:-1]
 
     meta: dict[str, str] = {}
     text_lines: list[str] = []

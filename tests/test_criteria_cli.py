@@ -1,0 +1,291 @@
+"""The criteria, check and claims commands through the real CLI entry point.
+
+Every error path of the criteria loader is driven through ``lumeval criteria explain`` (and
+``lumeval check``): exit code 2, one line on stderr naming file, line and key, no traceback.
+
+Numeric outside sources: a Planckian radiator is its own CIE 13.3 reference, so Ra = R9 = 100
+and Duv = 0 (CIE 13.3-1995 definition); CIE F12 has CCT ≈ 3000 K and Ra = 83 (CIE 15:2004
+Table T.8.1).
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from lumeval.cli import main
+from lumeval.metrics.planck import planck_exitance
+
+
+def run(argv, capsys):
+    try:
+        main([str(a) for a in argv])
+        code = 0
+    except SystemExit as exc:
+        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+@pytest.fixture(scope="module")
+def spectra_dir(tmp_path_factory, colour):
+    d = tmp_path_factory.mktemp("spd")
+    wl = np.arange(380.0, 781.0, 1.0)
+    s = planck_exitance(wl, 3000.0)
+    s = s / s.max()
+    (d / "planck3000.csv").write_text("wavelength_nm,planck3000\n" + "".join(f"{w:.0f},{v:.8f}\n" for w, v in zip(wl, s)))
+    f12 = colour.SDS_ILLUMINANTS["FL12"]
+    (d / "f12.csv").write_text("wavelength_nm,F12\n" + "".join(f"{w:.0f},{v:.6f}\n" for w, v in zip(f12.wavelengths, f12.values)))
+    return d
+
+
+def write(tmp_path, text, name="c.toml"):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+GOOD = """\
+lumeval_criteria = 1
+[identification]
+project = "Test"
+[[clause]]
+id = "chroma"
+kind = "ansi_quadrangle"
+nominal_cct = 3000
+[[clause]]
+id = "Ra"
+figure = "Ra"
+min = 80
+[[clause]]
+id = "R9"
+figure = "R9"
+min = 50
+"""
+
+# (criteria text, expected line, expected key in the message, words the message must contain)
+BAD = [
+    ("[[clause]\nfigure = 1", 1, None, ["not valid TOML"]),
+    ("identifcation = 1\n[[clause]]\nfigure='Ra'\nmin=1", 1, "identifcation", ["did you mean 'identification'"]),
+    ("[identification]\nprojekt = 'x'\n[[clause]]\nfigure='Ra'\nmin=1", 2, "projekt", ["did you mean 'project'"]),
+    ("lumeval_criteria = 2\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version"]),
+    ("[identification]\nproject = 'x'\n", None, None, ["no clauses"]),
+    ("[[clause]]\nmin = 3\n", 1, None, ["has no `kind`"]),
+    ("[[clause]]\nkind = 'sdcn'\n", 2, "kind", ["did you mean 'sdcm'"]),
+    ("[[clause]]\nfigure = 'Ra'\nmni = 80\n", 3, "mni", ["did you mean 'min'", "allowed:"]),
+    ("[[clause]]\nfigure = 'Ra'\nmin = 80\ncentre = 'F3000'\n", 4, "centre", ["belongs to kind 'sdcm'"]),
+    ("[[clause]]\nfigure = 'r9'\nmin = 50\n", 2, "figure", ["did you mean 'R9'"]),
+    ("[[clause]]\nfigure = 'Rcs_h17'\nmin = 50\n", 2, "figure", ["unknown figure"]),
+    ("[[clause]]\nfigure = 'Ra'\nmin = 95\nmax = 90\n", 3, "min", ["above max", "contradict"]),
+    ("[[clause]]\nfigure = 'Ra'\nrange = [95, 90]\n", 3, "range", ["above high limit"]),
+    ("[[clause]]\nfigure = 'Ra'\nrange = [90, 95]\nmin = 91\n", 3, "range", ["cannot be combined"]),
+    ("[[clause]]\nfigure = 'Ra'\nrange = [90]\n", 3, "range", ["two numbers"]),
+    ("[[clause]]\nfigure = 'Ra'\n", 1, None, ["no limit"]),
+    ("[[clause]]\nfigure = 'Ra'\nmin = '90'\n", 3, "min", ["must be a number"]),
+    ("[[clause]]\nfigure = 'Ra'\nmin = nan\n", 3, "min", ["finite"]),
+    ("[[clause]]\nid = 'a'\nfigure = 'Ra'\nmin = 1\n[[clause]]\nid = 'a'\nfigure = 'R9'\nmin = 1\n", 6, "id", ["duplicate clause id"]),
+    ("[[clause]]\nid = ''\nfigure = 'Ra'\nmin = 1\n", 2, "id", ["non-empty"]),
+    ("[[clause]]\nlabel = 3\nfigure = 'Ra'\nmin = 1\n", 2, "label", ["must be a string"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\nnominal_cct = 3100\n", 3, "nominal_cct", ["allowed: 2200, 2500"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\n", 1, None, ["needs `nominal_cct`"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\nnominal_cct = 'flexible'\n", 1, None, ["needs `target_cct_K`"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\nnominal_cct = 'flexible'\ntarget_cct_K = 9000\n", 4, "target_cct_K", ["outside the flexible range"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\nnominal_cct = 3000\ntolerance_K = 100\n", 4, "tolerance_K", ["only to a flexible"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre = 'F3000'\n", 1, None, ["needs `max_steps`"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre = 'F3000'\nmax_steps = 0\n", 4, "max_steps", ["greater than zero"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre = 'F3000'\nmacadam1942 = 3\nmax_steps = 3\n", 4, "macadam1942", ["exactly one"]),
+    ("[[clause]]\nkind = 'sdcm'\nmax_steps = 3\n", 1, None, ["exactly one"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre = 'F3100'\nmax_steps = 3\n", 3, "centre", ["unknown centre", "allowed: F6500"]),
+    ("[[clause]]\nkind = 'sdcm'\nmacadam1942 = 26\nmax_steps = 3\n", 3, "macadam1942", ["1 to 25"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre_xy = [0.44, 0.40]\ng11 = 1e6\nmax_steps = 3\n", 1, None, ["missing g12, g22"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre_xy = [0.44, 0.40]\ng11 = 1\ng12 = 2\ng22 = 1\nmax_steps = 3\n", 4, "g11", ["do not describe an ellipse"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre = 'F3000'\ng11 = 1\nmax_steps = 3\n", 4, "g11", ["only with `centre_xy`"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre_xy = [1.4, 0.40]\ng11 = 1\ng12 = 0\ng22 = 1\nmax_steps = 3\n", 3, "centre_xy", ["0 < x, y < 1"]),
+    ("[[clause]]\nkind = 'tm30_design_intent'\nlevel = 'p1'\n", 3, "level", ["did you mean 'P1'"]),
+    ("[[clause]]\nkind = 'tm30_design_intent'\n", 1, None, ["needs `level`"]),
+    ("clause = 3\n", 1, "clause", ["array of tables"]),
+]
+
+
+@pytest.mark.parametrize("text,line,key,words", BAD)
+def test_every_loader_error_through_the_cli(tmp_path, capsys, text, line, key, words):
+    p = write(tmp_path, text)
+    code, out, err = run(["criteria", "explain", p], capsys)
+    assert code == 2
+    assert out == ""
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    msg = lines[0]
+    assert "Traceback" not in err
+    where = f"{p}:{line}" if line is not None else f"{p}"
+    assert msg.startswith(f"lumeval: error: {where}"), msg
+    if key is not None:
+        assert f"field {key!r}" in msg, msg
+    for w in words:
+        assert w in msg, msg
+    assert " — " in msg  # every message says what would fix it
+
+
+def test_missing_and_directory_criteria_files(tmp_path, capsys):
+    code, _, err = run(["criteria", "explain", tmp_path / "nope.toml"], capsys)
+    assert code == 2 and "no such file" in err and len(err.strip().splitlines()) == 1
+    code, _, err = run(["criteria", "explain", tmp_path], capsys)
+    assert code == 2 and "is a directory" in err
+
+
+def test_check_refuses_bad_criteria_before_computing(tmp_path, capsys, spectra_dir):
+    p = write(tmp_path, "[[clause]]\nfigure = 'Ra'\nmin = 95\nmax = 90\n")
+    code, out, err = run(["check", spectra_dir / "planck3000.csv", "--criteria", p], capsys)
+    assert code == 2 and out == "" and f"{p}:3 field 'min'" in err
+
+
+def test_bad_criteria_in_a_real_process_has_no_traceback(tmp_path):
+    p = write(tmp_path, "[[clause]]\nfigure = 'R99'\nmin = 1\n")
+    r = subprocess.run([sys.executable, "-m", "lumeval", "criteria", "explain", str(p)], capture_output=True, text=True)
+    assert r.returncode == 2
+    assert r.stdout == ""
+    assert r.stderr.count("\n") == 1 and "Traceback" not in r.stderr and "field 'figure'" in r.stderr
+
+
+def test_check_passes_a_planckian_source(tmp_path, capsys, spectra_dir):
+    """Planckian 3000 K: Ra = R9 = 100, Duv = 0 (CIE 13.3: it is its own reference)."""
+    crit = write(tmp_path, GOOD + "[[clause]]\nid='Duv'\nfigure='duv'\nrange=[-0.0002, 0.0002]\n[[clause]]\nid='CCT'\nfigure='cct_K'\nrange=[2995, 3005]\n")
+    code, out, err = run(["check", spectra_dir / "planck3000.csv", "--criteria", crit, "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["overall"] == "pass" and doc["exit_code"] == 0
+    (s,) = doc["spectra"]
+    by = {c["id"]: c for c in s["clauses"]}
+    assert by["Ra"]["measured"] == pytest.approx(100.0, abs=0.05)
+    assert by["R9"]["measured"] == pytest.approx(100.0, abs=0.05)
+    assert by["Ra"]["margin"] == pytest.approx(by["Ra"]["measured"] - 80)
+    assert by["chroma"]["details"]["duv"] == pytest.approx(0.0, abs=2e-5)
+    assert by["chroma"]["margin"] > 0.004
+    assert by["chroma"]["uncertainty"] is None and by["chroma"]["decision_rule"].startswith("simple acceptance")
+
+
+def test_check_fails_f12_on_r9_in_every_format(tmp_path, capsys, spectra_dir):
+    """CIE F12 (CIE 15:2004 Table T.8.1: CCT 3000 K, Ra 83) meets Ra ≥ 80 but not R9 ≥ 50."""
+    crit = write(tmp_path, GOOD)
+    files = [spectra_dir / "planck3000.csv", spectra_dir / "f12.csv"]
+    code, out, _ = run(["check", *files, "--criteria", crit, "--format", "json"], capsys)
+    assert code == 1
+    doc = json.loads(out)
+    f12 = doc["spectra"][1]
+    by = {c["id"]: c for c in f12["clauses"]}
+    assert by["Ra"]["measured"] == pytest.approx(83, abs=0.6) and by["Ra"]["outcome"] == "pass"
+    assert by["R9"]["outcome"] == "fail" and by["R9"]["margin"] < 0
+    assert f12["verdict"] == "fail" and doc["spectra"][0]["verdict"] == "pass" and doc["overall"] == "fail"
+
+    code, out, _ = run(["check", *files, "--criteria", crit, "--format", "csv"], capsys)
+    assert code == 1
+    rows = out.strip().splitlines()
+    assert len(rows) == 1 + 2 * 3
+    assert rows[0].startswith("spectrum,source,verdict,clause_id")
+    assert any(",R9," in r and r.endswith(",fail,") for r in rows)
+
+    code, out, _ = run(["check", *files, "--criteria", crit], capsys)
+    assert code == 1
+    assert "✘ FAIL" in out and ">>" in out and "OVERALL: ✘ FAIL" in out and "IEC 62471" in out
+
+    report = tmp_path / "report.json"
+    code, out, _ = run(["check", *files, "--criteria", crit, "--format", "json", "--output", report], capsys)
+    assert code == 1 and out == "" and json.loads(report.read_text())["overall"] == "fail"
+
+
+def test_check_with_missing_spectrum_is_exit_2(tmp_path, capsys):
+    crit = write(tmp_path, GOOD)
+    code, out, err = run(["check", tmp_path / "none.csv", "--criteria", crit], capsys)
+    assert code == 2 and out == "" and len(err.strip().splitlines()) == 1
+
+
+def test_criteria_new_writes_a_file_that_loads(tmp_path, capsys):
+    from lumeval.criteria import load_criteria
+
+    for nominal, level in ((3000, "good"), (2200, "basic"), (6500, "high"), (4500, "good")):
+        p = tmp_path / f"n{nominal}{level}.toml"
+        code, out, err = run(["criteria", "new", p, "--nominal-cct", nominal, "--level", level], capsys)
+        assert code == 0, err
+        c = load_criteria(p)
+        kinds = [k.KIND for k in c.clauses]
+        assert "ansi_quadrangle" in kinds and c.clauses[0].nominal == nominal
+        assert ("sdcm" in kinds) == (nominal in (2700, 3000, 3500, 4000, 5000, 6500))
+    code, _, err = run(["criteria", "new", p], capsys)  # exists
+    assert code == 2 and "file exists" in err
+    code, out, _ = run(["criteria", "new", "--nominal-cct", 3000], capsys)
+    assert code == 0 and out.startswith("# lumeval acceptance criteria")
+    code, _, err = run(["criteria", "new", "--nominal-cct", 3100], capsys)
+    assert code == 2 and "3100" in err
+
+
+def test_explain_gives_tender_wording(tmp_path, capsys):
+    crit = write(
+        tmp_path,
+        GOOD
+        + "[[clause]]\nkind='sdcm'\ncentre='F3000'\nmax_steps=3\n"
+        + "[[clause]]\nid='intent'\nkind='tm30_design_intent'\nlevel='P2'\nnote='Preferred for the reading room.'\n",
+    )
+    code, out, _ = run(["criteria", "explain", crit], capsys)
+    assert code == 0
+    assert out.startswith("# Colour-quality acceptance criteria: Test")
+    for needle in ("1. **chroma**", "ANSI C78.377-2017", "2870 K", "3220 K", "R9", "CIE 13.3-1995",
+                   "3 steps", "IEC 60081", "ANSI/IES TM-30-20 Annex E", "Preferred for the reading room.",
+                   "## Cautions", "IEC 62471"):
+        assert needle in out, needle
+
+
+CLAIMS = """\
+lumeval_claims = 1
+[supplier]
+name = "Invented Co."
+[claims]
+cct_K = 3000
+Ra = ">= 90"
+R9 = ">= 50"
+lifetime_h = 50000
+"""
+
+
+def test_claims_command(tmp_path, capsys, spectra_dir):
+    p = write(tmp_path, CLAIMS, "claims.toml")
+    code, out, err = run(["claims", spectra_dir / "planck3000.csv", "--claims", p, "--format", "json"], capsys)
+    assert code == 0, err
+    cl = {c["key"]: c for c in json.loads(out)["spectra"][0]["claims"]}
+    assert cl["cct_K"]["outcome"] == "supported" and cl["lifetime_h"]["outcome"] == "not checkable"
+    code, out, _ = run(["claims", spectra_dir / "f12.csv", "--claims", p, "--format", "json"], capsys)
+    assert code == 1
+    cl = {c["key"]: c for c in json.loads(out)["spectra"][0]["claims"]}
+    assert cl["Ra"]["outcome"] == "contradicted"
+    assert cl["Ra"]["excess"] == pytest.approx(cl["Ra"]["measured"] - 90)
+    assert cl["cct_K"]["outcome"] == "supported"  # F12 ≈ 3000 K (CIE 15 Table T.8.1)
+    code, out, _ = run(["claims", spectra_dir / "f12.csv", "--claims", p], capsys)
+    assert code == 1 and "CONTRADICTED" in out and "over-claims" in out
+    code, out, _ = run(["claims", spectra_dir / "f12.csv", "--claims", p, "--format", "csv"], capsys)
+    assert code == 1 and out.splitlines()[0].startswith("spectrum,claim,as_stated")
+
+
+@pytest.mark.parametrize(
+    "text,key,words",
+    [
+        ("[claims]\nRa9 = '>= 50'\n", "Ra9", ["unknown claim", "did you mean"]),
+        ("[claims]\nRa = 'about ninety'\n", "Ra", ["cannot read the claim"]),
+        ("[claims]\ncct_K = '3000 lm/W'\n", "cct_K", ["does not fit"]),
+        ("[claims]\nRa = '>= 90 ± 2'\n", "Ra", ["cannot be combined"]),
+        ("[claims]\ncct_K = 12000\n", "cct_K", ["no default tolerance"]),
+        ("[tolerances]\nRa = -1\n[claims]\nRa = 90\n", "Ra", ["non-negative"]),
+        ("[supplier]\nnmae = 'x'\n[claims]\nRa = 90\n", "nmae", ["did you mean 'name'"]),
+        ("[suppliers]\nname = 'x'\n", "suppliers", ["did you mean 'supplier'"]),
+    ],
+)
+def test_claims_errors_through_the_cli(tmp_path, capsys, spectra_dir, text, key, words):
+    p = write(tmp_path, text, "claims.toml")
+    code, out, err = run(["claims", spectra_dir / "planck3000.csv", "--claims", p], capsys)
+    assert code == 2 and out == ""
+    assert len(err.strip().splitlines()) == 1 and f"field {key!r}" in err
+    for w in words:
+        assert w in err, err

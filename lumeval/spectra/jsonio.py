@@ -158,17 +158,21 @@ _DERIVED = ("lumeval.format", "lumeval.delimiter", "lumeval.column", "lumeval.tm
 
 def to_json_bytes(spectra: SpectrumSet) -> bytes:
     """Serialise ``spectra`` in lumeval's JSON format (exact round trip)."""
-    doc = {
-        "format": FORMAT,
-        "version": VERSION,
-        "wavelengths_nm": [float(w) for w in spectra.wavelengths_nm],
-        "spectra": [
-            {
-                "name": spectra.names[i],
-                "values": [float(v) for v in spectra.values[i]],
-                "metadata": {str(k): str(v) for k, v in spectra.metadata[i].items() if k not in _DERIVED},
-            }
-            for i in range(len(spectra))
-        ],
-    }
-    return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode("utf-8")
+    def dump(x) -> str:
+        return json.dumps(x, ensure_ascii=False, allow_nan=False)
+
+    items = []
+    for i in range(len(spectra)):
+        meta = {str(k): str(v) for k, v in spectra.metadata[i].items() if k not in _DERIVED}
+        items.append(
+            "  {" + f'"name": {dump(spectra.names[i])},\n   "metadata": {dump(meta)},\n'
+            f'   "values": {dump([float(v) for v in spectra.values[i]])}' + "}"
+        )
+    text = (
+        "{\n"
+        f' "format": {dump(FORMAT)},\n'
+        f' "version": {VERSION},\n'
+        f' "wavelengths_nm": {dump([float(w) for w in spectra.wavelengths_nm])},\n'
+        ' "spectra": [\n' + ",\n".join(items) + "\n ]\n}\n"
+    )
+    return text.encode("utf-8")

@@ -113,6 +113,17 @@ class DecisionRule:
             return np.zeros_like(u)
         return self.guard_band_factor * self.coverage_factor * u
 
+    def summary(self) -> str:
+        """One line naming the rule, its source and its guard band (for every clause row)."""
+        if self.rule == SIMPLE:
+            return "simple acceptance (JCGM 106:2012 §8.2): the measured value decides; no guard band"
+        w = f"w = {self.guard_band_factor:g} × U, U = {self.coverage_factor:g} × u"
+        if self.rule == GUARDED_ACCEPTANCE:
+            return (f"guarded acceptance ({self.source}); {w}: pass only inside the limits by at least w, "
+                    "indeterminate within w inside a limit")
+        return (f"guarded rejection ({self.source}); {w}: fail only outside the limits by more than w, "
+                "indeterminate within w outside a limit")
+
     def describe(self) -> str:
         """One paragraph for reports: what the rule is and how to read its outcomes."""
         if self.rule == SIMPLE:

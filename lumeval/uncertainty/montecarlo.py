@@ -212,16 +212,19 @@ def summarise(samples: np.ndarray, p: float = 0.95) -> dict[str, np.ndarray]:
     full = n == m
     if full.any() and m >= 2:
         xs = x[:, full]
-        out["mean"][full] = xs.mean(axis=0)
-        out["u"][full] = xs.std(axis=0, ddof=1)
+        # shifted by the first draw: exact zero spread for identical draws, and less rounding
+        dev = xs - xs[:1]
+        out["mean"][full] = xs[0] + dev.mean(axis=0)
+        out["u"][full] = dev.std(axis=0, ddof=1)
         srt = np.sort(xs, axis=0)
         lo, hi = coverage_indices(m, p)
         out["low"][full] = srt[lo]
         out["high"][full] = srt[hi]
     for j in np.flatnonzero(~full & (n >= 2)):
         v = np.sort(x[finite[:, j], j])
-        out["mean"][j] = v.mean()
-        out["u"][j] = v.std(ddof=1)
+        dv = v - v[0]
+        out["mean"][j] = v[0] + dv.mean()
+        out["u"][j] = dv.std(ddof=1)
         lo, hi = coverage_indices(v.size, p)
         out["low"][j] = v[lo]
         out["high"][j] = v[hi]

@@ -289,3 +289,23 @@ def test_claims_errors_through_the_cli(tmp_path, capsys, spectra_dir, text, key,
     assert len(err.strip().splitlines()) == 1 and f"field {key!r}" in err
     for w in words:
         assert w in err, err
+
+
+def test_check_writes_the_html_report(tmp_path, capsys, spectra_dir):
+    crit = write(tmp_path, GOOD)
+    html = tmp_path / "report.html"
+    code, out, err = run(["check", spectra_dir / "f12.csv", "--criteria", crit, "--html", html, "--format", "json"], capsys)
+    assert code == 1, err
+    text = html.read_text(encoding="utf-8")
+    assert "FAIL" in text and "R9" in text
+
+
+def test_demo_criteria_and_claims_files_load():
+    """The demo scenario's files are valid (the demo itself runs in `make demo`)."""
+    from lumeval.criteria import load_claims, load_criteria
+
+    root = Path(__file__).resolve().parents[1] / "spectra_demo"
+    c = load_criteria(root / "tender_criteria.toml")
+    assert [k.clause_id for k in c.clauses][:4] == ["chromaticity", "Duv", "Ra", "R9"]
+    cl = load_claims(root / "supplier_claims.toml")
+    assert {x.key for x in cl.claims} >= {"cct_K", "Ra", "R9", "luminous_flux_lm"}

@@ -22,12 +22,17 @@ def check_files(paths, criteria_path):
     is computed. Returns a :class:`lumeval.criteria.CheckResult`; raises
     :class:`lumeval.errors.CriteriaError` / :class:`lumeval.errors.InputError` on bad input.
     """
+    return run_check(paths, criteria_path)[2]
+
+
+def run_check(paths, criteria_path):
+    """(criteria, evaluation, result) for ``lumeval check`` (see :func:`check_files`)."""
     from ..criteria import load_criteria
     from .inspect import inspect_files
 
     criteria = load_criteria(criteria_path)
     ev = inspect_files(paths)
-    return criteria.evaluate(ev)
+    return criteria, ev, criteria.evaluate(ev)
 
 
 def emit(text: str, output: Path | None) -> None:
@@ -61,10 +66,21 @@ def register(app: typer.Typer) -> None:
             OutputFormat.terminal, "--format", "-f", help="terminal report, one JSON document, or CSV (one row per spectrum and clause)."
         ),
         output: Path = typer.Option(None, "--output", "-o", help="Write the JSON/CSV/terminal text to this file instead of the screen."),
+        html: Path = typer.Option(None, "--html", help="Also write the HTML report (verdict first, then the evidence) to this file."),
+        plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
     ) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
         every requirement; 1: a requirement failed (or could not be decided); 2: bad input."""
-        result = check_files(files, criteria)
+        crit, ev, result = run_check(files, criteria)
+        if html is not None or plots is not None:
+            from ..render.html import regions_from_criteria, write_html_report, write_plots
+
+            regions = regions_from_criteria(crit)
+            if html is not None:
+                write_html_report(html, ev, verdicts=result, regions=regions, inputs=[*files, criteria],
+                                  command="lumeval " + " ".join(sys.argv[1:]))
+            if plots is not None:
+                write_plots(plots, ev, verdicts=result, regions=regions)
         if output_format is OutputFormat.json:
             from ..render.verdicts import check_to_json
 

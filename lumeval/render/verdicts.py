@@ -347,7 +347,7 @@ def claims_renderables(check) -> list:
             line.append("– no claim could be checked from the spectrum", style="bold yellow")
         out.append(line)
         t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
-        for col, kw in (("", {"no_wrap": True}), ("claim", {}), ("as stated", {}), ("measured", {"justify": "right"}),
+        for col, kw in (("", {"no_wrap": True}), ("claim", {"no_wrap": True}), ("as stated", {}), ("measured", {"justify": "right"}),
                         ("accepted as", {}), ("by how much", {"justify": "right"}), ("result", {"no_wrap": True})):
             t.add_column(col, **kw)
         notes = []

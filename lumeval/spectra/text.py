@@ -127,6 +127,24 @@ def _is_number(cell: str, decimal_comma: bool) -> bool:
     return bool(_NUMBER.match(cell))
 
 
+_NUM_POINT = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_NUM_ANY = r"[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?"
+_ROW = {
+    False: re.compile(rf"(?:{_NUM_POINT})(?:\x1f(?:{_NUM_POINT}))*\Z"),
+    True: re.compile(rf"(?:{_NUM_ANY})(?:\x1f(?:{_NUM_ANY}))*\Z"),
+}
+
+
+def _all_numbers(cells: list[str], decimal_comma: bool) -> bool:
+    """True when every cell is a number (one regex per row; same rule as :func:`_is_number`)."""
+    if not cells:
+        return False
+    joined = "\x1f".join(cells)
+    if joined.count("\x1f") != len(cells) - 1:  # a cell holds the separator itself
+        return all(_is_number(c, decimal_comma) for c in cells)
+    return bool(_ROW[decimal_comma].match(joined))
+
+
 def _to_float(cell: str, decimal_comma: bool) -> float:
     if decimal_comma:
         cell = cell.replace(",", ".")
@@ -155,7 +173,7 @@ def _choose_delimiter(lines: list[tuple[int, str]]) -> tuple[str | None, int]:
             if _is_comment(s) or not (s[0].isdigit() or s[0] in "+-."):
                 continue
             cells = _split(s, d)
-            if len(cells) >= 2 and all(_is_number(c, d != ",") for c in cells):
+            if len(cells) >= 2 and _all_numbers(cells, d != ","):
                 score += 1
         if score > best_score:
             best, best_score = d, score
@@ -269,7 +287,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
 
     # decimal mark: comma when the delimiter is not a comma and no data cell uses a point
     def all_numeric(cells, dc):
-        return len(cells) >= 2 and all(_is_number(c, dc) for c in cells)
+        return len(cells) >= 2 and _all_numbers(cells, dc)
 
     decimal_comma = False
     if delim != ",":
@@ -278,11 +296,13 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
             cells = _split(s, delim)
             if not all_numeric(cells, True):
                 continue
-            for c in cells:
-                if "," in c and saw_comma is None:
-                    saw_comma = ln
-                if "." in c and saw_point is None:
-                    saw_point = ln
+            joined = "".join(cells)
+            if saw_comma is None and "," in joined:
+                saw_comma = ln
+            if saw_point is None and "." in joined:
+                saw_point = ln
+            if saw_comma is not None and saw_point is not None:
+                break
         if saw_comma is not None and saw_point is not None:
             raise InputError(
                 "the data mix decimal points and decimal commas "
@@ -390,6 +410,9 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
                 line=ln,
                 fix="give every row a wavelength and one value per spectrum column; fill in empty cells",
             )
+        if _all_numbers(cells, decimal_comma):
+            data[r] = np.array([c.replace(",", ".") for c in cells] if decimal_comma else cells, dtype=float)
+            continue
         for c, cell in enumerate(cells):
             if not _is_number(cell, decimal_comma):
                 col = (

@@ -58,6 +58,11 @@ _WL_UNITS = [
 _WAVELENGTH_LABEL = re.compile(
     r"wave|wl|lambda|λ|nm\b|[µμu]m\b|wellenl|longueur|lunghezza|longitud|golflengte|våglängd|^x\b|^\s*$", re.I
 )
+_UNIT_CELL = re.compile(
+    r"^\s*[\[(]?\s*(nm|[µμu]m|Å|a\.?\s*u\.?|%|counts|rel\.?|relative|arb\.?( units)?|"
+    r"[mµμun]?w(\s*(/|·|\*|per\b|\s+m\b).*)?|cm-1|thz|ev|)\s*[\])]?\s*$",
+    re.I,
+)
 _WL_BAD_UNITS = re.compile(r"cm\s*[-−⁻]\s*1|cm\^-1|wavenumber|thz|\bhz\b|\bev\b|electron.?volt", re.I)
 _ABSOLUTE = re.compile(
     r"(?<![a-z])[mµμun]?w\s*(/|·|\*|\s|per|m)|watt|(?<![a-z])[mµμu]?w\b|lm\b|cd\b|lux|lx\b", re.I
@@ -345,6 +350,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     # header row and metadata before the data
     before = non_comment[:start]
     header: list[str] | None = None
+    header_units: list[tuple[str, str]] | None = None
     header_ln: int | None = None
     if before:
         hln, hs = before[-1]
@@ -369,6 +375,16 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
                 header = [c.strip().strip('"') if delim is None else c.strip() for c in hcells]
                 header_ln = hln
                 before = before[:-1]
+                # a row of units under a row of names ("Wavelength,Irradiance" / "nm,W/m2/nm")
+                if all(_UNIT_CELL.match(c) for c in header) and before:
+                    pln, ps = before[-1]
+                    pcells = _split(ps, delim)
+                    if len(pcells) == ncols and not _is_number(pcells[0], decimal_comma):
+                        units = header
+                        header = [f"{n.strip()} ({u})" if u else n.strip() for n, u in zip(pcells, units)]
+                        header_units = [(n.strip(), u) for n, u in zip(pcells, units)]
+                        header_ln = pln
+                        before = before[:-1]
 
     meta: dict[str, str] = {}
     text_lines: list[str] = []
@@ -490,6 +506,9 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     metas: list[dict] = []
     for j in range(n):
         col_name = header[j + 1] if header else ""
+        col_label = col_name  # with its unit, for the scale
+        if header_units:
+            col_name = header_units[j + 1][0]
         if n == 1:
             name = col_name if header and col_name and not _generic_value_name(col_name) else stem
             src = file
@@ -497,7 +516,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
             name = col_name or f"{stem}#{j + 1}"
             src = f"{file}#{col_name}" if col_name else f"{file}#{j + 1}"
         m = dict(meta)
-        scale, unit = _scale(col_name or None, meta)
+        scale, unit = _scale(col_label or None, meta)
         m["lumeval.scale"] = scale
         if unit:
             m["lumeval.value_unit"] = unit

@@ -208,6 +208,25 @@ def _regions(regions) -> list[dict]:
     return out
 
 
+def regions_from_criteria(criteria) -> list:
+    """The chromaticity regions a criteria object's clauses define, ready for ``regions=``.
+
+    Duck-typed on ``criteria.clauses``: a clause with a ``quadrangle`` (ANSI C78.377 clause)
+    gives that quadrangle; a clause with ``ellipse`` and ``max_steps`` (SDCM clause) gives the
+    ellipse at that many steps. Other clauses define no region.
+    """
+    out = []
+    for c in getattr(criteria, "clauses", ()) or ():
+        q = getattr(c, "quadrangle", None)
+        if q is not None and not callable(q):
+            out.append(q)
+        elif callable(q):
+            out.append(q())
+        elif getattr(c, "ellipse", None) is not None and getattr(c, "max_steps", None) is not None:
+            out.append((c.ellipse, float(c.max_steps)))
+    return out
+
+
 def _lot_block(lot):
     if lot is None:
         return None
@@ -561,6 +580,8 @@ td.n, th.n { text-align: right; white-space: nowrap; }
 .badge.pass { color: var(--pass); } .badge.fail { color: #a33d00; } .badge.indeterminate, .badge.not-judged { color: #7a5600; }
 tr.fail td { background: #fdf0e8; }
 table.dense th, table.dense td { padding: .2rem .15rem; font-size: .78rem; }
+table.grid { table-layout: fixed; } table.grid th, table.grid td { font-size: .8rem; overflow-wrap: anywhere; }
+table.grid small { color: var(--muted); }
 figure { margin: 1rem 0 1.5rem; break-inside: avoid; page-break-inside: avoid; }
 figure svg.chart { display: block; width: 100%; height: auto; max-width: 178mm; }
 figcaption { font-size: .85rem; color: var(--muted); margin-top: .3rem; }
@@ -596,6 +617,55 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Seque
         cls = f' class="{row_classes[k]}"' if row_classes and row_classes[k] else ""
         out.append(f"<tr{cls}>" + "".join(f"<td{a}>{cell}</td>" for cell, a in zip(r, num_attr)) + "</tr>")
     out.append("</tbody></table>")
+    return "".join(out)
+
+
+def _measured_text(r: VerdictRow) -> tuple[str, str]:
+    unit = f" {r.unit}" if r.unit else ""
+    finite = isinstance(r.measured, (int, float)) and math.isfinite(float(r.measured))
+    meas = _num(r.measured) + (unit if finite else "")
+    marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else _num(r.margin, "+g") + unit
+    return meas, marg
+
+
+def _checks_html(rows: list[VerdictRow], per_sample_max: int) -> str:
+    """The checks: a criterion × sample grid for a few samples, else a list of the checks that
+    did not pass (the passes are counted, not listed)."""
+    samples = list(dict.fromkeys(r.sample or "lot" for r in rows))
+    clauses = list(dict.fromkeys((r.clause, r.limit) for r in rows))
+    out = []
+    if len(samples) <= per_sample_max:
+        grid = {((r.clause, r.limit), r.sample or "lot"): r for r in rows}
+        body = []
+        for key in clauses:
+            cells = [_e(key[0]), _e(key[1])]
+            for sname in samples:
+                r = grid.get((key, sname))
+                if r is None:
+                    cells.append("")
+                    continue
+                meas, marg = _measured_text(r)
+                extra = f"<br><small>{_e(r.reason)}</small>" if r.reason else ""
+                cells.append(f"{_badge(r.outcome)}<br>{meas}<br><small>margin {marg}</small>{extra}")
+            body.append(cells)
+        out.append("<h3>Checks</h3>")
+        out.append('<p class="sub">Each cell: verdict, measured value, margin to the nearest limit '
+                   "(+ inside the limits, − outside).</p>")
+        out.append(_table(["Criterion", "Limit"] + samples, body, cls="grid"))
+        return "".join(out)
+    shown = [r for r in rows if r.outcome != "pass"]
+    out.append(f"<h3>Checks that did not pass ({len(shown)} of {len(rows)})</h3>")
+    if not shown:
+        out.append("<p>None: every check passed.</p>")
+        return "".join(out)
+    body, classes = [], []
+    for r in shown:
+        meas, marg = _measured_text(r)
+        body.append([_e(r.sample or "lot"), _e(r.clause), meas, _e(r.limit), marg,
+                     _badge(r.outcome) + (f"<br><small>{_e(r.reason)}</small>" if r.reason else "")])
+        classes.append("fail" if r.outcome == "fail" else "")
+    out.append(_table(["Sample", "Criterion", "Measured", "Limit", "Margin (+ inside)", "Verdict"], body,
+                      numeric=[False, False, True, False, True, False], row_classes=classes))
     return "".join(out)
 
 
@@ -666,6 +736,13 @@ def render_html_report(
         body.append('<div class="summary not-judged"><p class="big">' + _badge("not judged")
                     + " No acceptance criteria were given: figures only.</p></div>")
     else:
+        ident = _get(verdicts, "identification") if not isinstance(verdicts, (list, tuple)) else None
+        crit_file = _get(verdicts, "criteria_file") if not isinstance(verdicts, (list, tuple)) else None
+        if ident or crit_file:
+            bits = [f"{_e(k)}: {_e(v)}" for k, v in dict(ident or {}).items()]
+            if crit_file:
+                bits.insert(0, f'criteria file <span class="mono">{_e(crit_file)}</span>')
+            body.append('<p class="sub">' + " · ".join(bits) + "</p>")
         overall = _worst(r.outcome for r in rows)
         counts = {o: sum(r.outcome == o for r in rows) for o in _OUTCOME_ORDER}
         per_sample = {}
@@ -685,17 +762,7 @@ def render_html_report(
                                [[_e(s), _badge(_worst(o)), str(sum(x == "fail" for x in o))] for s, o in per_sample.items()],
                                numeric=[False, False, True],
                                row_classes=["fail" if "fail" in o else "" for o in per_sample.values()]))
-        vrows, classes = [], []
-        for r in rows:
-            unit = f" {r.unit}" if r.unit else ""
-            meas = _num(r.measured) + (unit if isinstance(r.measured, (int, float)) and math.isfinite(float(r.measured)) else "")
-            marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else _num(r.margin, "+g") + unit
-            vrows.append([_e(r.sample or "lot"), _e(r.clause), meas, _e(r.limit), marg,
-                          _badge(r.outcome) + (f"<br><small>{_e(r.reason)}</small>" if r.reason else "")])
-            classes.append("fail" if r.outcome == "fail" else "")
-        body.append("<h3>Checks</h3>")
-        body.append(_table(["Sample", "Criterion", "Measured", "Limit", "Margin (+ inside)", "Verdict"], vrows,
-                           numeric=[False, False, True, False, True, False], row_classes=classes))
+        body.append(_checks_html(rows, per_sample_max))
     body.append("</section>")
 
     # ---- key figures

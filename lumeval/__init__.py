@@ -26,6 +26,7 @@ _API = {
     "evaluate": "lumeval.engine",
     "Evaluation": "lumeval.engine",
     "inspect_files": "lumeval.commands.inspect",
+    "load_criteria": "lumeval.criteria", "check": "lumeval.criteria", "load_claims": "lumeval.criteria", "check_files": "lumeval.commands.check",
     # metrics
     "planck_exitance": "lumeval.metrics.planck",
     "tristimulus": "lumeval.metrics.colorimetry",

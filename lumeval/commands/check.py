@@ -15,23 +15,32 @@ class OutputFormat(str, Enum):
     csv = "csv"
 
 
-def check_files(paths, criteria_path):
+def check_files(paths, criteria_path, instrument=None, *, seed=None, draws=None):
     """Python twin of ``lumeval check``: read the criteria, evaluate the spectra, judge them.
 
     The criteria file is read first, so a bad criteria file is reported before any spectrum
     is computed. Returns a :class:`lumeval.criteria.CheckResult`; raises
     :class:`lumeval.errors.CriteriaError` / :class:`lumeval.errors.InputError` on bad input.
+
+    With an instrument model (``instrument`` file, or an ``[instrument]`` table in the criteria
+    file) or a guarded ``[decision]`` rule, every clause is re-decided under measurement
+    uncertainty (:func:`lumeval.uncertainty.judge.judge_with_uncertainty`, docs/uncertainty.md);
+    ``seed`` and ``draws`` override the Monte Carlo settings.
     """
-    return run_check(paths, criteria_path)[2]
+    return run_check(paths, criteria_path, instrument, seed=seed, draws=draws)[2]
 
 
-def run_check(paths, criteria_path):
+def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
     """(criteria, evaluation, result) for ``lumeval check`` (see :func:`check_files`)."""
     from ..criteria import load_criteria
+    from ..uncertainty.judge import judge_with_uncertainty, resolve_setup
     from .inspect import inspect_files
 
     criteria = load_criteria(criteria_path)
+    setup = resolve_setup(criteria, instrument, seed=seed, draws=draws)
     ev = inspect_files(paths)
+    if setup.active:
+        return criteria, ev, judge_with_uncertainty(ev, criteria, setup)[0]
     return criteria, ev, criteria.evaluate(ev)
 
 
@@ -68,10 +77,18 @@ def register(app: typer.Typer) -> None:
         output: Path = typer.Option(None, "--output", "-o", help="Write the JSON/CSV/terminal text to this file instead of the screen."),
         html: Path = typer.Option(None, "--html", help="Also write the HTML report (verdict first, then the evidence) to this file."),
         plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
+        instrument: Path = typer.Option(
+            None, "--instrument", help="Instrument model (TOML, see docs/uncertainty.md): judge under measurement uncertainty "
+            "(Monte Carlo, JCGM 101) with the criteria file's [decision] rule; replaces an [instrument] table in the criteria file.",
+            show_default=False,
+        ),
+        seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws (default: the instrument or criteria file's, else 1).", show_default=False),
+        draws: int = typer.Option(None, "--draws", min=100, help="Monte Carlo draws per spectrum (default 2000).", show_default=False),
     ) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
-        every requirement; 1: a requirement failed (or could not be decided); 2: bad input."""
-        crit, ev, result = run_check(files, criteria)
+        every requirement; 1: a requirement failed or is indeterminate under the decision rule
+        (never a pass); 2: bad input."""
+        crit, ev, result = run_check(files, criteria, instrument, seed=seed, draws=draws)
         if html is not None or plots is not None:
             from ..render.html import regions_from_criteria, write_html_report, write_plots
 

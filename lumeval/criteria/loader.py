@@ -29,7 +29,7 @@ IDENTIFICATION_KEYS: dict[str, str] = {
     "notes": "free text",
 }
 
-TOP_LEVEL_KEYS = (FORMAT_KEY, "identification", "clause")
+TOP_LEVEL_KEYS = (FORMAT_KEY, "identification", "clause", "instrument", "monte_carlo", "decision")
 
 _HEADER_AOT = re.compile(r"^\[\[\s*([^\]]+?)\s*\]\]")
 _HEADER = re.compile(r"^\[\s*([^\]]+?)\s*\]")
@@ -191,7 +191,24 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(cls.parse(table, common))
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
-    return Criteria(tuple(clauses), ident, file)
+    return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file))
+
+
+def _uncertainty_tables(data: dict, text: str, file: str) -> dict:
+    """Parse the optional [instrument], [monte_carlo] and [decision] tables (lumeval.uncertainty)."""
+    if not any(k in data for k in ("instrument", "monte_carlo", "decision")):
+        return {}
+    from ..uncertainty.decision import rule_from_table
+    from ..uncertainty.instrument import instrument_from_table, settings_from_table
+
+    out: dict = {}
+    if "instrument" in data:
+        out["instrument"] = instrument_from_table(data["instrument"], file=file, text=text)
+    if "monte_carlo" in data:
+        out["monte_carlo"] = settings_from_table(data["monte_carlo"], file=file, text=text)
+    if "decision" in data:
+        out["decision"] = rule_from_table(data["decision"], file=file, text=text)
+    return out
 
 
 def load_criteria(path) -> Criteria:

@@ -17,7 +17,7 @@ with per-spectrum arrays.
 from __future__ import annotations
 
 import difflib
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Callable, ClassVar
 
 import numpy as np
@@ -642,6 +642,9 @@ class Criteria:
     clauses: tuple
     identification: dict
     file: str = "<criteria>"
+    #: Optional ``[instrument]``, ``[monte_carlo]`` and ``[decision]`` tables, parsed by
+    #: lumeval.uncertainty (keys "instrument", "monte_carlo", "decision"); see docs/uncertainty.md.
+    uncertainty: dict = field(default_factory=dict)
 
     def evaluate(self, ev) -> "CheckResult":
         """Judge every clause for every spectrum of ``ev`` (an Evaluation)."""

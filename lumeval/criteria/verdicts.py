@@ -177,6 +177,9 @@ class CheckResult:
     results: tuple[ClauseResult, ...]
     identification: dict
     criteria_file: str
+    #: Instrument model, Monte Carlo settings, decision rule and headline uncertainties when
+    #: the check ran under uncertainty (lumeval.uncertainty.judge); empty otherwise.
+    uncertainty: dict = field(default_factory=dict)
 
     def __len__(self) -> int:
         return len(self.names)

@@ -131,6 +131,8 @@ def check_renderables(result) -> list:
     from rich.text import Text
 
     out = [_header("Acceptance check", result.criteria_file, result.identification)]
+    if getattr(result, "uncertainty", None):
+        out.append(_uncertainty_text(result.uncertainty))
     n_clauses = len(result.results)
     for i, name in enumerate(result.names):
         v = result.verdict(i)
@@ -166,7 +168,10 @@ def check_renderables(result) -> list:
             req = Text(r.label)
             if r.limit_text not in r.label:
                 req.append(f"\n{r.limit_text}", style="dim")
-            t.add_row(mark, r.clause_id, req, measured_text(r, i), margin_text(r, i), Text(_WORD[o], style=_STYLE[o]), style=style)
+            meas, res_cell = measured_text(r, i), Text(_WORD[o], style=_STYLE[o])
+            if r.uncertainty is not None:
+                meas, res_cell = _with_uncertainty(r, i, meas, res_cell)
+            t.add_row(mark, r.clause_id, req, meas, margin_text(r, i), res_cell, style=style)
             if r.reason and r.reason[i]:
                 notes.append(f"{r.clause_id}: {r.reason[i]}")
         out.append(t)
@@ -181,6 +186,56 @@ def check_renderables(result) -> list:
     out.append(_sources_text(result))
     out.append(_cautions_text())
     return out
+
+
+def _with_uncertainty(r, i: int, meas: str, res_cell):
+    """Measured value with its expanded uncertainty U (and the 95 % interval), result with p_c
+    (lumeval.uncertainty; the unit of U is the unit of the judged quantity)."""
+    u = float(r.uncertainty[i])
+    if not math.isfinite(u):
+        return meas + "\n± n/a", res_cell
+    big_u = float(r.details.get("U", [2 * u] * (i + 1))[i])
+    if r.kind == "ansi_quadrangle":
+        meas += f"\nΔu'v' ± {big_u:.1g}" if big_u < 1e-4 else f"\nΔu'v' ± {big_u:.4f}"
+    elif r.kind == "sdcm":
+        meas += f"\n± {big_u:.2f} steps"
+    else:
+        spec = _more(_spec(r.figure), 1)
+        meas += f"\n± {_f(big_u, spec, r.unit)}"
+    p = r.p_conformance[i] if r.p_conformance is not None else float("nan")
+    if math.isfinite(float(p)):
+        p = float(p)
+        ptxt = "< 0.001" if p < 0.001 else ("> 0.999" if p > 0.999 else f"{p:.3f}")
+        res_cell.append(f"\np_c {ptxt}", style="dim")
+    return meas, res_cell
+
+
+def _uncertainty_text(info: dict):
+    """The decision rule in words, the instrument model and the Monte Carlo settings."""
+    from rich.text import Text
+
+    t = Text("\n")
+    t.append(info.get("rule_text", "") + "\n")
+    mc = info.get("monte_carlo", {})
+    inst = info.get("instrument", {})
+    t.append(
+        f"Measured values are shown ± U (expanded uncertainty, U = {info.get('coverage_factor', 2):g} × u) from "
+        f"{mc.get('draws', '?')} Monte Carlo draws per spectrum (JCGM 101:2008, seed {mc.get('seed', '?')}); "
+        "p_c is the probability that the true value conforms (normal distribution, JCGM 106:2012 §7).\n",
+        style="dim",
+    )
+    t.append(
+        "Instrument model"
+        + (f" '{inst['name']}'" if inst.get("name") else "")
+        + f" ({inst.get('source', '')}): wavelength offset u = {inst.get('wavelength_offset_nm', 0):g} nm, "
+        f"noise {inst.get('noise_relative', 0):g} of signal + {inst.get('noise_absolute', 0):g} of peak, "
+        f"bandwidth {inst.get('bandwidth_nm', 0):g} nm FWHM, stray light ±{inst.get('stray_light', 0):g} of peak, "
+        f"photometric scale u = {inst.get('photometric_scale', 0):g} (no effect on ratio figures).\n",
+        style="dim",
+    )
+    for n in info.get("notes", []):
+        t.append(f"  note: {n}\n", style="dim")
+    return t
 
 
 def _overall_text(overall: str, n: int, nfail: int):
@@ -273,6 +328,7 @@ def check_record(result) -> dict:
         "identification": result.identification,
         "overall": result.overall,
         "exit_code": result.exit_code,
+        "uncertainty": getattr(result, "uncertainty", None) or None,
         "spectra": spectra,
         "cautions": list(CAUTIONS),
     }
@@ -284,7 +340,7 @@ def check_to_json(result) -> str:
 
 CHECK_CSV_COLUMNS = (
     "spectrum", "source", "verdict", "clause_id", "group", "kind", "label", "figure", "unit", "measured",
-    "lower", "upper", "limit", "margin", "delta_upvp", "outcome", "reason",
+    "lower", "upper", "limit", "margin", "delta_upvp", "u", "p_conformance", "outcome", "reason",
 )
 
 
@@ -319,6 +375,8 @@ def check_to_csv(result) -> str:
                     "limit": r.limit_text,
                     "margin": cell(r.margin[i]),
                     "delta_upvp": cell(r.details["delta_upvp"][i]) if "delta_upvp" in r.details else "",
+                    "u": cell(r.uncertainty[i]) if r.uncertainty is not None else "",
+                    "p_conformance": cell(r.p_conformance[i]) if r.p_conformance is not None else "",
                     "outcome": r.outcome[i],
                     "reason": r.reason[i] if r.reason else "",
                 }

@@ -180,7 +180,7 @@ def spd_figure(
             (VISIBLE_NM[0] + VISIBLE_NM[1]) / 2, 1.05, "visible band 380–780 nm (outside: grey)",
             ha="center", va="top", fontsize=7, color="#444444",
         )
-        ax.legend(loc="upper right", frameon=False, bbox_to_anchor=(1.0, 0.97))
+        fig.legend(loc="outside lower center", ncols=2, frameon=False)
         if ref is None and reference_values is not None:
             ax.text(0.01, 0.97, "no reference: CCT undefined", transform=ax.transAxes, va="top", fontsize=8)
         if title:
@@ -522,7 +522,8 @@ def hue_bin_figure(Rcs_h, Rhs_h, Rf_h, *, limits: Mapping | None = None, title: 
                 ax.axhline(0, color="black", lw=0.7)
                 m = np.nanmax(np.abs(np.concatenate([mid[fin], *(r[np.isfinite(r)] for r in (rng or ()))]))) if np.any(fin) else 0.0
                 floor = 20.0 if key == "Rcs_h" else 0.2
-                lim = max(floor, 1.15 * m)
+                lims = [abs(v) for j in range(16) for v in _limit_of(limits, f"{key}{j + 1}") if v is not None]
+                lim = max(floor, 1.15 * m, *(1.15 * v for v in lims))
                 ax.set_ylim(-lim, lim)
             if rng is not None:
                 ok = fin & np.isfinite(rng[0])

@@ -1,0 +1,134 @@
+"""``lumeval check`` under measurement uncertainty, through the real CLI entry point.
+
+Outside sources: JCGM 106:2012 §7.3 normal relation p_c = Φ((y − T_L)/u) (checked with scipy on
+the reported y and u); ISO 14253-1:2017 / JCGM 106 §8.3.2 guarded acceptance zones (w = 2u).
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from scipy.stats import norm
+
+from lumeval.cli import main
+
+DEMO = Path(__file__).resolve().parents[1] / "spectra_demo" / "downlights"
+A = DEMO / "candidate_A_aurora_3000K.csv"
+B = DEMO / "candidate_B_basicline_3000K.csv"
+
+
+def run(argv, capsys):
+    try:
+        main([str(a) for a in argv])
+        code = 0
+    except SystemExit as exc:
+        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def write(tmp_path, name, text):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+CRIT = """
+[decision]
+rule = "{rule}"
+
+[[clause]]
+id = "Ra"
+figure = "Ra"
+min = {ra_min}
+
+[[clause]]
+id = "chromaticity"
+kind = "ansi_quadrangle"
+nominal_cct = 3000
+"""
+
+INST = """
+[instrument]
+name = "test spectroradiometer"
+wavelength_offset_nm = 0.3
+bandwidth_nm = 5
+
+[monte_carlo]
+draws = 300
+seed = 5
+"""
+
+
+def test_json_carries_uncertainty_probability_and_rule(tmp_path, capsys):
+    # candidate A has Ra ≈ 91.61: a limit of 91.55 lies inside the guard band → indeterminate
+    crit = write(tmp_path, "c.toml", CRIT.format(rule="guarded-acceptance", ra_min=91.55))
+    inst = write(tmp_path, "i.toml", INST)
+    code, out, err = run(["check", A, "--criteria", crit, "--instrument", inst, "--format", "json"], capsys)
+    assert err == ""
+    doc = json.loads(out)
+    ra = {c["id"]: c for c in doc["spectra"][0]["clauses"]}["Ra"]
+    u = ra["uncertainty"]
+    assert 0.005 < u < 0.5
+    assert ra["measured"] - 91.55 < 2 * u  # inside the guard band
+    assert ra["outcome"] == "indeterminate" and doc["spectra"][0]["verdict"] == "indeterminate"
+    assert code == 1 and doc["exit_code"] == 1  # an indeterminate never exits 0
+    assert ra["p_conformance"] == pytest.approx(norm.cdf((ra["measured"] - 91.55) / u), rel=1e-9)
+    assert ra["details"]["ci95_low"] < ra["measured"] < ra["details"]["ci95_high"]
+    assert "guarded acceptance" in ra["decision_rule"]
+    unc = doc["uncertainty"]
+    assert unc["decision_rule"] == "guarded-acceptance" and unc["monte_carlo"]["draws_used"] == [300]
+    assert unc["instrument"]["bandwidth_nm"] == 5.0 and unc["instrument"]["name"] == "test spectroradiometer"
+    assert unc["figures"]["cct_K"]["u"][0] > 0
+
+
+def test_terminal_report_explains_the_rule_and_shows_u(tmp_path, capsys):
+    crit = write(tmp_path, "c.toml", CRIT.format(rule="guarded-rejection", ra_min=80))
+    inst = write(tmp_path, "i.toml", INST)
+    code, out, err = run(["check", A, B, "--criteria", crit, "--instrument", inst], capsys)
+    assert code == 0, err
+    text = " ".join(out.split())  # the terminal wraps lines
+    assert "guarded rejection" in text and "± " in text and "p_c" in text and "Monte Carlo" in text
+
+
+def test_seeded_runs_reproduce_and_seed_option_changes_them(tmp_path, capsys):
+    crit = write(tmp_path, "c.toml", CRIT.format(rule="simple", ra_min=80))
+    inst = write(tmp_path, "i.toml", INST)
+    outs = []
+    for extra in ([], [], ["--seed", "6"]):
+        code, out, _ = run(["check", A, "--criteria", crit, "--instrument", inst, "--format", "json", *extra], capsys)
+        assert code == 0
+        outs.append(json.loads(out)["spectra"][0]["clauses"][0]["uncertainty"])
+    assert outs[0] == outs[1] and outs[0] != outs[2]
+
+
+def test_instrument_table_in_the_criteria_file(tmp_path, capsys):
+    text = CRIT.format(rule="simple", ra_min=80) + "\n[instrument]\nnoise_relative = 0.01\n\n[monte_carlo]\ndraws = 200\n"
+    crit = write(tmp_path, "c.toml", text)
+    code, out, err = run(["check", A, "--criteria", crit, "--format", "csv"], capsys)
+    assert code == 0, err
+    header, *rows = out.strip().splitlines()
+    cols = header.split(",")
+    assert "u" in cols and "p_conformance" in cols
+    first = dict(zip(cols, rows[0].split(",")))
+    assert float(first["u"]) > 0 and float(first["p_conformance"]) > 0.99
+
+
+@pytest.mark.parametrize(
+    "crit_text, inst_text, words",
+    [
+        (CRIT.format(rule="guarded", ra_min=80), None, ":3"),
+        (CRIT.format(rule="simple", ra_min=80) + "\n[instrument]\nbandwith_nm = 3\n", None, "bandwith_nm"),
+        (CRIT.format(rule="simple", ra_min=80), "[instrument]\nnoise_relative = 5\n", "i.toml:2"),
+    ],
+)
+def test_bad_uncertainty_input_is_exit_2_one_line(tmp_path, capsys, crit_text, inst_text, words):
+    crit = write(tmp_path, "c.toml", crit_text)
+    argv = ["check", A, "--criteria", crit]
+    if inst_text is not None:
+        argv += ["--instrument", write(tmp_path, "i.toml", inst_text)]
+    code, out, err = run(argv, capsys)
+    assert code == 2 and out == ""
+    assert len(err.strip().splitlines()) == 1 and words in err and "Traceback" not in err

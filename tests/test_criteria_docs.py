@@ -111,3 +111,19 @@ def test_doc_examples_parse():
         parse_criteria(b, "doc")
     for b in claims:
         parse_claims(b, "doc")
+
+
+def test_csv_columns_documented_in_order():
+    from lumeval.render.verdicts import CHECK_CSV_COLUMNS, CLAIMS_CSV_COLUMNS
+
+    flat = " ".join(DOC.split())
+    assert ", ".join(CHECK_CSV_COLUMNS) in flat
+    assert ", ".join(CLAIMS_CSV_COLUMNS) in flat
+
+
+def test_top_level_keys_documented():
+    from lumeval.criteria.loader import TOP_LEVEL_KEYS
+
+    top = " ".join(section("## Criteria file reference").split("### ")[0].split())
+    for k in TOP_LEVEL_KEYS:
+        assert (f"`{k} = 1`" in top) or (f"`[{k}]`" in top) or (f"`[[{k}]]`" in top), k

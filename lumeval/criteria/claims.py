@@ -289,7 +289,7 @@ def load_claims(path) -> Claims:
     """Read and parse a claims file."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        text = p.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
     except FileNotFoundError:
         raise CriteriaError("no such file", file=str(path), fix="check the path given to --claims") from None
     except IsADirectoryError:

@@ -215,7 +215,7 @@ def load_criteria(path) -> Criteria:
     """Read and parse a criteria file (see :func:`parse_criteria`)."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        text = p.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
     except FileNotFoundError:
         raise CriteriaError("no such file", file=str(path), fix="check the path given to --criteria") from None
     except IsADirectoryError:

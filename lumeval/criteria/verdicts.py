@@ -128,21 +128,16 @@ def margin_to_limits(measured, lower: float | None, upper: float | None) -> np.n
 
 def simple_outcomes(margin, undefined_reason: tuple[str, ...] | None = None) -> tuple[tuple[str, ...], tuple[str, ...]]:
     """Outcomes under simple acceptance: pass where margin ≥ 0, fail where < 0, not judged
-    where the margin is NaN. Returns (outcome, reason) tuples of length N."""
+    where the margin is NaN (vectorised). Returns (outcome, reason) tuples of length N."""
     mg = np.asarray(margin, dtype=float)
-    out, why = [], []
-    for i, v in enumerate(mg):
-        if not np.isfinite(v) and not (np.isinf(v) and v > 0):
-            out.append(NOT_JUDGED)
-            r = undefined_reason[i] if undefined_reason and undefined_reason[i] else "the figure is undefined for this spectrum"
-            why.append(r)
-        elif v >= 0:
-            out.append(PASS)
-            why.append("")
-        else:
-            out.append(FAIL)
-            why.append("")
-    return tuple(out), tuple(why)
+    undefined = np.isnan(mg)
+    out = np.where(undefined, NOT_JUDGED, np.where(mg >= 0, PASS, FAIL))
+    why = np.full(mg.shape, "", dtype=object)
+    if undefined.any():
+        default = "the figure is undefined for this spectrum"
+        for i in np.flatnonzero(undefined):
+            why[i] = (undefined_reason[i] if undefined_reason and undefined_reason[i] else default)
+    return tuple(out.tolist()), tuple(why.tolist())
 
 
 def combine_outcomes(outcomes: list[str]) -> str:

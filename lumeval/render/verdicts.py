@@ -18,6 +18,8 @@ import io
 import json
 import math
 
+import numpy as np
+
 from .tables import CAUTIONS
 
 JSON_SCHEMA_VERSION = 1
@@ -133,6 +135,12 @@ def check_renderables(result) -> list:
     out = [_header("Acceptance check", result.criteria_file, result.identification)]
     if getattr(result, "uncertainty", None):
         out.append(_uncertainty_text(result.uncertainty))
+    if len(result.names) > DETAIL_MAX:
+        out.extend(_summary_renderables(result))
+        out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
+        out.append(_sources_text(result))
+        out.append(_cautions_text())
+        return out
     n_clauses = len(result.results)
     for i, name in enumerate(result.names):
         v = result.verdict(i)
@@ -236,6 +244,54 @@ def _uncertainty_text(info: dict):
     for n in info.get("notes", []):
         t.append(f"  note: {n}\n", style="dim")
     return t
+
+
+#: Above this many spectra the terminal report summarises per clause and lists the spectra
+#: that did not pass (every row is in --format csv / json).
+DETAIL_MAX = 12
+_LIST_MAX = 60
+
+
+def _summary_renderables(result) -> list:
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    n = len(result.names)
+    t = Table(title=f"{n} spectra, clause by clause", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
+    for col, kw in (("", {"no_wrap": True}), ("id", {"no_wrap": True}), ("requirement", {}), ("passed", {"justify": "right"}),
+                    ("FAILED", {"justify": "right"}), ("undecided", {"justify": "right"}), ("worst margin", {"justify": "right"}),
+                    ("worst spectrum", {})):
+        t.add_column(col, **kw)
+    for r in result.results:
+        oc = list(r.outcome)
+        npass, nfail = oc.count("pass"), oc.count("fail")
+        nopen = n - npass - nfail
+        mg = np.asarray(r.margin, dtype=float)
+        if np.isfinite(mg).any():
+            k = int(np.nanargmin(np.where(np.isfinite(mg), mg, np.nan)))
+            worst, who = margin_text(r, k), result.names[k]
+        else:
+            worst, who = "n/a", ""
+        style = "bold red" if nfail else ("yellow" if nopen else None)
+        t.add_row(">>" if nfail or nopen else "", r.clause_id, r.label, str(npass), f"✘ {nfail}" if nfail else "0", str(nopen), worst, who, style=style)
+    out = [t]
+    bad = [i for i, v in enumerate(result.verdicts) if v != "pass"]
+    if bad:
+        txt = Text(f"Spectra that did not pass ({len(bad)} of {n}):\n", style="bold")
+        for i in bad[:_LIST_MAX]:
+            failed = [f"{r.clause_id} ({margin_text(r, i)})" for r in result.results if r.outcome[i] == "fail"]
+            open_ = [r.clause_id for r in result.results if r.outcome[i] in ("indeterminate", "not judged")]
+            v = result.verdict(i)
+            txt.append(f"  {_WORD[v]}  {result.names[i]}: ", style=_STYLE[v])
+            txt.append(", ".join(failed + [f"{c} (undecided)" for c in open_]) + "\n")
+        if len(bad) > _LIST_MAX:
+            txt.append(f"  … and {len(bad) - _LIST_MAX} more: every row is in --format csv or json\n")
+        out.append(txt)
+    nwarn = sum(1 for w in result.warnings if w)
+    if nwarn:
+        out.append(Text(f"{nwarn} spectra carry notes (interpolation, validity limits...): see --format json.", style="dim"))
+    return out
 
 
 def _overall_text(overall: str, n: int, nfail: int):

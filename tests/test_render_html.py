@@ -224,3 +224,35 @@ def test_write_plots_writes_svg_and_png_per_figure(demo_eval, tmp_path):
         else:
             ET.fromstring(data)
     assert not [f for f in os.listdir(tmp_path / "plots") if f.endswith(".tmp")]
+
+
+def test_many_samples_list_only_the_checks_that_did_not_pass(demo_eval, check_result):
+    text = H.render_html_report(demo_eval, verdicts=check_result, per_sample_max=2)
+    outcomes = [o for r in check_result.results for o in r.outcome]
+    not_passed = sum(o != "pass" for o in outcomes)
+    assert f"Checks that did not pass ({not_passed} of {len(outcomes)})" in text
+    assert text.count('<tr class="fail">') >= sum(o == "fail" for o in outcomes)
+
+
+def test_undefined_figures_render_as_na(colour, tmp_path):
+    """A narrow green LED is far from the Planckian locus (|Duv| > 0.05): CCT, CRI and TM-30 are
+    undefined (CIE 15:2004) and the report must say n/a, draw no reference, and still be valid."""
+    from lumeval.engine import evaluate
+    from lumeval.spectra.model import SpectrumSet
+
+    wl = np.arange(380.0, 781.0, 1.0)
+    green = np.exp(-0.5 * ((wl - 530.0) / 12.0) ** 2)
+    sd_a = colour.SDS_ILLUMINANTS["A"].copy().align(colour.SpectralShape(380, 780, 1))
+    ev = evaluate(SpectrumSet(wl, np.stack([green, np.asarray(sd_a.values)]), ("green", "A"), ("g", "a")))
+    assert not np.isfinite(ev.cct_K[0]) and np.isfinite(ev.cct_K[1])
+    p = H.write_html_report(tmp_path / "r.html", ev)
+    text = p.read_text(encoding="utf-8")
+    html5lib = pytest.importorskip("html5lib")
+    html5lib.HTMLParser(strict=True).parse(text)
+    chrom_row, render_row = re.findall(r"<tr><td>green</td>(.*?)</tr>", text)
+    assert chrom_row.count("n/a") == 1  # CCT; Duv is still defined
+    assert render_row.count("n/a") == 4  # Ra, R9, Rf, Rg need a reference at the CCT
+    assert "CCT undefined" in text  # the engine's reason travels into the notes
+    figs = H.report_figures(ev)
+    spd_green = [f for f in figs if f.key.startswith("spd-01")][0].figure
+    assert not [ln for ln in spd_green.axes[0].get_lines() if ln.get_gid() == "reference-spd"]

@@ -309,3 +309,10 @@ def test_demo_criteria_and_claims_files_load():
     assert [k.clause_id for k in c.clauses][:4] == ["chromaticity", "Duv", "Ra", "R9"]
     cl = load_claims(root / "supplier_claims.toml")
     assert {x.key for x in cl.claims} >= {"cct_K", "Ra", "R9", "luminous_flux_lm"}
+
+
+def test_explain_names_a_guarded_decision_rule(tmp_path, capsys):
+    crit = write(tmp_path, '[decision]\nrule = "guarded-acceptance"\n' + GOOD.replace("lumeval_criteria = 1\n", ""))
+    code, out, err = run(["criteria", "explain", crit], capsys)
+    assert code == 0, err
+    assert "Decision rule: guarded acceptance" in out and "simple acceptance" not in out

@@ -163,7 +163,11 @@ def explain_markdown(criteria) -> str:
     a("")
     for k, v in METHODS.items():
         a(f"- {k.replace('_', ' ').capitalize()}: {v}.")
-    a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty.")
+    rule = (getattr(criteria, "uncertainty", None) or {}).get("decision")
+    if rule is not None and hasattr(rule, "summary"):
+        a(f"- Decision rule: {rule.summary()}; measurement uncertainty from the instrument model (docs/uncertainty.md).")
+    else:
+        a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty.")
     a(
         "- Chromaticity regions: ANSI C78.377-2017 quadrangle corners at target CCT ∓ tolerance with the flexible-CCT "
         "target Duv of each edge ± 0.006; SDCM steps = √(g11 Δx² + 2 g12 Δx Δy + g22 Δy²) in CIE 1931 (x, y)."

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import difflib
 from dataclasses import dataclass, field
-from typing import Any, Callable, ClassVar
+from typing import Any, ClassVar
 
 import numpy as np
 
@@ -662,5 +662,3 @@ class Criteria:
         warnings = tuple(getattr(ev, "warnings", None) or ((),) * n)
         return CheckResult(names, sources, warnings, tuple(results), dict(self.identification), self.file)
 
-
-Parser = Callable[[dict, dict], ClauseKind]

@@ -256,3 +256,13 @@ def test_undefined_figures_render_as_na(colour, tmp_path):
     figs = H.report_figures(ev)
     spd_green = [f for f in figs if f.key.startswith("spd-01")][0].figure
     assert not [ln for ln in spd_green.axes[0].get_lines() if ln.get_gid() == "reference-spd"]
+
+
+def test_validate_targets_before_any_write(tmp_path):
+    H.validate_targets(html=tmp_path / "r.html", plots=tmp_path / "plots")  # fine: parents exist
+    (tmp_path / "afile").write_text("x")
+    for kwargs in ({"html": tmp_path / "no" / "r.html"}, {"html": tmp_path}, {"plots": tmp_path / "afile"},
+                   {"plots": tmp_path / "no" / "deeper"}):
+        with pytest.raises(UsageError):
+            H.validate_targets(**kwargs)
+    assert sorted(os.listdir(tmp_path)) == ["afile"]

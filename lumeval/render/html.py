@@ -423,6 +423,26 @@ def _check_target_dir(d: Path, what: str, option: str) -> None:
                          field=option, fix="choose a writable directory")
 
 
+def validate_targets(html=None, plots=None) -> None:
+    """Check the ``--html FILE`` and ``--plots DIR`` targets before any work or any write.
+
+    Raises :class:`lumeval.errors.UsageError` (exit code 2) when the report's directory does
+    not exist or is not writable, when FILE is a directory, or when DIR is a file or its parent
+    does not exist. Commands call this first so that a bad target writes nothing at all.
+    """
+    if html is not None:
+        p = Path(html)
+        if p.is_dir():
+            raise UsageError(f"cannot write the HTML report: {str(p)!r} is a directory", field="--html",
+                             fix="give a file name, e.g. report.html")
+        _check_target_dir(p.parent if str(p.parent) else Path("."), "HTML report", "--html")
+    if plots is not None:
+        d = Path(plots)
+        if d.exists() and not d.is_dir():
+            raise UsageError(f"cannot write plots: {str(d)!r} is a file", field="--plots", fix="give a directory")
+        _check_target_dir(d if d.exists() else (d.parent if str(d.parent) else Path(".")), "plots", "--plots")
+
+
 def write_plots(
     directory,
     evaluation,

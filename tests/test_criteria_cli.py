@@ -316,3 +316,19 @@ def test_explain_names_a_guarded_decision_rule(tmp_path, capsys):
     code, out, err = run(["criteria", "explain", crit], capsys)
     assert code == 0, err
     assert "Decision rule: guarded acceptance" in out and "simple acceptance" not in out
+
+
+def test_explain_every_region_kind(tmp_path, capsys):
+    crit = write(
+        tmp_path,
+        "[[clause]]\nkind='ansi_quadrangle'\nnominal_cct='flexible'\ntarget_cct_K=3800\n"
+        "[[clause]]\nkind='sdcm'\nmacadam1942=14\nmax_steps=2\n"
+        "[[clause]]\nkind='sdcm'\ncentre_xy=[0.44, 0.40]\ng11=390000\ng12=-195000\ng22=275000\nmax_steps=4\n"
+        "[[clause]]\nkind='tm30_design_intent'\nlevel='F1'\n",
+    )
+    code, out, err = run(["criteria", "explain", crit], capsys)
+    assert code == 0, err
+    assert "flexible-CCT quadrangle for 3800 K" in out
+    assert "MacAdam (1942) ellipse 14" in out and "Wyszecki & Stiles" in out
+    assert "user ellipse" in out and "g11 = 3.9e+05" in out
+    assert "Fidelity priority level 1 (F1): Rf ≥ 95; Rf_h1 ≥ 90" in out

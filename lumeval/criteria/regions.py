@@ -15,6 +15,10 @@ the test suite checks this).
 
 * Target CCT ± tolerance per nominal category (2200 ... 6500 K) and target Duv; the Duv
   tolerance is ± 0.006 for every category.
+* The centre line of the categories is a "white curve" that follows the Planckian locus at low
+  CCT and runs to illuminant D65 at 6500 K (J. Jiao, "ANSI continues advancements on SSL
+  chromaticity standard", LEDs Magazine 12(11), 2015 — secondary, describing the 2015
+  edition); the flexible-CCT target Duv below expresses it.
 * Flexible-CCT target Duv (2015/2017 editions, as transcribed):
   ``Duv_T(T) = 57700/T² − 44.6/T + 0.00854`` for 2780 K ≤ T ≤ 7000 K and ``0`` below
   2780 K. (The 2008 edition wrote the constant as 0.0085; with 0.0085 the 5700 K and 6500 K

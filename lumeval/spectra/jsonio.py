@@ -101,11 +101,11 @@ def parse_json(raw: bytes, file: str) -> SpectrumSet:
         meta = sp.get("metadata", {})
         if not isinstance(meta, dict) or not all(isinstance(a, str) and isinstance(b, str) for a, b in meta.items()):
             raise bad(f"{where}.metadata", "must map strings to strings", 'write e.g. {"Instrument": "XYZ"}')
-        m = dict(meta)
+        m = {_text(a): _text(b) for a, b in meta.items()}
         m.setdefault("lumeval.scale", "unknown")
         m["lumeval.format"] = "lumeval JSON"
         m.setdefault("lumeval.wavelength_unit", "nm")
-        names.append(name)
+        names.append(_text(name))
         values.append(v)
         metas.append(m)
     d = np.diff(wl)
@@ -126,6 +126,11 @@ def parse_json(raw: bytes, file: str) -> SpectrumSet:
     n = len(names)
     sources = (file,) if n == 1 else tuple(f"{file}#{nm}" for nm in names)
     return SpectrumSet(wl, vals, tuple(names), sources, tuple(notes for _ in range(n)), tuple(metas))
+
+
+def _text(s: str) -> str:
+    """The string with lone surrogates (valid JSON escapes, invalid Unicode) replaced by '?'."""
+    return s.encode("utf-8", errors="replace").decode("utf-8")
 
 
 def _numbers(x, field: str, bad) -> np.ndarray:
@@ -175,4 +180,4 @@ def to_json_bytes(spectra: SpectrumSet) -> bytes:
         f' "wavelengths_nm": {dump([float(w) for w in spectra.wavelengths_nm])},\n'
         ' "spectra": [\n' + ",\n".join(items) + "\n ]\n}\n"
     )
-    return text.encode("utf-8")
+    return text.encode("utf-8", errors="replace")  # lone surrogates cannot be UTF-8

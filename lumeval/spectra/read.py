@@ -26,7 +26,7 @@ def _kind(path: Path, raw: bytes) -> str:
     if head.startswith((b"\xff\xfe", b"\xfe\xff")):
         # UTF-16: peek at the decoded start
         try:
-            head = raw[:1024].decode("utf-16", errors="ignore").lstrip().encode("utf-8")
+            head = raw[:1024].decode("utf-16", errors="ignore").lstrip().encode("utf-8", errors="replace")
         except Exception:  # pragma: no cover - defensive
             head = b""
     if head.startswith(b"<"):

@@ -362,6 +362,14 @@ _DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "l
             "lumeval.tm27_version", "lumeval.tm27_namespace")
 
 
+_XML_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+
+
+def _xml_text(s: str) -> str:
+    """Drop characters XML 1.0 cannot hold (control characters, lone surrogates)."""
+    return _XML_INVALID.sub("", str(s))
+
+
 def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     """Serialise spectrum ``index`` of ``spectra`` as an IES TM-27-14 XML document.
 
@@ -372,7 +380,7 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     """
     import xml.etree.ElementTree as ET
 
-    meta = dict(spectra.metadata[index])
+    meta = {_xml_text(k): _xml_text(v) for k, v in spectra.metadata[index].items()}
     mapped: dict[str, str] = {}
     extra: list[tuple[str, str]] = []
     for k, v in meta.items():
@@ -385,10 +393,11 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
             mapped[target] = str(v)
         else:
             extra.append((k, str(v)))
+    name = _xml_text(spectra.names[index])
     if "Description" not in mapped:
-        mapped["Description"] = spectra.names[index]
-    elif mapped["Description"] != spectra.names[index]:
-        extra.append(("lumeval.name", spectra.names[index]))
+        mapped["Description"] = name
+    elif mapped["Description"] != name:
+        extra.append(("lumeval.name", name))
     if "SpectralQuantity" not in mapped:
         scale = meta.get("lumeval.scale")
         mapped["SpectralQuantity"] = "relative" if scale == "relative" else "other"

@@ -45,11 +45,13 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
     vals = spectra.values
     for j, wl in enumerate(spectra.wavelengths_nm):
         lines.append(",".join([repr(float(wl))] + [repr(float(v)) for v in vals[:, j]]))
-    return ("\n".join(lines) + "\n").encode("utf-8")
+    return ("\n".join(lines) + "\n").encode("utf-8", errors="replace")
 
 
 def _clean(s: str) -> str:
-    return str(s).replace("\r", " ").replace("\n", " ")
+    """One line of text: line breaks become spaces, NUL and other C0 controls are dropped."""
+    s = str(s).replace("\r\n", " ").replace("\r", " ").replace("\n", " ")
+    return "".join(c for c in s if c >= " " or c == "\t")
 
 
 def _quote(name: str) -> str:

@@ -180,14 +180,14 @@ def _read_one(path: str):
     for i in range(len(raw)):
         one = raw.subset([i])
         try:
-            good.append(prepare(one))
+            prepare(one)
         except LumevalError as exc:
             bad.append(Unreadable(raw.sources[i], exc.message))
+        else:
+            good.append(i)
     if not good:
         return None, bad
-    from .inspect import prepare_all
-
-    return prepare_all(good, prepare), bad
+    return prepare(raw.subset(good)), bad
 
 
 def _grid_key(s) -> tuple:
@@ -226,6 +226,7 @@ def run_lot(
     nominal_xy=None,
     batch_spectra: int = BATCH_SPECTRA,
     progress: Callable[[int, int, int], None] | None = None,
+    uncertainty=None,
 ) -> LotRun:
     """Python twin of ``lumeval lot``: read, evaluate, judge and summarise a lot.
 
@@ -244,6 +245,10 @@ def run_lot(
         Spectra evaluated together.
     progress : callable(files_done, files_total, samples_done), optional
         Called after each file (for a progress bar).
+    uncertainty : lumeval.uncertainty.judge.UncertaintySetup, optional
+        When active, every sample's per-sample clauses are re-decided under measurement
+        uncertainty (Monte Carlo per sample; docs/uncertainty.md). Lot clauses (centroid,
+        pairwise Δu'v', yield) are judged on the measured values as before.
 
     Returns
     -------
@@ -281,7 +286,12 @@ def run_lot(
             warns.extend(ev.warnings)
             fig_parts.append(np.column_stack([ev.figure(k) for k in FIGURE_NAMES]))
             xy_parts.append(np.column_stack([ev.x, ev.y]))
-            if sample_criteria is not None:
+            if sample_criteria is not None and uncertainty is not None and uncertainty.active:
+                from ..uncertainty.judge import judge_with_uncertainty
+
+                offset = len(names) - len(ev.spectra.names)
+                clause_parts.append(list(judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset)[0].results))
+            elif sample_criteria is not None:
                 clause_parts.append(list(sample_criteria.evaluate(ev).results))
         pending = {}
         pending_n = 0
@@ -310,6 +320,12 @@ def run_lot(
 
         results = tuple(_concat_clause([p[j] for p in clause_parts]) for j in range(len(clause_parts[0])))
         check = CheckResult(tuple(names), tuple(sources), tuple(warns), results, dict(criteria.identification), criteria.file)
+        if uncertainty is not None and uncertainty.active:
+            from dataclasses import replace as _replace
+
+            from ..uncertainty.judge import uncertainty_info
+
+            check = _replace(check, uncertainty=uncertainty_info(uncertainty, None))
 
     if criteria is not None and ellipse is None and nominal_xy is None:
         ellipse, nominal_xy = _nominal_from_criteria(criteria)
@@ -392,6 +408,13 @@ def register(app: typer.Typer) -> None:
         samples_csv: Path = typer.Option(None, "--samples-csv", help="Also write the per-sample CSV to this file."),
         json_file: Path = typer.Option(None, "--json", help="Also write the lot JSON to this file."),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+        instrument: Path = typer.Option(
+            None, "--instrument", help="Instrument model (TOML, docs/uncertainty.md): decide each sample's clauses under "
+            "measurement uncertainty with the criteria file's [decision] rule (Monte Carlo per sample: use --draws 200 for "
+            "large lots).", show_default=False,
+        ),
+        seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws.", show_default=False),
+        draws: int = typer.Option(None, "--draws", min=100, help="Monte Carlo draws per sample (default 2000).", show_default=False),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ..errors import UsageError
@@ -405,6 +428,11 @@ def register(app: typer.Typer) -> None:
             from ..criteria.loader import load_criteria
 
             criteria = load_criteria(criteria_file)
+        setup = None
+        if criteria is not None or instrument is not None:
+            from ..uncertainty.judge import resolve_setup
+
+            setup = resolve_setup(criteria, instrument, seed=seed, draws=draws)
 
         show = not quiet and sys.stderr.isatty()
         if show:
@@ -425,9 +453,9 @@ def register(app: typer.Typer) -> None:
                 def tick(k, total, samples):
                     bar.update(task, completed=k, total=total, samples=samples)
 
-                run = run_lot(paths, criteria, progress=tick)
+                run = run_lot(paths, criteria, progress=tick, uncertainty=setup)
         else:
-            run = run_lot(paths, criteria)
+            run = run_lot(paths, criteria, uncertainty=setup)
 
         from ..render import lot_report
 

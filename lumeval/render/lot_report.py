@@ -133,6 +133,15 @@ def lot_document(run) -> dict:
         }
         for k in JSON_SAMPLE_FIGURES:
             rec[k] = _num(run.figures[k][i])
+        if run.check is not None and getattr(run.check, "uncertainty", None):
+            rec["clauses"] = {
+                r.clause_id: {
+                    "outcome": r.outcome[i],
+                    "uncertainty": _num(r.uncertainty[i]) if r.uncertainty is not None else None,
+                    "p_conformance": _num(r.p_conformance[i]) if r.p_conformance is not None else None,
+                }
+                for r in run.check.results
+            }
         rec["warnings"] = list(run.warnings[i])
         samples.append(rec)
     y = st.yield_
@@ -207,6 +216,7 @@ def lot_document(run) -> dict:
             "steps_centroid": {"max": _max(st.steps_centroid), "p95": _pct(st.steps_centroid, 95)},
         },
         "outlier_rule": st.outlier_rule,
+        "uncertainty": (getattr(run.check, "uncertainty", None) or None) if run.check is not None else None,
         "notes": list(st.notes),
         "unreadable": [{"source": u.source, "message": u.message} for u in run.unreadable],
         "samples": samples,
@@ -298,14 +308,17 @@ def lot_renderables(run) -> list:
             for r in run.check.results:
                 fails = sum(o == "fail" for o in r.outcome)
                 nj = sum(o == "not judged" for o in r.outcome)
+                ni = sum(o == "indeterminate" for o in r.outcome)
                 mg = np.asarray(r.margin, dtype=float)
                 worst = float(np.nanmin(mg)) if np.isfinite(mg).any() else float("nan")
-                res = f"{fails} of {len(r.outcome)} samples fail" if fails else "every sample passes"
+                res = f"{fails} of {len(r.outcome)} samples fail" if fails else ("every sample passes" if not ni else "no sample fails")
+                if ni:
+                    res += f", {ni} indeterminate (not a pass)"
                 if nj:
                     res += f", {nj} not judged"
                 unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
                 res += f" (worst margin {_fmt(worst, '.4g')}{unit})"
-                t.add_row(r.label, _result_text(res, fails == 0 and nj == 0))
+                t.add_row(r.label, _result_text(res, fails == 0 and nj == 0 and ni == 0))
         for r in run.lot_results:
             unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
             res = f"{r.outcome}: {_fmt(r.measured, '.4g')}{unit}, limit {r.limit_text}, margin {_fmt(r.margin, '.4g')}{unit}"
@@ -327,6 +340,13 @@ def lot_renderables(run) -> list:
             )
         if run.check is not None and not run.has_yield_clause:
             out.append(Text("No lot_yield clause: every sample must pass for the lot to pass.", style="dim"))
+        unc = getattr(run.check, "uncertainty", None) if run.check is not None else None
+        if unc:
+            mc = unc.get("monte_carlo", {})
+            out.append(Text(
+                f"{unc.get('rule_text', '')} Per-sample clauses judged with {mc.get('draws', '?')} Monte Carlo draws per "
+                f"sample (JCGM 101:2008, seed {mc.get('seed', '?')}), instrument model: {unc.get('instrument', {}).get('source', '')}; "
+                "lot clauses use the measured values.", style="dim"))
 
     # chromaticity consistency
     t = Table(title="Chromaticity consistency (CIE 1931 2°; Δu'v' in CIE 1976 UCS)", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)

@@ -91,7 +91,7 @@ def _clause_key(r) -> str:
     return f"clause:{r.clause_id}"
 
 
-def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, plain=None):
+def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, plain=None, index_offset: int = 0):
     """Re-decide every per-sample clause of ``criteria`` under ``setup``.
 
     Parameters
@@ -102,6 +102,9 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
     setup : UncertaintySetup
     plain : CheckResult, optional
         ``criteria.evaluate(evaluation)`` if already computed.
+    index_offset : int
+        Position of the first spectrum in a larger run (lots evaluated in batches; see
+        :func:`lumeval.uncertainty.montecarlo.propagate`).
 
     Returns
     -------
@@ -116,7 +119,8 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
     def extra(ev):
         return {_clause_key(r): np.asarray(r.measured, dtype=float) for r in criteria.evaluate(ev).results}
 
-    unc = propagate(evaluation.spectra, setup.model, setup.settings, extra=extra, evaluation=evaluation)
+    unc = propagate(evaluation.spectra, setup.model, setup.settings, extra=extra, evaluation=evaluation,
+                    index_offset=index_offset)
     k = setup.rule.coverage_factor
     results = []
     for r in plain.results:

@@ -341,6 +341,7 @@ def propagate(
     evaluation=None,
     evaluate_fn=None,
     chunk_size: int = _CHUNK,
+    index_offset: int = 0,
 ) -> UncertaintyResult:
     """Propagate the instrument model's uncertainty to every figure by Monte Carlo (JCGM 101).
 
@@ -365,6 +366,9 @@ def propagate(
         The engine's evaluation of ``spectra`` if the caller already has it.
     evaluate_fn : callable, optional
         Replacement for :func:`lumeval.engine.evaluate` (tests).
+    index_offset : int
+        Position of the first spectrum in a larger run (a lot evaluated in batches), so that
+        every spectrum of the run gets its own random stream.
 
     Returns
     -------
@@ -372,8 +376,8 @@ def propagate(
 
     Notes
     -----
-    Spectrum i uses the random stream ``SeedSequence(seed, spawn_key=(i,))``: the same file
-    order, model and seed reproduce every number.
+    Spectrum i uses the random stream ``SeedSequence(seed, spawn_key=(index_offset + i,))``:
+    the same file order, model and seed reproduce every number.
 
     Adaptive procedure (JCGM 101:2008 §7.9.4, quoted from memory): runs of M_b trials
     (``settings.draws_block``, default 2000 instead of the Supplement's max(100/(1−p), 10⁴), to
@@ -408,12 +412,10 @@ def propagate(
     res = {k: np.full((n, fq), np.nan) for k in ("mean", "u", "low", "high", "undefined_fraction")}
     draws_used = np.zeros(n, dtype=int)
     stabilised = np.ones(n, dtype=bool)
-    seq = np.random.SeedSequence(settings.seed)
-    children = seq.spawn(n)
     p = settings.coverage
 
     for i in range(n):
-        rng = np.random.default_rng(children[i])
+        rng = np.random.default_rng(np.random.SeedSequence(settings.seed, spawn_key=(index_offset + i,)))
         s_m = prepared.values[i]
 
         def run(m):

@@ -132,3 +132,18 @@ def test_bad_uncertainty_input_is_exit_2_one_line(tmp_path, capsys, crit_text, i
     code, out, err = run(argv, capsys)
     assert code == 2 and out == ""
     assert len(err.strip().splitlines()) == 1 and words in err and "Traceback" not in err
+
+
+def test_lot_with_instrument_carries_per_sample_uncertainty(tmp_path, capsys):
+    crit = write(tmp_path, "c.toml", CRIT.format(rule="guarded-acceptance", ra_min=91.55))
+    inst = write(tmp_path, "i.toml", INST)
+    out_json = tmp_path / "lot.json"
+    code, out, err = run(["lot", A, B, "--criteria", crit, "--instrument", inst, "--draws", "100", "--quiet",
+                          "--json", out_json], capsys)
+    doc = json.loads(out_json.read_text())
+    assert doc["uncertainty"]["decision_rule"] == "guarded-acceptance"
+    a, b = doc["samples"]
+    assert a["clauses"]["Ra"]["outcome"] == "indeterminate" and a["verdict"] == "indeterminate"
+    assert b["clauses"]["Ra"]["outcome"] == "fail"  # candidate B's Ra ≈ 91.3 is below the limit
+    assert a["clauses"]["Ra"]["uncertainty"] > 0 and 0 < a["clauses"]["Ra"]["p_conformance"] < 1
+    assert code == 1

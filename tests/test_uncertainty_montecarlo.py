@@ -134,6 +134,11 @@ def test_seeded_runs_are_reproducible_and_seeds_differ():
     # each spectrum has its own stream: its draws do not depend on the other spectra
     r4 = propagate(ss.subset([0]), model, MonteCarloSettings(draws=150, seed=11), figures=("x", "Ra", "Rf"))
     np.testing.assert_array_equal(r4.u[0], r1.u[0])
+    # a spectrum evaluated in a later batch (index_offset) gets the stream of its position in the run
+    r5 = propagate(ss.subset([1]), model, MonteCarloSettings(draws=150, seed=11), figures=("x", "Ra", "Rf"), index_offset=1)
+    np.testing.assert_array_equal(r5.u[0], r1.u[1])
+    r6 = propagate(ss.subset([1]), model, MonteCarloSettings(draws=150, seed=11), figures=("x", "Ra", "Rf"))
+    assert not np.array_equal(r6.u[0], r1.u[1])
 
 
 def test_shift_is_exact_for_quadratics_and_integer_shifts():

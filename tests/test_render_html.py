@@ -266,3 +266,16 @@ def test_validate_targets_before_any_write(tmp_path):
         with pytest.raises(UsageError):
             H.validate_targets(**kwargs)
     assert sorted(os.listdir(tmp_path)) == ["afile"]
+
+
+def test_lot_statistics_object_is_shown(demo_eval):
+    from lumeval.lot import lot_from_evaluation
+
+    stats = lot_from_evaluation(demo_eval, figure_names=("cct_K", "Ra", "R9"))
+    text = H.render_html_report(demo_eval, lot=stats)
+    lot = text[text.index('id="lot"'): text.index('id="charts"')]
+    ra = demo_eval.figure("Ra")
+    # the row for Ra shows the lot's mean and max as the report formats numbers (4 significant digits)
+    row = re.search(r"<tr><td>Ra</td>(.*?)</tr>", lot).group(1)
+    assert f">{float(np.mean(ra)):.4g}<" in row and f">{float(np.max(ra)):.4g}<" in row
+    assert "5 samples." in lot and "Largest Δu′v′" in lot

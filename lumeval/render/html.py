@@ -230,6 +230,23 @@ def regions_from_criteria(criteria) -> list:
 def _lot_block(lot):
     if lot is None:
         return None
+    if hasattr(lot, "figures") and hasattr(lot, "n_samples"):  # lumeval.lot.LotStatistics
+        notes = [f"{lot.n_samples} samples."]
+        c = getattr(lot, "centroid_xy", None)
+        if c is not None and np.all(np.isfinite(c)):
+            notes.append(f"Chromaticity centroid x, y = {c[0]:.4f}, {c[1]:.4f}.")
+        mp = getattr(lot, "max_pairwise_d_upvp", None)
+        if mp is not None and math.isfinite(mp):
+            notes.append(f"Largest Δu′v′ between two samples: {mp:.4f}.")
+        y = getattr(lot, "yield_", None)
+        if y is not None:
+            notes.append(f"Yield: {y.passed} of {y.total} passed ({y.percent:.1f} %); {y.failed} failed, "
+                         f"{y.indeterminate} indeterminate, {y.not_judged} not judged.")
+        out = getattr(lot, "outlier", None)
+        if out is not None and np.any(out):
+            notes.append(f"{int(np.sum(out))} sample(s) flagged as outliers ({getattr(lot, 'outlier_rule', '')}).")
+        notes += [str(n) for n in getattr(lot, "notes", ())]
+        return {"title": "Lot statistics", "rows": list(lot.figures), "notes": notes}
     if isinstance(lot, Mapping):
         return {"title": str(lot.get("title", "Lot statistics")), "rows": list(lot.get("rows", ())),
                 "notes": [str(n) for n in lot.get("notes", ())]}

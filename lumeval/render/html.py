@@ -35,8 +35,11 @@ inputs:
     ``corners_upvp`` (a quadrangle), or ``(ellipse, n_steps)`` pairs where the ellipse has
     ``name`` and ``boundary_xy(n_steps)``.
 ``lot``
-    Lot statistics: a sequence of rows (mappings, shown as a table with their keys as
-    columns), or a mapping ``{"title": str, "rows": [...], "notes": [str, ...]}``.
+    Lot statistics: a ``lumeval.lot.LotStatistics`` (its figure summaries become the table,
+    centroid, largest pairwise Δu′v′, yield and outliers the notes), a sequence of rows
+    (mappings or dataclasses, shown as a table with their keys as columns), or a mapping
+    ``{"title": str, "rows": [...], "notes": [str, ...]}``. Giving a lot draws every chart in
+    aggregate (medians with min–max whiskers, centroid and spread, distributions).
 """
 
 from __future__ import annotations

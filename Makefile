@@ -21,6 +21,12 @@ demo: $(STAMP)
 test: $(STAMP)
 	$(PY) -m pytest
 
+# Benchmarks (not tests): start-up times; engine vs a per-spectrum colour-science loop on 2,000
+# spectra, and 100,000 spectra through `lumeval lot` with peak memory (docs/lots.md).
+bench: $(STAMP)
+	$(PY) bench/startup.py
+	$(PY) bench/benchmark.py
+
 # On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
 fuzz: $(STAMP)
 	LUMEVAL_FUZZ_EXAMPLES=3500 $(PY) -m pytest -s -p no:cacheprovider tests/test_spectra_fuzz.py

@@ -201,3 +201,14 @@ def test_many_spectra_are_prepared_quickly():
     dt = time.perf_counter() - t
     assert p.values.shape == (2000, 401)
     assert dt < 2.0, dt
+
+
+@pytest.mark.parametrize("scale,ok", [(1e-25, True), (1e25, True), (1e-35, False), (1e35, False)])
+def test_implausible_magnitudes_refused(scale, ok):
+    wl = np.arange(380, 781, 5.0)
+    s = _set(wl, _led(wl) * scale)
+    if ok:
+        np.testing.assert_array_equal(prepare(s).values[0], _led(wl) * scale)
+    else:
+        with pytest.raises(InputError, match="implausibly"):
+            prepare(s)

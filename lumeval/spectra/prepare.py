@@ -56,6 +56,10 @@ MIN_END_NM = 700.0
 WARN_SPACING_NM = 5.0
 MAX_SPACING_NM = 10.0
 NEGATIVE_CLIP_FRACTION = 0.05
+#: Peak values outside this range are refused: they cannot be a measured spectrum in any unit
+#: and would overflow or underflow the sums in the metrics (our rule).
+MIN_PEAK = 1e-30
+MAX_PEAK = 1e30
 
 # Sprague (1880) boundary coefficients, CIE 167:2005 (as tabulated in colour-science's
 # SpragueInterpolator.SPRAGUE_C_COEFFICIENTS): two extra points at each end from six data points.
@@ -199,6 +203,14 @@ def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes:
                 i,
                 "no positive value between 360 and 830 nm (all zero or negative)",
                 "check the export: the spectrum column seems empty or inverted",
+            )
+        if not (MIN_PEAK <= peak <= MAX_PEAK):
+            raise _err(
+                spectra,
+                i,
+                f"the peak value {peak:.3g} is implausibly {'large' if peak > MAX_PEAK else 'small'} "
+                f"(lumeval accepts peaks from {MIN_PEAK:g} to {MAX_PEAK:g})",
+                "rescale the data (any constant factor leaves every figure unchanged)",
             )
         if float(v.min()) == peak:
             raise _err(

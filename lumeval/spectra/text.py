@@ -175,7 +175,8 @@ def _choose_delimiter(lines: list[tuple[int, str]]) -> tuple[str | None, int]:
     for d in _DELIMITERS:
         score = 0
         for _, s in lines:
-            if _is_comment(s) or not (s[0].isdigit() or s[0] in "+-."):
+            c0 = s.lstrip('"')[:1]
+            if _is_comment(s) or not (c0.isdigit() or (c0 and c0 in "+-.")):
                 continue
             cells = _split(s, d)
             if len(cells) >= 2 and _all_numbers(cells, d != ","):

@@ -80,10 +80,12 @@ def _mpl():
 
 
 def _new_figure(height_in: float, **kwargs):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415
     from matplotlib.figure import Figure  # noqa: PLC0415
 
     with _mpl().rc_context(_RC):
         fig = Figure(figsize=(WIDTH_IN, height_in), layout="constrained", **kwargs)
+    FigureCanvasAgg(fig)  # the Agg (headless raster) canvas, attached to this figure only
     return fig
 
 

@@ -57,10 +57,10 @@ def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None,
 def register(app: typer.Typer) -> None:
     @app.command("convert")
     def convert_cmd(
-        src: Path = typer.Argument(..., help="Input spectrum file (CSV/text, IES TM-27 XML or lumeval JSON).",
-                                   show_default=False),
-        dst: Path = typer.Argument(..., help="Output file: .csv, .xml (IES TM-27-14) or .json (lumeval JSON).",
-                                   show_default=False),
+        src: Path = typer.Argument(..., metavar="IN", show_default=False,
+                                   help="Input spectrum file (CSV/text, IES TM-27 XML or lumeval JSON)."),
+        dst: Path = typer.Argument(..., metavar="OUT", show_default=False,
+                                   help="Output file: .csv, .xml (IES TM-27-14) or .json (lumeval JSON)."),
         column: str = typer.Option(None, "--column", "-c", help="Convert only the spectrum with this name."),
         force: bool = typer.Option(False, "--force", help="Replace the output file if it exists."),
     ) -> None:

@@ -147,3 +147,29 @@ def test_lot_with_instrument_carries_per_sample_uncertainty(tmp_path, capsys):
     assert b["clauses"]["Ra"]["outcome"] == "fail"  # candidate B's Ra ≈ 91.3 is below the limit
     assert a["clauses"]["Ra"]["uncertainty"] > 0 and 0 < a["clauses"]["Ra"]["p_conformance"] < 1
     assert code == 1
+
+
+def test_worked_example_of_the_docs_holds(tmp_path, capsys):
+    """docs/uncertainty.md's worked example: the outcomes it states follow from the CLI's own
+    y, u and the zone rules (w = 2u), and are the outcomes the CLI reports."""
+    root = Path(__file__).resolve().parents[1]
+    doc = (root / "docs" / "uncertainty.md").read_text(encoding="utf-8")
+    base = (root / "docs" / "examples" / "tight_criteria_guarded.toml").read_text(encoding="utf-8")
+    inst = root / "docs" / "examples" / "instrument_portable.toml"
+    got = {}
+    for rule in ("simple", "guarded-acceptance", "guarded-rejection"):
+        crit = write(tmp_path, f"{rule}.toml", base.replace('rule = "guarded-acceptance"', f'rule = "{rule}"'))
+        code, out, err = run(["check", A, B, "--criteria", crit, "--instrument", inst, "--format", "json"], capsys)
+        assert err == ""
+        for s in json.loads(out)["spectra"]:
+            for c in s["clauses"]:
+                got[(s["name"][10], c["id"], rule)] = (c["outcome"], c["measured"], c["uncertainty"], c["p_conformance"])
+    assert got[("A", "Rf", "guarded-acceptance")][0] == "indeterminate"
+    assert got[("A", "Ra", "guarded-acceptance")][0] == "indeterminate"
+    assert got[("A", "Rf", "simple")][0] == "pass" and got[("A", "Rf", "guarded-rejection")][0] == "pass"
+    assert got[("B", "Ra", "simple")][0] == "fail" and got[("B", "Ra", "guarded-acceptance")][0] == "fail"
+    assert got[("B", "Ra", "guarded-rejection")][0] == "indeterminate"
+    # the numbers quoted in the docs' table (3 decimals) are the CLI's
+    for key in (("A", "Rf"), ("A", "Ra"), ("B", "Ra")):
+        _, y, u, p = got[key + ("simple",)]
+        assert f"{y:.3f}" in doc and f"{u:.3f}" in doc and f"{p:.3f}" in doc, key

@@ -119,8 +119,9 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
     def extra(ev):
         return {_clause_key(r): np.asarray(r.measured, dtype=float) for r in criteria.evaluate(ev).results}
 
+    keys = tuple(_clause_key(r) for r in plain.results)
     unc = propagate(evaluation.spectra, setup.model, setup.settings, extra=extra, evaluation=evaluation,
-                    index_offset=index_offset)
+                    index_offset=index_offset, stabilise=keys)
     k = setup.rule.coverage_factor
     results = []
     for r in plain.results:

@@ -370,8 +370,7 @@ def chromaticity_figure(
                 style = {"ms": ms, "mew": 0.8, "ls": "none", **style}
                 ax.plot(u[m], v[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5, **style)
         if labels is not None and 1 <= n <= 6:
-            for k in np.flatnonzero(fin):
-                ax.annotate(labels[k], (u[k], v[k]), xytext=(5, 4), textcoords="offset points", fontsize=7)
+            _label_points(ax, u, v, fin, labels, xlim, ylim)
 
         if show_centroid is None:
             show_centroid = int(fin.sum()) >= 2
@@ -398,6 +397,46 @@ def chromaticity_figure(
             ax.set_title(title, loc="left")
     return fig
 
+
+
+def _label_points(ax, u, v, fin, labels, xlim, ylim) -> None:
+    """Label up to six points: one point by its name; several by numbers 1..N (names in the
+    legend), each number moved down in steps until it clears the numbers already placed."""
+    from matplotlib.lines import Line2D
+
+    idx = list(np.flatnonzero(fin))
+    single = len(labels) == 1
+    # positions in axes fractions (the view is fixed): labels 4 % wide, 3.5 % tall
+    pts = {k: ((u[k] - xlim[0]) / (xlim[1] - xlim[0]), (v[k] - ylim[0]) / (ylim[1] - ylim[0])) for k in idx}
+    placed: list[tuple[float, float]] = []
+    dirs = [(1, 1), (1, -1), (-1, 1), (-1, -1), (1, 0), (-1, 0), (0, 1), (0, -1)]
+    for k in sorted(idx, key=lambda i: -v[i]):
+        px0, py0 = pts[k]
+        fx, fy = px0 + 0.012, py0 + 0.012
+        if not single:
+            for r in (0.03, 0.055, 0.08, 0.11, 0.14):
+                ok = False
+                for dx, dy in dirs:
+                    cx, cy = px0 + dx * r, py0 + dy * r * 0.8
+                    if not (0.02 < cx < 0.95 and 0.03 < cy < 0.95):
+                        continue
+                    clash = any(abs(cx - qx) < 0.035 and abs(cy - qy) < 0.035 for qx, qy in placed)
+                    clash = clash or any(abs(cx - qx) < 0.025 and abs(cy - qy) < 0.03 for qx, qy in pts.values())
+                    if not clash:
+                        fx, fy, ok = cx, cy, True
+                        break
+                if ok:
+                    break
+            placed.append((fx, fy))
+        text = str(labels[k]) if single else str(k + 1)
+        ax.annotate(text, (u[k], v[k]), xytext=(fx, fy), textcoords="axes fraction", fontsize=7,
+                    fontweight="bold", ha="left" if single else "center", va="bottom" if single else "center",
+                    arrowprops=None if single else {"arrowstyle": "-", "lw": 0.5, "color": "#444444",
+                                                    "shrinkA": 0, "shrinkB": 3},
+                    gid=f"label-{k + 1}")
+    if not single:
+        for k in idx:
+            ax.add_line(Line2D([], [], ls="none", label=f"{k + 1}: {labels[k]}"))
 
 # --------------------------------------------------------------------------- CRI bars
 

@@ -320,7 +320,9 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         decimal_comma = saw_comma is not None
 
     # find the data block
-    start = next(i for i, (_, s) in enumerate(non_comment) if all_numeric(_split(s, delim), decimal_comma))
+    start = next((i for i, (_, s) in enumerate(non_comment) if all_numeric(_split(s, delim), decimal_comma)), None)
+    if start is None:  # pragma: no cover - the delimiter choice guarantees a numeric row
+        raise InputError("no rows of numbers (wavelength, value) found", file=file, fix="check the file's layout")
     first_ln, first_s = non_comment[start]
     ncols = len(_split(first_s, delim))
     rows: list[tuple[int, list[str]]] = []

@@ -89,6 +89,9 @@ def test_rules_separate_near_a_limit(evaluation):
             if rule != "simple":
                 assert check.exit_code == 1  # indeterminate or fail: never exit 0
             assert res.details["ci95_low"][0] < y < res.details["ci95_high"][0]
+            # the fraction of draws that conform agrees with the normal-PDF p_c within Monte
+            # Carlo noise (binomial sd ≤ 0.5/√600 = 0.02) plus the non-normality of R9's draws
+            assert abs(res.details["p_conformance_mc"][0] - res.p_conformance[0]) < 0.1
 
 
 def test_clause_u_equals_figure_u_with_same_seed(evaluation):

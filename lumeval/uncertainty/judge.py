@@ -91,6 +91,10 @@ def _clause_key(r) -> str:
     return f"clause:{r.clause_id}"
 
 
+def _conform_key(r) -> str:
+    return f"conforms:{r.clause_id}"
+
+
 def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, plain=None, index_offset: int = 0):
     """Re-decide every per-sample clause of ``criteria`` under ``setup``.
 
@@ -117,7 +121,20 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
         return plain, None
 
     def extra(ev):
-        return {_clause_key(r): np.asarray(r.measured, dtype=float) for r in criteria.evaluate(ev).results}
+        out = {}
+        for r in criteria.evaluate(ev).results:
+            m = np.asarray(r.measured, dtype=float)
+            out[_clause_key(r)] = m
+            # conformity indicator: its Monte Carlo mean is the fraction of draws inside the
+            # tolerance interval, p_c as the integral of the PDF over it (JCGM 106:2012 §7.1)
+            # evaluated on the draws without assuming a normal distribution
+            ok = np.ones(m.shape, dtype=bool)
+            if r.lower is not None:
+                ok &= m >= r.lower
+            if r.upper is not None:
+                ok &= m <= r.upper
+            out[_conform_key(r)] = np.where(np.isfinite(m), ok.astype(float), np.nan)
+        return out
 
     keys = tuple(_clause_key(r) for r in plain.results)
     unc = propagate(evaluation.spectra, setup.model, setup.settings, extra=extra, evaluation=evaluation,
@@ -143,6 +160,7 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
             "ci95_low": unc.low[:, j],
             "ci95_high": unc.high[:, j],
             "mc_mean": unc.mean[:, j],
+            "p_conformance_mc": unc.mean[:, unc.index(_conform_key(r))],
         })
         results.append(dataclasses.replace(
             r, outcome=outcome, reason=tuple(reason), uncertainty=u, p_conformance=d.p_conformance,

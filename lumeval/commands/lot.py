@@ -383,12 +383,13 @@ def _nominal_from_criteria(criteria):
 # --------------------------------------------------------------------------- CLI
 
 
-def _write_atomic(path: Path, text: str) -> None:
+def _write_atomic(path: Path, write: Callable) -> None:
+    """Call ``write(stream)`` on a temporary file in the same folder, then rename it to ``path``."""
     path = Path(path)
     tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
     try:
         with open(tmp, "w", encoding="utf-8", newline="") as f:
-            f.write(text)
+            write(f)
         os.replace(tmp, path)
     finally:
         if tmp.exists():
@@ -460,13 +461,13 @@ def register(app: typer.Typer) -> None:
         from ..render import lot_report
 
         if samples_csv is not None:
-            _write_atomic(samples_csv, lot_report.samples_csv(run))
+            _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f))
         if json_file is not None:
-            _write_atomic(json_file, lot_report.lot_json(run))
+            _write_atomic(json_file, lambda f: lot_report.lot_json(run, f))
         if output_format is OutputFormat.json:
-            typer.echo(lot_report.lot_json(run), nl=False)
+            lot_report.lot_json(run, sys.stdout)
         elif output_format is OutputFormat.csv:
-            typer.echo(lot_report.samples_csv(run), nl=False)
+            lot_report.samples_csv(run, sys.stdout)
         else:
             lot_report.print_lot(run)
         # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which

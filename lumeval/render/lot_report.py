@@ -224,8 +224,13 @@ def lot_document(run) -> dict:
     }
 
 
-def lot_json(run) -> str:
-    return json.dumps(lot_document(run), indent=1, ensure_ascii=False, allow_nan=False) + "\n"
+def lot_json(run, out=None) -> str | None:
+    """The lot JSON as a string, or written to the text stream ``out`` (then None)."""
+    if out is None:
+        return json.dumps(lot_document(run), indent=1, ensure_ascii=False, allow_nan=False) + "\n"
+    json.dump(lot_document(run), out, indent=1, ensure_ascii=False, allow_nan=False)
+    out.write("\n")
+    return None
 
 
 def csv_columns(run) -> list[str]:
@@ -246,10 +251,13 @@ def _cell(v) -> str:
     return repr(f) if math.isfinite(f) else ""
 
 
-def samples_csv(run) -> str:
+def samples_csv(run, out=None) -> str | None:
     """One row per sample: verdict, outlier flag and reasons, Δu'v' and steps, every figure,
-    each per-sample clause's outcome, and the warnings (joined with " | ")."""
-    buf = io.StringIO()
+    each per-sample clause's outcome, and the warnings (joined with " | ").
+
+    Returns the CSV text, or streams it row by row to the text stream ``out`` (then None), so
+    that a large lot is never held in memory as one string."""
+    buf = io.StringIO() if out is None else out
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(csv_columns(run))
     st = run.stats
@@ -272,7 +280,7 @@ def samples_csv(run) -> str:
             row += [r.outcome[i] for r in run.check.results]
         row.append(" | ".join(run.warnings[i]))
         w.writerow(row)
-    return buf.getvalue()
+    return buf.getvalue() if out is None else None
 
 
 # --------------------------------------------------------------------------- terminal

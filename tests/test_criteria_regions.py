@@ -251,3 +251,18 @@ def test_polygon_signed_distance_square():
     assert np.isnan(d[5])
     # orientation does not matter
     assert R.polygon_signed_distance(sq[::-1], pts)[:5] == pytest.approx(d[:5])
+
+
+def test_ellipse_margin_matches_a_dense_trace():
+    """The fast Δu'v' to the n-step boundary agrees with plain geometry on a 20 000-vertex trace
+    of the boundary (sign exact, distance within 2e-7), inside and outside, for every IEC centre."""
+    rng = np.random.default_rng(3)
+    for name in R.IEC60081_CENTRES:
+        e = R.iec60081_ellipse(name)
+        a = e.axes()[0]
+        for n in (1.0, 3.0, 7.0):
+            pts = e.centre_xy + rng.normal(0.0, n * a * 1.2, (400, 2))
+            fast = e.margin_upvp(pts, n)
+            brute = R.polygon_signed_distance(R.upvp_from_xy(e.boundary_xy(n, 20000)), R.upvp_from_xy(pts))
+            assert np.all(np.sign(fast) == np.sign(brute))
+            assert np.max(np.abs(fast - brute)) < 2e-7

@@ -298,6 +298,15 @@ def polygon_signed_distance(vertices, points) -> np.ndarray:
     """
     V = np.asarray(vertices, dtype=float)
     P = np.atleast_2d(np.asarray(points, dtype=float))
+    out = np.empty(P.shape[0])
+    # chunks keep the (n, K, 2) intermediates bounded: n·K ≤ 1e6 (16 MB per array)
+    step = max(1, 1_000_000 // max(1, V.shape[0]))
+    for s in range(0, P.shape[0], step):
+        out[s : s + step] = _signed_distance_chunk(V, P[s : s + step])
+    return out
+
+
+def _signed_distance_chunk(V: np.ndarray, P: np.ndarray) -> np.ndarray:
     A = V
     B = np.roll(V, -1, axis=0)
     E = B - A  # (K, 2)
@@ -374,21 +383,48 @@ class SdcmEllipse:
 
     def boundary_xy(self, n_steps: float, n_points: int = 720) -> np.ndarray:
         """Points on the n-step boundary in (x, y), shape (n_points, 2)."""
+        return self._boundary_at(n_steps, np.linspace(0.0, 2.0 * np.pi, n_points, endpoint=False))
+
+    def _boundary_at(self, n_steps: float, phi) -> np.ndarray:
+        """(x, y) of the n-step boundary at parametric angles ``phi`` (any shape) -> shape + (2,)."""
         a, b, th = self.axes()
-        phi = np.linspace(0.0, 2.0 * np.pi, n_points, endpoint=False)
         c, s = np.cos(np.radians(th)), np.sin(np.radians(th))
         ex, ey = n_steps * a * np.cos(phi), n_steps * b * np.sin(phi)
         return np.stack([self.centre_xy[0] + c * ex - s * ey, self.centre_xy[1] + s * ex + c * ey], axis=-1)
 
-    def margin_upvp(self, xy, n_steps: float, n_points: int = 720) -> np.ndarray:
+    def margin_upvp(self, xy, n_steps: float, *, coarse: int = 64, fine: int = 64, chunk: int = 20000) -> np.ndarray:
         """Signed Δu'v' from each point to the n-step boundary, positive inside, shape (N,).
 
-        The boundary (an ellipse in x, y) is traced by ``n_points`` points, mapped to
-        (u', v') and treated as a convex polygon; with 720 points the chord error is below
-        1e-7 in u'v' for ellipses of up to 10 steps.
+        The sign is exact: the map (x, y) -> (u', v') is one-to-one, so a point is inside the
+        boundary in (u', v') exactly when it is within n steps. The distance is the distance
+        to the boundary's image in (u', v'), found by a coarse search over ``coarse``
+        parametric samples and a refinement over ± 2 coarse steps traced by ``fine`` straight
+        segments (chord error about r·δφ²/8: below 2e-7 in u'v' for a 10-step ellipse, checked
+        against a 20 000-vertex trace in the tests). Vectorised, in
+        chunks of ``chunk`` points.
         """
-        poly = upvp_from_xy(self.boundary_xy(n_steps, n_points))
-        return polygon_signed_distance(poly, upvp_from_xy(np.atleast_2d(xy)))
+        P_xy = np.atleast_2d(np.asarray(xy, dtype=float))
+        out = np.full(P_xy.shape[0], np.nan)
+        phi_c = np.linspace(0.0, 2.0 * np.pi, coarse, endpoint=False)
+        Cc = upvp_from_xy(self._boundary_at(n_steps, phi_c))  # (coarse, 2)
+        half = 2.0 * (2.0 * np.pi / coarse)
+        offs = np.linspace(-half, half, fine + 1)
+        ok = np.all(np.isfinite(P_xy), axis=1)
+        idx = np.flatnonzero(ok)
+        for s in range(0, idx.size, chunk):
+            sel = idx[s : s + chunk]
+            P = upvp_from_xy(P_xy[sel])
+            k = np.argmin(((P[:, None, :] - Cc[None, :, :]) ** 2).sum(-1), axis=1)
+            phi = phi_c[k][:, None] + offs[None, :]  # (n, fine+1)
+            C = upvp_from_xy(self._boundary_at(n_steps, phi))  # (n, fine+1, 2)
+            A, B = C[:, :-1, :], C[:, 1:, :]
+            E = B - A
+            rel = P[:, None, :] - A
+            t = np.clip((rel * E).sum(-1) / np.maximum((E * E).sum(-1), 1e-300), 0.0, 1.0)
+            d = np.hypot(rel[..., 0] - t * E[..., 0], rel[..., 1] - t * E[..., 1]).min(axis=1)
+            inside = self.steps(P_xy[sel]) <= n_steps
+            out[sel] = np.where(inside, d, -d)
+        return out
 
 
 def ellipse_from_axes(name: str, centre_xy, a: float, b: float, theta_deg: float, source: str) -> SdcmEllipse:

@@ -400,43 +400,43 @@ CHECK_CSV_COLUMNS = (
 )
 
 
+def _cells(values) -> list[str]:
+    """Unrounded numbers as CSV cells; NaN/inf/None -> empty."""
+    if values is None:
+        return None
+    a = np.asarray(values, dtype=float)
+    return [repr(v) if math.isfinite(v) else "" for v in a.tolist()]
+
+
 def check_to_csv(result) -> str:
-    """One row per (spectrum, clause); undefined numbers are empty cells."""
+    """One row per (spectrum, clause), in the columns :data:`CHECK_CSV_COLUMNS`; undefined
+    numbers are empty cells."""
     buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=CHECK_CSV_COLUMNS, lineterminator="\n")
-    w.writeheader()
-
-    def cell(v):
-        if v is None:
-            return ""
-        f = float(v)
-        return repr(f) if math.isfinite(f) else ""
-
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(CHECK_CSV_COLUMNS)
+    verdicts = result.verdicts
+    n = len(result.names)
+    cols = []
+    for r in result.results:
+        empty = [""] * n
+        lo = _cells([r.lower])[0] if r.lower is not None else ""
+        hi = _cells([r.upper])[0] if r.upper is not None else ""
+        cols.append((
+            r,
+            _cells(r.measured),
+            lo,
+            hi,
+            _cells(r.margin),
+            _cells(r.details["delta_upvp"]) if "delta_upvp" in r.details else empty,
+            _cells(r.uncertainty) if r.uncertainty is not None else empty,
+            _cells(r.p_conformance) if r.p_conformance is not None else empty,
+            r.reason if r.reason else ("",) * n,
+        ))
     for i, name in enumerate(result.names):
-        for r in result.results:
-            w.writerow(
-                {
-                    "spectrum": name,
-                    "source": result.sources[i],
-                    "verdict": result.verdict(i),
-                    "clause_id": r.clause_id,
-                    "group": r.group,
-                    "kind": r.kind,
-                    "label": r.label,
-                    "figure": r.figure,
-                    "unit": r.unit,
-                    "measured": cell(r.measured[i]),
-                    "lower": cell(r.lower),
-                    "upper": cell(r.upper),
-                    "limit": r.limit_text,
-                    "margin": cell(r.margin[i]),
-                    "delta_upvp": cell(r.details["delta_upvp"][i]) if "delta_upvp" in r.details else "",
-                    "u": cell(r.uncertainty[i]) if r.uncertainty is not None else "",
-                    "p_conformance": cell(r.p_conformance[i]) if r.p_conformance is not None else "",
-                    "outcome": r.outcome[i],
-                    "reason": r.reason[i] if r.reason else "",
-                }
-            )
+        src, verdict = result.sources[i], verdicts[i]
+        for r, meas, lo, hi, mg, d, u, p, why in cols:
+            w.writerow((name, src, verdict, r.clause_id, r.group, r.kind, r.label, r.figure, r.unit, meas[i], lo, hi,
+                        r.limit_text, mg[i], d[i], u[i], p[i], r.outcome[i], why[i]))
     return buf.getvalue()
 
 

@@ -279,3 +279,14 @@ def test_lot_statistics_object_is_shown(demo_eval):
     row = re.search(r"<tr><td>Ra</td>(.*?)</tr>", lot).group(1)
     assert f">{float(np.mean(ra)):.4g}<" in row and f">{float(np.max(ra)):.4g}<" in row
     assert "5 samples." in lot and "Largest Δu′v′" in lot
+
+
+def test_check_result_mixed_with_lot_level_rows(demo_eval, check_result):
+    lot_row = {"clause": "largest pairwise Δu′v′ ≤ 0.004", "figure": "max_pairwise", "measured": 0.005,
+               "limit": "≤ 0.004", "upper": 0.004, "margin": -0.001, "outcome": "fail"}
+    rows = H.verdict_rows([check_result, lot_row], demo_eval.spectra.names)
+    assert len(rows) == sum(len(r.outcome) for r in check_result.results) + 1
+    assert rows[-1].sample is None and rows[-1].outcome == "fail"
+    text = H.render_html_report(demo_eval, verdicts=[check_result, lot_row], per_sample_max=2)
+    assert "largest pairwise Δu′v′ ≤ 0.004" in text and "<td>lot</td>" in text
+    assert "report test" in text  # the criteria identification is still shown

@@ -20,12 +20,13 @@ Entry points
 inputs:
 
 ``verdicts``
-    Either a ``lumeval.criteria.verdicts.CheckResult`` (anything with ``.results``, a
-    sequence of clause results with ``label, figure, unit, measured (N,), lower, upper,
-    limit_text, margin (N,), outcome (N,), reason (N,)``), or a plain sequence of rows, each
-    a mapping or object with the keys ``sample, clause, figure, measured, unit, limit,
-    lower, upper, margin, outcome`` (``"pass" | "fail" | "indeterminate" | "not judged"``;
-    or ``passed``: True/False/None) and optionally ``reason``.
+    A ``lumeval.criteria.verdicts.CheckResult`` (anything with ``.results``: clause results
+    with ``label, figure, unit, measured (N,), lower, upper, limit_text, margin (N,),
+    outcome (N,), reason (N,)``); or a sequence of rows, each a mapping or object with the
+    keys ``sample, clause, figure, measured, unit, limit, lower, upper, margin, outcome``
+    (``"pass" | "fail" | "indeterminate" | "not judged"``; or ``passed``: True/False/None)
+    and optionally ``reason``; or a sequence mixing both (a row without ``sample`` judges
+    the whole lot, e.g. a lot-clause result).
 ``limits``
     ``{figure name: (lower or None, upper or None)}`` drawn on the charts; by default taken
     from the verdict rows' ``lower``/``upper`` (the tightest per figure).
@@ -129,54 +130,82 @@ def _outcome_of(row) -> str:
     return "not judged" if p is None else ("pass" if bool(p) else "fail")
 
 
+def _is_check_result(obj) -> bool:
+    return not isinstance(obj, (Mapping, list, tuple)) and hasattr(obj, "results")
+
+
+def _expand_check(check, names: Sequence[str]) -> list[VerdictRow]:
+    rows: list[VerdictRow] = []
+    vnames = list(_get(check, "names", default=names) or names)
+    for r in check.results:
+        outcome = tuple(r.outcome)
+        measured = np.atleast_1d(np.asarray(r.measured, dtype=float))
+        margin = np.atleast_1d(np.asarray(r.margin, dtype=float))
+        reason = tuple(getattr(r, "reason", ()) or ())
+        for i, o in enumerate(outcome):
+            rows.append(
+                VerdictRow(
+                    sample=vnames[i] if i < len(vnames) else str(i + 1),
+                    clause=str(getattr(r, "label", "")),
+                    figure=str(getattr(r, "figure", "")),
+                    measured=float(measured[i]) if i < measured.size else None,
+                    unit=str(getattr(r, "unit", "") or ""),
+                    limit=str(getattr(r, "limit_text", "") or ""),
+                    lower=_opt_float(getattr(r, "lower", None)),
+                    upper=_opt_float(getattr(r, "upper", None)),
+                    margin=float(margin[i]) if i < margin.size else None,
+                    outcome=_outcome_of({"outcome": o}),
+                    reason=reason[i] if i < len(reason) else "",
+                )
+            )
+    return rows
+
+
+def _one_row(row) -> VerdictRow:
+    m = _get(row, "measured")
+    sample = _get(row, "sample")
+    return VerdictRow(
+        sample=None if sample is None else str(sample),
+        clause=str(_get(row, "clause", "label", "criterion", default="")),
+        figure=str(_get(row, "figure", default="") or ""),
+        measured=m if isinstance(m, str) else _opt_float(m),
+        unit=str(_get(row, "unit", default="") or ""),
+        limit=str(_get(row, "limit", "limit_text", default="") or ""),
+        lower=_opt_float(_get(row, "lower", "min")),
+        upper=_opt_float(_get(row, "upper", "max")),
+        margin=_opt_float(_get(row, "margin")),
+        outcome=_outcome_of(row),
+        reason=str(_get(row, "reason", "note", default="") or ""),
+    )
+
+
 def verdict_rows(verdicts, names: Sequence[str]) -> list[VerdictRow]:
-    """Normalise the ``verdicts`` input (see the module docstring) to :class:`VerdictRow` s."""
+    """Normalise the ``verdicts`` input (see the module docstring) to :class:`VerdictRow` s.
+
+    ``verdicts`` may be a check result, a sequence of rows, or a sequence mixing check results
+    and rows (e.g. a lot's per-sample check result followed by its lot-clause results; a row
+    without ``sample`` is a verdict on the whole lot).
+    """
     if verdicts is None:
         return []
+    if _is_check_result(verdicts):
+        return _expand_check(verdicts, names)
     rows: list[VerdictRow] = []
-    results = _get(verdicts, "results") if not isinstance(verdicts, (list, tuple)) else None
-    if results is not None:
-        vnames = list(_get(verdicts, "names", default=names) or names)
-        for r in results:
-            outcome = tuple(r.outcome)
-            measured = np.atleast_1d(np.asarray(r.measured, dtype=float))
-            margin = np.atleast_1d(np.asarray(r.margin, dtype=float))
-            reason = tuple(getattr(r, "reason", ()) or ())
-            for i, o in enumerate(outcome):
-                rows.append(
-                    VerdictRow(
-                        sample=vnames[i] if i < len(vnames) else str(i + 1),
-                        clause=str(getattr(r, "label", "")),
-                        figure=str(getattr(r, "figure", "")),
-                        measured=float(measured[i]) if i < measured.size else None,
-                        unit=str(getattr(r, "unit", "") or ""),
-                        limit=str(getattr(r, "limit_text", "") or ""),
-                        lower=_opt_float(getattr(r, "lower", None)),
-                        upper=_opt_float(getattr(r, "upper", None)),
-                        margin=float(margin[i]) if i < margin.size else None,
-                        outcome=_outcome_of({"outcome": o}),
-                        reason=reason[i] if i < len(reason) else "",
-                    )
-                )
-        return rows
-    for row in verdicts:
-        m = _get(row, "measured")
-        rows.append(
-            VerdictRow(
-                sample=None if _get(row, "sample") is None else str(_get(row, "sample")),
-                clause=str(_get(row, "clause", "label", "criterion", default="")),
-                figure=str(_get(row, "figure", default="") or ""),
-                measured=m if isinstance(m, str) else _opt_float(m),
-                unit=str(_get(row, "unit", default="") or ""),
-                limit=str(_get(row, "limit", "limit_text", default="") or ""),
-                lower=_opt_float(_get(row, "lower", "min")),
-                upper=_opt_float(_get(row, "upper", "max")),
-                margin=_opt_float(_get(row, "margin")),
-                outcome=_outcome_of(row),
-                reason=str(_get(row, "reason", "note", default="") or ""),
-            )
-        )
+    for item in verdicts:
+        if _is_check_result(item):
+            rows.extend(_expand_check(item, names))
+        else:
+            rows.append(_one_row(item))
     return rows
+
+
+def _verdict_meta(verdicts):
+    """(identification dict, criteria file) of the first check result in ``verdicts``."""
+    items = [verdicts] if _is_check_result(verdicts) else list(verdicts or ())
+    for it in items:
+        if _is_check_result(it):
+            return _get(it, "identification"), _get(it, "criteria_file")
+    return None, None
 
 
 def _limits_from_rows(rows: list[VerdictRow]) -> dict[str, tuple[float | None, float | None]]:
@@ -758,7 +787,7 @@ def render_html_report(
                           per_sample_max=per_sample_max)
     if inputs is None:
         inputs = input_paths_from_sources(ev.spectra.sources)
-        crit = _get(verdicts, "criteria_file") if verdicts is not None and not isinstance(verdicts, (list, tuple)) else None
+        crit = _verdict_meta(verdicts)[1]
         if crit:
             inputs.append(str(crit))
     prov = collect_provenance(inputs, methods=getattr(ev, "methods", None) or None, generated_at=generated_at)
@@ -776,8 +805,7 @@ def render_html_report(
         body.append('<div class="summary not-judged"><p class="big">' + _badge("not judged")
                     + " No acceptance criteria were given: figures only.</p></div>")
     else:
-        ident = _get(verdicts, "identification") if not isinstance(verdicts, (list, tuple)) else None
-        crit_file = _get(verdicts, "criteria_file") if not isinstance(verdicts, (list, tuple)) else None
+        ident, crit_file = _verdict_meta(verdicts)
         if ident or crit_file:
             bits = [f"{_e(k)}: {_e(v)}" for k, v in dict(ident or {}).items()]
             if crit_file:

@@ -161,7 +161,7 @@ def test_sample_marker_sits_at_the_samples_chromaticity_in_the_svg(colour, evalu
     np.testing.assert_allclose(pos[0], [px[0], h_pt - px[1]], atol=0.2)
 
 
-def test_lot_centroid_and_spread(evaluate_sd, colour):
+def test_lot_centroid_and_spread():
     rng = np.random.default_rng(7)
     u = 0.2500 + 0.0010 * rng.standard_normal(40)
     v = 0.3500 + 0.0005 * rng.standard_normal(40)

@@ -44,6 +44,15 @@ def test_sprague_matches_colour_science(step):
     np.testing.assert_allclose(ours, ref, rtol=0, atol=1e-12)
 
 
+def test_sprague_documented_example():
+    """colour-science's SpragueInterpolator documentation example (an independent implementation
+    of the CIE 167:2005 Sprague method): y = [5.92, 9.37, 10.8135, 4.51, 69.59, 27.8007, 86.05]
+    on x = 0..6 gives f(0.5) = 7.2185025..., f(0.25) = 6.7295161..., f(0.75) = 7.8140625..."""
+    y = np.array([[5.9200, 9.3700, 10.8135, 4.5100, 69.5900, 27.8007, 86.0500]])
+    out = sprague(np.arange(7.0), y, np.array([0.5, 0.25, 0.75]))[0]
+    np.testing.assert_allclose(out, [7.2185025, 6.7295161, 7.8140625], atol=5e-7)
+
+
 def test_sprague_passes_through_the_data():
     m = sprague_matrix(9, np.arange(9.0))
     np.testing.assert_allclose(m, np.eye(9), atol=1e-12)

@@ -230,10 +230,10 @@ def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes:
                     f"below zero, more than the {NEGATIVE_CLIP_FRACTION * 100:g} % lumeval treats as noise",
                     "check the dark/baseline subtraction of the measurement",
                 )
-            n_neg = int(np.sum(vals[i] < 0))
+            n_neg = int(np.sum(vals[i, inside] < 0))
             notes[i].append(
-                f"{n_neg} value(s) below zero (down to {low:.3g}, {(-low / peak) * 100:.2g} % of the peak) "
-                "treated as noise and set to zero"
+                f"{n_neg} value(s) between 360 and 830 nm below zero (down to {low:.3g}, "
+                f"{(-low / peak) * 100:.2g} % of the peak) treated as noise and set to zero"
             )
             vals[i] = np.maximum(vals[i], 0.0)
     return vals
@@ -288,6 +288,12 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     used = (wl >= CIE_MIN_NM - 1e-9) & (wl <= CIE_MAX_NM + 1e-9)
     idx = np.flatnonzero(used)
     i0, i1 = idx[0], idx[-1]
+    # interpolation may use one neighbour just outside 360-830 nm (so the grid can reach the
+    # ends), if it is no farther away than the coarsest spacing accepted
+    if i0 > 0 and wl[i0] - wl[i0 - 1] <= MAX_SPACING_NM:
+        i0 -= 1
+    if i1 < wl.size - 1 and wl[i1 + 1] - wl[i1] <= MAX_SPACING_NM:
+        i1 += 1
     dd = np.diff(wl[idx[0] : idx[-1] + 1]) if idx.size > 1 else np.array([np.inf])
     max_gap = float(dd.max())
     if max_gap > MAX_SPACING_NM + 1e-9:
@@ -316,8 +322,8 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     else:
         h = 1.0
         src_wl, src_vals = wl[i0 : i1 + 1], vals[:, i0 : i1 + 1]
-        start = np.ceil(src_wl[0] - 1e-9)
-        end = np.floor(src_wl[-1] + 1e-9)
+        start = max(np.ceil(src_wl[0] - 1e-9), CIE_MIN_NM)
+        end = min(np.floor(src_wl[-1] + 1e-9), CIE_MAX_NM)
         wl_new = np.arange(start, end + 0.5, 1.0)
         if uniform and src_wl.size >= 6:
             vals_new = sprague(src_wl, src_vals, wl_new)

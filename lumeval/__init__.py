@@ -34,6 +34,7 @@ _API = {
     "planckian_uv": "lumeval.metrics.colorimetry",
     "tm30": "lumeval.metrics.tm30", "TM30Result": "lumeval.metrics.tm30", "cie2017_rf": "lumeval.metrics.tm30",
     "photometry": "lumeval.metrics.photometry", "PhotometryResult": "lumeval.metrics.photometry",
+    "InstrumentModel": "lumeval.uncertainty", "load_instrument": "lumeval.uncertainty", "propagate_uncertainty": "lumeval.uncertainty", "DecisionRule": "lumeval.uncertainty",
 }
 
 __all__ = sorted(_API) + ["__version__"]

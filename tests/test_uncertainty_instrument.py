@@ -87,3 +87,18 @@ def test_table_inside_a_criteria_file():
     with pytest.raises(CriteriaError) as e:
         instrument_from_table({"noise_relative": 0.01, "foo": 1}, file="crit.toml", text=text)
     assert e.value.line == 6 and e.value.field == "instrument.foo"
+
+
+def test_python_construction_is_validated_too():
+    with pytest.raises(ValueError):
+        InstrumentModel(noise_relative=-0.1)
+    with pytest.raises(ValueError):
+        InstrumentModel(bandwidth_nm=float("nan"))
+
+
+def test_public_api_names():
+    import lumeval
+
+    assert lumeval.InstrumentModel is InstrumentModel
+    assert callable(lumeval.propagate_uncertainty) and callable(lumeval.load_instrument)
+    assert lumeval.DecisionRule().rule == "simple"

@@ -27,6 +27,9 @@ from .instrument import (
 )
 from .montecarlo import UncertaintyResult, draw_spectra, propagate, summarise
 
+#: The name under which :func:`propagate` is re-exported from ``lumeval``.
+propagate_uncertainty = propagate
+
 __all__ = [
     "RULES",
     "Decision",
@@ -41,6 +44,7 @@ __all__ = [
     "load_instrument",
     "probability_of_conformance",
     "propagate",
+    "propagate_uncertainty",
     "rule_from_table",
     "settings_from_table",
     "summarise",

@@ -97,6 +97,8 @@ class DecisionRule:
     def __post_init__(self) -> None:
         if self.rule not in RULES:
             raise ValueError(f"unknown decision rule {self.rule!r}")
+        if not (self.guard_band_factor >= 0 and self.coverage_factor > 0):
+            raise ValueError("guard_band_factor must be ≥ 0 and coverage_factor > 0")
 
     @property
     def guarded(self) -> bool:

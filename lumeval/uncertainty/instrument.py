@@ -101,6 +101,13 @@ class InstrumentModel:
     name: str = ""
     source: str = "lumeval defaults"
 
+    def __post_init__(self) -> None:
+        for k in PARAMETERS:
+            v = getattr(self, k)
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+                raise ValueError(f"InstrumentModel.{k} must be a finite number ≥ 0, got {v!r}")
+            object.__setattr__(self, k, float(v))
+
     @property
     def is_zero(self) -> bool:
         """True when every uncertainty parameter is zero (the draws equal the data)."""

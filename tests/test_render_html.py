@@ -89,17 +89,21 @@ def test_every_inline_svg_is_well_formed_xml_and_ids_are_unique(report):
     assert refs <= set(ids)
 
 
-def test_report_fetches_nothing_at_view_time(report):
-    text = report[1]
+def _assert_fetches_nothing(text):
     low = text.lower()
     for tag in ("<script", "<link", "<iframe", "<object", "<embed", "<img", "@import", "@font-face"):
         assert tag not in low, tag
-    # every src/href/url() is an in-document fragment; namespace declarations (xmlns) are not fetched
-    external = re.findall(r'\b(?:src|href|xlink:href)\s*=\s*"(?!#)([^"]*)"', text)
+    # every src/href/url() is an in-document fragment or inline data (a raster embedded in an
+    # SVG figure); namespace declarations (xmlns) are not fetched
+    external = re.findall(r'\b(?:src|href|xlink:href)\s*=\s*"(?!#|data:image/png;base64,)([^"]*)"', text)
     external += re.findall(r"url\(\s*['\"]?(?!#)([^)'\"]*)", text)
     assert external == []
     assert not re.search(r"(?<!xmlns=\")(?<!xmlns:xlink=\")https?://", text.replace('xmlns="http://www.w3.org/2000/svg"', "")
                          .replace('xmlns:xlink="http://www.w3.org/1999/xlink"', ""))
+
+
+def test_report_fetches_nothing_at_view_time(report):
+    _assert_fetches_nothing(report[1])
 
 
 def test_order_verdict_then_figures_then_provenance_then_cautions(report):
@@ -290,3 +294,26 @@ def test_check_result_mixed_with_lot_level_rows(demo_eval, check_result):
     text = H.render_html_report(demo_eval, verdicts=[check_result, lot_row], per_sample_max=2)
     assert "largest pairwise Δu′v′ ≤ 0.004" in text and "<td>lot</td>" in text
     assert "report test" in text  # the criteria identification is still shown
+
+
+def test_large_lot_stays_small_and_valid(demo_eval, check_result):
+    """600 samples: tables are capped, the spectra drawn as a band, scatter points rasterised
+    inside the SVG (a data: URI), and the file still parses and fetches nothing."""
+    from lumeval.engine import evaluate
+    from lumeval.spectra.model import SpectrumSet
+
+    rng = np.random.default_rng(5)
+    base = demo_eval.spectra.values[0]
+    vals = base[None, :] * (1 + 0.02 * rng.standard_normal((600, 1)) * np.sin(demo_eval.spectra.wavelengths_nm / 40)[None, :])
+    names = tuple(f"s{i:03d}" for i in range(600))
+    ev = evaluate(SpectrumSet(demo_eval.spectra.wavelengths_nm, vals, names, names))
+    rows = [{"sample": n, "clause": "Ra ≥ 92", "figure": "Ra", "measured": float(v), "lower": 92,
+             "margin": float(v - 92), "passed": bool(v >= 92)} for n, v in zip(names, ev.figure("Ra"))]
+    text = H.render_html_report(ev, verdicts=rows, lot={"rows": []})
+    assert len(text) < 3_000_000
+    html5lib = pytest.importorskip("html5lib")
+    html5lib.HTMLParser(strict=True).parse(text)
+    _assert_fetches_nothing(text)
+    assert "data:image/png;base64," in text  # the rasterised scatter
+    assert f"{H.MAX_TABLE_ROWS} of 600 spectra listed" in text
+    assert 'data-figure="spd-lot"' in text and "band" in text

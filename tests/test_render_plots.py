@@ -278,3 +278,21 @@ def test_plots_import_no_pyplot():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip()
     assert out == "False"
+
+
+def test_spd_many_spectra_drawn_as_range_and_median(colour):
+    sd = colour.SDS_ILLUMINANTS["FL2"]
+    wl = np.asarray(sd.wavelengths, float)
+    base = np.asarray(sd.values, float)
+    rng = np.random.default_rng(2)
+    test = base[None, :] * (1 + 0.05 * rng.random((plots.MAX_LINES + 10, 1)) * np.linspace(0, 1, wl.size)[None, :])
+    fig = plots.spd_figure(wl, test, None)
+    ax = fig.axes[0]
+    assert not [ln for ln in ax.get_lines() if (ln.get_gid() or "").startswith("test-spd-") and ln.get_gid()[-1].isdigit()]
+    med = _lines(fig, "test-spd-median")["test-spd-median"][:, 1]
+    # each spectrum scaled to equal Y (colour-science's ybar), then the pair/lot jointly to a peak of 1
+    ybar = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"].copy().align(colour.SpectralShape(wl[0], wl[-1], 5)).values[:, 1]
+    scaled = test / (test @ ybar)[:, None]
+    expected = np.median(scaled, axis=0)
+    np.testing.assert_allclose(med / med.max(), expected / expected.max(), rtol=1e-9)
+    assert [p for p in ax.collections if p.get_gid() == "test-spd-band"]

@@ -62,6 +62,10 @@ from ..errors import UsageError
 #: together: all spectra in one SPD chart, medians with min-max whiskers, distributions.
 PER_SAMPLE_MAX = 6
 
+#: Per-sample tables list at most this many rows (failed samples first); the rest are counted.
+#: Every figure of every sample is in the JSON and CSV outputs.
+MAX_TABLE_ROWS = 100
+
 #: Figures whose distributions are drawn for a lot (plus any figure a limit names).
 LOT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
 
@@ -412,7 +416,9 @@ def report_figures(
             k = int(np.nanargmin(np.abs(cct - np.nanmedian(cct)))) if np.any(np.isfinite(cct)) else 0
         figs.append(ReportFigure(
             "spd-lot", f"Spectra of all {n} samples",
-            "Every spectrum (thin lines), each scaled to the same luminous content Y, with the CIE 13.3 reference of "
+            ("Every spectrum (thin lines)" if n <= plots.MAX_LINES else
+             f"The range of all {n} spectra at each wavelength (band) and their median (line)")
+            + ", each spectrum scaled to the same luminous content Y, with the CIE 13.3 reference of "
             f"the sample nearest the median CCT ({names[k]}, dashed); jointly scaled to a highest value of 1.",
             plots.spd_figure(wl, ev.spectra.values, ev.reference_spd(k), test_label=f"{n} samples",
                              reference_label=_reference_label(cct[k])),
@@ -722,8 +728,12 @@ def _checks_html(rows: list[VerdictRow], per_sample_max: int) -> str:
                    "(+ inside the limits, − outside).</p>")
         out.append(_table(["Criterion", "Limit"] + samples, body, cls="grid"))
         return "".join(out)
-    shown = [r for r in rows if r.outcome != "pass"]
-    out.append(f"<h3>Checks that did not pass ({len(shown)} of {len(rows)})</h3>")
+    not_passed = [r for r in rows if r.outcome != "pass"]
+    shown = sorted(not_passed, key=lambda r: r.outcome != "fail")[:MAX_TABLE_ROWS]
+    out.append(f"<h3>Checks that did not pass ({len(not_passed)} of {len(rows)})</h3>")
+    if len(shown) < len(not_passed):
+        out.append(f'<p class="sub">The first {len(shown)} are listed (failures first); all are in the JSON '
+                   "and CSV outputs.</p>")
     if not shown:
         out.append("<p>None: every check passed.</p>")
         return "".join(out)
@@ -826,10 +836,15 @@ def render_html_report(
                     f"<p>{len(rows)} checks: " + ", ".join(
                         f"{counts[o]} {_OUTCOME_TEXT[o][1].lower()}" for o in _OUTCOME_ORDER if counts[o]) + ".</p></div>")
         if len(per_sample) > 1:
+            items = sorted(per_sample.items(), key=lambda kv: "fail" not in kv[1])  # stable: failed first
+            shown_items = items[:MAX_TABLE_ROWS]
             body.append(_table(["Sample", "Verdict", "Checks failed"],
-                               [[_e(s), _badge(_worst(o)), str(sum(x == "fail" for x in o))] for s, o in per_sample.items()],
+                               [[_e(s), _badge(_worst(o)), str(sum(x == "fail" for x in o))] for s, o in shown_items],
                                numeric=[False, False, True],
-                               row_classes=["fail" if "fail" in o else "" for o in per_sample.values()]))
+                               row_classes=["fail" if "fail" in o else "" for _, o in shown_items]))
+            if len(items) > len(shown_items):
+                body.append(f'<p class="sub">{len(shown_items)} of {len(items)} samples listed (failed first); '
+                            "every sample's verdict is in the JSON and CSV outputs.</p>")
         body.append(_checks_html(rows, per_sample_max))
     body.append("</section>")
 
@@ -837,18 +852,23 @@ def render_html_report(
     body.append('<section id="figures-table"><h2>Key figures</h2>')
     fx = {k: _fig(ev, k) for k in ("x", "y", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg",
                                    "ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm")}
+    failed_flags = _sample_failed(rows, names)
+    order = sorted(range(n), key=lambda i: failed_flags[i] is not True)[:MAX_TABLE_ROWS]
+    if len(order) < n:
+        body.append(f'<p class="sub">{len(order)} of {n} spectra listed (those that failed a criterion first); '
+                    "every spectrum's figures are in the JSON and CSV outputs.</p>")
     body.append("<h3>Chromaticity (CIE 1931 2°)</h3>")
     body.append(_table(
         ["Spectrum", "x", "y", "u′", "v′", "CCT (K)", "Duv"],
         [[_e(names[i]), _num(fx["x"][i], ".4f"), _num(fx["y"][i], ".4f"), _num(fx["u_prime"][i], ".4f"),
-          _num(fx["v_prime"][i], ".4f"), _num(fx["cct_K"][i], ".0f"), _num(fx["duv"][i], "+.4f")] for i in range(n)],
+          _num(fx["v_prime"][i], ".4f"), _num(fx["cct_K"][i], ".0f"), _num(fx["duv"][i], "+.4f")] for i in order],
         numeric=[False] + [True] * 6))
     body.append("<h3>Colour rendering and photometry</h3>")
     body.append(_table(
         ["Spectrum", "Ra", "R9", "Rf", "Rg", "LER (lm/W)", "S/P", "mel-DER", "peak (nm)"],
         [[_e(names[i]), _num(fx["Ra"][i], "int"), _num(fx["R9"][i], "int"), _num(fx["Rf"][i], "int"),
           _num(fx["Rg"][i], "int"), _num(fx["ler_lm_per_W"][i], ".0f"), _num(fx["sp_ratio"][i], ".2f"),
-          _num(fx["melanopic_der"][i], ".3f"), _num(fx["peak_nm"][i], ".0f")] for i in range(n)],
+          _num(fx["melanopic_der"][i], ".3f"), _num(fx["peak_nm"][i], ".0f")] for i in order],
         numeric=[False] + [True] * 8))
     body.append('<p class="sub">Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. '
                 "LER: luminous efficacy of radiation. mel-DER: melanopic daylight efficacy ratio (CIE S 026). "
@@ -913,9 +933,16 @@ def render_html_report(
     body.append('<section id="notes"><h2>Notes on the data</h2>')
     if any(warns):
         body.append('<ul class="notes">')
+        # the same note for many samples is listed once, with the samples it concerns
+        by_msg: dict[str, list[str]] = {}
         for i, w in enumerate(warns):
             for msg in w:
-                body.append(f"<li><b>{_e(names[i])}</b>: {_e(msg)}</li>")
+                by_msg.setdefault(msg, []).append(names[i])
+        for msg, who in list(by_msg.items())[:MAX_TABLE_ROWS]:
+            whom = ", ".join(who[:5]) + (f" and {len(who) - 5} more" if len(who) > 5 else "")
+            body.append(f"<li><b>{_e(whom)}</b>: {_e(msg)}</li>")
+        if len(by_msg) > MAX_TABLE_ROWS:
+            body.append(f"<li>… and {len(by_msg) - MAX_TABLE_ROWS} further notes (see the JSON output).</li>")
         body.append("</ul>")
     else:
         body.append("<p>Nothing to note: every spectrum was used as read and every figure is defined.</p>")

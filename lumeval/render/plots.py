@@ -55,6 +55,13 @@ ISOTEMPERATURES_K = (
     6500, 7500, 8500, 10000, 12000, 15000, 20000,
 )
 
+#: Above this many spectra, a spectral plot shows their range and median instead of every line.
+MAX_LINES = 40
+
+#: Above this many points, scatter markers are embedded as a raster image inside the SVG
+#: (a data: URI, still self-contained) so that files stay small.
+RASTER_POINTS = 500
+
 #: Figure width in inches: 7 in = 178 mm fits A4 and US Letter with 15 mm margins.
 WIDTH_IN = 7.0
 
@@ -100,7 +107,8 @@ def figure_svg(fig) -> str:
     """The figure as a standalone SVG document (text drawn as paths, no external references)."""
     buf = io.StringIO()
     with _ctx():
-        fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
+        fig.savefig(buf, format="svg", dpi=150,
+                    metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
     return buf.getvalue()
 
 
@@ -136,7 +144,8 @@ def spd_figure(
     wavelengths_nm : array_like, shape (W,)
         A uniform grid (1 nm or 5 nm).
     test_values : array_like, shape (W,) or (N, W)
-        One or several test spectra (several: a lot, drawn as thin lines).
+        One or several test spectra (several: thin lines; more than :data:`MAX_LINES`: the
+        range over all of them as a band, and their median).
     reference_values : array_like, shape (W,), optional
         The reference SPD; None or all-NaN draws no reference (CCT undefined).
     """
@@ -167,11 +176,23 @@ def spd_figure(
         ax.axvspan(lo, VISIBLE_NM[0], color="#e6e6e6", lw=0, gid="outside-visible-short")
         ax.axvspan(VISIBLE_NM[1], hi, color="#e6e6e6", lw=0, gid="outside-visible-long")
         many = test.shape[0] > 1
-        for k in range(test.shape[0]):
-            ax.plot(
-                wl, scaled[k] / peak, color=PALETTE["blue"], lw=0.7 if many else 1.6,
-                alpha=0.6 if many else 1.0, label=test_label if k == 0 else None, gid=f"test-spd-{k}",
-            )
+        if test.shape[0] > MAX_LINES:
+            # a band from the lowest to the highest value at each wavelength, and the median
+            with np.errstate(all="ignore"):
+                import warnings
+
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore", RuntimeWarning)
+                    lo_c, med_c, hi_c = (np.nanmin(scaled, 0), np.nanmedian(scaled, 0), np.nanmax(scaled, 0))
+            ax.fill_between(wl, lo_c / peak, hi_c / peak, color=PALETTE["sky"], alpha=0.6, lw=0,
+                            label=f"{test_label}: range", gid="test-spd-band")
+            ax.plot(wl, med_c / peak, color=PALETTE["blue"], lw=1.4, label=f"{test_label}: median", gid="test-spd-median")
+        else:
+            for k in range(test.shape[0]):
+                ax.plot(
+                    wl, scaled[k] / peak, color=PALETTE["blue"], lw=0.7 if many else 1.6,
+                    alpha=0.6 if many else 1.0, label=test_label if k == 0 else None, gid=f"test-spd-{k}",
+                )
         if ref is not None:
             ax.plot(wl, ref / peak, color=PALETTE["black"], lw=1.3, ls=(0, (5, 2)), label=reference_label, gid="reference-spd")
         ax.set_xlim(lo, hi)
@@ -368,7 +389,8 @@ def chromaticity_figure(
             m = mask.astype(bool) & fin
             if m.any():
                 style = {"ms": ms, "mew": 0.8, "ls": "none", **style}
-                ax.plot(u[m], v[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5, **style)
+                ax.plot(u[m], v[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5,
+                        rasterized=bool(fin.sum() > RASTER_POINTS), **style)
         if labels is not None and 1 <= n <= 6:
             _label_points(ax, u, v, fin, labels, xlim, ylim)
 
@@ -636,11 +658,12 @@ def distribution_figure(
             jitter = (np.arange(n) * 0.6180339887) % 1.0 * 0.6 - 0.3
             f = np.array([bool(x) if x is not None else False for x in (failed if failed is not None else [None] * n)])
             fin = np.isfinite(arr)
+            ras = bool(fin.sum() > RASTER_POINTS)
             ax.plot(arr[fin & ~f], jitter[fin & ~f], ls="none", marker="o", ms=3.5, mfc=PALETTE["sky"], mec="black",
-                    mew=0.4, gid=f"dist-{name}-points")
+                    mew=0.4, gid=f"dist-{name}-points", rasterized=ras)
             if (fin & f).any():
                 ax.plot(arr[fin & f], jitter[fin & f], ls="none", marker="X", ms=5.5, mfc=PALETTE["vermillion"],
-                        mec="black", mew=0.4, gid=f"dist-{name}-failed")
+                        mec="black", mew=0.4, gid=f"dist-{name}-failed", rasterized=ras)
             if fin.sum() >= 2:
                 q1, med, q3 = np.quantile(arr[fin], [0.25, 0.5, 0.75])
                 ax.add_patch(_mpl().patches.Rectangle((q1, -0.42), q3 - q1, 0.84, fill=False, ec="black", lw=0.8, gid=f"dist-{name}-box"))

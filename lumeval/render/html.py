@@ -6,8 +6,9 @@ for a lot the distributions of the key figures) and the tables behind them; then
 on the data, the provenance (input files with SHA-256, software versions, methods and
 standard editions, date and time) and the cautions.
 
-The file needs nothing but itself: figures are inline SVG (text drawn as paths), the style
-sheet is inline, there is no script, no font file and no URL fetched when it is viewed. A
+The file needs nothing but itself: figures are inline SVG (text drawn as paths; above 500
+points a scatter is an inline PNG data: image inside its SVG), the style sheet is inline,
+there is no script, no font file and no URL fetched when it is viewed. A
 print style sheet lays it out for A4 and US Letter alike (15 mm margins, 178 mm content
 width). Verdicts are given in words and symbols (✓ PASS, ✗ FAIL, ? INDETERMINATE,
 – NOT JUDGED); colour only repeats them.

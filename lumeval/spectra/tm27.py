@@ -401,6 +401,13 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     if "SpectralQuantity" not in mapped:
         scale = meta.get("lumeval.scale")
         mapped["SpectralQuantity"] = "relative" if scale == "relative" else "other"
+    # the scale is implied by SpectralQuantity when they agree: then keep it out of Comments
+    q = mapped["SpectralQuantity"].strip().lower()
+    implied = "relative" if q == "relative" else "absolute" if q in _ABSOLUTE_QUANTITIES else "unknown"
+    if meta.get("lumeval.scale", "unknown") == implied:
+        extra = [(k, v) for k, v in extra if k not in ("lumeval.scale",)]
+        if meta.get("lumeval.value_unit", mapped["SpectralQuantity"]) == mapped["SpectralQuantity"]:
+            extra = [(k, v) for k, v in extra if k != "lumeval.value_unit"]
     comments = mapped.get("Comments", "")
     lines = [comments] if comments else []
     for k, v in extra:

@@ -317,3 +317,16 @@ def test_large_lot_stays_small_and_valid(demo_eval, check_result):
     assert "data:image/png;base64," in text  # the rasterised scatter
     assert f"{H.MAX_TABLE_ROWS} of 600 spectra listed" in text
     assert 'data-figure="spd-lot"' in text and "band" in text
+
+
+def test_names_are_escaped(demo_eval):
+    from dataclasses import replace
+
+    evil = '<script>alert("x")</script> & "q"'
+    names = (evil,) + demo_eval.spectra.names[1:]
+    ev = replace(demo_eval, spectra=replace(demo_eval.spectra, names=names))
+    text = H.render_html_report(ev)
+    assert "<script" not in text.lower()
+    assert "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; &quot;q&quot;" in text
+    html5lib = pytest.importorskip("html5lib")
+    html5lib.HTMLParser(strict=True).parse(text)

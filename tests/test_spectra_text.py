@@ -1,0 +1,83 @@
+"""Small inline cases for the text reader's rules (docs/input-files.md §1)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from lumeval.errors import InputError
+from lumeval.spectra.read import parse_spectra
+
+WL = np.arange(380, 781, 5)
+
+
+def _rows(fmt="{w},{v}", unit=1.0, dec="."):
+    out = []
+    for w in WL:
+        v = f"{0.5 + 0.4 * np.sin(w / 40):.4f}"
+        ws = f"{w * unit:g}"
+        if dec == ",":
+            v, ws = v.replace(".", ","), ws.replace(".", ",")
+        out.append(fmt.format(w=ws, v=v))
+    return out
+
+
+def _parse(lines, nl="\n", enc="utf-8", name="t.csv"):
+    return parse_spectra((nl.join(lines) + nl).encode(enc), name)
+
+
+@pytest.mark.parametrize(
+    "header,unit,note",
+    [
+        ("wavelength [Å],v", 10.0, "Å"),
+        ("Wavelength (um),v", 0.001, "µm"),
+        ("lambda/nm,v", 1.0, None),
+    ],
+)
+def test_wavelength_units_from_header(header, unit, note):
+    s = _parse([header] + _rows(unit=unit))
+    np.testing.assert_allclose(s.wavelengths_nm, WL, rtol=0, atol=1e-9)
+    assert (note is None and s.notes[0] == ()) or any(note in n for n in s.notes[0])
+
+
+def test_wavelength_unit_from_metadata_line():
+    s = _parse(["Wavelength unit: micrometre", "Units: W/nm"] + _rows(unit=0.001))
+    np.testing.assert_allclose(s.wavelengths_nm, WL)
+    assert s.metadata[0]["lumeval.scale"] == "absolute"
+
+
+@pytest.mark.parametrize("nl", ["\n", "\r\n", "\r"])
+def test_line_endings_and_line_numbers(nl):
+    lines = ["nm;value"] + _rows("{w};{v}", dec=",")
+    lines[20] = lines[20].split(";")[0] + ";"
+    with pytest.raises(InputError) as info:
+        _parse(lines, nl=nl)
+    assert info.value.line == 21
+
+
+def test_whitespace_with_decimal_comma_and_latin1_metadata():
+    lines = ["# Gerät: Spektro", "# Einheit: relativ"] + _rows("{w}   {v}", dec=",")
+    s = _parse(lines, enc="latin-1")
+    assert s.metadata[0]["Gerät"] == "Spektro"
+    assert s.values.shape == (1, WL.size)
+
+
+def test_scale_relative_from_metadata():
+    s = _parse(["Spectral quantity: relative"] + _rows())
+    assert s.metadata[0]["lumeval.scale"] == "relative"
+
+
+def test_row_with_extra_cell_names_line():
+    lines = ["nm,a"] + _rows()
+    lines[5] += ",7"
+    with pytest.raises(InputError, match="more than the 2") as info:
+        _parse(lines)
+    assert info.value.line == 6
+
+
+def test_descending_wide_file_keeps_columns_together():
+    lines = ["nm,a,b"] + [f"{w},{w / 1000:.3f},{2 * w / 1000:.3f}" for w in WL[::-1]]
+    s = _parse(lines)
+    np.testing.assert_array_equal(s.wavelengths_nm, WL)
+    np.testing.assert_allclose(s.values[1], 2 * s.values[0])
+    np.testing.assert_allclose(s.values[0], WL / 1000)

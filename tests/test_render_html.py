@@ -330,3 +330,24 @@ def test_names_are_escaped(demo_eval):
     assert "&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; &quot;q&quot;" in text
     html5lib = pytest.importorskip("html5lib")
     html5lib.HTMLParser(strict=True).parse(text)
+
+
+def test_write_outputs_draws_once_and_checks_targets_first(demo_eval, tmp_path, monkeypatch):
+    calls = []
+    real = H.report_figures
+
+    def counting(*a, **k):
+        calls.append(1)
+        return real(*a, **k)
+
+    monkeypatch.setattr(H, "report_figures", counting)
+    out = H.write_outputs(demo_eval, html=tmp_path / "r.html", plots=tmp_path / "p", per_sample_max=1)
+    assert len(calls) == 1
+    assert (tmp_path / "r.html").exists() and len(list((tmp_path / "p").iterdir())) == 10
+    assert len(out) == 11
+    # a bad plots target: nothing drawn, nothing written (the HTML target is fine)
+    calls.clear()
+    with pytest.raises(UsageError):
+        H.write_outputs(demo_eval, html=tmp_path / "s.html", plots=tmp_path / "no" / "p")
+    assert calls == [] and not (tmp_path / "s.html").exists()
+    assert H.write_outputs(demo_eval) == []

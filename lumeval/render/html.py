@@ -15,9 +15,10 @@ width). Verdicts are given in words and symbols (✓ PASS, ✗ FAIL, ? INDETERMI
 
 Entry points
 ------------
-:func:`write_html_report` (the ``--html FILE`` option), :func:`write_plots` (the
-``--plots DIR`` option), :func:`render_html_report` (the HTML as a string) and
-:func:`report_figures` (the figures as matplotlib objects). All accept the same optional
+:func:`write_outputs` (both options in one call: targets checked first, figures drawn
+once), :func:`write_html_report` (the ``--html FILE`` option), :func:`write_plots` (the
+``--plots DIR`` option), :func:`validate_targets`, :func:`render_html_report` (the HTML as a
+string) and :func:`report_figures` (the figures as matplotlib objects). All accept the same optional
 inputs:
 
 ``verdicts``
@@ -509,6 +510,7 @@ def write_plots(
     lot=None,
     formats: Sequence[str] = ("svg", "png"),
     per_sample_max: int = PER_SAMPLE_MAX,
+    figures: Sequence[ReportFigure] | None = None,
 ) -> list[Path]:
     """Write every report figure as ``DIR/<key>.svg`` and ``DIR/<key>.png`` (each atomically).
 
@@ -526,8 +528,8 @@ def write_plots(
     bad = [f for f in formats if f not in ("svg", "png")]
     if bad:
         raise UsageError(f"unknown plot format(s) {bad}", field="--plots", fix="use svg and/or png")
-    figs = report_figures(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
-                          per_sample_max=per_sample_max)
+    figs = figures if figures is not None else report_figures(
+        evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, per_sample_max=per_sample_max)
     d.mkdir(exist_ok=True)
     out = []
     for f in figs:
@@ -551,6 +553,7 @@ def write_html_report(
     command: str | None = None,
     generated_at=None,
     per_sample_max: int = PER_SAMPLE_MAX,
+    figures: Sequence[ReportFigure] | None = None,
 ) -> Path:
     """Write the self-contained HTML report to ``path`` atomically; returns the path.
 
@@ -563,9 +566,45 @@ def write_html_report(
                          fix="give a file name, e.g. report.html")
     _check_target_dir(p.parent if str(p.parent) else Path("."), "HTML report", "--html")
     text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
-                              title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max)
+                              title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max,
+                              figures=figures)
     _atomic_write(p, text.encode("utf-8"))
     return p
+
+
+def write_outputs(
+    evaluation,
+    *,
+    html=None,
+    plots=None,
+    verdicts=None,
+    limits: Mapping | None = None,
+    regions=None,
+    lot=None,
+    inputs: Sequence | None = None,
+    title: str | None = None,
+    command: str | None = None,
+    per_sample_max: int = PER_SAMPLE_MAX,
+) -> list[Path]:
+    """The ``--html FILE`` and ``--plots DIR`` options in one call: check both targets, draw
+    the figures once, write the plots, then the report. Returns the paths written.
+
+    Raises :class:`lumeval.errors.UsageError` before drawing or writing anything when a target
+    cannot be used. Does nothing when both are None.
+    """
+    if html is None and plots is None:
+        return []
+    validate_targets(html=html, plots=plots)
+    figs = report_figures(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
+                          per_sample_max=per_sample_max)
+    out: list[Path] = []
+    if plots is not None:
+        out += write_plots(plots, evaluation, per_sample_max=per_sample_max, figures=figs)
+    if html is not None:
+        out.append(write_html_report(html, evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
+                                     inputs=inputs, title=title, command=command, per_sample_max=per_sample_max,
+                                     figures=figs))
+    return out
 
 
 # --------------------------------------------------------------------------- HTML
@@ -761,6 +800,7 @@ def render_html_report(
     command: str | None = None,
     generated_at=None,
     per_sample_max: int = PER_SAMPLE_MAX,
+    figures: Sequence[ReportFigure] | None = None,
 ) -> str:
     """The report as one HTML document (a string).
 
@@ -782,6 +822,9 @@ def render_html_report(
         Default: now.
     per_sample_max : int
         Up to this many spectra get their own charts.
+    figures : sequence of ReportFigure, optional
+        Figures already made by :func:`report_figures` with the same inputs (to draw them once
+        for both the report and ``--plots``).
     """
     from .provenance import collect_provenance, input_paths_from_sources
 
@@ -794,8 +837,8 @@ def render_html_report(
     names = list(ev.spectra.names)
     n = len(names)
     rows = verdict_rows(verdicts, names)
-    figs = report_figures(ev, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
-                          per_sample_max=per_sample_max)
+    figs = list(figures) if figures is not None else report_figures(
+        ev, verdicts=verdicts, limits=limits, regions=regions, lot=lot, per_sample_max=per_sample_max)
     if inputs is None:
         inputs = input_paths_from_sources(ev.spectra.sources)
         crit = _verdict_meta(verdicts)[1]

@@ -27,6 +27,7 @@ _API = {
     "Evaluation": "lumeval.engine",
     "inspect_files": "lumeval.commands.inspect",
     "load_criteria": "lumeval.criteria", "check": "lumeval.criteria", "load_claims": "lumeval.criteria", "check_files": "lumeval.commands.check",
+    "run_lot": "lumeval.commands.lot", "lot_statistics": "lumeval.lot", "lot_from_evaluation": "lumeval.lot",
     # metrics
     "planck_exitance": "lumeval.metrics.planck",
     "tristimulus": "lumeval.metrics.colorimetry",

@@ -173,3 +173,10 @@ def test_worked_example_of_the_docs_holds(tmp_path, capsys):
     for key in (("A", "Rf"), ("A", "Ra"), ("B", "Ra")):
         _, y, u, p = got[key + ("simple",)]
         assert f"{y:.3f}" in doc and f"{u:.3f}" in doc and f"{p:.3f}" in doc, key
+
+
+@pytest.mark.parametrize("opt", [["--draws", "50"], ["--seed", "-3"]])
+def test_bad_monte_carlo_options_are_exit_2_one_line(tmp_path, capsys, opt):
+    crit = write(tmp_path, "c.toml", CRIT.format(rule="simple", ra_min=80))
+    code, out, err = run(["check", A, "--criteria", crit, *opt], capsys)
+    assert code == 2 and out == "" and len(err.strip().splitlines()) == 1 and opt[0] in err

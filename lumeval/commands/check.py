@@ -83,7 +83,7 @@ def register(app: typer.Typer) -> None:
             show_default=False,
         ),
         seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws (default: the instrument or criteria file's, else 1).", show_default=False),
-        draws: int = typer.Option(None, "--draws", min=100, help="Monte Carlo draws per spectrum (default 2000).", show_default=False),
+        draws: int = typer.Option(None, "--draws", help="Monte Carlo draws per spectrum (default 2000).", show_default=False),
     ) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
         every requirement; 1: a requirement failed or is indeterminate under the decision rule

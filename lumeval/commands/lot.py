@@ -415,7 +415,7 @@ def register(app: typer.Typer) -> None:
             "large lots).", show_default=False,
         ),
         seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws.", show_default=False),
-        draws: int = typer.Option(None, "--draws", min=100, help="Monte Carlo draws per sample (default 2000).", show_default=False),
+        draws: int = typer.Option(None, "--draws", help="Monte Carlo draws per sample (default 2000).", show_default=False),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ..errors import UsageError

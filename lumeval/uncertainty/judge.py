@@ -80,7 +80,16 @@ def resolve_setup(criteria=None, instrument_path=None, *, seed: int | None = Non
             settings = file_settings
     if seed is not None:
         settings = dataclasses.replace(settings, seed=int(seed))
+    if seed is not None and int(seed) < 0:
+        from ..errors import UsageError
+
+        raise UsageError(f"--seed {seed} is negative", fix="give a seed ≥ 0")
     if draws is not None:
+        if not 100 <= int(draws) <= 1_000_000:
+            from ..errors import UsageError
+
+            raise UsageError(f"--draws {draws} is outside 100 … 1000000",
+                             fix="use at least 100 draws (2000 gives u to about ±1.6 %)")
         settings = dataclasses.replace(settings, draws=int(draws))
     if rule.guarded and instrument is None:
         notes.append("no instrument model given: lumeval's documented default model was used (docs/uncertainty.md)")

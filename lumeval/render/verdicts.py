@@ -133,6 +133,8 @@ def check_renderables(result) -> list:
     from rich.text import Text
 
     out = [_header("Acceptance check", result.criteria_file, result.identification)]
+    for note in getattr(result, "notes", ()):
+        out.append(Text(f"note: {note}", style="dim"))
     if getattr(result, "uncertainty", None):
         out.append(_uncertainty_text(result.uncertainty))
     if len(result.names) > DETAIL_MAX:
@@ -202,7 +204,7 @@ def _with_uncertainty(r, i: int, meas: str, res_cell):
     u = float(r.uncertainty[i])
     if not math.isfinite(u):
         return meas + "\n± n/a", res_cell
-    big_u = float(r.details.get("U", [2 * u] * (i + 1))[i])
+    big_u = float(r.details["U"][i]) if "U" in r.details else 2.0 * u
     if r.kind == "ansi_quadrangle":
         meas += f"\nΔu'v' ± {big_u:.1g}" if big_u < 1e-4 else f"\nΔu'v' ± {big_u:.4f}"
     elif r.kind == "sdcm":
@@ -385,6 +387,7 @@ def check_record(result) -> dict:
         "overall": result.overall,
         "exit_code": result.exit_code,
         "uncertainty": getattr(result, "uncertainty", None) or None,
+        "notes": list(getattr(result, "notes", ())),
         "spectra": spectra,
         "cautions": list(CAUTIONS),
     }

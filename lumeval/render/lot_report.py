@@ -441,16 +441,19 @@ def _result_text(text, ok):
 
 
 def _verdict_line(run) -> str:
-    code = run.exit_code
     if run.check is None and not run.lot_results:
         base = "No criteria given: statistics only, nothing judged."
     elif run.failed:
-        base = "Lot verdict: FAIL."
+        outcomes = [r.outcome for r in run.lot_results]
+        v = run.sample_verdicts
+        if v is not None and not run.has_yield_clause:
+            outcomes += list(v)
+        base = "Lot verdict: FAIL." if "fail" in outcomes else "Lot verdict: NOT PASSED (a requirement could not be judged)."
     else:
         base = "Lot verdict: PASS."
     if run.unreadable:
         base += f" {len(run.unreadable)} input(s) could not be read, so the lot is not fully judged (exit code 2)."
-    return base if code != 0 or run.unreadable else base
+    return base
 
 
 def print_lot(run, console=None) -> None:

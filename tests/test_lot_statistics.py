@@ -212,3 +212,26 @@ def test_nan_chromaticity_is_left_out():
     assert np.isnan(st.d_upvp_centroid[3]) and np.isfinite(st.d_upvp_centroid[[0, 1, 2, 4]]).all()
     ok = np.arange(10) != 3
     assert st.max_pairwise_d_upvp == pytest.approx(pdist(lot.upvp_from_xy(xy[ok])).max(), rel=1e-12)
+
+
+# --------------------------------------------------------------------------- property checks
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as hs  # noqa: E402
+from hypothesis.extra.numpy import arrays  # noqa: E402
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    arrays(
+        float,
+        hs.tuples(hs.integers(1, 60), hs.just(2)),
+        # coarse values make duplicates and collinear sets frequent (Qhull's degenerate cases)
+        elements=hs.sampled_from([0.0, 0.001, 0.002, 0.0025, 0.003, 0.01, -0.004]),
+    )
+)
+def test_max_pairwise_matches_all_pairs_on_degenerate_sets(P):
+    d, i, j = lot.max_pairwise_distance(P)
+    ref = pdist(P).max() if P.shape[0] > 1 else 0.0
+    assert d == pytest.approx(ref, rel=1e-12, abs=1e-15)
+    assert np.linalg.norm(P[i] - P[j]) == pytest.approx(ref, rel=1e-12, abs=1e-15)

@@ -332,3 +332,12 @@ def test_explain_every_region_kind(tmp_path, capsys):
     assert "MacAdam (1942) ellipse 14" in out and "Wyszecki & Stiles" in out
     assert "user ellipse" in out and "g11 = 3.9e+05" in out
     assert "Fidelity priority level 1 (F1): Rf ≥ 95; Rf_h1 ≥ 90" in out
+
+
+def test_check_notes_lot_clauses_it_does_not_judge(tmp_path, capsys, spectra_dir):
+    crit = write(tmp_path, GOOD + "[[clause]]\nid='yield'\nkind='lot_yield'\nmin_percent=95\n")
+    code, out, err = run(["check", spectra_dir / "planck3000.csv", "--criteria", crit, "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    assert any("'yield'" in n and "lumeval lot" in n for n in doc["notes"])
+    assert [c["id"] for c in doc["spectra"][0]["clauses"]] == ["chroma", "Ra", "R9"]

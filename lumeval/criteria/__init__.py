@@ -19,6 +19,10 @@ from .loader import load_criteria, parse_criteria
 from .model import CLAUSE_KINDS, ClauseKind, Criteria, register_clause_kind
 from .verdicts import FAIL, INDETERMINATE, NOT_JUDGED, PASS, CheckResult, ClauseResult
 
+# Lot clause kinds (SCOPE = "lot") are registered with the package, so that every reader of a
+# criteria file — `check`, `lot`, `criteria explain` — knows the same kinds.
+from . import lot_clauses  # noqa: E402,F401
+
 
 def check(evaluation, criteria: Criteria) -> CheckResult:
     """Judge ``criteria`` for every spectrum of ``evaluation`` (see :meth:`Criteria.evaluate`)."""

@@ -651,8 +651,11 @@ class Criteria:
         from .verdicts import CheckResult
 
         results: list[ClauseResult] = []
+        notes: list[str] = []
         for c in self.clauses:
             if c.SCOPE != "sample":
+                notes.append(f"clause {c.clause_id!r} (kind {c.KIND!r}) applies to a whole {c.SCOPE}: it is judged by "
+                             f"`lumeval {c.SCOPE}`, not per spectrum")
                 continue
             results.extend(c.evaluate(ev))
         n = len(np.asarray(ev.x))
@@ -660,5 +663,5 @@ class Criteria:
         spectra = getattr(ev, "spectra", None)
         sources = tuple(getattr(spectra, "sources", None) or ("",) * n)
         warnings = tuple(getattr(ev, "warnings", None) or ((),) * n)
-        return CheckResult(names, sources, warnings, tuple(results), dict(self.identification), self.file)
+        return CheckResult(names, sources, warnings, tuple(results), dict(self.identification), self.file, notes=tuple(notes))
 

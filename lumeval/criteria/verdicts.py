@@ -175,6 +175,8 @@ class CheckResult:
     #: Instrument model, Monte Carlo settings, decision rule and headline uncertainties when
     #: the check ran under uncertainty (lumeval.uncertainty.judge); empty otherwise.
     uncertainty: dict = field(default_factory=dict)
+    #: Notes about the check as a whole (e.g. lot clauses that ``check`` does not judge).
+    notes: tuple[str, ...] = ()
 
     def __len__(self) -> int:
         return len(self.names)

@@ -341,3 +341,26 @@ def test_check_notes_lot_clauses_it_does_not_judge(tmp_path, capsys, spectra_dir
     doc = json.loads(out)
     assert any("'yield'" in n and "lumeval lot" in n for n in doc["notes"])
     assert [c["id"] for c in doc["spectra"][0]["clauses"]] == ["chroma", "Ra", "R9"]
+
+
+def test_demo_scenario_outcomes_match_the_docs(capsys):
+    """docs/criteria.md describes the demo: A passes, B fails on R9 only, D fails only the
+    quadrangle, C's datasheet over-claims (Ra, R9, Rf, Rg contradicted; CCT supported)."""
+    root = Path(__file__).resolve().parents[1] / "spectra_demo"
+    files = sorted((root / "downlights").glob("candidate_*.csv"))
+    assert len(files) == 5
+    code, out, _ = run(["check", *files, "--criteria", root / "tender_criteria.toml", "--format", "json"], capsys)
+    assert code == 1
+    doc = json.loads(out)
+    failed = {s["name"][:11]: [c["id"] for c in s["clauses"] if c["outcome"] != "pass"] for s in doc["spectra"]}
+    assert failed["candidate_A"] == []
+    assert failed["candidate_B"] == ["R9"]
+    assert failed["candidate_D"] == ["chromaticity"]
+    assert set(failed["candidate_C"]) == {"Ra", "R9", "Rf", "Rg"}
+    code, out, _ = run(["claims", root / "downlights" / "candidate_C_claritas_3000K.csv", "--claims", root / "supplier_claims.toml",
+                        "--format", "json"], capsys)
+    assert code == 1
+    oc = {c["key"]: c["outcome"] for c in json.loads(out)["spectra"][0]["claims"]}
+    assert oc["cct_K"] == "supported" and oc["duv"] == "supported"
+    assert {k for k, v in oc.items() if v == "contradicted"} == {"Ra", "R9", "Rf", "Rg"}
+    assert oc["luminous_flux_lm"] == oc["lifetime_h"] == "not checkable"

@@ -109,6 +109,16 @@ BAD = [
     ("[[clause]]\nkind = 'tm30_design_intent'\nlevel = 'p1'\n", 3, "level", ["did you mean 'P1'"]),
     ("[[clause]]\nkind = 'tm30_design_intent'\n", 1, None, ["needs `level`"]),
     ("clause = 3\n", 1, "clause", ["array of tables"]),
+    ("clause = []\n", None, None, ["no clauses"]),
+    ("identification = 3\n[[clause]]\nfigure='Ra'\nmin=1\n", 1, "identification", ["must be a table"]),
+    ("[identification]\nproject = [1]\n[[clause]]\nfigure='Ra'\nmin=1\n", 2, "project", ["single value"]),
+    ("[[clause]]\nkind = 'figure'\nmin = 1\n", 1, None, ["needs `figure`"]),
+    ("[[clause]]\nfigure = 9\nmin = 1\n", 2, "figure", ["figure name in quotes"]),
+    ("[[clause]]\nfigure = 'Ra'\nrange = [nan, 1]\n", 3, "range", ["finite"]),
+    ("[[clause]]\nnote = 1\nfigure = 'Ra'\nmin = 1\n", 2, "note", ["must be a string"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\nnominal_cct = 'flexible'\ntarget_cct_K = 3800\ntolerance_K = 0\n", 5, "tolerance_K", ["greater than zero"]),
+    ("[[clause]]\nkind = 'ansi_quadrangle'\nnominal_cct = true\n", 3, "nominal_cct", ["not a nominal CCT category"]),
+    ("[[clause]]\nkind = 'sdcm'\ncentre = 3000\nmax_steps = 3\n", 3, "centre", ["must be a string"]),
 ]
 
 
@@ -129,6 +139,13 @@ def test_every_loader_error_through_the_cli(tmp_path, capsys, text, line, key, w
     for w in words:
         assert w in msg, msg
     assert " — " in msg  # every message says what would fix it
+
+
+def test_non_utf8_criteria_file(tmp_path, capsys):
+    p = tmp_path / "latin1.toml"
+    p.write_bytes("[identification]\nproject = 'Caf\u00e9'\n".encode("latin-1"))
+    code, out, err = run(["criteria", "explain", p], capsys)
+    assert code == 2 and out == "" and "UTF-8" in err and len(err.strip().splitlines()) == 1
 
 
 def test_missing_and_directory_criteria_files(tmp_path, capsys):

@@ -381,3 +381,18 @@ def test_demo_scenario_outcomes_match_the_docs(capsys):
     assert oc["cct_K"] == "supported" and oc["duv"] == "supported"
     assert {k for k, v in oc.items() if v == "contradicted"} == {"Ra", "R9", "Rf", "Rg"}
     assert oc["luminous_flux_lm"] == oc["lifetime_h"] == "not checkable"
+
+
+@pytest.mark.parametrize(
+    "text,words",
+    [("[supplier]\nname = 'x'\n", ["no claims"]), ("[claims\nRa = 1\n", ["not valid TOML"]),
+     ("lumeval_claims = 3\n[claims]\nRa = 90\n", ["unsupported format version"])],
+)
+def test_claims_file_level_errors(tmp_path, capsys, spectra_dir, text, words):
+    p = write(tmp_path, text, "claims.toml")
+    code, out, err = run(["claims", spectra_dir / "planck3000.csv", "--claims", p], capsys)
+    assert code == 2 and out == "" and len(err.strip().splitlines()) == 1 and str(p) in err
+    for w in words:
+        assert w in err
+    code, _, err = run(["claims", spectra_dir / "planck3000.csv", "--claims", tmp_path / "missing.toml"], capsys)
+    assert code == 2 and "no such file" in err

@@ -180,3 +180,13 @@ def test_bad_monte_carlo_options_are_exit_2_one_line(tmp_path, capsys, opt):
     crit = write(tmp_path, "c.toml", CRIT.format(rule="simple", ra_min=80))
     code, out, err = run(["check", A, "--criteria", crit, *opt], capsys)
     assert code == 2 and out == "" and len(err.strip().splitlines()) == 1 and opt[0] in err
+
+
+def test_html_report_shows_u_p_and_rule(tmp_path, capsys):
+    crit = write(tmp_path, "c.toml", CRIT.format(rule="guarded-acceptance", ra_min=91.55))
+    inst = write(tmp_path, "i.toml", INST)
+    html = tmp_path / "r.html"
+    code, out, err = run(["check", A, "--criteria", crit, "--instrument", inst, "--html", html, "--format", "json"], capsys)
+    assert code == 1
+    text = html.read_text(encoding="utf-8")
+    assert "guarded acceptance" in text and "p_c" in text and "± " in text and "INDETERMINATE" in text

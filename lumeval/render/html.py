@@ -100,6 +100,10 @@ class VerdictRow:
     margin: float | None
     outcome: str
     reason: str = ""
+    #: Expanded uncertainty U = k·u of the judged quantity and the probability of conformance,
+    #: when the check ran under measurement uncertainty (lumeval.uncertainty).
+    expanded_uncertainty: float | None = None
+    p_conformance: float | None = None
 
 
 def _get(obj, *names, default=None):
@@ -148,6 +152,8 @@ def _expand_check(check, names: Sequence[str]) -> list[VerdictRow]:
         measured = np.atleast_1d(np.asarray(r.measured, dtype=float))
         margin = np.atleast_1d(np.asarray(r.margin, dtype=float))
         reason = tuple(getattr(r, "reason", ()) or ())
+        big_u = (getattr(r, "details", None) or {}).get("U")
+        p_c = getattr(r, "p_conformance", None)
         for i, o in enumerate(outcome):
             rows.append(
                 VerdictRow(
@@ -162,6 +168,8 @@ def _expand_check(check, names: Sequence[str]) -> list[VerdictRow]:
                     margin=float(margin[i]) if i < margin.size else None,
                     outcome=_outcome_of({"outcome": o}),
                     reason=reason[i] if i < len(reason) else "",
+                    expanded_uncertainty=_opt_float(big_u[i]) if big_u is not None and i < len(big_u) else None,
+                    p_conformance=_opt_float(p_c[i]) if p_c is not None and i < len(p_c) else None,
                 )
             )
     return rows
@@ -740,6 +748,12 @@ def _measured_text(r: VerdictRow) -> tuple[str, str]:
     finite = isinstance(r.measured, (int, float)) and math.isfinite(float(r.measured))
     meas = _num(r.measured) + (unit if finite else "")
     marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else _num(r.margin, "+g") + unit
+    if r.expanded_uncertainty is not None and math.isfinite(r.expanded_uncertainty):
+        # the clause's judged quantity (for a chromaticity region: its Δu'v' margin) ± U
+        marg += f" ± {_num(r.expanded_uncertainty, '.2g')}{unit}"
+        if r.p_conformance is not None and math.isfinite(r.p_conformance):
+            p = r.p_conformance
+            marg += f", p_c {'< 0.001' if p < 0.001 else ('> 0.999' if p > 0.999 else format(p, '.3f'))}"
     return meas, marg
 
 
@@ -889,6 +903,12 @@ def render_html_report(
             if len(items) > len(shown_items):
                 body.append(f'<p class="sub">{len(shown_items)} of {len(items)} samples listed (failed first); '
                             "every sample's verdict is in the JSON and CSV outputs.</p>")
+        unc = _get(verdicts, "uncertainty") if _is_check_result(verdicts) else None
+        if unc:
+            inst = unc.get("instrument", {})
+            body.append(f'<p class="sub">{_e(unc.get("rule_text", ""))} Margins are shown ± U (expanded uncertainty '
+                        f'from the Monte Carlo propagation of the instrument model {_e(inst.get("name") or inst.get("source", ""))}, '
+                        "JCGM 101:2008); p_c is the probability of conformance (JCGM 106:2012). See docs/uncertainty.md.</p>")
         body.append(_checks_html(rows, per_sample_max))
     body.append("</section>")
 

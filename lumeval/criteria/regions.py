@@ -47,8 +47,10 @@ tangent dv/du at T (positive Duv above the locus, ANSI C78.377 convention).
 SDCM ellipses: n steps = ``sqrt(g11 Δx² + 2 g12 Δx Δy + g22 Δy²)`` in CIE 1931 (x, y)
 (MacAdam 1942; the form IEC 60081 uses). Centres of the IEC 60081 fluorescent-lamp colours are
 from the project's reference notes (secondary). The coefficients g11, g12, g22 are **secondary
-/ memory**: recalled as IEC 60081 Annex D values and found identical in a public code
-transcription (see ``IEC60081_SOURCE``); we have not read IEC 60081 itself. MacAdam (1942)
+/ memory**: recalled as IEC 60081 Annex D values; those of F6500, F5000 and F4000 are identical
+in three independent public code transcriptions found with the project's search tool (index
+file ids 42270621401, 35090749065, 35805597679), those of F3500, F3000 and F2700 in one
+(42270621401). We have not read IEC 60081 itself. MacAdam (1942)
 ellipses (observer PGN) are taken from colour-science's copy of Wyszecki & Stiles (2000)
 Table 2(5.4.1), which gives semi-axes a, b (in units of 1e-3) and the major-axis angle θ; one
 MacAdam ellipse is one standard deviation of colour matching, i.e. 1 step.
@@ -329,8 +331,8 @@ def _signed_distance_chunk(V: np.ndarray, P: np.ndarray) -> np.ndarray:
 
 IEC60081_SOURCE = (
     "IEC 60081 colour centres and tolerance-ellipse coefficients g11, g12, g22 (secondary: recalled as "
-    "IEC 60081 Annex D and identical to a public code transcription, search-index file 42270621401; "
-    "the standard itself was not read)"
+    "IEC 60081 Annex D; F6500, F5000 and F4000 identical in three independent public code transcriptions, "
+    "F3500, F3000 and F2700 in one; the standard itself was not read)"
 )
 MACADAM_SOURCE = (
     "MacAdam (1942) JOSA 32(5):247, ellipses of observer PGN as tabulated in Wyszecki & Stiles (2000) "

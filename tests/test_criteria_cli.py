@@ -348,7 +348,7 @@ def test_explain_every_region_kind(tmp_path, capsys):
     assert "flexible-CCT quadrangle for 3800 K" in out
     assert "MacAdam (1942) ellipse 14" in out and "Wyszecki & Stiles" in out
     assert "user ellipse" in out and "g11 = 3.9e+05" in out
-    assert "Fidelity priority level 1 (F1): Rf ≥ 95; Rf_h1 ≥ 90" in out
+    assert "Fidelity priority level 1 (F1): Rf ≥ 95; Rf,h1 ≥ 90" in out
 
 
 def test_check_notes_lot_clauses_it_does_not_judge(tmp_path, capsys, spectra_dir):

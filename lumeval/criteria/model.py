@@ -56,6 +56,22 @@ for _j in range(1, 17):
     FIGURE_DESCRIPTIONS[f"Rhs_h{_j}"] = (f"local hue shift Rhs,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
 
 
+#: How a figure is written for people (the trade's notation); the file uses the figure names.
+_DISPLAY = {"cct_K": "CCT", "duv": "Duv", "u_prime": "u'", "v_prime": "v'", "ler_lm_per_W": "LER",
+            "sp_ratio": "S/P", "melanopic_der": "melanopic DER", "peak_nm": "peak wavelength", "dc": "DC",
+            "cie2017_Rf": "Rf (CIE 224)"}
+
+
+def display_name(name: str) -> str:
+    """E.g. ``cct_K`` -> ``CCT``, ``Rcs_h1`` -> ``Rcs,h1``."""
+    if name in _DISPLAY:
+        return _DISPLAY[name]
+    for p in ("Rf_h", "Rcs_h", "Rhs_h"):
+        if name.startswith(p):
+            return f"{p[:-2]},h{name[len(p):]}"
+    return name
+
+
 def figure_unit(name: str) -> str:
     return FIGURE_UNITS.get(name, "")
 
@@ -298,7 +314,7 @@ class FigureClause(ClauseKind):
         if lo is not None and hi is not None and lo > hi:
             raise ParseError("min", f"min = {lo:g} is above max = {hi:g}", "the limits contradict each other; swap or correct them")
         unit = figure_unit(fig)
-        label = common["label"] or f"{fig} {limit_text(lo, hi, unit)}"
+        label = common["label"] or f"{display_name(fig)} {limit_text(lo, hi, unit)}"
         return cls(common["id"], label, common["note"], common["line"], fig, lo, hi)
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
@@ -599,7 +615,7 @@ class Tm30DesignIntentClause(ClauseKind):
                 figure_result(
                     ev,
                     clause_id=f"{self.clause_id}:{c.figure}",
-                    label=f"{self.level}: {c.figure} {limit_text(c.lower, c.upper, unit)}",
+                    label=f"{self.level}: {display_name(c.figure)} {limit_text(c.lower, c.upper, unit)}",
                     kind=self.KIND,
                     figure=c.figure,
                     lower=c.lower,
@@ -614,7 +630,7 @@ class Tm30DesignIntentClause(ClauseKind):
     def tender_text(self) -> str:
         parts = []
         for c in presets.effective_conditions(self.level):
-            parts.append(f"{c.figure} {limit_text(c.lower, c.upper, figure_unit(c.figure))}")
+            parts.append(f"{display_name(c.figure)} {limit_text(c.lower, c.upper, figure_unit(c.figure))}")
         return (
             f"The light source shall meet ANSI/IES TM-30-20 Annex E, {presets.level_title(self.level)}: "
             + "; ".join(parts)

@@ -9,7 +9,9 @@ ANSI/IES TM-30-20, *IES Method for Evaluating Light Source Color Rendition*, Ann
 thresholds below were not read in the Annex itself; they agree exactly between the project's
 reference notes and the independent table in luxpy 1.12.5 (``_IES_TM30_ANNEX_E_TABLE``,
 documented there as "Annex E table (default as published)"); the test suite checks our
-presets against luxpy's classifier. Values are compared unrounded (lumeval does not round
+presets against luxpy's classifier. P1 also matches the TM-30-20 option of a green-building
+rating system's quality-lighting credit as quoted in a public document ("Rf ≥ 78, Rg ≥ 95,
+Rcs,h1: −1 % to 15 %"). Values are compared unrounded (lumeval does not round
 Rf, Rg or Rcs,h1 before comparing; a reported Rf of 77.96 does not meet Rf ≥ 78).
 
 Levels are nested: priority level 1 is the most demanding, and a source meets level k only

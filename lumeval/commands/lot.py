@@ -34,8 +34,9 @@ import typer
 
 #: Spectra evaluated together (bounded memory; the engine chunks further inside).
 BATCH_SPECTRA = 2048
-#: Engine chunk size for lots: 1024 spectra per array computation measured 1.3-1.5x faster than
-#: 256 on the project machine (bench/benchmark.py) at about 150 MB more peak memory.
+#: Engine chunk size for lots. bench/benchmark.py found 1024 as fast as the engine's default
+#: 256 in CPU time (and faster in wall time in one lightly loaded run); the 100,000-spectrum
+#: lot peaked at 593 MB with it (docs/lots.md).
 ENGINE_CHUNK = 1024
 #: File extensions taken from folders.
 SPECTRUM_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".xml", ".spdx", ".tm27", ".json")

@@ -45,17 +45,23 @@ def _lines(fig, gid_prefix):
 
 @pytest.fixture(scope="module")
 def colour_locus(colour):
-    """Planckian locus in CIE 1960 uv from colour-science: Planck's law (its c2 = 1.4388e-2),
-    CIE 1931 2° CMFs at 1 nm over 360-830 nm, summed by ``sd_to_XYZ``."""
+    """Planckian locus in CIE 1960 uv from colour-science's ``planck_law`` (its c2 = 1.4388e-2
+    m K) and its CIE 1931 2° CMF table at 1 nm over 360-830 nm (plain sum; k cancels in uv)."""
     cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
-    shape = colour.SpectralShape(360, 830, 1)
+    wl = np.asarray(cmfs.wavelengths, float)
     T = np.geomspace(950.0, 21000.0, 3000)
-    uv = []
-    for t in T:
-        sd = colour.sd_blackbody(t, shape)
-        XYZ = colour.sd_to_XYZ(sd, cmfs=cmfs.copy().align(shape), method="Integration")
-        uv.append(colour.UCS_to_uv(colour.XYZ_to_UCS(XYZ)))
-    return T, np.asarray(uv)
+    S = colour.colorimetry.planck_law(wl * 1e-9, T)  # shape (W, T) in colour-science 0.4.7
+    XYZ = S.T @ np.asarray(cmfs.values, float)
+    uv = colour.UCS_to_uv(colour.XYZ_to_UCS(XYZ))
+    # spot check against the per-spectrum path (sd_blackbody + sd_to_XYZ) at two temperatures
+    for t in (2856.0, 6500.0):
+        sd = colour.sd_blackbody(t, colour.SpectralShape(360, 830, 1))
+        ref = colour.UCS_to_uv(colour.XYZ_to_UCS(colour.sd_to_XYZ(sd, cmfs=cmfs, method="Integration")))
+        k = int(np.argmin(abs(T - t)))
+        S1 = colour.colorimetry.planck_law(wl * 1e-9, t) @ np.asarray(cmfs.values, float)
+        np.testing.assert_allclose(colour.UCS_to_uv(colour.XYZ_to_UCS(S1)), ref, atol=1e-9)
+        assert np.hypot(*(uv[k] - ref)) < 2e-4  # neighbouring table entry
+    return T, uv
 
 
 def _dist_to_polyline(points, poly):

@@ -85,8 +85,8 @@ def test_locus_points_lie_on_an_independent_planckian_locus(diagram, colour_locu
     line = _lines(diagram, "planckian-locus")["planckian-locus"]
     assert line.shape[0] >= 100
     d = _dist_to_polyline(line, colour_locus[1])
-    # colour-science's locus, 3000 steps: polyline chord error < 1e-7; measured max 2e-8
-    assert d.max() < 2e-6, d.max()
+    # colour-science's locus, 3000 steps: polyline chord error < 1e-7; measured max 1.3e-8
+    assert d.max() < 1e-6, d.max()
     # and the line spans the reporting range of CCT (1000-20000 K): its ends are at those temperatures
     cct = [colour.temperature.uv_to_CCT_Ohno2013(p)[0] for p in line[[0, -1]]]
     assert cct[0] == pytest.approx(1000, abs=2) and cct[1] == pytest.approx(20000, abs=20)
@@ -104,8 +104,9 @@ def test_isotemperature_lines_have_constant_cct_and_duv_equal_to_the_offset(diag
             if abs(offset) > 0.03:  # Ohno 2014 states its accuracy within |Duv| <= 0.03
                 continue
             cct, duv = colour.temperature.uv_to_CCT_Ohno2013(p)
-            assert cct == pytest.approx(T, abs=1.0 + 2e-4 * T), (gid, offset, cct)
-            assert duv == pytest.approx(offset, abs=2e-5), (gid, offset, duv)
+            # measured: |ΔCCT| <= 0.05 K, |ΔDuv| <= 7e-7 (colour-science's own Ohno error is ~0.07 K)
+            assert cct == pytest.approx(T, abs=0.5), (gid, offset, cct)
+            assert duv == pytest.approx(offset, abs=5e-6), (gid, offset, duv)
 
 
 def test_constant_duv_lines_have_that_duv(diagram, colour):
@@ -119,7 +120,7 @@ def test_constant_duv_lines_have_that_duv(diagram, colour):
         for p in pts[50:-50:25]:
             cct, duv = colour.temperature.uv_to_CCT_Ohno2013(p)
             if 1500 <= cct <= 15000:
-                assert duv == pytest.approx(d, abs=2e-5), (gid, cct, duv)
+                assert duv == pytest.approx(d, abs=5e-6), (gid, cct, duv)  # measured max 7e-7
                 checked += 1
     assert checked > 20
 

@@ -28,6 +28,7 @@ _API = {
     "inspect_files": "lumeval.commands.inspect",
     "load_criteria": "lumeval.criteria", "check": "lumeval.criteria", "load_claims": "lumeval.criteria", "check_files": "lumeval.commands.check",
     "run_lot": "lumeval.commands.lot", "lot_statistics": "lumeval.lot", "lot_from_evaluation": "lumeval.lot",
+    "write_html_report": "lumeval.render.html", "write_plots": "lumeval.render.html", "write_outputs": "lumeval.render.html",
     # metrics
     "planck_exitance": "lumeval.metrics.planck",
     "tristimulus": "lumeval.metrics.colorimetry",

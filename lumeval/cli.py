@@ -32,6 +32,7 @@ app = typer.Typer(
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
+    rich_markup_mode=None,
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 
@@ -50,30 +51,36 @@ for _name in _COMMAND_MODULES:
 
 
 def main(argv: list[str] | None = None) -> None:
-    """Console entry point: run the app, turning lumeval errors into exit code 2."""
+    """Console entry point.
+
+    Exit codes: 0 everything passed (or nothing was judged), 1 a criterion failed or is
+    indeterminate, 2 bad input or usage (one clean line on stderr, never a traceback), 3 an
+    internal error (a bug: one line asking for a report; ``--debug`` shows the traceback).
+    """
     from .errors import LumevalError
 
-    debug = "--debug" in (argv if argv is not None else sys.argv[1:])
+    args = list(argv if argv is not None else sys.argv[1:])
+    debug = "--debug" in args
     try:
-        app(args=argv, standalone_mode=False)
+        # standalone mode: the argument parser reports usage errors itself (exit 2) and
+        # typer.Exit(code) ends with that code
+        app(args=args, prog_name="lumeval", standalone_mode=True)
     except LumevalError as exc:
         if debug:
             raise
         print(f"lumeval: error: {exc.message}", file=sys.stderr)
         sys.exit(2)
-    except SystemExit:
-        raise
     except KeyboardInterrupt:
         print("lumeval: interrupted", file=sys.stderr)
         sys.exit(130)
-    except Exception as exc:  # click usage errors and the like
-        import click
-
-        if isinstance(exc, click.exceptions.Exit):
-            sys.exit(exc.exit_code)
-        if isinstance(exc, click.ClickException):
-            exc.show()
-            sys.exit(2)
-        if isinstance(exc, click.exceptions.Abort):
-            sys.exit(130)
+    except SystemExit:
         raise
+    except Exception as exc:  # a bug, not bad input: still no traceback unless asked for
+        if debug:
+            raise
+        print(
+            f"lumeval: internal error: {type(exc).__name__}: {exc} "
+            "(please report it with the output of the same command run with --debug)",
+            file=sys.stderr,
+        )
+        sys.exit(3)

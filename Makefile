@@ -14,9 +14,28 @@ $(STAMP): pyproject.toml
 
 venv: $(STAMP)
 
+# The demo scenario (invented): five candidate downlights for a library renovation, a tender
+# criteria file, one supplier's datasheet claims, and a 200-module production lot. Verdicts that
+# fail by design exit 1; the `|| test $$? -eq 1` lets the demo go on (exit 2 would still stop it).
+DEMO_OUT := spectra_demo/out
+LUMEVAL := $(VENV)/bin/lumeval
+
 demo: $(STAMP)
 	$(PY) spectra_demo/generate.py
-	$(VENV)/bin/lumeval inspect spectra_demo/downlights/*.csv
+	$(PY) spectra_demo/generate_lot.py
+	mkdir -p $(DEMO_OUT)
+	@echo; echo "== 1. Every figure for the five candidate downlights =="
+	$(LUMEVAL) inspect spectra_demo/downlights/*.csv
+	@echo; echo "== 2. The candidates against the tender criteria (HTML report: $(DEMO_OUT)/tender_report.html) =="
+	$(LUMEVAL) check spectra_demo/downlights/*.csv --criteria spectra_demo/tender_criteria.toml \
+		--html $(DEMO_OUT)/tender_report.html || test $$? -eq 1
+	@echo; echo "== 3. One supplier's datasheet claims against its own spectrum =="
+	$(LUMEVAL) claims spectra_demo/downlights/candidate_C_claritas_3000K.csv \
+		--claims spectra_demo/supplier_claims.toml || test $$? -eq 1
+	@echo; echo "== 4. A production lot of 200 modules (HTML report: $(DEMO_OUT)/lot_report.html) =="
+	$(LUMEVAL) lot spectra_demo/lot_2026w48 --criteria spectra_demo/lot_criteria.toml --quiet \
+		--html $(DEMO_OUT)/lot_report.html --samples-csv $(DEMO_OUT)/lot_samples.csv || test $$? -eq 1
+	@echo; echo "Reports written to $(DEMO_OUT)/ (open the .html files in a browser)."
 
 test: $(STAMP)
 	$(PY) -m pytest

@@ -88,16 +88,16 @@ def register(app: typer.Typer) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
         every requirement; 1: a requirement failed or is indeterminate under the decision rule
         (never a pass); 2: bad input."""
+        if html is not None or plots is not None:
+            from ..render.html import validate_targets
+
+            validate_targets(html=html, plots=plots)  # before any work: a bad target writes nothing
         crit, ev, result = run_check(files, criteria, instrument, seed=seed, draws=draws)
         if html is not None or plots is not None:
-            from ..render.html import regions_from_criteria, write_html_report, write_plots
+            from ..render.html import regions_from_criteria, write_outputs
 
-            regions = regions_from_criteria(crit)
-            if html is not None:
-                write_html_report(html, ev, verdicts=result, regions=regions, inputs=[*files, criteria],
-                                  command="lumeval " + " ".join(sys.argv[1:]))
-            if plots is not None:
-                write_plots(plots, ev, verdicts=result, regions=regions)
+            write_outputs(ev, html=html, plots=plots, verdicts=result, regions=regions_from_criteria(crit),
+                          inputs=[*files, criteria], command="lumeval " + " ".join(sys.argv[1:]))
         if output_format is OutputFormat.json:
             from ..render.verdicts import check_to_json
 

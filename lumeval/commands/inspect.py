@@ -40,6 +40,8 @@ def register(app: typer.Typer) -> None:
             False, "--validate-only", help="Only read and check the files: list what reading did (sorted, clipped, "
             "interpolated, extrapolated) or why a file is refused; compute nothing. Exit 2 if any file is refused."
         ),
+        html: Path = typer.Option(None, "--html", help="Also write a self-contained HTML report to this file."),
+        plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
     ) -> None:
         """Compute every colour-quality figure for each spectrum and print them."""
         if validate_only:
@@ -53,7 +55,17 @@ def register(app: typer.Typer) -> None:
 
                 raise InputError(f"{failed} of {len(checks)} entries refused by the readers", fix="see the report above")
             return
+        if html is not None or plots is not None:
+            from ..render.html import validate_targets
+
+            validate_targets(html=html, plots=plots)  # before any work: a bad target writes nothing
         ev = inspect_files(files)
+        if html is not None or plots is not None:
+            import sys
+
+            from ..render.html import write_outputs
+
+            write_outputs(ev, html=html, plots=plots, inputs=list(files), command="lumeval " + " ".join(sys.argv[1:]))
         if output_format is OutputFormat.json:
             from ..render.tables import to_json
 

@@ -397,6 +397,31 @@ def _write_atomic(path: Path, write: Callable) -> None:
             tmp.unlink()
 
 
+def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
+    """Draw the lot: evaluate the judged samples once more (the lot run keeps only their
+    figures, not their spectra) and hand them with the lot statistics and verdicts to the HTML
+    report and plots."""
+    from ..engine import evaluate
+    from ..render.html import regions_from_criteria, write_outputs
+    from ..spectra.prepare import prepare
+    from ..spectra.read import read_many
+
+    files = sorted({src.split("#", 1)[0] for src in run.sources})
+    sets, _errors = read_many(files)
+    sets = [s for s in sets if s is not None]
+    if not sets:
+        return
+    spectra = prepare(sets)
+    judged = set(run.sources)
+    keep = np.array([i for i, src in enumerate(spectra.sources) if src in judged], dtype=int)
+    ev = evaluate(spectra.subset(keep), keep_details=False)
+    write_outputs(
+        ev, html=html, plots=plots, verdicts=run.check, lot=run.stats,
+        regions=regions_from_criteria(criteria) if criteria is not None else None,
+        inputs=files, command="lumeval " + " ".join(sys.argv[1:]),
+    )
+
+
 def register(app: typer.Typer) -> None:
     @app.command("lot")
     def lot_cmd(
@@ -410,6 +435,11 @@ def register(app: typer.Typer) -> None:
         samples_csv: Path = typer.Option(None, "--samples-csv", help="Also write the per-sample CSV to this file."),
         json_file: Path = typer.Option(None, "--json", help="Also write the lot JSON to this file."),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+        html: Path = typer.Option(
+            None, "--html", help="Also write a self-contained HTML lot report to this file (the readable samples are "
+            "evaluated once more to draw them)."
+        ),
+        plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
         instrument: Path = typer.Option(
             None, "--instrument", help="Instrument model (TOML, docs/uncertainty.md): decide each sample's clauses under "
             "measurement uncertainty with the criteria file's [decision] rule (Monte Carlo per sample: use --draws 200 for "
@@ -424,6 +454,10 @@ def register(app: typer.Typer) -> None:
         for out in (samples_csv, json_file):
             if out is not None and (out.is_dir() or not out.parent.exists()):
                 raise UsageError(f"cannot write {out}", fix="give a file path in an existing folder")
+        if html is not None or plots is not None:
+            from ..render.html import validate_targets
+
+            validate_targets(html=html, plots=plots)
         criteria = None
         if criteria_file is not None:
             from ..criteria import lot_clauses  # noqa: F401  (registers the lot clause kinds)
@@ -461,6 +495,8 @@ def register(app: typer.Typer) -> None:
 
         from ..render import lot_report
 
+        if html is not None or plots is not None:
+            _write_lot_report(run, criteria, html, plots)
         if samples_csv is not None:
             _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f))
         if json_file is not None:

@@ -268,7 +268,9 @@ def regions_from_criteria(criteria) -> list:
             out.append(q)
         elif callable(q):
             out.append(q())
-        elif getattr(c, "ellipse", None) is not None and getattr(c, "max_steps", None) is not None:
+        elif hasattr(getattr(c, "ellipse", None), "steps") and getattr(c, "max_steps", None) is not None:
+            # an SDCM clause around a fixed centre; a lot clause naming an ellipse by its
+            # label (steps around the lot's own centroid) has no fixed region to draw
             out.append((c.ellipse, float(c.max_steps)))
     return out
 

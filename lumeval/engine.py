@@ -269,3 +269,16 @@ METHODS: dict[str, str] = {
     "melanopic": "CIE S 026/E:2018 melanopic daylight (D65) efficacy ratio; action spectra CIE dataset "
     "10.25039/CIE.DS.vqqhzp5a (CC BY-SA 4.0)",
 }
+
+#: Human labels of the :data:`METHODS` keys, for reports.
+METHOD_LABELS: dict[str, str] = {
+    "observer": "Observer",
+    "integration": "Integration",
+    "interpolation": "Interpolation",
+    "cct": "CCT and Duv",
+    "duv_sign": "Duv sign",
+    "cri": "Colour rendering",
+    "fidelity": "Fidelity and gamut",
+    "photometry": "Photometry",
+    "melanopic": "Melanopic",
+}

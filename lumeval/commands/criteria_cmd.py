@@ -131,7 +131,7 @@ def new_criteria_text(nominal_cct: int = 3000, level: str = "good", project: str
 def explain_markdown(criteria) -> str:
     """Tender wording (Markdown) for ``criteria``: one numbered requirement per clause,
     the method of evaluation, the standards relied on and the cautions."""
-    from ..engine import METHODS
+    from ..engine import METHOD_LABELS, METHODS
     from ..render.tables import CAUTIONS
 
     L = []
@@ -162,7 +162,7 @@ def explain_markdown(criteria) -> str:
     a("## Method of evaluation")
     a("")
     for k, v in METHODS.items():
-        a(f"- {k.replace('_', ' ').capitalize()}: {v}.")
+        a(f"- {METHOD_LABELS.get(k, k.replace('_', ' ').capitalize())}: {v}.")
     rule = (getattr(criteria, "uncertainty", None) or {}).get("decision")
     if rule is not None and hasattr(rule, "summary"):
         a(f"- Decision rule: {rule.summary()}; measurement uncertainty from the instrument model (docs/uncertainty.md).")

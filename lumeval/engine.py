@@ -260,11 +260,12 @@ def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_deta
 METHODS: dict[str, str] = {
     "observer": "CIE 1931 2° (colorimetry, CCT, CRI); CIE 1964 10° (CIE 224 / TM-30)",
     "integration": "sum at the data's own 1 nm or 5 nm spacing (CIE 15:2004 §7.1)",
-    "interpolation": "other spacings Sprague-interpolated to 1 nm (CIE 167:2005); see the input-files guide",
+    "interpolation": "other uniform spacings Sprague-interpolated to 1 nm (CIE 167:2005), irregular grids by "
+    "cubic spline; short ranges extended by the end values (CIE 15:2004); see docs/input-files.md",
     "cct": "Ohno (2014) LEUKOS 10(1):47-55, Planckian locus with c2 = 1.4388e-2 m K (CIE 15:2004)",
     "duv_sign": "positive above the Planckian locus (ANSI C78.377)",
     "cri": "CIE 13.3-1995, reference Planckian < 5000 K, CIE daylight ≥ 5000 K",
-    "fidelity": "CIE 224:2017 / ANSI/IES TM-30-18 (Rf, Rg, 16 hue bins)",
+    "fidelity": "CIE 224:2017 / ANSI/IES TM-30-18 and -20 (Rf, Rg, 16 hue bins; one calculation)",
     "photometry": "Km = 683 lm/W, K'm = 1700 lm/W; sums over the measured range within 360-830 nm",
     "melanopic": "CIE S 026/E:2018 melanopic daylight (D65) efficacy ratio; action spectra CIE dataset "
     "10.25039/CIE.DS.vqqhzp5a (CC BY-SA 4.0)",

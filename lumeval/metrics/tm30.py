@@ -23,8 +23,11 @@ Sources
 - CES spectral reflectances: colour-science 0.4.7's copy of the CIE 224:2017 1 nm table
   (``colour/quality/datasets/tcs_cfi2017_1_nm.csv.gz``, 380-780 nm); on a 5 nm grid every fifth
   row is used (colour's 5 nm file is exactly that subsample).
-- CIECAM02 and CAM02-UCS: colour-science's vectorised ``XYZ_to_CIECAM02`` and
-  ``JMh_CIECAM02_to_CAM02UCS`` (CIE 159:2004; Luo, Cui & Li (2006) Color Res. Appl. 31(4):320-330).
+- CIECAM02 and CAM02-UCS: a direct numpy forward model for the fixed CIE 224:2017 viewing
+  conditions (:func:`cam02ucs_cie224`; CIE 159:2004; Moroney et al. (2002); Luo, Cui & Li (2006)
+  Color Res. Appl. 31(4):320-330), tested against colour-science's
+  vectorised ``XYZ_to_CIECAM02`` + ``JMh_CIECAM02_to_CAM02UCS`` to ≤ 1e-10
+  (tests/test_metrics_tm30_cam02.py).
 - Reference SPDs: :mod:`lumeval.metrics.reference` (Planck with c2 = 1.4388e-2 m K; CIE daylight
   with M1, M2 rounded to three decimals and the 5 nm S0, S1, S2 basis interpolated *linearly* to
   1 nm — see "Differences from colour-science" below).
@@ -294,41 +297,130 @@ def _Rf_scale(delta_E):
     return 10.0 * np.log1p(np.exp((100.0 - C_F * np.asarray(delta_E)) / 10.0))
 
 
-def _jab(wl, S, R, cmf10):
+#: CAT02 matrix (CIE 159:2004 Eq. 7; Moroney et al. 2002), XYZ -> sharpened RGB.
+_M_CAT02 = np.array([[0.7328, 0.4296, -0.1624], [-0.7036, 1.6975, 0.0061], [0.0030, 0.0136, 0.9834]])
+#: Hunt-Pointer-Estévez matrix (CIE 159:2004 Eq. 11), XYZ -> cone-like RGB.
+_M_HPE = np.array([[0.38971, 0.68898, -0.07868], [-0.22981, 1.18340, 0.04641], [0.0, 0.0, 1.0]])
+#: HPE · CAT02⁻¹: adapted sharpened RGB_c -> R′G′B′ (CIE 159:2004 Eqs. 10-11).
+_M_CAT02_TO_HPE = _M_HPE @ np.linalg.inv(_M_CAT02)
+#: Average surround (CIE 159:2004 Table 1): F, c, N_c.
+_SURROUND_F, _SURROUND_C, _SURROUND_NC = 1.0, 0.69, 1.0
+
+
+def _spow(x, p):
+    """Signed power sign(x)·|x|^p (as colour-science's ``spow``; equal to x^p for x ≥ 0)."""
+    return np.sign(x) * np.abs(x) ** p
+
+
+def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
+    """CIECAM02 forward model and CAM02-UCS for the CIE 224:2017 viewing conditions, vectorised.
+
+    Average surround (F = 1, c = 0.69, N_c = 1) and complete adaptation (D = 1, illuminant
+    discounted), as CIE 224:2017 prescribes with L_A = 100 cd/m² and Y_b = 20. Equations of
+    CIE 159:2004 *A colour appearance model for colour management systems: CIECAM02*
+    (Moroney, Fairchild, Hunt, Li, Luo & Newman (2002) "The CIECAM02 color appearance model",
+    Proc. IS&T/SID 10th Color Imaging Conference, 23-27). Powers of possibly negative
+    quantities are signed, ``sign(x)·|x|^p``, as in colour-science's implementation:
+
+    - k = 1 / (5 L_A + 1);  F_L = 0.2 k⁴ (5 L_A) + 0.1 (1 − k⁴)² (5 L_A)^(1/3)
+    - n = Y_b / Y_w;  N_bb = N_cb = 0.725 (1/n)^0.2;  z = 1.48 + √n
+    - RGB = M_CAT02 · XYZ;  R_c = (Y_w D / R_w + 1 − D) R with D = 1 (and likewise G, B)
+    - R′G′B′ = M_HPE · M_CAT02⁻¹ · RGB_c
+    - R′_a = 400 sign(R′) (F_L |R′| / 100)^0.42 / (27.13 + (F_L |R′| / 100)^0.42) + 0.1
+    - a = R′_a − 12 G′_a / 11 + B′_a / 11;  b = (R′_a + G′_a − 2 B′_a) / 9;  h = atan2(b, a)
+    - e_t = ¼ (cos(h + 2) + 3.8)  (h in radians)
+    - A = (2 R′_a + G′_a + B′_a / 20 − 0.305) N_bb;  J = 100 (A / A_w)^(c z)
+    - t = (50000/13) N_c N_cb e_t √(a² + b²) / (R′_a + G′_a + 21 B′_a / 20)
+    - C = t^0.9 √(J / 100) (1.64 − 0.29ⁿ)^0.73;  M = C F_L^0.25
+
+    then CAM02-UCS (Luo, Cui & Li (2006) "Uniform colour spaces based on CIECAM02 colour
+    appearance model", Color Res. Appl. 31(4):320-330, with c1 = 0.007, c2 = 0.0228, K_L = 1):
+    J′ = 1.7 J / (1 + 0.007 J);  M′ = ln(1 + 0.0228 M) / 0.0228;  a′ = M′ cos h;  b′ = M′ sin h.
+
+    Parameters
+    ----------
+    XYZ : ndarray (M, K, 3)
+        Sample tristimulus values (domain 0-100, the white at Y_w ≈ 100).
+    XYZ_w : ndarray (M, 3)
+        White point of each of the M sources.
+    L_A, Y_b : float
+        Adapting luminance (cd/m²) and relative background luminance.
+
+    Returns
+    -------
+    Jab : ndarray (M, K, 3)
+        CAM02-UCS (J′, a′, b′).
+    h : ndarray (M, K)
+        CIECAM02 hue angle in degrees, in [0, 360).
+
+    Notes
+    -----
+    Same arithmetic as colour-science 0.4.7's ``XYZ_to_CIECAM02`` +
+    ``JMh_CIECAM02_to_CAM02UCS`` (the tested reference) up to the order of floating-point
+    operations; measured agreement is in tests/test_metrics_tm30_cam02.py.
+    """
+    XYZ = np.asarray(XYZ, dtype=float)
+    XYZ_w = np.asarray(XYZ_w, dtype=float)
+    Y_w = XYZ_w[:, 1]
+    k = 1.0 / (5.0 * L_A + 1.0)
+    k4 = k**4
+    F_L = 0.2 * k4 * (5.0 * L_A) + 0.1 * (1.0 - k4) ** 2 * np.cbrt(5.0 * L_A)
+    n = Y_b / Y_w  # (M,)
+    N_bb = 0.725 * (1.0 / n) ** 0.2
+    z = 1.48 + np.sqrt(n)
+
+    def compress(RGB_p):
+        x = _spow(F_L * np.abs(RGB_p) / 100.0, 0.42)
+        return (400.0 * np.sign(RGB_p) * x) / (27.13 + x) + 0.1
+
+    RGB_w = XYZ_w @ _M_CAT02.T  # (M, 3)
+    D_scale = Y_w[:, None] / RGB_w  # D = 1: R_c = (Y_w / R_w) R
+    # Per-source matrix  M_HPE · M_CAT02⁻¹ · diag(Y_w / RGB_w) · M_CAT02, applied to every sample.
+    M_src = _M_CAT02_TO_HPE[None, :, :] @ (D_scale[:, :, None] * _M_CAT02[None, :, :])  # (M, 3, 3)
+    RGB_a = compress(XYZ @ np.swapaxes(M_src, 1, 2))  # (M, K, 3)
+    RGB_aw = compress((RGB_w * D_scale) @ _M_CAT02_TO_HPE.T)  # (M, 3)
+
+    R, G, B = RGB_a[..., 0], RGB_a[..., 1], RGB_a[..., 2]
+    a = R - 12.0 * G / 11.0 + B / 11.0
+    b = (R + G - 2.0 * B) / 9.0
+    h_rad = np.arctan2(b, a)
+    h = np.degrees(h_rad) % 360.0
+    e_t = 0.25 * (np.cos(2.0 + h * np.pi / 180.0) + 3.8)
+    A = (2.0 * R + G + B / 20.0 - 0.305) * N_bb[:, None]
+    A_w = (2.0 * RGB_aw[:, 0] + RGB_aw[:, 1] + RGB_aw[:, 2] / 20.0 - 0.305) * N_bb
+    J = 100.0 * _spow(A / A_w[:, None], _SURROUND_C * z[:, None])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = ((50000.0 / 13.0) * _SURROUND_NC * N_bb[:, None]) * (
+            e_t * np.sqrt(a * a + b * b) / (R + G + 21.0 * B / 20.0)
+        )
+    C = _spow(t, 0.9) * _spow(J / 100.0, 0.5) * _spow(1.64 - 0.29 ** n[:, None], 0.73)
+    M = C * _spow(F_L, 0.25)
+    Jp = 1.7 * J / (1.0 + 0.007 * J)
+    Mp = np.log1p(0.0228 * M) / 0.0228
+    h_r = np.radians(h)
+    return np.stack([Jp, Mp * np.cos(h_r), Mp * np.sin(h_r)], axis=-1), h
+
+
+def _ces_cmf_kernel(R, cmf10):
+    """(W, 99·3) kernel K[w, 3i + c] = R_i(w) · cmf_c(w): XYZ of the 99 CES in one product."""
+    return (R.T[:, :, None] * cmf10[:, None, :]).reshape(R.shape[1], -1)
+
+
+def _jab(wl, S, R, cmf10, kernel=None):
     """CAM02-UCS J′a′b′ of the CES under the light sources ``S`` (M, W): (M, 99, 3), h (M, 99).
 
     Relative colorimetry with the CIE 1964 10° observer: XYZ = 100 Σ R S x̄ / Σ S ȳ (the white
     has Y_w = 100); CIECAM02 with L_A = 100, Y_b = 20, average surround, D = 1 (discounting the
-    illuminant), then CAM02-UCS (CIE 224:2017).
+    illuminant), then CAM02-UCS (CIE 224:2017), by :func:`cam02ucs_cie224`.
     """
-    from .._colour import load
-
-    colour = load()
-    from colour.appearance import VIEWING_CONDITIONS_CIECAM02, XYZ_to_CIECAM02
-    from colour.models import JMh_CIECAM02_to_CAM02UCS
-
+    if kernel is None:
+        kernel = _ces_cmf_kernel(R, cmf10)
     XYZ_w = S @ cmf10  # (M, 3)
     k = 100.0 / XYZ_w[:, 1]
     XYZ_w = XYZ_w * k[:, None]
-    XYZ = np.empty((S.shape[0], R.shape[0], 3))
-    for c in range(3):
-        XYZ[:, :, c] = (S * cmf10[:, c]) @ R.T
+    XYZ = (S @ kernel).reshape(S.shape[0], R.shape[0], 3)
     XYZ *= k[:, None, None]
-    with colour.utilities.domain_range_scale("reference"):
-        spec = XYZ_to_CIECAM02(
-            XYZ,
-            XYZ_w[:, None, :],
-            L_A,
-            Y_B,
-            VIEWING_CONDITIONS_CIECAM02["Average"],
-            discount_illuminant=True,
-            compute_H=False,
-        )
-        J = np.asarray(spec.J, dtype=float)
-        M = np.asarray(spec.M, dtype=float)
-        h = np.asarray(spec.h, dtype=float)
-        Jab = np.asarray(JMh_CIECAM02_to_CAM02UCS(np.stack([J, M, h], axis=-1)), dtype=float)
-    return Jab, h
+    return cam02ucs_cie224(XYZ, XYZ_w, L_A, Y_B)
 
 
 def _polygon_area(ab):
@@ -394,12 +486,17 @@ def tm30_from_reference(
         hr = h[m:]
         de = np.sqrt(np.sum((jt - jr) ** 2, axis=-1))  # ΔE′, (m, 99)
         bins = np.clip(np.floor(hr / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
-        onehot = (bins[:, :, None] == np.arange(N_BINS)[None, None, :]).astype(float)  # (m,99,16)
-        cnt = onehot.sum(axis=1)  # (m, 16)
+        # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
+        flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
+
+        def binsum(w):
+            return np.bincount(flat, weights=w.ravel(), minlength=m * N_BINS).reshape(m, N_BINS)
+
+        cnt = np.bincount(flat, minlength=m * N_BINS).reshape(m, N_BINS).astype(float)  # (m, 16)
         with np.errstate(invalid="ignore", divide="ignore"):
-            at = np.einsum("mkc,mkb->mbc", jt[..., 1:], onehot) / cnt[..., None]
-            ar = np.einsum("mkc,mkb->mbc", jr[..., 1:], onehot) / cnt[..., None]
-            de_bin = np.einsum("mk,mkb->mb", de, onehot) / cnt
+            at = np.stack([binsum(jt[..., 1]), binsum(jt[..., 2])], axis=-1) / cnt[..., None]
+            ar = np.stack([binsum(jr[..., 1]), binsum(jr[..., 2])], axis=-1) / cnt[..., None]
+            de_bin = binsum(de) / cnt
             theta = np.deg2rad(BIN_WIDTH_DEG * np.arange(N_BINS) + BIN_WIDTH_DEG / 2.0)
             cos, sin = np.cos(theta), np.sin(theta)
             rr = np.hypot(ar[..., 0], ar[..., 1])

@@ -88,6 +88,10 @@ def register(app: typer.Typer) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
         every requirement; 1: a requirement failed or is indeterminate under the decision rule
         (never a pass); 2: bad input."""
+        from ._targets import check_targets
+
+        check_targets(files={"--output": output, "--html": html}, dirs={"--plots": plots},
+                      inputs=[*files, criteria, *([instrument] if instrument is not None else [])])
         if html is not None or plots is not None:
             from ..render.html import validate_targets
 

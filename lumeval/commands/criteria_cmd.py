@@ -29,6 +29,14 @@ LEVEL_LIMITS = {
 _IEC_FOR = {2700: "F2700", 3000: "F3000", 3500: "F3500", 4000: "F4000", 5000: "F5000", 6500: "F6500"}
 
 
+def _toml_string(text: str) -> str:
+    """``text`` as a TOML basic string (quotes, backslashes and control characters escaped;
+    JSON's string escapes are a subset of TOML's, TOML v1.0.0 "Basic strings")."""
+    import json
+
+    return json.dumps(text, ensure_ascii=False)
+
+
 def new_criteria_text(nominal_cct: int = 3000, level: str = "good", project: str = "") -> str:
     """A commented starting criteria file (TOML) for ``nominal_cct`` and a quality ``level``."""
     from ..criteria import regions
@@ -51,7 +59,7 @@ def new_criteria_text(nominal_cct: int = 3000, level: str = "good", project: str
     a("lumeval_criteria = 1")
     a("")
     a("[identification]")
-    a(f'project = "{project or "Project name"}"')
+    a(f"project = {_toml_string(project or 'Project name')}")
     a('product = "Luminaire type / product reference"')
     a('reference = "Specification section"')
     a('issued_by = "Your name"')
@@ -212,6 +220,9 @@ def register(app: typer.Typer) -> None:
             from ..errors import UsageError
 
             raise UsageError("file exists", file=str(output), fix="choose another name or add --force")
+        from ._targets import check_targets
+
+        check_targets(files={"OUTPUT": output})
         emit(text, output)
 
     @crit.command("explain")
@@ -221,7 +232,9 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Render criteria as tender wording (Markdown) naming the standards each clause relies on."""
         from ..criteria import load_criteria
+        from ._targets import check_targets
 
+        check_targets(files={"--output": output}, inputs=[file])
         emit(explain_markdown(load_criteria(file)), output)
 
     app.add_typer(crit, name="criteria")
@@ -235,6 +248,9 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Check a supplier's datasheet claims against the supplier's own spectrum. Exit code 0:
         no claim contradicted; 1: a claim is contradicted; 2: bad input."""
+        from ._targets import check_targets
+
+        check_targets(files={"--output": output}, inputs=[*files, claims])
         result = claims_files(files, claims)
         from ..render import verdicts as rv
 

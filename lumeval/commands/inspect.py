@@ -44,6 +44,14 @@ def register(app: typer.Typer) -> None:
         plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
     ) -> None:
         """Compute every colour-quality figure for each spectrum and print them."""
+        if validate_only and (html is not None or plots is not None):
+            from ..errors import UsageError
+
+            raise UsageError("--validate-only computes nothing, so there is no report for --html or --plots",
+                             fix="drop --validate-only to write the report, or drop --html/--plots")
+        from ._targets import check_targets
+
+        check_targets(files={"--html": html}, dirs={"--plots": plots}, inputs=files)
         if validate_only:
             from ..spectra.validate import render_validation, validate_files
 

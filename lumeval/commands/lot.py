@@ -392,6 +392,11 @@ def _write_atomic(path: Path, write: Callable) -> None:
         with open(tmp, "w", encoding="utf-8", newline="") as f:
             write(f)
         os.replace(tmp, path)
+    except OSError as exc:
+        from ..errors import InputError
+
+        raise InputError(f"cannot write the file ({exc.strerror or exc})", file=str(path),
+                         fix="check the folder exists, is writable and has free space") from None
     finally:
         if tmp.exists():
             tmp.unlink()
@@ -449,11 +454,10 @@ def register(app: typer.Typer) -> None:
         draws: int = typer.Option(None, "--draws", help="Monte Carlo draws per sample (default 2000).", show_default=False),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
-        from ..errors import UsageError
+        from ._targets import check_targets
 
-        for out in (samples_csv, json_file):
-            if out is not None and (out.is_dir() or not out.parent.exists()):
-                raise UsageError(f"cannot write {out}", fix="give a file path in an existing folder")
+        check_targets(files={"--samples-csv": samples_csv, "--json": json_file, "--html": html}, dirs={"--plots": plots},
+                      inputs=[*expand_inputs(paths)[0], *[p for p in (criteria_file, instrument) if p is not None]])
         if html is not None or plots is not None:
             from ..render.html import validate_targets
 
@@ -465,7 +469,7 @@ def register(app: typer.Typer) -> None:
 
             criteria = load_criteria(criteria_file)
         setup = None
-        if criteria is not None or instrument is not None:
+        if criteria is not None or instrument is not None or seed is not None or draws is not None:
             from ..uncertainty.judge import resolve_setup
 
             setup = resolve_setup(criteria, instrument, seed=seed, draws=draws)
@@ -507,6 +511,14 @@ def register(app: typer.Typer) -> None:
             lot_report.samples_csv(run, sys.stdout)
         else:
             lot_report.print_lot(run)
+        if run.unreadable:
+            # the report lists each one; stderr gets one clean line for scripts and logs
+            n = len(run.unreadable)
+            if n == 1:
+                print(f"lumeval: error: {run.unreadable[0].message} (the lot is not fully judged)", file=sys.stderr)
+            else:
+                print(f"lumeval: error: {n} inputs could not be read, so the lot is not fully judged — see the list in the "
+                      f"report; first: {run.unreadable[0].message}", file=sys.stderr)
         # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which
         # would turn typer.Exit into a return value and lose the code.
         sys.exit(run.exit_code)

@@ -252,6 +252,8 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         if unit and unit != figure_unit(key):
             raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(key) or 'none'!r})", f"write {key} in {figure_unit(key) or 'plain numbers'}")
         v = float(m.group("value"))
+        if not np.isfinite(v) or (m.group("tol") is not None and not np.isfinite(float(m.group("tol")))):
+            raise err(("claims",), key, f"the claim {value!r} holds a number too large to represent", "write the value as the datasheet states it, e.g. \">= 90\"")
         op = m.group("op") or ""
         t_override = tolerances.get(key)
         if m.group("tol") is not None:

@@ -93,7 +93,14 @@ def resolve_setup(criteria=None, instrument_path=None, *, seed: int | None = Non
         settings = dataclasses.replace(settings, draws=int(draws))
     if rule.guarded and instrument is None:
         notes.append("no instrument model given: lumeval's documented default model was used (docs/uncertainty.md)")
-    return UncertaintySetup(instrument, settings, rule, tuple(notes))
+    setup = UncertaintySetup(instrument, settings, rule, tuple(notes))
+    if (seed is not None or draws is not None) and not setup.active:
+        from ..errors import UsageError
+
+        raise UsageError("--seed and --draws set the Monte Carlo of a run under measurement uncertainty, and none was asked for",
+                         fix="add --instrument FILE (or an [instrument] table or a guarded [decision] rule to the criteria "
+                         "file), or drop --seed/--draws")
+    return setup
 
 
 def _clause_key(r) -> str:

@@ -1,0 +1,234 @@
+"""Bad input through the real CLI: exit code 2, one clean line, no traceback, nothing written.
+
+Every case here was found by driving the installed commands with bad input (an audit of the
+error paths); each was an internal error, a silently ignored option or a destroyed input
+before it was fixed. The cases run ``lumeval.cli.main([...])`` in-process (fast) and one
+runs the console script through a subprocess to cover the real entry point. No numeric
+check here: these tests assert behaviour (exit code, message shape, files untouched).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from lumeval.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+SPD = ROOT / "spectra_demo" / "downlights" / "candidate_A_aurora_3000K.csv"
+
+CRITERIA = 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 90\n'
+CLAIMS = 'lumeval_claims = 1\n[claims]\nRa = ">= 90"\n'
+
+
+def run(argv, capsys):
+    """(exit code, stdout, stderr) of ``lumeval argv``."""
+    with pytest.raises(SystemExit) as exc:
+        main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
+    return code, out, err
+
+
+def assert_clean_error(code, err, *needles):
+    assert code == 2, err
+    assert "Traceback" not in err and "internal error" not in err, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
+    for n in needles:
+        assert n in lines[0], err
+
+
+def digest(p: Path) -> str:
+    return hashlib.sha256(p.read_bytes()).hexdigest()
+
+
+@pytest.fixture
+def work(tmp_path):
+    spd = tmp_path / "lamp.csv"
+    shutil.copyfile(SPD, spd)
+    crit = tmp_path / "criteria.toml"
+    crit.write_text(CRITERIA, encoding="utf-8")
+    claims = tmp_path / "claims.toml"
+    claims.write_text(CLAIMS, encoding="utf-8")
+    return tmp_path, spd, crit, claims
+
+
+# ----------------------------------------------------------------- outputs onto inputs
+
+@pytest.mark.parametrize("which", ["spectrum", "criteria"])
+@pytest.mark.parametrize("option", ["-o", "--html"])
+def test_check_never_overwrites_an_input(work, capsys, which, option):
+    tmp, spd, crit, _ = work
+    target = spd if which == "spectrum" else crit
+    before = digest(target)
+    code, _, err = run(["check", spd, "-c", crit, option, target], capsys)
+    assert_clean_error(code, err, "one of the input files")
+    assert digest(target) == before
+
+
+@pytest.mark.parametrize("which", ["spectrum", "claims"])
+def test_claims_never_overwrites_an_input(work, capsys, which):
+    tmp, spd, _, claims = work
+    target = spd if which == "spectrum" else claims
+    before = digest(target)
+    code, _, err = run(["claims", spd, "--claims", claims, "-o", target], capsys)
+    assert_clean_error(code, err, "one of the input files")
+    assert digest(target) == before
+
+
+def test_explain_never_overwrites_its_criteria(work, capsys):
+    tmp, _, crit, _ = work
+    before = digest(crit)
+    code, _, err = run(["criteria", "explain", crit, "-o", crit], capsys)
+    assert_clean_error(code, err, "one of the input files")
+    assert digest(crit) == before
+
+
+def test_inspect_html_never_overwrites_an_input(work, capsys):
+    tmp, spd, _, _ = work
+    before = digest(spd)
+    code, _, err = run(["inspect", spd, "--html", spd], capsys)
+    assert_clean_error(code, err, "one of the input files")
+    assert digest(spd) == before
+
+
+@pytest.mark.parametrize("option", ["--json", "--samples-csv", "--html"])
+@pytest.mark.parametrize("how", ["file", "folder", "pattern"])
+def test_lot_never_overwrites_an_input(work, capsys, option, how):
+    tmp, spd, _, _ = work
+    before = digest(spd)
+    arg = {"file": spd, "folder": tmp, "pattern": str(tmp / "*.csv")}[how]
+    code, _, err = run(["lot", arg, "-q", option, spd], capsys)
+    assert_clean_error(code, err, "one of the input files")
+    assert digest(spd) == before
+
+
+def test_two_options_naming_one_file(work, capsys):
+    tmp, spd, crit, _ = work
+    code, _, err = run(["lot", spd, "-q", "--json", tmp / "o.json", "--samples-csv", tmp / "o.json"], capsys)
+    assert_clean_error(code, err, "both name")
+    code, _, err = run(["check", spd, "-c", crit, "-o", tmp / "r.html", "--html", tmp / "r.html"], capsys)
+    assert_clean_error(code, err, "both name")
+    assert not (tmp / "o.json").exists() and not (tmp / "r.html").exists()
+
+
+# ----------------------------------------------------------------- unusable targets
+
+def test_lot_output_under_a_file_is_a_clean_error(work, capsys):
+    # was: internal error NotADirectoryError (exit 3)
+    tmp, spd, _, _ = work
+    for option in ("--samples-csv", "--json"):
+        code, _, err = run(["lot", spd, "-q", option, spd / "x.csv"], capsys)
+        assert_clean_error(code, err, option)
+
+
+@pytest.mark.parametrize("argv", [
+    ["check", "{spd}", "-c", "{crit}", "-o", "{spd}/x.json"],
+    ["check", "{spd}", "-c", "{crit}", "-o", "{tmp}"],
+    ["claims", "{spd}", "--claims", "{claims}", "-o", "{tmp}/missing/x.txt"],
+    ["criteria", "explain", "{crit}", "-o", "{tmp}"],
+    ["criteria", "new", "{tmp}", "--force"],
+    ["inspect", "{spd}", "--plots", "{spd}"],
+])
+def test_unusable_targets(work, capsys, argv):
+    tmp, spd, crit, claims = work
+    before = sorted(p.name for p in tmp.iterdir())
+    code, _, err = run([a.format(tmp=tmp, spd=spd, crit=crit, claims=claims) for a in argv], capsys)
+    assert_clean_error(code, err)
+    assert sorted(p.name for p in tmp.iterdir()) == before
+
+
+# ----------------------------------------------------------------- conflicting options
+
+def test_validate_only_with_html_is_refused(work, capsys):
+    tmp, spd, _, _ = work
+    code, _, err = run(["inspect", spd, "--validate-only", "--html", tmp / "r.html"], capsys)
+    assert_clean_error(code, err, "--validate-only")
+    assert not (tmp / "r.html").exists()
+
+
+@pytest.mark.parametrize("extra", [["--seed", "3"], ["--draws", "500"]])
+def test_seed_or_draws_without_uncertainty_is_refused(work, capsys, extra):
+    # was: silently ignored (the user believed a Monte Carlo ran)
+    tmp, spd, crit, _ = work
+    code, _, err = run(["check", spd, "-c", crit, *extra], capsys)
+    assert_clean_error(code, err, "--instrument")
+    code, _, err = run(["lot", spd, "-q", *extra], capsys)
+    assert_clean_error(code, err, "--instrument")
+
+
+# ----------------------------------------------------------------- bad file contents
+
+@pytest.mark.parametrize("claim", ['">= 1e999"', '"3 ± 1e999"', '"1e999"'])
+def test_claim_too_large_to_represent(work, capsys, claim):
+    # was: internal error OverflowError (exit 3)
+    tmp, spd, _, claims = work
+    claims.write_text(f"lumeval_claims = 1\n[claims]\nRa = {claim}\n", encoding="utf-8")
+    code, _, err = run(["claims", spd, "--claims", claims], capsys)
+    assert_clean_error(code, err, f"{claims.name}:3", "Ra")
+
+
+def test_criteria_new_escapes_the_project_name(work, capsys):
+    # was: a name with a quote, backslash or newline gave a criteria file that is not TOML
+    tmp, spd, _, _ = work
+    out = tmp / "new.toml"
+    name = 'Hall "B" \\ annex\nphase 2'
+    code, _, err = run(["criteria", "new", out, "--project", name], capsys)
+    assert code == 0, err
+    import tomllib
+
+    assert tomllib.loads(out.read_text(encoding="utf-8"))["identification"]["project"] == name
+    code, _, err = run(["check", spd, "-c", out], capsys)
+    assert code in (0, 1), err
+
+
+@pytest.mark.parametrize("body,needle", [
+    ("lumeval_criteria = 1\n[[clause]\n", ":2:"),
+    ("lumeval_criteria = 1\n[[clause]]\nid='x'\nfigure='Ra'\nmin=90\nbogus=1\n", "bogus"),
+    ("lumeval_criteria = 1\n[[clause]]\nid='x'\nfigure='Ra'\nmin='ninety'\n", "min"),
+    ("lumeval_criteria = 1\n[[clause]]\nid='x'\nfigure='Ra'\nmin=95\nmax=90\n", "min"),
+    ("lumeval_criteria = 1\n[[clause]]\nid='x'\nfigure='Ra'\nmin=1e400\n", "finite"),
+    ("", "no clauses"),
+])
+def test_bad_criteria_files(work, capsys, body, needle):
+    tmp, spd, crit, _ = work
+    crit.write_text(body, encoding="utf-8")
+    for argv in (["check", spd, "-c", crit], ["criteria", "explain", crit], ["lot", spd, "-q", "-c", crit]):
+        code, _, err = run(argv, capsys)
+        assert_clean_error(code, err, needle)
+
+
+@pytest.mark.parametrize("content", [b"", b"\x00\x01\x02binary\xff" * 50, b"wavelength,value\n550,1\n"])
+def test_bad_spectrum_files_every_command(work, capsys, content):
+    tmp, _, crit, claims = work
+    bad = tmp / "bad.csv"
+    bad.write_bytes(content)
+    for argv in (["inspect", bad], ["check", bad, "-c", crit], ["claims", bad, "--claims", claims],
+                 ["convert", bad, tmp / "o.xml"], ["lot", bad, "-q"]):
+        code, _, err = run(argv, capsys)
+        assert_clean_error(code, err, "bad.csv")
+    assert not (tmp / "o.xml").exists()
+
+
+def test_lot_with_only_unreadable_inputs_says_so_on_stderr(work, capsys):
+    tmp, _, _, _ = work
+    code, out, err = run(["lot", tmp / "nothing-here.csv", "-q"], capsys)
+    assert_clean_error(code, err, "nothing-here.csv")
+
+
+def test_real_console_script(work):
+    """The installed entry point, not only main(): exit 2, one line, no traceback."""
+    tmp, spd, crit, _ = work
+    exe = Path(sys.executable).with_name("lumeval")
+    cmd = [str(exe)] if exe.exists() else [sys.executable, "-m", "lumeval"]
+    before = digest(spd)
+    proc = subprocess.run([*cmd, "check", str(spd), "-c", str(crit), "-o", str(spd)],
+                          capture_output=True, text=True, timeout=120)
+    assert_clean_error(proc.returncode, proc.stderr, "one of the input files")
+    assert digest(spd) == before

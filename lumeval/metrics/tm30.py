@@ -618,6 +618,21 @@ def cie2017_rf(
         )
     out = tm30_result.Rf.copy()
     blend = (cct >= BLEND_LO_K) & (cct <= BLEND_HI_K)
-    if blend.any():
-        out[blend] = tm30(wavelengths_nm, vals2[blend], cct[blend], blend_observer=blend_observer).Rf
+    if not blend.any():
+        return out
+    jt = tm30_result.Jab_test
+    if isinstance(jt, np.ndarray) and jt.shape == (n, 99, 3):
+        # The CES under the test source do not depend on the reference: reuse their J′a′b′ and
+        # compute only the 2°-normalised blend references. Rows where tm30() gave no Rf (test
+        # spectrum not finite or Y10 ≤ 0) stay NaN, as the full computation would leave them.
+        wl = np.asarray(wavelengths_nm, dtype=float)
+        wl_c, _, _ = _crop_grid(wl, vals2)
+        rows = np.flatnonzero(blend & np.isfinite(tm30_result.Rf))
+        if rows.size:
+            ref, _ = reference_spd(wl_c, cct[rows], blend_observer=blend_observer)
+            Jab_r, _ = _jab(wl_c, ref, ces_reflectances(wl_c), cmfs_at(wl_c, OBSERVER_10))
+            de = np.sqrt(np.sum((jt[rows] - Jab_r) ** 2, axis=-1))
+            out[rows] = _Rf_scale(de.mean(axis=1))
+        return out
+    out[blend] = tm30(wavelengths_nm, vals2[blend], cct[blend], blend_observer=blend_observer).Rf
     return out

@@ -185,7 +185,22 @@ def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes:
             "check the wavelength unit (nm expected) and that this is a visible-light spectrum",
         )
     vals = vals.copy()
-    for i in range(vals.shape[0]):
+    # Vectorised pre-screen: only rows that fail a check (to raise its exact message) or that
+    # hold negative values (to note and clip them) go through the per-row checks below, in row
+    # order, so the first failing row raises as before.
+    with np.errstate(invalid="ignore"):
+        v_in = vals[:, inside]
+        peak_all = v_in.max(axis=1)
+        low_all = v_in.min(axis=1)
+        flagged = (
+            ~np.all(np.isfinite(vals), axis=1)
+            | ~(peak_all > 0)
+            | ~((peak_all >= MIN_PEAK) & (peak_all <= MAX_PEAK))
+            | (low_all == peak_all)
+            | (low_all < 0)
+        )
+    for i in np.flatnonzero(flagged):
+        i = int(i)
         v = vals[i, inside]
         bad = ~np.isfinite(vals[i])
         if bad.any():

@@ -229,12 +229,12 @@ def cct_duv_ohno(uv) -> CCTResult:
     for s in range(0, n, 2048):
         sl = slice(s, s + 2048)
         q = uv[sl]
-        d2 = ((q[:, None, :] - coarse[None, :, :]) ** 2).sum(-1)
+        d2 = (q[:, 0:1] - coarse[None, :, 0]) ** 2 + (q[:, 1:2] - coarse[None, :, 1]) ** 2
         mc = np.argmin(d2, axis=1)
         lo = np.clip(coarse_idx[mc] - _COARSE, 0, T.size - 1)
         win = lo[:, None] + np.arange(2 * _COARSE + 1)[None, :]
         win = np.clip(win, 0, T.size - 1)
-        d2f = ((q[:, None, :] - tab[win]) ** 2).sum(-1)
+        d2f = (q[:, 0:1] - tab[win, 0]) ** 2 + (q[:, 1:2] - tab[win, 1]) ** 2
         m[sl] = win[np.arange(q.shape[0]), np.argmin(d2f, axis=1)]
     m = np.clip(m, 1, T.size - 2)
     i0, i1, i2 = m - 1, m, m + 1

@@ -370,7 +370,7 @@ def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
     z = 1.48 + np.sqrt(n)
 
     def compress(RGB_p):
-        x = _spow(F_L * np.abs(RGB_p) / 100.0, 0.42)
+        x = (F_L * np.abs(RGB_p) / 100.0) ** 0.42  # base ≥ 0: the signed power is the plain one
         return (400.0 * np.sign(RGB_p) * x) / (27.13 + x) + 0.1
 
     RGB_w = XYZ_w @ _M_CAT02.T  # (M, 3)
@@ -383,22 +383,27 @@ def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
     R, G, B = RGB_a[..., 0], RGB_a[..., 1], RGB_a[..., 2]
     a = R - 12.0 * G / 11.0 + B / 11.0
     b = (R + G - 2.0 * B) / 9.0
-    h_rad = np.arctan2(b, a)
-    h = np.degrees(h_rad) % 360.0
-    e_t = 0.25 * (np.cos(2.0 + h * np.pi / 180.0) + 3.8)
+    h = np.degrees(np.arctan2(b, a)) % 360.0
+    # cos h and sin h from a and b directly (h = 0 where a = b = 0, as atan2 gives), and
+    # cos(h + 2) = cos h cos 2 − sin h sin 2: fewer transcendental passes, same values.
+    r = np.hypot(a, b)
+    pos = r > 0
+    r_safe = np.where(pos, r, 1.0)
+    cos_h = np.where(pos, a / r_safe, 1.0)
+    sin_h = np.where(pos, b / r_safe, 0.0)
+    e_t = 0.25 * (cos_h * np.cos(2.0) - sin_h * np.sin(2.0) + 3.8)
     A = (2.0 * R + G + B / 20.0 - 0.305) * N_bb[:, None]
     A_w = (2.0 * RGB_aw[:, 0] + RGB_aw[:, 1] + RGB_aw[:, 2] / 20.0 - 0.305) * N_bb
     J = 100.0 * _spow(A / A_w[:, None], _SURROUND_C * z[:, None])
     with np.errstate(divide="ignore", invalid="ignore"):
         t = ((50000.0 / 13.0) * _SURROUND_NC * N_bb[:, None]) * (
-            e_t * np.sqrt(a * a + b * b) / (R + G + 21.0 * B / 20.0)
+            e_t * r / (R + G + 21.0 * B / 20.0)
         )
     C = _spow(t, 0.9) * _spow(J / 100.0, 0.5) * _spow(1.64 - 0.29 ** n[:, None], 0.73)
     M = C * _spow(F_L, 0.25)
     Jp = 1.7 * J / (1.0 + 0.007 * J)
     Mp = np.log1p(0.0228 * M) / 0.0228
-    h_r = np.radians(h)
-    return np.stack([Jp, Mp * np.cos(h_r), Mp * np.sin(h_r)], axis=-1), h
+    return np.stack([Jp, Mp * cos_h, Mp * sin_h], axis=-1), h
 
 
 def _ces_cmf_kernel(R, cmf10):
@@ -484,7 +489,8 @@ def tm30_from_reference(
         Jab, h = _jab(wl, np.concatenate([S_t[idx], S_r[idx]]), R, cmf10)
         jt, jr = Jab[:m], Jab[m:]
         hr = h[m:]
-        de = np.sqrt(np.sum((jt - jr) ** 2, axis=-1))  # ΔE′, (m, 99)
+        d = jt - jr
+        de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
         bins = np.clip(np.floor(hr / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
         # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
         flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
@@ -631,7 +637,8 @@ def cie2017_rf(
         if rows.size:
             ref, _ = reference_spd(wl_c, cct[rows], blend_observer=blend_observer)
             Jab_r, _ = _jab(wl_c, ref, ces_reflectances(wl_c), cmfs_at(wl_c, OBSERVER_10))
-            de = np.sqrt(np.sum((jt[rows] - Jab_r) ** 2, axis=-1))
+            d = jt[rows] - Jab_r
+            de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)
             out[rows] = _Rf_scale(de.mean(axis=1))
         return out
     out[blend] = tm30(wavelengths_nm, vals2[blend], cct[blend], blend_observer=blend_observer).Rf

@@ -411,6 +411,23 @@ def _ces_cmf_kernel(R, cmf10):
     return (R.T[:, :, None] * cmf10[:, None, :]).reshape(R.shape[1], -1)
 
 
+@lru_cache(maxsize=8)
+def _cfi_tables_cached(key: bytes) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    wl = np.frombuffer(key, dtype=float)
+    cmf10 = cmfs_at(wl, OBSERVER_10)
+    R = ces_reflectances(wl)
+    kernel = _ces_cmf_kernel(R, cmf10)
+    for a in (cmf10, R, kernel):
+        a.setflags(write=False)
+    return cmf10, R, kernel
+
+
+def _cfi_tables(wl) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(CIE 1964 10° CMFs (W, 3), CES reflectances (99, W), XYZ kernel (W, 297)) on the cropped
+    380-780 nm grid ``wl``; cached per grid (read-only arrays)."""
+    return _cfi_tables_cached(np.ascontiguousarray(wl, dtype=float).tobytes())
+
+
 def _jab(wl, S, R, cmf10, kernel=None):
     """CAM02-UCS J′a′b′ of the CES under the light sources ``S`` (M, W): (M, 99, 3), h (M, 99).
 
@@ -458,8 +475,7 @@ def tm30_from_reference(
     kinds = tuple(reference_kind) if reference_kind is not None else ("",) * n
     reasons = [""] * n
 
-    cmf10 = cmfs_at(wl, OBSERVER_10)
-    R = ces_reflectances(wl)
+    cmf10, R, kernel = _cfi_tables(wl)
     Yt = S_t @ cmf10[:, 1]
     Yr = S_r @ cmf10[:, 1]
     ok = np.all(np.isfinite(S_t), axis=1) & np.all(np.isfinite(S_r), axis=1)
@@ -486,7 +502,7 @@ def tm30_from_reference(
     idx = np.flatnonzero(ok)
     if idx.size:
         m = idx.size
-        Jab, h = _jab(wl, np.concatenate([S_t[idx], S_r[idx]]), R, cmf10)
+        Jab, h = _jab(wl, np.concatenate([S_t[idx], S_r[idx]]), R, cmf10, kernel)
         jt, jr = Jab[:m], Jab[m:]
         hr = h[m:]
         d = jt - jr
@@ -636,7 +652,8 @@ def cie2017_rf(
         rows = np.flatnonzero(blend & np.isfinite(tm30_result.Rf))
         if rows.size:
             ref, _ = reference_spd(wl_c, cct[rows], blend_observer=blend_observer)
-            Jab_r, _ = _jab(wl_c, ref, ces_reflectances(wl_c), cmfs_at(wl_c, OBSERVER_10))
+            cmf10, R, kernel = _cfi_tables(wl_c)
+            Jab_r, _ = _jab(wl_c, ref, R, cmf10, kernel)
             d = jt[rows] - Jab_r
             de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)
             out[rows] = _Rf_scale(de.mean(axis=1))

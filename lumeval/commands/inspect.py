@@ -82,6 +82,9 @@ def register(app: typer.Typer) -> None:
             from ..render.tables import to_csv
 
             typer.echo(to_csv(ev), nl=False)
+            from .check import note_csv_cautions
+
+            note_csv_cautions()
         else:
             from ..render.terminal import print_inspect
 

@@ -56,7 +56,8 @@ def register(app: typer.Typer) -> None:
             from ..spectra.validate import render_validation, validate_files
 
             checks = validate_files(files)
-            typer.echo(render_validation(checks, output_format.value), nl=False)
+            text = render_validation(checks, output_format.value)
+            typer.echo(text, nl=not text.endswith("\n"))
             failed = sum(not c.ok for c in checks)
             if failed:
                 from ..errors import InputError

@@ -109,14 +109,20 @@ def _cp1252_ok(raw: bytes) -> bool:
         return False
 
 
+_ANY_SPACE = re.compile(r"\s")
+
+
 def _split(line: str, delim: str | None) -> list[str]:
     """Split one line into stripped cells, dropping trailing empty cells."""
     if delim is None:
         cells = line.split()
     elif '"' not in line:
         # Without a quote character the csv module splits exactly at the delimiter (lines hold
-        # no CR/LF here): plain str.split gives the same cells, much faster.
-        cells = [c.strip() for c in line.split(delim)]
+        # no CR/LF here): plain str.split gives the same cells, much faster. str.strip and the
+        # regex class \s use the same whitespace test, so a line without \s needs no stripping.
+        cells = line.split(delim)
+        if _ANY_SPACE.search(line):
+            cells = [c.strip() for c in cells]
     else:
         try:
             cells = next(csv.reader([line], delimiter=delim, quotechar='"', skipinitialspace=True))

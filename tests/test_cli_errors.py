@@ -252,3 +252,16 @@ def test_csv_output_shows_the_cautions_on_stderr(work, capsys, argv):
     for needle in ("IEC 62471", "flicker", "electrical safety", "only as good as the measured spectrum",
                    "contract, local codes and licensed professional practice"):
         assert needle in err
+
+
+@pytest.mark.parametrize("limit", ["min = -1e300\nmax = 1e300", "min = -1e6", "max = 1e6", "min = 200"])
+def test_far_off_limits_do_not_break_the_report_figures(work, capsys, limit):
+    # was: internal error (matplotlib text transform overflow) or layout warnings on stderr
+    tmp, spd, crit, _ = work
+    crit.write_text("lumeval_criteria = 1\n" + "".join(
+        f'[[clause]]\nid = "{f}"\nfigure = "{f}"\n{limit}\n' for f in ("Ra", "R9", "Rcs_h1", "Rf_h3")), encoding="utf-8")
+    code, _, err = run(["check", spd, "-c", crit, "--html", tmp / "r.html", "--plots", tmp / "p"], capsys)
+    assert code in (0, 1) and err == "", err
+    assert (tmp / "r.html").stat().st_size > 0
+    code, _, err = run(["lot", spd, spd.parent, "-q", "-c", crit, "--html", tmp / "lot.html"], capsys)
+    assert code in (0, 1) and err == "", err

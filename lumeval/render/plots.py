@@ -463,6 +463,14 @@ def _label_points(ax, u, v, fin, labels, xlim, ylim) -> None:
 # --------------------------------------------------------------------------- CRI bars
 
 
+def _off_scale_label(ax, x, lo, hi, value, text, **kw) -> None:
+    """Label a criteria limit that lies outside the drawn range ``[lo, hi]`` at the nearer edge
+    (drawing it at its own value would stretch or break the axes, e.g. ``min = -1e300``)."""
+    above = value > hi
+    ax.text(x, hi if above else lo, text + (" ↑" if above else " ↓") + " off scale", va="top" if above else "bottom",
+            ha="left", color="#444444", gid="limit-off-scale", **kw)
+
+
 def _limit_of(limits: Mapping | None, name: str) -> tuple[float | None, float | None]:
     if not limits or name not in limits:
         return None, None
@@ -510,6 +518,7 @@ def cri_figure(R, Ra=None, *, limits: Mapping | None = None, title: str | None =
     with _ctx():
         ax = fig.add_subplot()
         finite = np.isfinite(mid)
+        ymin = min(0.0, float(np.nanmin(rng[0] if rng is not None else mid)) - 5) if np.any(finite) else 0.0
         bars = []
         for k in range(len(names)):
             lo, hi = _limit_of(limits, names[k])
@@ -524,7 +533,9 @@ def cri_figure(R, Ra=None, *, limits: Mapping | None = None, title: str | None =
             else:
                 ax.text(x[k], 2, "n/a", ha="center", va="bottom", fontsize=7, rotation=90)
             for lim, sym in ((lo, "≥"), (hi, "≤")):
-                if lim is not None:
+                if lim is not None and not ymin <= lim <= 110:
+                    _off_scale_label(ax, x[k] + 0.47, ymin, 110, lim, f"{sym}{lim:g}", fontsize=6.5)
+                elif lim is not None:
                     ax.plot([x[k] - 0.45, x[k] + 0.45], [lim, lim], color=PALETTE["black"], lw=2.2,
                             gid=f"limit-{names[k]}-{'min' if sym == '≥' else 'max'}", solid_capstyle="butt")
                     ax.text(x[k] + 0.47, lim, f"{sym}{lim:g}", fontsize=6.5, va="center", ha="left")
@@ -532,7 +543,6 @@ def cri_figure(R, Ra=None, *, limits: Mapping | None = None, title: str | None =
             ok = finite & np.isfinite(rng[0])
             ax.errorbar(x[ok], mid[ok], yerr=[mid[ok] - rng[0][ok], rng[1][ok] - mid[ok]], fmt="none",
                         ecolor=PALETTE["black"], elinewidth=0.9, capsize=2.5, gid="whiskers")
-        ymin = min(0.0, float(np.nanmin(rng[0] if rng is not None else mid)) - 5) if np.any(finite) else 0.0
         ax.set_ylim(ymin, 110)
         ax.axhline(0, color="black", lw=0.6)
         ax.set_xticks(x, names)
@@ -585,8 +595,9 @@ def hue_bin_figure(Rcs_h, Rhs_h, Rf_h, *, limits: Mapping | None = None, title: 
                 ax.axhline(0, color="black", lw=0.7)
                 m = np.nanmax(np.abs(np.concatenate([mid[fin], *(r[np.isfinite(r)] for r in (rng or ()))]))) if np.any(fin) else 0.0
                 floor = 20.0 if key == "Rcs_h" else 0.2
+                base = max(floor, 1.15 * m)
                 lims = [abs(v) for j in range(16) for v in _limit_of(limits, f"{key}{j + 1}") if v is not None]
-                lim = max(floor, 1.15 * m, *(1.15 * v for v in lims))
+                lim = max([base, *(1.15 * v for v in lims if v <= 5 * base)])
                 ax.set_ylim(-lim, lim)
             if rng is not None:
                 ok = fin & np.isfinite(rng[0])
@@ -594,8 +605,11 @@ def hue_bin_figure(Rcs_h, Rhs_h, Rf_h, *, limits: Mapping | None = None, title: 
                             ecolor="black", elinewidth=0.8, capsize=2, gid=f"{key}-whiskers")
             for j in range(16):
                 lo, hi = _limit_of(limits, f"{key}{j + 1}")
+                y0, y1 = ax.get_ylim()
                 for lim_v, sym in ((lo, "≥"), (hi, "≤")):
-                    if lim_v is not None:
+                    if lim_v is not None and not y0 <= lim_v <= y1:
+                        _off_scale_label(ax, x[j] + 0.47, y0, y1, lim_v, f"{sym}{lim_v:g}", fontsize=6)
+                    elif lim_v is not None:
                         ax.plot([x[j] - 0.45, x[j] + 0.45], [lim_v, lim_v], color="black", lw=2.2,
                                 gid=f"limit-{key}{j + 1}-{'min' if sym == '≥' else 'max'}")
                         ax.text(x[j] + 0.47, lim_v, f"{sym}{lim_v:g}", fontsize=6, va="center")
@@ -670,8 +684,16 @@ def distribution_figure(
                 ax.plot([med, med], [-0.42, 0.42], color="black", lw=2.0, gid=f"dist-{name}-median")
             lo, hi = _limit_of(limits, name)
             xs = list(arr[fin])
+            if xs:  # a limit far from every sample (e.g. min = -1e300) is labelled, not drawn to scale
+                d0, d1 = min(xs), max(xs)
+                reach = 10 * max(d1 - d0, 0.01 * max(abs(d0), abs(d1)), 1e-3)
+                near = (d0 - reach, d1 + reach)
             for lim_v, lab in ((lo, "min"), (hi, "max")):
-                if lim_v is not None:
+                if lim_v is not None and arr[fin].size and not near[0] <= lim_v <= near[1]:
+                    ax.text(1.0 if lim_v > near[1] else 0.0, 0.52, f" {lab} {lim_v:g} (off scale) ", transform=ax.transAxes,
+                            fontsize=6.5, va="bottom", ha="right" if lim_v > near[1] else "left", color="#444444",
+                            gid=f"dist-{name}-limit-{lab}-off-scale")
+                elif lim_v is not None:
                     ax.axvline(lim_v, color=PALETTE["vermillion"], lw=1.4, ls=(0, (4, 2)), gid=f"dist-{name}-limit-{lab}")
                     ax.text(lim_v, 0.52, f" {lab} {lim_v:g}", fontsize=6.5, va="bottom", ha="left" if lab == "min" else "right")
                     xs.append(lim_v)

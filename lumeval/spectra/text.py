@@ -121,7 +121,9 @@ def _split(line: str, delim: str | None) -> list[str]:
         # no CR/LF here): plain str.split gives the same cells, much faster. str.strip and the
         # regex class \s use the same whitespace test, so a line without \s needs no stripping.
         cells = line.split(delim)
-        if _ANY_SPACE.search(line):
+        if len(cells) == 1:
+            cells = [cells[0].strip()]
+        elif _ANY_SPACE.search(line):
             cells = [c.strip() for c in cells]
     else:
         try:

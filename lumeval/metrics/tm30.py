@@ -297,11 +297,11 @@ def _Rf_scale(delta_E):
     return 10.0 * np.log1p(np.exp((100.0 - C_F * np.asarray(delta_E)) / 10.0))
 
 
-#: CAT02 matrix (CIE 159:2004 Eq. 7; Moroney et al. 2002), XYZ -> sharpened RGB.
+#: CAT02 matrix (CIE 159:2004; Moroney et al. 2002), XYZ -> sharpened RGB.
 _M_CAT02 = np.array([[0.7328, 0.4296, -0.1624], [-0.7036, 1.6975, 0.0061], [0.0030, 0.0136, 0.9834]])
-#: Hunt-Pointer-Estévez matrix (CIE 159:2004 Eq. 11), XYZ -> cone-like RGB.
+#: Hunt-Pointer-Estévez matrix (CIE 159:2004), XYZ -> cone-like RGB.
 _M_HPE = np.array([[0.38971, 0.68898, -0.07868], [-0.22981, 1.18340, 0.04641], [0.0, 0.0, 1.0]])
-#: HPE · CAT02⁻¹: adapted sharpened RGB_c -> R′G′B′ (CIE 159:2004 Eqs. 10-11).
+#: HPE · CAT02⁻¹: adapted sharpened RGB_c -> R′G′B′ (CIE 159:2004).
 _M_CAT02_TO_HPE = _M_HPE @ np.linalg.inv(_M_CAT02)
 #: Average surround (CIE 159:2004 Table 1): F, c, N_c.
 _SURROUND_F, _SURROUND_C, _SURROUND_NC = 1.0, 0.69, 1.0
@@ -319,8 +319,10 @@ def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
     discounted), as CIE 224:2017 prescribes with L_A = 100 cd/m² and Y_b = 20. Equations of
     CIE 159:2004 *A colour appearance model for colour management systems: CIECAM02*
     (Moroney, Fairchild, Hunt, Li, Luo & Newman (2002) "The CIECAM02 color appearance model",
-    Proc. IS&T/SID 10th Color Imaging Conference, 23-27). Powers of possibly negative
-    quantities are signed, ``sign(x)·|x|^p``, as in colour-science's implementation:
+    Proc. IS&T/SID 10th Color Imaging Conference, 23-27; bibliographic details and the
+    equations below written from memory, verified numerically against colour-science, see
+    Notes). Powers of possibly negative quantities are signed, ``sign(x)·|x|^p``, as in
+    colour-science's implementation:
 
     - k = 1 / (5 L_A + 1);  F_L = 0.2 k⁴ (5 L_A) + 0.1 (1 − k⁴)² (5 L_A)^(1/3)
     - n = Y_b / Y_w;  N_bb = N_cb = 0.725 (1/n)^0.2;  z = 1.48 + √n

@@ -75,6 +75,18 @@ def main(argv: list[str] | None = None) -> None:
         sys.exit(130)
     except SystemExit:
         raise
+    except OSError as exc:
+        # the file system refused a named path (name too long, no space, read-only, ...): the
+        # user's environment, not a bug; commands check their targets first, this is the net
+        if debug or exc.filename is None:
+            if debug:
+                raise
+            print(f"lumeval: internal error: {type(exc).__name__}: {exc} "
+                  "(please report it with the output of the same command run with --debug)", file=sys.stderr)
+            sys.exit(3)
+        print(f"lumeval: error: {exc.filename}: {exc.strerror or exc} — check the path, the free space and the "
+              "permissions", file=sys.stderr)
+        sys.exit(2)
     except Exception as exc:  # a bug, not bad input: still no traceback unless asked for
         if debug:
             raise

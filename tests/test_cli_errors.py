@@ -265,3 +265,23 @@ def test_far_off_limits_do_not_break_the_report_figures(work, capsys, limit):
     assert (tmp / "r.html").stat().st_size > 0
     code, _, err = run(["lot", spd, spd.parent, "-q", "-c", crit, "--html", tmp / "lot.html"], capsys)
     assert code in (0, 1) and err == "", err
+
+
+@pytest.mark.parametrize("argv", [
+    ["inspect", "{spd}", "--html", "{long}.html"],
+    ["inspect", "{spd}", "--plots", "{long}"],
+    ["check", "{spd}", "-c", "{crit}", "-o", "{long}.json"],
+    ["lot", "{spd}", "-q", "--json", "{long}.json"],
+    ["convert", "{spd}", "{long}.csv"],
+    ["criteria", "new", "{long}.toml"],
+    ["criteria", "explain", "{crit}", "-o", "{long}.md"],
+])
+def test_output_name_too_long_for_the_file_system(work, capsys, argv):
+    # was: internal error OSError ENAMETOOLONG (exit 3); 300 bytes exceed the 255-byte name
+    # limit of common Linux/macOS/Windows file systems
+    tmp, spd, crit, _ = work
+    long = str(tmp / ("a" * 300))
+    before = sorted(p.name for p in tmp.iterdir())
+    code, _, err = run([a.format(spd=spd, crit=crit, long=long) for a in argv], capsys)
+    assert_clean_error(code, err, "too long")
+    assert sorted(p.name for p in tmp.iterdir()) == before

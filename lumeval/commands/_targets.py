@@ -68,8 +68,21 @@ def check_targets(
     lumeval.errors.UsageError
         Naming the option, the path and what would fix it.
     """
+    for opt, v in [*(files or {}).items(), *(dirs or {}).items()]:
+        if v is not None and not str(v).strip():
+            raise UsageError("the path is empty", field=opt, fix="give a file or folder name")
     given = {k: Path(str(v)) for k, v in (files or {}).items() if v is not None}
     given_dirs = {k: Path(str(v)) for k, v in (dirs or {}).items() if v is not None}
+    try:
+        _check(given, given_dirs, inputs)
+    except OSError as exc:  # e.g. a name too long for the file system
+        opt = next((k for k, p in [*given.items(), *given_dirs.items()] if exc.filename and str(p) in str(exc.filename)),
+                   None)
+        raise UsageError(f"cannot use {str(exc.filename or '')!r}: {exc.strerror or exc}", field=opt,
+                         fix="choose a shorter or valid path") from None
+
+
+def _check(given: dict, given_dirs: dict, inputs: Iterable) -> None:
     for opt, p in given.items():
         if p.is_dir():
             raise UsageError(f"cannot write {str(p)!r}: it is a folder", field=opt, fix="give a file name in that folder")

@@ -37,6 +37,9 @@ def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None,
         raise UsageError(
             "the output would overwrite the input", file=str(dst), fix="give a different output file name"
         )
+    from ._targets import check_targets
+
+    check_targets(files={"OUT": dst_p})  # a folder, a missing folder, an unusable name: before reading
     if dst_p.exists() and not force:
         raise UsageError("the output file exists already", file=str(dst), fix="choose a new name or add --force")
     spectra = read_spectra(src_p)

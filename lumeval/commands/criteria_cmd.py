@@ -216,13 +216,13 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Write a commented starting criteria file that a specifier edits."""
         text = new_criteria_text(nominal_cct, level.value, project)
+        from ._targets import check_targets
+
+        check_targets(files={"OUTPUT": output})
         if output is not None and output.exists() and not force:
             from ..errors import UsageError
 
             raise UsageError("file exists", file=str(output), fix="choose another name or add --force")
-        from ._targets import check_targets
-
-        check_targets(files={"OUTPUT": output})
         emit(text, output)
 
     @crit.command("explain")

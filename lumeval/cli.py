@@ -82,7 +82,7 @@ def main(argv: list[str] | None = None) -> None:
             if debug:
                 raise
             print(f"lumeval: internal error: {type(exc).__name__}: {exc} "
-                  "(please report it with the output of the same command run with --debug)", file=sys.stderr)
+                  "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)", file=sys.stderr)
             sys.exit(3)
         print(f"lumeval: error: {exc.filename}: {exc.strerror or exc} — check the path, the free space and the "
               "permissions", file=sys.stderr)
@@ -92,7 +92,7 @@ def main(argv: list[str] | None = None) -> None:
             raise
         print(
             f"lumeval: internal error: {type(exc).__name__}: {exc} "
-            "(please report it with the output of the same command run with --debug)",
+            "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)",
             file=sys.stderr,
         )
         sys.exit(3)

@@ -34,10 +34,10 @@ import typer
 
 #: Spectra evaluated together (bounded memory; the engine chunks further inside).
 BATCH_SPECTRA = 2048
-#: Engine chunk size for lots. bench/benchmark.py found 1024 as fast as the engine's default
-#: 256 in CPU time (and faster in wall time in one lightly loaded run); the 100,000-spectrum
-#: lot peaked at 593 MB with it (docs/lots.md).
-ENGINE_CHUNK = 1024
+#: Engine chunk size for lots. Measured CPU per 1,000 spectra after the TM-30 speed-up: 0.089 s
+#: at 512, 0.097 s at 256, 0.105 s at 1024 (bench/benchmark.py); peak memory of a
+#: 100,000-spectrum lot stays near 600 MB (docs/lots.md).
+ENGINE_CHUNK = 512
 #: File extensions taken from folders.
 SPECTRUM_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".xml", ".spdx", ".tm27", ".json")
 #: Figures kept per sample (every figure of the engine).

@@ -63,6 +63,8 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
+from .metrics.colorimetry import upvp_from_xy, xy_from_upvp  # noqa: F401 (re-exported for lot users)
+
 #: Default figures screened for outliers (lumeval figure names).
 OUTLIER_FIGURES: tuple[str, ...] = ("u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")
 #: Iglewicz & Hoaglin (1993) cut-off for |modified z|.
@@ -255,22 +257,6 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
         q = np.nanpercentile(safe, [50.0, 5.0, 95.0], axis=0, method=percentile_method)
     out["median"], out["p05"], out["p95"] = q[0], q[1], q[2]
     return out
-
-
-def upvp_from_xy(xy) -> np.ndarray:
-    """CIE 1976 (u', v') = (4x, 9y) / (−2x + 12y + 3) (CIE 15:2004 Eq. 8.1-8.2), shape (..., 2)."""
-    xy = np.asarray(xy, dtype=float)
-    x, y = xy[..., 0], xy[..., 1]
-    d = -2.0 * x + 12.0 * y + 3.0
-    return np.stack([4.0 * x / d, 9.0 * y / d], axis=-1)
-
-
-def xy_from_upvp(upvp) -> np.ndarray:
-    """CIE 1931 (x, y) = (9u', 4v') / (6u' − 16v' + 12) (CIE 15:2004, inverse of Eq. 8.1-8.2)."""
-    p = np.asarray(upvp, dtype=float)
-    u, v = p[..., 0], p[..., 1]
-    d = 6.0 * u - 16.0 * v + 12.0
-    return np.stack([9.0 * u / d, 4.0 * v / d], axis=-1)
 
 
 def chromaticity_centroid(upvp) -> np.ndarray:

@@ -63,7 +63,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from ..metrics.colorimetry import planckian_uv, uv_from_xy, xy_from_uv
+from ..metrics.colorimetry import planckian_uv, upvp_from_uv, upvp_from_xy, uv_from_xy, xy_from_upvp, xy_from_uv  # noqa: F401 (re-exported)
 
 # --------------------------------------------------------------------------- ANSI C78.377
 
@@ -162,17 +162,6 @@ def uv_from_cct_duv(cct_K, duv) -> np.ndarray:
     u = p0[:, 0] - D * np.sin(theta)
     v = p0[:, 1] + D * np.cos(theta)
     return np.stack([u, v], axis=-1)
-
-
-def upvp_from_uv(uv) -> np.ndarray:
-    """CIE 1976 (u', v') = (u, 1.5 v) from CIE 1960 (u, v) (CIE 15:2004 §8.1)."""
-    uv = np.asarray(uv, dtype=float)
-    return np.stack([uv[..., 0], 1.5 * uv[..., 1]], axis=-1)
-
-
-def upvp_from_xy(xy) -> np.ndarray:
-    """CIE 1976 (u', v') from CIE 1931 (x, y) (CIE 15:2004 Eqs. 8.1-8.2)."""
-    return upvp_from_uv(uv_from_xy(xy))
 
 
 @dataclass(frozen=True)

@@ -131,6 +131,28 @@ def xy_from_uv(uv) -> np.ndarray:
     return np.stack([3.0 * u / d, 2.0 * v / d], axis=-1)
 
 
+def upvp_from_uv(uv) -> np.ndarray:
+    """CIE 1976 (u', v') = (u, 1.5 v) from CIE 1960 (u, v) (CIE 15:2004 §8.1)."""
+    uv = np.asarray(uv, dtype=float)
+    return np.stack([uv[..., 0], 1.5 * uv[..., 1]], axis=-1)
+
+
+def upvp_from_xy(xy) -> np.ndarray:
+    """CIE 1976 (u', v') = (4x, 9y) / (−2x + 12y + 3) (CIE 15:2004 Eqs. 8.1-8.2), shape (..., 2)."""
+    xy = np.asarray(xy, dtype=float)
+    x, y = xy[..., 0], xy[..., 1]
+    d = -2.0 * x + 12.0 * y + 3.0
+    return np.stack([4.0 * x / d, 9.0 * y / d], axis=-1)
+
+
+def xy_from_upvp(upvp) -> np.ndarray:
+    """CIE 1931 (x, y) = (9u', 4v') / (6u' − 16v' + 12) (CIE 15:2004, inverse of Eqs. 8.1-8.2)."""
+    p = np.asarray(upvp, dtype=float)
+    u, v = p[..., 0], p[..., 1]
+    d = 6.0 * u - 16.0 * v + 12.0
+    return np.stack([9.0 * u / d, 4.0 * v / d], axis=-1)
+
+
 # --------------------------------------------------------------------------- Planckian locus
 
 #: The Planckian table: geometric steps of 0.1 % between 900 K and 25 000 K. The parabolic

@@ -456,8 +456,10 @@ def register(app: typer.Typer) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ._targets import check_targets
 
-        check_targets(files={"--samples-csv": samples_csv, "--json": json_file, "--html": html}, dirs={"--plots": plots},
-                      inputs=[*expand_inputs(paths)[0], *[p for p in (criteria_file, instrument) if p is not None]])
+        outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html}
+        check_targets(files=outputs, dirs={"--plots": plots},
+                      inputs=[*(expand_inputs(paths)[0] if any(v is not None for v in outputs.values()) else ()),
+                              *[p for p in (criteria_file, instrument) if p is not None]])
         if html is not None or plots is not None:
             from ..render.html import validate_targets
 

@@ -36,13 +36,11 @@ OBSERVER_2 = "CIE 1931 2 Degree Standard Observer"
 OBSERVER_10 = "CIE 1964 10 Degree Standard Observer"
 
 
-@lru_cache(maxsize=None)
 def _cmfs_table(observer: str) -> tuple[np.ndarray, np.ndarray]:
-    from .._colour import load
+    """colour-science's 1 nm CMF table of ``observer`` (see :mod:`lumeval._tables`)."""
+    from .._tables import table
 
-    colour = load()
-    cmfs = colour.MSDS_CMFS[observer]
-    return np.asarray(cmfs.wavelengths, dtype=float), np.asarray(cmfs.values, dtype=float)
+    return table({OBSERVER_2: "cmf_2", OBSERVER_10: "cmf_10"}[observer])
 
 
 def cmfs_at(wavelengths_nm, observer: str = OBSERVER_2) -> np.ndarray:

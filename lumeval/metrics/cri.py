@@ -137,27 +137,14 @@ def _tcs_on_grid(start: int, stop: int, step: int) -> np.ndarray:
     """Spectral radiance factors of TCS01-14 on the grid, shape (14, W).
 
     Grid points on the 5 nm table are taken as tabulated (CIE 13.3); others are Sprague
-    interpolated (CIE 15:2004 §7.2.1, CIE 167:2005), using colour-science's implementation.
+    interpolated (CIE 15:2004 §7.2.1, CIE 167:2005) with colour-science's implementation, as
+    tabulated at 1 nm by :mod:`lumeval._tables`.
     """
-    from .._colour import load
+    from .._tables import table
 
-    load()
-    from colour.algebra import SpragueInterpolator
-    from colour.quality.datasets.tcs import SDS_TCS
-
-    table = SDS_TCS["CIE 1995"]
-    wl = np.arange(start, stop + 1, step, dtype=float)
-    out = np.empty((len(TCS_NAMES), wl.size))
-    for k, name in enumerate(TCS_NAMES):
-        sd = table[name]
-        x = np.asarray(sd.wavelengths, dtype=float)
-        y = np.asarray(sd.values, dtype=float)
-        on_node = np.isin(wl, x)
-        vals = np.empty(wl.size)
-        vals[on_node] = y[np.searchsorted(x, wl[on_node])]
-        if (~on_node).any():
-            vals[~on_node] = SpragueInterpolator(x, y)(wl[~on_node])
-        out[k] = vals
+    wl_t, tcs = table("tcs")
+    idx = np.arange(start, stop + 1, step) - int(wl_t[0])
+    out = np.array(tcs[:, idx])
     out.setflags(write=False)
     return out
 

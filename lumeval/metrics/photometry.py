@@ -61,7 +61,7 @@ KPM_LM_PER_W = 1700.0
 ALPHA_OPIC_NAMES: tuple[str, ...] = ("s_cone_opic", "m_cone_opic", "l_cone_opic", "rhodopic", "melanopic")
 
 _ACTION_SPECTRA_FILE = "CIE_a-opic_action_spectra.csv"
-_SCOTOPIC = "CIE 1951 Scotopic Standard Observer"
+
 
 
 @dataclass(frozen=True)
@@ -165,10 +165,9 @@ def v_lambda_at(wavelengths_nm) -> np.ndarray:
 
 @lru_cache(maxsize=1)
 def _scotopic_table() -> tuple[np.ndarray, np.ndarray]:
-    from .._colour import load
+    from .._tables import table
 
-    sd = load().SDS_LEFS[_SCOTOPIC]
-    return np.asarray(sd.wavelengths, dtype=float), np.asarray(sd.values, dtype=float)
+    return table("v_scotopic")
 
 
 def v_prime_lambda_at(wavelengths_nm) -> np.ndarray:
@@ -192,11 +191,11 @@ def d65_alpha_opic_elr_W_per_lm() -> np.ndarray:
     reproduces the D65 values CIE S 026 publishes to their four-decimal rounding (in mW/lm:
     0.8173, 1.4558, 1.6289, 1.4497, 1.3262), which the test suite checks.
     """
-    from .._colour import load
+    from .._tables import table
 
-    sd = load().SDS_ILLUMINANTS["D65"]
+    wl_d65, v_d65 = table("d65")
     wl = np.arange(380.0, 781.0)
-    d65 = np.interp(wl, np.asarray(sd.wavelengths, dtype=float), np.asarray(sd.values, dtype=float))
+    d65 = np.interp(wl, wl_d65, v_d65)
     e_alpha = d65 @ alpha_opic_action_spectra_at(wl)
     e_v = KM_LM_PER_W * (d65 @ v_lambda_at(wl))
     return e_alpha / e_v

@@ -17,24 +17,17 @@ All functions are vectorised over CCT: ``cct_K`` of shape (N,) gives spectra of 
 
 from __future__ import annotations
 
-from functools import lru_cache
 
 import numpy as np
 
 from .planck import C2_CIE, planck_exitance
 
 
-@lru_cache(maxsize=None)
 def _daylight_basis() -> tuple[np.ndarray, np.ndarray]:
-    from .._colour import load
+    """colour-science's S0, S1, S2 (CIE 15:2004 Table T.2), shape (3, W) (see lumeval._tables)."""
+    from .._tables import table
 
-    colour = load()
-    from colour.colorimetry import SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES as B
-
-    wl = np.asarray(B["S0"].wavelengths, dtype=float)
-    S = np.stack([np.asarray(B[k].values, dtype=float) for k in ("S0", "S1", "S2")])
-    del colour
-    return wl, S
+    return table("d_basis")
 
 
 def daylight_xy(cct_K) -> np.ndarray:

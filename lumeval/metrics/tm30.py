@@ -168,22 +168,14 @@ class TM30Result:
 # --------------------------------------------------------------------------- data
 
 
-@lru_cache(maxsize=None)
 def _ces_table() -> tuple[np.ndarray, np.ndarray]:
-    """The 99 CES reflectances at 1 nm, 380-780 nm: (wl (401,), R (99, 401))."""
-    import os
+    """The 99 CES reflectances at 1 nm, 380-780 nm: (wl (401,), R (99, 401)), colour-science's
+    copy of the CIE 224:2017 table (see lumeval._tables)."""
+    from .._tables import table
 
-    from .._colour import load
-
-    load()
-    from colour.quality import cfi2017
-
-    path = os.path.join(cfi2017.ROOT_RESOURCES_CIE2017, "tcs_cfi2017_1_nm.csv.gz")
-    data = np.genfromtxt(path, delimiter=",")
-    wl = data[:, 0].astype(float)
-    R = np.ascontiguousarray(data[:, 1:].T)
+    wl, R = table("ces")
     if R.shape != (99, 401) or wl[0] != 380.0 or wl[-1] != 780.0:  # pragma: no cover
-        raise RuntimeError(f"unexpected CES table shape {R.shape} in {path}")
+        raise RuntimeError(f"unexpected CES table shape {R.shape}")
     return wl, R
 
 

@@ -29,7 +29,10 @@ from enum import Enum
 from pathlib import Path
 from typing import Callable, Sequence
 
-import numpy as np
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays light
+    import numpy as np
 import typer
 
 #: Spectra evaluated together (bounded memory; the engine chunks further inside).
@@ -198,6 +201,8 @@ def _grid_key(s) -> tuple:
 
 def _concat_clause(parts: list):
     """Join per-batch ClauseResults of one clause into one."""
+    import numpy as np
+
     from dataclasses import replace
 
     first = parts[0]
@@ -255,6 +260,8 @@ def run_lot(
     -------
     LotRun
     """
+    import numpy as np
+
     from ..engine import FIGURE_NAMES, evaluate
     from ..lot import lot_statistics
     from ..spectra.model import SpectrumSet
@@ -365,6 +372,8 @@ def run_lot(
 def _nominal_from_criteria(criteria):
     """(ellipse, nominal_xy) implied by the criteria: an ``sdcm`` clause's ellipse, else an
     ``ansi_quadrangle`` clause's centre (with the nearest standard ellipse's coefficients)."""
+    import numpy as np
+
     for c in criteria.clauses:
         e = getattr(c, "ellipse", None)
         if getattr(c, "KIND", "") == "sdcm" and e is not None:
@@ -406,6 +415,8 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
     """Draw the lot: evaluate the judged samples once more (the lot run keeps only their
     figures, not their spectra) and hand them with the lot statistics and verdicts to the HTML
     report and plots."""
+    import numpy as np
+
     from ..engine import evaluate
     from ..render.html import regions_from_criteria, write_outputs
     from ..spectra.prepare import prepare

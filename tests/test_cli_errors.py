@@ -285,3 +285,18 @@ def test_output_name_too_long_for_the_file_system(work, capsys, argv):
     code, _, err = run([a.format(spd=spd, crit=crit, long=long) for a in argv], capsys)
     assert_clean_error(code, err, "too long")
     assert sorted(p.name for p in tmp.iterdir()) == before
+
+
+def test_names_outside_the_plot_font_keep_stderr_clean(work, capsys):
+    # was: one matplotlib "Glyph ... missing from font" warning per character on stderr
+    tmp, spd, _, _ = work
+    lines = spd.read_text(encoding="utf-8").splitlines()
+    named = tmp / "named.csv"
+    named.write_text("\n".join(["wavelength_nm,照明 名前 «été»"] + lines[1:]) + "\n", encoding="utf-8")
+    # a subprocess: inside pytest, warnings are recorded by pytest instead of printed
+    exe = Path(sys.executable).with_name("lumeval")
+    cmd = [str(exe)] if exe.exists() else [sys.executable, "-m", "lumeval"]
+    proc = subprocess.run([*cmd, "inspect", str(named), "--html", str(tmp / "r.html"), "--plots", str(tmp / "p")],
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0 and proc.stderr == "", proc.stderr
+    assert "照明 名前 «été»" in (tmp / "r.html").read_text(encoding="utf-8")

@@ -103,10 +103,27 @@ def _ctx():
 # --------------------------------------------------------------------------- output
 
 
+class _Quiet:
+    """Silence matplotlib's "Glyph ... missing from font" warnings while saving: a spectrum name
+    in a script the bundled font lacks (e.g. CJK) is drawn as boxes in the figure but written in
+    full in the report's text, and a successful run keeps standard error clean."""
+
+    def __enter__(self):
+        import warnings
+
+        self._w = warnings.catch_warnings()
+        self._w.__enter__()
+        warnings.filterwarnings("ignore", message=r"Glyph .* missing from font", category=UserWarning)
+        return self
+
+    def __exit__(self, *exc):
+        return self._w.__exit__(*exc)
+
+
 def figure_svg(fig) -> str:
     """The figure as a standalone SVG document (text drawn as paths, no external references)."""
     buf = io.StringIO()
-    with _ctx():
+    with _ctx(), _Quiet():
         fig.savefig(buf, format="svg", dpi=150,
                     metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
     return buf.getvalue()
@@ -115,7 +132,7 @@ def figure_svg(fig) -> str:
 def figure_png(fig, dpi: int = 150) -> bytes:
     """The figure as PNG bytes at ``dpi``."""
     buf = io.BytesIO()
-    with _ctx():
+    with _ctx(), _Quiet():
         fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
     return buf.getvalue()
 

@@ -115,7 +115,9 @@ def test_two_options_naming_one_file(work, capsys):
     assert_clean_error(code, err, "both name")
     code, _, err = run(["check", spd, "-c", crit, "-o", tmp / "r.html", "--html", tmp / "r.html"], capsys)
     assert_clean_error(code, err, "both name")
-    assert not (tmp / "o.json").exists() and not (tmp / "r.html").exists()
+    code, _, err = run(["check", spd, "-c", crit, "-o", tmp / "figs", "--plots", tmp / "figs"], capsys)
+    assert_clean_error(code, err, "both name")
+    assert not (tmp / "o.json").exists() and not (tmp / "r.html").exists() and not (tmp / "figs").exists()
 
 
 # ----------------------------------------------------------------- unusable targets

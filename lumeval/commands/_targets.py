@@ -101,6 +101,11 @@ def _check(given: dict, given_dirs: dict, inputs: Iterable) -> None:
         if not parent.is_dir():
             raise UsageError(f"cannot write into {str(d)!r}: folder {str(parent)!r} does not exist", field=opt,
                              fix="create the folder first or choose another path")
+    for opt, p in given.items():
+        for opt2, d in given_dirs.items():
+            if _same_file(p, d):
+                raise UsageError(f"{opt} and {opt2} both name {str(p)!r}", field=opt,
+                                 fix="give the file and the folder different names")
     names = list(given.items())
     for i, (opt, p) in enumerate(names):
         for opt2, q in names[i + 1:]:

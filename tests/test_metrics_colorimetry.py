@@ -150,3 +150,14 @@ def test_chromaticity_conversions_round_trip():
     np.testing.assert_allclose(C.upvp_from_XYZ(XYZ)[:, 1], 1.5 * uv[:, 1])
     np.testing.assert_allclose(C.uv_from_xy(C.xy_from_XYZ(XYZ)), uv, rtol=1e-12)
     np.testing.assert_allclose(C.xy_from_uv(uv), C.xy_from_XYZ(XYZ), rtol=1e-12)
+
+
+def test_beyond_the_planckian_table_neither_cct_nor_duv():
+    """A deep-red chromaticity (spectral locus at 780 nm, CIE 1931 x, y from colour-science's
+    CMF table) is nearest the locus beyond its 900 K end: no CCT and no Duv (a Duv measured to
+    the end of a table is not a distance to the locus)."""
+    wl, cmf = C._cmfs_table(C.OBSERVER_2)
+    red = cmf[wl == 780.0][0]
+    r = C.cct_duv_ohno(C.uv_from_XYZ(red[None, :]))
+    assert np.isnan(r.cct_K[0]) and np.isnan(r.duv[0])
+    assert "neither CCT nor Duv" in r.reason[0]

@@ -204,7 +204,8 @@ class CCTResult:
     cct_K : ndarray (N,)
         Correlated colour temperature, NaN where undefined (see ``reason``).
     duv : ndarray (N,)
-        Signed distance from the Planckian locus in CIE 1960 (u, v); positive above.
+        Signed distance from the Planckian locus in CIE 1960 (u, v); positive above. NaN where
+        the nearest Planckian temperature lies beyond the table (900-25000 K).
     cct_raw_K : ndarray (N,)
         The temperature of the nearest Planckian point even where CCT is undefined
         (clamped to the table's 900-25000 K); used only to pick a reference illuminant
@@ -285,14 +286,23 @@ def cct_duv_ohno(uv) -> CCTResult:
     Tx_safe = np.clip(np.where(np.isfinite(Tx) & (Tx > 0), Tx, T1), _T_LO, _T_HI)
     v_locus = np.interp(np.log(Tx_safe), np.log(T), tab[:, 1])
     sign = np.where(uv[:, 1] - v_locus >= 0.0, 1.0, -1.0)
-    duv = np.where(finite, sign * duv_abs, np.nan)
+    # Beyond the table's ends (900 K, 25 000 K) the nearest-point geometry breaks down: the
+    # "distance to the locus" would be measured to an end of the table, not to the locus, so
+    # Duv is undefined there as well as CCT.
+    beyond = finite & ~((Tx >= _T_LO) & (Tx <= _T_HI))
+    duv = np.where(finite & ~beyond, sign * duv_abs, np.nan)
 
-    far = finite & (np.abs(duv) > DUV_LIMIT)
-    out_of_range = finite & ~far & ((Tx < CCT_MIN_K - _RANGE_TOL_K) | (Tx > CCT_MAX_K + _RANGE_TOL_K))
+    far = finite & ~beyond & (np.abs(duv) > DUV_LIMIT)
+    out_of_range = finite & ~far & ((Tx < CCT_MIN_K - _RANGE_TOL_K) | (Tx > CCT_MAX_K + _RANGE_TOL_K) | beyond)
     reasons = [""] * n
     for k in np.flatnonzero(~finite | far | out_of_range):
         if not finite[k]:
             reasons[k] = "chromaticity is not a finite number"
+        elif beyond[k]:
+            reasons[k] = (
+                f"the chromaticity is nearest the Planckian locus beyond its {_T_LO:.0f}-{_T_HI:.0f} K "
+                "table: neither CCT nor Duv is defined"
+            )
         elif far[k]:
             reasons[k] = (
                 f"|Duv| = {abs(duv[k]):.4f} exceeds {DUV_LIMIT} "

@@ -137,7 +137,10 @@ def upvp_from_uv(uv) -> np.ndarray:
 
 def upvp_from_xy(xy) -> np.ndarray:
     """CIE 1976 (u', v') = (4x, 9y) / (−2x + 12y + 3) (CIE 15:2004 Eqs. 8.1-8.2), shape (..., 2)."""
-    return upvp_from_uv(uv_from_xy(xy))
+    xy = np.asarray(xy, dtype=float)
+    x, y = xy[..., 0], xy[..., 1]
+    d = -2.0 * x + 12.0 * y + 3.0
+    return np.stack([4.0 * x / d, 9.0 * y / d], axis=-1)
 
 
 def xy_from_upvp(upvp) -> np.ndarray:

@@ -431,8 +431,10 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
     judged = set(run.sources)
     keep = np.array([i for i, src in enumerate(spectra.sources) if src in judged], dtype=int)
     ev = evaluate(spectra.subset(keep), keep_details=False)
+    verdicts = ([run.check] if run.check is not None else []) + list(run.lot_results)
     write_outputs(
-        ev, html=html, plots=plots, verdicts=run.check, lot=run.stats,
+        ev, html=html, plots=plots, verdicts=verdicts or None, lot=run.stats,
+        overall=("fail" if run.failed else "pass") if verdicts else None,
         regions=regions_from_criteria(criteria) if criteria is not None else None,
         inputs=files, command="lumeval " + " ".join(sys.argv[1:]),
     )

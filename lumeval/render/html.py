@@ -564,6 +564,7 @@ def write_html_report(
     generated_at=None,
     per_sample_max: int = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
+    overall: str | None = None,
 ) -> Path:
     """Write the self-contained HTML report to ``path`` atomically; returns the path.
 
@@ -577,7 +578,7 @@ def write_html_report(
     _check_target_dir(p.parent if str(p.parent) else Path("."), "HTML report", "--html")
     text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
                               title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max,
-                              figures=figures)
+                              figures=figures, overall=overall)
     _atomic_write(p, text.encode("utf-8"))
     return p
 
@@ -595,6 +596,7 @@ def write_outputs(
     title: str | None = None,
     command: str | None = None,
     per_sample_max: int = PER_SAMPLE_MAX,
+    overall: str | None = None,
 ) -> list[Path]:
     """The ``--html FILE`` and ``--plots DIR`` options in one call: check both targets, draw
     the figures once, write the plots, then the report. Returns the paths written.
@@ -613,7 +615,7 @@ def write_outputs(
     if html is not None:
         out.append(write_html_report(html, evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
                                      inputs=inputs, title=title, command=command, per_sample_max=per_sample_max,
-                                     figures=figs))
+                                     figures=figs, overall=overall))
     return out
 
 
@@ -817,8 +819,13 @@ def render_html_report(
     generated_at=None,
     per_sample_max: int = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
+    overall: str | None = None,
 ) -> str:
     """The report as one HTML document (a string).
+
+    ``overall`` (``"pass"``, ``"fail"``, ``"indeterminate"`` or ``"not judged"``), when given,
+    is the verdict the command decided (a lot with a yield clause passes although some samples
+    fail); otherwise the worst outcome of the rows decides.
 
     Parameters
     ----------
@@ -881,7 +888,7 @@ def render_html_report(
             if crit_file:
                 bits.insert(0, f'criteria file <span class="mono">{_e(crit_file)}</span>')
             body.append('<p class="sub">' + " · ".join(bits) + "</p>")
-        overall = _worst(r.outcome for r in rows)
+        overall = overall if overall in _OUTCOME_TEXT else _worst(r.outcome for r in rows)
         counts = {o: sum(r.outcome == o for r in rows) for o in _OUTCOME_ORDER}
         per_sample = {}
         for r in rows:
@@ -895,8 +902,21 @@ def render_html_report(
         body.append(f'<div class="summary {overall.replace(" ", "-")}"><p class="big">{_badge(overall)} {_e(summary_words)}</p>'
                     f"<p>{len(rows)} checks: " + ", ".join(
                         f"{counts[o]} {_OUTCOME_TEXT[o][1].lower()}" for o in _OUTCOME_ORDER if counts[o]) + ".</p></div>")
+        lot_rows = [r for r in rows if r.sample is None]
+        if lot is not None and lot_rows:
+            body.append("<h3>Lot criteria</h3>")
+            body.append(_table(["Criterion", "Measured", "Limit", "Margin", "Verdict"],
+                               [[_e(r.clause), _num(r.measured) + (f" {_e(r.unit)}" if r.unit else ""), _e(r.limit),
+                                 _num(r.margin), _badge(r.outcome)] for r in lot_rows],
+                               numeric=[False, True, False, True, False],
+                               row_classes=["fail" if r.outcome == "fail" else "" for r in lot_rows]))
         if len(per_sample) > 1:
             items = sorted(per_sample.items(), key=lambda kv: "fail" not in kv[1])  # stable: failed first
+            if lot is not None:  # a lot: list the samples that did not pass; the rest are counted
+                passed = sum(_worst(o) == "pass" for s_, o in items if s_ != "(lot)")
+                items = [kv for kv in items if kv[0] != "(lot)" and _worst(kv[1]) != "pass"]
+                body.append(f'<p class="sub">{passed} of {n} samples met every per-sample criterion'
+                            + ("; the others:" if items else ".") + "</p>")
             shown_items = items[:MAX_TABLE_ROWS]
             body.append(_table(["Sample", "Verdict", "Checks failed"],
                                [[_e(s), _badge(_worst(o)), str(sum(x == "fail" for x in o))] for s, o in shown_items],

@@ -2,8 +2,8 @@
 
 Outside sources used (named beside each check):
 - ANSI C78.377-2017 Table 1 (target CCT ± tolerance, target Duv ± 0.006) and the published
-  category centres (x, y) — secondary transcriptions (project reference notes, agreeing with
-  a second public transcription), see lumeval/criteria/regions.py.
+  category centres (x, y) — secondary copies (project reference notes, agreeing with
+  a second public copy), see lumeval/criteria/regions.py.
 - ANSI C78.377-2008 corner coordinates of the 2700 K quadrangle — quoted from memory.
 - colour-science's ``CCT_to_uv_Ohno2013`` (independent implementation of Ohno 2014).
 - MacAdam (1942) ellipses as tabulated in Wyszecki & Stiles Table 2(5.4.1), colour-science's copy.
@@ -62,7 +62,7 @@ def test_cct_duv_roundtrip_through_ohno_inverse():
 
 def test_table_duv_targets_follow_the_flexible_formula():
     """ANSI C78.377-2017 Table 1: each target Duv equals 57700/T² − 44.6/T + 0.00854 at the
-    target CCT (0 below 2780 K), rounded to 4 decimals (two transcriptions of the same table)."""
+    target CCT (0 below 2780 K), rounded to 4 decimals (two copies of the same table)."""
     for c in R.ANSI_C78377_2017.values():
         assert round(float(R.ansi_flexible_duv(c.target_cct_K)), 4) == pytest.approx(c.target_duv, abs=1e-9)
 

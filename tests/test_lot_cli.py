@@ -1,6 +1,6 @@
 """`lumeval lot` on real files, and the lot clause kinds.
 
-Outside references: CIE 15:2004 Table T.8.1 (x, y of F1-F12; secondary transcription in
+Outside references: CIE 15:2004 Table T.8.1 (x, y of F1-F12; secondary copy in
 shared/reference-values.md, reproduced by summation at 5 nm to 5e-5) for the per-sample figures
 and the lot statistics computed from them with numpy by this test; scipy's pdist for the largest
 pairwise Δu'v'. Other checks are behaviours the issue asks for (a bad file never stops the

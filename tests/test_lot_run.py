@@ -52,7 +52,7 @@ def test_demo_lot_finds_the_planted_outliers(demo_run):
 
 def test_nominal_centre_from_ansi_clause(demo_run):
     # ANSI C78.377 3000 K category centre x, y = 0.4339, 0.4033 (4 decimals; secondary
-    # transcription in shared/reference-values.md): the lot's nominal centre is that point
+    # copy in shared/reference-values.md): the lot's nominal centre is that point
     np.testing.assert_allclose(demo_run.stats.nominal_xy, [0.4339, 0.4033], atol=5e-5)
 
 

@@ -31,7 +31,7 @@ F_NAMES = [f"FL{i}" for i in range(1, 13)]
 LED_NAMES = ["LED-B1", "LED-B2", "LED-B3", "LED-B4", "LED-B5", "LED-BH1", "LED-RGB1", "LED-V1", "LED-V2"]
 
 # CIE 15:2004 Table T.8.1, general colour rendering index Ra of F1-F12 (integers), as listed in
-# shared/reference-values.md (secondary transcription).
+# shared/reference-values.md (secondary copy).
 CIE15_T81_RA = {
     "FL1": 76, "FL2": 64, "FL3": 57, "FL4": 51, "FL5": 72, "FL6": 59,
     "FL7": 90, "FL8": 95, "FL9": 90, "FL10": 81, "FL11": 83, "FL12": 83,

@@ -12,7 +12,7 @@ Sources used (each check names its own beside it):
   melanopic 0.065754 W/m², i.e. melanopic DER of A = 0.065754 / 0.132621 = 0.4958).
 - luxpy 1.12.5 (GPLv3), an independent general-purpose library, as a test-only oracle:
   ``spd_to_ler`` and the CIE S 026 functions ``spd_to_aopicELR`` / ``spd_to_aopicDER`` (its
-  own transcription of the action spectra and of V(λ)). Used, never copied.
+  own copy of the action spectra and of V(λ)). Used, never copied.
 - colour-science 0.4.7 per-spectrum functions (``luminous_flux``, ``luminous_efficacy``) and
   its copies of CIE tables (illuminants A and D65 from CIE 15:2004 Table T.1, CIE 1951 V′(λ)).
 - Wien's displacement constant b = 2.897771955e-3 m K (CODATA 2018, ``scipy.constants``).
@@ -66,7 +66,7 @@ def test_action_spectra_file_is_the_cie_file():
 
 
 def test_action_spectra_agree_with_luxpys_independent_copy(luxpy):
-    # luxpy ships its own transcription of CIE S 026 Table 2 (wavelengths 380-780 nm).
+    # luxpy ships its own copy of CIE S 026 Table 2 (wavelengths 380-780 nm).
     from luxpy.toolboxes.photbiochem import alpha_opic_quantities_cie_s026_2018_cie_tn003_2015 as m
 
     table = np.asarray(m._ACTIONSPECTRA_CIES026, dtype=float)

@@ -8,7 +8,7 @@ Sources and how sure we are of them
 ANSI C78.377-2017, *Specifications for the Chromaticity of Solid-State Lighting Products*,
 Table 1 (basic nominal CCT categories). The edition encoded is **2017**. We have not read the
 standard's own text; the table values below are **secondary**: they agree between two
-independent transcriptions (the project's reference notes, and a public colorimetry code base
+independent copies (the project's reference notes, and a public colorimetry code base
 that labels them "ANSI C78.377-2017, Table 1"), and they are internally consistent (the
 tabulated target Duv equals the flexible-CCT formula at the target CCT, rounded to 1e-4;
 the test suite checks this).
@@ -48,7 +48,7 @@ SDCM ellipses: n steps = ``sqrt(g11 Δx² + 2 g12 Δx Δy + g22 Δy²)`` in CIE 
 (MacAdam 1942; the form IEC 60081 uses). Centres of the IEC 60081 fluorescent-lamp colours are
 from the project's reference notes (secondary). The coefficients g11, g12, g22 are **secondary
 / memory**: recalled as IEC 60081 Annex D values; those of F6500, F5000 and F4000 are identical
-in three independent public code transcriptions found with the project's search tool (index
+in three independent public code copies found with the project's search tool (index
 file ids 42270621401, 35090749065, 35805597679), those of F3500, F3000 and F2700 in one
 (42270621401). We have not read IEC 60081 itself. MacAdam (1942)
 ellipses (observer PGN) are taken from colour-science's copy of Wyszecki & Stiles (2000)
@@ -69,7 +69,7 @@ from ..metrics.colorimetry import planckian_uv, upvp_from_uv, upvp_from_xy, uv_f
 
 ANSI_EDITION = "ANSI C78.377-2017"
 ANSI_SOURCE = (
-    "ANSI C78.377-2017 Table 1 (secondary transcription; target Duv at each edge's CCT by the "
+    "ANSI C78.377-2017 Table 1 (secondary copy; target Duv at each edge's CCT by the "
     "flexible-CCT formula)"
 )
 #: Duv tolerance of every category (ANSI C78.377-2017 Table 1).
@@ -87,7 +87,7 @@ class AnsiCategory:
 
 
 #: ANSI C78.377-2017 Table 1: nominal CCT, target CCT, CCT tolerance, target Duv
-#: (Duv tolerance ± 0.006 for all). Secondary transcription, see the module docstring.
+#: (Duv tolerance ± 0.006 for all). Secondary copy, see the module docstring.
 ANSI_C78377_2017: dict[int, AnsiCategory] = {
     c.nominal_K: c
     for c in (
@@ -112,7 +112,7 @@ def ansi_flexible_duv(cct_K) -> np.ndarray:
     """Target Duv of ANSI C78.377-2015/2017 flexible CCT, vectorised.
 
     ``Duv_T = 57700/T² − 44.6/T + 0.00854`` for T ≥ 2780 K, and 0 for T < 2780 K
-    (ANSI C78.377-2017, flexible CCT; secondary transcription, see module docstring).
+    (ANSI C78.377-2017, flexible CCT; secondary copy, see module docstring).
 
     Parameters
     ----------
@@ -320,7 +320,7 @@ def _signed_distance_chunk(V: np.ndarray, P: np.ndarray) -> np.ndarray:
 
 IEC60081_SOURCE = (
     "IEC 60081 colour centres and tolerance-ellipse coefficients g11, g12, g22 (secondary: recalled as "
-    "IEC 60081 Annex D; F6500, F5000 and F4000 identical in three independent public code transcriptions, "
+    "IEC 60081 Annex D; F6500, F5000 and F4000 identical in three independent public code copies, "
     "F3500, F3000 and F2700 in one; the standard itself was not read)"
 )
 MACADAM_SOURCE = (

@@ -8,6 +8,7 @@ with one clean line, and keeps start-up light (no colour-science import before a
 from __future__ import annotations
 
 import importlib
+import signal
 import sys
 
 import typer
@@ -61,6 +62,10 @@ def main(argv: list[str] | None = None) -> None:
 
     args = list(argv if argv is not None else sys.argv[1:])
     debug = "--debug" in args
+    if argv is None and hasattr(signal, "SIGPIPE"):
+        # `lumeval lot ... | head`: end quietly on a closed pipe, as Unix tools do (shell status
+        # 141), rather than through the parser's handler, whose exit 1 would read "a criterion failed"
+        signal.signal(signal.SIGPIPE, signal.SIG_DFL)
     try:
         # standalone mode: the argument parser reports usage errors itself (exit 2) and
         # typer.Exit(code) ends with that code

@@ -514,12 +514,13 @@ def register(app: typer.Typer) -> None:
 
         from ..render import lot_report
 
-        if html is not None or plots is not None:
-            _write_lot_report(run, criteria, html, plots)
         if samples_csv is not None:
             _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f))
         if json_file is not None:
             _write_atomic(json_file, lambda f: lot_report.lot_json(run, f))
+        # the report last: the data files are the record, the report draws them
+        if html is not None or plots is not None:
+            _write_lot_report(run, criteria, html, plots)
         if output_format is OutputFormat.json:
             lot_report.lot_json(run, sys.stdout)
         elif output_format is OutputFormat.csv:

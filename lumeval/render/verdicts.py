@@ -494,6 +494,9 @@ def claims_renderables(check) -> list:
     t = Text("\n")
     if check.exit_code:
         t.append("OVERALL: ✘ the datasheet over-claims: at least one claim is contradicted by the supplier's own spectrum", style="bold red")
+    elif not any(o == "supported" for r in check.results for o in r.outcome):
+        t.append("OVERALL: – nothing could be checked: no claim is contradicted, but none is supported either",
+                 style="bold yellow")
     else:
         t.append("OVERALL: ✔ no claim is contradicted by the spectrum", style="bold green")
     out.append(t)

@@ -31,7 +31,6 @@ import re
 import tomllib
 from dataclasses import dataclass
 from decimal import Decimal
-from pathlib import Path
 
 import numpy as np
 
@@ -289,15 +288,6 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
 
 def load_claims(path) -> Claims:
     """Read and parse a claims file."""
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
-    except FileNotFoundError:
-        raise CriteriaError("no such file", file=str(path), fix="check the path given to --claims") from None
-    except IsADirectoryError:
-        raise CriteriaError("is a directory, not a claims file", file=str(path), fix="give the path of a .toml file") from None
-    except UnicodeDecodeError:
-        raise CriteriaError("is not UTF-8 text", file=str(path), fix="save the claims file as UTF-8 TOML") from None
-    except OSError as exc:
-        raise CriteriaError(f"cannot be read ({exc.strerror})", file=str(path), fix="check permissions") from None
-    return parse_claims(text, str(path))
+    from .loader import read_toml_text
+
+    return parse_claims(read_toml_text(path, "claims", "--claims"), str(path))

@@ -211,17 +211,22 @@ def _uncertainty_tables(data: dict, text: str, file: str) -> dict:
     return out
 
 
-def load_criteria(path) -> Criteria:
-    """Read and parse a criteria file (see :func:`parse_criteria`)."""
+def read_toml_text(path, what: str, option: str) -> str:
+    """The text of a TOML file the user named with ``option`` (a ``what`` file: "criteria",
+    "claims"), a byte-order mark tolerated; unreadable files raise :class:`CriteriaError`."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
+        return p.read_text(encoding="utf-8-sig")
     except FileNotFoundError:
-        raise CriteriaError("no such file", file=str(path), fix="check the path given to --criteria") from None
+        raise CriteriaError("no such file", file=str(path), fix=f"check the path given to {option}") from None
     except IsADirectoryError:
-        raise CriteriaError("is a directory, not a criteria file", file=str(path), fix="give the path of a .toml file") from None
+        raise CriteriaError(f"is a directory, not a {what} file", file=str(path), fix="give the path of a .toml file") from None
     except UnicodeDecodeError:
-        raise CriteriaError("is not UTF-8 text", file=str(path), fix="save the criteria file as UTF-8 TOML") from None
+        raise CriteriaError("is not UTF-8 text", file=str(path), fix=f"save the {what} file as UTF-8 TOML") from None
     except OSError as exc:
         raise CriteriaError(f"cannot be read ({exc.strerror})", file=str(path), fix="check permissions") from None
-    return parse_criteria(text, str(path))
+
+
+def load_criteria(path) -> Criteria:
+    """Read and parse a criteria file (see :func:`parse_criteria`)."""
+    return parse_criteria(read_toml_text(path, "criteria", "--criteria"), str(path))

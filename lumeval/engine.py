@@ -196,15 +196,15 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str,
     return tuple(out)
 
 
-def evaluate(spectra: SpectrumSet, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
+def evaluate(spectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
     """Evaluate every figure for every spectrum in ``spectra``.
 
     Parameters
     ----------
-    spectra : SpectrumSet
-        Spectra as read. They are prepared onto the computation grid first (see
-        :func:`lumeval.spectra.prepare.prepare`); what preparation did is recorded in the
-        result's warnings.
+    spectra : SpectrumSet or sequence of SpectrumSet
+        Spectra as read. They are prepared onto one computation grid first (see
+        :func:`lumeval.spectra.prepare.prepare`, which also joins several sets); what
+        preparation did is recorded in the result's warnings.
     chunk_size : int
         Spectra evaluated together; bounds peak memory for large lots.
     keep_details : bool

@@ -23,10 +23,9 @@ def inspect_files(paths):
     cannot be used.
     """
     from ..engine import evaluate
-    from ..spectra.prepare import prepare
     from ..spectra.read import read_spectra
 
-    return evaluate(prepare([read_spectra(p) for p in paths]))
+    return evaluate([read_spectra(p) for p in paths])
 
 
 def register(app: typer.Typer) -> None:

@@ -4,7 +4,11 @@ Outside sources used (named beside each check):
 - ANSI C78.377-2017 Table 1 (target CCT ± tolerance, target Duv ± 0.006) and the published
   category centres (x, y) — secondary copies (project reference notes, agreeing with
   a second public copy), see lumeval/criteria/regions.py.
-- ANSI C78.377-2008 corner coordinates of the 2700 K quadrangle — quoted from memory.
+- ANSI C78.377-2008 published corner coordinates and centres — secondary: two public code
+  transcriptions that agree exactly (Harold2017/myfirstflasky web/app/cri/views.py, plot titled
+  "C78.377-2008, Tolerance Quadrangle"; FireView Binning.cpp, Binning::defineBins_ANSI_C78_377).
+- ANSI C78.377-2015/2017 published corner coordinates — secondary: one public code transcription
+  (s006112/PER cie1931.py, CIE_BINS, labelled "ANSI C78.377-2015"), copied below.
 - colour-science's ``CCT_to_uv_Ohno2013`` (independent implementation of Ohno 2014).
 - MacAdam (1942) ellipses as tabulated in Wyszecki & Stiles Table 2(5.4.1), colour-science's copy.
 """
@@ -67,6 +71,14 @@ def test_table_duv_targets_follow_the_flexible_formula():
         assert round(float(R.ansi_flexible_duv(c.target_cct_K)), 4) == pytest.approx(c.target_duv, abs=1e-9)
 
 
+def test_2008_table_duv_targets_follow_the_2008_formula():
+    """ANSI C78.377-2008 Table 1 (memory): each target Duv is 57700/T² − 44.6/T + 0.0085 at the
+    target CCT rounded to 3 decimals (the table and the formula are both quoted from memory; they
+    are tied to the published corners by the next tests)."""
+    for c in R.ANSI_C78377_2008.values():
+        assert round(float(R.ansi_flexible_duv(c.target_cct_K, "2008")) + 0.0, 3) == pytest.approx(c.target_duv, abs=1e-9)
+
+
 def test_centres_reproduce_published_xy():
     """Published category centres (ANSI C78.377-2017, 4 decimals) within their rounding."""
     for n in NOMINALS:
@@ -75,18 +87,131 @@ def test_centres_reproduce_published_xy():
         assert np.max(np.abs(xy - np.array(PUBLISHED_CENTRES[n]))) <= 6e-5, n
 
 
+def test_2008_centres_reproduce_published_xy():
+    """Published ANSI C78.377-2008 centres (Harold2017/myfirstflasky, 4 decimals) within rounding."""
+    for n, c in PUBLISHED_CENTRES_2008.items():
+        xy = _xy(R.ansi_quadrangle(n, "2008").centre_upvp)[0]
+        np.testing.assert_allclose(xy, c, atol=6e-5, err_msg=str(n))
+
+
 def test_flexible_tolerance_formula_reproduces_table_ends():
     """The flexible tolerance cubic (memory) gives Table 1's ±145 K at 2725 K and ±510 K at 6532 K."""
     assert float(R.ansi_flexible_tolerance_K(2725.0)) == pytest.approx(145.0, abs=1.0)
     assert float(R.ansi_flexible_tolerance_K(6532.0)) == pytest.approx(510.0, abs=1.0)
 
 
-def test_2700K_corners_equal_the_2008_published_corners():
-    """Where both editions agree (target Duv 0 at both edges of the 2700 K category), the corners
-    equal ANSI C78.377-2008's published 2700 K quadrangle (x, y to 4 decimals; quoted from memory)."""
-    published = np.array([[0.4593, 0.3944], [0.4813, 0.4319], [0.4562, 0.4260], [0.4373, 0.3893]])
-    got = R.ansi_quadrangle(2700).corners_xy
-    assert np.max(np.abs(got - published)) <= 6e-5
+# --------------------------------------------------------------------------- published corners
+
+# Transcribed corner tables, each row in the transcriptions' order: (low CCT, high Duv),
+# (high CCT, high Duv), (high CCT, low Duv), (low CCT, low Duv); CIE 1931 (x, y).
+# ANSI C78.377-2008: Harold2017/myfirstflasky web/app/cri/views.py = FireView Binning.cpp.
+PUBLISHED_2008 = {
+    2700: [(0.4813, 0.4319), (0.4562, 0.4260), (0.4373, 0.3893), (0.4593, 0.3944)],
+    3000: [(0.4562, 0.4260), (0.4299, 0.4165), (0.4147, 0.3814), (0.4373, 0.3893)],
+    3500: [(0.4299, 0.4165), (0.3996, 0.4015), (0.3889, 0.3690), (0.4147, 0.3814)],
+    4000: [(0.4006, 0.4044), (0.3736, 0.3874), (0.3670, 0.3578), (0.3898, 0.3716)],
+    4500: [(0.3736, 0.3874), (0.3548, 0.3736), (0.3512, 0.3465), (0.3670, 0.3578)],
+    5000: [(0.3551, 0.3760), (0.3376, 0.3616), (0.3366, 0.3369), (0.3515, 0.3487)],
+    5700: [(0.3376, 0.3616), (0.3207, 0.3462), (0.3222, 0.3243), (0.3366, 0.3369)],
+    6500: [(0.3205, 0.3481), (0.3028, 0.3304), (0.3068, 0.3113), (0.3221, 0.3261)],
+}
+PUBLISHED_CENTRES_2008 = {
+    2700: (0.4578, 0.4101), 3000: (0.4338, 0.4030), 3500: (0.4073, 0.3917), 4000: (0.3818, 0.3797),
+    4500: (0.3611, 0.3658), 5000: (0.3447, 0.3553), 5700: (0.3287, 0.3417), 6500: (0.3123, 0.3282),
+}
+# ANSI C78.377-2015 (taken for 2017): s006112/PER cie1931.py CIE_BINS.
+PUBLISHED_2017 = {
+    2700: [(0.4813, 0.4319), (0.4562, 0.4260), (0.4373, 0.3893), (0.4593, 0.3944)],
+    3000: [(0.4562, 0.4260), (0.4303, 0.4173), (0.4150, 0.3821), (0.4373, 0.3893)],
+    3500: [(0.4303, 0.4173), (0.4003, 0.4035), (0.3895, 0.3709), (0.4150, 0.3821)],
+    4000: [(0.4003, 0.4035), (0.3737, 0.3880), (0.3671, 0.3583), (0.3895, 0.3709)],
+    4500: [(0.3737, 0.3882), (0.3550, 0.3754), (0.3514, 0.3482), (0.3672, 0.3585)],
+    5000: [(0.3550, 0.3753), (0.3375, 0.3619), (0.3366, 0.3373), (0.3515, 0.3481)],
+    5700: [(0.3375, 0.3619), (0.3205, 0.3476), (0.3221, 0.3256), (0.3366, 0.3374)],
+    6500: [(0.3205, 0.3477), (0.3026, 0.3311), (0.3067, 0.3119), (0.3221, 0.3255)],
+}
+PUBLISHED = {"2008": PUBLISHED_2008, "2017": PUBLISHED_2017}
+PUBLISHED_CASES = [(ed, n) for ed, t in PUBLISHED.items() for n in t]
+
+
+@pytest.mark.parametrize("edition,nominal", PUBLISHED_CASES)
+def test_quadrangle_uses_the_published_corners(edition, nominal):
+    """The encoded quadrangle's corners are the transcribed ones (same points, any order)."""
+    q = R.ansi_quadrangle(nominal, edition)
+    assert q.corners_origin == "published" and q.edition == edition
+    assert f"ANSI C78.377-{edition}" in q.name and f"ANSI C78.377-{edition}" in q.source
+    got = sorted(map(tuple, np.round(q.corners_xy, 10)))
+    want = sorted(PUBLISHED[edition][nominal])
+    np.testing.assert_allclose(got, want, atol=1e-12)
+
+
+@pytest.mark.parametrize("edition,nominal", PUBLISHED_CASES)
+def test_published_corner_points_and_points_just_inside_and_outside(edition, nominal):
+    """Membership of the published corner points: each corner is on the boundary (margin 0 to
+    1e-12); moved 2e-4 in (x, y) towards the published centre it is inside, moved 2e-4 away from
+    the centre it is outside; the centre is well inside."""
+    q = R.ansi_quadrangle(nominal, edition)
+    corners = np.array(PUBLISHED[edition][nominal])
+    centre = np.array(PUBLISHED_CENTRES_2008[nominal] if edition == "2008" else PUBLISHED_CENTRES[nominal])
+    np.testing.assert_allclose(q.margin(R.upvp_from_xy(corners)), 0.0, atol=1e-12)
+    d = centre - corners
+    d /= np.hypot(d[:, 0], d[:, 1])[:, None]
+    assert np.all(q.contains(R.upvp_from_xy(corners + 2e-4 * d)))
+    assert not np.any(q.contains(R.upvp_from_xy(corners - 2e-4 * d)))
+    assert q.margin(R.upvp_from_xy(centre[None, :]))[0] > 0.004
+
+
+def test_2008_corners_are_the_2008_construction():
+    """Computing the 2008 quadrangles from the 2008 Table 1 (memory) with the category's single
+    target Duv at both edges reproduces every published 2008 corner within its 4-decimal
+    rounding (5e-5): evidence for both the memory table and the construction."""
+    for n, rows in PUBLISHED_2008.items():
+        got = R.ansi_computed_quadrangle(n, "2008").corners_xy
+        want = np.array(rows)[[3, 0, 1, 2]]
+        np.testing.assert_allclose(got, want, atol=5e-5, rtol=0, err_msg=str(n))
+
+
+def test_2017_corners_are_close_to_the_2017_construction():
+    """Computing the 2017 quadrangles from Table 1 with the flexible target Duv at each edge's CCT
+    reproduces the transcribed corners within 1.6e-4, 23 of the 32 corners within their 5e-5
+    rounding: the transcription, labelled 2015, belongs to this table."""
+    within = 0
+    for n, rows in PUBLISHED_2017.items():
+        got = R.ansi_computed_quadrangle(n, "2017").corners_xy
+        want = np.array(rows)[[3, 0, 1, 2]]
+        np.testing.assert_allclose(got, want, atol=1.6e-4, rtol=0, err_msg=str(n))
+        within += int(np.sum(np.max(np.abs(got - want), axis=1) <= 5e-5))
+    assert within >= 23
+
+
+def test_the_editions_differ_where_the_issue_says():
+    """3500 K lower-left corner: 2008 (0.3889, 0.3690) vs 2017 (0.3895, 0.3709) (the two
+    transcriptions). A point just inside the 2008 corner is outside the 2017 quadrangle."""
+    p = R.upvp_from_xy(np.array([[0.3889 + 1e-4, 0.3690 + 2e-4]]))
+    assert R.ansi_quadrangle(3500, "2008").contains(p)[0]
+    assert not R.ansi_quadrangle(3500, "2017").contains(p)[0]
+    assert not R.ansi_quadrangle(3500).contains(p)[0]  # the default edition is 2017
+
+
+def test_2017_warm_categories_are_computed_and_meet_the_published_2700K():
+    """2200 K and 2500 K (no published transcription found) are computed; the 2500 K high-CCT
+    edge is the published 2700 K low-CCT edge within rounding (both are Planckian ± 0.006 at
+    2580 K, target Duv 0)."""
+    for n in (2200, 2500):
+        q = R.ansi_quadrangle(n)
+        assert q.corners_origin == "computed" and "computed" in q.source
+    hi_edge = R.ansi_quadrangle(2500).corners_xy[[3, 2]]
+    np.testing.assert_allclose(hi_edge, [PUBLISHED_2017[2700][3], PUBLISHED_2017[2700][0]], atol=5e-5)
+    with pytest.raises(KeyError):
+        R.ansi_quadrangle(2200, "2008")
+
+
+def test_edition_names():
+    assert R.normalise_ansi_edition(2008) == "2008"
+    assert R.normalise_ansi_edition("ANSI C78.377-2017") == "2017"
+    with pytest.raises(ValueError):
+        R.normalise_ansi_edition("2011")
+    assert R.ansi_edition_name() == "ANSI C78.377-2017"
 
 
 # --------------------------------------------------------------------------- membership
@@ -105,8 +230,9 @@ def test_centre_is_inside(nominal):
 
 @pytest.mark.parametrize("nominal", NOMINALS)
 def test_points_just_inside_and_outside_each_edge(nominal):
-    """Points built from the table's CCT ± tolerance and Duv ± 0.006 fall on the right side."""
-    q = R.ansi_quadrangle(nominal)
+    """The 2017 construction (computed corners): points built from the table's CCT ± tolerance
+    and Duv ± 0.006 fall on the right side."""
+    q = R.ansi_computed_quadrangle(nominal)
     cat = R.ANSI_C78377_2017[nominal]
     lo, hi = cat.target_cct_K - cat.tolerance_K, cat.target_cct_K + cat.tolerance_K
     D = lambda T: float(R.ansi_flexible_duv(T))  # noqa: E731
@@ -156,27 +282,52 @@ def test_margin_is_distance_in_upvp():
     assert q.margin(m + 0.002 * nrm)[0] == pytest.approx(-0.002, abs=1e-12)
 
 
-def test_neighbours_share_edges_and_do_not_overlap():
-    """Adjacent categories share the corners of their common CCT edge exactly, and no point of a
-    dense grid lies strictly inside two quadrangles."""
+def test_computed_neighbours_share_edges_and_do_not_overlap():
+    """2017 construction: adjacent categories share the corners of their common CCT edge exactly,
+    and no point of a dense grid lies strictly inside two quadrangles."""
     for a, b in zip(NOMINALS[:-1], NOMINALS[1:]):
-        qa, qb = R.ansi_quadrangle(a), R.ansi_quadrangle(b)
+        qa, qb = R.ansi_computed_quadrangle(a), R.ansi_computed_quadrangle(b)
         assert qa.cct_range_K[1] == qb.cct_range_K[0]
         assert np.allclose(qa.corners_upvp[[3, 2]], qb.corners_upvp[[0, 1]], atol=1e-12)
     u = np.linspace(0.19, 0.29, 260)
     v = np.linspace(0.44, 0.54, 260)
     P = np.stack(np.meshgrid(u, v), axis=-1).reshape(-1, 2)
-    M = np.stack([R.ansi_quadrangle(n).margin(P) for n in NOMINALS])
+    M = np.stack([R.ansi_computed_quadrangle(n).margin(P) for n in NOMINALS])
     strictly = (M > 1e-12).sum(axis=0)
     assert strictly.max() == 1  # every quadrangle is hit, none overlaps another
     assert set(np.flatnonzero((M > 1e-12).any(axis=1))) == set(range(len(NOMINALS)))
 
 
+@pytest.mark.parametrize("edition", ["2008", "2017"])
+def test_published_neighbours_overlap_at_most_by_their_rounding(edition):
+    """Published (4-decimal) corner tables: neighbouring quadrangles overlap nowhere by more than
+    1.5e-4 in u'v' (the rounding of the transcribed corners), over a dense grid."""
+    noms = sorted(PUBLISHED[edition])
+    u = np.linspace(0.19, 0.27, 300)
+    v = np.linspace(0.46, 0.54, 300)
+    P = np.stack(np.meshgrid(u, v), axis=-1).reshape(-1, 2)
+    M = np.stack([R.ansi_quadrangle(n, edition).margin(P) for n in noms])
+    assert ((M > 1.5e-4).sum(axis=0)).max() == 1
+
+
 def test_flexible_quadrangle_at_a_table_cct_matches_the_category():
-    """A flexible category at a table's target and tolerance is that category's quadrangle."""
+    """A flexible category at a table's target and tolerance is that category's 2017 construction."""
     cat = R.ANSI_C78377_2017[4000]
     f = R.ansi_flexible_quadrangle(cat.target_cct_K, cat.tolerance_K)
-    assert np.allclose(f.corners_upvp, R.ansi_quadrangle(4000).corners_upvp, atol=1e-12)
+    assert np.allclose(f.corners_upvp, R.ansi_computed_quadrangle(4000).corners_upvp, atol=1e-12)
+    assert f.corners_origin == "computed" and f.edition == "2017"
+
+
+def test_2008_flexible_uses_one_target_duv_at_both_edges():
+    """2008 flexible CCT (formula, memory): both isotemperature edges centred on the formula's
+    Duv at the target CCT; at the 2008 4000 K table values its corners lie near the
+    published 2008 4000 K corners within 2.5e-4 (the table rounds the target Duv 0.00094 to 0.001)."""
+    cat = R.ANSI_C78377_2008[4000]
+    f = R.ansi_flexible_quadrangle(cat.target_cct_K, cat.tolerance_K, "2008")
+    d = float(R.ansi_flexible_duv(cat.target_cct_K, "2008"))
+    np.testing.assert_allclose(f.duv_edges, [[d - 0.006, d + 0.006], [d - 0.006, d + 0.006]], atol=1e-15)
+    np.testing.assert_allclose(f.corners_xy, np.array(PUBLISHED_2008[4000])[[3, 0, 1, 2]], atol=2.5e-4)
+    assert "2008" in f.name and "formula" in f.source
 
 
 # --------------------------------------------------------------------------- SDCM

@@ -177,8 +177,10 @@ def explain_markdown(criteria) -> str:
     else:
         a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty.")
     a(
-        "- Chromaticity regions: ANSI C78.377-2017 quadrangle corners at target CCT ∓ tolerance with the flexible-CCT "
-        "target Duv of each edge ± 0.006; SDCM steps = √(g11 Δx² + 2 g12 Δx Δy + g22 Δy²) in CIE 1931 (x, y)."
+        "- Chromaticity regions: ANSI C78.377 quadrangles of the edition each requirement names, with that "
+        "edition's published corners where available, otherwise corners computed by the edition's formula "
+        "(target CCT ∓ tolerance, target Duv ± 0.006); SDCM steps = √(g11 Δx² + 2 g12 Δx Δy + g22 Δy²) in "
+        "CIE 1931 (x, y)."
     )
     a("")
     a("## Standards and sources referred to")

@@ -361,20 +361,22 @@ def _figure_summary() -> list[str]:
 @register_clause_kind
 @dataclass(frozen=True)
 class AnsiQuadrangleClause(ClauseKind):
-    """Chromaticity inside the ANSI C78.377-2017 quadrangle of a nominal CCT category."""
+    """Chromaticity inside the ANSI C78.377 quadrangle of a nominal CCT category (edition 2008 or 2017)."""
 
     KIND: ClassVar[str] = "ansi_quadrangle"
-    TITLE: ClassVar[str] = "Inside an ANSI C78.377-2017 nominal-CCT quadrangle"
+    TITLE: ClassVar[str] = "Inside an ANSI C78.377 nominal-CCT quadrangle (edition 2008 or 2017)"
     KEYS: ClassVar[dict[str, KeySpec]] = {
         k.name: k
         for k in (
             KeySpec(
                 "nominal_cct",
-                'one of 2200, 2500, 2700, 3000, 3500, 4000, 4500, 5000, 5700, 6500, or "flexible"',
-                "the nominal CCT category of ANSI C78.377-2017 Table 1",
+                'one of 2200, 2500, 2700, 3000, 3500, 4000, 4500, 5000, 5700, 6500 (2008: 2700 … 6500), or "flexible"',
+                "the nominal CCT category of the edition's Table 1",
                 True,
             ),
-            KeySpec("target_cct_K", "number, 2200 … 7000 (only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
+            KeySpec("edition", f"{' or '.join(regions.ANSI_EDITIONS)} (default {regions.ANSI_DEFAULT_EDITION})",
+                    "the edition of ANSI C78.377 whose quadrangles are used"),
+            KeySpec("target_cct_K", "number, 2200 … 7000 (2008: 2700 … 6500; only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
             KeySpec("tolerance_K", "positive number (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
         )
     }
@@ -386,35 +388,50 @@ class AnsiQuadrangleClause(ClauseKind):
     nominal: int | None
     target_cct_K: float | None
     tolerance_K: float | None
+    edition: str = regions.ANSI_DEFAULT_EDITION
 
     @classmethod
     def parse(cls, table: dict, common: dict) -> "AnsiQuadrangleClause":
+        ed_raw = table.get("edition", regions.ANSI_DEFAULT_EDITION)
+        if isinstance(ed_raw, float) and ed_raw.is_integer():
+            ed_raw = int(ed_raw)
+        try:
+            if isinstance(ed_raw, bool) or not isinstance(ed_raw, (int, str)):
+                raise ValueError
+            ed = regions.normalise_ansi_edition(ed_raw)
+        except ValueError:
+            raise ParseError("edition", f"{ed_raw!r} is not an encoded edition of ANSI C78.377",
+                             f"write edition = {' or '.join(regions.ANSI_EDITIONS)}") from None
+        name = regions.ansi_edition_name(ed)
+        table_1 = regions.ansi_table(ed)
         nom = table.get("nominal_cct")
-        allowed = ", ".join(str(k) for k in regions.ANSI_C78377_2017) + ', "flexible"'
+        allowed = ", ".join(str(k) for k in table_1) + ', "flexible"'
         if nom is None:
             raise ParseError(None, "an ansi_quadrangle clause needs `nominal_cct`", f"add nominal_cct = one of {allowed}")
         tgt, tol = number(table, "target_cct_K"), number(table, "tolerance_K", positive=True, allow_zero=False)
         if isinstance(nom, str) and nom.lower() == "flexible":
             if tgt is None:
                 raise ParseError(None, 'nominal_cct = "flexible" needs `target_cct_K`', "add target_cct_K = e.g. 3800")
-            lo, hi = regions.ANSI_FLEXIBLE_RANGE_K
+            lo, hi = regions.ANSI_FLEXIBLE_RANGES_K[ed]
             if not lo <= tgt <= hi:
-                raise ParseError("target_cct_K", f"{tgt:g} K is outside the flexible range {lo:.0f}-{hi:.0f} K", f"write a value between {lo:.0f} and {hi:.0f}")
-            label = common["label"] or f"inside ANSI C78.377-2017 flexible {tgt:.0f} K quadrangle"
-            return cls(common["id"], label, common["note"], common["line"], None, tgt, tol)
-        if not (is_number(nom) and float(nom) in regions.ANSI_C78377_2017):
-            raise ParseError("nominal_cct", f"{nom!r} is not a nominal CCT category of ANSI C78.377-2017", f"allowed: {allowed}")
+                raise ParseError("target_cct_K", f"{tgt:g} K is outside the flexible range {lo:.0f}-{hi:.0f} K of {name}", f"write a value between {lo:.0f} and {hi:.0f}")
+            label = common["label"] or f"inside {name} flexible {tgt:.0f} K quadrangle"
+            return cls(common["id"], label, common["note"], common["line"], None, tgt, tol, ed)
+        if not (is_number(nom) and float(nom) in table_1):
+            other = [e for e in regions.ANSI_EDITIONS if e != ed and is_number(nom) and float(nom) in regions.ansi_table(e)]
+            hint = f" (it is one of edition {other[0]})" if other else ""
+            raise ParseError("nominal_cct", f"{nom!r} is not a nominal CCT category of {name}{hint}", f"allowed: {allowed}")
         for k in ("target_cct_K", "tolerance_K"):
             if k in table:
                 raise ParseError(k, f"`{k}` applies only to a flexible category", f'remove it, or set nominal_cct = "flexible"')
-        label = common["label"] or f"inside ANSI C78.377-2017 {int(nom)} K quadrangle"
-        return cls(common["id"], label, common["note"], common["line"], int(nom), None, None)
+        label = common["label"] or f"inside {name} {int(nom)} K quadrangle"
+        return cls(common["id"], label, common["note"], common["line"], int(nom), None, None, ed)
 
     @property
     def quadrangle(self) -> regions.Quadrangle:
         if self.nominal is not None:
-            return regions.ansi_quadrangle(self.nominal)
-        return regions.ansi_flexible_quadrangle(self.target_cct_K, self.tolerance_K)
+            return regions.ansi_quadrangle(self.nominal, self.edition)
+        return regions.ansi_flexible_quadrangle(self.target_cct_K, self.tolerance_K, self.edition)
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         q = self.quadrangle
@@ -423,7 +440,9 @@ class AnsiQuadrangleClause(ClauseKind):
         outcome, reason = simple_outcomes(margin)
         cct, duv = np.asarray(ev.cct_K, float), np.asarray(ev.duv, float)
         lo, hi = q.cct_range_K
-        lim = f"CCT {lo:.0f}–{hi:.0f} K, Duv target ± {regions.ANSI_DUV_TOLERANCE}"
+        # the edition and how the corners were obtained travel in the limit text, so every
+        # report (terminal, JSON "limit", CSV, HTML) names them whatever the clause's label
+        lim = f"{regions.ansi_edition_name(self.edition)}, {q.corners_text}: CCT {lo:.0f}–{hi:.0f} K, Duv target ± {regions.ANSI_DUV_TOLERANCE}"
         return (
             ClauseResult(
                 clause_id=self.clause_id,
@@ -448,21 +467,30 @@ class AnsiQuadrangleClause(ClauseKind):
     def tender_text(self) -> str:
         q = self.quadrangle
         lo, hi = q.cct_range_K
+        name = regions.ansi_edition_name(self.edition)
         if self.nominal is not None:
-            cat = regions.ANSI_C78377_2017[self.nominal]
+            cat = regions.ansi_table(self.edition)[self.nominal]
             what = (
-                f"the {self.nominal} K nominal CCT category of ANSI C78.377-2017 (Table 1: target CCT "
-                f"{cat.target_cct_K:.0f} ± {cat.tolerance_K:.0f} K, target Duv {cat.target_duv:+.4f} ± 0.006)"
+                f"the {self.nominal} K nominal CCT category of {name} (Table 1: target CCT "
+                f"{cat.target_cct_K:.0f} ± {cat.tolerance_K:.0f} K, i.e. {lo:.0f} K to {hi:.0f} K, target Duv "
+                f"{cat.target_duv:+.4f} ± 0.006)"
             )
         else:
-            what = f"the ANSI C78.377-2017 flexible-CCT quadrangle for {self.target_cct_K:.0f} K (CCT {lo:.0f}–{hi:.0f} K)"
-        return (
-            f"The chromaticity shall lie inside the quadrangle of {what}, with corners at CCT {lo:.0f} K and "
-            f"{hi:.0f} K and Duv equal to the standard's flexible-CCT target at each edge ± 0.006."
-        )
+            what = f"the {name} flexible-CCT quadrangle for {self.target_cct_K:.0f} K (CCT {lo:.0f}–{hi:.0f} K)"
+        if q.corners_origin == "published":
+            xy = q.corners_xy
+            corners = "; ".join(f"({x:.4f}, {y:.4f})" for x, y in xy)
+            how = f"with the corners published in that edition, CIE 1931 (x, y) = {corners}"
+        elif self.edition == "2008":
+            how = (f"with corners at CCT {lo:.0f} K and {hi:.0f} K and Duv equal to the edition's flexible-CCT "
+                   f"target at the target CCT ± 0.006")
+        else:
+            how = (f"with corners at CCT {lo:.0f} K and {hi:.0f} K and Duv equal to the standard's flexible-CCT "
+                   f"target at each edge ± 0.006")
+        return f"The chromaticity shall lie inside the quadrangle of {what}, {how}."
 
     def sources(self) -> tuple[str, ...]:
-        return (regions.ANSI_EDITION + " Table 1", "Ohno (2014) LEUKOS 10(1):47-55 for CCT/Duv")
+        return (self.quadrangle.source, "Ohno (2014) LEUKOS 10(1):47-55 for CCT/Duv")
 
 
 # --------------------------------------------------------------------------- SDCM ellipse

@@ -5,39 +5,76 @@ and results go out as arrays of shape (N,).
 
 Sources and how sure we are of them
 -----------------------------------
-ANSI C78.377-2017, *Specifications for the Chromaticity of Solid-State Lighting Products*,
-Table 1 (basic nominal CCT categories). The edition encoded is **2017**. We have not read the
-standard's own text; the table values below are **secondary**: they agree between two
-independent copies (the project's reference notes, and a public colorimetry code base
-that labels them "ANSI C78.377-2017, Table 1"), and they are internally consistent (the
-tabulated target Duv equals the flexible-CCT formula at the target CCT, rounded to 1e-4;
-the test suite checks this).
+ANSI C78.377, *Specifications for the Chromaticity of Solid-State Lighting Products*. Two
+editions are encoded; a clause names one (``edition = 2008 | 2017``, default **2017**). We have
+not read either standard's own text: every value below is **secondary** and says where it
+comes from.
 
-* Target CCT ± tolerance per nominal category (2200 ... 6500 K) and target Duv; the Duv
-  tolerance is ± 0.006 for every category.
-* The centre line of the categories is a "white curve" that follows the Planckian locus at low
-  CCT and runs to illuminant D65 at 6500 K (J. Jiao, "ANSI continues advancements on SSL
-  chromaticity standard", LEDs Magazine 12(11), 2015 — secondary, describing the 2015
-  edition); the flexible-CCT target Duv below expresses it.
-* Flexible-CCT target Duv (2015/2017 editions, as transcribed):
-  ``Duv_T(T) = 57700/T² − 44.6/T + 0.00854`` for 2780 K ≤ T ≤ 7000 K and ``0`` below
-  2780 K. (The 2008 edition wrote the constant as 0.0085; with 0.0085 the 5700 K and 6500 K
-  targets of Table 1 — 0.0025 and 0.0031 — are not reproduced, with 0.00854 they are.)
-* Flexible-CCT tolerance ``ΔT(T) = 1.1900e-8 T³ − 1.5434e-4 T² + 0.7168 T − 902.55`` K —
-  **memory** (recalled from the 2008 edition; it reproduces Table 1's ±145 K at 2725 K and
-  ±510 K at 6532 K but not the tolerances in between, which the table sets directly).
-  Used only for a flexible category without a user-given tolerance, and said so in reports.
+Edition 2017 (default)
+    Table 1 (basic nominal CCT categories 2200 ... 6500 K: target CCT ± tolerance, target Duv
+    ± 0.006): two independent copies agree (the project's reference notes, and the public
+    colorimetry code base harbik/colorimetry, ``plot_ansi_step7`` in its chromaticity-plot module,
+    labelled "ANSI C78.377-2017, Table 1"). The tabulated target Duv equals the flexible-CCT
+    formula at the target CCT (checked in the tests).
 
-How the quadrangle corners are computed (the 2017 reading encoded here): the four corners are
-the chromaticities at ``CCT = T_target ∓ ΔT`` and ``Duv = Duv_T(CCT) ± 0.006``, i.e. the
-target Duv is evaluated **at each edge's own CCT** with the flexible formula (not at the
-category centre). Adjacent categories then share their common edge exactly (e.g. 2700 K and
-3000 K meet at 2870 K). The 2008 edition instead used the category's single target Duv at
-both edges, so its 3500 K and 4000 K quadrangles meet along the 3710 K line with offset
-corners; that edition is not encoded. Edges are straight lines between corners; a straight
-line is straight in (x, y), (u, v) and (u', v') alike (the transforms are projective), so
-membership does not depend on the diagram. Margins are Euclidean distances in CIE 1976
-(u', v') (Δu'v'), positive inside.
+    **Corners, published** (2700 ... 6500 K): the corner table transcribed in the public
+    repository s006112/PER, file ``cie1931.py`` (``CIE_BINS``, labelled "ANSI C78.377-2015
+    chromaticity bin data"; read through the project's code search). That transcription is
+    labelled 2015; we take it as the 2017 table because the category table it derives from is
+    the same in the 2015 and 2017 copies, and because computing the corners from the 2017 Table 1
+    and the flexible-CCT formula (below) reproduces every transcribed corner within 1.6e-4 in
+    x and y (most within their 5e-5 rounding; checked in the tests). Confidence: one
+    transcription, secondary, with that independent numerical support.
+
+    **Corners, computed** (2200 K and 2500 K): no transcription of these corners was found;
+    they are computed from Table 1 the way the standard defines its flexible categories: the
+    four corners are the chromaticities at ``CCT = T_target ∓ ΔT`` and
+    ``Duv = Duv_T(CCT) ± 0.006``, the target Duv evaluated **at each edge's own CCT**
+    (0 below 2780 K, so these corners are simply the Planckian locus ± 0.006 at the two edges). Reports say
+    "corners computed by formula" for them.
+
+    Flexible-CCT target Duv (2015/2017 editions, as transcribed):
+    ``Duv_T(T) = 57700/T² − 44.6/T + 0.00854`` for 2780 K ≤ T ≤ 7000 K and ``0`` below
+    2780 K. (With 0.0085 the 5700 K and 6500 K targets of Table 1 — 0.0025 and 0.0031 — are not
+    reproduced, with 0.00854 they are.) The centre line these targets follow is the "white
+    curve" from the Planckian locus at low CCT to illuminant D65 at 6500 K (J. Jiao, "ANSI
+    continues advancements on SSL chromaticity standard", LEDs Magazine 12(11), 2015 —
+    secondary, describing the 2015 edition).
+
+Edition 2008
+    **Corners, published** (2700 ... 6500 K; the 2008 edition has no 2200 K or 2500 K
+    category): the widely transcribed corner table, found in two independent public code
+    copies that agree to every digit: repository Harold2017/myfirstflasky, file
+    ``web/app/cri/views.py`` (plot titled "C78.377-2008, Tolerance Quadrangle", with the
+    category centres), and the LGPL "FireView" source file ``Binning.cpp``
+    (``Binning::defineBins_ANSI_C78_377``; MultiTouch Oy; the index did not name its
+    repository). Confidence: secondary, two agreeing copies.
+
+    Table 1 of 2008 (target CCT ± tolerance, target Duv ± 0.006): 2725 ± 145 K, 3045 ± 175,
+    3465 ± 245, 3985 ± 275, 4503 ± 243, 5028 ± 283, 5665 ± 355, 6530 ± 510; target Duv 0.000,
+    0.000, 0.000, 0.001, 0.001, 0.002, 0.002, 0.003 — **memory**, but confirmed: with the
+    category's single target Duv at both isotemperature edges these values reproduce every
+    published 2008 corner and centre to its 4-decimal rounding (checked in the tests). That is
+    the 2008 construction: one target Duv per category, used at both edges, so the 3500 K and
+    4000 K quadrangles meet along the 3710 K line with offset corners.
+
+    Flexible CCT of 2008 (defined by formula, so computed): target Duv
+    ``57700/T² − 44.6/T + 0.0085`` at the target CCT (the 2008 Table 1 targets are this formula
+    rounded to 3 decimals; checked in the tests), used at both edges, and the tolerance formula
+    below; flexible targets 2700 ... 6500 K. The formula constants are **memory**.
+
+Flexible-CCT tolerance (both editions)
+    ``ΔT(T) = 1.1900e-8 T³ − 1.5434e-4 T² + 0.7168 T − 902.55`` K — **memory** (recalled from
+    the 2008 edition; it reproduces Table 1's ±145 K at 2725 K and ±510 K at 6532 K but not the
+    tolerances in between, which the table sets directly). Used only for a flexible category
+    without a user-given tolerance, and said so in reports.
+
+Edges are straight lines between corners; a straight line is straight in (x, y), (u, v) and
+(u', v') alike (the transforms are projective), so membership does not depend on the diagram.
+Margins are Euclidean distances in CIE 1976 (u', v') (Δu'v'), positive inside. The published
+corners are rounded to 4 decimals, so neighbouring published quadrangles of the 2017 table meet
+with gaps or overlaps of up to about 2e-4 in (x, y) (e.g. 4000 K / 4500 K); a point in such a
+sliver belongs to both or neither, exactly as the published table says.
 
 A (CCT, Duv) pair is converted to a chromaticity as in Ohno (2014), LEUKOS 10(1):47-55,
 Eqs. 13-14: the Planckian point (u0, v0) at T moved by Duv along the locus normal in CIE 1960
@@ -67,18 +104,34 @@ from ..metrics.colorimetry import planckian_uv, upvp_from_uv, upvp_from_xy, uv_f
 
 # --------------------------------------------------------------------------- ANSI C78.377
 
+#: Editions a clause may name (``edition = 2008 | 2017``) and the default.
+ANSI_EDITIONS: tuple[str, ...] = ("2008", "2017")
+ANSI_DEFAULT_EDITION = "2017"
+#: Name of the default edition (kept for callers that name "the" edition).
 ANSI_EDITION = "ANSI C78.377-2017"
-ANSI_SOURCE = (
-    "ANSI C78.377-2017 Table 1 (secondary copy; target Duv at each edge's CCT by the "
-    "flexible-CCT formula)"
-)
-#: Duv tolerance of every category (ANSI C78.377-2017 Table 1).
+#: Duv tolerance of every category (ANSI C78.377-2008 and -2017 Table 1).
 ANSI_DUV_TOLERANCE = 0.006
+
+
+def ansi_edition_name(edition: str = ANSI_DEFAULT_EDITION) -> str:
+    """``"2017"`` -> ``"ANSI C78.377-2017"``."""
+    return f"ANSI C78.377-{normalise_ansi_edition(edition)}"
+
+
+def normalise_ansi_edition(edition) -> str:
+    """``2017``, ``"2017"`` or ``"ANSI C78.377-2017"`` -> ``"2017"``; ValueError for an edition
+    that is not encoded."""
+    text = str(edition).strip()
+    if text.upper().startswith("ANSI C78.377-"):
+        text = text[len("ANSI C78.377-"):]
+    if isinstance(edition, bool) or text not in ANSI_EDITIONS:
+        raise ValueError(f"ANSI C78.377 edition {edition!r} is not encoded (encoded: {', '.join(ANSI_EDITIONS)})")
+    return text
 
 
 @dataclass(frozen=True)
 class AnsiCategory:
-    """One nominal CCT category of ANSI C78.377-2017 Table 1."""
+    """One nominal CCT category of an ANSI C78.377 Table 1."""
 
     nominal_K: int
     target_cct_K: float
@@ -104,15 +157,92 @@ ANSI_C78377_2017: dict[int, AnsiCategory] = {
     )
 }
 
-#: Range of CCT over which the flexible-CCT rules apply (ANSI C78.377-2017, as transcribed).
-ANSI_FLEXIBLE_RANGE_K = (2200.0, 7000.0)
+#: ANSI C78.377-2008 Table 1 (memory, confirmed by the published 2008 corners: see the module
+#: docstring). No 2200 K or 2500 K category in that edition.
+ANSI_C78377_2008: dict[int, AnsiCategory] = {
+    c.nominal_K: c
+    for c in (
+        AnsiCategory(2700, 2725.0, 145.0, 0.000),
+        AnsiCategory(3000, 3045.0, 175.0, 0.000),
+        AnsiCategory(3500, 3465.0, 245.0, 0.000),
+        AnsiCategory(4000, 3985.0, 275.0, 0.001),
+        AnsiCategory(4500, 4503.0, 243.0, 0.001),
+        AnsiCategory(5000, 5028.0, 283.0, 0.002),
+        AnsiCategory(5700, 5665.0, 355.0, 0.002),
+        AnsiCategory(6500, 6530.0, 510.0, 0.003),
+    )
+}
+
+#: Table 1 of each encoded edition.
+ANSI_TABLES: dict[str, dict[int, AnsiCategory]] = {"2008": ANSI_C78377_2008, "2017": ANSI_C78377_2017}
+
+#: Published corner coordinates (CIE 1931 x, y; 4 decimals) as transcribed, in the
+#: transcriptions' own order: (low CCT, high Duv), (high CCT, high Duv), (high CCT, low Duv),
+#: (low CCT, low Duv). Sources and confidence: module docstring.
+_PUBLISHED_CORNERS_XY: dict[str, dict[int, tuple[tuple[float, float], ...]]] = {
+    # Harold2017/myfirstflasky web/app/cri/views.py and FireView Binning.cpp (agree exactly)
+    "2008": {
+        2700: ((0.4813, 0.4319), (0.4562, 0.4260), (0.4373, 0.3893), (0.4593, 0.3944)),
+        3000: ((0.4562, 0.4260), (0.4299, 0.4165), (0.4147, 0.3814), (0.4373, 0.3893)),
+        3500: ((0.4299, 0.4165), (0.3996, 0.4015), (0.3889, 0.3690), (0.4147, 0.3814)),
+        4000: ((0.4006, 0.4044), (0.3736, 0.3874), (0.3670, 0.3578), (0.3898, 0.3716)),
+        4500: ((0.3736, 0.3874), (0.3548, 0.3736), (0.3512, 0.3465), (0.3670, 0.3578)),
+        5000: ((0.3551, 0.3760), (0.3376, 0.3616), (0.3366, 0.3369), (0.3515, 0.3487)),
+        5700: ((0.3376, 0.3616), (0.3207, 0.3462), (0.3222, 0.3243), (0.3366, 0.3369)),
+        6500: ((0.3205, 0.3481), (0.3028, 0.3304), (0.3068, 0.3113), (0.3221, 0.3261)),
+    },
+    # s006112/PER cie1931.py CIE_BINS (labelled 2015; taken for 2017, see the module docstring)
+    "2017": {
+        2700: ((0.4813, 0.4319), (0.4562, 0.4260), (0.4373, 0.3893), (0.4593, 0.3944)),
+        3000: ((0.4562, 0.4260), (0.4303, 0.4173), (0.4150, 0.3821), (0.4373, 0.3893)),
+        3500: ((0.4303, 0.4173), (0.4003, 0.4035), (0.3895, 0.3709), (0.4150, 0.3821)),
+        4000: ((0.4003, 0.4035), (0.3737, 0.3880), (0.3671, 0.3583), (0.3895, 0.3709)),
+        4500: ((0.3737, 0.3882), (0.3550, 0.3754), (0.3514, 0.3482), (0.3672, 0.3585)),
+        5000: ((0.3550, 0.3753), (0.3375, 0.3619), (0.3366, 0.3373), (0.3515, 0.3481)),
+        5700: ((0.3375, 0.3619), (0.3205, 0.3476), (0.3221, 0.3256), (0.3366, 0.3374)),
+        6500: ((0.3205, 0.3477), (0.3026, 0.3311), (0.3067, 0.3119), (0.3221, 0.3255)),
+    },
+}
+
+#: Where each edition's published corners come from (named in every report's sources).
+ANSI_CORNER_SOURCES: dict[str, str] = {
+    "2008": (
+        "ANSI C78.377-2008 Table 1 published corner coordinates (secondary: two agreeing public code transcriptions, "
+        "Harold2017/myfirstflasky web/app/cri/views.py and FireView Binning.cpp)"
+    ),
+    "2017": (
+        "ANSI C78.377-2017 Table 1 published corner coordinates (secondary: transcription in s006112/PER cie1931.py, "
+        "labelled 2015; reproduced within 1.6e-4 by computing from the 2017 Table 1)"
+    ),
+}
+_COMPUTED_SOURCES: dict[str, str] = {
+    "2008": (
+        "ANSI C78.377-2008 flexible CCT, corners computed by formula (target Duv 57700/T² − 44.6/T + 0.0085 at the "
+        "target CCT, used at both edges; memory, consistent with the 2008 Table 1)"
+    ),
+    "2017": (
+        "ANSI C78.377-2017 Table 1, corners computed by formula (target Duv by the flexible-CCT formula at each "
+        "edge's CCT; secondary copy of the table; no published corner transcription found)"
+    ),
+}
+
+#: Range of target CCT over which the flexible-CCT rules apply, per edition (2017 as
+#: transcribed; 2008: the span of its categories, memory).
+ANSI_FLEXIBLE_RANGES_K: dict[str, tuple[float, float]] = {"2008": (2700.0, 6500.0), "2017": (2200.0, 7000.0)}
+ANSI_FLEXIBLE_RANGE_K = ANSI_FLEXIBLE_RANGES_K["2017"]
 
 
-def ansi_flexible_duv(cct_K) -> np.ndarray:
-    """Target Duv of ANSI C78.377-2015/2017 flexible CCT, vectorised.
+def ansi_table(edition: str = ANSI_DEFAULT_EDITION) -> dict[int, AnsiCategory]:
+    """Table 1 of ``edition`` (nominal CCT -> category)."""
+    return ANSI_TABLES[normalise_ansi_edition(edition)]
 
-    ``Duv_T = 57700/T² − 44.6/T + 0.00854`` for T ≥ 2780 K, and 0 for T < 2780 K
-    (ANSI C78.377-2017, flexible CCT; secondary copy, see module docstring).
+
+def ansi_flexible_duv(cct_K, edition: str = ANSI_DEFAULT_EDITION) -> np.ndarray:
+    """Target Duv of the flexible-CCT rule, vectorised.
+
+    2017 (and 2015): ``Duv_T = 57700/T² − 44.6/T + 0.00854`` for T ≥ 2780 K, and 0 for
+    T < 2780 K (secondary copy). 2008: ``57700/T² − 44.6/T + 0.0085`` (memory; its Table 1
+    targets are this rounded to 3 decimals). See the module docstring.
 
     Parameters
     ----------
@@ -123,6 +253,8 @@ def ansi_flexible_duv(cct_K) -> np.ndarray:
     ndarray, shape (...)
     """
     T = np.asarray(cct_K, dtype=float)
+    if normalise_ansi_edition(edition) == "2008":
+        return 57700.0 / T**2 - 44.6 / T + 0.0085
     d = 57700.0 / T**2 - 44.6 / T + 0.00854
     return np.where(T < 2780.0, 0.0, d)
 
@@ -175,13 +307,18 @@ class Quadrangle:
     cct_range_K : tuple of float
         (low, high) CCT of the two isotemperature edges.
     duv_edges : ndarray, shape (2, 2)
-        [[Duv low, Duv high] at the low-CCT edge, [Duv low, Duv high] at the high-CCT edge].
+        [[Duv low, Duv high] at the low-CCT edge, [Duv low, Duv high] at the high-CCT edge]
+        of the construction (for published corners: of the construction they derive from).
     corners_upvp : ndarray, shape (4, 2)
         Corners in CIE 1976 (u', v'), counter-clockwise order is not assumed; the order is
         (low CCT, low Duv), (low CCT, high Duv), (high CCT, high Duv), (high CCT, low Duv).
     centre_upvp : ndarray, shape (2,)
         The category's nominal centre (target CCT, target Duv).
     source : str
+    edition : str
+        ``"2008"``, ``"2017"``, or ``""`` for a quadrangle of no ANSI edition.
+    corners_origin : str
+        ``"published"`` (a published corner table) or ``"computed"`` (by formula).
     """
 
     name: str
@@ -190,12 +327,19 @@ class Quadrangle:
     corners_upvp: np.ndarray
     centre_upvp: np.ndarray
     source: str
+    edition: str = ""
+    corners_origin: str = "computed"
 
     @property
     def corners_xy(self) -> np.ndarray:
         """Corners in CIE 1931 (x, y), shape (4, 2)."""
         c = self.corners_upvp
         return xy_from_uv(np.stack([c[:, 0], c[:, 1] / 1.5], axis=-1))
+
+    @property
+    def corners_text(self) -> str:
+        """How the corners were obtained, for reports: "published corners" / "corners computed by formula"."""
+        return "published corners" if self.corners_origin == "published" else "corners computed by formula"
 
     def margin(self, upvp) -> np.ndarray:
         """Signed Δu'v' from each point to the boundary, positive inside, shape (N,)."""
@@ -207,7 +351,8 @@ class Quadrangle:
 
 
 def quadrangle_from_cct_duv(
-    name: str, cct_lo_K: float, cct_hi_K: float, duv_lo, duv_hi, centre_cct_K: float, centre_duv: float, source: str
+    name: str, cct_lo_K: float, cct_hi_K: float, duv_lo, duv_hi, centre_cct_K: float, centre_duv: float, source: str,
+    edition: str = "",
 ) -> Quadrangle:
     """Build a quadrangle from its two isotemperature edges.
 
@@ -218,55 +363,97 @@ def quadrangle_from_cct_duv(
     corners = upvp_from_uv(uv_from_cct_duv(T, D))
     centre = upvp_from_uv(uv_from_cct_duv([centre_cct_K], [centre_duv]))[0]
     duv_edges = np.array([[duv_lo[0], duv_hi[0]], [duv_lo[1], duv_hi[1]]])
-    return Quadrangle(name, (float(cct_lo_K), float(cct_hi_K)), duv_edges, corners, centre, source)
+    return Quadrangle(name, (float(cct_lo_K), float(cct_hi_K)), duv_edges, corners, centre, source, edition, "computed")
 
 
-@lru_cache(maxsize=None)
-def ansi_quadrangle(nominal_K: int) -> Quadrangle:
-    """The ANSI C78.377-2017 quadrangle of a nominal CCT category (2200 ... 6500 K).
+def _edge_duvs(cat: AnsiCategory, edition: str) -> tuple[float, float, float]:
+    """(target Duv at the low-CCT edge, at the high-CCT edge, at the centre) of a category.
 
-    Corners at CCT = target ∓ tolerance and Duv = ``ansi_flexible_duv(edge CCT)`` ± 0.006
-    (see the module docstring for the edition and the reading of the edges). The centre is at
-    the target CCT and the *unrounded* flexible-formula Duv there: that reproduces the
-    published 4-decimal centre chromaticities to within their rounding (5e-5), whereas the
-    table's 4-decimal target Duv is off by up to 1.4e-4 in y (checked in the tests).
-    """
-    cat = ANSI_C78377_2017[int(nominal_K)]
+    2017: the flexible formula at each edge's CCT (centre: unrounded formula at the target —
+    it reproduces the published 4-decimal centres, the table's rounded Duv is off by up to
+    1.4e-4 in y). 2008: the category's single target Duv everywhere."""
+    if edition == "2008":
+        return cat.target_duv, cat.target_duv, cat.target_duv
     lo, hi = cat.target_cct_K - cat.tolerance_K, cat.target_cct_K + cat.tolerance_K
-    d_lo, d_hi = float(ansi_flexible_duv(lo)), float(ansi_flexible_duv(hi))
+    return (float(ansi_flexible_duv(lo, edition)), float(ansi_flexible_duv(hi, edition)),
+            float(ansi_flexible_duv(cat.target_cct_K, edition)))
+
+
+def ansi_computed_quadrangle(nominal_K: int, edition: str = ANSI_DEFAULT_EDITION) -> Quadrangle:
+    """The quadrangle of a nominal category **computed** from its edition's Table 1.
+
+    Corners at CCT = target ∓ tolerance and Duv = target ± 0.006, the target taken as the
+    edition constructs it (:func:`_edge_duvs`). Used where no published corners exist, and by
+    the tests to check the published corners against the table they derive from.
+    """
+    ed = normalise_ansi_edition(edition)
+    cat = ansi_table(ed)[int(nominal_K)]
+    lo, hi = cat.target_cct_K - cat.tolerance_K, cat.target_cct_K + cat.tolerance_K
+    d_lo, d_hi, d_c = _edge_duvs(cat, ed)
     tol = ANSI_DUV_TOLERANCE
     return quadrangle_from_cct_duv(
-        f"{ANSI_EDITION} {cat.nominal_K} K",
-        lo,
-        hi,
-        (d_lo - tol, d_hi - tol),
-        (d_lo + tol, d_hi + tol),
-        cat.target_cct_K,
-        float(ansi_flexible_duv(cat.target_cct_K)),
-        ANSI_SOURCE,
+        f"{ansi_edition_name(ed)} {cat.nominal_K} K", lo, hi, (d_lo - tol, d_hi - tol), (d_lo + tol, d_hi + tol),
+        cat.target_cct_K, d_c, _COMPUTED_SOURCES[ed], ed,
     )
 
 
-def ansi_flexible_quadrangle(target_cct_K: float, tolerance_K: float | None = None) -> Quadrangle:
-    """A flexible-CCT quadrangle of ANSI C78.377-2017 around ``target_cct_K``.
+def ansi_published_corners_xy(nominal_K: int, edition: str = ANSI_DEFAULT_EDITION) -> np.ndarray | None:
+    """The published corners (x, y) of a category in lumeval's corner order (low CCT low Duv,
+    low CCT high Duv, high CCT high Duv, high CCT low Duv), shape (4, 2); None if none found."""
+    rows = _PUBLISHED_CORNERS_XY[normalise_ansi_edition(edition)].get(int(nominal_K))
+    if rows is None:
+        return None
+    return np.asarray(rows, dtype=float)[[3, 0, 1, 2]]
 
-    The tolerance defaults to :func:`ansi_flexible_tolerance_K` (memory; see docstring).
+
+@lru_cache(maxsize=None)
+def ansi_quadrangle(nominal_K: int, edition: str = ANSI_DEFAULT_EDITION) -> Quadrangle:
+    """The ANSI C78.377 quadrangle of a nominal CCT category of ``edition`` (default 2017).
+
+    The edition's published corners where a transcription was found (2008: 2700 ... 6500 K;
+    2017: 2700 ... 6500 K), otherwise corners computed from the edition's Table 1 (2017: 2200 K
+    and 2500 K); the quadrangle's ``corners_origin`` and ``source`` say which. The centre is the
+    category's (target CCT, target Duv) as the edition constructs it. KeyError for a category
+    the edition does not have.
     """
+    ed = normalise_ansi_edition(edition)
+    computed = ansi_computed_quadrangle(nominal_K, ed)
+    pub = ansi_published_corners_xy(nominal_K, ed)
+    if pub is None:
+        return computed
+    return Quadrangle(computed.name, computed.cct_range_K, computed.duv_edges, upvp_from_xy(pub), computed.centre_upvp,
+                      ANSI_CORNER_SOURCES[ed], ed, "published")
+
+
+def ansi_flexible_quadrangle(target_cct_K: float, tolerance_K: float | None = None,
+                             edition: str = ANSI_DEFAULT_EDITION) -> Quadrangle:
+    """A flexible-CCT quadrangle of ANSI C78.377 ``edition`` around ``target_cct_K`` (computed:
+    both editions define flexible categories by formula).
+
+    2017: target Duv by the flexible formula at each edge's CCT; 2008: the formula at the target
+    CCT, used at both edges. The tolerance defaults to :func:`ansi_flexible_tolerance_K`
+    (memory; see the module docstring).
+    """
+    ed = normalise_ansi_edition(edition)
     T = float(target_cct_K)
     tol_K = float(ansi_flexible_tolerance_K(T)) if tolerance_K is None else float(tolerance_K)
     lo, hi = T - tol_K, T + tol_K
-    d_lo, d_hi = float(ansi_flexible_duv(lo)), float(ansi_flexible_duv(hi))
+    if ed == "2008":
+        d_lo = d_hi = d_c = float(ansi_flexible_duv(T, ed))
+    else:
+        d_lo, d_hi, d_c = float(ansi_flexible_duv(lo, ed)), float(ansi_flexible_duv(hi, ed)), float(ansi_flexible_duv(T, ed))
     tol = ANSI_DUV_TOLERANCE
     how = "user-given tolerance" if tolerance_K is not None else "tolerance from the flexible-CCT formula (memory)"
     return quadrangle_from_cct_duv(
-        f"{ANSI_EDITION} flexible {T:.0f} K ± {tol_K:.0f} K",
+        f"{ansi_edition_name(ed)} flexible {T:.0f} K ± {tol_K:.0f} K",
         lo,
         hi,
         (d_lo - tol, d_hi - tol),
         (d_lo + tol, d_hi + tol),
         T,
-        float(ansi_flexible_duv(T)),
-        f"{ANSI_SOURCE}; {how}",
+        d_c,
+        f"{_COMPUTED_SOURCES[ed]}; {how}",
+        ed,
     )
 
 

@@ -14,7 +14,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumeval.commands.lot import expand_inputs, run_lot
+from lumeval.commands.lot import run_lot
+from lumeval.lots.inputs import expand_inputs
 
 REPO = Path(__file__).resolve().parents[1]
 DEMO = REPO / "spectra_demo" / "lot_2026w48"
@@ -79,7 +80,8 @@ def test_expand_inputs(tmp_path):
     sub = tmp_path / "sub"
     sub.mkdir()
     (sub / "c.csv").write_text("x")
-    files, problems = expand_inputs([tmp_path, tmp_path / "a.csv", str(tmp_path / "**" / "*.csv"), tmp_path / "nope.csv", str(tmp_path / "*.xyz")])
+    found = expand_inputs([tmp_path, tmp_path / "a.csv", str(tmp_path / "**" / "*.csv"), tmp_path / "nope.csv", str(tmp_path / "*.xyz")])
+    files, problems = found.files, found.unreadable
     names = [Path(f).name for f in files]
     assert names == ["a.csv", "b.txt", "c.csv"]  # folder first (not recursive), duplicates once
     assert len(problems) == 2

@@ -21,7 +21,6 @@ unread samples cannot be declared to pass).
 
 from __future__ import annotations
 
-import glob
 import os
 import sys
 from dataclasses import dataclass, field
@@ -35,30 +34,21 @@ if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays 
     import numpy as np
 import typer
 
+# Expansion of files, folders and patterns lives in lumeval.lots.inputs (re-exported here).
+from ..lots.inputs import SPECTRUM_SUFFIXES, LotInputs, Skipped, Unreadable, display_path, expand_inputs  # noqa: F401
+
 #: Spectra evaluated together (bounded memory; the engine chunks further inside).
 BATCH_SPECTRA = 2048
 #: Engine chunk size for lots. Measured CPU per 1,000 spectra after the TM-30 speed-up: 0.089 s
 #: at 512, 0.097 s at 256, 0.105 s at 1024 (bench/benchmark.py); peak memory of a
 #: 100,000-spectrum lot stays near 600 MB (docs/lots.md).
 ENGINE_CHUNK = 512
-#: File extensions taken from folders.
-SPECTRUM_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".xml", ".spdx", ".tm27", ".json")
-#: Figures kept per sample (every figure of the engine).
-_GLOB_CHARS = set("*?[")
 
 
 class OutputFormat(str, Enum):
     terminal = "terminal"
     json = "json"
     csv = "csv"
-
-
-@dataclass(frozen=True)
-class Unreadable:
-    """An input that gave no sample: the path (or ``path#column``) and the reason."""
-
-    source: str
-    message: str
 
 
 @dataclass(frozen=True)
@@ -77,6 +67,7 @@ class LotRun:
         Per-sample clause results (None without criteria or without per-sample clauses).
     lot_results : tuple of LotClauseResult
     unreadable : tuple of Unreadable
+    skipped : tuple of Skipped
     files : int
         Input files found (after expanding folders and patterns).
     criteria_file : str or None
@@ -96,6 +87,10 @@ class LotRun:
     criteria_file: str | None = None
     identification: dict = field(default_factory=dict)
     has_yield_clause: bool = False
+    #: Entries found by expanding folders and patterns and left out on purpose, with the reason.
+    skipped: tuple[Skipped, ...] = ()
+    #: The files that gave judged samples (paths that open them; for the HTML report).
+    read_paths: tuple[str, ...] = ()
 
     def __len__(self) -> int:
         return len(self.names)
@@ -124,44 +119,6 @@ class LotRun:
 # --------------------------------------------------------------------------- inputs
 
 
-def expand_inputs(paths: Sequence[str | os.PathLike]) -> tuple[list[str], list[Unreadable]]:
-    """Expand files, folders and glob patterns into a list of files (in the order given, each
-    once), and record inputs that name nothing."""
-    files: list[str] = []
-    seen: set[str] = set()
-    problems: list[Unreadable] = []
-
-    def add(p: str) -> None:
-        key = os.path.abspath(p)
-        if key not in seen:
-            seen.add(key)
-            files.append(p)
-
-    for raw in paths:
-        p = str(raw)
-        if os.path.isdir(p):
-            inside = sorted(
-                e.path
-                for e in os.scandir(p)
-                if e.is_file() and not e.name.startswith(".") and e.name.lower().endswith(SPECTRUM_SUFFIXES)
-            )
-            if not inside:
-                problems.append(Unreadable(p, f"{p}: the folder holds no spectrum files ({', '.join(SPECTRUM_SUFFIXES)}) — give the files or a pattern"))
-            for f in inside:
-                add(f)
-        elif os.path.exists(p):
-            add(p)
-        elif _GLOB_CHARS & set(p):
-            hits = sorted(h for h in glob.glob(p, recursive=True) if os.path.isfile(h))
-            if not hits:
-                problems.append(Unreadable(p, f"{p}: the pattern matches no files — check the pattern and the folder"))
-            for f in hits:
-                add(f)
-        else:
-            problems.append(Unreadable(p, f"{p}: no such file or folder — check the path"))
-    return files, problems
-
-
 def _read_one(path: str):
     """(prepared SpectrumSet or None, [Unreadable]) for one file; salvages the usable columns
     of a wide file when some columns cannot be prepared."""
@@ -172,14 +129,14 @@ def _read_one(path: str):
     try:
         raw = read_spectra(path)
     except LumevalError as exc:
-        return None, [Unreadable(path, exc.message)]
+        return None, [Unreadable(display_path(path), exc.message)]
     except OSError as exc:
-        return None, [Unreadable(path, f"{path}: cannot be read ({exc.strerror or exc}) — check the file and its permissions")]
+        return None, [Unreadable(display_path(path), f"{display_path(path)}: cannot be read ({exc.strerror or exc}) — check the file and its permissions")]
     try:
         return prepare(raw), []
     except LumevalError as exc:
         if len(raw) == 1:
-            return None, [Unreadable(path, exc.message)]
+            return None, [Unreadable(display_path(path), exc.message)]
     good, bad = [], []
     for i in range(len(raw)):
         one = raw.subset([i])
@@ -266,7 +223,9 @@ def run_lot(
     from ..lot import lot_statistics
     from ..spectra.model import SpectrumSet
 
-    files, unreadable = expand_inputs(paths)
+    found = expand_inputs(paths)
+    files, unreadable = list(found.files), list(found.unreadable)
+    read_paths: list[str] = []
     names: list[str] = []
     sources: list[str] = []
     warns: list[tuple[str, ...]] = []
@@ -308,6 +267,7 @@ def run_lot(
         s, bad = _read_one(path)
         unreadable.extend(bad)
         if s is not None:
+            read_paths.append(path)
             pending.setdefault(_grid_key(s), []).append(s)
             pending_n += len(s)
             done += len(s)
@@ -366,6 +326,8 @@ def run_lot(
         criteria_file=getattr(criteria, "file", None) if criteria is not None else None,
         identification=dict(getattr(criteria, "identification", {}) or {}) if criteria is not None else {},
         has_yield_clause=has_yield,
+        skipped=found.skipped,
+        read_paths=tuple(read_paths),
     )
 
 
@@ -422,7 +384,7 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
     from ..spectra.prepare import prepare
     from ..spectra.read import read_many
 
-    files = sorted({src.split("#", 1)[0] for src in run.sources})
+    files = list(run.read_paths)
     sets, _errors = read_many(files)
     sets = [s for s in sets if s is not None]
     if not sets:
@@ -471,7 +433,7 @@ def register(app: typer.Typer) -> None:
 
         outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html}
         check_targets(files=outputs, dirs={"--plots": plots},
-                      inputs=[*(expand_inputs(paths)[0] if any(v is not None for v in outputs.values()) else ()),
+                      inputs=[*(expand_inputs(paths).files if any(v is not None for v in outputs.values()) else ()),
                               *[p for p in (criteria_file, instrument) if p is not None]])
         if html is not None or plots is not None:
             from ..render.html import validate_targets

@@ -18,7 +18,7 @@ Lot JSON (``schema_version`` 1; names never change meaning, new names may be add
     chromaticity {centroid_xy, centroid_upvp, nominal_xy, nominal_upvp, ellipse, ellipse_source,
                   max_pairwise_delta_upvp, max_pair [name, name], delta_upvp_centroid
                   {max, p95}, steps_centroid {max, p95}},
-    outlier_rule, notes, unreadable [{source, message}],
+    outlier_rule, notes, unreadable [{source, message}], skipped [{path, reason}],
     samples [{name, source, verdict, outlier, outlier_reasons, delta_upvp_centroid,
               steps_centroid, delta_upvp_nominal, steps_nominal, x, y, cct_K, duv, Ra, R9,
               Rf, Rg, warnings}],
@@ -219,6 +219,7 @@ def lot_document(run) -> dict:
         "uncertainty": (getattr(run.check, "uncertainty", None) or None) if run.check is not None else None,
         "notes": list(st.notes),
         "unreadable": [{"source": u.source, "message": u.message} for u in run.unreadable],
+        "skipped": [{"path": k.path, "reason": k.reason} for k in getattr(run, "skipped", ())],
         "samples": samples,
         "cautions": list(CAUTIONS),
     }
@@ -421,6 +422,19 @@ def lot_renderables(run) -> list:
         out.append(t)
         if len(run.unreadable) > _SHOW_MAX:
             out.append(Text(f"… and {len(run.unreadable) - _SHOW_MAX} more (see the lot JSON)."))
+
+    # entries found by expanding folders and patterns and left out on purpose
+    skipped = getattr(run, "skipped", ())
+    if skipped:
+        t = Table(title=f"Skipped (not spectrum files, or already read): {len(skipped)}", title_justify="left",
+                  box=box.SIMPLE_HEAVY, pad_edge=False)
+        t.add_column("entry", overflow="fold")
+        t.add_column("why")
+        for k in skipped[:_SHOW_MAX]:
+            t.add_row(Text(k.path), Text(k.reason))  # file names are data, never markup
+        out.append(t)
+        if len(skipped) > _SHOW_MAX:
+            out.append(Text(f"… and {len(skipped) - _SHOW_MAX} more (see the lot JSON)."))
 
     # warnings summary
     nw = sum(1 for w in run.warnings if w)

@@ -103,12 +103,14 @@ def collect_provenance(
     generated_at : datetime, optional
         Default: now, local time with its UTC offset.
     """
+    from .._paths import display_path
+
     files = []
     for p in paths:
         try:
-            files.append(InputFile(str(p), sha256_of(p), Path(p).stat().st_size))
+            files.append(InputFile(display_path(p), sha256_of(p), Path(p).stat().st_size))
         except OSError:
-            files.append(InputFile(str(p), None, None))
+            files.append(InputFile(display_path(p), None, None))
     when = generated_at or _dt.datetime.now().astimezone()
     if when.tzinfo is None:
         when = when.astimezone()

@@ -64,7 +64,10 @@ def read_spectra(path: str | Path) -> SpectrumSet:
     InputError
         ``FILE:LINE: what is wrong — what would fix it``.
     """
-    return parse_spectra(_read_bytes(Path(path), MAX_TEXT_BYTES), str(path))
+    from .._paths import display_path
+
+    # the bytes come from the path as given; names, sources and messages use its printable form
+    return parse_spectra(_read_bytes(path, MAX_TEXT_BYTES), display_path(path))
 
 
 def parse_spectra(raw: bytes, file: str) -> SpectrumSet:

@@ -1,0 +1,23 @@
+"""Paths as text: file names from other people's systems need not be valid UTF-8."""
+
+from __future__ import annotations
+
+import os
+
+
+def display_path(path: str | os.PathLike | bytes) -> str:
+    """The text to show for a path: valid UTF-8 as is, undecodable bytes as U+FFFD.
+
+    On POSIX, Python keeps the undecodable bytes of a file name as lone surrogates (PEP 383,
+    ``surrogateescape``) so that the name still opens the file; such a string cannot be encoded
+    to UTF-8, so any writer (terminal, JSON, CSV, HTML) would fail on it. This gives the form to
+    show and to record; open files with the original path.
+    """
+    p = os.fsdecode(path) if isinstance(path, bytes) else os.fspath(path)
+    if isinstance(p, bytes):  # a PathLike returning bytes
+        p = os.fsdecode(p)
+    try:
+        p.encode("utf-8")
+        return p
+    except UnicodeEncodeError:
+        return p.encode("utf-8", "surrogateescape").decode("utf-8", "replace")

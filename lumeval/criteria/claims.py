@@ -28,7 +28,6 @@ when the product falls short of a minimum claim).
 from __future__ import annotations
 
 import re
-import tomllib
 from dataclasses import dataclass
 from decimal import Decimal
 
@@ -186,14 +185,9 @@ def _nominal_cct_bounds(v: float) -> tuple[float, float, str] | None:
 
 def parse_claims(text: str, file: str = "<claims>") -> Claims:
     """Parse a claims file. Raises CriteriaError with line and key on any problem."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        msg = str(exc)
-        m = re.search(r"line (\d+)", msg)
-        line = int(m.group(1)) if m else None
-        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
-        raise CriteriaError(f"not valid TOML: {problem}", file=file, line=line, fix="check quotes, brackets and `key = value` syntax") from None
+    from .loader import toml_loads
+
+    data = toml_loads(text, file)
     lines = locate_lines(text)
 
     def err(path, key, problem, fix=None):

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import re
 import tomllib
-from pathlib import Path
 
 from ..errors import CriteriaError
 from .model import CLAUSE_KINDS, COMMON_KEYS, Criteria, ParseError, suggest
@@ -98,6 +97,90 @@ def _unknown_key(where: _Where, path: tuple, key: str, allowed, what: str, other
     return where.error(path, key, f"unknown key {key!r} in {what}{other_kinds}", f"{hint}allowed: {', '.join(allowed)}")
 
 
+#: Largest TOML file read (criteria, claims and instrument files are a few kilobytes).
+MAX_TOML_BYTES = 1024 * 1024
+#: Deepest nesting of arrays and inline tables accepted (lumeval's files nest 2-3 levels).
+MAX_TOML_DEPTH = 32
+
+
+def toml_loads(text: str, file: str) -> dict:
+    """Parse TOML text; every problem is a one-line :class:`CriteriaError`.
+
+    Besides syntax errors, arrays and inline tables nested deeper than :data:`MAX_TOML_DEPTH`
+    are refused before parsing (``tomllib`` parses them recursively: thousands of levels
+    would exhaust the interpreter's recursion limit).
+    """
+    depth_line = _too_deep(text)
+    if depth_line is not None:
+        raise CriteriaError(f"arrays or inline tables nested more than {MAX_TOML_DEPTH} levels deep", file=file,
+                            line=depth_line, fix="lumeval's files need at most a few levels: check the file")
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = re.search(r"line (\d+)", msg)
+        line = int(m.group(1)) if m else (max(1, len(text.splitlines())) if "end of document" in msg else None)
+        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
+        raise CriteriaError(f"not valid TOML: {problem[:120]}", file=file, line=line,
+                            fix="check quotes, brackets and `key = value` syntax") from None
+    except RecursionError:  # pragma: no cover - _too_deep refuses such files first
+        raise CriteriaError("nested too deeply to read", file=file, fix="check the file") from None
+
+
+def _too_deep(text: str) -> int | None:
+    """The line where value nesting (``[`` / ``{`` after ``=`` or inside a value) first exceeds
+    :data:`MAX_TOML_DEPTH`, or None. Strings and comments are skipped; table headers
+    (``[a]``, ``[[a]]`` at the start of a statement) do not nest."""
+    if text.count("[") + text.count("{") <= MAX_TOML_DEPTH:
+        return None
+    depth = 0
+    line = 1
+    i, n = 0, len(text)
+    at_statement = True  # at the start of a line outside any value: a '[' opens a table header
+    while i < n:
+        ch = text[i]
+        if ch == "\n":
+            line += 1
+            if depth == 0:
+                at_statement = True
+            i += 1
+            continue
+        if ch in " \t\r":
+            i += 1
+            continue
+        if ch == "#":
+            j = text.find("\n", i)
+            i = n if j < 0 else j
+            continue
+        if ch in "\"'":
+            q3 = text[i:i + 3]
+            if q3 in ('"""', "'''"):
+                j = text.find(q3, i + 3)
+                end = n if j < 0 else j + 3
+            else:
+                j = i + 1
+                while j < n and text[j] != ch and text[j] != "\n":
+                    j += 2 if (ch == '"' and text[j] == "\\") else 1
+                end = j + 1
+            line += text.count("\n", i, min(end, n))
+            i = end
+            at_statement = False
+            continue
+        if at_statement and depth == 0 and ch == "[":
+            j = text.find("\n", i)
+            i = n if j < 0 else j
+            continue
+        at_statement = False
+        if ch in "[{":
+            depth += 1
+            if depth > MAX_TOML_DEPTH:
+                return line
+        elif ch in "]}":
+            depth = max(0, depth - 1)
+        i += 1
+    return None
+
+
 def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
     """Parse the text of a criteria file.
 
@@ -117,14 +200,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
     CriteriaError
         For any problem, with the line, the key, what is wrong and what would fix it.
     """
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        msg = str(exc)
-        m = re.search(r"line (\d+)", msg)
-        line = int(m.group(1)) if m else (max(1, len(text.splitlines())) if "end of document" in msg else None)
-        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
-        raise CriteriaError(f"not valid TOML: {problem}", file=file, line=line, fix="check quotes, brackets and `key = value` syntax") from None
+    data = toml_loads(text, file)
     where = _Where(file, locate_lines(text))
 
     for key in data:
@@ -214,9 +290,13 @@ def _uncertainty_tables(data: dict, text: str, file: str) -> dict:
 def read_toml_text(path, what: str, option: str) -> str:
     """The text of a TOML file the user named with ``option`` (a ``what`` file: "criteria",
     "claims"), a byte-order mark tolerated; unreadable files raise :class:`CriteriaError`."""
-    p = Path(path)
+    from ..errors import InputError
+    from ..spectra.text import _read_bytes
+
     try:
-        return p.read_text(encoding="utf-8-sig")
+        return _read_bytes(path, MAX_TOML_BYTES).decode("utf-8-sig")
+    except InputError as exc:  # not a regular file, too large, unreadable: same words, criteria class
+        raise CriteriaError(exc.problem, file=exc.file, fix=exc.fix) from None
     except FileNotFoundError:
         raise CriteriaError("no such file", file=str(path), fix=f"check the path given to {option}") from None
     except IsADirectoryError:

@@ -635,17 +635,38 @@ def read_text(path: str | Path, raw: bytes | None = None) -> SpectrumSet:
 
 
 def _read_bytes(path: str | Path, limit: int) -> bytes:
-    file = str(path)
-    p = Path(path)
+    """The bytes of a regular file of at most ``limit`` bytes.
+
+    The file type is checked before anything is read: the file is opened without blocking
+    (``O_NONBLOCK``: opening a FIFO with no writer would otherwise wait forever) and anything
+    but a regular file (a FIFO, socket or device) is refused, so an input can neither hang
+    lumeval nor stream endless bytes (``/dev/zero``) into it.
+    """
+    import os
+    import stat
+
+    from .._paths import display_path
+
+    file = display_path(path)
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) | getattr(os, "O_BINARY", 0)
     try:
-        size = p.stat().st_size
-        if size > limit:
+        st = os.stat(path)
+        if stat.S_ISDIR(st.st_mode):
+            raise IsADirectoryError
+        if not stat.S_ISREG(st.st_mode):
+            raise InputError(f"is {_file_kind(st.st_mode)}, not a regular file: lumeval reads regular files only "
+                             "(it does not wait on pipes or devices)", file=file, fix="give a regular file")
+        if st.st_size > limit:
             raise InputError(
-                f"is {size / 1e6:.1f} MB, more than the {limit / 1e6:.0f} MB lumeval reads",
+                f"is {st.st_size / 1e6:.1f} MB, more than the {limit / 1e6:.0f} MB lumeval reads",
                 file=file,
                 fix="split the file or check that it is really a spectrum file",
             )
-        with open(p, "rb") as fh:
+        fd = os.open(path, flags)
+        with open(fd, "rb", closefd=True) as fh:
+            # the path may have been swapped between stat and open: check what was opened
+            if not stat.S_ISREG(os.fstat(fh.fileno()).st_mode):
+                raise InputError("is not a regular file", file=file, fix="give a regular file")
             raw = fh.read(limit + 1)
     except FileNotFoundError:
         raise InputError("no such file", file=file, fix="check the path") from None
@@ -654,6 +675,10 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
     except PermissionError:
         raise InputError("cannot be read (permission denied)", file=file, fix="check file permissions") from None
     except OSError as exc:
+        import errno
+
+        if exc.errno == errno.ELOOP:
+            raise InputError("is a symbolic link that loops", file=file, fix="fix or remove the link") from None
         raise InputError(f"cannot be read ({exc.strerror or exc})", file=file, fix="check the path") from None
     if len(raw) > limit:
         raise InputError(
@@ -662,3 +687,17 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
             fix="split the file or check that it is really a spectrum file",
         )
     return raw
+
+
+def _file_kind(mode: int) -> str:
+    import stat
+
+    if stat.S_ISFIFO(mode):
+        return "a FIFO (named pipe)"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    if stat.S_ISCHR(mode):
+        return "a character device"
+    if stat.S_ISBLK(mode):
+        return "a block device"
+    return "a special file"

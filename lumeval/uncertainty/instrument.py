@@ -303,23 +303,15 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
 def parse_toml(path: str | Path) -> tuple[dict, str]:
     """Read and parse a TOML file; returns (data, text). Unreadable files raise InputError,
     TOML syntax errors CriteriaError with the line the parser reports."""
-    import tomllib
+    from ..criteria.loader import MAX_TOML_BYTES, toml_loads
+    from ..spectra.text import _read_bytes
 
-    p = Path(path)
+    raw = _read_bytes(path, MAX_TOML_BYTES)  # InputError for a missing, special or oversized file
     try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=str(path), fix="check the path") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the file ({exc.__class__.__name__})", file=str(path),
-                         fix="give a UTF-8 TOML text file") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise CriteriaError(f"not valid TOML: {exc}", file=str(path), line=int(m.group(1)) if m else None,
-                            fix="fix the TOML syntax (key = value, [table] headers, quoted strings)") from None
-    return data, text
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError("is not UTF-8 text", file=str(path), fix="give a UTF-8 TOML text file") from None
+    return toml_loads(text, str(path)), text
 
 
 def load_instrument(path: str | Path) -> tuple[InstrumentModel, MonteCarloSettings]:

@@ -1,0 +1,231 @@
+"""Hostile and odd inputs through the real CLI: a clean exit 2 or the documented behaviour.
+
+Every case builds its input in ``tmp_path`` from a few lines, then runs ``lumeval`` either
+in-process through ``lumeval.cli.main`` (the same code as the console script) or, where the
+point is that nothing blocks or that real standard streams are used, as a subprocess with a
+timeout. These tests assert behaviour (exit codes, one-line messages, what is listed), not
+numbers: no reference values are involved.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from lumeval.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+CRITERIA = 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 50\n'
+needs_fifo = pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes need a POSIX system")
+
+
+def run(argv, capsys):
+    """(exit code, stdout, stderr) of ``lumeval argv`` in-process."""
+    with pytest.raises(SystemExit) as exc:
+        main([a if isinstance(a, str) else os.fspath(a) for a in argv])
+    out, err = capsys.readouterr()
+    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
+    return code, out, err
+
+
+def run_sub(argv, cwd, timeout=60):
+    """(exit code, stdout, stderr) of the console entry point as a separate process."""
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    p = subprocess.run([sys.executable, "-m", "lumeval", *argv], cwd=cwd, capture_output=True, timeout=timeout, env=env)
+    return p.returncode, p.stdout.decode("utf-8", "replace"), p.stderr.decode("utf-8", "replace")
+
+
+def one_error_line(code, err, *needles):
+    assert code == 2, err
+    assert "Traceback" not in err and "internal error" not in err, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
+    for n in needles:
+        assert n in lines[0], err
+
+
+def spectrum_text(shift=0.0, header="wavelength,value") -> str:
+    """A smooth broadband test spectrum (invented: these tests judge behaviour, not numbers)."""
+    wl = np.arange(380, 781, 5)
+    v = np.exp(-(((wl - 560 - shift) / 120.0) ** 2)) + 0.1
+    return header + "\n" + "".join(f"{a},{b:.6f}\n" for a, b in zip(wl, v))
+
+
+def write_spd(path: Path, shift=0.0) -> Path:
+    path.write_text(spectrum_text(shift), encoding="utf-8")
+    return path
+
+
+# --------------------------------------------------------------------------- special files
+
+
+@needs_fifo
+@pytest.mark.parametrize("command", ["inspect", "lot"])
+def test_fifo_spectrum_is_refused_not_waited_on(tmp_path, command):
+    os.mkfifo(tmp_path / "pipe.csv")
+    code, _out, err = run_sub([command, "pipe.csv"], tmp_path, timeout=60)
+    one_error_line(code, err, "pipe.csv", "FIFO")
+
+
+@needs_fifo
+@pytest.mark.parametrize("option", ["--criteria", "--instrument"])
+def test_fifo_criteria_or_instrument_is_refused(tmp_path, option):
+    write_spd(tmp_path / "a.csv")
+    os.mkfifo(tmp_path / "c.toml")
+    argv = ["check", "a.csv", option, "c.toml"]
+    if option == "--instrument":
+        (tmp_path / "k.toml").write_text(CRITERIA)
+        argv += ["--criteria", "k.toml"]
+    code, _out, err = run_sub(argv, tmp_path, timeout=60)
+    one_error_line(code, err, "c.toml", "FIFO")
+
+
+@pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() != 0, reason="creating device nodes (mknod) needs root")
+def test_device_node_spectrum_is_refused(tmp_path, capsys):
+    import stat
+
+    dev = tmp_path / "zero.csv"
+    os.mknod(dev, 0o600 | stat.S_IFCHR, os.makedev(1, 5))  # the same device as /dev/zero
+    code, _out, err = run(["inspect", dev], capsys)
+    one_error_line(code, err, "zero.csv", "character device")
+
+
+def test_dev_zero_is_refused(capsys):
+    if not os.path.exists("/dev/zero"):
+        pytest.skip("no /dev/zero on this system")
+    code, _out, err = run(["inspect", "/dev/zero"], capsys)
+    one_error_line(code, err, "/dev/zero", "character device")
+
+
+# --------------------------------------------------------------------------- deep TOML
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "a = " + "[" * 5000 + "]" * 5000 + "\n",
+        '[[clause]]\nfigure = "Ra"\nmin = ' + "{b = " * 3000 + "1" + "}" * 3000 + "\n",
+    ],
+    ids=["arrays", "inline-tables"],
+)
+@pytest.mark.parametrize("option", ["--criteria", "--claims", "--instrument"])
+def test_deeply_nested_toml_is_refused(tmp_path, capsys, text, option):
+    spd = write_spd(tmp_path / "a.csv")
+    f = tmp_path / "deep.toml"
+    f.write_text(text, encoding="utf-8")
+    if option == "--claims":
+        argv = ["claims", spd, "--claims", f]
+    elif option == "--instrument":
+        good = tmp_path / "ok.toml"
+        good.write_text(CRITERIA)
+        argv = ["check", spd, "--criteria", good, "--instrument", f]
+    else:
+        argv = ["check", spd, "--criteria", f]
+    code, _out, err = run(argv, capsys)
+    one_error_line(code, err, "deep.toml", "nested more than")
+
+
+def test_toml_strings_with_brackets_are_not_nesting(tmp_path, capsys):
+    spd = write_spd(tmp_path / "a.csv")
+    f = tmp_path / "c.toml"
+    f.write_text(CRITERIA + 'label = "' + "[" * 100 + '"\n# ' + "{" * 100 + "\n", encoding="utf-8")
+    code, out, err = run(["check", spd, "--criteria", f], capsys)
+    assert code in (0, 1), err
+
+
+# --------------------------------------------------------------------------- lots and globs
+
+
+def _lot_json(tmp_path, capsys, *args):
+    out_json = tmp_path / "lot.json"
+    code, out, err = run(["lot", *args, "--json", out_json, "--quiet"], capsys)
+    assert "Traceback" not in err and "internal error" not in err, err
+    return code, json.loads(out_json.read_text(encoding="utf-8")), out, err
+
+
+def test_lot_symlink_loop_and_dangling_link_listed_others_judged(tmp_path, capsys):
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    write_spd(lot / "s1.csv")
+    write_spd(lot / "s2.csv", 10)
+    os.symlink("loop.csv", lot / "loop.csv")
+    os.symlink("gone.csv", lot / "dangling.csv")
+    code, doc, out, err = _lot_json(tmp_path, capsys, lot)
+    assert code == 2  # a lot with unread inputs cannot pass
+    assert sorted(s["name"] for s in doc["samples"]) == ["s1", "s2"]
+    msgs = {Path(u["source"]).name: u["message"] for u in doc["unreadable"]}
+    assert set(msgs) == {"loop.csv", "dangling.csv"}
+    assert "loops" in msgs["loop.csv"] and "dangling" in msgs["dangling.csv"]
+    assert "could not be read" in out
+    assert len([ln for ln in err.splitlines() if ln.startswith("lumeval: error:")]) == 1
+
+
+def test_lot_double_star_follows_links_once_and_never_loops(tmp_path, capsys):
+    lot = tmp_path / "lot"
+    (lot / "a" / "deep").mkdir(parents=True)
+    write_spd(lot / "top.csv")
+    write_spd(lot / "a" / "deep" / "x.csv", 5)
+    os.symlink("..", lot / "a" / "up")  # a loop through ..
+    os.symlink("a", lot / "a_again")  # the same folder under a second name
+    os.symlink(os.path.join("a", "deep", "x.csv"), lot / "alias.csv")  # the same file twice
+    code, doc, _out, err = _lot_json(tmp_path, capsys, str(lot / "**" / "*.csv"))
+    assert code == 0, err
+    assert sorted(s["name"] for s in doc["samples"]) == ["top", "x"]
+    skipped = {Path(k["path"]).name: k["reason"] for k in doc["skipped"]}
+    assert set(skipped) == {"alias.csv"} and "same file" in skipped["alias.csv"]
+
+
+@needs_fifo
+def test_lot_skipped_entries_are_listed_with_reason(tmp_path, capsys):
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    write_spd(lot / "s1.csv")
+    os.mkfifo(lot / "pipe.csv")
+    (lot / "folder.csv").mkdir()
+    for args in ([lot], [str(lot / "*.csv")]):
+        code, doc, out, err = _lot_json(tmp_path, capsys, *args)
+        assert code == 0, err  # nothing unreadable: skipped entries do not fail the lot
+        assert [s["name"] for s in doc["samples"]] == ["s1"]
+        skipped = {Path(k["path"]).name: k["reason"] for k in doc["skipped"]}
+        assert set(skipped) == {"pipe.csv", "folder.csv"}, doc["skipped"]
+        assert "FIFO" in skipped["pipe.csv"] and "folder" in skipped["folder.csv"]
+        assert "Skipped" in out and "FIFO" in out
+
+
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+@pytest.mark.parametrize("fmt", ["terminal", "json", "csv"])
+def test_lot_non_utf8_file_name_every_writer(tmp_path, fmt):
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    write_spd(lot / "ok.csv")
+    bad = os.path.join(os.fsencode(lot), b"lamp\xff\xfe.csv")
+    with open(bad, "w", encoding="utf-8") as fh:
+        fh.write(spectrum_text(7))
+    code, out, err = run_sub(
+        ["lot", "lot", "--format", fmt, "--samples-csv", "s.csv", "--json", "l.json", "--html", "r.html", "--quiet"],
+        tmp_path, timeout=180,
+    )
+    assert code == 0, err
+    assert "Traceback" not in err
+    assert "lamp\ufffd\ufffd" in out
+    doc = json.loads((tmp_path / "l.json").read_text(encoding="utf-8"))
+    assert sorted(s["name"] for s in doc["samples"]) == ["lamp\ufffd\ufffd", "ok"]
+    assert "lamp\ufffd\ufffd" in (tmp_path / "s.csv").read_text(encoding="utf-8")
+    assert "lamp\ufffd\ufffd" in (tmp_path / "r.html").read_text(encoding="utf-8")
+
+
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+def test_inspect_non_utf8_file_name(tmp_path):
+    with open(os.path.join(os.fsencode(tmp_path), b"x\xff.csv"), "w", encoding="utf-8") as fh:
+        fh.write(spectrum_text())
+    name = os.fsdecode(b"x\xff.csv")
+    for fmt in ("terminal", "json", "csv"):
+        code, out, err = run_sub(["inspect", name, "--format", fmt], tmp_path, timeout=120)
+        assert code == 0, err
+        assert "x\ufffd" in out

@@ -40,7 +40,8 @@ from .model import SpectrumSet
 #: Refuse files larger than this many bytes (a spectrum file is kilobytes; 64 MB is a lot run).
 MAX_TEXT_BYTES = 64 * 1024 * 1024
 
-_NUMBER = re.compile(r"^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
+# [0-9], not \d: digits of other scripts (Arabic-Indic, full-width...) are refused, not read
+_NUMBER = re.compile(r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?$")
 _MISSING = {"", "nan", "na", "n/a", "n.a.", "-", "--", "null", "none", "?"}
 _INFINITE = {"inf", "+inf", "-inf", "infinity", "+infinity", "-infinity"}
 _COMMENT_PREFIXES = ("#", "%", "//")
@@ -144,8 +145,8 @@ def _is_number(cell: str, decimal_comma: bool) -> bool:
     return bool(_NUMBER.match(cell))
 
 
-_NUM_POINT = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
-_NUM_ANY = r"[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?"
+_NUM_POINT = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+_NUM_ANY = r"[+-]?(?:[0-9]+(?:[.,][0-9]*)?|[.,][0-9]+)(?:[eE][+-]?[0-9]+)?"
 _ROW = {
     False: re.compile(rf"(?:{_NUM_POINT})(?:\x1f(?:{_NUM_POINT}))*\Z"),
     True: re.compile(rf"(?:{_NUM_ANY})(?:\x1f(?:{_NUM_ANY}))*\Z"),
@@ -273,8 +274,22 @@ def _key_value(s: str, delim: str | None) -> tuple[str, str] | None:
     return None
 
 
+def _foreign_digit(text: str) -> str | None:
+    """The first decimal digit in ``text`` that is not one of ASCII 0-9, or None."""
+    for ch in text:
+        if ch.isdecimal() and not ("0" <= ch <= "9"):
+            return ch
+    return None
+
+
 def _describe_cell(cell: str) -> str:
     c = cell.strip().lower()
+    ch = _foreign_digit(cell)
+    if ch is not None:
+        import unicodedata
+
+        return (f"{cell[:40]!r}, which uses the digit {ch!r} ({unicodedata.name(ch, 'a non-ASCII digit')}; "
+                "only the digits 0-9 are read)")
     if c == "":
         return "an empty cell"
     if c in _MISSING:
@@ -284,16 +299,42 @@ def _describe_cell(cell: str) -> str:
     return f"{cell!r}, which is not a number"
 
 
+#: A unit written after a wavelength label: in brackets, after a slash or after "in".
+_UNIT_SPOT = re.compile(r"[\[(]\s*([^\[\]()]{1,24}?)\s*[\])]|/\s*([^\s/]{1,24})\s*$|\bin\s+([^\s()\[\]]{1,24})\s*$", re.I)
+#: Words that are not units (notes in brackets such as "(measured)" are not refused).
+_LENGTH_OR_AXIS = re.compile(
+    r"^(?:[kcmdfpa]?m|mil|mils|in|inch(?:es)?|ft|foot|feet|yd|yards?|miles?|mi|furlongs?|chains?|leagues?|"
+    r"fathoms?|rods?|nmi|ly|light.?years?|au|pc|parsecs?|(?:kilo|centi|milli|deci|pico|femto)?met(?:er|re)s?|"
+    r"pixels?|px|channels?|ch|index|bins?|points?|samples?|arb\.?|a\.?\s*u\.?)$",
+    re.I,
+)
+
+
+def _unit_words(text: str, whole: bool) -> list[str]:
+    """Candidate unit words in a header cell (``whole=False``) or a unit-only value (``True``)."""
+    if whole:
+        return [text.strip()]
+    out = []
+    for m in _UNIT_SPOT.finditer(text):
+        w = next(g for g in m.groups() if g is not None)
+        out.append(w.strip())
+    return out
+
+
 def _wavelength_unit(header_cell: str | None, meta: dict, file: str, line: int | None):
     texts = []
+    whole: list[bool] = []
     if header_cell:
         texts.append(header_cell)
+        whole.append(False)
     for k, v in meta.items():
         kl = k.lower()
         if "wavelength" in kl and ("unit" in kl or kl.strip() in {"wavelength", "wavelengths"}):
             texts.append(v)
+            whole.append("unit" in kl)
         elif kl in {"x unit", "x-unit", "xunit", "x units", "x axis unit"}:
             texts.append(v)
+            whole.append(True)
     for t in texts:
         if _WL_BAD_UNITS.search(t):
             raise InputError(
@@ -305,6 +346,16 @@ def _wavelength_unit(header_cell: str | None, meta: dict, file: str, line: int |
         for rx, name, factor in _WL_UNITS:
             if rx.search(t):
                 return name, factor
+    # no unit lumeval reads: a stated unit of any other kind is refused, never taken as nm
+    for t, w in zip(texts, whole):
+        for word in _unit_words(t, w):
+            if word and (w or _LENGTH_OR_AXIS.match(word)):
+                raise InputError(
+                    f"the wavelength column is given in {word[:30]!r}, a unit lumeval does not read",
+                    file=file,
+                    line=line,
+                    fix="export the wavelengths in nm (or µm, Å), stated in the column header, e.g. 'wavelength (nm)'",
+                )
     return None, 1.0
 
 
@@ -357,6 +408,16 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     memo = _RowMemo()
     delim, score = _choose_delimiter(lines, memo)
     if score <= 0:
+        for ln, s in lines:
+            ch = None if _is_comment(s) else _foreign_digit(s)
+            if ch is not None:
+                import unicodedata
+
+                raise InputError(
+                    f"numbers written with the digit {ch!r} ({unicodedata.name(ch, 'a non-ASCII digit')}): "
+                    "only the digits 0-9 are read",
+                    file=file, line=ln, fix="export the numbers with the digits 0-9",
+                )
         first = next((ln for ln, s in lines if not _is_comment(s)), lines[0][0])
         raise InputError(
             "no rows of numbers (wavelength, value) found",
@@ -419,6 +480,13 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         if is_row:
             rows.append((ln, cells))
         else:
+            if cells and not _is_comment(s) and _foreign_digit(cells[0]) is not None and all(
+                ch.isdecimal() or ch in ".,+-eE" for ch in cells[0]
+            ):
+                raise InputError(
+                    f"this row's wavelength is {_describe_cell(cells[0])}",
+                    file=file, line=ln, fix="export the numbers with the digits 0-9",
+                )
             if footer or not _is_comment(s):
                 if cells and _is_number(cells[0], decimal_comma) and footer:
                     raise InputError(

@@ -41,6 +41,31 @@ def _reject_constant(name: str):
     raise ValueError(f"non-finite number {name}")
 
 
+class _DuplicateKey(ValueError):
+    def __init__(self, key: str) -> None:
+        super().__init__(key)
+        self.key = key
+
+
+def _no_duplicates(pairs: list) -> dict:
+    """``object_pairs_hook`` refusing an object that names a key twice (RFC 8259 §4 leaves the
+    meaning of duplicate names undefined; Python's json would silently keep the last one)."""
+    out: dict = {}
+    for k, v in pairs:
+        if k in out:
+            raise _DuplicateKey(k)
+        out[k] = v
+    return out
+
+
+def _duplicate_line(text: str, key: str) -> int | None:
+    """The line of the second ``"key":`` in ``text`` (good enough to point at the duplicate)."""
+    import re
+
+    hits = [m.start() for m in re.finditer(re.escape(json.dumps(key)) + r"\s*:", text)]
+    return _line_of(text, hits[1]) if len(hits) > 1 else None
+
+
 def parse_json(raw: bytes, file: str) -> SpectrumSet:
     """Parse lumeval JSON spectra (see the module docstring) into a raw SpectrumSet."""
     if len(raw) > MAX_JSON_BYTES:
@@ -54,14 +79,20 @@ def parse_json(raw: bytes, file: str) -> SpectrumSet:
             f"JSON must be UTF-8; byte {exc.start} is not", file=file, fix="save the file as UTF-8"
         ) from None
     try:
-        doc = json.loads(text, parse_constant=_reject_constant)
+        doc = json.loads(text, parse_constant=_reject_constant, object_pairs_hook=_no_duplicates)
     except json.JSONDecodeError as exc:
         raise InputError(
             f"not valid JSON ({exc.msg})", file=file, line=exc.lineno, fix="repair or re-export the JSON file"
         ) from None
-    except ValueError as exc:  # NaN / Infinity, or an over-long integer
+    except _DuplicateKey as exc:
         raise InputError(
-            f"not usable JSON ({exc})", file=file, fix="every number must be a finite decimal number"
+            f"the key {exc.key[:40]!r} appears twice in one object (which one counts is undefined)",
+            file=file, line=_duplicate_line(text, exc.key), fix="keep one of them",
+        ) from None
+    except ValueError as exc:  # NaN / Infinity, or an over-long integer
+        what = "an integer with thousands of digits" if "digits" in str(exc) else str(exc)[:60]
+        raise InputError(
+            f"not usable JSON ({what})", file=file, fix="every number must be a finite decimal number"
         ) from None
     except RecursionError:
         raise InputError("JSON is nested too deeply", file=file, fix="check that this is a lumeval spectra file") from None

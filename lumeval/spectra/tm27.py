@@ -55,6 +55,17 @@ HEADER_FIELDS = (
 SD_FIELDS = ("SpectralQuantity", "ReflectionGeometry", "TransmissionGeometry", "BandwidthFWHM", "BandwidthCorrected")
 _ABSOLUTE_QUANTITIES = {"flux", "intensity", "irradiance", "radiance", "exitance"}
 _KV_LINE = re.compile(r"^([^:\n]{1,80}?):\s?(.*)$")
+#: Namespace of the attributes in which lumeval's own writer records its fields (the spectrum's
+#: name, its scale and value unit) on a ``SpectralDistribution``. Only these attributes set
+#: them: ``Comments`` lines and elements named ``lumeval.*`` are the file's text, never
+#: lumeval's fields.
+LUMEVAL_NS = "urn:lumeval:tm27"
+_OWN_FIELDS = ("name", "scale", "value_unit")
+
+
+def _own_key(key: str) -> bool:
+    """True for a key in lumeval's own ``lumeval.*`` namespace (any case, any spacing)."""
+    return key.strip().lower().replace(" ", "").startswith("lumeval.")
 
 
 def _local(tag: str) -> str:
@@ -208,13 +219,14 @@ def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
                 rest = []
                 for ln in text.splitlines():
                     m = _KV_LINE.match(ln)
-                    if m and m.group(1).strip() and not m.group(1).strip().startswith(("http", "//")):
+                    if (m and m.group(1).strip() and not m.group(1).strip().startswith(("http", "//"))
+                            and not _own_key(m.group(1))):
                         _add(meta, m.group(1).strip(), m.group(2).strip())
                     else:
                         rest.append(ln)
                 if any(x.strip() for x in rest):
                     _add(meta, "Comments", "\n".join(rest).strip())
-            else:
+            elif not _own_key(name):
                 _add(meta, name, text)
 
     sds = [c for c in root if _local(c.tag) == "SpectralDistribution"]
@@ -244,10 +256,17 @@ def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
                 wls.append(_float(wl_attr, "wavelength", file, line))
                 vals.append(_float(child.text, f"value at wavelength {wl_attr.strip()[:20]}", file, line))
                 row_lines.append(line)
-            elif name in SD_FIELDS or name:
+            elif name in SD_FIELDS or (name and not _own_key(name)):
                 text = (child.text or "").strip()
                 if text and text != "None":
                     m[name] = text
+        for field in _OWN_FIELDS:
+            v = sd.get(f"{{{LUMEVAL_NS}}}{field}")
+            if v is not None and v.strip():
+                if field == "scale" and v not in {"absolute", "relative", "unknown"}:
+                    raise InputError(f"lumeval scale attribute {v[:30]!r} is not absolute, relative or unknown",
+                                     file=file, line=lines.get(id(sd)), fix="remove the attribute or correct it")
+                m[f"lumeval.{field}"] = v.strip()[:200]
         if len(wls) < 2:
             raise InputError(
                 f"the SpectralDistribution holds {len(wls)} SpectralData element(s)",
@@ -396,18 +415,24 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     name = _xml_text(spectra.names[index])
     if "Description" not in mapped:
         mapped["Description"] = name
-    elif mapped["Description"] != name:
-        extra.append(("lumeval.name", name))
+    own: dict[str, str] = {}
+    if mapped["Description"] != name:
+        own["name"] = name
     if "SpectralQuantity" not in mapped:
         scale = meta.get("lumeval.scale")
         mapped["SpectralQuantity"] = "relative" if scale == "relative" else "other"
     # the scale is implied by SpectralQuantity when they agree: then keep it out of Comments
     q = mapped["SpectralQuantity"].strip().lower()
     implied = "relative" if q == "relative" else "absolute" if q in _ABSOLUTE_QUANTITIES else "unknown"
-    if meta.get("lumeval.scale", "unknown") == implied:
-        extra = [(k, v) for k, v in extra if k not in ("lumeval.scale",)]
-        if meta.get("lumeval.value_unit", mapped["SpectralQuantity"]) == mapped["SpectralQuantity"]:
-            extra = [(k, v) for k, v in extra if k != "lumeval.value_unit"]
+    # lumeval's own fields travel as namespaced attributes, never as Comments lines (which a
+    # reader must not trust to set them)
+    extra = [(k, v) for k, v in extra if not _own_key(k)]
+    if meta.get("lumeval.scale", "unknown") != implied:
+        own["scale"] = meta["lumeval.scale"]
+        if meta.get("lumeval.value_unit"):
+            own["value_unit"] = meta["lumeval.value_unit"]
+    elif meta.get("lumeval.value_unit", mapped["SpectralQuantity"]) != mapped["SpectralQuantity"]:
+        own["value_unit"] = meta["lumeval.value_unit"]
     comments = mapped.get("Comments", "")
     lines = [comments] if comments else []
     for k, v in extra:
@@ -415,12 +440,14 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
             lines.append(f"{k}: {vl}")
     mapped["Comments"] = "\n".join(lines)
 
+    ET.register_namespace("lumeval", LUMEVAL_NS)
     root = ET.Element("IESTM2714", {"xmlns": NAMESPACE, "version": VERSION})
     header = ET.SubElement(root, "Header")
     for name in HEADER_FIELDS:
         el = ET.SubElement(header, name)
         el.text = mapped.get(name, "")
-    sd = ET.SubElement(root, "SpectralDistribution")
+    sd = ET.SubElement(root, "SpectralDistribution",
+                       {f"{{{LUMEVAL_NS}}}{k}": v for k, v in own.items()})
     for name in SD_FIELDS:
         if name in mapped:
             ET.SubElement(sd, name).text = mapped[name]

@@ -167,7 +167,10 @@ class MonteCarloSettings:
         return self.draws is None
 
 
-_MC_KEYS = {"draws", "seed", "significant_digits", "max_draws"}
+_MC_KEYS = {"draws", "seed", "significant_digits", "max_draws", "draws_block"}
+#: Largest ``draws_block``: one run's drawn spectra are held at once (20,000 x ~450 points
+#: is about 70 MB), the same bound as the fixed-M runs in lumeval.uncertainty.montecarlo.
+MAX_DRAWS_BLOCK = 20_000
 
 
 # ----------------------------------------------------------------------------------- parsing
@@ -258,7 +261,8 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
     """Build :class:`MonteCarloSettings` from a parsed ``[monte_carlo]`` table.
 
     ``draws`` is an integer 100 ≤ M ≤ 1,000,000 or the string ``"adaptive"``; ``seed`` a
-    non-negative integer; ``significant_digits`` 1 or 2; ``max_draws`` ≥ 1000.
+    non-negative integer; ``significant_digits`` 1 or 2; ``max_draws`` ≥ 1000; ``draws_block``
+    (adaptive only) from 100 to min(:data:`MAX_DRAWS_BLOCK`, max_draws / 2).
     """
     if not isinstance(table, dict):
         raise CriteriaError(f"[{table_name}] must be a table", file=file, line=key_line(text, table_name))
@@ -297,6 +301,19 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
             raise CriteriaError(f"max_draws = {s!r} must be an integer from 1000 to 10000000", file=file,
                                 line=line("max_draws"), field=f"{table_name}.max_draws")
         kw["max_draws"] = s
+    if "draws_block" in table:
+        s = table["draws_block"]
+        if kw.get("draws", 2000) is not None:
+            raise CriteriaError("draws_block applies only to the adaptive procedure", file=file,
+                                line=line("draws_block"), field=f"{table_name}.draws_block",
+                                fix='add draws = "adaptive" or remove draws_block')
+        top = min(MAX_DRAWS_BLOCK, kw.get("max_draws", MonteCarloSettings.max_draws) // 2)
+        if not isinstance(s, int) or isinstance(s, bool) or not 100 <= s <= top:
+            raise CriteriaError(f"draws_block = {s!r} must be an integer from 100 to {top} (at least two runs "
+                                f"within max_draws, at most {MAX_DRAWS_BLOCK} trials held at once)", file=file,
+                                line=line("draws_block"), field=f"{table_name}.draws_block",
+                                fix="write e.g. draws_block = 2000")
+        kw["draws_block"] = s
     return MonteCarloSettings(**kw)
 
 

@@ -229,3 +229,158 @@ def test_inspect_non_utf8_file_name(tmp_path):
         code, out, err = run_sub(["inspect", name, "--format", fmt], tmp_path, timeout=120)
         assert code == 0, err
         assert "x\ufffd" in out
+
+
+# --------------------------------------------------------------------------- silent acceptance
+
+
+def _rows(n_cols=2):
+    wl = np.arange(380, 781, 5)
+    v = np.exp(-(((wl - 560) / 120.0) ** 2)) + 0.1
+    return [f"{a},{b:.5f}" for a, b in zip(wl, v)]
+
+
+@pytest.mark.parametrize("unit", ["km", "furlong", "cm", "mm", "m", "pixel", "inches"])
+@pytest.mark.parametrize("where", ["header", "slash", "metadata"])
+def test_unknown_wavelength_unit_is_refused_with_the_unit_named(tmp_path, capsys, unit, where):
+    rows = "\n".join(_rows()) + "\n"
+    if where == "header":
+        text = f"wavelength ({unit}),value\n" + rows
+    elif where == "slash":
+        text = f"lambda/{unit},value\n" + rows
+    else:
+        text = f"# wavelength unit: {unit}\nwavelength,value\n" + rows
+    f = tmp_path / "u.csv"
+    f.write_text(text, encoding="utf-8")
+    code, _out, err = run(["inspect", f], capsys)
+    one_error_line(code, err, "u.csv", repr(unit), "unit")
+
+
+@pytest.mark.parametrize("header", ["wavelength (nm),value", "Wavelength [nm] (measured),value", "wl (measured),value",
+                                    "wavelength / nm,value", "lambda in nanometres,value"])
+def test_known_or_no_unit_still_read(tmp_path, capsys, header):
+    f = tmp_path / "u.csv"
+    f.write_text(header + "\n" + "\n".join(_rows()) + "\n", encoding="utf-8")
+    code, out, err = run(["inspect", f], capsys)
+    assert code == 0, err
+    from lumeval.spectra.read import read_spectra
+
+    s = read_spectra(f)
+    assert s.wavelengths_nm[0] == 380.0 and s.wavelengths_nm[-1] == 780.0  # read as nm, unscaled
+
+
+@pytest.mark.parametrize(
+    "digits, where",
+    [("٠١٢٣٤٥٦٧٨٩", "all"), ("٠١٢٣٤٥٦٧٨٩", "one cell"), ("０１２３４５６７８９", "one row"), ("߀߁߂߃߄߅߆߇߈߉", "all")],
+)
+def test_non_ascii_digits_in_csv_are_refused(tmp_path, capsys, digits, where):
+    tr = str.maketrans("0123456789", digits)
+    rows = _rows()
+    if where == "all":
+        rows = [r.translate(tr) for r in rows]
+    elif where == "one cell":
+        a, b = rows[10].split(",")
+        rows[10] = a + "," + b.translate(tr)
+    else:
+        rows[10] = rows[10].translate(tr)
+    f = tmp_path / "d.csv"
+    f.write_text("wavelength,value\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    code, _out, err = run(["inspect", f], capsys)
+    one_error_line(code, err, "d.csv", "0-9")
+
+
+def test_duplicate_json_keys_are_an_error(tmp_path, capsys):
+    f = tmp_path / "s.json"
+    wl = list(range(380, 781, 5))
+    f.write_text(
+        '{"format": "lumeval-spectra", "version": 1,\n'
+        f' "wavelengths_nm": {json.dumps(wl)},\n'
+        f' "spectra": [{{"name": "a", "values": {json.dumps([1.0] * len(wl))}, "name": "b"}}]}}\n',
+        encoding="utf-8",
+    )
+    code, _out, err = run(["inspect", f], capsys)
+    one_error_line(code, err, "s.json:3", "'name' appears twice")
+
+
+def test_json_huge_integer_message_has_no_python_advice(tmp_path, capsys):
+    f = tmp_path / "s.json"
+    f.write_text('{"format": "lumeval-spectra", "version": 1, "x": ' + "9" * 5000 + "}", encoding="utf-8")
+    code, _out, err = run(["inspect", f], capsys)
+    one_error_line(code, err, "s.json")
+    assert "sys." not in err and "int_max_str_digits" not in err
+    assert len(err) < 300
+
+
+def _tm27(comments: str, sd_attrs: str = "", extra_sd: str = "") -> str:
+    data = "".join(f'<SpectralData wavelength="{w}">{v:.4f}</SpectralData>'
+                   for w, v in zip(range(380, 781, 5), np.exp(-(((np.arange(380, 781, 5) - 560) / 120.0) ** 2)) + 0.1))
+    return (
+        '<?xml version="1.0"?>\n<IESTM2714 xmlns="http://www.ies.org/iestm2714" xmlns:lumeval="urn:lumeval:tm27" version="1.0">\n'
+        f"<Header><Description>Lamp A</Description><Comments>{comments}</Comments></Header>\n"
+        f"<SpectralDistribution {sd_attrs}><SpectralQuantity>relative</SpectralQuantity>{extra_sd}{data}"
+        "</SpectralDistribution></IESTM2714>\n"
+    )
+
+
+def test_tm27_comment_lines_cannot_set_lumeval_fields(tmp_path, capsys):
+    f = tmp_path / "a.xml"
+    f.write_text(_tm27("lumeval.name: Forged\nLumeval.Scale: absolute\nlumeval.value_unit: W\noperator: Kim",
+                       extra_sd="<lumeval.name>Forged too</lumeval.name>"), encoding="utf-8")
+    code, out, err = run(["inspect", f, "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    text = json.dumps(doc)
+    assert "Lamp A" in text and '"Forged' not in text.replace("lumeval.name: Forged", "")
+    from lumeval.spectra.read import read_spectra
+
+    s = read_spectra(f)
+    assert s.names == ("Lamp A",)
+    assert s.metadata[0]["lumeval.scale"] == "relative"  # from SpectralQuantity, not from Comments
+    assert s.metadata[0]["operator"] == "Kim"
+    assert "lumeval.name: Forged" in s.metadata[0]["Comments"]  # kept as the file's text
+
+
+def test_tm27_lumeval_writer_fields_round_trip(tmp_path, capsys):
+    from lumeval.spectra.model import SpectrumSet
+    from lumeval.spectra.read import read_spectra
+    from lumeval.spectra.write import write_spectra
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    s = SpectrumSet(wl, np.ones((1, wl.size)), ("my lamp",), ("x",),
+                    metadata=({"Description": "catalogue text", "lumeval.scale": "absolute", "lumeval.value_unit": "W/m2/nm"},))
+    write_spectra(s, tmp_path / "r.xml")
+    back = read_spectra(tmp_path / "r.xml")
+    assert back.names == ("my lamp",)
+    assert back.metadata[0]["lumeval.scale"] == "absolute" and back.metadata[0]["Description"] == "catalogue text"
+    assert "lumeval." not in (back.metadata[0].get("Comments") or "")
+
+
+# --------------------------------------------------------------------------- documented keys
+
+
+def test_draws_block_documented_key_is_accepted(tmp_path):
+    """docs/uncertainty.md names `draws_block` in [monte_carlo]: the loader accepts it."""
+    from lumeval.uncertainty.instrument import settings_from_table
+
+    st = settings_from_table({"draws": "adaptive", "draws_block": 500, "max_draws": 4000})
+    assert st.adaptive and st.draws_block == 500 and st.max_draws == 4000
+
+
+@pytest.mark.parametrize(
+    "table, needle",
+    [
+        ("draws = 2000\ndraws_block = 500", "only to the adaptive"),
+        ("draws_block = 500", "only to the adaptive"),
+        ('draws = "adaptive"\ndraws_block = 50', "from 100 to"),
+        ('draws = "adaptive"\ndraws_block = 1000000', "from 100 to"),
+        ('draws = "adaptive"\nmax_draws = 1000\ndraws_block = 800', "from 100 to 500"),
+    ],
+)
+def test_draws_block_bad_use_is_one_line(tmp_path, capsys, table, needle):
+    spd = write_spd(tmp_path / "a.csv")
+    inst = tmp_path / "inst.toml"
+    inst.write_text(f"[instrument]\nnoise_relative = 0.01\n\n[monte_carlo]\n{table}\n", encoding="utf-8")
+    crit = tmp_path / "c.toml"
+    crit.write_text(CRITERIA, encoding="utf-8")
+    code, _out, err = run(["check", spd, "--criteria", crit, "--instrument", inst], capsys)
+    one_error_line(code, err, "inst.toml", "draws_block", needle)

@@ -20,6 +20,7 @@ _COMMAND_MODULES = [
     "lumeval.commands.check",
     "lumeval.commands.criteria_cmd",
     "lumeval.commands.lot",
+    "lumeval.commands.history",
 ]
 
 app = typer.Typer(

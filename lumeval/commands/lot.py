@@ -427,9 +427,22 @@ def register(app: typer.Typer) -> None:
         ),
         seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws.", show_default=False),
         draws: int = typer.Option(None, "--draws", help="Monte Carlo draws per sample (default 2000).", show_default=False),
+        store: str = typer.Option(None, "--store", help="Record the judged lot in this history store (a path, "
+                                  "sqlite:///path.db or postgresql://...; docs/history.md).", show_default=False),
+        lot_id: str = typer.Option(None, "--lot-id", help="The lot's label in the store (default: the criteria's "
+                                   "identification lot).", show_default=False),
+        product: str = typer.Option(None, "--product", help="The lot's product in the store (default: the "
+                                    "criteria's identification product).", show_default=False),
+        trend_figures: str = typer.Option(None, "--trend-figures", help="After recording, report new control-chart "
+                                          "signals of these figures (e.g. duv,R9).", show_default=False),
+        fail_on_signal: bool = typer.Option(False, "--fail-on-signal", help="Exit 1 when the recorded lot gives a "
+                                            "control-chart signal."),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ._targets import check_targets
+        from .history import check_store_options, record_after_lot
+
+        check_store_options(store, lot_id, product, trend_figures, fail_on_signal or None)
 
         outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html}
         check_targets(files=outputs, dirs={"--plots": plots},
@@ -502,4 +515,5 @@ def register(app: typer.Typer) -> None:
                       f"report; first: {run.unreadable[0].message}", file=sys.stderr)
         # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which
         # would turn typer.Exit into a return value and lose the code.
-        sys.exit(run.exit_code)
+        sys.exit(record_after_lot(run, criteria, store=store, lot_id=lot_id, product=product, trend_figures=trend_figures,
+                                  fail_on_signal=fail_on_signal, exit_code=run.exit_code))

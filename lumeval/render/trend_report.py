@@ -1,0 +1,310 @@
+"""Renderings of the production history: lot lists and trends (terminal, JSON, HTML with charts).
+
+Nothing is computed here beyond formatting and drawing; the numbers come from
+:mod:`lumeval.store.trend`. Text from the store (lot labels, products, file names) is untrusted:
+control characters are removed for the terminal, everything is escaped in HTML.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+from pathlib import Path
+
+import numpy as np
+
+_CTRL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def plain(s) -> str:
+    """Text safe for a terminal line: no control, bidi-override or escape characters."""
+    return _CTRL.sub("\ufffd", "" if s is None else str(s)).replace("\n", " ").replace("\t", " ")
+
+
+def _fmt(v, spec: str = ".5g") -> str:
+    if v is None:
+        return "n/a"
+    f = float(v)
+    return "n/a" if not math.isfinite(f) else format(f, spec)
+
+
+# --------------------------------------------------------------------------- list
+
+
+def list_document(lots, store: str) -> dict:
+    from .. import __version__
+
+    return {"format": "lumeval-history-list", "schema_version": 1, "lumeval_version": __version__, "store": store,
+            "lots": [lot.as_dict() for lot in lots]}
+
+
+def print_list(lots, store: str, console=None) -> None:
+    from rich.console import Console
+    from rich.table import Table
+    from rich.text import Text
+
+    console = console or Console(highlight=False, soft_wrap=False)
+    if not lots:
+        console.print(Text(f"No lots recorded in {plain(store)} (with these filters)."))
+        return
+    t = Table(title=Text(f"Lots recorded in {plain(store)}"), title_justify="left")
+    for col, just in (("lot", "right"), ("label", "left"), ("product", "left"), ("recorded (UTC)", "left"),
+                      ("samples", "right"), ("yield %", "right"), ("verdict", "left")):
+        t.add_column(col, justify=just, no_wrap=col not in ("label", "product"))
+    for lot in lots:
+        verdict = {"pass": "✓ pass", "fail": "✗ FAIL"}.get(lot.verdict, lot.verdict)
+        t.add_row(str(lot.id), Text(plain(lot.label or "")), Text(plain(lot.product or "")), lot.recorded_at,
+                  str(lot.samples), _fmt(lot.yield_percent, ".1f"), verdict)
+    console.print(t)
+
+
+# --------------------------------------------------------------------------- trend, terminal
+
+
+def signal_lines(tr, lot_id: int | None = None) -> list[str]:
+    """One plain line per signal (of one lot when ``lot_id`` is given)."""
+    out = []
+    for s in tr.signals:
+        p = tr.points[s.index]
+        if lot_id is not None and p.lot != lot_id:
+            continue
+        name = f"lot {p.lot}" + (f" ({plain(p.label)})" if p.label else "")
+        out.append(f"{name}: {tr.figure} {_CHART_NAMES[s.chart]} {s.rule}: {s.text}")
+    return out
+
+
+_CHART_NAMES = {"xbar": "X̄ chart", "s": "s chart", "individuals": "individuals chart",
+                "moving_range": "moving-range chart", "ewma": "EWMA chart"}
+
+
+def print_trend(tr, console=None) -> None:
+    from rich.console import Console
+    from rich.table import Table
+    from rich.text import Text
+
+    from ..store.trend import trend_document
+
+    doc = trend_document(tr)
+    console = console or Console(highlight=False, soft_wrap=False)
+    unit = f" {tr.unit}" if tr.unit else ""
+    head = (f"Trend of {tr.label}{unit} over {len(tr.points)} lots"
+            + (f" of {plain(tr.product)}" if tr.product else "") + f" — {tr.chart} chart, baseline {tr.baseline_rule}")
+    console.print(Text(head, style="bold"))
+    if tr.chart == "xbar-s":
+        lim = (f"X̄: centre {_fmt(doc['centre_line'])}, limits {_fmt(doc['lcl'])} … {_fmt(doc['ucl'])}"
+               if doc["ucl"] is not None else f"X̄: centre {_fmt(doc['centre_line'])}, limits per lot (lot sizes differ)")
+        lim += f"; s: centre {_fmt(doc['s_chart']['centre_line'])}; σ̂ within lots {_fmt(doc['sigma'])}"
+    else:
+        lim = (f"individuals: centre {_fmt(doc['centre_line'])}, limits {_fmt(doc['lcl'])} … {_fmt(doc['ucl'])}; "
+               f"moving range: centre {_fmt(doc['moving_range']['centre_line'])}, UCL {_fmt(doc['moving_range']['ucl'])}")
+    lim += f"; EWMA λ = {tr.ewma.lam:g}, L = {tr.ewma.L:g}"
+    console.print(Text(lim))
+    flagged = {}
+    for s in tr.signals:
+        flagged.setdefault(s.index, []).append(f"{s.chart}:{s.rule}")
+    t = Table()
+    cols = ["lot", "label", "n", "mean", "s" if tr.chart == "xbar-s" else "MR", "EWMA", "signals"]
+    for c in cols:
+        t.add_column(c, justify="left" if c in ("label", "signals") else "right")
+    for i, p in enumerate(tr.points):
+        second = p.s if tr.chart == "xbar-s" else tr.main.moving_range[i]
+        t.add_row(str(p.lot) + ("ᴮ" if tr.baseline[i] else ""), Text(plain(p.label or "")), str(p.n), _fmt(p.mean),
+                  _fmt(second, ".4g"), _fmt(tr.ewma.z[i]), Text(", ".join(flagged.get(i, [])) or "—"))
+    console.print(t)
+    console.print(Text("ᴮ baseline lot (estimates the limits)", style="dim"))
+    lines = signal_lines(tr)
+    if lines:
+        console.print(Text(f"{len(lines)} signal{'s' if len(lines) != 1 else ''}:", style="bold"))
+        for line in lines:
+            console.print(Text("  ⚠ " + line))
+    else:
+        console.print(Text("No signal: every lot is inside the limits and no Western Electric rule is broken."))
+    for n in tr.notes:
+        console.print(Text("note: " + n, style="dim"))
+
+
+# --------------------------------------------------------------------------- trend, HTML figures
+
+
+def trend_figures(tr) -> list[tuple[str, str, str, object]]:
+    """(key, title, caption, matplotlib Figure) for the trend's charts, in lumeval's report style
+    (Okabe-Ito palette, meanings also carried by line style and marker shape)."""
+    from .plots import PALETTE, _ctx, _new_figure
+
+    m = len(tr.points)
+    x = np.arange(1, m + 1)
+    labels = [str(p.lot) for p in tr.points]
+    sig_by_chart: dict[str, set] = {}
+    for s in tr.signals:
+        sig_by_chart.setdefault(s.chart, set()).add(s.index)
+    base = np.flatnonzero(tr.baseline)
+
+    def panel(ax, y, cl, ucl, lcl, chart, ylabel):
+        y = np.asarray(y, dtype=float)
+        if base.size:
+            ax.axvspan(base[0] + 0.5, base[-1] + 1.5, color="#f2f2f2", zorder=0, lw=0)
+        ax.plot(x, np.broadcast_to(cl, (m,)), color=PALETTE["black"], lw=1.0, ls="-", label="centre line")
+        ax.plot(x, np.broadcast_to(ucl, (m,)), color=PALETTE["blue"], lw=1.0, ls="--", drawstyle="steps-mid",
+                label="control limits")
+        if lcl is not None:
+            ax.plot(x, np.broadcast_to(lcl, (m,)), color=PALETTE["blue"], lw=1.0, ls="--", drawstyle="steps-mid")
+        ax.plot(x, y, color=PALETTE["grey"], lw=0.8, marker="o", ms=4, mfc="white", mec=PALETTE["black"],
+                label="lot")
+        hit = sorted(sig_by_chart.get(chart, ()))
+        if hit:
+            ax.plot(x[hit], y[hit], ls="none", marker="D", ms=7, mfc=PALETTE["vermillion"], mec=PALETTE["black"],
+                    label="signal")
+        ax.set_ylabel(ylabel)
+        ax.set_xlim(0.5, m + 0.5)
+        step = max(1, int(math.ceil(m / 25)))
+        ax.set_xticks(x[::step])
+        ax.set_xticklabels(labels[::step], rotation=0 if m <= 25 else 45)
+        ax.grid(axis="y", color="#dddddd", lw=0.6)
+
+    out = []
+    unit = f" ({tr.unit})" if tr.unit else ""
+    main = tr.main
+    with _ctx():
+        fig = _new_figure(4.6)
+        ax1, ax2 = fig.subplots(2, 1, sharex=True, height_ratios=[3, 2])
+        if tr.chart == "xbar-s":
+            panel(ax1, [p.mean for p in tr.points], main.grand_mean, main.xbar_ucl, main.xbar_lcl, "xbar",
+                  f"lot mean{unit}")
+            panel(ax2, [p.s for p in tr.points], main.s_bar, main.s_ucl, main.s_lcl, "s", f"within-lot s{unit}")
+            title, key = "X̄ and s charts", "xbar-s"
+            cap = ("Top: each lot's mean with the limits x̿ ± A3 s̄; bottom: each lot's standard deviation with B3 s̄ and "
+                   "B4 s̄ (Montgomery §6.3). Shaded: the baseline lots. Diamonds: signals.")
+        else:
+            panel(ax1, [p.mean for p in tr.points], main.centre, main.ucl, main.lcl, "individuals", f"value{unit}")
+            panel(ax2, main.moving_range, main.mr_bar, main.mr_ucl, None, "moving_range", f"moving range{unit}")
+            title, key = "Individuals and moving-range charts", "i-mr"
+            cap = ("Top: one value per lot with the limits x̄ ± 3 MR̄/d2; bottom: the moving range with D4 MR̄ "
+                   "(Montgomery §6.4). Shaded: the baseline lots. Diamonds: signals.")
+        ax2.set_xlabel("lot (store number, in recording order)")
+        h, lab = ax1.get_legend_handles_labels()
+        ax1.legend(h, lab, loc="upper left", ncols=4, frameon=False, fontsize=7.5)
+        out.append((key, f"{tr.label}: {title}", cap, fig))
+
+        fig = _new_figure(2.8)
+        ax = fig.subplots()
+        panel(ax, tr.ewma.z, tr.ewma.centre, tr.ewma.ucl, tr.ewma.lcl, "ewma", f"EWMA{unit}")
+        ax.set_xlabel("lot (store number, in recording order)")
+        out.append(("ewma", f"{tr.label}: EWMA chart",
+                    f"z_i = λ x_i + (1 − λ) z_(i−1) with λ = {tr.ewma.lam:g}, limits at L = {tr.ewma.L:g} "
+                    "(Montgomery §9.2); it accumulates small persistent shifts that single lots do not show.", fig))
+    return out
+
+
+_TREND_CSS = """
+.signals li { margin: .2rem 0; }
+tr.signal td { background: #fdf0e8; }
+td.b { color: var(--muted); }
+"""
+
+
+def render_trend_html(tr, *, chromaticity: list | None = None, command: str | None = None, generated_at=None) -> str:
+    """The trend report as one self-contained HTML document: charts, signals, lots, provenance,
+    cautions. ``chromaticity``: further trends (the centroid charts) drawn after the main one."""
+    import datetime as _dt
+
+    from .. import __version__
+    from ..store.trend import trend_document
+    from .html import _CSS, _e, _table, inline_svg
+    from .plots import figure_svg
+    from .provenance import package_versions
+
+    trends = [tr] + list(chromaticity or [])
+    when = (generated_at or _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0)).isoformat()
+    doc = trend_document(tr)
+    n_sig = len(tr.signals)
+    title = f"Production trend: {tr.label}" + (f" — {tr.product}" if tr.product else "")
+    body = [f"<header><h1>{_e(title)}</h1><p class=\"sub\">{len(tr.points)} lots · store {_e(tr.store)} · "
+            f"generated {_e(when)} · lumeval {_e(__version__)}</p></header>"]
+    outcome = "fail" if n_sig else "pass"
+    words = (f"{n_sig} control-chart signal{'s' if n_sig != 1 else ''}: the process may have changed; look at the "
+             "lots listed below." if n_sig else "No control-chart signal: the lots behave like the baseline.")
+    badge = (f'<span class="badge {outcome}"><span class="sym" aria-hidden="true">{"⚠" if n_sig else "✓"}</span> '
+             f'{"SIGNAL" if n_sig else "IN CONTROL"}</span>')
+    body.append(f'<section id="summary"><h2>Summary</h2><div class="summary {outcome}"><p class="big">{badge} '
+                f"{_e(words)}</p><p>Figure {_e(tr.label)}{(' (' + _e(tr.unit) + ')') if tr.unit else ''}; "
+                f"{_e(tr.chart)} chart; baseline {_e(tr.baseline_rule)}.</p></div></section>")
+
+    body.append('<section id="charts"><h2>Control charts</h2>')
+    k = 0
+    for t_ in trends:
+        if t_ is not tr:
+            body.append(f"<h3>{_e(t_.label)}</h3>")
+        for key, ftitle, cap, fig in trend_figures(t_):
+            svg = inline_svg(figure_svg(fig), f"t{k}", ftitle)
+            body.append(f'<figure id="fig-{_e(t_.figure)}-{_e(key)}" data-figure="{_e(t_.figure)}-{_e(key)}">{svg}'
+                        f"<figcaption><b>{_e(ftitle)}.</b> {_e(cap)}</figcaption></figure>")
+            k += 1
+    body.append("</section>")
+
+    body.append('<section id="signals"><h2>Signals</h2>')
+    all_lines = []
+    for t_ in trends:
+        all_lines += signal_lines(t_)
+    if all_lines:
+        body.append('<ul class="signals">' + "".join(f"<li>⚠ {_e(x)}</li>" for x in all_lines) + "</ul>")
+    else:
+        body.append("<p>None.</p>")
+    body.append('<p class="sub">Rules: WE1 one point beyond 3σ; WE2 two of three beyond 2σ on one side; WE3 four '
+                "of five beyond 1σ on one side; WE4 eight in a row on one side (Western Electric 1956, numbered as "
+                "in Montgomery §5.3.6); s, moving-range and EWMA charts: beyond their limits.</p></section>")
+
+    body.append('<section id="lots"><h2>Lots</h2>')
+    sig_idx = {s.index for s in tr.signals}
+    rows, classes = [], []
+    for i, p in enumerate(tr.points):
+        second = p.s if tr.chart == "xbar-s" else tr.main.moving_range[i]
+        rows.append([_e(p.lot), _e(p.label or ""), _e(p.recorded_at), _e(p.n), _e(_fmt(p.mean)), _e(_fmt(second, ".4g")),
+                     _e(_fmt(tr.ewma.z[i])), "baseline" if tr.baseline[i] else "",
+                     _e(", ".join(f"{s.chart} {s.rule}" for s in tr.signals if s.index == i))])
+        classes.append("signal" if i in sig_idx else "")
+    body.append(_table(["Lot", "Label", "Recorded (UTC)", "n", "Mean", "s" if tr.chart == "xbar-s" else "MR", "EWMA",
+                        "Role", "Signals"], rows, numeric=[True, False, False, True, True, True, True, False, False],
+                       row_classes=classes))
+    limits = [["Centre line", _e(_fmt(doc["centre_line"]))], ["UCL", _e(_fmt(doc["ucl"]))], ["LCL", _e(_fmt(doc["lcl"]))],
+              ["σ̂", _e(_fmt(doc["sigma"]))]]
+    if doc["s_chart"]:
+        limits.append(["s chart centre / UCL / LCL", _e(" / ".join(_fmt(doc["s_chart"][k_]) for k_ in ("centre_line", "ucl", "lcl")))])
+    if doc["moving_range"]:
+        limits.append(["MR chart centre / UCL", _e(" / ".join(_fmt(doc["moving_range"][k_]) for k_ in ("centre_line", "ucl")))])
+    limits.append(["EWMA λ, L", _e(f"{tr.ewma.lam:g}, {tr.ewma.L:g}")])
+    body.append("<h3>Limits</h3>" + _table(["", ""], limits))
+    if tr.notes:
+        body.append('<ul class="notes">' + "".join(f"<li>{_e(n)}</li>" for n in tr.notes) + "</ul>")
+    body.append("</section>")
+
+    body.append('<section id="provenance"><h2>Provenance</h2>')
+    meta = [["Store", f'<span class="mono">{_e(tr.store)}</span>'], ["Generated", _e(when)]]
+    if command:
+        meta.append(["Command", f'<span class="mono">{_e(command)}</span>'])
+    body.append(_table(["", ""], meta))
+    body.append("<h3>Methods and sources</h3><ul>" + "".join(f"<li>{_e(s)}</li>" for s in doc["sources"]) + "</ul>")
+    body.append("<h3>Software</h3>" + _table(["Package", "Version"], [[_e(a), _e(b)] for a, b in package_versions()]))
+    body.append("</section>")
+    body.append('<section id="cautions"><h2>Cautions</h2><div class="cautions"><ul>'
+                + "".join(f"<li>{_e(c)}</li>" for c in doc["cautions"]) + "</ul></div></section>")
+    body.append("<footer>Made with lumeval. This file is self-contained: it loads nothing from the network.</footer>")
+    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+            f"<title>{_e(title)}</title>\n<style>{_CSS}{_TREND_CSS}</style>\n</head>\n<body>\n"
+            + "\n".join(body) + "\n</body>\n</html>\n")
+
+
+def write_trend_html(path, tr, **kwargs) -> Path:
+    from .html import _atomic_write
+
+    path = Path(path)
+    _atomic_write(path, render_trend_html(tr, **kwargs).encode("utf-8"))
+    return path
+
+
+def trend_json(tr) -> str:
+    from ..store.trend import trend_document
+
+    return json.dumps(trend_document(tr), indent=1, ensure_ascii=False, allow_nan=False) + "\n"
+

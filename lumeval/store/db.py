@@ -1,0 +1,415 @@
+"""The store's database: URLs, engines, the schema, its versions and migrations (SQLAlchemy Core).
+
+Backends
+--------
+* **SQLite** (the default; Python's standard library, no server): a path (``history.db``) or
+  ``sqlite:///history.db``. Opened in WAL mode (readers never block the writer) with a busy
+  timeout, and every write transaction starts with ``BEGIN IMMEDIATE`` so that two processes
+  recording at once queue for the write lock instead of failing half-way.
+* **PostgreSQL** (several test stations sharing one history): ``postgresql://user@host:port/db``
+  (``postgres://`` too), through psycopg 3 (the ``postgres`` extra). Each recording is one
+  transaction; creating the schema of a new store is serialised by an advisory lock.
+
+Schema versions
+---------------
+The table ``lumeval_schema`` holds one row per schema version applied. This lumeval reads and
+writes :data:`SCHEMA_VERSION`. A store of an older version is migrated by
+``lumeval history migrate`` (one transaction per step, each step an explicit function below);
+until then every command refuses it with a message saying so. A store of a newer version (from
+a newer lumeval) is refused: it would be silently misread.
+
+Why no Alembic: the schema has four tables and explicit, tested steps; Alembic's script
+directory, environment file and revision graph would add a dependency and a second place
+where the schema lives, without adding safety here (PostgreSQL and SQLite both run these
+steps transactionally).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import os
+from contextlib import contextmanager
+from dataclasses import dataclass
+
+from ..errors import LumevalError
+
+#: The schema this lumeval reads and writes.
+SCHEMA_VERSION = 2
+#: Seconds a writer waits for another writer's lock (SQLite busy timeout).
+SQLITE_BUSY_TIMEOUT_S = 60
+#: Seconds to wait for a PostgreSQL server to answer a connection.
+PG_CONNECT_TIMEOUT_S = 10
+#: Advisory lock key that serialises the creation and migration of a PostgreSQL store's schema.
+_PG_SCHEMA_LOCK = 0x6C756D65  # "lume"
+
+
+class StoreError(LumevalError):
+    """The store cannot be opened, read or written (bad URL, unreachable server, read-only
+    store, a schema from another lumeval version)."""
+
+
+# --------------------------------------------------------------------------- URLs
+
+
+@dataclass(frozen=True)
+class StoreURL:
+    """A store location: the SQLAlchemy URL, the backend and a printable form without password."""
+
+    url: str
+    backend: str  # "sqlite" | "postgresql"
+    shown: str
+    sqlite_path: str | None = None
+
+
+def parse_store_url(text: str) -> StoreURL:
+    """Turn ``--store`` into a :class:`StoreURL`.
+
+    A plain path (no ``scheme://``) and ``sqlite:///path`` mean SQLite; ``postgresql://`` and
+    ``postgres://`` (any ``+driver`` is replaced) mean PostgreSQL through psycopg 3.
+    """
+    from sqlalchemy.engine import make_url
+    from sqlalchemy.exc import ArgumentError
+
+    raw = str(text).strip()
+    if not raw:
+        raise StoreError("the store URL is empty", fix="give a path (history.db), sqlite:///history.db or postgresql://user@host/db")
+    if "://" not in raw:
+        path = os.path.abspath(raw)
+        return StoreURL("sqlite:///" + path, "sqlite", raw, path)
+    try:
+        u = make_url(raw)
+    except ArgumentError:
+        raise StoreError(f"{_redact(raw)}: not a store URL",
+                         fix="give a path, sqlite:///history.db or postgresql://user@host:port/db") from None
+    backend = u.get_backend_name()
+    shown = u.render_as_string(hide_password=True)
+    if backend == "sqlite":
+        db = u.database or ""
+        if not db or db == ":memory:" or db.startswith("file:"):
+            raise StoreError(f"{shown}: a store needs a database file",
+                             fix="give sqlite:///path/to/history.db (three slashes, then the path)")
+        path = os.path.abspath(db)
+        return StoreURL("sqlite:///" + path, "sqlite", shown, path)
+    if backend in ("postgresql", "postgres"):
+        u = u.set(drivername="postgresql+psycopg")
+        return StoreURL(u.render_as_string(hide_password=False), "postgresql", shown)
+    raise StoreError(f"{shown}: unsupported store type {backend!r}",
+                     fix="use SQLite (a path or sqlite:///history.db) or PostgreSQL (postgresql://user@host:port/db)")
+
+
+def _redact(raw: str) -> str:
+    """A URL-ish string with anything between ``://`` and ``@`` after a colon hidden."""
+    if "://" in raw and "@" in raw:
+        head, rest = raw.split("://", 1)
+        cred, host = rest.rsplit("@", 1)
+        if ":" in cred:
+            cred = cred.split(":", 1)[0] + ":***"
+        return f"{head}://{cred}@{host}"
+    return raw
+
+
+# --------------------------------------------------------------------------- schema
+
+
+def _tables():
+    """(metadata, tables) of the current schema (built on first use: SQLAlchemy is imported lazily)."""
+    global _SCHEMA
+    if _SCHEMA is not None:
+        return _SCHEMA
+    from sqlalchemy import (Boolean, Column, Double, ForeignKey, Index, Integer, MetaData, String, Table, Text,
+                            UniqueConstraint)
+
+    md = MetaData()
+    schema = Table(
+        "lumeval_schema", md,
+        Column("version", Integer, primary_key=True, autoincrement=False),
+        Column("applied_at", String(40), nullable=False),
+        Column("lumeval_version", String(40), nullable=False),
+    )
+    lots = Table(
+        "lots", md,
+        Column("id", Integer, primary_key=True, autoincrement=True),
+        Column("lot_key", String(64), nullable=False),
+        Column("label", Text),
+        Column("product", Text),
+        Column("recorded_at", String(40), nullable=False),
+        Column("lumeval_version", String(40), nullable=False),
+        Column("criteria_file", Text),
+        Column("criteria_sha256", String(64)),
+        Column("identification", Text, nullable=False),
+        Column("n_samples", Integer, nullable=False),
+        Column("n_passed", Integer),
+        Column("n_failed", Integer),
+        Column("n_not_judged", Integer),
+        Column("yield_percent", Double),
+        Column("verdict", String(20), nullable=False),
+        Column("exit_code", Integer, nullable=False),
+        Column("centroid_u", Double),
+        Column("centroid_v", Double),
+        Column("statistics", Text, nullable=False),
+        # schema 2
+        Column("region_name", Text),
+        Column("region_centre_u", Double),
+        Column("region_centre_v", Double),
+        Column("region_corners", Text),
+        UniqueConstraint("lot_key", name="uq_lots_lot_key"),
+    )
+    Index("ix_lots_product_id", lots.c.product, lots.c.id)  # schema 2
+    inputs = Table(
+        "lot_inputs", md,
+        Column("lot_id", Integer, ForeignKey("lots.id", ondelete="CASCADE"), primary_key=True),
+        Column("position", Integer, primary_key=True, autoincrement=False),
+        Column("path", Text, nullable=False),
+        Column("sha256", String(64), nullable=False),
+        Column("size_bytes", Integer),
+    )
+    figures = Table(
+        "lot_figures", md,
+        Column("lot_id", Integer, ForeignKey("lots.id", ondelete="CASCADE"), primary_key=True),
+        Column("figure", String(40), primary_key=True),
+        Column("n", Integer, nullable=False),
+        Column("mean", Double),
+        Column("std", Double),
+        Column("min", Double),
+        Column("max", Double),
+    )
+    samples = Table(
+        "samples", md,
+        Column("lot_id", Integer, ForeignKey("lots.id", ondelete="CASCADE"), primary_key=True),
+        Column("idx", Integer, primary_key=True, autoincrement=False),
+        Column("name", Text, nullable=False),
+        Column("source", Text, nullable=False),
+        Column("verdict", String(20)),
+        Column("outlier", Boolean, nullable=False),
+        Column("figures", Text, nullable=False),
+        Column("warnings", Text, nullable=False),
+    )
+    _SCHEMA = (md, {"schema": schema, "lots": lots, "inputs": inputs, "figures": figures, "samples": samples})
+    return _SCHEMA
+
+
+_SCHEMA = None
+
+#: Columns and indexes schema 2 added (see :func:`_migrate_1_to_2`).
+_V2_LOT_COLUMNS = (("region_name", "TEXT"), ("region_centre_u", "DOUBLE PRECISION"),
+                   ("region_centre_v", "DOUBLE PRECISION"), ("region_corners", "TEXT"))
+
+
+def create_schema_v1(conn) -> None:
+    """Create the schema of version 1 (lumeval stores written before the category region was
+    recorded). Kept to test migrations and to document what version 1 was."""
+    from sqlalchemy import MetaData, Table
+
+    md, t = _tables()
+    md1 = MetaData()
+    for name in ("schema", "lots", "inputs", "figures", "samples"):
+        tbl = t[name]
+        cols = [c.copy() for c in tbl.columns if not (name == "lots" and c.name in dict(_V2_LOT_COLUMNS))]
+        cons = [c.copy() for c in tbl.constraints if c.__class__.__name__ == "UniqueConstraint"]
+        Table(tbl.name, md1, *cols, *cons)
+    md1.create_all(conn)
+    _stamp(conn, 1)
+
+
+def _migrate_1_to_2(conn) -> None:
+    """Schema 1 → 2: the lot's category region (name, centre, corners in u′v′) so that the
+    chromaticity trend needs no criteria file, and an index on (product, id) for trends."""
+    for col, typ in _V2_LOT_COLUMNS:
+        conn.exec_driver_sql(f"ALTER TABLE lots ADD COLUMN {col} {typ}")
+    conn.exec_driver_sql("CREATE INDEX ix_lots_product_id ON lots (product, id)")
+
+
+#: version -> the step that migrates a store from that version to the next.
+MIGRATIONS = {1: _migrate_1_to_2}
+
+
+def _now() -> str:
+    return _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat().replace("+00:00", "Z")
+
+
+def _lumeval_version() -> str:
+    from .. import __version__
+
+    return __version__
+
+
+def _stamp(conn, version: int) -> None:
+    from sqlalchemy import insert
+
+    conn.execute(insert(_tables()[1]["schema"]).values(version=version, applied_at=_now(), lumeval_version=_lumeval_version()))
+
+
+def stored_version(conn) -> int | None:
+    """The store's schema version (the highest applied), or None for an empty database."""
+    from sqlalchemy import func, inspect, select
+
+    if not inspect(conn).has_table("lumeval_schema"):
+        return None
+    return conn.execute(select(func.max(_tables()[1]["schema"].c.version))).scalar()
+
+
+# --------------------------------------------------------------------------- engines
+
+
+def _make_engine(su: StoreURL):
+    from sqlalchemy import create_engine, event
+    from sqlalchemy.pool import NullPool
+
+    if su.backend == "sqlite":
+        eng = create_engine(su.url, poolclass=NullPool, connect_args={"timeout": SQLITE_BUSY_TIMEOUT_S})
+
+        @event.listens_for(eng, "connect")
+        def _on_connect(dbapi_conn, _rec):  # pragma: no cover - exercised through every test
+            dbapi_conn.isolation_level = None  # we issue BEGIN ourselves (below)
+            cur = dbapi_conn.cursor()
+            cur.execute(f"PRAGMA busy_timeout = {SQLITE_BUSY_TIMEOUT_S * 1000}")
+            cur.execute("PRAGMA foreign_keys = ON")
+            cur.close()
+
+        @event.listens_for(eng, "begin")
+        def _on_begin(conn):  # pragma: no cover
+            conn.exec_driver_sql("BEGIN IMMEDIATE" if conn.info.get("lumeval_write") else "BEGIN")
+
+        return eng
+    try:
+        import psycopg  # noqa: F401
+    except ImportError:
+        raise StoreError(f"{su.shown}: PostgreSQL stores need the psycopg package",
+                         fix="install lumeval with the postgres extra: pip install 'lumeval[postgres]'") from None
+    return create_engine(su.url, poolclass=NullPool, connect_args={"connect_timeout": PG_CONNECT_TIMEOUT_S})
+
+
+def _first_line(exc: BaseException) -> str:
+    orig = getattr(exc, "orig", None) or exc
+    text = str(orig).strip().splitlines()
+    return text[0].strip() if text else type(orig).__name__
+
+
+def _fix_for(su: StoreURL, text: str) -> str:
+    t = text.lower()
+    if "readonly" in t or "read-only" in t or "read only" in t or "permission denied" in t:
+        return "the store is read-only here: record into a store this user may write, or ask its owner"
+    if su.backend == "postgresql":
+        if "password" in t or "authentication" in t:
+            return "check the user name and password (or the server's pg_hba.conf)"
+        if "does not exist" in t:
+            return "check the database name (create it with createdb) and the user"
+        return "check the host, port and that the PostgreSQL server is running and reachable"
+    return "check the path, that its folder exists and is writable, and the free space"
+
+
+@contextmanager
+def connect(su: StoreURL, *, write: bool, action: str):
+    """A connection inside one transaction (committed on success, rolled back on error).
+
+    Every database error becomes one :class:`StoreError` line naming the store and ``action``.
+    For SQLite, reading a file that does not exist is refused (a read never creates a store);
+    WAL mode is switched on by the first writer.
+    """
+    from sqlalchemy.exc import DBAPIError, IntegrityError, SQLAlchemyError
+
+    if su.backend == "sqlite":
+        p = su.sqlite_path
+        assert p is not None
+        folder = os.path.dirname(p) or "."
+        if os.path.isdir(p):
+            raise StoreError(f"{su.shown}: is a folder, not a store file", fix="give a file path such as history.db")
+        if not write and not os.path.exists(p):
+            raise StoreError(f"{su.shown}: no store here (the file does not exist)",
+                             fix="check the path; a store is created by `lumeval lot ... --store PATH`")
+        if write and not os.path.isdir(folder):
+            raise StoreError(f"{su.shown}: the folder {folder} does not exist", fix="create the folder first")
+        if os.path.exists(p):
+            try:
+                with open(p, "rb") as fh:
+                    head = fh.read(16)
+            except OSError as exc:
+                raise StoreError(f"{su.shown}: cannot be read ({exc.strerror or exc})",
+                                 fix="check the file's permissions") from None
+            if head and head != b"SQLite format 3\x00":
+                raise StoreError(f"{su.shown}: not an SQLite database", fix="give the path of a lumeval store")
+    eng = _make_engine(su)
+    try:
+        with eng.connect() as conn:
+            conn.info["lumeval_write"] = write
+            if su.backend == "sqlite" and write:
+                # outside any transaction (SQLite cannot change the journal mode inside one);
+                # the mode is stored in the file, so this is a no-op after the first writer
+                raw = conn.connection.driver_connection
+                if str(raw.execute("PRAGMA journal_mode").fetchone()[0]).lower() != "wal":
+                    raw.execute("PRAGMA journal_mode = WAL")
+            with conn.begin():
+                yield conn
+    except (StoreError, IntegrityError):  # IntegrityError: the caller decides (a lot recorded twice)
+        raise
+    except DBAPIError as exc:
+        text = _first_line(exc)
+        raise StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text)) from None
+    except SQLAlchemyError as exc:
+        text = _first_line(exc)
+        raise StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text)) from None
+    finally:
+        eng.dispose()
+
+
+def ensure_schema(conn, su: StoreURL, *, create: bool) -> None:
+    """Check the store's schema version; create the schema in an empty database when ``create``.
+
+    Raises :class:`StoreError` for a store of another version, or when there is no store and
+    ``create`` is false.
+    """
+    v = stored_version(conn)
+    if v is None and su.backend == "postgresql" and create:
+        conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+        v = stored_version(conn)
+    if v is None:
+        if not create:
+            raise StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)",
+                             fix="check the URL; a store is created by `lumeval lot ... --store URL`")
+        md, _t = _tables()
+        md.create_all(conn)
+        _stamp(conn, SCHEMA_VERSION)
+        return
+    check_version(v, su)
+
+
+def check_version(v: int, su: StoreURL) -> None:
+    if v > SCHEMA_VERSION:
+        raise StoreError(
+            f"{su.shown}: the store has schema version {v}, written by a newer lumeval; this lumeval "
+            f"({_lumeval_version()}) reads version {SCHEMA_VERSION} and will not guess",
+            fix="upgrade lumeval on this station")
+    if v < SCHEMA_VERSION:
+        raise StoreError(
+            f"{su.shown}: the store has schema version {v}, written by an older lumeval; this lumeval reads "
+            f"version {SCHEMA_VERSION}",
+            fix=f"back the store up, then run `lumeval history migrate --store {su.shown}` (every station that "
+                "writes to it then needs this lumeval or newer)")
+
+
+def migrate(su: StoreURL) -> tuple[int, int]:
+    """Migrate the store to :data:`SCHEMA_VERSION`, one transaction per step.
+
+    Returns (version before, version after). Refuses a newer store and an empty database.
+    """
+    with connect(su, write=True, action="migrate the store") as conn:
+        if su.backend == "postgresql":
+            conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+        before = stored_version(conn)
+        if before is None:
+            raise StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)", fix="check the URL")
+        if before > SCHEMA_VERSION:
+            check_version(before, su)
+    v = before
+    while v < SCHEMA_VERSION:
+        with connect(su, write=True, action=f"migrate the store from schema {v} to {v + 1}") as conn:
+            if su.backend == "postgresql":
+                conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+            now = stored_version(conn)
+            if now != v:  # another process migrated meanwhile
+                v = now
+                continue
+            MIGRATIONS[v](conn)
+            _stamp(conn, v + 1)
+        v += 1
+    return before, v

@@ -1,0 +1,291 @@
+"""Recording a judged lot: what is kept, how it is identified, and the one transaction that writes it.
+
+A lot's identity in the store is its *content*: the SHA-256 of every input file (sorted) and of
+the criteria file (FIPS 180-4). Recording the same inputs with the same criteria again finds
+the earlier record ("already recorded as lot N") instead of adding a duplicate, whatever
+``--lot-id`` says. Everything of one lot (the lot row, its inputs, its per-figure summaries and
+every sample) is written in one transaction: after a crash or ``kill -9`` the store holds the
+whole lot or nothing of it.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .db import StoreError, StoreURL, connect, ensure_schema, parse_store_url
+
+#: Samples written per INSERT batch.
+INSERT_BATCH = 1000
+
+
+@dataclass(frozen=True)
+class Region:
+    """The chromaticity category a lot is judged against (an ANSI quadrangle, or a nominal centre)."""
+
+    name: str
+    centre_upvp: tuple[float, float]
+    corners_upvp: tuple[tuple[float, float], ...] | None
+
+
+@dataclass(frozen=True)
+class LotRecord:
+    """Everything the store keeps of one lot (see :func:`lot_record`)."""
+
+    label: str | None
+    product: str | None
+    criteria_file: str | None
+    criteria_sha256: str | None
+    identification: dict
+    inputs: tuple[tuple[str, str, int | None], ...]  # (path, sha256, bytes)
+    verdict: str  # "pass" | "fail" | "not judged"
+    exit_code: int
+    counts: dict
+    yield_percent: float | None
+    centroid_upvp: tuple[float | None, float | None]
+    statistics: dict
+    region: Region | None
+    figures: dict  # name -> ndarray (N,)
+    names: tuple[str, ...]
+    sources: tuple[str, ...]
+    sample_verdicts: tuple[str, ...] | None
+    outliers: tuple[bool, ...]
+    warnings: tuple[tuple[str, ...], ...]
+    lumeval_version: str = ""
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def lot_key(self) -> str:
+        """SHA-256 of the sorted input SHA-256s and the criteria SHA-256 (hex)."""
+        h = hashlib.sha256()
+        for sha in sorted(s for _p, s, _b in self.inputs):
+            h.update(sha.encode("ascii") + b"\n")
+        h.update(b"criteria:" + (self.criteria_sha256 or "none").encode("ascii"))
+        return h.hexdigest()
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+
+@dataclass(frozen=True)
+class RecordResult:
+    lot_id: int
+    created: bool
+    store: str
+    product: str | None
+    label: str | None
+
+    @property
+    def message(self) -> str:
+        what = f"lot {self.lot_id}" + (f" ({self.label})" if self.label else "")
+        if self.created:
+            return f"recorded as {what} in {self.store}"
+        return f"already recorded as {what} in {self.store} (same input files and criteria): not recorded again"
+
+
+def _num(v):
+    f = float(v)
+    return f if math.isfinite(f) else None
+
+
+def figure_summaries(figures: dict) -> list[dict]:
+    """Per figure: count of defined values, mean, standard deviation (ddof 1; None below 2
+    values), min and max, ignoring NaN. Vectorised over the (N, F) matrix."""
+    names = list(figures)
+    if not names:
+        return []
+    M = np.column_stack([np.asarray(figures[k], dtype=float) for k in names]) if len(next(iter(figures.values()))) else np.empty((0, len(names)))
+    fin = np.isfinite(M)
+    n = fin.sum(axis=0)
+    Z = np.where(fin, M, 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = Z.sum(axis=0) / n
+        dev = np.where(fin, M - mean, 0.0)
+        std = np.sqrt((dev * dev).sum(axis=0) / (n - 1))
+        mn = np.where(fin, M, np.inf).min(axis=0) if M.shape[0] else np.full(len(names), np.nan)
+        mx = np.where(fin, M, -np.inf).max(axis=0) if M.shape[0] else np.full(len(names), np.nan)
+    out = []
+    for j, k in enumerate(names):
+        c = int(n[j])
+        out.append({"figure": k, "n": c, "mean": _num(mean[j]) if c else None, "std": _num(std[j]) if c >= 2 else None,
+                    "min": _num(mn[j]) if c else None, "max": _num(mx[j]) if c else None})
+    return out
+
+
+def _region_of(criteria, stats) -> Region | None:
+    """The ANSI quadrangle of the criteria's ``ansi_quadrangle`` clause, else the lot's nominal
+    centre (from an ``sdcm`` clause), else None."""
+    if criteria is not None:
+        for c in getattr(criteria, "clauses", ()):
+            if getattr(c, "KIND", "") == "ansi_quadrangle":
+                q = getattr(c, "quadrangle", None)
+                q = q() if callable(q) else q
+                if q is not None and getattr(q, "corners_upvp", None) is not None:
+                    corners = tuple((float(a), float(b)) for a, b in np.asarray(q.corners_upvp))
+                    cu = np.asarray(q.centre_upvp, dtype=float)
+                    return Region(str(q.name), (float(cu[0]), float(cu[1])), corners)
+    nom = getattr(stats, "nominal_upvp", None)
+    if nom is not None and np.all(np.isfinite(nom)):
+        return Region(getattr(stats, "ellipse_name", "") or "nominal centre", (float(nom[0]), float(nom[1])), None)
+    return None
+
+
+def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | None = None,
+               input_files=None) -> LotRecord:
+    """Build the record of a judged lot (a :class:`lumeval.commands.lot.LotRun`).
+
+    Hashes the input files (``input_files``, default the files the samples came from) and the
+    criteria file. Lot label: ``lot_id``, else the criteria identification's ``lot``; product:
+    ``product``, else the identification's ``product``.
+    """
+    from .. import __version__
+    from ..render.lot_report import lot_document
+    from ..render.provenance import sha256_of
+
+    ident = dict(getattr(run, "identification", {}) or {})
+    ident_s = {str(k): (v if isinstance(v, (str, int, float, bool)) or v is None else str(v)) for k, v in ident.items()}
+    if input_files is None:
+        input_files = sorted({src.split("#", 1)[0] for src in run.sources})
+    import os
+
+    inputs = []
+    for p in input_files:
+        inputs.append((str(p), sha256_of(p), os.path.getsize(p)))
+    crit_file = getattr(run, "criteria_file", None)
+    crit_sha = sha256_of(crit_file) if crit_file else None
+    doc = lot_document(run)
+    doc.pop("samples", None)
+    doc.pop("cautions", None)
+    counts = doc["counts"]
+    y = doc["verdict"]["yield"]
+    judged = run.check is not None or bool(run.lot_results)
+    verdict = ("fail" if run.failed else "pass") if judged else "not judged"
+    cu = getattr(run.stats, "centroid_upvp", None)
+    centroid = (None, None) if cu is None else (_num(cu[0]), _num(cu[1]))
+    v = run.sample_verdicts
+    return LotRecord(
+        label=lot_id if lot_id else (str(ident["lot"]) if ident.get("lot") is not None else None),
+        product=product if product else (str(ident["product"]) if ident.get("product") is not None else None),
+        criteria_file=str(crit_file) if crit_file else None,
+        criteria_sha256=crit_sha,
+        identification=ident_s,
+        inputs=tuple(inputs),
+        verdict=verdict,
+        exit_code=int(run.exit_code),
+        counts=counts,
+        yield_percent=None if y is None else y.get("percent"),
+        centroid_upvp=centroid,
+        statistics=doc,
+        region=_region_of(criteria, run.stats),
+        figures={k: np.asarray(a, dtype=float) for k, a in run.figures.items()},
+        names=tuple(run.names),
+        sources=tuple(run.sources),
+        sample_verdicts=tuple(v) if v is not None else None,
+        outliers=tuple(bool(o) for o in np.asarray(run.stats.outlier, dtype=bool)),
+        warnings=tuple(tuple(w) for w in run.warnings),
+        lumeval_version=__version__,
+    )
+
+
+def _json(obj) -> str:
+    return json.dumps(obj, ensure_ascii=False, allow_nan=False, separators=(",", ":"), default=str)
+
+
+def _sample_rows(rec: LotRecord, lot_id: int):
+    names = list(rec.figures)
+    M = np.column_stack([rec.figures[k] for k in names]) if names and len(rec) else np.empty((len(rec), 0))
+    for i in range(len(rec)):
+        row = M[i]
+        figs = {k: (float(x) if math.isfinite(x) else None) for k, x in zip(names, row.tolist())}
+        yield {
+            "lot_id": lot_id,
+            "idx": i,
+            "name": rec.names[i],
+            "source": rec.sources[i],
+            "verdict": rec.sample_verdicts[i] if rec.sample_verdicts is not None else None,
+            "outlier": rec.outliers[i],
+            "figures": _json(figs),
+            "warnings": _json(list(rec.warnings[i])),
+        }
+
+
+def _now() -> str:
+    from .db import _now as now
+
+    return now()
+
+
+def record_lot(store: str | StoreURL, rec: LotRecord, *, _after_batch=None) -> RecordResult:
+    """Write ``rec`` into the store in one transaction (creating the store when empty).
+
+    Returns the new lot's id, or the id of the earlier record of the same lot (``created``
+    False). ``_after_batch(k)`` is called after each batch of samples (tests use it to
+    interrupt a recording half-way).
+    """
+    from sqlalchemy import insert, select
+    from sqlalchemy.exc import IntegrityError
+
+    from .db import _tables
+
+    su = store if isinstance(store, StoreURL) else parse_store_url(store)
+    t = _tables()[1]
+    key = rec.lot_key
+
+    def existing(conn):
+        return conn.execute(select(t["lots"].c.id, t["lots"].c.label).where(t["lots"].c.lot_key == key)).first()
+
+    try:
+        with connect(su, write=True, action="record the lot") as conn:
+            ensure_schema(conn, su, create=True)
+            row = existing(conn)
+            if row is not None:
+                return RecordResult(int(row[0]), False, su.shown, rec.product, row[1])
+            reg = rec.region
+            lot_id = conn.execute(insert(t["lots"]).values(
+                lot_key=key, label=rec.label, product=rec.product, recorded_at=_now(),
+                lumeval_version=rec.lumeval_version, criteria_file=rec.criteria_file,
+                criteria_sha256=rec.criteria_sha256, identification=_json(rec.identification),
+                n_samples=len(rec), n_passed=rec.counts.get("passed"), n_failed=rec.counts.get("failed"),
+                n_not_judged=rec.counts.get("not_judged"), yield_percent=rec.yield_percent,
+                verdict=rec.verdict, exit_code=rec.exit_code,
+                centroid_u=rec.centroid_upvp[0], centroid_v=rec.centroid_upvp[1],
+                statistics=_json(rec.statistics),
+                region_name=reg.name if reg else None,
+                region_centre_u=reg.centre_upvp[0] if reg else None,
+                region_centre_v=reg.centre_upvp[1] if reg else None,
+                region_corners=_json(reg.corners_upvp) if reg and reg.corners_upvp else None,
+            ).returning(t["lots"].c.id)).scalar_one()
+            if rec.inputs:
+                conn.execute(insert(t["inputs"]), [
+                    {"lot_id": lot_id, "position": k, "path": p, "sha256": s, "size_bytes": b}
+                    for k, (p, s, b) in enumerate(rec.inputs)])
+            figs = figure_summaries(rec.figures)
+            if figs:
+                conn.execute(insert(t["figures"]), [{"lot_id": lot_id, **f} for f in figs])
+            batch: list[dict] = []
+            k = 0
+            for row in _sample_rows(rec, lot_id):
+                batch.append(row)
+                if len(batch) >= INSERT_BATCH:
+                    conn.execute(insert(t["samples"]), batch)
+                    batch = []
+                    k += 1
+                    if _after_batch is not None:
+                        _after_batch(k)
+            if batch:
+                conn.execute(insert(t["samples"]), batch)
+                if _after_batch is not None:
+                    _after_batch(k + 1)
+            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label)
+    except IntegrityError:
+        pass  # the same lot, recorded by another process at the same moment: report that record
+    with connect(su, write=False, action="read the store") as conn:
+        row = existing(conn)
+    if row is None:  # pragma: no cover - the only unique key is lot_key
+        raise StoreError(f"{su.shown}: cannot record the lot (a constraint of the store refused it)",
+                         fix="report this with `lumeval --debug`")
+    return RecordResult(int(row[0]), False, su.shown, rec.product, row[1])

@@ -1,0 +1,202 @@
+"""Control-chart formulas (lumeval.store.charts) against published worked examples and tables.
+
+Sources named beside each check:
+
+* Montgomery, D. C., *Introduction to Statistical Quality Control*, 6th ed., Wiley 2009:
+  Table 6.3 (inside diameters of 25 samples of 5 forged piston rings) and Example 6.3 (X̄ and
+  s charts from them). The data table is transcribed from public copies of the table (several
+  agree digit for digit, including its x̄_i and s_i columns); the example's results
+  (x̿ = 74.001, s̄ = 0.0094, X̄ limits 73.988 / 74.014, s limits 0 / 0.0196, "the process is in
+  control") are quoted from memory and agree with the same book's X̄-R limits on this data
+  (Example 6.1: 74.001 ± 0.577 · 0.023), which the book's exercise 6.x says are identical.
+  Confidence: data high, limits high (4 significant digits, rounded as printed).
+* Montgomery, Appendix VI (factors for control charts; memory, 4 decimals): c4, A3, B3, B4, d2,
+  D4. The same values appear in ISO 7870-2:2013 Table 2 (memory).
+* Montgomery Example 9.2 (EWMA, λ = 0.1, L = 2.7, μ0 = 10, σ = 1) on the 30 observations of
+  Table 9.1; data as printed in a public software manual that reproduces the example (IMSL
+  "EWMA Example", citing Montgomery p. 428). Results quoted from memory: z1 = 9.945,
+  z2 = 9.7495, limits at sample 1 are 10 ± 0.27, steady-state limits 10 ± 0.6194; the chart
+  signals near the end of the series, as the tabular CUSUM of the same data does (Example 9.1,
+  sample 29). Our recursion first exceeds the UCL at sample 29 (z = 10.6468 > 10.6187).
+  Confidence: data high, limits high, the exact first-signal sample medium (memory).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from lumeval.store import charts
+
+# Montgomery 6th ed. Table 6.3: 25 samples x 5 observations (mm)
+PISTON = np.array([
+    [74.030, 74.002, 74.019, 73.992, 74.008],
+    [73.995, 73.992, 74.001, 74.011, 74.004],
+    [73.988, 74.024, 74.021, 74.005, 74.002],
+    [74.002, 73.996, 73.993, 74.015, 74.009],
+    [73.992, 74.007, 74.015, 73.989, 74.014],
+    [74.009, 73.994, 73.997, 73.985, 73.993],
+    [73.995, 74.006, 73.994, 74.000, 74.005],
+    [73.985, 74.003, 73.993, 74.015, 73.988],
+    [74.008, 73.995, 74.009, 74.005, 74.004],
+    [73.998, 74.000, 73.990, 74.007, 73.995],
+    [73.994, 73.998, 73.994, 73.995, 73.990],
+    [74.004, 74.000, 74.007, 74.000, 73.996],
+    [73.983, 74.002, 73.998, 73.997, 74.012],
+    [74.006, 73.967, 73.994, 74.000, 73.984],
+    [74.012, 74.014, 73.998, 73.999, 74.007],
+    [74.000, 73.984, 74.005, 73.998, 73.996],
+    [73.994, 74.012, 73.986, 74.005, 74.007],
+    [74.006, 74.010, 74.018, 74.003, 74.000],
+    [73.984, 74.002, 74.003, 74.005, 73.997],
+    [74.000, 74.010, 74.013, 74.020, 74.003],
+    [73.982, 74.001, 74.015, 74.005, 73.996],
+    [74.004, 73.999, 73.990, 74.006, 74.009],
+    [74.010, 73.989, 73.990, 74.009, 74.014],
+    [74.015, 74.008, 73.993, 74.000, 74.010],
+    [73.982, 73.984, 73.995, 74.017, 74.013],
+])
+# The table's own s_i column for samples 1-16 (as printed, 4 decimals)
+PISTON_S_PRINTED = [0.0148, 0.0075, 0.0147, 0.0091, 0.0122, 0.0087, 0.0055, 0.0123, 0.0055, 0.0063,
+                    0.0029, 0.0042, 0.0105, 0.0153, 0.0073, 0.0078]
+
+
+def piston_chart():
+    m = PISTON.shape[0]
+    return charts.xbar_s_chart(PISTON.mean(axis=1), PISTON.std(axis=1, ddof=1), np.full(m, 5), np.ones(m, bool))
+
+
+def test_piston_ring_subgroup_s_matches_the_printed_column():
+    s = PISTON.std(axis=1, ddof=1)[:16]
+    assert_allclose(s, PISTON_S_PRINTED, atol=0.00005 + 1e-12)  # printed to 4 decimals
+
+
+def test_piston_ring_xbar_s_limits_match_example_6_3():
+    ch = piston_chart()
+    assert ch.equal_n
+    # printed to 3 (x) and 4 (s) decimals: tolerance half a unit of the last printed digit
+    assert_allclose(ch.grand_mean, 74.001, atol=0.0005)
+    assert_allclose(ch.s_bar, 0.0094, atol=0.00005)
+    # the book computes the limits from x̿ and s̄ rounded as printed: from those, our factors
+    # give the printed limits to half a unit of their last digit ...
+    assert_allclose(74.001 + charts.a3(5) * 0.0094, 74.014, atol=0.0005)
+    assert_allclose(74.001 - charts.a3(5) * 0.0094, 73.988, atol=0.0005)
+    assert_allclose(charts.b4(5) * 0.0094, 0.0196, atol=0.00005)
+    # ... and from the unrounded x̿ and s̄, within that plus the rounding of x̿ (5e-4) and of
+    # s̄ (5e-5 · A3)
+    tol = 0.0005 + 0.0005 + 1.427 * 0.00005
+    assert_allclose(ch.xbar_ucl, 74.014, atol=tol)
+    assert_allclose(ch.xbar_lcl, 73.988, atol=tol)
+    assert_allclose(ch.s_ucl, 0.0196, atol=0.00005 + 2.089 * 0.00005)
+    assert_allclose(ch.s_lcl, 0.0, atol=1e-15)
+    # Montgomery's conclusion: no point outside the limits on either chart
+    assert charts.beyond_limits(ch.mean, ch.xbar_ucl, ch.xbar_lcl, chart="xbar") == []
+    assert charts.beyond_limits(ch.s, ch.s_ucl, ch.s_lcl, chart="s") == []
+
+
+def test_piston_ring_xbar_limits_agree_with_the_range_method():
+    """Example 6.1 (same data, X̄-R): x̿ ± A2 R̄ with A2(5) = 0.577 (Appendix VI, memory)."""
+    ch = piston_chart()
+    r_bar = float(np.mean(PISTON.max(axis=1) - PISTON.min(axis=1)))
+    assert_allclose(r_bar, 0.023, atol=0.0005)  # printed R̄ (memory)
+    assert_allclose(ch.xbar_ucl[0], ch.grand_mean + 0.577 * r_bar, atol=0.0005)
+
+
+@pytest.mark.parametrize("n, c4, a3, b3, b4", [
+    (2, 0.7979, 2.659, 0.0, 3.267),
+    (5, 0.9400, 1.427, 0.0, 2.089),
+    (6, 0.9515, 1.287, 0.030, 1.970),
+    (10, 0.9727, 0.975, 0.284, 1.716),
+    (25, 0.9896, 0.606, 0.565, 1.435),
+])
+def test_factors_match_the_published_table(n, c4, a3, b3, b4):
+    """Montgomery Appendix VI (memory; 4 and 3 decimals as printed)."""
+    assert_allclose(charts.c4(n), c4, atol=0.00005)
+    assert_allclose(charts.a3(n), a3, atol=0.0005)
+    assert_allclose(charts.b3(n), b3, atol=0.0005)
+    assert_allclose(charts.b4(n), b4, atol=0.0005)
+
+
+def test_c4_large_n_and_its_asymptote():
+    """c4 ≈ 4(n−1)/(4n−3) (Montgomery §6.3.1, the approximation for n > 25), whose error
+    falls as 1/n² (1.3e-5 at n = 50): the gamma form holds where a typed table ends."""
+    for n in (50, 200, 10_000):
+        assert_allclose(charts.c4(n), 4 * (n - 1) / (4 * n - 3), rtol=2e-5 * (50 / n) ** 2)
+    assert math.isnan(float(charts.c4(1)))
+
+
+@pytest.mark.parametrize("n, d2, d4", [(2, 1.128, 3.267), (3, 1.693, 2.574), (5, 2.326, 2.114), (10, 3.078, 1.777)])
+def test_range_factors_match_the_published_table(n, d2, d4):
+    """Montgomery Appendix VI (memory). The table's D4 = 1 + 3 d3/d2 was computed from d2 and d3
+    rounded to 3 decimals, hence 1e-3 for D4."""
+    assert_allclose(charts.d2(n), d2, atol=0.0005)
+    assert_allclose(charts.d4(n), d4, atol=0.001)
+
+
+def test_range_factors_n2_closed_form():
+    assert_allclose(charts.d2(2), 2 / math.sqrt(math.pi), rtol=1e-8)
+    assert_allclose(charts.d3(2), math.sqrt(2 - 4 / math.pi), rtol=1e-6)
+
+
+# Montgomery 6th ed. Table 9.1 (30 observations, the first 20 from N(10, 1), then mean 11)
+EWMA_DATA = [9.45, 7.99, 9.29, 11.66, 12.16, 10.18, 8.04, 11.46, 9.20, 10.34, 9.03, 11.47, 10.51, 9.40, 10.08,
+             9.37, 10.62, 10.31, 8.52, 10.84, 10.90, 9.33, 12.29, 11.50, 10.60, 11.08, 10.38, 11.62, 11.31, 10.52]
+
+
+def test_ewma_example_9_2():
+    ch = charts.ewma_chart(EWMA_DATA, centre=10.0, sigma_point=1.0, lam=0.1, L=2.7)
+    assert_allclose(ch.z[:2], [9.945, 9.7495], atol=5e-5)
+    assert_allclose([ch.ucl[0], ch.lcl[0]], [10.27, 9.73], atol=0.005)
+    # steady state (i → ∞): 10 ± 2.7 √(0.1/1.9) = 10 ± 0.6194
+    long = charts.ewma_chart(np.full(400, 10.0), centre=10.0, sigma_point=1.0, lam=0.1, L=2.7)
+    assert_allclose([long.ucl[-1], long.lcl[-1]], [10.6194, 9.3806], atol=0.00005)
+    assert ch.ucl[-1] < long.ucl[-1]  # the limits widen towards the steady state
+    sig = charts.beyond_limits(ch.z, ch.ucl, ch.lcl, chart="ewma", rule="EWMA")
+    assert sig and sig[0].index + 1 == 29  # first out-of-control sample
+    assert all(s.text.startswith("above") for s in sig)
+
+
+def test_individuals_chart_by_hand():
+    """σ̂ = MR̄/d2 and D4 MR̄ (Montgomery §6.4) on a small series checked by hand arithmetic."""
+    x = [10.0, 12.0, 11.0, 14.0, 13.0]
+    ch = charts.individuals_chart(x, np.ones(5, bool))
+    assert_allclose(ch.mr_bar, (2 + 1 + 3 + 1) / 4, rtol=1e-12)
+    assert_allclose(ch.centre, 12.0, rtol=1e-12)
+    assert_allclose(ch.ucl, 12.0 + 3 * 1.75 / 1.128, atol=0.005)
+    assert_allclose(ch.mr_ucl, 3.267 * 1.75, atol=0.001)
+    assert np.isnan(ch.moving_range[0])
+
+
+def test_variable_sizes_pool_s():
+    """Montgomery §6.3.2: s̄ pooled with weights n_i − 1, x̿ weighted by n_i, limits per lot."""
+    mean, s, n = [1.0, 2.0, 1.5], [0.1, 0.2, 0.3], [3, 5, 4]
+    ch = charts.xbar_s_chart(mean, s, n, [True, True, True])
+    assert not ch.equal_n
+    assert_allclose(ch.s_bar, math.sqrt((2 * 0.01 + 4 * 0.04 + 3 * 0.09) / 9), rtol=1e-12)
+    assert_allclose(ch.grand_mean, (3 + 10 + 6) / 12, rtol=1e-12)
+    assert ch.xbar_ucl[0] > ch.xbar_ucl[1]  # smaller lot, wider limits
+
+
+def _zone_series(z):
+    return np.asarray(z, float)  # centre 0, sigma 1
+
+
+@pytest.mark.parametrize("series, rule, where", [
+    ([0, 0.5, -0.5, 3.2, 0], "WE1", [3]),
+    ([0, 2.5, 0.3, 2.4, 0], "WE2", [3]),
+    ([0, -2.5, -2.1, 0, 0], "WE2", [2]),
+    ([1.5, 1.2, 0.2, 1.1, 1.3, 0], "WE3", [4]),
+    ([0.1, 0.2, 0.3, 0.1, 0.2, 0.4, 0.1, 0.3, -1], "WE4", [7]),
+])
+def test_western_electric_rules(series, rule, where):
+    """The four rules as Montgomery §5.3.6 states them (exact by construction: each series
+    breaks exactly the named rule at the named point and no other rule)."""
+    sig = charts.western_electric(_zone_series(series), 0.0, 1.0)
+    assert [(s.rule, s.index) for s in sig] == [(rule, i) for i in where]
+
+
+def test_western_electric_no_signal_in_control():
+    assert charts.western_electric([0.5, -0.5, 0.9, -0.9, 1.9, -1.9, 0.2, -0.2, 0.5], 0.0, 1.0) == []

@@ -32,3 +32,7 @@ def luxpy():
         import luxpy as lx
     np.seterr(**saved)
     return lx
+
+
+# The history store's tests run on SQLite and on a throwaway PostgreSQL server (tests/_postgres.py).
+from ._postgres import postgres_server, store_url  # noqa: E402,F401

@@ -89,6 +89,11 @@ def parse_store_url(text: str) -> StoreURL:
             raise StoreError(f"{shown}: a store needs a database file",
                              fix="give sqlite:///path/to/history.db (three slashes, then the path)")
         path = os.path.abspath(db)
+        mode = u.query.get("mode")
+        if mode == "ro":  # a read-only view of a store (viewers of a shared file)
+            return StoreURL(f"sqlite:///file:{path}?mode=ro&uri=true", "sqlite", shown, path)
+        if mode is not None or set(u.query) - {"mode"}:
+            raise StoreError(f"{shown}: unsupported SQLite URL options", fix="use sqlite:///path.db or sqlite:///path.db?mode=ro")
         return StoreURL("sqlite:///" + path, "sqlite", shown, path)
     if backend in ("postgresql", "postgres"):
         u = u.set(drivername="postgresql+psycopg")
@@ -114,8 +119,14 @@ def _redact(raw: str) -> str:
 def _tables():
     """(metadata, tables) of the current schema (built on first use: SQLAlchemy is imported lazily)."""
     global _SCHEMA
-    if _SCHEMA is not None:
-        return _SCHEMA
+    if _SCHEMA is None:
+        _SCHEMA = _build_schema(SCHEMA_VERSION)
+    return _SCHEMA
+
+
+def _build_schema(version: int):
+    """(metadata, tables) of schema ``version`` (1 or 2): one definition, the version's
+    additions marked where they are."""
     from sqlalchemy import (Boolean, Column, Double, ForeignKey, Index, Integer, MetaData, String, Table, Text,
                             UniqueConstraint)
 
@@ -147,14 +158,16 @@ def _tables():
         Column("centroid_u", Double),
         Column("centroid_v", Double),
         Column("statistics", Text, nullable=False),
-        # schema 2
-        Column("region_name", Text),
-        Column("region_centre_u", Double),
-        Column("region_centre_v", Double),
-        Column("region_corners", Text),
+        *([  # schema 2
+            Column("region_name", Text),
+            Column("region_centre_u", Double),
+            Column("region_centre_v", Double),
+            Column("region_corners", Text),
+        ] if version >= 2 else []),
         UniqueConstraint("lot_key", name="uq_lots_lot_key"),
     )
-    Index("ix_lots_product_id", lots.c.product, lots.c.id)  # schema 2
+    if version >= 2:
+        Index("ix_lots_product_id", lots.c.product, lots.c.id)
     inputs = Table(
         "lot_inputs", md,
         Column("lot_id", Integer, ForeignKey("lots.id", ondelete="CASCADE"), primary_key=True),
@@ -184,8 +197,7 @@ def _tables():
         Column("figures", Text, nullable=False),
         Column("warnings", Text, nullable=False),
     )
-    _SCHEMA = (md, {"schema": schema, "lots": lots, "inputs": inputs, "figures": figures, "samples": samples})
-    return _SCHEMA
+    return md, {"schema": schema, "lots": lots, "inputs": inputs, "figures": figures, "samples": samples}
 
 
 _SCHEMA = None
@@ -198,15 +210,7 @@ _V2_LOT_COLUMNS = (("region_name", "TEXT"), ("region_centre_u", "DOUBLE PRECISIO
 def create_schema_v1(conn) -> None:
     """Create the schema of version 1 (lumeval stores written before the category region was
     recorded). Kept to test migrations and to document what version 1 was."""
-    from sqlalchemy import MetaData, Table
-
-    md, t = _tables()
-    md1 = MetaData()
-    for name in ("schema", "lots", "inputs", "figures", "samples"):
-        tbl = t[name]
-        cols = [c.copy() for c in tbl.columns if not (name == "lots" and c.name in dict(_V2_LOT_COLUMNS))]
-        cons = [c.copy() for c in tbl.constraints if c.__class__.__name__ == "UniqueConstraint"]
-        Table(tbl.name, md1, *cols, *cons)
+    md1, _t = _build_schema(1)
     md1.create_all(conn)
     _stamp(conn, 1)
 
@@ -306,6 +310,8 @@ def connect(su: StoreURL, *, write: bool, action: str):
     For SQLite, reading a file that does not exist is refused (a read never creates a store);
     WAL mode is switched on by the first writer.
     """
+    import sqlite3
+
     from sqlalchemy.exc import DBAPIError, IntegrityError, SQLAlchemyError
 
     if su.backend == "sqlite":
@@ -345,7 +351,7 @@ def connect(su: StoreURL, *, write: bool, action: str):
     except DBAPIError as exc:
         text = _first_line(exc)
         raise StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text)) from None
-    except SQLAlchemyError as exc:
+    except (SQLAlchemyError, sqlite3.Error) as exc:
         text = _first_line(exc)
         raise StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text)) from None
     finally:

@@ -1,0 +1,278 @@
+"""The history store on both backends (SQLite file, throwaway PostgreSQL server): recording,
+idempotent re-recording, concurrent recording from two processes, kill -9 mid-recording,
+schema versions and migration, trends through the store against a published example.
+
+Every test here runs twice through the ``store_url`` fixture (tests/_postgres.py).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from lumeval.store import charts
+from lumeval.store.db import SCHEMA_VERSION, StoreError, connect, create_schema_v1, migrate, parse_store_url
+from lumeval.store.record import LotRecord, Region, record_lot
+from lumeval.store.trend import trend, trend_document
+
+from .test_store_charts import PISTON
+
+ROOT = Path(__file__).resolve().parent.parent
+ENV = {**os.environ, "PYTHONPATH": str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", "")}
+
+
+def make_record(values, *, key: str, label: str | None = None, product: str | None = "P-1",
+                figure: str = "R9", centroid=(0.25, 0.52), region: Region | None = None) -> LotRecord:
+    """A lot record built from numbers (no spectra): ``values`` are the samples' ``figure``."""
+    v = np.asarray(values, dtype=float)
+    n = v.size
+    sha = hashlib.sha256(key.encode()).hexdigest()
+    return LotRecord(
+        label=label or key, product=product, criteria_file=None, criteria_sha256=None, identification={"lot": key},
+        inputs=((f"{key}.csv", sha, 100),), verdict="not judged", exit_code=0,
+        counts={"samples": n, "passed": None, "failed": None, "not_judged": None}, yield_percent=None,
+        centroid_upvp=centroid, statistics={"note": "synthetic"}, region=region, figures={figure: v},
+        names=tuple(f"{key}-{i}" for i in range(n)), sources=tuple(f"{key}.csv#{i}" for i in range(n)),
+        sample_verdicts=None, outliers=(False,) * n, warnings=((),) * n, lumeval_version="test")
+
+
+def count_rows(url: str) -> dict:
+    su = parse_store_url(url)
+    with connect(su, write=False, action="read") as conn:
+        return {t: conn.exec_driver_sql(f"SELECT COUNT(*) FROM {t}").scalar() for t in
+                ("lots", "lot_inputs", "lot_figures", "samples")}
+
+
+def test_record_and_idempotent_rerecord(store_url):
+    rec = make_record([1.0, 2.0, 3.0], key="a")
+    r1 = record_lot(store_url, rec)
+    assert r1.created and r1.lot_id == 1
+    r2 = record_lot(store_url, rec)
+    assert not r2.created and r2.lot_id == 1
+    assert "already recorded as lot 1" in r2.message
+    # a different label for the same content is still the same lot
+    r3 = record_lot(store_url, make_record([1.0, 2.0, 3.0], key="a", label="other label"))
+    assert not r3.created and r3.lot_id == 1
+    assert count_rows(store_url) == {"lots": 1, "lot_inputs": 1, "lot_figures": 1, "samples": 3}
+    r4 = record_lot(store_url, make_record([4.0, 5.0], key="b"))
+    assert r4.created and r4.lot_id == 2
+
+
+def test_figure_summary_stored(store_url):
+    vals = [3.0, 4.0, np.nan, 8.0]
+    record_lot(store_url, make_record(vals, key="a"))
+    su = parse_store_url(store_url)
+    with connect(su, write=False, action="read") as conn:
+        n, mean, std, mn, mx = conn.exec_driver_sql("SELECT n, mean, std, min, max FROM lot_figures").one()
+        figs = json.loads(conn.exec_driver_sql("SELECT figures FROM samples WHERE idx = 2").scalar())
+    fin = np.array([3.0, 4.0, 8.0])
+    assert n == 3
+    assert_allclose([mean, std, mn, mx], [fin.mean(), fin.std(ddof=1), 3.0, 8.0], rtol=1e-12)
+    assert figs == {"R9": None}  # NaN is stored as null
+
+
+def _piston_store(url, extra=()):
+    for k, row in enumerate(list(PISTON) + list(extra)):
+        record_lot(url, make_record(row, key=f"piston-{k + 1:02d}", figure="R9"))
+
+
+def test_trend_through_the_store_reproduces_montgomery_example_6_3(store_url):
+    """Montgomery 6th ed. Table 6.3 recorded as 25 lots of 5 samples: the trend read back from
+    the store gives Example 6.3's limits (see tests/test_store_charts.py for the source)."""
+    _piston_store(store_url)
+    tr = trend(store_url, "R9", baseline_count=25)
+    doc = trend_document(tr)
+    assert doc["chart"] == "xbar-s" and doc["figure"] == "R9"
+    tol = 0.0005 + 0.0005 + 1.427 * 0.00005  # printed rounding, see test_store_charts
+    assert_allclose(doc["centre_line"], 74.001, atol=0.0005)
+    assert_allclose([doc["ucl"], doc["lcl"]], [74.014, 73.988], atol=tol)
+    assert_allclose(doc["s_chart"]["centre_line"], 0.0094, atol=0.00005)
+    assert_allclose(doc["s_chart"]["ucl"], 0.0196, atol=0.00005 + 2.089 * 0.00005)
+    assert [s for s in doc["signals"] if s["chart"] in ("xbar", "s")] == []  # "in control"
+
+
+def test_trend_json_recomputed_from_its_points(store_url):
+    """The JSON's limits follow from its own points with the published factors for n = 5
+    (Montgomery Appendix VI, memory: A3 = 1.427, B3 = 0, B4 = 2.089) and the EWMA recursion;
+    a planted shift of +0.02 mm after the baseline gives signals on the shifted lots only."""
+    shifted = PISTON[:5] + 0.02
+    _piston_store(store_url, extra=shifted)
+    doc = json.loads(subprocess.run(
+        [sys.executable, "-m", "lumeval", "history", "trend", "--store", store_url, "--figure", "R9",
+         "--baseline", "1..25", "--format", "json"], capture_output=True, text=True, env=ENV, check=True).stdout)
+    pts = doc["points"]
+    base = [p for p in pts if p["baseline"]]
+    assert len(pts) == 30 and len(base) == 25 and doc["baseline"]["lots"] == list(range(1, 26))
+    xbb = np.mean([p["mean"] for p in base])
+    sbar = np.mean([p["s"] for p in base])
+    assert_allclose(doc["centre_line"], xbb, rtol=1e-12)
+    assert_allclose(doc["ucl"], xbb + 1.427 * sbar, atol=0.0005 * sbar)
+    assert_allclose(doc["lcl"], xbb - 1.427 * sbar, atol=0.0005 * sbar)
+    assert_allclose(doc["s_chart"]["ucl"], 2.089 * sbar, atol=0.0005 * sbar)
+    z = doc["centre_line"]
+    for p in pts:  # EWMA by hand, λ from the document
+        z = doc["ewma"]["lambda"] * p["mean"] + (1 - doc["ewma"]["lambda"]) * z
+        assert_allclose(p["ewma"], z, rtol=1e-12)
+    flagged = {s["lot"] for s in doc["signals"] if s["chart"] == "xbar"}
+    assert flagged and flagged <= set(range(26, 31))
+    assert all(s["rule"] in ("WE1", "WE2", "WE3", "WE4", "EWMA") for s in doc["signals"])
+    assert {"lot", "rule", "chart", "text"} <= set(doc["signals"][0])
+    for p in pts:  # a point beyond its limits must be listed as WE1
+        if p["mean"] > p["ucl"] or p["mean"] < p["lcl"]:
+            assert {"lot": p["lot"], "rule": "WE1", "chart": "xbar"} in [
+                {k: s[k] for k in ("lot", "rule", "chart")} for s in doc["signals"]]
+
+
+def test_chromaticity_trends(store_url):
+    """Centroid Δu′v′ from the category centre and distance to the nearest quadrangle edge,
+    computed from the recorded centroid and region (individuals charts)."""
+    from lumeval.criteria.regions import ansi_quadrangle, polygon_signed_distance
+
+    q = ansi_quadrangle(3000)
+    reg = Region(q.name, tuple(q.centre_upvp), tuple(map(tuple, q.corners_upvp)))
+    rng = np.random.default_rng(1)
+    cents = q.centre_upvp + rng.normal(0, 0.0003, (10, 2))
+    cents[-1] += [0.004, 0.0]  # a lot drifting towards an edge
+    for k, c in enumerate(cents):
+        record_lot(store_url, make_record([90.0, 91.0], key=f"c{k}", centroid=tuple(c), region=reg))
+    d = trend_document(trend(store_url, "centroid_duv_centre", baseline_count=9))
+    e = trend_document(trend(store_url, "centroid_edge_margin", baseline_count=9))
+    assert d["chart"] == e["chart"] == "individuals"
+    assert_allclose([p["mean"] for p in d["points"]], np.hypot(*(cents - q.centre_upvp).T), rtol=1e-9)
+    assert_allclose([p["mean"] for p in e["points"]], polygon_signed_distance(q.corners_upvp, cents), rtol=1e-9)
+    assert any(s["lot"] == 10 and s["chart"] == "individuals" for s in d["signals"])
+
+
+def test_products_must_be_chosen(store_url):
+    record_lot(store_url, make_record([1, 2], key="a", product="A"))
+    record_lot(store_url, make_record([1, 2], key="b", product="B"))
+    with pytest.raises(StoreError, match="several|2 products"):
+        trend(store_url, "R9")
+
+
+# --------------------------------------------------------------------------- processes
+
+_WRITER = textwrap.dedent("""
+    import sys
+    sys.path.insert(0, {root!r})
+    from tests.test_store_record import make_record
+    from lumeval.store.record import record_lot
+    url, who, count = sys.argv[1], sys.argv[2], int(sys.argv[3])
+    for k in range(count):
+        r = record_lot(url, make_record([float(k)] * 400, key=f"{{who}}-{{k}}", product="P-1"))
+        assert r.created, r
+    print("done", who)
+""")
+
+
+def test_concurrent_recording_two_processes(store_url, tmp_path):
+    """Two processes record different lots into the same (new) store at the same time: every
+    lot arrives whole, with distinct numbers."""
+    script = tmp_path / "writer.py"
+    script.write_text(_WRITER.format(root=str(ROOT)))
+    procs = [subprocess.Popen([sys.executable, str(script), store_url, who, "6"], stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE, text=True, env=ENV) for who in ("A", "B")]
+    outs = [p.communicate(timeout=300) for p in procs]
+    for p, (out, err) in zip(procs, outs):
+        assert p.returncode == 0, err
+    assert count_rows(store_url) == {"lots": 12, "lot_inputs": 12, "lot_figures": 12, "samples": 12 * 400}
+    su = parse_store_url(store_url)
+    with connect(su, write=False, action="read") as conn:
+        per_lot = conn.exec_driver_sql("SELECT lot_id, COUNT(*) FROM samples GROUP BY lot_id").all()
+    assert sorted(c for _l, c in per_lot) == [400] * 12
+
+
+def test_concurrent_same_lot_is_recorded_once(store_url, tmp_path):
+    script = tmp_path / "writer.py"
+    script.write_text(_WRITER.replace("assert r.created, r", "print(r.lot_id, r.created)").format(root=str(ROOT)))
+    procs = [subprocess.Popen([sys.executable, str(script), store_url, "same", "3"], stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE, text=True, env=ENV) for _ in range(2)]
+    for p in procs:
+        out, err = p.communicate(timeout=300)
+        assert p.returncode == 0, err
+    assert count_rows(store_url)["lots"] == 3
+
+
+_KILLED = textwrap.dedent("""
+    import sys, time
+    sys.path.insert(0, {root!r})
+    from tests.test_store_record import make_record
+    from lumeval.store.record import record_lot
+    def pause(k):
+        if k == 2:
+            print("MID-RECORDING", flush=True)
+            time.sleep(600)
+    record_lot(sys.argv[1], make_record([1.0] * 5000, key="killed"), _after_batch=pause)
+""")
+
+
+def test_kill9_mid_recording_leaves_no_partial_lot(store_url, tmp_path):
+    record_lot(store_url, make_record([1.0, 2.0], key="before"))
+    script = tmp_path / "killed.py"
+    script.write_text(_KILLED.format(root=str(ROOT)))
+    p = subprocess.Popen([sys.executable, str(script), store_url], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                         text=True, env=ENV)
+    line = p.stdout.readline()
+    assert line.strip() == "MID-RECORDING", p.stderr.read() if p.poll() is not None else line
+    os.kill(p.pid, signal.SIGKILL)  # 2,000 of 5,000 samples written inside the open transaction
+    p.wait(timeout=30)
+    p.stdout.close()
+    p.stderr.close()
+    time.sleep(0.2)  # PostgreSQL notices the closed connection and rolls back
+    deadline = time.time() + 30
+    while True:
+        rows = count_rows(store_url)
+        if rows["lots"] == 1 or time.time() > deadline:
+            break
+        time.sleep(0.5)
+    assert rows == {"lots": 1, "lot_inputs": 1, "lot_figures": 1, "samples": 2}
+    # the store stays usable: the same lot can now be recorded whole
+    r = record_lot(store_url, make_record([1.0] * 5000, key="killed"))
+    assert r.created and count_rows(store_url)["samples"] == 5002
+
+
+# --------------------------------------------------------------------------- schema versions
+
+
+def test_older_store_is_refused_then_migrated(store_url):
+    su = parse_store_url(store_url)
+    with connect(su, write=True, action="create") as conn:
+        create_schema_v1(conn)
+        conn.exec_driver_sql(
+            "INSERT INTO lots (lot_key, label, product, recorded_at, lumeval_version, identification, n_samples, "
+            "verdict, exit_code, centroid_u, centroid_v, statistics) VALUES ('k1', 'old lot', 'P-1', "
+            "'2026-01-01T00:00:00Z', '0.0.9', '{}', 2, 'pass', 0, 0.25, 0.52, '{}')")
+        conn.exec_driver_sql("INSERT INTO lot_figures (lot_id, figure, n, mean, std, min, max) VALUES "
+                             "(1, 'R9', 2, 50.0, 1.0, 49.0, 51.0)")
+    for call in (lambda: record_lot(store_url, make_record([1.0], key="x")), lambda: trend(store_url, "R9")):
+        with pytest.raises(StoreError, match=r"schema version 1, written by an older lumeval.*history migrate"):
+            call()
+    assert migrate(su) == (1, SCHEMA_VERSION)
+    assert migrate(su) == (SCHEMA_VERSION, SCHEMA_VERSION)
+    r = record_lot(store_url, make_record([1.0], key="x"))
+    assert r.created and r.lot_id == 2
+    with connect(su, write=False, action="read") as conn:
+        assert conn.exec_driver_sql("SELECT label, region_name FROM lots WHERE id = 1").one() == ("old lot", None)
+
+
+def test_newer_store_is_refused(store_url):
+    record_lot(store_url, make_record([1.0], key="x"))
+    su = parse_store_url(store_url)
+    with connect(su, write=True, action="stamp") as conn:
+        conn.exec_driver_sql(f"INSERT INTO lumeval_schema (version, applied_at, lumeval_version) VALUES "
+                             f"({SCHEMA_VERSION + 1}, 'later', '9.9')")
+    for call in (lambda: record_lot(store_url, make_record([2.0], key="y")), lambda: trend(store_url, "R9"),
+                 lambda: migrate(su)):
+        with pytest.raises(StoreError, match="written by a newer lumeval.*upgrade lumeval"):
+            call()

@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test venv clean bench fuzz browser-deps
+.PHONY: demo test venv clean bench fuzz browser-deps postgres-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -54,6 +54,12 @@ fuzz: $(STAMP)
 # installs it itself when missing; this target lets CI do it up front.
 browser-deps:
 	command -v chromium >/dev/null 2>&1 || (apt-get update && DEBIAN_FRONTEND=noninteractive apt-get install -y chromium)
+
+# Debian's PostgreSQL server binaries for the history-store tests (they start a throwaway server
+# with initdb/pg_ctl in a temporary folder, unix socket only). Needs root, as on CI.
+postgres-deps:
+	ls /usr/lib/postgresql/*/bin/initdb >/dev/null 2>&1 || command -v initdb >/dev/null 2>&1 || \
+		(apt-get update && DEBIAN_FRONTEND=noninteractive apt-get install -y postgresql)
 
 clean:
 	rm -rf $(VENV) build *.egg-info

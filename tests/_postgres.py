@@ -80,7 +80,7 @@ class PostgresServer:
             raise PostgresUnavailable(f"{os.path.basename(args[0])} failed ({r.returncode}): "
                                       f"{(r.stderr or r.stdout).strip()[-600:]}")
 
-    def start(self) -> "PostgresServer":
+    def start(self) -> PostgresServer:
         b = self.bindir
         self._run(f"{b}/initdb", "-D", str(self.data), "-A", "trust", "-U", self.user, "-E", "UTF8", "--locale=C",
                   "--no-sync")

@@ -21,8 +21,14 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from lumeval.store import charts
-from lumeval.store.db import SCHEMA_VERSION, StoreError, connect, create_schema_v1, migrate, parse_store_url
+from lumeval.store.db import (
+    SCHEMA_VERSION,
+    StoreError,
+    connect,
+    create_schema_v1,
+    migrate,
+    parse_store_url,
+)
 from lumeval.store.record import LotRecord, Region, record_lot
 from lumeval.store.trend import trend, trend_document
 
@@ -199,7 +205,7 @@ def test_concurrent_same_lot_is_recorded_once(store_url, tmp_path):
     procs = [subprocess.Popen([sys.executable, str(script), store_url, "same", "3"], stdout=subprocess.PIPE,
                               stderr=subprocess.PIPE, text=True, env=ENV) for _ in range(2)]
     for p in procs:
-        out, err = p.communicate(timeout=300)
+        _out, err = p.communicate(timeout=300)
         assert p.returncode == 0, err
     assert count_rows(store_url)["lots"] == 3
 

@@ -215,7 +215,7 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
     from .provenance import package_versions
 
     trends = [tr] + list(chromaticity or [])
-    when = (generated_at or _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0)).isoformat()
+    when = (generated_at or _dt.datetime.now(_dt.UTC).replace(microsecond=0)).isoformat()
     doc = trend_document(tr)
     n_sig = len(tr.signals)
     title = f"Production trend: {tr.label}" + (f" — {tr.product}" if tr.product else "")

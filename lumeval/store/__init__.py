@@ -26,7 +26,8 @@ _API = {
     "trend_document": "lumeval.store.trend",
 }
 
-__all__ = sorted(_API)
+__all__ = ["SCHEMA_VERSION", "StoreError", "list_lots", "lot_record", "migrate", "parse_store_url",
+           "record_lot", "trend", "trend_document"]
 
 
 def __getattr__(name: str):

@@ -127,8 +127,19 @@ def _tables():
 def _build_schema(version: int):
     """(metadata, tables) of schema ``version`` (1 or 2): one definition, the version's
     additions marked where they are."""
-    from sqlalchemy import (Boolean, Column, Double, ForeignKey, Index, Integer, MetaData, String, Table, Text,
-                            UniqueConstraint)
+    from sqlalchemy import (
+        Boolean,
+        Column,
+        Double,
+        ForeignKey,
+        Index,
+        Integer,
+        MetaData,
+        String,
+        Table,
+        Text,
+        UniqueConstraint,
+    )
 
     md = MetaData()
     schema = Table(
@@ -228,7 +239,7 @@ MIGRATIONS = {1: _migrate_1_to_2}
 
 
 def _now() -> str:
-    return _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat().replace("+00:00", "Z")
+    return _dt.datetime.now(_dt.UTC).replace(microsecond=0).isoformat().replace("+00:00", "Z")
 
 
 def _lumeval_version() -> str:

@@ -36,7 +36,7 @@ def parse_since(text: str) -> str:
         raise StoreError(f"--since {t!r}: not a date", field="--since",
                          fix="give an ISO date such as 2026-11-30 or 2026-11-30T08:00") from None
     if d.tzinfo is not None:
-        d = d.astimezone(_dt.timezone.utc).replace(tzinfo=None)
+        d = d.astimezone(_dt.UTC).replace(tzinfo=None)
     return d.replace(microsecond=0).isoformat() + "Z" if "T" in t or " " in t else d.date().isoformat()
 
 

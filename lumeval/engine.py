@@ -175,6 +175,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
 
 def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str, ...], ...]:
     from .metrics.cri import DC_LIMIT
+    from .metrics.tm30 import hue_edge_warnings
 
     out = []
     dc = np.asarray(cri.dc, dtype=float)
@@ -190,6 +191,7 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str,
             )
         if not cct.reason[i] and fid_reason[i]:
             w.append(f"TM-30: {fid_reason[i]}.")
+        w.extend(hue_edge_warnings(getattr(fid, "hue_edge_pairs", ()), i))
         if phot.reason[i]:
             w.append(f"photometry: {phot.reason[i]}.")
         out.append(tuple(w))

@@ -112,6 +112,31 @@ def _cct_reasons(ev, n: int) -> tuple[str, ...] | None:
     return tuple(f"CCT undefined: {r}" if r else "" for r in reasons)
 
 
+def _with_hue_edge_warnings(ev, figure: str, reason: tuple[str, ...]) -> tuple[str, ...]:
+    """Add a knife-edge warning to the verdict of a hue-bin figure (Rf_hj, Rcs_hj, Rhs_hj) for
+    every spectrum where a CES lies within 0.01° of an edge of bin j (the pairs computed by
+    :func:`lumeval.metrics.tm30.hue_edge_pairs`); the outcome is unchanged, the warning names
+    the bin and the sample."""
+    for p in ("Rf_h", "Rcs_h", "Rhs_h"):
+        if figure.startswith(p) and figure[len(p):].isdigit():
+            j = int(figure[len(p):])
+            break
+    else:
+        return reason
+    pairs = getattr(getattr(ev, "tm30", None), "hue_edge_pairs", ()) or ()
+    if len(pairs) != len(reason):
+        return reason
+    out = list(reason)
+    for i, pp in enumerate(pairs):
+        ces = [c for b, c in pp if b == j]
+        if ces:
+            names = ", ".join(f"CES {c}" for c in ces)
+            w = (f"knife edge: {names} of hue bin {j} has a reference hue within 0.01° of a bin edge; "
+                 f"{display_name(figure)} can differ between equally valid implementations")
+            out[i] = f"{out[i]}; {w}" if out[i] else w
+    return tuple(out)
+
+
 def figure_result(
     ev, *, clause_id: str, label: str, kind: str, figure: str, lower, upper, source: str, group: str, line
 ) -> ClauseResult:
@@ -121,6 +146,7 @@ def figure_result(
     margin = margin_to_limits(m, lower, upper)
     margin = np.where(np.isfinite(m), margin, np.nan)
     outcome, reason = simple_outcomes(margin, _cct_reasons(ev, m.size))
+    reason = _with_hue_edge_warnings(ev, figure, reason)
     return ClauseResult(
         clause_id=clause_id,
         label=label,

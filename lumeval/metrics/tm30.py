@@ -88,6 +88,12 @@ Y_B = 20.0
 #: Number of hue bins (TM-30-18) and their width in degrees.
 N_BINS = 16
 BIN_WIDTH_DEG = 22.5
+#: A CES whose reference hue lies within this many degrees of a hue-bin edge sits on a knife
+#: edge: implementations that agree to 0.01° on the hue (different CAM02 rounding, CMF
+#: interpolation or summation order) may put it in either bin, and the bin values Rf,hj,
+#: Rcs,hj, Rhs,hj of both bins can then differ by several points (ANSI/IES TM-30-18 assigns a
+#: CES to bin j = floor(h / 22.5°) with no tolerance; the 0.01° band is lumeval's choice).
+HUE_EDGE_TOLERANCE_DEG = 0.01
 #: Below this CCT the reference is Planckian, above ``BLEND_HI_K`` CIE daylight, in between a
 #: blend (CIE 224:2017; TM-30-18).
 BLEND_LO_K = 4000.0
@@ -142,6 +148,10 @@ class TM30Result:
         Grid spacing the computation ran on (1 or 5 nm).
     blend_observer : str
         Observer whose ȳ normalised the blend components.
+    hue_edge_pairs : tuple (N,) of tuple of (int, int)
+        Per spectrum, the (hue bin, CES) pairs on a knife edge: CES whose reference hue lies
+        within :data:`HUE_EDGE_TOLERANCE_DEG` of a bin edge, listed with both bins the edge
+        separates (1-based: bins 1-16, CES 1-99); see :func:`hue_edge_pairs`.
     """
 
     Rf: np.ndarray
@@ -163,6 +173,7 @@ class TM30Result:
     reason: tuple[str, ...]
     spacing_nm: float
     blend_observer: str
+    hue_edge_pairs: tuple = ()
 
 
 # --------------------------------------------------------------------------- data
@@ -439,6 +450,56 @@ def _jab(wl, S, R, cmf10, kernel=None):
     return cam02ucs_cie224(XYZ, XYZ_w, L_A, Y_B)
 
 
+def hue_edge_pairs(hue_ref_deg, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:
+    """The (hue bin, CES) pairs on a knife edge, per spectrum.
+
+    A CES is on a knife edge when its reference hue h lies within ``tolerance_deg`` of a
+    hue-bin edge k·22.5° (bins j = floor(h / 22.5°), ANSI/IES TM-30-18; the edge at 0°/360°
+    separates bins 16 and 1). Such a CES is listed with **both** bins the edge separates, since
+    either assignment is within the numerical agreement of equally valid implementations.
+
+    Parameters
+    ----------
+    hue_ref_deg : array_like, shape (N, 99) (or (99,))
+        Reference hue angles of the CES in degrees (any real value; taken modulo 360°);
+        NaN rows (spectra without TM-30 figures) give no pairs.
+    tolerance_deg : float
+
+    Returns
+    -------
+    tuple (N,) of tuple of (int, int)
+        1-based (bin, CES) pairs, ordered by CES then bin.
+    """
+    h = np.atleast_2d(np.asarray(hue_ref_deg, dtype=float))
+    finite = np.isfinite(h)
+    h = np.mod(np.where(finite, h, 0.0), 360.0)
+    r = np.mod(h, BIN_WIDTH_DEG)
+    near_low = r <= tolerance_deg  # just above an edge: the neighbour is the bin below
+    near_high = (BIN_WIDTH_DEG - r) <= tolerance_deg  # just below an edge: the bin above
+    edge = (near_low | near_high) & finite
+    own = np.clip(np.floor(h / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
+    other = np.where(near_low, (own - 1) % N_BINS, (own + 1) % N_BINS)
+    out: list[list[tuple[int, int]]] = [[] for _ in range(h.shape[0])]
+    for i, k in zip(*np.nonzero(edge)):
+        a, b = sorted((int(own[i, k]) + 1, int(other[i, k]) + 1))
+        out[i] += [(a, int(k) + 1), (b, int(k) + 1)]
+    return tuple(tuple(sorted(p, key=lambda t: (t[1], t[0]))) for p in out)
+
+
+def hue_edge_warnings(pairs_per_spectrum, i: int) -> list[str]:
+    """Warnings for spectrum ``i`` from :attr:`TM30Result.hue_edge_pairs`, one per CES."""
+    pairs = pairs_per_spectrum[i] if i < len(pairs_per_spectrum) else ()
+    by_ces: dict[int, list[int]] = {}
+    for b, c in pairs:
+        by_ces.setdefault(c, []).append(b)
+    return [
+        f"TM-30 hue-bin knife edge: CES {c}'s reference hue lies within {HUE_EDGE_TOLERANCE_DEG:g}° of the edge "
+        f"between hue bins {bins[0]} and {bins[-1]}; the bin values (Rf,h, Rcs,h, Rhs,h) of these two bins can "
+        "differ between equally valid implementations."
+        for c, bins in by_ces.items()
+    ]
+
+
 def _polygon_area(ab):
     """Signed area of the polygon through the points ``ab`` (N, K, 2), shoelace formula."""
     a, b = ab[..., 0], ab[..., 1]
@@ -492,6 +553,7 @@ def tm30_from_reference(
     counts = np.zeros((n, N_BINS), dtype=int)
     hue_bin = np.full((n, 99), -1, dtype=int)
     Jab_t, Jab_r = nan(99, 3), nan(99, 3)
+    hue_ref = nan(99)
 
     idx = np.flatnonzero(ok)
     if idx.size:
@@ -528,6 +590,7 @@ def tm30_from_reference(
         avg_t[idx], avg_r[idx] = at, ar
         counts[idx] = cnt.astype(int)
         hue_bin[idx] = bins
+        hue_ref[idx] = hr
         Jab_t[idx], Jab_r[idx] = jt, jr
         for i in idx[np.any(cnt == 0, axis=1)]:
             reasons[i] = "a hue bin holds no sample: Rg and bin values are undefined"
@@ -537,6 +600,7 @@ def tm30_from_reference(
         avg_ab_test=avg_t, avg_ab_ref=avg_r, bin_count=counts, hue_bin=hue_bin,
         Jab_test=Jab_t, Jab_ref=Jab_r, cct_K=cct, daylight_fraction=frac,
         reference=kinds, reason=tuple(reasons), spacing_nm=step, blend_observer=blend_observer,
+        hue_edge_pairs=hue_edge_pairs(hue_ref),
     )
 
 

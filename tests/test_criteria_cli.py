@@ -231,7 +231,7 @@ def test_criteria_new_writes_a_file_that_loads(tmp_path, capsys):
         c = load_criteria(p)
         kinds = [k.KIND for k in c.clauses]
         assert "ansi_quadrangle" in kinds and c.clauses[0].nominal == nominal
-        assert ("sdcm" in kinds) == (nominal in (2700, 3000, 3500, 4000, 5000, 6500))
+        assert "sdcm" not in kinds  # offered commented out, centred on the category (test_criteria_new_defaults.py)
     code, _, err = run(["criteria", "new", p], capsys)  # exists
     assert code == 2 and "file exists" in err
     code, out, _ = run(["criteria", "new", "--nominal-cct", 3000], capsys)

@@ -73,3 +73,73 @@ def effective_conditions(level: str) -> tuple[Condition, ...]:
 def level_title(level: str) -> str:
     """E.g. ``"Preference priority level 1 (P1)"``."""
     return f"{DESIGN_INTENTS[level[0]]} priority level {level[1]} ({level})"
+
+
+# --------------------------------------------------------------------------- `criteria new` defaults
+
+
+@dataclass(frozen=True)
+class SdcmSuggestion:
+    """An SDCM clause centred on an ANSI C78.377 category's centre (for ``criteria new``).
+
+    Attributes
+    ----------
+    centre_xy : tuple of float
+        The category centre (CIE 1931 x, y): target CCT and target Duv (ANSI C78.377-2017).
+    g11, g12, g22 : float
+        1-step ellipse coefficients, those of ``shape_from``.
+    shape_from : str
+        The IEC 60081 colour whose ellipse shape is used (nearest centre in u'v').
+    planckian_steps : float
+        Steps from the centre to the Planckian point at the target CCT (Duv 0).
+    """
+
+    centre_xy: tuple[float, float]
+    g11: float
+    g12: float
+    g22: float
+    shape_from: str
+    planckian_steps: float
+
+
+def ansi_duv_band(nominal_cct: int) -> tuple[float, float]:
+    """The Duv range an ANSI C78.377-2017 category's quadrangle spans: the flexible-CCT target
+    Duv at both CCT edges ± 0.006, rounded outward to 1e-4 (so that the band contains the
+    quadrangle's corners). A Duv clause with this band agrees with the quadrangle clause."""
+    import math
+
+    from . import regions
+
+    cat = regions.ANSI_C78377_2017[int(nominal_cct)]
+    d = regions.ansi_flexible_duv([cat.target_cct_K - cat.tolerance_K, cat.target_cct_K + cat.tolerance_K])
+    tol = regions.ANSI_DUV_TOLERANCE
+    lo = math.floor(round((float(min(d)) - tol) * 1e4, 6)) / 1e4
+    hi = math.ceil(round((float(max(d)) + tol) * 1e4, 6)) / 1e4
+    return lo, hi
+
+
+def sdcm_suggestion(nominal_cct: int) -> SdcmSuggestion:
+    """An SDCM clause for ``criteria new`` centred on the ANSI C78.377-2017 category centre.
+
+    The centre is the category's (target CCT, flexible-formula target Duv), which reproduces the
+    published centres within their rounding (tests/test_criteria_regions.py). No standard gives
+    an ellipse for every ANSI centre; the shape is that of the IEC 60081 ellipse whose centre is
+    nearest in (u', v') (common practice, no source), moved to the ANSI centre.
+    """
+    import numpy as np
+
+    from ..metrics.colorimetry import planckian_uv, upvp_from_xy, xy_from_uv
+    from . import regions
+
+    cat = regions.ANSI_C78377_2017[int(nominal_cct)]
+    q = regions.ansi_quadrangle(int(nominal_cct))
+    c = q.centre_upvp
+    centre = xy_from_uv(np.array([[c[0], c[1] / 1.5]]))[0]
+    centre = (round(float(centre[0]), 4), round(float(centre[1]), 4))
+    dist = {n: float(np.hypot(*(upvp_from_xy(regions.iec60081_ellipse(n).centre_xy[None, :])[0] - c)))
+            for n in regions.IEC60081_CENTRES}
+    near = min(dist, key=dist.get)
+    e = regions.iec60081_ellipse(near)
+    ell = regions.SdcmEllipse("suggestion", np.array(centre), e.g11, e.g12, e.g22, "")
+    pl = xy_from_uv(planckian_uv(np.array([cat.target_cct_K])))
+    return SdcmSuggestion(centre, e.g11, e.g12, e.g22, near, float(ell.steps(pl)[0]))

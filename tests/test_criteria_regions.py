@@ -6,7 +6,7 @@ Outside sources used (named beside each check):
   a second public copy), see lumeval/criteria/regions.py.
 - ANSI C78.377-2008 published corner coordinates and centres — secondary: two public code
   transcriptions that agree exactly (Harold2017/myfirstflasky web/app/cri/views.py, plot titled
-  "C78.377-2008, Tolerance Quadrangle"; FireView Binning.cpp, Binning::defineBins_ANSI_C78_377).
+  "C78.377-2008, Tolerance Quadrangle"; a second LGPL C++ LED-binning source with the same table).
 - ANSI C78.377-2015/2017 published corner coordinates — secondary: one public code transcription
   (s006112/PER cie1931.py, CIE_BINS, labelled "ANSI C78.377-2015"), copied below.
 - colour-science's ``CCT_to_uv_Ohno2013`` (independent implementation of Ohno 2014).
@@ -104,7 +104,7 @@ def test_flexible_tolerance_formula_reproduces_table_ends():
 
 # Transcribed corner tables, each row in the transcriptions' order: (low CCT, high Duv),
 # (high CCT, high Duv), (high CCT, low Duv), (low CCT, low Duv); CIE 1931 (x, y).
-# ANSI C78.377-2008: Harold2017/myfirstflasky web/app/cri/views.py = FireView Binning.cpp.
+# ANSI C78.377-2008: Harold2017/myfirstflasky web/app/cri/views.py = the second LGPL C++ copy.
 PUBLISHED_2008 = {
     2700: [(0.4813, 0.4319), (0.4562, 0.4260), (0.4373, 0.3893), (0.4593, 0.3944)],
     3000: [(0.4562, 0.4260), (0.4299, 0.4165), (0.4147, 0.3814), (0.4373, 0.3893)],

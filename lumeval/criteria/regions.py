@@ -46,9 +46,8 @@ Edition 2008
     category): the widely transcribed corner table, found in two independent public code
     copies that agree to every digit: repository Harold2017/myfirstflasky, file
     ``web/app/cri/views.py`` (plot titled "C78.377-2008, Tolerance Quadrangle", with the
-    category centres), and the LGPL "FireView" source file ``Binning.cpp``
-    (``Binning::defineBins_ANSI_C78_377``; MultiTouch Oy; the index did not name its
-    repository). Confidence: secondary, two agreeing copies.
+    category centres), and a second, independent LGPL C++ LED-binning source file whose
+    ANSI C78.377 bin table has the same digits. Confidence: secondary, two agreeing copies.
 
     Table 1 of 2008 (target CCT ± tolerance, target Duv ± 0.006): 2725 ± 145 K, 3045 ± 175,
     3465 ± 245, 3985 ± 275, 4503 ± 243, 5028 ± 283, 5665 ± 355, 6530 ± 510; target Duv 0.000,
@@ -180,7 +179,7 @@ ANSI_TABLES: dict[str, dict[int, AnsiCategory]] = {"2008": ANSI_C78377_2008, "20
 #: transcriptions' own order: (low CCT, high Duv), (high CCT, high Duv), (high CCT, low Duv),
 #: (low CCT, low Duv). Sources and confidence: module docstring.
 _PUBLISHED_CORNERS_XY: dict[str, dict[int, tuple[tuple[float, float], ...]]] = {
-    # Harold2017/myfirstflasky web/app/cri/views.py and FireView Binning.cpp (agree exactly)
+    # Harold2017/myfirstflasky web/app/cri/views.py and a second LGPL C++ copy (agree exactly)
     "2008": {
         2700: ((0.4813, 0.4319), (0.4562, 0.4260), (0.4373, 0.3893), (0.4593, 0.3944)),
         3000: ((0.4562, 0.4260), (0.4299, 0.4165), (0.4147, 0.3814), (0.4373, 0.3893)),
@@ -208,7 +207,7 @@ _PUBLISHED_CORNERS_XY: dict[str, dict[int, tuple[tuple[float, float], ...]]] = {
 ANSI_CORNER_SOURCES: dict[str, str] = {
     "2008": (
         "ANSI C78.377-2008 Table 1 published corner coordinates (secondary: two agreeing public code transcriptions, "
-        "Harold2017/myfirstflasky web/app/cri/views.py and FireView Binning.cpp)"
+        "Harold2017/myfirstflasky web/app/cri/views.py, and a second public copy)"
     ),
     "2017": (
         "ANSI C78.377-2017 Table 1 published corner coordinates (secondary: transcription in s006112/PER cie1931.py, "

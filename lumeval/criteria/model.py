@@ -403,7 +403,7 @@ class AnsiQuadrangleClause(ClauseKind):
             KeySpec("edition", f"{' or '.join(regions.ANSI_EDITIONS)} (default {regions.ANSI_DEFAULT_EDITION})",
                     "the edition of ANSI C78.377 whose quadrangles are used"),
             KeySpec("target_cct_K", "number, 2200 … 7000 (2008: 2700 … 6500; only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
-            KeySpec("tolerance_K", "positive number (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
+            KeySpec("tolerance_K", "number of kelvin ≥ 1, target ± tolerance within 1000 … 20000 K (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
         )
     }
 
@@ -441,6 +441,16 @@ class AnsiQuadrangleClause(ClauseKind):
             lo, hi = regions.ANSI_FLEXIBLE_RANGES_K[ed]
             if not lo <= tgt <= hi:
                 raise ParseError("target_cct_K", f"{tgt:g} K is outside the flexible range {lo:.0f}-{hi:.0f} K of {name}", f"write a value between {lo:.0f} and {hi:.0f}")
+            if tol is not None:
+                from ..metrics.colorimetry import CCT_MAX_K, CCT_MIN_K
+
+                # the quadrangle's isotemperature edges must be CCTs lumeval computes, and the
+                # band must be wider than the 1 K resolution of a CCT
+                if tol < 1.0 or not CCT_MIN_K <= tgt - tol < tgt + tol <= CCT_MAX_K:
+                    top = min(tgt - CCT_MIN_K, CCT_MAX_K - tgt)
+                    raise ParseError("tolerance_K", f"{tol:g} K leaves a CCT band of {tgt - tol:g} to {tgt + tol:g} K; "
+                                     f"the band must lie within {CCT_MIN_K:.0f}-{CCT_MAX_K:.0f} K",
+                                     f"write a tolerance from 1 to {top:.0f} K (or leave it out for the flexible-CCT formula)")
             label = common["label"] or f"inside {name} flexible {tgt:.0f} K quadrangle"
             return cls(common["id"], label, common["note"], common["line"], None, tgt, tol, ed)
         if not (is_number(nom) and float(nom) in table_1):

@@ -267,7 +267,83 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(cls.parse(table, common))
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
+    _refuse_contradictions(clauses, file)
     return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file))
+
+
+def _refuse_contradictions(clauses, file: str) -> None:
+    """Clauses that no spectrum could meet together are an error (docs/criteria.md: "contradictory
+    limits are errors"): limits on one figure whose ranges do not overlap (Ra ≥ 95 in one clause,
+    Ra ≤ 90 in another), and chromaticity quadrangles with no common interior (two different
+    nominal CCT categories). Overlapping clauses (a range inside another, two quadrangles that
+    share an area) are legitimate and kept."""
+    by_figure: dict[str, list] = {}
+    for c in clauses:
+        if getattr(c, "KIND", "") == "figure":
+            by_figure.setdefault(c.figure, []).append(c)
+    for fig, cs in by_figure.items():
+        lo_c = max((c for c in cs if c.lower is not None), key=lambda c: c.lower, default=None)
+        hi_c = min((c for c in cs if c.upper is not None), key=lambda c: c.upper, default=None)
+        if lo_c is not None and hi_c is not None and lo_c.lower > hi_c.upper:
+            first, second = sorted((lo_c, hi_c), key=lambda c: c.line or 0)
+            raise CriteriaError(
+                f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}) and {hi_c.clause_id!r} ({fig} ≤ {hi_c.upper:g}) "
+                f"contradict each other: no value meets both" + (f" (lines {first.line} and {second.line})" if first.line and second.line else ""),
+                file=file, line=second.line, fix="correct or remove one of them")
+    quads = [c for c in clauses if getattr(c, "KIND", "") == "ansi_quadrangle"]
+    for i, a in enumerate(quads):
+        for b in quads[i + 1:]:
+            qa, qb = a.quadrangle, b.quadrangle
+            if _common_area(qa.corners_upvp, qb.corners_upvp) <= 0.0:
+                raise CriteriaError(
+                    f"clauses {a.clause_id!r} ({qa.name}) and {b.clause_id!r} ({qb.name}) contradict each other: the two "
+                    f"quadrangles have no chromaticity in common" + (f" (lines {a.line} and {b.line})" if a.line and b.line else ""),
+                    file=file, line=b.line, fix="keep the quadrangle of the product's nominal CCT and remove the other")
+
+
+def _common_area(p, q) -> float:
+    """Area of the intersection of two convex polygons (vertices in order, either orientation),
+    by Sutherland-Hodgman clipping (Sutherland & Hodgman 1974) and the shoelace formula. A shared
+    edge or corner has zero area. Tolerant of tiny float overlaps: areas below 1e-12 (u'v')² are
+    zero (an ANSI quadrangle has about 1e-4)."""
+    import numpy as np
+
+    def area(poly):
+        if len(poly) < 3:
+            return 0.0
+        a = np.asarray(poly, dtype=float)
+        x, y = a[:, 0], a[:, 1]
+        return 0.5 * float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
+
+    p = [tuple(map(float, v)) for v in p]
+    q = [tuple(map(float, v)) for v in q]
+    if area(p) < 0:
+        p = p[::-1]
+    if area(q) < 0:
+        q = q[::-1]
+    out = p
+    for k in range(len(q)):
+        a, b = q[k], q[(k + 1) % len(q)]
+
+        def side(v, a=a, b=b):
+            return (b[0] - a[0]) * (v[1] - a[1]) - (b[1] - a[1]) * (v[0] - a[0])
+
+        inp, out = out, []
+        if not inp:
+            break
+        for j in range(len(inp)):
+            cur, prev = inp[j], inp[j - 1]
+            sc, sp = side(cur), side(prev)
+            if sc >= 0:
+                if sp < 0:
+                    t = sp / (sp - sc)
+                    out.append((prev[0] + t * (cur[0] - prev[0]), prev[1] + t * (cur[1] - prev[1])))
+                out.append(cur)
+            elif sp >= 0:
+                t = sp / (sp - sc)
+                out.append((prev[0] + t * (cur[0] - prev[0]), prev[1] + t * (cur[1] - prev[1])))
+    a_int = abs(area(out))
+    return a_int if a_int > 1e-12 else 0.0
 
 
 def _uncertainty_tables(data: dict, text: str, file: str) -> dict:

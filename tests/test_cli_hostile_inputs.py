@@ -384,3 +384,79 @@ def test_draws_block_bad_use_is_one_line(tmp_path, capsys, table, needle):
     crit.write_text(CRITERIA, encoding="utf-8")
     code, _out, err = run(["check", spd, "--criteria", crit, "--instrument", inst], capsys)
     one_error_line(code, err, "inst.toml", "draws_block", needle)
+
+
+# --------------------------------------------------------------------------- absurd or contradictory criteria
+
+
+@pytest.mark.parametrize("tol", ["1e9", "1e300", "3000", "0.001", "1e-300"])
+@pytest.mark.parametrize("command", ["check", "lot"])
+def test_flexible_quadrangle_absurd_tolerance_is_refused(tmp_path, capsys, tol, command):
+    spd = write_spd(tmp_path / "a.csv")
+    crit = tmp_path / "c.toml"
+    crit.write_text(f'[[clause]]\nkind = "ansi_quadrangle"\nnominal_cct = "flexible"\ntarget_cct_K = 3000\ntolerance_K = {tol}\n',
+                    encoding="utf-8")
+    code, _out, err = run([command, spd, "--criteria", crit, *(["--quiet"] if command == "lot" else [])], capsys)
+    one_error_line(code, err, "c.toml:5", "tolerance_K", "1000-20000 K")
+    assert "Warning" not in err
+
+
+@pytest.mark.parametrize("tol", ["1", "1999"])
+def test_flexible_quadrangle_wide_but_valid_tolerance_judges_without_numpy_warnings(tmp_path, tol):
+    write_spd(tmp_path / "a.csv")
+    (tmp_path / "c.toml").write_text(
+        f'[[clause]]\nkind = "ansi_quadrangle"\nnominal_cct = "flexible"\ntarget_cct_K = 3000\ntolerance_K = {tol}\n', encoding="utf-8")
+    code, out, err = run_sub(["check", "a.csv", "--criteria", "c.toml"], tmp_path, timeout=120)
+    assert code in (0, 1), err
+    assert err.strip() == "", err  # no RuntimeWarning or anything else on stderr
+
+
+@pytest.mark.parametrize(
+    "clauses, needles",
+    [
+        ('[[clause]]\nid = "a"\nfigure = "Ra"\nmin = 95\n\n[[clause]]\nid = "b"\nfigure = "Ra"\nmax = 90\n', ["'a'", "'b'", "Ra"]),
+        ('[[clause]]\nid = "a"\nfigure = "R9"\nrange = [0, 10]\n\n[[clause]]\nid = "b"\nfigure = "R9"\nmin = 50\n', ["'a'", "'b'"]),
+        ('[[clause]]\nid = "q1"\nkind = "ansi_quadrangle"\nnominal_cct = 3000\n\n'
+         '[[clause]]\nid = "q2"\nkind = "ansi_quadrangle"\nnominal_cct = 4000\n', ["'q1'", "'q2'", "no chromaticity in common"]),
+    ],
+    ids=["Ra-min-max", "R9-range-min", "two-quadrangles"],
+)
+def test_contradictory_clauses_are_an_error(tmp_path, capsys, clauses, needles):
+    spd = write_spd(tmp_path / "a.csv")
+    crit = tmp_path / "c.toml"
+    crit.write_text(clauses, encoding="utf-8")
+    code, _out, err = run(["check", spd, "--criteria", crit], capsys)
+    one_error_line(code, err, "c.toml:", "contradict", *needles)
+
+
+@pytest.mark.parametrize(
+    "clauses",
+    [
+        '[[clause]]\nid = "a"\nfigure = "Ra"\nrange = [80, 90]\n\n[[clause]]\nid = "b"\nfigure = "Ra"\nmin = 90\n',
+        '[[clause]]\nid = "q1"\nkind = "ansi_quadrangle"\nnominal_cct = 3000\n\n'
+        '[[clause]]\nid = "q2"\nkind = "ansi_quadrangle"\nnominal_cct = "flexible"\ntarget_cct_K = 3100\n',
+    ],
+    ids=["meeting-at-one-value", "overlapping-quadrangles"],
+)
+def test_overlapping_clauses_are_kept(tmp_path, capsys, clauses):
+    spd = write_spd(tmp_path / "a.csv")
+    crit = tmp_path / "c.toml"
+    crit.write_text(clauses, encoding="utf-8")
+    code, out, err = run(["check", spd, "--criteria", crit], capsys)
+    assert code in (0, 1), err
+    assert "contradict" not in err
+
+
+def test_lot_yield_without_per_sample_clause_says_why(tmp_path, capsys):
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    write_spd(lot / "s1.csv")
+    write_spd(lot / "s2.csv", 8)
+    crit = tmp_path / "c.toml"
+    crit.write_text('[[clause]]\nid = "Y"\nkind = "lot_yield"\nmin_percent = 90\n', encoding="utf-8")
+    code, doc, out, err = _lot_json(tmp_path, capsys, lot, "--criteria", crit)
+    assert code == 1, err  # not judged is not a pass
+    (y,) = [c for c in doc["verdict"]["lot_clauses"] if c["id"] == "Y"]
+    assert y["outcome"] == "not judged"
+    assert "no per-sample clause" in y["reason"]
+    assert "no per-sample clause" in " ".join(out.split())

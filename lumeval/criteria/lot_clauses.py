@@ -282,7 +282,9 @@ class LotYieldClause(LotClause):
             limit_text=f"≥ {self.min_percent:g} %",
             margin=margin,
             outcome=_outcome(margin),
-            reason="" if np.isfinite(pct) else "no samples",
+            reason="" if np.isfinite(pct) else (
+                "no per-sample clause in the criteria, so no sample can pass or fail: a yield needs per-sample "
+                "requirements (figure, ansi_quadrangle, sdcm...)" if sample_verdicts is None else "no samples were judged"),
             source="share of samples passing every per-sample clause (not judged counts as not passing)",
             line=self.line,
         )

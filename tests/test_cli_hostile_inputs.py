@@ -416,10 +416,8 @@ def test_flexible_quadrangle_wide_but_valid_tolerance_judges_without_numpy_warni
     [
         ('[[clause]]\nid = "a"\nfigure = "Ra"\nmin = 95\n\n[[clause]]\nid = "b"\nfigure = "Ra"\nmax = 90\n', ["'a'", "'b'", "Ra"]),
         ('[[clause]]\nid = "a"\nfigure = "R9"\nrange = [0, 10]\n\n[[clause]]\nid = "b"\nfigure = "R9"\nmin = 50\n', ["'a'", "'b'"]),
-        ('[[clause]]\nid = "q1"\nkind = "ansi_quadrangle"\nnominal_cct = 3000\n\n'
-         '[[clause]]\nid = "q2"\nkind = "ansi_quadrangle"\nnominal_cct = 4000\n', ["'q1'", "'q2'", "no chromaticity in common"]),
     ],
-    ids=["Ra-min-max", "R9-range-min", "two-quadrangles"],
+    ids=["Ra-min-max", "R9-range-min"],
 )
 def test_contradictory_clauses_are_an_error(tmp_path, capsys, clauses, needles):
     spd = write_spd(tmp_path / "a.csv")
@@ -427,6 +425,21 @@ def test_contradictory_clauses_are_an_error(tmp_path, capsys, clauses, needles):
     crit.write_text(clauses, encoding="utf-8")
     code, _out, err = run(["check", spd, "--criteria", crit], capsys)
     one_error_line(code, err, "c.toml:", "contradict", *needles)
+
+
+def test_disjoint_quadrangles_give_a_loud_warning(tmp_path, capsys):
+    spd = write_spd(tmp_path / "a.csv")
+    crit = tmp_path / "c.toml"
+    crit.write_text('[[clause]]\nid = "q1"\nkind = "ansi_quadrangle"\nnominal_cct = 3000\n\n'
+                    '[[clause]]\nid = "q2"\nkind = "ansi_quadrangle"\nnominal_cct = 4000\n', encoding="utf-8")
+    code, out, err = run(["check", spd, "--criteria", crit, "--format", "json"], capsys)
+    assert code == 1, err  # every spectrum fails one of the two
+    warn = [ln for ln in err.splitlines() if ln.startswith("lumeval: warning: ")]
+    assert len(warn) == 1 and "'q1'" in warn[0] and "'q2'" in warn[0] and "no chromaticity in common" in warn[0]
+    assert "c.toml:6" in warn[0]
+    assert any("WARNING" in n and "no chromaticity in common" in n for n in json.loads(out)["notes"])
+    code, out, err = run(["check", spd, "--criteria", crit], capsys)
+    assert "WARNING" in out and "contradict" in " ".join(out.split())
 
 
 @pytest.mark.parametrize(

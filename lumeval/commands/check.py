@@ -37,6 +37,8 @@ def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
     from .inspect import inspect_files
 
     criteria = load_criteria(criteria_path)
+    for w in criteria.warnings:
+        print(f"lumeval: warning: {w}", file=sys.stderr)
     setup = resolve_setup(criteria, instrument, seed=seed, draws=draws)
     ev = inspect_files(paths)
     if setup.active:

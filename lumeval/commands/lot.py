@@ -458,6 +458,8 @@ def register(app: typer.Typer) -> None:
             from ..criteria.loader import load_criteria
 
             criteria = load_criteria(criteria_file)
+            for w in criteria.warnings:
+                print(f"lumeval: warning: {w}", file=sys.stderr)
         setup = None
         if criteria is not None or instrument is not None or seed is not None or draws is not None:
             from ..uncertainty.judge import resolve_setup

@@ -267,16 +267,20 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(cls.parse(table, common))
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
-    _refuse_contradictions(clauses, file)
-    return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file))
+    warnings = _contradictions(clauses, file)
+    return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings)
 
 
-def _refuse_contradictions(clauses, file: str) -> None:
-    """Clauses that no spectrum could meet together are an error (docs/criteria.md: "contradictory
-    limits are errors"): limits on one figure whose ranges do not overlap (Ra ≥ 95 in one clause,
-    Ra ≤ 90 in another), and chromaticity quadrangles with no common interior (two different
-    nominal CCT categories). Overlapping clauses (a range inside another, two quadrangles that
-    share an area) are legitimate and kept."""
+def _contradictions(clauses, file: str) -> tuple[str, ...]:
+    """Clauses that no spectrum could meet together.
+
+    Limits on one figure whose ranges do not overlap (Ra ≥ 95 in one clause, Ra ≤ 90 in
+    another) are an error (docs/criteria.md: "contradictory limits are errors"). Chromaticity
+    quadrangles with no common interior (two different nominal CCT categories) are returned as
+    warnings, which every report and a ``lumeval: warning:`` line carry: each spectrum then fails
+    one of them, which a comparison of categories in one file may intend. Overlapping clauses (a
+    range inside another, two quadrangles that share an area) are legitimate and kept."""
+    out: list[str] = []
     by_figure: dict[str, list] = {}
     for c in clauses:
         if getattr(c, "KIND", "") == "figure":
@@ -295,10 +299,12 @@ def _refuse_contradictions(clauses, file: str) -> None:
         for b in quads[i + 1:]:
             qa, qb = a.quadrangle, b.quadrangle
             if _common_area(qa.corners_upvp, qb.corners_upvp) <= 0.0:
-                raise CriteriaError(
-                    f"clauses {a.clause_id!r} ({qa.name}) and {b.clause_id!r} ({qb.name}) contradict each other: the two "
-                    f"quadrangles have no chromaticity in common" + (f" (lines {a.line} and {b.line})" if a.line and b.line else ""),
-                    file=file, line=b.line, fix="keep the quadrangle of the product's nominal CCT and remove the other")
+                where = f"{file}:{b.line}: " if b.line else f"{file}: "
+                out.append(
+                    f"{where}clauses {a.clause_id!r} ({qa.name}) and {b.clause_id!r} ({qb.name}) contradict each other: "
+                    "the two quadrangles have no chromaticity in common, so every spectrum fails one of them — keep the "
+                    "quadrangle of the product's nominal CCT and remove the other")
+    return tuple(out)
 
 
 def _common_area(p, q) -> float:

@@ -725,13 +725,16 @@ class Criteria:
     #: Optional ``[instrument]``, ``[monte_carlo]`` and ``[decision]`` tables, parsed by
     #: lumeval.uncertainty (keys "instrument", "monte_carlo", "decision"); see docs/uncertainty.md.
     uncertainty: dict = field(default_factory=dict)
+    #: Problems of the file as a whole that do not stop it being used (clauses that contradict
+    #: each other where a comparison may intend it); every report carries them.
+    warnings: tuple = ()
 
     def evaluate(self, ev) -> "CheckResult":
         """Judge every clause for every spectrum of ``ev`` (an Evaluation)."""
         from .verdicts import CheckResult
 
         results: list[ClauseResult] = []
-        notes: list[str] = []
+        notes: list[str] = [f"WARNING: {w}" for w in self.warnings]
         for c in self.clauses:
             if c.SCOPE != "sample":
                 notes.append(f"clause {c.clause_id!r} (kind {c.KIND!r}) applies to a whole {c.SCOPE}: it is judged by "

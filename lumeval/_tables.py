@@ -139,7 +139,7 @@ def table(name: str) -> tuple[np.ndarray, np.ndarray]:
 
 def build_snapshot(path: Path = SNAPSHOT) -> Path:
     """Write the snapshot from the live colour-science tables (atomically); returns the path."""
-    import os
+    from ._io import atomic_output
 
     arrays = {"colour_science_version": np.array(colour_science_version())}
     for name, (build, _desc) in TABLES.items():
@@ -147,7 +147,6 @@ def build_snapshot(path: Path = SNAPSHOT) -> Path:
         arrays[f"{name}__wl"] = np.asarray(wl, dtype=float)
         arrays[f"{name}__values"] = np.asarray(vals, dtype=float)
     path = Path(path)
-    tmp = path.with_name(path.name + ".tmp.npz")
-    np.savez_compressed(tmp, **arrays)
-    os.replace(tmp, path)
+    with atomic_output(path) as fh:
+        np.savez_compressed(fh, **arrays)
     return path

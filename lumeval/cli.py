@@ -7,7 +7,9 @@ with one clean line, and keeps start-up light (no colour-science import before a
 
 from __future__ import annotations
 
+import errno
 import importlib
+import os
 import signal
 import sys
 
@@ -52,53 +54,171 @@ for _name in _COMMAND_MODULES:
     importlib.import_module(_name).register(app)
 
 
+class _Stopped(BaseException):
+    """SIGTERM or SIGHUP, raised where the program is, so that every ``finally`` runs (the atomic
+    writer removes its temporary file) exactly as for Ctrl-C. Not a KeyboardInterrupt, which the
+    argument parser would turn into a silent exit 130."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _on_stop_signal(signum, _frame) -> None:
+    signal.signal(signum, signal.SIG_IGN)  # a second signal must not interrupt the clean-up
+    raise _Stopped(signum)
+
+
+def _say(line: str) -> None:
+    """One line on stderr; a closed or full stderr is not worth a second error."""
+    try:
+        print(line, file=sys.stderr, flush=True)
+    except (OSError, ValueError):
+        pass
+
+
+def _stdout_failed() -> OSError | None:
+    """The error standard output gives when its buffer is flushed (None when it is fine)."""
+    try:
+        sys.stdout.flush()
+    except OSError as exc:
+        return exc
+    except ValueError:  # closed
+        return None
+    return None
+
+
+def _drop_stdout() -> None:
+    """Point standard output at /dev/null, so that the interpreter's last flush of a closed pipe
+    or a full device does not print a second error (Python docs, "Note on SIGPIPE")."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
+#: Errors of a write to a stream: closed pipe, full disk, quota, file too large, I/O error.
+_STREAM_ERRNOS = frozenset({errno.EPIPE, errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EIO})
+
+
+def _stdout_error(exc: OSError) -> int:
+    why = "the reading end of the pipe was closed" if isinstance(exc, BrokenPipeError) else (exc.strerror or str(exc))
+    _drop_stdout()
+    _say(f"lumeval: error: standard output: cannot write ({why}) — the printed output is incomplete; "
+         "files written before this point are complete")
+    return 2
+
+
 def main(argv: list[str] | None = None) -> None:
     """Console entry point.
 
     Exit codes: 0 everything passed (or nothing was judged), 1 a criterion failed or is
-    indeterminate, 2 bad input or usage (one clean line on stderr, never a traceback), 3 an
-    internal error (a bug: one line asking for a report; ``--debug`` shows the traceback).
+    indeterminate, 2 bad input or usage, or an output that could not be written (standard
+    output included: a full disk, a closed pipe); one clean line on stderr, never a traceback;
+    3 an internal error (a bug: one line asking for a report; ``--debug`` shows the traceback);
+    130 / 143 / 129 stopped by SIGINT / SIGTERM / SIGHUP (temporary files removed, every output
+    either complete or unchanged).
+    """
+    args = list(argv if argv is not None else sys.argv[1:])
+    if argv is None:
+        for name in ("SIGTERM", "SIGHUP"):
+            if hasattr(signal, name):
+                signal.signal(getattr(signal, name), _on_stop_signal)
+    code = _run(args)
+    failed = _stdout_failed()
+    if failed is not None:
+        if code in (0, 1, None):
+            code = _stdout_error(failed)
+        else:  # the run already failed and said why: one line is enough
+            _drop_stdout()
+    sys.exit(code)
+
+
+def _click_class(name: str) -> type:
+    """The argument parser's exception class ``name`` (typer ships click, or its own copy)."""
+    return next(k for k in typer.BadParameter.__mro__ if k.__name__ == name)
+
+
+def _usage_line(exc) -> str:
+    """A usage error of the argument parser as one line with the fix (not a boxed paragraph)."""
+    import re
+
+    from .errors import QUOTE_MAX
+
+    ctx = getattr(exc, "ctx", None)
+    path = ctx.command_path if ctx is not None else "lumeval"
+    where = path.partition(" ")[2]
+    text = " ".join(str(exc.format_message()).split())
+    text = text.replace("Value error, ", "")
+    # quote at most QUOTE_MAX characters of a value the user typed
+    text = re.sub(r"'([^']{%d,})'" % (QUOTE_MAX + 1), lambda m: f"'{m.group(1)[:QUOTE_MAX]}…'", text)
+    text = text.rstrip(".")
+    return f"lumeval: error: {where + ': ' if where else ''}{text} — see '{path} --help'"
+
+
+def _run(args: list[str]):
+    """Run the app; the exit code (or SystemExit's argument).
+
+    The command is dispatched here rather than by the parser's own main loop, which would end a
+    closed pipe with exit 1 ("a criterion failed"), swallow SIGTERM as an interrupt and print
+    usage errors as a paragraph.
     """
     from .errors import LumevalError
 
-    args = list(argv if argv is not None else sys.argv[1:])
     debug = "--debug" in args
-    if argv is None and hasattr(signal, "SIGPIPE"):
-        # `lumeval lot ... | head`: end quietly on a closed pipe, as Unix tools do (shell status
-        # 141), rather than through the parser's handler, whose exit 1 would read "a criterion failed"
-        signal.signal(signal.SIGPIPE, signal.SIG_DFL)
+    click_exception = _click_class("ClickException")
     try:
-        # standalone mode: the argument parser reports usage errors itself (exit 2) and
-        # typer.Exit(code) ends with that code
-        app(args=args, prog_name="lumeval", standalone_mode=True)
+        command = typer.main.get_command(app)
+        with command.make_context("lumeval", list(args)) as ctx:
+            command.invoke(ctx)
+    except SystemExit as exc:
+        return exc.code if exc.code is not None else 0
+    except typer.Exit as exc:
+        return exc.exit_code
+    except typer.Abort:
+        _say("lumeval: aborted")
+        return 1
+    except click_exception as exc:
+        if type(exc).__name__ == "NoArgsIsHelpError":  # `lumeval`, `lumeval criteria`: the help
+            _say(exc.format_message())
+        elif isinstance(exc, _click_class("UsageError")):
+            _say(_usage_line(exc))
+        else:
+            _say(f"lumeval: error: {' '.join(str(exc.format_message()).split())}")
+        return exc.exit_code if exc.exit_code else 2
     except LumevalError as exc:
         if debug:
             raise
-        print(f"lumeval: error: {exc.message}", file=sys.stderr)
-        sys.exit(2)
+        _say(f"lumeval: error: {exc.message}")
+        return 2
+    except _Stopped as exc:
+        _say(f"lumeval: stopped by {signal.Signals(exc.signum).name}; unfinished outputs were not written")
+        return 128 + exc.signum
     except KeyboardInterrupt:
-        print("lumeval: interrupted", file=sys.stderr)
-        sys.exit(130)
-    except SystemExit:
-        raise
+        _say("lumeval: interrupted; unfinished outputs were not written")
+        return 130
     except OSError as exc:
+        if exc.filename is None and exc.errno in _STREAM_ERRNOS and not debug:
+            # every named file goes through lumeval._io (OutputError naming it): an unnamed write
+            # failure is the stream the results are printed to
+            return _stdout_error(exc)
+        if debug:
+            raise
+        if exc.filename is None:
+            _say(f"lumeval: internal error: {type(exc).__name__}: {exc} "
+                 "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)")
+            return 3
         # the file system refused a named path (name too long, no space, read-only, ...): the
         # user's environment, not a bug; commands check their targets first, this is the net
-        if debug or exc.filename is None:
-            if debug:
-                raise
-            print(f"lumeval: internal error: {type(exc).__name__}: {exc} "
-                  "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)", file=sys.stderr)
-            sys.exit(3)
-        print(f"lumeval: error: {exc.filename}: {exc.strerror or exc} — check the path, the free space and the "
-              "permissions", file=sys.stderr)
-        sys.exit(2)
+        _say(f"lumeval: error: {exc.filename}: {exc.strerror or exc} — check the path, the free space and the "
+             "permissions")
+        return 2
     except Exception as exc:  # a bug, not bad input: still no traceback unless asked for
         if debug:
             raise
-        print(
-            f"lumeval: internal error: {type(exc).__name__}: {exc} "
-            "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)",
-            file=sys.stderr,
-        )
-        sys.exit(3)
+        _say(f"lumeval: internal error: {type(exc).__name__}: {exc} "
+             "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)")
+        return 3
+    return 0

@@ -61,3 +61,23 @@ class ComputationError(LumevalError):
 
 class UsageError(LumevalError):
     """Bad command-line usage that the argument parser itself does not catch."""
+
+
+class OutputError(LumevalError):
+    """An output that cannot be written (disk full, permissions, a closed pipe...)."""
+
+
+#: Longest piece of a user's data quoted in a message (an offending cell, name or value).
+QUOTE_MAX = 80
+
+
+def quote(value, limit: int = QUOTE_MAX) -> str:
+    """``value`` quoted for a one-line message: control characters escaped (as Python's repr
+    does), at most about ``limit`` characters, an ellipsis when cut. Messages quote data through
+    this so that a 10 MB cell or an escape sequence never reaches the user's terminal whole."""
+    text = str(value)
+    cut = len(text) > limit
+    if cut:
+        text = text[:limit]
+    r = repr(text)
+    return r[:-1] + "…" + r[-1] if cut else r

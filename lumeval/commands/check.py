@@ -46,14 +46,14 @@ def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
     return criteria, ev, criteria.evaluate(ev)
 
 
-def emit(text: str, output: Path | None) -> None:
-    """Print ``text`` or write it atomically to ``output``."""
-    if output is None:
+def emit(text: str, output: Path | None, option: str = "--output") -> None:
+    """Print ``text`` (``output`` None or ``-``) or write it atomically to ``output``."""
+    from .._io import is_stdout, write_text
+
+    if output is None or is_stdout(output):
         typer.echo(text, nl=False)
     else:
-        from ..spectra.write import write_atomic
-
-        write_atomic(output, text.encode("utf-8"))
+        write_text(output, text, option=option)
 
 
 def note_csv_cautions() -> None:
@@ -104,12 +104,13 @@ def register(app: typer.Typer) -> None:
         (never a pass); 2: bad input."""
         from ._targets import check_targets
 
-        check_targets(files={"--output": output, "--html": html}, dirs={"--plots": plots},
-                      inputs=[*files, criteria, *([instrument] if instrument is not None else [])])
-        if html is not None or plots is not None:
-            from ..render.html import validate_targets
+        dir_files = None
+        if plots is not None:
+            from ..render.html import PLOT_FILE_PATTERNS
 
-            validate_targets(html=html, plots=plots)  # before any work: a bad target writes nothing
+            dir_files = {"--plots": PLOT_FILE_PATTERNS}
+        check_targets(files={"--output": output, "--html": html}, dirs={"--plots": plots}, dir_files=dir_files,
+                      inputs=[*files, criteria, *([instrument] if instrument is not None else [])])
         crit, ev, result = run_check(files, criteria, instrument, seed=seed, draws=draws)
         if html is not None or plots is not None:
             from ..render.html import regions_from_criteria, write_outputs
@@ -128,10 +129,12 @@ def register(app: typer.Typer) -> None:
         else:
             from ..render.verdicts import check_renderables
 
-            if output is None:
-                from rich.console import Console
+            from .._io import is_stdout
 
-                console = Console()
+            if output is None or is_stdout(output):
+                from ..render.safe import console as safe_console
+
+                console = safe_console()
                 for r in check_renderables(result):
                     console.print(r)
             else:

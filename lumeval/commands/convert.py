@@ -21,7 +21,8 @@ def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None,
     """
     from ..errors import UsageError
     from ..spectra.read import read_spectra
-    from ..spectra.write import kind_for, serialise, write_atomic
+    from .._io import write_bytes
+    from ..spectra.write import kind_for, serialise
 
     src_p, dst_p = Path(src), Path(dst)
     kind = kind_for(dst_p)
@@ -37,11 +38,10 @@ def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None,
         raise UsageError(
             "the output would overwrite the input", file=str(dst), fix="give a different output file name"
         )
-    from ._targets import check_targets
+    from .._io import check_targets, refuse_existing
 
-    check_targets(files={"OUT": dst_p})  # a folder, a missing folder, an unusable name: before reading
-    if dst_p.exists() and not force:
-        raise UsageError("the output file exists already", file=str(dst), fix="choose a new name or add --force")
+    check_targets(files={"OUT": dst_p})  # a folder, a device, a missing folder: before reading
+    refuse_existing(dst_p, "OUT", force=force)
     spectra = read_spectra(src_p)
     if column is not None:
         matches = [i for i, n in enumerate(spectra.names) if n == column]
@@ -53,7 +53,7 @@ def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None,
             )
         spectra = spectra.subset(matches[:1])
     data = serialise(spectra, kind)
-    write_atomic(dst_p, data)
+    write_bytes(dst_p, data, option="OUT")
     return len(spectra)
 
 

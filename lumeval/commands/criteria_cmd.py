@@ -222,7 +222,7 @@ def register(app: typer.Typer) -> None:
 
     @crit.command("new")
     def new_cmd(
-        output: Path = typer.Argument(None, help="File to write (default: print to the screen).", show_default=False),
+        output: Path = typer.Argument(None, help="File to write (default or -: print to the screen).", show_default=False),
         nominal_cct: int = typer.Option(3000, "--nominal-cct", help="Nominal CCT category of ANSI C78.377-2017 (2200 ... 6500)."),
         level: Level = typer.Option(Level.good, "--level", help="Starting quality level: basic, good or high."),
         project: str = typer.Option("", "--project", help="Project name for the identification block."),
@@ -232,12 +232,11 @@ def register(app: typer.Typer) -> None:
         text = new_criteria_text(nominal_cct, level.value, project)
         from ._targets import check_targets
 
-        check_targets(files={"OUTPUT": output})
-        if output is not None and output.exists() and not force:
-            from ..errors import UsageError
+        from .._io import refuse_existing
 
-            raise UsageError("file exists", file=str(output), fix="choose another name or add --force")
-        emit(text, output)
+        check_targets(files={"OUTPUT": output})
+        refuse_existing(output, "OUTPUT", force=force)
+        emit(text, output, "OUTPUT")
 
     @crit.command("explain")
     def explain_cmd(
@@ -262,7 +261,7 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Check a supplier's datasheet claims against the supplier's own spectrum. Exit code 0:
         no claim contradicted; 1: a claim is contradicted; 2: bad input."""
-        from ._targets import check_targets
+        from ._targets import check_targets, is_stdout
 
         check_targets(files={"--output": output}, inputs=[*files, claims])
         result = claims_files(files, claims)
@@ -275,7 +274,7 @@ def register(app: typer.Typer) -> None:
             from .check import note_csv_cautions
 
             note_csv_cautions()
-        elif output is None:
+        elif output is None or is_stdout(output):
             rv.print_claims(result)
         else:
             emit(plain_text(rv.claims_renderables(result)), output)

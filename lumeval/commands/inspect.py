@@ -50,7 +50,12 @@ def register(app: typer.Typer) -> None:
                              fix="drop --validate-only to write the report, or drop --html/--plots")
         from ._targets import check_targets
 
-        check_targets(files={"--html": html}, dirs={"--plots": plots}, inputs=files)
+        dir_files = None
+        if plots is not None:
+            from ..render.html import PLOT_FILE_PATTERNS
+
+            dir_files = {"--plots": PLOT_FILE_PATTERNS}
+        check_targets(files={"--html": html}, dirs={"--plots": plots}, dir_files=dir_files, inputs=files)
         if validate_only:
             from ..spectra.validate import render_validation, validate_files
 
@@ -63,10 +68,6 @@ def register(app: typer.Typer) -> None:
 
                 raise InputError(f"{failed} of {len(checks)} entries refused by the readers", fix="see the report above")
             return
-        if html is not None or plots is not None:
-            from ..render.html import validate_targets
-
-            validate_targets(html=html, plots=plots)  # before any work: a bad target writes nothing
         ev = inspect_files(files)
         if html is not None or plots is not None:
             import sys

@@ -355,22 +355,13 @@ def _nominal_from_criteria(criteria):
 # --------------------------------------------------------------------------- CLI
 
 
-def _write_atomic(path: Path, write: Callable) -> None:
-    """Call ``write(stream)`` on a temporary file in the same folder, then rename it to ``path``."""
-    path = Path(path)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        with open(tmp, "w", encoding="utf-8", newline="") as f:
-            write(f)
-        os.replace(tmp, path)
-    except OSError as exc:
-        from ..errors import InputError
+def _write_atomic(path: Path, write: Callable, option: str | None = None) -> None:
+    """Call ``write(stream)`` on a text stream whose data replace ``path`` atomically when
+    complete (:func:`lumeval._io.atomic_output`)."""
+    from .._io import atomic_output
 
-        raise InputError(f"cannot write the file ({exc.strerror or exc})", file=str(path),
-                         fix="check the folder exists, is writable and has free space") from None
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    with atomic_output(path, text=True, newline="", option=option) as f:
+        write(f)
 
 
 def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
@@ -445,13 +436,14 @@ def register(app: typer.Typer) -> None:
         check_store_options(store, lot_id, product, trend_figures, fail_on_signal or None)
 
         outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html}
-        check_targets(files=outputs, dirs={"--plots": plots},
+        dir_files = None
+        if plots is not None:
+            from ..render.html import PLOT_FILE_PATTERNS
+
+            dir_files = {"--plots": PLOT_FILE_PATTERNS}
+        check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
                       inputs=[*(expand_inputs(paths).files if any(v is not None for v in outputs.values()) else ()),
                               *[p for p in (criteria_file, instrument) if p is not None]])
-        if html is not None or plots is not None:
-            from ..render.html import validate_targets
-
-            validate_targets(html=html, plots=plots)
         criteria = None
         if criteria_file is not None:
             from ..criteria import lot_clauses  # noqa: F401  (registers the lot clause kinds)
@@ -492,9 +484,9 @@ def register(app: typer.Typer) -> None:
         from ..render import lot_report
 
         if samples_csv is not None:
-            _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f))
+            _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
         if json_file is not None:
-            _write_atomic(json_file, lambda f: lot_report.lot_json(run, f))
+            _write_atomic(json_file, lambda f: lot_report.lot_json(run, f), "--json")
         # the report last: the data files are the record, the report draws them
         if html is not None or plots is not None:
             _write_lot_report(run, criteria, html, plots)

@@ -51,7 +51,6 @@ import html as _html
 import math
 import os
 import re
-import tempfile
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -463,51 +462,24 @@ def report_figures(
 # --------------------------------------------------------------------------- writing
 
 
-def _atomic_write(path: Path, data: bytes) -> None:
-    parent = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(dir=parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-
-
-def _check_target_dir(d: Path, what: str, option: str) -> None:
-    if not d.is_dir():
-        raise UsageError(f"cannot write the {what}: directory {str(d)!r} does not exist",
-                         field=option, fix="create the directory first or choose another path")
-    if not os.access(d, os.W_OK):
-        raise UsageError(f"cannot write the {what}: directory {str(d)!r} is not writable",
-                         field=option, fix="choose a writable directory")
+#: The files ``--plots DIR`` writes: ``DIR/<key>.svg`` and ``.png`` for the keys of
+#: :func:`report_figures` (``chromaticity``, ``distributions``, ``spd-*``, ``cri-*``,
+#: ``hue-bins-*``). Another output of the same run may not be one of them.
+PLOT_FILE_PATTERNS = tuple(f"{stem}.{ext}" for stem in ("chromaticity", "distributions", "spd-*", "cri-*", "hue-bins-*")
+                           for ext in ("svg", "png"))
 
 
 def validate_targets(html=None, plots=None) -> None:
     """Check the ``--html FILE`` and ``--plots DIR`` targets before any work or any write.
 
-    Raises :class:`lumeval.errors.UsageError` (exit code 2) when the report's directory does
-    not exist or is not writable, when FILE is a directory, or when DIR is a file or its parent
-    does not exist. Commands call this first so that a bad target writes nothing at all.
+    Raises :class:`lumeval.errors.UsageError` (exit code 2) when a target cannot be used (see
+    :func:`lumeval._io.check_targets`: a missing or unwritable folder, FILE a folder or a
+    device, DIR a file, the report one of the files the plots are written to...). Commands call
+    this first so that a bad target writes nothing at all.
     """
-    if html is not None:
-        p = Path(html)
-        if p.is_dir():
-            raise UsageError(f"cannot write the HTML report: {str(p)!r} is a directory", field="--html",
-                             fix="give a file name, e.g. report.html")
-        _check_target_dir(p.parent if str(p.parent) else Path("."), "HTML report", "--html")
-    if plots is not None:
-        d = Path(plots)
-        if d.exists() and not d.is_dir():
-            raise UsageError(f"cannot write plots: {str(d)!r} is a file", field="--plots", fix="give a directory")
-        _check_target_dir(d if d.exists() else (d.parent if str(d.parent) else Path(".")), "plots", "--plots")
+    from .._io import check_targets
+
+    check_targets(files={"--html": html}, dirs={"--plots": plots}, dir_files={"--plots": PLOT_FILE_PATTERNS})
 
 
 def write_plots(
@@ -528,25 +500,32 @@ def write_plots(
     order. Raises :class:`lumeval.errors.UsageError` when the directory cannot be used; in
     that case nothing is written.
     """
+    from .._io import check_output_dir, check_output_file, write_bytes
     from .plots import figure_png, figure_svg
 
     d = Path(directory)
-    if d.exists() and not d.is_dir():
-        raise UsageError(f"cannot write plots: {str(d)!r} is a file", field="--plots", fix="give a directory")
-    if not d.exists():
-        _check_target_dir(d.parent if str(d.parent) else Path("."), "plots", "--plots")
+    check_output_dir(d, "--plots", PLOT_FILE_PATTERNS)
     bad = [f for f in formats if f not in ("svg", "png")]
     if bad:
         raise UsageError(f"unknown plot format(s) {bad}", field="--plots", fix="use svg and/or png")
     figs = figures if figures is not None else report_figures(
         evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, per_sample_max=per_sample_max)
-    d.mkdir(exist_ok=True)
+    targets = [(f, fmt, d / f"{f.key}.{fmt}") for f in figs for fmt in formats]
+    if d.is_dir():
+        for _f, _fmt, p in targets:  # every target before the first write: a FIFO among them writes nothing
+            if os.path.lexists(p):
+                check_output_file(p, "--plots")
+    try:
+        d.mkdir(exist_ok=True)
+    except OSError as exc:
+        from ..errors import OutputError
+
+        raise OutputError(f"cannot create the folder: {exc.strerror or exc}", file=str(d), field="--plots",
+                          fix="check the free space and the permissions") from None
     out = []
-    for f in figs:
-        for fmt in formats:
-            p = d / f"{f.key}.{fmt}"
-            _atomic_write(p, figure_svg(f.figure).encode("utf-8") if fmt == "svg" else figure_png(f.figure))
-            out.append(p)
+    for f, fmt, p in targets:
+        write_bytes(p, figure_svg(f.figure).encode("utf-8") if fmt == "svg" else figure_png(f.figure), option="--plots")
+        out.append(p)
     return out
 
 
@@ -571,15 +550,14 @@ def write_html_report(
     Raises :class:`lumeval.errors.UsageError` (nothing written) when the target directory
     does not exist or is not writable. See :func:`render_html_report` for the parameters.
     """
+    from .._io import check_output_file, write_bytes
+
     p = Path(path)
-    if p.is_dir():
-        raise UsageError(f"cannot write the HTML report: {str(p)!r} is a directory", field="--html",
-                         fix="give a file name, e.g. report.html")
-    _check_target_dir(p.parent if str(p.parent) else Path("."), "HTML report", "--html")
+    check_output_file(p, "--html")
     text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
                               title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max,
                               figures=figures, overall=overall)
-    _atomic_write(p, text.encode("utf-8"))
+    write_bytes(p, text.encode("utf-8"), option="--html")
     return p
 
 

@@ -472,8 +472,8 @@ def _verdict_line(run) -> str:
 
 def print_lot(run, console=None) -> None:
     """Print the terminal summary (plain text when not a terminal)."""
-    from rich.console import Console
+    from .safe import console as safe_console
 
-    console = console or Console(highlight=False, soft_wrap=False)
+    console = console or safe_console(highlight=False, soft_wrap=False)
     for r in lot_renderables(run):
         console.print(r)

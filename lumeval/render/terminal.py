@@ -130,8 +130,8 @@ def inspect_renderables(ev):
 
 
 def print_inspect(ev, console=None) -> None:
-    from rich.console import Console
+    from .safe import console as safe_console
 
-    console = console or Console()
+    console = console or safe_console()
     for r in inspect_renderables(ev):
         console.print(r)

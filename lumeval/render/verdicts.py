@@ -333,9 +333,9 @@ def _cautions_text():
 
 
 def print_check(result, console=None) -> None:
-    from rich.console import Console
+    from .safe import console as safe_console
 
-    console = console or Console()
+    console = console or safe_console()
     for r in check_renderables(result):
         console.print(r)
 
@@ -513,9 +513,9 @@ def _accepted(c, unit: str, spec: str) -> str:
 
 
 def print_claims(check, console=None) -> None:
-    from rich.console import Console
+    from .safe import console as safe_console
 
-    console = console or Console()
+    console = console or safe_console()
     for r in claims_renderables(check):
         console.print(r)
 

@@ -1,18 +1,16 @@
 """Write spectra as CSV, IES TM-27 XML or lumeval JSON, atomically.
 
 The output kind follows the file extension: ``.csv``/``.txt`` → CSV, ``.xml``/``.spdx`` →
-IES TM-27-14 XML (one spectrum per file), ``.json`` → lumeval JSON. Files are written to a
-temporary file in the same directory and moved into place with :func:`os.replace`, so a
-reader never sees half a file and a failure leaves nothing behind.
+IES TM-27-14 XML (one spectrum per file), ``.json`` → lumeval JSON. Files are written by the
+one atomic writer, :func:`lumeval._io.atomic_output`: a reader never sees half a file and a
+failure leaves the old file as it was.
 """
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
-from ..errors import InputError, UsageError
+from ..errors import UsageError
 from .model import SpectrumSet
 
 CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
@@ -98,31 +96,10 @@ def serialise(spectra: SpectrumSet, kind: str) -> bytes:
 
 
 def write_atomic(path: str | Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` via a temporary file in the same directory and os.replace."""
-    p = Path(path)
-    directory = p.parent if str(p.parent) else Path(".")
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=directory)
-    except OSError as exc:
-        raise InputError(
-            f"cannot write here ({exc.strerror or exc})", file=str(path), fix="check the directory exists and is writable"
-        ) from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, p)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise InputError(
-                f"cannot write the file ({exc.strerror or exc})", file=str(path), fix="check the path and free space"
-            ) from None
-        raise
+    """Write ``data`` to ``path`` atomically (:func:`lumeval._io.write_bytes`)."""
+    from .._io import write_bytes
+
+    write_bytes(path, data)
 
 
 def write_spectra(spectra: SpectrumSet, path: str | Path) -> None:

@@ -1,0 +1,81 @@
+"""Untrusted text on its way to a terminal or a spreadsheet.
+
+Spectrum names, file names, metadata, criteria labels, ids and notes come from files other
+people made. Every renderer passes them through this module:
+
+- :func:`clean` escapes control characters (C0 including ESC, CR, LF, TAB and BEL; DEL; the
+  C1 range; the Unicode bidirectional and zero-width controls) as visible ``\\x1b``-style
+  escapes, so that a name can neither move the cursor, clear the screen, set a link (OSC 8),
+  rewrite a line nor reorder what is shown;
+- :func:`text` wraps the cleaned string in a rich ``Text``, which rich never parses as markup:
+  ``[bold green]PASS[/]`` or ``[link=…]`` in a name prints literally. Renderers give rich
+  ``Text`` objects, never markup strings, for anything that holds data;
+- :func:`csv_text` neutralises a text cell that a spreadsheet would run as a formula (a leading
+  ``=``, ``+``, ``-``, ``@``, tab or CR gets a leading single quote, as the OWASP "CSV
+  injection" guidance recommends); it is applied to text columns only, so numbers such as
+  ``-0.5`` are never altered;
+- :func:`console` makes the rich consoles of the reports: a closed pipe raises
+  ``BrokenPipeError`` to the CLI (exit code 2, one line) instead of rich's silent exit 1.
+
+Pure string functions; rich is imported only by :func:`text` and :func:`console`.
+"""
+
+from __future__ import annotations
+
+#: Characters escaped for display: C0 controls, DEL, C1 controls, bidirectional and zero-width
+#: format characters (the "Trojan Source" set, CVE-2021-42574).
+_FORMAT_CONTROLS = (
+    [0x061C, 0x200B, 0x200C, 0x200D, 0x200E, 0x200F, 0x2028, 0x2029]
+    + list(range(0x202A, 0x202F))
+    + list(range(0x2066, 0x206A))
+    + [0xFEFF]
+)
+_NAMED = {0x09: "\\t", 0x0A: "\\n", 0x0D: "\\r"}
+
+
+def _escape(cp: int) -> str:
+    if cp in _NAMED:
+        return _NAMED[cp]
+    return f"\\x{cp:02x}" if cp < 0x100 else f"\\u{cp:04x}"
+
+
+_TABLE = {cp: _escape(cp) for cp in [*range(0x00, 0x20), *range(0x7F, 0xA0), *_FORMAT_CONTROLS]}
+
+#: Leading characters a spreadsheet reads as the start of a formula (OWASP, "CSV Injection").
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def clean(value) -> str:
+    """``value`` as one line of inert text: control characters become visible escapes."""
+    return str(value).translate(_TABLE)
+
+
+def text(value, style: str | None = None):
+    """A rich ``Text`` holding :func:`clean` of ``value``: never parsed as markup."""
+    from rich.text import Text
+
+    return Text(clean(value), style=style or "")
+
+
+def csv_text(value) -> str:
+    """A text cell for a CSV file: control characters escaped, and a leading single quote when
+    the cell would start a spreadsheet formula (OWASP CSV-injection guidance). Only for text
+    columns: a number column keeps ``-0.5`` as it is."""
+    if value is None:
+        return ""
+    s = str(value)
+    if s.startswith(FORMULA_START):  # tab and CR checked before they are escaped
+        return "'" + clean(s)
+    return clean(s)
+
+
+def console(**kwargs):
+    """A rich Console for lumeval's reports (see the module docstring)."""
+    from rich.console import Console
+
+    class _Console(Console):
+        def on_broken_pipe(self) -> None:  # rich's default exits 1, which reads "a criterion failed"
+            self.quiet = True
+            raise BrokenPipeError(32, "Broken pipe")
+
+    return _Console(**kwargs)

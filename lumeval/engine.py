@@ -18,33 +18,35 @@ from __future__ import annotations
 import dataclasses
 import warnings as _warnings
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from .spectra.model import SpectrumSet
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .metrics.colorimetry import CCTResult
+    from .metrics.cri import CRIResult
+    from .metrics.photometry import PhotometryResult
+    from .metrics.tm30 import TM30Result
 
 #: Spectra evaluated per chunk. The largest intermediate arrays are (chunk, 99, W) for the
 #: TM-30 samples: 256 × 99 × 471 doubles ≈ 95 MB.
 DEFAULT_CHUNK = 256
 
 
-FIGURE_NAMES: tuple[str, ...] = (
-    ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv", "Ra")
-    + tuple(f"R{i}" for i in range(1, 15))
-    + ("dc", "Rf", "Rg", "cie2017_Rf")
-    + tuple(f"Rf_h{j}" for j in range(1, 17))
-    + tuple(f"Rcs_h{j}" for j in range(1, 17))
-    + tuple(f"Rhs_h{j}" for j in range(1, 17))
-    + ("ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm")
-)
+def __getattr__(name: str):
+    # FIGURE_NAMES and FIGURE_UNITS are views of the figure registry (lumeval.figures), computed
+    # when asked so that a figure registered later is included.
+    if name == "FIGURE_NAMES":
+        from . import figures
 
-#: Units of each figure, for reports and criteria messages.
-FIGURE_UNITS: dict[str, str] = {
-    "cct_K": "K",
-    "ler_lm_per_W": "lm/W",
-    "peak_nm": "nm",
-    **{f"Rcs_h{j}": "%" for j in range(1, 17)},
-}
+        return figures.names()
+    if name == "FIGURE_UNITS":
+        from . import figures
+
+        return {f.name: f.unit for f in figures.FIGURES.values() if f.unit}
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 @dataclass(frozen=True)
@@ -69,13 +71,13 @@ class Evaluation:
     cct_K: np.ndarray
     duv: np.ndarray
     cct_reason: tuple[str, ...]
-    cri: object
-    tm30: object
+    cri: CRIResult
+    tm30: TM30Result
     cie2017_Rf: np.ndarray
-    photometry: object
+    photometry: PhotometryResult
     warnings: tuple[tuple[str, ...], ...]
     run_warnings: tuple[str, ...] = ()
-    methods: dict = field(default_factory=dict)
+    methods: dict[str, str] = field(default_factory=dict)
 
     def __len__(self) -> int:
         return self.x.shape[0]
@@ -85,31 +87,11 @@ class Evaluation:
         return self.spectra.names
 
     def figure(self, name: str) -> np.ndarray:
-        """The figure ``name`` (one of :data:`FIGURE_NAMES`) as an array of shape (N,)."""
-        if name in ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv"):
-            return np.asarray(getattr(self, name), dtype=float)
-        if name == "Ra":
-            return np.asarray(self.cri.Ra, dtype=float)
-        if name == "dc":
-            return np.asarray(self.cri.dc, dtype=float)
-        if name == "Rf":
-            return np.asarray(self.tm30.Rf, dtype=float)
-        if name == "cie2017_Rf":
-            return np.asarray(self.cie2017_Rf, dtype=float)
-        if name == "Rg":
-            return np.asarray(self.tm30.Rg, dtype=float)
-        if name in ("ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm"):
-            return np.asarray(getattr(self.photometry, name), dtype=float)
-        for prefix, attr in (("Rf_h", "Rf_h"), ("Rcs_h", "Rcs_h"), ("Rhs_h", "Rhs_h")):
-            if name.startswith(prefix) and name[len(prefix):].isdigit():
-                j = int(name[len(prefix):])
-                if 1 <= j <= 16:
-                    return np.asarray(getattr(self.tm30, attr), dtype=float)[:, j - 1]
-        if name.startswith("R") and name[1:].isdigit():
-            i = int(name[1:])
-            if 1 <= i <= 14:
-                return np.asarray(self.cri.R, dtype=float)[:, i - 1]
-        raise KeyError(f"unknown figure {name!r}")
+        """The figure ``name`` (a name or alias of :mod:`lumeval.figures`) as an array of shape (N,);
+        KeyError when no figure has that name."""
+        from . import figures
+
+        return figures.get(name).value(self)
 
     def reference_spd(self, i: int) -> np.ndarray:
         """The CIE 13.3 reference SPD (Planckian < 5000 K, CIE daylight ≥ 5000 K) of spectrum i
@@ -155,7 +137,23 @@ def _strip_details(result):
     return dataclasses.replace(result, **changes) if changes else result
 
 
-def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
+@dataclass(frozen=True)
+class _Chunk:
+    """What the metric modules return for one chunk of spectra, field by field (each metric's
+    own result dataclass; no positional tuples between the engine and the metrics)."""
+
+    XYZ: np.ndarray
+    xy: np.ndarray
+    uv: np.ndarray
+    upvp: np.ndarray
+    cct: CCTResult
+    cri: CRIResult
+    tm30: TM30Result
+    photometry: PhotometryResult
+    cie2017_Rf: np.ndarray
+
+
+def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     from .metrics.colorimetry import cct_duv_ohno, tristimulus, upvp_from_XYZ, uv_from_XYZ, xy_from_XYZ
     from .metrics.cri import cie133_cri
     from .metrics.photometry import photometry
@@ -170,7 +168,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray):
     fid = tm30(wl, values, cct.cct_K)
     rf2017 = cie2017_rf(wl, values, cct.cct_K, tm30_result=fid)
     phot = photometry(wl, values)
-    return XYZ, xy, uv, upvp, cct, cri, fid, phot, rf2017
+    return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
 
 
 def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str, ...], ...]:
@@ -229,30 +227,30 @@ def evaluate(spectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = T
             _warnings.simplefilter("always")
             part = _evaluate_chunk(wl, prepared.values[start : start + chunk_size])
         if not keep_details:
-            part = part[:5] + (_strip_details(part[5]), _strip_details(part[6])) + part[7:]
+            part = dataclasses.replace(part, cri=_strip_details(part.cri), tm30=_strip_details(part.tm30))
         parts.append(part)
         for c in caught:
             msg = f"computation warning: {c.message}"
             if msg not in caught_all:
                 caught_all.append(msg)
-    XYZ, xy, uv, upvp, cct, cri, fid, phot, rf2017 = (_concat([p[k] for p in parts]) for k in range(9))
+    r: _Chunk = _concat(parts)
     return Evaluation(
         spectra=prepared,
-        XYZ=XYZ,
-        x=xy[:, 0],
-        y=xy[:, 1],
-        u=uv[:, 0],
-        v=uv[:, 1],
-        u_prime=upvp[:, 0],
-        v_prime=upvp[:, 1],
-        cct_K=cct.cct_K,
-        duv=cct.duv,
-        cct_reason=cct.reason,
-        cri=cri,
-        tm30=fid,
-        cie2017_Rf=rf2017,
-        photometry=phot,
-        warnings=_warnings_for(prepared, cct, cri, fid, phot),
+        XYZ=r.XYZ,
+        x=r.xy[:, 0],
+        y=r.xy[:, 1],
+        u=r.uv[:, 0],
+        v=r.uv[:, 1],
+        u_prime=r.upvp[:, 0],
+        v_prime=r.upvp[:, 1],
+        cct_K=r.cct.cct_K,
+        duv=r.cct.duv,
+        cct_reason=r.cct.reason,
+        cri=r.cri,
+        tm30=r.tm30,
+        cie2017_Rf=r.cie2017_Rf,
+        photometry=r.photometry,
+        warnings=_warnings_for(prepared, r.cct, r.cri, r.tm30, r.photometry),
         run_warnings=tuple(caught_all),
         methods=METHODS,
     )

@@ -80,13 +80,6 @@ PERCENTILE_METHOD = "linear"
 #: Default delta degrees of freedom of the standard deviation (sample standard deviation).
 DDOF = 1
 
-_LABELS = {
-    "u_prime": "u'",
-    "v_prime": "v'",
-    "cct_K": "CCT",
-    "duv": "Duv",
-    "ler_lm_per_W": "LER",
-}
 
 
 # --------------------------------------------------------------------------- results
@@ -369,12 +362,22 @@ def robust_z(values) -> np.ndarray:
     return out
 
 
+def _figure_label(name: str) -> str:
+    from . import figures
+
+    return figures.label(name)
+
+
 def _fmt(name: str, v: float) -> str:
-    if name in ("u_prime", "v_prime", "duv", "x", "y"):
-        return f"{v:.4f}" if name != "duv" else f"{v:+.4f}"
-    if name == "cct_K":
-        return f"{v:.0f} K"
-    return f"{v:.1f}"
+    """A figure's value in its human format with its unit (the figure registry's; chromaticity-
+    scale figures get one more decimal, so a flagged value and the median do not print alike)."""
+    from . import figures
+
+    try:
+        f = figures.get(name)
+        return f.format(v, 1 if f.decimals >= 3 else 0, unit=True)
+    except KeyError:
+        return f"{v:.4g}"
 
 
 def screen_outliers(
@@ -401,6 +404,8 @@ def screen_outliers(
     flags = np.zeros(n, dtype=bool)
     reasons: list[list[str]] = [[] for _ in range(n)]
     zs: dict[str, np.ndarray] = {}
+    from . import figures as registry
+
     for name in names:
         if name not in figures:
             continue
@@ -411,7 +416,7 @@ def screen_outliers(
         zs[name] = z
         med = float(np.nanmedian(x))
         hit = np.abs(np.nan_to_num(z, nan=0.0)) > threshold
-        label = _LABELS.get(name, name)
+        label = registry.label(name)
         for i in np.flatnonzero(hit):
             side = "above" if z[i] > 0 else "below"
             reasons[i].append(
@@ -554,7 +559,7 @@ def lot_statistics(
     flags, reasons, zs = screen_outliers(figures, outlier_figures, threshold=outlier_threshold)
     rule = (
         f"modified z-score 0.6745·(x − median)/MAD, flagged when |z| > {outlier_threshold:g} for any of "
-        f"{', '.join(_LABELS.get(f, f) for f in outlier_figures if f in figures)} "
+        f"{', '.join(_figure_label(f) for f in outlier_figures if f in figures)} "
         f"(Iglewicz & Hoaglin 1993; MAD = 0 falls back to 1.2533·mean absolute deviation; figures with fewer "
         f"than {OUTLIER_MIN_SAMPLES} defined values are not screened)"
     )
@@ -589,15 +594,15 @@ def lot_statistics(
 
 #: Figures summarised by default for a lot (every figure of the engine).
 def default_figure_names() -> tuple[str, ...]:
-    from .engine import FIGURE_NAMES
+    from . import figures
 
-    return FIGURE_NAMES
+    return figures.names()
 
 
 def lot_from_evaluation(ev, *, figure_names: Sequence[str] | None = None, **kwargs) -> LotStatistics:
     """:func:`lot_statistics` of an :class:`~lumeval.engine.Evaluation`.
 
-    ``figure_names`` defaults to every figure of :data:`lumeval.engine.FIGURE_NAMES`; other
+    ``figure_names`` defaults to every figure of the registry (:func:`lumeval.figures.names`); other
     keyword arguments go to :func:`lot_statistics`.
     """
     names = tuple(figure_names) if figure_names is not None else default_figure_names()

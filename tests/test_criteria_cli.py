@@ -79,7 +79,7 @@ BAD = [
     ("[[clause]]\nkind = 'sdcn'\n", 2, "kind", ["did you mean 'sdcm'"]),
     ("[[clause]]\nfigure = 'Ra'\nmni = 80\n", 3, "mni", ["did you mean 'min'", "allowed:"]),
     ("[[clause]]\nfigure = 'Ra'\nmin = 80\ncentre = 'F3000'\n", 4, "centre", ["belongs to kind 'sdcm'"]),
-    ("[[clause]]\nfigure = 'r9'\nmin = 50\n", 2, "figure", ["did you mean 'R9'"]),
+    ("[[clause]]\nfigure = 'R_9'\nmin = 50\n", 2, "figure", ["did you mean 'R9'"]),
     ("[[clause]]\nfigure = 'Rcs_h17'\nmin = 50\n", 2, "figure", ["unknown figure"]),
     ("[[clause]]\nfigure = 'Ra'\nmin = 95\nmax = 90\n", 3, "min", ["above max", "contradict"]),
     ("[[clause]]\nfigure = 'Ra'\nrange = [95, 90]\n", 3, "range", ["above high limit"]),

@@ -279,9 +279,10 @@ def test_lot_statistics_object_is_shown(demo_eval):
     text = H.render_html_report(demo_eval, lot=stats)
     lot = text[text.index('id="lot"'): text.index('id="charts"')]
     ra = demo_eval.figure("Ra")
-    # the row for Ra shows the lot's mean and max as the report formats numbers (4 significant digits)
+    # the row for Ra shows the lot's mean and max in Ra's format of the figure registry (integers)
     row = re.search(r"<tr><td>Ra</td>(.*?)</tr>", lot).group(1)
-    assert f">{float(np.mean(ra)):.4g}<" in row and f">{float(np.max(ra)):.4g}<" in row
+    assert f">{float(np.mean(ra)):.0f}<" in row and f">{float(np.max(ra)):.0f}<" in row
+    assert re.search(r"<tr><td>CCT \(K\)</td>", lot) and "cct_K" not in lot
     assert "5 samples." in lot and "Largest Δu′v′" in lot
 
 

@@ -60,7 +60,7 @@ class LotRun:
     names, sources : tuple of str (N,)
     warnings : tuple of tuple of str (N,)
     figures : dict of str -> ndarray (N,)
-        Every figure of :data:`lumeval.engine.FIGURE_NAMES`.
+        Every figure of the registry (:func:`lumeval.figures.names`).
     xy : ndarray (N, 2)
     stats : lumeval.lot.LotStatistics
     check : lumeval.criteria.verdicts.CheckResult or None
@@ -219,10 +219,12 @@ def run_lot(
     """
     import numpy as np
 
-    from ..engine import FIGURE_NAMES, evaluate
+    from ..engine import evaluate
+    from ..figures import names as figure_names
     from ..lot import lot_statistics
     from ..spectra.model import SpectrumSet
 
+    FIGURE_NAMES = figure_names()
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []

@@ -33,7 +33,7 @@ from decimal import Decimal
 
 import numpy as np
 
-from ..engine import FIGURE_NAMES
+from .. import figures
 from ..errors import CriteriaError
 from . import regions
 from .loader import locate_lines
@@ -209,23 +209,25 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
     raw = data.get("claims")
     if not isinstance(raw, dict) or not raw:
         raise CriteriaError("the file has no claims", file=file, line=lines.get(("claims",)), fix='add a [claims] table, e.g. Ra = ">= 90"')
-    allowed_keys = list(FIGURE_NAMES) + list(NOT_CHECKABLE_KEYS)
+    allowed_keys = list(figures.spellings()) + list(NOT_CHECKABLE_KEYS)
     tol_raw = data.get("tolerances") or {}
     if not isinstance(tol_raw, dict):
         raise err((), "tolerances", "`tolerances` must be a table", "write [tolerances] with figure = number lines")
     tolerances: dict[str, float] = {}
     for k, v in tol_raw.items():
-        if k not in FIGURE_NAMES:
-            s = suggest(k, FIGURE_NAMES)
+        fk = figures.lookup(k)
+        if fk is None:
+            s = suggest(k, figures.spellings())
             raise err(("tolerances",), k, f"unknown figure {k!r}", (f"did you mean {s!r}? " if s else "") + "use a figure name, as in [claims]")
         if not is_number(v) or not np.isfinite(v) or v < 0:
             raise err(("tolerances",), k, f"must be a non-negative number, got {v!r}", "write the tolerance in the figure's own units, e.g. Ra = 1")
-        tolerances[k] = float(v)
+        tolerances[fk] = float(v)
 
     claims = []
     for key, value in raw.items():
         line = lines.get(("claims", key))
-        if key not in allowed_keys:
+        fig = figures.lookup(key) if key not in NOT_CHECKABLE_KEYS else None
+        if fig is None and key not in NOT_CHECKABLE_KEYS:
             s = suggest(key, allowed_keys)
             raise err(("claims",), key, f"unknown claim {key!r}", (f"did you mean {s!r}? " if s else "") + "use a lumeval figure name (cct_K, duv, Ra, R9, Rf, Rg, ...) or one of " + ", ".join(NOT_CHECKABLE_KEYS))
         text = str(value)
@@ -242,41 +244,41 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         if m is None:
             raise err(("claims",), key, f"cannot read the claim {value!r}", 'write e.g. ">= 90", "<= 0.003", "3000 K", "100 ± 3" or a plain number')
         unit = m.group("unit")
-        if unit and unit != figure_unit(key):
-            raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(key) or 'none'!r})", f"write {key} in {figure_unit(key) or 'plain numbers'}")
+        if unit and unit != figure_unit(fig):
+            raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(fig) or 'none'!r})", f"write {key} in {figure_unit(fig) or 'plain numbers'}")
         v = float(m.group("value"))
         if not np.isfinite(v) or (m.group("tol") is not None and not np.isfinite(float(m.group("tol")))):
             raise err(("claims",), key, f"the claim {value!r} holds a number too large to represent", "write the value as the datasheet states it, e.g. \">= 90\"")
         op = m.group("op") or ""
-        t_override = tolerances.get(key)
+        t_override = tolerances.get(fig)
         if m.group("tol") is not None:
             if op not in ("", "="):
                 raise err(("claims",), key, "a ± tolerance cannot be combined with a comparison", 'write either ">= v" or "v ± d"')
             d = float(m.group("tol"))
-            claims.append(Claim(key, key, text, v - d, v + d, v - d, v + d, f"stated ± {fmt_number(d)}", line))
+            claims.append(Claim(key, fig, text, v - d, v + d, v - d, v + d, f"stated ± {fmt_number(d)}", line))
             continue
         if op in (">=", "≥", "=>", ">"):
             t = t_override if t_override is not None else _half_unit(m.group("value"))
             note = "tolerance from [tolerances]" if t_override is not None else "read at the precision written (half a unit of the last digit)"
-            claims.append(Claim(key, key, text, v, None, v - t, None, f"{note}: {fmt_number(t)}", line))
+            claims.append(Claim(key, fig, text, v, None, v - t, None, f"{note}: {fmt_number(t)}", line))
         elif op in ("<=", "≤", "=<", "<"):
             t = t_override if t_override is not None else _half_unit(m.group("value"))
             note = "tolerance from [tolerances]" if t_override is not None else "read at the precision written (half a unit of the last digit)"
-            claims.append(Claim(key, key, text, None, v, None, v + t, f"{note}: {fmt_number(t)}", line))
+            claims.append(Claim(key, fig, text, None, v, None, v + t, f"{note}: {fmt_number(t)}", line))
         else:
             if t_override is not None:
                 lo, hi, note = v - t_override, v + t_override, f"± {fmt_number(t_override)} from [tolerances]"
-            elif key == "cct_K":
+            elif fig == "cct_K":
                 b = _nominal_cct_bounds(v)
                 if b is None:
                     raise err(("claims",), key, f"no default tolerance for a nominal CCT of {v:g} K", "give one: cct_K = \"%g ± 100\" or a [tolerances] entry" % v)
                 lo, hi, note = b
-            elif key == "duv":
+            elif fig == "duv":
                 lo, hi, note = v - regions.ANSI_DUV_TOLERANCE, v + regions.ANSI_DUV_TOLERANCE, "± 0.006 (ANSI C78.377 Duv tolerance)"
             else:
                 t = _half_unit(m.group("value"))
                 lo, hi, note = v - t, v + t, f"read at the precision written: ± {fmt_number(t)}"
-            claims.append(Claim(key, key, text, lo, hi, lo, hi, note, line))
+            claims.append(Claim(key, fig, text, lo, hi, lo, hi, note, line))
     return Claims(tuple(claims), supplier, file)
 
 

@@ -22,58 +22,29 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from ..engine import FIGURE_NAMES, FIGURE_UNITS
+from .. import figures
 from . import presets, regions
 from .verdicts import ClauseResult, margin_to_limits, simple_outcomes
 
 # --------------------------------------------------------------------------- figures
 
-#: What each figure is and the standard that defines it (for messages and tender wording).
-FIGURE_DESCRIPTIONS: dict[str, tuple[str, str]] = {
-    "x": ("chromaticity coordinate x", "CIE 15:2004, CIE 1931 2° observer"),
-    "y": ("chromaticity coordinate y", "CIE 15:2004, CIE 1931 2° observer"),
-    "u": ("CIE 1960 UCS coordinate u", "CIE 15:2004"),
-    "v": ("CIE 1960 UCS coordinate v", "CIE 15:2004"),
-    "u_prime": ("CIE 1976 UCS coordinate u'", "CIE 15:2004"),
-    "v_prime": ("CIE 1976 UCS coordinate v'", "CIE 15:2004"),
-    "cct_K": ("correlated colour temperature (CCT)", "CIE 15:2004; computed by Ohno (2014)"),
-    "duv": ("Duv, the signed distance from the Planckian locus in CIE 1960 (u, v)", "ANSI C78.377"),
-    "Ra": ("general colour rendering index Ra", "CIE 13.3-1995"),
-    "dc": ("CIE 13.3 chromaticity distance DC from the Planckian locus", "CIE 13.3-1995"),
-    "Rf": ("fidelity index Rf", "ANSI/IES TM-30-20 (identical to CIE 224:2017 Rf)"),
-    "Rg": ("gamut index Rg", "ANSI/IES TM-30-20"),
-    "cie2017_Rf": ("colour fidelity index Rf", "CIE 224:2017"),
-    "ler_lm_per_W": ("luminous efficacy of radiation (LER)", "CIE 15:2004 / ISO 23539, Km = 683 lm/W"),
-    "sp_ratio": ("scotopic-to-photopic (S/P) ratio", "CIE scotopic and photopic luminous efficiency functions"),
-    "melanopic_der": ("melanopic daylight (D65) efficacy ratio (melanopic DER)", "CIE S 026/E:2018"),
-    "peak_nm": ("peak wavelength of the spectrum", "common practice"),
-}
-for _i in range(1, 15):
-    FIGURE_DESCRIPTIONS[f"R{_i}"] = (f"special colour rendering index R{_i}", "CIE 13.3-1995")
-for _j in range(1, 17):
-    FIGURE_DESCRIPTIONS[f"Rf_h{_j}"] = (f"local fidelity index Rf,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
-    FIGURE_DESCRIPTIONS[f"Rcs_h{_j}"] = (f"local chroma shift Rcs,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
-    FIGURE_DESCRIPTIONS[f"Rhs_h{_j}"] = (f"local hue shift Rhs,h{_j} (hue bin {_j})", "ANSI/IES TM-30-20")
-
-
-#: How a figure is written for people (the trade's notation); the file uses the figure names.
-_DISPLAY = {"cct_K": "CCT", "duv": "Duv", "u_prime": "u'", "v_prime": "v'", "ler_lm_per_W": "LER",
-            "sp_ratio": "S/P", "melanopic_der": "melanopic DER", "peak_nm": "peak wavelength", "dc": "DC",
-            "cie2017_Rf": "Rf (CIE 224)"}
+def describe(name: str) -> tuple[str, str]:
+    """(what the figure is, the standard that defines it), from the figure registry."""
+    try:
+        f = figures.get(name)
+    except KeyError:
+        return (name, "")
+    return (f.description, f.source)
 
 
 def display_name(name: str) -> str:
-    """E.g. ``cct_K`` -> ``CCT``, ``Rcs_h1`` -> ``Rcs,h1``."""
-    if name in _DISPLAY:
-        return _DISPLAY[name]
-    for p in ("Rf_h", "Rcs_h", "Rhs_h"):
-        if name.startswith(p):
-            return f"{p[:-2]},h{name[len(p):]}"
-    return name
+    """How a figure is written for people (the registry's label): ``cct_K`` -> ``CCT``,
+    ``Rcs_h1`` -> ``Rcs,h1``; the name itself when it is not a figure."""
+    return figures.label(name)
 
 
 def figure_unit(name: str) -> str:
-    return FIGURE_UNITS.get(name, "")
+    return figures.unit(name)
 
 
 def suggest(name: str, choices, *, cutoff: float = 0.5) -> str | None:
@@ -319,10 +290,12 @@ class FigureClause(ClauseKind):
             raise ParseError(None, "a figure clause needs `figure`", 'add e.g. figure = "R9"')
         if not isinstance(fig, str):
             raise ParseError("figure", f"must be a figure name in quotes, got {fig!r}", 'write e.g. figure = "R9"')
-        if fig not in FIGURE_NAMES:
-            s = suggest(fig, FIGURE_NAMES)
+        canonical = figures.lookup(fig)
+        if canonical is None:
+            s = suggest(fig, figures.spellings())
             hint = f"did you mean {s!r}? " if s else ""
             raise ParseError("figure", f"unknown figure {fig!r}", f"{hint}allowed: {', '.join(_figure_summary())}")
+        fig = canonical
         lo, hi = number(table, "min"), number(table, "max")
         if "range" in table:
             if lo is not None or hi is not None:
@@ -344,7 +317,7 @@ class FigureClause(ClauseKind):
         return cls(common["id"], label, common["note"], common["line"], fig, lo, hi)
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
-        desc, std = FIGURE_DESCRIPTIONS.get(self.figure, (self.figure, ""))
+        desc, std = describe(self.figure)
         return (
             figure_result(
                 ev,
@@ -361,7 +334,7 @@ class FigureClause(ClauseKind):
         )
 
     def tender_text(self) -> str:
-        desc, std = FIGURE_DESCRIPTIONS.get(self.figure, (self.figure, ""))
+        desc, std = describe(self.figure)
         unit = figure_unit(self.figure)
         if self.lower is not None and self.upper is not None:
             req = f"shall be between {fmt_number(self.lower, unit)} and {fmt_number(self.upper, unit)} inclusive"
@@ -372,13 +345,11 @@ class FigureClause(ClauseKind):
         return f"The {desc} (`{self.figure}`, {std}) {req}."
 
     def sources(self) -> tuple[str, ...]:
-        return (FIGURE_DESCRIPTIONS.get(self.figure, ("", ""))[1],)
+        return (describe(self.figure)[1],)
 
 
 def _figure_summary() -> list[str]:
-    return ["x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R1..R14", "dc", "Rf", "Rg",
-            "cie2017_Rf", "Rf_h1..Rf_h16", "Rcs_h1..Rcs_h16", "Rhs_h1..Rhs_h16", "ler_lm_per_W", "sp_ratio",
-            "melanopic_der", "peak_nm"]
+    return figures.summary_text()
 
 
 # --------------------------------------------------------------------------- ANSI quadrangle

@@ -70,8 +70,6 @@ MAX_TABLE_ROWS = 100
 #: Figures whose distributions are drawn for a lot (plus any figure a limit names).
 LOT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
 
-_UNITS = {"cct_K": "K", "ler_lm_per_W": "lm/W", "peak_nm": "nm"}
-
 _OUTCOME_ORDER = ("pass", "not judged", "indeterminate", "fail")
 _OUTCOME_TEXT = {
     "pass": ("✓", "PASS"),
@@ -293,7 +291,8 @@ def _lot_block(lot):
         if out is not None and np.any(out):
             notes.append(f"{int(np.sum(out))} sample(s) flagged as outliers ({getattr(lot, 'outlier_rule', '')}).")
         notes += [str(n) for n in getattr(lot, "notes", ())]
-        return {"title": "Lot statistics", "rows": list(lot.figures), "notes": notes}
+        return {"title": "Lot statistics", "rows": [_summary_row(f) for f in lot.figures], "notes": notes,
+                "numeric": _SUMMARY_NUMERIC}
     if isinstance(lot, Mapping):
         return {"title": str(lot.get("title", "Lot statistics")), "rows": list(lot.get("rows", ())),
                 "notes": [str(n) for n in lot.get("notes", ())]}
@@ -302,6 +301,28 @@ def _lot_block(lot):
         return {"title": str(_get(lot, "title", default="Lot statistics")), "rows": list(rows),
                 "notes": [str(n) for n in (_get(lot, "notes", default=()) or ())]}
     return {"title": "Lot statistics", "rows": list(lot), "notes": []}
+
+
+_SUMMARY_COLUMNS = ("figure", "n", "undefined", "mean", "std", "min", "p5", "median", "p95", "max")
+_SUMMARY_NUMERIC = [c != "figure" for c in _SUMMARY_COLUMNS]
+
+
+def _summary_row(f) -> dict:
+    """One figure's lot statistics with the registry's label, unit and precision (the standard
+    deviation with one more decimal)."""
+    from .. import figures
+
+    try:
+        fig = figures.get(f.name)
+    except KeyError:
+        fig = None
+
+    def v(x, extra=0):
+        return fig.format(x, extra, sign=False) if fig is not None else _num(x)
+
+    return {"figure": fig.heading if fig is not None else f.name, "n": str(f.count), "undefined": str(f.undefined),
+            "mean": v(f.mean), "std": v(f.std, 1), "min": v(f.min), "p5": v(f.p05), "median": v(f.median),
+            "p95": v(f.p95), "max": v(f.max)}
 
 
 def _row_dict(row) -> dict:
@@ -446,6 +467,8 @@ def report_figures(
         ))
 
     if as_lot and n >= 2:
+        from .. import figures
+
         keys = list(LOT_FIGURES)
         for f in lim:
             if f not in keys and len(keys) < 10 and np.any(np.isfinite(_fig(ev, f))):
@@ -454,7 +477,8 @@ def report_figures(
             "distributions", f"Distributions over {n} samples",
             "Every sample (dot; ✗ failed a criterion), the interquartile box with the median (thick line), "
             "and the criteria limits (dashed, labelled min/max).",
-            plots.distribution_figure({k: _fig(ev, k) for k in keys}, limits=lim, failed=failed, units=_UNITS),
+            plots.distribution_figure({k: _fig(ev, k) for k in keys}, limits=lim, failed=failed,
+                                      labels={k: figures.heading(k) for k in keys}),
         ))
     return figs
 
@@ -725,11 +749,66 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Seque
     return "".join(out)
 
 
+#: Decimals of judged quantities that are not figures (chromaticity-region margins, SDCM steps).
+_OTHER_DECIMALS = {"u'v'": 4, "SDCM steps": 2}
+
+
+def _judged_decimals(figure: str) -> tuple[int, bool] | None:
+    """(decimals, signed) of the quantity a clause judges: the figure registry's format, or
+    the precision of a region margin / SDCM steps; None when unknown."""
+    from .. import figures
+
+    try:
+        f = figures.get(figure)
+    except KeyError:
+        d = _OTHER_DECIMALS.get(figure)
+        return None if d is None else (d, False)
+    return f.decimals, f.signed
+
+
+#: The key-figure tables of the report: (title, figure groups). Columns are the registry's key
+#: figures (``summary=True``) of those groups, with its labels, units and number formats.
+KEY_FIGURE_TABLES: tuple[tuple[str, tuple[str, ...]], ...] = (
+    ("Chromaticity (CIE 1931 2°)", ("chromaticity",)),
+    ("Colour rendering and photometry", ("colour rendering", "fidelity", "photometry")),
+)
+
+
+def _key_figures(groups: tuple[str, ...] | None = None) -> list:
+    """Key figures of ``groups`` without the per-bin hue values (those have their own table)."""
+    from .. import figures
+
+    return [f for f in figures.summary_figures(groups) if not f.name.startswith(("Rf_h", "Rcs_h", "Rhs_h"))]
+
+
+def _key_figure_tables(ev, names, order) -> list[str]:
+    out = []
+    for title, groups in KEY_FIGURE_TABLES:
+        figs = _key_figures(groups)
+        if not figs:
+            continue
+        vals = [f.value(ev) for f in figs]
+        out.append(f"<h3>{_e(title)}</h3>")
+        out.append(_table(["Spectrum"] + [f.heading for f in figs],
+                          [[_e(names[i])] + [_e(f.format(v[i])) for f, v in zip(figs, vals)] for i in order],
+                          numeric=[False] + [True] * len(figs)))
+    return out
+
+
 def _measured_text(r: VerdictRow) -> tuple[str, str]:
-    unit = f" {r.unit}" if r.unit else ""
+    from ..figures import format_number, margin_extra_decimals
+
+    unit = "" if not r.unit else (r.unit if r.unit == "%" else f" {r.unit}")
     finite = isinstance(r.measured, (int, float)) and math.isfinite(float(r.measured))
-    meas = _num(r.measured) + (unit if finite else "")
-    marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else _num(r.margin, "+g") + unit
+    fmt = _judged_decimals(r.figure)
+    if fmt is None:
+        meas = _num(r.measured) + (unit if finite else "")
+        marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else _num(r.margin, "+g") + unit
+    else:
+        dec, signed = fmt
+        k = margin_extra_decimals(r.margin, dec)
+        meas = (format_number(r.measured, f"{'+' if signed else ''}.{dec + k}f") + unit) if finite else _num(r.measured)
+        marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else format_number(r.margin, f"+.{dec + k}f") + unit
     if r.expanded_uncertainty is not None and math.isfinite(r.expanded_uncertainty):
         # the clause's judged quantity (for a chromaticity region: its Δu'v' margin) ± U
         marg += f" ± {_num(r.expanded_uncertainty, '.2g')}{unit}"
@@ -914,29 +993,15 @@ def render_html_report(
 
     # ---- key figures
     body.append('<section id="figures-table"><h2>Key figures</h2>')
-    fx = {k: _fig(ev, k) for k in ("x", "y", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg",
-                                   "ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm")}
     failed_flags = _sample_failed(rows, names)
     order = sorted(range(n), key=lambda i: failed_flags[i] is not True)[:MAX_TABLE_ROWS]
     if len(order) < n:
         body.append(f'<p class="sub">{len(order)} of {n} spectra listed (those that failed a criterion first); '
                     "every spectrum's figures are in the JSON and CSV outputs.</p>")
-    body.append("<h3>Chromaticity (CIE 1931 2°)</h3>")
-    body.append(_table(
-        ["Spectrum", "x", "y", "u′", "v′", "CCT (K)", "Duv"],
-        [[_e(names[i]), _num(fx["x"][i], ".4f"), _num(fx["y"][i], ".4f"), _num(fx["u_prime"][i], ".4f"),
-          _num(fx["v_prime"][i], ".4f"), _num(fx["cct_K"][i], ".0f"), _num(fx["duv"][i], "+.4f")] for i in order],
-        numeric=[False] + [True] * 6))
-    body.append("<h3>Colour rendering and photometry</h3>")
-    body.append(_table(
-        ["Spectrum", "Ra", "R9", "Rf", "Rg", "LER (lm/W)", "S/P", "mel-DER", "peak (nm)"],
-        [[_e(names[i]), _num(fx["Ra"][i], "int"), _num(fx["R9"][i], "int"), _num(fx["Rf"][i], "int"),
-          _num(fx["Rg"][i], "int"), _num(fx["ler_lm_per_W"][i], ".0f"), _num(fx["sp_ratio"][i], ".2f"),
-          _num(fx["melanopic_der"][i], ".3f"), _num(fx["peak_nm"][i], ".0f")] for i in order],
-        numeric=[False] + [True] * 8))
-    body.append('<p class="sub">Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. '
-                "LER: luminous efficacy of radiation. mel-DER: melanopic daylight efficacy ratio (CIE S 026). "
-                "n/a: undefined for that spectrum (see the notes).</p>")
+    body.extend(_key_figure_tables(ev, names, order))
+    body.append('<p class="sub">' + _e(" ".join(f"{f.label}: {f.description} ({f.source})." for f in _key_figures()
+                                                if f.group != "chromaticity"))
+                + " n/a: undefined for that spectrum (see the notes).</p>")
     body.append("</section>")
 
     # ---- lot statistics
@@ -957,8 +1022,8 @@ def render_html_report(
                     return _num(float(v))
                 return _e(v if v is not None else "")
             body.append(_table(cols, [[cell(d.get(c)) for c in cols] for d in dicts],
-                               numeric=[all(isinstance(d.get(c), (int, float, np.floating, np.integer))
-                                            and not isinstance(d.get(c), bool) for d in dicts) for c in cols]))
+                               numeric=lb.get("numeric") or [all(isinstance(d.get(c), (int, float, np.floating, np.integer))
+                                                                 and not isinstance(d.get(c), bool) for d in dicts) for c in cols]))
         else:
             body.append("<p>No lot statistics.</p>")
         if lb["notes"]:

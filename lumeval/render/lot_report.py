@@ -38,19 +38,15 @@ from .tables import CAUTIONS
 
 JSON_SCHEMA_VERSION = 1
 
-#: Figures shown in the terminal summary table, with their label and format.
-SUMMARY_FIGURES: tuple[tuple[str, str, str], ...] = (
-    ("cct_K", "CCT (K)", ".0f"),
-    ("duv", "Duv", "+.4f"),
-    ("Ra", "Ra", ".1f"),
-    ("R9", "R9", ".1f"),
-    ("Rf", "Rf (TM-30)", ".1f"),
-    ("Rg", "Rg (TM-30)", ".1f"),
-    ("ler_lm_per_W", "LER (lm/W)", ".1f"),
-    ("sp_ratio", "S/P", ".3f"),
-    ("melanopic_der", "mel. DER", ".3f"),
-    ("peak_nm", "peak (nm)", ".0f"),
-)
+def summary_figures() -> list:
+    """Figures of the terminal summary table: the registry's key figures (:mod:`lumeval.figures`)
+    except the chromaticity coordinates (the chromaticity table shows the lot's centroid and
+    spread) and the per-hue-bin values."""
+    from .. import figures
+
+    return [f for f in figures.summary_figures()
+            if f.name not in ("x", "y", "u_prime", "v_prime") and figures.family(f.name) not in ("Rf_h", "Rcs_h", "Rhs_h")]
+
 #: Figures per sample in the lot JSON (the full set is in the per-sample CSV).
 JSON_SAMPLE_FIGURES = ("x", "y", "u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg")
 
@@ -383,18 +379,20 @@ def lot_renderables(run) -> list:
         pad_edge=False,
     )
     shown = []
-    for name, label, spec in SUMMARY_FIGURES:
+    for fig in summary_figures():
         try:
-            shown.append((st.summary(name), label, spec))
+            shown.append((st.summary(fig.name), fig))
         except KeyError:
             continue
-    any_undef = any(f.undefined for f, _, _ in shown)
+    any_undef = any(f.undefined for f, _ in shown)
     cols = ("figure", "mean", "std", "min", "p5", "p95", "max") + (("n/a",) if any_undef else ())
     for col in cols:
         t.add_column(col, justify="left" if col == "figure" else "right", no_wrap=True)
-    for f, label, spec in shown:
-        sd_spec = ".4f" if f.name == "duv" else (".1f" if spec == ".0f" else (".4f" if spec == ".3f" else ".2f"))
-        row = [label, _fmt(f.mean, spec), _fmt(f.std, sd_spec), _fmt(f.min, spec), _fmt(f.p05, spec), _fmt(f.p95, spec), _fmt(f.max, spec)]
+    for f, fig in shown:
+        def v(x, extra=0):
+            return fig.format(x, extra, sign=False)
+
+        row = [fig.heading, v(f.mean), v(f.std, 1), v(f.min), v(f.p05), v(f.p95), v(f.max)]
         t.add_row(*(row + ([str(f.undefined)] if any_undef else [])))
     out.append(t)
 

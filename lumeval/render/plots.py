@@ -658,6 +658,7 @@ def distribution_figure(
     failed: Sequence[bool | None] | None = None,
     units: Mapping[str, str] | None = None,
     title: str | None = None,
+    labels: Mapping[str, str] | None = None,
 ):
     """Distributions of key figures over a lot: one small panel per figure.
 
@@ -673,6 +674,7 @@ def distribution_figure(
     limits : mapping name -> (lo, hi), optional
     failed : sequence of bool or None (N,), optional
     units : mapping name -> unit string, optional
+    labels : mapping name -> heading for people (e.g. "CCT (K)"), optional; replaces name and unit
     """
     names = list(values)
     k = len(names)
@@ -722,7 +724,8 @@ def distribution_figure(
             ax.set_yticks([])
             ax.spines["left"].set_visible(False)
             unit = (units or {}).get(name, "")
-            ax.set_title(f"{name}" + (f" ({unit})" if unit else "") + f" · n = {int(fin.sum())}", loc="left", fontsize=8.5)
+            head = (labels or {}).get(name) or (f"{name}" + (f" ({unit})" if unit else ""))
+            ax.set_title(f"{head} · n = {int(fin.sum())}", loc="left", fontsize=8.5)
         if title:
             fig.suptitle(title, x=0.01, ha="left", fontsize=10)
     return fig

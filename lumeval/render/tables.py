@@ -27,46 +27,60 @@ def _nums(a):
     return [_num(v) for v in np.asarray(a, dtype=float).ravel()]
 
 
+def _put(rec: dict, path: tuple, value) -> None:
+    """Set ``value`` at ``path`` in the nested record (str keys: objects; int keys: arrays)."""
+    node = rec
+    for k, nxt in zip(path[:-1], path[1:]):
+        child = node[k] if isinstance(node, list) else node.get(k)
+        if child is None:
+            child = [] if isinstance(nxt, int) else {}
+            if isinstance(node, list):
+                node.extend([None] * (k + 1 - len(node)))
+                node[k] = child
+            else:
+                node[k] = child
+        node = child
+    last = path[-1]
+    if isinstance(node, list):
+        node.extend([None] * (last + 1 - len(node)))
+        node[last] = value
+    else:
+        node[last] = value
+
+
+def spectrum_records(ev) -> list[dict]:
+    """Every spectrum's figures as the JSON objects documented in docs/output-formats.md.
+
+    The figures and where they sit come from the figure registry (:mod:`lumeval.figures`,
+    ``json_path``); each figure is read once for all spectra."""
+    from .. import figures
+
+    n = len(ev)
+    values = {f.name: f.value(ev) for f in figures.FIGURES.values()}
+    out = []
+    for i in range(n):
+        defined = math.isfinite(float(ev.cct_K[i]))
+        rec: dict = {
+            "name": ev.spectra.names[i],
+            "source": ev.spectra.sources[i],
+            "X": _num(ev.XYZ[i, 0]),
+            "Y": _num(ev.XYZ[i, 1]),
+            "Z": _num(ev.XYZ[i, 2]),
+        }
+        for f in figures.FIGURES.values():
+            _put(rec, f.json_path, _num(values[f.name][i]))
+            if f.name == "cct_K":
+                rec["cct_undefined_reason"] = ev.cct_reason[i] or None
+        rec.setdefault("cri", {})["reference"] = ev.cri.reference[i] if defined else None
+        rec.setdefault("tm30", {})["reference"] = ev.tm30.reference[i] if defined else None
+        rec["warnings"] = list(ev.warnings[i])
+        out.append(rec)
+    return out
+
+
 def spectrum_record(ev, i: int) -> dict:
     """One spectrum's figures as the JSON object documented in docs/output-formats.md."""
-    cri, tm, ph = ev.cri, ev.tm30, ev.photometry
-    cct = _num(ev.cct_K[i])
-    return {
-        "name": ev.spectra.names[i],
-        "source": ev.spectra.sources[i],
-        "X": _num(ev.XYZ[i, 0]),
-        "Y": _num(ev.XYZ[i, 1]),
-        "Z": _num(ev.XYZ[i, 2]),
-        "x": _num(ev.x[i]),
-        "y": _num(ev.y[i]),
-        "u": _num(ev.u[i]),
-        "v": _num(ev.v[i]),
-        "u_prime": _num(ev.u_prime[i]),
-        "v_prime": _num(ev.v_prime[i]),
-        "cct_K": cct,
-        "cct_undefined_reason": ev.cct_reason[i] or None,
-        "duv": _num(ev.duv[i]),
-        "cri": {
-            "Ra": _num(cri.Ra[i]),
-            "R": {f"R{k + 1}": _num(cri.R[i, k]) for k in range(14)},
-            "dc": _num(cri.dc[i]),
-            "reference": cri.reference[i] if cct is not None else None,
-        },
-        "cie2017": {"Rf": _num(ev.cie2017_Rf[i])},
-        "tm30": {
-            "Rf": _num(tm.Rf[i]),
-            "Rg": _num(tm.Rg[i]),
-            "Rf_h": _nums(tm.Rf_h[i]),
-            "Rcs_h": _nums(tm.Rcs_h[i]),
-            "Rhs_h": _nums(tm.Rhs_h[i]),
-            "reference": tm.reference[i] if cct is not None else None,
-        },
-        "ler_lm_per_W": _num(ph.ler_lm_per_W[i]),
-        "sp_ratio": _num(ph.sp_ratio[i]),
-        "melanopic_der": _num(ph.melanopic_der[i]),
-        "peak_nm": _num(ph.peak_nm[i]),
-        "warnings": list(ev.warnings[i]),
-    }
+    return spectrum_records(ev)[i]
 
 
 def evaluation_document(ev) -> dict:
@@ -82,7 +96,7 @@ def evaluation_document(ev) -> dict:
             "end_nm": _num(ev.spectra.wavelengths_nm[-1]),
             "step_nm": ev.spectra.spacing_nm,
         },
-        "spectra": [spectrum_record(ev, i) for i in range(len(ev))],
+        "spectra": spectrum_records(ev),
         "cautions": list(CAUTIONS),
     }
 
@@ -91,32 +105,38 @@ def to_json(ev) -> str:
     return json.dumps(evaluation_document(ev), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
-#: Column order of the per-spectrum CSV (one row per spectrum).
-CSV_COLUMNS: tuple[str, ...] = (
-    ("name", "source", "x", "y", "u_prime", "v_prime", "cct_K", "duv", "Ra")
-    + tuple(f"R{k}" for k in range(1, 15))
-    + ("dc", "cie2017_Rf", "Rf", "Rg")
-    + tuple(f"Rf_h{j}" for j in range(1, 17))
-    + tuple(f"Rcs_h{j}" for j in range(1, 17))
-    + tuple(f"Rhs_h{j}" for j in range(1, 17))
-    + ("ler_lm_per_W", "sp_ratio", "melanopic_der", "peak_nm", "warnings")
-)
+def csv_columns() -> tuple[str, ...]:
+    """Column order of the per-spectrum CSV (one row per spectrum): name, source, every figure
+    the registry marks for the CSV (:mod:`lumeval.figures`), warnings."""
+    from .. import figures
+
+    return ("name", "source") + tuple(f.name for f in figures.FIGURES.values() if f.csv) + ("warnings",)
+
+
+def __getattr__(name: str):
+    if name == "CSV_COLUMNS":  # the column order as it stands in the registry
+        return csv_columns()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def csv_rows(ev):
-    """Yield one dict per spectrum with the :data:`CSV_COLUMNS` keys (numbers unrounded)."""
+    """Yield one dict per spectrum with the :func:`csv_columns` keys (numbers unrounded)."""
+    from .. import figures
+
+    cols = [figures.FIGURES[c] for c in csv_columns()[2:-1]]
+    values = {f.name: f.value(ev) for f in cols}
     for i in range(len(ev)):
         row = {"name": ev.spectra.names[i], "source": ev.spectra.sources[i]}
-        for col in CSV_COLUMNS[2:-1]:
-            v = float(ev.figure(col)[i])
-            row[col] = repr(v) if math.isfinite(v) else ""
+        for f in cols:
+            v = float(values[f.name][i])
+            row[f.name] = repr(v) if math.isfinite(v) else ""
         row["warnings"] = " | ".join(ev.warnings[i])
         yield row
 
 
 def to_csv(ev) -> str:
     buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=list(CSV_COLUMNS), lineterminator="\n")
+    w = csv.DictWriter(buf, fieldnames=list(csv_columns()), lineterminator="\n")
     w.writeheader()
     for row in csv_rows(ev):
         w.writerow(row)

@@ -2,10 +2,10 @@
 
 Layout (our own): one table per group of up to four spectra, side by side, with the figures in
 the order a user decides with them: chromaticity -> colour rendering -> fidelity and gamut ->
-photometry; then the notes about each spectrum; then the cautions. Figures are rounded as the
-standards report them (x, y, u', v' to 4 decimals; CCT to 1 K; Duv to 4 decimals; Ra, Ri, Rf,
-Rg and hue-bin Rf,h to integers; Rcs,h to whole percent). Undefined figures print as "n/a"
-with the reason in the notes, never as a number.
+photometry; then the notes about each spectrum; then the cautions. Rows, labels, units and
+number formats come from the figure registry (:mod:`lumeval.figures`: x, y, u', v' to 4
+decimals; CCT to 1 K; Duv to 4 decimals; Ra, Ri, Rf, Rg and hue-bin Rf,h to integers; Rcs,h to
+whole percent). Undefined figures print as "n/a" with the reason in the notes, never as a number.
 """
 
 from __future__ import annotations
@@ -25,7 +25,6 @@ def _hue_table(ev, idx):
     from rich import box
     from rich.table import Table
 
-    tm = ev.tm30
     t = Table(
         title="TM-30 hue bins (local fidelity Rf,h; chroma shift Rcs,h in %; hue shift Rhs,h)",
         title_justify="left",
@@ -38,57 +37,59 @@ def _hue_table(ev, idx):
         t.add_column(f"{name}\nRf,h", justify="right")
         t.add_column("Rcs,h", justify="right")
         t.add_column("Rhs,h", justify="right")
+    from .. import figures
+
     for j in range(16):
         cells = []
+        fs = [figures.FIGURES[f"{p}{j + 1}"] for p in ("Rf_h", "Rcs_h", "Rhs_h")]
+        vals = [f.value(ev) for f in fs]
         for i in idx:
-            cells += [_fmt(tm.Rf_h[i, j], "int"), _fmt(tm.Rcs_h[i, j], "+.0f"), _fmt(tm.Rhs_h[i, j], "+.2f")]
+            cells += [f.format(v[i]) for f, v in zip(fs, vals)]
         t.add_row(f"h{j + 1:<2} {22.5 * j:5.1f}-{22.5 * (j + 1):5.1f}°", *cells)
     return t
 
 
-def _fmt(v, spec: str) -> str:
-    f = float(v)
-    if not math.isfinite(f):
-        return "n/a"
-    if spec == "int":
-        spec = ".0f"
-    text = format(f, spec)
-    # a value that rounds to zero prints without a sign ("-0" or "+0.00" would suggest a direction)
-    if float(text) == 0.0:
-        text = format(0.0, spec.replace("+", ""))
-    return text
+#: Key figures printed on one row together (when both are key figures of the same group).
+_JOINED: tuple[tuple[str, str], ...] = (("x", "y"), ("u_prime", "v_prime"))
 
 
 def _rows(ev, idx):
-    """(section, label, [cell per spectrum]) rows for the spectra ``idx``."""
-    cri, tm, ph = ev.cri, ev.tm30, ev.photometry
+    """(section, label, [cell per spectrum]) rows for the spectra ``idx``.
+
+    Generated from the figure registry (:mod:`lumeval.figures`): one section per group, one
+    row per key figure with the registry's label, unit and number format; x, y and u′, v′ share
+    a row; the colour-rendering section adds the other special indices and the reference."""
+    from .. import figures
+
     rows = []
-
-    def add(section, label, fn):
-        rows.append((section, label, [fn(i) for i in idx]))
-
-    S1 = "Chromaticity (CIE 1931 2°)"
-    add(S1, "x, y", lambda i: f"{_fmt(ev.x[i], '.4f')}, {_fmt(ev.y[i], '.4f')}")
-    add(S1, "u', v' (CIE 1976)", lambda i: f"{_fmt(ev.u_prime[i], '.4f')}, {_fmt(ev.v_prime[i], '.4f')}")
-    add(S1, "CCT (K)", lambda i: _fmt(ev.cct_K[i], ".0f"))
-    add(S1, "Duv", lambda i: _fmt(ev.duv[i], "+.4f"))
-    S2 = "Colour rendering (CIE 13.3)"
-    add(S2, "Ra", lambda i: _fmt(cri.Ra[i], "int"))
-    add(S2, "R9 (strong red)", lambda i: _fmt(cri.R[i, 8], "int"))
-    add(S2, "R1-R8", lambda i: " ".join(_fmt(v, "int") for v in cri.R[i, :8]))
-    add(S2, "R10-R14", lambda i: " ".join(_fmt(v, "int") for v in cri.R[i, 9:14]))
-    add(S2, "DC (validity < 0.0054)", lambda i: _fmt(cri.dc[i], ".4f"))
-    add(S2, "reference", lambda i: cri.reference[i] if math.isfinite(float(ev.cct_K[i])) else "n/a")
-    S3 = "Fidelity and gamut (CIE 224:2017 / TM-30)"
-    add(S3, "Rf", lambda i: _fmt(tm.Rf[i], "int"))
-    add(S3, "Rg", lambda i: _fmt(tm.Rg[i], "int"))
-    add(S3, "Rf,h1 (red)", lambda i: _fmt(tm.Rf_h[i, 0], "int"))
-    add(S3, "Rcs,h1 (red chroma, %)", lambda i: _fmt(tm.Rcs_h[i, 0], "+.0f"))
-    S4 = "Photometry"
-    add(S4, "LER (lm/W)", lambda i: _fmt(ph.ler_lm_per_W[i], ".0f"))
-    add(S4, "S/P ratio", lambda i: _fmt(ph.sp_ratio[i], ".2f"))
-    add(S4, "melanopic DER", lambda i: _fmt(ph.melanopic_der[i], ".3f"))
-    add(S4, "peak (nm)", lambda i: _fmt(ph.peak_nm[i], ".0f"))
+    for group, figs in figures.by_group():
+        title = figures.GROUPS[group]
+        shown = [f for f in figs if f.summary]
+        names = [f.name for f in shown]
+        done: set[str] = set()
+        for f in shown:
+            if f.name in done:
+                continue
+            pair = next((p for p in _JOINED if f.name == p[0] and p[1] in names), None)
+            if pair is not None:
+                a, b = figures.FIGURES[pair[0]], figures.FIGURES[pair[1]]
+                va, vb = a.value(ev), b.value(ev)
+                rows.append((title, f"{a.label}, {b.label}", [f"{a.format(va[i])}, {b.format(vb[i])}" for i in idx]))
+                done.update(pair)
+                continue
+            v = f.value(ev)
+            rows.append((title, f.row_label, [f.format(v[i]) for i in idx]))
+            done.add(f.name)
+        if group == "colour rendering":
+            for lo, hi in ((1, 8), (10, 14)):
+                fs = [figures.FIGURES[f"R{k}"] for k in range(lo, hi + 1) if f"R{k}" in figures.FIGURES]
+                vals = [f.value(ev) for f in fs]
+                rows.append((title, f"R{lo}-R{hi}", [" ".join(f.format(v[i]) for f, v in zip(fs, vals)) for i in idx]))
+            dc = figures.FIGURES.get("dc")
+            if dc is not None and not dc.summary:
+                v = dc.value(ev)
+                rows.append((title, dc.row_label, [dc.format(v[i]) for i in idx]))
+            rows.append((title, "reference", [ev.cri.reference[i] if math.isfinite(float(ev.cct_K[i])) else "n/a" for i in idx]))
     return rows
 
 

@@ -29,30 +29,25 @@ _STYLE = {"pass": "green", "fail": "bold red", "indeterminate": "bold yellow", "
 _CLAIM_WORD = {"supported": "✔ supported", "contradicted": "✘ CONTRADICTED", "not checkable": "– not checkable"}
 _CLAIM_STYLE = {"supported": "green", "contradicted": "bold red", "not checkable": "yellow"}
 
-#: Display precision per figure (format spec for values; margins use the same with a sign).
-_SPEC = {
-    "cct_K": ".0f",
-    "duv": ".4f",
-    "x": ".4f",
-    "y": ".4f",
-    "u": ".4f",
-    "v": ".4f",
-    "u_prime": ".4f",
-    "v_prime": ".4f",
-    "dc": ".4f",
-    "sp_ratio": ".3f",
-    "melanopic_der": ".3f",
-    "peak_nm": ".0f",
-    "ler_lm_per_W": ".1f",
-}
-
-
 def _spec(figure: str) -> str:
-    if figure in _SPEC:
-        return _SPEC[figure]
-    if figure.startswith("Rhs_h"):
-        return ".3f"
-    return ".1f"  # indices and Rcs (%): one decimal so 89.6 against 90 is visible
+    """The human format of ``figure`` without a sign (the figure registry's decimals; margins add
+    a sign and, where a margin would print as zero, more decimals)."""
+    from .. import figures
+
+    try:
+        return figures.get(figure).spec(sign=False)
+    except KeyError:
+        return ".1f"
+
+
+def _value_spec(figure: str) -> str:
+    """The human format of a measured value of ``figure`` (with a sign for signed figures such as Duv)."""
+    from .. import figures
+
+    try:
+        return figures.get(figure).spec()
+    except KeyError:
+        return ".1f"
 
 
 def _f(v, spec: str, unit: str = "") -> str:
@@ -98,7 +93,7 @@ def measured_text(r, i: int) -> str:
     if r.kind == "sdcm":
         return f"{_f(r.measured[i], _more('.2f', _extra_decimals(r.margin[i], '.2f')))} steps"
     spec = _spec(r.figure)
-    return _f(r.measured[i], _more(spec, _extra_decimals(r.margin[i], spec)), r.unit)
+    return _f(r.measured[i], _more(_value_spec(r.figure), _extra_decimals(r.margin[i], spec)), r.unit)
 
 
 def margin_text(r, i: int) -> str:

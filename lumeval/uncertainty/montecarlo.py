@@ -296,7 +296,7 @@ class UncertaintyResult:
     ----------
     names : tuple of str (N,)
     quantities : tuple of str (F,)
-        Figure names (:data:`lumeval.engine.FIGURE_NAMES`) followed by any extra quantities
+        Figure names (:func:`lumeval.figures.names`) followed by any extra quantities
         (e.g. clause margins) the caller asked for.
     measured : ndarray (N, F)
         The value computed from the data as given (the value judged).
@@ -397,7 +397,7 @@ def propagate(
     settings : MonteCarloSettings, optional
         Number of draws (or adaptive), seed, coverage probability.
     figures : tuple of str, optional
-        Figures to summarise (default: every name in :data:`lumeval.engine.FIGURE_NAMES`).
+        Figures to summarise (default: every figure of the registry, :func:`lumeval.figures.names`).
     extra : callable, optional
         ``extra(evaluation) -> {name: ndarray (n,)}``: further quantities computed from an
         :class:`~lumeval.engine.Evaluation` of n spectra (e.g. a clause's signed distance to a
@@ -430,11 +430,11 @@ def propagate(
     draws so far. All h·M_b draws then give the results. It also stops at
     ``settings.max_draws`` with ``stabilised = False``.
     """
-    from ..engine import FIGURE_NAMES
+    from ..figures import names as _figure_names
 
     instrument = instrument or InstrumentModel()
     settings = settings or MonteCarloSettings()
-    names_f = tuple(figures) if figures else FIGURE_NAMES
+    names_f = tuple(figures) if figures else _figure_names()
     if evaluation is None:
         evaluation = evaluate_fn(spectra) if evaluate_fn else _engine(spectra, chunk_size)
     prepared = evaluation.spectra

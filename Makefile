@@ -15,7 +15,8 @@ $(STAMP): pyproject.toml
 venv: $(STAMP)
 
 # The demo scenario (invented): five candidate downlights for a library renovation, a tender
-# criteria file, one supplier's datasheet claims, and a 200-module production lot. Verdicts that
+# criteria file, one supplier's datasheet claims, a 200-module production lot, and eight weekly
+# lots of the same module recorded into a history store (with a planted drift). Verdicts that
 # fail by design exit 1; the `|| test $$? -eq 1` lets the demo go on (exit 2 would still stop it).
 DEMO_OUT := spectra_demo/out
 LUMEVAL := $(VENV)/bin/lumeval
@@ -23,6 +24,7 @@ LUMEVAL := $(VENV)/bin/lumeval
 demo: $(STAMP)
 	$(PY) spectra_demo/generate.py
 	$(PY) spectra_demo/generate_lot.py
+	$(PY) spectra_demo/generate_weekly.py
 	mkdir -p $(DEMO_OUT)
 	@echo; echo "== 1. Every figure for the five candidate downlights =="
 	$(LUMEVAL) inspect spectra_demo/downlights/*.csv
@@ -35,6 +37,16 @@ demo: $(STAMP)
 	@echo; echo "== 4. A production lot of 200 modules (HTML report: $(DEMO_OUT)/lot_report.html) =="
 	$(LUMEVAL) lot spectra_demo/lot_2026w48 --criteria spectra_demo/lot_criteria.toml --quiet \
 		--html $(DEMO_OUT)/lot_report.html --samples-csv $(DEMO_OUT)/lot_samples.csv || test $$? -eq 1
+	@echo; echo "== 5. Eight weekly lots recorded into a history store, with drift alarms (store: $(DEMO_OUT)/history.db) =="
+	rm -f $(DEMO_OUT)/history.db $(DEMO_OUT)/history.db-wal $(DEMO_OUT)/history.db-shm
+	for w in 40 41 42 43 44 45 46 47; do \
+		$(LUMEVAL) lot spectra_demo/weekly/AD30-2026w$$w.csv --criteria spectra_demo/lot_criteria.toml --quiet \
+			--store $(DEMO_OUT)/history.db --lot-id 2026-w$$w --trend-figures duv,cct_K >/dev/null || exit $$?; \
+	done
+	$(LUMEVAL) history list --store $(DEMO_OUT)/history.db
+	@echo; echo "== 6. The Duv trend over the weeks: the planted phosphor drift (HTML: $(DEMO_OUT)/trend_duv.html) =="
+	$(LUMEVAL) history trend --store $(DEMO_OUT)/history.db --figure duv --baseline-count 5 \
+		--html $(DEMO_OUT)/trend_duv.html
 	@echo; echo "Reports written to $(DEMO_OUT)/ (open the .html files in a browser)."
 
 test: $(STAMP)

@@ -119,9 +119,14 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
 def _trend_for(store, figure: str, product):
     """The alarm's trend: the lots of the recorded lot's product, default baseline (never the
     newest lot)."""
-    from ..store.trend import trend
+    from ..store.db import StoreError
+    from ..store.trend import MIN_ALARM_BASELINE, trend
 
-    return trend(store, figure, product=product, exclude_last=True, exact_product=True)
+    tr = trend(store, figure, product=product, exclude_last=True, exact_product=True)
+    if int(tr.baseline.sum()) < MIN_ALARM_BASELINE:
+        raise StoreError(f"{int(tr.baseline.sum())} earlier lots of this product; alarms start with "
+                         f"{MIN_ALARM_BASELINE}")
+    return tr
 
 
 # --------------------------------------------------------------------------- commands

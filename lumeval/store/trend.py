@@ -46,6 +46,10 @@ CHROMATICITY_FIGURES = {
 #: Default number of baseline lots (Montgomery §6.3.1 and §5.3.7 suggest 20-25 subgroups for
 #: trial limits; memory).
 DEFAULT_BASELINE_COUNT = 20
+#: Alarms after recording (``lot --trend-figures``) start once this many earlier lots can form
+#: the baseline: trial limits from two or three lots signal by chance too often (common
+#: practice, no source).
+MIN_ALARM_BASELINE = 5
 
 SOURCES = (
     "Montgomery, D. C., Introduction to Statistical Quality Control, 6th ed., Wiley 2009: §6.3 X̄ and s charts, "

@@ -53,10 +53,12 @@ test: $(STAMP)
 	$(PY) -m pytest
 
 # Benchmarks (not tests): start-up times; engine vs a per-spectrum colour-science loop on 2,000
-# spectra, and 100,000 spectra through `lumeval lot` with peak memory (docs/lots.md).
+# spectra, and 100,000 spectra through `lumeval lot` with peak memory (docs/lots.md); the history
+# store: a 10,000-sample lot and a 500-lot trend on SQLite and PostgreSQL (docs/history.md).
 bench: $(STAMP)
 	$(PY) bench/startup.py
 	$(PY) bench/benchmark.py
+	$(PY) bench/bench_store.py
 
 # On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
 fuzz: $(STAMP)

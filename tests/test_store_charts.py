@@ -136,9 +136,12 @@ def test_range_factors_match_the_published_table(n, d2, d4):
     assert_allclose(charts.d4(n), d4, atol=0.001)
 
 
-def test_range_factors_n2_closed_form():
-    assert_allclose(charts.d2(2), 2 / math.sqrt(math.pi), rtol=1e-8)
-    assert_allclose(charts.d3(2), math.sqrt(2 - 4 / math.pi), rtol=1e-6)
+def test_range_factors_n2_closed_form_agrees_with_the_integral():
+    """n = 2 uses the closed forms d2 = 2/√π, d3 = √(2 − 4/π); the general integral (used for
+    n > 2) gives the same at n = 2."""
+    charts._range_moments.cache_clear()
+    d2_int, d3_int = charts._range_moments.__wrapped__(2.000001)  # the integral path (n is not 2)
+    assert_allclose([charts.d2(2), charts.d3(2)], [d2_int, d3_int], rtol=1e-5)
 
 
 # Montgomery 6th ed. Table 9.1 (30 observations, the first 20 from N(10, 1), then mean 11)

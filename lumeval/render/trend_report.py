@@ -48,15 +48,28 @@ def print_list(lots, store: str, console=None) -> None:
     if not lots:
         console.print(Text(f"No lots recorded in {plain(store)} (with these filters)."))
         return
-    t = Table(title=Text(f"Lots recorded in {plain(store)}"), title_justify="left")
-    for col, just in (("lot", "right"), ("label", "left"), ("product", "left"), ("recorded (UTC)", "left"),
-                      ("samples", "right"), ("yield %", "right"), ("verdict", "left")):
-        t.add_column(col, justify=just, no_wrap=col not in ("label", "product"))
+    products = {lot.product for lot in lots}
+    one = len(products) == 1
+    title = f"Lots recorded in {plain(store)}" + (f" — product: {plain(next(iter(products)))}" if one and lot_product(lots) else "")
+    t = Table(title=Text(title), title_justify="left")
+    cols = [("lot", "right"), ("label", "left"), ("product", "left"), ("recorded (UTC)", "left"),
+            ("samples", "right"), ("yield %", "right"), ("verdict", "left")]
+    if one:
+        cols = [c for c in cols if c[0] != "product"]
+    for col, just in cols:
+        t.add_column(col, justify=just, no_wrap=col != "product")
     for lot in lots:
         verdict = {"pass": "✓ pass", "fail": "✗ FAIL"}.get(lot.verdict, lot.verdict)
-        t.add_row(str(lot.id), Text(plain(lot.label or "")), Text(plain(lot.product or "")), lot.recorded_at,
-                  str(lot.samples), _fmt(lot.yield_percent, ".1f"), verdict)
+        row = [str(lot.id), Text(plain(lot.label or "")), Text(plain(lot.product or "")), lot.recorded_at,
+               str(lot.samples), _fmt(lot.yield_percent, ".1f"), verdict]
+        if one:
+            del row[2]
+        t.add_row(*row)
     console.print(t)
+
+
+def lot_product(lots):
+    return lots[0].product if lots else None
 
 
 # --------------------------------------------------------------------------- trend, terminal
@@ -104,7 +117,8 @@ def print_trend(tr, console=None) -> None:
     for s in tr.signals:
         flagged.setdefault(s.index, []).append(f"{s.chart}:{s.rule}")
     t = Table()
-    cols = ["lot", "label", "n", "mean", "s" if tr.chart == "xbar-s" else "MR", "EWMA", "signals"]
+    cols = ["lot", "label", "n", "mean" if tr.chart == "xbar-s" else "value", "s" if tr.chart == "xbar-s" else "MR",
+            "EWMA", "signals"]
     for c in cols:
         t.add_column(c, justify="left" if c in ("label", "signals") else "right")
     for i, p in enumerate(tr.points):

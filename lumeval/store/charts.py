@@ -48,11 +48,10 @@ def c4(n) -> np.ndarray:
     Montgomery, Appendix VI and §6.3.1 (the definition); computed with log-gamma so that it
     holds for n in the thousands. NaN for n < 2.
     """
-    from scipy.special import gammaln
-
     n = np.asarray(n, dtype=float)
+    lg = np.vectorize(lambda a: math.lgamma(a) if a > 0 else math.nan, otypes=[float])  # no scipy import
     with np.errstate(invalid="ignore", divide="ignore"):
-        out = np.sqrt(2.0 / (n - 1.0)) * np.exp(gammaln(n / 2.0) - gammaln((n - 1.0) / 2.0))
+        out = np.sqrt(2.0 / (n - 1.0)) * np.exp(lg(n / 2.0) - lg((n - 1.0) / 2.0))
     return np.where(n >= 2, out, np.nan)
 
 
@@ -84,11 +83,13 @@ def _range_moments(n: int) -> tuple[float, float]:
     The second moment uses E[W²] = 2 ∫_0^∞ w P(W > w) dw with
     P(W ≤ w) = n ∫ φ(x) (Φ(x) − Φ(x − w))^(n−1) dx.
     """
+    if n < 2:
+        return float("nan"), float("nan")
+    if n == 2:  # |X1 − X2| with X1 − X2 ~ N(0, 2): the closed forms (the moving range of charts)
+        return 2.0 / math.sqrt(math.pi), math.sqrt(2.0 - 4.0 / math.pi)
     from scipy import integrate
     from scipy.stats import norm
 
-    if n < 2:
-        return float("nan"), float("nan")
     d2 = integrate.quad(lambda x: 1.0 - norm.sf(x) ** n - norm.cdf(x) ** n, -12, 12, limit=200)[0]
 
     def cdf_w(w: float) -> float:

@@ -310,10 +310,11 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
 
 
 def write_trend_html(path, tr, **kwargs) -> Path:
-    from .html import _atomic_write
+    """Write the report atomically (:func:`lumeval._io.write_bytes`: regular files only)."""
+    from .._io import write_bytes
 
     path = Path(path)
-    _atomic_write(path, render_trend_html(tr, **kwargs).encode("utf-8"))
+    write_bytes(path, render_trend_html(tr, **kwargs).encode("utf-8"), option="--html")
     return path
 
 

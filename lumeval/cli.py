@@ -23,6 +23,8 @@ _COMMAND_MODULES = [
     "lumeval.commands.criteria_cmd",
     "lumeval.commands.lot",
     "lumeval.commands.history",
+    "lumeval.commands.mix",
+    "lumeval.commands.series",
 ]
 
 app = typer.Typer(

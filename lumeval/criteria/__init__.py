@@ -22,6 +22,7 @@ from .verdicts import FAIL, INDETERMINATE, NOT_JUDGED, PASS, CheckResult, Clause
 # Lot clause kinds (SCOPE = "lot") are registered with the package, so that every reader of a
 # criteria file — `check`, `lot`, `criteria explain` — knows the same kinds.
 from . import lot_clauses  # noqa: E402,F401
+from . import range_clauses  # noqa: E402,F401  (series_shift, track_locus: judged over settings)
 
 
 def check(evaluation, criteria: Criteria) -> CheckResult:

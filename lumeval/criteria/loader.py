@@ -264,7 +264,12 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
                 raise where.error(path, key, f"must be a string, got {v!r}", f'write {key} = "..."')
             common[key] = v
         try:
-            clauses.append(cls.parse(table, common))
+            clause = cls.parse(table, common)
+            if "over" in table:  # a clause judged over a range of settings (tunable products)
+                from .range_clauses import apply_over
+
+                clause = apply_over(clause, table["over"])
+            clauses.append(clause)
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
     warnings = _contradictions(clauses, file)

@@ -159,6 +159,9 @@ COMMON_KEYS: dict[str, KeySpec] = {
         KeySpec("id", "non-empty string, unique in the file", "a short name for the clause in reports (default: C1, C2, ...)"),
         KeySpec("label", "string", "the requirement in your own words, shown in reports"),
         KeySpec("note", "string", "free text carried into the tender wording"),
+        # judged by lumeval.tunable over the settings of a mix or series (criteria/range_clauses.py)
+        KeySpec("over", "array of two numbers [low, high]", "judge the clause at every setting from low to high inclusive "
+                "(`lumeval mix`, `lumeval series`; in the settings' unit)"),
     )
 }
 
@@ -708,8 +711,9 @@ class Criteria:
         notes: list[str] = [f"WARNING: {w}" for w in self.warnings]
         for c in self.clauses:
             if c.SCOPE != "sample":
+                judged_by = getattr(c, "JUDGED_BY", f"`lumeval {c.SCOPE}`")
                 notes.append(f"clause {c.clause_id!r} (kind {c.KIND!r}) applies to a whole {c.SCOPE}: it is judged by "
-                             f"`lumeval {c.SCOPE}`, not per spectrum")
+                             f"{judged_by}, not per spectrum")
                 continue
             results.extend(c.evaluate(ev))
         n = len(np.asarray(ev.x))

@@ -1,0 +1,382 @@
+"""Renderings of ``lumeval mix`` and ``lumeval series``: terminal tables, JSON and CSV.
+
+Nothing is computed here except the labels of ANSI C78.377 categories each setting falls in
+(a lookup in :mod:`lumeval.criteria.regions`). Text from files (channel and spectrum names,
+file names) is untrusted: it reaches the terminal only as plain rich ``Text`` with control
+characters removed (never parsed as markup), and CSV cells that a spreadsheet would run as a
+formula are prefixed with an apostrophe.
+
+Terminal layout (our own): a heading with the model and the notes; one row per setting with the
+weights (mix) or the file and Δu′v′ (series), the headline figures (CCT, Duv, Ra, R9, Rf, Rg,
+LER), the ANSI category the chromaticity falls in and the setting's verdict; then one row per
+clause with its verdict over the range and the worst setting; then the cautions. "not
+reachable" is spelled out in every figure cell of a setting the channels cannot reach. Every
+figure of every setting is in the JSON and CSV outputs.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import re
+
+import numpy as np
+
+from .tables import CAUTIONS, JSON_SCHEMA_VERSION, spectrum_record
+
+#: The headline figures of the terminal tables and the figures-versus-setting chart.
+HEADLINE = (("cct_K", "CCT K", ".0f"), ("duv", "Duv", "+.4f"), ("Ra", "Ra", ".1f"), ("R9", "R9", ".1f"),
+            ("Rf", "Rf", ".1f"), ("Rg", "Rg", ".1f"), ("ler_lm_per_W", "LER lm/W", ".0f"))
+
+NOT_REACHABLE = "not reachable"
+
+_CTRL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
+def clean(s) -> str:
+    """Untrusted text with control and bidirectional-override characters removed."""
+    return _CTRL.sub("", str(s))
+
+
+def _csv_cell(s) -> str:
+    s = clean(s)
+    return "'" + s if s[:1] in ("=", "+", "-", "@", "\t", "\r") else s
+
+
+def _f(v, spec: str) -> str:
+    v = float(v)
+    if not math.isfinite(v):
+        return "n/a"
+    t = format(v, spec)
+    return t if float(t) != 0 else format(0.0, spec.replace("+", ""))
+
+
+def _num(v):
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def ansi_category(upvp: np.ndarray) -> list[str]:
+    """The ANSI C78.377-2017 nominal CCT category whose quadrangle holds each point ("" if none)."""
+    from ..criteria import regions
+
+    pts = np.atleast_2d(np.asarray(upvp, dtype=float))
+    out = [""] * pts.shape[0]
+    fin = np.all(np.isfinite(pts), axis=1)
+    for nom in regions.ANSI_C78377_2017:
+        inside = np.zeros(pts.shape[0], dtype=bool)
+        inside[fin] = regions.ansi_quadrangle(nom).contains(pts[fin])
+        for i in np.flatnonzero(inside):
+            if not out[i]:
+                out[i] = f"{nom} K"
+    return out
+
+
+def _upvp(result) -> np.ndarray:
+    return np.stack([result.figure("u_prime"), result.figure("v_prime")], axis=-1)
+
+
+def _per_setting(report):
+    """(labels, available, reasons) of a mix or series report."""
+    r = report.result
+    if report.kind == "mix":
+        return r.names, r.reachable, r.reason
+    return r.labels, np.ones(len(r), dtype=bool), ("",) * len(r)
+
+
+# --------------------------------------------------------------------------- terminal
+
+
+def _text(s, style: str | None = None):
+    from rich.text import Text
+
+    return Text(clean(s), style=style or "")
+
+
+_WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "not judged": "– NOT JUDGED", "indeterminate": "? INDETERMINATE", "n/a": "·"}
+_STYLE = {"pass": "green", "fail": "bold red", "not judged": "bold yellow", "indeterminate": "bold yellow", "n/a": "dim"}
+
+
+def renderables(report) -> list:
+    """Rich renderables of a :class:`lumeval.tunable.api.TunableReport`."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    r = report.result
+    labels, avail, reasons = _per_setting(report)
+    out = []
+    head = Text()
+    if report.kind == "mix":
+        head.append(f"Channel mix — {len(r.channels)} channels, {len(r)} setpoints\n", style="bold")
+        head.append("channels: ")
+        head.append(clean(", ".join(r.channel_names)) + "\n")
+        head.append(f"method: {r.method}\n")
+    else:
+        head.append(f"Measured series — {len(r)} spectra\n", style="bold")
+        head.append(f"settings from: {clean(r.setting_source)}; unit: {r.unit or '(none)'}\n")
+        head.append(f"Δu′v′ measured from: {r.reference}\n")
+    out.append(head)
+    for note in _notes(report):
+        out.append(_text(f"note: {note}", "dim"))
+
+    check = report.check
+    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, title_justify="left",
+              title="Figures at each setting" + (" (weights: radiant-power fraction of full drive, largest 1)" if report.kind == "mix" else ""))
+    t.add_column("setting", no_wrap=True, style="bold")
+    if report.kind == "mix":
+        for c in r.channel_names:
+            t.add_column(_text(f"w {c}"), justify="right", no_wrap=True)
+    else:
+        t.add_column("spectrum")
+        t.add_column("Δu′v′", justify="right", no_wrap=True)
+    for _, lab, _ in HEADLINE:
+        t.add_column(lab, justify="right", no_wrap=True)
+    t.add_column("ANSI", no_wrap=True)
+    if check is not None:
+        t.add_column("verdict")
+    cats = ansi_category(_upvp(r))
+    figs = {name: r.figure(name) for name, _, _ in HEADLINE}
+    for i in range(len(r)):
+        row = [_text(labels[i])]
+        if report.kind == "mix":
+            row += [_f(w, ".4f") for w in r.weights[i]]
+        else:
+            row += [_text(_short(r.evaluation.spectra.sources[i])), _f(r.delta_upvp[i], ".4f")]
+        if not avail[i]:
+            row += [Text(NOT_REACHABLE, style="bold yellow")] + [""] * (len(HEADLINE) - 1) + [""]
+        else:
+            row += [_f(figs[name][i], spec) for name, _, spec in HEADLINE] + [cats[i] or "—"]
+        if check is not None:
+            v = check.verdict(i)
+            row.append(Text(_WORD[v], style=_STYLE[v]))
+        t.add_row(*row)
+    out.append(t)
+    unreach = [i for i in range(len(r)) if not avail[i]]
+    if unreach:
+        which = ", ".join(labels[i] for i in unreach)
+        why = reasons[unreach[0]].removeprefix("not reachable: ")
+        out.append(_text(f"{len(unreach)} setpoint(s) not reachable ({which}): {why}", "yellow"))
+
+    if check is not None:
+        out.extend(_check_tables(check))
+    out.append(Text("\n".join(CAUTIONS), style="dim"))
+    return out
+
+
+def _short(source: str) -> str:
+    """A spectrum's source without its folders (``dir/a.csv#col`` -> ``a.csv#col``)."""
+    import os
+
+    return os.path.basename(str(source).partition("#")[0]) + ("#" + str(source).partition("#")[2] if "#" in str(source) else "")
+
+
+def _notes(report) -> list[str]:
+    """The run's notes, then each setting's warnings (prefixed with the setting; a warning that
+    every setting shares is given once, for all)."""
+    r = report.result
+    notes = list(r.notes)
+    ev = r.evaluation
+    if ev is not None:
+        labels = _per_setting(report)[0]
+        rows = list(np.flatnonzero(r.index >= 0)) if report.kind == "mix" else list(range(len(r)))
+        seen = set(notes)
+        common = set.intersection(*(set(w) for w in ev.warnings)) if len(ev.warnings) else set()
+        for w in sorted(common):
+            if w not in seen:
+                seen.add(w)
+                notes.append(f"every setting: {w}")
+        groups: dict[str, list[tuple[str, str]]] = {}
+        for k, ws in enumerate(ev.warnings):
+            for w in ws:
+                if w not in common:
+                    groups.setdefault(re.sub(r"[-+]?\d+(\.\d+)?", "#", w), []).append((labels[rows[k]], w))
+        for members in groups.values():
+            where = ", ".join(lab for lab, _ in members)
+            extra = "" if len(members) == 1 else f" (as at {members[0][0]}; each setting's own values are in the JSON output)"
+            notes.append(f"{where}: {members[0][1]}{extra}")
+        for w in ev.run_warnings:
+            if w not in seen:
+                seen.add(w)
+                notes.append(w)
+    if report.check is not None:
+        notes += list(report.check.notes)
+    return notes
+
+
+def _check_tables(check) -> list:
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, title="Criteria over the range: " + clean(check.criteria_file), title_justify="left")
+    t.add_column("", no_wrap=True)
+    t.add_column("clause")
+    t.add_column("applies at")
+    t.add_column("limit")
+    t.add_column("verdict")
+    t.add_column("worst setting")
+    t.add_column("worst value", justify="right")
+    t.add_column("margin", justify="right")
+    for rr in check.results:
+        res = rr.result
+        where = "every evaluated setting" if rr.over is None and res.kind not in ("series_shift", "track_locus") else (
+            "every setting" if rr.over is None else f"{rr.over[0]:g}–{rr.over[1]:g} {check.unit}".strip())
+        n_app = int(np.sum(rr.applies))
+        w = rr.worst
+        mark = ">>" if rr.range_outcome == "fail" else ""
+        t.add_row(
+            mark, _text(f"{res.clause_id}: {res.label}"), f"{where} ({n_app})", _text(res.limit_text),
+            Text(_WORD[rr.range_outcome], style=_STYLE[rr.range_outcome]),
+            _text(check.labels[w]) if w is not None else "—",
+            _value(res, w) if w is not None else "—",
+            _margin(res, w) if w is not None else "—",
+        )
+    out = [t]
+    for rr in check.results:
+        if rr.range_reason:
+            out.append(_text(f"{rr.result.clause_id}: not judged over the range: {rr.range_reason}", "yellow"))
+    n_fail = sum(rr.range_outcome == "fail" for rr in check.results)
+    n_open = sum(rr.range_outcome not in ("pass", "fail") for rr in check.results)
+    if n_fail:
+        line = Text(f"VERDICT: {n_fail} of {len(check.results)} requirements FAILED over the range", style="bold red")
+    elif n_open:
+        line = Text(f"VERDICT: {n_open} of {len(check.results)} requirements could not be judged over the range — not a pass",
+                    style="bold yellow")
+    else:
+        line = Text(f"VERDICT: all {len(check.results)} requirements met over the range", style="bold green")
+    out.append(line)
+    return out
+
+
+def _spec_of(res) -> str:
+    if res.figure in ("Δu'v'", "|Duv|", "duv", "u_prime", "v_prime", "x", "y", "u", "v"):
+        return ".4f"
+    if res.kind in ("ansi_quadrangle",):
+        return ".4f"
+    if res.figure == "cct_K":
+        return ".0f"
+    return ".1f"
+
+
+def _value(res, i: int) -> str:
+    return _f(res.measured[i], _spec_of(res)) + (f" {res.unit}" if res.unit and res.unit not in ("%",) and math.isfinite(float(res.measured[i])) else "")
+
+
+def _margin(res, i: int) -> str:
+    return _f(res.margin[i], "+" + _spec_of(res))
+
+
+# --------------------------------------------------------------------------- JSON
+
+
+def to_json(report) -> str:
+    """One JSON document (``"format": "lumeval-mix"`` or ``"lumeval-series"``, see docs/tunable.md)."""
+    r = report.result
+    labels, avail, reasons = _per_setting(report)
+    ev = r.evaluation
+    cats = ansi_category(_upvp(r))
+    settings = []
+    for i in range(len(r)):
+        rec: dict = {"setting": _num(r.target_cct_K[i] if report.kind == "mix" else r.settings[i]), "label": labels[i]}
+        if report.kind == "mix":
+            rec["target_cct_K"] = _num(r.target_cct_K[i])
+            rec["target_duv"] = _num(r.target_duv[i])
+            rec["reachable"] = bool(avail[i])
+            rec["not_reachable_reason"] = reasons[i] or None
+            rec["weights"] = {c: _num(w) for c, w in zip(r.channel_names, r.weights[i])}
+            k = int(r.index[i])
+        else:
+            rec["delta_upvp"] = _num(r.delta_upvp[i])
+            rec["reference_u_prime"] = _num(r.reference_upvp[i, 0])
+            rec["reference_v_prime"] = _num(r.reference_upvp[i, 1])
+            k = i
+        rec["ansi_category"] = cats[i] or None
+        rec["figures"] = spectrum_record(ev, k) if (ev is not None and k >= 0) else None
+        if report.check is not None:
+            rec["verdict"] = report.check.verdict(i)
+            rec["clauses"] = {
+                rr.result.clause_id: {"outcome": rr.outcome[i], "measured": _num(rr.result.measured[i]),
+                                      "margin": _num(rr.result.margin[i]), "reason": rr.reason[i] or None}
+                for rr in report.check.results
+            }
+        settings.append(rec)
+    doc: dict = {
+        "format": f"lumeval-{report.kind}",
+        "schema_version": JSON_SCHEMA_VERSION,
+        "inputs": list(report.inputs),
+        "notes": _notes(report),
+        "settings": settings,
+    }
+    if report.kind == "mix":
+        doc["channels"] = list(r.channel_names)
+        doc["method"] = r.method
+        doc["maximise"] = r.maximise
+    else:
+        doc["unit"] = r.unit
+        doc["setting_source"] = r.setting_source
+        doc["reference"] = r.reference
+    if report.check is not None:
+        c = report.check
+        doc["criteria"] = {
+            "file": c.criteria_file,
+            "identification": c.identification,
+            "exit_code": c.exit_code,
+            "overall": c.overall,
+            "clauses": [
+                {"id": rr.result.clause_id, "label": rr.result.label, "kind": rr.result.kind, "figure": rr.result.figure,
+                 "limit": rr.result.limit_text, "over": list(rr.over) if rr.over else None,
+                 "range_outcome": rr.range_outcome, "range_reason": rr.range_reason or None,
+                 "worst_setting": c.labels[rr.worst] if rr.worst is not None else None,
+                 "worst_measured": _num(rr.result.measured[rr.worst]) if rr.worst is not None else None,
+                 "worst_margin": _num(rr.result.margin[rr.worst]) if rr.worst is not None else None,
+                 "source": rr.result.source}
+                for rr in c.results
+            ],
+        }
+    doc["cautions"] = list(CAUTIONS)
+    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+# --------------------------------------------------------------------------- CSV
+
+
+def to_csv(report) -> str:
+    """One row per setting: setting, weights (mix) or Δu′v′ (series), every figure, each
+    clause's outcome (``clause:<id>``) and the setting's verdict."""
+    from ..engine import FIGURE_NAMES
+
+    r = report.result
+    labels, avail, reasons = _per_setting(report)
+    head = ["setting", "label"]
+    if report.kind == "mix":
+        head += ["reachable", "target_duv"] + [f"w:{_csv_cell(c)}" for c in r.channel_names]
+    else:
+        head += ["source", "delta_upvp"]
+    head += list(FIGURE_NAMES) + ["ansi_category"]
+    check = report.check
+    if check is not None:
+        head += [f"clause:{_csv_cell(rr.result.clause_id)}" for rr in check.results] + ["verdict"]
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(head)
+    figs = {n: r.figure(n) for n in FIGURE_NAMES}
+    cats = ansi_category(_upvp(r))
+
+    def cell(v):
+        v = float(v)
+        return repr(v) if math.isfinite(v) else ""
+
+    for i in range(len(r)):
+        row = [cell(r.target_cct_K[i] if report.kind == "mix" else r.settings[i]), _csv_cell(labels[i])]
+        if report.kind == "mix":
+            row += ["yes" if avail[i] else NOT_REACHABLE, cell(r.target_duv[i])] + [cell(x) for x in r.weights[i]]
+        else:
+            row += [_csv_cell(r.evaluation.spectra.sources[i]), cell(r.delta_upvp[i])]
+        row += [cell(figs[n][i]) for n in FIGURE_NAMES] + [cats[i]]
+        if check is not None:
+            row += [rr.outcome[i] for rr in check.results] + [check.verdict(i)]
+        w.writerow(row)
+    return buf.getvalue()

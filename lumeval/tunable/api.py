@@ -1,0 +1,288 @@
+"""Python twins of ``lumeval mix`` and ``lumeval series`` (files in, results out; no CLI library).
+
+::
+
+    from lumeval.tunable.api import mix_files, series_files
+    report = mix_files(["channels.csv"], "2700:6500:100", criteria="tunable.toml")
+    report.result.weights, report.result.figure("Ra"), report.check.exit_code
+
+    report = series_files(["dim_100pct.csv", "dim_10pct.csv"], reference="max")
+    report.result.delta_upvp
+
+This is the edge where files are read (spectra, manifests, criteria); the computation is in
+:mod:`lumeval.tunable.mix`, :mod:`lumeval.tunable.series` and :mod:`lumeval.tunable.judge`.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError, UsageError
+
+#: Where a series takes its settings from.
+SETTING_SOURCES = ("name", "metadata", "manifest")
+
+#: Largest manifest file read (a manifest lists file names and numbers).
+MAX_MANIFEST_BYTES = 4_000_000
+
+
+@dataclass(frozen=True)
+class TunableReport:
+    """What ``mix`` and ``series`` report: the result, the range check (None without
+    criteria), the criteria, and the inputs (for provenance)."""
+
+    kind: str  # "mix" or "series"
+    result: object  # MixResult or SeriesResult
+    check: object  # RangeCheck or None
+    criteria: object
+    inputs: tuple[str, ...]
+
+    @property
+    def exit_code(self) -> int:
+        return 0 if self.check is None else self.check.exit_code
+
+
+def read_channels(paths) -> tuple[object, tuple[str, ...]]:
+    """Read channel spectra (one wide file with a column per channel, or several files) and
+    bring them onto one computation grid. Returns (SpectrumSet, run notes).
+
+    Files on different grids are joined as docs/input-files.md §4 rule 4 says (all
+    interpolated to 1 nm on the union of their ranges, shorter ones extended by their end
+    values), and the run notes say so: a mix needs every channel on the same wavelengths.
+    """
+    from ..spectra.prepare import prepare
+    from ..spectra.read import read_spectra
+    from .mix import check_channels
+
+    raw = [read_spectra(p) for p in paths]
+    each = [prepare(s) for s in raw]
+    notes: list[str] = []
+    grids = {(s.wavelengths_nm.size, float(s.wavelengths_nm[0]), float(s.wavelengths_nm[-1]), s.spacing_nm) for s in each}
+    if len(grids) > 1:
+        joined = prepare(raw)
+        notes.append(
+            "channels on different wavelength grids: all brought onto one 1 nm grid over "
+            f"{joined.wavelengths_nm[0]:g}-{joined.wavelengths_nm[-1]:g} nm (Sprague interpolation, shorter data extended "
+            "by their end values; docs/input-files.md §4) so that they can be mixed"
+        )
+    else:
+        from ..spectra.model import SpectrumSet
+
+        joined = SpectrumSet.concatenate(each) if len(each) > 1 else each[0]
+    check_channels(joined)
+    return joined, tuple(notes)
+
+
+def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None) -> TunableReport:
+    """Python twin of ``lumeval mix``.
+
+    Parameters
+    ----------
+    channels : path or sequence of paths
+        Channel spectra at full drive (a wide file, one column per channel; any format lumeval
+        reads).
+    cct : str or array_like
+        Target CCTs: ``"2700:6500:100"``, ``"2700,3000"`` or numbers (K).
+    duv : float or "ansi"
+        Target Duv for three or more channels.
+    maximise : "Rf", "Ra" or "ler"
+    criteria : path, optional
+        A criteria file; its clauses are judged at every setpoint (settings = target CCT in K).
+    """
+    from .judge import judge, view_of_mix
+    from .mix import mix, parse_setpoints
+
+    paths = [channels] if isinstance(channels, (str, Path)) else list(channels)
+    crit = _load_criteria(criteria)
+    targets = parse_setpoints(cct) if isinstance(cct, str) else np.atleast_1d(np.asarray(cct, dtype=float))
+    chans, notes = read_channels(paths)
+    res = mix(chans, targets, duv=duv, maximise=maximise, notes=notes)
+    check = None
+    if crit is not None:
+        check = judge(crit, view_of_mix(res), res.target_cct_K, labels=res.names, unit="K",
+                      available=res.reachable, unavailable_reason=res.reason)
+    return TunableReport("mix", res, check, crit, tuple(str(p) for p in paths) + ((str(criteria),) if criteria else ()))
+
+
+def series_files(paths, *, setting_from: str = "name", key: str = "setting", manifest=None, unit: str | None = None,
+                 reference="max", criteria=None) -> TunableReport:
+    """Python twin of ``lumeval series``.
+
+    Parameters
+    ----------
+    paths : sequence of paths
+        Spectra of one product at several settings (files with one or more spectra).
+    setting_from : "name", "metadata" or "manifest"
+        ``name``: the one number in the file name (the column name for files with several
+        spectra) — the number followed by a unit (K, %, pct, mA, A) when there are several;
+        ``metadata``: the metadata field ``key``; ``manifest``: the TOML or CSV file
+        ``manifest`` (see docs/tunable.md).
+    unit : str, optional
+        The settings' unit; default: the unit written with the numbers, or the manifest's.
+    reference : "max", "min", "locus" or a setting
+        What Δu′v′ is measured from (default the highest setting, i.e. full output).
+    criteria : path, optional
+    """
+    from ..engine import evaluate
+    from ..spectra.read import read_spectra
+    from .judge import judge
+    from .series import series, setting_label, setting_order
+
+    paths = [Path(p) for p in paths]
+    if setting_from not in SETTING_SOURCES:
+        raise UsageError(f"--setting-from {setting_from!r} is not one of {', '.join(SETTING_SOURCES)}",
+                         fix="write --setting-from name, metadata or manifest")
+    if manifest is not None and setting_from != "manifest":
+        setting_from = "manifest"
+    if setting_from == "manifest" and manifest is None:
+        raise UsageError("--setting-from manifest needs --manifest FILE", fix="name the TOML or CSV manifest with --manifest")
+    crit = _load_criteria(criteria)
+    table, m_unit = _read_manifest(manifest) if manifest is not None else ({}, "")
+    sets = [read_spectra(p) for p in paths]
+    if sum(len(s) for s in sets) < 2:
+        raise InputError("a series needs at least two spectra", file=str(paths[0]) if paths else None,
+                         fix="give the spectra of the product at two or more settings")
+    values: list[float] = []
+    units: list[str] = []
+    sources: list[str] = []
+    for p, s in zip(paths, sets):
+        for i in range(len(s)):
+            v, u = _setting(p, s, i, setting_from, key, table, manifest)
+            values.append(v)
+            units.append(u)
+            sources.append(s.sources[i])
+    found = {u for u in units if u}
+    if unit is None:
+        if len(found) > 1:
+            raise InputError(f"the settings are written in several units ({', '.join(sorted(found))})",
+                             fix="give every spectrum's setting in one unit, or state it with --unit")
+        unit = m_unit or (found.pop() if found else "")
+    order = setting_order(values, sources)
+    from ..spectra.model import SpectrumSet
+    from ..spectra.prepare import prepare
+
+    joined = prepare(sets) if len(sets) > 1 else prepare(sets[0])
+    if not isinstance(joined, SpectrumSet):  # pragma: no cover - prepare always joins
+        raise TypeError("prepare did not return one spectrum set")
+    ev = evaluate(joined.subset(order))
+    settings = np.asarray(values, dtype=float)[order]
+    how = {"name": "a number in each file (or column) name", "metadata": f"the metadata field {key!r}",
+           "manifest": f"the manifest {manifest}"}[setting_from]
+    res = series(ev, settings, unit=unit, setting_source=how, reference=reference)
+    check = None
+    if crit is not None:
+        check = judge(crit, ev, settings, labels=tuple(setting_label(v, unit) for v in settings), unit=unit)
+    return TunableReport("series", res, check, crit,
+                         tuple(str(p) for p in paths) + ((str(manifest),) if manifest else ()) + ((str(criteria),) if criteria else ()))
+
+
+# --------------------------------------------------------------------------- helpers
+
+
+def _load_criteria(path):
+    if path is None:
+        return None
+    from ..criteria import load_criteria
+
+    return load_criteria(path)
+
+
+def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -> tuple[float, str]:
+    from .series import setting_from_text
+
+    src = s.sources[i]
+    if how == "name":
+        text = path.stem if len(s) == 1 else s.names[i]
+        return setting_from_text(
+            text, what="file name" if len(s) == 1 else "column name", file=str(path),
+            fix="put the setting in the name (e.g. downlight_3000K.csv, dim_10pct.csv), or use --setting-from metadata / --manifest",
+        )
+    if how == "metadata":
+        md = s.metadata[i] if i < len(s.metadata) else {}
+        hit = next((k for k in md if str(k).strip().lower() == key.lower()), None)
+        if hit is None:
+            raise InputError(f"no metadata field {key!r} to take the setting from", file=str(path), field=key,
+                             fix=f"add a line '{key}: VALUE' to the file, choose the field with --setting-key, or use a manifest")
+        return setting_from_text(str(md[hit]), what=f"metadata field {key!r} value", file=str(path),
+                                 fix=f"write one number (with its unit) in the field {key!r}")
+    for cand in (src, src.replace(str(path), path.name), str(path), path.name):
+        if cand in table:
+            return table[cand], ""
+    raise InputError(f"{src!r} is not listed in the manifest", file=str(manifest),
+                     fix=f"add a line for {path.name!r} (or {path.name + '#' + s.names[i]!r} for a column of a wide file)")
+
+
+def _read_manifest(path) -> tuple[dict[str, float], str]:
+    """Settings from a manifest: TOML (``unit = "%"`` and a ``[settings]`` table of
+    ``"file name" = number``) or CSV (rows ``file,setting``, an optional header row)."""
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise InputError("no such file", file=str(p), fix="check the path given to --manifest") from None
+    except IsADirectoryError:
+        raise InputError("is a directory, not a manifest", file=str(p), fix="give a .toml or .csv file") from None
+    except OSError as exc:
+        raise InputError(f"cannot be read ({exc.strerror})", file=str(p), fix="check permissions") from None
+    if len(raw) > MAX_MANIFEST_BYTES:
+        raise InputError(f"larger than {MAX_MANIFEST_BYTES // 1_000_000} MB: not a manifest", file=str(p), fix="check the file")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError("is not UTF-8 text", file=str(p), fix="save the manifest as UTF-8") from None
+    if p.suffix.lower() == ".toml":
+        return _manifest_toml(text, str(p))
+    return _manifest_csv(text, str(p))
+
+
+def _number(v, file: str, line, field: str) -> float:
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not np.isfinite(float(v)):
+        raise InputError(f"setting {v!r} is not a finite number", file=file, line=line, field=field, fix="write a plain number")
+    return float(v)
+
+
+def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", file=file, fix="check quotes and `key = value` syntax") from None
+    unknown = [k for k in data if k not in ("unit", "settings")]
+    if unknown:
+        raise InputError(f"unknown key {unknown[0]!r}", file=file, field=unknown[0], fix="a manifest has `unit` and a [settings] table")
+    unit = data.get("unit", "")
+    if not isinstance(unit, str) or len(unit) > 16:
+        raise InputError("`unit` must be a short string", file=file, field="unit", fix='write e.g. unit = "%"')
+    st = data.get("settings")
+    if not isinstance(st, dict) or not st:
+        raise InputError("no [settings] table", file=file, fix='add [settings] with lines "file name" = setting')
+    return {str(k): _number(v, file, None, str(k)) for k, v in st.items()}, unit
+
+
+def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str]:
+    rows = [r for r in csv.reader(io.StringIO(text)) if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
+    out: dict[str, float] = {}
+    unit = ""
+    for n, r in enumerate(rows):
+        if len(r) < 2:
+            raise InputError("a manifest row needs a file name and a setting", file=file, line=n + 1, fix="write rows file,setting")
+        name, val = r[0].strip(), r[1].strip()
+        try:
+            v = float(val)
+        except ValueError:
+            if n == 0:  # header row
+                continue
+            raise InputError(f"setting {val!r} is not a number", file=file, line=n + 1, fix="write a plain number") from None
+        if not np.isfinite(v):
+            raise InputError(f"setting {val!r} is not a finite number", file=file, line=n + 1, fix="write a plain number")
+        out[name] = v
+        if len(r) > 2 and r[2].strip():
+            unit = r[2].strip()[:16]
+    if not out:
+        raise InputError("no settings listed", file=file, fix="write rows file,setting (e.g. dim_100.csv,100)")
+    return out, unit

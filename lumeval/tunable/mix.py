@@ -1,0 +1,536 @@
+"""Channel mixes of a tunable-white luminaire: weights that reach target CCTs (and Duv).
+
+The model
+---------
+A luminaire with K channels (warm and cool LEDs, sometimes a third or more), each measured at
+full drive, emits at drive weights w = (w₁ … w_K), wᵢ ≥ 0, the spectrum
+
+    S(λ; w) = Σᵢ wᵢ · Sᵢ(λ)
+
+— linear in radiant power (superposition of the channels' emissions). This is an
+**assumption**, and these effects are not modelled: thermal droop (a channel's output and
+spectrum change as the board warms, and the board warms with the other channels' power),
+current-dependent spectra (an LED's peak shifts and broadens with drive current, so a channel
+at 20 % current is not 0.2 × its full-drive spectrum), PWM versus constant-current dimming,
+and driver nonlinearity. A weight is therefore a *radiant-power* fraction of full output, not
+a driver setting; measured series (:mod:`lumeval.tunable.series`) show what the real product
+does.
+
+Because tristimulus values are linear in the spectrum (CIE 15:2004 Eq. 7.1), the mix's
+XYZ = Σ wᵢ·XYZᵢ. Chromaticity is *not* linear in w: the mix of two channels lies on the
+straight line between their chromaticities (in x, y and in u, v alike, since both are
+projective maps of XYZ), but its position along that line is a fraction of X+Y+Z (or of
+X+15Y+3Z), not of w. Weights are therefore solved exactly, never by interpolating
+chromaticity.
+
+Two channels
+    w = (1 − f, f). CCT(f), computed with lumeval's CCT function (Ohno 2014, on the mix's
+    exact XYZ), is sampled on a fine grid of f; every bracket where CCT − target changes sign
+    is refined by bisection to machine precision in f. The Duv of the mix is whatever the
+    line between the channels gives there; it is reported, not chosen.
+Three or more channels
+    The target chromaticity (u, v) is the point at distance Duv from the Planckian locus along
+    its normal at the target CCT (Ohno 2014, Eqs. 13-14; :func:`lumeval.criteria.regions.uv_from_cct_duv`).
+    Reaching it is two *linear* equations in w (CIE 15:2004 §8.1: u·(X+15Y+3Z) = 4X,
+    v·(X+15Y+3Z) = 6Y); with the luminance normalisation Σ wᵢYᵢ = 1 the solutions form a
+    convex polytope whose vertices are the basic solutions with at most three channels lit
+    (linear-programming theory: the vertices of {w ≥ 0, A w = b} with three equality rows have
+    at most three non-zero components). With three channels the solution is unique; with
+    more, the polytope is searched for the weights that maximise the chosen figure: first a
+    batch of candidates for every setpoint at once (its vertices and random convex
+    combinations, evaluated by :func:`lumeval.engine.evaluate` in one call), then SLSQP
+    (``scipy.optimize.minimize``) from the best candidate over the convex-combination
+    coefficients, every step of which stays exactly on the target chromaticity. A target
+    outside the convex hull of the channels' chromaticities is *not reachable*.
+
+Weights are reported normalised so that the largest is 1.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import combinations
+
+import numpy as np
+
+from ..errors import InputError, UsageError
+from ..spectra.model import SpectrumSet
+
+#: ``--maximise`` choices -> lumeval figure names.
+MAXIMISE: dict[str, str] = {"Rf": "Rf", "Ra": "Ra", "ler": "ler_lm_per_W"}
+
+#: The assumption every mix report carries.
+MODEL_NOTE = (
+    "mix model: spectrum = Σ wᵢ·Sᵢ of the channels measured at full drive (linear in radiant power); "
+    "thermal droop, current-dependent spectral shifts and driver nonlinearity are not modelled — "
+    "confirm chosen setpoints by measuring the product (lumeval series)"
+)
+
+#: Samples of the mixing fraction for the two-channel bracket search (then bisection).
+TWO_CHANNEL_GRID = 2049
+#: Bisection steps: 2⁻⁶⁰ of the bracket, below double precision in f.
+BISECTIONS = 60
+#: Random convex combinations per setpoint in the batched candidate search (K ≥ 4).
+CANDIDATES = 48
+#: Most setpoints one run accepts (a 1 K step over 1000-20000 K is 19,001).
+MAX_SETPOINTS = 20001
+#: Target CCT range: where lumeval reports CCT (Ohno 2014's stated range).
+TARGET_RANGE_K = (1000.0, 20000.0)
+
+
+@dataclass(frozen=True)
+class MixResult:
+    """Weights and figures of a channel mix at N setpoints.
+
+    Attributes
+    ----------
+    channels : SpectrumSet
+        The K channels on one computation grid (``notes`` say what preparation did).
+    target_cct_K : ndarray (N,)
+    target_duv : ndarray (N,)
+        NaN with two channels (the Duv follows from the line between them).
+    reachable : ndarray of bool (N,)
+    reason : tuple of str (N,)
+        Why a setpoint is not reachable ("" where it is).
+    weights : ndarray (N, K)
+        Radiant-power weights of the channels, the largest 1; NaN where not reachable.
+    evaluation : Evaluation or None
+        Every lumeval figure of the reachable mixes, in setpoint order (None if none is).
+    index : ndarray of int (N,)
+        Row of each setpoint in ``evaluation``, −1 where not reachable.
+    maximise : str or None
+        The figure maximised (three or more channels).
+    method : str
+        How the weights were found.
+    notes : tuple of str
+        What every report must say about this run (the model, grids, targets).
+    """
+
+    channels: SpectrumSet
+    target_cct_K: np.ndarray
+    target_duv: np.ndarray
+    reachable: np.ndarray
+    reason: tuple[str, ...]
+    weights: np.ndarray
+    evaluation: object
+    index: np.ndarray
+    maximise: str | None
+    method: str
+    notes: tuple[str, ...]
+
+    def __len__(self) -> int:
+        return int(self.target_cct_K.size)
+
+    @property
+    def channel_names(self) -> tuple[str, ...]:
+        return self.channels.names
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        """Setpoint labels, e.g. ``"3000 K"`` or ``"3000 K, Duv +0.0010"``."""
+        out = []
+        for t, d in zip(self.target_cct_K, self.target_duv):
+            out.append(f"{t:g} K" if not np.isfinite(d) else f"{t:g} K, Duv {d:+.4f}")
+        return tuple(out)
+
+    def figure(self, name: str) -> np.ndarray:
+        """The figure ``name`` at every setpoint, shape (N,), NaN where not reachable."""
+        out = np.full(len(self), np.nan)
+        if self.evaluation is not None:
+            ok = self.index >= 0
+            out[ok] = np.asarray(self.evaluation.figure(name), dtype=float)[self.index[ok]]
+        return out
+
+    def spectra(self) -> np.ndarray:
+        """The mixed spectra (N, W) on the channels' grid (NaN rows where not reachable)."""
+        w = np.where(np.isfinite(self.weights), self.weights, np.nan)
+        return w @ self.channels.values
+
+
+# --------------------------------------------------------------------------- setpoints
+
+
+def parse_setpoints(text: str, *, option: str = "--cct") -> np.ndarray:
+    """Target CCTs from ``LOW:HIGH:STEP`` (inclusive), ``A,B,C`` or one number, in K.
+
+    Raises :class:`UsageError` naming ``option`` for anything else, a step that does not
+    divide the range, or targets outside 1000-20000 K (where lumeval reports CCT).
+    """
+    s = str(text).strip()
+    fix = f"write {option} LOW:HIGH:STEP (e.g. 2700:6500:100), a list 2700,3000,4000 or one value"
+    try:
+        if ":" in s:
+            parts = [float(p) for p in s.split(":")]
+            if len(parts) != 3:
+                raise ValueError
+            lo, hi, step = parts
+            if not (np.isfinite(lo) and np.isfinite(hi) and np.isfinite(step)) or step <= 0 or hi < lo:
+                raise UsageError(f"{option} {s!r}: need LOW ≤ HIGH and a positive STEP", fix=fix)
+            n = (hi - lo) / step
+            if n + 1 > MAX_SETPOINTS:
+                raise UsageError(f"{option} {s!r} gives {int(n) + 1} setpoints, more than {MAX_SETPOINTS}", fix="use a larger step")
+            k = int(round(n))
+            if abs(n - k) > 1e-9 * max(1.0, n):
+                raise UsageError(f"{option} {s!r}: the step {step:g} does not divide {lo:g}…{hi:g}", fix=fix)
+            targets = lo + step * np.arange(k + 1)
+        else:
+            targets = np.array([float(p) for p in s.split(",")])
+    except ValueError:
+        raise UsageError(f"{option} {s!r} is not a list of numbers", fix=fix) from None
+    if targets.size == 0 or not np.all(np.isfinite(targets)):
+        raise UsageError(f"{option} {s!r} is not a list of numbers", fix=fix)
+    lo, hi = TARGET_RANGE_K
+    bad = targets[(targets < lo) | (targets > hi)]
+    if bad.size:
+        raise UsageError(f"{option}: target {bad[0]:g} K is outside {lo:.0f}-{hi:.0f} K, where lumeval reports CCT",
+                         fix=f"choose targets between {lo:.0f} and {hi:.0f} K")
+    if targets.size > MAX_SETPOINTS:
+        raise UsageError(f"{option} gives {targets.size} setpoints, more than {MAX_SETPOINTS}", fix="use fewer")
+    return targets
+
+
+def target_duvs(targets_K: np.ndarray, duv) -> tuple[np.ndarray, str]:
+    """Target Duv per setpoint: a number, or ``"ansi"`` for ANSI C78.377-2017's flexible-CCT
+    target Duv (:func:`lumeval.criteria.regions.ansi_flexible_duv`). Returns (values, note)."""
+    if isinstance(duv, str):
+        if duv.strip().lower() != "ansi":
+            try:
+                duv = float(duv)
+            except ValueError:
+                raise UsageError(f"--duv {duv!r} is neither a number nor 'ansi'",
+                                 fix="write e.g. --duv 0, --duv 0.002 or --duv ansi") from None
+        else:
+            from ..criteria import regions
+
+            lo, hi = regions.ANSI_FLEXIBLE_RANGE_K
+            note = f"target Duv: the {regions.ANSI_EDITION} flexible-CCT target Duv at each target CCT"
+            if np.any((targets_K < lo) | (targets_K > hi)):
+                note += f" (the formula is defined for {lo:.0f}-{hi:.0f} K; applied outside that range as written)"
+            return np.asarray(regions.ansi_flexible_duv(targets_K), dtype=float), note
+    d = float(duv)
+    if not np.isfinite(d) or abs(d) > 0.05:
+        raise UsageError(f"--duv {d:g} is outside ±0.05, where CCT is not meaningful (CIE 15:2004)",
+                         fix="write a value between -0.05 and 0.05")
+    return np.full(targets_K.shape, d), f"target Duv {d:+.4f} at every setpoint"
+
+
+# --------------------------------------------------------------------------- channels
+
+
+def check_channels(channels: SpectrumSet) -> None:
+    """Refuse fewer than two channels, or a channel with no emission inside 360-830 nm."""
+    if len(channels) < 2:
+        src = channels.sources[0].partition("#")[0] if len(channels) else None
+        raise InputError(
+            f"a mix needs at least two channels, found {len(channels)}",
+            file=src,
+            fix="give one wide file with a column per channel (at full drive), or several files",
+        )
+    names = channels.names
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise InputError(f"two channels are both named {dup[0]!r}", file=channels.sources[0].partition("#")[0],
+                         fix="give each channel column its own name")
+
+
+def channel_tristimulus(channels: SpectrumSet) -> np.ndarray:
+    """XYZ (CIE 1931 2°) of each channel on its prepared grid, shape (K, 3)."""
+    from ..metrics.colorimetry import tristimulus
+
+    return tristimulus(channels.wavelengths_nm, channels.values)
+
+
+# --------------------------------------------------------------------------- two channels
+
+
+def _cct_of_fraction(XYZc: np.ndarray, f: np.ndarray):
+    from ..metrics.colorimetry import cct_duv_ohno, uv_from_XYZ
+
+    XYZ = (1.0 - f)[:, None] * XYZc[0][None, :] + f[:, None] * XYZc[1][None, :]
+    return cct_duv_ohno(uv_from_XYZ(XYZ))
+
+
+def solve_two_channels(XYZc: np.ndarray, targets_K: np.ndarray) -> tuple[np.ndarray, np.ndarray, tuple[str, ...]]:
+    """Weights of two channels that reach each target CCT (vectorised over targets).
+
+    Parameters
+    ----------
+    XYZc : ndarray (2, 3)
+        Tristimulus values of the two channels at full drive.
+    targets_K : ndarray (N,)
+
+    Returns
+    -------
+    weights : ndarray (N, 2), largest 1 (NaN where not reachable)
+    reachable : ndarray of bool (N,)
+    reason : tuple of str (N,)
+
+    Notes
+    -----
+    The mix at fraction f has XYZ = (1−f)·XYZ₁ + f·XYZ₂ (CIE 15:2004 Eq. 7.1 is linear in the
+    spectrum). CCT(f) by Ohno (2014) is sampled at :data:`TWO_CHANNEL_GRID` fractions; the
+    first sign change of CCT(f) − target is bisected :data:`BISECTIONS` times. Where the target
+    is met at two fractions (possible only if the line bends back in CCT), the first, from
+    channel 1 towards channel 2, is taken.
+    """
+    targets_K = np.asarray(targets_K, dtype=float)
+    n = targets_K.size
+    f = np.linspace(0.0, 1.0, TWO_CHANNEL_GRID)
+    grid = _cct_of_fraction(XYZc, f).cct_K
+    s = grid[None, :] - targets_K[:, None]
+    fin = np.isfinite(s)
+    br = fin[:, :-1] & fin[:, 1:] & (s[:, :-1] * s[:, 1:] <= 0)
+    has = br.any(axis=1)
+    k = np.argmax(br, axis=1)
+    lo, hi = f[k].copy(), f[np.minimum(k + 1, f.size - 1)].copy()
+    s_lo = s[np.arange(n), k]
+    for _ in range(BISECTIONS):
+        mid = 0.5 * (lo + hi)
+        c = _cct_of_fraction(XYZc, mid).cct_K - targets_K
+        same = np.sign(np.nan_to_num(c)) == np.sign(s_lo)
+        lo = np.where(same, mid, lo)
+        hi = np.where(same, hi, mid)
+    # pick the end of the final bracket nearer the target (they differ by ~1e-18 in f)
+    c_lo = np.abs(_cct_of_fraction(XYZc, lo).cct_K - targets_K)
+    c_hi = np.abs(_cct_of_fraction(XYZc, hi).cct_K - targets_K)
+    fx = np.where(np.nan_to_num(c_hi, nan=np.inf) < np.nan_to_num(c_lo, nan=np.inf), hi, lo)
+    w = np.stack([1.0 - fx, fx], axis=-1)
+    w = w / w.max(axis=1, keepdims=True)
+    w[~has] = np.nan
+    reasons = [""] * n
+    if not has.all():
+        ok = np.isfinite(grid)
+        span = f"{np.nanmin(grid):.0f}-{np.nanmax(grid):.0f} K" if ok.any() else "none"
+        extra = "" if ok.all() else " (part of the line is too far from the Planckian locus for a CCT)"
+        for i in np.flatnonzero(~has):
+            reasons[i] = f"not reachable: the mixes of the two channels span CCT {span}{extra}"
+    return w, has, tuple(reasons)
+
+
+# --------------------------------------------------------------------------- three or more
+
+
+def _vertex_solutions(XYZc: np.ndarray, uv_t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Basic solutions (vertices) for every setpoint: weights with at most three channels lit
+    that reach the target (u, v), normalised to Σ wᵢYᵢ = 1.
+
+    Returns ``V`` (N, T, K) and ``ok`` (N, T) for the T = C(K, 3) channel triples.
+    """
+    K = XYZc.shape[0]
+    X, Y, Z = XYZc[:, 0], XYZc[:, 1], XYZc[:, 2]
+    S = X + 15.0 * Y + 3.0 * Z
+    u, v = uv_t[:, 0:1], uv_t[:, 1:2]
+    # rows: 4X − u S = 0, 6Y − v S = 0 (CIE 15:2004 §8.1), Y = 1
+    A = np.stack([4.0 * X[None, :] - u * S[None, :], 6.0 * Y[None, :] - v * S[None, :],
+                  np.broadcast_to(Y[None, :], (uv_t.shape[0], K))], axis=1)  # (N, 3, K)
+    triples = list(combinations(range(K), 3))
+    n = uv_t.shape[0]
+    V = np.zeros((n, len(triples), K))
+    ok = np.zeros((n, len(triples)), dtype=bool)
+    rhs = np.array([0.0, 0.0, 1.0])
+    for t, idx in enumerate(triples):
+        M = A[:, :, list(idx)]  # (N, 3, 3)
+        det = np.linalg.det(M)
+        scale = np.prod(np.linalg.norm(M, axis=1), axis=1)
+        good = np.abs(det) > 1e-12 * scale
+        sol = np.zeros((n, 3))
+        if good.any():
+            sol[good] = np.linalg.solve(M[good], np.broadcast_to(rhs, (int(good.sum()), 3))[..., None])[..., 0]
+        tol = 1e-9 * np.max(np.abs(sol), axis=1)
+        feas = good & np.all(sol >= -tol[:, None], axis=1)
+        sol = np.clip(sol, 0.0, None)
+        V[:, t][:, list(idx)] = sol
+        ok[:, t] = feas
+    return V, ok
+
+
+class _Objective:
+    """The figure to maximise as a function of mixing weights, evaluated in batches by the
+    engine (one :func:`lumeval.engine.evaluate` call per batch); NaN counts as −∞."""
+
+    def __init__(self, wl: np.ndarray, values: np.ndarray, figure: str) -> None:
+        self.wl, self.values, self.figure = wl, values, figure
+        self.calls = 0
+
+    def __call__(self, W: np.ndarray) -> np.ndarray:
+        from ..engine import evaluate
+
+        W = np.atleast_2d(W)
+        self.calls += 1
+        spec = W @ self.values
+        n = spec.shape[0]
+        ss = SpectrumSet(self.wl, spec, tuple(f"c{i}" for i in range(n)), ("",) * n)
+        fig = np.asarray(evaluate(ss, keep_details=False).figure(self.figure), dtype=float)
+        return np.where(np.isfinite(fig), fig, -np.inf)
+
+
+def _refine(obj: _Objective, Vf: np.ndarray, lam0: np.ndarray, f0: float) -> tuple[np.ndarray, float]:
+    """SLSQP over convex-combination coefficients λ of the feasible vertices ``Vf`` (T, K).
+
+    Every λ ≥ 0 gives weights Vfᵀλ on the target chromaticity (each vertex is on it and the
+    constraint is homogeneous), and every lumeval figure is scale-free, so the problem is
+    max φ(Vfᵀλ) over λ ≥ 0, Σλ = 1. The gradient is a forward difference computed for all
+    coordinates in one batch.
+    """
+    from scipy.optimize import minimize
+
+    T = Vf.shape[0]
+    scale = max(abs(f0), 1.0)
+    h = 1e-4
+    cache: dict[bytes, tuple[float, np.ndarray]] = {}
+
+    def both(lam):
+        key = np.round(lam, 14).tobytes()
+        if key not in cache:
+            lam = np.clip(lam, 0.0, None)
+            if lam.sum() <= 0:
+                lam = np.full(T, 1.0 / T)
+            pts = np.vstack([lam, lam + h * np.eye(T)])
+            vals = obj(pts @ Vf)
+            f = -vals[0] / scale
+            g = -(vals[1:] - vals[0]) / h / scale
+            g = np.where(np.isfinite(g), g, 0.0)
+            cache[key] = (f if np.isfinite(f) else 1e6, g)
+        return cache[key]
+
+    res = minimize(
+        lambda l: both(l)[0], lam0, jac=lambda l: both(l)[1], method="SLSQP",
+        bounds=[(0.0, 1.0)] * T, constraints=[{"type": "eq", "fun": lambda l: np.sum(l) - 1.0, "jac": lambda l: np.ones(T)}],
+        options={"maxiter": 40, "ftol": 1e-9},
+    )
+    lam = np.clip(res.x, 0.0, None)
+    lam = lam / lam.sum() if lam.sum() > 0 else lam0
+    f = float(obj(lam @ Vf)[0])
+    return lam, f
+
+
+def solve_multi_channels(
+    wl: np.ndarray, values: np.ndarray, XYZc: np.ndarray, uv_t: np.ndarray, figure: str, *, seed: int = 1
+) -> tuple[np.ndarray, np.ndarray, tuple[str, ...]]:
+    """Non-negative weights of K ≥ 3 channels reaching each target (u, v), maximising ``figure``.
+
+    Returns (weights (N, K) with the largest 1 and NaN where not reachable, reachable (N,),
+    reason (N,)). See the module docstring for the method.
+    """
+    n, K = uv_t.shape[0], XYZc.shape[0]
+    V, ok = _vertex_solutions(XYZc, uv_t)
+    reach = ok.any(axis=1)
+    W = np.full((n, K), np.nan)
+    if K == 3:
+        W[reach] = V[reach, 0]
+    elif reach.any():
+        obj = _Objective(wl, values, figure)
+        rng = np.random.default_rng(seed)
+        rows = np.flatnonzero(reach)
+        # batched candidates for every reachable setpoint: vertices, centroid, random mixes
+        cand_w, cand_lam = [], []
+        for i in rows:
+            Vf = V[i, ok[i]]
+            T = Vf.shape[0]
+            lams = np.vstack([np.eye(T), np.full((1, T), 1.0 / T), rng.dirichlet(np.ones(T), size=CANDIDATES if T > 1 else 0)])
+            cand_lam.append(lams)
+            cand_w.append(lams @ Vf)
+        vals = obj(np.vstack(cand_w))
+        start = 0
+        for j, i in enumerate(rows):
+            m = cand_lam[j].shape[0]
+            v = vals[start:start + m]
+            start += m
+            b = int(np.argmax(v))
+            Vf = V[i, ok[i]]
+            lam, fbest = cand_lam[j][b], float(v[b])
+            if Vf.shape[0] > 1:
+                lam2, f2 = _refine(obj, Vf, lam, fbest)
+                if f2 > fbest:
+                    lam, fbest = lam2, f2
+            W[i] = lam @ Vf
+    W[reach] = W[reach] / W[reach].max(axis=1, keepdims=True)
+    W[~reach] = np.nan
+    reasons = tuple(
+        "" if r else "not reachable: the target chromaticity lies outside the channels' gamut (no non-negative mix reaches it)"
+        for r in reach
+    )
+    return W, reach, reasons
+
+
+# --------------------------------------------------------------------------- the whole job
+
+
+def mix(
+    channels: SpectrumSet,
+    targets_K,
+    *,
+    duv=0.0,
+    maximise: str = "Rf",
+    notes: tuple[str, ...] = (),
+) -> MixResult:
+    """Solve channel weights for every target CCT and evaluate every figure of the mixes.
+
+    Parameters
+    ----------
+    channels : SpectrumSet
+        K ≥ 2 channels at full drive, already prepared onto one grid
+        (:func:`lumeval.spectra.prepare.prepare`).
+    targets_K : array_like (N,)
+        Target CCTs.
+    duv : float or "ansi"
+        Target Duv (three or more channels; ignored with two, where it follows from the line).
+    maximise : "Rf", "Ra" or "ler"
+        The figure to maximise among the solutions (four or more channels; three channels have
+        one solution per target).
+    notes : tuple of str
+        Run notes to carry (e.g. how the channels were brought onto one grid).
+
+    Returns
+    -------
+    MixResult
+    """
+    from ..engine import evaluate
+
+    check_channels(channels)
+    if maximise not in MAXIMISE:
+        raise UsageError(f"--maximise {maximise!r} is not one of {', '.join(MAXIMISE)}", fix="choose Rf, Ra or ler")
+    targets = np.atleast_1d(np.asarray(targets_K, dtype=float))
+    K = len(channels)
+    XYZc = channel_tristimulus(channels)
+    run_notes = [MODEL_NOTE, *notes]
+    tduv_all, duv_note = target_duvs(targets, duv)  # validates --duv whatever the channel count
+    if K == 2:
+        W, reach, reasons = solve_two_channels(XYZc, targets)
+        tduv = np.full(targets.shape, np.nan)
+        fig = None
+        method = ("two channels: weights (1−f, f); CCT(f) by Ohno (2014) on the mix's exact XYZ, "
+                  f"bracketed on {TWO_CHANNEL_GRID} fractions and bisected to double precision; the Duv follows from the line")
+        if np.any(tduv_all != 0.0):
+            run_notes.append("a target Duv has no effect with two channels: the mixes lie on the line between them")
+    else:
+        from ..criteria.regions import uv_from_cct_duv
+
+        tduv = tduv_all
+        run_notes.append(duv_note)
+        uv_t = uv_from_cct_duv(targets, tduv)
+        fig = MAXIMISE[maximise]
+        W, reach, reasons = solve_multi_channels(channels.wavelengths_nm, channels.values, XYZc, uv_t, fig)
+        if K == 3:
+            method = ("three channels: the unique non-negative weights reaching the target (u, v) "
+                      "(two linear equations in XYZ, CIE 15:2004 §8.1; target point by Ohno 2014 Eqs. 13-14)")
+            fig = None
+        else:
+            method = (f"{K} channels: maximise {maximise} over the weights reaching the target (u, v) — batched candidates "
+                      "(vertices of the feasible polytope and random convex combinations), then SLSQP (scipy)")
+    index = np.full(targets.size, -1)
+    index[reach] = np.arange(int(reach.sum()))
+    ev = None
+    if reach.any():
+        wr = W[reach]
+        names = tuple(n for n, r in zip(_names(targets, tduv), reach) if r)
+        src = tuple("mix: " + ", ".join(f"{c} × {w:.4f}" for c, w in zip(channels.names, row)) for row in wr)
+        chan_notes = tuple(dict.fromkeys(x for ns in channels.notes for x in ns))
+        ss = SpectrumSet(channels.wavelengths_nm, wr @ channels.values, names, src,
+                         tuple(chan_notes for _ in names), tuple({} for _ in names))
+        ev = evaluate(ss)
+    return MixResult(channels, targets, tduv, reach, reasons, W, ev, index, fig, method, tuple(run_notes))
+
+
+def _names(targets, tduv) -> tuple[str, ...]:
+    return tuple(f"{t:g} K" if not np.isfinite(d) else f"{t:g} K, Duv {d:+.4f}" for t, d in zip(targets, tduv))

@@ -1,0 +1,163 @@
+"""`lumeval mix` and `lumeval series` through the real CLI: outputs, exit codes, bad input.
+
+Spectra are invented test data; numbers are not checked here (see test_tunable_mix.py and
+test_tunable_series.py for the checks against independent references), only behaviour.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from lumeval.cli import main
+
+WL = np.arange(380.0, 781.0, 1.0)
+
+
+def g(p, w):
+    return np.exp(-0.5 * ((WL - p) / w) ** 2)
+
+
+WARM = 0.35 * g(450, 10) + g(600, 45) + 0.3 * g(650, 25)
+COOL = 2.0 * g(452, 10) + g(560, 50)
+
+
+def write_wide(path: Path, cols: dict, wl=WL) -> Path:
+    lines = ["wavelength_nm," + ",".join(cols)]
+    for i, w in enumerate(wl):
+        lines.append(f"{w:g}," + ",".join(f"{c[i]:.6f}" for c in cols.values()))
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def run(argv, capsys):
+    with pytest.raises(SystemExit) as exc:
+        main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
+    return code, out, err
+
+
+def assert_clean_error(code, err, *needles):
+    assert code == 2, err
+    assert "Traceback" not in err and "internal error" not in err, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
+    for n in needles:
+        assert n in lines[0], err
+
+
+@pytest.fixture
+def chans(tmp_path):
+    return write_wide(tmp_path / "channels.csv", {"warm": WARM, "cool": COOL})
+
+
+RANGE_CRIT = """lumeval_criteria = 1
+[[clause]]
+id = "Ra"
+figure = "Ra"
+min = 50
+over = [2000, 6000]
+"""
+
+
+def test_mix_json_csv_terminal(chans, capsys, tmp_path):
+    code, out, err = run(["mix", chans, "--cct", "2800:5000:200", "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["format"] == "lumeval-mix" and doc["channels"] == ["warm", "cool"]
+    assert len(doc["settings"]) == 12
+    s0 = doc["settings"][0]
+    assert max(s0["weights"].values()) == 1.0
+    assert set(s0["figures"]) >= {"cct_K", "duv", "cri", "tm30"}
+    assert any("linear in radiant power" in n for n in doc["notes"])
+    assert doc["cautions"]
+    code, out, err = run(["mix", chans, "--cct", "3000,4000", "--format", "csv"], capsys)
+    rows = list(csv.reader(io.StringIO(out)))
+    assert rows[0][:4] == ["setting", "label", "reachable", "target_duv"] and "w:warm" in rows[0] and "R9" in rows[0]
+    assert len(rows) == 3
+    code, out, err = run(["mix", chans, "--cct", "3000,4000"], capsys)
+    assert code == 0 and "Channel mix" in out and "linear in radiant power" in out
+
+
+def test_mix_unreachable_with_range_clause_exits_1(chans, capsys, tmp_path):
+    crit = tmp_path / "c.toml"
+    crit.write_text(RANGE_CRIT, encoding="utf-8")
+    code, out, err = run(["mix", chans, "--cct", "2000:3000:500", "--criteria", crit, "--format", "json"], capsys)
+    doc = json.loads(out)
+    assert code == 1, err
+    assert doc["settings"][0]["reachable"] is False and "not reachable" in doc["settings"][0]["not_reachable_reason"]
+    cl = doc["criteria"]["clauses"][0]
+    assert cl["range_outcome"] == "not judged" and cl["worst_setting"] == "2000 K"
+    # the same targets without the unreachable one in range: exit 0
+    crit.write_text(RANGE_CRIT.replace("[2000, 6000]", "[2500, 6000]"), encoding="utf-8")
+    code, out, err = run(["mix", chans, "--cct", "2000:3000:500", "--criteria", crit], capsys)
+    assert code == 0, out + err
+    assert "not reachable" in out
+
+
+def test_mix_html(chans, capsys, tmp_path):
+    crit = tmp_path / "c.toml"
+    crit.write_text(RANGE_CRIT, encoding="utf-8")
+    html = tmp_path / "r.html"
+    code, out, err = run(["mix", chans, "--cct", "2800:4000:400", "--criteria", crit, "--html", html], capsys)
+    text = html.read_text(encoding="utf-8")
+    assert 'data-figure="trajectory"' in text and 'data-figure="versus-setting"' in text
+    assert "Verdict over the range" in text and "http" not in text.split("<body>")[1].replace("http://www.w3.org", "")
+
+
+def test_series_cli(tmp_path, capsys):
+    d = tmp_path / "s"
+    d.mkdir()
+    files = []
+    for level, w in ((100, 1.0), (50, 0.8), (10, 0.5)):
+        files.append(write_wide(d / f"dim_{level:03d}pct.csv", {f"dim_{level:03d}pct": w * WARM + (1 - w) * COOL}))
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "shift"\nkind = "series_shift"\nmax_delta_upvp = 0.004\n'
+                    'over = [10, 100]\n', encoding="utf-8")
+    code, out, err = run(["series", *files, "--criteria", crit, "--format", "json"], capsys)
+    doc = json.loads(out)
+    assert [s["setting"] for s in doc["settings"]] == [10.0, 50.0, 100.0] and doc["unit"] == "%"
+    assert code == 1  # the 10 % and 50 % mixes move far from full output
+    assert doc["criteria"]["clauses"][0]["worst_setting"] == "10 %"
+
+
+def test_cli_errors(tmp_path, capsys, chans):
+    one = write_wide(tmp_path / "one.csv", {"warm": WARM})
+    code, out, err = run(["mix", one, "--cct", "3000"], capsys)
+    assert_clean_error(code, err, "at least two channels")
+    zero = write_wide(tmp_path / "zero.csv", {"warm": WARM, "dead": 0 * WARM})
+    code, out, err = run(["mix", zero, "--cct", "3000"], capsys)
+    assert_clean_error(code, err, "zero.csv", "dead")
+    code, out, err = run(["mix", chans, "--cct", "3000:2000:100"], capsys)
+    assert_clean_error(code, err, "--cct")
+    code, out, err = run(["mix", chans, "--cct", "3000", "--duv", "green"], capsys)
+    assert_clean_error(code, err, "--duv")
+    nameless = write_wide(tmp_path / "lamp.csv", {"lamp": WARM})
+    other = write_wide(tmp_path / "lamp_50pct.csv", {"x": COOL})
+    code, out, err = run(["series", nameless, other], capsys)
+    assert_clean_error(code, err, "lamp.csv", "no number")
+    code, out, err = run(["series", other, nameless, "--setting-from", "manifest"], capsys)
+    assert_clean_error(code, err, "--manifest")
+
+
+def test_channels_on_different_grids_are_joined_and_said_so(tmp_path, capsys):
+    a = write_wide(tmp_path / "warm.csv", {"warm": WARM})
+    wl5 = np.arange(380.0, 781.0, 5.0)
+    b = write_wide(tmp_path / "cool.csv", {"cool": np.interp(wl5, WL, COOL)}, wl=wl5)
+    code, out, err = run(["mix", a, b, "--cct", "3000", "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    assert any("different wavelength grids" in n and "docs/input-files.md" in n for n in doc["notes"])
+
+
+def test_help_lists_commands():
+    proc = subprocess.run([sys.executable, "-m", "lumeval", "--help"], capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0 and " mix " in proc.stdout and " series " in proc.stdout

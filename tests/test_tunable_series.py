@@ -1,0 +1,138 @@
+"""Measured series: settings from names, metadata and manifests; the trajectory and Δu′v′.
+
+Spectra here are invented test data (Gaussian LED models). The Δu′v′ values are checked
+against u′v′ computed independently from colour-science's CIE 1931 CMFs (CIE 15:2004 Table
+T.4) by CIE 15:2004 Eqs. 8.1-8.2.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from lumeval.errors import InputError, UsageError
+from lumeval.tunable.api import series_files
+from lumeval.tunable.series import numbers_in, setting_from_text
+
+WL = np.arange(380.0, 781.0, 1.0)
+
+
+def spd(shift: float) -> np.ndarray:
+    g = lambda p, w: np.exp(-0.5 * ((WL - p) / w) ** 2)
+    return 0.5 * g(450, 10) + g(580 + shift, 50) + 0.2 * g(640, 20)
+
+
+def write(path: Path, values, meta: dict | None = None, header: str | None = None) -> Path:
+    lines = [f"# {k}: {v}" for k, v in (meta or {}).items()]
+    lines.append(f"wavelength_nm,{header or path.stem}")
+    lines += [f"{w:.0f},{v:.6f}" for w, v in zip(WL, values)]
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize("text, want", [
+    ("tw2_setpoint_3000K", (3000.0, "K")),
+    ("dl_ch2_3000K", (3000.0, "K")),
+    ("dim2warm_010pct", (10.0, "%")),
+    ("level 25 %", (25.0, "%")),
+    ("drive_350mA_lot7", (350.0, "mA")),
+    ("sample_42", (42.0, "")),
+    ("cct 2700,5k", (2700.5, "K")),
+])
+def test_setting_from_names(text, want):
+    assert setting_from_text(text, what="name", file=None, fix="") == want
+
+
+@pytest.mark.parametrize("text, needle", [("lamp", "no number"), ("lamp_3000K_4000K", "several numbers"),
+                                          ("run_2_of_5", "several numbers")])
+def test_setting_not_in_name(text, needle):
+    with pytest.raises(InputError, match=needle):
+        setting_from_text(text, what="file name", file="x.csv", fix="rename")
+
+
+def test_numbers_in():
+    assert numbers_in("a_10pct_b2") == [(10.0, "%"), (2.0, "")]
+
+
+@pytest.fixture
+def series_dir(tmp_path):
+    d = tmp_path / "s"
+    d.mkdir()
+    paths = []
+    for level, shift in ((100, 0.0), (50, 3.0), (10, 8.0)):
+        paths.append(write(d / f"dim_{level:03d}pct.csv", spd(shift), {"level": f"{level} %", "drive": f"{level * 7} mA"}))
+    return d, paths
+
+
+def upvp_reference(colour, values):
+    cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
+    cm = np.stack([np.interp(WL, np.asarray(cmfs.wavelengths, float), np.asarray(cmfs.values, float)[:, k])
+                   for k in range(3)], axis=-1)
+    X, Y, Z = (np.atleast_2d(values) @ cm).T
+    d = X + 15 * Y + 3 * Z
+    return np.stack([4 * X / d, 9 * Y / d], axis=-1)
+
+
+def test_series_from_names_sorted_with_shift_from_full_output(series_dir, colour):
+    d, paths = series_dir
+    rep = series_files(list(reversed(paths)))
+    r = rep.result
+    assert r.settings.tolist() == [10.0, 50.0, 100.0] and r.unit == "%"
+    assert [Path(s).name for s in r.evaluation.spectra.sources] == ["dim_010pct.csv", "dim_050pct.csv", "dim_100pct.csv"]
+    ref = upvp_reference(colour, np.vstack([spd(8.0), spd(3.0), spd(0.0)]))
+    want = np.hypot(*(ref - ref[2]).T)
+    assert_allclose(r.delta_upvp, want, rtol=0, atol=2e-6)
+    assert r.delta_upvp[2] == 0.0  # the reference itself, exact by construction
+
+
+def test_series_from_metadata(series_dir):
+    d, paths = series_dir
+    r = series_files(paths, setting_from="metadata", key="drive").result
+    assert r.settings.tolist() == [70.0, 350.0, 700.0] and r.unit == "mA"
+    with pytest.raises(InputError, match="no metadata field 'current'"):
+        series_files(paths, setting_from="metadata", key="current")
+
+
+def test_series_from_toml_and_csv_manifest(series_dir):
+    d, paths = series_dir
+    toml = d / "m.toml"
+    toml.write_text('unit = "%"\n[settings]\n"dim_100pct.csv" = 100\n"dim_050pct.csv" = 50\n"dim_010pct.csv" = 10\n',
+                    encoding="utf-8")
+    r = series_files(paths, manifest=toml).result
+    assert r.settings.tolist() == [10.0, 50.0, 100.0] and r.unit == "%"
+    csvm = d / "m.csv"
+    csvm.write_text("file,setting\ndim_100pct.csv,1.0\ndim_050pct.csv,0.5\ndim_010pct.csv,0.1\n", encoding="utf-8")
+    r = series_files(paths, setting_from="manifest", manifest=csvm, reference="min").result
+    assert r.settings.tolist() == [0.1, 0.5, 1.0]
+    assert r.delta_upvp[0] == 0.0
+    csvm.write_text("file,setting\ndim_100pct.csv,1.0\n", encoding="utf-8")
+    with pytest.raises(InputError, match="not listed in the manifest"):
+        series_files(paths, manifest=csvm)
+
+
+def test_series_refusals(series_dir, tmp_path):
+    d, paths = series_dir
+    with pytest.raises(InputError, match="same setting"):
+        series_files([paths[0], write(tmp_path / "again_100pct.csv", spd(1.0))])
+    with pytest.raises(InputError, match="at least two spectra"):
+        series_files([paths[0]])
+    with pytest.raises(UsageError, match="no setting 42"):
+        series_files(paths, reference="42")
+    with pytest.raises(UsageError, match="not CCTs"):
+        series_files(paths, reference="locus")
+
+
+def test_series_locus_reference(tmp_path, colour):
+    """Settings in K: Δu′v′ from each nominal CCT's Planckian point (colour-science blackbody)."""
+    paths = [write(tmp_path / f"sp_{t}K.csv", spd(s)) for t, s in ((3000, 6.0), (4000, 0.0))]
+    r = series_files(paths, reference="locus").result
+    cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
+    locus = []
+    for t in (3000.0, 4000.0):
+        X, Y, Z = np.asarray(colour.sd_blackbody(t, cmfs.shape, c2=1.4388e-2).values) @ np.asarray(cmfs.values)
+        locus.append((4 * X / (X + 15 * Y + 3 * Z), 9 * Y / (X + 15 * Y + 3 * Z)))
+    meas = upvp_reference(colour, np.vstack([spd(6.0), spd(0.0)]))
+    assert_allclose(r.delta_upvp, np.hypot(*(meas - np.array(locus)).T), rtol=0, atol=3e-6)

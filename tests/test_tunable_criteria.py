@@ -166,3 +166,13 @@ def test_locus_reference_against_colour_science(colour):
     ref, desc, why = reference_points(view, T, "locus")
     assert why == "" and "Planckian" in desc
     assert_allclose(ref, np.array(want), rtol=0, atol=2e-6)
+
+
+def test_quadrangles_over_disjoint_ranges_do_not_contradict():
+    """A tunable product may name one ANSI category per part of its range: clauses over
+    settings are not checked against each other as if they applied to one spectrum."""
+    c = parse_criteria('lumeval_criteria = 1\n[[clause]]\nid = "a"\nkind = "ansi_quadrangle"\nnominal_cct = 2700\n'
+                       'over = [2700, 2700]\n[[clause]]\nid = "b"\nkind = "ansi_quadrangle"\nnominal_cct = 6500\n'
+                       'over = [6500, 6500]\n', "t")
+    assert not getattr(c, "warnings", ())
+    assert [x.over for x in c.clauses] == [(2700.0, 2700.0), (6500.0, 6500.0)]

@@ -272,7 +272,8 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(clause)
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
-    warnings = _contradictions(clauses, file)
+    # clauses judged over different ranges of settings (`over`, tunable products) never meet on one spectrum
+    warnings = _contradictions([c for c in clauses if getattr(c, "SCOPE", "sample") != "range"], file)
     return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings)
 
 

@@ -108,8 +108,12 @@ def test_mix_html(chans, capsys, tmp_path):
     crit.write_text(RANGE_CRIT, encoding="utf-8")
     html = tmp_path / "r.html"
     code, out, err = run(["mix", chans, "--cct", "2800:4000:400", "--criteria", crit, "--html", html], capsys)
+    assert code == 0, err
     text = html.read_text(encoding="utf-8")
     assert 'data-figure="trajectory"' in text and 'data-figure="versus-setting"' in text
+    import html5lib  # WHATWG parser, strict mode: the report parses without errors
+
+    html5lib.HTMLParser(strict=True).parse(text)
     assert "Verdict over the range" in text and "http" not in text.split("<body>")[1].replace("http://www.w3.org", "")
 
 

@@ -39,11 +39,10 @@ def emit_report(report, output_format: "OutputFormat", html: Path | None, comman
         typer.echo(to_csv(report), nl=False)
         note_csv_cautions()
     else:
-        from rich.console import Console
-
+        from ..render.safe import console as make_console
         from ..render.tunable import renderables
 
-        console = Console()
+        console = make_console()
         for r in renderables(report):
             console.print(r)
     sys.exit(report.exit_code)

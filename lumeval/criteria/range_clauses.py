@@ -217,7 +217,9 @@ class SeriesShiftClause(RangeKind):
             raise ParseError("max_delta_upvp", f"{m:g} is not a plausible chromaticity shift (Δu′v′ over 0.1 spans most of the diagram)",
                              "write e.g. 0.004 (about 3-4 steps)")
         ref = _reference_value(table.get("reference", "max"))
-        label = common["label"] or f"Δu′v′ from {ref if isinstance(ref, str) else f'setting {ref:g}'} ≤ {m:g}"
+        where = {"max": "full output", "min": "the lowest setting", "locus": "the locus"}.get(ref, "") if isinstance(ref, str) \
+            else f"setting {ref:g}"
+        label = common["label"] or f"Δu′v′ from {where} ≤ {m:g}"
         return cls(common["id"], label, common["note"], common["line"], m, ref)
 
     def evaluate_range(self, view, settings: np.ndarray) -> tuple[ClauseResult, ...]:
@@ -276,7 +278,7 @@ class TrackLocusClause(RangeKind):
         if m > 0.05:
             raise ParseError("max_abs_duv", f"{m:g} exceeds 0.05, beyond which CCT is not meaningful (CIE 15:2004)",
                              "write a value up to 0.05, e.g. 0.006")
-        label = common["label"] or f"|Duv| ≤ {m:g} at every setting"
+        label = common["label"] or f"|Duv| ≤ {m:g}"
         return cls(common["id"], label, common["note"], common["line"], m)
 
     def evaluate_range(self, view, settings: np.ndarray) -> tuple[ClauseResult, ...]:

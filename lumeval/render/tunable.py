@@ -2,9 +2,9 @@
 
 Nothing is computed here except the labels of ANSI C78.377 categories each setting falls in
 (a lookup in :mod:`lumeval.criteria.regions`). Text from files (channel and spectrum names,
-file names) is untrusted: it reaches the terminal only as plain rich ``Text`` with control
-characters removed (never parsed as markup), and CSV cells that a spreadsheet would run as a
-formula are prefixed with an apostrophe.
+file names) is untrusted: it goes through :mod:`lumeval.render.safe` (plain rich ``Text`` with
+control characters escaped, never parsed as markup; CSV text cells that a spreadsheet would
+run as a formula prefixed with an apostrophe).
 
 Terminal layout (our own): a heading with the model and the notes; one row per setting with the
 weights (mix) or the file and Δu′v′ (series), the headline figures (CCT, Duv, Ra, R9, Rf, Rg,
@@ -26,23 +26,36 @@ import numpy as np
 
 from .tables import CAUTIONS, JSON_SCHEMA_VERSION, spectrum_record
 
-#: The headline figures of the terminal tables and the figures-versus-setting chart.
-HEADLINE = (("cct_K", "CCT K", ".0f"), ("duv", "Duv", "+.4f"), ("Ra", "Ra", ".1f"), ("R9", "R9", ".1f"),
-            ("Rf", "Rf", ".1f"), ("Rg", "Rg", ".1f"), ("ler_lm_per_W", "LER lm/W", ".0f"))
+#: The headline figures of the per-setting tables (issue 16: Ra, R9, Rf, Rg, Duv, LER, with CCT).
+HEADLINE_NAMES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")
+
+
+def headline() -> list[tuple[str, str, str]]:
+    """(name, heading, format spec) of each headline figure, from the figure registry."""
+    from .. import figures
+
+    return [(n, figures.get(n).heading, figures.get(n).spec()) for n in HEADLINE_NAMES]
+
+
+def csv_figures() -> list[str]:
+    """Every figure with a CSV column, in the registry's order (:mod:`lumeval.figures`)."""
+    from .. import figures
+
+    return [n for n in figures.names() if figures.get(n).csv]
 
 NOT_REACHABLE = "not reachable"
 
-_CTRL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
-
-
 def clean(s) -> str:
-    """Untrusted text with control and bidirectional-override characters removed."""
-    return _CTRL.sub("", str(s))
+    """Untrusted text with control characters escaped (:func:`lumeval.render.safe.clean`)."""
+    from .safe import clean as _clean
+
+    return _clean(s)
 
 
 def _csv_cell(s) -> str:
-    s = clean(s)
-    return "'" + s if s[:1] in ("=", "+", "-", "@", "\t", "\r") else s
+    from .safe import csv_text
+
+    return csv_text(s)
 
 
 def _f(v, spec: str) -> str:
@@ -90,9 +103,9 @@ def _per_setting(report):
 
 
 def _text(s, style: str | None = None):
-    from rich.text import Text
+    from .safe import text
 
-    return Text(clean(s), style=style or "")
+    return text(s, style)
 
 
 _WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "not judged": "– NOT JUDGED", "indeterminate": "? INDETERMINATE", "n/a": "·"}
@@ -132,13 +145,13 @@ def renderables(report) -> list:
     else:
         t.add_column("spectrum")
         t.add_column("Δu′v′", justify="right", no_wrap=True)
-    for _, lab, _ in HEADLINE:
+    for _, lab, _ in headline():
         t.add_column(lab, justify="right", no_wrap=True)
     t.add_column("ANSI", no_wrap=True)
     if check is not None:
         t.add_column("verdict")
     cats = ansi_category(_upvp(r))
-    figs = {name: r.figure(name) for name, _, _ in HEADLINE}
+    figs = {name: r.figure(name) for name, _, _ in headline()}
     for i in range(len(r)):
         row = [_text(labels[i])]
         if report.kind == "mix":
@@ -146,9 +159,9 @@ def renderables(report) -> list:
         else:
             row += [_text(_short(r.evaluation.spectra.sources[i])), _f(r.delta_upvp[i], ".4f")]
         if not avail[i]:
-            row += [Text(NOT_REACHABLE, style="bold yellow")] + [""] * (len(HEADLINE) - 1) + [""]
+            row += [Text(NOT_REACHABLE, style="bold yellow")] + [""] * (len(headline()) - 1) + [""]
         else:
-            row += [_f(figs[name][i], spec) for name, _, spec in HEADLINE] + [cats[i] or "—"]
+            row += [_f(figs[name][i], spec) for name, _, spec in headline()] + [cats[i] or "—"]
         if check is not None:
             v = check.verdict(i)
             row.append(Text(_WORD[v], style=_STYLE[v]))
@@ -346,8 +359,7 @@ def to_json(report) -> str:
 def to_csv(report) -> str:
     """One row per setting: setting, weights (mix) or Δu′v′ (series), every figure, each
     clause's outcome (``clause:<id>``) and the setting's verdict."""
-    from ..engine import FIGURE_NAMES
-
+    FIGURE_NAMES = csv_figures()
     r = report.result
     labels, avail, reasons = _per_setting(report)
     head = ["setting", "label"]

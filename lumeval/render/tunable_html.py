@@ -22,12 +22,12 @@ from pathlib import Path
 import numpy as np
 
 from .tunable import (
-    HEADLINE,
     NOT_REACHABLE,
     _notes,
     _per_setting,
     _short,
     ansi_category,
+    headline,
 )
 
 #: The panels of the figures-versus-setting chart: (figure, axis label).
@@ -217,11 +217,11 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
         head += [f"w {c}" for c in r.channel_names]
     else:
         head += ["Spectrum", "Δu′v′"]
-    head += [lab for _, lab, _ in HEADLINE] + ["ANSI category"]
+    head += [lab for _, lab, _ in headline()] + ["ANSI category"]
     if check is not None:
         head += [rr.result.clause_id for rr in check.results] + ["Verdict"]
     cats = ansi_category(np.stack([r.figure("u_prime"), r.figure("v_prime")], axis=-1))
-    figs = {name: r.figure(name) for name, _, _ in HEADLINE}
+    figs = {name: r.figure(name) for name, _, _ in headline()}
     rows, classes = [], []
     for i in range(n):
         row = [_e(labels[i])]
@@ -230,9 +230,9 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
         else:
             row += [f'<span class="mono">{_e(_short(ev.spectra.sources[i]))}</span>', _num(r.delta_upvp[i], ".4f")]
         if avail[i]:
-            row += [_num(figs[name][i], spec) for name, _, spec in HEADLINE] + [_e(cats[i] or "—")]
+            row += [_num(figs[name][i], spec) for name, _, spec in headline()] + [_e(cats[i] or "—")]
         else:
-            row += [f"<b>{_e(NOT_REACHABLE)}</b>"] + [""] * len(HEADLINE)
+            row += [f"<b>{_e(NOT_REACHABLE)}</b>"] + [""] * len(headline())
         if check is not None:
             row += [_badge(rr.outcome[i]) if rr.outcome[i] != "n/a" else "·" for rr in check.results]
             v = check.verdict(i)
@@ -240,7 +240,7 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
         rows.append(row)
         classes.append("fail" if check is not None and check.verdict(i) == "fail" else "")
     k0 = 1 + (len(r.channel_names) if report.kind == "mix" else 2)
-    numeric = [False] + ([True] * len(r.channel_names) if report.kind == "mix" else [False, True]) + [True] * len(HEADLINE)
+    numeric = [False] + ([True] * len(r.channel_names) if report.kind == "mix" else [False, True]) + [True] * len(headline())
     numeric += [False] * (len(head) - len(numeric))
     del k0
     body.append(_table(head, rows, numeric=numeric, row_classes=classes, cls="dense"))
@@ -297,8 +297,8 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
 
 def write_tunable_html(path, report, *, command: str | None = None) -> Path:
     """Write the report atomically to ``path`` (a regular file; checked by the command first)."""
-    from .html import _atomic_write
+    from .._io import write_text
 
     p = Path(path)
-    _atomic_write(p, render_tunable_html(report, command=command).encode("utf-8"))
+    write_text(p, render_tunable_html(report, command=command), option="--html")
     return p

@@ -60,6 +60,9 @@ TOKENS = [
     b"0", b"-5", b"999999", b"1,5", b"1.5", b"\x00", b"\xef\xbb\xbf", b"\xff\xfe", b"\xb5m", "µm".encode(), b"nm",
     b"<!DOCTYPE x [<!ENTITY a 'b'>]>", b"&a;", b"<", b">", b"</SpectralData>", b'wavelength="x"', b"{", b"}",
     b"[", b"]", b'"', b"#", b":", b"=", b"cm-1", b"W/nm", b"relative", b"\x85", "\u2028".encode(),
+    # hostile inputs of issue 11: other scripts' digits, unknown units, lumeval's own keys
+    "\u0663".encode(), "\uff14".encode(), "\u07c1".encode(), b"(km)", b"furlong", b"(mm)", b"/cm", b"pixel",
+    b"lumeval.scale: absolute", b"lumeval.name: forged", b'"format": "x", ',
 ]
 
 
@@ -207,8 +210,9 @@ def csv_text(draw):
     rows = []
     if draw(st.booleans()):
         rows.append(draw(st.sampled_from(["# Instrument: fuzz", "Date;2024", "Operator = x", "free text line"])))
+    unit = None
     if draw(st.booleans()):
-        unit = draw(st.sampled_from(["nm", "µm", "um", "Å", "cm-1", ""]))
+        unit = draw(st.sampled_from(["nm", "µm", "um", "Å", "cm-1", "", "km", "mm", "cm", "furlong", "pixel"]))
         rows.append(delim.join([f"wavelength ({unit})"] + [f"S{c}" for c in range(n_cols)]))
     for w in wl:
         if smooth:
@@ -221,6 +225,11 @@ def csv_text(draw):
                 for _ in range(n_cols)
             ]
         rows.append(delim.join([fmt(float(w))] + [fmt(v) for v in vals]))
+    if draw(st.integers(0, 9)) == 0:  # some digits in another script
+        digits = draw(st.sampled_from(["\u0660\u0661\u0662\u0663\u0664\u0665\u0666\u0667\u0668\u0669",
+                                       "\uff10\uff11\uff12\uff13\uff14\uff15\uff16\uff17\uff18\uff19"]))
+        k = draw(st.integers(0, len(rows) - 1))
+        rows[k] = rows[k].translate(str.maketrans("0123456789", digits))
     newline = draw(st.sampled_from(["\n", "\r\n", "\r"]))
     return newline.join(rows) + newline
 
@@ -233,6 +242,97 @@ def test_generated_csv(text, enc):
     except UnicodeEncodeError:
         raw = text.encode("utf-8")
     _check(raw, "gen.csv")
+    _check_refusals(text, raw)
+
+
+_UNKNOWN_UNIT = re.compile(r"wavelength \((km|mm|cm|furlong|pixel)\)")
+
+
+def _check_refusals(text: str, raw: bytes) -> None:
+    """Issue 11 item 6: an unknown stated wavelength unit and digits outside ASCII 0-9 in the
+    data are never read silently."""
+    unit = _UNKNOWN_UNIT.search(text)
+    foreign = any(ch.isdecimal() and not "0" <= ch <= "9" for ch in text)
+    if not (unit or foreign):
+        return
+    try:
+        s = parse_spectra(raw, "fuzz/gen.csv")
+    except InputError as exc:
+        if unit and "unit" in exc.message:
+            assert repr(unit.group(1)) in exc.message, exc.message
+        return
+    # read: then the foreign digits were outside the data (in the header), and a unit line was
+    # not taken as the column header (single-space delimiter: "wavelength (km)" splits into two
+    # cells); a header that was taken never carries an unknown unit
+    assert not (unit and "lumeval.column" in s.metadata[0]), "an unknown unit in the header was read as nm"
+
+
+@SETTINGS
+@given(text=csv_text())
+def test_large_file_path_agrees_with_line_by_line_path(text):
+    """The large-file path of the text reader (sampled delimiter choice, regex scans, bulk
+    conversion) gives the same spectra, or the same error message, as the line-by-line path:
+    run both on the same generated text, with the large-file threshold lowered to 2 lines."""
+    from lumeval.spectra import text as T
+
+    def parse():
+        try:
+            s = T.parse_text(text, "fuzz/gen.csv")
+            return ("ok", s.wavelengths_nm, s.values, s.names, s.notes, s.metadata)
+        except InputError as exc:
+            return ("error", exc.message)
+
+    small = parse()
+    saved = T._BIG_LINES, T._SAMPLE_HEAD, T._SAMPLE_TAIL
+    try:
+        T._BIG_LINES, T._SAMPLE_HEAD, T._SAMPLE_TAIL = 2, 10_000, 1_000  # sample = whole file here
+        large = parse()
+    finally:
+        T._BIG_LINES, T._SAMPLE_HEAD, T._SAMPLE_TAIL = saved
+    assert small[0] == large[0], (small[:2], large[:2])
+    if small[0] == "error":
+        assert small[1] == large[1]
+    else:
+        np.testing.assert_array_equal(small[1], large[1])
+        np.testing.assert_array_equal(small[2], large[2])
+        assert small[3:] == large[3:]
+
+
+@SETTINGS
+@given(key=st.sampled_from(["format", "version", "wavelengths_nm", "spectra", "name", "values", "x"]),
+       where=st.sampled_from(["top", "spectrum"]))
+def test_json_duplicate_keys_always_refused(key, where):
+    wl = [380 + 5 * k for k in range(81)]
+    spec = {"name": "a", "values": [1.0] * 81}
+    doc = {"format": "lumeval-spectra", "version": 1, "wavelengths_nm": wl, "spectra": [spec]}
+    import json
+
+    body = json.dumps(doc)
+    if where == "top":
+        body = body[:-1] + f", {json.dumps(key)}: 1, {json.dumps(key)}: 2}}"
+    else:
+        body = body.replace('"name": "a"', f'"name": "a", {json.dumps(key)}: 1, {json.dumps(key)}: 2')
+    COUNT["cases"] += 1
+    with pytest.raises(InputError, match="appears twice"):
+        parse_spectra(body.encode(), "fuzz/dup.json")
+    COUNT["input_errors"] += 1
+
+
+@SETTINGS
+@given(lines=st.lists(st.sampled_from(["lumeval.name: forged", "lumeval.scale: absolute", "LUMEVAL.Scale: relative",
+                                       "lumeval.value_unit: W", "lumeval.tm27_version: 9", "operator: Kim",
+                                       "free text", " lumeval.name : x"]), min_size=1, max_size=6))
+def test_tm27_comments_never_set_lumeval_fields(lines):
+    vals = "".join(f'<SpectralData wavelength="{380 + 5 * k}">1.0</SpectralData>' for k in range(81))
+    xml = ('<?xml version="1.0"?><IESTM2714 xmlns="http://www.ies.org/iestm2714">'
+           f'<Header><Description>Lamp</Description><Comments>{chr(10).join(lines)}</Comments></Header>'
+           f"<SpectralDistribution><SpectralQuantity>other</SpectralQuantity>{vals}</SpectralDistribution></IESTM2714>")
+    COUNT["cases"] += 1
+    s = parse_spectra(xml.encode(), "fuzz/c.xml")
+    COUNT["read_ok"] += 1
+    assert s.names == ("Lamp",)
+    assert s.metadata[0]["lumeval.scale"] == "unknown"  # SpectralQuantity "other", whatever the comments say
+    assert "lumeval.tm27_version" not in s.metadata[0] and "lumeval.value_unit" not in s.metadata[0]
 
 
 def test_zz_fuzz_summary():

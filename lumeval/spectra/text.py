@@ -178,12 +178,16 @@ class _RowMemo:
     data block and converting the numbers split and check each line once. Same rules as
     :func:`_split`, :func:`_all_numbers` and the conversion in :func:`parse_text`."""
 
-    def __init__(self) -> None:
+    def __init__(self, cache: bool = True) -> None:
         self._cells: dict[tuple[str, str | None], list[str]] = {}
         self._numeric: dict[tuple[int, bool], bool] = {}
         self._values: dict[tuple[int, bool], np.ndarray] = {}
+        #: False for large files: nothing is kept (memory stays proportional to the file)
+        self.cache = cache
 
     def split(self, line: str, delim: str | None) -> list[str]:
+        if not self.cache:
+            return _split(line, delim)
         key = (line, delim)
         cells = self._cells.get(key)
         if cells is None:
@@ -192,6 +196,8 @@ class _RowMemo:
 
     def all_numbers(self, cells: list[str], decimal_comma: bool) -> bool:
         """:func:`_all_numbers` of ``cells`` (a list returned by :meth:`split`)."""
+        if not self.cache:
+            return _all_numbers(cells, decimal_comma)
         key = (id(cells), decimal_comma)
         ok = self._numeric.get(key)
         if ok is not None:
@@ -218,7 +224,7 @@ class _RowMemo:
     def values(self, cells: list[str], decimal_comma: bool) -> np.ndarray:
         """The numbers of a row for which :meth:`all_numbers` is True (as the reader converts
         them: decimal commas read as points)."""
-        vals = self._values.get((id(cells), decimal_comma))
+        vals = self._values.get((id(cells), decimal_comma)) if self.cache else None
         if vals is None:
             vals = np.array([c.replace(",", ".") for c in cells] if decimal_comma else cells, dtype=float)
         return vals
@@ -260,6 +266,66 @@ def _choose_delimiter(lines: list[tuple[int, str]], memo: _RowMemo | None = None
         if score > best_score:
             best, best_score = d, score
     return best, best_score
+
+
+#: Files with more non-blank lines than this take the large-file path of :func:`parse_text`.
+_BIG_LINES = 20_000
+#: Lines of a large file on which the delimiter and the decimal mark are chosen (head, tail).
+_SAMPLE_HEAD, _SAMPLE_TAIL = 5_000, 1_000
+
+
+def _sample(lines: list) -> list:
+    """The first and last lines of a large file (where headers, data and footers begin and end)."""
+    if len(lines) <= _SAMPLE_HEAD + _SAMPLE_TAIL:
+        return lines
+    return lines[:_SAMPLE_HEAD] + lines[-_SAMPLE_TAIL:]
+
+
+def _numeric_lines(non_comment: list, delim: str | None):
+    """The lines of ``non_comment`` that are rows of two or more numbers with either decimal
+    mark (what the decimal-mark scan of :func:`parse_text` looks at), found by one regex per
+    line instead of a split and a conversion: the large-file path scans every line this way."""
+    sep = r"\s+" if delim is None else r"\s*" + re.escape(delim) + r"\s*"
+    trail = "" if delim is None else r"(?:\s*" + re.escape(delim) + r")*"
+    match = re.compile(rf"{_NUM_ANY}(?:{sep}{_NUM_ANY})+{trail}").fullmatch
+    for ln, s in non_comment:
+        if match(s):
+            yield ln, s
+
+
+def _bulk_rows(non_comment: list, start: int, delim: str | None, ncols: int, decimal_comma: bool):
+    """(values (m, ncols), line numbers (m,), index of the first line not taken) for the longest
+    run of clean data rows from ``non_comment[start]``.
+
+    A clean row is ``ncols`` numbers in the reader's number grammar separated by the delimiter
+    (no quotes): exactly the rows the line-by-line path would accept as data, so taking them
+    here changes no result and no message; the first line that is not one is left to that path
+    (footer, bad cell, wrong cell count). The numbers are converted by numpy in one call.
+    """
+    num = _NUM_ANY if decimal_comma else _NUM_POINT
+    sep = r"\s+" if delim is None else r"\s*" + re.escape(delim) + r"\s*"
+    trail = "" if delim is None else r"(?:\s*" + re.escape(delim) + r")*"
+    rx = re.compile(rf"{num}(?:{sep}{num}){{{ncols - 1}}}{trail}")
+    match = rx.fullmatch
+    end = start
+    n = len(non_comment)
+    while end < n and match(non_comment[end][1]):
+        end += 1
+    if end - start < 2:
+        return None, None, start
+    text = "\n".join(s for _, s in non_comment[start:end])
+    if delim is not None:
+        text = text.replace(delim, " ")
+    if decimal_comma:
+        text = text.replace(",", ".")
+    # numpy's C text parser (whitespace-separated; newlines count as whitespace); the regex above
+    # has checked every cell, and the count is checked below
+    values = np.fromstring(text, dtype=float, sep=" ")
+    del text
+    if values.size != (end - start) * ncols:  # pragma: no cover - the regex guarantees the count
+        return None, None, start
+    lns = np.fromiter((ln for ln, _ in non_comment[start:end]), dtype=np.int64, count=end - start)
+    return values.reshape(end - start, ncols), lns, end
 
 
 def _key_value(s: str, delim: str | None) -> tuple[str, str] | None:
@@ -405,8 +471,14 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     lines = _content_lines(text)
     if not lines:
         raise InputError("the file is empty", file=file, fix="export the spectrum data into it")
-    memo = _RowMemo()
-    delim, score = _choose_delimiter(lines, memo)
+    # A large file (a million rows of a fine or irregular grid) is read without memoising its
+    # lines, choosing the delimiter and decimal mark on a sample of its lines and converting its
+    # block of clean rows in bulk (see _bulk_rows): memory stays a small multiple of the file.
+    big = len(lines) > _BIG_LINES
+    memo = _RowMemo(cache=not big)
+    delim, score = _choose_delimiter(_sample(lines) if big else lines, memo)
+    if big and score <= 0:
+        delim, score = _choose_delimiter(lines, memo)
     if score <= 0:
         for ln, s in lines:
             ch = None if _is_comment(s) else _foreign_digit(s)
@@ -426,7 +498,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
             fix="give one row per wavelength: wavelength then value(s), separated by comma, "
             "semicolon, tab or spaces",
         )
-    non_comment = [(ln, s) for ln, s in lines if not _is_comment(s)]
+    non_comment = [t for t in lines if not _is_comment(t[1])]  # the same tuples, not copies
 
     # decimal mark: comma when the delimiter is not a comma and no data cell uses a point
     def all_numeric(cells, dc):
@@ -435,7 +507,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     decimal_comma = False
     if delim != ",":
         saw_comma = saw_point = None
-        for ln, s in non_comment:
+        for ln, s in (_numeric_lines(non_comment, delim) if big else non_comment):
             cells = memo.split(s, delim)
             if not all_numeric(cells, True):
                 continue
@@ -466,7 +538,10 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     ncols = len(memo.split(first_s, delim))
     rows: list[tuple[int, list[str]]] = []
     footer: list[tuple[int, str]] = []
-    for ln, s in non_comment[start:]:
+    bulk, bulk_ln, rest = None, None, start
+    if big:
+        bulk, bulk_ln, rest = _bulk_rows(non_comment, start, delim, ncols, decimal_comma)
+    for ln, s in non_comment[rest:]:
         cells = memo.split(s, delim)
         is_row = len(cells) >= 2 and _is_number(cells[0], decimal_comma) and not footer
         if not is_row and not footer and len(cells) >= 1 and _is_number(cells[0], decimal_comma):
@@ -562,10 +637,22 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         meta["comment"] = "\n".join(text_lines)
 
     # parse numbers
-    n_rows = len(rows)
+    m = 0 if bulk is None else bulk.shape[0]
+    n_rows = m + len(rows)
     data = np.empty((n_rows, ncols))
+    if bulk is not None:
+        data[:m] = bulk
+        del bulk
+    row_ln = np.concatenate([bulk_ln if bulk_ln is not None else np.empty(0, dtype=np.int64),
+                             np.array([ln for ln, _ in rows], dtype=np.int64)])
+
+    def cell_text(r: int, c: int) -> str:
+        if r < m:
+            return _split(non_comment[start + r][1], delim)[c]
+        return rows[r - m][1][c]
+
     names_hdr = header
-    for r, (ln, cells) in enumerate(rows):
+    for r, (ln, cells) in enumerate(rows, start=m):
         if len(cells) != ncols:
             what = "fewer" if len(cells) < ncols else "more"
             raise InputError(
@@ -595,9 +682,9 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     if not np.all(np.isfinite(data)):
         r, c = np.argwhere(~np.isfinite(data))[0]
         raise InputError(
-            f"the number {rows[r][1][c]!r} in column {c + 1} is too large to represent",
+            f"the number {cell_text(int(r), int(c))[:40]!r} in column {c + 1} is too large to represent",
             file=file,
-            line=rows[r][0],
+            line=int(row_ln[r]),
             fix="correct the value",
         )
 
@@ -616,14 +703,14 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
             f"wavelengths run from {wl.min():g} to {wl.max():g} with no unit stated: "
             "they look like micrometres, not nanometres",
             file=file,
-            line=header_ln or rows[0][0],
+            line=header_ln or int(row_ln[0]),
             fix="state the unit in the wavelength column header, e.g. 'wavelength (µm)', or convert to nm",
         )
     if n_rows < 2:
         raise InputError(
             "only one data row: a spectrum needs values at many wavelengths",
             file=file,
-            line=rows[0][0],
+            line=int(row_ln[0]),
             fix="export the full spectrum",
         )
     d = np.diff(wl)
@@ -631,12 +718,12 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         order = np.argsort(wl)
         wl = wl[order]
         data = data[order]
-        rows = [rows[i] for i in order]
+        row_ln = row_ln[order]
         notes.append("wavelengths were in descending order; sorted ascending")
         d = np.diff(wl)
     if not np.all(d > 0):
         k = int(np.argmax(d <= 0))
-        ln_prev, ln_here = rows[k][0], rows[k + 1][0]
+        ln_prev, ln_here = int(row_ln[k]), int(row_ln[k + 1])
         if d[k] == 0:
             problem = f"wavelength {data[k + 1, 0]:g} repeats the one on line {ln_prev}"
             fix = "delete or correct the duplicate row"

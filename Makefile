@@ -25,6 +25,7 @@ demo: $(STAMP)
 	$(PY) spectra_demo/generate.py
 	$(PY) spectra_demo/generate_lot.py
 	$(PY) spectra_demo/generate_weekly.py
+	$(PY) spectra_demo/generate_tunable.py
 	mkdir -p $(DEMO_OUT)
 	@echo; echo "== 1. Every figure for the five candidate downlights =="
 	$(LUMEVAL) inspect spectra_demo/downlights/*.csv
@@ -47,6 +48,15 @@ demo: $(STAMP)
 	@echo; echo "== 6. The Duv trend over the weeks: the planted phosphor drift (HTML: $(DEMO_OUT)/trend_duv.html) =="
 	$(LUMEVAL) history trend --store $(DEMO_OUT)/history.db --figure duv --baseline-count 5 \
 		--html $(DEMO_OUT)/trend_duv.html
+	@echo; echo "== 7. A two-channel tunable downlight mixed over 2500-6500 K, judged over its range (HTML: $(DEMO_OUT)/tunable_mix.html) =="
+	$(LUMEVAL) mix spectra_demo/tunable/tw2_channels.csv --cct 2500:6500:250 \
+		--criteria spectra_demo/tunable_criteria.toml --html $(DEMO_OUT)/tunable_mix.html || test $$? -eq 1
+	@echo; echo "== 8. The same downlight measured at five setpoints, settings from a manifest (HTML: $(DEMO_OUT)/tunable_setpoints.html) =="
+	$(LUMEVAL) series spectra_demo/tunable/tw2_setpoint_*.csv --manifest spectra_demo/tunable/tw2_setpoints_manifest.toml \
+		--reference locus --criteria spectra_demo/tunable_criteria.toml --html $(DEMO_OUT)/tunable_setpoints.html || test $$? -eq 1
+	@echo; echo "== 9. Its dim-to-warm mode from 100 % down to 5 % (HTML: $(DEMO_OUT)/dim_to_warm.html) =="
+	$(LUMEVAL) series spectra_demo/tunable/tw2_dim2warm_*.csv --criteria spectra_demo/dim_to_warm_criteria.toml \
+		--html $(DEMO_OUT)/dim_to_warm.html || test $$? -eq 1
 	@echo; echo "Reports written to $(DEMO_OUT)/ (open the .html files in a browser)."
 
 test: $(STAMP)
@@ -59,6 +69,7 @@ bench: $(STAMP)
 	$(PY) bench/startup.py
 	$(PY) bench/benchmark.py
 	$(PY) bench/bench_store.py
+	$(PY) bench/bench_mix.py
 
 # On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
 fuzz: $(STAMP)

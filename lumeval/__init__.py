@@ -27,6 +27,7 @@ _API = {
     "Evaluation": "lumeval.engine",
     "inspect_files": "lumeval.commands.inspect",
     "load_criteria": "lumeval.criteria", "check": "lumeval.criteria", "load_claims": "lumeval.criteria", "check_files": "lumeval.commands.check",
+    "mix_files": "lumeval.tunable.api", "series_files": "lumeval.tunable.api",
     "run_lot": "lumeval.commands.lot", "lot_statistics": "lumeval.lot", "lot_from_evaluation": "lumeval.lot",
     "write_html_report": "lumeval.render.html", "write_plots": "lumeval.render.html", "write_outputs": "lumeval.render.html",
     # metrics

@@ -9,9 +9,9 @@ LED channel) with a dim-to-warm mode. None of this is a real product. Files writ
   (relative W/nm, the cool channel brighter), 1 nm, 380-780 nm;
 * ``tw2_setpoint_<T>K.csv`` — the luminaire "measured" at five CCT setpoints. They are the
   linear mix lumeval computes for the setpoint plus what the linear model leaves out: the
-  hotter the board, the more the phosphors shift red and the blue pump droops (here, an
-  invented 2 nm red shift and 6 % pump loss at the 6500 K setpoint, where both channels run
-  hardest), and spectrometer noise. The 6500 K setpoint drifts above the locus on purpose;
+  hotter the board (the more both channels are driven), the more the phosphors shift red and
+  the blue pumps droop (invented: up to 1.5 nm and 4 %), the cool channel gains green at the
+  6500 K setpoint, and the driver is calibrated on CCT; plus spectrometer noise;
 * ``tw2_dim2warm_<L>pct.csv`` — the dim-to-warm mode at 100, 50, 25, 10 and 5 % output:
   the CCT falls from about 3000 K towards 2200 K as a third, amber-rich phosphor mix takes
   over (modelled as separate warm-dim spectra with a setting metadata line as well);

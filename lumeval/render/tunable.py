@@ -24,7 +24,7 @@ import re
 
 import numpy as np
 
-from .tables import CAUTIONS, JSON_SCHEMA_VERSION, spectrum_record
+from .tables import CAUTIONS, JSON_SCHEMA_VERSION, spectrum_records
 
 #: The headline figures of the per-setting tables (issue 16: Ra, R9, Rf, Rg, Duv, LER, with CCT).
 HEADLINE_NAMES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")
@@ -291,6 +291,7 @@ def to_json(report) -> str:
     labels, avail, reasons = _per_setting(report)
     ev = r.evaluation
     cats = ansi_category(_upvp(r))
+    records = spectrum_records(ev) if ev is not None else []  # every spectrum's figures, read once
     settings = []
     for i in range(len(r)):
         rec: dict = {"setting": _num(r.target_cct_K[i] if report.kind == "mix" else r.settings[i]), "label": labels[i]}
@@ -307,7 +308,7 @@ def to_json(report) -> str:
             rec["reference_v_prime"] = _num(r.reference_upvp[i, 1])
             k = i
         rec["ansi_category"] = cats[i] or None
-        rec["figures"] = spectrum_record(ev, k) if (ev is not None and k >= 0) else None
+        rec["figures"] = records[k] if (ev is not None and k >= 0) else None
         if report.check is not None:
             rec["verdict"] = report.check.verdict(i)
             rec["clauses"] = {

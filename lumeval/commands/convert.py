@@ -1,4 +1,5 @@
-"""``lumeval convert IN OUT``: convert spectra between CSV, IES TM-27 XML and lumeval JSON."""
+"""``lumeval convert IN OUT``: convert spectra between CSV, IES TM-27 XML, lumeval JSON and
+Parquet archives."""
 
 from __future__ import annotations
 
@@ -10,7 +11,7 @@ import typer
 def convert_file(src: str | Path, dst: str | Path, *, column: str | None = None, force: bool = False) -> int:
     """Python twin of ``lumeval convert``: read ``src`` and write it to ``dst``.
 
-    The output format follows ``dst``'s extension (.csv, .xml/.spdx, .json). Data are written
+    The output format follows ``dst``'s extension (.csv, .xml/.spdx, .json, .parquet). Data are written
     unchanged (no interpolation or clipping: conversion is not preparation) with Python's
     shortest round-trip number formatting, so CSV → TM-27 XML → CSV reproduces the numbers
     exactly; header metadata travel along. The output is written atomically; the input is
@@ -61,12 +62,12 @@ def register(app: typer.Typer) -> None:
     @app.command("convert")
     def convert_cmd(
         src: Path = typer.Argument(..., metavar="IN", show_default=False,
-                                   help="Input spectrum file (CSV/text, IES TM-27 XML or lumeval JSON)."),
+                                   help="Input spectrum file (CSV/text, IES TM-27 XML, lumeval JSON) or Parquet archive (file or folder)."),
         dst: Path = typer.Argument(..., metavar="OUT", show_default=False,
-                                   help="Output file: .csv, .xml (IES TM-27-14) or .json (lumeval JSON)."),
+                                   help="Output file: .csv, .xml (IES TM-27-14), .json (lumeval JSON) or .parquet (archive)."),
         column: str = typer.Option(None, "--column", "-c", help="Convert only the spectrum with this name."),
         force: bool = typer.Option(False, "--force", help="Replace the output file if it exists."),
     ) -> None:
-        """Convert spectra between CSV, IES TM-27 XML and lumeval JSON, keeping header metadata."""
+        """Convert spectra between CSV, IES TM-27 XML, lumeval JSON and Parquet archives, keeping metadata."""
         n = convert_file(src, dst, column=column, force=force)
         typer.echo(f"wrote {n} {'spectrum' if n == 1 else 'spectra'} to {dst}", err=True)

@@ -48,7 +48,8 @@ def read_spectra(path: str | Path) -> SpectrumSet:
     ----------
     path : str or Path
         A CSV/text file (two columns, or a wavelength column and one column per spectrum),
-        an IES TM-27 XML file, or a lumeval JSON spectra file. See ``docs/input-files.md``.
+        an IES TM-27 XML file, a lumeval JSON spectra file, or a Parquet archive (a file or a
+        folder of them: :mod:`lumeval.spectra.archive`). See ``docs/input-files.md``.
 
     Returns
     -------
@@ -65,7 +66,12 @@ def read_spectra(path: str | Path) -> SpectrumSet:
         ``FILE:LINE: what is wrong — what would fix it``.
     """
     from .._paths import display_path
+    from .archive import is_archive
 
+    if is_archive(path):  # a Parquet file or a folder of them (lumeval.spectra.archive)
+        from .archive import read_archive
+
+        return read_archive(path)
     # the bytes come from the path as given; names, sources and messages use its printable form
     return parse_spectra(_read_bytes(path, MAX_TEXT_BYTES), display_path(path))
 

@@ -1,9 +1,10 @@
 """Write spectra as CSV, IES TM-27 XML or lumeval JSON, atomically.
 
 The output kind follows the file extension: ``.csv``/``.txt`` → CSV, ``.xml``/``.spdx`` →
-IES TM-27-14 XML (one spectrum per file), ``.json`` → lumeval JSON. Files are written by the
-one atomic writer, :func:`lumeval._io.atomic_output`: a reader never sees half a file and a
-failure leaves the old file as it was.
+IES TM-27-14 XML (one spectrum per file), ``.json`` → lumeval JSON, ``.parquet`` → a Parquet
+archive (:mod:`lumeval.spectra.archive`). Files are written by the one atomic writer,
+:func:`lumeval._io.atomic_output`: a reader never sees half a file and a failure leaves the old
+file as it was.
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from .model import SpectrumSet
 CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
 XML_SUFFIXES = {".xml", ".spdx"}
 JSON_SUFFIXES = {".json"}
+PARQUET_SUFFIXES = {".parquet", ".parq", ".pq"}
 
 #: metadata keys describing how a file was read; not written back as file metadata
 _DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format", "lumeval.tm27_version", "lumeval.tm27_namespace")
@@ -60,7 +62,7 @@ def _quote(name: str) -> str:
 
 
 def kind_for(path: str | Path) -> str:
-    """The output kind ('csv', 'xml', 'json') for ``path``'s extension."""
+    """The output kind ('csv', 'xml', 'json', 'parquet') for ``path``'s extension."""
     suffix = Path(path).suffix.lower()
     if suffix in CSV_SUFFIXES:
         return "csv"
@@ -68,10 +70,12 @@ def kind_for(path: str | Path) -> str:
         return "xml"
     if suffix in JSON_SUFFIXES:
         return "json"
+    if suffix in PARQUET_SUFFIXES:
+        return "parquet"
     raise UsageError(
         f"cannot tell the output format from the extension {suffix or '(none)'!r}",
         file=str(path),
-        fix="name the output .csv, .xml (IES TM-27) or .json (lumeval JSON)",
+        fix="name the output .csv, .xml (IES TM-27), .json (lumeval JSON) or .parquet (archive)",
     )
 
 
@@ -83,6 +87,10 @@ def serialise(spectra: SpectrumSet, kind: str) -> bytes:
         from .jsonio import to_json_bytes
 
         return to_json_bytes(spectra)
+    if kind == "parquet":
+        from .archive import to_parquet_bytes
+
+        return to_parquet_bytes(spectra)
     if kind == "xml":
         if len(spectra) != 1:
             raise UsageError(

@@ -1,0 +1,499 @@
+"""Spectrum archives in Apache Parquet: many spectra, one row each, read in bounded memory.
+
+The format (docs/input-files.md, "Parquet archives")
+---------------------------------------------------
+* **One row per spectrum.**
+* **Every column whose name is a number is a wavelength in nm** (``"380"``, ``"380.0"``,
+  ``"382.5"``); its values are the spectral values at that wavelength (any integer, floating
+  or decimal Parquet type; a null is a missing value). Column order does not matter; the
+  wavelengths are sorted ascending.
+* **A** ``name`` **column** (text) names each spectrum. Without one the spectra are named
+  ``row 1``, ``row 2``… in file order.
+* **Every other column is metadata** (sample id, station, timestamp, product, drive
+  current…): carried, with its Parquet type, into every per-sample output (``lot
+  --samples-parquet``, the per-sample CSV and JSON, :meth:`Evaluation.to_arrow`).
+* **A folder of Parquet files is one archive**: every file directly inside it whose name ends
+  in ``.parquet``/``.parq``/``.pq`` (hidden files skipped), in name order.
+
+Each spectrum's source is ``FILE#row K`` (K counted from 1 within the file), so an error or a
+report line names the row to look at.
+
+Streaming
+---------
+:func:`iter_batches` reads a file row group by row group (``pyarrow.parquet.ParquetFile
+.iter_batches``) and yields :class:`ArchiveBatch` es of at most ``batch_rows`` spectra; only the
+current batch and the row group being decoded are in memory, whatever the archive's size.
+Batches never span two *partitions* (runs of whole row groups planned by
+:func:`plan_partitions`): a lot run on one machine and on a Dask cluster
+(:mod:`lumeval.lots.dask_runner`) then evaluate exactly the same batches.
+
+pyarrow is imported only here, and only when an archive is read or written (``pip install
+lumeval[archive]``).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Iterator, Sequence
+
+import numpy as np
+
+from ..errors import InputError, UsageError
+from .model import SpectrumSet
+
+#: File name endings of Parquet files (inside an archive folder too).
+PARQUET_SUFFIXES = (".parquet", ".parq", ".pq")
+#: The four bytes every Parquet file starts (and ends) with.
+PARQUET_MAGIC = b"PAR1"
+#: Spectra per batch when streaming (the lot command passes its own batch size).
+BATCH_ROWS = 2048
+#: Rows per partition: whole row groups are joined until a partition holds at least this many.
+PARTITION_ROWS = 16384
+#: Rows per row group written by :func:`write_archive`.
+ROW_GROUP_ROWS = 16384
+#: The column that names the spectra.
+NAME_COLUMN = "name"
+
+_NUMBER = re.compile(r"^\s*[+]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
+_FIX_INSTALL = "install the archive extra: pip install 'lumeval[archive]'"
+
+
+def _pa():
+    """(pyarrow, pyarrow.parquet), imported on first use."""
+    try:
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+    except ImportError:  # pragma: no cover - the extra is part of the test install
+        raise UsageError("reading or writing Parquet archives needs pyarrow", fix=_FIX_INSTALL) from None
+    return pa, pq
+
+
+# --------------------------------------------------------------------------- recognising
+
+
+def _parquet_files_in(folder: Path) -> list[Path]:
+    try:
+        entries = list(os.scandir(folder))
+    except OSError:
+        return []
+    return sorted(
+        (Path(e.path) for e in entries
+         if not e.name.startswith(".") and e.name.lower().endswith(PARQUET_SUFFIXES) and e.is_file()),
+        key=lambda p: p.name,
+    )
+
+
+def is_archive(path: str | os.PathLike) -> bool:
+    """True when ``path`` is a Parquet file (by extension or by its first four bytes) or a
+    folder holding Parquet files. Cheap: imports nothing, reads at most four bytes."""
+    p = Path(path)
+    try:
+        if p.is_dir():
+            return bool(_parquet_files_in(p))
+        if p.suffix.lower() in PARQUET_SUFFIXES:
+            return True
+        if p.is_file():
+            with open(p, "rb") as fh:
+                return fh.read(4) == PARQUET_MAGIC
+    except OSError:
+        return False
+    return False
+
+
+def archive_files(path: str | os.PathLike) -> list[str]:
+    """The Parquet files of an archive: the file itself, or a folder's Parquet files by name."""
+    p = Path(path)
+    if p.is_dir():
+        files = _parquet_files_in(p)
+        if not files:
+            raise InputError("the folder holds no Parquet files (.parquet, .parq, .pq)", file=str(p),
+                             fix="give the archive's folder or one of its files")
+        return [str(f) for f in files]
+    return [str(p)]
+
+
+# --------------------------------------------------------------------------- layout
+
+
+@dataclass(frozen=True)
+class Layout:
+    """How one Parquet file's columns map onto spectra.
+
+    Attributes
+    ----------
+    wavelengths_nm : ndarray (W,)
+        Ascending.
+    wavelength_columns : tuple of str (W,)
+        The column of each wavelength, in ascending wavelength order.
+    name_column : str or None
+    metadata_columns : tuple of str
+        Every other column, in file order.
+    """
+
+    wavelengths_nm: np.ndarray
+    wavelength_columns: tuple[str, ...]
+    name_column: str | None
+    metadata_columns: tuple[str, ...]
+
+
+def wavelength_of(column: str) -> float | None:
+    """The wavelength a column name states, or None when the name is not a number."""
+    if not _NUMBER.match(column):
+        return None
+    return float(column)
+
+
+def layout_of(schema, file: str) -> Layout:
+    """Check an Arrow schema and map its columns (see the module docstring).
+
+    Raises
+    ------
+    InputError
+        No wavelength columns; a wavelength of zero or out of range; two columns naming one
+        wavelength; a wavelength column that does not hold numbers; a ``name`` column that
+        does not hold text.
+    """
+    pa, _ = _pa()
+    wl_cols: list[tuple[float, str]] = []
+    meta: list[str] = []
+    name_col = None
+    seen: dict[float, str] = {}
+    for fld in schema:
+        col = fld.name
+        w = wavelength_of(col)
+        if w is None:
+            if col == NAME_COLUMN:
+                t = fld.type
+                if pa.types.is_dictionary(t):
+                    t = t.value_type
+                if not (pa.types.is_string(t) or pa.types.is_large_string(t) or _is_string_view(pa, t)):
+                    raise InputError(f"the {NAME_COLUMN!r} column holds {t}, not text", file=file, field=col,
+                                     fix="store the spectrum names as strings, or rename the column to keep it as metadata")
+                name_col = col
+            else:
+                meta.append(col)
+            continue
+        if not math.isfinite(w) or w <= 0 or w > 100000:
+            raise InputError(f"column {col!r} names the wavelength {w:g} nm, which no spectrum has", file=file, field=col,
+                             fix="name wavelength columns in nm, e.g. '380' or '380.5'")
+        if w in seen:
+            raise InputError(f"columns {seen[w]!r} and {col!r} both name {w:g} nm", file=file, field=col,
+                             fix="keep one column per wavelength")
+        t = fld.type
+        if not (pa.types.is_integer(t) or pa.types.is_floating(t) or pa.types.is_decimal(t)):
+            raise InputError(f"wavelength column {col!r} holds {t}, not numbers", file=file, field=col,
+                             fix="store spectral values as floating-point numbers (float64)")
+        seen[w] = col
+        wl_cols.append((w, col))
+    if not wl_cols:
+        raise InputError("no column is named by a wavelength: found only "
+                         + (", ".join(repr(m) for m in [*([name_col] if name_col else []), *meta][:8]) or "no columns"),
+                         file=file,
+                         fix="give one column per wavelength, named by the wavelength in nm ('380', '385', …)")
+    wl_cols.sort()
+    return Layout(np.array([w for w, _ in wl_cols]), tuple(c for _, c in wl_cols), name_col, tuple(meta))
+
+
+def _is_string_view(pa, t) -> bool:
+    f = getattr(pa.types, "is_string_view", None)
+    return bool(f(t)) if f is not None else False
+
+
+def open_file(file: str):
+    """(pyarrow.parquet.ParquetFile, Layout) of one archive file, errors as :class:`InputError`."""
+    from .._paths import display_path
+
+    pa, pq = _pa()
+    opened_as, file = file, display_path(file)  # open the path as given; show its printable form
+    try:
+        pf = pq.ParquetFile(opened_as)
+    except FileNotFoundError:
+        raise InputError("no such file", file=file, fix="check the path") from None
+    except IsADirectoryError:
+        raise InputError("is a folder", file=file, fix="give a Parquet file or an archive folder") from None
+    except PermissionError:
+        raise InputError("cannot be read (permission denied)", file=file, fix="check the file's permissions") from None
+    except (pa.ArrowException, OSError, ValueError) as exc:
+        raise InputError(f"not a readable Parquet file ({_short(exc)})", file=file,
+                         fix="check the file was written completely, or give a CSV, TM-27 or JSON file") from None
+    return pf, layout_of(pf.schema_arrow, file)
+
+
+def _short(exc: BaseException) -> str:
+    text = " ".join(str(exc).split())
+    return text[:160] + ("…" if len(text) > 160 else "")
+
+
+# --------------------------------------------------------------------------- partitions
+
+
+def plan_partitions(pf, partition_rows: int | None = None) -> list[tuple[int, list[int]]]:
+    """Runs of whole row groups holding at least ``partition_rows`` (default
+    :data:`PARTITION_ROWS`) rows each (the last may hold fewer): ``[(first_row, [row group
+    indices]), ...]``. ``first_row`` counts from 0."""
+    partition_rows = partition_rows or PARTITION_ROWS
+    md = pf.metadata
+    out: list[tuple[int, list[int]]] = []
+    start = 0
+    cur: list[int] = []
+    cur_rows = 0
+    row = 0
+    for g in range(md.num_row_groups):
+        n = md.row_group(g).num_rows
+        if not cur:
+            start = row
+        cur.append(g)
+        cur_rows += n
+        row += n
+        if cur_rows >= partition_rows:
+            out.append((start, cur))
+            cur, cur_rows = [], 0
+    if cur:
+        out.append((start, cur))
+    return out
+
+
+# --------------------------------------------------------------------------- reading
+
+
+@dataclass(frozen=True)
+class ArchiveBatch:
+    """A batch of spectra read from one archive file.
+
+    Attributes
+    ----------
+    spectra : SpectrumSet
+        Raw (not prepared). ``metadata`` holds each row's metadata columns as Python values
+        only when asked for (``row_metadata=True``).
+    metadata : pyarrow.Table or None
+        The batch's metadata columns with their Parquet types (None when the file has none).
+    first_row : int
+        Index (from 0) of the batch's first row within its file.
+    """
+
+    spectra: SpectrumSet
+    metadata: object
+    first_row: int
+
+
+def _values(batch, layout: Layout) -> np.ndarray:
+    """(n, W) float64 matrix of the wavelength columns of a record batch (nulls → NaN)."""
+    n = batch.num_rows
+    out = np.empty((n, len(layout.wavelength_columns)))
+    names = batch.schema.names
+    for j, col in enumerate(layout.wavelength_columns):
+        arr = batch.column(names.index(col))
+        if arr.null_count:
+            arr = arr.cast("float64").fill_null(float("nan"))
+        out[:, j] = arr.to_numpy(zero_copy_only=False)
+    return out
+
+
+def _names(batch, layout: Layout, file: str, first_row: int) -> list[str]:
+    n = batch.num_rows
+    if layout.name_column is None:
+        return [f"row {first_row + k + 1}" for k in range(n)]
+    col = batch.column(batch.schema.names.index(layout.name_column))
+    if col.null_count:
+        k = int(np.flatnonzero(col.is_null().to_numpy(zero_copy_only=False))[0])
+        raise InputError(f"row {first_row + k + 1} has no name (null in the {NAME_COLUMN!r} column)", file=file,
+                         field=NAME_COLUMN, fix="give every spectrum a name")
+    return [str(v) for v in col.to_pylist()]
+
+
+def _json_safe(v):
+    """A metadata value as JSON-friendly Python (numbers, text, booleans; others as text)."""
+    if v is None or isinstance(v, (bool, int, str)):
+        return v
+    if isinstance(v, float):
+        return v if math.isfinite(v) else None
+    if hasattr(v, "isoformat"):
+        return v.isoformat()
+    return str(v)
+
+
+def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_metadata: bool) -> ArchiveBatch:
+    pa, _ = _pa()
+    values = _values(batch, layout)
+    names = _names(batch, layout, file, first_row)
+    sources = [f"{file}#row {first_row + k + 1}" for k in range(batch.num_rows)]
+    meta_tbl = None
+    if layout.metadata_columns:
+        idx = [batch.schema.names.index(c) for c in layout.metadata_columns]
+        meta_tbl = pa.Table.from_batches([batch.select(idx)])
+    if row_metadata:
+        rows = meta_tbl.to_pylist() if meta_tbl is not None else [{} for _ in names]
+        metas = tuple({"lumeval.format": "Parquet archive", **{k: _json_safe(v) for k, v in r.items() if v is not None}}
+                      for r in rows)
+    else:
+        metas = ()
+    s = SpectrumSet(layout.wavelengths_nm, values, tuple(names), tuple(sources), (), metas)
+    return ArchiveBatch(s, meta_tbl, first_row)
+
+
+def iter_batches(
+    file: str,
+    *,
+    batch_rows: int = BATCH_ROWS,
+    partitions: Sequence[tuple[int, list[int]]] | None = None,
+    row_metadata: bool = False,
+    opened=None,
+) -> Iterator[ArchiveBatch]:
+    """Stream one archive file as batches of at most ``batch_rows`` raw spectra.
+
+    Parameters
+    ----------
+    file : str
+    batch_rows : int
+    partitions : list of (first_row, row groups), optional
+        Read only these partitions (default: every partition of :func:`plan_partitions`).
+        Batches restart at each partition.
+    row_metadata : bool
+        Also put each row's metadata into ``SpectrumSet.metadata`` as Python values (for
+        reports of a few spectra; a lot keeps the Arrow table instead).
+    opened : (ParquetFile, Layout), optional
+        An already opened file.
+
+    Raises
+    ------
+    InputError
+        A bad layout (see :func:`layout_of`), a row without a name, or a file that cannot be
+        decoded.
+    """
+    from .._paths import display_path
+
+    pa, _ = _pa()
+    pf, layout = opened if opened is not None else open_file(file)
+    file = display_path(file)
+    if partitions is None:
+        partitions = plan_partitions(pf)
+    columns = [*([layout.name_column] if layout.name_column else []), *layout.wavelength_columns,
+               *layout.metadata_columns]
+    for first_row, groups in partitions:
+        row = first_row
+        try:
+            reader = pf.iter_batches(batch_size=batch_rows, row_groups=groups, columns=columns, use_threads=False)
+            pending = []
+            pending_rows = 0
+            for rb in reader:
+                # pyarrow may cut batches at row-group ends: join them back to batch_rows
+                pending.append(rb)
+                pending_rows += rb.num_rows
+                while pending_rows >= batch_rows:
+                    tbl = pa.Table.from_batches(pending)
+                    head = tbl.slice(0, batch_rows).combine_chunks().to_batches()
+                    rest = tbl.slice(batch_rows)
+                    yield _batch_from_record(_one(pa, head, tbl.schema), layout, file, row, row_metadata)
+                    row += batch_rows
+                    pending = rest.combine_chunks().to_batches() if rest.num_rows else []
+                    pending_rows = rest.num_rows
+            if pending_rows:
+                tbl = pa.Table.from_batches(pending).combine_chunks()
+                yield _batch_from_record(_one(pa, tbl.to_batches(), tbl.schema), layout, file, row, row_metadata)
+        except (pa.ArrowException, OSError) as exc:
+            raise InputError(f"cannot be decoded near row {row + 1} ({_short(exc)})", file=file,
+                             fix="check the file was written completely") from None
+
+
+def _one(pa, batches, schema):
+    if len(batches) == 1:
+        return batches[0]
+    if not batches:
+        return pa.RecordBatch.from_pylist([], schema=schema)
+    return pa.Table.from_batches(batches).combine_chunks().to_batches()[0]
+
+
+def read_archive(path: str | os.PathLike) -> SpectrumSet:
+    """Read a whole archive (a Parquet file or a folder of them) into one raw SpectrumSet.
+
+    For commands that report on every spectrum (``inspect``, ``check``, ``convert``); a lot
+    streams instead. Each spectrum's ``metadata`` holds its row's metadata columns (as Python
+    values; timestamps as ISO 8601 text). Every file of a folder must give the same
+    wavelengths.
+    """
+    files = archive_files(path)
+    sets: list[SpectrumSet] = []
+    wl = None
+    for f in files:
+        opened = open_file(f)
+        if wl is not None and not np.array_equal(opened[1].wavelengths_nm, wl):
+            raise InputError("its wavelength columns differ from those of " + files[0], file=f,
+                             fix="keep one wavelength grid per archive folder, or read the files one by one")
+        wl = opened[1].wavelengths_nm
+        sets.extend(b.spectra for b in iter_batches(f, batch_rows=65536, row_metadata=True, opened=opened))
+    if not sets:
+        raise InputError("the archive holds no rows", file=str(path), fix="give an archive with at least one spectrum")
+    return sets[0] if len(sets) == 1 else SpectrumSet.concatenate(sets)
+
+
+def count_rows(path: str | os.PathLike) -> int:
+    """Rows (spectra) of an archive, from the Parquet footers alone."""
+    return sum(open_file(f)[0].metadata.num_rows for f in archive_files(path))
+
+
+# --------------------------------------------------------------------------- writing
+
+
+def wavelength_column_name(wl: float) -> str:
+    """``"380"`` for whole nanometres, else Python's shortest round-trip repr (``"380.5"``)."""
+    w = float(wl)
+    return str(int(w)) if w.is_integer() else repr(w)
+
+
+#: metadata keys describing how a file was read; not written as archive columns
+_DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format",
+            "lumeval.tm27_version", "lumeval.tm27_namespace")
+
+
+def archive_table(spectra: SpectrumSet):
+    """The spectra as an Arrow table in the archive layout: ``name``, then one text column
+    per metadata key (keys describing how a file was read are left out; a spectrum without
+    the key gets a null), then one float64 column per wavelength."""
+    pa, _ = _pa()
+    keys: list[str] = []
+    for m in spectra.metadata:
+        for k in m:
+            if k not in _DERIVED and k not in keys and k != NAME_COLUMN and wavelength_of(k) is None:
+                keys.append(k)
+    cols = {NAME_COLUMN: pa.array(list(spectra.names), type=pa.string())}
+    for k in keys:
+        cols[k] = pa.array([None if m.get(k) is None else str(m[k]) for m in spectra.metadata], type=pa.string())
+    for j, w in enumerate(spectra.wavelengths_nm):
+        cols[wavelength_column_name(w)] = pa.array(np.ascontiguousarray(spectra.values[:, j]), type=pa.float64())
+    return pa.table(cols)
+
+
+def to_parquet_bytes(spectra: SpectrumSet, *, row_group_rows: int = ROW_GROUP_ROWS) -> bytes:
+    """Serialise spectra as one Parquet file (zstd-compressed, row groups of ``row_group_rows``).
+    Values are float64: reading the file back is exact."""
+    pa, pq = _pa()
+    sink = pa.BufferOutputStream()
+    pq.write_table(archive_table(spectra), sink, row_group_size=row_group_rows, compression="zstd")
+    return sink.getvalue().to_pybytes()
+
+
+def write_archive(spectra: SpectrumSet, path: str | os.PathLike, *, row_group_rows: int = ROW_GROUP_ROWS) -> None:
+    """Write ``spectra`` as one Parquet archive file, atomically."""
+    from .._io import write_bytes
+
+    write_bytes(path, to_parquet_bytes(spectra, row_group_rows=row_group_rows))
+
+
+def write_tables(path: str | os.PathLike, schema, tables, *, option: str | None = None) -> None:
+    """Write Arrow ``tables`` (an iterable, consumed one at a time: bounded memory) as one
+    Parquet file with ``schema``, through the one atomic writer (:func:`lumeval._io.atomic_output`:
+    a temporary file renamed over ``path`` when complete; nothing left behind on failure)."""
+    from .._io import atomic_output
+
+    _, pq = _pa()
+    with atomic_output(path, option=option) as fh:
+        writer = pq.ParquetWriter(fh, schema, compression="zstd")
+        try:
+            for t in tables:
+                writer.write_table(t)
+        finally:
+            writer.close()

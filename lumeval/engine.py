@@ -93,6 +93,20 @@ class Evaluation:
 
         return figures.get(name).value(self)
 
+    def to_arrow(self):
+        """One row per spectrum, one column per figure, metadata kept, as a ``pyarrow.Table``
+        (:func:`lumeval.frames.evaluation_to_arrow`; needs ``lumeval[archive]``)."""
+        from .frames import evaluation_to_arrow
+
+        return evaluation_to_arrow(self)
+
+    def to_pandas(self):
+        """One row per spectrum, one column per figure, metadata kept, as a
+        ``pandas.DataFrame`` (:func:`lumeval.frames.evaluation_to_pandas`)."""
+        from .frames import evaluation_to_pandas
+
+        return evaluation_to_pandas(self)
+
     def reference_spd(self, i: int) -> np.ndarray:
         """The CIE 13.3 reference SPD (Planckian < 5000 K, CIE daylight ≥ 5000 K) of spectrum i
         at its CCT, on the spectrum's grid, scaled to the same luminance (Y) as the test SPD.

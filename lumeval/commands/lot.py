@@ -91,6 +91,8 @@ class LotRun:
     skipped: tuple[Skipped, ...] = ()
     #: The files that gave judged samples (paths that open them; for the HTML report).
     read_paths: tuple[str, ...] = ()
+    #: pyarrow.Table: the Parquet archives' metadata columns, one row per sample (None without)
+    metadata: object = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -190,6 +192,8 @@ def run_lot(
     batch_spectra: int = BATCH_SPECTRA,
     progress: Callable[[int, int, int], None] | None = None,
     uncertainty=None,
+    scheduler: str | None = None,
+    workers: int | None = None,
 ) -> LotRun:
     """Python twin of ``lumeval lot``: read, evaluate, judge and summarise a lot.
 
@@ -212,28 +216,30 @@ def run_lot(
         When active, every sample's per-sample clauses are re-decided under measurement
         uncertainty (Monte Carlo per sample; docs/uncertainty.md). Lot clauses (centroid,
         pairwise Δu'v', yield) are judged on the measured values as before.
+    scheduler, workers
+        Evaluate on a Dask cluster: the address of a running scheduler, or a local cluster of
+        ``workers`` processes (:func:`lumeval.lots.dask_runner.run_lot_dask`; Parquet
+        archives only). The result equals the local run's.
 
     Returns
     -------
     LotRun
     """
-    import numpy as np
+    if scheduler is not None or workers is not None:
+        from ..lots.dask_runner import run_lot_dask
 
-    from ..engine import evaluate
-    from ..figures import names as figure_names
-    from ..lot import lot_statistics
+        return run_lot_dask(paths, criteria, scheduler=scheduler, workers=workers, ellipse=ellipse,
+                            nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
+                            uncertainty=uncertainty)
+    from ..lots.streaming import LotAccumulator, archive_batches, evaluate_batch
+    from ..spectra.archive import is_archive
     from ..spectra.model import SpectrumSet
 
-    FIGURE_NAMES = figure_names()
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []
-    names: list[str] = []
-    sources: list[str] = []
-    warns: list[tuple[str, ...]] = []
-    fig_parts: list[np.ndarray] = []
-    xy_parts: list[np.ndarray] = []
-    clause_parts: list[list] = []
+    archives = [is_archive(f) for f in files]
+    acc = LotAccumulator(_expected_samples(files, archives))
     pending: dict[tuple, list] = {}
     pending_n = 0
     done = 0
@@ -245,92 +251,66 @@ def run_lot(
         if has_sample_clauses(criteria):
             sample_criteria = criteria
 
+    def consume(s, meta=None) -> None:
+        acc.add(evaluate_batch(s, sample_criteria, uncertainty, offset=len(acc), metadata=meta))
+
     def flush() -> None:
         nonlocal pending, pending_n
         for group in pending.values():
-            s = group[0] if len(group) == 1 else SpectrumSet.concatenate(group)
-            ev = evaluate(s, chunk_size=ENGINE_CHUNK, keep_details=False)
-            names.extend(ev.spectra.names)
-            sources.extend(ev.spectra.sources)
-            warns.extend(ev.warnings)
-            fig_parts.append(np.column_stack([ev.figure(k) for k in FIGURE_NAMES]))
-            xy_parts.append(np.column_stack([ev.x, ev.y]))
-            if sample_criteria is not None and uncertainty is not None and uncertainty.active:
-                from ..uncertainty.judge import judge_with_uncertainty
-
-                offset = len(names) - len(ev.spectra.names)
-                clause_parts.append(list(judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset)[0].results))
-            elif sample_criteria is not None:
-                clause_parts.append(list(sample_criteria.evaluate(ev).results))
+            consume(group[0] if len(group) == 1 else SpectrumSet.concatenate(group))
         pending = {}
         pending_n = 0
 
     for k, path in enumerate(files):
-        s, bad = _read_one(path)
-        unreadable.extend(bad)
-        if s is not None:
-            read_paths.append(path)
-            pending.setdefault(_grid_key(s), []).append(s)
-            pending_n += len(s)
-            done += len(s)
-        if pending_n >= batch_spectra:
-            flush()
+        if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
+            from ..errors import LumevalError
+
+            flush()  # samples stay in input order
+            try:
+                for s, meta, bad in archive_batches(path, batch_spectra):
+                    unreadable.extend(bad)
+                    if s is not None:
+                        if not read_paths or read_paths[-1] != path:
+                            read_paths.append(path)
+                        consume(s, meta)
+                        done += len(s)
+                        if progress is not None:
+                            progress(k, len(files), done)
+            except LumevalError as exc:
+                unreadable.append(Unreadable(path, exc.message))
+        else:
+            s, bad = _read_one(path)
+            unreadable.extend(bad)
+            if s is not None:
+                read_paths.append(path)
+                pending.setdefault(_grid_key(s), []).append(s)
+                pending_n += len(s)
+                done += len(s)
+            if pending_n >= batch_spectra:
+                flush()
         if progress is not None:
             progress(k + 1, len(files), done)
     flush()
+    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
+                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,
+                      read_paths=tuple(read_paths))
 
-    n = len(names)
-    figs_mat = np.vstack(fig_parts) if fig_parts else np.empty((0, len(FIGURE_NAMES)))
-    figures = {k: figs_mat[:, j] for j, k in enumerate(FIGURE_NAMES)}
-    xy = np.vstack(xy_parts) if xy_parts else np.empty((0, 2))
 
-    check = None
-    if sample_criteria is not None and clause_parts:
-        from ..criteria.verdicts import CheckResult
+def _expected_samples(files: list[str], archives: list[bool]) -> int:
+    """Samples a lot expects (archives: their rows, from the Parquet footers; other files: one
+    each), to size the per-sample buffers once."""
+    n = 0
+    for f, is_arch in zip(files, archives):
+        if is_arch:
+            try:
+                from ..spectra.archive import count_rows
 
-        results = tuple(_concat_clause([p[j] for p in clause_parts]) for j in range(len(clause_parts[0])))
-        check = CheckResult(tuple(names), tuple(sources), tuple(warns), results, dict(criteria.identification), criteria.file)
-        if uncertainty is not None and uncertainty.active:
-            from dataclasses import replace as _replace
-
-            from ..uncertainty.judge import uncertainty_info
-
-            check = _replace(check, uncertainty=uncertainty_info(uncertainty, None))
-
-    if criteria is not None and ellipse is None and nominal_xy is None:
-        ellipse, nominal_xy = _nominal_from_criteria(criteria)
-
-    stats = lot_statistics(
-        figures,
-        xy,
-        ellipse=ellipse,
-        nominal_xy=nominal_xy,
-        verdicts=check.verdicts if check is not None else None,
-    )
-    lot_results: tuple = ()
-    has_yield = False
-    if criteria is not None:
-        from ..criteria.lot_clauses import LotYieldClause, evaluate_lot_clauses, lot_clauses
-
-        lot_results = evaluate_lot_clauses(criteria, stats, xy, check.verdicts if check is not None else None)
-        has_yield = any(isinstance(c, LotYieldClause) for c in lot_clauses(criteria))
-    return LotRun(
-        names=tuple(names),
-        sources=tuple(sources),
-        warnings=tuple(warns),
-        figures=figures,
-        xy=xy,
-        stats=stats,
-        check=check,
-        lot_results=lot_results,
-        unreadable=tuple(unreadable),
-        files=len(files),
-        criteria_file=getattr(criteria, "file", None) if criteria is not None else None,
-        identification=dict(getattr(criteria, "identification", {}) or {}) if criteria is not None else {},
-        has_yield_clause=has_yield,
-        skipped=found.skipped,
-        read_paths=tuple(read_paths),
-    )
+                n += count_rows(f)
+            except Exception:  # noqa: BLE001 - an unreadable archive is reported when it is read
+                pass
+        else:
+            n += 1
+    return n
 
 
 def _nominal_from_criteria(criteria):
@@ -430,6 +410,15 @@ def register(app: typer.Typer) -> None:
                                           "signals of these figures (e.g. duv,R9).", show_default=False),
         fail_on_signal: bool = typer.Option(False, "--fail-on-signal", help="Exit 1 when the recorded lot gives a "
                                             "control-chart signal."),
+        samples_parquet: Path = typer.Option(
+            None, "--samples-parquet", help="Also write the per-sample table (figures, verdicts, outliers and the "
+            "archive's metadata columns) as Parquet to this file.", show_default=False),
+        scheduler: str = typer.Option(
+            None, "--scheduler", help="Evaluate Parquet archives on this running Dask cluster (tcp://HOST:PORT; "
+            "docs/lots.md).", show_default=False),
+        workers: int = typer.Option(
+            None, "--workers", help="Evaluate Parquet archives on a local Dask cluster of N worker processes "
+            "(loopback only).", show_default=False),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ._targets import check_targets
@@ -437,7 +426,8 @@ def register(app: typer.Typer) -> None:
 
         check_store_options(store, lot_id, product, trend_figures, fail_on_signal or None)
 
-        outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html}
+        outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html,
+                   "--samples-parquet": samples_parquet}
         dir_files = None
         if plots is not None:
             from ..render.html import PLOT_FILE_PATTERNS
@@ -479,9 +469,9 @@ def register(app: typer.Typer) -> None:
                 def tick(k, total, samples):
                     bar.update(task, completed=k, total=total, samples=samples)
 
-                run = run_lot(paths, criteria, progress=tick, uncertainty=setup)
+                run = run_lot(paths, criteria, progress=tick, uncertainty=setup, scheduler=scheduler, workers=workers)
         else:
-            run = run_lot(paths, criteria, uncertainty=setup)
+            run = run_lot(paths, criteria, uncertainty=setup, scheduler=scheduler, workers=workers)
 
         from ..render import lot_report
 
@@ -489,6 +479,10 @@ def register(app: typer.Typer) -> None:
             _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
         if json_file is not None:
             _write_atomic(json_file, lambda f: lot_report.lot_json(run, f), "--json")
+        if samples_parquet is not None:
+            from ..frames import write_samples_parquet
+
+            write_samples_parquet(run, samples_parquet)
         # the report last: the data files are the record, the report draws them
         if html is not None or plots is not None:
             _write_lot_report(run, criteria, html, plots)

@@ -37,7 +37,8 @@ from collections.abc import Iterator, Sequence
 from .._paths import display_path
 
 #: File extensions taken from folders.
-SPECTRUM_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".xml", ".spdx", ".tm27", ".json")
+SPECTRUM_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".xml", ".spdx", ".tm27", ".json",
+                     ".parquet", ".parq", ".pq")  # Parquet archives: lumeval.spectra.archive
 
 _GLOB_CHARS = set("*?[")
 

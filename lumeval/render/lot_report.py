@@ -19,7 +19,8 @@ Lot JSON (``schema_version`` 1; names never change meaning, new names may be add
                   max_pairwise_delta_upvp, max_pair [name, name], delta_upvp_centroid
                   {max, p95}, steps_centroid {max, p95}},
     outlier_rule, notes, unreadable [{source, message}], skipped [{path, reason}],
-    samples [{name, source, verdict, outlier, outlier_reasons, delta_upvp_centroid,
+    samples [{name, source, metadata {column: value} (Parquet archives only), verdict, outlier,
+              outlier_reasons, delta_upvp_centroid,
               steps_centroid, delta_upvp_nominal, steps_nominal, x, y, cct_K, duv, Ra, R9,
               Rf, Rg, warnings}],
     cautions
@@ -115,10 +116,15 @@ def lot_document(run) -> dict:
     verdicts = run.sample_verdicts
     pair = st.max_pair
     samples = []
+    meta = _metadata_values(run)
     for i in range(len(run)):
         rec = {
             "name": run.names[i],
             "source": run.sources[i],
+        }
+        if meta:
+            rec["metadata"] = {k: _json_value(v[i]) for k, v in meta}
+        rec |= {
             "verdict": verdicts[i] if verdicts is not None else None,
             "outlier": bool(st.outlier[i]),
             "outlier_reasons": list(st.outlier_reasons[i]),
@@ -230,8 +236,51 @@ def lot_json(run, out=None) -> str | None:
     return None
 
 
+def _metadata_values(run) -> list[tuple[str, list]]:
+    """(column, Python values) of the archive metadata carried by ``run`` (empty without)."""
+    tbl = getattr(run, "metadata", None)
+    if tbl is None:
+        return []
+    return [(name, tbl.column(name).to_pylist()) for name in tbl.column_names]
+
+
+def metadata_headers(run) -> list[str]:
+    """CSV headers of the archive metadata columns: the column name, prefixed ``meta:`` when it
+    would clash with one of lumeval's own columns."""
+    tbl = getattr(run, "metadata", None)
+    if tbl is None:
+        return []
+    own = set(_own_columns(run))
+    return [f"meta:{c}" if c in own or c.startswith(("meta:", "clause:")) else c for c in tbl.column_names]
+
+
+def _json_value(v):
+    if v is None or isinstance(v, (bool, int, str)):
+        return v
+    if isinstance(v, float):
+        return v if math.isfinite(v) else None
+    if hasattr(v, "isoformat"):
+        return v.isoformat()
+    return str(v)
+
+
+def _csv_value(v) -> str:
+    if v is None:
+        return ""
+    if isinstance(v, float):
+        return repr(v) if math.isfinite(v) else ""
+    if hasattr(v, "isoformat"):
+        return v.isoformat()
+    return str(v)
+
+
 def csv_columns(run) -> list[str]:
-    """Columns of the per-sample CSV."""
+    """Columns of the per-sample CSV (archive metadata columns right after ``source``)."""
+    cols = _own_columns(run)
+    return cols[:2] + metadata_headers(run) + cols[2:]
+
+
+def _own_columns(run) -> list[str]:
     cols = ["name", "source", "verdict", "outlier", "outlier_reasons", "delta_upvp_centroid", "steps_centroid",
             "delta_upvp_nominal", "steps_nominal"]
     cols += list(run.figures)
@@ -259,11 +308,13 @@ def samples_csv(run, out=None) -> str | None:
     w.writerow(csv_columns(run))
     st = run.stats
     verdicts = run.sample_verdicts
+    meta = _metadata_values(run)
     fig_mat = np.column_stack([run.figures[k] for k in run.figures]) if run.figures else np.empty((len(run), 0))
     for i in range(len(run)):
         row = [
             run.names[i],
             run.sources[i],
+            *(_csv_value(v[i]) for _, v in meta),
             verdicts[i] if verdicts is not None else "",
             "yes" if st.outlier[i] else "no",
             " | ".join(st.outlier_reasons[i]),

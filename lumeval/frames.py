@@ -1,0 +1,155 @@
+"""Tables of results: an :class:`~lumeval.engine.Evaluation` or a lot as Arrow / pandas.
+
+* :func:`evaluation_to_arrow` / :func:`evaluation_to_pandas` (also ``Evaluation.to_arrow()``
+  and ``Evaluation.to_pandas()``): one row per spectrum; columns ``name``, ``source``, the
+  spectrum's metadata (a Parquet archive's metadata columns, or a file's header keys), one
+  float64 column per figure of the registry (:func:`lumeval.figures.names`) (NaN = undefined; in
+  pandas a NaN), and ``warnings`` (the spectrum's warnings joined with `` | ``).
+* :func:`lot_samples_table` / :func:`write_samples_parquet`: the per-sample rows of a lot
+  (``lumeval lot --samples-parquet``), the archive's metadata columns with their Parquet types.
+
+Numbers are the engine's float64 values, unrounded. pyarrow and pandas are imported only when
+these functions run (``pip install lumeval[archive]``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Metadata keys that describe how a file was read (not data about the sample).
+_READ_KEYS = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format",
+              "lumeval.tm27_version", "lumeval.tm27_namespace")
+
+
+def _pa():
+    try:
+        import pyarrow as pa
+    except ImportError:  # pragma: no cover - the extra is part of the test install
+        from .errors import UsageError
+
+        raise UsageError("Arrow and pandas tables need pyarrow", fix="pip install 'lumeval[archive]'") from None
+    return pa
+
+
+def _figure_names() -> tuple[str, ...]:
+    from .figures import names
+
+    return names()
+
+
+def _metadata_columns(metadata, reserved: set[str]) -> dict[str, list]:
+    keys: list[str] = []
+    for m in metadata:
+        for k in m:
+            if k not in _READ_KEYS and k not in keys:
+                keys.append(k)
+    out = {}
+    for k in keys:
+        col = f"meta:{k}" if k in reserved else k
+        out[col] = [m.get(k) for m in metadata]
+    return out
+
+
+def evaluation_to_arrow(ev):
+    """An Evaluation as a ``pyarrow.Table`` (see the module docstring)."""
+    pa = _pa()
+    names = _figure_names()
+    reserved = {"name", "source", "warnings", *names}
+    cols: dict[str, object] = {
+        "name": pa.array(list(ev.spectra.names), type=pa.string()),
+        "source": pa.array(list(ev.spectra.sources), type=pa.string()),
+    }
+    for k, values in _metadata_columns(ev.spectra.metadata, reserved).items():
+        try:
+            cols[k] = pa.array(values)
+        except (pa.ArrowException, TypeError, ValueError):  # mixed kinds: keep the text
+            cols[k] = pa.array([None if v is None else str(v) for v in values], type=pa.string())
+    for k in names:
+        cols[k] = pa.array(np.asarray(ev.figure(k), dtype=float), type=pa.float64())
+    cols["warnings"] = pa.array([" | ".join(w) for w in ev.warnings], type=pa.string())
+    return pa.table(cols)
+
+
+def evaluation_to_pandas(ev):
+    """An Evaluation as a ``pandas.DataFrame`` (see the module docstring); the index is the
+    row number."""
+    import pandas as pd
+
+    names = _figure_names()
+    reserved = {"name", "source", "warnings", *names}
+    data: dict[str, object] = {"name": list(ev.spectra.names), "source": list(ev.spectra.sources)}
+    data.update(_metadata_columns(ev.spectra.metadata, reserved))
+    for k in names:
+        data[k] = np.asarray(ev.figure(k), dtype=float)
+    data["warnings"] = [" | ".join(w) for w in ev.warnings]
+    return pd.DataFrame(data)
+
+
+# --------------------------------------------------------------------------- lots
+
+
+def lot_samples_table(run, start: int = 0, stop: int | None = None):
+    """Rows ``start:stop`` of a lot's per-sample table as a ``pyarrow.Table``.
+
+    Columns: ``name``, ``source``, the archive metadata columns (prefixed ``meta:`` on a
+    clash), ``verdict`` (null without per-sample clauses), ``outlier``, ``outlier_reasons``,
+    ``delta_upvp_centroid``, ``steps_centroid``, ``delta_upvp_nominal``, ``steps_nominal``,
+    every figure, ``clause:ID`` per per-sample clause, ``warnings`` — the per-sample CSV's
+    columns, typed.
+    """
+    pa = _pa()
+    from .render.lot_report import metadata_headers
+
+    n = len(run)
+    stop = n if stop is None else min(stop, n)
+    sl = slice(start, stop)
+    st = run.stats
+    f64 = pa.float64()
+
+    def num(a):
+        if a is None:
+            return pa.nulls(stop - start, f64)
+        return pa.array(np.asarray(a[sl], dtype=float), type=f64)
+
+    cols: dict[str, object] = {
+        "name": pa.array(list(run.names[sl]), type=pa.string()),
+        "source": pa.array(list(run.sources[sl]), type=pa.string()),
+    }
+    if run.metadata is not None:
+        part = run.metadata.slice(start, stop - start)
+        for head, name in zip(metadata_headers(run), run.metadata.column_names):
+            cols[head] = part.column(name)
+    verdicts = run.sample_verdicts
+    cols["verdict"] = pa.array(list(verdicts[sl]) if verdicts is not None else [None] * (stop - start), type=pa.string())
+    cols["outlier"] = pa.array(np.asarray(st.outlier[sl], dtype=bool), type=pa.bool_())
+    cols["outlier_reasons"] = pa.array([" | ".join(r) for r in st.outlier_reasons[sl]], type=pa.string())
+    cols["delta_upvp_centroid"] = num(st.d_upvp_centroid)
+    cols["steps_centroid"] = num(st.steps_centroid)
+    cols["delta_upvp_nominal"] = num(st.d_upvp_nominal)
+    cols["steps_nominal"] = num(st.steps_nominal)
+    for k, v in run.figures.items():
+        cols[k] = num(v)
+    if run.check is not None:
+        for r in run.check.results:
+            cols[f"clause:{r.clause_id}"] = pa.array(list(r.outcome[sl]), type=pa.string())
+    cols["warnings"] = pa.array([" | ".join(w) for w in run.warnings[sl]], type=pa.string())
+    return pa.table(cols)
+
+
+#: Rows converted to Arrow at a time when writing a lot's samples.
+SAMPLES_SLICE = 65536
+
+
+def write_samples_parquet(run, path, *, option: str | None = "--samples-parquet") -> None:
+    """Write a lot's per-sample table (:func:`lot_samples_table`) as Parquet, slice by slice,
+    atomically (:func:`lumeval.spectra.archive.write_tables`)."""
+    from .spectra.archive import write_tables
+
+    first = lot_samples_table(run, 0, min(SAMPLES_SLICE, len(run)))
+
+    def slices():
+        yield first
+        for start in range(SAMPLES_SLICE, len(run), SAMPLES_SLICE):
+            yield lot_samples_table(run, start, start + SAMPLES_SLICE).cast(first.schema)
+
+    write_tables(path, first.schema, slices(), option=option)

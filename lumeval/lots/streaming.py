@@ -1,0 +1,253 @@
+"""The streaming core of a lot run: evaluate a batch, keep only its per-sample figures, join.
+
+One lot run, on one machine (:func:`lumeval.commands.lot.run_lot`) or on a Dask cluster
+(:mod:`lumeval.lots.dask_runner`), is the same three steps:
+
+1. read a batch of spectra (a file, or at most ``batch_spectra`` rows of a Parquet archive:
+   :func:`archive_batches`);
+2. :func:`evaluate_batch`: prepare and evaluate it and judge its per-sample clauses, keeping
+   only what the lot needs per sample (:class:`BatchResult`: every figure, x y, the clause
+   outcomes, the warnings, the archive's metadata columns; about 0.7 kB per sample);
+3. :class:`LotAccumulator`: join the batch results in input order and compute the lot
+   statistics and lot verdicts once over all samples (:meth:`LotAccumulator.finish`).
+
+Because step 2 is pure and its batches are fixed by the input alone (archives: batches never
+span a partition, :func:`lumeval.spectra.archive.plan_partitions`), the per-sample results of a
+distributed run are those of a local run, and the lot statistics, computed by the same
+function over the same per-sample values, are the same too.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Iterator
+
+import numpy as np
+
+
+@dataclass
+class BatchResult:
+    """What a lot keeps of one evaluated batch (n samples).
+
+    Attributes
+    ----------
+    names, sources : list of str (n,)
+    warnings : list of tuple of str (n,)
+    figures : ndarray (n, F)
+        Every figure of the registry (:func:`lumeval.figures.names`), in that order.
+    xy : ndarray (n, 2)
+    clauses : list of ClauseResult or None
+        Per-sample clause results of the batch (None without per-sample clauses).
+    metadata : pyarrow.Table or None
+        The archive's metadata columns for these n samples (None for other inputs).
+    """
+
+    names: list
+    sources: list
+    warnings: list
+    figures: np.ndarray
+    xy: np.ndarray
+    clauses: list | None
+    metadata: object = None
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+
+def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: int = 0, metadata=None,
+                   engine_chunk: int | None = None) -> BatchResult:
+    """Evaluate one prepared batch and keep what the lot needs (see :class:`BatchResult`).
+
+    ``offset`` is the index of the batch's first sample in the lot (the Monte Carlo of a run
+    under uncertainty draws per sample index, so a sample's decision does not depend on the
+    batching).
+    """
+    from ..commands.lot import ENGINE_CHUNK
+    from ..engine import evaluate
+    from ..figures import names as figure_names
+
+    ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False)
+    figs = np.column_stack([ev.figure(k) for k in figure_names()])
+    xy = np.column_stack([ev.x, ev.y])
+    clauses = None
+    if sample_criteria is not None and uncertainty is not None and uncertainty.active:
+        from ..uncertainty.judge import judge_with_uncertainty
+
+        clauses = list(judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset)[0].results)
+    elif sample_criteria is not None:
+        clauses = list(sample_criteria.evaluate(ev).results)
+    return BatchResult(list(ev.spectra.names), list(ev.spectra.sources), list(ev.warnings), figs, xy, clauses,
+                       metadata)
+
+
+def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None) -> Iterator[tuple]:
+    """Stream one Parquet archive file as prepared batches for a lot.
+
+    Yields ``(prepared SpectrumSet or None, metadata Table or None, [Unreadable])`` per batch
+    of at most ``batch_rows`` rows. A row whose spectrum cannot be prepared (e.g. negative or
+    missing values) is listed as unreadable with its reason (source ``FILE#row K``) and the
+    other rows of the batch are kept, as the columns of a wide CSV are.
+
+    Raises
+    ------
+    lumeval.errors.InputError
+        When the file itself cannot be used (bad layout, not Parquet, a row without a name).
+    """
+    from ..commands.lot import Unreadable
+    from ..errors import LumevalError
+    from ..spectra.archive import iter_batches
+    from ..spectra.prepare import prepare
+
+    for b in iter_batches(file, batch_rows=batch_rows, partitions=partitions, opened=opened):
+        raw = b.spectra
+        try:
+            yield prepare(raw), b.metadata, []
+            continue
+        except LumevalError:
+            pass
+        good, bad = [], []
+        for i in range(len(raw)):
+            try:
+                prepare(raw.subset([i]))
+            except LumevalError as exc:
+                bad.append(Unreadable(raw.sources[i], exc.message))
+            else:
+                good.append(i)
+        if not good:
+            yield None, None, bad
+            continue
+        meta = b.metadata.take(good) if b.metadata is not None else None
+        yield prepare(raw.subset(good)), meta, bad
+
+
+class _Columns:
+    """A growing column-major float64 buffer (F, capacity): figures of N samples stored so that
+    each figure is one contiguous array, without a second copy of all of them at the end."""
+
+    def __init__(self, width: int, capacity: int) -> None:
+        self.buf = np.empty((width, max(int(capacity), 1024)))
+        self.n = 0
+
+    def add(self, rows: np.ndarray) -> None:
+        m = rows.shape[0]
+        if self.n + m > self.buf.shape[1]:
+            grown = np.empty((self.buf.shape[0], max(2 * self.buf.shape[1], self.n + m)))
+            grown[:, : self.n] = self.buf[:, : self.n]
+            self.buf = grown
+        self.buf[:, self.n : self.n + m] = rows.T
+        self.n += m
+
+    def columns(self) -> np.ndarray:
+        return self.buf[:, : self.n]
+
+
+class LotAccumulator:
+    """Joins :class:`BatchResult` s in input order and makes the :class:`LotRun` of them.
+
+    Parameters
+    ----------
+    expected : int
+        Expected number of samples (a capacity hint; more are accepted).
+    """
+
+    def __init__(self, expected: int = 0) -> None:
+        from ..figures import names as figure_names
+
+        self.figure_names = figure_names()
+        self.names: list[str] = []
+        self.sources: list[str] = []
+        self.warnings: list[tuple[str, ...]] = []
+        self._figs = _Columns(len(self.figure_names), expected)
+        self._xy = _Columns(2, expected)
+        self._clauses: list[list] = []
+        self._meta: list[tuple[int, object]] = []
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def add(self, r: BatchResult) -> None:
+        self.names.extend(r.names)
+        self.sources.extend(r.sources)
+        self.warnings.extend(r.warnings)
+        self._figs.add(r.figures)
+        self._xy.add(r.xy)
+        if r.clauses is not None:
+            self._clauses.append(r.clauses)
+        self._meta.append((len(r), r.metadata))
+
+    def metadata_table(self):
+        """The archive metadata of every sample as one Arrow table (None when no input had
+        metadata columns); samples from other inputs, or from files without a column, get
+        nulls."""
+        if not any(m is not None for _, m in self._meta):
+            return None
+        import pyarrow as pa
+
+        first = next(m for _, m in self._meta if m is not None)
+        filler = first.column_names[0] if first.num_columns else None
+        parts = []
+        for n, m in self._meta:
+            if m is None:  # samples from other inputs: null in every column
+                m = pa.table({filler: pa.nulls(n)}) if filler is not None else pa.table({})
+            parts.append(m)
+        try:  # columns missing from a part become nulls; numeric types widen
+            return pa.concat_tables(parts, promote_options="permissive")
+        except (pa.ArrowException, TypeError):  # clashing types across files: keep them as text
+            return pa.concat_tables([p.cast(pa.schema([(c, pa.string()) for c in p.column_names])) for p in parts],
+                                    promote_options="permissive")
+
+    def finish(self, criteria=None, *, sample_criteria=None, unreadable=(), files: int = 0, ellipse=None,
+               nominal_xy=None, uncertainty=None, **extra):
+        """The :class:`lumeval.commands.lot.LotRun` of everything added (``extra``: further
+        LotRun fields, e.g. ``skipped``, ``read_paths``)."""
+        from ..commands.lot import LotRun, _concat_clause, _nominal_from_criteria
+        from ..lot import lot_statistics
+
+        names = self.names
+        cols = self._figs.columns()
+        figures = {k: cols[j] for j, k in enumerate(self.figure_names)}
+        xy = np.ascontiguousarray(self._xy.columns().T)
+
+        check = None
+        if sample_criteria is not None and self._clauses:
+            from ..criteria.verdicts import CheckResult
+
+            results = tuple(_concat_clause([p[j] for p in self._clauses]) for j in range(len(self._clauses[0])))
+            check = CheckResult(tuple(names), tuple(self.sources), tuple(self.warnings), results,
+                                dict(criteria.identification), criteria.file)
+            if uncertainty is not None and uncertainty.active:
+                from dataclasses import replace as _replace
+
+                from ..uncertainty.judge import uncertainty_info
+
+                check = _replace(check, uncertainty=uncertainty_info(uncertainty, None))
+
+        if criteria is not None and ellipse is None and nominal_xy is None:
+            ellipse, nominal_xy = _nominal_from_criteria(criteria)
+
+        stats = lot_statistics(figures, xy, ellipse=ellipse, nominal_xy=nominal_xy,
+                               verdicts=check.verdicts if check is not None else None)
+        lot_results: tuple = ()
+        has_yield = False
+        if criteria is not None:
+            from ..criteria.lot_clauses import LotYieldClause, evaluate_lot_clauses, lot_clauses
+
+            lot_results = evaluate_lot_clauses(criteria, stats, xy, check.verdicts if check is not None else None)
+            has_yield = any(isinstance(c, LotYieldClause) for c in lot_clauses(criteria))
+        return LotRun(
+            names=tuple(names),
+            sources=tuple(self.sources),
+            warnings=tuple(self.warnings),
+            figures=figures,
+            xy=xy,
+            stats=stats,
+            check=check,
+            lot_results=lot_results,
+            unreadable=tuple(unreadable),
+            files=files,
+            criteria_file=getattr(criteria, "file", None) if criteria is not None else None,
+            identification=dict(getattr(criteria, "identification", {}) or {}) if criteria is not None else {},
+            has_yield_clause=has_yield,
+            metadata=self.metadata_table(),
+            **extra,
+        )

@@ -1,0 +1,140 @@
+"""Lots from Parquet archives: the same lot as from its CSV files, metadata carried into every
+per-sample output (CSV, JSON, Parquet), and Evaluation.to_pandas()/to_arrow().
+
+Outside references: the demo lot's planted outliers and its one failing module are facts of
+the generator (spectra_demo/generate_lot.py), not outputs of lumeval; CIE illuminant A
+(CIE 15:2004 Table T.1, via colour-science) has CCT 2856 K and CIE D65 about 6504 K (CIE 15:2004
+§3.1; quoted from memory).
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+pa = pytest.importorskip("pyarrow")
+pq = pytest.importorskip("pyarrow.parquet")
+
+from lumeval.commands.lot import run_lot  # noqa: E402
+from lumeval.spectra.archive import archive_table  # noqa: E402
+from lumeval.spectra.model import SpectrumSet  # noqa: E402
+from lumeval.spectra.prepare import prepare  # noqa: E402
+from lumeval.spectra.read import read_spectra  # noqa: E402
+
+REPO = Path(__file__).resolve().parents[1]
+DEMO = REPO / "spectra_demo" / "lot_2026w48"
+DEMO_CRITERIA = REPO / "spectra_demo" / "lot_criteria.toml"
+#: float tolerance between two runs over the same spectra batched differently (BLAS summation
+#: order may differ in the last bits: common practice, no source)
+RTOL = 1e-12
+
+
+def _criteria():
+    import lumeval.criteria.lot_clauses  # noqa: F401
+    from lumeval.criteria.loader import load_criteria
+
+    return load_criteria(DEMO_CRITERIA)
+
+
+def demo_archive(path: Path, row_group_rows: int = 16) -> Path:
+    """The demo lot's 200 modules as one archive, with a text and an integer metadata column."""
+    files = sorted(DEMO.glob("*.csv"))
+    s = prepare([read_spectra(f) for f in files])
+    t = archive_table(s)
+    t = t.append_column("station", pa.array([f"ST-{i % 3}" for i in range(len(s))]))
+    t = t.append_column("drive_mA", pa.array(np.arange(len(s), dtype=np.int64) * 5 + 350))
+    pq.write_table(t, path, row_group_size=row_group_rows)
+    return path
+
+
+@pytest.fixture(scope="module")
+def arch(tmp_path_factory):
+    if not DEMO.is_dir():
+        pytest.skip("demo lot not generated (python spectra_demo/generate_lot.py)")
+    return demo_archive(tmp_path_factory.mktemp("arch") / "lot.parquet")
+
+
+def test_archive_lot_equals_the_csv_lot(arch):
+    a = run_lot([DEMO], _criteria())
+    b = run_lot([arch], _criteria(), batch_spectra=64)
+    assert a.names == b.names and len(b) == 200 and not b.unreadable
+    for k in a.figures:
+        np.testing.assert_allclose(b.figures[k], a.figures[k], rtol=RTOL, atol=1e-12, equal_nan=True, err_msg=k)
+    assert a.sample_verdicts == b.sample_verdicts
+    # the generator's planted outliers and its one failing module (outside facts)
+    flagged = {b.names[i] for i in np.flatnonzero(b.stats.outlier)}
+    assert {"AD30-w48-037", "AD30-w48-118", "AD30-w48-164"} <= flagged
+    assert b.stats.yield_.passed == 199 and b.check.verdicts[163] == "fail"
+    assert b.sources[163] == f"{arch}#row 164"
+    # metadata kept, with its Parquet types, one row per sample
+    assert b.metadata.column_names == ["lumeval.scale", "station", "drive_mA"] or \
+        b.metadata.column_names[-2:] == ["station", "drive_mA"]
+    assert b.metadata.column("drive_mA").to_pylist()[163] == 163 * 5 + 350
+    assert b.metadata.schema.field("drive_mA").type == pa.int64()
+
+
+def test_metadata_in_every_per_sample_output(arch, tmp_path):
+    out_csv, out_json, out_pq = tmp_path / "s.csv", tmp_path / "l.json", tmp_path / "s.parquet"
+    r = subprocess.run([sys.executable, "-m", "lumeval", "lot", str(arch), "-c", str(DEMO_CRITERIA), "--quiet",
+                        "--samples-csv", str(out_csv), "--json", str(out_json), "--samples-parquet", str(out_pq)],
+                       capture_output=True, text=True, cwd=REPO, timeout=300)
+    assert r.returncode == 1, r.stderr  # the demo lot fails a lot clause (as from its CSV files)
+    rows = list(csv.DictReader(out_csv.open(encoding="utf-8")))
+    header = next(csv.reader(out_csv.open(encoding="utf-8")))
+    assert header[:2] == ["name", "source"] and header.index("station") < header.index("verdict")
+    assert rows[163]["station"] == "ST-1" and rows[163]["drive_mA"] == str(163 * 5 + 350)
+    doc = json.loads(out_json.read_text(encoding="utf-8"))
+    assert doc["samples"][163]["metadata"]["drive_mA"] == 163 * 5 + 350
+    t = pq.read_table(out_pq)
+    assert t.num_rows == 200 and t.schema.field("drive_mA").type == pa.int64()
+    assert t.column("station").to_pylist() == [row["station"] for row in rows]
+    assert t.column("verdict").to_pylist()[163] == "fail" and t.column("outlier").to_pylist()[163] is True
+    # the Parquet figures are the CSV's numbers exactly (both unrounded float64)
+    assert t.column("cct_K").to_pylist() == [float(row["cct_K"]) for row in rows]
+    assert [c for c in t.column_names if c.startswith("clause:")] == [h for h in header if h.startswith("clause:")]
+
+
+def test_a_lot_mixing_an_archive_and_a_csv_file(arch):
+    one = DEMO / "AD30-w48-001.csv"
+    run = run_lot([one, arch])
+    assert len(run) == 201 and run.names[0] == "AD30-w48-001"
+    st = run.metadata.column("station").to_pylist()
+    assert st[0] is None and st[1] == "ST-0"
+
+
+def test_evaluation_to_pandas_and_arrow(colour):
+    from lumeval.engine import FIGURE_NAMES, evaluate
+
+    sets = []
+    for name, lamp in (("A", "tungsten"), ("D65", "daylight")):
+        sd = colour.SDS_ILLUMINANTS[name]
+        wl = np.asarray(sd.wavelengths, dtype=float)
+        keep = (wl >= 380) & (wl <= 780) & (wl % 5 == 0)
+        sets.append(SpectrumSet(wl[keep], np.asarray(sd.values, dtype=float)[keep][None, :], (name,), ("cie",),
+                                (), ({"lamp": lamp, "lumeval.delimiter": "comma"},)))
+    ev = evaluate(sets)
+    df = ev.to_pandas()
+    t = ev.to_arrow()
+    assert list(df.columns) == t.column_names
+    assert list(df.columns)[:3] == ["name", "source", "lamp"] and df.columns[-1] == "warnings"
+    assert "lumeval.delimiter" not in df.columns  # how a file was read is not sample data
+    assert set(FIGURE_NAMES) <= set(df.columns) and len(df) == 2
+    assert list(df["lamp"]) == ["tungsten", "daylight"]
+    for k in FIGURE_NAMES:
+        assert np.array_equal(df[k].to_numpy(), ev.figure(k), equal_nan=True), k
+        assert np.array_equal(t.column(k).to_numpy(zero_copy_only=False), ev.figure(k), equal_nan=True), k
+    # CIE 15:2004: illuminant A 2856 K, D65 about 6504 K (quoted from memory)
+    np.testing.assert_allclose(df["cct_K"], [2856, 6504], atol=3)
+
+
+def test_frames_do_not_load_at_start_up():
+    code = ("import sys, lumeval, lumeval.engine; "
+            "print(any(m in sys.modules for m in ('pandas', 'pyarrow', 'dask', 'distributed')))")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, timeout=120)
+    assert r.stdout.strip() == "False", r.stderr

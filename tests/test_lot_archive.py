@@ -31,8 +31,9 @@ REPO = Path(__file__).resolve().parents[1]
 DEMO = REPO / "spectra_demo" / "lot_2026w48"
 DEMO_CRITERIA = REPO / "spectra_demo" / "lot_criteria.toml"
 #: float tolerance between two runs over the same spectra batched differently (BLAS summation
-#: order may differ in the last bits: common practice, no source)
-RTOL = 1e-12
+#: order may differ in the last bits; Duv, a small difference, keeps that error in absolute
+#: terms: common practice, no source)
+RTOL, ATOL = 1e-12, 1e-10
 
 
 def _criteria():
@@ -65,7 +66,7 @@ def test_archive_lot_equals_the_csv_lot(arch):
     b = run_lot([arch], _criteria(), batch_spectra=64)
     assert a.names == b.names and len(b) == 200 and not b.unreadable
     for k in a.figures:
-        np.testing.assert_allclose(b.figures[k], a.figures[k], rtol=RTOL, atol=1e-12, equal_nan=True, err_msg=k)
+        np.testing.assert_allclose(b.figures[k], a.figures[k], rtol=RTOL, atol=ATOL, equal_nan=True, err_msg=k)
     assert a.sample_verdicts == b.sample_verdicts
     # the generator's planted outliers and its one failing module (outside facts)
     flagged = {b.names[i] for i in np.flatnonzero(b.stats.outlier)}

@@ -41,7 +41,7 @@ import os
 from typing import Callable, Sequence
 
 #: Seconds to wait for a scheduler to answer.
-CONNECT_TIMEOUT_S = 20
+CONNECT_TIMEOUT_S = 10
 
 
 def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_criteria, batch_rows: int):

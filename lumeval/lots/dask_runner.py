@@ -132,7 +132,8 @@ def run_lot_dask(
         raise UsageError("decisions under measurement uncertainty are not run on a Dask cluster",
                          field="--instrument", fix="run the lot without --scheduler/--workers, or without --instrument")
     batch = batch_spectra or BATCH_SPECTRA
-    files, unreadable = expand_inputs(paths)
+    found = expand_inputs(paths)
+    files, unreadable = list(found.files), list(found.unreadable)
     others = [f for f in files if not is_archive(f)]
     if others:
         raise UsageError(f"{others[0]!r} is not a Parquet archive: a Dask run reads Parquet archives only",
@@ -177,6 +178,7 @@ def run_lot_dask(
         next_i = 0
         done_samples = 0
         done: dict[tuple[int, int], tuple] = {}
+        used: set[int] = set()
         for fut in as_completed(list(futures), loop=client.loop):
             try:
                 done[futures[fut]] = fut.result()
@@ -188,6 +190,8 @@ def run_lot_dask(
             fut.release()
             while next_i < len(order) and order[next_i] in done:
                 results, bad = done.pop(order[next_i])
+                if results:
+                    used.add(order[next_i][0])
                 for r in results:
                     acc.add(r)
                     done_samples += len(r)
@@ -201,5 +205,7 @@ def run_lot_dask(
             own.close()
     for bad in bad_by_file:
         unreadable.extend(bad)
+    read_paths = tuple(files[k] for k in sorted(used))
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
-                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=None)
+                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=None, skipped=found.skipped,
+                      read_paths=read_paths)

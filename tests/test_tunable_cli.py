@@ -165,3 +165,18 @@ def test_channels_on_different_grids_are_joined_and_said_so(tmp_path, capsys):
 def test_help_lists_commands():
     proc = subprocess.run([sys.executable, "-m", "lumeval", "--help"], capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0 and " mix " in proc.stdout and " series " in proc.stdout
+
+
+def test_untrusted_channel_names(tmp_path, capsys, monkeypatch):
+    """Names from files reach the terminal as inert text and CSV cells cannot start a formula."""
+    p = write_wide(tmp_path / "c.csv", {"[bold red]warm\x1b[2J": WARM, "=cmd|x": COOL})
+    code, out, err = run(["mix", p, "--cct", "3000"], capsys)
+    assert code == 0, err
+    assert "\x1b[2J" not in out and "[bold red]warm" in out
+    a = write_wide(tmp_path / "=HYPERLINK_3000K.csv", {"x": WARM})
+    b = write_wide(tmp_path / "plain_4000K.csv", {"y": COOL})
+    monkeypatch.chdir(tmp_path)
+    code, out, err = run(["series", a.name, b.name, "--format", "csv"], capsys)
+    rows = list(csv.DictReader(io.StringIO(out)))
+    assert rows[0]["source"] == "'=HYPERLINK_3000K.csv"  # OWASP CSV-injection guidance
+    assert not rows[1]["source"].startswith("'")

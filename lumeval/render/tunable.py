@@ -144,6 +144,8 @@ def renderables(report) -> list:
             t.add_column(_text(f"w {c}"), justify="right", no_wrap=True)
     else:
         t.add_column("spectrum")
+        t.add_column("u′", justify="right", no_wrap=True)
+        t.add_column("v′", justify="right", no_wrap=True)
         t.add_column("Δu′v′", justify="right", no_wrap=True)
     for _, lab, _ in headline():
         t.add_column(lab, justify="right", no_wrap=True)
@@ -157,7 +159,8 @@ def renderables(report) -> list:
         if report.kind == "mix":
             row += [_f(w, ".4f") for w in r.weights[i]]
         else:
-            row += [_text(_short(r.evaluation.spectra.sources[i])), _f(r.delta_upvp[i], ".4f")]
+            row += [_text(_short(r.evaluation.spectra.sources[i])), _f(r.figure("u_prime")[i], ".4f"),
+                    _f(r.figure("v_prime")[i], ".4f"), _f(r.delta_upvp[i], ".4f")]
         if not avail[i]:
             row += [Text(NOT_REACHABLE, style="bold yellow")] + [""] * (len(headline()) - 1) + [""]
         else:
@@ -233,6 +236,7 @@ def _check_tables(check) -> list:
     t.add_column("worst setting")
     t.add_column("worst value", justify="right")
     t.add_column("margin", justify="right")
+    t.add_column("failed at")
     for rr in check.results:
         res = rr.result
         where = "every evaluated setting" if rr.over is None and res.kind not in ("series_shift", "track_locus") else (
@@ -246,6 +250,7 @@ def _check_tables(check) -> list:
             _text(check.labels[w]) if w is not None else "—",
             _value(res, w) if w is not None else "—",
             _margin(res, w) if w is not None else "—",
+            _text(_failed_at(check, rr)),
         )
     out = [t]
     for rr in check.results:
@@ -262,6 +267,14 @@ def _check_tables(check) -> list:
         line = Text(f"VERDICT: all {len(check.results)} requirements met over the range", style="bold green")
     out.append(line)
     return out
+
+
+def _failed_at(check, rr, most: int = 4) -> str:
+    """The settings where a clause failed, e.g. ``3500 K, 3750 K, 4000 K +3 more`` ("" if none)."""
+    bad = [check.labels[i] for i, o in enumerate(rr.outcome) if o == "fail"]
+    if not bad:
+        return ""
+    return ", ".join(bad[:most]) + (f" +{len(bad) - most} more" if len(bad) > most else "")
 
 
 def _spec_of(res) -> str:

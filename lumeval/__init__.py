@@ -29,6 +29,9 @@ _API = {
     "load_criteria": "lumeval.criteria", "check": "lumeval.criteria", "load_claims": "lumeval.criteria", "check_files": "lumeval.commands.check",
     "mix_files": "lumeval.tunable.api", "series_files": "lumeval.tunable.api",
     "run_lot": "lumeval.commands.lot", "lot_statistics": "lumeval.lot", "lot_from_evaluation": "lumeval.lot",
+    # the production history (docs/history.md)
+    "lot_record": "lumeval.store.record", "record_lot": "lumeval.store.record", "list_lots": "lumeval.store.query",
+    "trend": "lumeval.store.trend",
     "write_html_report": "lumeval.render.html", "write_plots": "lumeval.render.html", "write_outputs": "lumeval.render.html",
     # metrics
     "planck_exitance": "lumeval.metrics.planck",

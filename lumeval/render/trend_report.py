@@ -236,8 +236,9 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
     body = [f"<header><h1>{_e(title)}</h1><p class=\"sub\">{len(tr.points)} lots · store {_e(tr.store)} · "
             f"generated {_e(when)} · lumeval {_e(__version__)}</p></header>"]
     outcome = "fail" if n_sig else "pass"
-    words = (f"{n_sig} control-chart signal{'s' if n_sig != 1 else ''}: the process may have changed; look at the "
-             "lots listed below." if n_sig else "No control-chart signal: the lots behave like the baseline.")
+    words = (f"{n_sig} control-chart signal{'s' if n_sig != 1 else ''} on {tr.label}: the process may have changed; "
+             "look at the lots listed below." if n_sig else
+             f"No control-chart signal on {tr.label}: the lots behave like the baseline.")
     badge = (f'<span class="badge {outcome}"><span class="sym" aria-hidden="true">{"⚠" if n_sig else "✓"}</span> '
              f'{"SIGNAL" if n_sig else "IN CONTROL"}</span>')
     body.append(f'<section id="summary"><h2>Summary</h2><div class="summary {outcome}"><p class="big">{badge} '
@@ -257,13 +258,14 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
     body.append("</section>")
 
     body.append('<section id="signals"><h2>Signals</h2>')
-    all_lines = []
     for t_ in trends:
-        all_lines += signal_lines(t_)
-    if all_lines:
-        body.append('<ul class="signals">' + "".join(f"<li>⚠ {_e(x)}</li>" for x in all_lines) + "</ul>")
-    else:
-        body.append("<p>None.</p>")
+        lines = signal_lines(t_)
+        if len(trends) > 1:
+            body.append(f"<h3>{_e(t_.label)}</h3>")
+        if lines:
+            body.append('<ul class="signals">' + "".join(f"<li>⚠ {_e(x)}</li>" for x in lines) + "</ul>")
+        else:
+            body.append("<p>None.</p>")
     body.append('<p class="sub">Rules: WE1 one point beyond 3σ; WE2 two of three beyond 2σ on one side; WE3 four '
                 "of five beyond 1σ on one side; WE4 eight in a row on one side (Western Electric 1956, numbered as "
                 "in Montgomery §5.3.6); s, moving-range and EWMA charts: beyond their limits.</p></section>")
@@ -298,7 +300,15 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
         meta.append(["Command", f'<span class="mono">{_e(command)}</span>'])
     body.append(_table(["", ""], meta))
     body.append("<h3>Methods and sources</h3><ul>" + "".join(f"<li>{_e(s)}</li>" for s in doc["sources"]) + "</ul>")
-    body.append("<h3>Software</h3>" + _table(["Package", "Version"], [[_e(a), _e(b)] for a, b in package_versions()]))
+    versions = list(package_versions())
+    from importlib.metadata import PackageNotFoundError, version
+
+    for pkg in ("SQLAlchemy",) + (("psycopg",) if tr.store.startswith("postgres") else ()):
+        try:
+            versions.append((pkg, version(pkg)))
+        except PackageNotFoundError:
+            pass
+    body.append("<h3>Software</h3>" + _table(["Package", "Version"], [[_e(a), _e(b)] for a, b in versions]))
     body.append("</section>")
     body.append('<section id="cautions"><h2>Cautions</h2><div class="cautions"><ul>'
                 + "".join(f"<li>{_e(c)}</li>" for c in doc["cautions"]) + "</ul></div></section>")

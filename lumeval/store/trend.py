@@ -109,32 +109,21 @@ class Trend:
 
 
 def resolve_figure(name: str) -> tuple[str, str, str]:
-    """(figure name, label, unit) for a user's figure name (case-insensitive; aliases of the
-    figure registry when it exists)."""
-    from ..engine import FIGURE_NAMES, FIGURE_UNITS
+    """(figure name, label, unit) for a user's figure name: a name or alias of the figure
+    registry (:mod:`lumeval.figures`, case-insensitive), or one of
+    :data:`CHROMATICITY_FIGURES`."""
+    from .. import figures as registry
 
     raw = str(name).strip()
     if raw.lower() in CHROMATICITY_FIGURES:
         k = raw.lower()
         return k, *CHROMATICITY_FIGURES[k]
-    for k in FIGURE_NAMES:
-        if k == raw:
-            return k, k, FIGURE_UNITS.get(k, "")
-    low = {k.lower(): k for k in FIGURE_NAMES}
-    aliases = {"cct": "cct_K", "ler": "ler_lm_per_W", "u'": "u_prime", "v'": "v_prime", "peak": "peak_nm"}
-    k = low.get(raw.lower()) or aliases.get(raw.lower())
+    k = registry.lookup(raw)
     if k is None:
-        try:  # the figure registry, when this lumeval has one
-            from .. import figures as _reg  # type: ignore[attr-defined]
-
-            k = _reg.resolve(raw).name  # type: ignore[attr-defined]
-        except Exception:
-            k = None
-    if k is None or k not in FIGURE_NAMES:
         raise StoreError(f"unknown figure {raw!r}", field="--figure",
-                         fix="use a lumeval figure name (duv, cct_K, Ra, R9, Rf, Rg, ...) or "
-                             + ", ".join(CHROMATICITY_FIGURES))
-    return k, k, FIGURE_UNITS.get(k, "")
+                         fix="use a lumeval figure name (duv, CCT, Ra, R9, Rf, Rg, ...; `lumeval criteria explain` "
+                             "lists them) or " + ", ".join(CHROMATICITY_FIGURES))
+    return k, registry.label(k), registry.unit(k)
 
 
 # --------------------------------------------------------------------------- reading

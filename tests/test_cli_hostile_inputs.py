@@ -473,3 +473,46 @@ def test_lot_yield_without_per_sample_clause_says_why(tmp_path, capsys):
     assert y["outcome"] == "not judged"
     assert "no per-sample clause" in y["reason"]
     assert "no per-sample clause" in " ".join(out.split())
+
+
+# --------------------------------------------------------------------------- names (issue 13 item 4)
+
+
+@pytest.mark.parametrize(
+    "header",
+    ["Spectral irradiance [W/(m²·nm)]", "irradiance", "W/(m²·nm)", "Intensity (a.u.)", "counts", "mW/m2/nm",
+     "Radiance [W/(sr·m²·nm)]", "E(λ) [W/(m²nm)]", "relative spectral power"],
+)
+def test_generic_value_header_names_the_spectrum_by_file_stem(tmp_path, capsys, header):
+    f = tmp_path / "bench_lamp_07.csv"
+    f.write_text(spectrum_text(header=f"Wavelength [nm],{header}"), encoding="utf-8")
+    code, out, err = run(["inspect", f, "--format", "json"], capsys)
+    assert code == 0, err
+    assert [s["name"] for s in json.loads(out)["spectra"]] == ["bench_lamp_07"]
+
+
+@pytest.mark.parametrize("header", ["Lamp A", "LED 3000K", "Sample 1", "candidate_A"])
+def test_a_real_name_in_the_header_is_kept(tmp_path, capsys, header):
+    f = tmp_path / "x.csv"
+    f.write_text(spectrum_text(header=f"wavelength,{header}"), encoding="utf-8")
+    code, out, err = run(["inspect", f, "--format", "json"], capsys)
+    assert code == 0, err
+    assert [s["name"] for s in json.loads(out)["spectra"]] == [header]
+
+
+def test_names_unique_within_a_run_with_a_note(tmp_path, capsys):
+    for sub, shift in (("a", 0), ("b", 5), ("c", 10)):
+        (tmp_path / sub).mkdir()
+        write_spd(tmp_path / sub / "lamp.csv", shift)
+    files = [tmp_path / s / "lamp.csv" for s in "abc"]
+    code, out, err = run(["inspect", *files, "--format", "json"], capsys)
+    assert code == 0, err
+    spectra = json.loads(out)["spectra"]
+    assert [s["name"] for s in spectra] == ["lamp", "lamp (2)", "lamp (3)"]
+    assert not any("another spectrum" in w for w in spectra[0]["warnings"])
+    assert any("'lamp (2)'" in w and "already named 'lamp'" in w for w in spectra[1]["warnings"])
+    # the lot: same rule, sources untouched
+    code, doc, _out, err = _lot_json(tmp_path, capsys, str(tmp_path / "**" / "lamp.csv"))
+    assert code == 0, err
+    assert [s["name"] for s in doc["samples"]] == ["lamp", "lamp (2)", "lamp (3)"]
+    assert [Path(s["source"]).parent.name for s in doc["samples"]] == ["a", "b", "c"]

@@ -23,9 +23,10 @@ def inspect_files(paths):
     cannot be used.
     """
     from ..engine import evaluate
-    from ..spectra.read import read_spectra
+    from ..spectra.read import read_spectra, unique_names
 
-    return evaluate([read_spectra(p) for p in paths])
+    seen: dict[str, int] = {}
+    return evaluate([unique_names(read_spectra(p), seen) for p in paths])
 
 
 def register(app: typer.Typer) -> None:

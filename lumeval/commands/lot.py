@@ -234,12 +234,14 @@ def run_lot(
     from ..lots.streaming import LotAccumulator, archive_batches, evaluate_batch
     from ..spectra.archive import is_archive
     from ..spectra.model import SpectrumSet
+    from ..spectra.read import unique_names
 
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []
     archives = [is_archive(f) for f in files]
     acc = LotAccumulator(_expected_samples(files, archives))
+    seen_names: dict[str, int] = {}
     pending: dict[tuple, list] = {}
     pending_n = 0
     done = 0
@@ -270,6 +272,7 @@ def run_lot(
                 for s, meta, bad in archive_batches(path, batch_spectra):
                     unreadable.extend(bad)
                     if s is not None:
+                        s = unique_names(s, seen_names)
                         if not read_paths or read_paths[-1] != path:
                             read_paths.append(path)
                         consume(s, meta)
@@ -282,6 +285,7 @@ def run_lot(
             s, bad = _read_one(path)
             unreadable.extend(bad)
             if s is not None:
+                s = unique_names(s, seen_names)
                 read_paths.append(path)
                 pending.setdefault(_grid_key(s), []).append(s)
                 pending_n += len(s)
@@ -355,11 +359,12 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
     from ..engine import evaluate
     from ..render.html import regions_from_criteria, write_outputs
     from ..spectra.prepare import prepare
-    from ..spectra.read import read_many
+    from ..spectra.read import read_many, unique_names
 
     files = list(run.read_paths)
     sets, _errors = read_many(files)
-    sets = [s for s in sets if s is not None]
+    seen: dict[str, int] = {}
+    sets = [unique_names(s, seen) for s in sets if s is not None]  # the names of the lot run
     if not sets:
         return
     spectra = prepare(sets)

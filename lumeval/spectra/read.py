@@ -94,6 +94,36 @@ def parse_spectra(raw: bytes, file: str) -> SpectrumSet:
     return parse_text(_decode(raw, file), file)
 
 
+def unique_names(s: SpectrumSet, seen: dict[str, int]) -> SpectrumSet:
+    """``s`` with every name not yet in ``seen`` kept and every repeated one suffixed
+    (``name (2)``, ``name (3)``...), with a note saying so; ``seen`` is updated.
+
+    Names identify spectra in every report, verdict and lot table, so within one run (one
+    command's inputs) they must be unique: two files with the same stem in different folders,
+    or two columns with the same header, would otherwise be told apart only by their source.
+    Pass the same ``seen`` dict for every set of the run, in input order.
+    """
+    from dataclasses import replace
+
+    names = list(s.names)
+    notes = [tuple(n) for n in s.notes]
+    changed = False
+    for i, n in enumerate(names):
+        if n not in seen:
+            seen[n] = 1
+            continue
+        k = seen[n] + 1
+        while f"{n} ({k})" in seen:
+            k += 1
+        seen[n] = k
+        new = f"{n} ({k})"
+        seen[new] = 1
+        names[i] = new
+        notes[i] = notes[i] + (f"named {new!r}: another spectrum of this run is already named {n!r}",)
+        changed = True
+    return replace(s, names=tuple(names), notes=tuple(notes)) if changed else s
+
+
 def read_many(
     paths: Iterable[str | Path], *, prepared: bool = False
 ) -> tuple[list[SpectrumSet | None], list[tuple[str, InputError]]]:

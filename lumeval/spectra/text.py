@@ -770,15 +770,30 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
 
 _GENERIC_WORDS = {
     "value", "values", "intensity", "irradiance", "radiance", "power", "flux", "spd", "spectrum", "spectral",
-    "data", "relative", "absolute", "counts", "energy", "signal", "y", "s", "distribution", "density",
+    "data", "relative", "absolute", "counts", "count", "energy", "signal", "y", "s", "distribution", "density",
     "normalised", "normalized", "rel", "abs", "measured", "measurement", "radiant", "exitance", "a.u.",
+    "emission", "irradiation", "intensities", "raw", "corrected", "calibrated", "photon", "output",
+    "e", "l", "i", "φ", "phi", "λ",  # quantity symbols: E(λ) irradiance, L(λ) radiance, I, Φ
 }
+#: A bracketed group with no bracket inside (removed repeatedly: nested units such as
+#: "[W/(m²·nm)]" go from the inside out).
+_INNER_BRACKETS = re.compile(r"\([^()\[\]]*\)|\[[^()\[\]]*\]")
+#: Words of a unit (W/(m²·nm), mW/m2/nm, µW/cm²/nm, W/(sr·m²·nm), a.u., %, counts/s...).
+_UNIT_WORD = re.compile(r"^(?:[mµμunk]?w|watts?|[mµμunkc]?m[2²3³]?|sr|lm|lx|lux|cd|nits?|j|s|sec|per|sq|au|a\.u\.?|%)$")
 
 
 def _generic_value_name(col: str) -> bool:
-    """True when a single value column's header is a generic label, not a spectrum name."""
-    words = re.sub(r"[\[(].*?[\])]", " ", col).replace("_", " ").replace("-", " ").lower().split()
-    return all(w in _GENERIC_WORDS for w in words)
+    """True when a single value column's header is a generic quantity label ("irradiance",
+    "Spectral irradiance [W/(m²·nm)]", "counts", "W/(m²·nm)", "Intensity (a.u.)"), not a
+    spectrum's name: the spectrum is then named by its file stem."""
+    t = col
+    for _ in range(8):
+        u = _INNER_BRACKETS.sub(" ", t)
+        if u == t:
+            break
+        t = u
+    words = [w for w in re.split(r"[^\w%.µμ²³]+", t.lower().replace("_", " ")) if w and w != "."]
+    return all(w in _GENERIC_WORDS or _UNIT_WORD.match(w) or w.isdigit() for w in words)
 
 
 def read_text(path: str | Path, raw: bytes | None = None) -> SpectrumSet:

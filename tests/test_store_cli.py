@@ -173,3 +173,39 @@ def test_history_trend_usage_errors(tmp_path):
         assert r.returncode == 2, (args, r.stderr)
         assert expect in one_error_line(r)
     assert os.listdir(tmp_path) == ["h.db"] or set(os.listdir(tmp_path)) <= {"h.db", "h.db-wal", "h.db-shm"}
+
+
+def test_untrusted_labels_in_the_terminal(tmp_path):
+    db = tmp_path / "h.db"
+    for k in range(3):
+        record_lot(str(db), make_record([1.0 + k, 2.0, 3.5], key=f"k{k}", label=f"\x1b[31mred\x1b]0;title\x07{k}",
+                                        product="P\x1b[2J"))
+    for args in (["history", "list", "--store", db], ["history", "trend", "--store", db, "--figure", "R9"]):
+        r = lumeval(*args)
+        assert r.returncode == 0, r.stderr
+        assert "\x1b" not in r.stdout and "\x07" not in r.stdout
+        assert "red" in r.stdout
+
+
+def test_demo_weekly_drift_is_flagged(tmp_path):
+    """The demo's eight weekly lots (spectra_demo/generate_weekly.py): the planted red-phosphor
+    drift from week 45 (lots 6-8) is flagged on the Duv X̄ chart, the baseline weeks are not."""
+    weekly = sorted(glob.glob(str(ROOT / "spectra_demo" / "weekly" / "AD30-2026w*.csv")))
+    if len(weekly) != 8:
+        pytest.skip("the weekly demo lots are missing (run spectra_demo/generate_weekly.py)")
+    from lumeval.commands.lot import run_lot
+    from lumeval.criteria.loader import load_criteria
+    from lumeval.store.record import lot_record
+    from lumeval.store.trend import trend
+
+    crit = load_criteria(CRITERIA)
+    db = str(tmp_path / "h.db")
+    for f in weekly:
+        run = run_lot([f], crit)
+        assert run.exit_code == 0
+        record_lot(db, lot_record(run, criteria=crit, lot_id=Path(f).stem))
+    tr = trend(db, "duv", baseline_count=5)
+    flagged = {tr.points[s.index].lot for s in tr.signals if s.chart == "xbar"}
+    assert flagged == {6, 7, 8}
+    edge = trend(db, "centroid_edge_margin", baseline_count=5)
+    assert edge.points[-1].mean < edge.points[0].mean  # heading for the quadrangle edge

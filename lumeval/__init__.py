@@ -21,6 +21,7 @@ _API = {
     # spectra
     "SpectrumSet": "lumeval.spectra.model",
     "read_spectra": "lumeval.spectra.read", "read_many": "lumeval.spectra.read", "prepare": "lumeval.spectra.prepare",
+    "prepare_groups": "lumeval.spectra.prepare", "PreparedSpectra": "lumeval.spectra.prepare",
     "write_spectra": "lumeval.spectra.write", "validate_report": "lumeval.spectra.validate", "convert_file": "lumeval.commands.convert",
     # the main job
     "evaluate": "lumeval.engine",

@@ -1,8 +1,10 @@
 """Evaluate many spectra at once: every figure lumeval reports, as array operations.
 
-The engine is the one place where the metric modules meet. It takes a :class:`SpectrumSet`,
-prepares it onto a computation grid (:func:`lumeval.spectra.prepare.prepare`), and evaluates
-chunk by chunk so that memory stays bounded however many spectra come:
+The engine is the one place where the metric modules meet. It takes spectrum sets, prepares
+each onto its own computation grid (:func:`lumeval.spectra.prepare.prepare_groups`), groups
+the spectra that share a grid, and evaluates group by group and chunk by chunk so that memory
+stays bounded however many spectra come; results come back in input order, and no spectrum is
+ever resampled to another spectrum's grid:
 
 1. tristimulus values (CIE 1931 2°), x y, u v (CIE 1960), u' v' (CIE 1976);
 2. CCT and Duv by Ohno (2014) on a Planckian table computed with c2 = 1.4388e-2 m K;
@@ -29,6 +31,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from .metrics.cri import CRIResult
     from .metrics.photometry import PhotometryResult
     from .metrics.tm30 import TM30Result
+    from .spectra.prepare import PreparedSpectra
 
 #: Spectra evaluated per chunk. The largest intermediate arrays are (chunk, 99, W) for the
 #: TM-30 samples: 256 × 99 × 471 doubles ≈ 95 MB.
@@ -58,9 +61,14 @@ class Evaluation:
     report must show about spectrum i: what the readers did to the data, why a figure is
     undefined, and validity limits that were exceeded. ``run_warnings`` holds warnings raised by
     the computation libraries during the vectorised run (they cannot be tied to one spectrum).
+
+    ``spectra`` holds the prepared spectra in input order, each on its own computation grid
+    (:class:`lumeval.spectra.prepare.PreparedSpectra`): ``spectra.spectrum(i)`` gives spectrum
+    i's wavelengths and values; ``spectra.wavelengths_nm`` / ``values`` exist only when every
+    spectrum shares one grid. Spectra are never resampled to another spectrum's grid.
     """
 
-    spectra: SpectrumSet
+    spectra: PreparedSpectra
     XYZ: np.ndarray
     x: np.ndarray
     y: np.ndarray
@@ -109,12 +117,12 @@ class Evaluation:
 
     def reference_spd(self, i: int) -> np.ndarray:
         """The CIE 13.3 reference SPD (Planckian < 5000 K, CIE daylight ≥ 5000 K) of spectrum i
-        at its CCT, on the spectrum's grid, scaled to the same luminance (Y) as the test SPD.
+        at its CCT, on the spectrum's own computation grid, scaled to the same luminance (Y) as the test SPD.
         NaN where the CCT is undefined."""
         from .metrics.colorimetry import tristimulus
         from .metrics.reference import cri_reference_spd
 
-        wl = self.spectra.wavelengths_nm
+        wl = self.spectra.wavelengths(i)
         ref = cri_reference_spd(wl, np.array([self.cct_K[i]]))[0]
         if not np.all(np.isfinite(ref)):
             return ref
@@ -210,15 +218,30 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str,
     return tuple(out)
 
 
+def _take(result, order: np.ndarray, n: int):
+    """Reorder a concatenated result along its spectrum axis (the inverse of :func:`_concat`'s
+    joining): arrays by their first axis, per-spectrum tuples element-wise, dataclasses field
+    by field; run-level scalars are left alone."""
+    if dataclasses.is_dataclass(result):
+        return type(result)(**{f.name: _take(getattr(result, f.name), order, n) for f in dataclasses.fields(result)})
+    if isinstance(result, np.ndarray):
+        return result[order] if result.ndim and result.shape[0] == n else result
+    if isinstance(result, tuple):
+        return tuple(result[k] for k in order) if len(result) == n else result
+    return result
+
+
 def evaluate(spectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
     """Evaluate every figure for every spectrum in ``spectra``.
 
     Parameters
     ----------
-    spectra : SpectrumSet or sequence of SpectrumSet
-        Spectra as read. They are prepared onto one computation grid first (see
-        :func:`lumeval.spectra.prepare.prepare`, which also joins several sets); what
-        preparation did is recorded in the result's warnings.
+    spectra : SpectrumSet, sequence of SpectrumSet, or PreparedSpectra
+        Spectra as read (or already prepared). Each set is prepared on its own (see
+        :func:`lumeval.spectra.prepare.prepare_groups`); what preparation did is recorded in
+        the result's warnings. Spectra on different computation grids are evaluated group by
+        group, each on its own grid, never resampled to a common one: a spectrum's figures
+        depend on its own data only.
     chunk_size : int
         Spectra evaluated together; bounds peak memory for large lots.
     keep_details : bool
@@ -228,26 +251,31 @@ def evaluate(spectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = T
     Returns
     -------
     Evaluation
+        Figures in input order. ``spectra`` is the :class:`PreparedSpectra` (each spectrum's
+        own grid: ``ev.spectra.spectrum(i)``).
     """
-    from .spectra.prepare import prepare
+    from .spectra.prepare import prepare_groups
 
-    prepared = prepare(spectra)
-    wl = prepared.wavelengths_nm
-    n = len(prepared)
+    prepared = prepare_groups(spectra)
     parts = []
     caught_all: list[str] = []
-    for start in range(0, n, max(1, chunk_size)):
-        with _warnings.catch_warnings(record=True) as caught:
-            _warnings.simplefilter("always")
-            part = _evaluate_chunk(wl, prepared.values[start : start + chunk_size])
-        if not keep_details:
-            part = dataclasses.replace(part, cri=_strip_details(part.cri), tm30=_strip_details(part.tm30))
-        parts.append(part)
-        for c in caught:
-            msg = f"computation warning: {c.message}"
-            if msg not in caught_all:
-                caught_all.append(msg)
+    for group in prepared.groups:
+        wl = group.wavelengths_nm
+        for start in range(0, len(group), max(1, chunk_size)):
+            with _warnings.catch_warnings(record=True) as caught:
+                _warnings.simplefilter("always")
+                part = _evaluate_chunk(wl, group.values[start : start + chunk_size])
+            if not keep_details:
+                part = dataclasses.replace(part, cri=_strip_details(part.cri), tm30=_strip_details(part.tm30))
+            parts.append(part)
+            for c in caught:
+                msg = f"computation warning: {c.message}"
+                if msg not in caught_all:
+                    caught_all.append(msg)
     r: _Chunk = _concat(parts)
+    if not prepared.one_grid:
+        back = np.argsort(prepared.order, kind="stable")  # group order -> input order
+        r = _take(r, back, len(prepared))
     return Evaluation(
         spectra=prepared,
         XYZ=r.XYZ,

@@ -17,7 +17,7 @@ import pytest
 from lumeval._colour import load
 from lumeval.errors import InputError
 from lumeval.spectra.model import SpectrumSet
-from lumeval.spectra.prepare import cubic_spline, prepare, sprague, sprague_matrix
+from lumeval.spectra.prepare import cubic_spline, prepare, prepare_groups, sprague, sprague_matrix
 
 
 def _set(wl, values, name="s"):
@@ -174,23 +174,31 @@ def test_descending_and_duplicates_in_api_input():
         prepare(_set(wl2, _led(wl2)))
 
 
-def test_sets_on_different_grids_share_a_1nm_union_grid():
+def test_sets_on_different_grids_keep_their_own_grids_in_input_order():
+    """A spectrum's figures depend on its own data only (issue 10): no set is resampled to
+    another set's grid. Values on their own 1 nm / 5 nm grid are used as measured (CIE 15:2004
+    §7.1), i.e. unchanged copies (exact by construction)."""
     wl5 = np.arange(380, 781, 5.0)
     wl1 = np.arange(360, 831, 1.0)
     a = _set(wl5, _led(wl5), "a")
     b = _set(wl1, _led(wl1), "b")
-    p = prepare([a, b])
-    assert p.spacing_nm == 1.0 and p.wavelengths_nm[0] == 360 and p.wavelengths_nm[-1] == 830
-    assert p.names == ("a0", "b0")
-    # the 1 nm set is untouched
-    np.testing.assert_array_equal(p.values[1], _led(wl1))
-    # the 5 nm set: Sprague inside its range (exact at its nodes), end values outside, with notes
-    at_nodes = np.isin(p.wavelengths_nm, wl5)
-    np.testing.assert_allclose(p.values[0][at_nodes], _led(wl5), atol=1e-12)
-    assert np.all(p.values[0][p.wavelengths_nm < 380] == _led(380))
-    assert any("share one grid" in n for n in p.notes[0])
-    assert any("EXTRAPOLATED" in n for n in p.notes[0])
-    assert p.notes[1] == ()
+    c = _set(wl5, _led(wl5 + 3), "c")
+    g = prepare_groups([a, b, c])
+    assert len(g) == 3 and g.names == ("a0", "b0", "c0") and len(g.groups) == 2
+    for i, (wl, v) in enumerate([(wl5, _led(wl5)), (wl1, _led(wl1)), (wl5, _led(wl5 + 3))]):
+        gw, gv = g.spectrum(i)
+        np.testing.assert_array_equal(gw, wl)
+        np.testing.assert_array_equal(gv, v)
+        assert g.notes[i] == ()
+    with pytest.raises(ValueError, match="different computation grids"):
+        g.wavelengths_nm
+    with pytest.raises(ValueError, match="prepare_groups"):
+        prepare([a, b])
+    sub = g.subset([2, 1])
+    assert sub.names == ("c0", "b0")
+    np.testing.assert_array_equal(sub.spectrum(0)[1], _led(wl5 + 3))
+    # groups are in first-appearance order; order maps group rows back to input positions
+    assert g.order.tolist() == [0, 2, 1]
 
 
 def test_same_grid_sets_are_concatenated_unchanged():

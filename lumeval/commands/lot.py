@@ -153,11 +153,6 @@ def _read_one(path: str):
     return prepare(raw.subset(good)), bad
 
 
-def _grid_key(s) -> tuple:
-    wl = s.wavelengths_nm
-    return (float(wl[0]), float(wl[-1]), wl.size)
-
-
 def _concat_clause(parts: list):
     """Join per-batch ClauseResults of one clause into one."""
     import numpy as np
@@ -233,7 +228,6 @@ def run_lot(
                             uncertainty=uncertainty)
     from ..lots.streaming import LotAccumulator, archive_batches, evaluate_batch
     from ..spectra.archive import is_archive
-    from ..spectra.model import SpectrumSet
     from ..spectra.read import unique_names
 
     found = expand_inputs(paths)
@@ -242,7 +236,7 @@ def run_lot(
     archives = [is_archive(f) for f in files]
     acc = LotAccumulator(_expected_samples(files, archives))
     seen_names: dict[str, int] = {}
-    pending: dict[tuple, list] = {}
+    pending: list = []
     pending_n = 0
     done = 0
 
@@ -258,9 +252,11 @@ def run_lot(
 
     def flush() -> None:
         nonlocal pending, pending_n
-        for group in pending.values():
-            consume(group[0] if len(group) == 1 else SpectrumSet.concatenate(group))
-        pending = {}
+        if pending:
+            # one evaluation per batch: the engine groups the files by computation grid (each
+            # spectrum on its own grid, never resampled) and returns the samples in file order
+            consume(pending)
+        pending = []
         pending_n = 0
 
     for k, path in enumerate(files):
@@ -287,7 +283,7 @@ def run_lot(
             if s is not None:
                 s = unique_names(s, seen_names)
                 read_paths.append(path)
-                pending.setdefault(_grid_key(s), []).append(s)
+                pending.append(s)
                 pending_n += len(s)
                 done += len(s)
             if pending_n >= batch_spectra:
@@ -358,7 +354,7 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
 
     from ..engine import evaluate
     from ..render.html import regions_from_criteria, write_outputs
-    from ..spectra.prepare import prepare
+    from ..spectra.prepare import prepare_groups
     from ..spectra.read import read_many, unique_names
 
     files = list(run.read_paths)
@@ -367,7 +363,7 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
     sets = [unique_names(s, seen) for s in sets if s is not None]  # the names of the lot run
     if not sets:
         return
-    spectra = prepare(sets)
+    spectra = prepare_groups(sets)  # each file on its own grid
     judged = set(run.sources)
     keep = np.array([i for i, src in enumerate(spectra.sources) if src in judged], dtype=int)
     ev = evaluate(spectra.subset(keep), keep_details=False)

@@ -233,6 +233,21 @@ def _limits_from_rows(rows: list[VerdictRow]) -> dict[str, tuple[float | None, f
     return {k: (v[0], v[1]) for k, v in out.items()}
 
 
+def _lot_spectra_for_display(ev, k: int):
+    """(wavelengths, values (N, W), reference) for the lot's spectrum figure: all spectra on the
+    grid of sample ``k`` (the one whose reference is drawn). Spectra on other grids are linearly
+    interpolated onto it for the drawing only (their end values repeated where they are shorter:
+    every prepared spectrum covers 380-780 nm)."""
+    wl = ev.spectra.wavelengths(k)
+    if ev.spectra.one_grid:
+        return wl, ev.spectra.values, ev.reference_spd(k)
+    rows = []
+    for i in range(len(ev.spectra)):
+        w, v = ev.spectra.spectrum(i)
+        rows.append(np.interp(wl, w, v))
+    return wl, np.vstack(rows), ev.reference_spd(k)
+
+
 def _regions(regions) -> list[dict]:
     out = []
     for r in regions or ():
@@ -405,7 +420,6 @@ def report_figures(
         lim.update({k: tuple(v) for k, v in limits.items()})
     failed = _sample_failed(rows, names)
     as_lot = lot is not None or n > per_sample_max
-    wl = ev.spectra.wavelengths_nm
     cct = _fig(ev, "cct_K")
     figs: list[ReportFigure] = []
 
@@ -429,7 +443,7 @@ def report_figures(
                 f"spd-{slug}", f"Spectrum: {name}",
                 "Test spectrum (solid) and its CIE 13.3 reference at the same CCT (dashed), both scaled to the "
                 "same luminous content Y, then jointly to a highest value of 1. Grey: outside 380–780 nm.",
-                plots.spd_figure(wl, ev.spectra.values[i], ref, test_label=name, reference_label=_reference_label(cct[i])),
+                plots.spd_figure(*ev.spectra.spectrum(i), ref, test_label=name, reference_label=_reference_label(cct[i])),
             ))
             figs.append(ReportFigure(
                 f"cri-{slug}", f"Colour rendering indices: {name}",
@@ -451,8 +465,11 @@ def report_figures(
             ("Every spectrum (thin lines)" if n <= plots.MAX_LINES else
              f"The range of all {n} spectra at each wavelength (band) and their median (line)")
             + ", each spectrum scaled to the same luminous content Y, with the CIE 13.3 reference of "
-            f"the sample nearest the median CCT ({names[k]}, dashed); jointly scaled to a highest value of 1.",
-            plots.spd_figure(wl, ev.spectra.values, ev.reference_spd(k), test_label=f"{n} samples",
+            f"the sample nearest the median CCT ({names[k]}, dashed); jointly scaled to a highest value of 1."
+            + ("" if ev.spectra.one_grid else
+               " The samples lie on different wavelength grids: for this drawing only, they are linearly "
+               f"interpolated onto the grid of {names[k]} (every figure was computed on each spectrum's own grid)."),
+            plots.spd_figure(*_lot_spectra_for_display(ev, k), test_label=f"{n} samples",
                              reference_label=_reference_label(cct[k])),
         ))
         figs.append(ReportFigure(

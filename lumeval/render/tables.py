@@ -48,6 +48,11 @@ def _put(rec: dict, path: tuple, value) -> None:
         node[last] = value
 
 
+def _grid(wl) -> dict:
+    wl = np.asarray(wl, dtype=float)
+    return {"start_nm": _num(wl[0]), "end_nm": _num(wl[-1]), "step_nm": _num(wl[1] - wl[0]) if wl.size > 1 else None}
+
+
 def spectrum_records(ev) -> list[dict]:
     """Every spectrum's figures as the JSON objects documented in docs/output-formats.md.
 
@@ -73,6 +78,7 @@ def spectrum_records(ev) -> list[dict]:
                 rec["cct_undefined_reason"] = ev.cct_reason[i] or None
         rec.setdefault("cri", {})["reference"] = ev.cri.reference[i] if defined else None
         rec.setdefault("tm30", {})["reference"] = ev.tm30.reference[i] if defined else None
+        rec["grid"] = _grid(ev.spectra.wavelengths(i))  # this spectrum's own computation grid
         rec["warnings"] = list(ev.warnings[i])
         out.append(rec)
     return out
@@ -91,11 +97,9 @@ def evaluation_document(ev) -> dict:
         "lumeval_version": __version__,
         "schema_version": JSON_SCHEMA_VERSION,
         "methods": dict(ev.methods),
-        "grid": {
-            "start_nm": _num(ev.spectra.wavelengths_nm[0]),
-            "end_nm": _num(ev.spectra.wavelengths_nm[-1]),
-            "step_nm": ev.spectra.spacing_nm,
-        },
+        # the computation grid shared by every spectrum, or null when they lie on several
+        # grids (each spectrum is evaluated on its own; see each record's "grid")
+        "grid": _grid(ev.spectra.wavelengths_nm) if ev.spectra.one_grid else None,
         "spectra": spectrum_records(ev),
         "cautions": list(CAUTIONS),
     }

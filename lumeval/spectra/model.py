@@ -27,6 +27,10 @@ class SpectrumSet:
         extrapolated...). These travel into every report.
     metadata : tuple of dict, length N
         Key/value metadata found in the file (instrument, date, ...), kept verbatim.
+    prepared : bool
+        True when :func:`lumeval.spectra.prepare.prepare` made this set (values on a computation
+        grid); preparing it again returns it unchanged. Interpolated values may then hold
+        interpolation overshoot below zero, which is kept as computed and is not measured noise.
     """
 
     wavelengths_nm: np.ndarray
@@ -35,6 +39,7 @@ class SpectrumSet:
     sources: tuple[str, ...]
     notes: tuple[tuple[str, ...], ...] = field(default=())
     metadata: tuple[dict, ...] = field(default=())
+    prepared: bool = False
 
     def __post_init__(self) -> None:
         wl = np.asarray(self.wavelengths_nm, dtype=float)
@@ -73,6 +78,7 @@ class SpectrumSet:
             tuple(self.sources[i] for i in idx),
             tuple(self.notes[i] for i in idx),
             tuple(self.metadata[i] for i in idx),
+            self.prepared,
         )
 
     @staticmethod
@@ -91,4 +97,5 @@ class SpectrumSet:
             sum((s.sources for s in sets), ()),
             sum((s.notes for s in sets), ()),
             sum((s.metadata for s in sets), ()),
+            all(s.prepared for s in sets),
         )

@@ -23,7 +23,11 @@ spectrum, and notes travel into every report):
    resolved); spacing coarser than ``MAX_SPACING_NM`` (10 nm) is refused: a blue LED pump has a
    FWHM of about 20 nm, so coarser sampling gives fewer than two samples across it and the
    figures would depend more on the interpolation than on the lamp (our rule; common practice,
-   no source). Interpolation overshoot below zero is set to zero (note).
+   no source). Interpolation overshoot below zero (next to narrow peaks and lines) is kept
+   as computed, with a note: setting it to zero would add power that was never measured and
+   bias chromaticity. Only *measured* negative values follow rule 2. The interpolation works
+   per output point on the six neighbouring samples (banded), so a finely sampled file
+   (0.01 nm, tens of thousands of rows) needs memory in proportion to its length only.
 4. **Range**: data outside 360-830 nm are dropped (note). Data short of 380-780 nm are
    extended to 380/780 nm by repeating the end values (CIE 15:2004 §7.2.2.1 practice) with a
    warning. Data starting above ``MAX_START_NM`` (400 nm) or ending below ``MIN_END_NM``
@@ -32,8 +36,10 @@ spectrum, and notes travel into every report):
    CIE 1931 table, 360-830 nm), but these grow to 1.5 % of z̄ below 410 nm and 0.6 % of x̄
    above 680 nm; and the red test colours (CIE 13.3 R9, TM-30 red hue bins) need the red end
    measured, not guessed.
-5. Several sets on **different grids** are all interpolated to 1 nm on the union of their
-   ranges (notes say so); a spectrum shorter than the union is extended as in rule 4.
+5. Several sets on **different grids** are never resampled to a common grid: a spectrum's
+   figures depend on its own data only. :func:`prepare_groups` prepares each set on its own
+   and groups spectra that share a computation grid (:class:`PreparedSpectra`); the engine
+   evaluates each group on its grid and returns the results in input order.
 
 Functions here are pure: arrays in, arrays out, no I/O.
 """
@@ -41,6 +47,8 @@ Functions here are pure: arrays in, arrays out, no I/O.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -94,57 +102,67 @@ _SPRAGUE_A = (
 )
 
 
-def sprague_matrix(n_in: int, x_frac: np.ndarray) -> np.ndarray:
-    """Sprague (1880) interpolation as a linear operator on uniformly spaced data.
+def _sprague_extend(values: np.ndarray) -> np.ndarray:
+    """(N, n) uniform data with the two Sprague boundary points added at each end: (N, n + 4)."""
+    lo = values[:, :6] @ _SPRAGUE_C[:2].T
+    hi = values[:, -6:] @ _SPRAGUE_C[2:].T
+    return np.concatenate([lo, values, hi], axis=1)
 
-    Parameters
-    ----------
-    n_in : int
-        Number of uniformly spaced input samples (at least 6).
-    x_frac : ndarray, shape (M,)
-        Output positions in units of the input spacing, measured from the first sample
-        (0 <= x_frac <= n_in - 1).
 
-    Returns
-    -------
-    ndarray, shape (M, n_in)
-        Matrix ``A`` such that ``values @ A.T`` interpolates (N, n_in) data to (N, M).
-
-    Notes
-    -----
-    Method: CIE 167:2005 recommends Sprague (1880) for uniformly spaced spectral data; the
-    boundary extension (two synthetic points per end) and the quintic coefficients are those
-    tabulated by Westland et al. (2012) and used by colour-science's ``SpragueInterpolator``,
-    against which the tests check this operator.
-    """
-    if n_in < 6:
-        raise ValueError("Sprague interpolation needs at least 6 points")
-    x_frac = np.asarray(x_frac, dtype=float)
-    # extended sample vector e (n_in + 4) = E @ p, with E (n_in+4, n_in)
-    ext = np.zeros((n_in + 4, n_in))
-    ext[2 : n_in + 2] = np.eye(n_in)
-    ext[0, :6] = _SPRAGUE_C[0]
-    ext[1, :6] = _SPRAGUE_C[1]
-    ext[n_in + 2, n_in - 6 :] = _SPRAGUE_C[2]
-    ext[n_in + 3, n_in - 6 :] = _SPRAGUE_C[3]
-    i = np.clip(np.floor(x_frac).astype(int), 0, n_in - 2)
-    t = x_frac - i
-    out = np.zeros((x_frac.size, n_in))
-    # rows of ext for p[i-2]..p[i+3] are ext[i .. i+5]
-    win = np.stack([ext[i + k] for k in range(6)], axis=1)  # (M, 6, n_in)
-    a = np.einsum("jk,mkn->mjn", _SPRAGUE_A, win)  # (M, 5, n_in)
-    out += win[:, 2, :]
-    tp = t[:, None]
-    for power in range(1, 6):
-        out += a[:, power - 1, :] * tp**power
-    return out
+#: Rows interpolated together by :func:`sprague`: bounds its working memory to about
+#: ``_SPRAGUE_ROWS × M × 11`` doubles (M output wavelengths), whatever the input spacing.
+_SPRAGUE_ROWS = 512
 
 
 def sprague(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarray:
-    """Sprague-interpolate uniform (N, W) data on ``wl`` to ``wl_out`` (inside ``wl``'s range)."""
+    """Sprague-interpolate uniform (N, W) data on ``wl`` to ``wl_out`` (inside ``wl``'s range).
+
+    Method: CIE 167:2005 recommends Sprague (1880) for uniformly spaced spectral data; the
+    boundary extension (two synthetic points per end) and the quintic coefficients are those
+    tabulated by Westland et al. (2012) and used by colour-science's ``SpragueInterpolator``,
+    against which the tests check this function.
+
+    Each output value depends on the six input samples around it only, so the work is done per
+    output point on those samples (a banded operator): memory grows with the number of output
+    points, not with the square of the input length. A 0.01 nm file (47,000 samples over
+    360-830 nm) needs a few MB, where a dense (M, W) matrix would need GBs.
+
+    Overshoot: the quintic may dip below zero next to a narrow peak or a line. Those values
+    are returned as computed (setting them to zero would add power and bias chromaticity).
+    """
+    wl = np.asarray(wl, dtype=float)
+    values = np.atleast_2d(np.asarray(values, dtype=float))
+    n_in = wl.size
+    if n_in < 6:
+        raise ValueError("Sprague interpolation needs at least 6 points")
     h = wl[1] - wl[0]
-    mat = sprague_matrix(wl.size, (wl_out - wl[0]) / h)
-    return np.atleast_2d(values) @ mat.T
+    x = (np.asarray(wl_out, dtype=float) - wl[0]) / h
+    i = np.clip(np.floor(x).astype(int), 0, n_in - 2)
+    t = (x - i)[None, :]
+    cols = i[:, None] + np.arange(6)[None, :]  # rows of the extended vector: p[i-2] .. p[i+3]
+    out = np.empty((values.shape[0], x.size))
+    rows = max(1, min(_SPRAGUE_ROWS, (1 << 22) // (n_in + 4)))  # the extended copy stays <= 32 MB
+    for start in range(0, values.shape[0], rows):
+        block = values[start : start + rows]
+        win = _sprague_extend(block)[:, cols]  # (n, M, 6)
+        a = win @ _SPRAGUE_A.T  # (n, M, 5): polynomial coefficients of t^1 .. t^5
+        acc = a[..., 4]
+        for k in range(3, -1, -1):  # Horner
+            acc = acc * t + a[..., k]
+        out[start : start + rows] = win[..., 2] + acc * t
+    return out
+
+
+def sprague_matrix(n_in: int, x_frac: np.ndarray) -> np.ndarray:
+    """Sprague (1880) interpolation of ``n_in`` uniform samples as a dense (M, n_in) matrix.
+
+    ``values @ A.T`` equals :func:`sprague` at the positions ``x_frac`` (in units of the input
+    spacing from the first sample). For small inputs and tests; the data path uses the banded
+    :func:`sprague`, whose memory does not grow with ``n_in``².
+    """
+    if n_in < 6:
+        raise ValueError("Sprague interpolation needs at least 6 points")
+    return sprague(np.arange(float(n_in)), np.eye(n_in), np.asarray(x_frac, dtype=float)).T
 
 
 def cubic_spline(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarray:
@@ -259,6 +277,8 @@ def _on_integer_grid(wl: np.ndarray) -> bool:
 
 
 def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
+    if spectra.prepared:
+        return spectra
     wl = np.asarray(spectra.wavelengths_nm, dtype=float)
     vals = np.array(spectra.values, dtype=float)
     notes = [list(n) for n in spectra.notes]
@@ -346,16 +366,14 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
         else:
             vals_new = cubic_spline(src_wl, src_vals, wl_new)
             how = "irregularly spaced data interpolated to 1 nm (cubic spline, CIE 15:2004 practice)"
-        for k in range(n):
-            notes[k].append(how)
         neg = vals_new < 0
         for k in range(n):
+            notes[k].append(how)
             if neg[k].any():
                 notes[k].append(
-                    f"interpolation overshot below zero at {int(neg[k].sum())} wavelength(s) "
-                    f"(down to {vals_new[k].min():.3g}); set to zero"
+                    f"interpolation overshoot below zero at {int(neg[k].sum())} wavelength(s) (down to "
+                    f"{vals_new[k].min():.3g}) kept as computed: clipping it would add power and bias the figures"
                 )
-        vals_new = np.maximum(vals_new, 0.0)
     if wl[0] < CIE_MIN_NM - 1e-9 or wl[-1] > CIE_MAX_NM + 1e-9:
         parts = []
         if wl[0] < CIE_MIN_NM - 1e-9:
@@ -373,6 +391,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
         spectra.sources,
         tuple(tuple(x) for x in notes),
         spectra.metadata,
+        prepared=True,
     )
 
 
@@ -402,54 +421,181 @@ def _extend(wl, vals, h, start, end, notes):
     return new_wl, new_vals
 
 
+def _grid_key(wl: np.ndarray) -> tuple[float, float, int]:
+    """Computation grids are uniform: first wavelength, spacing and length identify one."""
+    return (float(wl[0]), float(wl[1] - wl[0]) if wl.size > 1 else 0.0, int(wl.size))
+
+
+@dataclass(frozen=True)
+class PreparedSpectra:
+    """N prepared spectra in input order, grouped by their own computation grid.
+
+    A spectrum's figures depend on its own data only, so spectra on different grids are never
+    resampled to a common one: each group holds the spectra that share one computation grid
+    (a prepared :class:`SpectrumSet`), and ``members[g]`` gives the input positions of the rows
+    of ``groups[g]``. Most runs have one group.
+
+    Per-spectrum access works for any number of groups: :meth:`spectrum`, :meth:`wavelengths`,
+    ``names``, ``sources``, ``notes``, ``metadata`` (input order). ``wavelengths_nm``,
+    ``values`` and ``spacing_nm`` exist only when all spectra share one grid (they raise
+    ``ValueError`` otherwise, so that nothing silently mixes grids).
+    """
+
+    groups: tuple[SpectrumSet, ...]
+    members: tuple[np.ndarray, ...]
+
+    @staticmethod
+    def from_sets(sets: Sequence[SpectrumSet]) -> "PreparedSpectra":
+        """Group prepared sets by grid, in order of first appearance; rows keep input order."""
+        by_key: dict[tuple, list[tuple[SpectrumSet, np.ndarray]]] = {}
+        pos = 0
+        for s in sets:
+            idx = np.arange(pos, pos + len(s))
+            pos += len(s)
+            by_key.setdefault(_grid_key(s.wavelengths_nm), []).append((s, idx))
+        groups, members = [], []
+        for parts in by_key.values():
+            groups.append(parts[0][0] if len(parts) == 1 else SpectrumSet.concatenate([p[0] for p in parts]))
+            members.append(np.concatenate([p[1] for p in parts]))
+        return PreparedSpectra(tuple(groups), tuple(members))
+
+    def __len__(self) -> int:
+        return sum(len(g) for g in self.groups)
+
+    @cached_property
+    def _where(self) -> tuple[np.ndarray, np.ndarray]:
+        """(group, row) of each input position."""
+        n = len(self)
+        grp = np.empty(n, dtype=int)
+        row = np.empty(n, dtype=int)
+        for g, m in enumerate(self.members):
+            grp[m] = g
+            row[m] = np.arange(m.size)
+        return grp, row
+
+    @cached_property
+    def order(self) -> np.ndarray:
+        """Input positions in group order: ``concat(groups)[k]`` is input spectrum ``order[k]``."""
+        return np.concatenate(self.members) if self.members else np.zeros(0, dtype=int)
+
+    def group_of(self, i: int) -> int:
+        return int(self._where[0][i])
+
+    def _per_spectrum(self, attr: str) -> tuple:
+        grp, row = self._where
+        return tuple(getattr(self.groups[g], attr)[r] for g, r in zip(grp, row))
+
+    @cached_property
+    def names(self) -> tuple[str, ...]:
+        return self._per_spectrum("names")
+
+    @cached_property
+    def sources(self) -> tuple[str, ...]:
+        return self._per_spectrum("sources")
+
+    @cached_property
+    def notes(self) -> tuple[tuple[str, ...], ...]:
+        return self._per_spectrum("notes")
+
+    @cached_property
+    def metadata(self) -> tuple[dict, ...]:
+        return self._per_spectrum("metadata")
+
+    def wavelengths(self, i: int) -> np.ndarray:
+        """The computation grid of spectrum ``i`` (W_i,)."""
+        return self.groups[self.group_of(i)].wavelengths_nm
+
+    def spectrum(self, i: int) -> tuple[np.ndarray, np.ndarray]:
+        """``(wavelengths (W_i,), values (W_i,))`` of spectrum ``i`` on its own grid."""
+        g = self.group_of(i)
+        return self.groups[g].wavelengths_nm, self.groups[g].values[self._where[1][i]]
+
+    @property
+    def grids(self) -> tuple[np.ndarray, ...]:
+        return tuple(g.wavelengths_nm for g in self.groups)
+
+    @property
+    def one_grid(self) -> bool:
+        return len(self.groups) == 1
+
+    def _single(self) -> SpectrumSet:
+        if len(self.groups) != 1:
+            raise ValueError(
+                f"the spectra lie on {len(self.groups)} different computation grids; use spectrum(i) / wavelengths(i)"
+            )
+        return self.groups[0]
+
+    @property
+    def wavelengths_nm(self) -> np.ndarray:
+        return self._single().wavelengths_nm
+
+    @property
+    def values(self) -> np.ndarray:
+        return self._single().values
+
+    @property
+    def spacing_nm(self) -> float | None:
+        return self._single().spacing_nm
+
+    def subset(self, index) -> "PreparedSpectra":
+        """The spectra at input positions ``index``, in that order, grouped as before."""
+        idx = np.atleast_1d(np.arange(len(self))[index])
+        grp, row = self._where
+        groups, members = [], []
+        for g in range(len(self.groups)):
+            sel = np.flatnonzero(grp[idx] == g)
+            if sel.size:
+                groups.append(self.groups[g].subset(row[idx[sel]]))
+                members.append(sel)
+        return PreparedSpectra(tuple(groups), tuple(members))
+
+
+def prepare_groups(spectra: "SpectrumSet | PreparedSpectra | Sequence[SpectrumSet]") -> PreparedSpectra:
+    """Prepare every set (see the module docstring) and group the spectra by computation grid.
+
+    No spectrum is resampled to another spectrum's grid: sets that end on the same grid share
+    a group, others form their own. Input order is kept (see :class:`PreparedSpectra`).
+    """
+    if isinstance(spectra, PreparedSpectra):
+        return spectra
+    if isinstance(spectra, SpectrumSet):
+        spectra = [spectra]
+    sets = [_prepare_one(s) for s in spectra]
+    if not sets:
+        raise ValueError("no spectra to prepare")
+    return PreparedSpectra.from_sets(sets)
+
+
 def prepare(spectra: SpectrumSet | Sequence[SpectrumSet]) -> SpectrumSet:
     """Bring spectra onto the computation grid (see the module docstring for every rule).
 
     Parameters
     ----------
     spectra : SpectrumSet or sequence of SpectrumSet
-        Raw spectra as read. Several sets may have different grids.
+        Raw spectra as read. A sequence must end on one computation grid (for sets on
+        different grids use :func:`prepare_groups`: lumeval never resamples one file's
+        spectra to another file's grid).
 
     Returns
     -------
     SpectrumSet
         Values (N, W) on a uniform 1 nm or 5 nm integer grid inside 360-830 nm covering at
-        least 380-780 nm; ``notes`` say what was done to each spectrum.
+        least 380-780 nm; ``notes`` say what was done to each spectrum; ``prepared`` is True
+        (preparing it again returns it unchanged).
 
     Raises
     ------
     InputError
         When a spectrum cannot be used honestly (naming its file and column).
+    ValueError
+        When the sets of a sequence end on different grids.
     """
     if isinstance(spectra, SpectrumSet):
         return _prepare_one(spectra)
-    sets = [_prepare_one(s) for s in spectra]
-    if not sets:
-        raise ValueError("no spectra to prepare")
-    if len(sets) == 1:
-        return sets[0]
-    first = sets[0].wavelengths_nm
-    if all(s.wavelengths_nm.shape == first.shape and np.array_equal(s.wavelengths_nm, first) for s in sets):
-        return SpectrumSet.concatenate(sets)
-    lo = min(float(s.wavelengths_nm[0]) for s in sets)
-    hi = max(float(s.wavelengths_nm[-1]) for s in sets)
-    grid = np.arange(lo, hi + 0.5, 1.0)
-    out = []
-    for s in sets:
-        wl = s.wavelengths_nm
-        notes = [list(x) for x in s.notes]
-        if not (s.spacing_nm == 1.0 and wl[0] == lo and wl[-1] == hi):
-            inner = grid[(grid >= wl[0]) & (grid <= wl[-1])]
-            if s.spacing_nm == 1.0:
-                vals = s.values[:, np.searchsorted(wl, inner)]
-            else:
-                vals = np.maximum(sprague(wl, s.values, inner), 0.0)
-                for k in range(len(s)):
-                    notes[k].append(
-                        f"{_fmt(s.spacing_nm)} nm data interpolated to 1 nm (Sprague, CIE 167:2005) "
-                        "to share one grid with the other spectra evaluated with it"
-                    )
-            inner_wl, vals = _extend(inner, vals, 1.0, lo, hi, notes)
-            s = SpectrumSet(inner_wl, vals, s.names, s.sources, tuple(tuple(x) for x in notes), s.metadata)
-        out.append(s)
-    return SpectrumSet.concatenate(out)
+    grouped = prepare_groups(spectra)
+    if not grouped.one_grid:
+        raise ValueError(
+            "these spectra lie on different computation grids after preparation; use prepare_groups() "
+            "(each spectrum keeps its own grid)"
+        )
+    return grouped.groups[0]

@@ -160,8 +160,9 @@ def draw_spectra(wavelengths_nm, values, instrument: InstrumentModel, draws: int
     - n(λ) ~ N(0, (r·S_m(λ))² + (a·peak)²), independent across wavelengths and trials
       (``noise_relative`` r, ``noise_absolute`` a).
 
-    Draws are finally truncated at zero: a spectral power is never negative, and lumeval's
-    preparation step would otherwise refuse or clip them. This truncation matters only where
+    Draws are finally truncated at zero: a spectral power is never negative (where interpolation
+    overshoot left the prepared spectrum itself below zero, at that value instead). Drawn
+    spectra are evaluated on the spectrum's computation grid without a second preparation. This truncation matters only where
     the signal is within a few noise widths of zero (spectrum tails), where the colour-matching
     and test-colour weights are tiny.
 
@@ -205,7 +206,10 @@ def draw_spectra(wavelengths_nm, values, instrument: InstrumentModel, draws: int
     sd = np.sqrt((instrument.noise_relative * s_m) ** 2 + (instrument.noise_absolute * peak) ** 2)
     out += noise * sd[None, :]
     out *= (1.0 + eps)[:, None]
-    np.maximum(out, 0.0, out=out)
+    # truncated at zero, except where the spectrum itself lies below zero (interpolation
+    # overshoot kept by preparation): there no draw goes below the spectrum's own value, so
+    # that with zero uncertainty every draw equals the spectrum
+    np.maximum(out, np.minimum(s_m, 0.0)[None, :], out=out)
     return out
 
 
@@ -363,7 +367,9 @@ def _engine(spectra, chunk_size=_CHUNK):
 def _evaluate_values(wl, values, evaluate_fn, names_f, extra, chunk):
     m = values.shape[0]
     labels = ("draw",) * m
-    ss = SpectrumSet(wl, values, labels, labels)
+    # drawn from a prepared spectrum, on its computation grid: evaluated as they are (preparing
+    # them again would treat kept interpolation overshoot as measured noise)
+    ss = SpectrumSet(wl, values, labels, labels, prepared=True)
     ev = evaluate_fn(ss) if evaluate_fn else _engine(ss, chunk)
     cols = _figures_of(ev, names_f)
     if extra is not None:
@@ -438,7 +444,6 @@ def propagate(
     if evaluation is None:
         evaluation = evaluate_fn(spectra) if evaluate_fn else _engine(spectra, chunk_size)
     prepared = evaluation.spectra
-    wl = prepared.wavelengths_nm
     n = len(prepared)
 
     measured = _figures_of(evaluation, names_f)
@@ -458,7 +463,7 @@ def propagate(
 
     for i in range(n):
         rng = np.random.default_rng(np.random.SeedSequence(settings.seed, spawn_key=(index_offset + i,)))
-        s_m = prepared.values[i]
+        wl, s_m = prepared.spectrum(i)  # each spectrum on its own computation grid
 
         def run(m):
             vals = draw_spectra(wl, s_m, instrument, m, rng)

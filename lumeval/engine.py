@@ -50,6 +50,28 @@ def __getattr__(name: str):
 
         return {f.name: f.unit for f in figures.FIGURES.values() if f.unit}
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+#: Figures computed against a reference illuminant: where |Duv| > 0.05 they are computed against
+#: the reference at the nearest Planckian temperature and flagged outside their validity range.
+VALIDITY_FIGURES: frozenset[str] = frozenset(
+    ("Ra", "dc", "Rf", "Rg", "cie2017_Rf")
+    + tuple(f"R{i}" for i in range(1, 15))
+    + tuple(f"{p}{j}" for p in ("Rf_h", "Rcs_h", "Rhs_h") for j in range(1, 17))
+)
+
+#: The words every output uses for the flag (terminal, JSON, CSV, HTML, verdicts).
+OUTSIDE_VALIDITY = "outside the validity range"
+
+
+def validity_warning(cct_reason: str, reference_cct_K: float) -> str:
+    """The warning for a spectrum whose CRI/TM-30 figures lie outside their validity range."""
+    return (
+        f"OUTSIDE THE VALIDITY RANGE: CCT undefined ({cct_reason}); CRI and TM-30 figures are computed "
+        f"against the reference at the nearest Planckian temperature, {reference_cct_K:.0f} K, and are "
+        f"{OUTSIDE_VALIDITY} (CIE 15:2004 §9.5; CIE 13.3-1995; CIE 224:2017). Criteria judge them "
+        "'not valid' unless a clause accepts them."
+    )
+
+
 
 
 @dataclass(frozen=True)
@@ -86,6 +108,12 @@ class Evaluation:
     warnings: tuple[tuple[str, ...], ...]
     run_warnings: tuple[str, ...] = ()
     methods: dict[str, str] = field(default_factory=dict)
+    #: Temperature of the CRI/TM-30 reference illuminant (N,): the CCT, or where |Duv| > 0.05
+    #: the nearest Planckian temperature; NaN where no reference exists. None: same as cct_K.
+    reference_cct_K: np.ndarray | None = None
+    #: True (N,) where the reference-based figures (:data:`VALIDITY_FIGURES`) were computed
+    #: outside their validity range (|Duv| > 0.05, CIE 15:2004 §9.5). None: nowhere.
+    outside_validity: np.ndarray | None = None
 
     def __len__(self) -> int:
         return self.x.shape[0]
@@ -93,6 +121,32 @@ class Evaluation:
     @property
     def names(self) -> tuple[str, ...]:
         return self.spectra.names
+
+    def outside_validity_of(self, name: str) -> np.ndarray:
+        """Boolean (N,): where figure ``name`` was computed outside its validity range.
+
+        Only the figures computed against a reference illuminant (:data:`VALIDITY_FIGURES`:
+        CIE 13.3 Ra, Ri, DC; CIE 224 / TM-30 Rf, Rg and hue-bin values) can be; CCT is then
+        undefined (NaN) rather than flagged."""
+        from . import figures
+
+        try:
+            name = figures.get(name).name  # an alias names the same figure
+        except KeyError:
+            pass
+        n = len(self)
+        if self.outside_validity is None or name not in VALIDITY_FIGURES:
+            return np.zeros(n, dtype=bool)
+        return np.asarray(self.outside_validity, dtype=bool)
+
+    def validity_reason(self, i: int) -> str:
+        """Why spectrum i's reference-based figures are outside their validity range ("" if not)."""
+        if self.outside_validity is None or not self.outside_validity[i]:
+            return ""
+        return (
+            f"{OUTSIDE_VALIDITY}: |Duv| = {abs(float(self.duv[i])):.4f} > 0.05, computed against the reference "
+            f"at the nearest Planckian temperature {float(self.reference_cct_K[i]):.0f} K (CIE 15:2004 §9.5)."
+        )
 
     def figure(self, name: str) -> np.ndarray:
         """The figure ``name`` (a name or alias of :mod:`lumeval.figures`) as an array of shape (N,);
@@ -117,13 +171,15 @@ class Evaluation:
 
     def reference_spd(self, i: int) -> np.ndarray:
         """The CIE 13.3 reference SPD (Planckian < 5000 K, CIE daylight ≥ 5000 K) of spectrum i
-        at its CCT, on the spectrum's own computation grid, scaled to the same luminance (Y) as the test SPD.
+        at its reference temperature (the CCT, or the nearest Planckian temperature where
+        |Duv| > 0.05), on the spectrum's own computation grid, scaled to the same luminance (Y) as the test SPD.
         NaN where the CCT is undefined."""
         from .metrics.colorimetry import tristimulus
         from .metrics.reference import cri_reference_spd
 
         wl = self.spectra.wavelengths(i)
-        ref = cri_reference_spd(wl, np.array([self.cct_K[i]]))[0]
+        t_ref = self.cct_K if self.reference_cct_K is None else self.reference_cct_K
+        ref = cri_reference_spd(wl, np.array([t_ref[i]]))[0]
         if not np.all(np.isfinite(ref)):
             return ref
         y_ref = tristimulus(wl, ref)[1]
@@ -186,9 +242,12 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     uv = uv_from_XYZ(XYZ)
     upvp = upvp_from_XYZ(XYZ)
     cct = cct_duv_ohno(uv)
-    cri = cie133_cri(wl, values, cct.cct_K)
-    fid = tm30(wl, values, cct.cct_K)
-    rf2017 = cie2017_rf(wl, values, cct.cct_K, tm30_result=fid)
+    # the reference temperature: the CCT, or where |Duv| > 0.05 the nearest Planckian
+    # temperature (CCT itself stays undefined; the figures are flagged outside validity)
+    ref_T = cct.reference_cct_K
+    cri = cie133_cri(wl, values, ref_T)
+    fid = tm30(wl, values, ref_T)
+    rf2017 = cie2017_rf(wl, values, ref_T, tm30_result=fid)
     phot = photometry(wl, values)
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
 
@@ -202,14 +261,16 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str,
     fid_reason = getattr(fid, "reason", ("",) * len(spectra))
     for i in range(len(spectra)):
         w = list(spectra.notes[i])
-        if cct.reason[i]:
+        if cct.outside_validity[i]:
+            w.append(validity_warning(cct.reason[i], float(cct.reference_cct_K[i])))
+        elif cct.reason[i]:
             w.append(f"CCT undefined: {cct.reason[i]}; CRI and TM-30 figures are not computed.")
         elif np.isfinite(dc[i]) and not cri.within_dc_limit[i]:
             w.append(
                 f"DC = {dc[i]:.4f} is not below {DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
                 "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
             )
-        if not cct.reason[i] and fid_reason[i]:
+        if np.isfinite(cct.reference_cct_K[i]) and fid_reason[i]:
             w.append(f"TM-30: {fid_reason[i]}.")
         w.extend(hue_edge_warnings(getattr(fid, "hue_edge_pairs", ()), i))
         if phot.reason[i]:
@@ -295,18 +356,28 @@ def evaluate(spectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = T
         warnings=_warnings_for(prepared, r.cct, r.cri, r.tm30, r.photometry),
         run_warnings=tuple(caught_all),
         methods=METHODS,
+        reference_cct_K=r.cct.reference_cct_K,
+        outside_validity=np.asarray(r.cct.outside_validity, dtype=bool),
     )
 
 
 #: The methods and editions every report names.
 METHODS: dict[str, str] = {
     "observer": "CIE 1931 2° (colorimetry, CCT, CRI); CIE 1964 10° (CIE 224 / TM-30)",
-    "integration": "sum at the data's own 1 nm or 5 nm spacing (CIE 15:2004 §7.1)",
-    "interpolation": "other uniform spacings Sprague-interpolated to 1 nm (CIE 167:2005), irregular grids by "
-    "cubic spline; short ranges extended by the end values (CIE 15:2004); see docs/input-files.md",
-    "cct": "Ohno (2014) LEUKOS 10(1):47-55, Planckian locus with c2 = 1.4388e-2 m K (CIE 15:2004)",
+    "integration": "CIE 15 summation (CIE 15:2004 §7.1): S(λ)·weight(λ)·Δλ summed at the data's own 1 nm or "
+    "5 nm spacing, every sample with full weight (not the trapezoidal rule; the two differ where a spectrum "
+    "carries power at the ends of 360-830 nm, see docs/metrics.md)",
+    "interpolation": "each spectrum on its own grid, never resampled to another file's grid; other uniform "
+    "spacings Sprague-interpolated to 1 nm (CIE 167:2005), irregular grids by cubic spline (CIE 15:2004); "
+    "interpolation overshoot below zero kept as computed (only measured negatives within 5 % of the peak are "
+    "set to zero); short ranges extended by the end values (CIE 15:2004); see docs/input-files.md",
+    "cct": "Ohno (2014) LEUKOS 10(1):47-55, Planckian locus with c2 = 1.4388e-2 m K (CIE 15:2004); given for "
+    "1000-25,000 K, undefined where |Duv| > 0.05 (CIE 15:2004 §9.5)",
     "duv_sign": "positive above the Planckian locus (ANSI C78.377)",
-    "cri": "CIE 13.3-1995, reference Planckian < 5000 K, CIE daylight ≥ 5000 K",
+    "cri": "CIE 13.3-1995, reference Planckian < 5000 K, CIE daylight ≥ 5000 K (defined to 25,000 K)",
+    "validity": "where |Duv| > 0.05, CRI and CIE 224 / TM-30 are computed against the reference at the nearest "
+    "Planckian temperature and flagged outside the validity range; criteria judge them 'not valid' unless a "
+    "clause sets accept_outside_validity",
     "fidelity": "CIE 224:2017 / ANSI/IES TM-30-18 and -20 (Rf, Rg, 16 hue bins; one calculation)",
     "photometry": "Km = 683 lm/W, K'm = 1700 lm/W; sums over the measured range within 360-830 nm",
     "melanopic": "CIE S 026/E:2018 melanopic daylight (D65) efficacy ratio; action spectra CIE dataset "
@@ -321,6 +392,7 @@ METHOD_LABELS: dict[str, str] = {
     "cct": "CCT and Duv",
     "duv_sign": "Duv sign",
     "cri": "Colour rendering",
+    "validity": "Validity range",
     "fidelity": "Fidelity and gamut",
     "photometry": "Photometry",
     "melanopic": "Melanopic",

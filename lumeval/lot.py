@@ -433,7 +433,7 @@ def lot_yield(verdicts: Sequence[str]) -> LotYield:
     v = list(verdicts)
     total = len(v)
     passed = sum(1 for o in v if o == "pass")
-    failed = sum(1 for o in v if o == "fail")
+    failed = sum(1 for o in v if o in ("fail", "not valid"))  # 'not valid' counts as a fail
     nj = sum(1 for o in v if o == "not judged")
     ind = sum(1 for o in v if o == "indeterminate")
     pct = 100.0 * passed / total if total else float("nan")

@@ -147,17 +147,25 @@ def test_blackbody_sources_score_100(tmp_path):
 
 
 def test_far_from_locus_reports_cct_undefined(tmp_path):
-    """CIE 15:2004: no CCT beyond |Duv| 0.05 — null with a reason, never a number."""
+    """CIE 15:2004: no CCT beyond |Duv| 0.05 — null with a reason, never a number. CRI and TM-30
+    are then computed against the reference at the nearest Planckian temperature and flagged
+    outside the validity range (issue 10); a deep-blue LED, nearest the locus beyond the table,
+    has no reference at all."""
     wl = np.arange(380.0, 781.0)
     green = np.exp(-0.5 * ((wl - 530.0) / 15.0) ** 2) + 1e-3
-    p = tmp_path / "green.csv"
+    blue = np.exp(-0.5 * ((wl - 450.0) / 10.0) ** 2)
+    p, q = tmp_path / "green.csv", tmp_path / "blue.csv"
     write_two_column(p, wl, green)
-    r = run_cli("inspect", "--format", "json", p)
+    write_two_column(q, wl, blue)
+    r = run_cli("inspect", "--format", "json", p, q)
     assert r.returncode == 0, r.stderr
-    s = json.loads(r.stdout)["spectra"][0]
-    assert s["cct_K"] is None and s["cct_undefined_reason"]
-    assert s["cri"]["Ra"] is None and s["tm30"]["Rf"] is None
-    assert any("CCT undefined" in w for w in s["warnings"])
+    s, b = json.loads(r.stdout)["spectra"]
+    assert s["cct_K"] is None and s["cct_undefined_reason"] and abs(s["duv"]) > 0.05
+    assert s["cri"]["Ra"] is not None and s["tm30"]["Rf"] is not None
+    assert "Ra" in s["outside_validity"]["figures"] and "Rf" in s["outside_validity"]["figures"]
+    assert any("CCT undefined" in w and "OUTSIDE THE VALIDITY RANGE" in w for w in s["warnings"])
+    assert b["cct_K"] is None and b["cri"]["Ra"] is None and b["tm30"]["Rf"] is None
+    assert b["outside_validity"] is None and any("CCT undefined" in w for w in b["warnings"])
 
 
 def test_python_api_mirrors_cli(f_series_files):

@@ -239,27 +239,33 @@ def test_many_samples_list_only_the_checks_that_did_not_pass(demo_eval, check_re
 
 
 def test_undefined_figures_render_as_na(colour, tmp_path):
-    """A narrow green LED is far from the Planckian locus (|Duv| > 0.05): CCT, CRI and TM-30 are
-    undefined (CIE 15:2004) and the report must say n/a, draw no reference, and still be valid."""
+    """A narrow blue LED lies nearest the Planckian locus beyond its table: CCT, CRI and TM-30 are
+    undefined and the report must say n/a, draw no reference, and still be valid. A narrow green
+    LED is far from the locus (|Duv| > 0.05): CCT is undefined (CIE 15:2004), CRI and TM-30 are
+    given against the nearest Planckian reference and flagged outside the validity range."""
     from lumeval.engine import evaluate
     from lumeval.spectra.model import SpectrumSet
 
     wl = np.arange(380.0, 781.0, 1.0)
     green = np.exp(-0.5 * ((wl - 530.0) / 12.0) ** 2)
+    blue = np.exp(-0.5 * ((wl - 450.0) / 10.0) ** 2)
     sd_a = colour.SDS_ILLUMINANTS["A"].copy().align(colour.SpectralShape(380, 780, 1))
-    ev = evaluate(SpectrumSet(wl, np.stack([green, np.asarray(sd_a.values)]), ("green", "A"), ("g", "a")))
-    assert not np.isfinite(ev.cct_K[0]) and np.isfinite(ev.cct_K[1])
+    ev = evaluate(SpectrumSet(wl, np.stack([blue, np.asarray(sd_a.values), green]), ("blue", "A", "green"), ("b", "a", "g")))
+    assert not np.isfinite(ev.cct_K[0]) and np.isfinite(ev.cct_K[1]) and not np.isfinite(ev.cct_K[2])
     p = H.write_html_report(tmp_path / "r.html", ev)
     text = p.read_text(encoding="utf-8")
     import html5lib  # a test dependency (pyproject [test]): fail, never skip, when it is missing
     html5lib.HTMLParser(strict=True).parse(text)
-    chrom_row, render_row = re.findall(r"<tr><td>green</td>(.*?)</tr>", text)
-    assert chrom_row.count("n/a") == 1  # CCT; Duv is still defined
-    assert render_row.count("n/a") == 4  # Ra, R9, Rf, Rg need a reference at the CCT
+    chrom_row, render_row = re.findall(r"<tr><td>blue</td>(.*?)</tr>", text)
+    assert chrom_row.count("n/a") == 2  # CCT and Duv: nearest the locus beyond its table
+    assert render_row.count("n/a") == 4  # Ra, R9, Rf, Rg need a reference
     assert "CCT undefined" in text  # the engine's reason travels into the notes
+    chrom_row, render_row = re.findall(r"<tr><td>green</td>(.*?)</tr>", text)
+    assert chrom_row.count("n/a") == 1 and render_row.count("n/a") == 0
+    assert "OUTSIDE THE VALIDITY RANGE" in text
     figs = H.report_figures(ev)
-    spd_green = [f for f in figs if f.key.startswith("spd-01")][0].figure
-    assert not [ln for ln in spd_green.axes[0].get_lines() if ln.get_gid() == "reference-spd"]
+    spd_blue = [f for f in figs if f.key.startswith("spd-01")][0].figure
+    assert not [ln for ln in spd_blue.axes[0].get_lines() if ln.get_gid() == "reference-spd"]
 
 
 def test_validate_targets_before_any_write(tmp_path):

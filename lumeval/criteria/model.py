@@ -24,7 +24,7 @@ import numpy as np
 
 from .. import figures
 from . import presets, regions
-from .verdicts import ClauseResult, margin_to_limits, simple_outcomes
+from .verdicts import NOT_VALID, ClauseResult, margin_to_limits, simple_outcomes
 
 # --------------------------------------------------------------------------- figures
 
@@ -108,15 +108,38 @@ def _with_hue_edge_warnings(ev, figure: str, reason: tuple[str, ...]) -> tuple[s
     return tuple(out)
 
 
+def _not_valid(ev, figure: str, n: int, outcome: tuple, reason: tuple, accept: bool) -> tuple[tuple, tuple]:
+    """Where ``figure`` was computed outside its validity range: ``not valid`` (with the reason),
+    or, when the clause accepts such figures, the plain outcome with a note."""
+    flag = getattr(ev, "outside_validity_of", None)
+    outside = np.asarray(flag(figure), dtype=bool) if flag is not None else np.zeros(n, dtype=bool)
+    if not outside.any():
+        return outcome, reason
+    outcome, reason = list(outcome), list(reason) if reason else [""] * n
+    for i in np.flatnonzero(outside):
+        why = ev.validity_reason(int(i)) if hasattr(ev, "validity_reason") else "outside the validity range"
+        if accept:
+            reason[i] = f"judged all the same (accept_outside_validity = true): {why}"
+        elif np.isfinite(np.asarray(ev.figure(figure), dtype=float)[i]):
+            outcome[i] = NOT_VALID
+            reason[i] = f"not valid: {why} To judge it all the same: accept_outside_validity = true."
+    return tuple(outcome), tuple(reason)
+
+
 def figure_result(
-    ev, *, clause_id: str, label: str, kind: str, figure: str, lower, upper, source: str, group: str, line
+    ev, *, clause_id: str, label: str, kind: str, figure: str, lower, upper, source: str, group: str, line,
+    accept_outside_validity: bool = False,
 ) -> ClauseResult:
-    """Judge ``lower ≤ figure ≤ upper`` for every spectrum (simple acceptance)."""
+    """Judge ``lower ≤ figure ≤ upper`` for every spectrum (simple acceptance).
+
+    A figure computed outside its validity range (:meth:`lumeval.engine.Evaluation.outside_validity_of`)
+    is ``not valid`` unless ``accept_outside_validity``."""
     m = np.asarray(ev.figure(figure), dtype=float)
     unit = figure_unit(figure)
     margin = margin_to_limits(m, lower, upper)
     margin = np.where(np.isfinite(m), margin, np.nan)
     outcome, reason = simple_outcomes(margin, _cct_reasons(ev, m.size))
+    outcome, reason = _not_valid(ev, figure, m.size, outcome, reason, accept_outside_validity)
     reason = _with_hue_edge_warnings(ev, figure, reason)
     return ClauseResult(
         clause_id=clause_id,
@@ -249,6 +272,24 @@ def number(table: dict, key: str, *, positive: bool = False, allow_zero: bool = 
     return v
 
 
+def boolean(table: dict, key: str) -> bool:
+    """An optional true/false key (default false)."""
+    v = table.get(key, False)
+    if not isinstance(v, bool):
+        raise ParseError(key, f"must be true or false, got {v!r}", f"write {key} = true or {key} = false (no quotes)")
+    return v
+
+
+#: Key of the clause kinds that judge reference-based figures (CRI, TM-30).
+ACCEPT_OUTSIDE_VALIDITY = KeySpec(
+    "accept_outside_validity",
+    "true or false (default false)",
+    "judge the figure even where it was computed outside its validity range (CRI and TM-30 of a source "
+    "with |Duv| > 0.05, against the reference at the nearest Planckian temperature); by default such a "
+    "figure is judged 'not valid', which fails the check",
+)
+
+
 def string(table: dict, key: str) -> str | None:
     if key not in table:
         return None
@@ -275,6 +316,7 @@ class FigureClause(ClauseKind):
             KeySpec("min", "number", "lowest acceptable value (inclusive)"),
             KeySpec("max", "number", "highest acceptable value (inclusive)"),
             KeySpec("range", "array of two numbers [low, high]", "acceptable range (inclusive); instead of min and max"),
+            ACCEPT_OUTSIDE_VALIDITY,
         )
     }
 
@@ -285,6 +327,7 @@ class FigureClause(ClauseKind):
     figure: str
     lower: float | None
     upper: float | None
+    accept_outside_validity: bool = False
 
     @classmethod
     def parse(cls, table: dict, common: dict) -> "FigureClause":
@@ -317,7 +360,7 @@ class FigureClause(ClauseKind):
             raise ParseError("min", f"min = {lo:g} is above max = {hi:g}", "the limits contradict each other; swap or correct them")
         unit = figure_unit(fig)
         label = common["label"] or f"{display_name(fig)} {limit_text(lo, hi, unit)}"
-        return cls(common["id"], label, common["note"], common["line"], fig, lo, hi)
+        return cls(common["id"], label, common["note"], common["line"], fig, lo, hi, boolean(table, ACCEPT_OUTSIDE_VALIDITY.name))
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         desc, std = describe(self.figure)
@@ -333,6 +376,7 @@ class FigureClause(ClauseKind):
                 source=std,
                 group=self.clause_id,
                 line=self.line,
+                accept_outside_validity=self.accept_outside_validity,
             ),
         )
 
@@ -624,7 +668,8 @@ class Tm30DesignIntentClause(ClauseKind):
     KIND: ClassVar[str] = "tm30_design_intent"
     TITLE: ClassVar[str] = "ANSI/IES TM-30-20 Annex E design-intent level"
     KEYS: ClassVar[dict[str, KeySpec]] = {
-        "level": KeySpec("level", ", ".join(f'"{k}"' for k in presets.LEVELS), "the design intent (Preference, Vividness, Fidelity) and priority level", True)
+        "level": KeySpec("level", ", ".join(f'"{k}"' for k in presets.LEVELS), "the design intent (Preference, Vividness, Fidelity) and priority level", True),
+        ACCEPT_OUTSIDE_VALIDITY.name: ACCEPT_OUTSIDE_VALIDITY,
     }
 
     clause_id: str
@@ -632,6 +677,7 @@ class Tm30DesignIntentClause(ClauseKind):
     note: str
     line: int | None
     level: str
+    accept_outside_validity: bool = False
 
     @classmethod
     def parse(cls, table: dict, common: dict) -> "Tm30DesignIntentClause":
@@ -643,7 +689,7 @@ class Tm30DesignIntentClause(ClauseKind):
             hint = f"did you mean {s!r}? " if s else ""
             raise ParseError("level", f"unknown design-intent level {lv!r}", f"{hint}allowed: {', '.join(presets.LEVELS)}")
         label = common["label"] or f"TM-30 Annex E {presets.level_title(lv)}"
-        return cls(common["id"], label, common["note"], common["line"], lv)
+        return cls(common["id"], label, common["note"], common["line"], lv, boolean(table, ACCEPT_OUTSIDE_VALIDITY.name))
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         out = []
@@ -661,6 +707,7 @@ class Tm30DesignIntentClause(ClauseKind):
                     source=presets.TM30_ANNEX_E_SOURCE,
                     group=self.clause_id,
                     line=self.line,
+                    accept_outside_validity=self.accept_outside_validity,
                 )
             )
         return tuple(out)

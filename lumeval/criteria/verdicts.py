@@ -10,9 +10,12 @@ name of the ``decision_rule`` applied, and an outcome per spectrum that may be
 Outcomes and exit codes
 -----------------------
 Per clause and spectrum: ``pass``, ``fail``, ``indeterminate`` (a decision rule could not
-decide) or ``not judged`` (the figure is undefined for that spectrum, e.g. Ra when the CCT is
-undefined). Per spectrum the verdict is ``fail`` if any clause fails, else ``indeterminate`` if
-any is indeterminate, else ``not judged`` if any clause could not be judged, else ``pass``.
+decide), ``not judged`` (the figure is undefined for that spectrum, e.g. Ra when the source lies
+beyond 25,000 K) or ``not valid`` (the figure was computed outside its validity range, e.g. Ra
+where |Duv| > 0.05, and the clause does not say ``accept_outside_validity = true``). Per
+spectrum the verdict is ``fail`` if any clause fails, else ``not valid`` if any is not valid,
+else ``indeterminate`` if any is indeterminate, else ``not judged`` if any clause could not be
+judged, else ``pass``.
 The exit code is 0 only when every spectrum passes (or nothing was judged because there were
 no spectra); otherwise 1 — an indeterminate or unjudged clause must never look like a pass to
 a script. Exit code 2 (bad input) is raised before any verdict exists.
@@ -28,9 +31,12 @@ PASS = "pass"
 FAIL = "fail"
 INDETERMINATE = "indeterminate"
 NOT_JUDGED = "not judged"
+#: The figure was computed outside its validity range (CRI/TM-30 where |Duv| > 0.05) and the
+#: clause does not accept that: it cannot show conformance, so it fails the check (exit 1).
+NOT_VALID = "not valid"
 
 #: Every outcome, in increasing order of severity for the overall verdict.
-OUTCOMES = (PASS, NOT_JUDGED, INDETERMINATE, FAIL)
+OUTCOMES = (PASS, NOT_JUDGED, INDETERMINATE, NOT_VALID, FAIL)
 
 SIMPLE_ACCEPTANCE = "simple acceptance (the measured value decides; no guard band)"
 

@@ -13,8 +13,15 @@ Conventions
   computed here from Planck's law with c2 = 1.4388e-2 m K (CIE 15:2004) and the 1 nm CIE 1931
   CMFs over 360-830 nm.
 - Duv is positive above the Planckian locus (ANSI C78.377 sign convention).
-- CCT is undefined when |Duv| > 0.05 (CIE 15:2004 §9.5: the concept of CCT is not meaningful
-  far from the locus) or outside 1000-20000 K (the range of Ohno 2014's stated accuracy).
+- CCT is reported within 1000-25000 K: CIE daylight, the reference illuminant of CIE 13.3 and
+  CIE 224 above 5000 K, is defined up to 25,000 K (CIE 15:2004 §3.1); Ohno (2014) states his
+  method's accuracy (1 K) for 1000-20000 K, and the test suite checks this implementation against
+  an exact minimum-distance search up to 25,000 K. Beyond 25,000 K there is no reference
+  illuminant, so neither CCT nor CRI/TM-30 is given (the reason says so).
+- Where |Duv| > 0.05, CCT is undefined for reporting (CIE 15:2004 §9.5: the concept of CCT is
+  not meaningful so far from the locus), but the nearest Planckian temperature is still the
+  temperature of the reference illuminant for CRI and TM-30 (``reference_cct_K``), and those
+  figures are flagged as computed outside their validity range (``outside_validity``).
 """
 
 from __future__ import annotations
@@ -26,9 +33,10 @@ import numpy as np
 
 from .planck import C2_CIE, planck_exitance
 
-#: Range in which CCT is reported (Ohno 2014's stated range of accuracy).
+#: Range in which CCT is reported: from Ohno (2014)'s lower end to the upper end of CIE daylight
+#: (25,000 K, CIE 15:2004 §3.1), the reference illuminant above 5000 K.
 CCT_MIN_K = 1000.0
-CCT_MAX_K = 20000.0
+CCT_MAX_K = 25000.0
 #: Largest |Duv| at which CCT is still reported (CIE 15:2004 §9.5).
 DUV_LIMIT = 0.05
 
@@ -153,14 +161,15 @@ def xy_from_upvp(upvp) -> np.ndarray:
 
 # --------------------------------------------------------------------------- Planckian locus
 
-#: The Planckian table: geometric steps of 0.1 % between 900 K and 25 000 K. The parabolic
+#: The Planckian table: geometric steps of 0.1 % between 900 K and 40 000 K (beyond the
+#: 25,000 K reporting limit, so that the search near that limit has neighbours on both sides). The parabolic
 #: solution's error falls with the square of the step, so the 0.99991 correction that Ohno
 #: (2014) applies to his 1 % table is not needed here (and not applied); the test suite checks
 #: the result against an exact minimum-distance search.
-_T_LO, _T_HI, _STEP = 900.0, 25000.0, 1.001
+_T_LO, _T_HI, _STEP = 900.0, 40000.0, 1.001
 #: Coarse search stride in table entries (1 % steps) for the first, global nearest search.
 _COARSE = 10
-#: Tolerance on the reporting range, so that a point computed at 20000 K is not refused for a
+#: Tolerance on the reporting range, so that a point computed at 25000 K is not refused for a
 #: rounding excess far below the method's accuracy.
 _RANGE_TOL_K = 0.5
 
@@ -205,19 +214,27 @@ class CCTResult:
         Correlated colour temperature, NaN where undefined (see ``reason``).
     duv : ndarray (N,)
         Signed distance from the Planckian locus in CIE 1960 (u, v); positive above. NaN where
-        the nearest Planckian temperature lies beyond the table (900-25000 K).
+        the nearest Planckian temperature lies beyond the table (900-40000 K).
     cct_raw_K : ndarray (N,)
         The temperature of the nearest Planckian point even where CCT is undefined
-        (clamped to the table's 900-25000 K); used only to pick a reference illuminant
-        when a caller explicitly asks for it.
+        (clamped to the table's 900-40000 K).
     reason : tuple of str (N,)
         Empty where CCT is defined, otherwise why not.
+    reference_cct_K : ndarray (N,)
+        The temperature of the reference illuminant for CRI and TM-30: the CCT where it is
+        defined; where CCT is undefined only because |Duv| > 0.05, the nearest Planckian
+        temperature (if within 1000-25000 K); NaN otherwise.
+    outside_validity : ndarray (N,) of bool
+        True where ``reference_cct_K`` is given but CCT is not (|Duv| > 0.05): figures computed
+        against that reference lie outside their validity range.
     """
 
     cct_K: np.ndarray
     duv: np.ndarray
     cct_raw_K: np.ndarray
     reason: tuple[str, ...]
+    reference_cct_K: np.ndarray | None = None
+    outside_validity: np.ndarray | None = None
 
 
 def cct_duv_ohno(uv) -> CCTResult:
@@ -293,7 +310,8 @@ def cct_duv_ohno(uv) -> CCTResult:
     duv = np.where(finite & ~beyond, sign * duv_abs, np.nan)
 
     far = finite & ~beyond & (np.abs(duv) > DUV_LIMIT)
-    out_of_range = finite & ~far & ((Tx < CCT_MIN_K - _RANGE_TOL_K) | (Tx > CCT_MAX_K + _RANGE_TOL_K) | beyond)
+    t_outside = (Tx < CCT_MIN_K - _RANGE_TOL_K) | (Tx > CCT_MAX_K + _RANGE_TOL_K) | beyond
+    out_of_range = finite & ~far & t_outside
     reasons = [""] * n
     for k in np.flatnonzero(~finite | far | out_of_range):
         if not finite[k]:
@@ -308,11 +326,23 @@ def cct_duv_ohno(uv) -> CCTResult:
                 f"|Duv| = {abs(duv[k]):.4f} exceeds {DUV_LIMIT} "
                 "(CIE 15: CCT is not meaningful so far from the Planckian locus)"
             )
-        else:
+            if t_outside[k]:
+                reasons[k] += f"; the nearest Planckian temperature {Tx[k]:.0f} K is outside {_range_text()}"
+        elif Tx[k] > CCT_MAX_K:
             reasons[k] = (
-                f"nearest Planckian temperature {Tx[k]:.0f} K is outside the "
-                f"{CCT_MIN_K:.0f}-{CCT_MAX_K:.0f} K range of the method (Ohno 2014)"
+                f"nearest Planckian temperature {Tx[k]:.0f} K is above 25,000 K, where CIE daylight (the "
+                "CRI and TM-30 reference illuminant) is no longer defined (CIE 15:2004)"
             )
+        else:
+            reasons[k] = f"nearest Planckian temperature {Tx[k]:.0f} K is outside {_range_text()}"
     cct = np.where(finite & ~far & ~out_of_range, Tx, np.nan)
     raw = np.where(finite, Tx_safe, np.nan)
-    return CCTResult(cct_K=cct, duv=duv, cct_raw_K=raw, reason=tuple(reasons))
+    off_locus = far & ~t_outside
+    ref = np.where(off_locus, Tx, cct)
+    return CCTResult(cct_K=cct, duv=duv, cct_raw_K=raw, reason=tuple(reasons), reference_cct_K=ref,
+                     outside_validity=off_locus)
+
+
+def _range_text() -> str:
+    return (f"the {CCT_MIN_K:,.0f}-{CCT_MAX_K:,.0f} K range (Ohno 2014 below; CIE daylight, the reference "
+            "illuminant, ends at 25,000 K)")

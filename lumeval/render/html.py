@@ -70,10 +70,11 @@ MAX_TABLE_ROWS = 100
 #: Figures whose distributions are drawn for a lot (plus any figure a limit names).
 LOT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
 
-_OUTCOME_ORDER = ("pass", "not judged", "indeterminate", "fail")
+_OUTCOME_ORDER = ("pass", "not judged", "indeterminate", "not valid", "fail")
 _OUTCOME_TEXT = {
     "pass": ("✓", "PASS"),
     "fail": ("✗", "FAIL"),
+    "not valid": ("✗", "NOT VALID"),
     "indeterminate": ("?", "INDETERMINATE"),
     "not judged": ("–", "NOT JUDGED"),
 }
@@ -718,12 +719,12 @@ th, td { border-bottom: 1px solid var(--rule); padding: .25rem .45rem; text-alig
 th { background: #f2f2f2; font-weight: 600; }
 td.n, th.n { text-align: right; white-space: nowrap; }
 .summary { border: 2px solid var(--ink); border-left-width: 10px; padding: .8rem 1rem; margin: 1rem 0; }
-.summary.pass { border-color: var(--pass); } .summary.fail { border-color: var(--fail); }
+.summary.pass { border-color: var(--pass); } .summary.fail, .summary.not-valid { border-color: var(--fail); }
 .summary.indeterminate, .summary.not-judged { border-color: var(--warn); }
 .summary .big { font-size: 1.35rem; font-weight: 700; }
 .badge { display: inline-block; font-weight: 700; padding: 0 .35rem; border: 1.5px solid currentColor; border-radius: 3px;
          white-space: nowrap; }
-.badge.pass { color: var(--pass); } .badge.fail { color: #a33d00; } .badge.indeterminate, .badge.not-judged { color: #7a5600; }
+.badge.pass { color: var(--pass); } .badge.fail, .badge.not-valid { color: #a33d00; } .badge.indeterminate, .badge.not-judged { color: #7a5600; }
 tr.fail td { background: #fdf0e8; }
 table.dense th, table.dense td { padding: .2rem .15rem; font-size: .78rem; }
 table.grid { table-layout: fixed; } table.grid th, table.grid td { font-size: .8rem; overflow-wrap: anywhere; }
@@ -972,6 +973,8 @@ def render_html_report(
             "fail": "At least one criterion is not met.",
             "indeterminate": "No criterion fails, but at least one cannot be decided.",
             "not judged": "No criterion fails, but at least one could not be judged.",
+            "not valid": "At least one criterion rests on a figure outside its validity range "
+                         "(CRI/TM-30 with |Duv| > 0.05): not a pass.",
         }[overall]
         body.append(f'<div class="summary {overall.replace(" ", "-")}"><p class="big">{_badge(overall)} {_e(summary_words)}</p>'
                     f"<p>{len(rows)} checks: " + ", ".join(

@@ -14,7 +14,8 @@ from pathlib import Path
 #: Methods and standard editions named in every report when the evaluation carries none.
 #: The engine's ``Evaluation.methods`` (a dict) takes precedence.
 DEFAULT_METHODS: dict[str, str] = {
-    "colorimetry": "CIE 15:2004, CIE 1931 2° observer, summation at the data's own 1 nm or 5 nm spacing",
+    "colorimetry": "CIE 15:2004, CIE 1931 2° observer, CIE 15 summation (§7.1) at the data's own 1 nm or 5 nm "
+    "spacing, every sample with full weight (not the trapezoidal rule)",
     "cct": "Ohno (2014) LEUKOS 10(1):47-55; Planckian locus with c2 = 1.4388e-2 m K (CIE 15:2004)",
     "duv_sign": "positive above the Planckian locus (ANSI C78.377)",
     "cri": "CIE 13.3-1995 (Ra, R1-R14)",

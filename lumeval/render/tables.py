@@ -53,6 +53,25 @@ def _grid(wl) -> dict:
     return {"start_nm": _num(wl[0]), "end_nm": _num(wl[-1]), "step_nm": _num(wl[1] - wl[0]) if wl.size > 1 else None}
 
 
+def _outside_validity_figures(ev, i: int) -> list[str]:
+    from ..engine import FIGURE_NAMES
+
+    flag = getattr(ev, "outside_validity_of", None)
+    if flag is None:
+        return []
+    return [k for k in FIGURE_NAMES if flag(k)[i]]
+
+
+def _validity_record(ev, i: int):
+    """JSON: null where every figure is within its validity range, else the flag tools read."""
+    figs = _outside_validity_figures(ev, i)
+    if not figs:
+        return None
+    from ..engine import OUTSIDE_VALIDITY
+
+    return {"flag": OUTSIDE_VALIDITY, "reason": ev.validity_reason(i), "figures": figs}
+
+
 def spectrum_records(ev) -> list[dict]:
     """Every spectrum's figures as the JSON objects documented in docs/output-formats.md.
 
@@ -63,8 +82,9 @@ def spectrum_records(ev) -> list[dict]:
     n = len(ev)
     values = {f.name: f.value(ev) for f in figures.FIGURES.values()}
     out = []
+    ref_T = ev.cct_K if getattr(ev, "reference_cct_K", None) is None else ev.reference_cct_K
     for i in range(n):
-        defined = math.isfinite(float(ev.cct_K[i]))
+        defined = math.isfinite(float(ref_T[i]))  # a reference illuminant exists
         rec: dict = {
             "name": ev.spectra.names[i],
             "source": ev.spectra.sources[i],
@@ -76,6 +96,12 @@ def spectrum_records(ev) -> list[dict]:
             _put(rec, f.json_path, _num(values[f.name][i]))
             if f.name == "cct_K":
                 rec["cct_undefined_reason"] = ev.cct_reason[i] or None
+            if f.name == "duv":
+                # the reference illuminant's temperature: the CCT, or where |Duv| > 0.05 the
+                # nearest Planckian temperature (then "outside_validity" lists the figures
+                # computed against it)
+                rec["reference_cct_K"] = _num(ref_T[i])
+                rec["outside_validity"] = _validity_record(ev, i)
         rec.setdefault("cri", {})["reference"] = ev.cri.reference[i] if defined else None
         rec.setdefault("tm30", {})["reference"] = ev.tm30.reference[i] if defined else None
         rec["grid"] = _grid(ev.spectra.wavelengths(i))  # this spectrum's own computation grid
@@ -114,7 +140,7 @@ def csv_columns() -> tuple[str, ...]:
     the registry marks for the CSV (:mod:`lumeval.figures`), warnings."""
     from .. import figures
 
-    return ("name", "source") + tuple(f.name for f in figures.FIGURES.values() if f.csv) + ("warnings",)
+    return ("name", "source") + tuple(f.name for f in figures.FIGURES.values() if f.csv) + ("warnings", "outside_validity")
 
 
 def __getattr__(name: str):
@@ -127,7 +153,7 @@ def csv_rows(ev):
     """Yield one dict per spectrum with the :func:`csv_columns` keys (numbers unrounded)."""
     from .. import figures
 
-    cols = [figures.FIGURES[c] for c in csv_columns()[2:-1]]
+    cols = [figures.FIGURES[c] for c in csv_columns()[2:-2]]
     values = {f.name: f.value(ev) for f in cols}
     for i in range(len(ev)):
         row = {"name": ev.spectra.names[i], "source": ev.spectra.sources[i]}
@@ -135,6 +161,8 @@ def csv_rows(ev):
             v = float(values[f.name][i])
             row[f.name] = repr(v) if math.isfinite(v) else ""
         row["warnings"] = " | ".join(ev.warnings[i])
+        # the figures computed outside their validity range (|Duv| > 0.05), for tools; "" if none
+        row["outside_validity"] = " ".join(_outside_validity_figures(ev, i))
         yield row
 
 

@@ -62,8 +62,19 @@ def _rows(ev, idx):
     from .. import figures
 
     rows = []
+    ref_T = ev.cct_K if getattr(ev, "reference_cct_K", None) is None else ev.reference_cct_K
+    outside = ev.outside_validity_of("Ra") if hasattr(ev, "outside_validity_of") else np.zeros(len(ev), dtype=bool)
+
+    def validity(i):
+        # CRI and TM-30 computed against the nearest Planckian reference where |Duv| > 0.05
+        if outside[i]:
+            return f"OUTSIDE validity range (ref. {ref_T[i]:.0f} K)"
+        return "within" if math.isfinite(float(ref_T[i])) else "n/a"
+
     for group, figs in figures.by_group():
         title = figures.GROUPS[group]
+        if group in ("colour rendering", "fidelity"):
+            rows.append((title, "validity", [validity(i) for i in idx]))
         shown = [f for f in figs if f.summary]
         names = [f.name for f in shown]
         done: set[str] = set()
@@ -89,7 +100,7 @@ def _rows(ev, idx):
             if dc is not None and not dc.summary:
                 v = dc.value(ev)
                 rows.append((title, dc.row_label, [dc.format(v[i]) for i in idx]))
-            rows.append((title, "reference", [ev.cri.reference[i] if math.isfinite(float(ev.cct_K[i])) else "n/a" for i in idx]))
+            rows.append((title, "reference", [ev.cri.reference[i] if math.isfinite(float(ref_T[i])) else "n/a" for i in idx]))
     return rows
 
 

@@ -24,8 +24,10 @@ from .tables import CAUTIONS
 
 JSON_SCHEMA_VERSION = 1
 
-_WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "indeterminate": "? INDETERMINATE", "not judged": "– NOT JUDGED"}
-_STYLE = {"pass": "green", "fail": "bold red", "indeterminate": "bold yellow", "not judged": "bold yellow"}
+_WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "indeterminate": "? INDETERMINATE", "not judged": "– NOT JUDGED",
+         "not valid": "✘ NOT VALID"}
+_STYLE = {"pass": "green", "fail": "bold red", "indeterminate": "bold yellow", "not judged": "bold yellow",
+          "not valid": "bold red"}
 _CLAIM_WORD = {"supported": "✔ supported", "contradicted": "✘ CONTRADICTED", "not checkable": "– not checkable"}
 _CLAIM_STYLE = {"supported": "green", "contradicted": "bold red", "not checkable": "yellow"}
 
@@ -150,6 +152,11 @@ def check_renderables(result) -> list:
         elif v == "fail":
             line.append("✘ FAIL  ", style="bold red")
             tail = f"{nfail} of {n_clauses} requirements FAILED"
+        elif v == "not valid":
+            nnv = sum(1 for r in result.results if r.outcome[i] == "not valid")
+            line.append("✘ NOT VALID  ", style="bold red")
+            tail = (f"{nnv} of {n_clauses} requirements rest on figures outside the validity range "
+                    "(|Duv| > 0.05) — not a pass")
         else:
             line.append(f"? {v.upper()}  ", style="bold yellow")
             tail = f"{nopen} of {n_clauses} requirements could not be decided — not a pass"
@@ -278,6 +285,8 @@ def _summary_renderables(result) -> list:
         txt = Text(f"Spectra that did not pass ({len(bad)} of {n}):\n", style="bold")
         for i in bad[:_LIST_MAX]:
             failed = [f"{r.clause_id} ({margin_text(r, i)})" for r in result.results if r.outcome[i] == "fail"]
+            failed += [f"{r.clause_id} (not valid: outside the validity range)" for r in result.results
+                       if r.outcome[i] == "not valid"]
             open_ = [r.clause_id for r in result.results if r.outcome[i] in ("indeterminate", "not judged")]
             v = result.verdict(i)
             txt.append(f"  {_WORD[v]}  {result.names[i]}: ", style=_STYLE[v])
@@ -299,6 +308,9 @@ def _overall_text(overall: str, n: int, nfail: int):
         t.append(f"OVERALL: ✔ PASS — all {n} spectra meet every requirement", style="bold green")
     elif overall == "fail":
         t.append(f"OVERALL: ✘ FAIL — {nfail} of {n} spectra failed at least one requirement", style="bold red")
+    elif overall == "not valid":
+        t.append("OVERALL: ✘ NOT VALID — some requirements rest on figures outside their validity range; "
+                 "this is not a pass", style="bold red")
     else:
         t.append(f"OVERALL: ? {overall.upper()} — some requirements could not be decided; this is not a pass", style="bold yellow")
     return t

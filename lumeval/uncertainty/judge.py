@@ -22,6 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..criteria.verdicts import NOT_VALID
 from .decision import DecisionRule, decide
 from .instrument import InstrumentModel, MonteCarloSettings, load_instrument
 from .montecarlo import UncertaintyResult, propagate
@@ -161,7 +162,10 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
         j = unc.index(_clause_key(r))
         u = unc.u[:, j]
         d = decide(r.measured, u, r.lower, r.upper, setup.rule)
-        outcome = tuple(o if np.isfinite(m) else r.outcome[i] for i, (o, m) in enumerate(zip(d.outcome, r.measured)))
+        # undefined figures and figures judged 'not valid' (outside their validity range) keep
+        # their plain outcome: no decision rule makes them conform
+        outcome = tuple(o if np.isfinite(m) and r.outcome[i] != NOT_VALID else r.outcome[i]
+                        for i, (o, m) in enumerate(zip(d.outcome, r.measured)))
         reason = list(r.reason) if r.reason else [""] * len(outcome)
         for i, frac in enumerate(unc.undefined_fraction[:, j]):
             if np.isfinite(r.measured[i]) and frac > 0:

@@ -421,7 +421,7 @@ class AnsiQuadrangleClause(ClauseKind):
             KeySpec("edition", f"{' or '.join(regions.ANSI_EDITIONS)} (default {regions.ANSI_DEFAULT_EDITION})",
                     "the edition of ANSI C78.377 whose quadrangles are used"),
             KeySpec("target_cct_K", "number, 2200 … 7000 (2008: 2700 … 6500; only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
-            KeySpec("tolerance_K", "number of kelvin ≥ 1, target ± tolerance within 1000 … 20000 K (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
+            KeySpec("tolerance_K", "number of kelvin ≥ 1, target ± tolerance within 1000 … 25000 K (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
         )
     }
 

@@ -288,7 +288,7 @@ def chromaticity_figure(
 ):
     """Sample chromaticities near the Planckian locus in CIE 1960 (u, v).
 
-    Draws the locus (1000-20000 K), isotemperature lines (Duv −0.05..+0.05, the CIE 15 range
+    Draws the locus (1000-25000 K), isotemperature lines (Duv −0.05..+0.05, the CIE 15 range
     of CCT) at round temperatures in view, lines of constant Duv, the criteria region(s), the
     samples, and for several samples their centroid (mean u, v) and spread (the 2σ ellipse of
     their sample covariance, drawn when there are at least 3 samples).
@@ -338,7 +338,7 @@ def chromaticity_figure(
     xlim = (cu - half * 1.45, cu + half * 1.45)
     ylim = (cv - half, cv + half)
 
-    T_line = np.geomspace(1000.0, 20000.0, 600)
+    T_line = np.geomspace(1000.0, 25000.0, 600)  # the CCT range lumeval reports
     locus = planckian_uv(T_line)
 
     fig = _new_figure(5.2)

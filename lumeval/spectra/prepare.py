@@ -48,7 +48,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
@@ -112,6 +112,18 @@ def _sprague_extend(values: np.ndarray) -> np.ndarray:
 #: Rows interpolated together by :func:`sprague`: bounds its working memory to about
 #: ``_SPRAGUE_ROWS × M × 11`` doubles (M output wavelengths), whatever the input spacing.
 _SPRAGUE_ROWS = 512
+#: Up to this many elements (M × W, 16 MB) the operator is applied as a dense matrix, built
+#: once per grid pair by the banded method itself and cached: one matrix product is ~4x faster
+#: for many spectra on ordinary grids (2-10 nm); finer grids take the banded path.
+_DENSE_MAX = 2_000_000
+
+
+@lru_cache(maxsize=16)
+def _dense_sprague(n_in: int, x_key: bytes) -> np.ndarray:
+    x = np.frombuffer(x_key, dtype=float)
+    out = _sprague_banded(np.eye(n_in), x).T.copy()
+    out.setflags(write=False)
+    return out
 
 
 def sprague(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarray:
@@ -122,10 +134,13 @@ def sprague(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarra
     tabulated by Westland et al. (2012) and used by colour-science's ``SpragueInterpolator``,
     against which the tests check this function.
 
-    Each output value depends on the six input samples around it only, so the work is done per
-    output point on those samples (a banded operator): memory grows with the number of output
-    points, not with the square of the input length. A 0.01 nm file (47,000 samples over
-    360-830 nm) needs a few MB, where a dense (M, W) matrix would need GBs.
+    Each output value depends on the six input samples around it only. For ordinary grids the
+    operator is applied as a dense (M, W) matrix (built once per grid pair and cached; one
+    matrix product); where that matrix would exceed ``_DENSE_MAX`` elements the work is done per
+    output point on its six samples (banded): memory then grows with the number of output
+    points, not with the product of the two lengths. A 0.01 nm file (47,000 samples over
+    360-830 nm) needs a few MB, where a dense construction through the full boundary-extended
+    operator needed GBs.
 
     Overshoot: the quintic may dip below zero next to a narrow peak or a line. Those values
     are returned as computed (setting them to zero would add power and bias chromaticity).
@@ -137,6 +152,15 @@ def sprague(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarra
         raise ValueError("Sprague interpolation needs at least 6 points")
     h = wl[1] - wl[0]
     x = (np.asarray(wl_out, dtype=float) - wl[0]) / h
+    if x.size * n_in <= _DENSE_MAX:
+        return values @ _dense_sprague(n_in, np.ascontiguousarray(x).tobytes()).T
+    return _sprague_banded(values, x)
+
+
+def _sprague_banded(values: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """The Sprague operator applied per output point on its six neighbouring samples (see
+    :func:`sprague`); ``x`` in units of the input spacing from the first sample."""
+    n_in = values.shape[1]
     i = np.clip(np.floor(x).astype(int), 0, n_in - 2)
     t = (x - i)[None, :]
     cols = i[:, None] + np.arange(6)[None, :]  # rows of the extended vector: p[i-2] .. p[i+3]
@@ -157,12 +181,11 @@ def sprague_matrix(n_in: int, x_frac: np.ndarray) -> np.ndarray:
     """Sprague (1880) interpolation of ``n_in`` uniform samples as a dense (M, n_in) matrix.
 
     ``values @ A.T`` equals :func:`sprague` at the positions ``x_frac`` (in units of the input
-    spacing from the first sample). For small inputs and tests; the data path uses the banded
-    :func:`sprague`, whose memory does not grow with ``n_in``².
+    spacing from the first sample). Built by the banded method (identity in, operator out).
     """
     if n_in < 6:
         raise ValueError("Sprague interpolation needs at least 6 points")
-    return sprague(np.arange(float(n_in)), np.eye(n_in), np.asarray(x_frac, dtype=float)).T
+    return _sprague_banded(np.eye(n_in), np.asarray(x_frac, dtype=float)).T
 
 
 def cubic_spline(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarray:

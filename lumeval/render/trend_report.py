@@ -113,7 +113,7 @@ def print_trend(tr, console=None) -> None:
                f"moving range: centre {_fmt(doc['moving_range']['centre_line'])}, UCL {_fmt(doc['moving_range']['ucl'])}")
     lim += f"; EWMA λ = {tr.ewma.lam:g}, L = {tr.ewma.L:g}"
     console.print(Text(lim))
-    flagged = {}
+    flagged: dict[int, list[str]] = {}
     for s in tr.signals:
         flagged.setdefault(s.index, []).append(f"{s.chart}:{s.rule}")
     t = Table()

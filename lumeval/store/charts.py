@@ -319,8 +319,8 @@ def ewma_chart(x, centre: float, sigma_point, lam: float = EWMA_LAMBDA, L: float
         if np.isfinite(x[i]):
             prev = lam * x[i] + (1.0 - lam) * prev
         z[i] = prev
-    i = np.arange(1, m + 1)
-    half = L * sp * np.sqrt(lam / (2.0 - lam) * (1.0 - (1.0 - lam) ** (2 * i)))
+    t = np.arange(1, m + 1)
+    half = L * sp * np.sqrt(lam / (2.0 - lam) * (1.0 - (1.0 - lam) ** (2 * t)))
     return EwmaChart(z, centre + half, centre - half, float(centre), float(lam), float(L), sp)
 
 

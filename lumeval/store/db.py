@@ -422,7 +422,7 @@ def migrate(su: StoreURL) -> tuple[int, int]:
         with connect(su, write=True, action=f"migrate the store from schema {v} to {v + 1}") as conn:
             if su.backend == "postgresql":
                 conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
-            now = stored_version(conn)
+            now = stored_version(conn) or v
             if now != v:  # another process migrated meanwhile
                 v = now
                 continue

@@ -32,6 +32,7 @@ import json
 import math
 import re
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -90,7 +91,7 @@ class Trend:
     points: tuple[LotPoint, ...]
     baseline: np.ndarray
     baseline_rule: str
-    main: object  # charts.XbarSChart | charts.IndividualsChart
+    main: Any  # charts.XbarSChart | charts.IndividualsChart
     ewma: charts.EwmaChart
     signals: tuple  # (charts.Signal, ...) with index into points
     notes: tuple[str, ...] = ()
@@ -118,12 +119,12 @@ def resolve_figure(name: str) -> tuple[str, str, str]:
     if raw.lower() in CHROMATICITY_FIGURES:
         k = raw.lower()
         return k, *CHROMATICITY_FIGURES[k]
-    k = registry.lookup(raw)
-    if k is None:
+    found = registry.lookup(raw)
+    if found is None:
         raise StoreError(f"unknown figure {raw!r}", field="--figure",
                          fix="use a lumeval figure name (duv, CCT, Ra, R9, Rf, Rg, ...; `lumeval criteria explain` "
                              "lists them) or " + ", ".join(CHROMATICITY_FIGURES))
-    return k, registry.label(k), registry.unit(k)
+    return found, registry.label(found), registry.unit(found)
 
 
 # --------------------------------------------------------------------------- reading
@@ -250,6 +251,7 @@ def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str =
         raise StoreError(f"a control chart needs at least 2 baseline lots with the figure defined; "
                          f"{int(usable_b.sum())} of {m} lots qualify", field="--baseline",
                          fix="record more lots, or choose the baseline with --baseline A..B / --baseline-count K")
+    main: Any
     if chart == "auto":
         chart = "xbar-s" if np.all(n[usable_b] >= 2) and figure not in CHROMATICITY_FIGURES else "individuals"
     if chart == "xbar-s":

@@ -505,11 +505,10 @@ def lot_statistics(
         raise ValueError(f"{len(verdicts)} verdicts for {n} samples")
     notes: list[str] = []
 
-    if names:
-        mat = np.column_stack([np.asarray(figures[k], dtype=float) for k in names])
-    else:
-        mat = np.empty((n, 0))
-    d = describe(mat, ddof=ddof, percentile_method=percentile_method)
+    # one figure at a time: temporaries of N values, not N × figures (a lot of 10^6 samples)
+    cols = [describe(np.asarray(figures[k], dtype=float), ddof=ddof, percentile_method=percentile_method) for k in names]
+    d = ({key: np.array([c[key][0] for c in cols]) for key in cols[0]} if cols
+         else describe(np.empty((n, 0)), ddof=ddof, percentile_method=percentile_method))
     summaries = tuple(
         FigureSummary(
             k,

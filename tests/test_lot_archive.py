@@ -139,3 +139,19 @@ def test_frames_do_not_load_at_start_up():
             "print(any(m in sys.modules for m in ('pandas', 'pyarrow', 'dask', 'distributed')))")
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, timeout=120)
     assert r.stdout.strip() == "False", r.stderr
+
+
+def test_metadata_text_is_untrusted_in_the_csv(tmp_path):
+    """A metadata cell that a spreadsheet would run as a formula is neutralised (OWASP CSV
+    injection guidance: a leading quote); control characters are escaped."""
+    from lumeval.render.lot_report import samples_csv
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    band = np.exp(-0.5 * ((wl - 560) / 80) ** 2) + 0.2
+    s = SpectrumSet(wl, np.vstack([band, band * 1.1]), ("a", "b"), ("g", "g"))
+    t = archive_table(s).append_column("station", pa.array(["=HYPERLINK(\"http://x\")", "ok\x1b[2J"]))
+    p = tmp_path / "m.parquet"
+    pq.write_table(t, p)
+    rows = list(csv.DictReader(samples_csv(run_lot([p])).splitlines()))
+    assert rows[0]["station"] == "'=HYPERLINK(\"http://x\")"
+    assert rows[1]["station"] == "ok\\x1b[2J"

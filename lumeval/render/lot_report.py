@@ -265,19 +265,27 @@ def _json_value(v):
 
 
 def _csv_value(v) -> str:
+    """A metadata cell: numbers as their shortest repr, text neutralised for spreadsheets
+    (:func:`lumeval.render.safe.csv_text`: metadata are untrusted)."""
+    from .safe import csv_text
+
     if v is None:
         return ""
-    if isinstance(v, float):
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, (int, float)):
         return repr(v) if math.isfinite(v) else ""
     if hasattr(v, "isoformat"):
         return v.isoformat()
-    return str(v)
+    return csv_text(str(v))
 
 
 def csv_columns(run) -> list[str]:
     """Columns of the per-sample CSV (archive metadata columns right after ``source``)."""
+    from .safe import csv_text
+
     cols = _own_columns(run)
-    return cols[:2] + metadata_headers(run) + cols[2:]
+    return cols[:2] + [csv_text(h) for h in metadata_headers(run)] + cols[2:]
 
 
 def _own_columns(run) -> list[str]:

@@ -23,9 +23,11 @@ import numpy as np
 
 from .tunable import (
     NOT_REACHABLE,
+    _margin,
     _notes,
     _per_setting,
     _short,
+    _value,
     ansi_category,
     headline,
 )
@@ -198,8 +200,8 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
             w = rr.worst
             rows.append([_e(f"{res.clause_id}: {res.label}"), _e(where), _e(res.limit_text), _badge(rr.range_outcome),
                          _e(check.labels[w]) if w is not None else "—",
-                         _num(res.measured[w]) if w is not None else "—",
-                         _num(res.margin[w], "+g") if w is not None else "—"])
+                         _e(_value(res, w)) if w is not None else "—",
+                         _e(_margin(res, w)) if w is not None else "—"])
             classes.append("fail" if rr.range_outcome == "fail" else "")
         body.append(_table(["Requirement", "Applies at", "Limit", "Verdict over the range", "Worst setting", "Worst value",
                             "Margin"], rows, numeric=[False, False, False, False, False, True, True], row_classes=classes))
@@ -245,7 +247,7 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
     del k0
     body.append(_table(head, rows, numeric=numeric, row_classes=classes, cls="dense"))
     body.append('<p class="sub">Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. Duv: ANSI C78.377 sign, '
-                "Ohno (2014). LEUKOS. ANSI category: the ANSI C78.377-2017 quadrangle the chromaticity lies in. "
+                "computed by Ohno (2014). ANSI category: the ANSI C78.377-2017 quadrangle the chromaticity lies in. "
                 + ("Weights: radiant-power fraction of each channel's full-drive output, the largest 1. " if report.kind == "mix" else "")
                 + "Every figure of every setting is in the JSON and CSV outputs.</p>")
     unreach = [i for i in range(n) if not avail[i]]

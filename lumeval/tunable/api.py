@@ -52,31 +52,64 @@ def read_channels(paths) -> tuple[object, tuple[str, ...]]:
     """Read channel spectra (one wide file with a column per channel, or several files) and
     bring them onto one computation grid. Returns (SpectrumSet, run notes).
 
-    Files on different grids are joined as docs/input-files.md §4 rule 4 says (all
-    interpolated to 1 nm on the union of their ranges, shorter ones extended by their end
-    values), and the run notes say so: a mix needs every channel on the same wavelengths.
+    Each file is prepared by the rules of docs/input-files.md. A mix needs every channel on the
+    same wavelengths, so channels whose prepared grids differ are brought onto one 1 nm grid
+    over the union of their ranges — the rule docs/input-files.md §4 gives for spectra on
+    different grids: Sprague (CIE 167:2005) from 5 nm to 1 nm, shorter data extended by their
+    end values (CIE 15:2004 §7.2.2.1) — and each channel and the run notes say so.
     """
+    from ..spectra.model import SpectrumSet
     from ..spectra.prepare import prepare
     from ..spectra.read import read_spectra
     from .mix import check_channels
 
-    raw = [read_spectra(p) for p in paths]
-    each = [prepare(s) for s in raw]
+    each = [prepare(read_spectra(p)) for p in paths]
     notes: list[str] = []
-    grids = {(s.wavelengths_nm.size, float(s.wavelengths_nm[0]), float(s.wavelengths_nm[-1]), s.spacing_nm) for s in each}
-    if len(grids) > 1:
-        joined = prepare(raw)
+    keys = {(float(s.wavelengths_nm[0]), float(s.wavelengths_nm[-1]), s.wavelengths_nm.size) for s in each}
+    if len(keys) > 1:
+        each = join_grids(each)
+        wl = each[0].wavelengths_nm
         notes.append(
-            "channels on different wavelength grids: all brought onto one 1 nm grid over "
-            f"{joined.wavelengths_nm[0]:g}-{joined.wavelengths_nm[-1]:g} nm (Sprague interpolation, shorter data extended "
-            "by their end values; docs/input-files.md §4) so that they can be mixed"
+            f"channels on different wavelength grids: all brought onto one 1 nm grid over {wl[0]:g}-{wl[-1]:g} nm "
+            "(Sprague interpolation, shorter data extended by their end values; docs/input-files.md §4) so that "
+            "they can be mixed"
         )
-    else:
-        from ..spectra.model import SpectrumSet
-
-        joined = SpectrumSet.concatenate(each) if len(each) > 1 else each[0]
+    joined = SpectrumSet.concatenate(each) if len(each) > 1 else each[0]
     check_channels(joined)
     return joined, tuple(notes)
+
+
+def join_grids(sets: list) -> list:
+    """Prepared spectrum sets on different uniform grids, brought onto one 1 nm grid over the
+    union of their ranges (Sprague from coarser spacings, CIE 167:2005; end values repeated
+    where a set is shorter, CIE 15:2004 §7.2.2.1), each change noted on its spectra."""
+    from ..spectra.model import SpectrumSet
+    from ..spectra.prepare import sprague
+
+    lo = min(float(s.wavelengths_nm[0]) for s in sets)
+    hi = max(float(s.wavelengths_nm[-1]) for s in sets)
+    grid = np.arange(lo, hi + 0.5, 1.0)
+    out = []
+    for s in sets:
+        wl = s.wavelengths_nm
+        inner = grid[(grid >= wl[0] - 1e-9) & (grid <= wl[-1] + 1e-9)]
+        notes = [list(x) for x in s.notes]
+        if s.spacing_nm is not None and abs(s.spacing_nm - 1.0) < 1e-9:
+            vals = s.values[:, np.searchsorted(wl, inner - 1e-9)]
+        else:
+            vals = sprague(wl, s.values, inner)
+            for k in range(len(s)):
+                notes[k].append(f"{s.spacing_nm:g} nm data interpolated to 1 nm (Sprague, CIE 167:2005) to share one grid "
+                                "with the other channels of the mix")
+        n_lo = int(round(inner[0] - lo))
+        n_hi = int(round(hi - inner[-1]))
+        if n_lo or n_hi:
+            vals = np.concatenate([np.repeat(vals[:, :1], n_lo, axis=1), vals, np.repeat(vals[:, -1:], n_hi, axis=1)], axis=1)
+            for k in range(len(s)):
+                notes[k].append(f"EXTRAPOLATED: extended to {lo:g}-{hi:g} nm by repeating the end values (CIE 15:2004 "
+                                "§7.2.2.1) to share one grid with the other channels of the mix")
+        out.append(SpectrumSet(grid, vals, s.names, s.sources, tuple(tuple(x) for x in notes), s.metadata))
+    return out
 
 
 def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None) -> TunableReport:
@@ -164,13 +197,10 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
                              fix="give every spectrum's setting in one unit, or state it with --unit")
         unit = m_unit or (found.pop() if found else "")
     order = setting_order(values, sources)
-    from ..spectra.model import SpectrumSet
-    from ..spectra.prepare import prepare
-
-    joined = prepare(sets) if len(sets) > 1 else prepare(sets[0])
-    if not isinstance(joined, SpectrumSet):  # pragma: no cover - prepare always joins
-        raise TypeError("prepare did not return one spectrum set")
-    ev = evaluate(joined.subset(order))
+    singles = [(s, i) for s in sets for i in range(len(s))]
+    # one spectrum per entry, in setting order; the engine prepares them by the rules of
+    # docs/input-files.md (spectra on different grids as it treats any spectra evaluated together)
+    ev = evaluate([singles[k][0].subset([singles[k][1]]) for k in order])
     settings = np.asarray(values, dtype=float)[order]
     how = {"name": "a number in each file (or column) name", "metadata": f"the metadata field {key!r}",
            "manifest": f"the manifest {manifest}"}[setting_from]

@@ -180,3 +180,28 @@ def test_untrusted_channel_names(tmp_path, capsys, monkeypatch):
     rows = list(csv.DictReader(io.StringIO(out)))
     assert rows[0]["source"] == "'=HYPERLINK_3000K.csv"  # OWASP CSV-injection guidance
     assert not rows[1]["source"].startswith("'")
+
+
+def test_three_channels_ansi_duv_and_metadata_settings(tmp_path, capsys):
+    cold = 2.6 * g(452, 10) + g(560, 50)
+    green = g(525, 18)
+    p = write_wide(tmp_path / "three.csv", {"warm": WARM, "cold": cold, "green": green})
+    code, out, err = run(["mix", p, "--cct", "3000,4000", "--duv", "ansi", "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    # ANSI C78.377-2017 flexible-CCT target Duv at 4000 K: 57700/T² − 44.6/T + 0.00854
+    assert abs(doc["settings"][1]["target_duv"] - (57700 / 4000**2 - 44.6 / 4000 + 0.00854)) < 1e-12
+    assert abs(doc["settings"][1]["figures"]["duv"] - doc["settings"][1]["target_duv"]) < 1e-4
+    assert any("flexible-CCT target Duv" in n for n in doc["notes"])
+    d = tmp_path / "m"
+    d.mkdir()
+    files = []
+    for k, level in enumerate((30, 60, 90)):
+        f = write_wide(d / f"run{k}.csv", {"x": WARM * (1 + k)})  # the number in the name is not the setting
+        f.write_text(f"# dim level: {level} %\n" + f.read_text(), encoding="utf-8")
+        files.append(f)
+    code, out, err = run(["series", *files, "--setting-from", "metadata", "--setting-key", "dim level", "--format", "json"],
+                         capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    assert [s["setting"] for s in doc["settings"]] == [30.0, 60.0, 90.0] and doc["unit"] == "%"

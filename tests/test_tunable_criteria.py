@@ -176,3 +176,15 @@ def test_quadrangles_over_disjoint_ranges_do_not_contradict():
                        'over = [6500, 6500]\n', "t")
     assert not getattr(c, "warnings", ())
     assert [x.over for x in c.clauses] == [(2700.0, 2700.0), (6500.0, 6500.0)]
+
+
+def test_not_valid_is_worse_than_not_judged_and_names_the_worst():
+    """A figure judged outside its validity range ('not valid', a fail for the exit code) is
+    reported as the range verdict ahead of settings that could not be judged."""
+    from lumeval.criteria.range_clauses import summarise
+    from lumeval.criteria.verdicts import ClauseResult
+
+    r = ClauseResult("Ra", "Ra ≥ 90", "figure", "Ra", "", np.array([95.0, np.nan, 70.0]), 90.0, None, "≥ 90",
+                     np.array([5.0, np.nan, -20.0]), ("pass", "not judged", "not valid"), {}, ("", "x", "y"))
+    rr = summarise(r, np.array([True, True, True]), None, np.array([False, False, False]), ("", "", ""))
+    assert rr.range_outcome == "not valid" and rr.worst == 2

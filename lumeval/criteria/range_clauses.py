@@ -39,9 +39,8 @@ from .model import (
     register_clause_kind,
 )
 from .verdicts import (
-    FAIL,
-    INDETERMINATE,
     NOT_JUDGED,
+    OUTCOMES,
     PASS,
     ClauseResult,
     combine_outcomes,
@@ -364,7 +363,8 @@ def summarise(result: ClauseResult, applies: np.ndarray, over, unavailable: np.n
                                  f"no setting{rng} to judge")
     overall = combine_outcomes([out[i] for i in idx])
     margin = np.asarray(result.margin, float)
-    sev = np.array([(FAIL, INDETERMINATE, NOT_JUDGED, PASS).index(out[i]) for i in idx])
+    severity = tuple(reversed(OUTCOMES))  # most severe first (fail, not valid, ...)
+    sev = np.array([severity.index(out[i]) if out[i] in severity else 0 for i in idx])
     first = sev.min()
     cand = idx[sev == first]
     mg = np.where(np.isfinite(margin[cand]), margin[cand], np.inf)

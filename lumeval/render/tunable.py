@@ -108,8 +108,10 @@ def _text(s, style: str | None = None):
     return text(s, style)
 
 
-_WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "not judged": "– NOT JUDGED", "indeterminate": "? INDETERMINATE", "n/a": "·"}
-_STYLE = {"pass": "green", "fail": "bold red", "not judged": "bold yellow", "indeterminate": "bold yellow", "n/a": "dim"}
+_WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "not valid": "✘ NOT VALID", "not judged": "– NOT JUDGED",
+         "indeterminate": "? INDETERMINATE", "n/a": "·"}
+_STYLE = {"pass": "green", "fail": "bold red", "not valid": "bold red", "not judged": "bold yellow",
+          "indeterminate": "bold yellow", "n/a": "dim"}
 
 
 def renderables(report) -> list:
@@ -243,7 +245,7 @@ def _check_tables(check) -> list:
             "every setting" if rr.over is None else f"{rr.over[0]:g}–{rr.over[1]:g} {check.unit}".strip())
         n_app = int(np.sum(rr.applies))
         w = rr.worst
-        mark = ">>" if rr.range_outcome == "fail" else ""
+        mark = ">>" if rr.range_outcome in ("fail", "not valid") else ""
         t.add_row(
             mark, _text(f"{res.clause_id}: {res.label}"), f"{where} ({n_app})", _text(res.limit_text),
             Text(_WORD[rr.range_outcome], style=_STYLE[rr.range_outcome]),
@@ -256,8 +258,8 @@ def _check_tables(check) -> list:
     for rr in check.results:
         if rr.range_reason:
             out.append(_text(f"{rr.result.clause_id}: not judged over the range: {rr.range_reason}", "yellow"))
-    n_fail = sum(rr.range_outcome == "fail" for rr in check.results)
-    n_open = sum(rr.range_outcome not in ("pass", "fail") for rr in check.results)
+    n_fail = sum(rr.range_outcome in ("fail", "not valid") for rr in check.results)
+    n_open = sum(rr.range_outcome not in ("pass", "fail", "not valid") for rr in check.results)
     if n_fail:
         line = Text(f"VERDICT: {n_fail} of {len(check.results)} requirements FAILED over the range", style="bold red")
     elif n_open:
@@ -271,7 +273,7 @@ def _check_tables(check) -> list:
 
 def _failed_at(check, rr, most: int = 4) -> str:
     """The settings where a clause failed, e.g. ``3500 K, 3750 K, 4000 K +3 more`` ("" if none)."""
-    bad = [check.labels[i] for i, o in enumerate(rr.outcome) if o == "fail"]
+    bad = [check.labels[i] for i, o in enumerate(rr.outcome) if o in ("fail", "not valid")]
     if not bad:
         return ""
     return ", ".join(bad[:most]) + (f" +{len(bad) - most} more" if len(bad) > most else "")

@@ -187,7 +187,9 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
         words = {"pass": "Every requirement is met over its range.", "fail": "At least one requirement is not met over its range.",
                  "not judged": "No requirement fails, but at least one could not be judged over its range (a setting in it "
                  "is not reachable or there is none).",
-                 "indeterminate": "No requirement fails, but at least one cannot be decided."}[overall]
+                 "indeterminate": "No requirement fails, but at least one cannot be decided.",
+                 "not valid": "At least one requirement is judged on a figure outside its validity range (not a pass)."
+                 }.get(overall, overall)
         bits = [f'criteria file <span class="mono">{_e(check.criteria_file)}</span>']
         bits += [f"{_e(k)}: {_e(v)}" for k, v in check.identification.items()]
         body.append('<p class="sub">' + " · ".join(bits) + "</p>")

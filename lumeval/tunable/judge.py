@@ -30,9 +30,20 @@ class SetpointView:
     names: tuple[str, ...]
     figure_fn: object
     cct_reason: tuple[str, ...]
+    outside_fn: object = None
+    validity_fn: object = None
 
     def figure(self, name: str) -> np.ndarray:
         return np.asarray(self.figure_fn(name), dtype=float)
+
+    def outside_validity_of(self, name: str) -> np.ndarray:
+        """Where ``name`` was computed outside its validity range (see the engine), shape (N,)."""
+        if self.outside_fn is None:
+            return np.zeros(len(self.names), dtype=bool)
+        return np.asarray(self.outside_fn(name), dtype=bool)
+
+    def validity_reason(self, i: int) -> str:
+        return "" if self.validity_fn is None else self.validity_fn(i)
 
     def __getattr__(self, name: str):
         if name in ("x", "y", "u", "v", "u_prime", "v_prime", "cct_K", "duv"):
@@ -47,7 +58,21 @@ def view_of_mix(res) -> SetpointView:
         for i in np.flatnonzero(res.index >= 0):
             r = res.evaluation.cct_reason[res.index[i]]
             reasons[i] = f"CCT undefined: {r}" if r else ""
-    return SetpointView(res.names, res.figure, tuple(reasons))
+    ev, idx = res.evaluation, res.index
+
+    def outside(name):
+        out = np.zeros(len(res), dtype=bool)
+        flag = getattr(ev, "outside_validity_of", None)
+        if flag is not None:
+            ok = idx >= 0
+            out[ok] = np.asarray(flag(name), dtype=bool)[idx[ok]]
+        return out
+
+    def why(i):
+        f = getattr(ev, "validity_reason", None)
+        return f(int(idx[i])) if (f is not None and idx[i] >= 0) else ""
+
+    return SetpointView(res.names, res.figure, tuple(reasons), outside, why)
 
 
 @dataclass(frozen=True)

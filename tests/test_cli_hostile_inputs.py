@@ -516,3 +516,19 @@ def test_names_unique_within_a_run_with_a_note(tmp_path, capsys):
     assert code == 0, err
     assert [s["name"] for s in doc["samples"]] == ["lamp", "lamp (2)", "lamp (3)"]
     assert [Path(s["source"]).parent.name for s in doc["samples"]] == ["a", "b", "c"]
+
+
+def test_lot_unreadable_and_skipped_names_are_never_markup(tmp_path, capsys):
+    """File names and link targets in the lot's lists print literally: no rich markup (an
+    unmatched closing tag would stop the report), no control characters."""
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    write_spd(lot / "ok.csv")
+    os.symlink("gone[/]x", lot / "d.csv")  # a link target with a closing tag and nothing open
+    os.symlink("gone2", lot / "[bold]e.csv")
+    (lot / "f\x1b[2Jx.csv").mkdir()  # ESC in a name
+    code, out, err = run(["lot", lot, "--quiet"], capsys)
+    assert code == 2 and "Traceback" not in err and "internal error" not in err, err
+    flat = "".join(out.split())
+    assert "'gone[/]x'" in flat and "[bold]e.csv" in flat
+    assert "\x1b" not in out and "\\x1b[2J" in flat

@@ -348,6 +348,8 @@ def lot_renderables(run) -> list:
     from rich.table import Table
     from rich.text import Text
 
+    from .safe import text as safe_text
+
     st = run.stats
     out = []
     c = _counts(run)
@@ -473,9 +475,9 @@ def lot_renderables(run) -> list:
     # unreadable
     if run.unreadable:
         t = Table(title=f"Could not be read: {len(run.unreadable)}", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
-        t.add_column("reason")
+        t.add_column("reason", overflow="fold")  # long paths are folded, never cut
         for u in run.unreadable[:_SHOW_MAX]:
-            t.add_row(u.message)
+            t.add_row(safe_text(u.message))  # file names and link targets are data, never markup
         out.append(t)
         if len(run.unreadable) > _SHOW_MAX:
             out.append(Text(f"… and {len(run.unreadable) - _SHOW_MAX} more (see the lot JSON)."))
@@ -488,7 +490,7 @@ def lot_renderables(run) -> list:
         t.add_column("entry", overflow="fold")
         t.add_column("why")
         for k in skipped[:_SHOW_MAX]:
-            t.add_row(Text(k.path), Text(k.reason))  # file names are data, never markup
+            t.add_row(safe_text(k.path), safe_text(k.reason))  # file names are data, never markup
         out.append(t)
         if len(skipped) > _SHOW_MAX:
             out.append(Text(f"… and {len(skipped) - _SHOW_MAX} more (see the lot JSON)."))

@@ -73,7 +73,8 @@ def _rows(ev, idx):
 
     for group, figs in figures.by_group():
         title = figures.GROUPS[group]
-        if group in ("colour rendering", "fidelity"):
+        if group in ("colour rendering", "fidelity") and any(outside[i] for i in idx):
+            # shown only when a spectrum of this table lies outside (|Duv| > 0.05)
             rows.append((title, "validity", [validity(i) for i in idx]))
         shown = [f for f in figs if f.summary]
         names = [f.name for f in shown]

@@ -402,3 +402,210 @@ def test_temporary_of_a_killed_run_is_recognisable_and_cleaned_by_the_next_run(w
     r = cli(["convert", spd, out])
     assert r.returncode == 0, r.stderr
     assert temporaries(tmp) == [] and out.read_text().startswith("{")
+
+
+# --------------------------------------------------------------------------- untrusted text
+
+#: Names, labels and metadata as other people's tools might write them: terminal escape
+#: sequences (CSI clear screen, OSC 8 hyperlink, BEL, CR overwriting the line, a bidi override),
+#: rich markup, spreadsheet formulas, matplotlib mathtext and HTML breakouts.
+HOSTILE_NAMES = (
+    "\x1b]8;;http://evil.example/\x1b\\[bold green]PASS[/]\x1b[2J",
+    '=HYPERLINK("http://evil.example","ok")',
+    "[link=http://evil.example]click[/link]\x07",
+    "-2+3 \u202eSSAP\u202c FAIL",  # (a CR would end the CSV line: it is tested in the criteria label)
+    '$\\foo{$ </td></tr><script>alert(1)</script><img src=x onerror="alert(2)">',
+    "@SUM(A1:A9)",
+)
+ESC_STRINGS = ("\x1b[2J", "\x1b]8", "\x07", "\r", "\u202e")
+
+
+def hostile_inputs(tmp: Path):
+    """A wide CSV with hostile names and metadata (its own file name hostile too), a criteria
+    file and a claims file with hostile ids, labels, notes and identification."""
+    folder = tmp / "in"
+    folder.mkdir()
+    spd = lamp_csv(folder / "=cmd|'calc'!A0 [red]x <b>.csv", names=HOSTILE_NAMES,
+                   cct=[2700.0 + 300 * k for k in range(len(HOSTILE_NAMES))])
+    text = spd.read_text(encoding="utf-8")
+    spd.write_text("# operator: \x1b[31m[blink]root[/blink] </style><script>x()</script>\n" + text, encoding="utf-8")
+    crit = tmp / "crit.toml"
+    crit.write_text(
+        'lumeval_criteria = 1\n[identification]\nproject = "\\u001b[2J[bold]P[/bold] <i>x</i> =1+1"\n'
+        '[[clause]]\nid = "=1+1"\nfigure = "Ra"\nmin = 80\n'
+        'label = "[green]fine[/green] \\u001b]8;;http://evil.example/\\u001b\\\\ </td><script>y()</script>\\r"\n'
+        'note = "@note \\r\\u0007 [link=http://evil.example]n[/link]"\n',
+        encoding="utf-8")
+    claims = tmp / "claims.toml"
+    claims.write_text('lumeval_claims = 1\n[supplier]\nname = "\\u001b[2J[bold]S[/]"\n[claims]\nRa = ">= 80"\n',
+                      encoding="utf-8")
+    return spd, crit, claims
+
+
+def _assert_inert(text: str, where):
+    for bad in ESC_STRINGS:
+        assert bad not in text, (where, bad)
+
+
+@pytest.mark.parametrize("force_colour", [False, True])
+def test_terminal_reports_print_untrusted_text_literally(tmp_path, force_colour):
+    spd, crit, claims = hostile_inputs(tmp_path)
+    strict = tmp_path / "strict.toml"  # every spectrum fails: the summary of many lists them by name
+    strict.write_text(crit.read_text(encoding="utf-8").replace("min = 80", "min = 100.5"), encoding="utf-8")
+    env = {**ENV, "COLUMNS": "250"}
+    env.pop("NO_COLOR", None)
+    if force_colour:
+        env["FORCE_COLOR"] = "1"  # rich writes colour codes: the data's own codes must still be absent
+    runs = {
+        "inspect": ["inspect", spd],
+        "check": ["check", spd, "-c", crit],
+        "lot": ["lot", spd, "-q", "-c", crit],
+        "claims": ["claims", spd, "--claims", claims],
+        "validate": ["inspect", "--validate-only", spd],
+        "explain": ["criteria", "explain", crit],
+        "check-many": ["check", *[lamp_csv(tmp_path / f"m{k}.csv", names=HOSTILE_NAMES[:3], cct=(3000.0, 4000.0, 5000.0))
+                                  for k in range(5)], "-c", strict],
+    }
+    for key, argv in runs.items():
+        r = subprocess.run([sys.executable, "-m", "lumeval", *map(str, argv)], env=env, capture_output=True, timeout=300)
+        out, err = r.stdout.decode(), r.stderr.decode()
+        assert r.returncode in (0, 1), (key, err)
+        assert "Traceback" not in err and "internal error" not in err, (key, err)
+        _assert_inert(out, key)
+        _assert_inert(err, key)
+        if key in ("inspect", "check", "lot", "check-many"):
+            # the markup is printed as the text it is, never interpreted
+            assert "[bold green]PASS[/]" in out or "PASS[/]" in out, (key, out[:3000])
+        if key == "check":
+            assert "[green]fine[/green]" in out, (key, out[:3000])  # a criteria label
+        if key in ("check", "explain"):
+            assert "[bold]P[/bold]" in out, (key, out[:3000])  # the project named in the criteria file
+
+
+def test_error_lines_escape_control_characters(tmp_path, capsys):
+    bad = tmp_path / "x\x1b[2J\x07.csv"
+    bad.write_text("wavelength,value\n380,\x1b]8;;http://evil.example/\x1b\\abc\n", encoding="utf-8")
+    code, out, err = run(["inspect", bad], capsys)
+    one_error_line(code, err)
+    _assert_inert(err, "error line")
+
+
+def test_csv_outputs_neutralise_formulas_in_text_columns_only(tmp_path, capsys):
+    import csv
+    import io
+
+    spd, crit, claims = hostile_inputs(tmp_path)
+    outputs = {}
+    for key, argv in {
+        "inspect": ["inspect", spd, "-f", "csv"],
+        "check": ["check", spd, "-c", crit, "-f", "csv"],
+        "lot": ["lot", spd, "-q", "-c", crit, "-f", "csv"],
+        "claims": ["claims", spd, "--claims", claims, "-f", "csv"],
+        "validate": ["inspect", "--validate-only", spd, "-f", "csv"],
+    }.items():
+        code, out, err = run(argv, capsys)
+        assert code in (0, 1), (key, err)
+        outputs[key] = out
+    text_columns = {"name", "source", "warnings", "spectrum", "clause_id", "label", "limit", "reason", "as_stated",
+                    "claim", "outlier_reasons", "file", "notes", "error", "group", "kind", "figure", "unit"}
+    negative_seen = False
+    for key, out in outputs.items():
+        _assert_inert(out, key)
+        rows = list(csv.DictReader(io.StringIO(out)))
+        assert rows, key
+        for row in rows:
+            for col, cell in row.items():
+                if col in text_columns:
+                    assert not cell.startswith(("=", "+", "-", "@", "\t", "\r")), (key, col, cell)
+                elif cell.startswith("-"):
+                    float(cell)  # a negative number is left as it is
+                    negative_seen = True
+    assert negative_seen  # Duv and hue shifts below zero exist in these spectra
+    names = [r["name"] for r in csv.DictReader(io.StringIO(outputs["inspect"]))]
+    assert "'" + HOSTILE_NAMES[1] in names and "'@SUM(A1:A9)" in names
+    # the CSV written by convert (a spectrum file) too
+    code, _, err = run(["convert", spd, tmp_path / "out.csv"], capsys)
+    assert code == 0, err
+    header = next(ln for ln in (tmp_path / "out.csv").read_text(encoding="utf-8").splitlines() if not ln.startswith("#"))
+    cells = next(csv.reader([header]))
+    assert all(not c.startswith(("=", "+", "-", "@")) for c in cells), cells
+
+
+def test_html_report_escapes_every_breakout(tmp_path, capsys):
+    from html.parser import HTMLParser
+
+    spd, crit, _ = hostile_inputs(tmp_path)
+    out = tmp_path / "r.html"
+    code, _, err = run(["check", spd, "-c", crit, "--html", out, "-f", "json"], capsys)
+    assert code in (0, 1), err
+    page = out.read_text(encoding="utf-8")
+
+    class Tags(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.tags, self.handlers = set(), []
+
+        def handle_starttag(self, tag, attrs):
+            self.tags.add(tag)
+            self.handlers += [k for k, _ in attrs if k.startswith("on")]
+
+    p = Tags()
+    p.feed(page)
+    assert not {"script", "img", "iframe", "i"} & p.tags, p.tags
+    assert p.handlers == []
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page  # the name, shown as text
+    assert "&lt;/td&gt;&lt;script&gt;y()&lt;/script&gt;" in page  # the criteria label
+    assert page.count("</style>") == page.count("<style")  # no style sheet closed by data
+
+
+def test_plots_draw_names_with_dollar_signs_and_markup_literally(tmp_path, capsys):
+    """`$\\foo{$` in a name used to make matplotlib's mathtext parser abort the report (exit 3)."""
+    spd, crit, _ = hostile_inputs(tmp_path)
+    code, _, err = run(["inspect", spd, "--plots", tmp_path / "P", "--html", tmp_path / "r.html", "-f", "json"], capsys)
+    assert code == 0, err
+    assert (tmp_path / "P" / "chromaticity.svg").exists()
+
+
+# --------------------------------------------------------------------------- messages
+
+
+@pytest.mark.parametrize("argv, needles", [
+    (["inspect"], ("inspect", "Missing argument", "lumeval inspect --help")),
+    (["inspect", "--format", "xml", "a.csv"], ("--format", "'xml'", "lumeval inspect --help")),
+    (["inspect", "--formt", "json", "a.csv"], ("--formt", "--format")),
+    (["check", "a.csv"], ("--criteria", "lumeval check --help")),
+    (["lot", "x", "--draws", "many"], ("--draws",)),
+    (["frobnicate"], ("frobnicate", "lumeval --help")),
+    (["criteria", "new", "--level", "x" * 5000], ("--level",)),
+    (["lot", "x", "--draws", "1" * 5000], ("--draws",)),
+])
+def test_usage_errors_are_one_short_line_with_the_fix(argv, needles, capsys):
+    code, out, err = run(argv, capsys)
+    one_error_line(code, err, *needles, "— see '")
+    assert "╭" not in err and "Usage:" not in err and "set_int_max_str_digits" not in err
+    assert len(err) < 400, err
+
+
+def test_huge_values_are_quoted_briefly_without_interpreter_advice(tmp_path, capsys):
+    spd = lamp_csv(tmp_path / "lamp.csv")
+    crit = tmp_path / "big.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = ' + "9" * 5000 + "\n",
+                    encoding="utf-8")
+    inst = tmp_path / "inst.toml"
+    inst.write_text("lumeval_instrument = 1\nwavelength_offset_nm = " + "1" * 5000 + "\n", encoding="utf-8")
+    cell = tmp_path / "cell.csv"
+    cell.write_text("wavelength,v\n" + "\n".join(f"{w},{'abc' * 5000 if w == 400 else 1}" for w in range(380, 781, 5)) + "\n",
+                    encoding="utf-8")
+    figure = tmp_path / "figure.toml"
+    figure.write_text('lumeval_criteria = 1\n[[clause]]\nid = "x"\nfigure = "' + "R" * 10000 + '"\nmin = 1\n', encoding="utf-8")
+    ok = tmp_path / "ok.toml"
+    ok.write_text(CRITERIA, encoding="utf-8")
+    for argv, needles in (
+        (["check", spd, "-c", crit], ("big.toml:5",)),
+        (["check", spd, "-c", ok, "--instrument", inst], ("inst.toml:2",)),
+        (["check", spd, "-c", figure], ("figure.toml",)),
+        (["inspect", cell], ("cell.csv:6",)),
+    ):
+        code, _, err = run(argv, capsys)
+        one_error_line(code, err, *needles)
+        assert "set_int_max_str_digits" not in err and len(err) < 450, err

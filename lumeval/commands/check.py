@@ -8,6 +8,8 @@ from pathlib import Path
 
 import typer
 
+from ..render.safe import clean
+
 
 class OutputFormat(str, Enum):
     terminal = "terminal"
@@ -38,7 +40,7 @@ def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
 
     criteria = load_criteria(criteria_path)
     for w in criteria.warnings:
-        print(f"lumeval: warning: {w}", file=sys.stderr)
+        print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
     setup = resolve_setup(criteria, instrument, seed=seed, draws=draws)
     ev = inspect_files(paths)
     if setup.active:

@@ -70,4 +70,6 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Convert spectra between CSV, IES TM-27 XML, lumeval JSON and Parquet archives, keeping metadata."""
         n = convert_file(src, dst, column=column, force=force)
-        typer.echo(f"wrote {n} {'spectrum' if n == 1 else 'spectra'} to {dst}", err=True)
+        from ..render.safe import clean
+
+        typer.echo(f"wrote {n} {'spectrum' if n == 1 else 'spectra'} to {clean(dst)}", err=True)

@@ -152,16 +152,17 @@ def explain_markdown(criteria) -> str:
     """Tender wording (Markdown) for ``criteria``: one numbered requirement per clause,
     the method of evaluation, the standards relied on and the cautions."""
     from ..engine import METHOD_LABELS, METHODS
+    from ..render.safe import clean
     from ..render.tables import CAUTIONS
 
     L = []
     a = L.append
     ident = criteria.identification
-    a(f"# Colour-quality acceptance criteria{': ' + ident['project'] if ident.get('project') else ''}")
+    a(f"# Colour-quality acceptance criteria{': ' + clean(ident['project']) if ident.get('project') else ''}")
     a("")
     for k in ("product", "lot", "reference", "issued_by", "date", "notes"):
         if ident.get(k):
-            a(f"- **{k.replace('_', ' ').capitalize()}:** {ident[k]}")
+            a(f"- **{k.replace('_', ' ').capitalize()}:** {clean(ident[k])}")
     if any(ident.get(k) for k in ("product", "lot", "reference", "issued_by", "date", "notes")):
         a("")
     a("## Requirements")
@@ -174,7 +175,7 @@ def explain_markdown(criteria) -> str:
     sources: list[str] = []
     for n, c in enumerate(criteria.clauses, 1):
         text = c.tender_text()
-        a(f"{n}. **{c.clause_id}** — {text}" + (f" *{c.note}*" if c.note else ""))
+        a(f"{n}. **{clean(c.clause_id)}** — {clean(text)}" + (f" *{clean(c.note)}*" if c.note else ""))
         for s in c.sources():
             if s and s not in sources:
                 sources.append(s)
@@ -198,7 +199,7 @@ def explain_markdown(criteria) -> str:
     a("## Standards and sources referred to")
     a("")
     for s in sources:
-        a(f"- {s}")
+        a(f"- {clean(s)}")
     a("")
     a("## Cautions")
     a("")

@@ -34,6 +34,8 @@ if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays 
     import numpy as np
 import typer
 
+from ..render.safe import clean
+
 # Expansion of files, folders and patterns lives in lumeval.lots.inputs (re-exported here).
 from ..lots.inputs import SPECTRUM_SUFFIXES, LotInputs, Skipped, Unreadable, display_path, expand_inputs  # noqa: F401
 
@@ -444,7 +446,7 @@ def register(app: typer.Typer) -> None:
 
             criteria = load_criteria(criteria_file)
             for w in criteria.warnings:
-                print(f"lumeval: warning: {w}", file=sys.stderr)
+                print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
         setup = None
         if criteria is not None or instrument is not None or seed is not None or draws is not None:
             from ..uncertainty.judge import resolve_setup
@@ -500,10 +502,10 @@ def register(app: typer.Typer) -> None:
             # the report lists each one; stderr gets one clean line for scripts and logs
             n = len(run.unreadable)
             if n == 1:
-                print(f"lumeval: error: {run.unreadable[0].message} (the lot is not fully judged)", file=sys.stderr)
+                print(f"lumeval: error: {clean(run.unreadable[0].message)} (the lot is not fully judged)", file=sys.stderr)
             else:
                 print(f"lumeval: error: {n} inputs could not be read, so the lot is not fully judged — see the list in the "
-                      f"report; first: {run.unreadable[0].message}", file=sys.stderr)
+                      f"report; first: {clean(run.unreadable[0].message)}", file=sys.stderr)
         # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which
         # would turn typer.Exit into a return value and lose the code.
         sys.exit(record_after_lot(run, criteria, store=store, lot_id=lot_id, product=product, trend_figures=trend_figures,

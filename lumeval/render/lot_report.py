@@ -35,6 +35,8 @@ import math
 
 import numpy as np
 
+from .safe import clean, csv_text
+from .safe import text as _text
 from .tables import CAUTIONS
 
 JSON_SCHEMA_VERSION = 1
@@ -277,7 +279,9 @@ def _csv_value(v) -> str:
         return repr(v) if math.isfinite(v) else ""
     if hasattr(v, "isoformat"):
         return v.isoformat()
-    return csv_text(str(v))
+    if isinstance(v, int):  # numbers stay numbers (a negative one too); text is neutralised
+        return str(v)
+    return csv_text(v)
 
 
 def csv_columns(run) -> list[str]:
@@ -311,21 +315,22 @@ def samples_csv(run, out=None) -> str | None:
 
     Returns the CSV text, or streams it row by row to the text stream ``out`` (then None), so
     that a large lot is never held in memory as one string."""
+    t = csv_text
     buf = io.StringIO() if out is None else out
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(csv_columns(run))
+    w.writerow([t(c) for c in csv_columns(run)])
     st = run.stats
     verdicts = run.sample_verdicts
     meta = _metadata_values(run)
     fig_mat = np.column_stack([run.figures[k] for k in run.figures]) if run.figures else np.empty((len(run), 0))
     for i in range(len(run)):
         row = [
-            run.names[i],
-            run.sources[i],
+            t(run.names[i]),
+            t(run.sources[i]),
             *(_csv_value(v[i]) for _, v in meta),
             verdicts[i] if verdicts is not None else "",
             "yes" if st.outlier[i] else "no",
-            " | ".join(st.outlier_reasons[i]),
+            t(" | ".join(st.outlier_reasons[i])),
             _cell(st.d_upvp_centroid[i]),
             _cell(st.steps_centroid[i]),
             _cell(None if st.d_upvp_nominal is None else st.d_upvp_nominal[i]),
@@ -334,7 +339,7 @@ def samples_csv(run, out=None) -> str | None:
         row += [_cell(v) for v in fig_mat[i]]
         if run.check is not None:
             row += [r.outcome[i] for r in run.check.results]
-        row.append(" | ".join(run.warnings[i]))
+        row.append(t(" | ".join(run.warnings[i])))
         w.writerow(row)
     return buf.getvalue() if out is None else None
 
@@ -363,7 +368,7 @@ def lot_renderables(run) -> list:
     out.append(head)
     if run.criteria_file:
         ident = ", ".join(f"{k}: {v}" for k, v in run.identification.items())
-        out.append(Text(f"Criteria: {run.criteria_file}" + (f" ({ident})" if ident else "")))
+        out.append(_text(f"Criteria: {run.criteria_file}" + (f" ({ident})" if ident else "")))
 
     # verdict
     if run.check is not None or run.lot_results:
@@ -384,7 +389,7 @@ def lot_renderables(run) -> list:
                     res += f", {nj} not judged"
                 unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
                 res += f" (worst margin {_fmt(worst, '.4g')}{unit})"
-                t.add_row(r.label, _result_text(res, fails == 0 and nj == 0 and ni == 0))
+                t.add_row(_text(r.label), _result_text(res, fails == 0 and nj == 0 and ni == 0))
         for r in run.lot_results:
             unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
             res = f"{r.outcome}: {_fmt(r.measured, '.4g')}{unit}, limit {r.limit_text}, margin {_fmt(r.margin, '.4g')}{unit}"
@@ -394,7 +399,7 @@ def lot_renderables(run) -> list:
                 nf = sum(o == "fail" for o in r.sample_outcome)
                 if nf:
                     res += f"; {nf} sample(s) beyond the limit"
-            t.add_row(r.label, _result_text(res, r.outcome == "pass"))
+            t.add_row(_text(r.label), _result_text(res, r.outcome == "pass"))
         out.append(t)
         y = st.yield_
         if y is not None:
@@ -409,7 +414,7 @@ def lot_renderables(run) -> list:
         unc = getattr(run.check, "uncertainty", None) if run.check is not None else None
         if unc:
             mc = unc.get("monte_carlo", {})
-            out.append(Text(
+            out.append(_text(
                 f"{unc.get('rule_text', '')} Per-sample clauses judged with {mc.get('draws', '?')} Monte Carlo draws per "
                 f"sample (JCGM 101:2008, seed {mc.get('seed', '?')}), instrument model: {unc.get('instrument', {}).get('source', '')}; "
                 "lot clauses use the measured values.", style="dim"))
@@ -422,7 +427,7 @@ def lot_renderables(run) -> list:
     t.add_row("centroid u', v'", f"{_fmt(st.centroid_upvp[0], '.4f')}, {_fmt(st.centroid_upvp[1], '.4f')}")
     pair = st.max_pair
     pair_txt = f" ({run.names[pair[0]]} – {run.names[pair[1]]})" if pair[0] >= 0 and len(run) >= 2 else ""
-    t.add_row("largest pairwise Δu'v'", _fmt(st.max_pairwise_d_upvp, ".5f") + pair_txt)
+    t.add_row("largest pairwise Δu'v'", _text(_fmt(st.max_pairwise_d_upvp, ".5f") + pair_txt))
     t.add_row("Δu'v' from centroid: p95 / max", f"{_fmt(_pct(st.d_upvp_centroid, 95), '.5f')} / {_fmt(_max(st.d_upvp_centroid), '.5f')}")
     if st.ellipse_name:
         t.add_row("steps from centroid: p95 / max", f"{_fmt(_pct(st.steps_centroid, 95), '.2f')} / {_fmt(_max(st.steps_centroid), '.2f')}  ({st.ellipse_name} coefficients)")
@@ -464,7 +469,7 @@ def lot_renderables(run) -> list:
         t.add_column("sample", no_wrap=True)
         t.add_column("why")
         for i in idx[:_SHOW_MAX]:
-            t.add_row(run.names[i], "; ".join(st.outlier_reasons[i]))
+            t.add_row(_text(run.names[i]), _text("; ".join(st.outlier_reasons[i])))
         out.append(t)
         if idx.size > _SHOW_MAX:
             out.append(Text(f"… and {idx.size - _SHOW_MAX} more (see the per-sample CSV or JSON)."))
@@ -500,7 +505,7 @@ def lot_renderables(run) -> list:
     if nw:
         out.append(Text(f"{nw} sample(s) carry warnings (interpolation, validity limits...): see the per-sample CSV or JSON.", style="yellow"))
     for note in st.notes:
-        out.append(Text(f"Note: {note}.", style="dim"))
+        out.append(Text(f"Note: {clean(note)}.", style="dim"))
     for cau in CAUTIONS:
         out.append(Text(f"Caution: {cau}", style="dim"))
     out.append(Text(_verdict_line(run), style="bold"))
@@ -510,7 +515,7 @@ def lot_renderables(run) -> list:
 def _result_text(text, ok):
     from rich.text import Text
 
-    return Text(("✓ " if ok else "✗ ") + text, style="green" if ok else "red")
+    return Text(("✓ " if ok else "✗ ") + clean(text), style="green" if ok else "red")
 
 
 def _verdict_line(run) -> str:

@@ -137,6 +137,17 @@ def figure_png(fig, dpi: int = 150) -> bytes:
     return buf.getvalue()
 
 
+def _lit(value) -> str:
+    """Text from a file (a spectrum name, a criteria label) as literal figure text: control
+    characters escaped (:func:`lumeval.render.safe.clean`), ``$`` escaped so that matplotlib never
+    parses it as mathtext (``$\\foo$`` in a name used to abort the report), and a leading ``_``
+    kept visible (matplotlib hides legend labels that start with one)."""
+    from .safe import clean
+
+    s = clean(value).replace("$", r"\$")
+    return "\u2009" + s if s.startswith("_") else s
+
+
 # --------------------------------------------------------------------------- spectra
 
 
@@ -168,6 +179,8 @@ def spd_figure(
     """
     from ..metrics.colorimetry import tristimulus
 
+    test_label, reference_label = _lit(test_label), _lit(reference_label)
+    title = _lit(title) if title else title
     wl = np.asarray(wavelengths_nm, dtype=float)
     test = np.atleast_2d(np.asarray(test_values, dtype=float))
     Y = tristimulus(wl, test)[:, 1]
@@ -322,9 +335,12 @@ def chromaticity_figure(
     fin = np.isfinite(u) & np.isfinite(v)
     if failed is None:
         failed = [None] * n
+    if labels is not None:
+        labels = [_lit(x) for x in labels]
+    title = _lit(title) if title else title
     regs = []
     for k, r in enumerate(regions or ()):
-        regs.append((str(r.get("label", f"region {k + 1}")), region_to_uv(r["vertices"], r.get("space", "uv"))))
+        regs.append((_lit(r.get("label", f"region {k + 1}")), region_to_uv(r["vertices"], r.get("space", "uv"))))
 
     pts = [np.stack([u[fin], v[fin]], axis=-1)] + [rv for _, rv in regs]
     allp = np.concatenate(pts) if sum(p.shape[0] for p in pts) else np.empty((0, 2))

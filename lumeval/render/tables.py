@@ -150,17 +150,19 @@ def __getattr__(name: str):
 
 
 def csv_rows(ev):
-    """Yield one dict per spectrum with the :func:`csv_columns` keys (numbers unrounded)."""
+    """Yield one dict per spectrum with the :func:`csv_columns` keys (numbers unrounded; text
+    cells neutralised for spreadsheets, :func:`lumeval.render.safe.csv_text`)."""
     from .. import figures
+    from .safe import csv_text
 
     cols = [figures.FIGURES[c] for c in csv_columns()[2:-2]]
     values = {f.name: f.value(ev) for f in cols}
     for i in range(len(ev)):
-        row = {"name": ev.spectra.names[i], "source": ev.spectra.sources[i]}
+        row = {"name": csv_text(ev.spectra.names[i]), "source": csv_text(ev.spectra.sources[i])}
         for f in cols:
             v = float(values[f.name][i])
             row[f.name] = repr(v) if math.isfinite(v) else ""
-        row["warnings"] = " | ".join(ev.warnings[i])
+        row["warnings"] = csv_text(" | ".join(ev.warnings[i]))
         # the figures computed outside their validity range (|Duv| > 0.05), for tools; "" if none
         row["outside_validity"] = " ".join(_outside_validity_figures(ev, i))
         yield row

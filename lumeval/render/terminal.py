@@ -14,6 +14,7 @@ import math
 
 import numpy as np
 
+from . import safe
 from .tables import CAUTIONS
 
 _PER_TABLE = 4
@@ -33,8 +34,7 @@ def _hue_table(ev, idx):
     )
     t.add_column("bin (hue angle)", no_wrap=True, style="bold")
     for i in idx:
-        name = ev.spectra.names[i]
-        t.add_column(f"{name}\nRf,h", justify="right")
+        t.add_column(safe.text(ev.spectra.names[i]).append("\nRf,h"), justify="right")
         t.add_column("Rcs,h", justify="right")
         t.add_column("Rhs,h", justify="right")
     from .. import figures
@@ -118,7 +118,7 @@ def inspect_renderables(ev):
         t = Table(box=box.SIMPLE_HEAVY, show_lines=False, title_justify="left", pad_edge=False)
         t.add_column("figure", style="bold", no_wrap=True)
         for i in idx:
-            t.add_column(ev.spectra.names[i], overflow="fold")
+            t.add_column(safe.text(ev.spectra.names[i]), overflow="fold")
         section = None
         for sec, label, cells in _rows(ev, idx):
             if sec != section:
@@ -126,7 +126,7 @@ def inspect_renderables(ev):
                     t.add_section()
                 t.add_row(Text(sec, style="bold cyan"), *[""] * len(idx))
                 section = sec
-            t.add_row("  " + label, *cells)
+            t.add_row("  " + label, *cells)  # our labels and numbers: no data text
         out.append(t)
     for start in range(0, n, _PER_HUE_TABLE):
         idx = list(range(start, min(n, start + _PER_HUE_TABLE)))
@@ -135,7 +135,7 @@ def inspect_renderables(ev):
     if notes:
         out.append(Text("Notes on the data and results", style="bold"))
         for name, w in notes:
-            out.append(Text(f"  ! {name}: {w}"))
+            out.append(Text(f"  ! {safe.clean(name)}: {safe.clean(w)}"))
     out.append(Text("Cautions", style="bold"))
     for c in CAUTIONS:
         out.append(Text(f"  - {c}"))

@@ -20,6 +20,8 @@ import math
 
 import numpy as np
 
+from .safe import clean
+from .safe import text as _text
 from .tables import CAUTIONS
 
 JSON_SCHEMA_VERSION = 1
@@ -117,9 +119,9 @@ def _header(title: str, file: str, ident: dict):
 
     t = Text()
     t.append(title + "\n", style="bold")
-    t.append(f"file: {file}\n")
+    t.append(f"file: {clean(file)}\n")
     for k, v in ident.items():
-        t.append(f"{k}: {v}\n")
+        t.append(f"{clean(k)}: {clean(v)}\n")
     return t
 
 
@@ -131,7 +133,7 @@ def check_renderables(result) -> list:
 
     out = [_header("Acceptance check", result.criteria_file, result.identification)]
     for note in getattr(result, "notes", ()):
-        out.append(Text(f"note: {note}", style="dim"))
+        out.append(Text(f"note: {clean(note)}", style="dim"))
     if getattr(result, "uncertainty", None):
         out.append(_uncertainty_text(result.uncertainty))
     if len(result.names) > DETAIL_MAX:
@@ -160,10 +162,10 @@ def check_renderables(result) -> list:
         else:
             line.append(f"? {v.upper()}  ", style="bold yellow")
             tail = f"{nopen} of {n_clauses} requirements could not be decided — not a pass"
-        line.append(name, style="bold")
+        line.append(clean(name), style="bold")
         line.append(f" — {tail}")
         if result.sources[i]:
-            line.append(f"\n  file: {result.sources[i]}", style="dim")
+            line.append(f"\n  file: {clean(result.sources[i])}", style="dim")
         out.append(line)
         t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
         t.add_column("", no_wrap=True)
@@ -177,13 +179,13 @@ def check_renderables(result) -> list:
             o = r.outcome[i]
             mark = ">>" if o != "pass" else ""
             style = "bold red" if o == "fail" else ("yellow" if o != "pass" else None)
-            req = Text(r.label)
+            req = _text(r.label)
             if r.limit_text not in r.label:
-                req.append(f"\n{r.limit_text}", style="dim")
+                req.append(f"\n{clean(r.limit_text)}", style="dim")
             meas, res_cell = measured_text(r, i), Text(_WORD[o], style=_STYLE[o])
             if r.uncertainty is not None:
                 meas, res_cell = _with_uncertainty(r, i, meas, res_cell)
-            t.add_row(mark, r.clause_id, req, meas, margin_text(r, i), res_cell, style=style)
+            t.add_row(mark, _text(r.clause_id), req, Text(meas), Text(margin_text(r, i)), res_cell, style=style)
             if r.reason and r.reason[i]:
                 notes.append(f"{r.clause_id}: {r.reason[i]}")
         out.append(t)
@@ -192,7 +194,7 @@ def check_renderables(result) -> list:
         if notes:
             nt = Text()
             for s in notes:
-                nt.append(f"  note: {s}\n")
+                nt.append(f"  note: {clean(s)}\n")
             out.append(nt)
     out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
     out.append(_sources_text(result))
@@ -227,7 +229,7 @@ def _uncertainty_text(info: dict):
     from rich.text import Text
 
     t = Text("\n")
-    t.append(info.get("rule_text", "") + "\n")
+    t.append(clean(info.get("rule_text", "")) + "\n")
     mc = info.get("monte_carlo", {})
     inst = info.get("instrument", {})
     t.append(
@@ -238,15 +240,15 @@ def _uncertainty_text(info: dict):
     )
     t.append(
         "Instrument model"
-        + (f" '{inst['name']}'" if inst.get("name") else "")
-        + f" ({inst.get('source', '')}): wavelength offset u = {inst.get('wavelength_offset_nm', 0):g} nm, "
+        + (f" '{clean(inst['name'])}'" if inst.get("name") else "")
+        + f" ({clean(inst.get('source', ''))}): wavelength offset u = {inst.get('wavelength_offset_nm', 0):g} nm, "
         f"noise {inst.get('noise_relative', 0):g} of signal + {inst.get('noise_absolute', 0):g} of peak, "
         f"bandwidth {inst.get('bandwidth_nm', 0):g} nm FWHM, stray light ±{inst.get('stray_light', 0):g} of peak, "
         f"photometric scale u = {inst.get('photometric_scale', 0):g} (no effect on ratio figures).\n",
         style="dim",
     )
     for n in info.get("notes", []):
-        t.append(f"  note: {n}\n", style="dim")
+        t.append(f"  note: {clean(n)}\n", style="dim")
     return t
 
 
@@ -278,7 +280,8 @@ def _summary_renderables(result) -> list:
         else:
             worst, who = "n/a", ""
         style = "bold red" if nfail else ("yellow" if nopen else None)
-        t.add_row(">>" if nfail or nopen else "", r.clause_id, r.label, str(npass), f"✘ {nfail}" if nfail else "0", str(nopen), worst, who, style=style)
+        t.add_row(">>" if nfail or nopen else "", _text(r.clause_id), _text(r.label), str(npass), f"✘ {nfail}" if nfail else "0",
+                  str(nopen), _text(worst), _text(who), style=style)
     out = [t]
     bad = [i for i, v in enumerate(result.verdicts) if v != "pass"]
     if bad:
@@ -289,8 +292,8 @@ def _summary_renderables(result) -> list:
                        if r.outcome[i] == "not valid"]
             open_ = [r.clause_id for r in result.results if r.outcome[i] in ("indeterminate", "not judged")]
             v = result.verdict(i)
-            txt.append(f"  {_WORD[v]}  {result.names[i]}: ", style=_STYLE[v])
-            txt.append(", ".join(failed + [f"{c} (undecided)" for c in open_]) + "\n")
+            txt.append(f"  {_WORD[v]}  {clean(result.names[i])}: ", style=_STYLE[v])
+            txt.append(clean(", ".join(failed + [f"{c} (undecided)" for c in open_])) + "\n")
         if len(bad) > _LIST_MAX:
             txt.append(f"  … and {len(bad) - _LIST_MAX} more: every row is in --format csv or json\n")
         out.append(txt)
@@ -325,8 +328,8 @@ def _sources_text(result):
             seen.append(r.source)
     t = Text("\nSources of the limits and regions:\n", style="dim")
     for s in seen:
-        t.append(f"  - {s}\n", style="dim")
-    t.append(f"  Decision rule: {result.results[0].decision_rule if result.results else 'n/a'}; margins are positive inside the acceptance zone.\n", style="dim")
+        t.append(f"  - {clean(s)}\n", style="dim")
+    t.append(f"  Decision rule: {clean(result.results[0].decision_rule) if result.results else 'n/a'}; margins are positive inside the acceptance zone.\n", style="dim")
     return t
 
 
@@ -420,7 +423,10 @@ def _cells(values) -> list[str]:
 
 def check_to_csv(result) -> str:
     """One row per (spectrum, clause), in the columns :data:`CHECK_CSV_COLUMNS`; undefined
-    numbers are empty cells."""
+    numbers are empty cells; text cells are neutralised for spreadsheets
+    (:func:`lumeval.render.safe.csv_text`)."""
+    from .safe import csv_text as t
+
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(CHECK_CSV_COLUMNS)
@@ -445,8 +451,8 @@ def check_to_csv(result) -> str:
     for i, name in enumerate(result.names):
         src, verdict = result.sources[i], verdicts[i]
         for r, meas, lo, hi, mg, d, u, p, why in cols:
-            w.writerow((name, src, verdict, r.clause_id, r.group, r.kind, r.label, r.figure, r.unit, meas[i], lo, hi,
-                        r.limit_text, mg[i], d[i], u[i], p[i], r.outcome[i], why[i]))
+            w.writerow((t(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
+                        meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i])))
     return buf.getvalue()
 
 
@@ -462,7 +468,7 @@ def claims_renderables(check) -> list:
     for i, name in enumerate(check.names):
         v = check.verdict(i)
         ncon = sum(1 for r in check.results if r.outcome[i] == "contradicted")
-        line = Text(f"\n{name}  —  ", style="bold")
+        line = Text(f"\n{clean(name)}  —  ", style="bold")
         if v == "contradicted":
             line.append(f"✘ {ncon} CLAIM(S) CONTRADICTED by the spectrum", style="bold red")
         elif v == "supported":
@@ -481,8 +487,9 @@ def claims_renderables(check) -> list:
             spec = _spec(c.figure) if c.figure else ".3g"
             accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
             by = _f(r.excess[i], "+" + spec, r.unit) if o == "contradicted" else ""
-            t.add_row(">>" if o == "contradicted" else "", c.key, c.text, _f(r.measured[i], spec, r.unit) if not c.not_checkable else "—",
-                      accepted, by, Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
+            t.add_row(">>" if o == "contradicted" else "", _text(c.key), _text(c.text),
+                      _text(_f(r.measured[i], spec, r.unit) if not c.not_checkable else "—"), _text(accepted), _text(by),
+                      Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
             if r.reason[i]:
                 notes.append(f"{c.key}: {r.reason[i]}")
         out.append(t)
@@ -491,12 +498,12 @@ def claims_renderables(check) -> list:
         if notes:
             nt = Text()
             for s in notes:
-                nt.append(f"  note: {s}\n")
+                nt.append(f"  note: {clean(s)}\n")
             out.append(nt)
     tol = Text("\nHow each claim was read:\n", style="dim")
     for r in check.results:
         if r.claim.tolerance_note:
-            tol.append(f"  - {r.claim.key} {r.claim.text}: {r.claim.tolerance_note}\n", style="dim")
+            tol.append(clean(f"  - {r.claim.key} {r.claim.text}: {r.claim.tolerance_note}") + "\n", style="dim")
     out.append(tol)
     t = Text("\n")
     if check.exit_code:
@@ -572,6 +579,9 @@ CLAIMS_CSV_COLUMNS = ("spectrum", "claim", "as_stated", "unit", "measured", "acc
 
 
 def claims_to_csv(check) -> str:
+    """One row per (spectrum, claim); text cells neutralised for spreadsheets."""
+    from .safe import csv_text as t
+
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=CLAIMS_CSV_COLUMNS, lineterminator="\n")
     w.writeheader()
@@ -586,16 +596,16 @@ def claims_to_csv(check) -> str:
         for r in check.results:
             w.writerow(
                 {
-                    "spectrum": name,
-                    "claim": r.claim.key,
-                    "as_stated": r.claim.text,
-                    "unit": r.unit,
+                    "spectrum": t(name),
+                    "claim": t(r.claim.key),
+                    "as_stated": t(r.claim.text),
+                    "unit": t(r.unit),
                     "measured": cell(r.measured[i]),
                     "accepted_lower": cell(r.claim.lower),
                     "accepted_upper": cell(r.claim.upper),
                     "excess": cell(r.excess[i]),
                     "outcome": r.outcome[i],
-                    "reason": r.reason[i],
+                    "reason": t(r.reason[i]),
                 }
             )
     return buf.getvalue()

@@ -112,14 +112,16 @@ def validate_files(paths: Iterable[str | Path]) -> list[SpectrumCheck]:
 
 def format_report(checks: list[SpectrumCheck]) -> str:
     """Plain-text rendering of validation results (one block per spectrum)."""
+    from ..render.safe import clean
+
     lines = []
     for c in checks:
         if c.name is None:
-            lines.append(f"FAIL  {c.file}")
-            lines.append(f"      {c.error}")
+            lines.append(f"FAIL  {clean(c.file)}")
+            lines.append(f"      {clean(c.error)}")
             continue
         status = "ok  " if c.ok else "FAIL"
-        lines.append(f"{status}  {c.source}  ({c.name})")
+        lines.append(f"{status}  {clean(c.source)}  ({clean(c.name)})")
         spacing = f"{c.spacing_nm:g} nm" if c.spacing_nm else "irregular"
         lines.append(
             f"      read: {c.points} points, {c.range_nm[0]:g}-{c.range_nm[1]:g} nm, spacing {spacing}, "
@@ -128,9 +130,9 @@ def format_report(checks: list[SpectrumCheck]) -> str:
         if c.grid_nm:
             lines.append(f"      computation grid: {c.grid_nm[0]:g}-{c.grid_nm[1]:g} nm at {c.grid_nm[2]:g} nm")
         for n in c.notes:
-            lines.append(f"      note: {n}")
+            lines.append(f"      note: {clean(n)}")
         if c.error:
-            lines.append(f"      {c.error}")
+            lines.append(f"      {clean(c.error)}")
     return "\n".join(lines) + ("\n" if lines else "")
 
 
@@ -147,6 +149,8 @@ def render_validation(checks: list[SpectrumCheck], fmt: str = "terminal") -> str
         import csv
         import io
 
+        from ..render.safe import csv_text
+
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
         w.writerow(["file", "ok", "name", "source", "points", "start_nm", "end_nm", "spacing_nm", "grid", "scale",
@@ -154,9 +158,10 @@ def render_validation(checks: list[SpectrumCheck], fmt: str = "terminal") -> str
         for c in checks:
             grid = f"{c.grid_nm[0]:g}-{c.grid_nm[1]:g}/{c.grid_nm[2]:g}" if c.grid_nm else ""
             w.writerow([
-                c.file, c.ok, c.name or "", c.source or "", c.points or "",
+                csv_text(c.file), c.ok, csv_text(c.name or ""), csv_text(c.source or ""), c.points or "",
                 c.range_nm[0] if c.range_nm else "", c.range_nm[1] if c.range_nm else "",
-                c.spacing_nm if c.spacing_nm else "", grid, c.scale or "", " | ".join(c.notes), c.error or "",
+                c.spacing_nm if c.spacing_nm else "", grid, csv_text(c.scale or ""), csv_text(" | ".join(c.notes)),
+                csv_text(c.error or ""),
             ])
         return buf.getvalue()
     return format_report(checks)

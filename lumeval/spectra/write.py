@@ -55,7 +55,11 @@ def _clean(s: str) -> str:
 
 
 def _quote(name: str) -> str:
+    from ..render.safe import FORMULA_START
+
     name = _clean(name)
+    if name.startswith(FORMULA_START):  # a spreadsheet would run it as a formula (OWASP CSV injection)
+        name = "'" + name
     if any(c in name for c in ',"') or name != name.strip():
         return '"' + name.replace('"', '""') + '"'
     return name

@@ -71,12 +71,44 @@ def _on_stop_signal(signum, _frame) -> None:
     raise _Stopped(signum)
 
 
-def _say(line: str) -> None:
-    """One line on stderr; a closed or full stderr is not worth a second error."""
+def _say(line: str, *, raw: bool = False) -> None:
+    """One line on stderr; a closed or full stderr is not worth a second error.
+
+    Unless ``raw`` (the help text), control characters are escaped (file names and cells are
+    data: an escape sequence must not reach the terminal) and an over-long quoted value is cut
+    (:func:`_shorten`)."""
+    if not raw:
+        from .render.safe import clean
+
+        line = _shorten(clean(line))
     try:
         print(line, file=sys.stderr, flush=True)
     except (OSError, ValueError):
         pass
+
+
+#: Above this length an error line has its quoted values cut to QUOTE_MAX characters.
+_LONG_LINE = 300
+
+
+def _shorten(line: str) -> str:
+    """Cut each quoted value ('...' or "...") longer than QUOTE_MAX characters in an over-long
+    line: a message quotes at most about 80 characters of a cell, a name or a value."""
+    if len(line) <= _LONG_LINE:
+        return line
+    import re
+
+    from .errors import QUOTE_MAX
+
+    def cut(m):
+        q, body = m.group(1), m.group(2)
+        return f"{q}{body[:QUOTE_MAX]}…{q}"
+
+    line = re.sub(r"(['\"])([^'\"]{%d,})\1" % (QUOTE_MAX + 1), cut, line)
+    if len(line) > 4 * _LONG_LINE:  # an unquoted run of data: keep the start and the fix
+        head, sep, fix = line.rpartition(" \u2014 ")
+        line = (head[:2 * _LONG_LINE] + "…" + sep + fix[:_LONG_LINE]) if sep else line[:4 * _LONG_LINE] + "…"
+    return line
 
 
 def _stdout_failed() -> OSError | None:
@@ -184,7 +216,7 @@ def _run(args: list[str]):
         return 1
     except click_exception as exc:
         if type(exc).__name__ == "NoArgsIsHelpError":  # `lumeval`, `lumeval criteria`: the help
-            _say(exc.format_message())
+            _say(exc.format_message(), raw=True)
         elif isinstance(exc, _click_class("UsageError")):
             _say(_usage_line(exc))
         else:

@@ -123,6 +123,11 @@ def toml_loads(text: str, file: str) -> dict:
         problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
         raise CriteriaError(f"not valid TOML: {problem[:120]}", file=file, line=line,
                             fix="check quotes, brackets and `key = value` syntax") from None
+    except ValueError:  # an integer too long for int() (Python's 4300-digit limit): no interpreter advice
+        m = re.search(r"[0-9_]{1000,}", text)
+        raise CriteriaError("a number with thousands of digits", file=file,
+                            line=text.count("\n", 0, m.start()) + 1 if m else None,
+                            fix="write the value as an ordinary number") from None
     except RecursionError:  # pragma: no cover - _too_deep refuses such files first
         raise CriteriaError("nested too deeply to read", file=file, fix="check the file") from None
 

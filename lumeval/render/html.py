@@ -59,9 +59,15 @@ import numpy as np
 
 from ..errors import UsageError
 
-#: Spectra up to this many get their own SPD, CRI and hue-bin charts; more (or any lot) are drawn
-#: together: all spectra in one SPD chart, medians with min-max whiskers, distributions.
-PER_SAMPLE_MAX = 6
+#: Without a lot, every spectrum gets its own section (SPD, CRI and hue-bin charts and tables): a
+#: comparison of bids is per product. The aggregate drawing (all spectra in one SPD chart, medians
+#: with min-max whiskers, distributions) belongs to a lot (``lot=``) or to an explicit
+#: ``per_sample_max=N``, which the report then announces. None: no limit.
+PER_SAMPLE_MAX: int | None = None
+
+#: Up to this many spectra, the checks are shown as a criterion x spectrum grid; more get a list
+#: of the checks that did not pass (and each spectrum's section its own checks).
+CHECK_GRID_MAX = 6
 
 #: Per-sample tables list at most this many rows (failed samples first); the rest are counted.
 #: Every figure of every sample is in the JSON and CSV outputs.
@@ -288,7 +294,13 @@ def regions_from_criteria(criteria) -> list:
     return out
 
 
-def _lot_block(lot):
+def _as_lot(lot, n: int, per_sample_max: int | None) -> bool:
+    """Whether the report draws the spectra in aggregate: a lot, or more spectra than an
+    explicit ``per_sample_max``."""
+    return lot is not None or (per_sample_max is not None and n > per_sample_max)
+
+
+def _lot_block(lot, names=None):
     if lot is None:
         return None
     if hasattr(lot, "figures") and hasattr(lot, "n_samples"):  # lumeval.lot.LotStatistics
@@ -305,7 +317,17 @@ def _lot_block(lot):
                          f"{y.indeterminate} indeterminate, {y.not_judged} not judged.")
         out = getattr(lot, "outlier", None)
         if out is not None and np.any(out):
-            notes.append(f"{int(np.sum(out))} sample(s) flagged as outliers ({getattr(lot, 'outlier_rule', '')}).")
+            k = int(np.sum(out))
+            notes.append(f"{k} sample{'s' if k != 1 else ''} flagged as outlier{'s' if k != 1 else ''} "
+                         f"({getattr(lot, 'outlier_rule', '')}).")
+            reasons = getattr(lot, "outlier_reasons", ())
+            if names is not None and len(names) == len(out):
+                idx = [int(i) for i in np.flatnonzero(out)]
+                for i in idx[:MAX_TABLE_ROWS]:
+                    why = "; ".join(reasons[i]) if i < len(reasons) and reasons[i] else ""
+                    notes.append(f"Outlier: {names[i]}" + (f" ({why})." if why else "."))
+                if len(idx) > MAX_TABLE_ROWS:
+                    notes.append(f"… and {len(idx) - MAX_TABLE_ROWS} further outliers (see the JSON output).")
         notes += [str(n) for n in getattr(lot, "notes", ())]
         return {"title": "Lot statistics", "rows": [_summary_row(f) for f in lot.figures], "notes": notes,
                 "numeric": _SUMMARY_NUMERIC}
@@ -420,7 +442,7 @@ def report_figures(
     if limits:
         lim.update({k: tuple(v) for k, v in limits.items()})
     failed = _sample_failed(rows, names)
-    as_lot = lot is not None or n > per_sample_max
+    as_lot = _as_lot(lot, n, per_sample_max)
     cct = _fig(ev, "cct_K")
     figs: list[ReportFigure] = []
 
@@ -836,7 +858,28 @@ def _measured_text(r: VerdictRow) -> tuple[str, str]:
     return meas, marg
 
 
-def _checks_html(rows: list[VerdictRow], per_sample_max: int) -> str:
+def _not_passed_text(outcomes) -> str:
+    """"2 failed, 1 indeterminate" (or "none") for one sample's check outcomes."""
+    bits = [f"{sum(o == k for o in outcomes)} {_OUTCOME_TEXT[k][1].lower()}"
+            for k in ("fail", "not valid", "indeterminate", "not judged") if k in outcomes]
+    return ", ".join(bits) or "none"
+
+
+def _sample_checks_html(rows: list[VerdictRow]) -> str:
+    """One spectrum's checks (its section in a report with too many spectra for the grid)."""
+    if not rows:
+        return ""
+    body, classes = [], []
+    for r in rows:
+        meas, marg = _measured_text(r)
+        body.append([_e(r.clause), meas, _e(r.limit), marg,
+                     _badge(r.outcome) + (f"<br><small>{_e(r.reason)}</small>" if r.reason else "")])
+        classes.append("fail" if r.outcome == "fail" else "")
+    return "<h3>Checks</h3>" + _table(["Criterion", "Measured", "Limit", "Margin (+ inside)", "Verdict"], body,
+                                      numeric=[False, True, False, True, False], row_classes=classes)
+
+
+def _checks_html(rows: list[VerdictRow], per_sample_max: int = CHECK_GRID_MAX) -> str:
     """The checks: a criterion × sample grid for a few samples, else a list of the checks that
     did not pass (the passes are counted, not listed)."""
     samples = list(dict.fromkeys(r.sample or "lot" for r in rows))
@@ -935,6 +978,7 @@ def render_html_report(
     names = list(ev.spectra.names)
     n = len(names)
     rows = verdict_rows(verdicts, names)
+    grid_max = CHECK_GRID_MAX if per_sample_max is None else min(per_sample_max, CHECK_GRID_MAX)
     figs = list(figures) if figures is not None else report_figures(
         ev, verdicts=verdicts, limits=limits, regions=regions, lot=lot, per_sample_max=per_sample_max)
     if inputs is None:
@@ -977,7 +1021,7 @@ def render_html_report(
                          "(CRI/TM-30 with |Duv| > 0.05): not a pass.",
         }[overall]
         body.append(f'<div class="summary {overall.replace(" ", "-")}"><p class="big">{_badge(overall)} {_e(summary_words)}</p>'
-                    f"<p>{len(rows)} checks: " + ", ".join(
+                    f"<p>{len(rows)} check{'s' if len(rows) != 1 else ''}: " + ", ".join(
                         f"{counts[o]} {_OUTCOME_TEXT[o][1].lower()}" for o in _OUTCOME_ORDER if counts[o]) + ".</p></div>")
         lot_rows = [r for r in rows if r.sample is None]
         if lot is not None and lot_rows:
@@ -988,19 +1032,22 @@ def render_html_report(
                                numeric=[False, True, False, True, False],
                                row_classes=["fail" if r.outcome == "fail" else "" for r in lot_rows]))
         if len(per_sample) > 1:
-            items = sorted(per_sample.items(), key=lambda kv: "fail" not in kv[1])  # stable: failed first
+            items = list(per_sample.items())  # input order: the numbering of every table and figure
             if lot is not None:  # a lot: list the samples that did not pass; the rest are counted
                 passed = sum(_worst(o) == "pass" for s_, o in items if s_ != "(lot)")
                 items = [kv for kv in items if kv[0] != "(lot)" and _worst(kv[1]) != "pass"]
                 body.append(f'<p class="sub">{passed} of {n} samples met every per-sample criterion'
                             + ("; the others:" if items else ".") + "</p>")
-            shown_items = items[:MAX_TABLE_ROWS]
-            body.append(_table(["Sample", "Verdict", "Checks failed"],
-                               [[_e(s), _badge(_worst(o)), str(sum(x == "fail" for x in o))] for s, o in shown_items],
-                               numeric=[False, False, True],
+            shown_items = items
+            if len(items) > MAX_TABLE_ROWS:  # keep the failed ones, listed in input order
+                keep = sorted(range(len(items)), key=lambda j: "fail" not in items[j][1])[:MAX_TABLE_ROWS]
+                shown_items = [items[j] for j in sorted(keep)]
+            body.append(_table(["Sample", "Verdict", "Checks not passed"],
+                               [[_e(s), _badge(_worst(o)), _not_passed_text(o)] for s, o in shown_items],
+                               numeric=[False, False, False],
                                row_classes=["fail" if "fail" in o else "" for _, o in shown_items]))
             if len(items) > len(shown_items):
-                body.append(f'<p class="sub">{len(shown_items)} of {len(items)} samples listed (failed first); '
+                body.append(f'<p class="sub">{len(shown_items)} of {len(items)} samples listed (failed first, in input order); '
                             "every sample's verdict is in the JSON and CSV outputs.</p>")
         unc = _get(verdicts, "uncertainty") if _is_check_result(verdicts) else None
         if unc:
@@ -1008,26 +1055,36 @@ def render_html_report(
             body.append(f'<p class="sub">{_e(unc.get("rule_text", ""))} Margins are shown ± U (expanded uncertainty '
                         f'from the Monte Carlo propagation of the instrument model {_e(inst.get("name") or inst.get("source", ""))}, '
                         "JCGM 101:2008); p_c is the probability of conformance (JCGM 106:2012). See docs/uncertainty.md.</p>")
-        body.append(_checks_html(rows, per_sample_max))
+        body.append(_checks_html(rows, grid_max))
     body.append("</section>")
 
-    # ---- key figures
-    body.append('<section id="figures-table"><h2>Key figures</h2>')
+    as_lot = _as_lot(lot, n, per_sample_max)
+    if as_lot and lot is None:
+        body.append(f'<p class="sub">The {n} spectra are drawn together (medians, ranges and distributions), '
+                    f"as asked (more than {per_sample_max} spectra); every spectrum's figures are in the tables "
+                    "below and in the JSON and CSV outputs.</p>")
+
+    # ---- key figures (spectra in input order, the numbering of the figures)
+    key: list[str] = ['<section id="figures-table"><h2>Key figures</h2>']
     failed_flags = _sample_failed(rows, names)
-    order = sorted(range(n), key=lambda i: failed_flags[i] is not True)[:MAX_TABLE_ROWS]
-    if len(order) < n:
-        body.append(f'<p class="sub">{len(order)} of {n} spectra listed (those that failed a criterion first); '
-                    "every spectrum's figures are in the JSON and CSV outputs.</p>")
-    body.extend(_key_figure_tables(ev, names, order))
-    body.append('<p class="sub">' + _e(" ".join(f"{f.label}: {f.description} ({f.source})." for f in _key_figures()
-                                                if f.group != "chromaticity"))
-                + " n/a: undefined for that spectrum (see the notes).</p>")
-    body.append("</section>")
+    if n > MAX_TABLE_ROWS:  # those that failed a criterion are kept, shown in input order
+        keep = sorted(range(n), key=lambda i: failed_flags[i] is not True)[:MAX_TABLE_ROWS]
+        order = sorted(keep)
+        key.append(f'<p class="sub">{len(order)} of {n} spectra listed (those that failed a criterion first, in '
+                   "input order); every spectrum's figures are in the JSON and CSV outputs.</p>")
+    else:
+        order = list(range(n))
+    key.extend(_key_figure_tables(ev, names, order))
+    key.append('<p class="sub">' + _e(" ".join(f"{f.label}: {f.description} ({f.source})." for f in _key_figures()
+                                               if f.group != "chromaticity"))
+               + " n/a: undefined for that spectrum (see the notes).</p>")
+    key.append("</section>")
 
-    # ---- lot statistics
-    lb = _lot_block(lot)
+    # ---- lot statistics (with the outliers named)
+    lot_html: list[str] = []
+    lb = _lot_block(lot, names)
     if lb is not None:
-        body.append(f'<section id="lot"><h2>{_e(lb["title"])}</h2>')
+        lot_html.append(f'<section id="lot"><h2>{_e(lb["title"])}</h2>')
         dicts = [_row_dict(r) for r in lb["rows"]]
         cols: list[str] = []
         for d in dicts:
@@ -1041,41 +1098,51 @@ def render_html_report(
                 if isinstance(v, (int, float, np.floating, np.integer)):
                     return _num(float(v))
                 return _e(v if v is not None else "")
-            body.append(_table(cols, [[cell(d.get(c)) for c in cols] for d in dicts],
+            lot_html.append(_table(cols, [[cell(d.get(c)) for c in cols] for d in dicts],
                                numeric=lb.get("numeric") or [all(isinstance(d.get(c), (int, float, np.floating, np.integer))
                                                                  and not isinstance(d.get(c), bool) for d in dicts) for c in cols]))
         else:
-            body.append("<p>No lot statistics.</p>")
+            lot_html.append("<p>No lot statistics.</p>")
         if lb["notes"]:
-            body.append('<ul class="notes">' + "".join(f"<li>{_e(x)}</li>" for x in lb["notes"]) + "</ul>")
-        body.append("</section>")
+            lot_html.append('<ul class="notes">' + "".join(f"<li>{_e(x)}</li>" for x in lb["notes"]) + "</ul>")
+        lot_html.append("</section>")
 
     # ---- figures
-    body.append('<section id="charts"><h2>Figures</h2>')
+    charts: list[str] = []
+    charts.append('<section id="charts"><h2>Figures</h2>')
     per_sample_figs: dict[str, list[ReportFigure]] = {}
     for k, f in enumerate(figs):
         m = re.match(r"(spd|cri|hue-bins)-(\d\d)-", f.key)
         if m:
             per_sample_figs.setdefault(m.group(2), []).append(f)
             continue
-        body.append(_figure_html(f, k, figure_svg))
-    body.append("</section>")
+        charts.append(_figure_html(f, k, figure_svg))
+    charts.append("</section>")
+    grid_too_wide = len({r.sample for r in rows if r.sample is not None}) > grid_max
+    samples_html: list[str] = []
     for idx, (num, fl) in enumerate(sorted(per_sample_figs.items())):
         i = int(num) - 1
-        body.append(f'<section class="sample" id="sample-{num}"><h2>{_e(names[i])}</h2>')
-        body.append(f'<p class="sub">Source: <span class="mono">{_e(ev.spectra.sources[i])}</span></p>')
+        samples_html.append(f'<section class="sample" id="sample-{num}"><h2>{_e(names[i])}</h2>')
+        samples_html.append(f'<p class="sub">Source: <span class="mono">{_e(ev.spectra.sources[i])}</span></p>')
         for f in fl:
-            body.append(_figure_html(f, figs.index(f), figure_svg))
+            samples_html.append(_figure_html(f, figs.index(f), figure_svg))
+        if grid_too_wide:
+            samples_html.append(_sample_checks_html([r for r in rows if r.sample == names[i]]))
         R = _matrix(ev, "R", 14)[i]
-        body.append("<h3>Special colour rendering indices (CIE 13.3)</h3>")
-        body.append(_table([f"R{j}" for j in range(1, 15)], [[_num(v, "int") for v in R]], numeric=[True] * 14, cls="dense"))
-        body.append("<h3>Hue bins (CIE 224:2017 / TM-30)</h3>")
-        body.append(_table(["bin"] + [f"h{j}" for j in range(1, 17)], [
+        samples_html.append("<h3>Special colour rendering indices (CIE 13.3)</h3>")
+        samples_html.append(_table([f"R{j}" for j in range(1, 15)], [[_num(v, "int") for v in R]], numeric=[True] * 14, cls="dense"))
+        samples_html.append("<h3>Hue bins (CIE 224:2017 / TM-30)</h3>")
+        samples_html.append(_table(["bin"] + [f"h{j}" for j in range(1, 17)], [
             ["Rf,h"] + [_num(v, "int") for v in _matrix(ev, "Rf_h", 16)[i]],
             ["Rcs,h (%)"] + [_num(v, "+.0f") for v in _matrix(ev, "Rcs_h", 16)[i]],
             ["Rhs,h"] + [_num(v, "+.2f") for v in _matrix(ev, "Rhs_h", 16)[i]],
         ], numeric=[False] + [True] * 16, cls="dense"))
-        body.append("</section>")
+        samples_html.append("</section>")
+
+    if lot is not None:  # a lot: verdict, lot figures and named outliers first, per-sample tables last
+        body += lot_html + charts + key + samples_html
+    else:  # spectra: key figures, the figures, then one section per spectrum
+        body += key + lot_html + charts + samples_html
 
     # ---- notes on the data
     warns = list(getattr(ev, "warnings", ()) or ())

@@ -371,6 +371,8 @@ def _keep_attributes(fd: int, target: Path) -> None:
         return
     if not stat.S_ISREG(st.st_mode):
         return  # a link (or nothing usable) is replaced by a file with the default mode
+    if not hasattr(os, "fchmod"):  # pragma: no cover - not POSIX: the platform's defaults
+        return
     try:
         os.fchown(fd, st.st_uid if os.geteuid() == 0 else -1, st.st_gid)
     except (OSError, AttributeError):

@@ -609,3 +609,28 @@ def test_huge_values_are_quoted_briefly_without_interpreter_advice(tmp_path, cap
         code, _, err = run(argv, capsys)
         one_error_line(code, err, *needles)
         assert "set_int_max_str_digits" not in err and len(err) < 450, err
+
+
+def test_sigterm_during_a_real_lot_run_leaves_complete_outputs_or_none(tmp_path):
+    """The unpatched CLI on the 200-module demo lot, stopped by SIGTERM part-way: exit 143 (or
+    the run had already ended), no temporary file, and every output present is complete."""
+    import json
+
+    out = tmp_path / "out"
+    out.mkdir()
+    p = subprocess.Popen([sys.executable, "-m", "lumeval", "lot", str(ROOT / "spectra_demo" / "lot_2026w48"), "-q",
+                          "--json", str(out / "lot.json"), "--samples-csv", str(out / "s.csv"), "--html", str(out / "r.html"),
+                          "--plots", str(out / "P")], env=ENV, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    time.sleep(2.5)
+    p.send_signal(signal.SIGTERM)
+    code = p.wait(timeout=300)
+    err = p.stderr.read().decode()
+    assert code in (128 + signal.SIGTERM, 0, 1), err
+    assert "Traceback" not in err
+    if code == 128 + signal.SIGTERM:
+        assert "SIGTERM" in err
+    assert temporaries(out) == [] and (not (out / "P").exists() or temporaries(out / "P") == [])
+    if (out / "lot.json").exists():
+        json.loads((out / "lot.json").read_text(encoding="utf-8"))
+    if (out / "r.html").exists():
+        assert (out / "r.html").read_text(encoding="utf-8").rstrip().endswith("</html>")

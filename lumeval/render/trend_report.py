@@ -40,11 +40,11 @@ def list_document(lots, store: str) -> dict:
 
 
 def print_list(lots, store: str, console=None) -> None:
-    from rich.console import Console
+    from .safe import console as safe_console
     from rich.table import Table
     from rich.text import Text
 
-    console = console or Console(highlight=False, soft_wrap=False)
+    console = console or safe_console(highlight=False, soft_wrap=False)  # a closed pipe: exit 2, not 1
     if not lots:
         console.print(Text(f"No lots recorded in {plain(store)} (with these filters)."))
         return
@@ -92,14 +92,14 @@ _CHART_NAMES = {"xbar": "X̄ chart", "s": "s chart", "individuals": "individuals
 
 
 def print_trend(tr, console=None) -> None:
-    from rich.console import Console
+    from .safe import console as safe_console
     from rich.table import Table
     from rich.text import Text
 
     from ..store.trend import trend_document
 
     doc = trend_document(tr)
-    console = console or Console(highlight=False, soft_wrap=False)
+    console = console or safe_console(highlight=False, soft_wrap=False)  # a closed pipe: exit 2, not 1
     unit = f" {tr.unit}" if tr.unit else ""
     head = (f"Trend of {tr.label}{unit} over {len(tr.points)} lots"
             + (f" of {plain(tr.product)}" if tr.product else "") + f" — {tr.chart} chart, baseline {tr.baseline_rule}")

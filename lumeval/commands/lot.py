@@ -235,7 +235,7 @@ def run_lot(
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []
-    archives = [is_archive(f) for f in files]
+    archives = [is_archive(f, sniff=False) for f in files]  # by name: no extra open per file
     acc = LotAccumulator(_expected_samples(files, archives))
     seen_names: dict[str, int] = {}
     pending: list = []

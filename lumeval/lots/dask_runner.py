@@ -44,12 +44,45 @@ from typing import Callable, Sequence
 CONNECT_TIMEOUT_S = 10
 
 
+#: glibc malloc settings for worker processes (see :func:`_tune_malloc`).
+_M_TRIM_THRESHOLD, _M_MMAP_THRESHOLD = -1, -3
+_TRIM_BYTES, _MMAP_BYTES = 256 * 1024 * 1024, 32 * 1024 * 1024
+_tuned = False
+
+
+def _tune_malloc() -> None:
+    """Let the worker's heap keep the engine's large temporaries between chunks.
+
+    Dask's nanny starts workers with ``MALLOC_TRIM_THRESHOLD_=65536``, which (besides trimming
+    the heap at every free) switches off glibc's adaptive mmap threshold, so every temporary
+    array above 128 kB is mapped and unmapped afresh: measured on the project machine, a
+    16,384-spectrum partition took 2.9 s CPU on a worker (1.2 s of it in the kernel) against
+    1.6 s in a plain process. Setting a fixed mmap threshold of 32 MiB (glibc's upper limit)
+    and a trim threshold of 256 MiB with ``mallopt`` restores the plain process's speed (1.5 s).
+    Only on glibc; elsewhere nothing is done.
+    """
+    global _tuned
+    if _tuned:
+        return
+    _tuned = True
+    try:
+        import ctypes
+        import ctypes.util
+
+        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
+        libc.mallopt(_M_TRIM_THRESHOLD, _TRIM_BYTES)
+        libc.mallopt(_M_MMAP_THRESHOLD, _MMAP_BYTES)
+    except (OSError, AttributeError):  # not glibc
+        pass
+
+
 def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_criteria, batch_rows: int):
     """Worker side: stream one partition of an archive file and evaluate it.
 
     Returns ``(list of BatchResult, list of Unreadable)``; an error of the whole file is
     returned (not raised) as one Unreadable so that the client reports it like a local run.
     """
+    _tune_malloc()
     from ..commands.lot import Unreadable
     from ..errors import LumevalError
     from .streaming import archive_batches, evaluate_batch
@@ -134,7 +167,7 @@ def run_lot_dask(
     batch = batch_spectra or BATCH_SPECTRA
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
-    others = [f for f in files if not is_archive(f)]
+    others = [f for f in files if not is_archive(f, sniff=False)]
     if others:
         raise UsageError(f"{others[0]!r} is not a Parquet archive: a Dask run reads Parquet archives only",
                          field="--scheduler" if scheduler is not None else "--workers",

@@ -87,16 +87,16 @@ def _parquet_files_in(folder: Path) -> list[Path]:
     )
 
 
-def is_archive(path: str | os.PathLike) -> bool:
-    """True when ``path`` is a Parquet file (by extension or by its first four bytes) or a
-    folder holding Parquet files. Cheap: imports nothing, reads at most four bytes."""
+def is_archive(path: str | os.PathLike, *, sniff: bool = True) -> bool:
+    """True when ``path`` is a Parquet file (by extension, or with ``sniff`` by its first four
+    bytes) or a folder holding Parquet files. Cheap: reads at most four bytes."""
     p = Path(path)
     try:
-        if p.is_dir():
-            return bool(_parquet_files_in(p))
         if p.suffix.lower() in PARQUET_SUFFIXES:
             return True
-        if p.is_file():
+        if p.is_dir():
+            return bool(_parquet_files_in(p))
+        if sniff and p.is_file():
             with open(p, "rb") as fh:
                 return fh.read(4) == PARQUET_MAGIC
     except OSError:

@@ -66,14 +66,30 @@ def read_spectra(path: str | Path) -> SpectrumSet:
         ``FILE:LINE: what is wrong — what would fix it``.
     """
     from .._paths import display_path
-    from .archive import is_archive
 
-    if is_archive(path):  # a Parquet file or a folder of them (lumeval.spectra.archive)
+    # a Parquet archive (lumeval.spectra.archive): by its name, a folder holding Parquet
+    # files, or the file's first bytes; other files pay no extra open or import
+    p = Path(path)
+    if p.suffix.lower() in _PARQUET_SUFFIXES or (p.is_dir() and _archive_folder(p)):
+        from .archive import read_archive
+
+        return read_archive(path)
+    raw = _read_bytes(path, MAX_TEXT_BYTES)
+    if raw[:4] == b"PAR1":
         from .archive import read_archive
 
         return read_archive(path)
     # the bytes come from the path as given; names, sources and messages use its printable form
-    return parse_spectra(_read_bytes(path, MAX_TEXT_BYTES), display_path(path))
+    return parse_spectra(raw, display_path(path))
+
+
+_PARQUET_SUFFIXES = (".parquet", ".parq", ".pq")
+
+
+def _archive_folder(p: Path) -> bool:
+    from .archive import is_archive
+
+    return is_archive(p)
 
 
 def parse_spectra(raw: bytes, file: str) -> SpectrumSet:

@@ -1,0 +1,121 @@
+"""Absolute photometry: illuminance / luminance and melanopic EDI / EDL from absolute spectra.
+
+Oracles
+-------
+- luxpy 1.12.5 ``spd_to_aopicEDI(..., out='EDI,Ev', K=683)`` (GPLv3, test-only): an
+  independent implementation of CIE S 026 with its own tables and integration.
+- colour-science 0.4.7 ``luminous_flux`` (Km · ∫ S V dλ, trapezoid rule, its own V(λ) table).
+- CIE S 026 worked example as published in the Lighting Toolbox documentation (ciespec2aopic):
+  illuminant A at 100 lx has a melanopic irradiance of 0.065754 W/m², D65 at 100 lx 0.132621
+  W/m²; so the melanopic EDI of A at 100 lx is 100 · 0.065754 / 0.132621 = 49.580 lx.
+- SI prefixes (BIPM SI Brochure, 9th ed.) for the unit factors.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from lumeval.metrics.absolute import absolute_photometry
+from lumeval.spectra.units import IRRADIANCE, RADIANCE, SpectralQuantity, quantity_of, spectral_quantity
+
+KM = 683.0
+
+
+@pytest.mark.parametrize(
+    "text,kind,factor",
+    [
+        ("Spectral irradiance [W/(m²·nm)]", IRRADIANCE, 1.0),
+        ("W/m2/nm", IRRADIANCE, 1.0),
+        ("W m-2 nm-1", IRRADIANCE, 1.0),
+        ("mW/(m^2 nm)", IRRADIANCE, 1e-3),
+        ("µW/cm²/nm", IRRADIANCE, 1e-6 * 1e4),
+        ("uW/cm2/nm", IRRADIANCE, 1e-6 * 1e4),
+        ("nW/(mm²·nm)", IRRADIANCE, 1e-9 * 1e6),
+        ("W/(sr·m²·nm)", RADIANCE, 1.0),
+        ("W·sr⁻¹·m⁻²·nm⁻¹", RADIANCE, 1.0),
+        ("mW/sr/m2/nm", RADIANCE, 1e-3),
+    ],
+)
+def test_recognised_units(text, kind, factor):
+    q = spectral_quantity(text)
+    assert q is not None and q.kind == kind
+    np.testing.assert_allclose(q.factor, factor, rtol=1e-15)
+
+
+@pytest.mark.parametrize(
+    "text",
+    ["W/nm", "W/(sr·nm)", "W/m2", "counts", "relative", "W/(m²·µm)", "W/(m2 nm) or mW/(m2 nm)", "a.u.", "", None,
+     "W/(sr·sr·m²·nm)"],
+)
+def test_anything_else_gives_no_absolute_quantity(text):
+    assert spectral_quantity(text) is None
+
+
+def test_only_spectra_the_reader_marked_absolute_count():
+    assert quantity_of({"lumeval.scale": "absolute", "lumeval.value_unit": "W/(m²·nm)"}).kind == IRRADIANCE
+    assert quantity_of({"lumeval.scale": "relative", "lumeval.value_unit": "W/(m²·nm)"}) is None
+    assert quantity_of({}) is None
+
+
+def _evaluate(colour, names, scale):
+    from lumeval.engine import evaluate
+    from lumeval.spectra.model import SpectrumSet
+
+    shape = colour.SpectralShape(380, 780, 1)
+    sds = [colour.SDS_ILLUMINANTS[n].copy().align(shape) for n in names]
+    wl = np.asarray(sds[0].wavelengths, float)
+    vals = np.stack([np.asarray(sd.values, float) * scale for sd in sds])
+    return wl, vals, evaluate(SpectrumSet(wl, vals, tuple(names), tuple(names)))
+
+
+@pytest.mark.parametrize("name", ["A", "D65", "FL2", "LED-B3"])
+def test_illuminance_and_melanopic_edi_against_luxpy(colour, luxpy, name):
+    from luxpy.toolboxes import photbiochem as pb
+
+    wl, vals, ev = _evaluate(colour, [name], 2e-3)  # W/(m²·nm): a few hundred lx
+    res = absolute_photometry(ev.XYZ[:, 1], ev.photometry.melanopic_der, [SpectralQuantity(IRRADIANCE, 1.0, "W/m2/nm")])
+    edi, e_v = pb.spd_to_aopicEDI(np.vstack([wl, vals[0]]), K=KM, out="EDI,Ev")
+    e_v = float(np.ravel(e_v)[0])
+    mel = float(np.ravel(np.asarray(edi))[-1])  # luxpy's last α-opic column is melanopic
+    # luxpy's V(λ) is its own copy of the CIE table and it interpolates D65 from its own 1 nm table
+    np.testing.assert_allclose(res.illuminance_lx[0], e_v, rtol=1e-5)
+    np.testing.assert_allclose(res.melanopic_edi_lx[0], mel, rtol=1e-5)
+    assert np.isnan(res.luminance_cd_m2[0]) and np.isnan(res.melanopic_edl_cd_m2[0])
+
+
+def test_illuminance_against_colour_science_luminous_flux(colour):
+    wl, vals, ev = _evaluate(colour, ["FL11"], 1e-2)
+    res = absolute_photometry(ev.XYZ[:, 1], ev.photometry.melanopic_der, [SpectralQuantity(IRRADIANCE, 1.0, "W/m2/nm")])
+    sd = colour.SpectralDistribution(dict(zip(wl, vals[0])))
+    theirs = colour.luminous_flux(sd, K_m=KM)  # trapezoid: differs by the half end samples only
+    np.testing.assert_allclose(res.illuminance_lx[0], theirs, rtol=1e-4)
+
+
+def test_melanopic_edi_of_illuminant_a_at_100_lx_matches_the_published_example(colour):
+    _, _, ev = _evaluate(colour, ["A"], 1.0)
+    Y = ev.XYZ[:, 1]
+    f = 100.0 / (KM * Y[0])  # scale the file's unit so that A gives 100 lx
+    res = absolute_photometry(Y, ev.photometry.melanopic_der, [SpectralQuantity(IRRADIANCE, f, "scaled")])
+    np.testing.assert_allclose(res.illuminance_lx[0], 100.0, rtol=1e-12)
+    # published: 100 · 0.065754 / 0.132621 = 49.580 lx (5 significant digits in the source)
+    np.testing.assert_allclose(res.melanopic_edi_lx[0], 100 * 0.065754 / 0.132621, atol=0.01)
+
+
+def test_d65_edi_equals_its_illuminance(colour):
+    # CIE S 026: the melanopic EDI of D65 equals its illuminance by definition (DER = 1)
+    _, _, ev = _evaluate(colour, ["D65"], 1e-3)
+    res = absolute_photometry(ev.XYZ[:, 1], ev.photometry.melanopic_der, [SpectralQuantity(IRRADIANCE, 1.0, "x")])
+    np.testing.assert_allclose(res.melanopic_edi_lx, res.illuminance_lx, rtol=1e-5)
+
+
+def test_radiance_gives_luminance_and_edl_and_relative_gives_nothing(colour):
+    _, _, ev = _evaluate(colour, ["A", "A", "A"], 1e-3)
+    qs = [SpectralQuantity(RADIANCE, 1.0, "W/(sr·m²·nm)"), None, SpectralQuantity(IRRADIANCE, 1e-3, "mW/(m²·nm)")]
+    res = absolute_photometry(ev.XYZ[:, 1], ev.photometry.melanopic_der, qs)
+    assert res.quantity == ("radiance", "", "irradiance")
+    np.testing.assert_allclose(res.luminance_cd_m2[0], KM * ev.XYZ[0, 1], rtol=1e-12)
+    np.testing.assert_allclose(res.melanopic_edl_cd_m2[0] / res.luminance_cd_m2[0], 0.4958, atol=1e-4)
+    assert np.isnan(res.illuminance_lx[:2]).all() and np.isnan(res.luminance_cd_m2[1:]).all()
+    # a file in mW is a thousand times smaller in W
+    np.testing.assert_allclose(res.illuminance_lx[2], res.luminance_cd_m2[0] * 1e-3, rtol=1e-12)

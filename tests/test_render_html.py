@@ -218,9 +218,10 @@ def test_write_refuses_missing_directory_cleanly(demo_eval, tmp_path):
 
 def test_write_plots_writes_svg_and_png_per_figure(demo_eval, tmp_path):
     sub = demo_eval  # five spectra: per-sample figures
-    paths = H.write_plots(tmp_path / "plots", sub, per_sample_max=1)  # lot mode: 5 figures
+    paths = H.write_plots(tmp_path / "plots", sub, per_sample_max=1)  # lot mode: 8 figures
     stems = sorted({p.stem for p in paths})
-    assert stems == sorted(["chromaticity", "spd-lot", "cri-lot", "hue-bins-lot", "distributions"])
+    assert stems == sorted(["chromaticity", "chromaticity-xy", "fidelity-gamut", "spd-lot", "cri-lot", "hue-bins-lot",
+                            "colour-vectors-lot", "distributions"])
     for p in paths:
         data = p.read_bytes()
         if p.suffix == ".png":
@@ -351,11 +352,28 @@ def test_write_outputs_draws_once_and_checks_targets_first(demo_eval, tmp_path, 
     monkeypatch.setattr(H, "report_figures", counting)
     out = H.write_outputs(demo_eval, html=tmp_path / "r.html", plots=tmp_path / "p", per_sample_max=1)
     assert len(calls) == 1
-    assert (tmp_path / "r.html").exists() and len(list((tmp_path / "p").iterdir())) == 10
-    assert len(out) == 11
+    assert (tmp_path / "r.html").exists() and len(list((tmp_path / "p").iterdir())) == 16
+    assert len(out) == 17
     # a bad plots target: nothing drawn, nothing written (the HTML target is fine)
     calls.clear()
     with pytest.raises(UsageError):
         H.write_outputs(demo_eval, html=tmp_path / "s.html", plots=tmp_path / "no" / "p")
     assert calls == [] and not (tmp_path / "s.html").exists()
     assert H.write_outputs(demo_eval) == []
+
+
+def test_report_has_the_xy_diagram_the_tm30_pictures_and_design_intents(demo_eval):
+    from lumeval.metrics.tm30_views import design_intents
+
+    text = H.render_html_report(demo_eval)
+    n = len(demo_eval)
+    assert 'data-figure="chromaticity-xy"' in text and 'data-figure="fidelity-gamut"' in text
+    assert text.count('data-figure="colour-vectors-') == n  # one per spectrum, in its own section
+    assert text.count("<h3>Design intents (ANSI/IES TM-30-20 Annex E)</h3>") == n
+    # the best level printed is the one the metric function gives (itself checked against luxpy)
+    di = design_intents(demo_eval.figure("Rf"), demo_eval.figure("Rg"), demo_eval.figure("Rcs_h1"),
+                        demo_eval.figure("Rf_h1"))
+    sections = text.split('<section class="sample"')[1:]
+    for i, sec in enumerate(sections):
+        row = sec.split("<td>Preference</td>", 1)[1].split("</td>", 1)[0]
+        assert (f"<b>{di.preference[i]}</b>" if di.preference[i] else "none") in row

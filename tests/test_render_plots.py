@@ -228,22 +228,51 @@ def test_cri_bars_match_colour_science_and_limits_are_drawn(colour, evaluate_sd)
     assert lim["limit-Ra-min"][:, 1].tolist() == [80.0, 80.0]
 
 
-def test_hue_bin_panels_match_colour_science_tm30(colour, evaluate_sd):
+def test_hue_bin_rows_match_colour_science_tm30(colour, evaluate_sd):
     sd = colour.SDS_ILLUMINANTS["FL2"]
     ev = evaluate_sd([sd], ["F2"])
     get = lambda p: np.array([ev.figure(f"{p}{j}")[0] for j in range(1, 17)])  # noqa: E731
-    fig = plots.hue_bin_figure(get("Rcs_h"), get("Rhs_h"), get("Rf_h"))
+    fig = plots.hue_bin_figure(get("Rcs_h"), get("Rhs_h"), get("Rf_h"), limits={"Rcs_h1": (-5, 10), "Rf_h3": (60, None)})
     spec = colour.colour_fidelity_index(sd, True, method="ANSI/IES TM-30-18")
-    ax_cs, ax_hs, ax_f = fig.axes
-    cs = np.array([p.get_height() for p in ax_cs.patches if (p.get_gid() or "").startswith("Rcs_h-values-h")])
-    hs = np.array([p.get_height() for p in ax_hs.patches if (p.get_gid() or "").startswith("Rhs_h-values-h")])
-    rf = _lines(fig, "Rf_h-values")["Rf_h-values"]
-    assert cs.size == 16 and hs.size == 16 and rf.shape == (16, 2)
+
+    def bars(key):
+        found = {}
+        for ax in fig.axes:
+            for p in ax.patches:
+                g = p.get_gid() or ""
+                if g.startswith(f"{key}-values-h"):
+                    found[int(g.rsplit("h", 1)[1])] = p
+        assert sorted(found) == list(range(1, 17))
+        return [found[j] for j in range(1, 17)]
+
+    # bins as rows: bar j sits on row j-1 (h1 at the top), its right end at the value
+    cs, hs, rf = bars("Rcs_h"), bars("Rhs_h"), bars("Rf_h")
+    np.testing.assert_allclose([p.get_y() + p.get_height() / 2 for p in cs], np.arange(16), atol=1e-12)
     # colour-science returns R_cs in percent and R_hs in radians, bins ordered h1..h16
-    np.testing.assert_allclose(cs, np.asarray(spec.R_cs), atol=0.2)
-    np.testing.assert_allclose(hs, np.asarray(spec.R_hs), atol=0.005)
-    np.testing.assert_allclose(rf[:, 1], np.asarray(spec.R_fs), atol=0.2)
-    np.testing.assert_array_equal(rf[:, 0], np.arange(1, 17))
+    np.testing.assert_allclose([p.get_x() + p.get_width() for p in cs], np.asarray(spec.R_cs), atol=0.2)
+    np.testing.assert_allclose([p.get_x() + p.get_width() for p in hs], np.asarray(spec.R_hs), atol=0.005)
+    np.testing.assert_allclose([p.get_x() + p.get_width() for p in rf], np.asarray(spec.R_fs), atol=0.2)
+    assert all(p.get_x() == 0.0 for p in cs + hs)  # shifts start at zero
+    # the per-bin limit marks: ticks across the bin's row at the limit value; h1's −25 % is hatched
+    lim = _lines(fig, "limit-")
+    np.testing.assert_allclose(lim["limit-Rcs_h1-min"][:, 0], [-5, -5], atol=0)
+    np.testing.assert_allclose(lim["limit-Rcs_h1-max"][:, 0], [10, 10], atol=0)
+    np.testing.assert_allclose(lim["limit-Rf_h3-min"][:, 1].mean(), 2.0, atol=1e-12)
+    assert cs[0].get_hatch() and not cs[1].get_hatch()
+
+
+def test_hue_bin_rows_of_a_lot_show_median_and_whiskers():
+    rng = np.random.default_rng(4)
+    cs = rng.normal(0, 8, (9, 16))
+    fig = plots.hue_bin_figure(cs, cs / 100, 80 + cs / 4)
+    ends = {}
+    for ax in fig.axes:
+        for p in ax.patches:
+            g = p.get_gid() or ""
+            if g.startswith("Rcs_h-values-h"):
+                ends[int(g.rsplit("h", 1)[1])] = p.get_x() + p.get_width()
+    np.testing.assert_allclose([ends[j] for j in range(1, 17)], np.median(cs, axis=0), rtol=1e-12)
+    assert any(c.get_gid() == "Rcs_h-whiskers" for ax in fig.axes for c in ax.collections)
 
 
 def test_distribution_figure_shows_every_sample_and_the_limits():

@@ -457,6 +457,7 @@ def report_figures(
         plots.chromaticity_figure(_fig(ev, "u"), _fig(ev, "v"), labels=names, failed=failed,
                                   regions=_regions(regions), show_centroid=as_lot and n >= 2),
     ))
+    figs += _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot)
 
     if not as_lot:
         for i, name in enumerate(names):
@@ -475,11 +476,12 @@ def report_figures(
             ))
             figs.append(ReportFigure(
                 f"hue-bins-{slug}", f"TM-30 hue bins: {name}",
-                "Per hue bin (CIE 224:2017 / ANSI/IES TM-30): chroma shift Rcs,h, hue shift Rhs,h and local "
-                "fidelity Rf,h.",
+                "One row per hue bin (CIE 224:2017 / ANSI/IES TM-30), each value beside its bar: local fidelity "
+                "Rf,h, chroma shift Rcs,h (%) and hue shift Rhs,h. Black ticks: criteria limits; hatched: outside.",
                 plots.hue_bin_figure(_matrix(ev, "Rcs_h", 16)[i], _matrix(ev, "Rhs_h", 16)[i], _matrix(ev, "Rf_h", 16)[i],
                                      limits=lim),
             ))
+            figs += _colour_vector_figures(ev, [i], f"colour-vectors-{slug}", f"TM-30 colour vectors: {name}")
     else:
         with np.errstate(all="ignore"):
             k = int(np.nanargmin(np.abs(cct - np.nanmedian(cct)))) if np.any(np.isfinite(cct)) else 0
@@ -502,9 +504,11 @@ def report_figures(
         ))
         figs.append(ReportFigure(
             "hue-bins-lot", f"TM-30 hue bins of {n} samples",
-            "Median with min–max whisker per hue bin: chroma shift, hue shift, local fidelity.",
+            "One row per hue bin: median bar with min–max whisker of local fidelity Rf,h, chroma shift Rcs,h (%) "
+            "and hue shift Rhs,h. Black ticks: criteria limits.",
             plots.hue_bin_figure(_matrix(ev, "Rcs_h", 16), _matrix(ev, "Rhs_h", 16), _matrix(ev, "Rf_h", 16), limits=lim),
         ))
+        figs += _colour_vector_figures(ev, list(range(n)), "colour-vectors-lot", f"TM-30 colour vectors of {n} samples")
 
     if as_lot and n >= 2:
         from .. import figures
@@ -521,6 +525,59 @@ def report_figures(
                                       labels={k: figures.heading(k) for k in keys}),
         ))
     return figs
+
+
+def _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot) -> list[ReportFigure]:
+    """The CIE 1931 (x, y) diagram and the Rf-Rg chart (all spectra in one of each)."""
+    from . import plots
+    from .tm30_plots import fidelity_gamut_figure
+
+    n = len(names)
+    out = [ReportFigure(
+        "chromaticity-xy", "Chromaticity in CIE 1931 (x, y)",
+        "The same samples and criteria regions in the CIE 1931 (x, y) diagram, where ANSI C78.377 quadrangles and "
+        "SDCM ellipses are usually read; Planckian locus, isotemperature lines and lines of constant Duv as in the "
+        "(u, v) view. Inset: the whole diagram (spectrum locus, CIE 1931 2°) with the enlarged window.",
+        plots.chromaticity_xy_figure(_fig(ev, "x"), _fig(ev, "y"), labels=names, failed=failed,
+                                     regions=_regions(regions), show_centroid=as_lot and n >= 2),
+    )]
+    Rf, Rg = _fig(ev, "Rf"), _fig(ev, "Rg")
+    if np.any(np.isfinite(Rf) & np.isfinite(Rg)):
+        out.append(ReportFigure(
+            "fidelity-gamut", "Fidelity against gamut (TM-30 Rf, Rg)",
+            "Each spectrum's fidelity index Rf (across) and gamut index Rg (up). Green corners: the Rf and Rg a "
+            "Preference level P1–P3 needs; purple lines: Vividness V1–V3 (Rg); blue dotted lines: Fidelity F1–F3 "
+            "(Rf) — ANSI/IES TM-30-20 Annex E. Each level also has a hue-bin-1 condition, checked in the design-intent "
+            "table. Vermillion dashed: criteria limits.",
+            fidelity_gamut_figure(Rf, Rg, labels=names, failed=failed,
+                                  limits={k: v for k, v in lim.items() if k in ("Rf", "Rg")}),
+        ))
+    return out
+
+
+def _colour_vector_figures(ev, idx: list[int], key: str, title: str) -> list[ReportFigure]:
+    """The TM-30 colour-vector picture of the spectra ``idx`` (none when the bin averages are
+    unavailable or undefined)."""
+    from ..metrics.tm30_views import colour_vectors
+    from .tm30_plots import colour_vector_figure
+
+    tm = getattr(ev, "tm30", None)
+    ab_t, ab_r = getattr(tm, "avg_ab_test", None), getattr(tm, "avg_ab_ref", None)
+    if ab_t is None or ab_r is None or np.asarray(ab_t).ndim != 3:
+        return []
+    ref_unit, test = colour_vectors(np.asarray(ab_t)[idx], np.asarray(ab_r)[idx])
+    if not np.any(np.isfinite(test)):
+        return []
+    many = len(idx) > 1
+    return [ReportFigure(
+        key, title,
+        ("Median per hue bin over the samples (arrows) and every sample (grey dots). " if many else "")
+        + "Each arrow runs from a hue bin's average colour under the reference (hollow dot, on the 100 % chroma "
+        "ring) to the same bin under the test source, in CAM02-UCS scaled by the bin's reference chroma "
+        "(ANSI/IES TM-30). Solid blue: chroma gained; dashed vermillion: chroma lost. At the rim: the bin, its "
+        "hue and its chroma shift Rcs,h.",
+        colour_vector_figure(ref_unit, test, Rcs_h=_matrix(ev, "Rcs_h", 16)[idx]),
+    )]
 
 
 # --------------------------------------------------------------------------- writing
@@ -1112,7 +1169,7 @@ def render_html_report(
     charts.append('<section id="charts"><h2>Figures</h2>')
     per_sample_figs: dict[str, list[ReportFigure]] = {}
     for k, f in enumerate(figs):
-        m = re.match(r"(spd|cri|hue-bins)-(\d\d)-", f.key)
+        m = re.match(r"(spd|cri|hue-bins|colour-vectors)-(\d\d)-", f.key)
         if m:
             per_sample_figs.setdefault(m.group(2), []).append(f)
             continue
@@ -1137,6 +1194,7 @@ def render_html_report(
             ["Rcs,h (%)"] + [_num(v, "+.0f") for v in _matrix(ev, "Rcs_h", 16)[i]],
             ["Rhs,h"] + [_num(v, "+.2f") for v in _matrix(ev, "Rhs_h", 16)[i]],
         ], numeric=[False] + [True] * 16, cls="dense"))
+        samples_html.append(_design_intent_html(ev, i))
         samples_html.append("</section>")
 
     if lot is not None:  # a lot: verdict, lot figures and named outliers first, per-sample tables last
@@ -1195,6 +1253,40 @@ def render_html_report(
         + "\n".join(body)
         + "\n</body>\n</html>\n"
     )
+
+
+def _design_intent_html(ev, i: int) -> str:
+    """Spectrum i against the ANSI/IES TM-30-20 Annex E design intents: a small table."""
+    from ..metrics.tm30_views import ANNEX_E, ANNEX_E_SOURCE, DESIGN_INTENTS, design_intents
+
+    vals = {k: float(_fig(ev, k)[i]) for k in ("Rf", "Rg", "Rcs_h1", "Rf_h1")}
+    if not all(math.isfinite(v) for v in vals.values()):
+        return ""
+    di = design_intents(*([vals[k]] for k in ("Rf", "Rg", "Rcs_h1", "Rf_h1")))
+    names = {"Rf": "Rf", "Rg": "Rg", "Rcs_h1": "Rcs,h1", "Rf_h1": "Rf,h1"}
+
+    def needs(level: str) -> str:
+        parts = []
+        for k, (lo, hi) in ANNEX_E[level].items():
+            u = " %" if k == "Rcs_h1" else ""
+            parts.append(f"{names[k]} ≥ {lo:g}{u}" if hi == math.inf else f"{names[k]} {lo:+g}{u} … {hi:+g}{u}")
+        return ", ".join(parts).replace("-", "−")
+
+    rows = []
+    for intent, levels in DESIGN_INTENTS.items():
+        best = getattr(di, intent)[0]
+        cells = [_e(intent.capitalize()), f"<b>{_e(best)}</b>" if best else "none"]
+        for lv in levels:
+            ok = bool(di.met[lv][0])
+            cells.append(f'{"✓" if ok else "✗"} {_e(lv)}<br><small>{_e(needs(lv))}</small>')
+        rows.append(cells)
+    return (
+        "<h3>Design intents (ANSI/IES TM-30-20 Annex E)</h3>"
+        + _table(["Design intent", "Best level met", "Level 1", "Level 2", "Level 3"], rows, cls="grid")
+        + f'<p class="sub">With Rf {vals["Rf"]:.0f}, Rg {vals["Rg"]:.0f}, Rcs,h1 {_num(vals["Rcs_h1"], "+.0f")} %, '
+        f'Rf,h1 {vals["Rf_h1"]:.0f} (unrounded values compared). A level counts only when the levels below it '
+        f"are met too. {_e(ANNEX_E_SOURCE)}. Informative guidance, not a verdict: to judge it, write clauses on Rf, "
+        "Rg, Rcs_h1 and Rf_h1 in the criteria file.</p>")
 
 
 def _figure_html(f: ReportFigure, k: int, figure_svg) -> str:

@@ -298,18 +298,26 @@ def chromaticity_figure(
     regions: Sequence[Mapping] | None = None,
     show_centroid: bool | None = None,
     title: str | None = None,
+    diagram: str = "uv",
 ):
-    """Sample chromaticities near the Planckian locus in CIE 1960 (u, v).
+    """Sample chromaticities near the Planckian locus in CIE 1960 (u, v) or CIE 1931 (x, y).
 
     Draws the locus (1000-25000 K), isotemperature lines (Duv −0.05..+0.05, the CIE 15 range
     of CCT) at round temperatures in view, lines of constant Duv, the criteria region(s), the
-    samples, and for several samples their centroid (mean u, v) and spread (the 2σ ellipse of
-    their sample covariance, drawn when there are at least 3 samples).
+    samples, and for several samples their centroid (mean of the plotted coordinates) and
+    spread (the 2σ ellipse of their sample covariance in the plotted coordinates, drawn when
+    there are at least 3 samples).
+
+    ``diagram="xy"`` draws the same content in CIE 1931 (x, y), where ANSI C78.377 quadrangles
+    and SDCM ellipses are usually read, with a small overview of the whole spectrum locus
+    (CIE 1931 2° CMFs, CIE 15:2004 Table T.4) marking the enlarged window. Every line is built
+    in (u, v) and mapped with CIE 15:2004 §8.1; the map is projective, so straight lines
+    (isotemperature lines, quadrangle edges) stay straight.
 
     Parameters
     ----------
     u, v : array_like, shape (N,)
-        CIE 1960 chromaticities of the samples (NaN entries are skipped).
+        CIE 1960 chromaticities of the samples (NaN entries are skipped), whichever the diagram.
     labels : sequence of str, optional
         Sample names; with one to six samples each point is labelled.
     failed : sequence of bool or None, optional
@@ -320,19 +328,26 @@ def chromaticity_figure(
         a polygon (an ellipse is passed as its sampled outline).
     show_centroid : bool, optional
         Default: when N ≥ 2.
+    diagram : ``"uv"`` (default) or ``"xy"``
 
     Artists carry ``gid`` values for tests and SVG ids: ``planckian-locus``,
     ``isotemperature-<T>``, ``duv-<value>``, ``region-<k>``, ``samples-pass``,
-    ``samples-fail``, ``samples-unjudged``, ``centroid``, ``spread``.
+    ``samples-fail``, ``samples-unjudged``, ``centroid``, ``spread``; in the xy overview
+    ``spectrum-locus``, ``overview-planckian-locus`` and ``overview-window``.
     """
-    from matplotlib.patches import Ellipse, Polygon
+    from matplotlib.patches import Ellipse, Polygon, Rectangle
 
-    from ..metrics.colorimetry import planckian_uv
+    from ..metrics.colorimetry import planckian_uv, xy_from_uv
 
+    if diagram not in ("uv", "xy"):
+        raise ValueError(f"unknown diagram {diagram!r}; use 'uv' or 'xy'")
+    tf = (lambda p: np.asarray(p, dtype=float)) if diagram == "uv" else xy_from_uv  # noqa: E731
     u = np.atleast_1d(np.asarray(u, dtype=float))
     v = np.atleast_1d(np.asarray(v, dtype=float))
     n = u.size
     fin = np.isfinite(u) & np.isfinite(v)
+    P = tf(np.stack([u, v], axis=-1)) if n else np.empty((0, 2))
+    pu, pv = P[:, 0], P[:, 1]
     if failed is None:
         failed = [None] * n
     if labels is not None:
@@ -340,22 +355,23 @@ def chromaticity_figure(
     title = _lit(title) if title else title
     regs = []
     for k, r in enumerate(regions or ()):
-        regs.append((_lit(r.get("label", f"region {k + 1}")), region_to_uv(r["vertices"], r.get("space", "uv"))))
+        regs.append((_lit(r.get("label", f"region {k + 1}")), tf(region_to_uv(r["vertices"], r.get("space", "uv")))))
 
-    pts = [np.stack([u[fin], v[fin]], axis=-1)] + [rv for _, rv in regs]
+    pts = [P[fin]] + [rv for _, rv in regs]
     allp = np.concatenate(pts) if sum(p.shape[0] for p in pts) else np.empty((0, 2))
     if allp.shape[0] == 0:
-        allp = planckian_uv(np.array([2700.0, 6500.0]))
+        allp = tf(planckian_uv(np.array([2700.0, 6500.0])))
     lo, hi = allp.min(axis=0), allp.max(axis=0)
-    span = max(float(np.max(hi - lo)), 0.012)
-    pad = 0.25 * span + 0.004
+    scale = 1.0 if diagram == "uv" else 1.6  # x, y spread about 1.6 times u, v near the locus
+    span = max(float(np.max(hi - lo)), 0.012 * scale)
+    pad = 0.25 * span + 0.004 * scale
     cu, cv = (lo + hi) / 2
     half = span / 2 + pad
     xlim = (cu - half * 1.45, cu + half * 1.45)
     ylim = (cv - half, cv + half)
 
     T_line = np.geomspace(1000.0, 25000.0, 600)  # the CCT range lumeval reports
-    locus = planckian_uv(T_line)
+    locus = tf(planckian_uv(T_line))
 
     fig = _new_figure(5.2)
     with _ctx():
@@ -363,15 +379,15 @@ def chromaticity_figure(
         ax.set_aspect("equal", adjustable="box")
         ax.plot(locus[:, 0], locus[:, 1], color=PALETTE["black"], lw=1.4, gid="planckian-locus", label="Planckian locus")
 
-        # Lines of constant Duv
-        step = _nice_step(ylim[1] - ylim[0])
+        # Lines of constant Duv (Duv is a distance in (u, v): the step follows the uv view)
+        step = _nice_step((ylim[1] - ylim[0]) / scale)
         duv_labelled = False
         p_l, n_l = locus_normal_uv(T_line)
         for d in np.arange(-0.05, 0.0501, step):
             d = round(float(d), 4)
             if d == 0:
                 continue
-            line = p_l + d * n_l
+            line = tf(p_l + d * n_l)
             ax.plot(line[:, 0], line[:, 1], color=PALETTE["grey"], lw=0.6, ls=(0, (4, 3)), gid=f"duv-{d:+.3f}",
                     label=None if duv_labelled else f"constant Duv (step {step:g})")
             duv_labelled = True
@@ -390,17 +406,19 @@ def chromaticity_figure(
         T_iso = np.asarray(ISOTEMPERATURES_K, dtype=float)
         p_i, n_i = locus_normal_uv(T_iso)
         ds = np.linspace(-0.05, 0.05, 41)
+        vt = ylim[0] + 0.03 * (ylim[1] - ylim[0])
         for T, p, nn in zip(T_iso, p_i, n_i):
-            seg = p[None, :] + ds[:, None] * nn[None, :]
+            seg = tf(p[None, :] + ds[:, None] * nn[None, :])
             ax.plot(seg[:, 0], seg[:, 1], color=PALETTE["grey"], lw=0.8, gid=f"isotemperature-{int(T)}",
                     label="isotemperature line" if T == T_iso[0] else None)
-            # label near the bottom of the view, where the line crosses it
-            vt = ylim[0] + 0.03 * (ylim[1] - ylim[0])
-            dd = (vt - p[1]) / nn[1]
-            q = p + dd * nn
-            if xlim[0] < q[0] < xlim[1] and abs(dd) <= 0.05:
-                ax.text(q[0], q[1], f"{int(T)} K", fontsize=6.5, ha="center", va="bottom", color="#333333",
-                        bbox={"fc": "white", "ec": "none", "pad": 0.5}, clip_on=True)
+            # label near the bottom of the view, where the (straight) line crosses it
+            a, b = seg[0], seg[-1]
+            if b[1] != a[1]:
+                t = (vt - a[1]) / (b[1] - a[1])
+                q = a + t * (b - a)
+                if 0.0 <= t <= 1.0 and xlim[0] < q[0] < xlim[1]:
+                    ax.text(q[0], q[1], f"{int(T)} K", fontsize=6.5, ha="center", va="bottom", color="#333333",
+                            bbox={"fc": "white", "ec": "none", "pad": 0.5}, clip_on=True)
 
         # Regions
         hatches = ("////", "\\\\\\\\", "xxxx", "....")
@@ -422,19 +440,19 @@ def chromaticity_figure(
             m = mask.astype(bool) & fin
             if m.any():
                 style = {"ms": ms, "mew": 0.8, "ls": "none", **style}
-                ax.plot(u[m], v[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5,
+                ax.plot(pu[m], pv[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5,
                         rasterized=bool(fin.sum() > RASTER_POINTS), **style)
         if labels is not None and 1 <= n <= 6:
-            _label_points(ax, u, v, fin, labels, xlim, ylim)
+            _label_points(ax, pu, pv, fin, labels, xlim, ylim)
 
         if show_centroid is None:
             show_centroid = int(fin.sum()) >= 2
         if show_centroid and fin.any():
-            c = np.array([u[fin].mean(), v[fin].mean()])
+            c = np.array([pu[fin].mean(), pv[fin].mean()])
             ax.plot([c[0]], [c[1]], marker="P", ms=10, mfc="white", mec=PALETTE["black"], mew=1.5, ls="none",
-                    gid="centroid", zorder=6, label="centroid (mean u, v)")
+                    gid="centroid", zorder=6, label=f"centroid (mean {'u, v' if diagram == 'uv' else 'x, y'})")
             if fin.sum() >= 3:
-                cov = np.cov(np.stack([u[fin], v[fin]]))
+                cov = np.cov(np.stack([pu[fin], pv[fin]]))
                 w, vec = np.linalg.eigh(cov)
                 w = np.clip(w, 0, None)
                 ang = np.degrees(np.arctan2(vec[1, 1], vec[0, 1]))
@@ -444,14 +462,65 @@ def chromaticity_figure(
 
         ax.set_xlim(*xlim)
         ax.set_ylim(*ylim)
-        ax.set_xlabel("u (CIE 1960 UCS)")
-        ax.set_ylabel("v (CIE 1960 UCS)")
+        if diagram == "uv":
+            ax.set_xlabel("u (CIE 1960 UCS)")
+            ax.set_ylabel("v (CIE 1960 UCS)")
+        else:
+            ax.set_xlabel("x (CIE 1931)")
+            ax.set_ylabel("y (CIE 1931)")
+            _xy_overview(fig, ax, Rectangle, xlim, ylim)
         ax.tick_params(labelsize=7)
         fig.legend(loc="outside lower center", ncols=3, frameon=False, fontsize=7)
         if title:
             ax.set_title(title, loc="left")
     return fig
 
+
+def spectrum_locus_xy() -> np.ndarray:
+    """The CIE 1931 spectrum locus (x, y) at 1 nm over 360-830 nm, shape (471, 2).
+
+    x = x̄/(x̄+ȳ+z̄), y = ȳ/(x̄+ȳ+z̄) of the CIE 1931 2° CMFs (CIE 15:2004 Table T.4, colour-science's
+    copy through :func:`lumeval.metrics.colorimetry.cmfs_at`)."""
+    from ..metrics.colorimetry import OBSERVER_2, cmfs_at
+
+    wl = np.arange(360.0, 831.0)
+    c = cmfs_at(wl, OBSERVER_2)
+    return c[:, :2] / c.sum(axis=1, keepdims=True)
+
+
+def _xy_overview(fig, ax, Rectangle, xlim, ylim) -> None:
+    """A small inset: the whole CIE 1931 diagram, the Planckian locus and the enlarged window."""
+    from ..metrics.colorimetry import planckian_uv, xy_from_uv
+
+    ins = ax.inset_axes((0.015, 0.64, 0.3, 0.34))
+    loc = spectrum_locus_xy()
+    closed = np.vstack([loc, loc[:1]])  # the purple line closes the locus
+    ins.plot(closed[:, 0], closed[:, 1], color=PALETTE["black"], lw=0.7, gid="spectrum-locus")
+    pl = xy_from_uv(planckian_uv(np.geomspace(1000.0, 25000.0, 200)))
+    ins.plot(pl[:, 0], pl[:, 1], color=PALETTE["grey"], lw=0.7, gid="overview-planckian-locus")
+    ins.add_patch(Rectangle((xlim[0], ylim[0]), xlim[1] - xlim[0], ylim[1] - ylim[0], fill=False,
+                            ec=PALETTE["vermillion"], lw=1.0, gid="overview-window"))
+    ins.set_xlim(-0.02, 0.78)
+    ins.set_ylim(-0.02, 0.88)
+    ins.set_aspect("equal", adjustable="box")
+    ins.set_xticks([])
+    ins.set_yticks([])
+    ins.set_facecolor("white")
+    for s in ins.spines.values():
+        s.set_visible(True)
+        s.set_color("#999999")
+        s.set_linewidth(0.6)
+    ins.text(0.5, 0.02, "whole diagram", transform=ins.transAxes, ha="center", va="bottom", fontsize=5.5,
+             color="#444444")
+
+
+def chromaticity_xy_figure(x, y, **kwargs):
+    """:func:`chromaticity_figure` drawn in CIE 1931 (x, y): same arguments, but the samples are
+    given as x, y (converted to (u, v) by CIE 15:2004 §8.1 and back for drawing)."""
+    from ..metrics.colorimetry import uv_from_xy
+
+    uv = uv_from_xy(np.stack([np.atleast_1d(np.asarray(x, float)), np.atleast_1d(np.asarray(y, float))], axis=-1))
+    return chromaticity_figure(uv[:, 0], uv[:, 1], diagram="xy", **kwargs)
 
 
 def _label_points(ax, u, v, fin, labels, xlim, ylim) -> None:
@@ -592,76 +661,10 @@ def cri_figure(R, Ra=None, *, limits: Mapping | None = None, title: str | None =
 
 
 def hue_bin_figure(Rcs_h, Rhs_h, Rf_h, *, limits: Mapping | None = None, title: str | None = None):
-    """The 16 hue bins of CIE 224:2017 / ANSI/IES TM-30 as three aligned panels.
+    """The 16 TM-30 hue bins as rows with inline bars: see :func:`lumeval.render.tm30_plots.hue_bin_figure`."""
+    from .tm30_plots import hue_bin_figure as draw
 
-    Top: local chroma shift Rcs,h (%), bars from zero. Middle: local hue shift Rhs,h (rad),
-    bars from zero. Bottom: local fidelity Rf,h, dots joined by a thin line. Bins are labelled
-    h1..h16 with their hue-angle range (22.5° each, bin 1 starting at 0°, TM-30-18 §4.3).
-    Several rows (a lot) show the median with min–max whiskers. ``limits`` keys
-    ``Rcs_h<j>``, ``Rhs_h<j>``, ``Rf_h<j>`` draw ticks as in :func:`cri_figure`.
-
-    Parameters
-    ----------
-    Rcs_h, Rhs_h, Rf_h : array_like, shape (16,) or (N, 16)
-    """
-    data = [
-        ("Rcs_h", np.atleast_2d(np.asarray(Rcs_h, dtype=float)), "chroma shift\nRcs,h (%)", PALETTE["blue"]),
-        ("Rhs_h", np.atleast_2d(np.asarray(Rhs_h, dtype=float)), "hue shift\nRhs,h (rad)", PALETTE["purple"]),
-        ("Rf_h", np.atleast_2d(np.asarray(Rf_h, dtype=float)), "local fidelity\nRf,h", PALETTE["green"]),
-    ]
-    x = np.arange(1, 17)
-    fig = _new_figure(5.0)
-    with _ctx():
-        axes = fig.subplots(3, 1, sharex=True)
-        for ax, (key, arr, ylabel, col) in zip(axes, data):
-            mid, rng = _summary(arr)
-            fin = np.isfinite(mid)
-            if key == "Rf_h":
-                ax.plot(x[fin], mid[fin], color=col, lw=0.8, marker="o", ms=5, mec="black", mew=0.6, gid=f"{key}-values")
-                top = np.nanmax(rng[1]) if rng is not None and np.any(np.isfinite(rng[1])) else 100.0
-                bottom = np.nanmin(rng[0] if rng is not None else mid) if np.any(fin) else 0.0
-                ax.set_ylim(min(50.0, np.floor(bottom / 10) * 10 if np.isfinite(bottom) else 50.0), max(100.0, top) + 4)
-            else:
-                bars = ax.bar(x[fin], mid[fin], width=0.7, color=col, ec="black", lw=0.5)
-                for j, patch in zip(x[fin], bars):
-                    patch.set_gid(f"{key}-values-h{j}")
-                ax.axhline(0, color="black", lw=0.7)
-                m = np.nanmax(np.abs(np.concatenate([mid[fin], *(r[np.isfinite(r)] for r in (rng or ()))]))) if np.any(fin) else 0.0
-                floor = 20.0 if key == "Rcs_h" else 0.2
-                base = max(floor, 1.15 * m)
-                lims = [abs(v) for j in range(16) for v in _limit_of(limits, f"{key}{j + 1}") if v is not None]
-                lim = max([base, *(1.15 * v for v in lims if v <= 5 * base)])
-                ax.set_ylim(-lim, lim)
-            if rng is not None:
-                ok = fin & np.isfinite(rng[0])
-                ax.errorbar(x[ok], mid[ok], yerr=[mid[ok] - rng[0][ok], rng[1][ok] - mid[ok]], fmt="none",
-                            ecolor="black", elinewidth=0.8, capsize=2, gid=f"{key}-whiskers")
-            for j in range(16):
-                lo, hi = _limit_of(limits, f"{key}{j + 1}")
-                y0, y1 = ax.get_ylim()
-                for lim_v, sym in ((lo, "≥"), (hi, "≤")):
-                    if lim_v is not None and not y0 <= lim_v <= y1:
-                        _off_scale_label(ax, x[j] + 0.47, y0, y1, lim_v, f"{sym}{lim_v:g}", fontsize=6)
-                    elif lim_v is not None:
-                        ax.plot([x[j] - 0.45, x[j] + 0.45], [lim_v, lim_v], color="black", lw=2.2,
-                                gid=f"limit-{key}{j + 1}-{'min' if sym == '≥' else 'max'}")
-                        ax.text(x[j] + 0.47, lim_v, f"{sym}{lim_v:g}", fontsize=6, va="center")
-            if not np.all(fin):
-                for j in np.flatnonzero(~fin):
-                    ax.text(x[j], 0.5, "n/a", transform=ax.get_xaxis_transform(), ha="center", fontsize=6)
-            ax.set_ylabel(ylabel, fontsize=8)
-            ax.grid(axis="y", color="#dddddd", lw=0.5)
-            ax.set_axisbelow(True)
-        axes[-1].set_xticks(x, [f"h{j}" for j in x], fontsize=7)
-        axes[-1].set_xlabel("hue bin j: CAM02-UCS hue angles (j−1)·22.5° to j·22.5°", fontsize=7.5)
-        axes[-1].set_xlim(0.4, 16.6)
-        n = data[0][1].shape[0]
-        note = "values per hue bin" if n == 1 else f"median of {n}, whiskers: min–max"
-        axes[0].text(0.0, 1.02, note, transform=axes[0].transAxes,
-                     fontsize=6.5, va="bottom", color="#444444")
-        if title:
-            axes[0].set_title(title, loc="left", pad=12)
-    return fig
+    return draw(Rcs_h, Rhs_h, Rf_h, limits=limits, title=title)
 
 
 # --------------------------------------------------------------------------- lot distributions

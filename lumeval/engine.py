@@ -18,6 +18,7 @@ Nothing here prints, reads files or knows about terminals.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import warnings as _warnings
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
@@ -27,6 +28,8 @@ import numpy as np
 from .spectra.model import SpectrumSet
 
 if TYPE_CHECKING:  # pragma: no cover
+    from .metrics.absolute import AbsoluteResult
+    from .metrics.classify import ChromaticityClass
     from .metrics.colorimetry import CCTResult
     from .metrics.cri import CRIResult
     from .metrics.photometry import PhotometryResult
@@ -147,6 +150,35 @@ class Evaluation:
             f"{OUTSIDE_VALIDITY}: |Duv| = {abs(float(self.duv[i])):.4f} > 0.05, computed against the reference "
             f"at the nearest Planckian temperature {float(self.reference_cct_K[i]):.0f} K (CIE 15:2004 §9.5)."
         )
+
+    # Figures derived from the ones above on first use (cheap, vectorised): computed lazily so
+    # that runs which never report them (Monte Carlo draws, large lots) do not pay for them.
+
+    @functools.cached_property
+    def chromaticity_class(self) -> ChromaticityClass:
+        """ANSI C78.377-2017 category (containing or nearest, with the signed Δu'v') and SDCM
+        steps from the nearest IEC 60081 centre (:func:`lumeval.metrics.classify.classify`)."""
+        from .metrics.classify import classify
+
+        return classify(np.stack([self.x, self.y], axis=-1), np.stack([self.u_prime, self.v_prime], axis=-1))
+
+    @functools.cached_property
+    def Re(self) -> np.ndarray:
+        """Mean of R1..R14, shape (N,) (:func:`lumeval.metrics.classify.extended_rendering_index`)."""
+        from .metrics.classify import extended_rendering_index
+
+        return extended_rendering_index(self.cri.R)
+
+    @functools.cached_property
+    def absolute(self) -> AbsoluteResult:
+        """Illuminance or luminance and melanopic EDI or EDL where the data are absolute spectral
+        irradiance or radiance (:func:`lumeval.metrics.absolute.absolute_photometry`; the unit is
+        read from each spectrum's reader metadata by :func:`lumeval.spectra.units.quantity_of`)."""
+        from .metrics.absolute import absolute_photometry
+        from .spectra.units import quantity_of
+
+        return absolute_photometry(self.XYZ[:, 1], self.photometry.melanopic_der,
+                                   [quantity_of(m) for m in self.spectra.metadata])
 
     def figure(self, name: str) -> np.ndarray:
         """The figure ``name`` (a name or alias of :mod:`lumeval.figures`) as an array of shape (N,);

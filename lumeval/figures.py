@@ -22,7 +22,8 @@ A row (:class:`Figure`) says
 * ``read``: how to read it from an :class:`~lumeval.engine.Evaluation` (an (N,) array);
 * ``json_path``: where it sits in the per-spectrum JSON object;
 * ``summary``: whether reports list it among the key figures; ``csv``: whether the
-  per-spectrum CSV has a column for it.
+  per-spectrum CSV has a column for it; ``when_defined``: a key figure that human reports
+  list only when some spectrum has it (absolute quantities, which relative data lack);
 
 Adding a metric is one function in ``lumeval/metrics/`` plus one :func:`register` call here
 (see DEVELOPERS.md, "How to add a metric"). The module imports nothing heavy: ``lumeval
@@ -67,6 +68,7 @@ class Figure:
     json_path: tuple[str | int, ...] = ()
     summary: bool = False
     csv: bool = True
+    when_defined: bool = False
 
     def __post_init__(self) -> None:
         if self.group not in GROUPS:
@@ -368,4 +370,50 @@ register(Figure("melanopic_der", "melanopic DER", "photometry",
 register(Figure("peak_nm", "peak wavelength", "photometry", "peak wavelength of the spectrum",
                 "common practice", _sub("photometry", "peak_nm"), unit="nm", decimals=0,
                 aliases=("peak wavelength", "peak"), summary=True))
+
+# Figures practitioners look for beside the standard ones (lumeval.metrics.classify and
+# lumeval.metrics.absolute; read lazily from the Evaluation).
+_ANSI = "ANSI C78.377-2017 basic categories (lumeval.criteria.regions); Δu′v′ in CIE 1976 (u′, v′)"
+register(Figure("ansi_category_K", "ANSI category", "chromaticity",
+                "nominal CCT of the ANSI C78.377-2017 category whose quadrangle contains the chromaticity (or the "
+                "nearest one)", _ANSI, lambda ev: ev.chromaticity_class.ansi_nominal_K, unit="K", decimals=0,
+                aliases=("ANSI category", "ANSI C78.377 category"), json_path=("ansi_c78377", "category_K")),
+         after="duv")
+register(Figure("ansi_distance_upvp", "distance outside the ANSI category", "chromaticity",
+                "Δu′v′ from the chromaticity to the nearest ANSI C78.377-2017 quadrangle (0 inside)", _ANSI,
+                lambda ev: _outside(ev.chromaticity_class.ansi_margin_upvp), decimals=4,
+                aliases=("ANSI distance",), json_path=("ansi_c78377", "distance_upvp")), after="ansi_category_K")
+register(Figure("sdcm_steps", "SDCM steps", "chromaticity",
+                "SDCM (MacAdam) steps from the nearest IEC 60081 colour centre (F2700 ... F6500)",
+                "MacAdam (1942) quadratic form with IEC 60081 ellipses (lumeval.criteria.regions; secondary)",
+                lambda ev: ev.chromaticity_class.sdcm_steps, decimals=1, aliases=("SDCM", "MacAdam steps"),
+                json_path=("sdcm", "steps")), after="ansi_distance_upvp")
+register(Figure("Re", "Re", "colour rendering", "mean of the special colour rendering indices R1..R14 (Re)",
+                "mean of CIE 13.3-1995 R1..R14: common practice, no standard source", lambda ev: ev.Re, decimals=0,
+                aliases=("CRI Re",), json_path=("cri", "Re"), summary=True), after="Ra")
+_S026 = "CIE S 026/E:2018; Km = 683 lm/W (CIE 15:2004)"
+register(Figure("illuminance_lx", "illuminance", "photometry",
+                "illuminance E_v of spectral irradiance data (W/(m²·nm) and its multiples)", _S026,
+                lambda ev: ev.absolute.illuminance_lx, unit="lx", decimals=1, aliases=("illuminance", "Ev", "lux"),
+                summary=True, when_defined=True))
+register(Figure("luminance_cd_m2", "luminance", "photometry",
+                "luminance L_v of spectral radiance data (W/(sr·m²·nm) and its multiples)", _S026,
+                lambda ev: ev.absolute.luminance_cd_m2, unit="cd/m²", decimals=1, aliases=("luminance", "Lv"),
+                summary=True, when_defined=True))
+register(Figure("melanopic_edi_lx", "melanopic EDI", "photometry",
+                "melanopic equivalent daylight (D65) illuminance (melanopic EDI) of spectral irradiance data", _S026,
+                lambda ev: ev.absolute.melanopic_edi_lx, unit="lx", decimals=1,
+                aliases=("melanopic EDI", "mEDI", "m-EDI"), summary=True, when_defined=True))
+register(Figure("melanopic_edl_cd_m2", "melanopic EDL", "photometry",
+                "melanopic equivalent daylight (D65) luminance (melanopic EDL) of spectral radiance data", _S026,
+                lambda ev: ev.absolute.melanopic_edl_cd_m2, unit="cd/m²", decimals=1,
+                aliases=("melanopic EDL", "mEDL"), summary=True, when_defined=True))
 del _i, _j
+
+
+def _outside(margin):
+    """Distance outside a region from a signed margin (positive inside): 0 inside, NaN kept."""
+    import numpy as np
+
+    m = np.asarray(margin, dtype=float)
+    return np.where(m >= 0, 0.0, -m)

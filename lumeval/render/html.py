@@ -881,14 +881,22 @@ def _key_figures(groups: tuple[str, ...] | None = None) -> list:
 def _key_figure_tables(ev, names, order) -> list[str]:
     out = []
     for title, groups in KEY_FIGURE_TABLES:
-        figs = _key_figures(groups)
+        figs = [f for f in _key_figures(groups) if not (f.when_defined and not np.isfinite(f.value(ev)).any())]
         if not figs:
             continue
         vals = [f.value(ev) for f in figs]
+        heads = ["Spectrum"] + [f.heading for f in figs]
+        rows = [[_e(names[i])] + [_e(f.format(v[i])) for f, v in zip(figs, vals)] for i in order]
+        cc = getattr(ev, "chromaticity_class", None) if "chromaticity" in groups else None
+        if cc is not None:  # where the point sits among the standard categories, in words
+            from ..criteria.regions import ansi_edition_name
+            from .words import ansi_text, sdcm_text
+
+            heads += [f"{ansi_edition_name(cc.ansi_edition)} (Δu′v′ out)", "SDCM steps (nearest IEC centre)"]
+            for row, i in zip(rows, order):
+                row += [_e(ansi_text(cc, i)), _e(sdcm_text(cc, i))]
         out.append(f"<h3>{_e(title)}</h3>")
-        out.append(_table(["Spectrum"] + [f.heading for f in figs],
-                          [[_e(names[i])] + [_e(f.format(v[i])) for f, v in zip(figs, vals)] for i in order],
-                          numeric=[False] + [True] * len(figs)))
+        out.append(_table(heads, rows, numeric=[False] + [True] * (len(heads) - 1)))
     return out
 
 

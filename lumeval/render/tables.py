@@ -105,9 +105,27 @@ def spectrum_records(ev) -> list[dict]:
         rec.setdefault("cri", {})["reference"] = ev.cri.reference[i] if defined else None
         rec.setdefault("tm30", {})["reference"] = ev.tm30.reference[i] if defined else None
         rec["grid"] = _grid(ev.spectra.wavelengths(i))  # this spectrum's own computation grid
+        _put_class_and_scale(rec, ev, i)
         rec["warnings"] = list(ev.warnings[i])
         out.append(rec)
     return out
+
+
+def _put_class_and_scale(rec: dict, ev, i: int) -> None:
+    """The words beside the registry's numbers: the ANSI C78.377 edition and whether the point is
+    inside the category, the SDCM centre, and what absolute quantity the data are (if any)."""
+    from ..criteria.regions import ansi_edition_name
+
+    cc = getattr(ev, "chromaticity_class", None)
+    if cc is not None and "ansi_c78377" in rec:
+        ok = math.isfinite(float(cc.ansi_nominal_K[i]))
+        rec["ansi_c78377"]["edition"] = ansi_edition_name(cc.ansi_edition)
+        rec["ansi_c78377"]["inside"] = bool(cc.ansi_inside[i]) if ok else None
+    if cc is not None and "sdcm" in rec:
+        rec["sdcm"]["centre"] = f"IEC 60081 {cc.sdcm_centre[i]}" if cc.sdcm_centre[i] else None
+    ab = getattr(ev, "absolute", None)
+    if ab is not None:
+        rec["absolute_quantity"] = {"quantity": ab.quantity[i] or None, "unit": ab.unit_text[i] or None}
 
 
 def spectrum_record(ev, i: int) -> dict:

@@ -76,7 +76,7 @@ def _rows(ev, idx):
         if group in ("colour rendering", "fidelity") and any(outside[i] for i in idx):
             # shown only when a spectrum of this table lies outside (|Duv| > 0.05)
             rows.append((title, "validity", [validity(i) for i in idx]))
-        shown = [f for f in figs if f.summary]
+        shown = [f for f in figs if f.summary and not (f.when_defined and not np.isfinite(f.value(ev)[idx]).any())]
         names = [f.name for f in shown]
         done: set[str] = set()
         for f in shown:
@@ -92,6 +92,13 @@ def _rows(ev, idx):
             v = f.value(ev)
             rows.append((title, f.row_label, [f.format(v[i]) for i in idx]))
             done.add(f.name)
+        if group == "chromaticity" and hasattr(ev, "chromaticity_class"):
+            from ..criteria.regions import ansi_edition_name
+            from .words import ansi_text, sdcm_text
+
+            cc = ev.chromaticity_class
+            rows.append((title, f"{ansi_edition_name(cc.ansi_edition)} (Δu′v′ out)", [ansi_text(cc, i) for i in idx]))
+            rows.append((title, "SDCM steps (nearest IEC centre)", [sdcm_text(cc, i) for i in idx]))
         if group == "colour rendering":
             for lo, hi in ((1, 8), (10, 14)):
                 fs = [figures.FIGURES[f"R{k}"] for k in range(lo, hi + 1) if f"R{k}" in figures.FIGURES]

@@ -109,6 +109,19 @@ def test_report_renders_in_chromium(chromium, reports, which, tmp_path):
     for f in figs:
         assert f["width"] > 100 and f["height"] > 50, f
         assert f["drawn"] > 20, f
+    # the CIE 1931 diagram, the Rf-Rg chart, the colour vectors and the hue-bin rows are there and
+    # drawn at a readable size (at least half the 60 rem column)
+    keys = {f["key"]: f for f in figs}
+    wanted = ["chromaticity", "chromaticity-xy", "fidelity-gamut"]
+    if which == "check":
+        wanted += [k for k in keys if k.startswith(("colour-vectors-0", "hue-bins-0"))]
+        assert sum(k.startswith("colour-vectors-0") for k in keys) == len(result.names)
+        assert "Design intents (ANSI/IES TM-30-20 Annex E)" in text
+    else:
+        wanted += ["colour-vectors-lot", "hue-bins-lot"]
+    for k in wanted:
+        assert k in keys, (k, sorted(keys))
+        assert keys[k]["width"] > 400 and keys[k]["height"] > 250, keys[k]
     # verdicts as text, in words and symbols
     assert "✗ FAIL" in text and "✓ PASS" in text
     assert ("FAIL" in text) == (result.overall == "fail")

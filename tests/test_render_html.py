@@ -257,12 +257,14 @@ def test_undefined_figures_render_as_na(colour, tmp_path):
     text = p.read_text(encoding="utf-8")
     import html5lib  # a test dependency (pyproject [test]): fail, never skip, when it is missing
     html5lib.HTMLParser(strict=True).parse(text)
-    chrom_row, render_row = re.findall(r"<tr><td>blue</td>(.*?)</tr>", text)
-    assert chrom_row.count("n/a") == 2  # CCT and Duv: nearest the locus beyond its table
-    assert render_row.count("n/a") == 4  # Ra, R9, Rf, Rg need a reference
+    chrom_row, render_row, phot_row = re.findall(r"<tr><td>blue</td>(.*?)</tr>", text)
+    assert chrom_row.count("n/a") == 2  # CCT and Duv: nearest the locus beyond its table (the nearest
+    # ANSI category and the SDCM steps are still defined)
+    assert render_row.count("n/a") == 5  # Ra, Re, R9, Rf, Rg need a reference
+    assert phot_row.count("n/a") == 0
     assert "CCT undefined" in text  # the engine's reason travels into the notes
-    chrom_row, render_row = re.findall(r"<tr><td>green</td>(.*?)</tr>", text)
-    assert chrom_row.count("n/a") == 1 and render_row.count("n/a") == 0
+    chrom_row, render_row, phot_row = re.findall(r"<tr><td>green</td>(.*?)</tr>", text)
+    assert chrom_row.count("n/a") == 1 and render_row.count("n/a") == 0 and phot_row.count("n/a") == 0
     assert "OUTSIDE THE VALIDITY RANGE" in text
     figs = H.report_figures(ev)
     spd_blue = [f for f in figs if f.key.startswith("spd-01")][0].figure

@@ -867,7 +867,8 @@ def _judged_decimals(figure: str) -> tuple[int, bool] | None:
 #: figures (``summary=True``) of those groups, with its labels, units and number formats.
 KEY_FIGURE_TABLES: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("Chromaticity (CIE 1931 2°)", ("chromaticity",)),
-    ("Colour rendering and photometry", ("colour rendering", "fidelity", "photometry")),
+    ("Colour rendering and fidelity", ("colour rendering", "fidelity")),
+    ("Photometry", ("photometry",)),
 )
 
 
@@ -896,7 +897,8 @@ def _key_figure_tables(ev, names, order) -> list[str]:
             for row, i in zip(rows, order):
                 row += [_e(ansi_text(cc, i)), _e(sdcm_text(cc, i))]
         out.append(f"<h3>{_e(title)}</h3>")
-        out.append(_table(heads, rows, numeric=[False] + [True] * (len(heads) - 1)))
+        # the two phrases may wrap (numbers never do)
+        out.append(_table(heads, rows, numeric=[False] + [True] * len(figs) + [False] * (len(heads) - 1 - len(figs))))
     return out
 
 
@@ -1141,7 +1143,8 @@ def render_html_report(
         order = list(range(n))
     key.extend(_key_figure_tables(ev, names, order))
     key.append('<p class="sub">' + _e(" ".join(f"{f.label}: {f.description} ({f.source})." for f in _key_figures()
-                                               if f.group != "chromaticity"))
+                                               if f.group != "chromaticity"
+                                               and not (f.when_defined and not np.isfinite(f.value(ev)).any())))
                + " n/a: undefined for that spectrum (see the notes).</p>")
     key.append("</section>")
 

@@ -119,3 +119,21 @@ def test_radiance_gives_luminance_and_edl_and_relative_gives_nothing(colour):
     assert np.isnan(res.illuminance_lx[:2]).all() and np.isnan(res.luminance_cd_m2[1:]).all()
     # a file in mW is a thousand times smaller in W
     np.testing.assert_allclose(res.illuminance_lx[2], res.luminance_cd_m2[0] * 1e-3, rtol=1e-12)
+
+
+def test_photometric_scale_uncertainty_reaches_illuminance_only():
+    # A common factor with relative standard uncertainty u_r scales illuminance and melanopic EDI
+    # by the same factor: u(E_v)/E_v = u_r (GUM, JCGM 100:2008 §5.1, a linear model), while the
+    # ratios do not move. 400 draws: the relative standard error of a standard deviation is
+    # 1/sqrt(2·400) = 3.5 %, so 0.05 is checked to ±15 %.
+    from lumeval.spectra.model import SpectrumSet
+    from lumeval.uncertainty import InstrumentModel, MonteCarloSettings, propagate
+
+    wl = np.arange(380.0, 781.0, 1.0)
+    s = 1e-3 * (np.exp(-0.5 * ((wl - 450) / 10) ** 2) + 0.8 * np.exp(-0.5 * ((wl - 590) / 60) ** 2))
+    meta = ({"lumeval.scale": "absolute", "lumeval.value_unit": "W/(m²·nm)"},)
+    res = propagate(SpectrumSet(wl, s[None], ("t",), ("t",), metadata=meta), InstrumentModel(0, 0, 0, 0, 0.05, 0),
+                    MonteCarloSettings(draws=400, seed=5), figures=("illuminance_lx", "melanopic_edi_lx", "Ra"))
+    rel = res.u[0] / res.measured[0]
+    np.testing.assert_allclose(rel[:2], 0.05, rtol=0.15)
+    assert rel[2] < 1e-9

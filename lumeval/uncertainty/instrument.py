@@ -77,9 +77,9 @@ class InstrumentModel:
     photometric_scale : float
         Relative standard uncertainty of the absolute radiometric scale (the calibration
         lamp's certificate, sphere responsivity). It multiplies the whole spectrum by one
-        factor, so it changes only absolute figures (lux, lumens, W); every figure lumeval
-        judges today (chromaticity, CCT, Duv, CRI, TM-30, LER, S/P, DER, peak) is a ratio and
-        is unaffected. Typical 0.02-0.05 (common practice, no source). Default 0.02.
+        factor, so it changes only the absolute figures (illuminance or luminance, melanopic
+        EDI or EDL, for data in absolute units); every other figure (chromaticity, CCT, Duv,
+        CRI, TM-30, LER, S/P, DER, peak) is a ratio and is unaffected. Typical 0.02-0.05 (common practice, no source). Default 0.02.
     stray_light : float
         Half-width of a rectangular distribution of residual stray light, as a fraction of the
         spectrum's peak, taken as flat across wavelength (in single-grating array instruments

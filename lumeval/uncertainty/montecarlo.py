@@ -364,12 +364,13 @@ def _engine(spectra, chunk_size=_CHUNK):
     return evaluate(spectra, chunk_size=chunk_size, keep_details=False)
 
 
-def _evaluate_values(wl, values, evaluate_fn, names_f, extra, chunk):
+def _evaluate_values(wl, values, evaluate_fn, names_f, extra, chunk, metadata=None):
     m = values.shape[0]
     labels = ("draw",) * m
     # drawn from a prepared spectrum, on its computation grid: evaluated as they are (preparing
-    # them again would treat kept interpolation overshoot as measured noise)
-    ss = SpectrumSet(wl, values, labels, labels, prepared=True)
+    # them again would treat kept interpolation overshoot as measured noise); the draws keep the
+    # measured spectrum's metadata: its unit decides the absolute figures
+    ss = SpectrumSet(wl, values, labels, labels, metadata=(dict(metadata or {}),) * m, prepared=True)
     ev = evaluate_fn(ss) if evaluate_fn else _engine(ss, chunk)
     cols = _figures_of(ev, names_f)
     if extra is not None:
@@ -440,9 +441,15 @@ def propagate(
 
     instrument = instrument or InstrumentModel()
     settings = settings or MonteCarloSettings()
-    names_f = tuple(figures) if figures else _figure_names()
     if evaluation is None:
         evaluation = evaluate_fn(spectra) if evaluate_fn else _engine(spectra, chunk_size)
+    if figures:
+        names_f = tuple(figures)
+    else:  # every figure, except those only absolute data have when no spectrum has them
+        from ..figures import FIGURES
+
+        names_f = tuple(n for n in _figure_names()
+                        if not (FIGURES[n].when_defined and not np.isfinite(FIGURES[n].value(evaluation)).any()))
     prepared = evaluation.spectra
     n = len(prepared)
 
@@ -467,7 +474,7 @@ def propagate(
 
         def run(m):
             vals = draw_spectra(wl, s_m, instrument, m, rng)
-            return _evaluate_values(wl, vals, evaluate_fn, names_f, extra, chunk_size)
+            return _evaluate_values(wl, vals, evaluate_fn, names_f, extra, chunk_size, prepared.metadata[i])
 
         if not settings.adaptive:
             # in blocks, so that memory stays bounded for large M (one (M, W) array of drawn

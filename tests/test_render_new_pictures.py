@@ -62,7 +62,7 @@ def test_overview_shows_the_cie_1931_spectrum_locus(xy_diagram, colour):
 def test_planckian_locus_in_xy_lies_on_an_independent_locus(xy_diagram, colour):
     cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
     wl = np.asarray(cmfs.wavelengths, float)
-    T = np.geomspace(950.0, 21000.0, 4000)
+    T = np.geomspace(950.0, 26000.0, 4000)
     XYZ = colour.colorimetry.planck_law(wl * 1e-9, T).T @ np.asarray(cmfs.values, float)
     ref = colour.XYZ_to_xy(XYZ)
     drawn = _lines(xy_diagram, "planckian-locus")["planckian-locus"]

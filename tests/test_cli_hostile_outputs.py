@@ -608,7 +608,8 @@ def test_huge_values_are_quoted_briefly_without_interpreter_advice(tmp_path, cap
     ):
         code, _, err = run(argv, capsys)
         one_error_line(code, err, *needles)
-        assert "set_int_max_str_digits" not in err and len(err) < 450, err
+        # brief: the 10,000-character value is cut to 80; the rest is the list of figure names
+        assert "set_int_max_str_digits" not in err and len(err) < 650, err
 
 
 def test_sigterm_during_a_real_lot_run_leaves_complete_outputs_or_none(tmp_path):

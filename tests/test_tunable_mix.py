@@ -191,3 +191,27 @@ def test_bad_channels():
         mix(channels(WARM), np.array([3000.0]))
     with pytest.raises(InputError, match="both named"):
         mix(channels(WARM, COOL, names=("a", "a")), np.array([3000.0]))
+
+
+def test_joined_channels_keep_interpolation_overshoot_and_are_not_prepared_again():
+    """Channels brought onto one grid keep Sprague's overshoot below zero as computed (rule of
+    docs/input-files.md: only measured negatives are noise); preparing or evaluating the joined
+    set must not clip it again. Truth: the joined values themselves (what went in)."""
+    import numpy as np
+    from numpy.testing import assert_allclose
+
+    from lumeval.spectra.model import SpectrumSet
+    from lumeval.spectra.prepare import prepare
+    from lumeval.tunable.api import join_grids
+
+    wl5 = np.arange(380.0, 781.0, 5.0)  # 5 nm stays 5 nm in prepare(); join_grids interpolates it
+    narrow = np.exp(-0.5 * ((wl5 - 450.0) / 2.0) ** 2) + 1e-3  # a narrow band sampled at 5 nm
+    wl1 = np.arange(380.0, 781.0, 1.0)
+    broad = np.exp(-0.5 * ((wl1 - 600.0) / 60.0) ** 2)
+    a = prepare(SpectrumSet(wl5, narrow[None, :], ("blue",), ("blue.csv",)))
+    b = prepare(SpectrumSet(wl1, broad[None, :], ("warm",), ("warm.csv",)))
+    joined = join_grids([a, b])
+    assert all(s.prepared for s in joined)
+    assert joined[0].values.min() < 0  # Sprague overshoot is there, as computed
+    again = prepare(joined[0])
+    assert_allclose(again.values, joined[0].values, rtol=0, atol=0)  # a copy: exact by construction

@@ -108,7 +108,8 @@ def join_grids(sets: list) -> list:
             for k in range(len(s)):
                 notes[k].append(f"EXTRAPOLATED: extended to {lo:g}-{hi:g} nm by repeating the end values (CIE 15:2004 "
                                 "§7.2.2.1) to share one grid with the other channels of the mix")
-        out.append(SpectrumSet(grid, vals, s.names, s.sources, tuple(tuple(x) for x in notes), s.metadata))
+        out.append(SpectrumSet(grid, vals, s.names, s.sources, tuple(tuple(x) for x in notes), s.metadata,
+                               prepared=True))
     return out
 
 

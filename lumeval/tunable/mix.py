@@ -359,7 +359,8 @@ class _Objective:
         self.calls += 1
         spec = W @ self.values
         n = spec.shape[0]
-        ss = SpectrumSet(self.wl, spec, tuple(f"c{i}" for i in range(n)), ("",) * n)
+        # mixes of prepared channels lie on their computation grid: not prepared (re-clipped) again
+        ss = SpectrumSet(self.wl, spec, tuple(f"c{i}" for i in range(n)), ("",) * n, prepared=True)
         fig = np.asarray(evaluate(ss, keep_details=False).figure(self.figure), dtype=float)
         return np.where(np.isfinite(fig), fig, -np.inf)
 
@@ -527,7 +528,7 @@ def mix(
         src = tuple("mix: " + ", ".join(f"{c} × {w:.4f}" for c, w in zip(channels.names, row)) for row in wr)
         chan_notes = tuple(dict.fromkeys(x for ns in channels.notes for x in ns))
         ss = SpectrumSet(channels.wavelengths_nm, wr @ channels.values, names, src,
-                         tuple(chan_notes for _ in names), tuple({} for _ in names))
+                         tuple(chan_notes for _ in names), tuple({} for _ in names), prepared=True)
         ev = evaluate(ss)
     return MixResult(channels, targets, tduv, reach, reasons, W, ev, index, fig, method, tuple(run_notes))
 

@@ -198,7 +198,10 @@ def colour_vector_figure(ref_unit, test, *, Rcs_h=None, title: str | None = None
             ax.plot(dots[ok, 0], dots[ok, 1], ls="none", marker="o", ms=1.8, color="#8c8c8c", gid="lot-points", zorder=2)
         fin = np.all(np.isfinite(r_mid), axis=1) & np.all(np.isfinite(t_mid), axis=1)
         for j in np.flatnonzero(fin):
-            gain = float(np.hypot(*t_mid[j])) >= float(np.hypot(*r_mid[j]))
+            # gained or lost as the printed Rcs,h says (TM-30: the shift along the bin's bisector);
+            # without Rcs,h, by the distance from the centre
+            gain = (cs[j] >= 0) if cs is not None and np.isfinite(cs[j]) else \
+                float(np.hypot(*t_mid[j])) >= float(np.hypot(*r_mid[j]))
             arr = FancyArrowPatch(tuple(r_mid[j]), tuple(t_mid[j]), arrowstyle="-|>", mutation_scale=9,
                                   color=PALETTE["blue"] if gain else PALETTE["vermillion"], lw=1.4,
                                   ls="-" if gain else (0, (3, 1.5)), shrinkA=2.5, shrinkB=0, zorder=4,

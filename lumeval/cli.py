@@ -36,7 +36,7 @@ app = typer.Typer(
         "photobiological, flicker or electrical safety judgement."
     ),
     no_args_is_help=True,
-    add_completion=False,
+    add_completion=True,
     pretty_exceptions_enable=False,
     rich_markup_mode=None,
     context_settings={"help_option_names": ["-h", "--help"]},
@@ -45,11 +45,69 @@ app = typer.Typer(
 _state = {"debug": False}
 
 
+def _version(value: bool) -> None:
+    if value:
+        from . import __version__
+
+        typer.echo(f"lumeval {__version__}")
+        raise typer.Exit()
+
+
 @app.callback()
 def _root(
     debug: bool = typer.Option(False, "--debug", help="Show a traceback for errors (for bug reports)."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written (any command)."),
+    version: bool = typer.Option(False, "--version", help="Print lumeval's version and stop.", callback=_version,
+                                 is_eager=True),
 ) -> None:
     _state["debug"] = debug
+    from .commands._announce import reset_quiet
+
+    reset_quiet(quiet)  # each run starts from its own options (the API may run several in one process)
+
+
+#: Words for the value an option takes in ``--help`` (the parser would print Python type names
+#: such as ``<list[Path]>``, ``<int>``); None: nothing (the argument's name says it).
+_HELP_WORDS = {"path": "PATH", "int": "N", "float": "NUMBER", "text": "TEXT", "str": "TEXT"}
+
+
+def _plain_help_types() -> None:
+    """Help text without Python type names: values as PATH, N, NUMBER, TEXT or the choices;
+    arguments in the usage line as FILES... / [OUTPUT] (upper case, no braces)."""
+    import re
+
+    core = getattr(typer, "core", None)
+    for cls_name in ("TyperArgument", "TyperOption"):
+        cls = getattr(core, cls_name, None)
+        if cls is None or not hasattr(cls, "display_type") or getattr(cls, "_lumeval_plain", False):
+            continue
+        original = cls.display_type
+
+        def display_type(self, ctx, _original=original, _argument=cls_name == "TyperArgument"):
+            label = _original(self, ctx) or ""
+            inner = label[1:-1] if label.startswith("<") and label.endswith(">") else label
+            if inner.startswith("list[") or (_argument and inner in _HELP_WORDS):
+                return ""
+            if inner in _HELP_WORDS:
+                return _HELP_WORDS[inner]
+            if "|" in inner or re.fullmatch(r"[a-z0-9_-]+", inner) is None:
+                return inner
+            return inner.upper()
+
+        cls.display_type = display_type
+        if hasattr(cls, "display_type_rich"):
+            cls.display_type_rich = lambda self, ctx: self.display_type(ctx)
+        if cls_name == "TyperArgument" and hasattr(cls, "_usage_display_name"):
+            def usage_name(self):
+                name = self.display_name_raw.upper()
+                name = name if self.required else f"[{name}]"
+                return name + ("..." if self.nargs != 1 else "")
+
+            cls._usage_display_name = usage_name
+        cls._lumeval_plain = True
+
+
+_plain_help_types()
 
 
 for _name in _COMMAND_MODULES:

@@ -262,7 +262,7 @@ def test_far_off_limits_do_not_break_the_report_figures(work, capsys, limit):
     tmp, spd, crit, _ = work
     crit.write_text("lumeval_criteria = 1\n" + "".join(
         f'[[clause]]\nid = "{f}"\nfigure = "{f}"\n{limit}\n' for f in ("Ra", "R9", "Rcs_h1", "Rf_h3")), encoding="utf-8")
-    code, _, err = run(["check", spd, "-c", crit, "--html", tmp / "r.html", "--plots", tmp / "p"], capsys)
+    code, _, err = run(["check", spd, "-c", crit, "--html", tmp / "r.html", "--plots", tmp / "p", "--quiet"], capsys)
     assert code in (0, 1) and err == "", err
     assert (tmp / "r.html").stat().st_size > 0
     code, _, err = run(["lot", spd, spd.parent, "-q", "-c", crit, "--html", tmp / "lot.html"], capsys)
@@ -298,7 +298,7 @@ def test_names_outside_the_plot_font_keep_stderr_clean(work, capsys):
     # a subprocess: inside pytest, warnings are recorded by pytest instead of printed
     exe = Path(sys.executable).with_name("lumeval")
     cmd = [str(exe)] if exe.exists() else [sys.executable, "-m", "lumeval"]
-    proc = subprocess.run([*cmd, "inspect", str(named), "--html", str(tmp / "r.html"), "--plots", str(tmp / "p")],
+    proc = subprocess.run([*cmd, "inspect", str(named), "--html", str(tmp / "r.html"), "--plots", str(tmp / "p"), "--quiet"],
                           capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0 and proc.stderr == "", proc.stderr
     assert "照明 名前 «été»" in (tmp / "r.html").read_text(encoding="utf-8")

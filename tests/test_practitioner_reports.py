@@ -60,3 +60,102 @@ def test_lot_report_puts_lot_figures_and_outliers_before_per_sample_tables(tmp_p
     # the demo lot's planted outliers are named in the lot section, before the charts
     lot_sec = text[text.index('id="lot"'):text.index('id="charts"')]
     assert re.search(r"Outlier: AD30-w48-\d{3} \(", lot_sec)
+
+
+# ----------------------------------------------------------------- CLI conventions
+
+COMMANDS = ["inspect", "convert", "check", "claims", "lot", "criteria new", "criteria explain", "mix", "series",
+            "history list", "history trend"]
+
+
+def test_version_prints_the_package_version():
+    import lumeval
+
+    r = run_cli("--version")
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.strip() == f"lumeval {lumeval.__version__}"  # exact by construction
+
+
+def test_help_has_no_python_type_names_and_offers_completion():
+    top = run_cli("--help")
+    assert "--install-completion" in top.stdout and "--version" in top.stdout
+    for cmd in COMMANDS:
+        r = run_cli(*cmd.split(), "--help")
+        assert r.returncode == 0, (cmd, r.stderr)
+        for bad in ("<list[", "<path>", "<int>", "<float>", "<text>", "<str>", "list[Path]", "{files}"):
+            assert bad not in r.stdout, (cmd, bad)
+
+
+def test_one_meaning_per_short_option_across_commands():
+    import typer.main
+
+    from lumeval.cli import app
+
+    meaning: dict[str, set[str]] = {}
+
+    def walk(cmd):
+        for p in getattr(cmd, "params", ()):
+            longs = [o for o in p.opts if o.startswith("--")]
+            for s in (o for o in p.opts if len(o) == 2 and o.startswith("-")):
+                meaning.setdefault(s, set()).update(longs)
+        for sub in getattr(cmd, "commands", {}).values():
+            walk(sub)
+
+    walk(typer.main.get_command(app))
+    assert meaning["-c"] == {"--criteria"}
+    clash = {s: m for s, m in meaning.items() if len(m) > 1}
+    assert not clash, clash
+
+
+def test_written_files_are_announced_unless_quiet(tmp_path):
+    spd = DEMO / "downlights" / "candidate_A_aurora_3000K.csv"
+    crit = DEMO / "tender_criteria.toml"
+    r = run_cli("check", spd, "-c", crit, "--html", tmp_path / "a.html", "-o", tmp_path / "a.txt")
+    assert r.returncode in (0, 1), r.stderr
+    assert f"HTML report written to {tmp_path / 'a.html'}" in r.stderr
+    assert f"report written to {tmp_path / 'a.txt'}" in r.stderr
+    assert r.stdout == ""
+    q = run_cli("check", spd, "-c", crit, "--html", tmp_path / "b.html", "--quiet")
+    assert (tmp_path / "b.html").is_file() and "written to" not in q.stderr
+    q2 = run_cli("--quiet", "check", spd, "-c", crit, "--html", tmp_path / "c.html")
+    assert (tmp_path / "c.html").is_file() and "written to" not in q2.stderr
+    c = run_cli("convert", spd, tmp_path / "a.json")
+    assert c.returncode == 0 and f"1 spectrum written to {tmp_path / 'a.json'}" in c.stderr
+
+
+def test_inspect_output_option_writes_what_it_would_print(tmp_path):
+    spd = DEMO / "downlights" / "candidate_A_aurora_3000K.csv"
+    shown = run_cli("inspect", spd, "-f", "csv")
+    r = run_cli("inspect", spd, "-f", "csv", "-o", tmp_path / "i.csv")
+    assert r.returncode == 0, r.stderr
+    assert r.stdout == "" and "report written to" in r.stderr
+    assert (tmp_path / "i.csv").read_text(encoding="utf-8") == shown.stdout
+    t = run_cli("inspect", spd, "--output", tmp_path / "i.txt")
+    assert t.returncode == 0 and "Cautions" in (tmp_path / "i.txt").read_text(encoding="utf-8")
+
+
+def test_claims_as_written_on_datasheets_and_claims_html(tmp_path, colour):
+    """CIE 15:2004 Table T.8.1 (secondary, shared/reference-values.md): FL8 has Ra 95 and CCT 5000 K,
+    FL4 Ra 51. Datasheet spellings are read; '>90' is supported for FL8 and contradicted for FL4."""
+    from .conftest import cie_illuminant
+
+    files = []
+    for name in ("FL8", "FL4"):
+        wl, s = cie_illuminant(colour, name)
+        p = tmp_path / f"{name}.csv"
+        p.write_text("wavelength_nm,value\n" + "".join(f"{w:g},{v!r}\n" for w, v in zip(wl, s)), encoding="utf-8")
+        files.append(p)
+    claims = tmp_path / "claims.toml"
+    claims.write_text('lumeval_claims = 1\n[claims]\nCRI = ">90"\nCCT = "5000K ± 200K"\nR9 = "≥ 0"\n', encoding="utf-8")
+    r = run_cli("claims", *files, "--claims", claims, "-f", "csv", "--html", tmp_path / "c.html")
+    assert r.returncode == 1, r.stderr  # FL4 contradicts the CRI claim
+    import csv
+    import io
+
+    got = {(row["spectrum"], row["claim"]): row["outcome"] for row in csv.DictReader(io.StringIO(r.stdout))}
+    assert got[("FL8", "CRI")] == "supported" and got[("FL4", "CRI")] == "contradicted"
+    assert got[("FL8", "CCT")] == "supported"
+    assert got[("FL8", "R9")] == "supported"
+    html = (tmp_path / "c.html").read_text(encoding="utf-8")
+    assert "FL8" in html and "FL4" in html and "CRI = &gt;90" in html
+    assert "HTML report written to" in r.stderr

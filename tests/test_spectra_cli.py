@@ -31,7 +31,7 @@ def run(argv, capsys):
 def test_convert_csv_to_xml_and_back(tmp_path, capsys):
     code, _, err = run(["convert", str(CORPUS / "metadata_block.csv"), str(tmp_path / "m.xml")], capsys)
     assert code == 0, err
-    assert "wrote 1 spectrum" in err
+    assert "1 spectrum written to" in err
     code, _, err = run(["convert", str(tmp_path / "m.xml"), str(tmp_path / "m.csv")], capsys)
     assert code == 0, err
     a = read_spectra(CORPUS / "metadata_block.csv")
@@ -89,7 +89,7 @@ def test_multi_spectrum_to_xml_needs_column(tmp_path, capsys):
     )
     assert code == 0, err
     assert read_spectra(tmp_path / "w.xml").names == ("Neutral 4000K",)
-    code, _, err = run(["convert", str(CORPUS / "wide_named.csv"), str(tmp_path / "x.xml"), "-c", "nope"], capsys)
+    code, _, err = run(["convert", str(CORPUS / "wide_named.csv"), str(tmp_path / "x.xml"), "--column", "nope"], capsys)
     assert code == 2 and "no spectrum named" in err
 
 

@@ -48,14 +48,17 @@ def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
     return criteria, ev, criteria.evaluate(ev)
 
 
-def emit(text: str, output: Path | None, option: str = "--output") -> None:
-    """Print ``text`` (``output`` None or ``-``) or write it atomically to ``output``."""
+def emit(text: str, output: Path | None, option: str = "--output", what: str = "report") -> None:
+    """Print ``text`` (``output`` None or ``-``) or write it atomically to ``output`` (and say
+    so on stderr unless --quiet)."""
     from .._io import is_stdout, write_text
+    from ._announce import announce
 
     if output is None or is_stdout(output):
         typer.echo(text, nl=False)
     else:
         write_text(output, text, option=option)
+        announce(what, output)
 
 
 def note_csv_cautions() -> None:
@@ -100,11 +103,15 @@ def register(app: typer.Typer) -> None:
         ),
         seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws (default: the instrument or criteria file's, else 1).", show_default=False),
         draws: int = typer.Option(None, "--draws", help="Monte Carlo draws per spectrum (default 2000).", show_default=False),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written."),
     ) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
         every requirement; 1: a requirement failed or is indeterminate under the decision rule
         (never a pass); 2: bad input."""
+        from ._announce import announce_outputs, set_quiet
         from ._targets import check_targets
+
+        set_quiet(quiet)
 
         dir_files = None
         if plots is not None:
@@ -117,8 +124,9 @@ def register(app: typer.Typer) -> None:
         if html is not None or plots is not None:
             from ..render.html import regions_from_criteria, write_outputs
 
-            write_outputs(ev, html=html, plots=plots, verdicts=result, regions=regions_from_criteria(crit),
-                          inputs=[*files, criteria], command="lumeval " + " ".join(sys.argv[1:]))
+            written = write_outputs(ev, html=html, plots=plots, verdicts=result, regions=regions_from_criteria(crit),
+                                    inputs=[*files, criteria], command="lumeval " + " ".join(sys.argv[1:]))
+            announce_outputs(written, html, plots)
         if output_format is OutputFormat.json:
             from ..render.verdicts import check_to_json
 

@@ -65,11 +65,16 @@ def register(app: typer.Typer) -> None:
                                    help="Input spectrum file (CSV/text, IES TM-27 XML, lumeval JSON) or Parquet archive (file or folder)."),
         dst: Path = typer.Argument(..., metavar="OUT", show_default=False,
                                    help="Output file: .csv, .xml (IES TM-27-14), .json (lumeval JSON) or .parquet (archive)."),
-        column: str = typer.Option(None, "--column", "-c", help="Convert only the spectrum with this name."),
+        column: str = typer.Option(None, "--column", help="Convert only the spectrum with this name."),
         force: bool = typer.Option(False, "--force", help="Replace the output file if it exists."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which file was written."),
     ) -> None:
         """Convert spectra between CSV, IES TM-27 XML, lumeval JSON and Parquet archives, keeping metadata."""
         n = convert_file(src, dst, column=column, force=force)
         from ..render.safe import clean
 
-        typer.echo(f"wrote {n} {'spectrum' if n == 1 else 'spectra'} to {clean(dst)}", err=True)
+        from ._announce import is_quiet, set_quiet
+
+        set_quiet(quiet)
+        if not is_quiet():
+            typer.echo(f"lumeval: {n} {'spectrum' if n == 1 else 'spectra'} written to {clean(dst)}", err=True)

@@ -213,9 +213,38 @@ def claims_files(paths, claims_path):
     from ..criteria import load_claims
     from .inspect import inspect_files
 
+    return run_claims(paths, claims_path)[1]
+
+
+def run_claims(paths, claims_path):
+    """(evaluation, result) for ``lumeval claims`` (see :func:`claims_files`)."""
+    from ..criteria import load_claims
+    from .inspect import inspect_files
+
     claims = load_claims(claims_path)
     ev = inspect_files(paths)
-    return claims.check(ev)
+    return ev, claims.check(ev)
+
+
+_CLAIM_OUTCOME = {"supported": "pass", "contradicted": "fail", "not checkable": "not judged"}
+
+
+def claims_verdict_rows(result) -> list[dict]:
+    """The claims judged, as verdict rows for the HTML report (supported: pass; contradicted:
+    fail, the margin being by how much; not checkable: not judged, with the reason)."""
+    rows = []
+    for r in result.results:
+        c = r.claim
+        for i, name in enumerate(result.names):
+            ex = float(r.excess[i])
+            rows.append({
+                "sample": name, "clause": f"{c.key} = {c.text}", "figure": c.figure or c.key,
+                "measured": float(r.measured[i]), "unit": r.unit, "limit": c.tolerance_note or c.text,
+                "lower": c.lower, "upper": c.upper,
+                "margin": ex if r.outcome[i] == "contradicted" else None,
+                "outcome": _CLAIM_OUTCOME.get(r.outcome[i], "not judged"), "reason": r.reason[i],
+            })
+    return rows
 
 
 def register(app: typer.Typer) -> None:
@@ -237,7 +266,7 @@ def register(app: typer.Typer) -> None:
 
         check_targets(files={"OUTPUT": output})
         refuse_existing(output, "OUTPUT", force=force)
-        emit(text, output, "OUTPUT")
+        emit(text, output, "OUTPUT", what="criteria file")
 
     @crit.command("explain")
     def explain_cmd(
@@ -249,7 +278,7 @@ def register(app: typer.Typer) -> None:
         from ._targets import check_targets
 
         check_targets(files={"--output": output}, inputs=[file])
-        emit(explain_markdown(load_criteria(file)), output)
+        emit(explain_markdown(load_criteria(file)), output, what="tender wording")
 
     app.add_typer(crit, name="criteria")
 
@@ -259,14 +288,29 @@ def register(app: typer.Typer) -> None:
         claims: Path = typer.Option(..., "--claims", help="Datasheet claims file (TOML; see docs/criteria.md).", show_default=False),
         output_format: OutputFormat = typer.Option(OutputFormat.terminal, "--format", "-f", help="terminal, json or csv."),
         output: Path = typer.Option(None, "--output", "-o", help="Write the report to this file instead of the screen."),
+        html: Path = typer.Option(None, "--html", help="Also write a self-contained HTML report to this file."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written."),
     ) -> None:
         """Check a supplier's datasheet claims against the supplier's own spectrum. Exit code 0:
         no claim contradicted; 1: a claim is contradicted; 2: bad input."""
+        import sys
+
+        from ._announce import announce, set_quiet
         from ._targets import check_targets, is_stdout
 
-        check_targets(files={"--output": output}, inputs=[*files, claims])
-        result = claims_files(files, claims)
+        set_quiet(quiet)
+        check_targets(files={"--output": output, "--html": html}, inputs=[*files, claims])
+        ev, result = run_claims(files, claims)
         from ..render import verdicts as rv
+
+        if html is not None:
+            from ..render.html import write_html_report
+
+            write_html_report(html, ev, verdicts=claims_verdict_rows(result), inputs=[*files, claims],
+                              title="Datasheet claims against the supplier's spectra",
+                              command="lumeval " + " ".join(sys.argv[1:]),
+                              overall="fail" if result.exit_code else None)
+            announce("HTML report", html)
 
         if output_format is OutputFormat.json:
             emit(rv.claims_to_json(result), output)

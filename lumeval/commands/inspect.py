@@ -42,8 +42,14 @@ def register(app: typer.Typer) -> None:
         ),
         html: Path = typer.Option(None, "--html", help="Also write a self-contained HTML report to this file."),
         plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
+        output: Path = typer.Option(None, "--output", "-o", help="Write the JSON/CSV/terminal text to this file instead of the screen."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written."),
     ) -> None:
         """Compute every colour-quality figure for each spectrum and print them."""
+        from ._announce import announce_outputs, set_quiet
+        from .check import emit, plain_text
+
+        set_quiet(quiet)
         if validate_only and (html is not None or plots is not None):
             from ..errors import UsageError
 
@@ -56,13 +62,13 @@ def register(app: typer.Typer) -> None:
             from ..render.html import PLOT_FILE_PATTERNS
 
             dir_files = {"--plots": PLOT_FILE_PATTERNS}
-        check_targets(files={"--html": html}, dirs={"--plots": plots}, dir_files=dir_files, inputs=files)
+        check_targets(files={"--html": html, "--output": output}, dirs={"--plots": plots}, dir_files=dir_files, inputs=files)
         if validate_only:
             from ..spectra.validate import render_validation, validate_files
 
             checks = validate_files(files)
             text = render_validation(checks, output_format.value)
-            typer.echo(text, nl=not text.endswith("\n"))
+            emit(text if text.endswith("\n") else text + "\n", output)
             failed = sum(not c.ok for c in checks)
             if failed:
                 from ..errors import InputError
@@ -75,19 +81,25 @@ def register(app: typer.Typer) -> None:
 
             from ..render.html import write_outputs
 
-            write_outputs(ev, html=html, plots=plots, inputs=list(files), command="lumeval " + " ".join(sys.argv[1:]))
+            written = write_outputs(ev, html=html, plots=plots, inputs=list(files),
+                                    command="lumeval " + " ".join(sys.argv[1:]))
+            announce_outputs(written, html, plots)
         if output_format is OutputFormat.json:
             from ..render.tables import to_json
 
-            typer.echo(to_json(ev), nl=False)
+            emit(to_json(ev), output)
         elif output_format is OutputFormat.csv:
             from ..render.tables import to_csv
 
-            typer.echo(to_csv(ev), nl=False)
+            emit(to_csv(ev), output)
             from .check import note_csv_cautions
 
             note_csv_cautions()
         else:
-            from ..render.terminal import print_inspect
+            from .._io import is_stdout
+            from ..render.terminal import inspect_renderables, print_inspect
 
-            print_inspect(ev)
+            if output is None or is_stdout(output):
+                print_inspect(ev)
+            else:
+                emit(plain_text(inspect_renderables(ev)), output)

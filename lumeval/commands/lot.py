@@ -370,12 +370,15 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
     keep = np.array([i for i, src in enumerate(spectra.sources) if src in judged], dtype=int)
     ev = evaluate(spectra.subset(keep), keep_details=False)
     verdicts = ([run.check] if run.check is not None else []) + list(run.lot_results)
-    write_outputs(
+    from ._announce import announce_outputs
+
+    written = write_outputs(
         ev, html=html, plots=plots, verdicts=verdicts or None, lot=run.stats,
         overall=("fail" if run.failed else "pass") if verdicts else None,
         regions=regions_from_criteria(criteria) if criteria is not None else None,
         inputs=files, command="lumeval " + " ".join(sys.argv[1:]),
     )
+    announce_outputs(written, html, plots)
 
 
 def register(app: typer.Typer) -> None:
@@ -390,7 +393,7 @@ def register(app: typer.Typer) -> None:
         ),
         samples_csv: Path = typer.Option(None, "--samples-csv", help="Also write the per-sample CSV to this file."),
         json_file: Path = typer.Option(None, "--json", help="Also write the lot JSON to this file."),
-        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar, and do not say which files were written."),
         html: Path = typer.Option(
             None, "--html", help="Also write a self-contained HTML lot report to this file (the readable samples are "
             "evaluated once more to draw them)."
@@ -477,15 +480,20 @@ def register(app: typer.Typer) -> None:
             run = run_lot(paths, criteria, uncertainty=setup, scheduler=scheduler, workers=workers)
 
         from ..render import lot_report
+        from ._announce import announce, set_quiet
 
+        set_quiet(quiet)
         if samples_csv is not None:
             _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
+            announce("per-sample CSV", samples_csv)
         if json_file is not None:
             _write_atomic(json_file, lambda f: lot_report.lot_json(run, f), "--json")
+            announce("lot JSON", json_file)
         if samples_parquet is not None:
             from ..frames import write_samples_parquet
 
             write_samples_parquet(run, samples_parquet)
+            announce("per-sample Parquet table", samples_parquet)
         # the report last: the data files are the record, the report draws them
         if html is not None or plots is not None:
             _write_lot_report(run, criteria, html, plots)

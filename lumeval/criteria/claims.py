@@ -8,11 +8,13 @@ not determine such as luminous flux or lifetime).
 How a claim is read (defaults are common practice, no source; the file's ``[tolerances]``
 table overrides the tolerance per figure, in the figure's own units):
 
-* ``">= v"`` / ``"> v"`` (minimum claims, e.g. "Ra ≥ 90"): supported when measured ≥ v − t.
+* ``">= v"`` / ``"> v"`` / ``"≥ v"`` / ``"v+"`` (minimum claims, e.g. "Ra ≥ 90", "CRI >90",
+  "90+"): supported when measured ≥ v − t.
 * ``"<= v"`` / ``"< v"``: supported when measured ≤ v + t.
   Default t for these: half a unit of the last digit written (a datasheet "90" stands for
   anything that rounds to 90; "0.85" for anything that rounds to 0.85).
-* ``"v ± d"`` (explicit tolerance): supported when |measured − v| ≤ d (no further tolerance).
+* ``"v ± d"`` (explicit tolerance, also ``"3000K ± 100K"`` or ``"v +/- d"``): supported when
+  |measured − v| ≤ d (no further tolerance).
 * a plain value ``v`` (a nominal claim, e.g. "CCT 3000 K"):
   - ``cct_K``: when v is a nominal category of ANSI C78.377-2017 Table 1, supported when the
     measured CCT lies within that category's target ± tolerance (e.g. 3000 → 2870-3220 K);
@@ -60,11 +62,15 @@ NOT_CHECKABLE_KEYS: dict[str, str] = {
     "ugr": "glare rating depends on the luminaire and the room, not on the spectrum",
 }
 
+#: A claim as written on a datasheet: an optional comparison, the value with an optional unit, an
+#: optional ± tolerance with an optional unit, or a trailing "+" for a minimum ("90+"). Examples:
+#: ">= 90", ">90", "≥ 90", "90+", "3000 K", "3000K ± 100K", "100 ± 3", "<= 0.003".
 _CLAIM_RE = re.compile(
     r"""^\s*(?P<op>>=|≥|=>|>|<=|≤|=<|<|=)?\s*
         (?P<value>[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*
-        (?:(?:±|\+/-|\+-)\s*(?P<tol>\d+(?:\.\d*)?(?:[eE][-+]?\d+)?))?\s*
-        (?P<unit>K|%|lm/W|nm)?\s*$""",
+        (?P<unit1>K|%|lm/W|nm)?\s*
+        (?:(?:±|\+/-|\+-)\s*(?P<tol>\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*(?P<unit2>K|%|lm/W|nm)?)?\s*
+        (?P<plus>\+)?\s*$""",
     re.VERBOSE,
 )
 
@@ -243,13 +249,16 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             m = None
         if m is None:
             raise err(("claims",), key, f"cannot read the claim {value!r}", 'write e.g. ">= 90", "<= 0.003", "3000 K", "100 ± 3" or a plain number')
-        unit = m.group("unit")
+        units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
+        if m.group("plus") and (m.group("op") or m.group("tol") is not None):
+            raise err(("claims",), key, f"cannot read the claim {value!r}", 'write a minimum as "90+" or ">= 90", not both')
+        unit = units.pop() if len(units) == 1 else (None if not units else "|".join(sorted(units)))
         if unit and unit != figure_unit(fig):
             raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(fig) or 'none'!r})", f"write {key} in {figure_unit(fig) or 'plain numbers'}")
         v = float(m.group("value"))
         if not np.isfinite(v) or (m.group("tol") is not None and not np.isfinite(float(m.group("tol")))):
             raise err(("claims",), key, f"the claim {value!r} holds a number too large to represent", "write the value as the datasheet states it, e.g. \">= 90\"")
-        op = m.group("op") or ""
+        op = m.group("op") or (">=" if m.group("plus") else "")
         t_override = tolerances.get(fig)
         if m.group("tol") is not None:
             if op not in ("", "="):

@@ -22,14 +22,16 @@ _API = {
     "SpectrumSet": "lumeval.spectra.model",
     "read_spectra": "lumeval.spectra.read", "read_many": "lumeval.spectra.read", "prepare": "lumeval.spectra.prepare",
     "prepare_groups": "lumeval.spectra.prepare", "PreparedSpectra": "lumeval.spectra.prepare",
-    "write_spectra": "lumeval.spectra.write", "validate_report": "lumeval.spectra.validate", "convert_file": "lumeval.commands.convert",
+    "write_spectra": "lumeval.spectra.write", "validate_report": "lumeval.spectra.validate",
     # the main job
     "evaluate": "lumeval.engine",
     "Evaluation": "lumeval.engine",
-    "inspect_files": "lumeval.commands.inspect",
-    "load_criteria": "lumeval.criteria", "check": "lumeval.criteria", "load_claims": "lumeval.criteria", "check_files": "lumeval.commands.check",
+    "inspect": "lumeval.api", "check": "lumeval.api", "claims": "lumeval.api", "lot": "lumeval.api", "convert": "lumeval.api",
+    "CheckRun": "lumeval.api",
+    "load_criteria": "lumeval.criteria", "load_claims": "lumeval.criteria",
     "mix_files": "lumeval.tunable.api", "series_files": "lumeval.tunable.api",
-    "run_lot": "lumeval.commands.lot", "lot_statistics": "lumeval.lot", "lot_from_evaluation": "lumeval.lot",
+    "run_lot": "lumeval.lots.run", "LotRun": "lumeval.lots.run",
+    "lot_statistics": "lumeval.lots.statistics", "lot_from_evaluation": "lumeval.lots.statistics",
     # the production history (docs/history.md)
     "lot_record": "lumeval.store.record", "record_lot": "lumeval.store.record", "list_lots": "lumeval.store.query",
     "trend": "lumeval.store.trend",
@@ -44,11 +46,19 @@ _API = {
     "InstrumentModel": "lumeval.uncertainty", "load_instrument": "lumeval.uncertainty", "propagate_uncertainty": "lumeval.uncertainty", "DecisionRule": "lumeval.uncertainty",
 }
 
+#: former public names -> the API function that replaces them (same arguments; they warn).
+_RENAMED = {"inspect_files": "inspect", "check_files": "check", "convert_file": "convert"}
+
 __all__ = sorted(_API) + ["__version__"]
 
 
 def __getattr__(name: str):
     module = _API.get(name)
+    if name in _RENAMED:
+        from ._deprecation import renamed
+
+        return renamed(getattr(importlib.import_module("lumeval.api"), _RENAMED[name]), f"lumeval.{name}",
+                       f"lumeval.{_RENAMED[name]}")
     if module is None:
         raise AttributeError(f"module 'lumeval' has no attribute {name!r}")
     value = getattr(importlib.import_module(module), name)

@@ -17,35 +17,23 @@ class OutputFormat(str, Enum):
     csv = "csv"
 
 
-def check_files(paths, criteria_path, instrument=None, *, seed=None, draws=None):
-    """Python twin of ``lumeval check``: read the criteria, evaluate the spectra, judge them.
+def __getattr__(name: str):
+    # the former Python twins of this command
+    from .._deprecation import renamed
 
-    The criteria file is read first, so a bad criteria file is reported before any spectrum
-    is computed. Returns a :class:`lumeval.criteria.CheckResult`; raises
-    :class:`lumeval.errors.CriteriaError` / :class:`lumeval.errors.InputError` on bad input.
+    if name == "check_files":
+        from ..api import check
 
-    With an instrument model (``instrument`` file, or an ``[instrument]`` table in the criteria
-    file) or a guarded ``[decision]`` rule, every clause is re-decided under measurement
-    uncertainty (:func:`lumeval.uncertainty.judge.judge_with_uncertainty`, docs/uncertainty.md);
-    ``seed`` and ``draws`` override the Monte Carlo settings.
-    """
-    return run_check(paths, criteria_path, instrument, seed=seed, draws=draws)[2]
+        return renamed(check, "lumeval.commands.check.check_files", "lumeval.check")
+    if name == "run_check":
+        from ..api import check_run
 
+        def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
+            r = check_run(paths, criteria_path, instrument, seed=seed, draws=draws)
+            return r.criteria, r.evaluation, r.result
 
-def run_check(paths, criteria_path, instrument=None, *, seed=None, draws=None):
-    """(criteria, evaluation, result) for ``lumeval check`` (see :func:`check_files`)."""
-    from ..criteria import load_criteria
-    from ..uncertainty.judge import judge_with_uncertainty, resolve_setup
-    from .inspect import inspect_files
-
-    criteria = load_criteria(criteria_path)
-    for w in criteria.warnings:
-        print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
-    setup = resolve_setup(criteria, instrument, seed=seed, draws=draws)
-    ev = inspect_files(paths)
-    if setup.active:
-        return criteria, ev, judge_with_uncertainty(ev, criteria, setup)[0]
-    return criteria, ev, criteria.evaluate(ev)
+        return renamed(run_check, "lumeval.commands.check.run_check", "lumeval.api.check_run")
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def emit(text: str, output: Path | None, option: str = "--output", what: str = "report") -> None:
@@ -120,7 +108,10 @@ def register(app: typer.Typer) -> None:
             dir_files = {"--plots": PLOT_FILE_PATTERNS}
         check_targets(files={"--output": output, "--html": html}, dirs={"--plots": plots}, dir_files=dir_files,
                       inputs=[*files, criteria, *([instrument] if instrument is not None else [])])
-        crit, ev, result = run_check(files, criteria, instrument, seed=seed, draws=draws)
+        from ..api import check_run
+
+        run = check_run(files, criteria, instrument, seed=seed, draws=draws)
+        crit, ev, result = run.criteria, run.evaluation, run.result
         if html is not None or plots is not None:
             from ..render.html import regions_from_criteria, write_outputs
 

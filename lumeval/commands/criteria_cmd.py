@@ -208,22 +208,23 @@ def explain_markdown(criteria) -> str:
     return "\n".join(L) + "\n"
 
 
-def claims_files(paths, claims_path):
-    """Python twin of ``lumeval claims``: read the claims, evaluate the spectra, check each claim."""
-    from ..criteria import load_claims
-    from .inspect import inspect_files
+def __getattr__(name: str):
+    if name == "claims_files":  # the former Python twin of ``lumeval claims``
+        from .._deprecation import renamed
+        from ..api import claims
 
-    return run_claims(paths, claims_path)[1]
+        return renamed(claims, "lumeval.commands.criteria_cmd.claims_files", "lumeval.claims")
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def run_claims(paths, claims_path):
-    """(evaluation, result) for ``lumeval claims`` (see :func:`claims_files`)."""
+    """(evaluation, result) for ``lumeval claims`` (the claims file is read first)."""
+    from ..api import claims as check_claims, inspect
     from ..criteria import load_claims
-    from .inspect import inspect_files
 
     claims = load_claims(claims_path)
-    ev = inspect_files(paths)
-    return ev, claims.check(ev)
+    ev = inspect(paths)
+    return ev, check_claims(ev, claims)
 
 
 _CLAIM_OUTCOME = {"supported": "pass", "contradicted": "fail", "not checkable": "not judged"}

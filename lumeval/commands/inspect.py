@@ -14,19 +14,13 @@ class OutputFormat(str, Enum):
     csv = "csv"
 
 
-def inspect_files(paths):
-    """Python twin of ``lumeval inspect``: read, prepare and evaluate the spectra in ``paths``.
+def __getattr__(name: str):
+    if name == "inspect_files":  # the former Python twin of this command
+        from .._deprecation import renamed
+        from ..api import inspect
 
-    Files on different wavelength grids are brought onto one 1 nm grid (see
-    :func:`lumeval.spectra.prepare.prepare`). Returns a :class:`lumeval.engine.Evaluation`;
-    raises :class:`lumeval.errors.InputError` naming the file and the problem when a file
-    cannot be used.
-    """
-    from ..engine import evaluate
-    from ..spectra.read import read_spectra, unique_names
-
-    seen: dict[str, int] = {}
-    return evaluate([unique_names(read_spectra(p), seen) for p in paths])
+        return renamed(inspect, "lumeval.commands.inspect.inspect_files", "lumeval.inspect")
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def register(app: typer.Typer) -> None:
@@ -75,7 +69,9 @@ def register(app: typer.Typer) -> None:
 
                 raise InputError(f"{failed} of {len(checks)} entries refused by the readers", fix="see the report above")
             return
-        ev = inspect_files(files)
+        from ..api import inspect
+
+        ev = inspect(files)
         if html is not None or plots is not None:
             import sys
 

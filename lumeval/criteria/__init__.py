@@ -3,13 +3,16 @@
 Python API (the ``lumeval check``, ``lumeval criteria`` and ``lumeval claims`` commands are
 thin layers over it)::
 
-    from lumeval.criteria import load_criteria, check
+    import lumeval
+    from lumeval.criteria import load_criteria
     criteria = load_criteria("tender_criteria.toml")
-    result = check(evaluation, criteria)        # CheckResult, vectorised over N spectra
+    result = lumeval.check(evaluation, criteria)   # CheckResult, vectorised over N spectra
     result.verdicts, result.exit_code
 
-    from lumeval.criteria import load_claims
-    claims_check = load_claims("supplier_claims.toml").check(evaluation)
+    claims_check = lumeval.claims(evaluation, "supplier_claims.toml")
+
+``Criteria.evaluate(evaluation)`` is the model-level step :func:`lumeval.check` runs (without
+measurement uncertainty).
 """
 
 from __future__ import annotations
@@ -26,7 +29,11 @@ from . import range_clauses  # noqa: E402,F401  (series_shift, track_locus: judg
 
 
 def check(evaluation, criteria: Criteria) -> CheckResult:
-    """Judge ``criteria`` for every spectrum of ``evaluation`` (see :meth:`Criteria.evaluate`)."""
+    """Deprecated: use :func:`lumeval.check` (same arguments; it also takes files)."""
+    import warnings
+
+    warnings.warn("lumeval.criteria.check is deprecated; use lumeval.check (same arguments)", DeprecationWarning,
+                  stacklevel=2)
     return criteria.evaluate(evaluation)
 
 

@@ -763,6 +763,7 @@ class Criteria:
                              f"{judged_by}, not per spectrum")
                 continue
             results.extend(c.evaluate(ev))
+        notes += [str(w) for w in getattr(ev, "run_warnings", ())]  # the computation's own warnings
         n = len(np.asarray(ev.x))
         names = tuple(getattr(ev, "names", None) or (f"spectrum {i + 1}" for i in range(n)))
         spectra = getattr(ev, "spectra", None)

@@ -83,7 +83,7 @@ def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_cri
     returned (not raised) as one Unreadable so that the client reports it like a local run.
     """
     _tune_malloc()
-    from ..commands.lot import Unreadable
+    from .inputs import Unreadable
     from ..errors import LumevalError
     from .streaming import archive_batches, evaluate_batch
 
@@ -137,7 +137,7 @@ def run_lot_dask(
     uncertainty=None,
     client=None,
 ):
-    """:func:`lumeval.commands.lot.run_lot` on a Dask cluster (see the module docstring).
+    """:func:`lumeval.lots.run.run_lot` on a Dask cluster (see the module docstring).
 
     Parameters
     ----------
@@ -156,7 +156,8 @@ def run_lot_dask(
     LotRun
         Equal to the local run's (same samples, order, figures, verdicts and statistics).
     """
-    from ..commands.lot import BATCH_SPECTRA, Unreadable, expand_inputs
+    from .inputs import Unreadable, expand_inputs
+    from .run import BATCH_SPECTRA
     from ..errors import LumevalError, UsageError
     from ..spectra.archive import is_archive, open_file, plan_partitions
     from .streaming import LotAccumulator

@@ -1,6 +1,6 @@
 """The streaming core of a lot run: evaluate a batch, keep only its per-sample figures, join.
 
-One lot run, on one machine (:func:`lumeval.commands.lot.run_lot`) or on a Dask cluster
+One lot run, on one machine (:func:`lumeval.lots.run.run_lot`) or on a Dask cluster
 (:mod:`lumeval.lots.dask_runner`), is the same three steps:
 
 1. read a batch of spectra (a file, or at most ``batch_spectra`` rows of a Parquet archive:
@@ -40,6 +40,10 @@ class BatchResult:
         Per-sample clause results of the batch (None without per-sample clauses).
     metadata : pyarrow.Table or None
         The archive's metadata columns for these n samples (None for other inputs).
+    evaluation : Evaluation or None
+        The batch's evaluation itself, kept only for a report that draws the samples.
+    run_warnings : tuple of str
+        Warnings of the computation libraries during the batch (Evaluation.run_warnings).
     """
 
     names: list
@@ -49,21 +53,23 @@ class BatchResult:
     xy: np.ndarray
     clauses: list | None
     metadata: object = None
+    evaluation: object = None
+    run_warnings: tuple = ()
 
     def __len__(self) -> int:
         return len(self.names)
 
 
 def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: int = 0, metadata=None,
-                   engine_chunk: int | None = None) -> BatchResult:
+                   engine_chunk: int | None = None, keep_evaluation: bool = False) -> BatchResult:
     """Evaluate one prepared batch and keep what the lot needs (see :class:`BatchResult`).
 
     ``offset`` is the index of the batch's first sample in the lot (the Monte Carlo of a run
     under uncertainty draws per sample index, so a sample's decision does not depend on the
     batching).
     """
-    from ..commands.lot import ENGINE_CHUNK
     from ..engine import evaluate
+    from .run import ENGINE_CHUNK
     from ..figures import names as figure_names
 
     ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False)
@@ -77,7 +83,7 @@ def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: i
     elif sample_criteria is not None:
         clauses = list(sample_criteria.evaluate(ev).results)
     return BatchResult(list(ev.spectra.names), list(ev.spectra.sources), list(ev.warnings), figs, xy, clauses,
-                       metadata)
+                       metadata, ev if keep_evaluation else None, tuple(ev.run_warnings))
 
 
 def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None) -> Iterator[tuple]:
@@ -93,8 +99,8 @@ def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None)
     lumeval.errors.InputError
         When the file itself cannot be used (bad layout, not Parquet, a row without a name).
     """
-    from ..commands.lot import Unreadable
     from ..errors import LumevalError
+    from .inputs import Unreadable
     from ..spectra.archive import iter_batches
     from ..spectra.prepare import prepare
 
@@ -150,9 +156,12 @@ class LotAccumulator:
         Expected number of samples (a capacity hint; more are accepted).
     """
 
-    def __init__(self, expected: int = 0) -> None:
+    def __init__(self, expected: int = 0, *, keep_evaluation: bool = False) -> None:
         from ..figures import names as figure_names
 
+        self.keep_evaluation = keep_evaluation
+        self._evaluations: list = []
+        self.run_warnings: list[str] = []
         self.figure_names = figure_names()
         self.names: list[str] = []
         self.sources: list[str] = []
@@ -174,6 +183,9 @@ class LotAccumulator:
         if r.clauses is not None:
             self._clauses.append(r.clauses)
         self._meta.append((len(r), r.metadata))
+        if self.keep_evaluation and r.evaluation is not None:
+            self._evaluations.append(r.evaluation)
+        self.run_warnings += [w for w in r.run_warnings if w not in self.run_warnings]
 
     def metadata_table(self):
         """The archive metadata of every sample as one Arrow table (None when no input had
@@ -198,10 +210,10 @@ class LotAccumulator:
 
     def finish(self, criteria=None, *, sample_criteria=None, unreadable=(), files: int = 0, ellipse=None,
                nominal_xy=None, uncertainty=None, **extra):
-        """The :class:`lumeval.commands.lot.LotRun` of everything added (``extra``: further
+        """The :class:`lumeval.lots.run.LotRun` of everything added (``extra``: further
         LotRun fields, e.g. ``skipped``, ``read_paths``)."""
-        from ..commands.lot import LotRun, _concat_clause, _nominal_from_criteria
-        from ..lot import lot_statistics
+        from .run import LotRun, _concat_clause, _nominal_from_criteria, join_evaluations
+        from .statistics import lot_statistics
 
         names = self.names
         cols = self._figs.columns()
@@ -249,5 +261,7 @@ class LotAccumulator:
             identification=dict(getattr(criteria, "identification", {}) or {}) if criteria is not None else {},
             has_yield_clause=has_yield,
             metadata=self.metadata_table(),
+            evaluation=join_evaluations(self._evaluations) if self._evaluations else None,
+            run_warnings=tuple(self.run_warnings),
             **extra,
         )

@@ -1215,9 +1215,12 @@ def render_html_report(
 
     # ---- notes on the data
     warns = list(getattr(ev, "warnings", ()) or ())
+    run_warns = tuple(getattr(ev, "run_warnings", ()) or ())
     body.append('<section id="notes"><h2>Notes on the data</h2>')
-    if any(warns):
+    if any(warns) or run_warns:
         body.append('<ul class="notes">')
+        for msg in run_warns:  # raised during the vectorised computation, not tied to one spectrum
+            body.append(f"<li><b>all spectra</b>: {_e(msg)}</li>")
         # the same note for many samples is listed once, with the samples it concerns
         by_msg: dict[str, list[str]] = {}
         for i, w in enumerate(warns):

@@ -222,6 +222,7 @@ def lot_document(run) -> dict:
         "outlier_rule": st.outlier_rule,
         "uncertainty": (getattr(run.check, "uncertainty", None) or None) if run.check is not None else None,
         "notes": list(st.notes),
+        "run_warnings": list(getattr(run, "run_warnings", ())),
         "unreadable": [{"source": u.source, "message": u.message} for u in run.unreadable],
         "skipped": [{"path": k.path, "reason": k.reason} for k in getattr(run, "skipped", ())],
         "samples": samples,
@@ -506,6 +507,8 @@ def lot_renderables(run) -> list:
         out.append(Text(f"{nw} sample(s) carry warnings (interpolation, validity limits...): see the per-sample CSV or JSON.", style="yellow"))
     for note in st.notes:
         out.append(Text(f"Note: {clean(note)}.", style="dim"))
+    for w in getattr(run, "run_warnings", ()):
+        out.append(Text(f"Note: {clean(w)}", style="yellow"))
     for cau in CAUTIONS:
         out.append(Text(f"Caution: {cau}", style="dim"))
     out.append(Text(_verdict_line(run), style="bold"))

@@ -145,6 +145,7 @@ def evaluation_document(ev) -> dict:
         # grids (each spectrum is evaluated on its own; see each record's "grid")
         "grid": _grid(ev.spectra.wavelengths_nm) if ev.spectra.one_grid else None,
         "spectra": spectrum_records(ev),
+        "run_warnings": list(ev.run_warnings),
         "cautions": list(CAUTIONS),
     }
 
@@ -180,7 +181,8 @@ def csv_rows(ev):
         for f in cols:
             v = float(values[f.name][i])
             row[f.name] = repr(v) if math.isfinite(v) else ""
-        row["warnings"] = csv_text(" | ".join(ev.warnings[i]))
+        # warnings of the vectorised run concern every spectrum: each row carries them
+        row["warnings"] = csv_text(" | ".join((*ev.warnings[i], *ev.run_warnings)))
         # the figures computed outside their validity range (|Duv| > 0.05), for tools; "" if none
         row["outside_validity"] = " ".join(_outside_validity_figures(ev, i))
         yield row

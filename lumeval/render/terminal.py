@@ -139,6 +139,7 @@ def inspect_renderables(ev):
         idx = list(range(start, min(n, start + _PER_HUE_TABLE)))
         out.append(_hue_table(ev, idx))
     notes = [(ev.spectra.names[i], w) for i in range(n) for w in ev.warnings[i]]
+    notes += [("all spectra", w) for w in ev.run_warnings]
     if notes:
         out.append(Text("Notes on the data and results", style="bold"))
         for name, w in notes:

@@ -1,0 +1,358 @@
+"""One lot run: read many files (salvaging the usable columns of a wide file), evaluate them in
+batches, judge them and summarise the lot (:func:`run_lot`, :class:`LotRun`).
+
+It streams: files are read one at a time, spectra are evaluated in batches of
+:data:`BATCH_SPECTRA` and only the per-sample figures are kept, so memory stays bounded (about
+1 kB per sample) however many samples come; the judged samples' spectra are kept too only when
+a report that draws them is asked for (``keep_evaluation=True``), so the report shows exactly
+what was judged, without a second reading or evaluation. A file that cannot be read (or a
+column of a wide CSV that cannot be used) is recorded with its reason and never stops the
+others. Nothing here prints or imports a command-line library.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Callable, Sequence
+
+from .inputs import Skipped, Unreadable, display_path, expand_inputs
+
+if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays light
+    import numpy as np
+
+    from ..engine import Evaluation
+
+#: Spectra evaluated together (bounded memory; the engine chunks further inside).
+BATCH_SPECTRA = 2048
+#: Engine chunk size for lots. Measured CPU per 1,000 spectra after the TM-30 speed-up: 0.089 s
+#: at 512, 0.097 s at 256, 0.105 s at 1024 (bench/benchmark.py); peak memory of a
+#: 100,000-spectrum lot stays near 600 MB (docs/lots.md).
+ENGINE_CHUNK = 512
+
+
+@dataclass(frozen=True)
+class LotRun:
+    """Everything ``lumeval lot`` found for a lot.
+
+    Attributes
+    ----------
+    names, sources : tuple of str (N,)
+    warnings : tuple of tuple of str (N,)
+    figures : dict of str -> ndarray (N,)
+        Every figure of the registry (:func:`lumeval.figures.names`).
+    xy : ndarray (N, 2)
+    stats : lumeval.lot.LotStatistics
+    check : lumeval.criteria.verdicts.CheckResult or None
+        Per-sample clause results (None without criteria or without per-sample clauses).
+    lot_results : tuple of LotClauseResult
+    unreadable : tuple of Unreadable
+    skipped : tuple of Skipped
+    files : int
+        Input files found (after expanding folders and patterns).
+    criteria_file : str or None
+    identification : dict
+    """
+
+    names: tuple[str, ...]
+    sources: tuple[str, ...]
+    warnings: tuple[tuple[str, ...], ...]
+    figures: dict
+    xy: np.ndarray
+    stats: object
+    check: object | None
+    lot_results: tuple
+    unreadable: tuple[Unreadable, ...]
+    files: int
+    criteria_file: str | None = None
+    identification: dict = field(default_factory=dict)
+    has_yield_clause: bool = False
+    #: Entries found by expanding folders and patterns and left out on purpose, with the reason.
+    skipped: tuple[Skipped, ...] = ()
+    #: The files that gave judged samples (paths that open them; for the HTML report).
+    read_paths: tuple[str, ...] = ()
+    #: pyarrow.Table: the Parquet archives' metadata columns, one row per sample (None without)
+    metadata: object = None
+    #: The judged samples' evaluation (spectra on one grid, every figure), kept only when
+    #: :func:`run_lot` is asked for it (``keep_evaluation=True``, for the HTML report and plots):
+    #: the report draws exactly the samples and numbers of this run, without reading or
+    #: evaluating anything again.
+    evaluation: "Evaluation | None" = None
+    #: Warnings raised by the computation libraries during the run (see Evaluation.run_warnings).
+    run_warnings: tuple[str, ...] = ()
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    @property
+    def sample_verdicts(self) -> tuple[str, ...] | None:
+        return self.check.verdicts if self.check is not None else None
+
+    @property
+    def failed(self) -> bool:
+        """A lot clause failed, or (without a yield clause) a sample failed its clauses."""
+        if any(r.outcome != "pass" for r in self.lot_results):
+            return True
+        v = self.sample_verdicts
+        if v is not None and not self.has_yield_clause:
+            return any(o != "pass" for o in v)
+        return False
+
+    @property
+    def exit_code(self) -> int:
+        if self.unreadable:
+            return 2
+        return 1 if self.failed else 0
+
+
+# --------------------------------------------------------------------------- inputs
+
+
+def read_one(path: str):
+    """(prepared SpectrumSet or None, [Unreadable]) for one file; salvages the usable columns
+    of a wide file when some columns cannot be prepared."""
+    from ..errors import LumevalError
+    from ..spectra.prepare import prepare
+    from ..spectra.read import read_spectra
+
+    try:
+        raw = read_spectra(path)
+    except LumevalError as exc:
+        return None, [Unreadable(display_path(path), exc.message)]
+    except OSError as exc:
+        return None, [Unreadable(display_path(path), f"{display_path(path)}: cannot be read ({exc.strerror or exc}) — check the file and its permissions")]
+    try:
+        return prepare(raw), []
+    except LumevalError as exc:
+        if len(raw) == 1:
+            return None, [Unreadable(display_path(path), exc.message)]
+    good, bad = [], []
+    for i in range(len(raw)):
+        one = raw.subset([i])
+        try:
+            prepare(one)
+        except LumevalError as exc:
+            bad.append(Unreadable(raw.sources[i], exc.message))
+        else:
+            good.append(i)
+    if not good:
+        return None, bad
+    return prepare(raw.subset(good)), bad
+
+
+def _concat_clause(parts: list):
+    """Join per-batch ClauseResults of one clause into one."""
+    import numpy as np
+
+    from dataclasses import replace
+
+    first = parts[0]
+    if len(parts) == 1:
+        return first
+    cat = lambda name: np.concatenate([np.asarray(getattr(p, name), dtype=float) for p in parts])  # noqa: E731
+    details = {k: np.concatenate([np.asarray(p.details[k]) for p in parts]) for k in first.details}
+    opt = {}
+    for name in ("uncertainty", "p_conformance"):
+        opt[name] = cat(name) if getattr(first, name) is not None else None
+    return replace(
+        first,
+        measured=cat("measured"),
+        margin=cat("margin"),
+        outcome=sum((p.outcome for p in parts), ()),
+        reason=sum((tuple(p.reason) for p in parts), ()),
+        details=details,
+        **opt,
+    )
+
+
+def run_lot(
+    paths: Sequence[str | os.PathLike],
+    criteria=None,
+    *,
+    ellipse=None,
+    nominal_xy=None,
+    batch_spectra: int = BATCH_SPECTRA,
+    progress: Callable[[int, int, int], None] | None = None,
+    uncertainty=None,
+    scheduler: str | None = None,
+    workers: int | None = None,
+    keep_evaluation: bool = False,
+) -> LotRun:
+    """Python twin of ``lumeval lot``: read, evaluate, judge and summarise a lot.
+
+    Parameters
+    ----------
+    paths : sequence of str or Path
+        Files, folders and glob patterns (see the module docstring).
+    criteria : lumeval.criteria.model.Criteria, optional
+        Per-sample clauses give each sample's verdict and the yield; lot clauses (see
+        :mod:`lumeval.criteria.lot_clauses`) are judged on the lot statistics.
+    ellipse, nominal_xy
+        Passed to :func:`lumeval.lot.lot_statistics`. Without them, an ``sdcm`` clause of the
+        criteria supplies the nominal ellipse, else an ``ansi_quadrangle`` clause the nominal
+        centre.
+    batch_spectra : int
+        Spectra evaluated together.
+    progress : callable(files_done, files_total, samples_done), optional
+        Called after each file (for a progress bar).
+    uncertainty : lumeval.uncertainty.judge.UncertaintySetup, optional
+        When active, every sample's per-sample clauses are re-decided under measurement
+        uncertainty (Monte Carlo per sample; docs/uncertainty.md). Lot clauses (centroid,
+        pairwise Δu'v', yield) are judged on the measured values as before.
+    scheduler, workers
+        Evaluate on a Dask cluster: the address of a running scheduler, or a local cluster of
+        ``workers`` processes (:func:`lumeval.lots.dask_runner.run_lot_dask`; Parquet
+        archives only). The result equals the local run's.
+    keep_evaluation : bool
+        Keep the judged samples' spectra and figures in ``LotRun.evaluation`` (for the HTML
+        report and plots; memory grows with the lot: about 4 kB per sample). Local runs only.
+
+    Returns
+    -------
+    LotRun
+    """
+    if scheduler is not None or workers is not None:
+        from .dask_runner import run_lot_dask
+
+        return run_lot_dask(paths, criteria, scheduler=scheduler, workers=workers, ellipse=ellipse,
+                            nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
+                            uncertainty=uncertainty)
+    from .streaming import LotAccumulator, archive_batches, evaluate_batch
+    from ..spectra.archive import is_archive
+    from ..spectra.read import unique_names
+
+    found = expand_inputs(paths)
+    files, unreadable = list(found.files), list(found.unreadable)
+    read_paths: list[str] = []
+    archives = [is_archive(f, sniff=False) for f in files]  # by name: no extra open per file
+    acc = LotAccumulator(_expected_samples(files, archives), keep_evaluation=keep_evaluation)
+    seen_names: dict[str, int] = {}
+    pending: list = []
+    pending_n = 0
+    done = 0
+
+    sample_criteria = None
+    if criteria is not None:
+        from ..criteria.lot_clauses import has_sample_clauses
+
+        if has_sample_clauses(criteria):
+            sample_criteria = criteria
+
+    def consume(s, meta=None) -> None:
+        acc.add(evaluate_batch(s, sample_criteria, uncertainty, offset=len(acc), metadata=meta,
+                               keep_evaluation=keep_evaluation))
+
+    def flush() -> None:
+        nonlocal pending, pending_n
+        if pending:
+            # one evaluation per batch: the engine groups the files by computation grid (each
+            # spectrum on its own grid, never resampled) and returns the samples in file order
+            consume(pending)
+        pending = []
+        pending_n = 0
+
+    for k, path in enumerate(files):
+        if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
+            from ..errors import LumevalError
+
+            flush()  # samples stay in input order
+            try:
+                for s, meta, bad in archive_batches(path, batch_spectra):
+                    unreadable.extend(bad)
+                    if s is not None:
+                        s = unique_names(s, seen_names)
+                        if not read_paths or read_paths[-1] != path:
+                            read_paths.append(path)
+                        consume(s, meta)
+                        done += len(s)
+                        if progress is not None:
+                            progress(k, len(files), done)
+            except LumevalError as exc:
+                unreadable.append(Unreadable(path, exc.message))
+        else:
+            s, bad = read_one(path)
+            unreadable.extend(bad)
+            if s is not None:
+                s = unique_names(s, seen_names)
+                read_paths.append(path)
+                pending.append(s)
+                pending_n += len(s)
+                done += len(s)
+            if pending_n >= batch_spectra:
+                flush()
+        if progress is not None:
+            progress(k + 1, len(files), done)
+    flush()
+    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
+                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,
+                      read_paths=tuple(read_paths))
+
+
+def _expected_samples(files: list[str], archives: list[bool]) -> int:
+    """Samples a lot expects (archives: their rows, from the Parquet footers; other files: one
+    each), to size the per-sample buffers once."""
+    n = 0
+    for f, is_arch in zip(files, archives):
+        if is_arch:
+            try:
+                from ..spectra.archive import count_rows
+
+                n += count_rows(f)
+            except Exception:  # noqa: BLE001 - an unreadable archive is reported when it is read
+                pass
+        else:
+            n += 1
+    return n
+
+
+def _nominal_from_criteria(criteria):
+    """(ellipse, nominal_xy) implied by the criteria: an ``sdcm`` clause's ellipse, else an
+    ``ansi_quadrangle`` clause's centre (with the nearest standard ellipse's coefficients)."""
+    import numpy as np
+
+    for c in criteria.clauses:
+        e = getattr(c, "ellipse", None)
+        if getattr(c, "KIND", "") == "sdcm" and e is not None:
+            return e, None
+    for c in criteria.clauses:
+        if getattr(c, "KIND", "") == "ansi_quadrangle":
+            q = getattr(c, "quadrangle", None)
+            q = q() if callable(q) else q
+            centre = getattr(q, "centre_upvp", None)
+            if centre is not None:
+                from .statistics import nearest_standard_ellipse, xy_from_upvp
+
+                return nearest_standard_ellipse(np.asarray(centre)), xy_from_upvp(np.asarray(centre))
+    return None, None
+
+
+def join_evaluations(parts: Sequence["Evaluation"]) -> "Evaluation":
+    """One :class:`~lumeval.engine.Evaluation` of the samples of several batch evaluations, in
+    order: each spectrum stays on its own computation grid (the batches' groups are joined
+    grid by grid), every figure and warning as each batch computed it (the numbers of the lot
+    JSON and CSV, not a new computation)."""
+    from dataclasses import fields
+
+    import numpy as np
+
+    from ..engine import _concat
+    from ..spectra.model import SpectrumSet
+    from ..spectra.prepare import PreparedSpectra, _grid_key
+
+    if len(parts) == 1:
+        return parts[0]
+    by_key: dict[tuple, list] = {}
+    offset = 0
+    for p in parts:
+        for g, m in zip(p.spectra.groups, p.spectra.members):
+            by_key.setdefault(_grid_key(g.wavelengths_nm), []).append((g, np.asarray(m) + offset))
+        offset += len(p)
+    groups = tuple(v[0][0] if len(v) == 1 else SpectrumSet.concatenate([g for g, _ in v]) for v in by_key.values())
+    members = tuple(np.concatenate([m for _, m in v]) for v in by_key.values())
+    joined = {f.name: _concat([getattr(p, f.name) for p in parts]) for f in fields(parts[0])
+              if f.name not in ("spectra", "run_warnings", "methods")}
+    run_warnings: list[str] = []
+    for p in parts:
+        run_warnings += [w for w in p.run_warnings if w not in run_warnings]
+    return type(parts[0])(spectra=PreparedSpectra(groups, members), run_warnings=tuple(run_warnings),
+                          methods=dict(parts[0].methods), **joined)

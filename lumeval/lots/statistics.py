@@ -1,0 +1,610 @@
+"""Statistics and consistency of a production lot (many samples of one product).
+
+Everything here is pure: arrays in, frozen dataclasses out; no printing, no files, no
+colour-science. The inputs are per-sample figures (as :meth:`lumeval.engine.Evaluation.figure`
+returns them) and chromaticities; :func:`lot_from_evaluation` is the convenience that takes an
+:class:`~lumeval.engine.Evaluation` directly.
+
+What is computed, and the rule behind each number
+-------------------------------------------------
+Per figure (NaN = undefined samples are left out and counted):
+    mean; standard deviation with ``ddof`` (default 1: the sample standard deviation, the
+    unbiased variance estimator's square root, as usual for a sample drawn from a production
+    run); min; max; median; 5th and 95th percentiles by numpy's ``method="linear"`` — Hyndman &
+    Fan (1996), "Sample quantiles in statistical packages", Am. Stat. 50(4):361-365,
+    definition 7: the p-quantile interpolates linearly between order statistics at position
+    (n − 1)·p.
+Chromaticity centroid:
+    the arithmetic mean of the samples' CIE 1976 (u', v') (CIE 15:2004 §8.1) — the centre of
+    mass of the lot in the (approximately) uniform chromaticity diagram in which Δu'v' is
+    measured; it is also given in (x, y) by the inverse projective transform.
+Δu'v' of each sample:
+    Euclidean distance in (u', v') to the centroid and to the nominal centre (CIE 15:2004
+    §8.1; the usual chromaticity-difference measure of IEC/ANSI SSL specifications).
+Ellipse steps of each sample:
+    ``n = sqrt(g11 Δx² + 2 g12 Δx Δy + g22 Δy²)`` in CIE 1931 (x, y) (MacAdam (1942)
+    JOSA 32(5):247; the quadratic form IEC 60081 uses), evaluated by
+    :meth:`lumeval.criteria.regions.SdcmEllipse.steps`. Steps *from the nominal centre* use the
+    nominal ellipse as given. Steps *from the centroid* use the same ellipse coefficients
+    translated to the centroid: the ellipse shape varies slowly across the diagram, and the
+    nearest standard ellipse is the shape a lot's own spread is judged with (common practice,
+    no source). When no ellipse is given, the IEC 60081 ellipse whose centre is nearest (in
+    u'v') to the lot centroid is used and named in the result.
+Largest pairwise Δu'v':
+    exact. The largest distance between points of a finite set is attained between two
+    vertices of its convex hull (the diameter of a convex polygon is a vertex pair: e.g.
+    Preparata & Shamos (1985) *Computational Geometry*, §4.2.3). The hull is computed with
+    scipy.spatial.ConvexHull (Qhull); all pairs of hull vertices (a few dozen) are then
+    compared directly. Collinear sets (where Qhull refuses) are handled exactly by their
+    extreme points along the line.
+Outliers (flagged, never removed):
+    modified z-score of Iglewicz & Hoaglin (1993), *How to Detect and Handle Outliers*
+    (ASQC Basic References in Quality Control, vol. 16): ``M_i = 0.6745 (x_i − x̃) / MAD``
+    with x̃ the median and MAD the median absolute deviation from it; a sample is flagged when
+    ``|M_i| > 3.5`` (their recommended cut-off) for any screened figure. When MAD = 0 (more
+    than half the samples share one value) the scale falls back to the mean absolute
+    deviation from the median, ``M_i = (x_i − x̃) / (1.253314 · MeanAD)`` (common practice, no
+    source; 1.253314 = sqrt(π/2) makes MeanAD consistent with σ for normal data). With fewer
+    than :data:`OUTLIER_MIN_SAMPLES` defined values a figure is not screened (common practice,
+    no source: a median and MAD of a handful of values say little). Each flag carries its
+    reason, naming the figure, the value, the median and M.
+Yield:
+    the percentage of evaluated samples whose overall verdict is ``pass``. Samples that could
+    not be judged, or were indeterminate, count as not passing (a conservative reading; the
+    counts of each outcome are given beside the percentage). Unreadable files are not samples
+    and are reported separately by the command.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Mapping, Sequence
+
+import numpy as np
+
+from ..metrics.colorimetry import upvp_from_xy, xy_from_upvp  # noqa: F401 (re-exported for lot users)
+
+#: Default figures screened for outliers (lumeval figure names).
+OUTLIER_FIGURES: tuple[str, ...] = ("u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")
+#: Iglewicz & Hoaglin (1993) cut-off for |modified z|.
+OUTLIER_THRESHOLD = 3.5
+#: 0.6745 = Φ⁻¹(0.75): makes MAD consistent with σ for normal data (Iglewicz & Hoaglin 1993).
+_MAD_K = 0.6745
+#: sqrt(π/2): makes the mean absolute deviation consistent with σ for normal data.
+_MEANAD_K = 1.253314
+#: Figures with fewer defined values than this are not screened for outliers.
+OUTLIER_MIN_SAMPLES = 5
+#: Default percentile method (numpy name; Hyndman & Fan 1996 definition 7).
+PERCENTILE_METHOD = "linear"
+#: Default delta degrees of freedom of the standard deviation (sample standard deviation).
+DDOF = 1
+
+
+
+# --------------------------------------------------------------------------- results
+
+
+@dataclass(frozen=True)
+class FigureSummary:
+    """Summary of one figure over the lot (NaN where no sample defines the figure).
+
+    Attributes
+    ----------
+    name : str
+        lumeval figure name (e.g. ``"Ra"``, ``"cct_K"``).
+    count : int
+        Samples where the figure is defined.
+    undefined : int
+        Samples where it is NaN.
+    mean, std, min, max, median, p05, p95 : float
+        ``std`` with the lot's ``ddof``; percentiles by the lot's ``percentile_method``.
+    """
+
+    name: str
+    count: int
+    undefined: int
+    mean: float
+    std: float
+    min: float
+    max: float
+    median: float
+    p05: float
+    p95: float
+
+
+@dataclass(frozen=True)
+class LotYield:
+    """Yield of a lot against a criteria file.
+
+    ``percent = 100 · passed / total``; ``not_judged`` and ``indeterminate`` count as not
+    passing.
+    """
+
+    total: int
+    passed: int
+    failed: int
+    not_judged: int
+    indeterminate: int
+    percent: float
+
+
+@dataclass(frozen=True)
+class LotStatistics:
+    """Statistics and consistency of N samples.
+
+    Attributes
+    ----------
+    n_samples : int
+    figures : tuple of FigureSummary
+        In the order the figures were given.
+    ddof : int
+        Delta degrees of freedom of every ``std``.
+    percentile_method : str
+        numpy percentile method of ``p05`` / ``p95``.
+    centroid_upvp, centroid_xy : ndarray (2,)
+        Chromaticity centroid (mean u', v'), and the same point in (x, y).
+    d_upvp_centroid : ndarray (N,)
+        Δu'v' of each sample from the centroid.
+    steps_centroid : ndarray (N,)
+        Ellipse steps of each sample from the centroid (``ellipse_name``'s coefficients).
+    nominal_xy, nominal_upvp : ndarray (2,) or None
+        The nominal centre, when one was given.
+    d_upvp_nominal, steps_nominal : ndarray (N,) or None
+        Δu'v' and ellipse steps from the nominal centre.
+    ellipse_name, ellipse_source : str
+        The ellipse whose coefficients give the steps, and its source.
+    max_pairwise_d_upvp : float
+        Largest Δu'v' between any two samples (0 for fewer than two).
+    max_pair : tuple of int
+        Indices of the two samples at that distance ((-1, -1) when undefined).
+    outlier : ndarray of bool (N,)
+    outlier_reasons : tuple of tuple of str (N,)
+        Why each flagged sample was flagged (empty for the others).
+    robust_z : dict of str -> ndarray (N,)
+        Modified z-score of each screened figure (NaN where not screened).
+    outlier_rule : str
+    yield_ : LotYield or None
+        Yield against criteria, when a verdict per sample was given.
+    notes : tuple of str
+        What the statistics could not do (e.g. no defined chromaticity).
+    """
+
+    n_samples: int
+    figures: tuple[FigureSummary, ...]
+    ddof: int
+    percentile_method: str
+    centroid_upvp: np.ndarray
+    centroid_xy: np.ndarray
+    d_upvp_centroid: np.ndarray
+    steps_centroid: np.ndarray
+    nominal_xy: np.ndarray | None
+    nominal_upvp: np.ndarray | None
+    d_upvp_nominal: np.ndarray | None
+    steps_nominal: np.ndarray | None
+    ellipse_name: str
+    ellipse_source: str
+    max_pairwise_d_upvp: float
+    max_pair: tuple[int, int]
+    outlier: np.ndarray
+    outlier_reasons: tuple[tuple[str, ...], ...]
+    robust_z: dict = field(default_factory=dict)
+    outlier_rule: str = ""
+    yield_: LotYield | None = None
+    notes: tuple[str, ...] = ()
+
+    def summary(self, name: str) -> FigureSummary:
+        """The :class:`FigureSummary` of figure ``name``."""
+        for f in self.figures:
+            if f.name == name:
+                return f
+        raise KeyError(f"no statistics for figure {name!r}")
+
+
+# --------------------------------------------------------------------------- pieces
+
+
+def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_METHOD) -> dict[str, np.ndarray]:
+    """Column statistics of a (N, F) matrix, ignoring NaN.
+
+    Parameters
+    ----------
+    values : array_like, shape (N,) or (N, F)
+    ddof : int
+        Delta degrees of freedom of the standard deviation (1 = sample standard deviation).
+    percentile_method : str
+        numpy percentile method (default ``"linear"``, Hyndman & Fan 1996 definition 7).
+
+    Returns
+    -------
+    dict of ndarray (F,)
+        ``count, undefined, mean, std, min, max, median, p05, p95``; NaN where a column has
+        no defined value (and ``std`` NaN where ``count <= ddof``).
+    """
+    a = np.asarray(values, dtype=float)
+    if a.ndim == 1:
+        a = a[:, None]
+    finite = np.isfinite(a)
+    count = finite.sum(axis=0)
+    n = a.shape[0]
+    out = {"count": count, "undefined": n - count}
+    empty = count == 0
+    safe = np.where(finite, a, np.nan)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        total = np.where(finite, a, 0.0).sum(axis=0)
+        mean = np.where(empty, np.nan, total / np.maximum(count, 1))
+        dev2 = np.where(finite, (a - mean) ** 2, 0.0).sum(axis=0)
+        std = np.where(count > ddof, np.sqrt(dev2 / np.maximum(count - ddof, 1)), np.nan)
+    out["mean"] = mean
+    out["std"] = std
+    if a.shape[0] == 0 or a.shape[1] == 0:
+        nanF = np.full(a.shape[1], np.nan)
+        out.update(min=nanF, max=nanF, median=nanF, p05=nanF, p95=nanF)
+        return out
+    out["min"] = np.where(empty, np.nan, np.where(finite, a, np.inf).min(axis=0))
+    out["max"] = np.where(empty, np.nan, np.where(finite, a, -np.inf).max(axis=0))
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns give NaN, as intended
+        q = np.nanpercentile(safe, [50.0, 5.0, 95.0], axis=0, method=percentile_method)
+    out["median"], out["p05"], out["p95"] = q[0], q[1], q[2]
+    return out
+
+
+def chromaticity_centroid(upvp) -> np.ndarray:
+    """Mean (u', v') of the samples with a defined chromaticity, shape (2,) (NaN if none)."""
+    p = np.atleast_2d(np.asarray(upvp, dtype=float))
+    ok = np.all(np.isfinite(p), axis=1)
+    if not ok.any():
+        return np.full(2, np.nan)
+    return p[ok].mean(axis=0)
+
+
+def delta_upvp(upvp, centre) -> np.ndarray:
+    """Δu'v' = sqrt(Δu'² + Δv'²) from each point (N, 2) to ``centre`` (2,), shape (N,)."""
+    p = np.atleast_2d(np.asarray(upvp, dtype=float))
+    c = np.asarray(centre, dtype=float)
+    return np.hypot(p[:, 0] - c[0], p[:, 1] - c[1])
+
+
+def max_pairwise_distance(points) -> tuple[float, int, int]:
+    """Largest Euclidean distance between any two of N points, exactly, in O(N log N).
+
+    The maximum is attained between two vertices of the convex hull (Preparata & Shamos 1985,
+    §4.2.3), so only hull vertices are compared (scipy.spatial.ConvexHull, Qhull). Points with
+    a non-finite coordinate are ignored.
+
+    Parameters
+    ----------
+    points : array_like, shape (N, 2)
+
+    Returns
+    -------
+    (distance, i, j)
+        The distance and the indices (into ``points``) of one pair attaining it, i < j;
+        (0.0, i, i) for a single defined point and (nan, -1, -1) for none.
+    """
+    P = np.atleast_2d(np.asarray(points, dtype=float))
+    idx = np.flatnonzero(np.all(np.isfinite(P), axis=1))
+    if idx.size == 0:
+        return float("nan"), -1, -1
+    if idx.size == 1:
+        return 0.0, int(idx[0]), int(idx[0])
+    Q = P[idx]
+    cand = _hull_vertices(Q)
+    C = Q[cand]
+    d2 = ((C[:, None, :] - C[None, :, :]) ** 2).sum(-1)
+    a, b = np.unravel_index(int(np.argmax(d2)), d2.shape)
+    i, j = sorted((int(idx[cand[a]]), int(idx[cand[b]])))
+    return float(np.sqrt(d2[a, b])), i, j
+
+
+def _hull_vertices(Q: np.ndarray) -> np.ndarray:
+    """Indices of candidate diameter endpoints: the convex hull's vertices, or for collinear /
+    coincident sets the two extreme points along the set's direction."""
+    from scipy.spatial import ConvexHull, QhullError
+
+    span = Q.max(axis=0) - Q.min(axis=0)
+    if not np.any(span > 0):
+        return np.array([0, 0])
+    try:
+        if Q.shape[0] >= 3:
+            return np.asarray(ConvexHull(Q).vertices)
+    except QhullError:
+        pass
+    # Collinear (or 2 points): project on the direction between two distinct points.
+    k = int(np.argmax(span))
+    lo, hi = int(np.argmin(Q[:, k])), int(np.argmax(Q[:, k]))
+    direction = Q[hi] - Q[lo]
+    t = (Q - Q[lo]) @ direction
+    return np.array([int(np.argmin(t)), int(np.argmax(t))])
+
+
+def max_pairwise_distance_bruteforce(points, *, chunk: int = 2048) -> float:
+    """Largest pairwise distance by comparing all pairs, chunked to bound memory (O(N²) time).
+
+    Kept as an independent cross-check of :func:`max_pairwise_distance`; NaN points ignored.
+    """
+    P = np.atleast_2d(np.asarray(points, dtype=float))
+    P = P[np.all(np.isfinite(P), axis=1)]
+    if P.shape[0] == 0:
+        return float("nan")
+    best = 0.0
+    for s in range(0, P.shape[0], chunk):
+        A = P[s : s + chunk]
+        d2 = ((A[:, None, :] - P[None, :, :]) ** 2).sum(-1)
+        best = max(best, float(d2.max()))
+    return math.sqrt(best)
+
+
+def robust_z(values) -> np.ndarray:
+    """Modified z-score M_i = 0.6745 (x_i − median) / MAD (Iglewicz & Hoaglin 1993), shape (N,).
+
+    MAD = median |x_i − median|. When MAD = 0, the mean absolute deviation from the median is
+    used instead: M_i = (x_i − median) / (1.253314 · MeanAD) (common practice, no source). When
+    both are 0 (all defined values equal) M is 0. NaN stays NaN.
+    """
+    x = np.asarray(values, dtype=float)
+    out = np.full(x.shape, np.nan)
+    ok = np.isfinite(x)
+    if not ok.any():
+        return out
+    xs = x[ok]
+    med = float(np.median(xs))
+    dev = xs - med
+    mad = float(np.median(np.abs(dev)))
+    if mad > 0:
+        out[ok] = _MAD_K * dev / mad
+    else:
+        mean_ad = float(np.mean(np.abs(dev)))
+        out[ok] = dev / (_MEANAD_K * mean_ad) if mean_ad > 0 else 0.0
+    return out
+
+
+def _figure_label(name: str) -> str:
+    from .. import figures
+
+    return figures.label(name)
+
+
+def _fmt(name: str, v: float) -> str:
+    """A figure's value in its human format with its unit (the figure registry's; chromaticity-
+    scale figures get one more decimal, so a flagged value and the median do not print alike)."""
+    from .. import figures
+
+    try:
+        f = figures.get(name)
+        return f.format(v, 1 if f.decimals >= 3 else 0, unit=True)
+    except KeyError:
+        return f"{v:.4g}"
+
+
+def screen_outliers(
+    figures: Mapping[str, np.ndarray],
+    names: Sequence[str] = OUTLIER_FIGURES,
+    *,
+    threshold: float = OUTLIER_THRESHOLD,
+    min_samples: int = OUTLIER_MIN_SAMPLES,
+) -> tuple[np.ndarray, tuple[tuple[str, ...], ...], dict[str, np.ndarray]]:
+    """Flag samples whose |modified z| exceeds ``threshold`` for any screened figure.
+
+    Returns
+    -------
+    flags : ndarray of bool (N,)
+    reasons : tuple of tuple of str (N,)
+    z : dict of str -> ndarray (N,)
+    """
+    n = None
+    for v in figures.values():
+        n = np.asarray(v).shape[0]
+        break
+    if n is None:
+        return np.zeros(0, dtype=bool), (), {}
+    flags = np.zeros(n, dtype=bool)
+    reasons: list[list[str]] = [[] for _ in range(n)]
+    zs: dict[str, np.ndarray] = {}
+    from .. import figures as registry
+
+    for name in names:
+        if name not in figures:
+            continue
+        x = np.asarray(figures[name], dtype=float)
+        if np.isfinite(x).sum() < min_samples:
+            continue
+        z = robust_z(x)
+        zs[name] = z
+        med = float(np.nanmedian(x))
+        hit = np.abs(np.nan_to_num(z, nan=0.0)) > threshold
+        label = registry.label(name)
+        for i in np.flatnonzero(hit):
+            side = "above" if z[i] > 0 else "below"
+            reasons[i].append(
+                f"{label} = {_fmt(name, x[i])} lies {side} the lot median {_fmt(name, med)} "
+                f"(modified z = {z[i]:+.1f}, |z| > {threshold:g})"
+            )
+        flags |= hit
+    return flags, tuple(tuple(r) for r in reasons), zs
+
+
+def lot_yield(verdicts: Sequence[str]) -> LotYield:
+    """Yield from per-sample overall verdicts (``pass``, ``fail``, ``not judged``,
+    ``indeterminate`` as in :mod:`lumeval.criteria.verdicts`)."""
+    v = list(verdicts)
+    total = len(v)
+    passed = sum(1 for o in v if o == "pass")
+    failed = sum(1 for o in v if o in ("fail", "not valid"))  # 'not valid' counts as a fail
+    nj = sum(1 for o in v if o == "not judged")
+    ind = sum(1 for o in v if o == "indeterminate")
+    pct = 100.0 * passed / total if total else float("nan")
+    return LotYield(total, passed, failed, nj, ind, pct)
+
+
+def nearest_standard_ellipse(centre_upvp):
+    """The IEC 60081 ellipse (:func:`lumeval.criteria.regions.iec60081_ellipse`) whose centre is
+    nearest in (u', v') to ``centre_upvp``."""
+    from ..criteria.regions import IEC60081_CENTRES, iec60081_ellipse
+
+    best, best_d = None, np.inf
+    for name in IEC60081_CENTRES:
+        e = iec60081_ellipse(name)
+        d = float(delta_upvp(upvp_from_xy(e.centre_xy)[None, :], centre_upvp)[0])
+        if d < best_d:
+            best, best_d = e, d
+    return best
+
+
+# --------------------------------------------------------------------------- the lot
+
+
+def lot_statistics(
+    figures: Mapping[str, np.ndarray],
+    xy,
+    *,
+    ellipse=None,
+    nominal_xy=None,
+    verdicts: Sequence[str] | None = None,
+    ddof: int = DDOF,
+    percentile_method: str = PERCENTILE_METHOD,
+    outlier_figures: Sequence[str] = OUTLIER_FIGURES,
+    outlier_threshold: float = OUTLIER_THRESHOLD,
+) -> LotStatistics:
+    """Statistics and chromatic consistency of a lot.
+
+    Parameters
+    ----------
+    figures : mapping of str -> ndarray (N,)
+        Per-sample figures by lumeval figure name (NaN = undefined), in report order.
+    xy : array_like, shape (N, 2)
+        CIE 1931 (x, y) of each sample (CIE 1931 2° observer).
+    ellipse : SdcmEllipse, optional
+        The nominal colour-matching ellipse (:mod:`lumeval.criteria.regions`): its centre is
+        the nominal centre and its coefficients give the steps. Default: the IEC 60081 ellipse
+        nearest to the centroid (for steps from the centroid only; no nominal centre).
+    nominal_xy : array_like (2,), optional
+        The nominal centre when it differs from the ellipse's centre (e.g. an ANSI C78.377
+        category centre); steps from it use the ellipse's coefficients.
+    verdicts : sequence of str (N,), optional
+        Overall verdict per sample against criteria; gives the yield.
+    ddof, percentile_method
+        See :func:`describe`.
+    outlier_figures, outlier_threshold
+        See :func:`screen_outliers`.
+
+    Returns
+    -------
+    LotStatistics
+    """
+    names = list(figures)
+    xy = np.atleast_2d(np.asarray(xy, dtype=float))
+    n = xy.shape[0]
+    for k in names:
+        if np.asarray(figures[k]).shape != (n,):
+            raise ValueError(f"figure {k!r} has shape {np.shape(figures[k])}, expected ({n},)")
+    if verdicts is not None and len(verdicts) != n:
+        raise ValueError(f"{len(verdicts)} verdicts for {n} samples")
+    notes: list[str] = []
+
+    # one figure at a time: temporaries of N values, not N × figures (a lot of 10^6 samples)
+    cols = [describe(np.asarray(figures[k], dtype=float), ddof=ddof, percentile_method=percentile_method) for k in names]
+    d = ({key: np.array([c[key][0] for c in cols]) for key in cols[0]} if cols
+         else describe(np.empty((n, 0)), ddof=ddof, percentile_method=percentile_method))
+    summaries = tuple(
+        FigureSummary(
+            k,
+            int(d["count"][j]),
+            int(d["undefined"][j]),
+            float(d["mean"][j]),
+            float(d["std"][j]),
+            float(d["min"][j]),
+            float(d["max"][j]),
+            float(d["median"][j]),
+            float(d["p05"][j]),
+            float(d["p95"][j]),
+        )
+        for j, k in enumerate(names)
+    )
+
+    upvp = upvp_from_xy(xy)
+    centroid = chromaticity_centroid(upvp)
+    centroid_xy = xy_from_upvp(centroid)
+    if not np.all(np.isfinite(centroid)):
+        notes.append("no sample has a defined chromaticity: centroid, Δu'v' and steps are undefined")
+    d_c = delta_upvp(upvp, centroid)
+
+    nominal_given = ellipse is not None or nominal_xy is not None
+    if ellipse is None and np.all(np.isfinite(centroid)):
+        ellipse = nearest_standard_ellipse(centroid)
+        notes.append(
+            f"steps use the coefficients of the {ellipse.name} ellipse (the standard ellipse nearest to the "
+            "lot centroid), translated to each centre"
+        )
+    if ellipse is not None:
+        ell_name, ell_source = ellipse.name, ellipse.source
+        steps_c = replace(ellipse, centre_xy=centroid_xy).steps(xy) if np.all(np.isfinite(centroid)) else np.full(n, np.nan)
+    else:
+        ell_name, ell_source = "", ""
+        steps_c = np.full(n, np.nan)
+
+    nom_xy = nom_upvp = d_n = steps_n = None
+    if nominal_given:
+        nom_xy = np.asarray(nominal_xy if nominal_xy is not None else ellipse.centre_xy, dtype=float)
+        nom_upvp = upvp_from_xy(nom_xy)
+        d_n = delta_upvp(upvp, nom_upvp)
+        steps_n = replace(ellipse, centre_xy=nom_xy).steps(xy) if ellipse is not None else np.full(n, np.nan)
+
+    dmax, i, j = max_pairwise_distance(upvp)
+
+    flags, reasons, zs = screen_outliers(figures, outlier_figures, threshold=outlier_threshold)
+    rule = (
+        f"modified z-score 0.6745·(x − median)/MAD, flagged when |z| > {outlier_threshold:g} for any of "
+        f"{', '.join(_figure_label(f) for f in outlier_figures if f in figures)} "
+        f"(Iglewicz & Hoaglin 1993; MAD = 0 falls back to 1.2533·mean absolute deviation; figures with fewer "
+        f"than {OUTLIER_MIN_SAMPLES} defined values are not screened)"
+    )
+    if n < OUTLIER_MIN_SAMPLES:
+        notes.append(f"fewer than {OUTLIER_MIN_SAMPLES} samples: no outlier screening")
+
+    return LotStatistics(
+        n_samples=n,
+        figures=summaries,
+        ddof=ddof,
+        percentile_method=percentile_method,
+        centroid_upvp=centroid,
+        centroid_xy=centroid_xy,
+        d_upvp_centroid=d_c,
+        steps_centroid=steps_c,
+        nominal_xy=nom_xy,
+        nominal_upvp=nom_upvp,
+        d_upvp_nominal=d_n,
+        steps_nominal=steps_n,
+        ellipse_name=ell_name,
+        ellipse_source=ell_source,
+        max_pairwise_d_upvp=dmax if n >= 2 or math.isnan(dmax) else 0.0,
+        max_pair=(i, j),
+        outlier=flags if flags.shape == (n,) else np.zeros(n, dtype=bool),
+        outlier_reasons=reasons if len(reasons) == n else tuple(() for _ in range(n)),
+        robust_z=zs,
+        outlier_rule=rule,
+        yield_=lot_yield(verdicts) if verdicts is not None else None,
+        notes=tuple(notes),
+    )
+
+
+#: Figures summarised by default for a lot (every figure of the engine).
+def default_figure_names() -> tuple[str, ...]:
+    from .. import figures
+
+    return figures.names()
+
+
+def lot_from_evaluation(ev, *, figure_names: Sequence[str] | None = None, **kwargs) -> LotStatistics:
+    """:func:`lot_statistics` of an :class:`~lumeval.engine.Evaluation`.
+
+    ``figure_names`` defaults to every figure of the registry (:func:`lumeval.figures.names`); other
+    keyword arguments go to :func:`lot_statistics`.
+    """
+    names = tuple(figure_names) if figure_names is not None else default_figure_names()
+    figs = {k: ev.figure(k) for k in names}
+    xy = np.column_stack([ev.x, ev.y])
+    return lot_statistics(figs, xy, **kwargs)

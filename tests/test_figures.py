@@ -76,7 +76,7 @@ def test_one_registry_row_reaches_every_output(ev, extra_figure):
 
 def test_extra_figure_in_criteria_and_lot(ev, extra_figure):
     from lumeval.criteria import parse_criteria
-    from lumeval.lot import lot_from_evaluation
+    from lumeval.lots.statistics import lot_from_evaluation
 
     crit = parse_criteria('[[clause]]\nfigure = "y-share"\nmin = 0.1\n', "t.toml")
     assert crit.clauses[0].figure == "test_y_share"

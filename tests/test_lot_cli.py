@@ -189,7 +189,7 @@ def test_lot_clause_errors_name_line_and_key(body, key):
 
 def test_lot_clauses_hand_cases():
     from lumeval.criteria.lot_clauses import evaluate_lot_clauses
-    from lumeval.lot import lot_statistics
+    from lumeval.lots.statistics import lot_statistics
 
     crit = _parse(
         '[[clause]]\nkind = "lot_centroid_steps"\nmax_steps = 2\nellipse = "F3000"\n'

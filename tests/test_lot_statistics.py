@@ -1,4 +1,4 @@
-"""Lot statistics (lumeval.lot) against numpy/scipy computed independently, and hand-made cases.
+"""Lot statistics (lumeval.lots.statistics) against numpy/scipy computed independently, and hand-made cases.
 
 Outside references used here:
 - numpy's mean/std/percentile and scipy.stats (describe, median_abs_deviation) on the same
@@ -16,7 +16,7 @@ import pytest
 from scipy import stats
 from scipy.spatial.distance import pdist
 
-from lumeval import lot
+from lumeval.lots import statistics as lot
 
 
 RNG = np.random.default_rng(4)

@@ -282,7 +282,7 @@ def test_validate_targets_before_any_write(tmp_path):
 
 
 def test_lot_statistics_object_is_shown(demo_eval):
-    from lumeval.lot import lot_from_evaluation
+    from lumeval.lots.statistics import lot_from_evaluation
 
     stats = lot_from_evaluation(demo_eval, figure_names=("cct_K", "Ra", "R9"))
     text = H.render_html_report(demo_eval, lot=stats)

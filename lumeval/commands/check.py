@@ -109,8 +109,12 @@ def register(app: typer.Typer) -> None:
         check_targets(files={"--output": output, "--html": html}, dirs={"--plots": plots}, dir_files=dir_files,
                       inputs=[*files, criteria, *([instrument] if instrument is not None else [])])
         from ..api import check_run
+        from ..criteria import load_criteria
 
-        run = check_run(files, criteria, instrument, seed=seed, draws=draws)
+        loaded = load_criteria(criteria)  # first: a bad criteria file is reported before any computation
+        for w in loaded.warnings:
+            print(f"lumeval: warning: {w}", file=sys.stderr)
+        run = check_run(files, loaded, instrument, seed=seed, draws=draws)
         crit, ev, result = run.criteria, run.evaluation, run.result
         if html is not None or plots is not None:
             from ..render.html import regions_from_criteria, write_outputs

@@ -3,14 +3,14 @@
 They plug into the criteria model through :func:`lumeval.criteria.model.register_clause_kind`
 (importing this module registers them). Per-sample evaluation
 (:meth:`lumeval.criteria.model.Criteria.evaluate`) skips them; ``lumeval lot`` judges them with
-:func:`evaluate_lot_clauses` against :class:`lumeval.lot.LotStatistics`.
+:func:`evaluate_lot_clauses` against :class:`lumeval.lots.statistics.LotStatistics`.
 
 Kinds
 -----
 ``lot_centroid_steps``  every sample within ``max_steps`` ellipse steps of the lot's own
     chromaticity centroid (steps by the MacAdam (1942) quadratic form in CIE 1931 (x, y), with
     the coefficients of the IEC 60081 ellipse named by ``ellipse``, default the one nearest the
-    centroid; see :mod:`lumeval.lot`). Judged per sample; the lot passes when every sample does.
+    centroid; see :mod:`lumeval.lots.statistics`). Judged per sample; the lot passes when every sample does.
 ``lot_max_pairwise``    the largest Δu'v' between any two samples at most ``max_delta_upvp``
     (CIE 1976 u'v', CIE 15:2004 §8.1).
 ``lot_yield``           at least ``min_percent`` of the samples pass every per-sample clause of

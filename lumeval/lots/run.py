@@ -42,7 +42,7 @@ class LotRun:
     figures : dict of str -> ndarray (N,)
         Every figure of the registry (:func:`lumeval.figures.names`).
     xy : ndarray (N, 2)
-    stats : lumeval.lot.LotStatistics
+    stats : lumeval.lots.statistics.LotStatistics
     check : lumeval.criteria.verdicts.CheckResult or None
         Per-sample clause results (None without criteria or without per-sample clauses).
     lot_results : tuple of LotClauseResult
@@ -188,7 +188,7 @@ def run_lot(
         Per-sample clauses give each sample's verdict and the yield; lot clauses (see
         :mod:`lumeval.criteria.lot_clauses`) are judged on the lot statistics.
     ellipse, nominal_xy
-        Passed to :func:`lumeval.lot.lot_statistics`. Without them, an ``sdcm`` clause of the
+        Passed to :func:`lumeval.lots.statistics.lot_statistics`. Without them, an ``sdcm`` clause of the
         criteria supplies the nominal ellipse, else an ``ansi_quadrangle`` clause the nominal
         centre.
     batch_spectra : int

@@ -38,7 +38,7 @@ inputs:
     ``corners_upvp`` (a quadrangle), or ``(ellipse, n_steps)`` pairs where the ellipse has
     ``name`` and ``boundary_xy(n_steps)``.
 ``lot``
-    Lot statistics: a ``lumeval.lot.LotStatistics`` (its figure summaries become the table,
+    Lot statistics: a ``lumeval.lots.statistics.LotStatistics`` (its figure summaries become the table,
     centroid, largest pairwise Δu′v′, yield and outliers the notes), a sequence of rows
     (mappings or dataclasses, shown as a table with their keys as columns), or a mapping
     ``{"title": str, "rows": [...], "notes": [str, ...]}``. Giving a lot draws every chart in
@@ -303,7 +303,7 @@ def _as_lot(lot, n: int, per_sample_max: int | None) -> bool:
 def _lot_block(lot, names=None):
     if lot is None:
         return None
-    if hasattr(lot, "figures") and hasattr(lot, "n_samples"):  # lumeval.lot.LotStatistics
+    if hasattr(lot, "figures") and hasattr(lot, "n_samples"):  # lumeval.lots.statistics.LotStatistics
         notes = [f"{lot.n_samples} samples."]
         c = getattr(lot, "centroid_xy", None)
         if c is not None and np.all(np.isfinite(c)):

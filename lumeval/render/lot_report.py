@@ -96,7 +96,7 @@ def _pct(a, q):
 
 
 def run_percentile_method() -> str:
-    from ..lot import PERCENTILE_METHOD
+    from ..lots.statistics import PERCENTILE_METHOD
 
     return PERCENTILE_METHOD
 

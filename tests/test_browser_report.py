@@ -67,7 +67,7 @@ def reports(tmp_path_factory):
     """Two reports: the demo candidates judged against criteria, and the same spectra as a lot."""
     if not DEMO:
         pytest.skip("spectra_demo/downlights has no CSV files")
-    from lumeval.commands.inspect import inspect_files
+    from lumeval.api import inspect as inspect_files
     from lumeval.criteria import check, parse_criteria
     from lumeval.criteria.regions import ansi_quadrangle
     from lumeval.render.html import write_html_report

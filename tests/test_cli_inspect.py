@@ -171,6 +171,6 @@ def test_far_from_locus_reports_cct_undefined(tmp_path):
 def test_python_api_mirrors_cli(f_series_files):
     import lumeval
 
-    ev = lumeval.inspect_files(f_series_files[:2])
+    ev = lumeval.inspect(f_series_files[:2])
     assert len(ev) == 2
     assert ev.figure("x")[0] == pytest.approx(CIE15_T81["FL1"][0], abs=5e-5)

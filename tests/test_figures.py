@@ -24,7 +24,7 @@ DEMO = sorted((Path(__file__).resolve().parents[1] / "spectra_demo" / "downlight
 def ev():
     if not DEMO:
         pytest.skip("spectra_demo/downlights has no CSV files")
-    from lumeval.commands.inspect import inspect_files
+    from lumeval.api import inspect as inspect_files
 
     return inspect_files(DEMO[:3])
 

@@ -45,7 +45,7 @@ nominal_cct = 3000
 def demo_eval():
     if not DEMO:
         pytest.skip("spectra_demo/downlights has no CSV files")
-    from lumeval.commands.inspect import inspect_files
+    from lumeval.api import inspect as inspect_files
 
     return inspect_files(DEMO)
 

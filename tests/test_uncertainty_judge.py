@@ -24,7 +24,7 @@ DEMO = Path(__file__).resolve().parents[1] / "spectra_demo" / "downlights"
 
 @pytest.fixture(scope="module")
 def evaluation():
-    from lumeval.commands.inspect import inspect_files
+    from lumeval.api import inspect as inspect_files
 
     return inspect_files([DEMO / "candidate_A_aurora_3000K.csv", DEMO / "candidate_B_basicline_3000K.csv"])
 

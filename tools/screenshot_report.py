@@ -52,7 +52,7 @@ def main(argv=None) -> int:
 
     from chromium import Browser, ensure_chromium
 
-    from lumeval.commands.inspect import inspect_files
+    from lumeval.api import inspect as inspect_files
     from lumeval.criteria import check, load_criteria, parse_criteria
     from lumeval.render.html import regions_from_criteria, write_html_report
 

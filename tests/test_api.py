@@ -133,8 +133,8 @@ def test_public_names_are_pinned():
         "CheckRun", "ComputationError", "CriteriaError", "DecisionRule", "Evaluation", "InputError", "InstrumentModel",
         "LotRun", "LumevalError", "PhotometryResult", "SpectrumSet", "TM30Result", "cct_duv_ohno", "check", "cie2017_rf",
         "claims", "convert", "evaluate", "inspect", "load_claims", "load_criteria", "load_instrument", "lot",
-        "lot_from_evaluation", "lot_statistics", "mix_files", "photometry", "planck_exitance", "planckian_uv", "prepare",
-        "propagate_uncertainty", "read_many", "read_spectra", "run_lot", "series_files", "tm30", "tristimulus", "validate_report",
+        "list_lots", "lot_from_evaluation", "lot_record", "lot_statistics", "mix_files", "PreparedSpectra", "photometry", "planck_exitance", "planckian_uv", "prepare", "prepare_groups",
+        "propagate_uncertainty", "read_many", "read_spectra", "record_lot", "run_lot", "series_files", "tm30", "trend", "tristimulus", "validate_report",
         "write_html_report", "write_outputs", "write_plots", "write_spectra",
     ]) + ["__version__"]
     for name in lumeval.__all__:

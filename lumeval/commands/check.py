@@ -113,7 +113,7 @@ def register(app: typer.Typer) -> None:
 
         loaded = load_criteria(criteria)  # first: a bad criteria file is reported before any computation
         for w in loaded.warnings:
-            print(f"lumeval: warning: {w}", file=sys.stderr)
+            print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
         run = check_run(files, loaded, instrument, seed=seed, draws=draws)
         crit, ev, result = run.criteria, run.evaluation, run.result
         if html is not None or plots is not None:

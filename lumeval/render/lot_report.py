@@ -112,7 +112,7 @@ def _arr(a, i):
 
 def lot_document(run) -> dict:
     """The lot JSON document (see the module docstring)."""
-    from .. import __version__
+    from ..schemas import header
 
     st = run.stats
     verdicts = run.sample_verdicts
@@ -150,8 +150,7 @@ def lot_document(run) -> dict:
         samples.append(rec)
     y = st.yield_
     return {
-        "lumeval_version": __version__,
-        "schema_version": JSON_SCHEMA_VERSION,
+        **header("lot"),
         "kind": "lot",
         "counts": _counts(run),
         "criteria": None if run.criteria_file is None else {"file": run.criteria_file, "identification": dict(run.identification)},

@@ -135,11 +135,10 @@ def spectrum_record(ev, i: int) -> dict:
 
 def evaluation_document(ev) -> dict:
     """The whole JSON document for an evaluation."""
-    from .. import __version__
+    from ..schemas import header
 
     return {
-        "lumeval_version": __version__,
-        "schema_version": JSON_SCHEMA_VERSION,
+        **header("inspect"),
         "methods": dict(ev.methods),
         # the computation grid shared by every spectrum, or null when they lie on several
         # grids (each spectrum is evaluated on its own; see each record's "grid")

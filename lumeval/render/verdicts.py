@@ -390,7 +390,10 @@ def check_record(result) -> dict:
                 "clauses": clauses,
             }
         )
+    from ..schemas import header
+
     return {
+        **header("check"),
         "lumeval_check": JSON_SCHEMA_VERSION,
         "criteria_file": result.criteria_file,
         "identification": result.identification,
@@ -561,7 +564,10 @@ def claims_record(check) -> dict:
                 ],
             }
         )
+    from ..schemas import header
+
     return {
+        **header("claims"),
         "lumeval_claims_check": JSON_SCHEMA_VERSION,
         "claims_file": check.claims_file,
         "supplier": check.supplier,

@@ -141,9 +141,9 @@ def render_validation(checks: list[SpectrumCheck], fmt: str = "terminal") -> str
     if fmt == "json":
         import json
 
-        from .. import __version__
+        from ..schemas import header
 
-        doc = {"lumeval_version": __version__, "validation": [c.as_dict() for c in checks]}
+        doc = {**header("validation"), "validation": [c.as_dict() for c in checks]}
         return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
     if fmt == "csv":
         import csv

@@ -18,7 +18,9 @@ class OutputFormat(str, Enum):
 
 
 def __getattr__(name: str):
-    # the former Python twins of this command
+    # the former Python twins of this command (any other missing name: AttributeError, cheaply)
+    if name not in ("check_files", "run_check"):
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
     from .._deprecation import renamed
 
     if name == "check_files":

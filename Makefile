@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test venv clean bench fuzz browser-deps postgres-deps
+.PHONY: demo test lint venv clean bench fuzz browser-deps postgres-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -61,6 +61,10 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(PY) -m pytest
+
+# Gates (configured in pyproject.toml): ruff on the whole tree.
+lint: $(STAMP)
+	$(VENV)/bin/ruff check .
 
 # Benchmarks (not tests): start-up times; engine vs a per-spectrum colour-science loop on 2,000
 # spectra, and 100,000 spectra through `lumeval lot` with peak memory (docs/lots.md); the history

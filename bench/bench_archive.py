@@ -128,8 +128,8 @@ def main() -> None:
         if n_dask:
             small = tmp / "dask.parquet"
             write_archive(small, n_dask, step, seed=3)
-            w1, c1, r1, _ = run_child(["lot", str(small), "--quiet"])
-            w2, c2, r2, _ = run_child(["lot", str(small), "--quiet", "--workers", "2"])
+            w1, _c1, r1, _ = run_child(["lot", str(small), "--quiet"])
+            w2, _c2, r2, _ = run_child(["lot", str(small), "--quiet", "--workers", "2"])
             print(f"Dask ({n_dask:,} spectra): one process {w1:.1f} s wall; local cluster of 2 workers "
                   f"{w2:.1f} s wall (incl. ~3 s cluster start); speed-up {w1 / w2:.2f}x; client peak RSS "
                   f"{r1:.0f} MB vs {r2:.0f} MB")

@@ -231,7 +231,10 @@ def part2(n: int, per_file: int, keep: bool) -> None:
             print(err.decode("utf-8", "replace")[-2000:])
         print(f"  wall time {wall:8.1f} s   {n / wall:8.0f} spectra/s end to end (read + evaluate + statistics + write)")
         print(f"  peak RSS  {peak_kb / 1024:8.0f} MB  (ru_maxrss of the child; target < 2048 MB)")
-        rows = sum(1 for _ in open(tmp / "samples.csv", encoding="utf-8")) - 1 if (tmp / "samples.csv").exists() else 0
+        rows = 0
+        if (tmp / "samples.csv").exists():
+            with open(tmp / "samples.csv", encoding="utf-8") as fh:
+                rows = sum(1 for _ in fh) - 1
         print(f"  per-sample CSV rows: {rows}")
     finally:
         if not keep:

@@ -35,7 +35,7 @@ def load():
     stub = _LazyPlotting("colour.plotting")
     sys.modules["colour.plotting"] = stub
     try:
-        import colour  # noqa: PLC0415
+        import colour
     except BaseException:
         if sys.modules.get("colour.plotting") is stub:
             del sys.modules["colour.plotting"]

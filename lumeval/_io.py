@@ -36,8 +36,9 @@ import os
 import re
 import secrets
 import stat
+from collections.abc import Iterable, Iterator, Mapping
 from pathlib import Path
-from typing import IO, Iterable, Iterator, Mapping
+from typing import IO
 
 from .errors import OutputError, UsageError
 
@@ -431,10 +432,8 @@ def atomic_output(
                           fix="check the free space and the permissions; the previous file, if any, is unchanged") from None
     finally:
         if tmp is not None:
-            try:
+            with contextlib.suppress(OSError):
                 os.unlink(tmp)
-            except OSError:
-                pass
 
 
 def write_bytes(path: str | os.PathLike, data: bytes, *, option: str | None = None) -> None:

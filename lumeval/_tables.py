@@ -20,7 +20,7 @@ Each table is ``(wavelengths_nm (W,), values (W,) or (W, k) or (k, W))`` as docu
 
 from __future__ import annotations
 
-from functools import lru_cache
+from functools import cache, lru_cache
 from importlib import metadata
 from pathlib import Path
 
@@ -120,7 +120,7 @@ def _snapshot() -> dict | None:
         return {k: z[k] for k in z.files}
 
 
-@lru_cache(maxsize=None)
+@cache
 def table(name: str) -> tuple[np.ndarray, np.ndarray]:
     """``(wavelengths_nm, values)`` of the table ``name`` (a key of :data:`TABLES`), read-only."""
     if name not in TABLES:

@@ -7,6 +7,7 @@ with one clean line, and keeps start-up light (no colour-science import before a
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import importlib
 import os
@@ -139,10 +140,8 @@ def _say(line: str, *, raw: bool = False) -> None:
         from .render.safe import clean
 
         line = _shorten(clean(line))
-    try:
+    with contextlib.suppress(OSError, ValueError):
         print(line, file=sys.stderr, flush=True)
-    except (OSError, ValueError):
-        pass
 
 
 #: Above this length an error line has its quoted values cut to QUOTE_MAX characters.
@@ -162,7 +161,7 @@ def _shorten(line: str) -> str:
         q, body = m.group(1), m.group(2)
         return f"{q}{body[:QUOTE_MAX]}…{q}"
 
-    line = re.sub(r"(['\"])([^'\"]{%d,})\1" % (QUOTE_MAX + 1), cut, line)
+    line = re.sub(rf"(['\"])([^'\"]{{{QUOTE_MAX + 1},}})\1", cut, line)
     if len(line) > 4 * _LONG_LINE:  # an unquoted run of data: keep the start and the fix
         head, sep, fix = line.rpartition(" \u2014 ")
         line = (head[:2 * _LONG_LINE] + "…" + sep + fix[:_LONG_LINE]) if sep else line[:4 * _LONG_LINE] + "…"
@@ -245,7 +244,7 @@ def _usage_line(exc) -> str:
     text = " ".join(str(exc.format_message()).split())
     text = text.replace("Value error, ", "")
     # quote at most QUOTE_MAX characters of a value the user typed
-    text = re.sub(r"'([^']{%d,})'" % (QUOTE_MAX + 1), lambda m: f"'{m.group(1)[:QUOTE_MAX]}…'", text)
+    text = re.sub(rf"'([^']{{{QUOTE_MAX + 1},}})'", lambda m: f"'{m.group(1)[:QUOTE_MAX]}…'", text)
     text = text.rstrip(".")
     return f"lumeval: error: {where + ': ' if where else ''}{text} — see '{path} --help'"
 

@@ -264,7 +264,13 @@ class _Chunk:
 
 
 def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
-    from .metrics.colorimetry import cct_duv_ohno, tristimulus, upvp_from_XYZ, uv_from_XYZ, xy_from_XYZ
+    from .metrics.colorimetry import (
+        cct_duv_ohno,
+        tristimulus,
+        upvp_from_XYZ,
+        uv_from_XYZ,
+        xy_from_XYZ,
+    )
     from .metrics.cri import cie133_cri
     from .metrics.photometry import photometry
     from .metrics.tm30 import cie2017_rf, tm30

@@ -33,8 +33,9 @@ Adding a metric is one function in ``lumeval/metrics/`` plus one :func:`register
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Callable, Iterator
+from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
@@ -59,7 +60,7 @@ class Figure:
     group: str
     description: str
     source: str
-    read: Callable[["Evaluation"], Any] = field(repr=False, compare=False)
+    read: Callable[[Evaluation], Any] = field(repr=False, compare=False)
     unit: str = ""
     decimals: int = 1
     signed: bool = False
@@ -110,7 +111,7 @@ class Figure:
         extra decimals (at most 6) so that a non-zero margin never prints as zero."""
         return self.format(margin, margin_extra_decimals(margin, self.decimals), unit=unit, sign=True)
 
-    def value(self, ev: "Evaluation") -> "np.ndarray":
+    def value(self, ev: Evaluation) -> np.ndarray:
         """This figure for every spectrum of ``ev``: a float array of shape (N,)."""
         import numpy as np
 
@@ -139,7 +140,7 @@ def margin_extra_decimals(margin: Any, decimals: int, *, limit: int = 6) -> int:
     f = float(margin)
     if not math.isfinite(f) or f == 0.0:
         return 0
-    for k in range(0, limit + 1):
+    for k in range(limit + 1):
         if float(format(abs(f), f".{max(0, decimals + k)}f")) != 0.0:
             return k
     return limit
@@ -300,11 +301,11 @@ def _family(name: str) -> tuple[str, int] | None:
 
 # --------------------------------------------------------------------------- readers
 
-def _attr(name: str) -> Callable[["Evaluation"], Any]:
+def _attr(name: str) -> Callable[[Evaluation], Any]:
     return lambda ev: getattr(ev, name)
 
 
-def _sub(part: str, name: str, col: int | None = None) -> Callable[["Evaluation"], Any]:
+def _sub(part: str, name: str, col: int | None = None) -> Callable[[Evaluation], Any]:
     if col is None:
         return lambda ev: getattr(getattr(ev, part), name)
     return lambda ev: getattr(getattr(ev, part), name)[:, col]

@@ -25,8 +25,7 @@ from scipy.optimize import least_squares
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
-from lumeval.metrics.colorimetry import (  # noqa: E402
-    cct_duv_ohno,
+from lumeval.metrics.colorimetry import (
     planckian_uv,
     tristimulus,
     uv_from_XYZ,

@@ -41,9 +41,9 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 sys.path.insert(0, str(HERE.parent))
 
-from generate import WL, band, target_uv, write_csv_atomic  # noqa: E402  (the lead's LED model)
+from generate import WL, band, target_uv, write_csv_atomic
 
-from lumeval.metrics.colorimetry import tristimulus, uv_from_XYZ  # noqa: E402
+from lumeval.metrics.colorimetry import tristimulus, uv_from_XYZ
 
 OUT = HERE / "lot_2026w48"
 N_MODULES = 200

@@ -32,8 +32,8 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 sys.path.insert(0, str(HERE.parent))
 
-from generate import WL  # noqa: E402
-from generate_lot import PUMP_FWHM, PUMP_NM, module_spd, nominal_amounts  # noqa: E402
+from generate import WL
+from generate_lot import PUMP_FWHM, PUMP_NM, module_spd, nominal_amounts
 
 OUT = HERE / "weekly"
 WEEKS = tuple(range(40, 48))

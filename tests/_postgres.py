@@ -134,7 +134,7 @@ def postgres_server():
         msg = f"PostgreSQL test server could not start: {exc}"
         if in_ci():
             pytest.fail("CI=true, so this is an error, not a skip: " + msg, pytrace=False)
-        warnings.warn(msg)
+        warnings.warn(msg, stacklevel=2)
         sys.stderr.write("\n" + "!" * 78 + "\nPOSTGRESQL TESTS SKIPPED: " + msg + "\n" + "!" * 78 + "\n")
         pytest.skip(msg)
     yield srv

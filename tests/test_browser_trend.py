@@ -39,7 +39,7 @@ def chromium():
     path, how = ensure_chromium()
     if path is None:
         msg = f"BROWSER TEST SKIPPED: headless Chromium is not available and could not be installed: {how}"
-        warnings.warn(msg)
+        warnings.warn(msg, stacklevel=2)
         sys.stderr.write("\n" + "!" * 78 + "\n" + msg + "\n" + "!" * 78 + "\n")
         pytest.skip(msg)
     return path

@@ -51,7 +51,7 @@ def test_common_identification_claims_and_supplier_keys():
     assert first_column_keys(section("### `[identification]`")) == set(IDENTIFICATION_KEYS)
     assert first_column_keys(section("### `[claims]` keys")) == set(NOT_CHECKABLE_KEYS)
     assert first_column_keys(section("### `[supplier]` keys")) == set(SUPPLIER_KEYS)
-    kinds_cell = [ln for ln in section("### Keys of every clause").splitlines() if ln.startswith("| `kind`")][0]
+    kinds_cell = next(ln for ln in section("### Keys of every clause").splitlines() if ln.startswith("| `kind`"))
     assert set(re.findall(r"`(\w+)`", kinds_cell)) - {"kind"} == set(CLAUSE_KINDS)
 
 

@@ -15,6 +15,8 @@ Outside sources used (named beside each check):
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 import pytest
 
@@ -285,7 +287,7 @@ def test_margin_is_distance_in_upvp():
 def test_computed_neighbours_share_edges_and_do_not_overlap():
     """2017 construction: adjacent categories share the corners of their common CCT edge exactly,
     and no point of a dense grid lies strictly inside two quadrangles."""
-    for a, b in zip(NOMINALS[:-1], NOMINALS[1:]):
+    for a, b in itertools.pairwise(NOMINALS):
         qa, qb = R.ansi_computed_quadrangle(a), R.ansi_computed_quadrangle(b)
         assert qa.cct_range_K[1] == qb.cct_range_K[0]
         assert np.allclose(qa.corners_upvp[[3, 2]], qb.corners_upvp[[0, 1]], atol=1e-12)

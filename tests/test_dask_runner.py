@@ -29,9 +29,9 @@ import pytest
 pytest.importorskip("distributed")
 pytest.importorskip("pyarrow")
 
-from lumeval.commands.lot import run_lot  # noqa: E402
+from lumeval.commands.lot import run_lot
 
-from .test_lot_archive import DEMO, DEMO_CRITERIA, _criteria, demo_archive  # noqa: E402
+from .test_lot_archive import DEMO, DEMO_CRITERIA, _criteria, demo_archive
 
 REPO = Path(__file__).resolve().parents[1]
 RTOL = 1e-12

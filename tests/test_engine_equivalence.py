@@ -176,7 +176,7 @@ def _colour_fidelity(colour, values, cct, duv, method, monkeypatch):
 def test_tm30_against_colour_with_same_cct(colour, data, monkeypatch):
     spectra, ev, _ = data
     outside_blend = (ev.cct_K < 4000) | (ev.cct_K > 5000)
-    worst = {k: 0.0 for k in ("Rf", "Rg", "Rf_h", "Rcs_h", "Rhs_h")}
+    worst = dict.fromkeys(("Rf", "Rg", "Rf_h", "Rcs_h", "Rhs_h"), 0.0)
     for i in np.flatnonzero(outside_blend):
         spec = _colour_fidelity(colour, spectra.values[i], ev.cct_K[i], ev.duv[i], "ANSI/IES TM-30-18", monkeypatch)
         worst["Rf"] = max(worst["Rf"], abs(spec.R_f - ev.tm30.Rf[i]))

@@ -55,7 +55,7 @@ def _numeric_leaves(obj, prefix=""):
     elif isinstance(obj, list) and all(isinstance(v, (int, float)) or v is None for v in obj):
         for k, v in enumerate(obj):
             out[f"{prefix}[{k}]"] = v
-    elif isinstance(obj, (int, float)) and not isinstance(obj, bool) or obj is None:
+    elif (isinstance(obj, (int, float)) and not isinstance(obj, bool)) or obj is None:
         out[prefix] = obj
     return out
 

@@ -94,7 +94,6 @@ def test_lot_statistics_match_numpy_on_the_samples(lot_json):
     assert file_doc["counts"] == doc["counts"]
     rows = list(csv.DictReader(io.StringIO(csv_text)))
     assert len(rows) == 13
-    x = np.array([float(r["x"]) for r in rows])
     ra = np.array([float(r["Ra"]) for r in rows])
     st = doc["statistics"]["figures"]
     assert doc["statistics"]["ddof"] == 1 and doc["statistics"]["percentile_method"] == "linear"

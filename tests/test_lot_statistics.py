@@ -18,7 +18,6 @@ from scipy.spatial.distance import pdist
 
 from lumeval.lots import statistics as lot
 
-
 RNG = np.random.default_rng(4)
 
 

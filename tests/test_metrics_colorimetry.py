@@ -98,7 +98,7 @@ def test_ohno_cct_agrees_with_exact_minimum_distance(colour):
         for duv in (-0.03, -0.012, -0.0019, 0.0, 0.0008, 0.0021, 0.015, 0.03):
             q = p + duv * normal
             res = minimize_scalar(
-                lambda t: np.hypot(*(locus(t) - q)), bounds=(T * 0.8, T * 1.25), method="bounded",
+                lambda t, q=q: np.hypot(*(locus(t) - q)), bounds=(T * 0.8, T * 1.25), method="bounded",
                 options={"xatol": 1e-5},
             )
             points.append(q)

@@ -26,7 +26,13 @@ import pytest
 
 from lumeval.errors import InputError
 from lumeval.metrics import tm30 as T
-from lumeval.metrics.colorimetry import OBSERVER_2, OBSERVER_10, cct_duv_ohno, tristimulus, uv_from_XYZ
+from lumeval.metrics.colorimetry import (
+    OBSERVER_2,
+    OBSERVER_10,
+    cct_duv_ohno,
+    tristimulus,
+    uv_from_XYZ,
+)
 from lumeval.metrics.reference import daylight_spd, planckian_spd
 
 CIE_NAMES = [f"FL{i}" for i in range(1, 13)] + [
@@ -280,7 +286,8 @@ LUXPY_CSV = os.path.join(os.path.dirname(__file__), "data", "tm30", "luxpy_refer
 
 def _luxpy_stored(step):
     """luxpy 1.12.5 values stored by tests/data/tm30/make_luxpy_reference.py."""
-    rows = [ln.split(",") for ln in open(LUXPY_CSV, encoding="utf-8") if not ln.startswith("#")]
+    with open(LUXPY_CSV, encoding="utf-8") as fh:
+        rows = [ln.split(",") for ln in fh if not ln.startswith("#")]
     rows = [r for r in rows if int(r[1]) == step]
     assert [r[0] for r in rows] == CIE_NAMES
     return tuple(np.array([float(r[k]) for r in rows]) for k in (2, 3, 4))
@@ -292,7 +299,7 @@ def _luxpy_live(wl, v):
         warnings.simplefilter("ignore")
         try:
             import luxpy as lx
-        except Exception:  # noqa: BLE001 - luxpy 1.12.5 fails to import with numpy >= 2.4
+        except Exception:
             return None
         Rf, Rg = lx.cri.spd_to_cri(S, cri_type="iesrf-tm30-18", out="Rf,Rg")
         Rf17 = lx.cri.spd_to_cri(S, cri_type="cierf-224-2017", out="Rf")

@@ -34,9 +34,9 @@ def _M(lam_nm: float, T: float) -> float:
 
 def test_codata_constants_match_scipy():
     # CODATA 2018 via scipy.constants: c1 = 2πhc², c2 = hc/k.
-    assert C1_CODATA == pytest.approx(2.0 * np.pi * sc.h * sc.c**2, rel=1e-15)
-    assert C2_CODATA == pytest.approx(sc.h * sc.c / sc.k, rel=1e-15)
-    assert C2_CODATA == pytest.approx(1.438776877e-2, rel=1e-9)  # CODATA 2018 printed value
+    assert pytest.approx(2.0 * np.pi * sc.h * sc.c**2, rel=1e-15) == C1_CODATA
+    assert pytest.approx(sc.h * sc.c / sc.k, rel=1e-15) == C2_CODATA
+    assert pytest.approx(1.438776877e-2, rel=1e-9) == C2_CODATA  # CODATA 2018 printed value
 
 
 @pytest.mark.parametrize("T", TEMPERATURES_K)

@@ -139,7 +139,7 @@ def test_provenance_hashes_versions_methods_time(report, demo_eval):
             expected = hashlib.sha256(Path(f).read_bytes()).hexdigest()
         assert expected in prov, f
     assert f">{np.__version__}<" in prov
-    import colour  # noqa: PLC0415
+    import colour
 
     assert f">{colour.__version__}<" in prov
     assert "CIE 13.3-1995" in prov and "Ohno (2014)" in prov
@@ -267,7 +267,7 @@ def test_undefined_figures_render_as_na(colour, tmp_path):
     assert chrom_row.count("n/a") == 1 and render_row.count("n/a") == 0 and phot_row.count("n/a") == 0
     assert "OUTSIDE THE VALIDITY RANGE" in text
     figs = H.report_figures(ev)
-    spd_blue = [f for f in figs if f.key.startswith("spd-01")][0].figure
+    spd_blue = next(f for f in figs if f.key.startswith("spd-01")).figure
     assert not [ln for ln in spd_blue.axes[0].get_lines() if ln.get_gid() == "reference-spd"]
 
 

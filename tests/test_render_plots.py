@@ -130,14 +130,14 @@ def test_region_in_xy_is_drawn_at_its_uv_coordinates(colour):
     # any polygon would do: the check is the conversion.
     xy = np.array([[0.4299, 0.4165], [0.4562, 0.4260], [0.4373, 0.3893], [0.4147, 0.3814]])
     fig = plots.chromaticity_figure([0.25], [0.35], regions=[{"label": "q", "vertices": xy, "space": "xy"}])
-    poly = [p for ax in fig.axes for p in ax.patches if p.get_gid() == "region-0"][0]
+    poly = next(p for ax in fig.axes for p in ax.patches if p.get_gid() == "region-0")
     drawn = np.asarray(poly.get_xy())[:4]
     expected = colour.xy_to_UCS_uv(xy)
     np.testing.assert_allclose(drawn, expected, atol=1e-12)
     # u'v' input: v = v'/1.5 (CIE 15:2004 Eq. 8.2) checked against colour's xy -> u'v'
     upvp = colour.xy_to_Luv_uv(xy)
     fig2 = plots.chromaticity_figure([0.25], [0.35], regions=[{"label": "q", "vertices": upvp, "space": "u'v'"}])
-    poly2 = [p for ax in fig2.axes for p in ax.patches if p.get_gid() == "region-0"][0]
+    poly2 = next(p for ax in fig2.axes for p in ax.patches if p.get_gid() == "region-0")
     np.testing.assert_allclose(np.asarray(poly2.get_xy())[:4], expected, atol=1e-12)
 
 
@@ -177,7 +177,7 @@ def test_lot_centroid_and_spread():
     assert pts["samples-fail"].shape[0] == 8 and pts["samples-pass"].shape[0] == 32
     c = _lines(fig, "centroid")["centroid"][0]
     np.testing.assert_allclose(c, [u.mean(), v.mean()], atol=1e-15)
-    ell = [p for p in fig.axes[0].patches if p.get_gid() == "spread"][0]
+    ell = next(p for p in fig.axes[0].patches if p.get_gid() == "spread")
     # 2σ ellipse: its semi-axes are 2·sqrt(eigenvalues of the sample covariance)
     w = np.linalg.eigvalsh(np.cov(np.stack([u, v])))
     assert sorted([ell.width / 2, ell.height / 2]) == pytest.approx(sorted(2 * np.sqrt(w)), rel=1e-9)

@@ -216,7 +216,7 @@ def test_sets_on_different_grids_keep_their_own_grids_in_input_order():
         np.testing.assert_array_equal(gv, v)
         assert g.notes[i] == ()
     with pytest.raises(ValueError, match="different computation grids"):
-        g.wavelengths_nm
+        _ = g.wavelengths_nm
     with pytest.raises(ValueError, match="prepare_groups"):
         prepare([a, b])
     sub = g.subset([2, 1])

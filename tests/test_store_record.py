@@ -163,7 +163,7 @@ def test_chromaticity_trends(store_url):
 def test_products_must_be_chosen(store_url):
     record_lot(store_url, make_record([1, 2], key="a", product="A"))
     record_lot(store_url, make_record([1, 2], key="b", product="B"))
-    with pytest.raises(StoreError, match="several|2 products"):
+    with pytest.raises(StoreError, match=r"several|2 products"):
         trend(store_url, "R9")
 
 
@@ -190,7 +190,7 @@ def test_concurrent_recording_two_processes(store_url, tmp_path):
     procs = [subprocess.Popen([sys.executable, str(script), store_url, who, "6"], stdout=subprocess.PIPE,
                               stderr=subprocess.PIPE, text=True, env=ENV) for who in ("A", "B")]
     outs = [p.communicate(timeout=300) for p in procs]
-    for p, (out, err) in zip(procs, outs):
+    for p, (_out, err) in zip(procs, outs):
         assert p.returncode == 0, err
     assert count_rows(store_url) == {"lots": 12, "lot_inputs": 12, "lot_figures": 12, "samples": 12 * 400}
     su = parse_store_url(store_url)
@@ -280,5 +280,5 @@ def test_newer_store_is_refused(store_url):
                              f"({SCHEMA_VERSION + 1}, 'later', '9.9')")
     for call in (lambda: record_lot(store_url, make_record([2.0], key="y")), lambda: trend(store_url, "R9"),
                  lambda: migrate(su)):
-        with pytest.raises(StoreError, match="written by a newer lumeval.*upgrade lumeval"):
+        with pytest.raises(StoreError, match=r"written by a newer lumeval.*upgrade lumeval"):
             call()

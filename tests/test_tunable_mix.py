@@ -62,7 +62,8 @@ def ref(colour):
     def cct_duv(uv):
         out = []
         for p in np.atleast_2d(uv):
-            f = lambda lt, p=p: float(np.sum((planck_uv(np.exp(lt)) - p) ** 2))
+            def f(lt, p=p):
+                return float(np.sum((planck_uv(np.exp(lt)) - p) ** 2))
             # bracket on a coarse grid, then bounded minimisation in log T
             grid = np.linspace(np.log(1000), np.log(20000), 400)
             k = int(np.argmin([f(x) for x in grid]))

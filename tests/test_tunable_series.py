@@ -21,7 +21,9 @@ WL = np.arange(380.0, 781.0, 1.0)
 
 
 def spd(shift: float) -> np.ndarray:
-    g = lambda p, w: np.exp(-0.5 * ((WL - p) / w) ** 2)
+    def g(p, w):
+        return np.exp(-0.5 * ((WL - p) / w) ** 2)
+
     return 0.5 * g(450, 10) + g(580 + shift, 50) + 0.2 * g(640, 20)
 
 

@@ -5,7 +5,12 @@ from __future__ import annotations
 import pytest
 
 from lumeval.errors import CriteriaError, InputError
-from lumeval.uncertainty import InstrumentModel, MonteCarloSettings, instrument_from_table, load_instrument
+from lumeval.uncertainty import (
+    InstrumentModel,
+    MonteCarloSettings,
+    instrument_from_table,
+    load_instrument,
+)
 
 
 def _write(tmp_path, text, name="inst.toml"):

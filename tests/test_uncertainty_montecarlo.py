@@ -17,7 +17,13 @@ import numpy as np
 import pytest
 
 from lumeval.spectra.model import SpectrumSet
-from lumeval.uncertainty import InstrumentModel, MonteCarloSettings, draw_spectra, propagate, summarise
+from lumeval.uncertainty import (
+    InstrumentModel,
+    MonteCarloSettings,
+    draw_spectra,
+    propagate,
+    summarise,
+)
 from lumeval.uncertainty.montecarlo import coverage_indices, numerical_tolerance, shift_spectra
 
 WL = np.arange(380.0, 781.0, 1.0)
@@ -231,7 +237,7 @@ def test_bandpass_effect_against_a_numerical_slit_convolution():
     b = 6.0
     eff = bandpass_effect(g(WL), b, 1.0)
     for lam in (530.0, 548.0, 560.0, 575.0):
-        conv = quad(lambda x: g(lam - x) * max(0.0, 1 - abs(x) / b) / b, -b, b, points=[0.0])[0]
+        conv = quad(lambda x, lam=lam: g(lam - x) * max(0.0, 1 - abs(x) / b) / b, -b, b, points=[0.0])[0]
         exact = conv - g(lam)
         i = int(lam - 380)
         assert abs(eff[i] - exact) < 0.05 * abs(exact) + 2e-4, (lam, eff[i], exact)

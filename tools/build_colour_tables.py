@@ -11,7 +11,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from lumeval._tables import SNAPSHOT, build_snapshot, colour_science_version  # noqa: E402
+from lumeval._tables import SNAPSHOT, build_snapshot, colour_science_version
 
 if __name__ == "__main__":
     path = build_snapshot(SNAPSHOT)

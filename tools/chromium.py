@@ -13,6 +13,7 @@ gets a fresh, empty profile directory each time.
 from __future__ import annotations
 
 import base64
+import contextlib
 import json
 import os
 import shutil
@@ -151,10 +152,8 @@ class _WebSocket:
                     return b"".join(parts).decode("utf-8")
 
     def close(self) -> None:
-        try:
+        with contextlib.suppress(OSError):
             self._send_frame(0x8, b"")
-        except OSError:
-            pass
         self.sock.close()
 
 
@@ -172,7 +171,7 @@ class Browser:
         self.events: list[dict] = []
         self._id = 0
 
-    def __enter__(self) -> "Browser":
+    def __enter__(self) -> Browser:
         self.profile = tempfile.mkdtemp(prefix="lumeval-chromium-")
         self.log_path = Path(self.profile).parent / (Path(self.profile).name + ".log")
         self._log = open(self.log_path, "wb")
@@ -199,17 +198,13 @@ class Browser:
         return self
 
     def __exit__(self, *exc) -> None:
-        try:
+        with contextlib.suppress(Exception):
             self.call("Browser.close")
-        except Exception:  # noqa: BLE001 - the process is ended below in any case
-            pass
         self._stop()
 
     def _stop(self) -> None:
-        try:
+        with contextlib.suppress(Exception):
             self.ws.close()
-        except Exception:  # noqa: BLE001
-            pass
         try:
             self.proc.wait(timeout=10)
         except subprocess.TimeoutExpired:

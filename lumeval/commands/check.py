@@ -134,9 +134,8 @@ def register(app: typer.Typer) -> None:
             emit(check_to_csv(result), output)
             note_csv_cautions()
         else:
-            from ..render.verdicts import check_renderables
-
             from .._io import is_stdout
+            from ..render.verdicts import check_renderables
 
             if output is None or is_stdout(output):
                 from ..render.safe import console as safe_console

@@ -261,9 +261,8 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Write a commented starting criteria file that a specifier edits."""
         text = new_criteria_text(nominal_cct, level.value, project)
-        from ._targets import check_targets
-
         from .._io import refuse_existing
+        from ._targets import check_targets
 
         check_targets(files={"OUTPUT": output})
         refuse_existing(output, "OUTPUT", force=force)

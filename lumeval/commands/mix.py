@@ -3,6 +3,7 @@ of the mixes, judged over the range (Python twin: :func:`lumeval.tunable.api.mix
 
 from __future__ import annotations
 
+import contextlib
 import sys
 from enum import Enum
 from pathlib import Path
@@ -22,7 +23,7 @@ class Maximise(str, Enum):
     ler = "ler"
 
 
-def emit_report(report, output_format: "OutputFormat", html: Path | None, command: str) -> None:
+def emit_report(report, output_format: OutputFormat, html: Path | None, command: str) -> None:
     """Write the HTML report (if asked), print the report, exit with the range verdict."""
     if html is not None:
         from ..render.tunable_html import write_tunable_html
@@ -77,9 +78,7 @@ def register(app: typer.Typer) -> None:
         from ..tunable.api import mix_files
 
         duv_value: object = duv
-        try:
+        with contextlib.suppress(ValueError):
             duv_value = float(duv)
-        except ValueError:
-            pass
         report = mix_files(channels, cct, duv=duv_value, maximise=maximise.value, criteria=criteria)
         emit_report(report, output_format, html, "lumeval " + " ".join(sys.argv[1:]))

@@ -17,15 +17,16 @@ measurement uncertainty).
 
 from __future__ import annotations
 
+# Lot clause kinds (SCOPE = "lot") are registered with the package, so that every reader of a
+# criteria file — `check`, `lot`, `criteria explain` — knows the same kinds.
+from . import (
+    lot_clauses,  # noqa: F401
+    range_clauses,  # noqa: F401  (series_shift, track_locus: judged over settings)
+)
 from .claims import Claims, ClaimsCheck, load_claims, parse_claims
 from .loader import load_criteria, parse_criteria
 from .model import CLAUSE_KINDS, ClauseKind, Criteria, register_clause_kind
 from .verdicts import FAIL, INDETERMINATE, NOT_JUDGED, PASS, CheckResult, ClauseResult
-
-# Lot clause kinds (SCOPE = "lot") are registered with the package, so that every reader of a
-# criteria file — `check`, `lot`, `criteria explain` — knows the same kinds.
-from . import lot_clauses  # noqa: E402,F401
-from . import range_clauses  # noqa: E402,F401  (series_shift, track_locus: judged over settings)
 
 
 def check(evaluation, criteria: Criteria) -> CheckResult:
@@ -39,16 +40,16 @@ def check(evaluation, criteria: Criteria) -> CheckResult:
 
 __all__ = [
     "CLAUSE_KINDS",
+    "FAIL",
+    "INDETERMINATE",
+    "NOT_JUDGED",
+    "PASS",
     "CheckResult",
     "Claims",
     "ClaimsCheck",
     "ClauseKind",
     "ClauseResult",
     "Criteria",
-    "FAIL",
-    "INDETERMINATE",
-    "NOT_JUDGED",
-    "PASS",
     "check",
     "load_claims",
     "load_criteria",

@@ -118,7 +118,7 @@ class Claims:
     supplier: dict
     file: str
 
-    def check(self, ev) -> "ClaimsCheck":
+    def check(self, ev) -> ClaimsCheck:
         """Judge every claim for every spectrum of ``ev`` (an Evaluation)."""
         n = len(np.asarray(ev.x))
         out = []
@@ -280,7 +280,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             elif fig == "cct_K":
                 b = _nominal_cct_bounds(v)
                 if b is None:
-                    raise err(("claims",), key, f"no default tolerance for a nominal CCT of {v:g} K", "give one: cct_K = \"%g ± 100\" or a [tolerances] entry" % v)
+                    raise err(("claims",), key, f"no default tolerance for a nominal CCT of {v:g} K", f"give one: cct_K = \"{v:g} ± 100\" or a [tolerances] entry")
                 lo, hi, note = b
             elif fig == "duv":
                 lo, hi, note = v - regions.ANSI_DUV_TOLERANCE, v + regions.ANSI_DUV_TOLERANCE, "± 0.006 (ANSI C78.377 Duv tolerance)"

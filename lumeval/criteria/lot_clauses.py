@@ -27,7 +27,16 @@ from typing import ClassVar
 import numpy as np
 
 from . import regions
-from .model import ClauseKind, KeySpec, ParseError, fmt_number, number, register_clause_kind, string, suggest
+from .model import (
+    ClauseKind,
+    KeySpec,
+    ParseError,
+    fmt_number,
+    number,
+    register_clause_kind,
+    string,
+    suggest,
+)
 from .verdicts import FAIL, NOT_JUDGED, PASS, SIMPLE_ACCEPTANCE
 
 
@@ -123,7 +132,7 @@ class LotCentroidStepsClause(LotClause):
     ellipse: str | None
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "LotCentroidStepsClause":
+    def parse(cls, table: dict, common: dict) -> LotCentroidStepsClause:
         steps = number(table, "max_steps", positive=True, allow_zero=False)
         if steps is None:
             raise ParseError(None, "a lot_centroid_steps clause needs `max_steps`", "add max_steps = e.g. 3")
@@ -199,7 +208,7 @@ class LotMaxPairwiseClause(LotClause):
     max_delta_upvp: float
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "LotMaxPairwiseClause":
+    def parse(cls, table: dict, common: dict) -> LotMaxPairwiseClause:
         v = number(table, "max_delta_upvp", positive=True, allow_zero=False)
         if v is None:
             raise ParseError(None, "a lot_max_pairwise clause needs `max_delta_upvp`", "add max_delta_upvp = e.g. 0.004")
@@ -257,7 +266,7 @@ class LotYieldClause(LotClause):
     min_percent: float
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "LotYieldClause":
+    def parse(cls, table: dict, common: dict) -> LotYieldClause:
         v = number(table, "min_percent", positive=True)
         if v is None:
             raise ParseError(None, "a lot_yield clause needs `min_percent`", "add min_percent = e.g. 95")

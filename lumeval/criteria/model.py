@@ -24,7 +24,7 @@ import numpy as np
 
 from .. import figures
 from . import presets, regions
-from .verdicts import NOT_VALID, ClauseResult, margin_to_limits, simple_outcomes
+from .verdicts import NOT_VALID, CheckResult, ClauseResult, margin_to_limits, simple_outcomes
 
 # --------------------------------------------------------------------------- figures
 
@@ -224,7 +224,7 @@ class ClauseKind:
     line: int | None
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "ClauseKind":  # pragma: no cover - abstract
+    def parse(cls, table: dict, common: dict) -> ClauseKind:  # pragma: no cover - abstract
         raise NotImplementedError
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:  # pragma: no cover - abstract
@@ -330,7 +330,7 @@ class FigureClause(ClauseKind):
     accept_outside_validity: bool = False
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "FigureClause":
+    def parse(cls, table: dict, common: dict) -> FigureClause:
         fig = table.get("figure")
         if fig is None:
             raise ParseError(None, "a figure clause needs `figure`", 'add e.g. figure = "R9"')
@@ -363,7 +363,7 @@ class FigureClause(ClauseKind):
         return cls(common["id"], label, common["note"], common["line"], fig, lo, hi, boolean(table, ACCEPT_OUTSIDE_VALIDITY.name))
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
-        desc, std = describe(self.figure)
+        _desc, std = describe(self.figure)
         return (
             figure_result(
                 ev,
@@ -435,7 +435,7 @@ class AnsiQuadrangleClause(ClauseKind):
     edition: str = regions.ANSI_DEFAULT_EDITION
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "AnsiQuadrangleClause":
+    def parse(cls, table: dict, common: dict) -> AnsiQuadrangleClause:
         ed_raw = table.get("edition", regions.ANSI_DEFAULT_EDITION)
         if isinstance(ed_raw, float) and ed_raw.is_integer():
             ed_raw = int(ed_raw)
@@ -477,7 +477,7 @@ class AnsiQuadrangleClause(ClauseKind):
             raise ParseError("nominal_cct", f"{nom!r} is not a nominal CCT category of {name}{hint}", f"allowed: {allowed}")
         for k in ("target_cct_K", "tolerance_K"):
             if k in table:
-                raise ParseError(k, f"`{k}` applies only to a flexible category", f'remove it, or set nominal_cct = "flexible"')
+                raise ParseError(k, f"`{k}` applies only to a flexible category", 'remove it, or set nominal_cct = "flexible"')
         label = common["label"] or f"inside {name} {int(nom)} K quadrangle"
         return cls(common["id"], label, common["note"], common["line"], int(nom), None, None, ed)
 
@@ -578,7 +578,7 @@ class SdcmClause(ClauseKind):
     max_steps: float
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "SdcmClause":
+    def parse(cls, table: dict, common: dict) -> SdcmClause:
         steps = number(table, "max_steps", positive=True, allow_zero=False)
         if steps is None:
             raise ParseError(None, "an sdcm clause needs `max_steps`", "add max_steps = e.g. 3")
@@ -680,7 +680,7 @@ class Tm30DesignIntentClause(ClauseKind):
     accept_outside_validity: bool = False
 
     @classmethod
-    def parse(cls, table: dict, common: dict) -> "Tm30DesignIntentClause":
+    def parse(cls, table: dict, common: dict) -> Tm30DesignIntentClause:
         lv = table.get("level")
         if lv is None:
             raise ParseError(None, "a tm30_design_intent clause needs `level`", f"add level = one of {', '.join(presets.LEVELS)}")
@@ -750,9 +750,8 @@ class Criteria:
     #: each other where a comparison may intend it); every report carries them.
     warnings: tuple = ()
 
-    def evaluate(self, ev) -> "CheckResult":
+    def evaluate(self, ev) -> CheckResult:
         """Judge every clause for every spectrum of ``ev`` (an Evaluation)."""
-        from .verdicts import CheckResult
 
         results: list[ClauseResult] = []
         notes: list[str] = [f"WARNING: {w}" for w in self.warnings]

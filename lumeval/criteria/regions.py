@@ -95,11 +95,18 @@ MacAdam ellipse is one standard deviation of colour matching, i.e. 1 step.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 
-from ..metrics.colorimetry import planckian_uv, upvp_from_uv, upvp_from_xy, uv_from_xy, xy_from_upvp, xy_from_uv  # noqa: F401 (re-exported)
+from ..metrics.colorimetry import (  # noqa: F401 (re-exported)
+    planckian_uv,
+    upvp_from_uv,
+    upvp_from_xy,
+    uv_from_xy,
+    xy_from_upvp,
+    xy_from_uv,
+)
 
 # --------------------------------------------------------------------------- ANSI C78.377
 
@@ -405,7 +412,7 @@ def ansi_published_corners_xy(nominal_K: int, edition: str = ANSI_DEFAULT_EDITIO
     return np.asarray(rows, dtype=float)[[3, 0, 1, 2]]
 
 
-@lru_cache(maxsize=None)
+@cache
 def ansi_quadrangle(nominal_K: int, edition: str = ANSI_DEFAULT_EDITION) -> Quadrangle:
     """The ANSI C78.377 quadrangle of a nominal CCT category of ``edition`` (default 2017).
 

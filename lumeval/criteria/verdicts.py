@@ -207,7 +207,7 @@ class CheckResult:
 
     def counts(self) -> dict[str, int]:
         """Number of (spectrum, clause) outcomes of each kind."""
-        c = {o: 0 for o in OUTCOMES}
+        c = dict.fromkeys(OUTCOMES, 0)
         for r in self.results:
             for o in r.outcome:
                 c[o] += 1

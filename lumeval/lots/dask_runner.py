@@ -38,7 +38,7 @@ cluster (refused with a usage error).
 from __future__ import annotations
 
 import os
-from typing import Callable, Sequence
+from collections.abc import Callable, Sequence
 
 #: Seconds to wait for a scheduler to answer.
 CONNECT_TIMEOUT_S = 10

@@ -31,8 +31,8 @@ import fnmatch
 import os
 import re
 import stat
-from dataclasses import dataclass
 from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
 
 from .._paths import display_path
 

@@ -19,8 +19,8 @@ function over the same per-sample values, are the same too.
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from dataclasses import dataclass
-from typing import Iterator
 
 import numpy as np
 

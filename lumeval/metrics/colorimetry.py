@@ -27,7 +27,7 @@ Conventions
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 
@@ -174,7 +174,7 @@ _COARSE = 10
 _RANGE_TOL_K = 0.5
 
 
-@lru_cache(maxsize=None)
+@cache
 def _planck_table() -> tuple[np.ndarray, np.ndarray]:
     n = int(np.ceil(np.log(_T_HI / _T_LO) / np.log(_STEP))) + 1
     T = _T_LO * _STEP ** np.arange(n)
@@ -282,9 +282,9 @@ def cct_duv_ohno(uv) -> CCTResult:
     d2 = np.hypot(uv[:, 0] - tab[i2, 0], uv[:, 1] - tab[i2, 1])
 
     # Triangular solution (Ohno 2014, Eqs. 5-8)
-    l = np.hypot(tab[i2, 0] - tab[i0, 0], tab[i2, 1] - tab[i0, 1])
-    x = (d0**2 - d2**2 + l**2) / (2.0 * l)
-    Tx_tri = T0 + (T2 - T0) * (x / l)
+    side = np.hypot(tab[i2, 0] - tab[i0, 0], tab[i2, 1] - tab[i0, 1])
+    x = (d0**2 - d2**2 + side**2) / (2.0 * side)
+    Tx_tri = T0 + (T2 - T0) * (x / side)
     duv_tri_abs = np.sqrt(np.clip(d0**2 - x**2, 0.0, None))
 
     # Parabolic solution (Ohno 2014, Eqs. 9-12)

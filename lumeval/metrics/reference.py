@@ -17,7 +17,6 @@ All functions are vectorised over CCT: ``cct_K`` of shape (N,) gives spectra of 
 
 from __future__ import annotations
 
-
 import numpy as np
 
 from .planck import C2_CIE, planck_exitance

@@ -455,7 +455,7 @@ def lot_renderables(run) -> list:
     for col in cols:
         t.add_column(col, justify="left" if col == "figure" else "right", no_wrap=True)
     for f, fig in shown:
-        def v(x, extra=0):
+        def v(x, extra=0, fig=fig):
             return fig.format(x, extra, sign=False)
 
         row = [fig.heading, v(f.mean), v(f.std, 1), v(f.min), v(f.p05), v(f.p95), v(f.max)]

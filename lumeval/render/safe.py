@@ -39,7 +39,7 @@ def _escape(cp: int) -> str:
     return f"\\x{cp:02x}" if cp < 0x100 else f"\\u{cp:04x}"
 
 
-_TABLE = {cp: _escape(cp) for cp in [*range(0x00, 0x20), *range(0x7F, 0xA0), *_FORMAT_CONTROLS]}
+_TABLE = {cp: _escape(cp) for cp in [*range(0x20), *range(0x7F, 0xA0), *_FORMAT_CONTROLS]}
 
 #: Leading characters a spreadsheet reads as the start of a formula (OWASP, "CSV Injection").
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import io
+import itertools
 import json
 import math
 
@@ -30,7 +31,7 @@ def _nums(a):
 def _put(rec: dict, path: tuple, value) -> None:
     """Set ``value`` at ``path`` in the nested record (str keys: objects; int keys: arrays)."""
     node = rec
-    for k, nxt in zip(path[:-1], path[1:]):
+    for k, nxt in itertools.pairwise(path):
         child = node[k] if isinstance(node, list) else node.get(k)
         if child is None:
             child = [] if isinstance(nxt, int) else {}

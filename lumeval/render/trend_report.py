@@ -7,6 +7,7 @@ control characters are removed for the terminal, everything is escaped in HTML.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import re
@@ -304,10 +305,8 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
     from importlib.metadata import PackageNotFoundError, version
 
     for pkg in ("SQLAlchemy",) + (("psycopg",) if tr.store.startswith("postgres") else ()):
-        try:
+        with contextlib.suppress(PackageNotFoundError):
             versions.append((pkg, version(pkg)))
-        except PackageNotFoundError:
-            pass
     body.append("<h3>Software</h3>" + _table(["Package", "Version"], [[_e(a), _e(b)] for a, b in versions]))
     body.append("</section>")
     body.append('<section id="cautions"><h2>Cautions</h2><div class="cautions"><ul>'

@@ -377,7 +377,7 @@ def to_csv(report) -> str:
     clause's outcome (``clause:<id>``) and the setting's verdict."""
     FIGURE_NAMES = csv_figures()
     r = report.result
-    labels, avail, reasons = _per_setting(report)
+    labels, avail, _reasons = _per_setting(report)
     head = ["setting", "label"]
     if report.kind == "mix":
         head += ["reachable", "target_duv"] + [f"w:{_csv_cell(c)}" for c in r.channel_names]

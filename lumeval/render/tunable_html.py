@@ -114,7 +114,7 @@ def figures_versus_setting(report, *, title: str | None = None):
 
     r = report.result
     s = _settings(report)
-    labels, avail, _ = _per_setting(report)
+    _labels, avail, _ = _per_setting(report)
     limits = _limits_by_figure(report)
     failed = np.zeros(len(r), dtype=bool)
     if report.check is not None:

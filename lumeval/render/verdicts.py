@@ -76,7 +76,7 @@ def _extra_decimals(margin: float, spec: str) -> int:
     f = float(margin)
     if not math.isfinite(f) or f == 0.0:
         return 0
-    for k in range(0, 7):
+    for k in range(7):
         if float(format(abs(f), _more(spec, k))) != 0.0:
             return k
     return 6

@@ -36,9 +36,9 @@ from __future__ import annotations
 import math
 import os
 import re
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Iterator, Sequence
 
 import numpy as np
 

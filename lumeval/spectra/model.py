@@ -67,7 +67,7 @@ class SpectrumSet:
             return float(d[0])
         return None
 
-    def subset(self, index) -> "SpectrumSet":
+    def subset(self, index) -> SpectrumSet:
         """The spectra at ``index`` (slice or integer array) as a new set."""
         idx = np.arange(len(self))[index]
         idx = np.atleast_1d(idx)
@@ -82,7 +82,7 @@ class SpectrumSet:
         )
 
     @staticmethod
-    def concatenate(sets: "list[SpectrumSet]") -> "SpectrumSet":
+    def concatenate(sets: list[SpectrumSet]) -> SpectrumSet:
         """Join sets that share one wavelength grid."""
         if not sets:
             raise ValueError("no spectrum sets to join")

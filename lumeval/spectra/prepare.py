@@ -468,7 +468,7 @@ class PreparedSpectra:
     members: tuple[np.ndarray, ...]
 
     @staticmethod
-    def from_sets(sets: Sequence[SpectrumSet]) -> "PreparedSpectra":
+    def from_sets(sets: Sequence[SpectrumSet]) -> PreparedSpectra:
         """Group prepared sets by grid, in order of first appearance; rows keep input order."""
         by_key: dict[tuple, list[tuple[SpectrumSet, np.ndarray]]] = {}
         pos = 0
@@ -560,7 +560,7 @@ class PreparedSpectra:
     def spacing_nm(self) -> float | None:
         return self._single().spacing_nm
 
-    def subset(self, index) -> "PreparedSpectra":
+    def subset(self, index) -> PreparedSpectra:
         """The spectra at input positions ``index``, in that order, grouped as before."""
         idx = np.atleast_1d(np.arange(len(self))[index])
         grp, row = self._where
@@ -573,7 +573,7 @@ class PreparedSpectra:
         return PreparedSpectra(tuple(groups), tuple(members))
 
 
-def prepare_groups(spectra: "SpectrumSet | PreparedSpectra | Sequence[SpectrumSet]") -> PreparedSpectra:
+def prepare_groups(spectra: SpectrumSet | PreparedSpectra | Sequence[SpectrumSet]) -> PreparedSpectra:
     """Prepare every set (see the module docstring) and group the spectra by computation grid.
 
     No spectrum is resampled to another spectrum's grid: sets that end on the same grid share

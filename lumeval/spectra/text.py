@@ -626,7 +626,7 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         else:
             meta[k] = v
 
-    for ln, s in lines:
+    for _ln, s in lines:
         if _is_comment(s):
             add_meta(s)
     for _, s in before:

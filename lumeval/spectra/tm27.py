@@ -82,7 +82,12 @@ def _parse_xml(raw: bytes, file: str):
     """Parse with defusedxml; return (root, {id(elem): line})."""
     import xml.etree.ElementTree as ET
 
-    from defusedxml import DefusedXmlException, DTDForbidden, EntitiesForbidden, ExternalReferenceForbidden
+    from defusedxml import (
+        DefusedXmlException,
+        DTDForbidden,
+        EntitiesForbidden,
+        ExternalReferenceForbidden,
+    )
     from defusedxml.ElementTree import DefusedXMLParser
 
     lines: dict[int, int] = {}

@@ -74,17 +74,17 @@ def validate_report(path: str | Path) -> list[SpectrumCheck]:
     for i in range(len(raw)):
         one = raw.subset([i])
         meta = dict(raw.metadata[i])
-        base = dict(
-            file=file,
-            name=raw.names[i],
-            source=raw.sources[i],
-            points=int(raw.wavelengths_nm.size),
-            range_nm=(float(raw.wavelengths_nm[0]), float(raw.wavelengths_nm[-1])),
-            spacing_nm=raw.spacing_nm,
-            scale=meta.get("lumeval.scale"),
-            format=meta.get("lumeval.format") or ("text, " + meta.get("lumeval.delimiter", "?")),
-            metadata=meta,
-        )
+        base = {
+            "file": file,
+            "name": raw.names[i],
+            "source": raw.sources[i],
+            "points": int(raw.wavelengths_nm.size),
+            "range_nm": (float(raw.wavelengths_nm[0]), float(raw.wavelengths_nm[-1])),
+            "spacing_nm": raw.spacing_nm,
+            "scale": meta.get("lumeval.scale"),
+            "format": meta.get("lumeval.format") or ("text, " + meta.get("lumeval.delimiter", "?")),
+            "metadata": meta,
+        }
         try:
             p = prepare(one)
         except InputError as exc:

@@ -395,8 +395,8 @@ def _refine(obj: _Objective, Vf: np.ndarray, lam0: np.ndarray, f0: float) -> tup
         return cache[key]
 
     res = minimize(
-        lambda l: both(l)[0], lam0, jac=lambda l: both(l)[1], method="SLSQP",
-        bounds=[(0.0, 1.0)] * T, constraints=[{"type": "eq", "fun": lambda l: np.sum(l) - 1.0, "jac": lambda l: np.ones(T)}],
+        lambda w: both(w)[0], lam0, jac=lambda w: both(w)[1], method="SLSQP",
+        bounds=[(0.0, 1.0)] * T, constraints=[{"type": "eq", "fun": lambda w: np.sum(w) - 1.0, "jac": lambda w: np.ones(T)}],
         options={"maxiter": 40, "ftol": 1e-9},
     )
     lam = np.clip(res.x, 0.0, None)

@@ -191,9 +191,8 @@ def key_line(text: str | None, table: str, key: str | None = None) -> int | None
             if key is None and current == table:
                 return no
             continue
-        if key is not None and current == table:
-            if re.match(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=", raw):
-                return no
+        if key is not None and current == table and re.match(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=", raw):
+            return no
     return None
 
 

@@ -29,8 +29,8 @@ def main() -> None:
     v5 = np.array([np.asarray(colour.SDS_ILLUMINANTS[n].values, dtype=float) for n in NAMES])
     wl1 = np.arange(380.0, 781.0, 1.0)
     v1 = np.array([np.interp(wl1, wl5, r) for r in v5])
-    lines = ["# luxpy %s spd_to_cri: name,step_nm,Rf(iesrf-tm30-18),Rg(iesrf-tm30-18),"
-             "Rf(cierf-224-2017)" % lx.__version__]
+    lines = [f"# luxpy {lx.__version__} spd_to_cri: name,step_nm,Rf(iesrf-tm30-18),Rg(iesrf-tm30-18),"
+             "Rf(cierf-224-2017)"]
     for step, wl, v in ((5, wl5, v5), (1, wl1, v1)):
         S = np.vstack([wl, v])
         Rf, Rg = lx.cri.spd_to_cri(S, cri_type="iesrf-tm30-18", out="Rf,Rg")

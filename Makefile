@@ -62,9 +62,11 @@ demo: $(STAMP)
 test: $(STAMP)
 	$(PY) -m pytest
 
-# Gates (configured in pyproject.toml): ruff on the whole tree.
+# Gates (configured in pyproject.toml): ruff on the whole tree, then mypy on lumeval/ (strict on
+# the computation core: metrics/, engine.py, figures.py, spectra/prepare.py).
 lint: $(STAMP)
 	$(VENV)/bin/ruff check .
+	$(VENV)/bin/mypy
 
 # Benchmarks (not tests): start-up times; engine vs a per-spectrum colour-science loop on 2,000
 # spectra, and 100,000 spectra through `lumeval lot` with peak memory (docs/lots.md); the history

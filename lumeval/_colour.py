@@ -24,7 +24,7 @@ class _LazyPlotting(types.ModuleType):
         real = importlib.import_module("colour.plotting")
         parent = sys.modules.get("colour")
         if parent is not None:
-            parent.plotting = real
+            parent.plotting = real  # type: ignore[attr-defined]  # a submodule set on its package
         return getattr(real, name)
 
 

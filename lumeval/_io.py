@@ -271,8 +271,8 @@ def _input_files(inputs: Iterable) -> list[Path]:
 
 def check_targets(
     *,
-    files: Mapping[str, object | None] | None = None,
-    dirs: Mapping[str, object | None] | None = None,
+    files: Mapping[str, str | os.PathLike[str] | None] | None = None,
+    dirs: Mapping[str, str | os.PathLike[str] | None] | None = None,
     inputs: Iterable = (),
     dir_files: Mapping[str, Iterable[str]] | None = None,
 ) -> None:
@@ -416,7 +416,7 @@ def atomic_output(
         else:  # pragma: no cover - five random collisions
             raise FileExistsError(f"cannot create a temporary file next to {target}")
         try:
-            fh = os.fdopen(fd, "w" if text else "wb", **({"encoding": encoding, "newline": newline} if text else {}))
+            fh = os.fdopen(fd, "w", encoding=encoding, newline=newline) if text else os.fdopen(fd, "wb")
         except BaseException:
             os.close(fd)
             raise

@@ -148,5 +148,5 @@ def build_snapshot(path: Path = SNAPSHOT) -> Path:
         arrays[f"{name}__values"] = np.asarray(vals, dtype=float)
     path = Path(path)
     with atomic_output(path) as fh:
-        np.savez_compressed(fh, **arrays)
+        np.savez_compressed(fh, **arrays)  # type: ignore[arg-type]  # numpy stub: **kwds as allow_pickle
     return path

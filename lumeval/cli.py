@@ -271,7 +271,7 @@ def _run(args: list[str]):
     except typer.Abort:
         _say("lumeval: aborted")
         return 1
-    except click_exception as exc:
+    except click_exception as exc:  # type: ignore[misc]  # click.ClickException, looked up lazily
         if type(exc).__name__ == "NoArgsIsHelpError":  # `lumeval`, `lumeval criteria`: the help
             _say(exc.format_message(), raw=True)
         elif isinstance(exc, _click_class("UsageError")):

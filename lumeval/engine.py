@@ -20,8 +20,9 @@ from __future__ import annotations
 import dataclasses
 import functools
 import warnings as _warnings
+from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 
@@ -41,7 +42,7 @@ if TYPE_CHECKING:  # pragma: no cover
 DEFAULT_CHUNK = 256
 
 
-def __getattr__(name: str):
+def __getattr__(name: str) -> Any:
     # FIGURE_NAMES and FIGURE_UNITS are views of the figure registry (lumeval.figures), computed
     # when asked so that a figure registered later is included.
     if name == "FIGURE_NAMES":
@@ -119,7 +120,7 @@ class Evaluation:
     outside_validity: np.ndarray | None = None
 
     def __len__(self) -> int:
-        return self.x.shape[0]
+        return cast("int", self.x.shape[0])
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -142,13 +143,16 @@ class Evaluation:
             return np.zeros(n, dtype=bool)
         return np.asarray(self.outside_validity, dtype=bool)
 
+    def _reference_cct(self) -> np.ndarray:
+        return self.cct_K if self.reference_cct_K is None else self.reference_cct_K
+
     def validity_reason(self, i: int) -> str:
         """Why spectrum i's reference-based figures are outside their validity range ("" if not)."""
         if self.outside_validity is None or not self.outside_validity[i]:
             return ""
         return (
             f"{OUTSIDE_VALIDITY}: |Duv| = {abs(float(self.duv[i])):.4f} > 0.05, computed against the reference "
-            f"at the nearest Planckian temperature {float(self.reference_cct_K[i]):.0f} K (CIE 15:2004 §9.5)."
+            f"at the nearest Planckian temperature {float(self._reference_cct()[i]):.0f} K (CIE 15:2004 §9.5)."
         )
 
     # Figures derived from the ones above on first use (cheap, vectorised): computed lazily so
@@ -187,19 +191,19 @@ class Evaluation:
 
         return figures.get(name).value(self)
 
-    def to_arrow(self):
+    def to_arrow(self) -> Any:
         """One row per spectrum, one column per figure, metadata kept, as a ``pyarrow.Table``
         (:func:`lumeval.frames.evaluation_to_arrow`; needs ``lumeval[archive]``)."""
         from .frames import evaluation_to_arrow
 
-        return evaluation_to_arrow(self)
+        return evaluation_to_arrow(self)  # type: ignore[no-untyped-call]  # frames.py is not typed yet
 
-    def to_pandas(self):
+    def to_pandas(self) -> Any:
         """One row per spectrum, one column per figure, metadata kept, as a
         ``pandas.DataFrame`` (:func:`lumeval.frames.evaluation_to_pandas`)."""
         from .frames import evaluation_to_pandas
 
-        return evaluation_to_pandas(self)
+        return evaluation_to_pandas(self)  # type: ignore[no-untyped-call]  # frames.py is not typed yet
 
     def reference_spd(self, i: int) -> np.ndarray:
         """The CIE 13.3 reference SPD (Planckian < 5000 K, CIE daylight ≥ 5000 K) of spectrum i
@@ -213,16 +217,16 @@ class Evaluation:
         t_ref = self.cct_K if self.reference_cct_K is None else self.reference_cct_K
         ref = cri_reference_spd(wl, np.array([t_ref[i]]))[0]
         if not np.all(np.isfinite(ref)):
-            return ref
+            return cast("np.ndarray", ref)
         y_ref = tristimulus(wl, ref)[1]
-        return ref * (self.XYZ[i, 1] / y_ref)
+        return cast("np.ndarray", ref * (self.XYZ[i, 1] / y_ref))
 
 
-def _concat(parts: list):
+def _concat(parts: list[Any]) -> Any:
     """Concatenate per-chunk results: arrays along axis 0, tuples end to end, dataclasses
     field by field."""
     first = parts[0]
-    if dataclasses.is_dataclass(first):
+    if dataclasses.is_dataclass(first) and not isinstance(first, type):
         return type(first)(**{f.name: _concat([getattr(p, f.name) for p in parts]) for f in dataclasses.fields(first)})
     if isinstance(first, np.ndarray):
         return np.concatenate(parts, axis=0) if first.ndim else first
@@ -237,7 +241,7 @@ def _concat(parts: list):
 _DETAIL_FIELDS = ("Jab_test", "Jab_ref", "delta_E_ces", "hue_bin", "UVW_test", "UVW_reference", "delta_E")
 
 
-def _strip_details(result):
+def _strip_details(result: Any) -> Any:
     changes = {}
     for f in dataclasses.fields(result):
         if f.name in _DETAIL_FIELDS:
@@ -283,6 +287,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     # the reference temperature: the CCT, or where |Duv| > 0.05 the nearest Planckian
     # temperature (CCT itself stays undefined; the figures are flagged outside validity)
     ref_T = cct.reference_cct_K
+    assert ref_T is not None  # cct_duv_ohno always gives it
     cri = cie133_cri(wl, values, ref_T)
     fid = tm30(wl, values, ref_T)
     rf2017 = cie2017_rf(wl, values, ref_T, tm30_result=fid)
@@ -290,7 +295,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
 
 
-def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str, ...], ...]:
+def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fid: Any, phot: Any) -> tuple[tuple[str, ...], ...]:
     from .metrics.cri import DC_LIMIT
     from .metrics.tm30 import hue_edge_warnings
 
@@ -317,11 +322,11 @@ def _warnings_for(spectra: SpectrumSet, cct, cri, fid, phot) -> tuple[tuple[str,
     return tuple(out)
 
 
-def _take(result, order: np.ndarray, n: int):
+def _take(result: Any, order: np.ndarray, n: int) -> Any:
     """Reorder a concatenated result along its spectrum axis (the inverse of :func:`_concat`'s
     joining): arrays by their first axis, per-spectrum tuples element-wise, dataclasses field
     by field; run-level scalars are left alone."""
-    if dataclasses.is_dataclass(result):
+    if dataclasses.is_dataclass(result) and not isinstance(result, type):
         return type(result)(**{f.name: _take(getattr(result, f.name), order, n) for f in dataclasses.fields(result)})
     if isinstance(result, np.ndarray):
         return result[order] if result.ndim and result.shape[0] == n else result
@@ -330,7 +335,7 @@ def _take(result, order: np.ndarray, n: int):
     return result
 
 
-def evaluate(spectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
+def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
     """Evaluate every figure for every spectrum in ``spectra``.
 
     Parameters

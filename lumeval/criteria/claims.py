@@ -240,6 +240,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         if key in NOT_CHECKABLE_KEYS:
             claims.append(Claim(key, "", text, None, None, None, None, "", line, NOT_CHECKABLE_KEYS[key]))
             continue
+        assert fig is not None  # an unknown key was refused above
         if is_number(value):
             text = repr(value) if isinstance(value, float) else str(value)
             m = _CLAIM_RE.match(text)

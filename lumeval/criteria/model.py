@@ -115,15 +115,15 @@ def _not_valid(ev, figure: str, n: int, outcome: tuple, reason: tuple, accept: b
     outside = np.asarray(flag(figure), dtype=bool) if flag is not None else np.zeros(n, dtype=bool)
     if not outside.any():
         return outcome, reason
-    outcome, reason = list(outcome), list(reason) if reason else [""] * n
+    outcome_l, reason_l = list(outcome), list(reason) if reason else [""] * n
     for i in np.flatnonzero(outside):
         why = ev.validity_reason(int(i)) if hasattr(ev, "validity_reason") else "outside the validity range"
         if accept:
-            reason[i] = f"judged all the same (accept_outside_validity = true): {why}"
+            reason_l[i] = f"judged all the same (accept_outside_validity = true): {why}"
         elif np.isfinite(np.asarray(ev.figure(figure), dtype=float)[i]):
-            outcome[i] = NOT_VALID
-            reason[i] = f"not valid: {why} To judge it all the same: accept_outside_validity = true."
-    return tuple(outcome), tuple(reason)
+            outcome_l[i] = NOT_VALID
+            reason_l[i] = f"not valid: {why} To judge it all the same: accept_outside_validity = true."
+    return tuple(outcome_l), tuple(reason_l)
 
 
 def figure_result(
@@ -485,6 +485,7 @@ class AnsiQuadrangleClause(ClauseKind):
     def quadrangle(self) -> regions.Quadrangle:
         if self.nominal is not None:
             return regions.ansi_quadrangle(self.nominal, self.edition)
+        assert self.target_cct_K is not None  # parse() requires it for a flexible category
         return regions.ansi_flexible_quadrangle(self.target_cct_K, self.tolerance_K, self.edition)
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
@@ -594,8 +595,8 @@ class SdcmClause(ClauseKind):
             raise ParseError(gkeys[0], f"`{gkeys[0]}` applies only with `centre_xy`", "remove it, or give your own centre_xy")
         if given[0] == "centre":
             c = string(table, "centre")
-            if c not in regions.IEC60081_CENTRES:
-                s = suggest(c, regions.IEC60081_CENTRES)
+            if c is None or c not in regions.IEC60081_CENTRES:
+                s = suggest(c or "", regions.IEC60081_CENTRES)
                 hint = f"did you mean {s!r}? " if s else ""
                 raise ParseError("centre", f"unknown centre {c!r}", f"{hint}allowed: {', '.join(regions.IEC60081_CENTRES)}")
             ell = regions.iec60081_ellipse(c)
@@ -611,8 +612,9 @@ class SdcmClause(ClauseKind):
             if len(gkeys) != 3:
                 missing = [k for k in ("g11", "g12", "g22") if k not in table]
                 raise ParseError(None, f"centre_xy needs the ellipse coefficients; missing {', '.join(missing)}", "add g11, g12 and g22 of your 1-step ellipse")
-            g = [number(table, k) for k in ("g11", "g12", "g22")]
-            ell = regions.SdcmEllipse(f"user ellipse at ({c[0]}, {c[1]})", np.array(c, float), g[0], g[1], g[2], "user-given centre and coefficients")
+            g11, g12, g22 = (number(table, k) for k in ("g11", "g12", "g22"))
+            assert g11 is not None and g12 is not None and g22 is not None  # all three are given (above)
+            ell = regions.SdcmEllipse(f"user ellipse at ({c[0]}, {c[1]})", np.array(c, float), g11, g12, g22, "user-given centre and coefficients")
             if not ell.is_positive_definite:
                 raise ParseError("g11", "g11, g12, g22 do not describe an ellipse (need g11 > 0, g22 > 0, g11·g22 > g12²)", "check the coefficients and their signs")
         label = common["label"] or f"within {steps:g} SDCM steps of {ell.name}"

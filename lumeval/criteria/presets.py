@@ -138,7 +138,7 @@ def sdcm_suggestion(nominal_cct: int) -> SdcmSuggestion:
     centre = (round(float(centre[0]), 4), round(float(centre[1]), 4))
     dist = {n: float(np.hypot(*(upvp_from_xy(regions.iec60081_ellipse(n).centre_xy[None, :])[0] - c)))
             for n in regions.IEC60081_CENTRES}
-    near = min(dist, key=dist.get)
+    near = min(dist, key=dist.__getitem__)
     e = regions.iec60081_ellipse(near)
     ell = regions.SdcmEllipse("suggestion", np.array(centre), e.g11, e.g12, e.g22, "")
     pl = xy_from_uv(planckian_uv(np.array([cat.target_cct_K])))

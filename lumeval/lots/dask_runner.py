@@ -182,7 +182,7 @@ def run_lot_dask(
             sample_criteria = criteria
 
     # plan on the client: footers only
-    tasks: list[tuple[int, str, int, list[int]]] = []
+    tasks: list[tuple[int, str, int, int, list[int]]] = []
     expected = 0
     bad_by_file: list[list] = [[] for _ in files]  # unreadable inputs in file order, as a local run lists them
     for k, f in enumerate(files):

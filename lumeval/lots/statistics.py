@@ -247,7 +247,7 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns give NaN, as intended
-        q = np.nanpercentile(safe, [50.0, 5.0, 95.0], axis=0, method=percentile_method)
+        q = np.nanpercentile(safe, [50.0, 5.0, 95.0], axis=0, method=percentile_method)  # type: ignore[call-overload]
     out["median"], out["p05"], out["p95"] = q[0], q[1], q[2]
     return out
 

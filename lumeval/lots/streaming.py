@@ -21,6 +21,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -52,7 +53,7 @@ class BatchResult:
     figures: np.ndarray
     xy: np.ndarray
     clauses: list | None
-    metadata: object = None
+    metadata: Any = None
     evaluation: object = None
     run_warnings: tuple = ()
 

@@ -28,8 +28,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cache
+from typing import cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .planck import C2_CIE, planck_exitance
 
@@ -51,7 +53,7 @@ def _cmfs_table(observer: str) -> tuple[np.ndarray, np.ndarray]:
     return table({OBSERVER_2: "cmf_2", OBSERVER_10: "cmf_10"}[observer])
 
 
-def cmfs_at(wavelengths_nm, observer: str = OBSERVER_2) -> np.ndarray:
+def cmfs_at(wavelengths_nm: ArrayLike, observer: str = OBSERVER_2) -> np.ndarray:
     """Colour-matching functions sampled at ``wavelengths_nm``, shape (W, 3).
 
     Wavelengths on the 1 nm table's integer grid are taken as tabulated (CIE 15:2004 Table
@@ -66,7 +68,7 @@ def cmfs_at(wavelengths_nm, observer: str = OBSERVER_2) -> np.ndarray:
     return out
 
 
-def integration_weights(wavelengths_nm) -> np.ndarray:
+def integration_weights(wavelengths_nm: ArrayLike) -> np.ndarray:
     """Δλ for each sample of a uniform grid (rectangle rule, CIE 15:2004 §7.1), shape (W,)."""
     wl = np.asarray(wavelengths_nm, dtype=float)
     if wl.size < 2:
@@ -77,7 +79,7 @@ def integration_weights(wavelengths_nm) -> np.ndarray:
     return np.full(wl.size, d[0])
 
 
-def tristimulus(wavelengths_nm, values, observer: str = OBSERVER_2) -> np.ndarray:
+def tristimulus(wavelengths_nm: ArrayLike, values: ArrayLike, observer: str = OBSERVER_2) -> np.ndarray:
     """Tristimulus values X, Y, Z = Σ S(λ) x̄(λ) Δλ (CIE 15:2004 Eq. 7.1 with k = 1).
 
     Parameters
@@ -97,17 +99,17 @@ def tristimulus(wavelengths_nm, values, observer: str = OBSERVER_2) -> np.ndarra
     """
     w = integration_weights(wavelengths_nm)
     cm = cmfs_at(wavelengths_nm, observer) * w[:, None]
-    return np.asarray(values, dtype=float) @ cm
+    return cast("np.ndarray", np.asarray(values, dtype=float) @ cm)
 
 
-def xy_from_XYZ(XYZ) -> np.ndarray:
+def xy_from_XYZ(XYZ: ArrayLike) -> np.ndarray:
     """CIE 1931 chromaticity x = X/(X+Y+Z), y = Y/(X+Y+Z) (CIE 15:2004 Eq. 7.3)."""
     XYZ = np.asarray(XYZ, dtype=float)
     s = XYZ.sum(axis=-1, keepdims=True)
-    return XYZ[..., :2] / s
+    return cast("np.ndarray", XYZ[..., :2] / s)
 
 
-def uv_from_XYZ(XYZ) -> np.ndarray:
+def uv_from_XYZ(XYZ: ArrayLike) -> np.ndarray:
     """CIE 1960 UCS u = 4X/(X+15Y+3Z), v = 6Y/(X+15Y+3Z) (CIE 15:2004 §8.1, note 1)."""
     XYZ = np.asarray(XYZ, dtype=float)
     X, Y, Z = XYZ[..., 0], XYZ[..., 1], XYZ[..., 2]
@@ -115,13 +117,13 @@ def uv_from_XYZ(XYZ) -> np.ndarray:
     return np.stack([4.0 * X / d, 6.0 * Y / d], axis=-1)
 
 
-def upvp_from_XYZ(XYZ) -> np.ndarray:
+def upvp_from_XYZ(XYZ: ArrayLike) -> np.ndarray:
     """CIE 1976 UCS u' = 4X/(X+15Y+3Z), v' = 9Y/(X+15Y+3Z) (CIE 15:2004 Eq. 8.1-8.2)."""
     uv = uv_from_XYZ(XYZ)
     return np.stack([uv[..., 0], uv[..., 1] * 1.5], axis=-1)
 
 
-def uv_from_xy(xy) -> np.ndarray:
+def uv_from_xy(xy: ArrayLike) -> np.ndarray:
     """CIE 1960 (u, v) from CIE 1931 (x, y): u = 4x/(−2x+12y+3), v = 6y/(−2x+12y+3)."""
     xy = np.asarray(xy, dtype=float)
     x, y = xy[..., 0], xy[..., 1]
@@ -129,7 +131,7 @@ def uv_from_xy(xy) -> np.ndarray:
     return np.stack([4.0 * x / d, 6.0 * y / d], axis=-1)
 
 
-def xy_from_uv(uv) -> np.ndarray:
+def xy_from_uv(uv: ArrayLike) -> np.ndarray:
     """CIE 1931 (x, y) from CIE 1960 (u, v): x = 3u/(2u−8v+4), y = 2v/(2u−8v+4)."""
     uv = np.asarray(uv, dtype=float)
     u, v = uv[..., 0], uv[..., 1]
@@ -137,13 +139,13 @@ def xy_from_uv(uv) -> np.ndarray:
     return np.stack([3.0 * u / d, 2.0 * v / d], axis=-1)
 
 
-def upvp_from_uv(uv) -> np.ndarray:
+def upvp_from_uv(uv: ArrayLike) -> np.ndarray:
     """CIE 1976 (u', v') = (u, 1.5 v) from CIE 1960 (u, v) (CIE 15:2004 §8.1)."""
     uv = np.asarray(uv, dtype=float)
     return np.stack([uv[..., 0], 1.5 * uv[..., 1]], axis=-1)
 
 
-def upvp_from_xy(xy) -> np.ndarray:
+def upvp_from_xy(xy: ArrayLike) -> np.ndarray:
     """CIE 1976 (u', v') = (4x, 9y) / (−2x + 12y + 3) (CIE 15:2004 Eqs. 8.1-8.2), shape (..., 2)."""
     xy = np.asarray(xy, dtype=float)
     x, y = xy[..., 0], xy[..., 1]
@@ -151,7 +153,7 @@ def upvp_from_xy(xy) -> np.ndarray:
     return np.stack([4.0 * x / d, 9.0 * y / d], axis=-1)
 
 
-def xy_from_upvp(upvp) -> np.ndarray:
+def xy_from_upvp(upvp: ArrayLike) -> np.ndarray:
     """CIE 1931 (x, y) = (9u', 4v') / (6u' − 16v' + 12) (CIE 15:2004, inverse of Eqs. 8.1-8.2)."""
     p = np.asarray(upvp, dtype=float)
     u, v = p[..., 0], p[..., 1]
@@ -182,7 +184,7 @@ def _planck_table() -> tuple[np.ndarray, np.ndarray]:
     return T, uv
 
 
-def planckian_uv(temperature_K) -> np.ndarray:
+def planckian_uv(temperature_K: ArrayLike) -> np.ndarray:
     """CIE 1960 (u, v) of the Planckian radiator at ``temperature_K``, shape (..., 2).
 
     Computed from Planck's law with c2 = 1.4388e-2 m K (CIE 15:2004) and the CIE 1931 2°
@@ -200,7 +202,7 @@ def planckian_uv(temperature_K) -> np.ndarray:
         res[start : start + 4096] = uv_from_XYZ(S @ cm_t)
     out[...] = res.reshape(T.shape + (2,))
     if np.ndim(temperature_K) == 0:
-        return out[0]
+        return cast("np.ndarray", out[0])
     return out
 
 
@@ -237,7 +239,7 @@ class CCTResult:
     outside_validity: np.ndarray | None = None
 
 
-def cct_duv_ohno(uv) -> CCTResult:
+def cct_duv_ohno(uv: ArrayLike) -> CCTResult:
     """CCT and Duv from CIE 1960 (u, v) by Ohno (2014), vectorised.
 
     Ohno, Y. (2014) LEUKOS 10(1):47-55, §3: find the table entry m nearest to (u, v); from the

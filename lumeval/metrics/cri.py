@@ -48,6 +48,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..errors import InputError
 from .colorimetry import OBSERVER_2, cmfs_at
@@ -164,7 +165,7 @@ def _cd(u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return (4.0 - u - 10.0 * v) / v, (1.708 * v + 0.404 - 1.481 * u) / v
 
 
-def _sample_colorimetry(S: np.ndarray, weighted: np.ndarray, ybar_w: np.ndarray):
+def _sample_colorimetry(S: np.ndarray, weighted: np.ndarray, ybar_w: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Y-normalised XYZ of the source (N, 3) and of the 14 samples (N, 14, 3).
 
     ``weighted`` is the (W, 14*3) matrix β_i(λ)·x̄(λ)·Δλ; the normalisation makes the source's
@@ -175,7 +176,7 @@ def _sample_colorimetry(S: np.ndarray, weighted: np.ndarray, ybar_w: np.ndarray)
     return k, samples
 
 
-def cie133_cri(wavelengths_nm, values, cct_K) -> CRIResult:
+def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -> CRIResult:
     """CIE 13.3-1995 colour rendering indices of N spectra.
 
     Parameters

@@ -46,8 +46,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..errors import ComputationError
 from .colorimetry import OBSERVER_2, cmfs_at
@@ -132,19 +134,19 @@ def _action_spectra_table() -> tuple[np.ndarray, np.ndarray]:
     return table[:, 0].copy(), np.nan_to_num(table[:, 1:], nan=0.0)
 
 
-def _sample(table_wl: np.ndarray, table_values: np.ndarray, wavelengths_nm) -> np.ndarray:
+def _sample(table_wl: np.ndarray, table_values: np.ndarray, wavelengths_nm: ArrayLike) -> np.ndarray:
     """Sample a 1 nm table at ``wavelengths_nm`` (exact on integer wavelengths, linear between
     table entries otherwise), zero outside the table. Returns (W,) or (W, k)."""
     wl = np.asarray(wavelengths_nm, dtype=float)
     if table_values.ndim == 1:
-        return np.interp(wl, table_wl, table_values, left=0.0, right=0.0)
+        return cast("np.ndarray", np.interp(wl, table_wl, table_values, left=0.0, right=0.0))
     return np.stack(
         [np.interp(wl, table_wl, table_values[:, k], left=0.0, right=0.0) for k in range(table_values.shape[1])],
         axis=-1,
     )
 
 
-def alpha_opic_action_spectra_at(wavelengths_nm) -> np.ndarray:
+def alpha_opic_action_spectra_at(wavelengths_nm: ArrayLike) -> np.ndarray:
     """CIE S 026/E:2018 α-opic action spectra s_α(λ) at ``wavelengths_nm``, shape (W, 5).
 
     Columns in :data:`ALPHA_OPIC_NAMES` order; each function peaks at 1. Source: CIE S 026
@@ -155,7 +157,7 @@ def alpha_opic_action_spectra_at(wavelengths_nm) -> np.ndarray:
     return _sample(wl_t, s_t, wavelengths_nm)
 
 
-def v_lambda_at(wavelengths_nm) -> np.ndarray:
+def v_lambda_at(wavelengths_nm: ArrayLike) -> np.ndarray:
     """Photopic luminous efficiency V(λ) = ȳ(λ) of the CIE 1931 2° observer, shape (W,).
 
     CIE 15:2004 Table T.4 (colour-science's 1 nm table, 360-830 nm); zero outside.
@@ -170,7 +172,7 @@ def _scotopic_table() -> tuple[np.ndarray, np.ndarray]:
     return table("v_scotopic")
 
 
-def v_prime_lambda_at(wavelengths_nm) -> np.ndarray:
+def v_prime_lambda_at(wavelengths_nm: ArrayLike) -> np.ndarray:
     """Scotopic luminous efficiency V′(λ), CIE 1951, shape (W,).
 
     colour-science's ``SDS_LEFS['CIE 1951 Scotopic Standard Observer']`` (CIE table, 380-780 nm
@@ -198,13 +200,13 @@ def d65_alpha_opic_elr_W_per_lm() -> np.ndarray:
     d65 = np.interp(wl, wl_d65, v_d65)
     e_alpha = d65 @ alpha_opic_action_spectra_at(wl)
     e_v = KM_LM_PER_W * (d65 @ v_lambda_at(wl))
-    return e_alpha / e_v
+    return cast("np.ndarray", e_alpha / e_v)
 
 
 # --------------------------------------------------------------------------- the figures
 
 
-def _check_grid(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray, float]:
+def _check_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray, np.ndarray, float]:
     wl = np.asarray(wavelengths_nm, dtype=float)
     vals = np.asarray(values, dtype=float)
     if vals.ndim == 1:
@@ -228,7 +230,7 @@ def _check_grid(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray, float]:
     return wl, vals, float(steps[0])
 
 
-def photometry(wavelengths_nm, values) -> PhotometryResult:
+def photometry(wavelengths_nm: ArrayLike, values: ArrayLike) -> PhotometryResult:
     """Luminous efficacy of radiation, S/P ratio, CIE S 026 α-opic ratios and peak wavelength.
 
     Parameters

@@ -14,7 +14,10 @@ Sources
 
 from __future__ import annotations
 
+from typing import cast
+
 import numpy as np
+from numpy.typing import ArrayLike
 
 #: First radiation constant as CIE 15:2004 gives it (W m²).
 C1_CIE = 3.741771e-16
@@ -30,8 +33,8 @@ C2_CODATA = H_PLANCK * C_LIGHT / K_BOLTZMANN  # m K (= 1.438776877e-2)
 
 
 def planck_exitance(
-    wavelengths_nm,
-    temperature_K,
+    wavelengths_nm: ArrayLike,
+    temperature_K: ArrayLike,
     *,
     c1: float = C1_CIE,
     c2: float = C2_CIE,
@@ -69,10 +72,10 @@ def planck_exitance(
     x = c2 / (n * lam * T_col)
     with np.errstate(over="ignore"):
         denom = np.expm1(x)
-    return c1 / (n**2 * lam**5) / denom
+    return cast("np.ndarray", c1 / (n**2 * lam**5) / denom)
 
 
-def planck_relative(wavelengths_nm, temperature_K, *, c2: float = C2_CIE) -> np.ndarray:
+def planck_relative(wavelengths_nm: ArrayLike, temperature_K: ArrayLike, *, c2: float = C2_CIE) -> np.ndarray:
     """Relative spectral power of a black body, normalised to 1 at 560 nm.
 
     The normalisation wavelength follows CIE 15 practice for relative SPDs (illuminant A
@@ -80,10 +83,10 @@ def planck_relative(wavelengths_nm, temperature_K, *, c2: float = C2_CIE) -> np.
     """
     s = planck_exitance(wavelengths_nm, temperature_K, c2=c2)
     s560 = planck_exitance(np.array([560.0]), temperature_K, c2=c2)
-    return s / s560
+    return cast("np.ndarray", s / s560)
 
 
-def wien_peak_nm(temperature_K, *, c2: float = C2_CODATA) -> np.ndarray:
+def wien_peak_nm(temperature_K: ArrayLike, *, c2: float = C2_CODATA) -> np.ndarray:
     """Wavelength of maximum spectral exitance per unit wavelength, in nm.
 
     Wien's displacement law ``λmax T = c2 / x*`` where x* = 4.965114231744276... is the
@@ -93,4 +96,4 @@ def wien_peak_nm(temperature_K, *, c2: float = C2_CODATA) -> np.ndarray:
     from scipy.optimize import brentq
 
     x_star = brentq(lambda x: x - 5.0 * (1.0 - np.exp(-x)), 4.0, 6.0, xtol=1e-15)
-    return c2 / x_star / np.asarray(temperature_K, dtype=float) * 1e9
+    return cast("np.ndarray", c2 / x_star / np.asarray(temperature_K, dtype=float) * 1e9)

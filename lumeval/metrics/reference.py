@@ -17,7 +17,10 @@ All functions are vectorised over CCT: ``cct_K`` of shape (N,) gives spectra of 
 
 from __future__ import annotations
 
+from typing import cast
+
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .planck import C2_CIE, planck_exitance
 
@@ -29,7 +32,7 @@ def _daylight_basis() -> tuple[np.ndarray, np.ndarray]:
     return table("d_basis")
 
 
-def daylight_xy(cct_K) -> np.ndarray:
+def daylight_xy(cct_K: ArrayLike) -> np.ndarray:
     """Chromaticity (x_D, y_D) of CIE daylight at ``cct_K`` (CIE 15:2004 Eqs. 3.3-3.4).
 
     Defined for 4000-25000 K; outside that range the polynomial is evaluated all the same
@@ -43,7 +46,7 @@ def daylight_xy(cct_K) -> np.ndarray:
     return np.stack([x, y], axis=-1)
 
 
-def daylight_spd(wavelengths_nm, cct_K, *, round_m: bool = True) -> np.ndarray:
+def daylight_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike, *, round_m: bool = True) -> np.ndarray:
     """Relative SPD of CIE daylight at ``cct_K`` sampled at ``wavelengths_nm``.
 
     Returns shape (W,) for a scalar CCT, (N, W) for shape (N,). Values are as CIE 15 defines
@@ -60,19 +63,19 @@ def daylight_spd(wavelengths_nm, cct_K, *, round_m: bool = True) -> np.ndarray:
     wl_b, S = _daylight_basis()
     wl = np.asarray(wavelengths_nm, dtype=float)
     Si = np.stack([np.interp(wl, wl_b, S[k]) for k in range(3)])
-    return Si[0] + np.asarray(M1)[..., None] * Si[1] + np.asarray(M2)[..., None] * Si[2]
+    return cast("np.ndarray", Si[0] + np.asarray(M1)[..., None] * Si[1] + np.asarray(M2)[..., None] * Si[2])
 
 
-def planckian_spd(wavelengths_nm, cct_K) -> np.ndarray:
+def planckian_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike) -> np.ndarray:
     """Relative SPD of the Planckian radiator (c2 = 1.4388e-2 m K), 100 at 560 nm."""
     wl = np.asarray(wavelengths_nm, dtype=float)
     T = np.asarray(cct_K, dtype=float)
     s = planck_exitance(wl, T, c2=C2_CIE)
     s560 = planck_exitance(np.array([560.0]), T, c2=C2_CIE)
-    return 100.0 * s / s560
+    return cast("np.ndarray", 100.0 * s / s560)
 
 
-def cri_reference_spd(wavelengths_nm, cct_K) -> np.ndarray:
+def cri_reference_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike) -> np.ndarray:
     """CIE 13.3-1995 reference illuminant: Planckian below 5000 K, CIE daylight from 5000 K.
 
     Shape (N, W) for ``cct_K`` of shape (N,). NaN CCTs give rows of NaN.

@@ -70,8 +70,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Any, cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..errors import InputError
 from .colorimetry import OBSERVER_2, OBSERVER_10, cmfs_at
@@ -173,7 +175,7 @@ class TM30Result:
     reason: tuple[str, ...]
     spacing_nm: float
     blend_observer: str
-    hue_edge_pairs: tuple = ()
+    hue_edge_pairs: tuple[Any, ...] = ()
 
 
 # --------------------------------------------------------------------------- data
@@ -190,7 +192,7 @@ def _ces_table() -> tuple[np.ndarray, np.ndarray]:
     return wl, R
 
 
-def ces_reflectances(wavelengths_nm) -> np.ndarray:
+def ces_reflectances(wavelengths_nm: ArrayLike) -> np.ndarray:
     """The 99 CIE 224:2017 CES reflectances sampled at ``wavelengths_nm`` (integers in 380-780).
 
     Returns shape (99, W). Source: colour-science 0.4.7's copy of the CIE 224:2017 1 nm table.
@@ -203,7 +205,7 @@ def ces_reflectances(wavelengths_nm) -> np.ndarray:
 # --------------------------------------------------------------------------- input checks
 
 
-def _crop_grid(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray, float]:
+def _crop_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray, np.ndarray, float]:
     wl = np.asarray(wavelengths_nm, dtype=float)
     if wl.ndim != 1 or wl.size < 2:
         raise InputError(
@@ -247,7 +249,7 @@ def _crop_grid(wavelengths_nm, values) -> tuple[np.ndarray, np.ndarray, float]:
 
 
 def reference_spd(
-    wavelengths_nm, cct_K, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
+    wavelengths_nm: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
 ) -> tuple[np.ndarray, np.ndarray]:
     """CIE 224:2017 / TM-30-18 reference illuminant at ``cct_K`` on ``wavelengths_nm``.
 
@@ -295,9 +297,9 @@ def reference_spd(
 # --------------------------------------------------------------------------- core
 
 
-def _Rf_scale(delta_E):
+def _Rf_scale(delta_E: ArrayLike) -> np.ndarray:
     """Rf = 10 ln(exp((100 − 6.73 ΔE′)/10) + 1) (CIE 224:2017; TM-30-18), via log1p."""
-    return 10.0 * np.log1p(np.exp((100.0 - C_F * np.asarray(delta_E)) / 10.0))
+    return cast("np.ndarray", 10.0 * np.log1p(np.exp((100.0 - C_F * np.asarray(delta_E)) / 10.0)))
 
 
 #: CAT02 matrix (CIE 159:2004; Moroney et al. 2002), XYZ -> sharpened RGB.
@@ -310,12 +312,14 @@ _M_CAT02_TO_HPE = _M_HPE @ np.linalg.inv(_M_CAT02)
 _SURROUND_F, _SURROUND_C, _SURROUND_NC = 1.0, 0.69, 1.0
 
 
-def _spow(x, p):
+def _spow(x: np.ndarray, p: float | np.ndarray) -> np.ndarray:
     """Signed power sign(x)·|x|^p (as colour-science's ``spow``; equal to x^p for x ≥ 0)."""
-    return np.sign(x) * np.abs(x) ** p
+    return cast("np.ndarray", np.sign(x) * np.abs(x) ** p)
 
 
-def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
+def cam02ucs_cie224(
+    XYZ: ArrayLike, XYZ_w: ArrayLike, L_A: float = L_A, Y_b: float = Y_B
+) -> tuple[np.ndarray, np.ndarray]:
     """CIECAM02 forward model and CAM02-UCS for the CIE 224:2017 viewing conditions, vectorised.
 
     Average surround (F = 1, c = 0.69, N_c = 1) and complete adaptation (D = 1, illuminant
@@ -374,9 +378,9 @@ def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
     N_bb = 0.725 * (1.0 / n) ** 0.2
     z = 1.48 + np.sqrt(n)
 
-    def compress(RGB_p):
+    def compress(RGB_p: np.ndarray) -> np.ndarray:
         x = (F_L * np.abs(RGB_p) / 100.0) ** 0.42  # base ≥ 0: the signed power is the plain one
-        return (400.0 * np.sign(RGB_p) * x) / (27.13 + x) + 0.1
+        return cast("np.ndarray", (400.0 * np.sign(RGB_p) * x) / (27.13 + x) + 0.1)
 
     RGB_w = XYZ_w @ _M_CAT02.T  # (M, 3)
     D_scale = Y_w[:, None] / RGB_w  # D = 1: R_c = (Y_w / R_w) R
@@ -411,9 +415,9 @@ def cam02ucs_cie224(XYZ, XYZ_w, L_A: float = L_A, Y_b: float = Y_B):
     return np.stack([Jp, Mp * cos_h, Mp * sin_h], axis=-1), h
 
 
-def _ces_cmf_kernel(R, cmf10):
+def _ces_cmf_kernel(R: np.ndarray, cmf10: np.ndarray) -> np.ndarray:
     """(W, 99·3) kernel K[w, 3i + c] = R_i(w) · cmf_c(w): XYZ of the 99 CES in one product."""
-    return (R.T[:, :, None] * cmf10[:, None, :]).reshape(R.shape[1], -1)
+    return cast("np.ndarray", (R.T[:, :, None] * cmf10[:, None, :]).reshape(R.shape[1], -1))
 
 
 @lru_cache(maxsize=8)
@@ -427,13 +431,15 @@ def _cfi_tables_cached(key: bytes) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return cmf10, R, kernel
 
 
-def _cfi_tables(wl) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _cfi_tables(wl: ArrayLike) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(CIE 1964 10° CMFs (W, 3), CES reflectances (99, W), XYZ kernel (W, 297)) on the cropped
     380-780 nm grid ``wl``; cached per grid (read-only arrays)."""
     return _cfi_tables_cached(np.ascontiguousarray(wl, dtype=float).tobytes())
 
 
-def _jab(wl, S, R, cmf10, kernel=None):
+def _jab(
+    wl: np.ndarray, S: np.ndarray, R: np.ndarray, cmf10: np.ndarray, kernel: np.ndarray | None = None
+) -> tuple[np.ndarray, np.ndarray]:
     """CAM02-UCS J′a′b′ of the CES under the light sources ``S`` (M, W): (M, 99, 3), h (M, 99).
 
     Relative colorimetry with the CIE 1964 10° observer: XYZ = 100 Σ R S x̄ / Σ S ȳ (the white
@@ -450,7 +456,7 @@ def _jab(wl, S, R, cmf10, kernel=None):
     return cam02ucs_cie224(XYZ, XYZ_w, L_A, Y_B)
 
 
-def hue_edge_pairs(hue_ref_deg, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:
+def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:
     """The (hue bin, CES) pairs on a knife edge, per spectrum.
 
     A CES is on a knife edge when its reference hue h lies within ``tolerance_deg`` of a
@@ -486,7 +492,7 @@ def hue_edge_pairs(hue_ref_deg, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -
     return tuple(tuple(sorted(p, key=lambda t: (t[1], t[0]))) for p in out)
 
 
-def hue_edge_warnings(pairs_per_spectrum, i: int) -> list[str]:
+def hue_edge_warnings(pairs_per_spectrum: Any, i: int) -> list[str]:
     """Warnings for spectrum ``i`` from :attr:`TM30Result.hue_edge_pairs`, one per CES."""
     pairs = pairs_per_spectrum[i] if i < len(pairs_per_spectrum) else ()
     by_ces: dict[int, list[int]] = {}
@@ -500,15 +506,15 @@ def hue_edge_warnings(pairs_per_spectrum, i: int) -> list[str]:
     ]
 
 
-def _polygon_area(ab):
+def _polygon_area(ab: np.ndarray) -> np.ndarray:
     """Signed area of the polygon through the points ``ab`` (N, K, 2), shoelace formula."""
     a, b = ab[..., 0], ab[..., 1]
-    return 0.5 * np.sum(a * np.roll(b, -1, axis=-1) - np.roll(a, -1, axis=-1) * b, axis=-1)
+    return cast("np.ndarray", 0.5 * np.sum(a * np.roll(b, -1, axis=-1) - np.roll(a, -1, axis=-1) * b, axis=-1))
 
 
 def tm30_from_reference(
-    wavelengths_nm, values, reference_values, cct_K=None, *, reference_kind=None,
-    daylight_fraction=None, blend_observer: str = BLEND_OBSERVER_DEFAULT,
+    wavelengths_nm: ArrayLike, values: ArrayLike, reference_values: ArrayLike, cct_K: ArrayLike | None = None, *, reference_kind: Any = None,
+    daylight_fraction: Any = None, blend_observer: str = BLEND_OBSERVER_DEFAULT,
 ) -> TM30Result:
     """TM-30-18 figures for test spectra against given reference spectra (same grid).
 
@@ -543,7 +549,7 @@ def tm30_from_reference(
         else:
             reasons[i] = "spectrum has no luminous content (Y10 ≤ 0)"
 
-    def nan(*shape):
+    def nan(*shape: int) -> np.ndarray:
         return np.full((n, *shape), np.nan)
 
     Rf, Rg = nan(), nan()
@@ -567,7 +573,7 @@ def tm30_from_reference(
         # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
         flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
 
-        def binsum(w):
+        def binsum(w: np.ndarray) -> np.ndarray:
             return np.bincount(flat, weights=w.ravel(), minlength=m * N_BINS).reshape(m, N_BINS)
 
         cnt = np.bincount(flat, minlength=m * N_BINS).reshape(m, N_BINS).astype(float)  # (m, 16)
@@ -605,7 +611,7 @@ def tm30_from_reference(
 
 
 def tm30(
-    wavelengths_nm, values, cct_K, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
+    wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
 ) -> TM30Result:
     """CIE 224:2017 Rf and ANSI/IES TM-30-18/-20 Rf, Rg and hue-bin figures, vectorised.
 
@@ -665,7 +671,7 @@ def tm30(
 
 
 def cie2017_rf(
-    wavelengths_nm, values, cct_K, *, blend_observer: str = OBSERVER_2,
+    wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = OBSERVER_2,
     tm30_result: TM30Result | None = None,
 ) -> np.ndarray:
     """CIE 224:2017 general colour fidelity index Rf, shape (N,).

@@ -54,6 +54,7 @@ import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -463,11 +464,12 @@ def report_figures(
         for i, name in enumerate(names):
             slug = f"{i + 1:02d}-{_slug(name)}"
             ref = ev.reference_spd(i)
+            wl_i, values_i = ev.spectra.spectrum(i)
             figs.append(ReportFigure(
                 f"spd-{slug}", f"Spectrum: {name}",
                 "Test spectrum (solid) and its CIE 13.3 reference at the same CCT (dashed), both scaled to the "
                 "same luminous content Y, then jointly to a highest value of 1. Grey: outside 380–780 nm.",
-                plots.spd_figure(*ev.spectra.spectrum(i), ref, test_label=name, reference_label=_reference_label(cct[i])),
+                plots.spd_figure(wl_i, values_i, ref, test_label=name, reference_label=_reference_label(cct[i])),
             ))
             figs.append(ReportFigure(
                 f"cri-{slug}", f"Colour rendering indices: {name}",
@@ -1076,7 +1078,7 @@ def render_html_report(
             body.append('<p class="sub">' + " · ".join(bits) + "</p>")
         overall = overall if overall in _OUTCOME_TEXT else _worst(r.outcome for r in rows)
         counts = {o: sum(r.outcome == o for r in rows) for o in _OUTCOME_ORDER}
-        per_sample = {}
+        per_sample: dict[Any, Any] = {}
         for r in rows:
             per_sample.setdefault(r.sample or "(lot)", []).append(r.outcome)
         summary_words = {

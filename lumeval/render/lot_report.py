@@ -32,6 +32,7 @@ import csv
 import io
 import json
 import math
+from typing import Any
 
 import numpy as np
 
@@ -356,7 +357,7 @@ def lot_renderables(run) -> list:
     from .safe import text as safe_text
 
     st = run.stats
-    out = []
+    out: list[Any] = []
     c = _counts(run)
     head = Text()
     head.append(f"Lot: {c['samples']} samples judged", style="bold")

@@ -384,7 +384,7 @@ def chromaticity_figure(
         duv_labelled = False
         p_l, n_l = locus_normal_uv(T_line)
         for d in np.arange(-0.05, 0.0501, step):
-            d = round(float(d), 4)
+            d = round(float(d), 4)  # type: ignore[arg-type]
             if d == 0:
                 continue
             line = tf(p_l + d * n_l)
@@ -456,7 +456,7 @@ def chromaticity_figure(
                 w, vec = np.linalg.eigh(cov)
                 w = np.clip(w, 0, None)
                 ang = np.degrees(np.arctan2(vec[1, 1], vec[0, 1]))
-                ell = Ellipse(c, 2 * 2 * np.sqrt(w[1]), 2 * 2 * np.sqrt(w[0]), angle=ang, fill=False,
+                ell = Ellipse(c, 2 * 2 * np.sqrt(w[1]), 2 * 2 * np.sqrt(w[0]), angle=ang, fill=False,  # type: ignore[arg-type]
                               ec=PALETTE["orange"], lw=1.3, ls="-", gid="spread", label="spread (2σ ellipse)")
                 ax.add_patch(ell)
 

@@ -12,6 +12,7 @@ import io
 import itertools
 import json
 import math
+from typing import Any
 
 import numpy as np
 
@@ -30,7 +31,7 @@ def _nums(a):
 
 def _put(rec: dict, path: tuple, value) -> None:
     """Set ``value`` at ``path`` in the nested record (str keys: objects; int keys: arrays)."""
-    node = rec
+    node: Any = rec
     for k, nxt in itertools.pairwise(path):
         child = node[k] if isinstance(node, list) else node.get(k)
         if child is None:

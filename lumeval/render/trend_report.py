@@ -41,6 +41,8 @@ def list_document(lots, store: str) -> dict:
 
 
 def print_list(lots, store: str, console=None) -> None:
+    from rich.console import JustifyMethod
+
     from .safe import console as safe_console
     from rich.table import Table
     from rich.text import Text
@@ -53,7 +55,7 @@ def print_list(lots, store: str, console=None) -> None:
     one = len(products) == 1
     title = f"Lots recorded in {plain(store)}" + (f" — product: {plain(next(iter(products)))}" if one and lot_product(lots) else "")
     t = Table(title=Text(title), title_justify="left")
-    cols = [("lot", "right"), ("label", "left"), ("product", "left"), ("recorded (UTC)", "left"),
+    cols: list[tuple[str, JustifyMethod]] = [("lot", "right"), ("label", "left"), ("product", "left"), ("recorded (UTC)", "left"),
             ("samples", "right"), ("yield %", "right"), ("verdict", "left")]
     if one:
         cols = [c for c in cols if c[0] != "product"]

@@ -21,6 +21,7 @@ import io
 import json
 import math
 import re
+from typing import Any
 
 import numpy as np
 
@@ -122,7 +123,7 @@ def renderables(report) -> list:
 
     r = report.result
     labels, avail, reasons = _per_setting(report)
-    out = []
+    out: list[Any] = []
     head = Text()
     if report.kind == "mix":
         head.append(f"Channel mix — {len(r.channels)} channels, {len(r)} setpoints\n", style="bold")
@@ -254,7 +255,7 @@ def _check_tables(check) -> list:
             _margin(res, w) if w is not None else "—",
             _text(_failed_at(check, rr)),
         )
-    out = [t]
+    out: list[Any] = [t]
     for rr in check.results:
         if rr.range_reason:
             out.append(_text(f"{rr.result.clause_id}: not judged over the range: {rr.range_reason}", "yellow"))

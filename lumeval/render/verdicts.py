@@ -17,6 +17,7 @@ import csv
 import io
 import json
 import math
+from typing import Any, overload
 
 import numpy as np
 
@@ -282,7 +283,7 @@ def _summary_renderables(result) -> list:
         style = "bold red" if nfail else ("yellow" if nopen else None)
         t.add_row(">>" if nfail or nopen else "", _text(r.clause_id), _text(r.label), str(npass), f"✘ {nfail}" if nfail else "0",
                   str(nopen), _text(worst), _text(who), style=style)
-    out = [t]
+    out: list[Any] = [t]
     bad = [i for i, v in enumerate(result.verdicts) if v != "pass"]
     if bad:
         txt = Text(f"Spectra that did not pass ({len(bad)} of {n}):\n", style="bold")
@@ -416,7 +417,15 @@ CHECK_CSV_COLUMNS = (
 )
 
 
-def _cells(values) -> list[str]:
+@overload
+def _cells(values: None) -> None: ...
+
+
+@overload
+def _cells(values: Any) -> list[str]: ...
+
+
+def _cells(values: Any) -> list[str] | None:
     """Unrounded numbers as CSV cells; NaN/inf/None -> empty."""
     if values is None:
         return None
@@ -508,15 +517,15 @@ def claims_renderables(check) -> list:
         if r.claim.tolerance_note:
             tol.append(clean(f"  - {r.claim.key} {r.claim.text}: {r.claim.tolerance_note}") + "\n", style="dim")
     out.append(tol)
-    t = Text("\n")
+    overall = Text("\n")
     if check.exit_code:
-        t.append("OVERALL: ✘ the datasheet over-claims: at least one claim is contradicted by the supplier's own spectrum", style="bold red")
+        overall.append("OVERALL: ✘ the datasheet over-claims: at least one claim is contradicted by the supplier's own spectrum", style="bold red")
     elif not any(o == "supported" for r in check.results for o in r.outcome):
-        t.append("OVERALL: – nothing could be checked: no claim is contradicted, but none is supported either",
-                 style="bold yellow")
+        overall.append("OVERALL: – nothing could be checked: no claim is contradicted, but none is supported either",
+                       style="bold yellow")
     else:
-        t.append("OVERALL: ✔ no claim is contradicted by the spectrum", style="bold green")
-    out.append(t)
+        overall.append("OVERALL: ✔ no claim is contradicted by the spectrum", style="bold green")
+    out.append(overall)
     out.append(_cautions_text())
     return out
 

@@ -39,6 +39,7 @@ import re
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -276,7 +277,7 @@ class ArchiveBatch:
     """
 
     spectra: SpectrumSet
-    metadata: object
+    metadata: Any
     first_row: int
 
 

@@ -49,6 +49,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cached_property, lru_cache
+from typing import Any, cast
 
 import numpy as np
 
@@ -153,7 +154,7 @@ def sprague(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.ndarra
     h = wl[1] - wl[0]
     x = (np.asarray(wl_out, dtype=float) - wl[0]) / h
     if x.size * n_in <= _DENSE_MAX:
-        return values @ _dense_sprague(n_in, np.ascontiguousarray(x).tobytes()).T
+        return cast("np.ndarray", values @ _dense_sprague(n_in, np.ascontiguousarray(x).tobytes()).T)
     return _sprague_banded(values, x)
 
 
@@ -198,7 +199,7 @@ def cubic_spline(wl: np.ndarray, values: np.ndarray, wl_out: np.ndarray) -> np.n
 
     if wl.size < 4:
         return np.vstack([np.interp(wl_out, wl, v) for v in np.atleast_2d(values)])
-    return CubicSpline(wl, np.atleast_2d(values), axis=1, bc_type="not-a-knot")(wl_out)
+    return cast("np.ndarray", CubicSpline(wl, np.atleast_2d(values), axis=1, bc_type="not-a-knot")(wl_out))
 
 
 def _fmt(x: float) -> str:
@@ -215,7 +216,7 @@ def _err(spectra: SpectrumSet, i: int, problem: str, fix: str) -> InputError:
     return InputError(problem, file=file or spectra.names[i], field=col or None, fix=fix)
 
 
-def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: list[list[str]]):
+def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: list[list[str]]) -> np.ndarray:
     """Validate values inside 360-830 nm; clip small negative noise. Returns new values."""
     inside = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
     if not np.any(inside):
@@ -418,7 +419,9 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     )
 
 
-def _extend(wl, vals, h, start, end, notes):
+def _extend(
+    wl: np.ndarray, vals: np.ndarray, h: float, start: float, end: float, notes: list[list[str]]
+) -> tuple[np.ndarray, np.ndarray]:
     """Extend (N, W) data on a uniform grid of step h by constant end values to cover start..end."""
     n_lo = int(np.ceil((wl[0] - start) / h - 1e-9)) if wl[0] > start else 0
     n_hi = int(np.ceil((end - wl[-1]) / h - 1e-9)) if wl[-1] < end else 0
@@ -470,7 +473,7 @@ class PreparedSpectra:
     @staticmethod
     def from_sets(sets: Sequence[SpectrumSet]) -> PreparedSpectra:
         """Group prepared sets by grid, in order of first appearance; rows keep input order."""
-        by_key: dict[tuple, list[tuple[SpectrumSet, np.ndarray]]] = {}
+        by_key: dict[tuple[Any, ...], list[tuple[SpectrumSet, np.ndarray]]] = {}
         pos = 0
         for s in sets:
             idx = np.arange(pos, pos + len(s))
@@ -504,7 +507,7 @@ class PreparedSpectra:
     def group_of(self, i: int) -> int:
         return int(self._where[0][i])
 
-    def _per_spectrum(self, attr: str) -> tuple:
+    def _per_spectrum(self, attr: str) -> tuple[Any, ...]:
         grp, row = self._where
         return tuple(getattr(self.groups[g], attr)[r] for g, r in zip(grp, row))
 
@@ -521,7 +524,7 @@ class PreparedSpectra:
         return self._per_spectrum("notes")
 
     @cached_property
-    def metadata(self) -> tuple[dict, ...]:
+    def metadata(self) -> tuple[dict[str, Any], ...]:
         return self._per_spectrum("metadata")
 
     def wavelengths(self, i: int) -> np.ndarray:
@@ -560,7 +563,7 @@ class PreparedSpectra:
     def spacing_nm(self) -> float | None:
         return self._single().spacing_nm
 
-    def subset(self, index) -> PreparedSpectra:
+    def subset(self, index: Any) -> PreparedSpectra:
         """The spectra at input positions ``index``, in that order, grouped as before."""
         idx = np.atleast_1d(np.arange(len(self))[index])
         grp, row = self._where

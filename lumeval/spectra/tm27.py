@@ -223,10 +223,10 @@ def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
             if name == "Comments":
                 rest = []
                 for ln in text.splitlines():
-                    m = _KV_LINE.match(ln)
-                    if (m and m.group(1).strip() and not m.group(1).strip().startswith(("http", "//"))
-                            and not _own_key(m.group(1))):
-                        _add(meta, m.group(1).strip(), m.group(2).strip())
+                    kv = _KV_LINE.match(ln)
+                    if (kv and kv.group(1).strip() and not kv.group(1).strip().startswith(("http", "//"))
+                            and not _own_key(kv.group(1))):
+                        _add(meta, kv.group(1).strip(), kv.group(2).strip())
                     else:
                         rest.append(ln)
                 if any(x.strip() for x in rest):
@@ -282,7 +282,7 @@ def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
         wl = np.array(wls)
         v = np.array(vals)
         d = np.diff(wl)
-        note = ()
+        note: tuple[str, ...] = ()
         if np.all(d < 0):
             order = np.argsort(wl)
             wl, v = wl[order], v[order]

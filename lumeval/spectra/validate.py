@@ -123,6 +123,7 @@ def format_report(checks: list[SpectrumCheck]) -> str:
         status = "ok  " if c.ok else "FAIL"
         lines.append(f"{status}  {clean(c.source)}  ({clean(c.name)})")
         spacing = f"{c.spacing_nm:g} nm" if c.spacing_nm else "irregular"
+        assert c.range_nm is not None  # set for every file that was read
         lines.append(
             f"      read: {c.points} points, {c.range_nm[0]:g}-{c.range_nm[1]:g} nm, spacing {spacing}, "
             f"scale {c.scale}, {c.format}"

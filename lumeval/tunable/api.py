@@ -20,6 +20,7 @@ import io
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -39,7 +40,7 @@ class TunableReport:
 
     kind: str  # "mix" or "series"
     result: object  # MixResult or SeriesResult
-    check: object  # RangeCheck or None
+    check: Any  # RangeCheck or None
     criteria: object
     inputs: tuple[str, ...]
 
@@ -48,7 +49,7 @@ class TunableReport:
         return 0 if self.check is None else self.check.exit_code
 
 
-def read_channels(paths) -> tuple[object, tuple[str, ...]]:
+def read_channels(paths) -> tuple[Any, tuple[str, ...]]:
     """Read channel spectra (one wide file with a column per channel, or several files) and
     bring them onto one computation grid. Returns (SpectrumSet, run notes).
 

@@ -9,7 +9,9 @@ is *not judged*, so the range does not pass. Lot clauses are not judged here (no
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -28,10 +30,10 @@ class SetpointView:
     """The figures at N settings as a clause sees them (NaN where a setting was not evaluated)."""
 
     names: tuple[str, ...]
-    figure_fn: object
+    figure_fn: Callable[[str], Any]
     cct_reason: tuple[str, ...]
-    outside_fn: object = None
-    validity_fn: object = None
+    outside_fn: Callable[[str], Any] | None = None
+    validity_fn: Callable[[int], str] | None = None
 
     def figure(self, name: str) -> np.ndarray:
         return np.asarray(self.figure_fn(name), dtype=float)
@@ -151,7 +153,7 @@ def judge(criteria, view, settings, *, labels, unit: str = "", available=None, u
         if isinstance(c, OverRange):
             rs, over = c.evaluate(view), c.over
         elif isinstance(c, RangeKind):
-            rs, over = c.evaluate_range(view, s), c.over
+            rs, over = c.evaluate_range(view, s), c.over  # type: ignore[attr-defined]  # every range kind has one
         else:
             rs, over = c.evaluate(view), None
         if over is not None:

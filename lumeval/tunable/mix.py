@@ -50,6 +50,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from itertools import combinations
+from typing import Any
 
 import numpy as np
 
@@ -112,7 +113,7 @@ class MixResult:
     reachable: np.ndarray
     reason: tuple[str, ...]
     weights: np.ndarray
-    evaluation: object
+    evaluation: Any
     index: np.ndarray
     maximise: str | None
     method: str
@@ -415,7 +416,7 @@ def solve_multi_channels(
     """
     n, K = uv_t.shape[0], XYZc.shape[0]
     V, ok = _vertex_solutions(XYZc, uv_t)
-    reach = ok.any(axis=1)
+    reach: np.ndarray = np.asarray(ok.any(axis=1))
     W = np.full((n, K), np.nan)
     if K == 3:
         W[reach] = V[reach, 0]

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -74,7 +75,7 @@ class SeriesResult:
     notes : tuple of str
     """
 
-    evaluation: object
+    evaluation: Any
     settings: np.ndarray
     unit: str
     setting_source: str

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -196,7 +197,7 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
 def uncertainty_info(setup: UncertaintySetup, unc: UncertaintyResult | None) -> dict:
     """A JSON-ready description of the model, the settings, the rule and headline uncertainties."""
     s = setup.settings
-    info = {
+    info: dict[str, Any] = {
         "decision_rule": setup.rule.rule,
         "rule_text": setup.rule.describe(),
         "guard_band_factor": setup.rule.guard_band_factor,

@@ -477,6 +477,7 @@ def propagate(
             return _evaluate_values(wl, vals, evaluate_fn, names_f, extra, chunk_size, prepared.metadata[i])
 
         if not settings.adaptive:
+            assert settings.draws is not None  # a fixed number of draws when not adaptive
             # in blocks, so that memory stays bounded for large M (one (M, W) array of drawn
             # spectra is 3.2 GB at M = 10^5); runs of up to _DRAW_BLOCK draws are unchanged
             samples = np.concatenate([run(min(_DRAW_BLOCK, settings.draws - k))

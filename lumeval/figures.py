@@ -39,6 +39,7 @@ from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
+    from numpy.typing import ArrayLike
 
     from .engine import Evaluation
 
@@ -412,7 +413,7 @@ register(Figure("melanopic_edl_cd_m2", "melanopic EDL", "photometry",
 del _i, _j
 
 
-def _outside(margin):
+def _outside(margin: ArrayLike) -> Any:
     """Distance outside a region from a signed margin (positive inside): 0 inside, NaN kept."""
     import numpy as np
 

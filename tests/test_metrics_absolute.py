@@ -17,7 +17,13 @@ import numpy as np
 import pytest
 
 from lumeval.metrics.absolute import absolute_photometry
-from lumeval.spectra.units import IRRADIANCE, RADIANCE, SpectralQuantity, quantity_of, spectral_quantity
+from lumeval.spectra.units import (
+    IRRADIANCE,
+    RADIANCE,
+    SpectralQuantity,
+    quantity_of,
+    spectral_quantity,
+)
 
 KM = 683.0
 

@@ -80,7 +80,7 @@ def test_isotemperature_lines_in_xy_have_their_cct(xy_diagram, colour):
 
 
 def test_quadrangle_is_drawn_at_its_published_xy_corners(xy_diagram):
-    poly = [p for ax in xy_diagram.axes for p in ax.patches if p.get_gid() == "region-0"][0]
+    poly = next(p for ax in xy_diagram.axes for p in ax.patches if p.get_gid() == "region-0")
     xy = poly.get_xy()[:4]
     published = np.array([(0.4373, 0.3893), (0.4562, 0.4260), (0.4303, 0.4173), (0.4150, 0.3821)])
     np.testing.assert_allclose(xy, published, atol=1e-12)
@@ -115,7 +115,7 @@ def test_colour_vectors_sit_at_colour_sciences_bin_averages(f2, colour):
         col = to_hex(arrows[f"vector-h{j}"].get_edgecolor())
         assert col == (plots.PALETTE["blue"] if rcs > 0 else plots.PALETTE["vermillion"]).lower(), (j, rcs)
     for pct in (80, 100, 120):
-        ring = [p for ax in fig.axes for p in ax.patches if p.get_gid() == f"ring-{pct}"][0]
+        ring = next(p for ax in fig.axes for p in ax.patches if p.get_gid() == f"ring-{pct}")
         assert ring.get_radius() == pytest.approx(pct / 100)
 
 

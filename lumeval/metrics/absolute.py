@@ -27,9 +27,12 @@ nothing about photobiological safety (IEC 62471) or health effects.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .photometry import KM_LM_PER_W
 
@@ -62,7 +65,7 @@ class AbsoluteResult:
     melanopic_edl_cd_m2: np.ndarray
 
 
-def absolute_photometry(Y, melanopic_der, quantities) -> AbsoluteResult:
+def absolute_photometry(Y: ArrayLike, melanopic_der: ArrayLike, quantities: Sequence[Any]) -> AbsoluteResult:
     """Illuminance or luminance and melanopic EDI or EDL, vectorised.
 
     Parameters

@@ -22,8 +22,10 @@ a point in the sliver is reported in the category it lies deeper inside (larger 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 
 @dataclass(frozen=True)
@@ -56,7 +58,7 @@ class ChromaticityClass:
     sdcm_steps: np.ndarray
 
 
-def ansi_category(upvp, edition: str = "2017") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def ansi_category(upvp: ArrayLike, edition: str = "2017") -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The ANSI C78.377 category of each point (containing or nearest).
 
     Parameters
@@ -86,7 +88,7 @@ def ansi_category(upvp, edition: str = "2017") -> tuple[np.ndarray, np.ndarray, 
     return nominal, ok & (margin >= 0.0), margin
 
 
-def nearest_sdcm(xy) -> tuple[tuple[str, ...], np.ndarray]:
+def nearest_sdcm(xy: ArrayLike) -> tuple[tuple[str, ...], np.ndarray]:
     """The IEC 60081 colour centre with the fewest SDCM steps from each point, and the steps.
 
     Parameters
@@ -110,7 +112,7 @@ def nearest_sdcm(xy) -> tuple[tuple[str, ...], np.ndarray]:
     return tuple(IEC60081_CENTRES[j] if o else "" for j, o in zip(k, ok)), best
 
 
-def classify(xy, upvp, edition: str = "2017") -> ChromaticityClass:
+def classify(xy: ArrayLike, upvp: ArrayLike, edition: str = "2017") -> ChromaticityClass:
     """:func:`ansi_category` and :func:`nearest_sdcm` together (see the module docstring)."""
     from ..criteria.regions import normalise_ansi_edition
 
@@ -120,7 +122,7 @@ def classify(xy, upvp, edition: str = "2017") -> ChromaticityClass:
     return ChromaticityClass(ed, nominal, inside, margin, centres, steps)
 
 
-def extended_rendering_index(R) -> np.ndarray:
+def extended_rendering_index(R: ArrayLike) -> np.ndarray:
     """Re, the mean of the fourteen CIE 13.3 special indices R1 ... R14, shape (N,).
 
     CIE 13.3-1995 defines Ra as the mean of R1 ... R8 only; the mean over all fourteen samples
@@ -134,4 +136,4 @@ def extended_rendering_index(R) -> np.ndarray:
     R = np.atleast_2d(np.asarray(R, dtype=float))
     if R.shape[-1] != 14:
         raise ValueError(f"expected 14 special indices per spectrum, got {R.shape[-1]}")
-    return R.mean(axis=1)
+    return cast("np.ndarray", R.mean(axis=1))

@@ -48,8 +48,10 @@ table that lists no Rf,h1 condition for F1 (which reading the Annex intends was 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 #: Hue-bin width (TM-30-18) and the angle of bin j's bisector, (j − ½)·22.5°, j = 1..16.
 BIN_WIDTH_DEG = 22.5
@@ -98,10 +100,10 @@ class DesignIntents:
     preference: tuple[str, ...]
     vividness: tuple[str, ...]
     fidelity: tuple[str, ...]
-    met: dict
+    met: dict[str, Any]
 
 
-def design_intents(Rf, Rg, Rcs_h1, Rf_h1) -> DesignIntents:
+def design_intents(Rf: ArrayLike, Rg: ArrayLike, Rcs_h1: ArrayLike, Rf_h1: ArrayLike) -> DesignIntents:
     """ANSI/IES TM-30-20 Annex E priority levels met, vectorised.
 
     Parameters
@@ -132,7 +134,7 @@ def design_intents(Rf, Rg, Rcs_h1, Rf_h1) -> DesignIntents:
     return DesignIntents(best["preference"], best["vividness"], best["fidelity"], met)
 
 
-def colour_vectors(avg_ab_test, avg_ab_ref) -> tuple[np.ndarray, np.ndarray]:
+def colour_vectors(avg_ab_test: ArrayLike, avg_ab_ref: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Normalised reference and test positions of the 16 hue-bin averages.
 
     Parameters

@@ -430,7 +430,7 @@ def report_figures(
     limits: Mapping | None = None,
     regions=None,
     lot=None,
-    per_sample_max: int = PER_SAMPLE_MAX,
+    per_sample_max: int | None = PER_SAMPLE_MAX,
 ) -> list[ReportFigure]:
     """All figures of the report, in report order (see the module docstring for the inputs)."""
     from . import plots
@@ -614,7 +614,7 @@ def write_plots(
     regions=None,
     lot=None,
     formats: Sequence[str] = ("svg", "png"),
-    per_sample_max: int = PER_SAMPLE_MAX,
+    per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
 ) -> list[Path]:
     """Write every report figure as ``DIR/<key>.svg`` and ``DIR/<key>.png`` (each atomically).
@@ -664,7 +664,7 @@ def write_html_report(
     title: str | None = None,
     command: str | None = None,
     generated_at=None,
-    per_sample_max: int = PER_SAMPLE_MAX,
+    per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
     overall: str | None = None,
 ) -> Path:
@@ -696,7 +696,7 @@ def write_outputs(
     inputs: Sequence | None = None,
     title: str | None = None,
     command: str | None = None,
-    per_sample_max: int = PER_SAMPLE_MAX,
+    per_sample_max: int | None = PER_SAMPLE_MAX,
     overall: str | None = None,
 ) -> list[Path]:
     """The ``--html FILE`` and ``--plots DIR`` options in one call: check both targets, draw
@@ -1004,7 +1004,7 @@ def render_html_report(
     title: str | None = None,
     command: str | None = None,
     generated_at=None,
-    per_sample_max: int = PER_SAMPLE_MAX,
+    per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
     overall: str | None = None,
 ) -> str:
@@ -1190,7 +1190,7 @@ def render_html_report(
     charts.append("</section>")
     grid_too_wide = len({r.sample for r in rows if r.sample is not None}) > grid_max
     samples_html: list[str] = []
-    for idx, (num, fl) in enumerate(sorted(per_sample_figs.items())):
+    for _idx, (num, fl) in enumerate(sorted(per_sample_figs.items())):
         i = int(num) - 1
         samples_html.append(f'<section class="sample" id="sample-{num}"><h2>{_e(names[i])}</h2>')
         samples_html.append(f'<p class="sub">Source: <span class="mono">{_e(ev.spectra.sources[i])}</span></p>')

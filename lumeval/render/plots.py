@@ -81,14 +81,14 @@ _RC = {
 
 
 def _mpl():
-    import matplotlib  # noqa: PLC0415
+    import matplotlib
 
     return matplotlib
 
 
 def _new_figure(height_in: float, **kwargs):
-    from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415
-    from matplotlib.figure import Figure  # noqa: PLC0415
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
 
     with _mpl().rc_context(_RC):
         fig = Figure(figsize=(WIDTH_IN, height_in), layout="constrained", **kwargs)
@@ -341,7 +341,7 @@ def chromaticity_figure(
 
     if diagram not in ("uv", "xy"):
         raise ValueError(f"unknown diagram {diagram!r}; use 'uv' or 'xy'")
-    tf = (lambda p: np.asarray(p, dtype=float)) if diagram == "uv" else xy_from_uv  # noqa: E731
+    tf = (lambda p: np.asarray(p, dtype=float)) if diagram == "uv" else xy_from_uv
     u = np.atleast_1d(np.asarray(u, dtype=float))
     v = np.atleast_1d(np.asarray(v, dtype=float))
     n = u.size
@@ -410,7 +410,7 @@ def chromaticity_figure(
         for T, p, nn in zip(T_iso, p_i, n_i):
             seg = tf(p[None, :] + ds[:, None] * nn[None, :])
             ax.plot(seg[:, 0], seg[:, 1], color=PALETTE["grey"], lw=0.8, gid=f"isotemperature-{int(T)}",
-                    label="isotemperature line" if T == T_iso[0] else None)
+                    label="isotemperature line" if T_iso[0] == T else None)
             # label near the bottom of the view, where the (straight) line crosses it
             a, b = seg[0], seg[-1]
             if b[1] != a[1]:
@@ -431,9 +431,9 @@ def chromaticity_figure(
         # Samples
         f = np.array([None if x is None else bool(x) for x in failed], dtype=object)
         groups = (
-            ("samples-pass", f == False, dict(marker="o", mfc=PALETTE["sky"], mec=PALETTE["black"]), "sample: passed"),  # noqa: E712
-            ("samples-fail", f == True, dict(marker="X", mfc=PALETTE["vermillion"], mec=PALETTE["black"], ms=8), "sample: failed"),  # noqa: E712
-            ("samples-unjudged", np.array([x is None for x in f]), dict(marker="o", mfc="white", mec=PALETTE["black"]), "sample: not judged"),
+            ("samples-pass", f == False, {"marker": "o", "mfc": PALETTE["sky"], "mec": PALETTE["black"]}, "sample: passed"),  # noqa: E712
+            ("samples-fail", f == True, {"marker": "X", "mfc": PALETTE["vermillion"], "mec": PALETTE["black"], "ms": 8}, "sample: failed"),  # noqa: E712
+            ("samples-unjudged", np.array([x is None for x in f]), {"marker": "o", "mfc": "white", "mec": PALETTE["black"]}, "sample: not judged"),
         )
         ms = 6.5 if n <= 20 else 4.5
         for gid, mask, style, lab in groups:

@@ -180,7 +180,6 @@ def colour_vector_figure(ref_unit, test, *, Rcs_h=None, title: str | None = None
     with _ctx():
         ax = fig.add_subplot()
         ax.set_aspect("equal", adjustable="box")
-        th = np.linspace(0, 2 * np.pi, 361)
         for pct, ls, lw in ((80, (0, (2, 2)), 0.6), (100, "-", 0.8), (120, (0, (2, 2)), 0.6)):
             ring = Circle((0, 0), pct / 100.0, fill=False, ec="#9a9a9a", lw=lw, ls=ls, gid=f"ring-{pct}", zorder=1)
             ax.add_patch(ring)
@@ -289,7 +288,7 @@ def fidelity_gamut_figure(
         ax.axhline(100.0, color="#9a9a9a", lw=0.8, zorder=1)
         ax.text(x0 + 0.5, 99.6, "Rg = 100: gamut area as under the reference", fontsize=6, color="#555555",
                 va="top")
-        pref_style = dict(color=PALETTE["green"], lw=1.3)
+        pref_style = {"color": PALETTE["green"], "lw": 1.3}
         for lv in ("P1", "P2", "P3"):
             fx, gy = ANNEX_E[lv]["Rf"][0], ANNEX_E[lv]["Rg"][0]
             ax.plot([fx, fx, x1], [y1, gy, gy], gid=f"intent-{lv}", zorder=2, **pref_style,
@@ -325,9 +324,9 @@ def fidelity_gamut_figure(
                             va="top", rotation=90, color="#a33d00")
         f = np.array([None if x is None else bool(x) for x in (failed if failed is not None else [None] * n)], dtype=object)
         groups = (
-            ("samples-pass", f == False, dict(marker="o", mfc=PALETTE["sky"], mec="black"), "passed"),  # noqa: E712
-            ("samples-fail", f == True, dict(marker="X", mfc=PALETTE["vermillion"], mec="black", ms=8), "failed"),  # noqa: E712
-            ("samples-unjudged", np.array([x is None for x in f]), dict(marker="o", mfc="white", mec="black"), "not judged"),
+            ("samples-pass", f == False, {"marker": "o", "mfc": PALETTE["sky"], "mec": "black"}, "passed"),  # noqa: E712
+            ("samples-fail", f == True, {"marker": "X", "mfc": PALETTE["vermillion"], "mec": "black", "ms": 8}, "failed"),  # noqa: E712
+            ("samples-unjudged", np.array([x is None for x in f]), {"marker": "o", "mfc": "white", "mec": "black"}, "not judged"),
         )
         for gid, mask, style, lab in groups:
             m = mask.astype(bool) & fin

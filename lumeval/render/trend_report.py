@@ -42,10 +42,10 @@ def list_document(lots, store: str) -> dict:
 
 def print_list(lots, store: str, console=None) -> None:
     from rich.console import JustifyMethod
-
-    from .safe import console as safe_console
     from rich.table import Table
     from rich.text import Text
+
+    from .safe import console as safe_console
 
     console = console or safe_console(highlight=False, soft_wrap=False)  # a closed pipe: exit 2, not 1
     if not lots:
@@ -95,11 +95,11 @@ _CHART_NAMES = {"xbar": "X̄ chart", "s": "s chart", "individuals": "individuals
 
 
 def print_trend(tr, console=None) -> None:
-    from .safe import console as safe_console
     from rich.table import Table
     from rich.text import Text
 
     from ..store.trend import trend_document
+    from .safe import console as safe_console
 
     doc = trend_document(tr)
     console = console or safe_console(highlight=False, soft_wrap=False)  # a closed pipe: exit 2, not 1

@@ -26,8 +26,8 @@ Nothing here prints or touches files.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 
@@ -472,9 +472,9 @@ def propagate(
         rng = np.random.default_rng(np.random.SeedSequence(settings.seed, spawn_key=(index_offset + i,)))
         wl, s_m = prepared.spectrum(i)  # each spectrum on its own computation grid
 
-        def run(m):
-            vals = draw_spectra(wl, s_m, instrument, m, rng)
-            return _evaluate_values(wl, vals, evaluate_fn, names_f, extra, chunk_size, prepared.metadata[i])
+        def run(m):  # called only within this iteration, so the loop variables are current
+            vals = draw_spectra(wl, s_m, instrument, m, rng)  # noqa: B023
+            return _evaluate_values(wl, vals, evaluate_fn, names_f, extra, chunk_size, prepared.metadata[i])  # noqa: B023
 
         if not settings.adaptive:
             assert settings.draws is not None  # a fixed number of draws when not adaptive

@@ -12,7 +12,6 @@ import sys
 from pathlib import Path
 
 import numpy as np
-import pytest
 
 REPO = Path(__file__).resolve().parents[1]
 DEMO = sorted((REPO / "spectra_demo" / "downlights").glob("*.csv"))
@@ -104,9 +103,9 @@ def test_lot_report_draws_the_run_it_belongs_to(tmp_path):
 
 
 def test_run_warnings_reach_every_report():
-    import lumeval
     from rich.console import Console
 
+    import lumeval
     from lumeval.criteria import load_criteria
     from lumeval.render import html as H
     from lumeval.render import verdicts as rv

@@ -20,9 +20,10 @@ result (:mod:`lumeval.render`) and turn it into an exit code. Bad input raises
 from __future__ import annotations
 
 import os
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Callable, Sequence, Union
+from typing import TYPE_CHECKING, Any, Union
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..criteria.claims import Claims, ClaimsCheck
@@ -36,7 +37,7 @@ PathLike = Union[str, "os.PathLike[str]"]
 __all__ = ["CheckRun", "check", "check_run", "claims", "convert", "inspect", "lot"]
 
 
-def inspect(paths: Sequence[PathLike]) -> "Evaluation":
+def inspect(paths: Sequence[PathLike]) -> Evaluation:
     """Read, prepare and evaluate the spectra in ``paths`` (``lumeval inspect``).
 
     Each spectrum is evaluated on its own computation grid (see
@@ -48,10 +49,10 @@ def inspect(paths: Sequence[PathLike]) -> "Evaluation":
     from ..spectra.read import read_spectra, unique_names
 
     seen: dict[str, int] = {}
-    return evaluate([unique_names(read_spectra(p), seen) for p in paths])
+    return evaluate([unique_names(read_spectra(p), seen) for p in paths])  # type: ignore[arg-type]  # read_spectra takes any path (Path(path))
 
 
-def _criteria(criteria: "Criteria | PathLike") -> "Criteria":
+def _criteria(criteria: Criteria | PathLike) -> Criteria:
     from ..criteria.model import Criteria
 
     if isinstance(criteria, Criteria):
@@ -61,7 +62,7 @@ def _criteria(criteria: "Criteria | PathLike") -> "Criteria":
     return load_criteria(criteria)
 
 
-def _evaluation(spectra: "Evaluation | Sequence[PathLike]") -> "Evaluation":
+def _evaluation(spectra: Evaluation | Sequence[PathLike]) -> Evaluation:
     from ..engine import Evaluation
 
     return spectra if isinstance(spectra, Evaluation) else inspect(spectra)
@@ -71,12 +72,12 @@ def _evaluation(spectra: "Evaluation | Sequence[PathLike]") -> "Evaluation":
 class CheckRun:
     """What one ``lumeval check`` found: the criteria, the evaluation and the verdicts."""
 
-    criteria: "Criteria"
-    evaluation: "Evaluation"
-    result: "CheckResult"
+    criteria: Criteria
+    evaluation: Evaluation
+    result: CheckResult
 
 
-def check_run(spectra: "Evaluation | Sequence[PathLike]", criteria: "Criteria | PathLike",
+def check_run(spectra: Evaluation | Sequence[PathLike], criteria: Criteria | PathLike,
               instrument: PathLike | None = None, *, seed: int | None = None,
               draws: int | None = None) -> CheckRun:
     """:func:`check`, keeping the criteria and the evaluation beside the verdicts (for reports)."""
@@ -90,9 +91,9 @@ def check_run(spectra: "Evaluation | Sequence[PathLike]", criteria: "Criteria | 
     return CheckRun(crit, ev, crit.evaluate(ev))
 
 
-def check(spectra: "Evaluation | Sequence[PathLike]", criteria: "Criteria | PathLike",
+def check(spectra: Evaluation | Sequence[PathLike], criteria: Criteria | PathLike,
           instrument: PathLike | None = None, *, seed: int | None = None,
-          draws: int | None = None) -> "CheckResult":
+          draws: int | None = None) -> CheckResult:
     """Judge spectra against acceptance criteria (``lumeval check``).
 
     ``spectra`` are files (read and evaluated) or an :class:`~lumeval.engine.Evaluation`;
@@ -108,7 +109,7 @@ def check(spectra: "Evaluation | Sequence[PathLike]", criteria: "Criteria | Path
     return check_run(spectra, criteria, instrument, seed=seed, draws=draws).result
 
 
-def claims(spectra: "Evaluation | Sequence[PathLike]", claims: "Claims | PathLike") -> "ClaimsCheck":
+def claims(spectra: Evaluation | Sequence[PathLike], claims: Claims | PathLike) -> ClaimsCheck:
     """Check a supplier's datasheet claims against the spectra (``lumeval claims``)."""
     from ..criteria.claims import Claims, load_claims
 
@@ -116,10 +117,10 @@ def claims(spectra: "Evaluation | Sequence[PathLike]", claims: "Claims | PathLik
     return c.check(_evaluation(spectra))
 
 
-def lot(paths: Sequence[PathLike], criteria: "Criteria | PathLike | None" = None, *,
+def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, *,
         instrument: PathLike | None = None, seed: int | None = None, draws: int | None = None,
         keep_evaluation: bool = False, progress: Callable[[int, int, int], None] | None = None,
-        **options: Any) -> "LotRun":
+        **options: Any) -> LotRun:
     """Judge a production lot (``lumeval lot``): every sample's figures and verdicts, the lot
     statistics, yield and outliers, and the lot clauses.
 
@@ -153,9 +154,9 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
     Returns the number of spectra written. Raises :class:`lumeval.errors.InputError` /
     :class:`lumeval.errors.UsageError` (nothing written).
     """
+    from .._io import write_bytes
     from ..errors import UsageError
     from ..spectra.read import read_spectra
-    from .._io import write_bytes
     from ..spectra.write import kind_for, serialise
 
     src_p, dst_p = Path(src), Path(dst)

@@ -220,7 +220,8 @@ def __getattr__(name: str):
 
 def run_claims(paths, claims_path):
     """(evaluation, result) for ``lumeval claims`` (the claims file is read first)."""
-    from ..api import claims as check_claims, inspect
+    from ..api import claims as check_claims
+    from ..api import inspect
     from ..criteria import load_claims
 
     claims = load_claims(claims_path)
@@ -294,7 +295,6 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Check a supplier's datasheet claims against the supplier's own spectrum. Exit code 0:
         no claim contradicted; 1: a claim is contradicted; 2: bad input."""
-        import sys
 
         from ._announce import announce, set_quiet
         from ._targets import check_targets, is_stdout

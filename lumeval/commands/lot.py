@@ -22,17 +22,23 @@ unread samples cannot be declared to pass).
 from __future__ import annotations
 
 import sys
+from collections.abc import Callable
 from enum import Enum
 from pathlib import Path
-from typing import Callable
 
 import typer
 
-from ..render.safe import clean
-
 # The lot run lives in lumeval.lots (re-exported here for code written against this module).
-from ..lots.inputs import SPECTRUM_SUFFIXES, LotInputs, Skipped, Unreadable, display_path, expand_inputs  # noqa: F401
-from ..lots.run import BATCH_SPECTRA, ENGINE_CHUNK, LotRun, read_one as _read_one, run_lot  # noqa: F401
+from ..lots.inputs import (  # noqa: F401
+    SPECTRUM_SUFFIXES,
+    LotInputs,
+    Skipped,
+    Unreadable,
+    display_path,
+    expand_inputs,
+)
+from ..lots.run import BATCH_SPECTRA, ENGINE_CHUNK, LotRun, run_lot  # noqa: F401
+from ..render.safe import clean
 
 
 class OutputFormat(str, Enum):
@@ -172,7 +178,13 @@ def register(app: typer.Typer) -> None:
         show = not quiet and sys.stderr.isatty()
         if show:
             from rich.console import Console
-            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+            from rich.progress import (
+                BarColumn,
+                MofNCompleteColumn,
+                Progress,
+                TextColumn,
+                TimeElapsedColumn,
+            )
 
             with Progress(
                 TextColumn("reading and evaluating"),

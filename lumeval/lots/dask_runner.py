@@ -83,8 +83,8 @@ def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_cri
     returned (not raised) as one Unreadable so that the client reports it like a local run.
     """
     _tune_malloc()
-    from .inputs import Unreadable
     from ..errors import LumevalError
+    from .inputs import Unreadable
     from .streaming import archive_batches, evaluate_batch
 
     results, bad_all = [], []
@@ -156,10 +156,10 @@ def run_lot_dask(
     LotRun
         Equal to the local run's (same samples, order, figures, verdicts and statistics).
     """
-    from .inputs import Unreadable, expand_inputs
-    from .run import BATCH_SPECTRA
     from ..errors import LumevalError, UsageError
     from ..spectra.archive import is_archive, open_file, plan_partitions
+    from .inputs import Unreadable, expand_inputs
+    from .run import BATCH_SPECTRA
     from .streaming import LotAccumulator
 
     if uncertainty is not None and getattr(uncertainty, "active", False):

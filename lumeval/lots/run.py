@@ -13,8 +13,9 @@ others. Nothing here prints or imports a command-line library.
 from __future__ import annotations
 
 import os
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Callable, Sequence
+from typing import TYPE_CHECKING
 
 from .inputs import Skipped, Unreadable, display_path, expand_inputs
 
@@ -77,7 +78,7 @@ class LotRun:
     #: :func:`run_lot` is asked for it (``keep_evaluation=True``, for the HTML report and plots):
     #: the report draws exactly the samples and numbers of this run, without reading or
     #: evaluating anything again.
-    evaluation: "Evaluation | None" = None
+    evaluation: Evaluation | None = None
     #: Warnings raised by the computation libraries during the run (see Evaluation.run_warnings).
     run_warnings: tuple[str, ...] = ()
 
@@ -86,7 +87,7 @@ class LotRun:
 
     @property
     def sample_verdicts(self) -> tuple[str, ...] | None:
-        return self.check.verdicts if self.check is not None else None
+        return self.check.verdicts if self.check is not None else None  # type: ignore[attr-defined]
 
     @property
     def failed(self) -> bool:
@@ -142,9 +143,9 @@ def read_one(path: str):
 
 def _concat_clause(parts: list):
     """Join per-batch ClauseResults of one clause into one."""
-    import numpy as np
-
     from dataclasses import replace
+
+    import numpy as np
 
     first = parts[0]
     if len(parts) == 1:
@@ -217,9 +218,9 @@ def run_lot(
         return run_lot_dask(paths, criteria, scheduler=scheduler, workers=workers, ellipse=ellipse,
                             nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
                             uncertainty=uncertainty)
-    from .streaming import LotAccumulator, archive_batches, evaluate_batch
     from ..spectra.archive import is_archive
     from ..spectra.read import unique_names
+    from .streaming import LotAccumulator, archive_batches, evaluate_batch
 
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
@@ -298,7 +299,7 @@ def _expected_samples(files: list[str], archives: list[bool]) -> int:
                 from ..spectra.archive import count_rows
 
                 n += count_rows(f)
-            except Exception:  # noqa: BLE001 - an unreadable archive is reported when it is read
+            except Exception:
                 pass
         else:
             n += 1
@@ -326,7 +327,7 @@ def _nominal_from_criteria(criteria):
     return None, None
 
 
-def join_evaluations(parts: Sequence["Evaluation"]) -> "Evaluation":
+def join_evaluations(parts: Sequence[Evaluation]) -> Evaluation:
     """One :class:`~lumeval.engine.Evaluation` of the samples of several batch evaluations, in
     order: each spectrum stays on its own computation grid (the batches' groups are joined
     grid by grid), every figure and warning as each batch computed it (the numbers of the lot

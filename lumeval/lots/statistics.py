@@ -58,12 +58,12 @@ Yield:
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
-from typing import Mapping, Sequence
 
 import numpy as np
 
-from ..metrics.colorimetry import upvp_from_xy, xy_from_upvp  # noqa: F401 (re-exported for lot users)
+from ..metrics.colorimetry import upvp_from_xy, xy_from_upvp
 
 #: Default figures screened for outliers (lumeval figure names).
 OUTLIER_FIGURES: tuple[str, ...] = ("u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")

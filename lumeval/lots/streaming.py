@@ -70,8 +70,8 @@ def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: i
     batching).
     """
     from ..engine import evaluate
-    from .run import ENGINE_CHUNK
     from ..figures import names as figure_names
+    from .run import ENGINE_CHUNK
 
     ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False)
     figs = np.column_stack([ev.figure(k) for k in figure_names()])
@@ -101,9 +101,9 @@ def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None)
         When the file itself cannot be used (bad layout, not Parquet, a row without a name).
     """
     from ..errors import LumevalError
-    from .inputs import Unreadable
     from ..spectra.archive import iter_batches
     from ..spectra.prepare import prepare
+    from .inputs import Unreadable
 
     for b in iter_batches(file, batch_rows=batch_rows, partitions=partitions, opened=opened):
         raw = b.spectra

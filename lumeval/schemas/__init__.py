@@ -9,7 +9,7 @@ a key never changes meaning without a new version. docs/output-formats.md descri
 from __future__ import annotations
 
 import json
-from functools import lru_cache
+from functools import cache
 from typing import Any
 
 #: kind -> schema version of the documents lumeval writes now.
@@ -30,7 +30,7 @@ def header(kind: str) -> dict[str, Any]:
     return {"format": f"lumeval.{kind}", "schema_version": SCHEMA_VERSIONS[kind], "lumeval_version": __version__}
 
 
-@lru_cache(maxsize=None)
+@cache
 def _load(kind: str) -> str:
     from importlib.resources import files
 

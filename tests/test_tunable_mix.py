@@ -216,3 +216,12 @@ def test_joined_channels_keep_interpolation_overshoot_and_are_not_prepared_again
     assert joined[0].values.min() < 0  # Sprague overshoot is there, as computed
     again = prepare(joined[0])
     assert_allclose(again.values, joined[0].values, rtol=0, atol=0)  # a copy: exact by construction
+
+
+def test_nothing_to_maximise_with_two_or_three_channels_is_said():
+    """With two channels a CCT fixes the weights, with three a (CCT, Duv) does: the run says that
+    --maximise has nothing to choose from instead of implying an optimisation took place."""
+    two = mix(channels(WARM, COOL), np.array([3500.0]), maximise="Ra")
+    assert any("nothing to maximise (Ra) with two channels" in n for n in two.notes)
+    three = mix(channels(WARM, COLD, GREEN), np.array([4000.0]), duv=0.0, maximise="ler")
+    assert any("nothing to maximise (ler) with three channels" in n for n in three.notes)

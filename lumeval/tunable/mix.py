@@ -505,6 +505,7 @@ def mix(
                   f"bracketed on {TWO_CHANNEL_GRID} fractions and bisected to double precision; the Duv follows from the line")
         if np.any(tduv_all != 0.0):
             run_notes.append("a target Duv has no effect with two channels: the mixes lie on the line between them")
+        run_notes.append(f"nothing to maximise ({maximise}) with two channels: each target CCT fixes the weights")
     else:
         from ..criteria.regions import uv_from_cct_duv
 
@@ -517,6 +518,8 @@ def mix(
             method = ("three channels: the unique non-negative weights reaching the target (u, v) "
                       "(two linear equations in XYZ, CIE 15:2004 §8.1; target point by Ohno 2014 Eqs. 13-14)")
             fig = None
+            run_notes.append(f"nothing to maximise ({maximise}) with three channels: each target (CCT, Duv) fixes "
+                             "the weights")
         else:
             method = (f"{K} channels: maximise {maximise} over the weights reaching the target (u, v) — batched candidates "
                       "(vertices of the feasible polytope and random convex combinations), then SLSQP (scipy)")

@@ -159,3 +159,23 @@ def test_claims_as_written_on_datasheets_and_claims_html(tmp_path, colour):
     html = (tmp_path / "c.html").read_text(encoding="utf-8")
     assert "FL8" in html and "FL4" in html and "CRI = &gt;90" in html
     assert "HTML report written to" in r.stderr
+
+
+# ----------------------------------------------------------------- human wording of check
+
+def test_check_shows_clause_notes_plurals_and_sources_once(tmp_path):
+    spd = DEMO / "downlights" / "candidate_A_aurora_3000K.csv"
+    r = run_cli("check", spd, "-c", DEMO / "tender_criteria.toml")
+    assert r.returncode in (0, 1), r.stderr
+    flat = " ".join(r.stdout.split())
+    # the clause note of the criteria file travels with its verdict
+    assert "note: Book spines and timber finishes: saturated reds matter." in flat
+    assert "all 1 spectra" not in flat and "the spectrum meets every requirement" in flat
+    src = r.stdout[r.stdout.index("Sources of the limits"):]
+    lines = [ln.strip() for ln in src.splitlines() if ln.strip().startswith("- ")]
+    assert "- ANSI C78.377" not in lines and "- ANSI/IES TM-30-20" not in lines  # bare duplicates dropped
+    assert "s006112" not in r.stdout and "luxpy" not in r.stdout  # no other program's table named
+    one = tmp_path / "one.toml"
+    one.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 80\n', encoding="utf-8")
+    r1 = run_cli("check", spd, "-c", one)
+    assert "all 1 requirements" not in r1.stdout and "the requirement is met" in r1.stdout

@@ -17,7 +17,7 @@ with per-spectrum arrays.
 from __future__ import annotations
 
 import difflib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, ClassVar
 
 import numpy as np
@@ -763,7 +763,9 @@ class Criteria:
                 notes.append(f"clause {c.clause_id!r} (kind {c.KIND!r}) applies to a whole {c.SCOPE}: it is judged by "
                              f"{judged_by}, not per spectrum")
                 continue
-            results.extend(c.evaluate(ev))
+            note = getattr(c, "note", "") or ""
+            for r in c.evaluate(ev):
+                results.append(replace(r, note=note) if note and hasattr(r, "note") and not r.note else r)
         notes += [str(w) for w in getattr(ev, "run_warnings", ())]  # the computation's own warnings
         n = len(np.asarray(ev.x))
         names = tuple(getattr(ev, "names", None) or (f"spectrum {i + 1}" for i in range(n)))

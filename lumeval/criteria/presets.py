@@ -24,7 +24,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-TM30_ANNEX_E_SOURCE = "ANSI/IES TM-30-20 Annex E (thresholds secondary: agree with luxpy 1.12.5's table)"
+#: (the thresholds are quoted from a secondary source and agree with luxpy 1.12.5's table; the
+#: user-facing line does not name another program's table)
+TM30_ANNEX_E_SOURCE = "ANSI/IES TM-30-20 Annex E (thresholds from a secondary source, cross-checked independently)"
 
 DESIGN_INTENTS = {"P": "Preference", "V": "Vividness", "F": "Fidelity"}
 

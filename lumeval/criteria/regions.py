@@ -210,15 +210,15 @@ _PUBLISHED_CORNERS_XY: dict[str, dict[int, tuple[tuple[float, float], ...]]] = {
     },
 }
 
-#: Where each edition's published corners come from (named in every report's sources).
+#: Where each edition's published corners come from (named in every report's sources). The
+#: transcriptions behind them are named in the module docstring (2008: two agreeing public code
+#: transcriptions; 2017: a public transcription labelled 2015); the user-facing line does not
+#: name another program's file.
 ANSI_CORNER_SOURCES: dict[str, str] = {
-    "2008": (
-        "ANSI C78.377-2008 Table 1 published corner coordinates (secondary: two agreeing public code transcriptions, "
-        "Harold2017/myfirstflasky web/app/cri/views.py, and a second public copy)"
-    ),
+    "2008": "ANSI C78.377-2008 Table 1 published corner coordinates (secondary: two agreeing public transcriptions)",
     "2017": (
-        "ANSI C78.377-2017 Table 1 published corner coordinates (secondary: transcription in s006112/PER cie1931.py, "
-        "labelled 2015; reproduced within 1.6e-4 by computing from the 2017 Table 1)"
+        "ANSI C78.377-2017 Table 1 published corner coordinates (secondary transcription, reproduced within 1.6e-4 "
+        "by computing from the 2017 Table 1)"
     ),
 }
 _COMPUTED_SOURCES: dict[str, str] = {

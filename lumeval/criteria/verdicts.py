@@ -105,6 +105,9 @@ class ClauseResult:
     uncertainty: np.ndarray | None = None
     p_conformance: np.ndarray | None = None
     decision_rule: str = SIMPLE_ACCEPTANCE
+    #: The clause's ``note`` from the criteria file (why the requirement is there), shown with
+    #: its verdict in the check report.
+    note: str = ""
 
     def __len__(self) -> int:
         return len(self.outcome)

@@ -151,18 +151,18 @@ def check_renderables(result) -> list:
         line = Text("\n")
         if v == "pass":
             line.append("✔ PASS  ", style="bold green")
-            tail = f"all {n_clauses} requirements met"
+            tail = "the requirement is met" if n_clauses == 1 else f"all {n_clauses} requirements met"
         elif v == "fail":
             line.append("✘ FAIL  ", style="bold red")
-            tail = f"{nfail} of {n_clauses} requirements FAILED"
+            tail = f"{nfail} of {_count(n_clauses, 'requirement')} FAILED"
         elif v == "not valid":
             nnv = sum(1 for r in result.results if r.outcome[i] == "not valid")
             line.append("✘ NOT VALID  ", style="bold red")
-            tail = (f"{nnv} of {n_clauses} requirements rest on figures outside the validity range "
+            tail = (f"{nnv} of {_count(n_clauses, 'requirement')} rest{'s' if nnv == 1 else ''} on figures outside the validity range "
                     "(|Duv| > 0.05) — not a pass")
         else:
             line.append(f"? {v.upper()}  ", style="bold yellow")
-            tail = f"{nopen} of {n_clauses} requirements could not be decided — not a pass"
+            tail = f"{nopen} of {_count(n_clauses, 'requirement')} could not be decided — not a pass"
         line.append(clean(name), style="bold")
         line.append(f" — {tail}")
         if result.sources[i]:
@@ -183,6 +183,8 @@ def check_renderables(result) -> list:
             req = _text(r.label)
             if r.limit_text not in r.label:
                 req.append(f"\n{clean(r.limit_text)}", style="dim")
+            if getattr(r, "note", ""):
+                req.append(f"\nnote: {clean(r.note)}", style="italic")
             meas, res_cell = measured_text(r, i), Text(_WORD[o], style=_STYLE[o])
             if r.uncertainty is not None:
                 meas, res_cell = _with_uncertainty(r, i, meas, res_cell)
@@ -300,8 +302,13 @@ def _summary_renderables(result) -> list:
         out.append(txt)
     nwarn = sum(1 for w in result.warnings if w)
     if nwarn:
-        out.append(Text(f"{nwarn} spectra carry notes (interpolation, validity limits...): see --format json.", style="dim"))
+        out.append(Text(f"{_count(nwarn, 'spectrum', 'spectra')} carr{'ies' if nwarn == 1 else 'y'} notes (interpolation, validity limits...): see --format json.", style="dim"))
     return out
+
+
+def _count(n: int, one: str, many: str | None = None) -> str:
+    """"1 requirement", "3 requirements", "1 spectrum", "2 spectra"."""
+    return f"{n} {one if n == 1 else (many or one + 's')}"
 
 
 def _overall_text(overall: str, n: int, nfail: int):
@@ -309,9 +316,11 @@ def _overall_text(overall: str, n: int, nfail: int):
 
     t = Text("\n")
     if overall == "pass":
-        t.append(f"OVERALL: ✔ PASS — all {n} spectra meet every requirement", style="bold green")
+        t.append("OVERALL: ✔ PASS — " + ("the spectrum meets" if n == 1 else f"all {n} spectra meet")
+                 + " every requirement", style="bold green")
     elif overall == "fail":
-        t.append(f"OVERALL: ✘ FAIL — {nfail} of {n} spectra failed at least one requirement", style="bold red")
+        t.append(f"OVERALL: ✘ FAIL — {nfail} of {_count(n, 'spectrum', 'spectra')} failed at least one requirement",
+                 style="bold red")
     elif overall == "not valid":
         t.append("OVERALL: ✘ NOT VALID — some requirements rest on figures outside their validity range; "
                  "this is not a pass", style="bold red")
@@ -327,6 +336,8 @@ def _sources_text(result):
     for r in result.results:
         if r.source and r.source not in seen:
             seen.append(r.source)
+    # a bare name ("ANSI C78.377") is dropped when a fuller entry of the same source is listed
+    seen = [a for a in seen if not any(b != a and b.startswith(a) and b[len(a)] in " -(" for b in seen)]
     t = Text("\nSources of the limits and regions:\n", style="dim")
     for s in seen:
         t.append(f"  - {clean(s)}\n", style="dim")

@@ -256,6 +256,28 @@ def test_unknown_wavelength_unit_is_refused_with_the_unit_named(tmp_path, capsys
     one_error_line(code, err, "u.csv", repr(unit), "unit")
 
 
+@pytest.mark.parametrize("header", ["wavelength (km) S0", "wavelength [km]   S0", "Wavelength (furlong) Irradiance (W/m2/nm)"])
+def test_unknown_unit_in_a_white_space_header_is_refused(tmp_path, capsys, header):
+    """White-space delimited files: a bracketed unit belongs to the header word before it, so the
+    header is recognised (not taken as a preamble line) and its unit is judged."""
+    f = tmp_path / "w.txt"
+    f.write_text(header + "\n" + "\n".join(r.replace(",", " ") for r in _rows()) + "\n", encoding="utf-8")
+    code, _out, err = run(["inspect", f], capsys)
+    unit = "km" if "km" in header else "furlong"
+    one_error_line(code, err, "w.txt", repr(unit), "unit")
+
+
+def test_white_space_header_with_bracketed_units_is_read(tmp_path, capsys):
+    f = tmp_path / "w.txt"
+    f.write_text("Wavelength [nm] Irradiance [W/m2/nm]\n" + "\n".join(r.replace(",", " ") for r in _rows()) + "\n",
+                 encoding="utf-8")
+    from lumeval.spectra.read import read_spectra
+
+    s = read_spectra(f)
+    assert s.wavelengths_nm[0] == 380.0 and s.wavelengths_nm[-1] == 780.0  # nm, unscaled
+    assert s.names == ("w",)  # a generic quantity header gives the file stem
+
+
 @pytest.mark.parametrize("header", ["wavelength (nm),value", "Wavelength [nm] (measured),value", "wl (measured),value",
                                     "wavelength / nm,value", "lambda in nanometres,value"])
 def test_known_or_no_unit_still_read(tmp_path, capsys, header):

@@ -581,6 +581,9 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         hcells = _split(hs, delim)
         if delim is None and len(hcells) != ncols:
             alt = [c.strip() for c in re.split(r"\t|\s{2,}", hs) if c.strip()]
+            if len(alt) != ncols:
+                # "wavelength (km) S0": a bracketed unit belongs to the word before it
+                alt = [c.strip() for c in re.split(r"\s+(?=[^\s(\[])", hs.strip()) if c.strip()]
             if len(alt) == ncols:
                 hcells = alt
         if len(hcells) == ncols:

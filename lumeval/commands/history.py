@@ -110,7 +110,7 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
             n_signals += 1
             print(f"lumeval: signal: {line}", file=sys.stderr)
     if charted and not n_signals:
-        print(f"lumeval: no control-chart signal for lot {res.lot_id} ({', '.join(charted)})", file=sys.stderr)
+        print(f"lumeval: no control-chart signal for lot {plain(res.lot_id)} ({', '.join(charted)})", file=sys.stderr)
     if n_signals and fail_on_signal:
         return max(exit_code, 1)
     return exit_code

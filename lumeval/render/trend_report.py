@@ -10,17 +10,17 @@ from __future__ import annotations
 import contextlib
 import json
 import math
-import re
 from pathlib import Path
 
 import numpy as np
 
-_CTRL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
-
 
 def plain(s) -> str:
-    """Text safe for a terminal line: no control, bidi-override or escape characters."""
-    return _CTRL.sub("\ufffd", "" if s is None else str(s)).replace("\n", " ").replace("\t", " ")
+    """Text safe for a terminal line: control, bidi-override and escape characters shown as
+    visible escapes (the one rule of :func:`lumeval.render.safe.clean`)."""
+    from .safe import clean
+
+    return clean("" if s is None else s)
 
 
 def _fmt(v, spec: str = ".5g") -> str:

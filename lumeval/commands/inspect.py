@@ -38,6 +38,8 @@ def register(app: typer.Typer) -> None:
         plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
         output: Path = typer.Option(None, "--output", "-o", help="Write the JSON/CSV/terminal text to this file instead of the screen."),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written."),
+        wide: bool = typer.Option(False, "--wide", help="Every figure side by side even when the terminal is too "
+                                  "narrow for it (otherwise a narrow terminal gets one row per spectrum with the key figures)."),
     ) -> None:
         """Compute every colour-quality figure for each spectrum and print them."""
         from ._announce import announce_outputs, set_quiet
@@ -96,6 +98,6 @@ def register(app: typer.Typer) -> None:
             from ..render.terminal import inspect_renderables, print_inspect
 
             if output is None or is_stdout(output):
-                print_inspect(ev)
+                print_inspect(ev, wide=wide)
             else:
                 emit(plain_text(inspect_renderables(ev)), output)

@@ -112,14 +112,62 @@ def _rows(ev, idx):
     return rows
 
 
-def inspect_renderables(ev):
-    """The rich renderables of the inspect report, in order."""
+#: The key figures of the compact layout (one row per spectrum), in reading order.
+COMPACT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+
+
+def _compact_renderables(ev, width: int) -> list:
+    """One row per spectrum with the key figures, for a terminal too narrow for the full
+    layout: numbers never split (no-wrap columns); names printed whole, in the table when they
+    fit, otherwise as a numbered list under it."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    from .. import figures
+
+    figs = [figures.FIGURES[name] for name in COMPACT_FIGURES if name in figures.FIGURES]
+    n = len(ev)
+    heads = [f"{f.label} ({f.unit})" if f.unit else f.label for f in figs]
+    cells = [[f.format(v[i]) for i in range(n)] for f, v in ((f, f.value(ev)) for f in figs)]
+    names = [safe.clean(ev.spectra.names[i]) for i in range(n)]
+    numbers_w = sum(max(len(h), *(len(c) for c in col)) + 2 for h, col in zip(heads, cells))
+    in_table = max(len(x) for x in names) + 2 + numbers_w <= width
+    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False)
+    t.add_column("spectrum" if in_table else "#", no_wrap=True, style="bold")
+    for h in heads:
+        t.add_column(h, justify="right", no_wrap=True)
+    for i in range(n):
+        t.add_row(safe.text(names[i]) if in_table else str(i + 1), *[col[i] for col in cells])
+    out: list = [t]
+    if not in_table:
+        out += [Text(f"  {i + 1:>{len(str(n))}}  {names[i]}") for i in range(n)]
+    out.append(Text(f"Key figures only (the terminal is {width} columns wide): every figure with "
+                    "`lumeval inspect --wide` in a wider terminal, or `--format csv` / `--format json`.",
+                    style="italic"))
+    return out
+
+
+def _full_width(table) -> int:
+    """The width ``table`` needs without wrapping any cell."""
+    from rich.console import Console
+
+    return Console(width=10_000, color_system=None).measure(table).maximum
+
+
+def inspect_renderables(ev, width: int | None = None):
+    """The rich renderables of the inspect report, in order.
+
+    ``width`` (terminal columns): when the side-by-side layout would not fit, the report switches
+    to one row per spectrum with the key figures (:data:`COMPACT_FIGURES`); None always gives
+    the full layout (files, ``--wide``)."""
     from rich import box
     from rich.table import Table
     from rich.text import Text
 
     out = []
     n = len(ev)
+    compact = False
     for start in range(0, n, _PER_TABLE):
         idx = list(range(start, min(n, start + _PER_TABLE)))
         t = Table(box=box.SIMPLE_HEAVY, show_lines=False, title_justify="left", pad_edge=False)
@@ -134,8 +182,13 @@ def inspect_renderables(ev):
                 t.add_row(Text(sec, style="bold cyan"), *[""] * len(idx))
                 section = sec
             t.add_row("  " + label, *cells)  # our labels and numbers: no data text
+        if width is not None and _full_width(t) > width:
+            compact = True
+            break
         out.append(t)
-    for start in range(0, n, _PER_HUE_TABLE):
+    if compact:
+        out = _compact_renderables(ev, int(width or 80))
+    for start in range(0, 0 if compact else n, _PER_HUE_TABLE):
         idx = list(range(start, min(n, start + _PER_HUE_TABLE)))
         out.append(_hue_table(ev, idx))
     notes = [(ev.spectra.names[i], w) for i in range(n) for w in ev.warnings[i]]
@@ -150,9 +203,11 @@ def inspect_renderables(ev):
     return out
 
 
-def print_inspect(ev, console=None) -> None:
+def print_inspect(ev, console=None, *, wide: bool = False) -> None:
+    """Print the inspect report; on a terminal too narrow for the side-by-side layout, the
+    compact one (unless ``wide``)."""
     from .safe import console as safe_console
 
     console = console or safe_console()
-    for r in inspect_renderables(ev):
+    for r in inspect_renderables(ev, width=None if wide else console.width):
         console.print(r)

@@ -165,7 +165,7 @@ def inspect_renderables(ev, width: int | None = None):
     from rich.table import Table
     from rich.text import Text
 
-    out = []
+    out: list = []
     n = len(ev)
     compact = False
     for start in range(0, n, _PER_TABLE):

@@ -86,15 +86,9 @@ def _kind_of(mode: int) -> str | None:
         return None
     if stat.S_ISDIR(mode):
         return "a folder"
-    if stat.S_ISFIFO(mode):
-        return "a FIFO (named pipe)"
-    if stat.S_ISSOCK(mode):
-        return "a socket"
-    if stat.S_ISCHR(mode):
-        return "a character device"
-    if stat.S_ISBLK(mode):
-        return "a block device"
-    return "not a regular file"
+    from ..spectra.text import special_file_kind
+
+    return special_file_kind(mode)
 
 
 class _Collector:

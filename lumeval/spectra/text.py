@@ -827,7 +827,7 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
         if stat.S_ISDIR(st.st_mode):
             raise IsADirectoryError
         if not stat.S_ISREG(st.st_mode):
-            raise InputError(f"is {_file_kind(st.st_mode)}, not a regular file: lumeval reads regular files only "
+            raise InputError(f"is {special_file_kind(st.st_mode)}, not a regular file: lumeval reads regular files only "
                              "(it does not wait on pipes or devices)", file=file, fix="give a regular file")
         if st.st_size > limit:
             raise InputError(
@@ -862,7 +862,9 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
     return raw
 
 
-def _file_kind(mode: int) -> str:
+def special_file_kind(mode: int) -> str:
+    """A plain-language name of a file type that is neither a regular file nor a folder (the
+    readers and the lot input expansion name refused entries with it)."""
     import stat
 
     if stat.S_ISFIFO(mode):

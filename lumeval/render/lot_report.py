@@ -120,13 +120,15 @@ def lot_document(run) -> dict:
     pair = st.max_pair
     samples = []
     meta = _metadata_values(run)
+    from ..spectra.archive import json_safe
+
     for i in range(len(run)):
         rec = {
             "name": run.names[i],
             "source": run.sources[i],
         }
         if meta:
-            rec["metadata"] = {k: _json_value(v[i]) for k, v in meta}
+            rec["metadata"] = {k: json_safe(v[i]) for k, v in meta}
         rec |= {
             "verdict": verdicts[i] if verdicts is not None else None,
             "outlier": bool(st.outlier[i]),
@@ -255,16 +257,6 @@ def metadata_headers(run) -> list[str]:
         return []
     own = set(_own_columns(run))
     return [f"meta:{c}" if c in own or c.startswith(("meta:", "clause:")) else c for c in tbl.column_names]
-
-
-def _json_value(v):
-    if v is None or isinstance(v, (bool, int, str)):
-        return v
-    if isinstance(v, float):
-        return v if math.isfinite(v) else None
-    if hasattr(v, "isoformat"):
-        return v.isoformat()
-    return str(v)
 
 
 def _csv_value(v) -> str:

@@ -306,7 +306,7 @@ def _names(batch, layout: Layout, file: str, first_row: int) -> list[str]:
     return [str(v) for v in col.to_pylist()]
 
 
-def _json_safe(v):
+def json_safe(v):
     """A metadata value as JSON-friendly Python (numbers, text, booleans; others as text)."""
     if v is None or isinstance(v, (bool, int, str)):
         return v
@@ -328,7 +328,7 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
         meta_tbl = pa.Table.from_batches([batch.select(idx)])
     if row_metadata:
         rows = meta_tbl.to_pylist() if meta_tbl is not None else [{} for _ in names]
-        metas = tuple({"lumeval.format": "Parquet archive", **{k: _json_safe(v) for k, v in r.items() if v is not None}}
+        metas = tuple({"lumeval.format": "Parquet archive", **{k: json_safe(v) for k, v in r.items() if v is not None}}
                       for r in rows)
     else:
         metas = ()

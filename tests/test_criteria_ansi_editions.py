@@ -57,7 +57,7 @@ def test_edition_key_parses_and_defaults_to_2017():
     q08, q17, qdef = c.clauses
     assert (q08.edition, q17.edition, qdef.edition) == ("2008", "2017", "2017")
     assert q08.quadrangle.edition == "2008" and q08.quadrangle.corners_origin == "published"
-    assert qdef.quadrangle.corners_origin == "computed"  # 2200 K: no published transcription found
+    assert qdef.quadrangle.corners_origin == "computed"  # 2200 K: no published copy found
     flex = parse_criteria('[[clause]]\nkind = "ansi_quadrangle"\nnominal_cct = "flexible"\ntarget_cct_K = 3800\nedition = 2008\n', "t")
     assert flex.clauses[0].quadrangle.edition == "2008" and "2008" in flex.clauses[0].label
 
@@ -99,7 +99,7 @@ def test_every_report_names_the_edition(tmp_path, capsys, planck3000):
     assert by["q08"]["limit"].startswith("ANSI C78.377-2008, published corners")
     assert by["q17"]["limit"].startswith("ANSI C78.377-2017, published corners")
     assert by["qdef"]["limit"].startswith("ANSI C78.377-2017, corners computed by formula")
-    assert "ANSI C78.377-2008" in by["q08"]["source"] and "secondary" in by["q08"]["source"]  # the transcriptions are named in regions.py, not in reports
+    assert "ANSI C78.377-2008" in by["q08"]["source"] and "secondary" in by["q08"]["source"]  # the copies are named in regions.py, not in reports
     assert "2017 Table 1" in by["q17"]["source"] and "s006112" not in by["q17"]["source"]
     # both well inside (the nearest edge, the 2870 K one, is common to both editions)
     assert by["q08"]["margin"] > 0.004 and by["q17"]["margin"] > 0.004

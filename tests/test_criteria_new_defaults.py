@@ -6,7 +6,7 @@ Outside sources:
   its Duv is 0 by definition (CIE 15 / ANSI C78.377);
 - ANSI C78.377-2017 Table 1 (target CCT ± tolerance, target Duv; secondary copy named in
   lumeval/criteria/regions.py) and its published category centres (project reference notes,
-  agreeing with the s006112/PER transcription);
+  agreeing with the s006112/PER copy);
 - IEC 60081 F3000 centre (0.440, 0.403) and ellipse (secondary, see regions.py).
 """
 

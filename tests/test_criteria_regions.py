@@ -5,9 +5,9 @@ Outside sources used (named beside each check):
   category centres (x, y) — secondary copies (project reference notes, agreeing with
   a second public copy), see lumeval/criteria/regions.py.
 - ANSI C78.377-2008 published corner coordinates and centres — secondary: two public code
-  transcriptions that agree exactly (Harold2017/myfirstflasky web/app/cri/views.py, plot titled
+  copies that agree exactly (Harold2017/myfirstflasky web/app/cri/views.py, plot titled
   "C78.377-2008, Tolerance Quadrangle"; a second LGPL C++ LED-binning source with the same table).
-- ANSI C78.377-2015/2017 published corner coordinates — secondary: one public code transcription
+- ANSI C78.377-2015/2017 published corner coordinates — secondary: one public code copy
   (s006112/PER cie1931.py, CIE_BINS, labelled "ANSI C78.377-2015"), copied below.
 - colour-science's ``CCT_to_uv_Ohno2013`` (independent implementation of Ohno 2014).
 - MacAdam (1942) ellipses as tabulated in Wyszecki & Stiles Table 2(5.4.1), colour-science's copy.
@@ -104,7 +104,7 @@ def test_flexible_tolerance_formula_reproduces_table_ends():
 
 # --------------------------------------------------------------------------- published corners
 
-# Transcribed corner tables, each row in the transcriptions' order: (low CCT, high Duv),
+# Transcribed corner tables, each row in the copies' order: (low CCT, high Duv),
 # (high CCT, high Duv), (high CCT, low Duv), (low CCT, low Duv); CIE 1931 (x, y).
 # ANSI C78.377-2008: Harold2017/myfirstflasky web/app/cri/views.py = the second LGPL C++ copy.
 PUBLISHED_2008 = {
@@ -176,7 +176,7 @@ def test_2008_corners_are_the_2008_construction():
 def test_2017_corners_are_close_to_the_2017_construction():
     """Computing the 2017 quadrangles from Table 1 with the flexible target Duv at each edge's CCT
     reproduces the transcribed corners within 1.6e-4, 23 of the 32 corners within their 5e-5
-    rounding: the transcription, labelled 2015, belongs to this table."""
+    rounding: the copy, labelled 2015, belongs to this table."""
     within = 0
     for n, rows in PUBLISHED_2017.items():
         got = R.ansi_computed_quadrangle(n, "2017").corners_xy
@@ -188,7 +188,7 @@ def test_2017_corners_are_close_to_the_2017_construction():
 
 def test_the_editions_differ_where_the_issue_says():
     """3500 K lower-left corner: 2008 (0.3889, 0.3690) vs 2017 (0.3895, 0.3709) (the two
-    transcriptions). A point just inside the 2008 corner is outside the 2017 quadrangle."""
+    copies). A point just inside the 2008 corner is outside the 2017 quadrangle."""
     p = R.upvp_from_xy(np.array([[0.3889 + 1e-4, 0.3690 + 2e-4]]))
     assert R.ansi_quadrangle(3500, "2008").contains(p)[0]
     assert not R.ansi_quadrangle(3500, "2017").contains(p)[0]
@@ -196,7 +196,7 @@ def test_the_editions_differ_where_the_issue_says():
 
 
 def test_2017_warm_categories_are_computed_and_meet_the_published_2700K():
-    """2200 K and 2500 K (no published transcription found) are computed; the 2500 K high-CCT
+    """2200 K and 2500 K (no published copy found) are computed; the 2500 K high-CCT
     edge is the published 2700 K low-CCT edge within rounding (both are Planckian ± 0.006 at
     2580 K, target Duv 0)."""
     for n in (2200, 2500):

@@ -19,14 +19,14 @@ Edition 2017 (default)
 
     **Corners, published** (2700 ... 6500 K): the corner table transcribed in the public
     repository s006112/PER, file ``cie1931.py`` (``CIE_BINS``, labelled "ANSI C78.377-2015
-    chromaticity bin data"; read through the project's code search). That transcription is
+    chromaticity bin data"; read through the project's code search). That copy is
     labelled 2015; we take it as the 2017 table because the category table it derives from is
     the same in the 2015 and 2017 copies, and because computing the corners from the 2017 Table 1
     and the flexible-CCT formula (below) reproduces every transcribed corner within 1.6e-4 in
     x and y (most within their 5e-5 rounding; checked in the tests). Confidence: one
-    transcription, secondary, with that independent numerical support.
+    copy, secondary, with that independent numerical support.
 
-    **Corners, computed** (2200 K and 2500 K): no transcription of these corners was found;
+    **Corners, computed** (2200 K and 2500 K): no copy of these corners was found;
     they are computed from Table 1 the way the standard defines its flexible categories: the
     four corners are the chromaticities at ``CCT = T_target ∓ ΔT`` and
     ``Duv = Duv_T(CCT) ± 0.006``, the target Duv evaluated **at each edge's own CCT**
@@ -183,7 +183,7 @@ ANSI_C78377_2008: dict[int, AnsiCategory] = {
 ANSI_TABLES: dict[str, dict[int, AnsiCategory]] = {"2008": ANSI_C78377_2008, "2017": ANSI_C78377_2017}
 
 #: Published corner coordinates (CIE 1931 x, y; 4 decimals) as transcribed, in the
-#: transcriptions' own order: (low CCT, high Duv), (high CCT, high Duv), (high CCT, low Duv),
+#: copies' own order: (low CCT, high Duv), (high CCT, high Duv), (high CCT, low Duv),
 #: (low CCT, low Duv). Sources and confidence: module docstring.
 _PUBLISHED_CORNERS_XY: dict[str, dict[int, tuple[tuple[float, float], ...]]] = {
     # Harold2017/myfirstflasky web/app/cri/views.py and a second LGPL C++ copy (agree exactly)
@@ -211,13 +211,13 @@ _PUBLISHED_CORNERS_XY: dict[str, dict[int, tuple[tuple[float, float], ...]]] = {
 }
 
 #: Where each edition's published corners come from (named in every report's sources). The
-#: transcriptions behind them are named in the module docstring (2008: two agreeing public code
-#: transcriptions; 2017: a public transcription labelled 2015); the user-facing line does not
+#: copies behind them are named in the module docstring (2008: two agreeing public code
+#: copies; 2017: a public copy labelled 2015); the user-facing line does not
 #: name another program's file.
 ANSI_CORNER_SOURCES: dict[str, str] = {
-    "2008": "ANSI C78.377-2008 Table 1 published corner coordinates (secondary: two agreeing public transcriptions)",
+    "2008": "ANSI C78.377-2008 Table 1 published corner coordinates (secondary: two agreeing public copies)",
     "2017": (
-        "ANSI C78.377-2017 Table 1 published corner coordinates (secondary transcription, reproduced within 1.6e-4 "
+        "ANSI C78.377-2017 Table 1 published corner coordinates (secondary copy, reproduced within 1.6e-4 "
         "by computing from the 2017 Table 1)"
     ),
 }
@@ -228,7 +228,7 @@ _COMPUTED_SOURCES: dict[str, str] = {
     ),
     "2017": (
         "ANSI C78.377-2017 Table 1, corners computed by formula (target Duv by the flexible-CCT formula at each "
-        "edge's CCT; secondary copy of the table; no published corner transcription found)"
+        "edge's CCT; secondary copy of the table; no published corner copy found)"
     ),
 }
 
@@ -416,7 +416,7 @@ def ansi_published_corners_xy(nominal_K: int, edition: str = ANSI_DEFAULT_EDITIO
 def ansi_quadrangle(nominal_K: int, edition: str = ANSI_DEFAULT_EDITION) -> Quadrangle:
     """The ANSI C78.377 quadrangle of a nominal CCT category of ``edition`` (default 2017).
 
-    The edition's published corners where a transcription was found (2008: 2700 ... 6500 K;
+    The edition's published corners where a copy was found (2008: 2700 ... 6500 K;
     2017: 2700 ... 6500 K), otherwise corners computed from the edition's Table 1 (2017: 2200 K
     and 2500 K); the quadrangle's ``corners_origin`` and ``source`` say which. The centre is the
     category's (target CCT, target Duv) as the edition constructs it. KeyError for a category

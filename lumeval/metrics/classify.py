@@ -6,7 +6,7 @@ at once:
 - **ANSI C78.377 category.** Which nominal CCT quadrangle of the chosen edition (2017 by
   default, or 2008) contains the point — or, when none does, which quadrangle is nearest and
   how far outside it the point lies. The quadrangles are those of
-  :func:`lumeval.criteria.regions.ansi_quadrangle` (published corners where a transcription was
+  :func:`lumeval.criteria.regions.ansi_quadrangle` (published corners where a copy was
   found, otherwise computed from the edition's Table 1; its module docstring gives the sources
   and how sure we are of them). Distances are Euclidean in CIE 1976 (u', v') (Δu'v') from the
   point to the quadrangle's boundary, as lumeval's criteria measure margins.

@@ -36,3 +36,17 @@ def luxpy():
 
 # The history store's tests run on SQLite and on a throwaway PostgreSQL server (tests/_postgres.py).
 from ._postgres import postgres_server, store_url  # noqa: E402,F401
+
+
+def run_cli_in_process(argv, capsys):
+    """Run ``lumeval ARGV`` in this process through the console entry point; (exit code, stdout,
+    stderr). A SystemExit without an integer code counts as 0 (None) or 2 (a message)."""
+    from lumeval.cli import main
+
+    try:
+        main([str(a) for a in argv])
+        code = 0
+    except SystemExit as exc:
+        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
+    out, err = capsys.readouterr()
+    return code, out, err

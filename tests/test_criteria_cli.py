@@ -18,18 +18,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumeval.cli import main
 from lumeval.metrics.planck import planck_exitance
 
-
-def run(argv, capsys):
-    try:
-        main([str(a) for a in argv])
-        code = 0
-    except SystemExit as exc:
-        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
-    out, err = capsys.readouterr()
-    return code, out, err
+from .conftest import run_cli_in_process as run
 
 
 @pytest.fixture(scope="module")

@@ -18,9 +18,10 @@ import re
 import numpy as np
 import pytest
 
-from lumeval.cli import main
 from lumeval.criteria import load_criteria, parse_criteria, presets, regions
 from lumeval.metrics.planck import planck_exitance
+
+from .conftest import run_cli_in_process as run
 
 CATEGORIES = sorted(regions.ANSI_C78377_2017)
 LEVELS = ("basic", "good", "high")
@@ -30,16 +31,6 @@ PUBLISHED_CENTRES = {
     3500: (0.4078, 0.3930), 4000: (0.3818, 0.3797), 4500: (0.3613, 0.3670), 5000: (0.3446, 0.3551),
     5700: (0.3287, 0.3425), 6500: (0.3123, 0.3283),
 }
-
-
-def run(argv, capsys):
-    try:
-        main([str(a) for a in argv])
-        code = 0
-    except SystemExit as exc:
-        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 @pytest.fixture(scope="module")

@@ -12,21 +12,11 @@ from pathlib import Path
 import pytest
 from scipy.stats import norm
 
-from lumeval.cli import main
+from .conftest import run_cli_in_process as run
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra_demo" / "downlights"
 A = DEMO / "candidate_A_aurora_3000K.csv"
 B = DEMO / "candidate_B_basicline_3000K.csv"
-
-
-def run(argv, capsys):
-    try:
-        main([str(a) for a in argv])
-        code = 0
-    except SystemExit as exc:
-        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def write(tmp_path, name, text):

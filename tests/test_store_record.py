@@ -282,3 +282,87 @@ def test_newer_store_is_refused(store_url):
                  lambda: migrate(su)):
         with pytest.raises(StoreError, match=r"written by a newer lumeval.*upgrade lumeval"):
             call()
+
+
+# --------------------------------------------------------------------------- SQLite lock races
+
+
+def test_wal_switch_waits_out_a_lock_refused_without_waiting():
+    """SQLite answers "database is locked" at once (no busy handler) when two connections
+    holding shared locks race to change the journal mode; the switch tries again."""
+    import sqlite3
+
+    from lumeval.store.db import _switch_to_wal
+
+    class Raw:
+        def __init__(self, refusals):
+            self.refusals, self.calls = refusals, []
+
+        def execute(self, sql):
+            self.calls.append(sql)
+            if sql.endswith("= WAL") and self.refusals:
+                self.refusals -= 1
+                raise sqlite3.OperationalError("database is locked")
+            return type("Cursor", (), {"fetchone": lambda _s: ("delete",)})()
+
+    raw = Raw(refusals=3)
+    _switch_to_wal(raw, time.monotonic() + 30)
+    assert raw.calls.count("PRAGMA journal_mode = WAL") == 4
+    raw = Raw(refusals=10**6)
+    with pytest.raises(sqlite3.OperationalError, match="locked"):
+        _switch_to_wal(raw, time.monotonic() + 0.2)  # gives up at the deadline
+
+
+def test_record_retries_a_transaction_refused_by_a_lock(tmp_path, monkeypatch):
+    """A write transaction that SQLite refused with "database is locked" changed nothing and is
+    run again; other store errors are not retried."""
+    import lumeval.store.record as record_mod
+
+    url = str(tmp_path / "h.db")
+    real, calls = record_mod._record_once, []
+
+    def flaky(*args, **kw):
+        calls.append(1)
+        if len(calls) < 3:
+            err = StoreError(f"{url}: cannot record the lot (database is locked)")
+            err.busy = True
+            raise err
+        return real(*args, **kw)
+
+    monkeypatch.setattr(record_mod, "_record_once", flaky)
+    r = record_lot(url, make_record([1.0, 2.0], key="retried"))
+    assert r.created and len(calls) == 3
+    assert count_rows(url)["lots"] == 1
+
+    def broken(*args, **kw):
+        calls.append(1)
+        raise StoreError(f"{url}: cannot record the lot (disk I/O error)")
+
+    calls.clear()
+    monkeypatch.setattr(record_mod, "_record_once", broken)
+    with pytest.raises(StoreError, match="disk I/O"):
+        record_lot(url, make_record([1.0], key="other"))
+    assert len(calls) == 1
+
+
+def test_switch_to_wal_waits_for_a_reader_holding_the_old_journal(tmp_path):
+    """A reader holds a shared lock on a rollback-journal store; the first writer's switch to
+    WAL waits for it instead of failing."""
+    import sqlite3
+    import threading
+
+    path = tmp_path / "h.db"
+    holder = sqlite3.connect(path, isolation_level=None, check_same_thread=False)
+    holder.execute("CREATE TABLE t (x)")
+    holder.execute("BEGIN")
+    holder.execute("SELECT * FROM t").fetchall()  # shared lock held
+    timer = threading.Timer(0.5, lambda: holder.execute("COMMIT"))
+    timer.start()
+    try:
+        r = record_lot(str(path), make_record([1.0, 2.0], key="after-reader"))
+    finally:
+        timer.join()
+        holder.close()
+    assert r.created
+    with sqlite3.connect(path) as c:
+        assert c.execute("PRAGMA journal_mode").fetchone()[0] == "wal"

@@ -45,7 +45,41 @@ _PG_SCHEMA_LOCK = 0x6C756D65  # "lume"
 
 class StoreError(LumevalError):
     """The store cannot be opened, read or written (bad URL, unreachable server, read-only
-    store, a schema from another lumeval version)."""
+    store, a schema from another lumeval version).
+
+    ``busy`` is true when SQLite refused a lock that another process held ("database is
+    locked") without waiting for it; such a transaction changed nothing and may be retried.
+    """
+
+    busy: bool = False
+
+
+def _is_sqlite_busy(text: str) -> bool:
+    t = text.lower()
+    return "database is locked" in t or "database table is locked" in t or "database is busy" in t
+
+
+def _switch_to_wal(raw, deadline: float) -> None:
+    """Put an SQLite store in WAL mode, retrying while another connection holds a lock.
+
+    Changing the journal mode needs an exclusive lock. SQLite does not call its busy handler
+    when two connections that both hold a shared lock race for it (its deadlock rule), so the
+    loser gets "database is locked" at once; it waits here and tries again until ``deadline``.
+    """
+    import sqlite3
+    import time
+
+    pause = 0.005
+    while True:
+        try:
+            if str(raw.execute("PRAGMA journal_mode").fetchone()[0]).lower() != "wal":
+                raw.execute("PRAGMA journal_mode = WAL")
+            return
+        except sqlite3.OperationalError as exc:
+            if not _is_sqlite_busy(str(exc)) or time.monotonic() >= deadline:
+                raise
+        time.sleep(pause)
+        pause = min(pause * 2, 0.25)
 
 
 # --------------------------------------------------------------------------- URLs
@@ -352,19 +386,18 @@ def connect(su: StoreURL, *, write: bool, action: str):
             if su.backend == "sqlite" and write:
                 # outside any transaction (SQLite cannot change the journal mode inside one);
                 # the mode is stored in the file, so this is a no-op after the first writer
-                raw = conn.connection.driver_connection
-                if str(raw.execute("PRAGMA journal_mode").fetchone()[0]).lower() != "wal":
-                    raw.execute("PRAGMA journal_mode = WAL")
+                import time
+
+                _switch_to_wal(conn.connection.driver_connection, time.monotonic() + SQLITE_BUSY_TIMEOUT_S)
             with conn.begin():
                 yield conn
     except (StoreError, IntegrityError):  # IntegrityError: the caller decides (a lot recorded twice)
         raise
-    except DBAPIError as exc:
+    except (DBAPIError, SQLAlchemyError, sqlite3.Error) as exc:
         text = _first_line(exc)
-        raise StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text)) from None
-    except (SQLAlchemyError, sqlite3.Error) as exc:
-        text = _first_line(exc)
-        raise StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text)) from None
+        err = StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text))
+        err.busy = su.backend == "sqlite" and _is_sqlite_busy(text)
+        raise err from None
     finally:
         eng.dispose()
 

@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .db import StoreError, StoreURL, connect, ensure_schema, parse_store_url
+from .db import SQLITE_BUSY_TIMEOUT_S, StoreError, StoreURL, connect, ensure_schema, parse_store_url
 
 #: Samples written per INSERT batch.
 INSERT_BATCH = 1000
@@ -226,8 +226,9 @@ def record_lot(store: str | StoreURL, rec: LotRecord, *, _after_batch=None) -> R
     False). ``_after_batch(k)`` is called after each batch of samples (tests use it to
     interrupt a recording half-way).
     """
-    from sqlalchemy import insert, select
-    from sqlalchemy.exc import IntegrityError
+    import time
+
+    from sqlalchemy import select
 
     from .db import _tables
 
@@ -237,6 +238,24 @@ def record_lot(store: str | StoreURL, rec: LotRecord, *, _after_batch=None) -> R
 
     def existing(conn):
         return conn.execute(select(t["lots"].c.id, t["lots"].c.label).where(t["lots"].c.lot_key == key)).first()
+
+    deadline = time.monotonic() + SQLITE_BUSY_TIMEOUT_S
+    pause = 0.01
+    while True:
+        try:
+            return _record_once(su, rec, t, key, existing, _after_batch)
+        except StoreError as exc:
+            # a lock SQLite refused without waiting: the transaction was rolled back whole,
+            # so recording again is safe
+            if not exc.busy or time.monotonic() >= deadline:
+                raise
+        time.sleep(pause)
+        pause = min(pause * 2, 0.5)
+
+
+def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_batch) -> RecordResult:
+    from sqlalchemy import insert
+    from sqlalchemy.exc import IntegrityError
 
     try:
         with connect(su, write=True, action="record the lot") as conn:

@@ -183,6 +183,100 @@ def _float(text: str | None, what: str, file: str, line: int | None) -> float:
     return v
 
 
+def _header_metadata(root, meta: dict[str, str]) -> None:
+    """Add the <Header> fields (and ``key: value`` lines of its Comments) to ``meta``."""
+    header = [c for c in root if _local(c.tag) == "Header"]
+    if header:
+        for child in header[0]:
+            name = _local(child.tag)
+            text = (child.text or "").strip()
+            if not text or text == "None":
+                continue
+            if name == "Comments":
+                rest = []
+                for ln in text.splitlines():
+                    kv = _KV_LINE.match(ln)
+                    if (kv and kv.group(1).strip() and not kv.group(1).strip().startswith(("http", "//"))
+                            and not _own_key(kv.group(1))):
+                        _add(meta, kv.group(1).strip(), kv.group(2).strip())
+                    else:
+                        rest.append(ln)
+                if any(x.strip() for x in rest):
+                    _add(meta, "Comments", "\n".join(rest).strip())
+            elif not _own_key(name):
+                _add(meta, name, text)
+
+
+def _distribution(
+    sd, meta: dict[str, str], file: str, lines: dict
+) -> tuple[np.ndarray, np.ndarray, dict, tuple[str, ...]]:
+    """One <SpectralDistribution>: its wavelengths (ascending), values, metadata (``meta`` plus
+    its own fields) and the note about reordering."""
+    m = dict(meta)
+    wls, vals, row_lines = [], [], []
+    for child in sd:
+        name = _local(child.tag)
+        line = lines.get(id(child))
+        if name == "SpectralData":
+            wl_attr = child.get("wavelength")
+            if wl_attr is None:
+                raise InputError(
+                    "<SpectralData> without a wavelength attribute",
+                    file=file,
+                    line=line,
+                    fix='write it as <SpectralData wavelength="380">value</SpectralData>',
+                )
+            wls.append(_float(wl_attr, "wavelength", file, line))
+            vals.append(_float(child.text, f"value at wavelength {wl_attr.strip()[:20]}", file, line))
+            row_lines.append(line)
+        elif name in SD_FIELDS or (name and not _own_key(name)):
+            text = (child.text or "").strip()
+            if text and text != "None":
+                m[name] = text
+    for field in _OWN_FIELDS:
+        v = sd.get(f"{{{LUMEVAL_NS}}}{field}")
+        if v is not None and v.strip():
+            if field == "scale" and v not in {"absolute", "relative", "unknown"}:
+                raise InputError(f"lumeval scale attribute {v[:30]!r} is not absolute, relative or unknown",
+                                 file=file, line=lines.get(id(sd)), fix="remove the attribute or correct it")
+            m[f"lumeval.{field}"] = v.strip()[:200]
+    if len(wls) < 2:
+        raise InputError(
+            f"the SpectralDistribution holds {len(wls)} SpectralData element(s)",
+            file=file,
+            line=lines.get(id(sd)),
+            fix="export the full spectrum, one SpectralData element per wavelength",
+        )
+    wl = np.array(wls)
+    v = np.array(vals)
+    d = np.diff(wl)
+    note: tuple[str, ...] = ()
+    if np.all(d < 0):
+        order = np.argsort(wl)
+        wl, v = wl[order], v[order]
+        row_lines = [row_lines[i] for i in order]
+        note = ("wavelengths were in descending order; sorted ascending",)
+        d = np.diff(wl)
+    if not np.all(d > 0):
+        k = int(np.argmax(d <= 0))
+        problem = (
+            f"wavelength {wl[k + 1]:g} repeats the one on line {row_lines[k]}"
+            if d[k] == 0
+            else f"wavelength {wl[k + 1]:g} comes after {wl[k]:g}: wavelengths must run in one direction"
+        )
+        raise InputError(problem, file=file, line=row_lines[k + 1], fix="remove duplicates and sort by wavelength")
+    q = m.get("SpectralQuantity", "").strip().lower()
+    if m.get("lumeval.scale") not in {"absolute", "relative", "unknown"}:
+        m["lumeval.scale"] = (
+            "relative" if q == "relative" else "absolute" if q in _ABSOLUTE_QUANTITIES else "unknown"
+        )
+        if q and q != "other":
+            m["lumeval.value_unit"] = m["SpectralQuantity"]
+    m["lumeval.wavelength_unit"] = "nm"
+    m["lumeval.format"] = "IES TM-27 XML"
+    return wl, v, m, note
+
+
 def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
     """Parse IES TM-27 XML bytes into a raw :class:`SpectrumSet` (see the module docstring).
 
@@ -213,26 +307,7 @@ def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
     if ns and ns != NAMESPACE:
         meta["lumeval.tm27_namespace"] = ns
 
-    header = [c for c in root if _local(c.tag) == "Header"]
-    if header:
-        for child in header[0]:
-            name = _local(child.tag)
-            text = (child.text or "").strip()
-            if not text or text == "None":
-                continue
-            if name == "Comments":
-                rest = []
-                for ln in text.splitlines():
-                    kv = _KV_LINE.match(ln)
-                    if (kv and kv.group(1).strip() and not kv.group(1).strip().startswith(("http", "//"))
-                            and not _own_key(kv.group(1))):
-                        _add(meta, kv.group(1).strip(), kv.group(2).strip())
-                    else:
-                        rest.append(ln)
-                if any(x.strip() for x in rest):
-                    _add(meta, "Comments", "\n".join(rest).strip())
-            elif not _own_key(name):
-                _add(meta, name, text)
+    _header_metadata(root, meta)
 
     sds = [c for c in root if _local(c.tag) == "SpectralDistribution"]
     if not sds:
@@ -244,68 +319,7 @@ def parse_tm27(raw: bytes, file: str) -> SpectrumSet:
         )
     grids, value_rows, metas, sd_lines = [], [], [], []
     for sd in sds:
-        m = dict(meta)
-        wls, vals, row_lines = [], [], []
-        for child in sd:
-            name = _local(child.tag)
-            line = lines.get(id(child))
-            if name == "SpectralData":
-                wl_attr = child.get("wavelength")
-                if wl_attr is None:
-                    raise InputError(
-                        "<SpectralData> without a wavelength attribute",
-                        file=file,
-                        line=line,
-                        fix='write it as <SpectralData wavelength="380">value</SpectralData>',
-                    )
-                wls.append(_float(wl_attr, "wavelength", file, line))
-                vals.append(_float(child.text, f"value at wavelength {wl_attr.strip()[:20]}", file, line))
-                row_lines.append(line)
-            elif name in SD_FIELDS or (name and not _own_key(name)):
-                text = (child.text or "").strip()
-                if text and text != "None":
-                    m[name] = text
-        for field in _OWN_FIELDS:
-            v = sd.get(f"{{{LUMEVAL_NS}}}{field}")
-            if v is not None and v.strip():
-                if field == "scale" and v not in {"absolute", "relative", "unknown"}:
-                    raise InputError(f"lumeval scale attribute {v[:30]!r} is not absolute, relative or unknown",
-                                     file=file, line=lines.get(id(sd)), fix="remove the attribute or correct it")
-                m[f"lumeval.{field}"] = v.strip()[:200]
-        if len(wls) < 2:
-            raise InputError(
-                f"the SpectralDistribution holds {len(wls)} SpectralData element(s)",
-                file=file,
-                line=lines.get(id(sd)),
-                fix="export the full spectrum, one SpectralData element per wavelength",
-            )
-        wl = np.array(wls)
-        v = np.array(vals)
-        d = np.diff(wl)
-        note: tuple[str, ...] = ()
-        if np.all(d < 0):
-            order = np.argsort(wl)
-            wl, v = wl[order], v[order]
-            row_lines = [row_lines[i] for i in order]
-            note = ("wavelengths were in descending order; sorted ascending",)
-            d = np.diff(wl)
-        if not np.all(d > 0):
-            k = int(np.argmax(d <= 0))
-            problem = (
-                f"wavelength {wl[k + 1]:g} repeats the one on line {row_lines[k]}"
-                if d[k] == 0
-                else f"wavelength {wl[k + 1]:g} comes after {wl[k]:g}: wavelengths must run in one direction"
-            )
-            raise InputError(problem, file=file, line=row_lines[k + 1], fix="remove duplicates and sort by wavelength")
-        q = m.get("SpectralQuantity", "").strip().lower()
-        if m.get("lumeval.scale") not in {"absolute", "relative", "unknown"}:
-            m["lumeval.scale"] = (
-                "relative" if q == "relative" else "absolute" if q in _ABSOLUTE_QUANTITIES else "unknown"
-            )
-            if q and q != "other":
-                m["lumeval.value_unit"] = m["SpectralQuantity"]
-        m["lumeval.wavelength_unit"] = "nm"
-        m["lumeval.format"] = "IES TM-27 XML"
+        wl, v, m, note = _distribution(sd, meta, file, lines)
         grids.append(wl)
         value_rows.append(v)
         metas.append(m)

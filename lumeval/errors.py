@@ -1,7 +1,8 @@
 """One exception family for everything lumeval reports to its user.
 
 Every message follows one pattern, ``WHERE: what is wrong — what would fix it``, where
-WHERE is ``FILE``, ``FILE:LINE`` or ``FILE: field NAME``. The CLI maps every
+WHERE is ``FILE``, ``FILE:LINE`` (``FILE:LINE:COLUMN`` where the column is known) or
+``FILE: field NAME``. The CLI maps every
 :class:`LumevalError` to exit code 2 and prints the message alone (``--debug`` adds the
 traceback).
 """
@@ -20,10 +21,12 @@ class LumevalError(Exception):
         line: int | None = None,
         field: str | None = None,
         fix: str | None = None,
+        column: int | None = None,
     ) -> None:
         self.problem = problem
         self.file = file
         self.line = line
+        self.column = column
         self.field = field
         self.fix = fix
         super().__init__(self.message)
@@ -32,7 +35,10 @@ class LumevalError(Exception):
     def where(self) -> str:
         parts = []
         if self.file is not None:
-            parts.append(str(self.file) + (f":{self.line}" if self.line is not None else ""))
+            at = f":{self.line}" if self.line is not None else ""
+            if at and self.column is not None:
+                at += f":{self.column}"
+            parts.append(str(self.file) + at)
         elif self.line is not None:
             parts.append(f"line {self.line}")
         if self.field is not None:

@@ -191,7 +191,7 @@ def _nominal_cct_bounds(v: float) -> tuple[float, float, str] | None:
 
 def parse_claims(text: str, file: str = "<claims>") -> Claims:
     """Parse a claims file. Raises CriteriaError with line and key on any problem."""
-    from .loader import toml_loads
+    from .._toml import loads as toml_loads
 
     data = toml_loads(text, file)
     lines = locate_lines(text)
@@ -294,6 +294,6 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
 
 def load_claims(path) -> Claims:
     """Read and parse a claims file."""
-    from .loader import read_toml_text
+    from .._toml import read_text
 
-    return parse_claims(read_toml_text(path, "claims", "--claims"), str(path))
+    return parse_claims(read_text(path, what="claims", option="--claims"), str(path))

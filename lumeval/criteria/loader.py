@@ -1,4 +1,4 @@
-"""Read criteria files (TOML, parsed with the standard library's ``tomllib``: no code runs).
+"""Read criteria files (TOML, read by :mod:`lumeval._toml`, the one TOML reader: no code runs).
 
 Every problem becomes a :class:`lumeval.errors.CriteriaError` naming the file, the line and
 the key, what is wrong and what is allowed (with the closest valid name for a typo). Unknown
@@ -8,8 +8,9 @@ keys are errors, contradictory limits are errors; nothing is silently ignored.
 from __future__ import annotations
 
 import re
-import tomllib
 
+from .._toml import loads as toml_loads
+from .._toml import read_text
 from ..errors import CriteriaError
 from .model import CLAUSE_KINDS, COMMON_KEYS, Criteria, ParseError, suggest
 
@@ -95,95 +96,6 @@ def _unknown_key(where: _Where, path: tuple, key: str, allowed, what: str, other
     s = suggest(key, allowed)
     hint = f"did you mean {s!r}? " if s else ""
     return where.error(path, key, f"unknown key {key!r} in {what}{other_kinds}", f"{hint}allowed: {', '.join(allowed)}")
-
-
-#: Largest TOML file read (criteria, claims and instrument files are a few kilobytes).
-MAX_TOML_BYTES = 1024 * 1024
-#: Deepest nesting of arrays and inline tables accepted (lumeval's files nest 2-3 levels).
-MAX_TOML_DEPTH = 32
-
-
-def toml_loads(text: str, file: str) -> dict:
-    """Parse TOML text; every problem is a one-line :class:`CriteriaError`.
-
-    Besides syntax errors, arrays and inline tables nested deeper than :data:`MAX_TOML_DEPTH`
-    are refused before parsing (``tomllib`` parses them recursively: thousands of levels
-    would exhaust the interpreter's recursion limit).
-    """
-    depth_line = _too_deep(text)
-    if depth_line is not None:
-        raise CriteriaError(f"arrays or inline tables nested more than {MAX_TOML_DEPTH} levels deep", file=file,
-                            line=depth_line, fix="lumeval's files need at most a few levels: check the file")
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        msg = str(exc)
-        m = re.search(r"line (\d+)", msg)
-        line = int(m.group(1)) if m else (max(1, len(text.splitlines())) if "end of document" in msg else None)
-        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
-        raise CriteriaError(f"not valid TOML: {problem[:120]}", file=file, line=line,
-                            fix="check quotes, brackets and `key = value` syntax") from None
-    except ValueError:  # an integer too long for int() (Python's 4300-digit limit): no interpreter advice
-        m = re.search(r"[0-9_]{1000,}", text)
-        raise CriteriaError("a number with thousands of digits", file=file,
-                            line=text.count("\n", 0, m.start()) + 1 if m else None,
-                            fix="write the value as an ordinary number") from None
-    except RecursionError:  # pragma: no cover - _too_deep refuses such files first
-        raise CriteriaError("nested too deeply to read", file=file, fix="check the file") from None
-
-
-def _too_deep(text: str) -> int | None:
-    """The line where value nesting (``[`` / ``{`` after ``=`` or inside a value) first exceeds
-    :data:`MAX_TOML_DEPTH`, or None. Strings and comments are skipped; table headers
-    (``[a]``, ``[[a]]`` at the start of a statement) do not nest."""
-    if text.count("[") + text.count("{") <= MAX_TOML_DEPTH:
-        return None
-    depth = 0
-    line = 1
-    i, n = 0, len(text)
-    at_statement = True  # at the start of a line outside any value: a '[' opens a table header
-    while i < n:
-        ch = text[i]
-        if ch == "\n":
-            line += 1
-            if depth == 0:
-                at_statement = True
-            i += 1
-            continue
-        if ch in " \t\r":
-            i += 1
-            continue
-        if ch == "#":
-            j = text.find("\n", i)
-            i = n if j < 0 else j
-            continue
-        if ch in "\"'":
-            q3 = text[i:i + 3]
-            if q3 in ('"""', "'''"):
-                j = text.find(q3, i + 3)
-                end = n if j < 0 else j + 3
-            else:
-                j = i + 1
-                while j < n and text[j] != ch and text[j] != "\n":
-                    j += 2 if (ch == '"' and text[j] == "\\") else 1
-                end = j + 1
-            line += text.count("\n", i, min(end, n))
-            i = end
-            at_statement = False
-            continue
-        if at_statement and depth == 0 and ch == "[":
-            j = text.find("\n", i)
-            i = n if j < 0 else j
-            continue
-        at_statement = False
-        if ch in "[{":
-            depth += 1
-            if depth > MAX_TOML_DEPTH:
-                return line
-        elif ch in "]}":
-            depth = max(0, depth - 1)
-        i += 1
-    return None
 
 
 def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
@@ -380,26 +292,6 @@ def _uncertainty_tables(data: dict, text: str, file: str) -> dict:
     return out
 
 
-def read_toml_text(path, what: str, option: str) -> str:
-    """The text of a TOML file the user named with ``option`` (a ``what`` file: "criteria",
-    "claims"), a byte-order mark tolerated; unreadable files raise :class:`CriteriaError`."""
-    from ..errors import InputError
-    from ..spectra.text import _read_bytes
-
-    try:
-        return _read_bytes(path, MAX_TOML_BYTES).decode("utf-8-sig")
-    except InputError as exc:  # not a regular file, too large, unreadable: same words, criteria class
-        raise CriteriaError(exc.problem, file=exc.file, fix=exc.fix) from None
-    except FileNotFoundError:
-        raise CriteriaError("no such file", file=str(path), fix=f"check the path given to {option}") from None
-    except IsADirectoryError:
-        raise CriteriaError(f"is a directory, not a {what} file", file=str(path), fix="give the path of a .toml file") from None
-    except UnicodeDecodeError:
-        raise CriteriaError("is not UTF-8 text", file=str(path), fix=f"save the {what} file as UTF-8 TOML") from None
-    except OSError as exc:
-        raise CriteriaError(f"cannot be read ({exc.strerror})", file=str(path), fix="check permissions") from None
-
-
 def load_criteria(path) -> Criteria:
     """Read and parse a criteria file (see :func:`parse_criteria`)."""
-    return parse_criteria(read_toml_text(path, "criteria", "--criteria"), str(path))
+    return parse_criteria(read_text(path, what="criteria", option="--criteria"), str(path))

@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import csv
 import io
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -253,21 +252,11 @@ def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -
 def _read_manifest(path) -> tuple[dict[str, float], str]:
     """Settings from a manifest: TOML (``unit = "%"`` and a ``[settings]`` table of
     ``"file name" = number``) or CSV (rows ``file,setting``, an optional header row)."""
+    from .._toml import read_text
+
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError("no such file", file=str(p), fix="check the path given to --manifest") from None
-    except IsADirectoryError:
-        raise InputError("is a directory, not a manifest", file=str(p), fix="give a .toml or .csv file") from None
-    except OSError as exc:
-        raise InputError(f"cannot be read ({exc.strerror})", file=str(p), fix="check permissions") from None
-    if len(raw) > MAX_MANIFEST_BYTES:
-        raise InputError(f"larger than {MAX_MANIFEST_BYTES // 1_000_000} MB: not a manifest", file=str(p), fix="check the file")
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError("is not UTF-8 text", file=str(p), fix="save the manifest as UTF-8") from None
+    # the one TOML reader's file rules (regular files only, size limit, UTF-8 with the BOM removed)
+    text = read_text(p, what="manifest", option="--manifest", error=InputError, max_bytes=MAX_MANIFEST_BYTES)
     if p.suffix.lower() == ".toml":
         return _manifest_toml(text, str(p))
     return _manifest_csv(text, str(p))
@@ -280,10 +269,9 @@ def _number(v, file: str, line, field: str) -> float:
 
 
 def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML: {exc}", file=file, fix="check quotes and `key = value` syntax") from None
+    from .._toml import loads
+
+    data = loads(text, file, error=InputError)
     unknown = [k for k in data if k not in ("unit", "settings")]
     if unknown:
         raise InputError(f"unknown key {unknown[0]!r}", file=file, field=unknown[0], fix="a manifest has `unit` and a [settings] table")

@@ -317,17 +317,12 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
 
 
 def parse_toml(path: str | Path) -> tuple[dict, str]:
-    """Read and parse a TOML file; returns (data, text). Unreadable files raise InputError,
-    TOML syntax errors CriteriaError with the line the parser reports."""
-    from ..criteria.loader import MAX_TOML_BYTES, toml_loads
-    from ..spectra.text import _read_bytes
+    """Read and parse an instrument file through the one TOML reader (:mod:`lumeval._toml`);
+    returns (data, text). Unreadable files raise InputError, TOML syntax errors CriteriaError
+    with the line and column the parser reports."""
+    from .._toml import read_toml
 
-    raw = _read_bytes(path, MAX_TOML_BYTES)  # InputError for a missing, special or oversized file
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError("is not UTF-8 text", file=str(path), fix="give a UTF-8 TOML text file") from None
-    return toml_loads(text, str(path)), text
+    return read_toml(path, what="instrument", option="--instrument", error=CriteriaError, read_error=InputError)
 
 
 def load_instrument(path: str | Path) -> tuple[InstrumentModel, MonteCarloSettings]:

@@ -60,6 +60,8 @@ from .text_dialect import (  # noqa: F401  (re-exported)
     _split,
     _to_float,
     choose_dialect,
+    comment_lines,
+    non_comment_lines,
 )
 from .text_header import (  # noqa: F401  (re-exported)
     _ABSOLUTE,
@@ -141,7 +143,7 @@ def _sample(lines: list) -> list:
     return lines[:_SAMPLE_HEAD] + lines[-_SAMPLE_TAIL:]
 
 
-def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
+def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = True) -> SpectrumSet:
     """Parse the decoded text of a delimited spectrum file.
 
     The reading goes in stages, each a function of its own: dialect
@@ -152,7 +154,9 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     (:func:`~lumeval.spectra.text_rows.convert_rows`) → axis
     (:func:`~lumeval.spectra.text_header.wavelength_axis`) → names
     (:func:`~lumeval.spectra.text_header.name_spectra`). The first error found, in that
-    order, is the one raised.
+    order, is the one raised. The fast path (``fast=True``) finds the dialect and converts
+    the data block in one numpy call when the block is clean, and hands over to the
+    line-by-line stages otherwise (same spectra, same messages).
 
     Parameters
     ----------
@@ -162,6 +166,10 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
         The path as the user gave it (used in messages and in ``sources``).
     stem : str, optional
         The display name of a single unnamed spectrum (default: the file's stem).
+    fast : bool
+        Try the fast path first (:mod:`lumeval.spectra.text_fast`: dialect from a sample of
+        lines, the data block converted in one call; it gives the same result or hands over).
+        False reads line by line only (tests and ``bench/bench_readers.py`` compare the two).
 
     Returns
     -------
@@ -182,15 +190,23 @@ def parse_text(text: str, file: str, stem: str | None = None) -> SpectrumSet:
     # block of clean rows in bulk (see _bulk_rows): memory stays a small multiple of the file.
     big = len(lines) > _BIG_LINES
     memo = _RowMemo(cache=not big)
-    d = choose_dialect(lines, file, memo, _sample if big else None)
-    block = find_start(d, memo, file)
-    rest = block.start
-    if big:
-        block.bulk, block.bulk_ln, rest = _bulk_rows(d.non_comment, block.start, d.delim, block.ncols,
-                                                     d.decimal_comma)
+    found = None
+    if fast:
+        from .text_fast import fast_block
+
+        found = fast_block(non_comment_lines(text, lines), _RowMemo())
+    if found is not None:
+        d, block, rest = found
+    else:
+        d = choose_dialect(lines, file, memo, _sample if big else None)
+        block = find_start(d, memo, file)
+        rest = block.start
+        if big:
+            block.bulk, block.bulk_ln, rest = _bulk_rows(d.non_comment, block.start, d.delim, block.ncols,
+                                                         d.decimal_comma)
     take_rows(d, block, memo, rest, file)
     h = find_header(d.non_comment[: block.start], d.delim, d.decimal_comma, block.ncols, file)
-    meta = collect_metadata(lines, h.before, block.footer, d.delim)
+    meta = collect_metadata(comment_lines(text, lines), h.before, block.footer, d.delim)
     data, row_ln = convert_rows(d, block, memo, h.cells, file)
     wl, data, wl_unit, notes = wavelength_axis(data, row_ln, h, meta, file)
     return name_spectra(wl, data, h, meta, d, wl_unit, notes, file, stem)

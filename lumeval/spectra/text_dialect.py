@@ -155,13 +155,30 @@ def _to_float(cell: str, decimal_comma: bool) -> float:
 
 def _content_lines(text: str) -> list[tuple[int, str]]:
     """(1-based line number, text) of every non-blank line."""
-    out = []
     # Same breaks as _LINE_SPLIT (CRLF, then lone CR, then LF), by plain string operations.
-    for i, line in enumerate(text.replace("\r\n", "\n").replace("\r", "\n").split("\n"), start=1):
+    parts = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    if "\ufeff" not in text:  # the same lines without the second strip (one comprehension)
+        return [(i, s) for i, s in enumerate(map(str.strip, parts), start=1) if s]
+    out = []
+    for i, line in enumerate(parts, start=1):
         s = line.strip().strip("\ufeff")
         if s:
             out.append((i, s))
     return out
+
+
+def comment_lines(text: str, lines: list[tuple[int, str]]) -> list[tuple[int, str]]:
+    """The comment lines among ``lines`` (the non-blank lines of ``text``)."""
+    if "#" not in text and "%" not in text and "//" not in text:
+        return []
+    return [t for t in lines if t[1].startswith(_COMMENT_PREFIXES)]
+
+
+def non_comment_lines(text: str, lines: list[tuple[int, str]]) -> list[tuple[int, str]]:
+    """The lines of ``lines`` that are not comments (the same tuples, not copies)."""
+    if "#" not in text and "%" not in text and "//" not in text:
+        return lines
+    return [t for t in lines if not t[1].startswith(_COMMENT_PREFIXES)]
 
 
 def _is_comment(s: str) -> bool:

@@ -19,7 +19,6 @@ from .text_dialect import (
     _KEY_VALUE,
     Dialect,
     _describe_cell,
-    _is_comment,
     _is_number,
     _split,
 )
@@ -227,10 +226,11 @@ def find_header(before: list, delim: str | None, decimal_comma: bool, ncols: int
     return Header(header, header_units, header_ln, before)
 
 
-def collect_metadata(lines: list, before: list, footer: list, delim: str | None) -> dict[str, str]:
+def collect_metadata(comments: list, before: list, footer: list, delim: str | None) -> dict[str, str]:
     """The file's metadata: ``key: value`` (``key = value``, ``key;value``) lines among the
-    comments, the lines before the header and the trailing text; other text lines are joined
-    under ``comment``. A key given twice keeps both values, one per line."""
+    ``comments`` (the file's comment lines), the lines before the header and the trailing
+    text; other text lines are joined under ``comment``. A key given twice keeps both values,
+    one per line."""
     meta: dict[str, str] = {}
     text_lines: list[str] = []
 
@@ -247,9 +247,8 @@ def collect_metadata(lines: list, before: list, footer: list, delim: str | None)
         else:
             meta[k] = v
 
-    for _ln, s in lines:
-        if _is_comment(s):
-            add_meta(s)
+    for _ln, s in comments:
+        add_meta(s)
     for _, s in before:
         add_meta(s)
     for _, s in footer:

@@ -1,0 +1,147 @@
+"""The text reader's fast path: the dialect chosen on a sample of lines, the data block
+converted by numpy in one call.
+
+:func:`fast_block` either returns exactly what the line-by-line stages would find (dialect,
+data block with its numbers, where the trailing lines start), or None, and the reader then takes
+the line-by-line path, which gives the same result or the exact error message. It never raises.
+
+Why the result is the same (each point is checked, or the fast path gives up):
+
+* **Sample.** The delimiter is chosen (:func:`~lumeval.spectra.text_dialect._choose_delimiter`,
+  the same function) on the lines up to the first line that looks like a number plus
+  :data:`HEAD_ROWS` more, and the last :data:`TAIL_LINES` lines. Every other line (the
+  "middle") must turn out to be a clean row of the data block (below); such a line counts one
+  for the chosen delimiter and at most one for any other, so the choice on all lines is the
+  choice on the sample.
+* **Decimal mark.** When the delimiter is not a comma, the sample's number rows are scanned
+  as the line-by-line path scans them and the middle's text is searched for ``,`` and ``.``:
+  both marks anywhere sends the file to the line-by-line path (which refuses it with its
+  message); otherwise a comma anywhere means decimal commas.
+* **Block.** It starts at the first row of numbers (searched in the sample's head; the middle
+  may not precede it) and ends after the last line of the tail that is a clean row (same
+  regular expression as the large-file path); the lines after it are handled line by line
+  (trailing text, a row after text, a wavelength without value: same state, same messages).
+* **Numbers.** The block's text may hold only ASCII digits, ``. e E + -``, the delimiter,
+  spaces and tabs (and ``,`` with decimal commas): within these characters numpy's text
+  parser (``numpy.loadtxt``; Python's correctly rounded string-to-float conversion) accepts a
+  cell exactly when it matches the reader's number grammar (sign, digits, one decimal mark,
+  exponent), and gives the same float as ``float(cell)``. numpy checks that every line has the
+  first line's cell count; a number too large for a float (``1e999``) sends the file to the
+  line-by-line path, which names it.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+
+import numpy as np
+
+from .text_dialect import (
+    _NUM_ANY,
+    _NUM_POINT,
+    Dialect,
+    _choose_delimiter,
+    _RowMemo,
+    scan_decimal_marks,
+)
+from .text_rows import Block
+
+#: Lines of the sample after the first line that looks like a number (header lines before it
+#: are all in the sample).
+HEAD_ROWS = 4
+#: Last lines of the sample (where trailing text would be).
+TAIL_LINES = 6
+
+_ALLOWED = b"0123456789.eE+- \t\n"
+
+
+def _looks_numeric(s: str) -> bool:
+    """The filter of the delimiter choice: a line that could be a row of numbers."""
+    c0 = s.lstrip('"')[:1]
+    return c0.isdigit() or (c0 != "" and c0 in "+-.")
+
+
+def clean_row_matcher(delim: str | None, ncols: int, decimal_comma: bool):
+    """``fullmatch`` of a clean row: ``ncols`` numbers of the reader's grammar separated by
+    ``delim`` (no quotes; the large-file path's rule)."""
+    num = _NUM_ANY if decimal_comma else _NUM_POINT
+    sep = r"\s+" if delim is None else r"\s*" + re.escape(delim) + r"\s*"
+    trail = "" if delim is None else r"(?:\s*" + re.escape(delim) + r")*"
+    return re.compile(rf"{num}(?:{sep}{num}){{{ncols - 1}}}{trail}").fullmatch
+
+
+def convert_block(text: str, delim: str | None, decimal_comma: bool, nrows: int, ncols: int) -> np.ndarray | None:
+    """The (nrows, ncols) numbers of ``text`` (rows separated by newlines), converted by numpy
+    in one call, or None when any cell, row or number is not clean (see the module docstring)."""
+    if not text.isascii():
+        return None
+    raw = text.encode("ascii")
+    allowed = _ALLOWED + (delim.encode("ascii") if delim is not None else b"") + (b"," if decimal_comma else b"")
+    if raw.translate(None, allowed):
+        return None
+    if decimal_comma:
+        raw = raw.replace(b",", b".")
+    try:
+        data = np.loadtxt(io.BytesIO(raw), delimiter=delim, dtype=float, comments=None, ndmin=2, quotechar=None)
+    except ValueError:
+        return None
+    if data.shape != (nrows, ncols) or not np.isfinite(data).all():
+        return None
+    return data
+
+
+def fast_block(non_comment: list, memo: _RowMemo) -> tuple[Dialect, Block, int] | None:
+    """(dialect, data block with ``bulk`` filled, index in ``non_comment`` of the first line
+    after the block) of a file, or None when the line-by-line path must read it."""
+    nc = non_comment
+    n = len(nc)
+    i0 = next((i for i, (_, s) in enumerate(nc) if _looks_numeric(s)), None)
+    if i0 is None:
+        return None
+    head_end = min(n, i0 + HEAD_ROWS)
+    tail_start = max(head_end, n - TAIL_LINES)
+    sample = nc[:head_end] + nc[tail_start:]
+    delim, score = _choose_delimiter(sample, memo)
+    if score <= 0:
+        return None
+    middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
+    decimal_comma = False
+    if delim != ",":
+        saw_comma, saw_point = scan_decimal_marks(sample, delim, memo)
+        comma = saw_comma is not None or "," in middle_text
+        if comma and (saw_point is not None or "." in middle_text):
+            return None
+        decimal_comma = comma
+    # the first row of numbers: in the sample's head (the middle must be inside the block)
+    search_end = head_end if tail_start > head_end else n
+    start = None
+    for i in range(search_end):
+        cells = memo.split(nc[i][1], delim)
+        if len(cells) >= 2 and memo.all_numbers(cells, decimal_comma):
+            start = i
+            break
+    if start is None:
+        return None
+    ncols = len(memo.split(nc[start][1], delim))
+    clean = clean_row_matcher(delim, ncols, decimal_comma)
+    has_middle = tail_start > head_end
+    end, lo = n, (tail_start if has_middle else start)
+    while end > lo and not clean(nc[end - 1][1]):
+        end -= 1
+    if end - start < 2:
+        return None
+    if has_middle:  # start < head_end <= tail_start <= end
+        parts = [s for _, s in nc[start:head_end]] + [middle_text] + [s for _, s in nc[tail_start:end]]
+    else:
+        parts = [s for _, s in nc[start:end]]
+    data = convert_block("\n".join(parts), delim, decimal_comma, end - start, ncols)
+    if data is None:
+        return None
+    block = Block(start, nc[start][0], ncols)
+    block.bulk = data
+    if nc[end - 1][0] - nc[start][0] == end - start - 1:  # no blank or comment line in between
+        block.bulk_ln = np.arange(nc[start][0], nc[end - 1][0] + 1, dtype=np.int64)
+    else:
+        block.bulk_ln = np.fromiter((ln for ln, _ in nc[start:end]), dtype=np.int64, count=end - start)
+    return Dialect(delim, decimal_comma, nc), block, end

@@ -1,0 +1,192 @@
+"""The text reader's fast path (dialect from a sample of lines, the data block converted by
+numpy in one call: lumeval.spectra.text_fast) gives exactly what the line-by-line path gives.
+
+References, none written by this project:
+
+- the line-by-line path is the reader's documented rule set; the fast path must give the same
+  spectra (values compared exactly: both convert the same decimal text of each cell with a
+  correctly rounded string-to-float conversion, so the floats are equal by construction) or
+  the same error message;
+- Python's ``float()`` (correctly rounded, IEEE 754 binary64) is the reference for numpy's text
+  parser on the digit strings the fast path lets through.
+"""
+
+from __future__ import annotations
+
+import random
+
+import numpy as np
+import pytest
+from hypothesis import given
+
+from lumeval.errors import InputError
+from lumeval.spectra import text as T
+from lumeval.spectra import text_fast as F
+from lumeval.spectra.read import parse_spectra
+
+from .test_spectra_fuzz import CORPUS, SETTINGS, csv_text
+
+
+def _both(text: str, file: str = "d/lamp.csv"):
+    out = []
+    for fast in (True, False):
+        try:
+            s = T.parse_text(text, file, fast=fast)
+            out.append(("ok", s))
+        except InputError as exc:
+            out.append(("error", exc.message))
+    return out
+
+
+def _assert_same(text: str, file: str = "d/lamp.csv"):
+    (k1, a), (k2, b) = _both(text, file)
+    assert k1 == k2, (a, b)
+    if k1 == "error":
+        assert a == b
+        return None
+    np.testing.assert_array_equal(a.wavelengths_nm, b.wavelengths_nm)  # exact: same text, same conversion
+    np.testing.assert_array_equal(a.values, b.values)
+    assert (a.names, a.sources, a.notes, a.metadata) == (b.names, b.sources, b.notes, b.metadata)
+    return a
+
+
+def _took_fast_path(text: str) -> bool:
+    lines = T._content_lines(text)
+    return F.fast_block(T.non_comment_lines(text, lines), T._RowMemo()) is not None
+
+
+def _values(n_rows: int, n_cols: int, seed: int) -> np.ndarray:
+    rng = np.random.default_rng(seed)
+    return rng.uniform(0.0, 2.0, (n_rows, n_cols)) * 10.0 ** rng.integers(-4, 3, (n_rows, n_cols))
+
+
+def _dialect_file(delim: str, decimal_comma: bool, *, rows: int = 81, cols: int = 1, header: str = "plain",
+                  comments: bool = False, footer: bool = False, newline: str = "\n", bom: bool = False,
+                  descending: bool = False, fmt: str = "{:.9g}") -> str:
+    wl = 380.0 + 5.0 * np.arange(rows)
+    if descending:
+        wl = wl[::-1]
+    vals = _values(rows, cols, rows * 7 + cols)
+    out = []
+    if comments:
+        out += ["# Instrument: bench 7", "% operator = Kim", "// exported 2026-01-02"]
+    out.append("Date: 2026-01-02")
+    names = [f"LED {c + 1}" for c in range(cols)]
+    if header == "plain":
+        out.append(delim.join(["wavelength (nm)"] + names))
+    elif header == "units":
+        out.append(delim.join(["Wavelength"] + names))
+        out.append(delim.join(["nm"] + ["W/(m2 nm)"] * cols))
+    for i in range(rows):
+        cells = [fmt.format(wl[i])] + [fmt.format(v) for v in vals[i]]
+        if decimal_comma:
+            cells = [c.replace(".", ",") for c in cells]
+        out.append(delim.join(cells))
+        if comments and i == rows // 2:
+            out.append("# halfway")
+    if footer:
+        out += ["", "End of data", "checksum: 1234"]
+    text = newline.join(out) + newline
+    return ("\ufeff" + text) if bom else text
+
+
+DIALECTS = [
+    (",", False), (";", False), (";", True), ("\t", False), ("\t", True), (" ", False), (" ", True),
+    ("   ", False), (", ", False), ("; ", True),
+]
+
+
+@pytest.mark.parametrize(("delim", "dc"), DIALECTS)
+@pytest.mark.parametrize("header", ["plain", "units", "none"])
+@pytest.mark.parametrize("extras", ["none", "comments", "footer", "crlf", "cr", "bom", "descending", "wide"])
+def test_fast_path_equals_line_by_line_path_on_dialects(delim, dc, header, extras):
+    kw = {
+        "comments": extras == "comments", "footer": extras == "footer", "bom": extras == "bom",
+        "descending": extras == "descending", "newline": {"crlf": "\r\n", "cr": "\r"}.get(extras, "\n"),
+        "cols": 40 if extras == "wide" else 1, "rows": 401 if extras == "wide" else 81,
+    }
+    text = _dialect_file(delim, dc, header=header, **kw)
+    s = _assert_same(text)
+    assert s is not None and s.values.shape == (kw["cols"], kw["rows"])
+    # the fast path really was taken (these files have clean data blocks)
+    assert _took_fast_path(text)
+
+
+@pytest.mark.parametrize("extras", ["none", "comments", "footer"])
+def test_fast_path_through_the_file_reader(tmp_path, extras):
+    """Bytes through parse_spectra (decoding: UTF-8 with BOM, UTF-16, cp1252)."""
+    text = _dialect_file(";", True, header="units", comments=extras == "comments", footer=extras == "footer")
+    for enc in ("utf-8", "utf-8-sig", "utf-16", "cp1252"):
+        a = parse_spectra(text.encode(enc), "d/lamp.csv")
+        b = T.parse_text(text, "d/lamp.csv", fast=False)
+        np.testing.assert_array_equal(a.values, b.values)
+        assert a.names == b.names and a.metadata == b.metadata
+
+
+# Files the fast path hands over (it must give up, and the line-by-line path decides)
+HANDED_OVER = {
+    "quoted numbers": '"wavelength","S"\n' + "".join(f'"{380 + k}","{k / 7:.5f}"\n' for k in range(60)),
+    "trailing delimiters": "wl;S;\n" + "".join(f"{380 + k};{k / 7:.5f};\n" for k in range(60)),
+    "mixed marks in the middle": "wl;S\n" + "".join(f"{380 + k};{k / 7:.5f}\n" for k in range(30))
+    + "".join(f"{410 + k};{k / 7:.5f}\n".replace(".", ",") for k in range(30)),
+    "bad cell in the middle": "wl,S\n" + "".join(f"{380 + k},{'N/A' if k == 30 else k / 7}\n" for k in range(60)),
+    "short row in the middle": "wl,S,T\n" + "".join(f"{380 + k},1,{'' if k == 30 else 2}\n" for k in range(60)),
+    "too large": "wl,S\n" + "".join(f"{380 + k},{'1e999' if k == 30 else 1}\n" for k in range(60)),
+    "text in the middle": "wl,S\n" + "".join(f"{380 + k},1\n" + ("oops\n" if k == 30 else "") for k in range(60)),
+    "duplicate wavelength": "wl,S\n" + "".join(f"{380 + k - (k == 31)},1\n" for k in range(60)),
+    "foreign digits": "wl,S\n" + "".join(f"{380 + k},{'٣' if k == 30 else 1}\n" for k in range(60)),
+    "long footer": "wl,S\n" + "".join(f"{380 + k},1\n" for k in range(60)) + "".join(f"note {k}\n" for k in range(9)),
+    "row after footer": "wl,S\n" + "".join(f"{380 + k},1\n" for k in range(60)) + "end\n440,1\n",
+    "one value missing at the end": "wl,S\n" + "".join(f"{380 + k},1\n" for k in range(60)) + "440\n",
+}
+
+
+@pytest.mark.parametrize("name", sorted(HANDED_OVER))
+def test_fast_path_hands_over_and_messages_are_unchanged(name):
+    text = HANDED_OVER[name]
+    _assert_same(text)
+
+
+def test_corpus_files_read_the_same_on_both_paths():
+    n_fast = 0
+    for p in sorted(CORPUS.glob("*")):
+        if p.suffix not in {".csv", ".txt"}:
+            continue
+        try:
+            text = T._decode(p.read_bytes(), p.name)
+        except InputError:
+            continue
+        _assert_same(text, p.name)
+        n_fast += _took_fast_path(text)
+    assert n_fast >= 10  # most corpus files have clean data blocks
+
+
+@SETTINGS
+@given(text=csv_text())
+def test_fast_path_agrees_with_line_by_line_path_generated(text):
+    _assert_same(text, "fuzz/gen.csv")
+
+
+def test_numpy_text_parser_equals_python_float():
+    """numpy.loadtxt, on the characters the fast path lets through, gives float(cell) exactly
+    (reference: Python's correctly rounded float(); IEEE 754 binary64)."""
+    rng = random.Random(11)
+    cells = []
+    for _ in range(20_000):
+        digits = "".join(rng.choice("0123456789") for _ in range(rng.randint(1, 25)))
+        k = rng.randint(0, len(digits))
+        c = digits[:k] + "." + digits[k:] if rng.random() < 0.8 else digits
+        if c == ".":
+            c = "0."
+        if rng.random() < 0.3:
+            c += rng.choice("eE") + rng.choice(["", "+", "-"]) + str(rng.randint(0, 330))
+        cells.append(rng.choice(["", "-", "+"]) + c)
+    want = np.array([float(c) for c in cells])
+    finite = np.isfinite(want)
+    cells = [c for c, f in zip(cells, finite) if f]
+    text = "\n".join(f"{380 + i},{c}" for i, c in enumerate(cells))
+    got = F.convert_block(text, ",", False, len(cells), 2)
+    assert got is not None
+    np.testing.assert_array_equal(got[:, 1], want[finite])
+    comma = F.convert_block(text.replace(",", ";").replace(".", ","), ";", True, len(cells), 2)
+    np.testing.assert_array_equal(comma[:, 1], want[finite])

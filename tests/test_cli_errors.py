@@ -236,26 +236,6 @@ def test_real_console_script(work):
     assert digest(spd) == before
 
 
-# ----------------------------------------------------------------- cautions travel with CSV
-
-@pytest.mark.parametrize("argv", [
-    ["inspect", "{spd}", "-f", "csv"],
-    ["check", "{spd}", "-c", "{crit}", "-f", "csv"],
-    ["claims", "{spd}", "--claims", "{claims}", "-f", "csv"],
-    ["lot", "{spd}", "-q", "-f", "csv"],
-])
-def test_csv_output_shows_the_cautions_on_stderr(work, capsys, argv):
-    """A CSV holds only the table; the cautions (docs/cautions.md) go to stderr as one note."""
-    tmp, spd, crit, claims = work
-    code, out, err = run([a.format(spd=spd, crit=crit, claims=claims) for a in argv], capsys)
-    assert code in (0, 1), err
-    assert out.splitlines()[0].startswith("name,") or "," in out.splitlines()[0]
-    assert err.startswith("lumeval: note: ") and len(err.splitlines()) == 1
-    for needle in ("IEC 62471", "flicker", "electrical safety", "only as good as the measured spectrum",
-                   "contract, local codes and licensed professional practice"):
-        assert needle in err
-
-
 @pytest.mark.parametrize("limit", ["min = -1e300\nmax = 1e300", "min = -1e6", "max = 1e6", "min = 200"])
 def test_far_off_limits_do_not_break_the_report_figures(work, capsys, limit):
     # was: internal error (matplotlib text transform overflow) or layout warnings on stderr

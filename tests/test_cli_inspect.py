@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import csv
-import io
 import json
 import os
 import subprocess
@@ -12,6 +10,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+
+from lumeval.render.tables import read_csv_report
 
 from .conftest import cie_illuminant
 from .test_metrics_colorimetry import CIE15_T81
@@ -81,7 +81,7 @@ def test_inspect_json_reproduces_cie15_table_T81(f_series_files):
 def test_inspect_csv_one_row_per_spectrum(f_series_files):
     r = run_cli("inspect", "--format", "csv", *f_series_files[:3])
     assert r.returncode == 0, r.stderr
-    rows = list(csv.DictReader(io.StringIO(r.stdout)))
+    rows = read_csv_report(r.stdout)
     assert len(rows) == 3
     assert float(rows[0]["x"]) == pytest.approx(CIE15_T81["FL1"][0], abs=5e-5)
 

@@ -7,7 +7,6 @@ are matched case-insensitively; the human formats are the registry's.
 
 from __future__ import annotations
 
-import csv
 import io
 import json
 from pathlib import Path
@@ -16,6 +15,7 @@ import numpy as np
 import pytest
 
 from lumeval import figures
+from lumeval.render.tables import read_csv_report
 
 DEMO = sorted((Path(__file__).resolve().parents[1] / "spectra_demo" / "downlights").glob("*.csv"))
 
@@ -59,7 +59,7 @@ def test_one_registry_row_reaches_every_output(ev, extra_figure):
     doc = json.loads(to_json(ev))
     np.testing.assert_allclose([s["test_y_share"] for s in doc["spectra"]], ev.y, rtol=1e-12)
 
-    rows = list(csv.DictReader(io.StringIO(to_csv(ev))))
+    rows = read_csv_report(to_csv(ev))
     np.testing.assert_allclose([float(r["test_y_share"]) for r in rows], ev.y, rtol=1e-12)
 
     con = Console(file=io.StringIO(), width=200, color_system=None)

@@ -18,6 +18,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from lumeval.render.tables import read_csv_report
+
 pa = pytest.importorskip("pyarrow")
 pq = pytest.importorskip("pyarrow.parquet")
 
@@ -86,7 +88,7 @@ def test_metadata_in_every_per_sample_output(arch, tmp_path):
                         "--samples-csv", str(out_csv), "--json", str(out_json), "--samples-parquet", str(out_pq)],
                        capture_output=True, text=True, cwd=REPO, timeout=300)
     assert r.returncode == 1, r.stderr  # the demo lot fails a lot clause (as from its CSV files)
-    rows = list(csv.DictReader(out_csv.open(encoding="utf-8")))
+    rows = read_csv_report(out_csv.read_text(encoding="utf-8"))
     header = next(csv.reader(out_csv.open(encoding="utf-8")))
     assert header[:2] == ["name", "source"] and header.index("station") < header.index("verdict")
     assert rows[163]["station"] == "ST-1" and rows[163]["drive_mA"] == str(163 * 5 + 350)

@@ -9,8 +9,6 @@ others, names and sources kept, exit codes, quiet when piped, atomic outputs).
 
 from __future__ import annotations
 
-import csv
-import io
 import json
 import os
 import subprocess
@@ -22,6 +20,7 @@ import pytest
 from scipy.spatial.distance import pdist
 
 from lumeval.errors import CriteriaError
+from lumeval.render.tables import read_csv_report
 
 from .conftest import cie_illuminant
 from .test_metrics_colorimetry import CIE15_T81
@@ -92,7 +91,7 @@ def test_per_sample_figures_match_cie15_table_T81(lot_json):
 def test_lot_statistics_match_numpy_on_the_samples(lot_json):
     _, doc, csv_text, file_doc = lot_json
     assert file_doc["counts"] == doc["counts"]
-    rows = list(csv.DictReader(io.StringIO(csv_text)))
+    rows = read_csv_report(csv_text)
     assert len(rows) == 13
     ra = np.array([float(r["Ra"]) for r in rows])
     st = doc["statistics"]["figures"]

@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 
 from lumeval.cli import main
+from lumeval.render.tables import data_rows
 
 WL = np.arange(380.0, 781.0, 1.0)
 
@@ -80,7 +81,7 @@ def test_mix_json_csv_terminal(chans, capsys, tmp_path):
     assert any("linear in radiant power" in n for n in doc["notes"])
     assert doc["cautions"]
     code, out, err = run(["mix", chans, "--cct", "3000,4000", "--format", "csv"], capsys)
-    rows = list(csv.reader(io.StringIO(out)))
+    rows = data_rows(out)
     assert rows[0][:4] == ["setting", "label", "reachable", "target_duv"] and "w:warm" in rows[0] and "R9" in rows[0]
     assert len(rows) == 3
     code, out, err = run(["mix", chans, "--cct", "3000,4000"], capsys)

@@ -23,6 +23,7 @@ import numpy as np
 import pytest
 
 from lumeval.engine import VALIDITY_FIGURES, evaluate
+from lumeval.render.tables import read_csv_report
 from lumeval.spectra.model import SpectrumSet
 
 from .test_cli_inspect import run_cli
@@ -163,10 +164,8 @@ def test_flagged_in_json_csv_and_terminal(rgb_file):
     assert rec["cri"]["Ra"] is not None and rec["tm30"]["Rf"] is not None and rec["tm30"]["Rg"] is not None
     assert any("OUTSIDE THE VALIDITY RANGE" in w for w in rec["warnings"])
     r = run_cli("inspect", "--format", "csv", rgb_file)
-    import csv
-    import io
 
-    (row,) = list(csv.DictReader(io.StringIO(r.stdout)))
+    (row,) = read_csv_report(r.stdout)
     assert row["Ra"] != "" and set(row["outside_validity"].split()) == set(VALIDITY_FIGURES)
     r = run_cli("inspect", rgb_file)
     assert "OUTSIDE validity range" in r.stdout

@@ -51,18 +51,6 @@ def emit(text: str, output: Path | None, option: str = "--output", what: str = "
         announce(what, output)
 
 
-def note_csv_cautions() -> None:
-    """Print the report cautions on stderr, one line, for CSV output.
-
-    A CSV is a table for other programs, so the cautions every report carries
-    (:data:`lumeval.render.tables.CAUTIONS`, docs/cautions.md) do not go into its cells; the
-    person who ran the command still sees them, and the JSON and terminal reports hold them.
-    """
-    from ..render.tables import CAUTIONS
-
-    print("lumeval: note: " + " ".join(CAUTIONS) + " (docs/cautions.md)", file=sys.stderr)
-
-
 def plain_text(renderables) -> str:
     """Render rich renderables to plain text (no colour codes) for a file."""
     import io
@@ -132,7 +120,6 @@ def register(app: typer.Typer) -> None:
             from ..render.verdicts import check_to_csv
 
             emit(check_to_csv(result), output)
-            note_csv_cautions()
         else:
             from .._io import is_stdout
             from ..render.verdicts import check_renderables

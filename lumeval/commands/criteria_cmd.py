@@ -317,9 +317,6 @@ def register(app: typer.Typer) -> None:
             emit(rv.claims_to_json(result), output)
         elif output_format is OutputFormat.csv:
             emit(rv.claims_to_csv(result), output)
-            from .check import note_csv_cautions
-
-            note_csv_cautions()
         elif output is None or is_stdout(output):
             rv.print_claims(result)
         else:

@@ -90,9 +90,6 @@ def register(app: typer.Typer) -> None:
             from ..render.tables import to_csv
 
             emit(to_csv(ev), output)
-            from .check import note_csv_cautions
-
-            note_csv_cautions()
         else:
             from .._io import is_stdout
             from ..render.terminal import inspect_renderables, print_inspect

@@ -228,9 +228,6 @@ def register(app: typer.Typer) -> None:
             lot_report.lot_json(run, sys.stdout)
         elif output_format is OutputFormat.csv:
             lot_report.samples_csv(run, sys.stdout)
-            from .check import note_csv_cautions
-
-            note_csv_cautions()
         else:
             lot_report.print_lot(run)
         if run.unreadable:

@@ -35,10 +35,8 @@ def emit_report(report, output_format: OutputFormat, html: Path | None, command:
         typer.echo(to_json(report), nl=False)
     elif output_format.value == "csv":
         from ..render.tunable import to_csv
-        from .check import note_csv_cautions
 
         typer.echo(to_csv(report), nl=False)
-        note_csv_cautions()
     else:
         from ..render.safe import console as make_console
         from ..render.tunable import renderables

@@ -36,9 +36,9 @@ from typing import Any
 
 import numpy as np
 
-from .safe import clean, csv_text
+from .safe import clean, csv_first_cell, csv_text
 from .safe import text as _text
-from .tables import CAUTIONS
+from .tables import CAUTIONS, csv_notes
 
 JSON_SCHEMA_VERSION = 1
 
@@ -318,7 +318,7 @@ def samples_csv(run, out=None) -> str | None:
     fig_mat = np.column_stack([run.figures[k] for k in run.figures]) if run.figures else np.empty((len(run), 0))
     for i in range(len(run)):
         row = [
-            t(run.names[i]),
+            csv_first_cell(run.names[i]),
             t(run.sources[i]),
             *(_csv_value(v[i]) for _, v in meta),
             verdicts[i] if verdicts is not None else "",
@@ -334,6 +334,7 @@ def samples_csv(run, out=None) -> str | None:
             row += [r.outcome[i] for r in run.check.results]
         row.append(t(" | ".join(run.warnings[i])))
         w.writerow(row)
+    buf.write(csv_notes())  # the cautions as the last rows (docs/output-formats.md, "CSV")
     return buf.getvalue() if out is None else None
 
 

@@ -69,6 +69,14 @@ def csv_text(value) -> str:
     return clean(s)
 
 
+def csv_first_cell(value) -> str:
+    """The first cell of a CSV data row: :func:`csv_text`, and a leading single quote also when it
+    starts with ``#``, so that only lumeval's own note rows (the cautions at the end of every
+    CSV report, :func:`lumeval.render.tables.csv_notes`) start with ``#``."""
+    s = csv_text(value)
+    return "'" + s if s.startswith("#") else s
+
+
 def console(**kwargs):
     """A rich Console for lumeval's reports (see the module docstring)."""
     from rich.console import Console

@@ -173,12 +173,12 @@ def csv_rows(ev):
     """Yield one dict per spectrum with the :func:`csv_columns` keys (numbers unrounded; text
     cells neutralised for spreadsheets, :func:`lumeval.render.safe.csv_text`)."""
     from .. import figures
-    from .safe import csv_text
+    from .safe import csv_first_cell, csv_text
 
     cols = [figures.FIGURES[c] for c in csv_columns()[2:-2]]
     values = {f.name: f.value(ev) for f in cols}
     for i in range(len(ev)):
-        row = {"name": csv_text(ev.spectra.names[i]), "source": csv_text(ev.spectra.sources[i])}
+        row = {"name": csv_first_cell(ev.spectra.names[i]), "source": csv_text(ev.spectra.sources[i])}
         for f in cols:
             v = float(values[f.name][i])
             row[f.name] = repr(v) if math.isfinite(v) else ""
@@ -195,7 +195,39 @@ def to_csv(ev) -> str:
     w.writeheader()
     for row in csv_rows(ev):
         w.writerow(row)
+    return buf.getvalue() + csv_notes()
+
+
+#: What the note rows at the end of a CSV report start with (docs/output-formats.md, "CSV").
+CSV_NOTE = "# caution: "
+
+
+def csv_notes() -> str:
+    """The cautions as the last rows of a CSV report, one row of one cell each:
+    ``# caution: Colour metrics only: ...`` (quoted where the text holds a comma).
+
+    A CSV report is a table for other programs and for spreadsheets: the header stays the first
+    row and every data row keeps its place; the cautions follow the data, so a spreadsheet shows
+    them under the table and a program drops the rows whose first cell starts with ``#`` (data
+    rows never do: :func:`lumeval.render.safe.csv_first_cell`). lumeval's own CSV readers skip
+    such rows. Nothing goes to stderr (docs/output-formats.md)."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    for c in CAUTIONS:
+        w.writerow([CSV_NOTE + c])
     return buf.getvalue()
+
+
+def data_rows(text: str) -> list[list[str]]:
+    """The rows of a CSV report without its note rows (header first): what a program reading
+    lumeval's CSV keeps."""
+    return [r for r in csv.reader(io.StringIO(text)) if r and not r[0].startswith("#")]
+
+
+def read_csv_report(text: str) -> list[dict[str, str]]:
+    """The data rows of a CSV report as dicts keyed by the header (note rows dropped)."""
+    rows = data_rows(text)
+    return [dict(zip(rows[0], r)) for r in rows[1:]] if rows else []
 
 
 #: The cautions every report carries (docs/cautions.md explains them).

@@ -408,4 +408,6 @@ def to_csv(report) -> str:
         if check is not None:
             row += [rr.outcome[i] for rr in check.results] + [check.verdict(i)]
         w.writerow(row)
-    return buf.getvalue()
+    from .tables import csv_notes
+
+    return buf.getvalue() + csv_notes()  # the cautions as the last rows (docs/output-formats.md)

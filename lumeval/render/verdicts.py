@@ -448,7 +448,9 @@ def check_to_csv(result) -> str:
     """One row per (spectrum, clause), in the columns :data:`CHECK_CSV_COLUMNS`; undefined
     numbers are empty cells; text cells are neutralised for spreadsheets
     (:func:`lumeval.render.safe.csv_text`)."""
+    from .safe import csv_first_cell as first
     from .safe import csv_text as t
+    from .tables import csv_notes
 
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
@@ -474,9 +476,9 @@ def check_to_csv(result) -> str:
     for i, name in enumerate(result.names):
         src, verdict = result.sources[i], verdicts[i]
         for r, meas, lo, hi, mg, d, u, p, why in cols:
-            w.writerow((t(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
+            w.writerow((first(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
                         meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i])))
-    return buf.getvalue()
+    return buf.getvalue() + csv_notes()
 
 
 # --------------------------------------------------------------------------- claims
@@ -605,8 +607,11 @@ CLAIMS_CSV_COLUMNS = ("spectrum", "claim", "as_stated", "unit", "measured", "acc
 
 
 def claims_to_csv(check) -> str:
-    """One row per (spectrum, claim); text cells neutralised for spreadsheets."""
+    """One row per (spectrum, claim); text cells neutralised for spreadsheets; the cautions as
+    note rows at the end (:func:`lumeval.render.tables.csv_notes`)."""
+    from .safe import csv_first_cell
     from .safe import csv_text as t
+    from .tables import csv_notes
 
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=CLAIMS_CSV_COLUMNS, lineterminator="\n")
@@ -622,7 +627,7 @@ def claims_to_csv(check) -> str:
         for r in check.results:
             w.writerow(
                 {
-                    "spectrum": t(name),
+                    "spectrum": csv_first_cell(name),
                     "claim": t(r.claim.key),
                     "as_stated": t(r.claim.text),
                     "unit": t(r.unit),
@@ -634,4 +639,4 @@ def claims_to_csv(check) -> str:
                     "reason": t(r.reason[i]),
                 }
             )
-    return buf.getvalue()
+    return buf.getvalue() + csv_notes()

@@ -355,8 +355,17 @@ for _j in range(1, 17):
     register(Figure(f"Rcs_h{_j}", f"Rcs,h{_j}", "fidelity", f"local chroma shift Rcs,h{_j} (hue bin {_j})", _TM30,
                     _sub("tm30", "Rcs_h", _j - 1), unit="%", decimals=0, signed=True, note=_BIN_HUE[_j - 1],
                     aliases=(f"Rcs,h{_j}",), json_path=("tm30", "Rcs_h", _j - 1), summary=_j == 1))
+#: How every report and document states the unit of the local hue shift Rhs,h. ANSI/IES TM-30-18
+#: defines Rhs,hj as the tangential component of the shift of bin j's average (a′, b′) from
+#: reference to test, divided by the reference average's chroma: a length over a length, so a
+#: plain number (for small shifts about the hue-angle change in radians, but not an angle). It is
+#: the sideways part of the arrow in the colour-vector picture, where every reference average
+#: sits on the unit circle. colour-science's R_hs is the same quantity (tests/test_metrics_tm30.py).
+HUE_SHIFT_UNIT = "dimensionless"
+
 for _j in range(1, 17):
-    register(Figure(f"Rhs_h{_j}", f"Rhs,h{_j}", "fidelity", f"local hue shift Rhs,h{_j} (hue bin {_j}; dimensionless)",
+    register(Figure(f"Rhs_h{_j}", f"Rhs,h{_j}", "fidelity",
+                    f"local hue shift Rhs,h{_j} (hue bin {_j}; {HUE_SHIFT_UNIT})",
                     _TM30, _sub("tm30", "Rhs_h", _j - 1), decimals=2, signed=True, note=_BIN_HUE[_j - 1],
                     aliases=(f"Rhs,h{_j}",), json_path=("tm30", "Rhs_h", _j - 1)))
 register(Figure("ler_lm_per_W", "LER", "photometry", "luminous efficacy of radiation (LER)",

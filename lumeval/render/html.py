@@ -479,7 +479,8 @@ def report_figures(
             figs.append(ReportFigure(
                 f"hue-bins-{slug}", f"TM-30 hue bins: {name}",
                 "One row per hue bin (CIE 224:2017 / ANSI/IES TM-30), each value beside its bar: local fidelity "
-                "Rf,h, chroma shift Rcs,h (%) and hue shift Rhs,h. Black ticks: criteria limits; hatched: outside.",
+                "Rf,h, chroma shift Rcs,h (%) and hue shift Rhs,h (dimensionless). Black ticks: criteria limits; "
+                "hatched: outside.",
                 plots.hue_bin_figure(_matrix(ev, "Rcs_h", 16)[i], _matrix(ev, "Rhs_h", 16)[i], _matrix(ev, "Rf_h", 16)[i],
                                      limits=lim),
             ))
@@ -507,7 +508,7 @@ def report_figures(
         figs.append(ReportFigure(
             "hue-bins-lot", f"TM-30 hue bins of {n} samples",
             "One row per hue bin: median bar with min–max whisker of local fidelity Rf,h, chroma shift Rcs,h (%) "
-            "and hue shift Rhs,h. Black ticks: criteria limits.",
+            "and hue shift Rhs,h (dimensionless). Black ticks: criteria limits.",
             plots.hue_bin_figure(_matrix(ev, "Rcs_h", 16), _matrix(ev, "Rhs_h", 16), _matrix(ev, "Rf_h", 16), limits=lim),
         ))
         figs += _colour_vector_figures(ev, list(range(n)), "colour-vectors-lot", f"TM-30 colour vectors of {n} samples")

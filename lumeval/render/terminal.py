@@ -26,8 +26,10 @@ def _hue_table(ev, idx):
     from rich import box
     from rich.table import Table
 
+    from ..figures import HUE_SHIFT_UNIT
+
     t = Table(
-        title="TM-30 hue bins (local fidelity Rf,h; chroma shift Rcs,h in %; hue shift Rhs,h)",
+        title=f"TM-30 hue bins (local fidelity Rf,h; chroma shift Rcs,h in %; hue shift Rhs,h, {HUE_SHIFT_UNIT})",
         title_justify="left",
         box=box.SIMPLE_HEAVY,
         pad_edge=False,

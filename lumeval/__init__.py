@@ -18,6 +18,7 @@ _API = {
     "InputError": "lumeval.errors",
     "CriteriaError": "lumeval.errors",
     "ComputationError": "lumeval.errors",
+    "GridError": "lumeval.errors",
     # spectra
     "SpectrumSet": "lumeval.spectra.model",
     "read_spectra": "lumeval.spectra.read", "read_many": "lumeval.spectra.read", "prepare": "lumeval.spectra.prepare",

@@ -65,6 +65,19 @@ class ComputationError(LumevalError):
     """A figure that cannot be computed honestly from valid input."""
 
 
+class GridError(InputError, ComputationError, ValueError):
+    """Wavelengths that are not the grid a metric needs (shape, spacing, integer wavelengths,
+    range): the one class every metric's grid check raises (CIE 13.3, CIE 224 / TM-30,
+    photometry, tristimulus summation). The cure is always the same: prepare the spectra
+    (:func:`lumeval.prepare_groups`) first.
+
+    It is an :class:`InputError`. The extra bases :class:`ComputationError` (what photometry
+    raised for this check) and :class:`ValueError` (what the tristimulus summation raised) are
+    kept only so that code written against earlier versions keeps catching it; they are
+    deprecated and will be dropped: catch ``GridError`` or ``InputError``.
+    """
+
+
 class UsageError(LumevalError):
     """Bad command-line usage that the argument parser itself does not catch."""
 

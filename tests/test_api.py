@@ -129,7 +129,7 @@ def test_public_names_are_pinned():
     import lumeval
 
     assert lumeval.__all__ == sorted([
-        "CheckRun", "ComputationError", "CriteriaError", "DecisionRule", "Evaluation", "InputError", "InstrumentModel",
+        "CheckRun", "ComputationError", "CriteriaError", "DecisionRule", "Evaluation", "GridError", "InputError", "InstrumentModel",
         "LotRun", "LumevalError", "PhotometryResult", "SpectrumSet", "TM30Result", "cct_duv_ohno", "check", "cie2017_rf",
         "claims", "convert", "evaluate", "inspect", "load_claims", "load_criteria", "load_instrument", "lot",
         "list_lots", "lot_from_evaluation", "lot_record", "lot_statistics", "mix_files", "PreparedSpectra", "photometry", "planck_exitance", "planckian_uv", "prepare", "prepare_groups",

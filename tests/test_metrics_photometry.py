@@ -26,7 +26,7 @@ from importlib import resources
 import numpy as np
 import pytest
 
-from lumeval.errors import ComputationError
+from lumeval.errors import ComputationError, GridError
 from lumeval.metrics.photometry import (
     ALPHA_OPIC_NAMES,
     KM_LM_PER_W,
@@ -317,11 +317,14 @@ def test_undefined_figures_are_nan_with_a_reason():
     assert np.isfinite(res.ler_lm_per_W[3:]).all() and np.isfinite(res.melanopic_der[3:]).all()
 
 
-def test_bad_grid_raises_computation_error():
+def test_bad_grid_raises_the_grid_error():
+    """GridError (still a ComputationError, what photometry raised before: deprecated base)."""
     wl = np.arange(380.0, 781.0)
-    with pytest.raises(ComputationError):
+    with pytest.raises(GridError):
         photometry(wl, np.ones((2, wl.size - 1)))
     bad = wl.copy()
     bad[5] += 0.5
+    with pytest.raises(GridError):
+        photometry(bad, np.ones(wl.size))
     with pytest.raises(ComputationError):
         photometry(bad, np.ones(wl.size))

@@ -33,6 +33,7 @@ from typing import cast
 import numpy as np
 from numpy.typing import ArrayLike
 
+from ..errors import GridError
 from .planck import C2_CIE, planck_exitance
 
 #: Range in which CCT is reported: from Ohno (2014)'s lower end to the upper end of CIE daylight
@@ -72,10 +73,11 @@ def integration_weights(wavelengths_nm: ArrayLike) -> np.ndarray:
     """Δλ for each sample of a uniform grid (rectangle rule, CIE 15:2004 §7.1), shape (W,)."""
     wl = np.asarray(wavelengths_nm, dtype=float)
     if wl.size < 2:
-        raise ValueError("need at least two wavelengths")
+        raise GridError("need at least two wavelengths", field="wavelengths_nm", fix="prepare the spectra first")
     d = np.diff(wl)
     if not np.allclose(d, d[0], rtol=0, atol=1e-9):
-        raise ValueError("tristimulus summation needs a uniform wavelength grid; prepare the spectra first")
+        raise GridError("tristimulus summation needs a uniform wavelength grid", field="wavelengths_nm",
+                        fix="prepare the spectra first")
     return np.full(wl.size, d[0])
 
 

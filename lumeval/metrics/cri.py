@@ -50,7 +50,7 @@ from functools import lru_cache
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
+from ..errors import GridError, InputError
 from .colorimetry import OBSERVER_2, cmfs_at
 from .reference import cri_reference_spd
 
@@ -113,20 +113,20 @@ class CRIResult:
 def _check_grid(wl: np.ndarray) -> None:
     fix = "prepare the spectra first (uniform 1 nm or 5 nm integer grid covering 380-780 nm within 360-830 nm)"
     if wl.ndim != 1 or wl.size < 2:
-        raise InputError("wavelengths must be a 1-D array of at least two values", field="wavelengths_nm", fix=fix)
+        raise GridError("wavelengths must be a 1-D array of at least two values", field="wavelengths_nm", fix=fix)
     if not np.all(np.isfinite(wl)):
-        raise InputError("wavelengths contain non-finite values", field="wavelengths_nm", fix=fix)
+        raise GridError("wavelengths contain non-finite values", field="wavelengths_nm", fix=fix)
     step = wl[1] - wl[0]
     if step not in (1.0, 5.0) or not np.allclose(np.diff(wl), step, rtol=0.0, atol=1e-9):
-        raise InputError(
+        raise GridError(
             f"wavelength spacing must be exactly 1 nm or 5 nm (found {np.diff(wl).min():g}-{np.diff(wl).max():g} nm)",
             field="wavelengths_nm",
             fix=fix,
         )
     if not np.allclose(wl, np.round(wl), rtol=0.0, atol=1e-9):
-        raise InputError("wavelengths must be integers in nm", field="wavelengths_nm", fix=fix)
+        raise GridError("wavelengths must be integers in nm", field="wavelengths_nm", fix=fix)
     if wl[0] < 360.0 or wl[-1] > 830.0 or wl[0] > 380.0 or wl[-1] < 780.0:
-        raise InputError(
+        raise GridError(
             f"wavelength range {wl[0]:g}-{wl[-1]:g} nm must cover 380-780 nm and lie within 360-830 nm",
             field="wavelengths_nm",
             fix=fix,

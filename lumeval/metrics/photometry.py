@@ -51,7 +51,7 @@ from typing import cast
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..errors import ComputationError
+from ..errors import ComputationError, GridError
 from .colorimetry import OBSERVER_2, cmfs_at
 
 #: Maximum photopic luminous efficacy used here, lm/W (rounded value; see module docstring).
@@ -212,18 +212,18 @@ def _check_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarra
     if vals.ndim == 1:
         vals = vals[None, :]
     if wl.ndim != 1 or wl.size < 2:
-        raise ComputationError(
+        raise GridError(
             f"photometry needs a 1-D wavelength grid of at least 2 points, got shape {wl.shape}",
             fix="prepare the spectra first (lumeval.spectra.prepare)",
         )
     if vals.ndim != 2 or vals.shape[1] != wl.size:
-        raise ComputationError(
+        raise GridError(
             f"spectral values of shape {vals.shape} do not match {wl.size} wavelengths",
             fix="pass values of shape (N, W) on the W wavelengths given",
         )
     steps = np.diff(wl)
     if not np.all(np.isfinite(wl)) or not np.allclose(steps, steps[0], rtol=0.0, atol=1e-9) or steps[0] <= 0:
-        raise ComputationError(
+        raise GridError(
             "photometry needs a uniform, increasing wavelength grid",
             fix="prepare the spectra first (lumeval.spectra.prepare)",
         )

@@ -75,7 +75,7 @@ from typing import Any, cast
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
+from ..errors import GridError, InputError
 from .colorimetry import OBSERVER_2, OBSERVER_10, cmfs_at
 from .reference import daylight_spd, planckian_spd
 
@@ -208,7 +208,7 @@ def ces_reflectances(wavelengths_nm: ArrayLike) -> np.ndarray:
 def _crop_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray, np.ndarray, float]:
     wl = np.asarray(wavelengths_nm, dtype=float)
     if wl.ndim != 1 or wl.size < 2:
-        raise InputError(
+        raise GridError(
             "wavelengths must be a 1-D array of at least two values",
             fix="prepare the spectra (lumeval.spectra) before computing metrics",
         )
@@ -216,29 +216,29 @@ def _crop_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray
     if vals.ndim == 1:
         vals = vals[None, :]
     if vals.ndim != 2 or vals.shape[1] != wl.size:
-        raise InputError(
+        raise GridError(
             f"values of shape {np.shape(values)} do not match {wl.size} wavelengths",
             fix="pass values of shape (N, W) or (W,) on the wavelength grid",
         )
     d = np.diff(wl)
     step = float(d[0])
     if not (np.allclose(d, step, rtol=0, atol=1e-9) and step in (1.0, 5.0)):
-        raise InputError(
+        raise GridError(
             "CIE 224:2017 / TM-30 need a uniform 1 nm or 5 nm grid",
             fix="prepare the spectra (Sprague-interpolate to 1 nm) first",
         )
     if not np.allclose(wl, np.rint(wl), rtol=0, atol=1e-9):
-        raise InputError("wavelengths must be integers (nm)", fix="prepare the spectra first")
+        raise GridError("wavelengths must be integers (nm)", fix="prepare the spectra first")
     lo, hi = CFI_RANGE_NM
     if wl[0] > lo or wl[-1] < hi:
-        raise InputError(
+        raise GridError(
             f"spectrum covers {wl[0]:g}-{wl[-1]:g} nm; CIE 224:2017 needs 380-780 nm",
             fix="extend or re-measure the spectrum to cover 380-780 nm",
         )
     keep = (wl >= lo - 1e-9) & (wl <= hi + 1e-9)
     wl_c = np.rint(wl[keep])
     if (wl_c[0] - lo) % step or (hi - wl_c[-1]) % step or wl_c[0] != lo or wl_c[-1] != hi:
-        raise InputError(
+        raise GridError(
             f"the {step:g} nm grid does not fall on 380 nm and 780 nm",
             fix="prepare the spectra on integer wavelengths that are multiples of the spacing",
         )

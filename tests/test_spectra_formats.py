@@ -69,7 +69,7 @@ def test_json_round_trip_keeps_several_spectra(tmp_path):
     assert back.names == src.names
     np.testing.assert_array_equal(back.values, src.values)
     doc = json.loads((tmp_path / "w.json").read_text())
-    assert doc["format"] == "lumeval-spectra" and doc["version"] == 1
+    assert doc["format"] == "lumeval.spectra" and doc["schema_version"] == 1
 
 
 def test_colour_science_reads_our_tm27(tmp_path):

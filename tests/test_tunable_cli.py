@@ -73,7 +73,7 @@ def test_mix_json_csv_terminal(chans, capsys, tmp_path):
     code, out, err = run(["mix", chans, "--cct", "2800:5000:200", "--format", "json"], capsys)
     assert code == 0, err
     doc = json.loads(out)
-    assert doc["format"] == "lumeval-mix" and doc["channels"] == ["warm", "cool"]
+    assert doc["format"] == "lumeval.mix" and doc["channels"] == ["warm", "cool"]
     assert len(doc["settings"]) == 12
     s0 = doc["settings"][0]
     assert max(s0["weights"].values()) == 1.0

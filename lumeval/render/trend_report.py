@@ -34,10 +34,10 @@ def _fmt(v, spec: str = ".5g") -> str:
 
 
 def list_document(lots, store: str) -> dict:
-    from .. import __version__
+    """The ``lumeval history list --format json`` document (``lumeval/schemas/history_list.schema.json``)."""
+    from ..schemas import header
 
-    return {"format": "lumeval-history-list", "schema_version": 1, "lumeval_version": __version__, "store": store,
-            "lots": [lot.as_dict() for lot in lots]}
+    return {**header("history_list"), "store": store, "lots": [lot.as_dict() for lot in lots]}
 
 
 def print_list(lots, store: str, console=None) -> None:

@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from .tables import CAUTIONS, JSON_SCHEMA_VERSION, spectrum_records
+from .tables import CAUTIONS, spectrum_records
 
 #: The headline figures of the per-setting tables (issue 16: Ra, R9, Rf, Rg, Duv, LER, with CCT).
 HEADLINE_NAMES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")
@@ -302,7 +302,10 @@ def _margin(res, i: int) -> str:
 
 
 def to_json(report) -> str:
-    """One JSON document (``"format": "lumeval-mix"`` or ``"lumeval-series"``, see docs/tunable.md)."""
+    """One JSON document (``"format": "lumeval.mix"`` or ``"lumeval.series"``, see docs/tunable.md;
+    JSON Schemas ``lumeval/schemas/mix.schema.json`` and ``series.schema.json``)."""
+    from ..schemas import header
+
     r = report.result
     labels, avail, reasons = _per_setting(report)
     ev = r.evaluation
@@ -334,8 +337,7 @@ def to_json(report) -> str:
             }
         settings.append(rec)
     doc: dict = {
-        "format": f"lumeval-{report.kind}",
-        "schema_version": JSON_SCHEMA_VERSION,
+        **header(report.kind),
         "inputs": list(report.inputs),
         "notes": _notes(report),
         "settings": settings,

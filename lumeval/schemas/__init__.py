@@ -19,6 +19,11 @@ SCHEMA_VERSIONS: dict[str, int] = {
     "claims": 1,        # lumeval claims --format json
     "lot": 1,           # lumeval lot --format json / --json
     "validation": 1,    # lumeval inspect --validate-only --format json
+    "spectra": 1,       # lumeval convert ... out.json (also read back as an input format)
+    "mix": 1,           # lumeval mix --format json
+    "series": 1,        # lumeval series --format json
+    "trend": 1,         # lumeval history trend --format json
+    "history_list": 1,  # lumeval history list --format json
 }
 
 

@@ -1,10 +1,12 @@
 """lumeval's own JSON spectra format: read and write.
 
-Schema (version 1; documented for users in ``docs/input-files.md``)::
+Schema (version 1; documented for users in ``docs/input-files.md``; JSON Schema
+``lumeval/schemas/spectra.schema.json``)::
 
     {
-      "format": "lumeval-spectra",        # required, exactly this string
-      "version": 1,                        # required, integer 1
+      "format": "lumeval.spectra",        # required, exactly this string
+      "schema_version": 1,                 # required, integer 1
+      "lumeval_version": "0.1.0",          # written by lumeval; optional when reading
       "wavelengths_nm": [380, 381, ...],   # required, W finite numbers, one direction
       "spectra": [                         # required, at least one
         {"name": "LED A",                  # required, string
@@ -13,7 +15,9 @@ Schema (version 1; documented for users in ``docs/input-files.md``)::
       ]
     }
 
-Unknown keys are ignored. ``NaN`` and ``Infinity`` are refused. Numbers are written with
+The header is the one every JSON document lumeval writes starts with (:mod:`lumeval.schemas`).
+Files written before that header (``"format": "lumeval-spectra"``, ``"version": 1``) are still
+read. Unknown keys are ignored. ``NaN`` and ``Infinity`` are refused. Numbers are written with
 Python's shortest round-trip float repr, so writing and reading back is exact.
 """
 
@@ -28,8 +32,10 @@ import numpy as np
 from ..errors import InputError
 from .model import SpectrumSet
 
-FORMAT = "lumeval-spectra"
+FORMAT = "lumeval.spectra"
 VERSION = 1
+#: The format marker of files written before the common header (read, never written).
+LEGACY_FORMAT = "lumeval-spectra"
 MAX_JSON_BYTES = 64 * 1024 * 1024
 
 
@@ -100,14 +106,16 @@ def parse_json(raw: bytes, file: str) -> SpectrumSet:
     def bad(field: str, problem: str, fix: str) -> InputError:
         return InputError(problem, file=file, field=field, fix=fix)
 
-    if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+    if not isinstance(doc, dict) or doc.get("format") not in (FORMAT, LEGACY_FORMAT):
         raise bad(
             "format",
             f'not a lumeval spectra document (expected "format": "{FORMAT}")',
             "see docs/input-files.md for the JSON schema, or use CSV / IES TM-27 XML",
         )
-    if doc.get("version") != VERSION or isinstance(doc.get("version"), bool):
-        raise bad("version", f"unsupported version {doc.get('version')!r}", f"this lumeval reads version {VERSION}")
+    vkey = "schema_version" if doc["format"] == FORMAT else "version"
+    if doc.get(vkey) != VERSION or isinstance(doc.get(vkey), bool):
+        raise bad(vkey, f"unsupported {vkey.replace('_', ' ')} {doc.get(vkey)!r}",
+                  f"this lumeval reads {vkey.replace('_', ' ')} {VERSION}")
     wl = _numbers(doc.get("wavelengths_nm"), "wavelengths_nm", bad)
     if wl.size < 2:
         raise bad("wavelengths_nm", "needs at least two wavelengths", "export the full spectrum")
@@ -204,10 +212,12 @@ def to_json_bytes(spectra: SpectrumSet) -> bytes:
             "  {" + f'"name": {dump(spectra.names[i])},\n   "metadata": {dump(meta)},\n'
             f'   "values": {dump([float(v) for v in spectra.values[i]])}' + "}"
         )
+    from ..schemas import header
+
+    head = header("spectra")
     text = (
         "{\n"
-        f' "format": {dump(FORMAT)},\n'
-        f' "version": {VERSION},\n'
+        + "".join(f" {dump(k)}: {dump(v)},\n" for k, v in head.items()) +
         f' "wavelengths_nm": {dump([float(w) for w in spectra.wavelengths_nm])},\n'
         ' "spectra": [\n' + ",\n".join(items) + "\n ]\n}\n"
     )

@@ -2,7 +2,7 @@
 
 The numbers come from :mod:`lumeval.store.charts` (pure); this module reads the store, picks
 the baseline, and assembles a :class:`Trend` and its JSON document (``format`` =
-``"lumeval-trend"``, ``schema_version`` 1; keys never change meaning, new keys may be added)::
+``"lumeval.trend"``, ``schema_version`` 1, JSON Schema ``lumeval/schemas/trend.schema.json``; keys never change meaning, new keys may be added)::
 
     format, schema_version, lumeval_version, store, figure, label, unit, product, chart,
     centre_line, ucl, lcl, sigma, baseline {lots, count, rule}, s_chart {centre_line, ucl, lcl},
@@ -326,8 +326,8 @@ def _num(v):
 
 def trend_document(tr: Trend) -> dict:
     """The trend JSON document (see the module docstring)."""
-    from .. import __version__
     from ..render.tables import CAUTIONS
+    from ..schemas import header
 
     m = len(tr.points)
     main = tr.main
@@ -362,9 +362,7 @@ def trend_document(tr: Trend) -> dict:
     steady = ew.L * np.sqrt(ew.lam / (2.0 - ew.lam))
     sp = ew.sigma_point[np.isfinite(ew.sigma_point)]
     return {
-        "format": "lumeval-trend",
-        "schema_version": 1,
-        "lumeval_version": __version__,
+        **header("trend"),
         "store": tr.store,
         "figure": tr.figure,
         "label": tr.label,

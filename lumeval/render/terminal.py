@@ -15,7 +15,6 @@ import math
 import numpy as np
 
 from . import safe
-from .tables import CAUTIONS
 
 _PER_TABLE = 4
 _PER_HUE_TABLE = 2
@@ -73,34 +72,31 @@ def _rows(ev, idx):
             return f"OUTSIDE validity range (ref. {ref_T[i]:.0f} K)"
         return "within" if math.isfinite(float(ref_T[i])) else "n/a"
 
-    for group, figs in figures.by_group():
+    from .view import figure_columns
+
+    columns = figure_columns(ev, idx, hue_bins=True)  # the key figures, as every report shows them
+    for group, _figs in figures.by_group():
         title = figures.GROUPS[group]
         if group in ("colour rendering", "fidelity") and any(outside[i] for i in idx):
             # shown only when a spectrum of this table lies outside (|Duv| > 0.05)
             rows.append((title, "validity", [validity(i) for i in idx]))
-        shown = [f for f in figs if f.summary and not (f.when_defined and not np.isfinite(f.value(ev)[idx]).any())]
-        names = [f.name for f in shown]
+        shown = {c.name: c for c in columns if c.group == group}
         done: set[str] = set()
-        for f in shown:
-            if f.name in done:
+        for name, c in shown.items():
+            if name in done:
                 continue
-            pair = next((p for p in _JOINED if f.name == p[0] and p[1] in names), None)
+            pair = next((p for p in _JOINED if name == p[0] and p[1] in shown), None)
             if pair is not None:
-                a, b = figures.FIGURES[pair[0]], figures.FIGURES[pair[1]]
-                va, vb = a.value(ev), b.value(ev)
-                rows.append((title, f"{a.label}, {b.label}", [f"{a.format(va[i])}, {b.format(vb[i])}" for i in idx]))
+                a, b = shown[pair[0]], shown[pair[1]]
+                rows.append((title, f"{a.label}, {b.label}", [f"{x}, {y}" for x, y in zip(a.values, b.values)]))
                 done.update(pair)
                 continue
-            v = f.value(ev)
-            rows.append((title, f.row_label, [f.format(v[i]) for i in idx]))
-            done.add(f.name)
-        if group == "chromaticity" and hasattr(ev, "chromaticity_class"):
-            from ..criteria.regions import ansi_edition_name
-            from .words import ansi_text, sdcm_text
+            rows.append((title, c.row_label, list(c.values)))
+            done.add(name)
+        if group == "chromaticity":
+            from .view import classification_columns
 
-            cc = ev.chromaticity_class
-            rows.append((title, f"{ansi_edition_name(cc.ansi_edition)} (Δu′v′ out)", [ansi_text(cc, i) for i in idx]))
-            rows.append((title, "SDCM steps (nearest IEC centre)", [sdcm_text(cc, i) for i in idx]))
+            rows += [(title, heading, list(values)) for heading, values in classification_columns(ev, idx)]
         if group == "colour rendering":
             for lo, hi in ((1, 8), (10, 14)):
                 fs = [figures.FIGURES[f"R{k}"] for k in range(lo, hi + 1) if f"R{k}" in figures.FIGURES]
@@ -193,14 +189,15 @@ def inspect_renderables(ev, width: int | None = None):
     for start in range(0, 0 if compact else n, _PER_HUE_TABLE):
         idx = list(range(start, min(n, start + _PER_HUE_TABLE)))
         out.append(_hue_table(ev, idx))
-    notes = [(ev.spectra.names[i], w) for i in range(n) for w in ev.warnings[i]]
-    notes += [("all spectra", w) for w in ev.run_warnings]
-    if notes:
+    from .view import cautions, notes
+
+    note_list = notes(ev)  # the same notes and cautions as the HTML report
+    if note_list:
         out.append(Text("Notes on the data and results", style="bold"))
-        for name, w in notes:
-            out.append(Text(f"  ! {safe.clean(name)}: {safe.clean(w)}"))
+        for note in note_list:
+            out.append(Text(f"  ! {safe.clean(note.who)}: {safe.clean(note.message)}"))
     out.append(Text("Cautions", style="bold"))
-    for c in CAUTIONS:
+    for c in cautions():
         out.append(Text(f"  - {c}"))
     return out
 

@@ -144,6 +144,9 @@ def check_renderables(result) -> list:
         out.append(_cautions_text())
         return out
     n_clauses = len(result.results)
+    from .view import check_grid
+
+    words = check_grid(result)  # measured values and margins as the HTML report words them
     for i, name in enumerate(result.names):
         v = result.verdict(i)
         nfail = sum(1 for r in result.results if r.outcome[i] == "fail")
@@ -176,7 +179,7 @@ def check_renderables(result) -> list:
         t.add_column("margin", justify="right", ratio=2)
         t.add_column("result", no_wrap=True)
         notes = []
-        for r in result.results:
+        for k, r in enumerate(result.results):
             o = r.outcome[i]
             mark = ">>" if o != "pass" else ""
             style = "bold red" if o == "fail" else ("yellow" if o != "pass" else None)
@@ -185,10 +188,11 @@ def check_renderables(result) -> list:
                 req.append(f"\n{clean(r.limit_text)}", style="dim")
             if getattr(r, "note", ""):
                 req.append(f"\nnote: {clean(r.note)}", style="italic")
-            meas, res_cell = measured_text(r, i), Text(_WORD[o], style=_STYLE[o])
+            line = words[k][i]
+            meas, res_cell = line.measured, Text(_WORD[o], style=_STYLE[o])
             if r.uncertainty is not None:
                 meas, res_cell = _with_uncertainty(r, i, meas, res_cell)
-            t.add_row(mark, _text(r.clause_id), req, Text(meas), Text(margin_text(r, i)), res_cell, style=style)
+            t.add_row(mark, _text(r.clause_id), req, Text(meas), Text(line.margin), res_cell, style=style)
             if r.reason and r.reason[i]:
                 notes.append(f"{r.clause_id}: {r.reason[i]}")
         out.append(t)

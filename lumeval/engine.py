@@ -122,6 +122,18 @@ class Evaluation:
     def __len__(self) -> int:
         return cast("int", self.x.shape[0])
 
+    def __repr__(self) -> str:
+        """A few hundred characters at most: how many spectra, some names, key figures' ranges."""
+        from .render.view import evaluation_summary
+
+        return cast("str", evaluation_summary(self))
+
+    def _repr_html_(self) -> str:
+        """The key figures, notes and cautions as an HTML fragment (Jupyter)."""
+        from .render.html import evaluation_html
+
+        return cast("str", evaluation_html(self))
+
     @property
     def names(self) -> tuple[str, ...]:
         return self.spectra.names

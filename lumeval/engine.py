@@ -126,13 +126,13 @@ class Evaluation:
         """A few hundred characters at most: how many spectra, some names, key figures' ranges."""
         from .render.view import evaluation_summary
 
-        return cast("str", evaluation_summary(self))
+        return evaluation_summary(self)
 
     def _repr_html_(self) -> str:
         """The key figures, notes and cautions as an HTML fragment (Jupyter)."""
         from .render.html import evaluation_html
 
-        return cast("str", evaluation_html(self))
+        return evaluation_html(self)
 
     @property
     def names(self) -> tuple[str, ...]:

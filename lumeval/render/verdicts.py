@@ -188,11 +188,11 @@ def check_renderables(result) -> list:
                 req.append(f"\n{clean(r.limit_text)}", style="dim")
             if getattr(r, "note", ""):
                 req.append(f"\nnote: {clean(r.note)}", style="italic")
-            line = words[k][i]
-            meas, res_cell = line.measured, Text(_WORD[o], style=_STYLE[o])
+            said = words[k][i]
+            meas, res_cell = said.measured, Text(_WORD[o], style=_STYLE[o])
             if r.uncertainty is not None:
                 meas, res_cell = _with_uncertainty(r, i, meas, res_cell)
-            t.add_row(mark, _text(r.clause_id), req, Text(meas), Text(line.margin), res_cell, style=style)
+            t.add_row(mark, _text(r.clause_id), req, Text(meas), Text(said.margin), res_cell, style=style)
             if r.reason and r.reason[i]:
                 notes.append(f"{r.clause_id}: {r.reason[i]}")
         out.append(t)

@@ -343,13 +343,17 @@ def samples_csv(run, out=None) -> str | None:
 
 def lot_renderables(run) -> list:
     """The rich renderables of the terminal lot summary, in order."""
-    from rich import box
-    from rich.table import Table
+    out: list[Any] = []
+    for part in (_lot_head, _lot_requirements, _lot_consistency, _lot_figures, _lot_outliers, _lot_inputs_left_out,
+                 _lot_closing):
+        out += part(run)
+    return out
+
+
+def _lot_head(run) -> list:
+    """How many samples were judged from how many files, and the criteria file."""
     from rich.text import Text
 
-    from .safe import text as safe_text
-
-    st = run.stats
     out: list[Any] = []
     c = _counts(run)
     head = Text()
@@ -363,8 +367,17 @@ def lot_renderables(run) -> list:
     if run.criteria_file:
         ident = ", ".join(f"{k}: {v}" for k, v in run.identification.items())
         out.append(_text(f"Criteria: {run.criteria_file}" + (f" ({ident})" if ident else "")))
+    return out
 
-    # verdict
+
+def _lot_requirements(run) -> list:
+    """Each requirement with its result over the lot, the yield and the decision rule."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    st = run.stats
+    out: list[Any] = []
     if run.check is not None or run.lot_results:
         t = Table(title="Requirements", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
         t.add_column("requirement", ratio=1)
@@ -412,8 +425,16 @@ def lot_renderables(run) -> list:
                 f"{unc.get('rule_text', '')} Per-sample clauses judged with {mc.get('draws', '?')} Monte Carlo draws per "
                 f"sample (JCGM 101:2008, seed {mc.get('seed', '?')}), instrument model: {unc.get('instrument', {}).get('source', '')}; "
                 "lot clauses use the measured values.", style="dim"))
+    return out
 
-    # chromaticity consistency
+
+def _lot_consistency(run) -> list:
+    """The lot's chromaticity consistency: centroid, spreads, steps."""
+    from rich import box
+    from rich.table import Table
+
+    st = run.stats
+    out: list[Any] = []
     t = Table(title="Chromaticity consistency (CIE 1931 2°; Δu'v' in CIE 1976 UCS)", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
     t.add_column("", style="bold", no_wrap=True)
     t.add_column("value")
@@ -430,8 +451,16 @@ def lot_renderables(run) -> list:
         t.add_row("Δu'v' from nominal: p95 / max", f"{_fmt(_pct(st.d_upvp_nominal, 95), '.5f')} / {_fmt(_max(st.d_upvp_nominal), '.5f')}")
         t.add_row("steps from nominal: p95 / max", f"{_fmt(_pct(st.steps_nominal, 95), '.2f')} / {_fmt(_max(st.steps_nominal), '.2f')}")
     out.append(t)
+    return out
 
-    # figure statistics
+
+def _lot_figures(run) -> list:
+    """Each key figure's lot statistics in the registry's formats."""
+    from rich import box
+    from rich.table import Table
+
+    st = run.stats
+    out: list[Any] = []
     t = Table(
         title=f"Figures (std with ddof = {st.ddof}; percentiles: numpy '{st.percentile_method}')",
         title_justify="left",
@@ -455,8 +484,17 @@ def lot_renderables(run) -> list:
         row = [fig.heading, v(f.mean), v(f.std, 1), v(f.min), v(f.p05), v(f.p95), v(f.max)]
         t.add_row(*(row + ([str(f.undefined)] if any_undef else [])))
     out.append(t)
+    return out
 
-    # outliers
+
+def _lot_outliers(run) -> list:
+    """The outliers, named, with the rule that flagged them."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    st = run.stats
+    out: list[Any] = []
     idx = np.flatnonzero(st.outlier)
     if idx.size:
         t = Table(title=f"Outliers: {idx.size} sample(s) flagged (not removed from any statistic)", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
@@ -470,8 +508,18 @@ def lot_renderables(run) -> list:
     else:
         out.append(Text("Outliers: none flagged."))
     out.append(Text(f"Outlier rule: {st.outlier_rule}.", style="dim"))
+    return out
 
-    # unreadable
+
+def _lot_inputs_left_out(run) -> list:
+    """Inputs that could not be read, and entries skipped on purpose."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    from .safe import text as safe_text
+
+    out: list[Any] = []
     if run.unreadable:
         t = Table(title=f"Could not be read: {len(run.unreadable)}", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
         t.add_column("reason", overflow="fold")  # long paths are folded, never cut
@@ -493,8 +541,15 @@ def lot_renderables(run) -> list:
         out.append(t)
         if len(skipped) > _SHOW_MAX:
             out.append(Text(f"… and {len(skipped) - _SHOW_MAX} more (see the lot JSON)."))
+    return out
 
-    # warnings summary
+
+def _lot_closing(run) -> list:
+    """Warnings, notes, cautions and the verdict line."""
+    from rich.text import Text
+
+    st = run.stats
+    out: list[Any] = []
     nw = sum(1 for w in run.warnings if w)
     if nw:
         out.append(Text(f"{nw} sample(s) carry warnings (interpolation, validity limits...): see the per-sample CSV or JSON.", style="yellow"))
@@ -502,7 +557,9 @@ def lot_renderables(run) -> list:
         out.append(Text(f"Note: {clean(note)}.", style="dim"))
     for w in getattr(run, "run_warnings", ()):
         out.append(Text(f"Note: {clean(w)}", style="yellow"))
-    for cau in CAUTIONS:
+    from .view import cautions
+
+    for cau in cautions():  # the same cautions as every report (lumeval.render.view)
         out.append(Text(f"Caution: {cau}", style="dim"))
     out.append(Text(_verdict_line(run), style="bold"))
     return out

@@ -335,7 +335,7 @@ def chromaticity_figure(
     ``samples-fail``, ``samples-unjudged``, ``centroid``, ``spread``; in the xy overview
     ``spectrum-locus``, ``overview-planckian-locus`` and ``overview-window``.
     """
-    from matplotlib.patches import Ellipse, Polygon, Rectangle
+    from matplotlib.patches import Rectangle
 
     from ..metrics.colorimetry import planckian_uv, xy_from_uv
 
@@ -357,18 +357,7 @@ def chromaticity_figure(
     for k, r in enumerate(regions or ()):
         regs.append((_lit(r.get("label", f"region {k + 1}")), tf(region_to_uv(r["vertices"], r.get("space", "uv")))))
 
-    pts = [P[fin]] + [rv for _, rv in regs]
-    allp = np.concatenate(pts) if sum(p.shape[0] for p in pts) else np.empty((0, 2))
-    if allp.shape[0] == 0:
-        allp = tf(planckian_uv(np.array([2700.0, 6500.0])))
-    lo, hi = allp.min(axis=0), allp.max(axis=0)
-    scale = 1.0 if diagram == "uv" else 1.6  # x, y spread about 1.6 times u, v near the locus
-    span = max(float(np.max(hi - lo)), 0.012 * scale)
-    pad = 0.25 * span + 0.004 * scale
-    cu, cv = (lo + hi) / 2
-    half = span / 2 + pad
-    xlim = (cu - half * 1.45, cu + half * 1.45)
-    ylim = (cv - half, cv + half)
+    xlim, ylim, scale = _chromaticity_window(P[fin], [rv for _, rv in regs], tf, diagram)
 
     T_line = np.geomspace(1000.0, 25000.0, 600)  # the CCT range lumeval reports
     locus = tf(planckian_uv(T_line))
@@ -379,86 +368,15 @@ def chromaticity_figure(
         ax.set_aspect("equal", adjustable="box")
         ax.plot(locus[:, 0], locus[:, 1], color=PALETTE["black"], lw=1.4, gid="planckian-locus", label="Planckian locus")
 
-        # Lines of constant Duv (Duv is a distance in (u, v): the step follows the uv view)
-        step = _nice_step((ylim[1] - ylim[0]) / scale)
-        duv_labelled = False
-        p_l, n_l = locus_normal_uv(T_line)
-        for d in np.arange(-0.05, 0.0501, step):
-            d = round(float(d), 4)  # type: ignore[arg-type]
-            if d == 0:
-                continue
-            line = tf(p_l + d * n_l)
-            ax.plot(line[:, 0], line[:, 1], color=PALETTE["grey"], lw=0.6, ls=(0, (4, 3)), gid=f"duv-{d:+.3f}",
-                    label=None if duv_labelled else f"constant Duv (step {step:g})")
-            duv_labelled = True
-            inside = (line[:, 0] > xlim[0]) & (line[:, 0] < xlim[1]) & (line[:, 1] < ylim[1]) & (
-                line[:, 1] > ylim[0] + 0.1 * (ylim[1] - ylim[0])
-            )
-            if inside.any():
-                j = np.flatnonzero(inside)[np.argmax(line[inside, 0])]
-                ax.annotate(
-                    f"Duv {d:+.3f}", (line[j, 0], line[j, 1]), fontsize=6.5, color="#555555",
-                    xytext=(-2, 2), textcoords="offset points", ha="right", va="bottom",
-                    annotation_clip=True,
-                )
+        _draw_duv_lines(ax, tf, T_line, xlim, ylim, scale)
+        _draw_isotemperature_lines(ax, tf, xlim, ylim)
+        _draw_regions(ax, regs)
 
-        # Isotemperature lines
-        T_iso = np.asarray(ISOTEMPERATURES_K, dtype=float)
-        p_i, n_i = locus_normal_uv(T_iso)
-        ds = np.linspace(-0.05, 0.05, 41)
-        vt = ylim[0] + 0.03 * (ylim[1] - ylim[0])
-        for T, p, nn in zip(T_iso, p_i, n_i):
-            seg = tf(p[None, :] + ds[:, None] * nn[None, :])
-            ax.plot(seg[:, 0], seg[:, 1], color=PALETTE["grey"], lw=0.8, gid=f"isotemperature-{int(T)}",
-                    label="isotemperature line" if T_iso[0] == T else None)
-            # label near the bottom of the view, where the (straight) line crosses it
-            a, b = seg[0], seg[-1]
-            if b[1] != a[1]:
-                t = (vt - a[1]) / (b[1] - a[1])
-                q = a + t * (b - a)
-                if 0.0 <= t <= 1.0 and xlim[0] < q[0] < xlim[1]:
-                    ax.text(q[0], q[1], f"{int(T)} K", fontsize=6.5, ha="center", va="bottom", color="#333333",
-                            bbox={"fc": "white", "ec": "none", "pad": 0.5}, clip_on=True)
-
-        # Regions
-        hatches = ("////", "\\\\\\\\", "xxxx", "....")
-        for k, (lab, rv) in enumerate(regs):
-            poly = Polygon(rv, closed=True, fill=False, ec=PALETTE["blue"], lw=1.4, ls=(0, (6, 2)),
-                           hatch=hatches[k % len(hatches)], gid=f"region-{k}", label=f"criteria region: {lab}")
-            poly.set_alpha(0.9)
-            ax.add_patch(poly)
-
-        # Samples
-        f = np.array([None if x is None else bool(x) for x in failed], dtype=object)
-        groups = (
-            ("samples-pass", f == False, {"marker": "o", "mfc": PALETTE["sky"], "mec": PALETTE["black"]}, "sample: passed"),  # noqa: E712
-            ("samples-fail", f == True, {"marker": "X", "mfc": PALETTE["vermillion"], "mec": PALETTE["black"], "ms": 8}, "sample: failed"),  # noqa: E712
-            ("samples-unjudged", np.array([x is None for x in f]), {"marker": "o", "mfc": "white", "mec": PALETTE["black"]}, "sample: not judged"),
-        )
-        ms = 6.5 if n <= 20 else 4.5
-        for gid, mask, style, lab in groups:
-            m = mask.astype(bool) & fin
-            if m.any():
-                style = {"ms": ms, "mew": 0.8, "ls": "none", **style}
-                ax.plot(pu[m], pv[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5,
-                        rasterized=bool(fin.sum() > RASTER_POINTS), **style)
-        if labels is not None and 1 <= n <= 6:
-            _label_points(ax, pu, pv, fin, labels, xlim, ylim)
-
+        _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim)
         if show_centroid is None:
             show_centroid = int(fin.sum()) >= 2
         if show_centroid and fin.any():
-            c = np.array([pu[fin].mean(), pv[fin].mean()])
-            ax.plot([c[0]], [c[1]], marker="P", ms=10, mfc="white", mec=PALETTE["black"], mew=1.5, ls="none",
-                    gid="centroid", zorder=6, label=f"centroid (mean {'u, v' if diagram == 'uv' else 'x, y'})")
-            if fin.sum() >= 3:
-                cov = np.cov(np.stack([pu[fin], pv[fin]]))
-                w, vec = np.linalg.eigh(cov)
-                w = np.clip(w, 0, None)
-                ang = np.degrees(np.arctan2(vec[1, 1], vec[0, 1]))
-                ell = Ellipse(c, 2 * 2 * np.sqrt(w[1]), 2 * 2 * np.sqrt(w[0]), angle=ang, fill=False,  # type: ignore[arg-type]
-                              ec=PALETTE["orange"], lw=1.3, ls="-", gid="spread", label="spread (2σ ellipse)")
-                ax.add_patch(ell)
+            _draw_centroid(ax, pu[fin], pv[fin], diagram)
 
         ax.set_xlim(*xlim)
         ax.set_ylim(*ylim)
@@ -474,6 +392,119 @@ def chromaticity_figure(
         if title:
             ax.set_title(title, loc="left")
     return fig
+
+
+def _chromaticity_window(points, regions, tf, diagram: str):
+    """(xlim, ylim, scale) of the chromaticity view: every sample and region with a margin,
+    at least 0.012 wide in (u, v) (x, y spread about 1.6 times u, v near the locus)."""
+    from ..metrics.colorimetry import planckian_uv
+
+    pts = [points] + list(regions)
+    allp = np.concatenate(pts) if sum(p.shape[0] for p in pts) else np.empty((0, 2))
+    if allp.shape[0] == 0:
+        allp = tf(planckian_uv(np.array([2700.0, 6500.0])))
+    lo, hi = allp.min(axis=0), allp.max(axis=0)
+    scale = 1.0 if diagram == "uv" else 1.6
+    span = max(float(np.max(hi - lo)), 0.012 * scale)
+    pad = 0.25 * span + 0.004 * scale
+    cu, cv = (lo + hi) / 2
+    half = span / 2 + pad
+    return (cu - half * 1.45, cu + half * 1.45), (cv - half, cv + half), scale
+
+
+def _draw_duv_lines(ax, tf, T_line, xlim, ylim, scale) -> None:
+    """Lines of constant Duv (Duv is a distance in (u, v): the step follows the uv view)."""
+    step = _nice_step((ylim[1] - ylim[0]) / scale)
+    duv_labelled = False
+    p_l, n_l = locus_normal_uv(T_line)
+    for d in np.arange(-0.05, 0.0501, step):
+        d = round(float(d), 4)  # type: ignore[arg-type]
+        if d == 0:
+            continue
+        line = tf(p_l + d * n_l)
+        ax.plot(line[:, 0], line[:, 1], color=PALETTE["grey"], lw=0.6, ls=(0, (4, 3)), gid=f"duv-{d:+.3f}",
+                label=None if duv_labelled else f"constant Duv (step {step:g})")
+        duv_labelled = True
+        inside = (line[:, 0] > xlim[0]) & (line[:, 0] < xlim[1]) & (line[:, 1] < ylim[1]) & (
+            line[:, 1] > ylim[0] + 0.1 * (ylim[1] - ylim[0])
+        )
+        if inside.any():
+            j = np.flatnonzero(inside)[np.argmax(line[inside, 0])]
+            ax.annotate(
+                f"Duv {d:+.3f}", (line[j, 0], line[j, 1]), fontsize=6.5, color="#555555",
+                xytext=(-2, 2), textcoords="offset points", ha="right", va="bottom",
+                annotation_clip=True,
+            )
+
+
+def _draw_isotemperature_lines(ax, tf, xlim, ylim) -> None:
+    """Isotemperature lines (Duv −0.05..+0.05) at round temperatures, labelled in K."""
+    T_iso = np.asarray(ISOTEMPERATURES_K, dtype=float)
+    p_i, n_i = locus_normal_uv(T_iso)
+    ds = np.linspace(-0.05, 0.05, 41)
+    vt = ylim[0] + 0.03 * (ylim[1] - ylim[0])
+    for T, p, nn in zip(T_iso, p_i, n_i):
+        seg = tf(p[None, :] + ds[:, None] * nn[None, :])
+        ax.plot(seg[:, 0], seg[:, 1], color=PALETTE["grey"], lw=0.8, gid=f"isotemperature-{int(T)}",
+                label="isotemperature line" if T_iso[0] == T else None)
+        # label near the bottom of the view, where the (straight) line crosses it
+        a, b = seg[0], seg[-1]
+        if b[1] != a[1]:
+            t = (vt - a[1]) / (b[1] - a[1])
+            q = a + t * (b - a)
+            if 0.0 <= t <= 1.0 and xlim[0] < q[0] < xlim[1]:
+                ax.text(q[0], q[1], f"{int(T)} K", fontsize=6.5, ha="center", va="bottom", color="#333333",
+                        bbox={"fc": "white", "ec": "none", "pad": 0.5}, clip_on=True)
+
+
+def _draw_regions(ax, regs) -> None:
+    """The criteria regions: dashed, hatched polygons (one hatch per region)."""
+    from matplotlib.patches import Polygon
+
+    hatches = ("////", "\\\\\\\\", "xxxx", "....")
+    for k, (lab, rv) in enumerate(regs):
+        poly = Polygon(rv, closed=True, fill=False, ec=PALETTE["blue"], lw=1.4, ls=(0, (6, 2)),
+                       hatch=hatches[k % len(hatches)], gid=f"region-{k}", label=f"criteria region: {lab}")
+        poly.set_alpha(0.9)
+        ax.add_patch(poly)
+
+
+def _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim) -> None:
+    """The samples: filled circle passed, ✗ failed, hollow circle not judged; labelled when few."""
+    n = pu.size
+    f = np.array([None if x is None else bool(x) for x in failed], dtype=object)
+    groups = (
+        ("samples-pass", f == False, {"marker": "o", "mfc": PALETTE["sky"], "mec": PALETTE["black"]}, "sample: passed"),  # noqa: E712
+        ("samples-fail", f == True, {"marker": "X", "mfc": PALETTE["vermillion"], "mec": PALETTE["black"], "ms": 8}, "sample: failed"),  # noqa: E712
+        ("samples-unjudged", np.array([x is None for x in f]), {"marker": "o", "mfc": "white", "mec": PALETTE["black"]}, "sample: not judged"),
+    )
+    ms = 6.5 if n <= 20 else 4.5
+    for gid, mask, style, lab in groups:
+        m = mask.astype(bool) & fin
+        if m.any():
+            style = {"ms": ms, "mew": 0.8, "ls": "none", **style}
+            ax.plot(pu[m], pv[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5,
+                    rasterized=bool(fin.sum() > RASTER_POINTS), **style)
+    if labels is not None and 1 <= n <= 6:
+        _label_points(ax, pu, pv, fin, labels, xlim, ylim)
+
+
+def _draw_centroid(ax, pu, pv, diagram: str) -> None:
+    """The centroid (mean of the plotted coordinates) and, for 3 or more samples, the spread:
+    the 2σ ellipse of their sample covariance."""
+    from matplotlib.patches import Ellipse
+
+    c = np.array([pu.mean(), pv.mean()])
+    ax.plot([c[0]], [c[1]], marker="P", ms=10, mfc="white", mec=PALETTE["black"], mew=1.5, ls="none",
+            gid="centroid", zorder=6, label=f"centroid (mean {'u, v' if diagram == 'uv' else 'x, y'})")
+    if pu.size >= 3:
+        cov = np.cov(np.stack([pu, pv]))
+        w, vec = np.linalg.eigh(cov)
+        w = np.clip(w, 0, None)
+        ang = np.degrees(np.arctan2(vec[1, 1], vec[0, 1]))
+        ell = Ellipse(c, 2 * 2 * np.sqrt(w[1]), 2 * 2 * np.sqrt(w[0]), angle=ang, fill=False,  # type: ignore[arg-type]
+                      ec=PALETTE["orange"], lw=1.3, ls="-", gid="spread", label="spread (2σ ellipse)")
+        ax.add_patch(ell)
 
 
 def spectrum_locus_xy() -> np.ndarray:

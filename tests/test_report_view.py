@@ -196,3 +196,33 @@ def test_repr_html_is_a_fragment_with_the_key_figures(ev):
     assert "IEC 62471" in frag
     hostile = _renamed(ev, HOSTILE[:3])._repr_html_()
     assert "<script>" not in hostile and "<img" not in hostile and "{{ 7*7 }}" in hostile
+
+
+def test_mix_page_is_a_template_and_shows_hostile_channel_names_literally(tmp_path, capsys):
+    """lumeval mix --html: channel names come from a file's column headers (untrusted)."""
+    import html5lib
+
+    from lumeval.cli import main
+
+    wl = np.arange(380.0, 781.0, 1.0)
+
+    def g(p, w):
+        return np.exp(-0.5 * ((wl - p) / w) ** 2)
+
+    warm, cool = 0.35 * g(450, 10) + g(600, 45) + 0.3 * g(650, 25), 2.0 * g(452, 10) + g(560, 50)
+    names = ("<script>alert(1)</script>", "{{ 7*7 }}")
+    lines = ["wavelength_nm," + ",".join(names)] + [f"{w:g},{a:.6f},{b:.6f}" for w, a, b in zip(wl, warm, cool)]
+    chans = tmp_path / "channels.csv"
+    chans.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    out = tmp_path / "mix.html"
+    with pytest.raises(SystemExit) as exc:
+        main(["mix", str(chans), "--cct", "2800:4000:400", "--html", str(out)])
+    capsys.readouterr()
+    assert exc.value.code == 0
+    page = out.read_text(encoding="utf-8")
+    doc = html5lib.HTMLParser(strict=True, namespaceHTMLElements=False).parse(page)
+    assert doc.findall(".//script") == []
+    text = "".join(doc.find("body").itertext())
+    assert "channels <script>alert(1)</script>, {{ 7*7 }}" in text
+    assert "w {{ 7*7 }}" in [th.text for th in doc.findall(".//section[@id='settings']//th")]
+    assert 'data-figure="trajectory"' in page and "IEC 62471" in text

@@ -12,15 +12,18 @@ carried by marker shape and line style as well as colour, CIE 1960 (u, v) diagra
 
 The report: verdict over the range first (one row per clause, worst setting named), then the
 figures at each setting, the pictures, the notes, provenance and the cautions. Text from files
-is escaped. Nothing is computed here but the drawing.
+is escaped (the page is a view-model, :class:`TunableView`, laid out by the Jinja2 template
+``templates/tunable.html.j2`` with autoescaping). Nothing is computed here but the drawing.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
+from .report_view import FigureView, ProvenanceView
 from .tunable import (
     NOT_REACHABLE,
     _margin,
@@ -31,6 +34,7 @@ from .tunable import (
     ansi_category,
     headline,
 )
+from .view import Cell, Row, Table, cells, plain_number
 
 #: The panels of the figures-versus-setting chart: (figure, axis label).
 PANELS = (("Ra", "Ra (CIE 13.3)"), ("R9", "R9 (CIE 13.3)"), ("Rf", "Rf (TM-30 / CIE 224)"), ("Rg", "Rg (TM-30)"),
@@ -156,110 +160,106 @@ def figures_versus_setting(report, *, title: str | None = None):
     return fig
 
 
-def render_tunable_html(report, *, command: str | None = None, generated_at=None) -> str:
-    """The report as one self-contained HTML document."""
-    from .html import _CSS, _badge, _e, _num, _table, inline_svg
-    from .plots import figure_svg
-    from .provenance import collect_provenance
-    from .tables import CAUTIONS
+_RANGE_WORDS = {
+    "pass": "Every requirement is met over its range.",
+    "fail": "At least one requirement is not met over its range.",
+    "not judged": "No requirement fails, but at least one could not be judged over its range (a setting in it "
+                  "is not reachable or there is none).",
+    "indeterminate": "No requirement fails, but at least one cannot be decided.",
+    "not valid": "At least one requirement is judged on a figure outside its validity range (not a pass).",
+}
 
-    r = report.result
-    labels, avail, reasons = _per_setting(report)
-    check = report.check
-    n = len(r)
-    if report.kind == "mix":
-        title = f"Channel mix: {len(r.channels)} channels, {n} setpoints"
-        sub = "channels " + ", ".join(r.channel_names)
-    else:
-        title = f"Measured series: {n} settings"
-        sub = f"settings from {r.setting_source}; Δu′v′ from {r.reference}"
-    ev = r.evaluation
-    prov = collect_provenance(list(report.inputs), methods=getattr(ev, "methods", None) or None, generated_at=generated_at)
-    body = [f"<header><h1>{_e(title)}</h1><p class=\"sub\">{_e(sub)} · generated {_e(prov.generated_at)} · lumeval "
-            f"{_e(dict(prov.versions).get('lumeval', '?'))}</p></header>"]
+_MIX_CAUTION = ("A channel mix is a model (linear in radiant power): thermal droop and current-dependent spectra are "
+                "not modelled; confirm setpoints by measurement.")
 
-    body.append('<section id="verdict"><h2>Verdict over the range</h2>')
-    if check is None:
-        body.append('<div class="summary not-judged"><p class="big">' + _badge("not judged")
-                    + " No acceptance criteria were given: figures only.</p></div>")
-    else:
-        overall = check.overall
-        words = {"pass": "Every requirement is met over its range.", "fail": "At least one requirement is not met over its range.",
-                 "not judged": "No requirement fails, but at least one could not be judged over its range (a setting in it "
-                 "is not reachable or there is none).",
-                 "indeterminate": "No requirement fails, but at least one cannot be decided.",
-                 "not valid": "At least one requirement is judged on a figure outside its validity range (not a pass)."
-                 }.get(overall, overall)
-        bits = [f'criteria file <span class="mono">{_e(check.criteria_file)}</span>']
-        bits += [f"{_e(k)}: {_e(v)}" for k, v in check.identification.items()]
-        body.append('<p class="sub">' + " · ".join(bits) + "</p>")
-        body.append(f'<div class="summary {overall.replace(" ", "-")}"><p class="big">{_badge(overall)} {_e(words)}</p></div>')
-        rows, classes = [], []
-        for rr in check.results:
-            res = rr.result
-            where = ("every evaluated setting" if rr.over is None and res.kind not in ("series_shift", "track_locus")
-                     else ("every setting" if rr.over is None else f"{rr.over[0]:g}–{rr.over[1]:g} {check.unit}".strip()))
-            w = rr.worst
-            rows.append([_e(f"{res.clause_id}: {res.label}"), _e(where), _e(res.limit_text), _badge(rr.range_outcome),
-                         _e(check.labels[w]) if w is not None else "—",
-                         _e(_value(res, w)) if w is not None else "—",
-                         _e(_margin(res, w)) if w is not None else "—"])
-            classes.append("fail" if rr.range_outcome == "fail" else "")
-        body.append(_table(["Requirement", "Applies at", "Limit", "Verdict over the range", "Worst setting", "Worst value",
-                            "Margin"], rows, numeric=[False, False, False, False, False, True, True], row_classes=classes))
-        for rr in check.results:
-            if rr.range_reason:
-                body.append(f'<p class="sub">{_e(rr.result.clause_id)}: not judged over the range: {_e(rr.range_reason)}</p>')
-        for note in check.notes:
-            body.append(f'<p class="sub">{_e(note)}</p>')
-    body.append("</section>")
 
-    # ---- per setting
-    body.append('<section id="settings"><h2>Figures at each setting</h2>')
-    head = ["Setting"]
-    if report.kind == "mix":
-        head += [f"w {c}" for c in r.channel_names]
-    else:
-        head += ["Spectrum", "Δu′v′"]
+@dataclass(frozen=True)
+class TunableView:
+    """Everything the mix/series page shows, in words (laid out by ``templates/tunable.html.j2``)."""
+
+    title: str
+    subtitle: tuple[str, ...]
+    judged: bool
+    criteria_file: str
+    identification: tuple[tuple[str, str], ...]
+    overall: str
+    summary: str
+    clauses: Table | None
+    range_notes: tuple[str, ...]
+    settings: Table
+    settings_note: str
+    unreachable: tuple[str, str] | None
+    pictures: tuple[FigureView, ...]
+    method: str
+    notes: tuple[str, ...]
+    provenance: ProvenanceView
+    cautions: tuple[str, ...]
+
+
+def _clauses_table(check) -> Table:
+    """One row per clause: where it applies, its limit, the verdict over the range, the worst setting."""
+    rows = []
+    for rr in check.results:
+        res = rr.result
+        where = ("every evaluated setting" if rr.over is None and res.kind not in ("series_shift", "track_locus")
+                 else ("every setting" if rr.over is None else f"{rr.over[0]:g}–{rr.over[1]:g} {check.unit}".strip()))
+        w = rr.worst
+        worst = (check.labels[w], _value(res, w), _margin(res, w)) if w is not None else ("—", "—", "—")
+        rows.append(Row(cells(f"{res.clause_id}: {res.label}", where, res.limit_text) + (Cell("", outcome=rr.range_outcome),)
+                        + cells(*worst), rr.range_outcome == "fail"))
+    return Table(("Requirement", "Applies at", "Limit", "Verdict over the range", "Worst setting", "Worst value", "Margin"),
+                 tuple(rows), (False, False, False, False, False, True, True))
+
+
+def _settings_table(report, labels, avail) -> Table:
+    """The figures at each setting (a mix: the channel weights too), with each clause's verdict."""
+    r, check = report.result, report.check
+    mix = report.kind == "mix"
+    head = ["Setting"] + ([f"w {c}" for c in r.channel_names] if mix else ["Spectrum", "Δu′v′"])
     head += [lab for _, lab, _ in headline()] + ["ANSI category"]
     if check is not None:
         head += [rr.result.clause_id for rr in check.results] + ["Verdict"]
     cats = ansi_category(np.stack([r.figure("u_prime"), r.figure("v_prime")], axis=-1))
     figs = {name: r.figure(name) for name, _, _ in headline()}
-    rows, classes = [], []
-    for i in range(n):
-        row = [_e(labels[i])]
-        if report.kind == "mix":
-            row += [_num(w, ".4f") for w in r.weights[i]]
+    rows = []
+    for i in range(len(r)):
+        row = [Cell(labels[i])]
+        if mix:
+            row += [Cell(plain_number(w, ".4f")) for w in r.weights[i]]
         else:
-            row += [f'<span class="mono">{_e(_short(ev.spectra.sources[i]))}</span>', _num(r.delta_upvp[i], ".4f")]
+            row += [Cell(_short(r.evaluation.spectra.sources[i]), mono=True), Cell(plain_number(r.delta_upvp[i], ".4f"))]
         if avail[i]:
-            row += [_num(figs[name][i], spec) for name, _, spec in headline()] + [_e(cats[i] or "—")]
+            row += [Cell(plain_number(figs[name][i], spec)) for name, _, spec in headline()] + [Cell(cats[i] or "—")]
         else:
-            row += [f"<b>{_e(NOT_REACHABLE)}</b>"] + [""] * len(headline())
+            row += [Cell(NOT_REACHABLE, strong=True)] + [Cell()] * len(headline())
         if check is not None:
-            row += [_badge(rr.outcome[i]) if rr.outcome[i] != "n/a" else "·" for rr in check.results]
+            row += [Cell("", outcome=rr.outcome[i]) if rr.outcome[i] != "n/a" else Cell("·") for rr in check.results]
             v = check.verdict(i)
-            row.append(_badge(v) if v != "n/a" else "·")
-        rows.append(row)
-        classes.append("fail" if check is not None and check.verdict(i) == "fail" else "")
-    k0 = 1 + (len(r.channel_names) if report.kind == "mix" else 2)
-    numeric = [False] + ([True] * len(r.channel_names) if report.kind == "mix" else [False, True]) + [True] * len(headline())
-    numeric += [False] * (len(head) - len(numeric))
-    del k0
-    body.append(_table(head, rows, numeric=numeric, row_classes=classes, cls="dense"))
-    body.append('<p class="sub">Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. Duv: ANSI C78.377 sign, '
-                "computed by Ohno (2014). ANSI category: the ANSI C78.377-2017 quadrangle the chromaticity lies in. "
-                + ("Weights: radiant-power fraction of each channel's full-drive output, the largest 1. " if report.kind == "mix" else "")
-                + "Every figure of every setting is in the JSON and CSV outputs.</p>")
-    unreach = [i for i in range(n) if not avail[i]]
-    if unreach:
-        body.append(f'<p class="sub"><b>{len(unreach)} setpoint(s) not reachable</b> '
-                    f"({_e(', '.join(labels[i] for i in unreach))}): {_e(reasons[unreach[0]].removeprefix('not reachable: '))}</p>")
-    body.append("</section>")
+            row.append(Cell("", outcome=v) if v != "n/a" else Cell("·"))
+        rows.append(Row(tuple(row), check is not None and check.verdict(i) == "fail"))
+    numeric = (False,) + ((True,) * len(r.channel_names) if mix else (False, True)) + (True,) * len(headline())
+    return Table(tuple(head), tuple(rows), numeric, css="dense")
 
-    # ---- pictures
-    body.append('<section id="pictures"><h2>Pictures</h2>')
+
+def tunable_view(report, *, command: str | None = None, generated_at=None) -> TunableView:
+    """The mix or series report as a :class:`TunableView` (the figures drawn and inlined here)."""
+    from .html import inline_svg
+    from .plots import figure_svg
+    from .provenance import collect_provenance
+    from .report_view import provenance_view
+    from .view import cautions
+
+    r, check = report.result, report.check
+    labels, avail, reasons = _per_setting(report)
+    n = len(r)
+    mix = report.kind == "mix"
+    if mix:
+        title, sub = f"Channel mix: {len(r.channels)} channels, {n} setpoints", "channels " + ", ".join(r.channel_names)
+    else:
+        title, sub = f"Measured series: {n} settings", f"settings from {r.setting_source}; Δu′v′ from {r.reference}"
+    ev = r.evaluation
+    prov = collect_provenance(list(report.inputs), methods=getattr(ev, "methods", None) or None, generated_at=generated_at)
+    pictures = []
     for k, (key, fig, cap) in enumerate((
         ("trajectory", trajectory_figure(report),
          "The chromaticity at each setting, joined in setting order, on the CIE 1960 (u, v) diagram with the Planckian "
@@ -268,35 +268,40 @@ def render_tunable_html(report, *, command: str | None = None, generated_at=None
         ("versus-setting", figures_versus_setting(report),
          "Ra, R9, Rf, Rg, Duv and LER against the setting; dashed lines: a clause's limits over its range."),
     )):
-        svg = inline_svg(figure_svg(fig), f"t{k}", key)
-        body.append(f'<figure id="fig-{key}" data-figure="{key}">{svg}<figcaption>{_e(cap)}</figcaption></figure>')
-    body.append("</section>")
+        pictures.append(FigureView(key, "", cap, inline_svg(figure_svg(fig), f"t{k}", key)))
+    unreach = [i for i in range(n) if not avail[i]]
+    return TunableView(
+        title=title, subtitle=(sub, f"generated {prov.generated_at}", f"lumeval {dict(prov.versions).get('lumeval', '?')}"),
+        judged=check is not None,
+        criteria_file="" if check is None else str(check.criteria_file),
+        identification=() if check is None else tuple((str(k), str(v)) for k, v in check.identification.items()),
+        overall="not judged" if check is None else check.overall,
+        summary="" if check is None else _RANGE_WORDS.get(check.overall, check.overall),
+        clauses=None if check is None else _clauses_table(check),
+        range_notes=() if check is None else tuple(
+            [f"{rr.result.clause_id}: not judged over the range: {rr.range_reason}" for rr in check.results if rr.range_reason]
+            + [str(x) for x in check.notes]),
+        settings=_settings_table(report, labels, avail),
+        settings_note="Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. Duv: ANSI C78.377 sign, computed by "
+                      "Ohno (2014). ANSI category: the ANSI C78.377-2017 quadrangle the chromaticity lies in. "
+                      + ("Weights: radiant-power fraction of each channel's full-drive output, the largest 1. " if mix else "")
+                      + "Every figure of every setting is in the JSON and CSV outputs.",
+        unreachable=(f"{len(unreach)} setpoint(s) not reachable",
+                     f"({', '.join(labels[i] for i in unreach)}): {reasons[unreach[0]].removeprefix('not reachable: ')}")
+        if unreach else None,
+        pictures=tuple(pictures),
+        method=str(r.method) if mix else "",
+        notes=tuple(str(x) for x in _notes(report)),
+        provenance=provenance_view(prov, command),
+        cautions=cautions() + ((_MIX_CAUTION,) if mix else ()),
+    )
 
-    # ---- notes, method, provenance, cautions
-    body.append('<section id="notes"><h2>Notes</h2><ul class="notes">')
-    if report.kind == "mix":
-        body.append(f"<li><b>Method</b>: {_e(r.method)}</li>")
-    for note in _notes(report):
-        body.append(f"<li>{_e(note)}</li>")
-    body.append("</ul></section>")
-    body.append('<section id="provenance"><h2>Provenance</h2>')
-    body.append(_table(["File", "SHA-256", "Bytes"], [
-        [f'<span class="mono">{_e(f.path)}</span>', f'<span class="mono">{_e(f.sha256 or "unreadable")}</span>',
-         _e(f.size_bytes if f.size_bytes is not None else "n/a")] for f in prov.files], numeric=[False, False, True]))
-    body.append(_table(["Package", "Version"], [[_e(a), _e(b)] for a, b in prov.versions]))
-    body.append(_table(["Topic", "Method"], [[_e(a), _e(b)] for a, b in prov.methods]))
-    if command:
-        body.append(_table(["", ""], [["Command", f'<span class="mono">{_e(command)}</span>']]))
-    body.append("</section>")
-    body.append('<section id="cautions"><h2>Cautions</h2><div class="cautions"><ul>'
-                + "".join(f"<li>{_e(c)}</li>" for c in CAUTIONS)
-                + ("<li>" + _e("A channel mix is a model (linear in radiant power): thermal droop and current-dependent "
-                               "spectra are not modelled; confirm setpoints by measurement.") + "</li>" if report.kind == "mix" else "")
-                + "</ul></div></section>")
-    body.append("<footer>Made with lumeval. This file is self-contained: it loads nothing from the network.</footer>")
-    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
-            f"<title>{_e(title)}</title>\n<style>{_CSS}</style>\n</head>\n<body>\n" + "\n".join(body) + "\n</body>\n</html>\n")
+
+def render_tunable_html(report, *, command: str | None = None, generated_at=None) -> str:
+    """The report as one self-contained HTML document (``templates/tunable.html.j2``)."""
+    from .html import render_template
+
+    return render_template("tunable.html.j2", v=tunable_view(report, command=command, generated_at=generated_at))
 
 
 def write_tunable_html(path, report, *, command: str | None = None) -> Path:

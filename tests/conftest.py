@@ -34,19 +34,35 @@ def luxpy():
     return lx
 
 
-# The history store's tests run on SQLite and on a throwaway PostgreSQL server (tests/_postgres.py).
+# The browser tests' headless Chromium (tests/_browser.py; installed or loudly skipped), and the
+# history store's tests on SQLite and on a throwaway PostgreSQL server (tests/_postgres.py).
+from ._browser import chromium  # noqa: E402,F401
 from ._postgres import postgres_server, store_url  # noqa: E402,F401
 
 
 def run_cli_in_process(argv, capsys):
     """Run ``lumeval ARGV`` in this process through the console entry point; (exit code, stdout,
     stderr). A SystemExit without an integer code counts as 0 (None) or 2 (a message)."""
+    import os
+
     from lumeval.cli import main
 
-    try:
-        main([str(a) for a in argv])
+    try:  # paths stay paths (bytes for names that are not UTF-8); numbers become text
+        main([os.fspath(a) if isinstance(a, str | bytes | os.PathLike) else str(a) for a in argv])
         code = 0
     except SystemExit as exc:
         code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
     out, err = capsys.readouterr()
     return code, out, err
+
+
+def assert_clean_error(code, err, *needles) -> str:
+    """Bad input's one clean line: exit code 2, no traceback, a single ``lumeval: error: ...``
+    line on stderr containing every needle. Returns the line."""
+    assert code == 2, err
+    assert "Traceback" not in err and "internal error" not in err, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
+    for n in needles:
+        assert n in lines[0], err
+    return lines[0]

@@ -15,16 +15,10 @@ message saying why.
 from __future__ import annotations
 
 import glob
-import sys
-import warnings
-from pathlib import Path
 
 import pytest
 
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(ROOT / "tools"))
-
-from chromium import Browser, ensure_chromium  # noqa: E402
+from ._browser import ROOT, assert_clean_and_printable, visit
 
 pytestmark = pytest.mark.browser
 
@@ -43,24 +37,6 @@ min = 50
 kind = "ansi_quadrangle"
 nominal_cct = 3000
 """
-
-FIGURES_JS = """Array.from(document.querySelectorAll('figure')).map(f => {
-  const s = f.querySelector('svg'); const r = s ? s.getBoundingClientRect() : {width: 0, height: 0};
-  return {key: f.dataset.figure, width: r.width, height: r.height,
-          drawn: s ? s.querySelectorAll('path, use').length : 0};
-})"""
-
-
-@pytest.fixture(scope="module")
-def chromium(request):
-    path, how = ensure_chromium()
-    if path is None:
-        msg = f"BROWSER TEST SKIPPED: headless Chromium is not available and could not be installed: {how}"
-        warnings.warn(msg, stacklevel=2)
-        sys.stderr.write("\n" + "!" * 78 + "\n" + msg + "\n" + "!" * 78 + "\n")
-        pytest.skip(msg)
-    return path
-
 
 @pytest.fixture(scope="module")
 def reports(tmp_path_factory):
@@ -86,25 +62,11 @@ def test_report_renders_in_chromium(chromium, reports, which, tmp_path):
     result, one, lot = reports
     path = one if which == "check" else lot
     n_figures = path.read_text(encoding="utf-8").count("<figure ")
-    url = path.resolve().as_uri()
-    with Browser(chromium) as b:
-        s = b.open(url)
-        figs = b.evaluate(s, FIGURES_JS)
-        text = b.evaluate(s, "document.body.innerText")
-        shot = b.screenshot(s, tmp_path / f"{which}.png")
-        b.evaluate(s, "1")
-        errors = b.console_errors(s)
-        requests = b.requested_urls(s)
-        pdfs = {paper: b.print_pdf(s, paper=paper) for paper in ("A4", "Letter")}
-        b.call("Emulation.setEmulatedMedia", {"media": "print"}, session=s)
-        # A4 printable width: 210 mm - 2 x 15 mm margins = 180 mm = 680 CSS px (96 px per inch)
-        b.call("Emulation.setDeviceMetricsOverride", {"width": 680, "height": 1000, "deviceScaleFactor": 1,
-                                                      "mobile": False}, session=s)
-        print_figs = b.evaluate(s, FIGURES_JS)
-        overflow = b.evaluate(s, "document.documentElement.scrollWidth")
+    shot = tmp_path / f"{which}.png"
+    v = visit(chromium, path, shot)
+    figs, text = v.figures, v.text
 
-    assert errors == [], errors
-    assert [r for r in requests if not r.startswith("data:")] == [url], requests
+    assert_clean_and_printable(v)
     assert len(figs) == n_figures >= 4
     for f in figs:
         assert f["width"] > 100 and f["height"] > 50, f
@@ -131,8 +93,3 @@ def test_report_renders_in_chromium(chromium, reports, which, tmp_path):
     # the screenshot exists and is a PNG of the whole page
     data = shot.read_bytes()
     assert data[:8] == b"\x89PNG\r\n\x1a\n" and len(data) > 50_000
-    for paper, pdf in pdfs.items():
-        assert pdf[:5] == b"%PDF-" and len(pdf) > 20_000, paper
-    for f in print_figs:
-        assert 0 < f["width"] <= 680, f
-    assert overflow <= 680

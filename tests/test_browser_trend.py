@@ -9,40 +9,15 @@ and US Letter works and every chart fits the printable width.
 
 from __future__ import annotations
 
-import sys
-import warnings
-from pathlib import Path
-
 import numpy as np
 import pytest
 
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(ROOT / "tools"))
-
-from chromium import Browser, ensure_chromium  # noqa: E402
-
-from .test_store_record import make_record  # noqa: E402
+from ._browser import assert_clean_and_printable, visit
+from .test_store_record import make_record
 
 pytestmark = pytest.mark.browser
 
-FIGURES_JS = """Array.from(document.querySelectorAll('figure')).map(f => {
-  const s = f.querySelector('svg'); const r = s ? s.getBoundingClientRect() : {width: 0, height: 0};
-  return {key: f.dataset.figure, width: r.width, height: r.height,
-          drawn: s ? s.querySelectorAll('path, use').length : 0};
-})"""
-
 EVIL = '<img src=x onerror="console.error(\'pwned\')">w9'
-
-
-@pytest.fixture(scope="module")
-def chromium():
-    path, how = ensure_chromium()
-    if path is None:
-        msg = f"BROWSER TEST SKIPPED: headless Chromium is not available and could not be installed: {how}"
-        warnings.warn(msg, stacklevel=2)
-        sys.stderr.write("\n" + "!" * 78 + "\n" + msg + "\n" + "!" * 78 + "\n")
-        pytest.skip(msg)
-    return path
 
 
 @pytest.fixture(scope="module")
@@ -73,24 +48,10 @@ def report(tmp_path_factory):
 def test_trend_report_renders_in_chromium(chromium, report, tmp_path):
     tr, path = report
     n_figures = path.read_text(encoding="utf-8").count("<figure ")
-    url = path.resolve().as_uri()
-    with Browser(chromium) as b:
-        s = b.open(url)
-        figs = b.evaluate(s, FIGURES_JS)
-        text = b.evaluate(s, "document.body.innerText")
-        imgs = b.evaluate(s, "document.querySelectorAll('img').length")
-        b.screenshot(s, tmp_path / "trend.png")
-        errors = b.console_errors(s)
-        requests = b.requested_urls(s)
-        pdfs = {paper: b.print_pdf(s, paper=paper) for paper in ("A4", "Letter")}
-        b.call("Emulation.setEmulatedMedia", {"media": "print"}, session=s)
-        b.call("Emulation.setDeviceMetricsOverride", {"width": 680, "height": 1000, "deviceScaleFactor": 1,
-                                                      "mobile": False}, session=s)
-        print_figs = b.evaluate(s, FIGURES_JS)
-        overflow = b.evaluate(s, "document.documentElement.scrollWidth")
+    v = visit(chromium, path, tmp_path / "trend.png", imgs="document.querySelectorAll('img').length")
+    figs, text, imgs = v.figures, v.text, v.extra["imgs"]
 
-    assert errors == [], errors
-    assert [r for r in requests if not r.startswith("data:")] == [url], requests
+    assert_clean_and_printable(v)
     assert imgs == 0  # the label's <img> is text, not an element
     assert EVIL in text
     assert len(figs) == n_figures == 6  # (X̄+s, EWMA) for R9 and for each chromaticity figure
@@ -102,8 +63,3 @@ def test_trend_report_renders_in_chromium(chromium, report, tmp_path):
         assert f"lot {tr.points[s_.index].lot}" in text
     for word in ("Western Electric", "Montgomery", "Lots", "Provenance", "IEC 62471", "baseline"):
         assert word in text, word
-    for paper, pdf in pdfs.items():
-        assert pdf[:5] == b"%PDF-" and len(pdf) > 20_000, paper
-    for f in print_figs:
-        assert 0 < f["width"] <= 680, f
-    assert overflow <= 680

@@ -17,31 +17,14 @@ from pathlib import Path
 
 import pytest
 
-from lumeval.cli import main
+from .conftest import assert_clean_error
+from .conftest import run_cli_in_process as run
 
 ROOT = Path(__file__).resolve().parents[1]
 SPD = ROOT / "spectra_demo" / "downlights" / "candidate_A_aurora_3000K.csv"
 
 CRITERIA = 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 90\n'
 CLAIMS = 'lumeval_claims = 1\n[claims]\nRa = ">= 90"\n'
-
-
-def run(argv, capsys):
-    """(exit code, stdout, stderr) of ``lumeval argv``."""
-    with pytest.raises(SystemExit) as exc:
-        main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
-    return code, out, err
-
-
-def assert_clean_error(code, err, *needles):
-    assert code == 2, err
-    assert "Traceback" not in err and "internal error" not in err, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
-    for n in needles:
-        assert n in lines[0], err
 
 
 def digest(p: Path) -> str:

@@ -18,20 +18,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumeval.cli import main
+from .conftest import assert_clean_error as one_error_line
+from .conftest import run_cli_in_process as run
 
 ROOT = Path(__file__).resolve().parents[1]
 CRITERIA = 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 50\n'
 needs_fifo = pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes need a POSIX system")
-
-
-def run(argv, capsys):
-    """(exit code, stdout, stderr) of ``lumeval argv`` in-process."""
-    with pytest.raises(SystemExit) as exc:
-        main([a if isinstance(a, str) else os.fspath(a) for a in argv])
-    out, err = capsys.readouterr()
-    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
-    return code, out, err
 
 
 def run_sub(argv, cwd, timeout=60):
@@ -39,15 +31,6 @@ def run_sub(argv, cwd, timeout=60):
     env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
     p = subprocess.run([sys.executable, "-m", "lumeval", *argv], cwd=cwd, capture_output=True, timeout=timeout, env=env)
     return p.returncode, p.stdout.decode("utf-8", "replace"), p.stderr.decode("utf-8", "replace")
-
-
-def one_error_line(code, err, *needles):
-    assert code == 2, err
-    assert "Traceback" not in err and "internal error" not in err, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
-    for n in needles:
-        assert n in lines[0], err
 
 
 def spectrum_text(shift=0.0, header="wavelength,value") -> str:

@@ -23,8 +23,9 @@ from pathlib import Path
 
 import pytest
 
-from lumeval.cli import main
 from lumeval.render.tables import read_csv_report
+
+from .conftest import run_cli_in_process as run
 
 ROOT = Path(__file__).resolve().parents[1]
 ENV = {**os.environ, "PYTHONPATH": str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", "")}
@@ -45,15 +46,6 @@ def lamp_csv(path: Path, names=("lamp",), cct=(3000.0,)) -> Path:
         lines.append(f"{wl}," + ",".join(f"{planck(wl, t):.6g}" for t in cct))
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return path
-
-
-def run(argv, capsys):
-    """(exit code, stdout, stderr) of ``lumeval argv`` run in-process."""
-    with pytest.raises(SystemExit) as exc:
-        main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
-    return code, out, err
 
 
 def cli(argv, **kw):

@@ -14,14 +14,7 @@ import json
 import numpy as np
 import pytest
 
-from lumeval.cli import main
-
-
-def run(argv, capsys):
-    with pytest.raises(SystemExit) as exc:
-        main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return exc.value.code or 0, out, err
+from .conftest import run_cli_in_process as run
 
 
 def _write(path, header, wl, values):

@@ -14,18 +14,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumeval.cli import main
 from lumeval.spectra.read import read_spectra
 
+from .conftest import run_cli_in_process as run
+
 CORPUS = Path(__file__).parent / "data" / "input_corpus"
-
-
-def run(argv, capsys):
-    with pytest.raises(SystemExit) as info:
-        main(argv)
-        raise SystemExit(0)
-    out = capsys.readouterr()
-    return info.value.code or 0, out.out, out.err
 
 
 def test_convert_csv_to_xml_and_back(tmp_path, capsys):

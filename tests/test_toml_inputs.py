@@ -14,6 +14,7 @@ import pytest
 from lumeval._toml import MAX_TOML_BYTES, MAX_TOML_DEPTH
 from lumeval.tunable.api import MAX_MANIFEST_BYTES
 
+from .conftest import assert_clean_error as one_error_line
 from .conftest import run_cli_in_process
 
 REPO = Path(__file__).resolve().parents[1]
@@ -43,14 +44,6 @@ KINDS = {
 def run(kind, path, capsys):
     argv = [path if a == "FILE" else a for a in KINDS[kind][0]]
     return run_cli_in_process(argv, capsys)
-
-
-def one_error_line(code, err) -> str:
-    assert code == 2, err
-    assert "Traceback" not in err, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
-    return lines[0]
 
 
 @pytest.mark.parametrize("kind", sorted(KINDS))

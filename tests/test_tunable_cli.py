@@ -16,8 +16,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumeval.cli import main
 from lumeval.render.tables import data_rows
+
+from .conftest import assert_clean_error
+from .conftest import run_cli_in_process as run
 
 WL = np.arange(380.0, 781.0, 1.0)
 
@@ -36,23 +38,6 @@ def write_wide(path: Path, cols: dict, wl=WL) -> Path:
         lines.append(f"{w:g}," + ",".join(f"{c[i]:.6f}" for c in cols.values()))
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return path
-
-
-def run(argv, capsys):
-    with pytest.raises(SystemExit) as exc:
-        main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    code = exc.value.code if isinstance(exc.value.code, int) else (0 if exc.value.code is None else 1)
-    return code, out, err
-
-
-def assert_clean_error(code, err, *needles):
-    assert code == 2, err
-    assert "Traceback" not in err and "internal error" not in err, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1 and lines[0].startswith("lumeval: error: "), err
-    for n in needles:
-        assert n in lines[0], err
 
 
 @pytest.fixture

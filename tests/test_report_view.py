@@ -149,7 +149,9 @@ def test_templates_and_style_sheet_ship_as_package_data():
     pats = tomllib.loads((ROOT / "pyproject.toml").read_text())["tool"]["setuptools"]["package-data"]["lumeval"]
     for name in found:
         assert any(fnmatch(f"render/templates/{name}", p) for p in pats), name
-    assert ":root" in H._CSS  # the other pages share the style sheet
+    # every page (report, mix/series, trend) is made from these templates: no page is built as a string
+    for page in ("report.html.j2", "tunable.html.j2", "trend.html.j2"):
+        assert "<!DOCTYPE html>" in H.template_text(page) and 'import' in H.template_text(page)
 
 
 def test_jinja2_is_imported_only_for_html():

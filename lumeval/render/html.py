@@ -55,10 +55,10 @@ inputs:
 from __future__ import annotations
 
 import functools
-import html as _html
 import os
 import re
 from collections.abc import Mapping, Sequence
+from html import escape
 from importlib import resources
 from pathlib import Path
 
@@ -78,7 +78,6 @@ from .report_view import (
     ReportView,
     build_report_view,
 )
-from .view import plain_number
 
 __all__ = [
     "CHECK_GRID_MAX", "KEY_FIGURE_TABLES", "LOT_FIGURES", "MAX_TABLE_ROWS", "PER_SAMPLE_MAX", "PLOT_FILE_PATTERNS",
@@ -339,47 +338,5 @@ def inline_svg(svg: str, prefix: str, label: str) -> str:
     s = _URL_RE.sub(lambda m: f"url(#{prefix}-{m.group(1)})", s)
     s = re.sub(r'<svg\b([^>]*?)\swidth="[^"]*"', r"<svg\1", s, count=1)
     s = re.sub(r'<svg\b([^>]*?)\sheight="[^"]*"', r"<svg\1", s, count=1)
-    s = s.replace("<svg ", f'<svg class="chart" role="img" aria-label="{_e(label)}" ', 1)
+    s = s.replace("<svg ", f'<svg class="chart" role="img" aria-label="{escape(label)}" ', 1)
     return s.strip()
-
-
-
-# --------------------------------------------------------------------------- string helpers
-# of the mix/series and trend pages (render/tunable_html.py, render/trend_report.py), which are
-# not yet made from a view-model and a template: escape every text with _e().
-
-
-def _e(s) -> str:
-    return _html.escape(str(s), quote=True)
-
-
-def _num(v, spec: str = "g") -> str:
-    return _e(v) if isinstance(v, str) else plain_number(v, spec)
-
-
-def _badge(outcome: str) -> str:
-    sym, word = OUTCOME_TEXT[outcome]
-    cls = outcome.replace(" ", "-")
-    return f'<span class="badge {cls}"><span class="sym" aria-hidden="true">{sym}</span> {word}</span>'
-
-
-def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], numeric: Sequence[bool] | None = None,
-           row_classes: Sequence[str] | None = None, cls: str = "") -> str:
-    """An HTML table; ``rows`` cells are HTML already (escape text before), headers are text."""
-    numeric = numeric or [False] * len(headers)
-    num_attr = [' class="n"' if x else "" for x in numeric]
-    out = [f'<table class="{cls}">' if cls else "<table>", "<thead><tr>"]
-    out += [f'<th scope="col"{a}>{_e(h)}</th>' for h, a in zip(headers, num_attr)]
-    out.append("</tr></thead><tbody>")
-    for k, r in enumerate(rows):
-        cls = f' class="{row_classes[k]}"' if row_classes and row_classes[k] else ""
-        out.append(f"<tr{cls}>" + "".join(f"<td{a}>{cell}</td>" for cell, a in zip(r, num_attr)) + "</tr>")
-    out.append("</tbody></table>")
-    return "".join(out)
-
-
-
-def __getattr__(name: str):
-    if name == "_CSS":  # the report's style sheet, shared by the other pages
-        return template_text("report.css")
-    raise AttributeError(name)

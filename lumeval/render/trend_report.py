@@ -10,9 +10,13 @@ from __future__ import annotations
 import contextlib
 import json
 import math
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+
+from .report_view import FigureView
+from .view import Cell, Row, Table, cells
 
 
 def plain(s) -> str:
@@ -213,21 +217,58 @@ def trend_figures(tr) -> list[tuple[str, str, str, object]]:
     return out
 
 
-_TREND_CSS = """
-.signals li { margin: .2rem 0; }
-tr.signal td { background: #fdf0e8; }
-td.b { color: var(--muted); }
-"""
+@dataclass(frozen=True)
+class TrendView:
+    """Everything the trend page shows, in words (laid out by ``templates/trend.html.j2``)."""
+
+    title: str
+    subtitle: tuple[str, ...]
+    signalled: bool
+    summary: str
+    chart_line: str
+    charts: tuple[tuple[str | None, tuple[FigureView, ...]], ...]
+    signals: tuple[tuple[str | None, tuple[str, ...]], ...]
+    lots: Table
+    limits: Table
+    notes: tuple[str, ...]
+    meta: Table
+    sources: tuple[str, ...]
+    software: Table
+    cautions: tuple[str, ...]
 
 
-def render_trend_html(tr, *, chromaticity: list | None = None, command: str | None = None, generated_at=None) -> str:
-    """The trend report as one self-contained HTML document: charts, signals, lots, provenance,
-    cautions. ``chromaticity``: further trends (the centroid charts) drawn after the main one."""
+def _lots_table(tr) -> Table:
+    sig_idx = {s.index for s in tr.signals}
+    rows = []
+    for i, p in enumerate(tr.points):
+        second = p.s if tr.chart == "xbar-s" else tr.main.moving_range[i]
+        rows.append(Row(cells(p.lot, p.label or "", p.recorded_at, p.n, _fmt(p.mean), _fmt(second, ".4g"),
+                              _fmt(tr.ewma.z[i]), "baseline" if tr.baseline[i] else "",
+                              ", ".join(f"{s.chart} {s.rule}" for s in tr.signals if s.index == i)),
+                        css="signal" if i in sig_idx else ""))
+    return Table(("Lot", "Label", "Recorded (UTC)", "n", "Mean", "s" if tr.chart == "xbar-s" else "MR", "EWMA", "Role",
+                  "Signals"), tuple(rows), (True, False, False, True, True, True, True, False, False))
+
+
+def _limits_table(tr, doc) -> Table:
+    limits = [("Centre line", _fmt(doc["centre_line"])), ("UCL", _fmt(doc["ucl"])), ("LCL", _fmt(doc["lcl"])),
+              ("σ̂", _fmt(doc["sigma"]))]
+    if doc["s_chart"]:
+        limits.append(("s chart centre / UCL / LCL", " / ".join(_fmt(doc["s_chart"][k]) for k in ("centre_line", "ucl", "lcl"))))
+    if doc["moving_range"]:
+        limits.append(("MR chart centre / UCL", " / ".join(_fmt(doc["moving_range"][k]) for k in ("centre_line", "ucl"))))
+    limits.append(("EWMA λ, L", f"{tr.ewma.lam:g}, {tr.ewma.L:g}"))
+    return Table(("", ""), tuple(Row(cells(a, b)) for a, b in limits))
+
+
+def trend_view(tr, *, chromaticity: list | None = None, command: str | None = None, generated_at=None) -> TrendView:
+    """The trend report as a :class:`TrendView` (the charts drawn and inlined here)."""
     import datetime as _dt
+    from importlib.metadata import PackageNotFoundError, version
 
     from .. import __version__
     from ..store.trend import trend_document
-    from .html import _CSS, _e, _table, inline_svg
+    from .html import inline_svg
     from .plots import figure_svg
     from .provenance import package_versions
 
@@ -235,89 +276,45 @@ def render_trend_html(tr, *, chromaticity: list | None = None, command: str | No
     when = (generated_at or _dt.datetime.now(_dt.UTC).replace(microsecond=0)).isoformat()
     doc = trend_document(tr)
     n_sig = len(tr.signals)
-    title = f"Production trend: {tr.label}" + (f" — {tr.product}" if tr.product else "")
-    body = [f"<header><h1>{_e(title)}</h1><p class=\"sub\">{len(tr.points)} lots · store {_e(tr.store)} · "
-            f"generated {_e(when)} · lumeval {_e(__version__)}</p></header>"]
-    outcome = "fail" if n_sig else "pass"
-    words = (f"{n_sig} control-chart signal{'s' if n_sig != 1 else ''} on {tr.label}: the process may have changed; "
-             "look at the lots listed below." if n_sig else
-             f"No control-chart signal on {tr.label}: the lots behave like the baseline.")
-    badge = (f'<span class="badge {outcome}"><span class="sym" aria-hidden="true">{"⚠" if n_sig else "✓"}</span> '
-             f'{"SIGNAL" if n_sig else "IN CONTROL"}</span>')
-    body.append(f'<section id="summary"><h2>Summary</h2><div class="summary {outcome}"><p class="big">{badge} '
-                f"{_e(words)}</p><p>Figure {_e(tr.label)}{(' (' + _e(tr.unit) + ')') if tr.unit else ''}; "
-                f"{_e(tr.chart)} chart; baseline {_e(tr.baseline_rule)}.</p></div></section>")
-
-    body.append('<section id="charts"><h2>Control charts</h2>')
-    k = 0
+    charts, k = [], 0
     for t_ in trends:
-        if t_ is not tr:
-            body.append(f"<h3>{_e(t_.label)}</h3>")
+        figs = []
         for key, ftitle, cap, fig in trend_figures(t_):
-            svg = inline_svg(figure_svg(fig), f"t{k}", ftitle)
-            body.append(f'<figure id="fig-{_e(t_.figure)}-{_e(key)}" data-figure="{_e(t_.figure)}-{_e(key)}">{svg}'
-                        f"<figcaption><b>{_e(ftitle)}.</b> {_e(cap)}</figcaption></figure>")
+            figs.append(FigureView(f"{t_.figure}-{key}", ftitle, cap, inline_svg(figure_svg(fig), f"t{k}", ftitle)))
             k += 1
-    body.append("</section>")
-
-    body.append('<section id="signals"><h2>Signals</h2>')
-    for t_ in trends:
-        lines = signal_lines(t_)
-        if len(trends) > 1:
-            body.append(f"<h3>{_e(t_.label)}</h3>")
-        if lines:
-            body.append('<ul class="signals">' + "".join(f"<li>⚠ {_e(x)}</li>" for x in lines) + "</ul>")
-        else:
-            body.append("<p>None.</p>")
-    body.append('<p class="sub">Rules: WE1 one point beyond 3σ; WE2 two of three beyond 2σ on one side; WE3 four '
-                "of five beyond 1σ on one side; WE4 eight in a row on one side (Western Electric 1956, numbered as "
-                "in Montgomery §5.3.6); s, moving-range and EWMA charts: beyond their limits.</p></section>")
-
-    body.append('<section id="lots"><h2>Lots</h2>')
-    sig_idx = {s.index for s in tr.signals}
-    rows, classes = [], []
-    for i, p in enumerate(tr.points):
-        second = p.s if tr.chart == "xbar-s" else tr.main.moving_range[i]
-        rows.append([_e(p.lot), _e(p.label or ""), _e(p.recorded_at), _e(p.n), _e(_fmt(p.mean)), _e(_fmt(second, ".4g")),
-                     _e(_fmt(tr.ewma.z[i])), "baseline" if tr.baseline[i] else "",
-                     _e(", ".join(f"{s.chart} {s.rule}" for s in tr.signals if s.index == i))])
-        classes.append("signal" if i in sig_idx else "")
-    body.append(_table(["Lot", "Label", "Recorded (UTC)", "n", "Mean", "s" if tr.chart == "xbar-s" else "MR", "EWMA",
-                        "Role", "Signals"], rows, numeric=[True, False, False, True, True, True, True, False, False],
-                       row_classes=classes))
-    limits = [["Centre line", _e(_fmt(doc["centre_line"]))], ["UCL", _e(_fmt(doc["ucl"]))], ["LCL", _e(_fmt(doc["lcl"]))],
-              ["σ̂", _e(_fmt(doc["sigma"]))]]
-    if doc["s_chart"]:
-        limits.append(["s chart centre / UCL / LCL", _e(" / ".join(_fmt(doc["s_chart"][k_]) for k_ in ("centre_line", "ucl", "lcl")))])
-    if doc["moving_range"]:
-        limits.append(["MR chart centre / UCL", _e(" / ".join(_fmt(doc["moving_range"][k_]) for k_ in ("centre_line", "ucl")))])
-    limits.append(["EWMA λ, L", _e(f"{tr.ewma.lam:g}, {tr.ewma.L:g}")])
-    body.append("<h3>Limits</h3>" + _table(["", ""], limits))
-    if tr.notes:
-        body.append('<ul class="notes">' + "".join(f"<li>{_e(n)}</li>" for n in tr.notes) + "</ul>")
-    body.append("</section>")
-
-    body.append('<section id="provenance"><h2>Provenance</h2>')
-    meta = [["Store", f'<span class="mono">{_e(tr.store)}</span>'], ["Generated", _e(when)]]
-    if command:
-        meta.append(["Command", f'<span class="mono">{_e(command)}</span>'])
-    body.append(_table(["", ""], meta))
-    body.append("<h3>Methods and sources</h3><ul>" + "".join(f"<li>{_e(s)}</li>" for s in doc["sources"]) + "</ul>")
+        charts.append((None if t_ is tr else t_.label, tuple(figs)))
     versions = list(package_versions())
-    from importlib.metadata import PackageNotFoundError, version
-
     for pkg in ("SQLAlchemy",) + (("psycopg",) if tr.store.startswith("postgres") else ()):
         with contextlib.suppress(PackageNotFoundError):
             versions.append((pkg, version(pkg)))
-    body.append("<h3>Software</h3>" + _table(["Package", "Version"], [[_e(a), _e(b)] for a, b in versions]))
-    body.append("</section>")
-    body.append('<section id="cautions"><h2>Cautions</h2><div class="cautions"><ul>'
-                + "".join(f"<li>{_e(c)}</li>" for c in doc["cautions"]) + "</ul></div></section>")
-    body.append("<footer>Made with lumeval. This file is self-contained: it loads nothing from the network.</footer>")
-    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
-            f"<title>{_e(title)}</title>\n<style>{_CSS}{_TREND_CSS}</style>\n</head>\n<body>\n"
-            + "\n".join(body) + "\n</body>\n</html>\n")
+    meta = [Row((Cell("Store"), Cell(tr.store, mono=True))), Row(cells("Generated", when))]
+    if command:
+        meta.append(Row((Cell("Command"), Cell(command, mono=True))))
+    return TrendView(
+        title=f"Production trend: {tr.label}" + (f" — {tr.product}" if tr.product else ""),
+        subtitle=(f"{len(tr.points)} lots", f"store {tr.store}", f"generated {when}", f"lumeval {__version__}"),
+        signalled=bool(n_sig),
+        summary=(f"{n_sig} control-chart signal{'s' if n_sig != 1 else ''} on {tr.label}: the process may have changed; "
+                 "look at the lots listed below." if n_sig else
+                 f"No control-chart signal on {tr.label}: the lots behave like the baseline."),
+        chart_line=f"Figure {tr.label}{(' (' + tr.unit + ')') if tr.unit else ''}; {tr.chart} chart; baseline {tr.baseline_rule}.",
+        charts=tuple(charts),
+        signals=tuple((t_.label if len(trends) > 1 else None, tuple(signal_lines(t_))) for t_ in trends),
+        lots=_lots_table(tr), limits=_limits_table(tr, doc), notes=tuple(str(n) for n in tr.notes),
+        meta=Table(("", ""), tuple(meta)), sources=tuple(str(x) for x in doc["sources"]),
+        software=Table(("Package", "Version"), tuple(Row(cells(a, b)) for a, b in versions)),
+        cautions=tuple(str(c) for c in doc["cautions"]),
+    )
+
+
+def render_trend_html(tr, *, chromaticity: list | None = None, command: str | None = None, generated_at=None) -> str:
+    """The trend report as one self-contained HTML document: charts, signals, lots, provenance,
+    cautions. ``chromaticity``: further trends (the centroid charts) drawn after the main one.
+    A view-model (:class:`TrendView`) laid out by the Jinja2 template ``templates/trend.html.j2``."""
+    from .html import render_template, template_text
+
+    view = trend_view(tr, chromaticity=chromaticity, command=command, generated_at=generated_at)
+    return render_template("trend.html.j2", v=view, trend_css=template_text("trend.css"))
 
 
 def write_trend_html(path, tr, **kwargs) -> Path:

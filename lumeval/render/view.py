@@ -49,6 +49,8 @@ class Row:
     cells: tuple[Cell, ...]
     #: A row about something that failed (shown highlighted; the verdict is in a cell too).
     failed: bool = False
+    #: Another highlight of the row by its class (e.g. "signal" in a control-chart table).
+    css: str = ""
 
 
 @dataclass(frozen=True)

@@ -228,3 +228,27 @@ def test_mix_page_is_a_template_and_shows_hostile_channel_names_literally(tmp_pa
     assert "channels <script>alert(1)</script>, {{ 7*7 }}" in text
     assert "w {{ 7*7 }}" in [th.text for th in doc.findall(".//section[@id='settings']//th")]
     assert 'data-figure="trajectory"' in page and "IEC 62471" in text
+
+
+def test_check_result_repr_is_short_and_its_html_fragment_shows_the_verdicts(ev):
+    import html5lib
+
+    from lumeval.criteria import parse_criteria
+
+    crit = parse_criteria('[[clause]]\nfigure = "Ra"\nmin = 90\nlabel = "<b>Ra</b> {{ 7*7 }}"\n', "c.toml")
+    res = crit.evaluate(_renamed(ev, HOSTILE[:3]))
+    text = repr(res)
+    assert len(text) < 200 and "\n" not in text and f"{res.overall};" in text
+    assert f"{sum(o == 'fail' for o in res.results[0].outcome)} fail" in text or "fail" not in res.results[0].outcome
+    frag = res._repr_html_()
+    assert "<html" not in frag and frag.lstrip().startswith('<div class="lumeval-check">')
+    doc = html5lib.HTMLParser(strict=True, namespaceHTMLElements=False).parseFragment(frag)
+    body = "".join(doc.itertext())
+    assert "<b>Ra</b> {{ 7*7 }}" in body and "<script>alert(1)</script>" in body and "IEC 62471" in body
+    assert doc.findall(".//script") == [] and doc.findall(".//img") == []
+    # the checks grid (the last table: 3 spectra, one clause): one badge per spectrum saying the
+    # clause's outcome for it, in input order
+    grid = doc.findall(".//table")[-1]
+    words = ["".join(b.itertext()) for b in grid.findall(".//span") if "badge" in (b.get("class") or "").split()]
+    expected = [{"pass": "✓ PASS", "fail": "✗ FAIL"}.get(o, o) for o in res.results[0].outcome]
+    assert words == expected

@@ -190,6 +190,18 @@ class CheckResult:
     def __len__(self) -> int:
         return len(self.names)
 
+    def __repr__(self) -> str:
+        """One short line: counts of spectra and clauses, the criteria file, the outcomes."""
+        from ..render.report_view import check_summary
+
+        return check_summary(self)
+
+    def _repr_html_(self) -> str:
+        """The verdict, per-sample summary and checks as an HTML fragment (Jupyter)."""
+        from ..render.html import check_html
+
+        return check_html(self)
+
     def verdict(self, i: int) -> str:
         """Overall outcome for spectrum i."""
         return combine_outcomes([r.outcome[i] for r in self.results])

@@ -81,7 +81,7 @@ from .report_view import (
 
 __all__ = [
     "CHECK_GRID_MAX", "KEY_FIGURE_TABLES", "LOT_FIGURES", "MAX_TABLE_ROWS", "PER_SAMPLE_MAX", "PLOT_FILE_PATTERNS",
-    "ReportFigure", "ReportView", "VerdictRow", "evaluation_html", "inline_svg", "regions_from_criteria", "render_html_report",
+    "ReportFigure", "ReportView", "VerdictRow", "check_html", "evaluation_html", "inline_svg", "regions_from_criteria", "render_html_report",
     "render_template", "report_figures", "template_text", "validate_targets", "verdict_rows", "write_html_report",
     "write_outputs", "write_plots",
 ]
@@ -316,6 +316,14 @@ def evaluation_html(evaluation) -> str:
     from .report_view import evaluation_view
 
     return render_template("evaluation.html.j2", v=evaluation_view(evaluation))
+
+
+def check_html(result) -> str:
+    """A check result as an HTML fragment (``CheckResult._repr_html_`` in a notebook): the
+    verdict, the per-sample summary and the checks, from the report's view-model."""
+    from .report_view import check_view
+
+    return render_template("check.html.j2", v=check_view(result))
 
 
 _ID_RE = re.compile(r'\bid="([^"]+)"')

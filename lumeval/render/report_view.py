@@ -586,3 +586,34 @@ def evaluation_view(ev) -> EvaluationView:
     return EvaluationView(f"{n} spectr{'a' if n != 1 else 'um'}",
                           key_figures_view(ev, list(ev.spectra.names), [None] * n), tuple(note_rows),
                           f"… and {more} further notes (see the JSON output)." if more else None, cautions())
+
+
+@dataclass(frozen=True)
+class CheckView:
+    """A check result on its own (a notebook's view): verdict, per-sample summary, checks."""
+
+    subtitle: str
+    verdict: VerdictView
+    cautions: tuple[str, ...]
+
+
+def check_view(result) -> CheckView:
+    from .report_inputs import verdict_rows
+    from .view import cautions
+
+    names = list(result.names)
+    rows = verdict_rows(result, names)
+    n = len(names)
+    return CheckView(f"{n} spectr{'a' if n != 1 else 'um'}, {len(result.results)} clause{'s' if len(result.results) != 1 else ''}",
+                     verdict_view(rows, result, lot=None, n=n, overall=None, grid_max=CHECK_GRID_MAX)
+                     if rows else VerdictView(judged=False), cautions())
+
+
+def check_summary(result) -> str:
+    """``CheckResult(5 spectra, 3 clauses, crit.toml: fail; 12 pass, 3 fail)``: one short line."""
+    n, k = len(result.names), len(result.results)
+    counts = {o: sum(o2 == o for r in result.results for o2 in r.outcome) for o in OUTCOME_ORDER}
+    file = str(result.criteria_file)
+    file = file if len(file) <= 40 else "…" + file[-39:]
+    return (f"CheckResult({n} spectr{'a' if n != 1 else 'um'}, {k} clause{'s' if k != 1 else ''}, {file!r}: "
+            f"{result.overall}; " + ", ".join(f"{c} {o}" for o, c in counts.items() if c) + ")")

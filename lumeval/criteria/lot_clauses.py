@@ -32,6 +32,7 @@ from .model import (
     KeySpec,
     ParseError,
     fmt_number,
+    key_table,
     number,
     register_clause_kind,
     string,
@@ -112,22 +113,15 @@ class LotCentroidStepsClause(LotClause):
 
     KIND: ClassVar[str] = "lot_centroid_steps"
     TITLE: ClassVar[str] = "Lot: every sample within n steps of the lot centroid"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        k.name: k
-        for k in (
-            KeySpec("max_steps", "positive number", "largest acceptable ellipse steps of any sample from the lot centroid", True),
-            KeySpec(
-                "ellipse",
-                '"F6500", "F5000", "F4000", "F3500", "F3000" or "F2700"',
-                "IEC 60081 ellipse whose coefficients give the steps (default: the one nearest the lot centroid)",
-            ),
-        )
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("max_steps", "positive number", "largest acceptable ellipse steps of any sample from the lot centroid", True),
+        KeySpec(
+            "ellipse",
+            '"F6500", "F5000", "F4000", "F3500", "F3000" or "F2700"',
+            "IEC 60081 ellipse whose coefficients give the steps (default: the one nearest the lot centroid)",
+        ),
+    )
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     max_steps: float
     ellipse: str | None
 
@@ -201,10 +195,6 @@ class LotMaxPairwiseClause(LotClause):
         "max_delta_upvp": KeySpec("max_delta_upvp", "positive number (e.g. 0.004)", "largest acceptable Δu'v' between any two samples", True)
     }
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     max_delta_upvp: float
 
     @classmethod
@@ -259,10 +249,6 @@ class LotYieldClause(LotClause):
         "min_percent": KeySpec("min_percent", "number 0 … 100", "lowest acceptable share of samples passing every per-sample clause, in %", True)
     }
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     min_percent: float
 
     @classmethod

@@ -174,19 +174,21 @@ class KeySpec:
     required: bool = False
 
 
+def key_table(*specs: KeySpec) -> dict[str, KeySpec]:
+    """``{spec.name: spec}`` in the order given: a clause kind's ``KEYS``."""
+    return {k.name: k for k in specs}
+
+
 #: Keys every clause accepts, whatever its kind.
-COMMON_KEYS: dict[str, KeySpec] = {
-    k.name: k
-    for k in (
-        KeySpec("kind", "one of the clause kinds", "what kind of requirement this is (may be omitted when `figure` is given)"),
-        KeySpec("id", "non-empty string, unique in the file", "a short name for the clause in reports (default: C1, C2, ...)"),
-        KeySpec("label", "string", "the requirement in your own words, shown in reports"),
-        KeySpec("note", "string", "free text carried into the tender wording"),
-        # judged by lumeval.tunable over the settings of a mix or series (criteria/range_clauses.py)
-        KeySpec("over", "array of two numbers [low, high]", "judge the clause at every setting from low to high inclusive "
-                "(`lumeval mix`, `lumeval series`; in the settings' unit)"),
-    )
-}
+COMMON_KEYS: dict[str, KeySpec] = key_table(
+    KeySpec("kind", "one of the clause kinds", "what kind of requirement this is (may be omitted when `figure` is given)"),
+    KeySpec("id", "non-empty string, unique in the file", "a short name for the clause in reports (default: C1, C2, ...)"),
+    KeySpec("label", "string", "the requirement in your own words, shown in reports"),
+    KeySpec("note", "string", "free text carried into the tender wording"),
+    # judged by lumeval.tunable over the settings of a mix or series (criteria/range_clauses.py)
+    KeySpec("over", "array of two numbers [low, high]", "judge the clause at every setting from low to high inclusive "
+            "(`lumeval mix`, `lumeval series`; in the settings' unit)"),
+)
 
 
 class ParseError(Exception):
@@ -197,8 +199,9 @@ class ParseError(Exception):
         self.key, self.problem, self.fix = key, problem, fix
 
 
+@dataclass(frozen=True)
 class ClauseKind:
-    """Base class of clause kinds. Subclasses are frozen dataclasses.
+    """Base class of clause kinds. Subclasses are frozen dataclasses that add their own fields.
 
     Class attributes
     ----------------
@@ -217,7 +220,7 @@ class ClauseKind:
     SCOPE: ClassVar[str] = "sample"
     KEYS: ClassVar[dict[str, KeySpec]] = {}
 
-    # set by every subclass as dataclass fields
+    # every clause's own fields (dataclass fields: they come first in every kind's fields)
     clause_id: str
     label: str
     note: str
@@ -309,21 +312,14 @@ class FigureClause(ClauseKind):
 
     KIND: ClassVar[str] = "figure"
     TITLE: ClassVar[str] = "Minimum, maximum or range on one figure"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        k.name: k
-        for k in (
-            KeySpec("figure", "a figure name (see the list of figures)", "the figure judged, e.g. \"R9\", \"cct_K\", \"duv\"", True),
-            KeySpec("min", "number", "lowest acceptable value (inclusive)"),
-            KeySpec("max", "number", "highest acceptable value (inclusive)"),
-            KeySpec("range", "array of two numbers [low, high]", "acceptable range (inclusive); instead of min and max"),
-            ACCEPT_OUTSIDE_VALIDITY,
-        )
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("figure", "a figure name (see the list of figures)", "the figure judged, e.g. \"R9\", \"cct_K\", \"duv\"", True),
+        KeySpec("min", "number", "lowest acceptable value (inclusive)"),
+        KeySpec("max", "number", "highest acceptable value (inclusive)"),
+        KeySpec("range", "array of two numbers [low, high]", "acceptable range (inclusive); instead of min and max"),
+        ACCEPT_OUTSIDE_VALIDITY,
+    )
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     figure: str
     lower: float | None
     upper: float | None
@@ -409,26 +405,19 @@ class AnsiQuadrangleClause(ClauseKind):
 
     KIND: ClassVar[str] = "ansi_quadrangle"
     TITLE: ClassVar[str] = "Inside an ANSI C78.377 nominal-CCT quadrangle (edition 2008 or 2017)"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        k.name: k
-        for k in (
-            KeySpec(
-                "nominal_cct",
-                'one of 2200, 2500, 2700, 3000, 3500, 4000, 4500, 5000, 5700, 6500 (2008: 2700 … 6500), or "flexible"',
-                "the nominal CCT category of the edition's Table 1",
-                True,
-            ),
-            KeySpec("edition", f"{' or '.join(regions.ANSI_EDITIONS)} (default {regions.ANSI_DEFAULT_EDITION})",
-                    "the edition of ANSI C78.377 whose quadrangles are used"),
-            KeySpec("target_cct_K", "number, 2200 … 7000 (2008: 2700 … 6500; only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
-            KeySpec("tolerance_K", "number of kelvin ≥ 1, target ± tolerance within 1000 … 25000 K (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
-        )
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec(
+            "nominal_cct",
+            'one of 2200, 2500, 2700, 3000, 3500, 4000, 4500, 5000, 5700, 6500 (2008: 2700 … 6500), or "flexible"',
+            "the nominal CCT category of the edition's Table 1",
+            True,
+        ),
+        KeySpec("edition", f"{' or '.join(regions.ANSI_EDITIONS)} (default {regions.ANSI_DEFAULT_EDITION})",
+                "the edition of ANSI C78.377 whose quadrangles are used"),
+        KeySpec("target_cct_K", "number, 2200 … 7000 (2008: 2700 … 6500; only with nominal_cct = \"flexible\")", "target CCT of a flexible-CCT category"),
+        KeySpec("tolerance_K", "number of kelvin ≥ 1, target ± tolerance within 1000 … 25000 K (only with nominal_cct = \"flexible\")", "CCT tolerance of a flexible category (default: the flexible-CCT formula)"),
+    )
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     nominal: int | None
     target_cct_K: float | None
     tolerance_K: float | None
@@ -558,23 +547,16 @@ class SdcmClause(ClauseKind):
 
     KIND: ClassVar[str] = "sdcm"
     TITLE: ClassVar[str] = "Within n steps of an SDCM (MacAdam-type) ellipse"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        k.name: k
-        for k in (
-            KeySpec("max_steps", "positive number", "largest acceptable number of steps from the centre", True),
-            KeySpec("centre", '"F6500", "F5000", "F4000", "F3500", "F3000" or "F2700"', "an IEC 60081 colour centre with its ellipse"),
-            KeySpec("macadam1942", "integer 1 … 25", "one of MacAdam's (1942) 25 ellipses (Wyszecki & Stiles Table 2(5.4.1))"),
-            KeySpec("centre_xy", "array of two numbers [x, y]", "your own centre (CIE 1931 x, y); needs g11, g12, g22"),
-            KeySpec("g11", "number", "coefficient of Δx² of your 1-step ellipse"),
-            KeySpec("g12", "number", "coefficient of Δx·Δy (the form is g11 Δx² + 2 g12 Δx Δy + g22 Δy²)"),
-            KeySpec("g22", "number", "coefficient of Δy² of your 1-step ellipse"),
-        )
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("max_steps", "positive number", "largest acceptable number of steps from the centre", True),
+        KeySpec("centre", '"F6500", "F5000", "F4000", "F3500", "F3000" or "F2700"', "an IEC 60081 colour centre with its ellipse"),
+        KeySpec("macadam1942", "integer 1 … 25", "one of MacAdam's (1942) 25 ellipses (Wyszecki & Stiles Table 2(5.4.1))"),
+        KeySpec("centre_xy", "array of two numbers [x, y]", "your own centre (CIE 1931 x, y); needs g11, g12, g22"),
+        KeySpec("g11", "number", "coefficient of Δx² of your 1-step ellipse"),
+        KeySpec("g12", "number", "coefficient of Δx·Δy (the form is g11 Δx² + 2 g12 Δx Δy + g22 Δy²)"),
+        KeySpec("g22", "number", "coefficient of Δy² of your 1-step ellipse"),
+    )
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     ellipse: regions.SdcmEllipse
     max_steps: float
 
@@ -674,10 +656,6 @@ class Tm30DesignIntentClause(ClauseKind):
         ACCEPT_OUTSIDE_VALIDITY.name: ACCEPT_OUTSIDE_VALIDITY,
     }
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     level: str
     accept_outside_validity: bool = False
 

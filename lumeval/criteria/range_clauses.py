@@ -35,6 +35,7 @@ from .model import (
     ParseError,
     fmt_number,
     is_number,
+    key_table,
     number,
     register_clause_kind,
 )
@@ -189,20 +190,13 @@ class SeriesShiftClause(RangeKind):
 
     KIND: ClassVar[str] = "series_shift"
     TITLE: ClassVar[str] = "Chromaticity shift across settings (Δu′v′ from a reference setting)"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        k.name: k
-        for k in (
-            KeySpec("max_delta_upvp", "positive number", "largest acceptable Δu′v′ (CIE 1976 UCS) from the reference", True),
-            KeySpec("reference", '"max" (default), "min", "locus" or a setting (number)',
-                    "what each setting is compared with: the highest setting (full output), the lowest, one named setting, "
-                    "or each setting's own Planckian point (settings are nominal CCTs in K)"),
-        )
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("max_delta_upvp", "positive number", "largest acceptable Δu′v′ (CIE 1976 UCS) from the reference", True),
+        KeySpec("reference", '"max" (default), "min", "locus" or a setting (number)',
+                "what each setting is compared with: the highest setting (full output), the lowest, one named setting, "
+                "or each setting's own Planckian point (settings are nominal CCTs in K)"),
+    )
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     max_delta_upvp: float
     reference: object = "max"
     over: tuple[float, float] | None = None
@@ -255,17 +249,10 @@ class TrackLocusClause(RangeKind):
 
     KIND: ClassVar[str] = "track_locus"
     TITLE: ClassVar[str] = "Every setting within a Duv band of the Planckian locus"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        k.name: k
-        for k in (
-            KeySpec("max_abs_duv", "positive number ≤ 0.05", "largest acceptable |Duv| at any setting (ANSI C78.377 sign convention)", True),
-        )
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("max_abs_duv", "positive number ≤ 0.05", "largest acceptable |Duv| at any setting (ANSI C78.377 sign convention)", True),
+    )
 
-    clause_id: str
-    label: str
-    note: str
-    line: int | None
     max_abs_duv: float
     over: tuple[float, float] | None = None
 

@@ -25,7 +25,7 @@ say so. All use simple acceptance (the measured value decides, no guard band).
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import Any, ClassVar
 
 import numpy as np
 
@@ -122,7 +122,8 @@ def apply_over(clause, value):
     if isinstance(clause, RangeKind):
         from dataclasses import replace
 
-        return replace(clause, over=over)
+        kind: Any = clause  # every concrete range kind is a dataclass with an `over` field
+        return replace(kind, over=over)
     return OverRange(clause, over)
 
 

@@ -170,7 +170,7 @@ class LotAccumulator:
         self._figs = _Columns(len(self.figure_names), expected)
         self._xy = _Columns(2, expected)
         self._clauses: list[list] = []
-        self._meta: list[tuple[int, object]] = []
+        self._meta: list[tuple[int, Any]] = []  # (samples, Arrow table or None): pyarrow is imported lazily
 
     def __len__(self) -> int:
         return len(self.names)

@@ -93,7 +93,8 @@ def _pct(a, q):
     a = a[np.isfinite(a)]
     if a.size == 0:
         return None
-    return float(np.percentile(a, q, method=run_percentile_method()))
+    method: Any = run_percentile_method()  # one of numpy's method names (a str, not numpy's Literal)
+    return float(np.percentile(a, q, method=method))
 
 
 def run_percentile_method() -> str:

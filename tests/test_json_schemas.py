@@ -32,6 +32,7 @@ COMMANDS = [
     ("check", "check", ["check", A, B, "-c", DEMO / "tender_criteria.toml", "--format", "json"]),
     ("claims", "claims", ["claims", A, "--claims", DEMO / "supplier_claims.toml", "--format", "json"]),
     ("lot", "lot", ["lot", DEMO / "lot_2026w48", "-c", DEMO / "lot_criteria.toml", "--format", "json", "--quiet"]),
+    ("lot-plain", "lot", ["lot", *WEEKLY[:1], "--format", "json", "--quiet"]),
     ("validation", "validation", ["inspect", "--validate-only", A, "--format", "json"]),
     ("mix", "mix", ["mix", DEMO / "tunable" / "tw2_channels.csv", "--cct", "2700:4000:650", "-c",
                     DEMO / "tunable_criteria.toml", "--format", "json"]),
@@ -100,6 +101,7 @@ def test_the_documents_cover_what_the_schemas_allow(outputs):
     """The variants above are the ones the schemas distinguish: with and without criteria, both
     chart kinds, reachable and unreachable mixes."""
     assert "criteria" in outputs["mix"] and "criteria" not in outputs["mix-plain"]
+    assert outputs["lot"]["criteria"] is not None and outputs["lot-plain"]["criteria"] is None
     assert "criteria" in outputs["series"] and "criteria" not in outputs["series-plain"]
     assert outputs["trend"]["chart"] == "xbar-s" and outputs["trend-individuals"]["chart"] == "individuals"
     assert len(outputs["history_list"]["lots"]) == len(WEEKLY)
@@ -181,3 +183,16 @@ def test_schemas_are_package_data():
         s = schemas.schema(kind)
         assert s["properties"]["format"]["const"] == f"lumeval.{kind}"
     assert (REPO / "lumeval" / "py.typed").exists()
+
+
+def test_the_lot_schema_checks_its_inner_objects(outputs):
+    """The lot document's counts, verdict, statistics and chromaticity have required keys: a
+    renamed one fails."""
+    for path, key in ((("counts",), "passed"), (("verdict",), "lot_clauses"), (("statistics", "figures", "Ra"), "p95"),
+                      (("chromaticity",), "centroid_upvp"), (("verdict", "lot_clauses", 0), "margin")):
+        bad = _copy(outputs["lot"])
+        obj = bad
+        for p in path:
+            obj = obj[p]
+        obj[key + "_renamed"] = obj.pop(key)
+        assert _errors("lot", bad), (path, key)

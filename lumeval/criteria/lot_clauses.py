@@ -191,9 +191,9 @@ class LotMaxPairwiseClause(LotClause):
 
     KIND: ClassVar[str] = "lot_max_pairwise"
     TITLE: ClassVar[str] = "Lot: largest pairwise Δu'v' at most a value"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        "max_delta_upvp": KeySpec("max_delta_upvp", "positive number (e.g. 0.004)", "largest acceptable Δu'v' between any two samples", True)
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("max_delta_upvp", "positive number (e.g. 0.004)", "largest acceptable Δu'v' between any two samples", True),
+    )
 
     max_delta_upvp: float
 
@@ -245,9 +245,9 @@ class LotYieldClause(LotClause):
 
     KIND: ClassVar[str] = "lot_yield"
     TITLE: ClassVar[str] = "Lot: yield at least a percentage"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        "min_percent": KeySpec("min_percent", "number 0 … 100", "lowest acceptable share of samples passing every per-sample clause, in %", True)
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("min_percent", "number 0 … 100", "lowest acceptable share of samples passing every per-sample clause, in %", True),
+    )
 
     min_percent: float
 

@@ -651,10 +651,10 @@ class Tm30DesignIntentClause(ClauseKind):
 
     KIND: ClassVar[str] = "tm30_design_intent"
     TITLE: ClassVar[str] = "ANSI/IES TM-30-20 Annex E design-intent level"
-    KEYS: ClassVar[dict[str, KeySpec]] = {
-        "level": KeySpec("level", ", ".join(f'"{k}"' for k in presets.LEVELS), "the design intent (Preference, Vividness, Fidelity) and priority level", True),
-        ACCEPT_OUTSIDE_VALIDITY.name: ACCEPT_OUTSIDE_VALIDITY,
-    }
+    KEYS: ClassVar[dict[str, KeySpec]] = key_table(
+        KeySpec("level", ", ".join(f'"{k}"' for k in presets.LEVELS), "the design intent (Preference, Vividness, Fidelity) and priority level", True),
+        ACCEPT_OUTSIDE_VALIDITY,
+    )
 
     level: str
     accept_outside_validity: bool = False

@@ -178,6 +178,7 @@ def run_lot(
     scheduler: str | None = None,
     workers: int | None = None,
     keep_evaluation: bool = False,
+    read_processes: int | None = None,
 ) -> LotRun:
     """Python twin of ``lumeval lot``: read, evaluate, judge and summarise a lot.
 
@@ -207,6 +208,10 @@ def run_lot(
     keep_evaluation : bool
         Keep the judged samples' spectra and figures in ``LotRun.evaluation`` (for the HTML
         report and plots; memory grows with the lot: about 4 kB per sample). Local runs only.
+    read_processes : int, optional
+        Worker processes reading the files that are not Parquet archives
+        (:func:`lumeval.lots.reading.ordered_reads`): None chooses (parallel from 200 files
+        on), 1 reads them one after the other here. Results and messages do not depend on it.
 
     Returns
     -------
@@ -252,6 +257,10 @@ def run_lot(
         pending = []
         pending_n = 0
 
+    from .reading import ordered_reads
+
+    # files other than archives are read in input order, in worker processes when there are many
+    reads = ordered_reads([f for f, a in zip(files, archives) if not a], read_processes)
     for k, path in enumerate(files):
         if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
             from ..errors import LumevalError
@@ -271,7 +280,7 @@ def run_lot(
             except LumevalError as exc:
                 unreadable.append(Unreadable(path, exc.message))
         else:
-            s, bad = read_one(path)
+            s, bad = next(reads)
             unreadable.extend(bad)
             if s is not None:
                 s = unique_names(s, seen_names)
@@ -283,6 +292,7 @@ def run_lot(
                 flush()
         if progress is not None:
             progress(k + 1, len(files), done)
+    reads.close()  # stops the worker processes, if any
     flush()
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
                       ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,

@@ -1,0 +1,73 @@
+"""The reading side of a lot: reading in worker processes changes nothing.
+
+The reference is the serial read of the same files in the same process: the parallel read must
+give the same samples in the same order, the same refused files and columns with the same
+messages, and the same figures. Figures are compared exactly: the engine runs in this process
+on the same arrays in the same batches either way (the workers only read), so equality is by
+construction.
+"""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from lumeval.lots import reading
+from lumeval.lots.run import read_one, run_lot
+
+DEMO = Path(__file__).resolve().parents[1] / "spectra_demo" / "lot_2026w48"
+
+
+@pytest.fixture(scope="module")
+def mixed_folder(tmp_path_factory):
+    if not DEMO.is_dir():
+        pytest.skip("demo lot not generated (python spectra_demo/generate_lot.py)")
+    d = tmp_path_factory.mktemp("lot")
+    for p in sorted(DEMO.iterdir())[:60]:
+        shutil.copy(p, d / p.name)
+    # refused files between good ones, and a wide file with a refused column
+    (d / "AD30-w48-0105-nan.csv").write_text("wavelength,value\n380,1\n385,nan\n390,1\n", encoding="utf-8")
+    (d / "AD30-w48-0205-empty.csv").write_text("", encoding="utf-8")
+    (d / "AD30-w48-0305-text.csv").write_text("no numbers here\n", encoding="utf-8")
+    wl = np.arange(380, 781, 5)
+    rows = "".join(f"{w},{1 + 0.001 * w},{0.0},{2 - 0.001 * w}\n" for w in wl)
+    (d / "AD30-w48-0405-wide.csv").write_text("wavelength,A,zero,B\n" + rows, encoding="utf-8")
+    return d
+
+
+def test_ordered_reads_in_workers_equal_serial_reads(mixed_folder):
+    files = [str(p) for p in sorted(mixed_folder.iterdir())]
+    serial = [read_one(f) for f in files]
+    parallel = list(reading.ordered_reads(files, processes=2))
+    assert len(parallel) == len(serial)
+    for (s1, bad1), (s2, bad2) in zip(serial, parallel):
+        assert bad1 == bad2
+        assert (s1 is None) == (s2 is None)
+        if s1 is not None:
+            assert s1.names == s2.names and s1.sources == s2.sources and s1.notes == s2.notes
+            np.testing.assert_array_equal(s1.wavelengths_nm, s2.wavelengths_nm)
+            np.testing.assert_array_equal(s1.values, s2.values)
+
+
+def test_lot_read_in_workers_equals_serial_lot(mixed_folder):
+    one = run_lot([mixed_folder], read_processes=1)
+    two = run_lot([mixed_folder], read_processes=2)
+    assert len(one) >= 60 and len(one.unreadable) >= 4
+    assert one.names == two.names and one.sources == two.sources and one.warnings == two.warnings
+    assert one.unreadable == two.unreadable and one.read_paths == two.read_paths
+    for k in one.figures:
+        np.testing.assert_array_equal(one.figures[k], two.figures[k])
+    assert one.exit_code == two.exit_code == 2
+
+
+@pytest.mark.skipif(not reading._FORK, reason="automatic parallel reading forks (Linux)")
+def test_parallel_reading_is_automatic_only_for_many_files(monkeypatch):
+    started = []
+    monkeypatch.setattr(reading, "_pool", lambda n: started.append(n) or (_ for _ in ()).throw(RuntimeError))
+    assert list(reading.ordered_reads([], None)) == []
+    with pytest.raises(RuntimeError):
+        list(reading.ordered_reads(["x"] * reading.PARALLEL_MIN_FILES, None))
+    assert started and started[0] >= 1

@@ -8,6 +8,10 @@ there are many, and wide text files streamed in column blocks.
   files and returns the prepared spectra or the reasons a file (or a column) was refused, as
   values: the results, their order and every message are those of reading the files one by
   one here, whatever the number of processes and whatever finishes first.
+* :func:`stream_blocks` reads a text file larger than the single-file limit
+  (:data:`STREAM_BYTES`, 64 MB) in blocks of columns (:mod:`lumeval.spectra.text_columns`):
+  a wide CSV of any size is judged with bounded memory. A file that cannot be read that way
+  is read whole when it is within the limit, and otherwise refused naming the line at fault.
 * Parallel reading pays off for many small files (a folder of single-spectrum files): the
   workers read while this process evaluates. It is used from :data:`PARALLEL_MIN_FILES`
   files on, with :func:`default_read_processes` workers, unless the caller asks otherwise.
@@ -17,7 +21,7 @@ from __future__ import annotations
 
 import os
 import sys
-from collections.abc import Iterator, Sequence
+from collections.abc import Generator, Iterator, Sequence
 
 #: Fewest files for which reading in worker processes is started (the pool costs ~0.2 s).
 PARALLEL_MIN_FILES = 200
@@ -53,7 +57,7 @@ def _pool(processes: int):
 _FORK = sys.platform.startswith("linux")
 
 
-def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Iterator[tuple]:
+def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generator[tuple, None, None]:
     """``read_one(path)`` for each of ``paths``, in order.
 
     Parameters
@@ -79,3 +83,61 @@ def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Iterato
     finally:
         pool.terminate()
         pool.join()
+
+
+def _stream_bytes() -> int:
+    from ..spectra.text import MAX_TEXT_BYTES
+
+    return MAX_TEXT_BYTES
+
+
+#: Text files larger than this many bytes are read in column blocks (None: the single-file limit).
+STREAM_BYTES: int | None = None
+_NOT_TEXT = (".xml", ".spdx", ".tm27", ".json")
+
+
+def is_streamed(path: str) -> bool:
+    """True for a text file that a lot reads in column blocks (larger than :data:`STREAM_BYTES`)."""
+    if path.lower().endswith(_NOT_TEXT):
+        return False
+    try:
+        size = os.stat(path).st_size
+    except OSError:
+        return False  # read_one gives the message
+    return size > (STREAM_BYTES if STREAM_BYTES is not None else _stream_bytes())
+
+
+def stream_blocks(path: str, block_cols: int) -> Iterator[tuple]:
+    """``(prepared SpectrumSet or None, [Unreadable])`` per block of at most ``block_cols``
+    columns of a wide text file, in order; the usable columns of each block are kept as
+    :func:`lumeval.lots.run.read_one` keeps those of a whole file. Every error of the file is
+    found before the first block is given (:func:`lumeval.spectra.text_columns.plan_columns`)."""
+    from .._paths import display_path
+    from ..errors import InputError, LumevalError
+    from ..spectra.text import MAX_TEXT_BYTES
+    from ..spectra.text_columns import NotStreamable, column_blocks, plan_columns
+    from .inputs import Unreadable
+    from .run import prepare_salvaging, read_one
+
+    shown = display_path(path)
+    try:
+        plan = plan_columns(path, file=shown, block_cols=block_cols)
+    except LumevalError as exc:
+        yield None, [Unreadable(shown, exc.message)]
+        return
+    except NotStreamable as ns:
+        size = os.stat(path).st_size
+        if size <= MAX_TEXT_BYTES:
+            yield read_one(path)
+            return
+        err = InputError(f"is {size / 1e6:.1f} MB, more than the {MAX_TEXT_BYTES / 1e6:.0f} MB read at once, and "
+                         f"cannot be read in column blocks: {ns.reason}", file=shown, line=ns.line,
+                         fix="export plain rows of numbers (wavelength, then one value per spectrum), "
+                         "split the file, or convert it to a Parquet archive")
+        yield None, [Unreadable(shown, err.message)]
+        return
+    try:
+        for raw in column_blocks(path, plan, block_cols):
+            yield prepare_salvaging(raw, shown)
+    except LumevalError as exc:  # the file changed between the pass and a block
+        yield None, [Unreadable(shown, exc.message)]

@@ -113,7 +113,6 @@ def read_one(path: str):
     """(prepared SpectrumSet or None, [Unreadable]) for one file; salvages the usable columns
     of a wide file when some columns cannot be prepared."""
     from ..errors import LumevalError
-    from ..spectra.prepare import prepare
     from ..spectra.read import read_spectra
 
     try:
@@ -122,11 +121,20 @@ def read_one(path: str):
         return None, [Unreadable(display_path(path), exc.message)]
     except OSError as exc:
         return None, [Unreadable(display_path(path), f"{display_path(path)}: cannot be read ({exc.strerror or exc}) — check the file and its permissions")]
+    return prepare_salvaging(raw, display_path(path))
+
+
+def prepare_salvaging(raw, shown: str):
+    """(prepared SpectrumSet or None, [Unreadable]) of the spectra of one file (``shown``):
+    the usable columns of a wide file are kept when some cannot be prepared."""
+    from ..errors import LumevalError
+    from ..spectra.prepare import prepare
+
     try:
         return prepare(raw), []
     except LumevalError as exc:
         if len(raw) == 1:
-            return None, [Unreadable(display_path(path), exc.message)]
+            return None, [Unreadable(shown, exc.message)]
     good, bad = [], []
     for i in range(len(raw)):
         one = raw.subset([i])
@@ -257,10 +265,12 @@ def run_lot(
         pending = []
         pending_n = 0
 
-    from .reading import ordered_reads
-
     # files other than archives are read in input order, in worker processes when there are many
-    reads = ordered_reads([f for f, a in zip(files, archives) if not a], read_processes)
+    from .reading import is_streamed, ordered_reads, stream_blocks
+
+    # a text file over the single-file limit is read in column blocks (lumeval.spectra.text_columns)
+    streamed = [not a and is_streamed(f) for f, a in zip(files, archives)]
+    reads = ordered_reads([f for f, a, w in zip(files, archives, streamed) if not (a or w)], read_processes)
     for k, path in enumerate(files):
         if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
             from ..errors import LumevalError
@@ -279,6 +289,18 @@ def run_lot(
                             progress(k, len(files), done)
             except LumevalError as exc:
                 unreadable.append(Unreadable(path, exc.message))
+        elif streamed[k]:
+            for s, bad in stream_blocks(path, batch_spectra):
+                unreadable.extend(bad)
+                if s is not None:
+                    s = unique_names(s, seen_names)
+                    if not read_paths or read_paths[-1] != path:
+                        read_paths.append(path)
+                    pending.append(s)
+                    pending_n += len(s)
+                    done += len(s)
+                if pending_n >= batch_spectra:
+                    flush()
         else:
             s, bad = next(reads)
             unreadable.extend(bad)

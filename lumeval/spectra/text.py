@@ -185,6 +185,18 @@ def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = Tr
     lines = _content_lines(text)
     if not lines:
         raise InputError("the file is empty", file=file, fix="export the spectrum data into it")
+    return parse_lines(lines, file, stem, fast=fast, comments=comment_lines(text, lines),
+                       non_comment=non_comment_lines(text, lines))
+
+
+def parse_lines(lines: list[tuple[int, str]], file: str, stem: str, *, fast: bool = True,
+                comments: list | None = None, non_comment: list | None = None) -> SpectrumSet:
+    """:func:`parse_text` of a file's non-blank lines, given as (line number, stripped text)
+    (``comments``, ``non_comment``: the comment lines and the others, when known)."""
+    if comments is None:
+        comments = [t for t in lines if _is_comment(t[1])]
+    if non_comment is None:
+        non_comment = [t for t in lines if not _is_comment(t[1])]
     # A large file (a million rows of a fine or irregular grid) is read without memoising its
     # lines, choosing the delimiter and decimal mark on a sample of its lines and converting its
     # block of clean rows in bulk (see _bulk_rows): memory stays a small multiple of the file.
@@ -194,7 +206,7 @@ def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = Tr
     if fast:
         from .text_fast import fast_block
 
-        found = fast_block(non_comment_lines(text, lines), _RowMemo())
+        found = fast_block(non_comment, _RowMemo())
     if found is not None:
         d, block, rest = found
     else:
@@ -206,18 +218,10 @@ def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = Tr
                                                          d.decimal_comma)
     take_rows(d, block, memo, rest, file)
     h = find_header(d.non_comment[: block.start], d.delim, d.decimal_comma, block.ncols, file)
-    meta = collect_metadata(comment_lines(text, lines), h.before, block.footer, d.delim)
+    meta = collect_metadata(comments, h.before, block.footer, d.delim)
     data, row_ln = convert_rows(d, block, memo, h.cells, file)
     wl, data, wl_unit, notes = wavelength_axis(data, row_ln, h, meta, file)
     return name_spectra(wl, data, h, meta, d, wl_unit, notes, file, stem)
-
-
-def read_text(path: str | Path, raw: bytes | None = None) -> SpectrumSet:
-    """Read a delimited text spectrum file (see the module docstring for the rules)."""
-    file = str(path)
-    if raw is None:
-        raw = _read_bytes(path, MAX_TEXT_BYTES)
-    return parse_text(_decode(raw, file), file)
 
 
 def _read_bytes(path: str | Path, limit: int) -> bytes:
@@ -228,6 +232,22 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
     but a regular file (a FIFO, socket or device) is refused, so an input can neither hang
     lumeval nor stream endless bytes (``/dev/zero``) into it.
     """
+    from .._paths import display_path
+
+    raw = with_regular_file(path, lambda fh: fh.read(limit + 1), limit)
+    if len(raw) > limit:
+        raise InputError(
+            f"is more than the {limit / 1e6:.0f} MB lumeval reads",
+            file=display_path(path),
+            fix="split the file or check that it is really a spectrum file",
+        )
+    return raw
+
+
+def with_regular_file(path: str | Path, use, limit: int | None = None):
+    """``use(fh)`` on the regular file ``path`` opened for binary reading, with the checks and
+    messages of :func:`_read_bytes` (``limit``: the largest size accepted, None for any); an
+    ``OSError`` raised while reading becomes the same ``InputError`` as one raised by opening."""
     import os
     import stat
 
@@ -242,7 +262,7 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
         if not stat.S_ISREG(st.st_mode):
             raise InputError(f"is {special_file_kind(st.st_mode)}, not a regular file: lumeval reads regular files only "
                              "(it does not wait on pipes or devices)", file=file, fix="give a regular file")
-        if st.st_size > limit:
+        if limit is not None and st.st_size > limit:
             raise InputError(
                 f"is {st.st_size / 1e6:.1f} MB, more than the {limit / 1e6:.0f} MB lumeval reads",
                 file=file,
@@ -253,7 +273,7 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
             # the path may have been swapped between stat and open: check what was opened
             if not stat.S_ISREG(os.fstat(fh.fileno()).st_mode):
                 raise InputError("is not a regular file", file=file, fix="give a regular file")
-            raw = fh.read(limit + 1)
+            return use(fh)
     except FileNotFoundError:
         raise InputError("no such file", file=file, fix="check the path") from None
     except IsADirectoryError:
@@ -266,13 +286,6 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
         if exc.errno == errno.ELOOP:
             raise InputError("is a symbolic link that loops", file=file, fix="fix or remove the link") from None
         raise InputError(f"cannot be read ({exc.strerror or exc})", file=file, fix="check the path") from None
-    if len(raw) > limit:
-        raise InputError(
-            f"is more than the {limit / 1e6:.0f} MB lumeval reads",
-            file=file,
-            fix="split the file or check that it is really a spectrum file",
-        )
-    return raw
 
 
 def special_file_kind(mode: int) -> str:

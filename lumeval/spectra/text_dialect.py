@@ -64,9 +64,12 @@ def _is_number(cell: str, decimal_comma: bool) -> bool:
 
 _NUM_POINT = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
 _NUM_ANY = r"[+-]?(?:[0-9]+(?:[.,][0-9]*)?|[.,][0-9]+)(?:[eE][+-]?[0-9]+)?"
+# Possessive repetitions (*+, ++, {n}+): a row is matched without a backtracking stack per cell
+# (a 20,000-cell row would otherwise take megabytes); giving back a matched cell never helps,
+# since a number cannot match the separator or the end.
 _ROW = {
-    False: re.compile(rf"(?:{_NUM_POINT})(?:\x1f(?:{_NUM_POINT}))*\Z"),
-    True: re.compile(rf"(?:{_NUM_ANY})(?:\x1f(?:{_NUM_ANY}))*\Z"),
+    False: re.compile(rf"(?:{_NUM_POINT})(?:\x1f(?:{_NUM_POINT}))*+\Z"),
+    True: re.compile(rf"(?:{_NUM_ANY})(?:\x1f(?:{_NUM_ANY}))*+\Z"),
 }
 
 
@@ -208,7 +211,7 @@ def _numeric_lines(non_comment: list, delim: str | None):
     line instead of a split and a conversion: the large-file path scans every line this way."""
     sep = r"\s+" if delim is None else r"\s*" + re.escape(delim) + r"\s*"
     trail = "" if delim is None else r"(?:\s*" + re.escape(delim) + r")*"
-    match = re.compile(rf"{_NUM_ANY}(?:{sep}{_NUM_ANY})+{trail}").fullmatch
+    match = re.compile(rf"{_NUM_ANY}(?:{sep}{_NUM_ANY})++{trail}").fullmatch
     for ln, s in non_comment:
         if match(s):
             yield ln, s

@@ -68,7 +68,7 @@ def clean_row_matcher(delim: str | None, ncols: int, decimal_comma: bool):
     num = _NUM_ANY if decimal_comma else _NUM_POINT
     sep = r"\s+" if delim is None else r"\s*" + re.escape(delim) + r"\s*"
     trail = "" if delim is None else r"(?:\s*" + re.escape(delim) + r")*"
-    return re.compile(rf"{num}(?:{sep}{num}){{{ncols - 1}}}{trail}").fullmatch
+    return re.compile(rf"{num}(?:{sep}{num}){{{ncols - 1}}}+{trail}").fullmatch
 
 
 def convert_block(text: str, delim: str | None, decimal_comma: bool, nrows: int, ncols: int) -> np.ndarray | None:
@@ -91,47 +91,74 @@ def convert_block(text: str, delim: str | None, decimal_comma: bool, nrows: int,
     return data
 
 
-def fast_block(non_comment: list, memo: _RowMemo) -> tuple[Dialect, Block, int] | None:
-    """(dialect, data block with ``bulk`` filled, index in ``non_comment`` of the first line
-    after the block) of a file, or None when the line-by-line path must read it."""
-    nc = non_comment
-    n = len(nc)
-    i0 = next((i for i, (_, s) in enumerate(nc) if _looks_numeric(s)), None)
-    if i0 is None:
-        return None
-    head_end = min(n, i0 + HEAD_ROWS)
-    tail_start = max(head_end, n - TAIL_LINES)
-    sample = nc[:head_end] + nc[tail_start:]
+def sample_plan(head: list, tail: list, middle_comma: bool, middle_point: bool, has_middle: bool,
+                memo: _RowMemo) -> tuple[str | None, bool, int, int, int] | None:
+    """(delimiter, decimal comma, start, cell count, end) of a file from its sample: the
+    ``head`` lines (up to the first line that looks like a number + :data:`HEAD_ROWS`), the
+    ``tail`` lines (the last :data:`TAIL_LINES`) and what the lines in between hold (a
+    ``,``, a ``.``; ``has_middle``: there are such lines, all of which must then be clean
+    rows). ``start`` indexes ``head`` (``head + tail`` without a middle); ``end`` is the end of
+    the block in ``tail`` (in ``head + tail`` without a middle). None: the line-by-line path
+    must read the file."""
+    sample = head + tail
     delim, score = _choose_delimiter(sample, memo)
     if score <= 0:
         return None
-    middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
     decimal_comma = False
     if delim != ",":
         saw_comma, saw_point = scan_decimal_marks(sample, delim, memo)
-        comma = saw_comma is not None or "," in middle_text
-        if comma and (saw_point is not None or "." in middle_text):
+        comma = saw_comma is not None or middle_comma
+        if comma and (saw_point is not None or middle_point):
             return None
         decimal_comma = comma
-    # the first row of numbers: in the sample's head (the middle must be inside the block)
-    search_end = head_end if tail_start > head_end else n
+    # the first row of numbers: in the head (a middle must be inside the block)
+    search = head if has_middle else sample
     start = None
-    for i in range(search_end):
-        cells = memo.split(nc[i][1], delim)
+    for i, (_, s) in enumerate(search):
+        cells = memo.split(s, delim)
         if len(cells) >= 2 and memo.all_numbers(cells, decimal_comma):
             start = i
             break
     if start is None:
         return None
-    ncols = len(memo.split(nc[start][1], delim))
+    ncols = len(memo.split(search[start][1], delim))
     clean = clean_row_matcher(delim, ncols, decimal_comma)
-    has_middle = tail_start > head_end
-    end, lo = n, (tail_start if has_middle else start)
-    while end > lo and not clean(nc[end - 1][1]):
+    lines, lo = (tail, 0) if has_middle else (sample, start)
+    end = len(lines)
+    while end > lo and not clean(lines[end - 1][1]):
         end -= 1
+    return delim, decimal_comma, start, ncols, end
+
+
+def head_tail(non_comment: list) -> tuple[int, int] | None:
+    """(end of the head sample, start of the tail sample) in ``non_comment``."""
+    n = len(non_comment)
+    i0 = next((i for i, (_, s) in enumerate(non_comment) if _looks_numeric(s)), None)
+    if i0 is None:
+        return None
+    head_end = min(n, i0 + HEAD_ROWS)
+    return head_end, max(head_end, n - TAIL_LINES)
+
+
+def fast_block(non_comment: list, memo: _RowMemo) -> tuple[Dialect, Block, int] | None:
+    """(dialect, data block with ``bulk`` filled, index in ``non_comment`` of the first line
+    after the block) of a file, or None when the line-by-line path must read it."""
+    nc = non_comment
+    ht = head_tail(nc)
+    if ht is None:
+        return None
+    head_end, tail_start = ht
+    has_middle = tail_start > head_end
+    middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
+    plan = sample_plan(nc[:head_end], nc[tail_start:], "," in middle_text, "." in middle_text, has_middle, memo)
+    if plan is None:
+        return None
+    delim, decimal_comma, start, ncols, end = plan
+    if has_middle:  # start < head_end <= tail_start <= end
+        end += tail_start
     if end - start < 2:
         return None
-    if has_middle:  # start < head_end <= tail_start <= end
+    if has_middle:
         parts = [s for _, s in nc[start:head_end]] + [middle_text] + [s for _, s in nc[tail_start:end]]
     else:
         parts = [s for _, s in nc[start:end]]

@@ -60,7 +60,7 @@ def _bulk_rows(non_comment: list, start: int, delim: str | None, ncols: int, dec
     num = _NUM_ANY if decimal_comma else _NUM_POINT
     sep = r"\s+" if delim is None else r"\s*" + re.escape(delim) + r"\s*"
     trail = "" if delim is None else r"(?:\s*" + re.escape(delim) + r")*"
-    rx = re.compile(rf"{num}(?:{sep}{num}){{{ncols - 1}}}{trail}")
+    rx = re.compile(rf"{num}(?:{sep}{num}){{{ncols - 1}}}+{trail}")
     match = rx.fullmatch
     end = start
     n = len(non_comment)

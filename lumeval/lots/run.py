@@ -289,8 +289,8 @@ def run_lot(
                             progress(k, len(files), done)
             except LumevalError as exc:
                 unreadable.append(Unreadable(path, exc.message))
-        elif streamed[k]:
-            for s, bad in stream_blocks(path, batch_spectra):
+        else:  # read whole (in input order, maybe by workers), or a big text file in column blocks
+            for s, bad in (stream_blocks(path, batch_spectra) if streamed[k] else (next(reads),)):
                 unreadable.extend(bad)
                 if s is not None:
                     s = unique_names(s, seen_names)
@@ -301,17 +301,6 @@ def run_lot(
                     done += len(s)
                 if pending_n >= batch_spectra:
                     flush()
-        else:
-            s, bad = next(reads)
-            unreadable.extend(bad)
-            if s is not None:
-                s = unique_names(s, seen_names)
-                read_paths.append(path)
-                pending.append(s)
-                pending_n += len(s)
-                done += len(s)
-            if pending_n >= batch_spectra:
-                flush()
         if progress is not None:
             progress(k + 1, len(files), done)
     reads.close()  # stops the worker processes, if any

@@ -31,7 +31,7 @@ import numpy as np
 
 from .model import SpectrumSet
 from .text_dialect import _COMMENT_PREFIXES, Dialect, _choose_delimiter, _content_lines, _RowMemo
-from .text_fast import HEAD_ROWS, TAIL_LINES, _looks_numeric, sample_plan
+from .text_fast import HEAD_ROWS, TAIL_LINES, _looks_numeric, head_tail, sample_plan
 from .text_header import Header
 
 #: Value columns per block.
@@ -163,6 +163,9 @@ def _plan(fh, file: str, block_cols: int, keep_values: int) -> ColumnPlan:
         raise NotStreamable("the file is short: read it whole")
     head_text = _decode_lines(p.head, file)
     head_nc = [t for t in head_text if not t[1].startswith(_COMMENT_PREFIXES)]
+    ht = head_tail(head_nc + [(0, "")] * TAIL_LINES)  # the head that reading the whole file samples
+    if ht is None or ht[0] != len(head_nc):
+        raise NotStreamable("the head reads differently once decoded")
     delim, score = _choose_delimiter(head_nc, _RowMemo(cache=False))
     if score <= 0:
         raise NotStreamable("no rows of numbers at the start")
@@ -225,8 +228,8 @@ def _finish(p: _Pass, it, file, head_text, head_nc, delim, start, ncols, head_ro
                 rows = []
             if keep:
                 rows.append(row0)
-    if not rows_ln[len(head_rows):] and not tail:
-        raise NotStreamable("the file is short: read it whole")
+    if len(rows_ln) == len(head_rows):  # no line between the head and the last lines
+        raise NotStreamable("the file has few lines: read it whole")
     # decoded together, as the whole file would be (its rows are ASCII)
     all_text = _decode_lines(p.head + p.comments + [(ln, s) for ln, s, _, _ in tail], file)
     if all_text[: len(head_text)] != head_text:

@@ -159,7 +159,7 @@ def _to_float(cell: str, decimal_comma: bool) -> float:
 def _content_lines(text: str) -> list[tuple[int, str]]:
     """(1-based line number, text) of every non-blank line."""
     # Same breaks as _LINE_SPLIT (CRLF, then lone CR, then LF), by plain string operations.
-    parts = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    parts = (text.replace("\r\n", "\n").replace("\r", "\n") if "\r" in text else text).split("\n")
     if "\ufeff" not in text:  # the same lines without the second strip (one comprehension)
         return [(i, s) for i, s in enumerate(map(str.strip, parts), start=1) if s]
     out = []
@@ -170,16 +170,24 @@ def _content_lines(text: str) -> list[tuple[int, str]]:
     return out
 
 
+def _no_comment_mark(text: str, lines: list) -> bool:
+    """True when ``text`` has no comment mark at all (searched in the text when its lines are
+    short: quicker than looking at each line; long lines are looked at one by one)."""
+    if len(text) > 256 * len(lines):
+        return not any(s.startswith(_COMMENT_PREFIXES) for _, s in lines)
+    return "#" not in text and "%" not in text and "//" not in text
+
+
 def comment_lines(text: str, lines: list[tuple[int, str]]) -> list[tuple[int, str]]:
     """The comment lines among ``lines`` (the non-blank lines of ``text``)."""
-    if "#" not in text and "%" not in text and "//" not in text:
+    if _no_comment_mark(text, lines):
         return []
     return [t for t in lines if t[1].startswith(_COMMENT_PREFIXES)]
 
 
 def non_comment_lines(text: str, lines: list[tuple[int, str]]) -> list[tuple[int, str]]:
     """The lines of ``lines`` that are not comments (the same tuples, not copies)."""
-    if "#" not in text and "%" not in text and "//" not in text:
+    if _no_comment_mark(text, lines):
         return lines
     return [t for t in lines if not t[1].startswith(_COMMENT_PREFIXES)]
 

@@ -11,7 +11,8 @@ read them. Nothing is computed or drawn here.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -60,6 +61,19 @@ class VerdictRow:
     #: region: CCT and Duv measured, the margin in Δu'v'); None: from the figure registry.
     measured_text: str | None = None
     margin_text: str | None = None
+    #: (clause result, spectrum index) the row was read from: its words are made only for the
+    #: rows a report shows (:meth:`words`), not for every sample of a large lot.
+    origin: Any = field(default=None, repr=False, compare=False)
+
+    def words(self) -> tuple[str, str] | None:
+        """(measured, margin) in the clause kind's own words, or None (then the registry's format)."""
+        if self.measured_text is not None and self.margin_text is not None:
+            return self.measured_text, self.margin_text
+        if self.origin is not None:
+            t = _clause_texts(*self.origin)
+            if t:
+                return t["measured_text"], t["margin_text"]
+        return None
 
 
 def _get(obj, *names, default=None):
@@ -126,7 +140,7 @@ def _expand_check(check, names: Sequence[str]) -> list[VerdictRow]:
                     reason=reason[i] if i < len(reason) else "",
                     expanded_uncertainty=_opt_float(big_u[i]) if big_u is not None and i < len(big_u) else None,
                     p_conformance=_opt_float(p_c[i]) if p_c is not None and i < len(p_c) else None,
-                    **_clause_texts(r, i),
+                    origin=(r, i),
                 )
             )
     return rows

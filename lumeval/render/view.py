@@ -201,8 +201,9 @@ def check_line(r: VerdictRow) -> CheckLine:
     unit = "" if not r.unit else (r.unit if r.unit == "%" else f" {r.unit}")
     finite = isinstance(r.measured, (int, float)) and math.isfinite(float(r.measured))
     fmt = _judged_decimals(r.figure)
-    if r.measured_text is not None and r.margin_text is not None:  # the clause kind's own words
-        meas, marg = r.measured_text, r.margin_text
+    words = r.words()
+    if words is not None:  # the clause kind's own words
+        meas, marg = words
     elif fmt is None:
         meas = plain_number(r.measured) + (unit if finite else "")
         marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else plain_number(r.margin, "+g") + unit

@@ -216,8 +216,12 @@ def _err(spectra: SpectrumSet, i: int, problem: str, fix: str) -> InputError:
     return InputError(problem, file=file or spectra.names[i], field=col or None, fix=fix)
 
 
-def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: list[list[str]]) -> np.ndarray:
-    """Validate values inside 360-830 nm; clip small negative noise. Returns new values."""
+def _check_values(
+    spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: list[list[str]], owned: bool = False
+) -> np.ndarray:
+    """Validate values inside 360-830 nm; clip small negative noise. Returns the values: ``vals``
+    itself when nothing is clipped (``wl`` is increasing), else a copy with the clipped rows
+    (``vals`` is changed in place only when ``owned``)."""
     inside = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
     if not np.any(inside):
         raise _err(
@@ -226,16 +230,21 @@ def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes:
             f"no data inside 360-830 nm (the data run from {_fmt(wl[0])} to {_fmt(wl[-1])} nm)",
             "check the wavelength unit (nm expected) and that this is a visible-light spectrum",
         )
-    vals = vals.copy()
     # Vectorised pre-screen: only rows that fail a check (to raise its exact message) or that
     # hold negative values (to note and clip them) go through the per-row checks below, in row
-    # order, so the first failing row raises as before.
+    # order, so the first failing row raises as before. The screen reads views and row-sized
+    # reductions: no copy of the values (bounded memory, docs/lots.md).
+    first = int(np.argmax(inside))
+    in_cols = slice(first, first + int(inside.sum()))  # wl increases: "inside" is one run
     with np.errstate(invalid="ignore"):
-        v_in = vals[:, inside]
+        v_in = vals[:, in_cols]
         peak_all = v_in.max(axis=1)
         low_all = v_in.min(axis=1)
+        finite_all = np.isfinite(vals.sum(axis=1)) & np.isfinite(peak_all)
+        if not finite_all.all():  # an inf or NaN somewhere (or values summing to inf): row by row
+            finite_all = np.fromiter((np.isfinite(r).all() for r in vals), dtype=bool, count=vals.shape[0])
         flagged = (
-            ~np.all(np.isfinite(vals), axis=1)
+            ~finite_all
             | ~(peak_all > 0)
             | ~((peak_all >= MIN_PEAK) & (peak_all <= MAX_PEAK))
             | (low_all == peak_all)
@@ -292,6 +301,8 @@ def _check_values(spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes:
                 f"{n_neg} value(s) between 360 and 830 nm below zero (down to {low:.3g}, "
                 f"{(-low / peak) * 100:.2g} % of the peak) treated as noise and set to zero"
             )
+            if not owned:  # copy once, at the first row to clip: the input stays as given
+                vals, owned = vals.copy(), True
             vals[i] = np.maximum(vals[i], 0.0)
     return vals
 
@@ -304,7 +315,11 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     if spectra.prepared:
         return spectra
     wl = np.asarray(spectra.wavelengths_nm, dtype=float)
-    vals = np.array(spectra.values, dtype=float)
+    # The values are copied only where a step changes them (sorting, clipping, interpolating,
+    # extending); data already on the computation grid are used as given, so preparing a
+    # chunk needs little more than the chunk itself (memory, docs/lots.md).
+    vals = np.asarray(spectra.values, dtype=float)
+    owned = vals is not spectra.values
     notes = [list(n) for n in spectra.notes]
     n = len(spectra)
     if wl.size < 2 or not np.all(np.isfinite(wl)):
@@ -312,7 +327,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     d = np.diff(wl)
     if np.all(d < 0):
         order = np.argsort(wl)
-        wl, vals = wl[order], vals[:, order]
+        wl, vals, owned = wl[order], vals[:, order], True
         for k in range(n):
             notes[k].append("wavelengths were in descending order; sorted ascending")
         d = np.diff(wl)
@@ -325,7 +340,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
             "sort the data by wavelength and remove duplicate rows",
         )
 
-    vals = _check_values(spectra, wl, vals, notes)
+    vals = _check_values(spectra, wl, vals, notes, owned)
 
     # coverage check on the raw data (after cropping to 360-830)
     lo = max(wl[0], CIE_MIN_NM)
@@ -376,7 +391,9 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     as_measured = uniform and (abs(step - 1) < 1e-9 or abs(step - 5) < 1e-9) and _on_integer_grid(wl)
     if as_measured:
         keep = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
-        wl_new, vals_new = np.round(wl[keep]), vals[:, keep]
+        first = int(np.argmax(keep))
+        cols = slice(first, first + int(keep.sum()))  # one run (wl increases): a view, not a copy
+        wl_new, vals_new = np.round(wl[cols]), vals[:, cols]
         h = step
     else:
         h = 1.0
@@ -408,6 +425,9 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
             notes[k].append("data " + " and ".join(parts) + " dropped (CIE 15 range 360-830 nm)")
 
     wl_new, vals_new = _extend(wl_new, vals_new, h, REQUIRED_START_NM, REQUIRED_END_NM, notes)
+    if np.shares_memory(vals_new, spectra.values):  # a view of the input: read-only, so nothing
+        vals_new = vals_new.view()                  # downstream can change the caller's data
+        vals_new.flags.writeable = False
     return SpectrumSet(
         wl_new,
         vals_new,

@@ -127,8 +127,11 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
     cols["steps_centroid"] = num(st.steps_centroid)
     cols["delta_upvp_nominal"] = num(st.d_upvp_nominal)
     cols["steps_nominal"] = num(st.steps_nominal)
-    for k, v in run.figures.items():
-        cols[k] = num(v)
+    from .lots.columns import figure_rows
+
+    mat = figure_rows(run.figures, start, stop)  # rows start:stop of every figure, read once
+    for j, k in enumerate(run.figures):
+        cols[k] = pa.array(mat[:, j], type=f64)
     if run.check is not None:
         for r in run.check.results:
             cols[f"clause:{r.clause_id}"] = pa.array(list(r.outcome[sl]), type=pa.string())

@@ -23,6 +23,7 @@ a script. Exit code 2 (bad input) is raised before any verdict exists.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -175,9 +176,9 @@ class CheckResult:
     criteria_file : str
     """
 
-    names: tuple[str, ...]
-    sources: tuple[str, ...]
-    warnings: tuple[tuple[str, ...], ...]
+    names: Sequence[str]  # a tuple, or a lot's packed column (lumeval.lots.columns)
+    sources: Sequence[str]
+    warnings: Sequence[tuple[str, ...]]
     results: tuple[ClauseResult, ...]
     identification: dict
     criteria_file: str

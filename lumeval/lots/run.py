@@ -13,7 +13,7 @@ others. Nothing here prints or imports a command-line library.
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
@@ -38,10 +38,14 @@ class LotRun:
 
     Attributes
     ----------
-    names, sources : tuple of str (N,)
-    warnings : tuple of tuple of str (N,)
-    figures : dict of str -> ndarray (N,)
-        Every figure of the registry (:func:`lumeval.figures.names`).
+    names, sources : sequence of str (N,)
+        Packed (:class:`lumeval.lots.columns.TextColumn`); equal to the tuple of the strings.
+    warnings : sequence of tuple of str (N,)
+    figures : mapping of str -> ndarray (N,)
+        Every figure of the registry (:func:`lumeval.figures.names`); in a lot run a
+        :class:`lumeval.lots.columns.FigureColumns` (a large lot keeps them in a temporary
+        file: ``figures[name]`` reads one figure, :func:`lumeval.lots.columns.figure_rows` a
+        range of rows of all).
     xy : ndarray (N, 2)
     stats : lumeval.lots.statistics.LotStatistics
     check : lumeval.criteria.verdicts.CheckResult or None
@@ -55,10 +59,10 @@ class LotRun:
     identification : dict
     """
 
-    names: tuple[str, ...]
-    sources: tuple[str, ...]
-    warnings: tuple[tuple[str, ...], ...]
-    figures: dict
+    names: Sequence[str]
+    sources: Sequence[str]
+    warnings: Sequence[tuple[str, ...]]
+    figures: Mapping[str, np.ndarray]
     xy: np.ndarray
     stats: object
     check: object | None

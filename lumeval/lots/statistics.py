@@ -395,14 +395,13 @@ def screen_outliers(
     reasons : tuple of tuple of str (N,)
     z : dict of str -> ndarray (N,)
     """
-    n = None
-    for v in figures.values():
-        n = np.asarray(v).shape[0]
-        break
+    from .columns import n_samples
+
+    n = n_samples(figures)
     if n is None:
         return np.zeros(0, dtype=bool), (), {}
     flags = np.zeros(n, dtype=bool)
-    reasons: list[list[str]] = [[] for _ in range(n)]
+    reasons: dict[int, list[str]] = {}  # flagged samples only (a lot may have 10^6 samples)
     zs: dict[str, np.ndarray] = {}
     from .. import figures as registry
 
@@ -419,12 +418,12 @@ def screen_outliers(
         label = registry.label(name)
         for i in np.flatnonzero(hit):
             side = "above" if z[i] > 0 else "below"
-            reasons[i].append(
+            reasons.setdefault(int(i), []).append(
                 f"{label} = {_fmt(name, x[i])} lies {side} the lot median {_fmt(name, med)} "
                 f"(modified z = {z[i]:+.1f}, |z| > {threshold:g})"
             )
         flags |= hit
-    return flags, tuple(tuple(r) for r in reasons), zs
+    return flags, tuple(tuple(reasons[i]) if i in reasons else () for i in range(n)), zs
 
 
 def lot_yield(verdicts: Sequence[str]) -> LotYield:
@@ -495,12 +494,18 @@ def lot_statistics(
     -------
     LotStatistics
     """
+    from .columns import FigureColumns
+
     names = list(figures)
     xy = np.atleast_2d(np.asarray(xy, dtype=float))
     n = xy.shape[0]
-    for k in names:
-        if np.asarray(figures[k]).shape != (n,):
-            raise ValueError(f"figure {k!r} has shape {np.shape(figures[k])}, expected ({n},)")
+    if isinstance(figures, FigureColumns):  # one length for all: no column read just to check it
+        if figures.n_rows != n:
+            raise ValueError(f"figures of {figures.n_rows} samples, expected {n}")
+    else:
+        for k in names:
+            if np.asarray(figures[k]).shape != (n,):
+                raise ValueError(f"figure {k!r} has shape {np.shape(figures[k])}, expected ({n},)")
     if verdicts is not None and len(verdicts) != n:
         raise ValueError(f"{len(verdicts)} verdicts for {n} samples")
     notes: list[str] = []

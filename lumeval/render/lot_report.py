@@ -123,6 +123,7 @@ def lot_document(run) -> dict:
     meta = _metadata_values(run)
     from ..spectra.archive import json_safe
 
+    figs = {k: run.figures[k] for k in JSON_SAMPLE_FIGURES}  # each column read once (a lot may keep them on disk)
     for i in range(len(run)):
         rec = {
             "name": run.names[i],
@@ -140,7 +141,7 @@ def lot_document(run) -> dict:
             "steps_nominal": _arr(st.steps_nominal, i),
         }
         for k in JSON_SAMPLE_FIGURES:
-            rec[k] = _num(run.figures[k][i])
+            rec[k] = _num(figs[k][i])
         if run.check is not None and getattr(run.check, "uncertainty", None):
             rec["clauses"] = {
                 r.clause_id: {
@@ -242,11 +243,14 @@ def lot_json(run, out=None) -> str | None:
     return None
 
 
-def _metadata_values(run) -> list[tuple[str, list]]:
-    """(column, Python values) of the archive metadata carried by ``run`` (empty without)."""
+def _metadata_values(run, start: int = 0, length: int | None = None) -> list[tuple[str, list]]:
+    """(column, Python values) of the archive metadata carried by ``run`` (empty without), for
+    ``length`` samples from ``start`` (default: all)."""
     tbl = getattr(run, "metadata", None)
     if tbl is None:
         return []
+    if start or length is not None:
+        tbl = tbl.slice(start, length)
     return [(name, tbl.column(name).to_pylist()) for name in tbl.column_names]
 
 
@@ -303,6 +307,10 @@ def _cell(v) -> str:
     return repr(f) if math.isfinite(f) else ""
 
 
+#: Rows of figures read at a time while writing the per-sample CSV.
+_CSV_ROWS = 4096
+
+
 def samples_csv(run, out=None) -> str | None:
     """One row per sample: verdict, outlier flag and reasons, Δu'v' and steps, every figure,
     each per-sample clause's outcome, and the warnings (joined with " | ").
@@ -315,13 +323,17 @@ def samples_csv(run, out=None) -> str | None:
     w.writerow([t(c) for c in csv_columns(run)])
     st = run.stats
     verdicts = run.sample_verdicts
-    meta = _metadata_values(run)
-    fig_mat = np.column_stack([run.figures[k] for k in run.figures]) if run.figures else np.empty((len(run), 0))
+    from ..lots.columns import figure_rows
+
+    fig_mat, meta = np.empty((0, 0)), []
     for i in range(len(run)):
+        if i % _CSV_ROWS == 0:  # figures and metadata a block of rows at a time (a lot may keep them on disk)
+            fig_mat = figure_rows(run.figures, i, i + _CSV_ROWS)
+            meta = _metadata_values(run, i, _CSV_ROWS)
         row = [
             csv_first_cell(run.names[i]),
             t(run.sources[i]),
-            *(_csv_value(v[i]) for _, v in meta),
+            *(_csv_value(v[i % _CSV_ROWS]) for _, v in meta),
             verdicts[i] if verdicts is not None else "",
             "yes" if st.outlier[i] else "no",
             t(" | ".join(st.outlier_reasons[i])),
@@ -330,7 +342,7 @@ def samples_csv(run, out=None) -> str | None:
             _cell(None if st.d_upvp_nominal is None else st.d_upvp_nominal[i]),
             _cell(None if st.steps_nominal is None else st.steps_nominal[i]),
         ]
-        row += [_cell(v) for v in fig_mat[i]]
+        row += [_cell(v) for v in fig_mat[i % _CSV_ROWS]]
         if run.check is not None:
             row += [r.outcome[i] for r in run.check.results]
         row.append(t(" | ".join(run.warnings[i])))

@@ -140,7 +140,7 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
 
 
 #: Rows converted to Arrow at a time when writing a lot's samples.
-SAMPLES_SLICE = 65536
+SAMPLES_SLICE = 16384
 
 
 def write_samples_parquet(run, path, *, option: str | None = "--samples-parquet") -> None:

@@ -5,8 +5,9 @@ name, the source and the warnings. Kept as Python objects (a float64 array per f
 but one ``str`` object per name, one tuple per sample's warnings) they cost about 1.25 kB per
 sample, 1.4 GB for 10^6 samples. Here:
 
-* :class:`TextColumn` packs strings as UTF-8 bytes with an offset per string (about the text's
-  length plus 8 bytes per sample, instead of ~60 bytes of object header per string);
+* :class:`TextColumn` packs strings as UTF-8 bytes with an offset per string, compressed in
+  blocks (a few bytes plus 8 per sample, instead of ~60 bytes of object header per string and
+  the text itself);
 * :class:`TextTuples` packs a tuple of strings per sample (the warnings) the same way;
 * :class:`FigureColumns` holds the figures, float64, in blocks of rows; past
   :data:`SPILL_BYTES` in memory the blocks go to an anonymous temporary file (deleted when the
@@ -21,6 +22,7 @@ from __future__ import annotations
 
 import os
 import tempfile
+import zlib
 from array import array
 from collections.abc import Iterable, Iterator, Mapping, Sequence
 from typing import IO
@@ -28,9 +30,11 @@ from typing import IO
 import numpy as np
 
 #: Figures kept in memory up to this many bytes per lot; beyond, blocks go to a temporary file.
-SPILL_BYTES = 64 * 2**20
+SPILL_BYTES = 16 * 2**20
 #: Rows gathered before a block of figures is sealed (kept or written to the temporary file).
 BLOCK_ROWS = 2048
+#: Strings per compressed block of a :class:`TextColumn`.
+TEXT_BLOCK = 4096
 
 _ENC = ("utf-8", "surrogatepass")  # names may carry lone surrogates (undecodable file names)
 
@@ -48,25 +52,40 @@ class _SequenceEq:
 
 
 class TextColumn(_SequenceEq, Sequence[str]):
-    """A growing sequence of strings packed as UTF-8 bytes and end offsets."""
+    """A growing sequence of strings packed as UTF-8 bytes and end offsets, in blocks of
+    :data:`TEXT_BLOCK` strings compressed once full (zlib, level 1: names, sources and warnings
+    of a lot repeat a lot of text). Reading decompresses one block at a time (the last one is
+    kept), so reading in order costs one decompression per block."""
 
     def __init__(self, items: Iterable[str] = ()) -> None:
-        self._data = bytearray()
-        self._ends = array("q")
+        self._blocks: list[bytes] = []  # full blocks, compressed
+        self._open = bytearray()  # the block being filled
+        self._ends = array("q")  # end of each string inside its block
+        self._cache: tuple[int, bytes] = (-1, b"")
         self.extend(items)
 
     def extend(self, items: Iterable[str]) -> None:
-        data, ends = self._data, self._ends
         for s in items:
-            data += s.encode(*_ENC)
-            ends.append(len(data))
+            self._open += s.encode(*_ENC)
+            self._ends.append(len(self._open))
+            if len(self._ends) % TEXT_BLOCK == 0:
+                self._blocks.append(zlib.compress(self._open, 1))
+                self._open = bytearray()
 
     def __len__(self) -> int:
         return len(self._ends)
 
+    def _block(self, b: int) -> bytes | bytearray:
+        if b == len(self._blocks):
+            return self._open
+        if self._cache[0] != b:
+            self._cache = (b, zlib.decompress(self._blocks[b]))
+        return self._cache[1]
+
     def _one(self, i: int) -> str:
-        start = self._ends[i - 1] if i else 0
-        return self._data[start : self._ends[i]].decode(*_ENC)
+        b, k = divmod(i, TEXT_BLOCK)
+        start = self._ends[i - 1] if k else 0
+        return self._block(b)[start : self._ends[i]].decode(*_ENC)
 
     def __getitem__(self, i):
         if isinstance(i, slice):
@@ -79,17 +98,16 @@ class TextColumn(_SequenceEq, Sequence[str]):
         return self._one(i)
 
     def __iter__(self) -> Iterator[str]:
-        data, start = self._data, 0
-        for end in self._ends:
-            yield data[start:end].decode(*_ENC)
-            start = end
+        for i in range(len(self)):
+            yield self._one(i)
 
     def __repr__(self) -> str:
         return f"TextColumn({len(self)} strings)"
 
     @property
     def nbytes(self) -> int:
-        return len(self._data) + 8 * len(self._ends)
+        """Bytes held (compressed blocks, the open block, the offsets)."""
+        return sum(len(b) for b in self._blocks) + len(self._open) + 8 * len(self._ends)
 
 
 class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):

@@ -15,6 +15,7 @@ from __future__ import annotations
 import os
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import TYPE_CHECKING
 
 from .inputs import Skipped, Unreadable, display_path, expand_inputs
@@ -89,8 +90,9 @@ class LotRun:
     def __len__(self) -> int:
         return len(self.names)
 
-    @property
+    @cached_property
     def sample_verdicts(self) -> tuple[str, ...] | None:
+        """Each sample's overall verdict (combined once: a lot may have 10^6 samples)."""
         return self.check.verdicts if self.check is not None else None  # type: ignore[attr-defined]
 
     @property

@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint venv clean bench fuzz browser-deps postgres-deps
+.PHONY: demo test lint venv clean bench bench-lots bench-lots-quick fuzz browser-deps postgres-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -76,6 +76,16 @@ bench: $(STAMP)
 	$(PY) bench/benchmark.py
 	$(PY) bench/bench_store.py
 	$(PY) bench/bench_mix.py
+	OPENBLAS_NUM_THREADS=1 $(PY) bench/run_all.py
+
+# The lot benchmark set (docs/lots.md, "Speed and memory"): engine spectra/s, `lumeval lot` end
+# to end on a 20,000-spectrum wide CSV, 10,000 single files and a 1,000,000-spectrum Parquet
+# archive (peak RSS), Dask 2 workers vs 1 process; a summary against the targets.
+bench-lots: $(STAMP)
+	OPENBLAS_NUM_THREADS=1 $(PY) bench/run_all.py
+
+bench-lots-quick: $(STAMP)
+	OPENBLAS_NUM_THREADS=1 $(PY) bench/run_all.py --quick
 
 # On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
 fuzz: $(STAMP)

@@ -1,0 +1,195 @@
+"""The benchmark set of lot throughput and memory (a script, never a test): every measurement in
+one run, printed side by side with its ratio and against the targets (docs/lots.md, "Speed and
+memory").
+
+1. **engine**: ``evaluate()`` on generated spectra already in memory, spectra per CPU-second
+   (one process, one BLAS thread = per core) at 1 nm and at 5 nm. When the engine's own
+   benchmark (bench/bench_engine.py) offers ``engine_rate(step_nm, n)`` it is used; otherwise
+   bench/bench_archive.py's (the same measurement: median of three runs after a warm-up).
+2. **lot end to end**, each as a child process ``python -m lumeval lot INPUT --quiet
+   --samples-csv|--samples-parquet OUT`` (reading, preparing, evaluating, lot statistics,
+   writing the per-sample table), with wall time, CPU time and the child's peak resident
+   memory (``ru_maxrss`` from ``os.wait4``):
+   * a wide CSV of 20,000 spectra at 1 nm (one file, 380-780 nm; about 113 MB);
+   * a folder of 10,000 single-spectrum CSV files at 1 nm;
+   * a Parquet archive of 1,000,000 spectra at 5 nm (the peak-memory target).
+3. **Dask**: a Parquet archive through ``--workers 2`` (a local cluster of 2 single-threaded
+   worker processes on loopback) against the plain run in one process.
+
+The data are invented white-LED spectra (bench/benchmark.py and bench/bench_archive.py
+generators), written into a temporary folder that is deleted at the end. ``--quick`` runs
+smaller sizes (the targets are then indicative only: fixed start-up costs weigh more).
+
+Run: ``OPENBLAS_NUM_THREADS=1 .venv/bin/python bench/run_all.py [--quick] [--skip-dask]``
+(``make bench-lots``; ``make bench`` runs it with the other benchmarks). The project machine
+has 2 cores that other work shares: the load average is printed at the start and the end of
+every measurement; CPU-second rates are the comparable figures on a loaded machine, wall-time
+rates only on an idle one.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+if os.environ.get("OPENBLAS_NUM_THREADS") != "1":  # one BLAS thread = per core; set before numpy loads
+    os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    os.environ["OMP_NUM_THREADS"] = "1"
+    os.execv(sys.executable, [sys.executable, *sys.argv])
+
+import numpy as np
+
+BENCH = Path(__file__).resolve().parent
+sys.path.insert(0, str(BENCH))
+sys.path.insert(0, str(BENCH.parent))
+
+from bench_archive import run_child, write_archive  # noqa: E402
+from benchmark import generate_spectra, write_wide_csvs  # noqa: E402
+
+#: (full, --quick) sizes
+SIZES = {
+    "engine": (20_000, 5_000),
+    "wide": (20_000, 2_000),
+    "folder": (10_000, 1_000),
+    "parquet": (1_000_000, 100_000),
+    "dask": (200_000, 40_000),
+}
+TARGETS = {
+    "engine_1nm": 25_000,      # spectra per CPU-second (per core) at 1 nm
+    "parquet_share": 0.70,     # end to end from Parquet, share of the engine at the same spacing
+    "folder": 2_000,           # spectra/s
+    "wide": 8_000,             # spectra/s
+    "parquet_rss_mb": 1000,    # peak RSS of the 1,000,000-spectrum lot at 5 nm
+}
+
+
+def load() -> str:
+    return f"{os.getloadavg()[0]:.1f}"
+
+
+def engine_rate(step_nm: float, n: int) -> float:
+    """Spectra per CPU-second of the engine alone (see the module docstring)."""
+    try:
+        import bench_engine  # the engine's own benchmark, when it offers this measurement
+
+        f = getattr(bench_engine, "engine_rate", None)
+    except ImportError:
+        f = None
+    if f is None:
+        from bench_archive import engine_rate as f
+    return float(f(step_nm, n))
+
+
+def write_folder(folder: Path, n: int) -> None:
+    """n single-spectrum CSV files (1 nm, 380-780 nm, a header line), one per module."""
+    wl = np.arange(380, 781)
+    folder.mkdir()
+    for start in range(0, n, 1000):
+        vals = generate_spectra(min(1000, n - start), seed=20_000 + start)
+        for j, v in enumerate(vals):
+            lines = "\n".join(f"{w},{x:.6f}" for w, x in zip(wl, v))
+            (folder / f"module_{start + j:06d}.csv").write_text("wavelength_nm,relative_power\n" + lines + "\n")
+
+
+def lot(args: list[str], n: int, label: str) -> dict:
+    """Run ``lumeval lot`` as a child process and print its figures."""
+    before = load()
+    wall, cpu, rss, code = run_child(["lot", *args, "--quiet"])
+    r = {"n": n, "wall": wall, "cpu": cpu, "rss": rss, "code": code, "load": f"{before}-{load()}"}
+    print(f"  {label}: {n:,} spectra, {wall:.1f} s wall, {cpu:.1f} s CPU -> {n / wall:,.0f} spectra/s wall, "
+          f"{n / cpu:,.0f} spectra/CPU-s; peak RSS {rss:,.0f} MB; exit {code}; load {r['load']}", flush=True)
+    return r
+
+
+def main(argv: list[str] | None = None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--quick", action="store_true", help="smaller sizes (indicative only)")
+    ap.add_argument("--skip-dask", action="store_true", help="no Dask comparison")
+    ap.add_argument("--skip-parquet", action="store_true", help="no Parquet archive (and no Dask)")
+    a = ap.parse_args(argv)
+    size = {k: v[1 if a.quick else 0] for k, v in SIZES.items()}
+    print(f"lumeval benchmark set ({'quick' if a.quick else 'full'} sizes) on {os.cpu_count()} cores; "
+          f"load average {load()}; OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS')}", flush=True)
+    res: dict = {}
+    t0 = time.perf_counter()
+    with tempfile.TemporaryDirectory(prefix="lumeval_bench_") as tmp_name:
+        tmp = Path(tmp_name)
+        print("1. engine alone (spectra in memory, one process)", flush=True)
+        for step in (1.0, 5.0):
+            before = load()
+            res[f"engine_{step:g}nm"] = engine_rate(step, size["engine"])
+            print(f"  {step:g} nm: {res[f'engine_{step:g}nm']:,.0f} spectra/CPU-s ({size['engine']:,} spectra; "
+                  f"load {before}-{load()})", flush=True)
+
+        print("2. `lumeval lot` end to end (child process)", flush=True)
+        wide = tmp / "wide"
+        wide.mkdir()
+        write_wide_csvs(wide, size["wide"], size["wide"])
+        f = next(wide.iterdir())
+        print(f"  (wide CSV: {f.stat().st_size / 1e6:.0f} MB)", flush=True)
+        res["wide"] = lot([str(f), "--samples-csv", str(tmp / "wide.csv")], size["wide"], "wide CSV, 1 nm")
+        write_folder(tmp / "folder", size["folder"])
+        res["folder"] = lot([str(tmp / "folder"), "--samples-csv", str(tmp / "folder.csv")], size["folder"],
+                            "folder of single files, 1 nm")
+        if not a.skip_parquet:
+            arch = tmp / "archive.parquet"
+            write_archive(arch, size["parquet"], 5.0)
+            print(f"  (archive: {arch.stat().st_size / 1e6:.0f} MB Parquet)", flush=True)
+            res["parquet"] = lot([str(arch), "--samples-parquet", str(tmp / "samples.parquet")], size["parquet"],
+                                 "Parquet archive, 5 nm")
+            arch.unlink()
+            (tmp / "samples.parquet").unlink(missing_ok=True)
+
+        if not (a.skip_dask or a.skip_parquet):
+            print("3. Dask: local cluster of 2 workers against one process (same archive)", flush=True)
+            small = tmp / "dask.parquet"
+            write_archive(small, size["dask"], 5.0, seed=3)
+            res["dask1"] = lot([str(small)], size["dask"], "one process")
+            res["dask2"] = lot([str(small), "--workers", "2"], size["dask"], "--workers 2")
+    summary(res, a.quick)
+    print(f"total {time.perf_counter() - t0:.0f} s; load average at the end {load()}")
+
+
+def summary(res: dict, quick: bool) -> None:
+    """The table of figures against the targets (rates per CPU-second: per core, one process)."""
+    rows = []
+
+    def row(what, value, target, met, ratio=""):
+        rows.append((what, value, target, "yes" if met else "NO", ratio))
+
+    e1, e5 = res.get("engine_1nm"), res.get("engine_5nm")
+    row("engine, 1 nm (spectra/CPU-s per core)", f"{e1:,.0f}", f">= {TARGETS['engine_1nm']:,}", e1 >= TARGETS["engine_1nm"])
+    row("engine, 5 nm (spectra/CPU-s per core)", f"{e5:,.0f}", "", True, f"{e5 / e1:.2f}x the 1 nm rate")
+    for key, name, eng in (("wide", "wide CSV", e1), ("folder", "folder of single files", e1)):
+        r = res.get(key)
+        if r:
+            rate, cpu_rate = r["n"] / r["wall"], r["n"] / r["cpu"]
+            ok = r["code"] in (0, 1) and cpu_rate >= TARGETS[key]
+            row(f"lot, {name}, {r['n']:,} x 1 nm (spectra/s: wall | CPU)", f"{rate:,.0f} | {cpu_rate:,.0f}",
+                f">= {TARGETS[key]:,}", ok, f"CPU rate {cpu_rate / eng:.0%} of the engine; exit {r['code']}")
+    r = res.get("parquet")
+    if r:
+        cpu_rate = r["n"] / r["cpu"]
+        row(f"lot, Parquet, {r['n']:,} x 5 nm (spectra/CPU-s)", f"{cpu_rate:,.0f}",
+            f">= {TARGETS['parquet_share']:.0%} of engine", cpu_rate >= TARGETS["parquet_share"] * e5,
+            f"{cpu_rate / e5:.0%} of the engine at 5 nm")
+        row(f"lot, Parquet, {r['n']:,} x 5 nm (peak RSS MB)", f"{r['rss']:,.0f}", f"< {TARGETS['parquet_rss_mb']:,}"
+            + ("" if r["n"] >= 1_000_000 else " at 1e6"), r["rss"] < TARGETS["parquet_rss_mb"])
+    if res.get("dask1") and res.get("dask2"):
+        d1, d2 = res["dask1"], res["dask2"]
+        rows.append((f"Dask, {d1['n']:,} x 5 nm: 1 process | 2 workers (s wall)", f"{d1['wall']:.1f} | {d2['wall']:.1f}",
+                     "(no target)", "", f"speed-up {d1['wall'] / d2['wall']:.2f}x (2 cores shared)"))
+    print("\nSummary" + (" (quick sizes: indicative only)" if quick else ""))
+    w = [max(len(str(x[i])) for x in rows) for i in range(5)]
+    head = ("measure", "reached", "target", "met", "ratio / note")
+    w = [max(a, len(b)) for a, b in zip(w, head)]
+    for r in (head, *rows):
+        print("  " + "  ".join(str(c).ljust(k) for c, k in zip(r, w)).rstrip())
+
+
+if __name__ == "__main__":
+    main()

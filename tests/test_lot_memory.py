@@ -113,7 +113,7 @@ def test_spilled_streamed_lot_equals_the_whole_lot_in_memory(arch, monkeypatch):
 
     # the per-sample CSV written from the spilled columns: same cells (numbers within rounding)
     a_rows, b_rows = _csv_rows(run), _csv_rows(whole_run)
-    assert a_rows[0] == b_rows[0] and len(a_rows) == 201
+    assert a_rows[0] == b_rows[0] and len(a_rows) == len(b_rows) >= 201  # + the caution rows at the end
     for ra, rb in zip(a_rows[1:], b_rows[1:]):
         for ca, cb in zip(ra, rb):
             if ca == cb:

@@ -3,9 +3,11 @@ one run, printed side by side with its ratio and against the targets (docs/lots.
 memory").
 
 1. **engine**: ``evaluate()`` on generated spectra already in memory, spectra per CPU-second
-   (one process, one BLAS thread = per core) at 1 nm and at 5 nm. When the engine's own
-   benchmark (bench/bench_engine.py) offers ``engine_rate(step_nm, n)`` it is used; otherwise
-   bench/bench_archive.py's (the same measurement: median of three runs after a warm-up).
+   (one process, one BLAS thread = per core) at 1 nm and at 5 nm, measured by the engine's own
+   benchmark (bench/bench_engine.py ``time_engine``: median of three runs after a cold run;
+   bench/bench_archive.py's ``engine_rate`` when that file is absent). ``--compare`` also runs
+   bench/bench_engine.py in full (against the colour-science loop and luxpy's array path,
+   agreement printed).
 2. **lot end to end**, each as a child process ``python -m lumeval lot INPUT --quiet
    --samples-csv|--samples-parquet OUT`` (reading, preparing, evaluating, lot statistics,
    writing the per-sample table), with wall time, CPU time and the child's peak resident
@@ -74,13 +76,18 @@ def load() -> str:
 def engine_rate(step_nm: float, n: int) -> float:
     """Spectra per CPU-second of the engine alone (see the module docstring)."""
     try:
-        import bench_engine  # the engine's own benchmark, when it offers this measurement
-
-        f = getattr(bench_engine, "engine_rate", None)
+        import bench_engine  # the engine's own benchmark (bench/bench_engine.py), when present
     except ImportError:
-        f = None
-    if f is None:
-        from bench_archive import engine_rate as f
+        bench_engine = None
+    if bench_engine is not None and hasattr(bench_engine, "time_engine"):
+        from benchmark import WL
+
+        values = generate_spectra(n)  # its spectra: 1 nm, 380-780 nm; 5 nm = every fifth sample
+        k = int(round(step_nm))
+        r = bench_engine.time_engine(WL[::k], np.ascontiguousarray(values[:, ::k]), 3)
+        return n / r["cpu"]
+    from bench_archive import engine_rate as f
+
     return float(f(step_nm, n))
 
 
@@ -110,6 +117,7 @@ def main(argv: list[str] | None = None) -> None:
     ap.add_argument("--quick", action="store_true", help="smaller sizes (indicative only)")
     ap.add_argument("--skip-dask", action="store_true", help="no Dask comparison")
     ap.add_argument("--skip-parquet", action="store_true", help="no Parquet archive (and no Dask)")
+    ap.add_argument("--compare", action="store_true", help="also bench/bench_engine.py in full (colour-science, luxpy)")
     a = ap.parse_args(argv)
     size = {k: v[1 if a.quick else 0] for k, v in SIZES.items()}
     print(f"lumeval benchmark set ({'quick' if a.quick else 'full'} sizes) on {os.cpu_count()} cores; "
@@ -118,6 +126,11 @@ def main(argv: list[str] | None = None) -> None:
     t0 = time.perf_counter()
     with tempfile.TemporaryDirectory(prefix="lumeval_bench_") as tmp_name:
         tmp = Path(tmp_name)
+        if a.compare:
+            import bench_engine
+
+            print("0. bench/bench_engine.py (engine vs colour-science loop vs luxpy)", flush=True)
+            bench_engine.main(["--n", str(size["engine"]), "--n-loop", "100" if a.quick else "200"])
         print("1. engine alone (spectra in memory, one process)", flush=True)
         for step in (1.0, 5.0):
             before = load()

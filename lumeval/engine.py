@@ -20,7 +20,7 @@ from __future__ import annotations
 import dataclasses
 import functools
 import warnings as _warnings
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, cast
 
@@ -347,7 +347,8 @@ def _take(result: Any, order: np.ndarray, n: int) -> Any:
     return result
 
 
-def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True) -> Evaluation:
+def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, chunk_size: int = DEFAULT_CHUNK, keep_details: bool = True,
+             progress: Callable[[str, int, int | None], None] | None = None) -> Evaluation:
     """Evaluate every figure for every spectrum in ``spectra``.
 
     Parameters
@@ -363,6 +364,9 @@ def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, 
     keep_details : bool
         Keep per-sample detail arrays (CES/TCS coordinates) for reports; pass False for large
         lots, where they would dominate memory (about 7 kB per spectrum).
+    progress : callable, optional
+        A progress listener (:mod:`lumeval.progress`): ``progress("evaluating", done, total)``
+        after each chunk.
 
     Returns
     -------
@@ -375,6 +379,7 @@ def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, 
     prepared = prepare_groups(spectra)
     parts = []
     caught_all: list[str] = []
+    done = 0
     for group in prepared.groups:
         wl = group.wavelengths_nm
         for start in range(0, len(group), max(1, chunk_size)):
@@ -384,6 +389,9 @@ def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, 
             if not keep_details:
                 part = dataclasses.replace(part, cri=_strip_details(part.cri), tm30=_strip_details(part.tm30))
             parts.append(part)
+            if progress is not None:
+                done += min(chunk_size, len(group) - start)
+                progress("evaluating", done, len(prepared))
             for c in caught:
                 msg = f"computation warning: {c.message}"
                 if msg not in caught_all:

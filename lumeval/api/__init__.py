@@ -20,7 +20,7 @@ result (:mod:`lumeval.render`) and turn it into an exit code. Bad input raises
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Union
@@ -31,25 +31,33 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..criteria.verdicts import CheckResult
     from ..engine import Evaluation
     from ..lots.run import LotRun
+    from ..progress import Listener
 
 PathLike = Union[str, "os.PathLike[str]"]
 
 __all__ = ["CheckRun", "check", "check_run", "claims", "convert", "inspect", "lot"]
 
 
-def inspect(paths: Sequence[PathLike]) -> Evaluation:
+def inspect(paths: Sequence[PathLike], *, progress: Listener | None = None) -> Evaluation:
     """Read, prepare and evaluate the spectra in ``paths`` (``lumeval inspect``).
 
     Each spectrum is evaluated on its own computation grid (see
     :func:`lumeval.spectra.prepare.prepare_groups`); names are made unique within the run.
     Returns a :class:`lumeval.engine.Evaluation`; raises :class:`lumeval.errors.InputError`
-    naming the file and the problem when a file cannot be used.
+    naming the file and the problem when a file cannot be used. ``progress``: a listener
+    (:mod:`lumeval.progress`) told of each file read and each chunk evaluated.
     """
     from ..engine import evaluate
+    from ..progress import READING, report
     from ..spectra.read import read_spectra, unique_names
 
     seen: dict[str, int] = {}
-    return evaluate([unique_names(read_spectra(p), seen) for p in paths])  # type: ignore[arg-type]  # read_spectra takes any path (Path(path))
+    paths = list(paths)
+    sets = []
+    for k, p in enumerate(paths):
+        sets.append(unique_names(read_spectra(p), seen))  # type: ignore[arg-type]  # read_spectra takes any path (Path(path))
+        report(progress, READING, k + 1, len(paths))
+    return evaluate(sets, progress=progress)
 
 
 def _criteria(criteria: Criteria | PathLike) -> Criteria:
@@ -62,10 +70,10 @@ def _criteria(criteria: Criteria | PathLike) -> Criteria:
     return load_criteria(criteria)
 
 
-def _evaluation(spectra: Evaluation | Sequence[PathLike]) -> Evaluation:
+def _evaluation(spectra: Evaluation | Sequence[PathLike], progress: Listener | None = None) -> Evaluation:
     from ..engine import Evaluation
 
-    return spectra if isinstance(spectra, Evaluation) else inspect(spectra)
+    return spectra if isinstance(spectra, Evaluation) else inspect(spectra, progress=progress)
 
 
 @dataclass(frozen=True)
@@ -79,21 +87,21 @@ class CheckRun:
 
 def check_run(spectra: Evaluation | Sequence[PathLike], criteria: Criteria | PathLike,
               instrument: PathLike | None = None, *, seed: int | None = None,
-              draws: int | None = None) -> CheckRun:
+              draws: int | None = None, progress: Listener | None = None) -> CheckRun:
     """:func:`check`, keeping the criteria and the evaluation beside the verdicts (for reports)."""
     from ..uncertainty.judge import judge_with_uncertainty, resolve_setup
 
     crit = _criteria(criteria)  # first: a bad criteria file is reported before any computation
     setup = resolve_setup(crit, instrument, seed=seed, draws=draws)
-    ev = _evaluation(spectra)
+    ev = _evaluation(spectra, progress)
     if setup.active:
-        return CheckRun(crit, ev, judge_with_uncertainty(ev, crit, setup)[0])
+        return CheckRun(crit, ev, judge_with_uncertainty(ev, crit, setup, progress=progress)[0])
     return CheckRun(crit, ev, crit.evaluate(ev))
 
 
 def check(spectra: Evaluation | Sequence[PathLike], criteria: Criteria | PathLike,
           instrument: PathLike | None = None, *, seed: int | None = None,
-          draws: int | None = None) -> CheckResult:
+          draws: int | None = None, progress: Listener | None = None) -> CheckResult:
     """Judge spectra against acceptance criteria (``lumeval check``).
 
     ``spectra`` are files (read and evaluated) or an :class:`~lumeval.engine.Evaluation`;
@@ -105,8 +113,10 @@ def check(spectra: Evaluation | Sequence[PathLike], criteria: Criteria | PathLik
     file) or a guarded ``[decision]`` rule, every clause is decided under measurement
     uncertainty (:func:`lumeval.uncertainty.judge.judge_with_uncertainty`,
     docs/uncertainty.md); ``seed`` and ``draws`` override the Monte Carlo settings.
+    ``progress``: a listener (:mod:`lumeval.progress`) told of each file read, each chunk
+    evaluated and each spectrum's Monte Carlo draws.
     """
-    return check_run(spectra, criteria, instrument, seed=seed, draws=draws).result
+    return check_run(spectra, criteria, instrument, seed=seed, draws=draws, progress=progress).result
 
 
 def claims(spectra: Evaluation | Sequence[PathLike], claims: Claims | PathLike) -> ClaimsCheck:
@@ -119,7 +129,7 @@ def claims(spectra: Evaluation | Sequence[PathLike], claims: Claims | PathLike) 
 
 def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, *,
         instrument: PathLike | None = None, seed: int | None = None, draws: int | None = None,
-        keep_evaluation: bool = False, progress: Callable[[int, int, int], None] | None = None,
+        keep_evaluation: bool = False, progress: Listener | None = None,
         **options: Any) -> LotRun:
     """Judge a production lot (``lumeval lot``): every sample's figures and verdicts, the lot
     statistics, yield and outliers, and the lot clauses.
@@ -129,7 +139,9 @@ def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, 
     ``[instrument]`` table) each sample's clauses are decided under measurement uncertainty.
     ``keep_evaluation`` keeps the judged samples' spectra for a report that draws them.
     Other keyword arguments go to :func:`lumeval.lots.run.run_lot`. Unreadable inputs do not
-    raise: they are listed in ``LotRun.unreadable`` (and make ``exit_code`` 2).
+    raise: they are listed in ``LotRun.unreadable`` (and make ``exit_code`` 2). ``progress``: a
+    listener (:mod:`lumeval.progress`) told of each file read, each batch evaluated and each
+    sample's Monte Carlo draws.
     """
     from ..lots.run import run_lot
 

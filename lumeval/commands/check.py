@@ -104,14 +104,20 @@ def register(app: typer.Typer) -> None:
         loaded = load_criteria(criteria)  # first: a bad criteria file is reported before any computation
         for w in loaded.warnings:
             print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
-        run = check_run(files, loaded, instrument, seed=seed, draws=draws)
-        crit, ev, result = run.criteria, run.evaluation, run.result
-        if html is not None or plots is not None:
-            from ..render.html import regions_from_criteria, write_outputs
+        from ._progress import progress_listener
 
-            written = write_outputs(ev, html=html, plots=plots, verdicts=result, regions=regions_from_criteria(crit),
-                                    inputs=[*files, criteria], command="lumeval " + " ".join(sys.argv[1:]))
-            announce_outputs(written, html, plots)
+        # progress on stderr (a terminal only, not with --quiet): reading, evaluating, Monte Carlo,
+        # report figures; removed before the report prints
+        with progress_listener() as progress:
+            run = check_run(files, loaded, instrument, seed=seed, draws=draws, progress=progress)
+            crit, ev, result = run.criteria, run.evaluation, run.result
+            if html is not None or plots is not None:
+                from ..render.html import regions_from_criteria, write_outputs
+
+                written = write_outputs(ev, html=html, plots=plots, verdicts=result, regions=regions_from_criteria(crit),
+                                        inputs=[*files, criteria], command="lumeval " + " ".join(sys.argv[1:]),
+                                        progress=progress)
+                announce_outputs(written, html, plots)
         if output_format is OutputFormat.json:
             from ..render.verdicts import check_to_json
 

@@ -37,7 +37,7 @@ def register(app: typer.Typer) -> None:
         html: Path = typer.Option(None, "--html", help="Also write a self-contained HTML report to this file."),
         plots: Path = typer.Option(None, "--plots", help="Also write the report's figures as SVG and PNG into this directory."),
         output: Path = typer.Option(None, "--output", "-o", help="Write the JSON/CSV/terminal text to this file instead of the screen."),
-        quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bars, and do not say which files were written."),
         wide: bool = typer.Option(False, "--wide", help="Every figure side by side even when the terminal is too "
                                   "narrow for it (otherwise a narrow terminal gets one row per spectrum with the key figures)."),
     ) -> None:
@@ -72,16 +72,18 @@ def register(app: typer.Typer) -> None:
                 raise InputError(f"{failed} of {len(checks)} entries refused by the readers", fix="see the report above")
             return
         from ..api import inspect
+        from ._progress import progress_listener
 
-        ev = inspect(files)
-        if html is not None or plots is not None:
-            import sys
+        with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints
+            ev = inspect(files, progress=progress)
+            if html is not None or plots is not None:
+                import sys
 
-            from ..render.html import write_outputs
+                from ..render.html import write_outputs
 
-            written = write_outputs(ev, html=html, plots=plots, inputs=list(files),
-                                    command="lumeval " + " ".join(sys.argv[1:]))
-            announce_outputs(written, html, plots)
+                written = write_outputs(ev, html=html, plots=plots, inputs=list(files),
+                                        command="lumeval " + " ".join(sys.argv[1:]), progress=progress)
+                announce_outputs(written, html, plots)
         if output_format is OutputFormat.json:
             from ..render.tables import to_json
 

@@ -80,7 +80,7 @@ def _evaluate_for_report(run: LotRun):
     return evaluate(spectra.subset(keep), keep_details=False)
 
 
-def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
+def _write_lot_report(run: LotRun, criteria, html, plots, progress=None) -> None:
     """Draw the lot: the judged samples as the run evaluated them (``run.evaluation``), with the
     lot statistics and verdicts, in the HTML report and plots. Nothing is read or evaluated
     again, so the report shows exactly the samples and numbers of the run."""
@@ -98,7 +98,7 @@ def _write_lot_report(run: LotRun, criteria, html, plots) -> None:
         ev, html=html, plots=plots, verdicts=verdicts or None, lot=run.stats,
         overall=("fail" if run.failed else "pass") if verdicts else None,
         regions=regions_from_criteria(criteria) if criteria is not None else None,
-        inputs=list(run.read_paths), command="lumeval " + " ".join(sys.argv[1:]),
+        inputs=list(run.read_paths), command="lumeval " + " ".join(sys.argv[1:]), progress=progress,
     )
     announce_outputs(written, html, plots)
 
@@ -115,7 +115,7 @@ def register(app: typer.Typer) -> None:
         ),
         samples_csv: Path = typer.Option(None, "--samples-csv", help="Also write the per-sample CSV to this file."),
         json_file: Path = typer.Option(None, "--json", help="Also write the lot JSON to this file."),
-        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar, and do not say which files were written."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bars, and do not say which files were written."),
         html: Path = typer.Option(
             None, "--html", help="Also write a self-contained HTML lot report to this file (keeps the judged samples' "
             "spectra in memory to draw them: about 4 kB per sample)."
@@ -175,55 +175,30 @@ def register(app: typer.Typer) -> None:
         from ..api import lot
 
         report = html is not None or plots is not None
-        show = not quiet and sys.stderr.isatty()
-        if show:
-            from rich.console import Console
-            from rich.progress import (
-                BarColumn,
-                MofNCompleteColumn,
-                Progress,
-                TextColumn,
-                TimeElapsedColumn,
-            )
-
-            with Progress(
-                TextColumn("reading and evaluating"),
-                BarColumn(),
-                MofNCompleteColumn(),
-                TextColumn("files · {task.fields[samples]} samples"),
-                TimeElapsedColumn(),
-                console=Console(stderr=True),
-                transient=True,
-            ) as bar:
-                task = bar.add_task("lot", total=None, samples=0)
-
-                def tick(k, total, samples):
-                    bar.update(task, completed=k, total=total, samples=samples)
-
-                run = lot(paths, criteria, instrument=instrument, seed=seed, draws=draws, progress=tick,
-                          keep_evaluation=report, scheduler=scheduler, workers=workers)
-        else:
-            run = lot(paths, criteria, instrument=instrument, seed=seed, draws=draws, keep_evaluation=report,
-                      scheduler=scheduler, workers=workers)
-
         from ..render import lot_report
         from ._announce import announce, set_quiet
+        from ._progress import progress_listener
 
         set_quiet(quiet)
-        if samples_csv is not None:
-            _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
-            announce("per-sample CSV", samples_csv)
-        if json_file is not None:
-            _write_atomic(json_file, lambda f: lot_report.lot_json(run, f), "--json")
-            announce("lot JSON", json_file)
-        if samples_parquet is not None:
-            from ..frames import write_samples_parquet
+        # progress on stderr (a terminal only, not with --quiet) while reading, evaluating, the
+        # Monte Carlo of --instrument and the report figures; removed before the summary prints
+        with progress_listener() as progress:
+            run = lot(paths, criteria, instrument=instrument, seed=seed, draws=draws, progress=progress,
+                      keep_evaluation=report, scheduler=scheduler, workers=workers)
+            if samples_csv is not None:
+                _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
+                announce("per-sample CSV", samples_csv)
+            if json_file is not None:
+                _write_atomic(json_file, lambda f: lot_report.lot_json(run, f), "--json")
+                announce("lot JSON", json_file)
+            if samples_parquet is not None:
+                from ..frames import write_samples_parquet
 
-            write_samples_parquet(run, samples_parquet)
-            announce("per-sample Parquet table", samples_parquet)
-        # the report last: the data files are the record, the report draws them
-        if html is not None or plots is not None:
-            _write_lot_report(run, criteria, html, plots)
+                write_samples_parquet(run, samples_parquet)
+                announce("per-sample Parquet table", samples_parquet)
+            # the report last: the data files are the record, the report draws them
+            if html is not None or plots is not None:
+                _write_lot_report(run, criteria, html, plots, progress)
         if output_format is OutputFormat.json:
             lot_report.lot_json(run, sys.stdout)
         elif output_format is OutputFormat.csv:

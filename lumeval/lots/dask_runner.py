@@ -133,7 +133,7 @@ def run_lot_dask(
     ellipse=None,
     nominal_xy=None,
     batch_spectra: int | None = None,
-    progress: Callable[[int, int, int], None] | None = None,
+    progress: Callable[[str, int, int | None], None] | None = None,
     uncertainty=None,
     client=None,
 ):
@@ -232,7 +232,7 @@ def run_lot_dask(
                 bad_by_file[order[next_i][0]].extend(bad)
                 next_i += 1
                 if progress is not None:
-                    progress(next_i, len(order), done_samples)
+                    progress("evaluating", done_samples, max(expected, done_samples))
     finally:
         if own is not None:
             client.close()

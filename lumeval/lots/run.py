@@ -187,7 +187,7 @@ def run_lot(
     ellipse=None,
     nominal_xy=None,
     batch_spectra: int = BATCH_SPECTRA,
-    progress: Callable[[int, int, int], None] | None = None,
+    progress: Callable[[str, int, int | None], None] | None = None,
     uncertainty=None,
     scheduler: str | None = None,
     workers: int | None = None,
@@ -209,8 +209,9 @@ def run_lot(
         centre.
     batch_spectra : int
         Spectra evaluated together.
-    progress : callable(files_done, files_total, samples_done), optional
-        Called after each file (for a progress bar).
+    progress : callable(stage, done, total), optional
+        A progress listener (:mod:`lumeval.progress`): ``reading`` after each file,
+        ``evaluating`` after each batch (samples), ``Monte Carlo`` after each sample's draws.
     uncertainty : lumeval.uncertainty.judge.UncertaintySetup, optional
         When active, every sample's per-sample clauses are re-decided under measurement
         uncertainty (Monte Carlo per sample; docs/uncertainty.md). Lot clauses (centroid,
@@ -245,7 +246,10 @@ def run_lot(
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []
     archives = [is_archive(f, sniff=False) for f in files]  # by name: no extra open per file
-    acc = LotAccumulator(_expected_samples(files, archives), keep_evaluation=keep_evaluation)
+    from ..progress import EVALUATING, READING, offset, report
+
+    expected = _expected_samples(files, archives)
+    acc = LotAccumulator(expected, keep_evaluation=keep_evaluation)
     seen_names: dict[str, int] = {}
     pending: list = []
     pending_n = 0
@@ -259,8 +263,10 @@ def run_lot(
             sample_criteria = criteria
 
     def consume(s, meta=None) -> None:
+        total = max(expected, done)  # a wide CSV holds more samples than the one per file expected
         acc.add(evaluate_batch(s, sample_criteria, uncertainty, offset=len(acc), metadata=meta,
-                               keep_evaluation=keep_evaluation))
+                               keep_evaluation=keep_evaluation, progress=offset(progress, len(acc), total)))
+        report(progress, EVALUATING, len(acc), total)
 
     def flush() -> None:
         nonlocal pending, pending_n
@@ -289,10 +295,8 @@ def run_lot(
                         s = unique_names(s, seen_names)
                         if not read_paths or read_paths[-1] != path:
                             read_paths.append(path)
-                        consume(s, meta)
                         done += len(s)
-                        if progress is not None:
-                            progress(k, len(files), done)
+                        consume(s, meta)
             except LumevalError as exc:
                 unreadable.append(Unreadable(path, exc.message))
         else:  # read whole (in input order, maybe by workers), or a big text file in column blocks
@@ -307,8 +311,7 @@ def run_lot(
                     done += len(s)
                 if pending_n >= batch_spectra:
                     flush()
-        if progress is not None:
-            progress(k + 1, len(files), done)
+        report(progress, READING, k + 1, len(files))
     reads.close()  # stops the worker processes, if any
     flush()
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),

@@ -62,25 +62,27 @@ class BatchResult:
 
 
 def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: int = 0, metadata=None,
-                   engine_chunk: int | None = None, keep_evaluation: bool = False) -> BatchResult:
+                   engine_chunk: int | None = None, keep_evaluation: bool = False, progress=None) -> BatchResult:
     """Evaluate one prepared batch and keep what the lot needs (see :class:`BatchResult`).
 
     ``offset`` is the index of the batch's first sample in the lot (the Monte Carlo of a run
     under uncertainty draws per sample index, so a sample's decision does not depend on the
-    batching).
+    batching). ``progress``: a listener (:mod:`lumeval.progress`) told of each chunk evaluated
+    and each sample's Monte Carlo draws (counted within the batch).
     """
     from ..engine import evaluate
     from ..figures import names as figure_names
     from .run import ENGINE_CHUNK
 
-    ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False)
+    ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False, progress=progress)
     figs = np.column_stack([ev.figure(k) for k in figure_names()])
     xy = np.column_stack([ev.x, ev.y])
     clauses = None
     if sample_criteria is not None and uncertainty is not None and uncertainty.active:
         from ..uncertainty.judge import judge_with_uncertainty
 
-        clauses = list(judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset)[0].results)
+        clauses = list(judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset,
+                                                       progress=progress)[0].results)
     elif sample_criteria is not None:
         clauses = list(sample_criteria.evaluate(ev).results)
     return BatchResult(list(ev.spectra.names), list(ev.spectra.sources), list(ev.warnings), figs, xy, clauses,

@@ -149,6 +149,7 @@ def write_plots(
     formats: Sequence[str] = ("svg", "png"),
     per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
+    progress=None,
 ) -> list[Path]:
     """Write every report figure as ``DIR/<key>.svg`` and ``DIR/<key>.png`` (each atomically).
 
@@ -157,7 +158,10 @@ def write_plots(
     that case nothing is written.
     """
     from .._io import check_output_dir, check_output_file, write_bytes
+    from ..progress import WRITING, counting
     from .plots import figure_png, figure_svg
+
+    figure_png, figure_svg = counting(progress, WRITING, figure_png, figure_svg)  # progress: one per file
 
     d = Path(directory)
     check_output_dir(d, "--plots", PLOT_FILE_PATTERNS)
@@ -200,6 +204,7 @@ def write_html_report(
     per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
     overall: str | None = None,
+    progress=None,
 ) -> Path:
     """Write the self-contained HTML report to ``path`` atomically; returns the path.
 
@@ -212,7 +217,7 @@ def write_html_report(
     check_output_file(p, "--html")
     text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
                               title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max,
-                              figures=figures, overall=overall)
+                              figures=figures, overall=overall, progress=progress)
     write_bytes(p, text.encode("utf-8"), option="--html")
     return p
 
@@ -231,12 +236,14 @@ def write_outputs(
     command: str | None = None,
     per_sample_max: int | None = PER_SAMPLE_MAX,
     overall: str | None = None,
+    progress=None,
 ) -> list[Path]:
     """The ``--html FILE`` and ``--plots DIR`` options in one call: check both targets, draw
     the figures once, write the plots, then the report. Returns the paths written.
 
     Raises :class:`lumeval.errors.UsageError` before drawing or writing anything when a target
-    cannot be used. Does nothing when both are None.
+    cannot be used. Does nothing when both are None. ``progress``: a listener
+    (:mod:`lumeval.progress`) told of each figure written (``writing report``).
     """
     if html is None and plots is None:
         return []
@@ -244,12 +251,17 @@ def write_outputs(
     figs = report_figures(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
                           per_sample_max=per_sample_max)
     out: list[Path] = []
+    from ..progress import offset
+
+    n_plots = 2 * len(figs) if plots is not None else 0  # SVG and PNG of each figure
+    total = n_plots + (len(figs) if html is not None else 0)
     if plots is not None:
-        out += write_plots(plots, evaluation, per_sample_max=per_sample_max, figures=figs)
+        out += write_plots(plots, evaluation, per_sample_max=per_sample_max, figures=figs,
+                           progress=offset(progress, 0, total))
     if html is not None:
         out.append(write_html_report(html, evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
                                      inputs=inputs, title=title, command=command, per_sample_max=per_sample_max,
-                                     figures=figs, overall=overall))
+                                     figures=figs, overall=overall, progress=offset(progress, n_plots, total)))
     return out
 
 
@@ -272,6 +284,7 @@ def render_html_report(
     per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
     overall: str | None = None,
+    progress=None,
 ) -> str:
     """The report as one HTML document (a string).
 
@@ -304,9 +317,12 @@ def render_html_report(
     ev = evaluation
     figs = list(figures) if figures is not None else report_figures(
         ev, verdicts=verdicts, limits=limits, regions=regions, lot=lot, per_sample_max=per_sample_max)
+    from ..progress import WRITING, counting
+
+    (inline,) = counting(progress, WRITING, inline_svg)  # progress: one per figure drawn into the page
     view = build_report_view(ev, figs, verdicts=verdicts, lot=lot, inputs=inputs, title=title, command=command,
                              generated_at=generated_at, per_sample_max=per_sample_max, overall=overall,
-                             inline=inline_svg)
+                             inline=inline)
     return render_template("report.html.j2", v=view)
 
 

@@ -113,7 +113,8 @@ def _conform_key(r) -> str:
     return f"conforms:{r.clause_id}"
 
 
-def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, plain=None, index_offset: int = 0):
+def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, plain=None, index_offset: int = 0,
+                           progress=None):
     """Re-decide every per-sample clause of ``criteria`` under ``setup``.
 
     Parameters
@@ -127,6 +128,8 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
     index_offset : int
         Position of the first spectrum in a larger run (lots evaluated in batches; see
         :func:`lumeval.uncertainty.montecarlo.propagate`).
+    progress : callable, optional
+        A progress listener (:mod:`lumeval.progress`), told of each spectrum's Monte Carlo draws.
 
     Returns
     -------
@@ -156,7 +159,7 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
 
     keys = tuple(_clause_key(r) for r in plain.results)
     unc = propagate(evaluation.spectra, setup.model, setup.settings, extra=extra, evaluation=evaluation,
-                    index_offset=index_offset, stabilise=keys)
+                    index_offset=index_offset, stabilise=keys, progress=progress)
     k = setup.rule.coverage_factor
     results = []
     for r in plain.results:

@@ -379,6 +379,65 @@ def _evaluate_values(wl, values, evaluate_fn, names_f, extra, chunk, metadata=No
     return cols
 
 
+def _quantities(evaluation, figures, extra):
+    """(figure names, all quantity names, measured values (N, F)) of a propagation: the figures
+    asked for (default: every figure of the registry, except those only absolute data have when
+    no spectrum has them), then the ``extra`` quantities."""
+    from ..figures import FIGURES
+    from ..figures import names as _figure_names
+
+    if figures:
+        names_f = tuple(figures)
+    else:
+        names_f = tuple(n for n in _figure_names()
+                        if not (FIGURES[n].when_defined and not np.isfinite(FIGURES[n].value(evaluation)).any()))
+    n = len(evaluation.spectra)
+    measured = _figures_of(evaluation, names_f)
+    extra_names: tuple[str, ...] = ()
+    if extra is not None:
+        ex = extra(evaluation)
+        extra_names = tuple(ex)
+        measured = np.column_stack([measured] + [np.asarray(ex[k], dtype=float).reshape(n) for k in ex])
+    return names_f, names_f + extra_names, measured
+
+
+def _fixed_draws(run, settings: MonteCarloSettings):
+    """(summary, M) of a fixed number of draws M, made in blocks so that memory stays bounded for
+    large M (one (M, W) array of drawn spectra is 3.2 GB at M = 10^5); runs of up to
+    _DRAW_BLOCK draws are unchanged."""
+    assert settings.draws is not None  # a fixed number of draws when not adaptive
+    samples = np.concatenate([run(min(_DRAW_BLOCK, settings.draws - k))
+                              for k in range(0, settings.draws, _DRAW_BLOCK)], axis=0)
+    return summarise(samples, settings.coverage), settings.draws
+
+
+def _adaptive_draws(run, settings: MonteCarloSettings, stab_idx: np.ndarray):
+    """(summary, draws used, stabilised) of the adaptive procedure (see :func:`propagate`)."""
+    p = settings.coverage
+    block = settings.draws_block
+    runs, parts = [], []
+    ok = False
+    while True:
+        smp = run(block)
+        parts.append(smp)
+        s = summarise(smp, p)
+        runs.append(np.stack([s["mean"], s["u"], s["low"], s["high"]]))
+        h = len(runs)
+        if h >= 2:
+            r = np.stack(runs)  # (h, 4, F)
+            sd = np.sqrt(np.nansum((r - np.nanmean(r, axis=0)) ** 2, axis=0) / (h * (h - 1)))
+            all_s = summarise(np.vstack(parts), p)
+            delta = numerical_tolerance(all_s["u"], settings.significant_digits)
+            bad = 2.0 * sd[:, stab_idx] > delta[stab_idx][None, :]
+            if not bad.any():
+                ok = True
+                break
+        if (h + 1) * block > settings.max_draws:
+            break
+    samples = np.vstack(parts)
+    return summarise(samples, p), samples.shape[0], ok
+
+
 def propagate(
     spectra,
     instrument: InstrumentModel | None = None,
@@ -391,6 +450,7 @@ def propagate(
     evaluate_fn=None,
     chunk_size: int = _CHUNK,
     index_offset: int = 0,
+    progress=None,
 ) -> UncertaintyResult:
     """Propagate the instrument model's uncertainty to every figure by Monte Carlo (JCGM 101).
 
@@ -418,6 +478,9 @@ def propagate(
     index_offset : int
         Position of the first spectrum in a larger run (a lot evaluated in batches), so that
         every spectrum of the run gets its own random stream.
+    progress : callable, optional
+        A progress listener (:mod:`lumeval.progress`): called as
+        ``progress("Monte Carlo", spectra_done, spectra_total)`` after each spectrum's draws.
 
     Returns
     -------
@@ -437,36 +500,21 @@ def propagate(
     draws so far. All h·M_b draws then give the results. It also stops at
     ``settings.max_draws`` with ``stabilised = False``.
     """
-    from ..figures import names as _figure_names
+    from ..progress import MONTE_CARLO, report
 
     instrument = instrument or InstrumentModel()
     settings = settings or MonteCarloSettings()
     if evaluation is None:
         evaluation = evaluate_fn(spectra) if evaluate_fn else _engine(spectra, chunk_size)
-    if figures:
-        names_f = tuple(figures)
-    else:  # every figure, except those only absolute data have when no spectrum has them
-        from ..figures import FIGURES
-
-        names_f = tuple(n for n in _figure_names()
-                        if not (FIGURES[n].when_defined and not np.isfinite(FIGURES[n].value(evaluation)).any()))
+    names_f, quantities, measured = _quantities(evaluation, figures, extra)
     prepared = evaluation.spectra
     n = len(prepared)
-
-    measured = _figures_of(evaluation, names_f)
-    extra_names: tuple[str, ...] = ()
-    if extra is not None:
-        ex = extra(evaluation)
-        extra_names = tuple(ex)
-        measured = np.column_stack([measured] + [np.asarray(ex[k], dtype=float).reshape(n) for k in ex])
-    quantities = names_f + extra_names
     fq = len(quantities)
     stab_idx = np.array([quantities.index(q) for q in (stabilise or quantities)], dtype=int)
 
     res = {k: np.full((n, fq), np.nan) for k in ("mean", "u", "low", "high", "undefined_fraction")}
     draws_used = np.zeros(n, dtype=int)
     stabilised = np.ones(n, dtype=bool)
-    p = settings.coverage
 
     for i in range(n):
         rng = np.random.default_rng(np.random.SeedSequence(settings.seed, spawn_key=(index_offset + i,)))
@@ -477,40 +525,12 @@ def propagate(
             return _evaluate_values(wl, vals, evaluate_fn, names_f, extra, chunk_size, prepared.metadata[i])  # noqa: B023
 
         if not settings.adaptive:
-            assert settings.draws is not None  # a fixed number of draws when not adaptive
-            # in blocks, so that memory stays bounded for large M (one (M, W) array of drawn
-            # spectra is 3.2 GB at M = 10^5); runs of up to _DRAW_BLOCK draws are unchanged
-            samples = np.concatenate([run(min(_DRAW_BLOCK, settings.draws - k))
-                                      for k in range(0, settings.draws, _DRAW_BLOCK)], axis=0)
-            summ = summarise(samples, p)
-            draws_used[i] = settings.draws
+            summ, draws_used[i] = _fixed_draws(run, settings)
         else:
-            block = settings.draws_block
-            runs, parts = [], []
-            ok = False
-            while True:
-                smp = run(block)
-                parts.append(smp)
-                s = summarise(smp, p)
-                runs.append(np.stack([s["mean"], s["u"], s["low"], s["high"]]))
-                h = len(runs)
-                if h >= 2:
-                    r = np.stack(runs)  # (h, 4, F)
-                    sd = np.sqrt(np.nansum((r - np.nanmean(r, axis=0)) ** 2, axis=0) / (h * (h - 1)))
-                    all_s = summarise(np.vstack(parts), p)
-                    delta = numerical_tolerance(all_s["u"], settings.significant_digits)
-                    bad = 2.0 * sd[:, stab_idx] > delta[stab_idx][None, :]
-                    if not bad.any():
-                        ok = True
-                        break
-                if (h + 1) * block > settings.max_draws:
-                    break
-            samples = np.vstack(parts)
-            summ = summarise(samples, p)
-            draws_used[i] = samples.shape[0]
-            stabilised[i] = ok
+            summ, draws_used[i], stabilised[i] = _adaptive_draws(run, settings, stab_idx)
         for k in res:
             res[k][i] = summ[k]
+        report(progress, MONTE_CARLO, i + 1, n)
 
     notes = []
     if instrument.source == "lumeval defaults":

@@ -81,7 +81,10 @@ def register(app: typer.Typer) -> None:
         ),
         seed: int = typer.Option(None, "--seed", help="Seed of the Monte Carlo draws (default: the instrument or criteria file's, else 1).", show_default=False),
         draws: int = typer.Option(None, "--draws", help="Monte Carlo draws per spectrum (default 2000).", show_default=False),
-        quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which files were written."),
+        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bars, and do not say which files were written."),
+        wide: bool = typer.Option(False, "--wide", help="Each clause of each spectrum in its own section even when the "
+                                  "terminal is too narrow for it (otherwise a narrow terminal, or more than 12 spectra, "
+                                  "gets one row per spectrum with the key figures)."),
     ) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
         every requirement; 1: a requirement failed or is indeterminate under the decision rule
@@ -131,13 +134,11 @@ def register(app: typer.Typer) -> None:
             from ..render.verdicts import check_renderables
 
             if output is None or is_stdout(output):
-                from ..render.safe import console as safe_console
+                from ..render.verdicts import print_check
 
-                console = safe_console()
-                for r in check_renderables(result):
-                    console.print(r)
+                print_check(result, evaluation=ev, wide=wide)
             else:
-                emit(plain_text(check_renderables(result)), output)
+                emit(plain_text(check_renderables(result, evaluation=ev)), output)
         # sys.exit (not typer.Exit): the entry point runs click with standalone_mode=False,
         # which would turn typer.Exit into a return value and lose the code.
         sys.exit(result.exit_code)

@@ -126,10 +126,16 @@ def _header(title: str, file: str, ident: dict):
     return t
 
 
-def check_renderables(result) -> list:
-    """Rich renderables for a :class:`~lumeval.criteria.verdicts.CheckResult`."""
-    from rich import box
-    from rich.table import Table
+def check_renderables(result, *, width: int | None = None, evaluation=None, wide: bool = False) -> list:
+    """Rich renderables for a :class:`~lumeval.criteria.verdicts.CheckResult`.
+
+    Layout: one section per spectrum (verdict line and a table of its clauses, numbers never
+    split), unless there are more than :data:`DETAIL_MAX` spectra or the sections do not fit
+    ``width`` terminal columns: then one row per spectrum with its verdict and the key figures
+    of ``evaluation`` (when given), the spectra that did not pass with their failed clauses, and
+    where to see the rest (``--wide``, ``--format csv`` / ``json``). ``wide`` keeps the sections
+    at any width; ``width`` None (a file) switches only for many spectra.
+    """
     from rich.text import Text
 
     out = [_header("Acceptance check", result.criteria_file, result.identification)]
@@ -137,12 +143,53 @@ def check_renderables(result) -> list:
         out.append(Text(f"note: {clean(note)}", style="dim"))
     if getattr(result, "uncertainty", None):
         out.append(_uncertainty_text(result.uncertainty))
-    if len(result.names) > DETAIL_MAX:
-        out.extend(_summary_renderables(result))
+    many = len(result.names) > DETAIL_MAX
+    sections = _spectrum_sections(result) if wide or not many else []  # not built for a large run
+    narrow = width is not None and max((_min_width(t) for t in sections if not isinstance(t, Text)), default=0) > width
+    if not wide and (many or narrow):
+        out.extend(_compact_check(result, evaluation, width, "many" if many else "narrow"))
+        if many:
+            out.extend(_summary_renderables(result))
+        else:
+            out.extend(_not_passed_text(result))
         out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
         out.append(_sources_text(result))
         out.append(_cautions_text())
         return out
+    out.extend(sections)
+    out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
+    out.append(_sources_text(result))
+    out.append(_cautions_text())
+    return out
+
+
+def _min_width(table) -> int:
+    """The narrowest width ``table`` can be drawn at without wrapping a no-wrap column (its
+    widest cell) or narrowing a column below its ``min_width``; padding and separators added."""
+    from rich.console import Console
+
+    con = Console(width=10_000, color_system=None)
+    total = 0
+    for col in table.columns:
+        cells = [col.header, *col.cells]
+        if col.no_wrap:
+            total += max(con.measure(c).maximum for c in cells)
+        else:
+            total += max(col.min_width or 0, *(con.measure(c).minimum for c in cells))
+    n = len(table.columns)
+    left, right = table.padding[3], table.padding[1]
+    total += n * (left + right) - (0 if table.pad_edge else left + right)
+    return total + (n - 1 if table.box is not None else 0) + (2 if table.show_edge and table.box is not None else 0)
+
+
+def _spectrum_sections(result) -> list:
+    """Per spectrum: the verdict line, the table of its clauses (id, measured, margin and result
+    never wrap; the requirement column wraps, at least :data:`_REQUIREMENT_MIN` wide), notes."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    out: list[Any] = []
     n_clauses = len(result.results)
     from .view import check_grid
 
@@ -174,9 +221,9 @@ def check_renderables(result) -> list:
         t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
         t.add_column("", no_wrap=True)
         t.add_column("id", no_wrap=True)
-        t.add_column("requirement", ratio=3)
-        t.add_column("measured", justify="right", ratio=2)
-        t.add_column("margin", justify="right", ratio=2)
+        t.add_column("requirement", min_width=_REQUIREMENT_MIN)
+        t.add_column("measured", justify="right", no_wrap=True)
+        t.add_column("margin", justify="right", no_wrap=True)
         t.add_column("result", no_wrap=True)
         notes = []
         for k, r in enumerate(result.results):
@@ -203,10 +250,90 @@ def check_renderables(result) -> list:
             for s in notes:
                 nt.append(f"  note: {clean(s)}\n")
             out.append(nt)
-    out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
-    out.append(_sources_text(result))
-    out.append(_cautions_text())
     return out
+
+
+#: The requirement column of a spectrum's clause table is at least this wide (characters).
+_REQUIREMENT_MIN = 22
+#: The compact layout lists at most this many spectra row by row (every row: --format csv/json).
+_ROWS_MAX = 100
+
+
+def _compact_check(result, evaluation, width: int | None, why: str) -> list:
+    """One row per spectrum: verdict, name (or its number, with the names listed under the
+    table when they do not fit), the key figures of ``evaluation`` (registry formats, never
+    split) and how many requirements it failed; then where the rest is."""
+    from rich import box
+    from rich.table import Table
+    from rich.text import Text
+
+    from .. import figures
+    from .terminal import COMPACT_FIGURES
+
+    n = len(result.names)
+    shown = list(range(min(n, _ROWS_MAX)))
+    figs = [figures.FIGURES[k] for k in COMPACT_FIGURES if k in figures.FIGURES] if evaluation is not None else []
+    heads = [f.heading for f in figs]
+    cells = [[f.format(v[i]) for i in shown] for f, v in ((f, f.value(evaluation)) for f in figs)]
+    verdict = [_WORD[result.verdict(i)] for i in shown]
+    n_clauses = len(result.results)
+    counts = []
+    for i in shown:
+        bad = sum(1 for r in result.results if r.outcome[i] != "pass")
+        counts.append(f"{n_clauses - bad}/{n_clauses}")
+    names = [clean(result.names[i]) for i in shown]
+
+    def table(in_table: bool):
+        t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
+        t.add_column("", no_wrap=True)  # ">>" marks a spectrum that did not pass, as in the sections
+        t.add_column("result", no_wrap=True)
+        t.add_column("spectrum" if in_table else "#", no_wrap=True, style="bold")
+        for h in heads:
+            t.add_column(h, justify="right", no_wrap=True)
+        t.add_column("met", justify="right", no_wrap=True)
+        for row, i in enumerate(shown):
+            v = result.verdict(i)
+            t.add_row(">>" if v != "pass" else "", Text(verdict[row], style=_STYLE[v]),
+                      _text(names[row]) if in_table else str(i + 1), *[col[row] for col in cells], counts[row])
+        return t
+
+    t = table(True)
+    in_table = width is None or _min_width(t) <= width
+    if not in_table:  # names too long for one row: numbers in the table, the names listed under it
+        t = table(False)
+    out: list[Any] = [Text(f"\n{_count(n, 'spectrum', 'spectra')}, one row each (met: requirements met, of "
+                           f"{n_clauses})", style="bold"), t]
+    if not in_table:
+        out += [Text(f"  {i + 1:>{len(str(n))}}  {names[row]}") for row, i in enumerate(shown)]
+    if n > len(shown):
+        out.append(Text(f"  … and {n - len(shown)} more spectra: every row is in --format csv or json"))
+    reason = (f"more than {DETAIL_MAX} spectra" if why == "many" else
+              f"the terminal is {width} columns wide")
+    out.append(Text(f"One row per spectrum ({reason}): each clause of each spectrum with `lumeval check --wide`"
+                    f"{' in a wider terminal' if why == 'narrow' else ''}, or `--format csv` / `--format json`.",
+                    style="italic"))
+    return out
+
+
+def _not_passed_text(result) -> list:
+    """The spectra that did not pass, each with its failed (and undecided) clauses and margins."""
+    from rich.text import Text
+
+    bad = [i for i, v in enumerate(result.verdicts) if v != "pass"]
+    if not bad:
+        return []
+    txt = Text(f"Spectra that did not pass ({len(bad)} of {len(result.names)}):\n", style="bold")
+    for i in bad[:_LIST_MAX]:
+        failed = [f"{r.clause_id} ({margin_text(r, i)})" for r in result.results if r.outcome[i] == "fail"]
+        failed += [f"{r.clause_id} (not valid: outside the validity range)" for r in result.results
+                   if r.outcome[i] == "not valid"]
+        open_ = [r.clause_id for r in result.results if r.outcome[i] in ("indeterminate", "not judged")]
+        v = result.verdict(i)
+        txt.append(f"  {_WORD[v]}  {clean(result.names[i])}: ", style=_STYLE[v])
+        txt.append(clean(", ".join(failed + [f"{c} (undecided)" for c in open_])) + "\n")
+    if len(bad) > _LIST_MAX:
+        txt.append(f"  … and {len(bad) - _LIST_MAX} more: every row is in --format csv or json\n")
+    return [txt]
 
 
 def _with_uncertainty(r, i: int, meas: str, res_cell):
@@ -289,21 +416,7 @@ def _summary_renderables(result) -> list:
         style = "bold red" if nfail else ("yellow" if nopen else None)
         t.add_row(">>" if nfail or nopen else "", _text(r.clause_id), _text(r.label), str(npass), f"✘ {nfail}" if nfail else "0",
                   str(nopen), _text(worst), _text(who), style=style)
-    out: list[Any] = [t]
-    bad = [i for i, v in enumerate(result.verdicts) if v != "pass"]
-    if bad:
-        txt = Text(f"Spectra that did not pass ({len(bad)} of {n}):\n", style="bold")
-        for i in bad[:_LIST_MAX]:
-            failed = [f"{r.clause_id} ({margin_text(r, i)})" for r in result.results if r.outcome[i] == "fail"]
-            failed += [f"{r.clause_id} (not valid: outside the validity range)" for r in result.results
-                       if r.outcome[i] == "not valid"]
-            open_ = [r.clause_id for r in result.results if r.outcome[i] in ("indeterminate", "not judged")]
-            v = result.verdict(i)
-            txt.append(f"  {_WORD[v]}  {clean(result.names[i])}: ", style=_STYLE[v])
-            txt.append(clean(", ".join(failed + [f"{c} (undecided)" for c in open_])) + "\n")
-        if len(bad) > _LIST_MAX:
-            txt.append(f"  … and {len(bad) - _LIST_MAX} more: every row is in --format csv or json\n")
-        out.append(txt)
+    out: list[Any] = [t, *_not_passed_text(result)]
     nwarn = sum(1 for w in result.warnings if w)
     if nwarn:
         out.append(Text(f"{_count(nwarn, 'spectrum', 'spectra')} carr{'ies' if nwarn == 1 else 'y'} notes (interpolation, validity limits...): see --format json.", style="dim"))
@@ -358,11 +471,12 @@ def _cautions_text():
     return t
 
 
-def print_check(result, console=None) -> None:
+def print_check(result, console=None, *, evaluation=None, wide: bool = False) -> None:
+    """Print the check report at the console's width (see :func:`check_renderables`)."""
     from .safe import console as safe_console
 
     console = console or safe_console()
-    for r in check_renderables(result):
+    for r in check_renderables(result, width=console.width, evaluation=evaluation, wide=wide):
         console.print(r)
 
 

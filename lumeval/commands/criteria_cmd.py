@@ -150,8 +150,10 @@ def new_criteria_text(nominal_cct: int = 3000, level: str = "good", project: str
 
 
 def explain_markdown(criteria) -> str:
-    """Tender wording (Markdown) for ``criteria``: one numbered requirement per clause,
-    the method of evaluation, the standards relied on and the cautions."""
+    """Tender wording (Markdown) for ``criteria``: one numbered requirement per clause, the
+    measurement requirements (:func:`lumeval.criteria.explain.measurement_requirements`), the
+    method of evaluation, the standards relied on and the cautions."""
+    from ..criteria.explain import measurement_requirements
     from ..engine import METHOD_LABELS, METHODS
     from ..render.safe import clean
     from ..render.tables import CAUTIONS
@@ -181,6 +183,7 @@ def explain_markdown(criteria) -> str:
             if s and s not in sources:
                 sources.append(s)
     a("")
+    L.extend(measurement_requirements(criteria))
     a("## Method of evaluation")
     a("")
     for k, v in METHODS.items():

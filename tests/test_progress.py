@@ -159,3 +159,14 @@ def test_api_and_progress_module_import_no_terminal_library():
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, timeout=120)
     assert r.returncode == 0, r.stderr
     assert r.stdout.strip() == "[]"
+
+
+def test_series_shows_reading_and_evaluating():
+    files = sorted(str(p) for p in (REPO / "spectra_demo" / "tunable").glob("tw2_dim2warm_*.csv"))
+    code, out, screen = run_on_pty(["series", *files, "-f", "json"], {"LUMEVAL_PROGRESS": "always"})
+    assert code in (0, 1), screen
+    n = len(files)
+    assert n >= 5
+    assert f"{n}/{n}" in stage_counts(screen, "reading")
+    assert f"{n}/{n}" in stage_counts(screen, "evaluating")
+    assert '"format": "lumeval.series"' in out

@@ -47,7 +47,9 @@ def register(app: typer.Typer) -> None:
         check_targets(files={"--html": html},
                       inputs=[*files, *([criteria] if criteria else []), *([manifest] if manifest else [])])
         from ..tunable.api import series_files
+        from ._progress import progress_listener
 
-        report = series_files(files, setting_from=setting_from.value, key=setting_key, manifest=manifest, unit=unit,
-                              reference=reference, criteria=criteria)
+        with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints
+            report = series_files(files, setting_from=setting_from.value, key=setting_key, manifest=manifest,
+                                  unit=unit, reference=reference, criteria=criteria, progress=progress)
         emit_report(report, output_format, html, "lumeval " + " ".join(sys.argv[1:]))

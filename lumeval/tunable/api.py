@@ -145,7 +145,7 @@ def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None) ->
 
 
 def series_files(paths, *, setting_from: str = "name", key: str = "setting", manifest=None, unit: str | None = None,
-                 reference="max", criteria=None) -> TunableReport:
+                 reference="max", criteria=None, progress=None) -> TunableReport:
     """Python twin of ``lumeval series``.
 
     Parameters
@@ -162,8 +162,12 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
     reference : "max", "min", "locus" or a setting
         What Δu′v′ is measured from (default the highest setting, i.e. full output).
     criteria : path, optional
+    progress : callable, optional
+        A progress listener (:mod:`lumeval.progress`), told of each file read and each chunk
+        of spectra evaluated.
     """
     from ..engine import evaluate
+    from ..progress import READING, report
     from ..spectra.read import read_spectra
     from .judge import judge
     from .series import series, setting_label, setting_order
@@ -178,7 +182,10 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
         raise UsageError("--setting-from manifest needs --manifest FILE", fix="name the TOML or CSV manifest with --manifest")
     crit = _load_criteria(criteria)
     table, m_unit = _read_manifest(manifest) if manifest is not None else ({}, "")
-    sets = [read_spectra(p) for p in paths]
+    sets = []
+    for k, p in enumerate(paths):
+        sets.append(read_spectra(p))
+        report(progress, READING, k + 1, len(paths))
     if sum(len(s) for s in sets) < 2:
         raise InputError("a series needs at least two spectra", file=str(paths[0]) if paths else None,
                          fix="give the spectra of the product at two or more settings")
@@ -201,7 +208,7 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
     singles = [(s, i) for s in sets for i in range(len(s))]
     # one spectrum per entry, in setting order; the engine prepares them by the rules of
     # docs/input-files.md (spectra on different grids as it treats any spectra evaluated together)
-    ev = evaluate([singles[k][0].subset([singles[k][1]]) for k in order])
+    ev = evaluate([singles[k][0].subset([singles[k][1]]) for k in order], progress=progress)
     settings = np.asarray(values, dtype=float)[order]
     how = {"name": "a number in each file (or column) name", "metadata": f"the metadata field {key!r}",
            "manifest": f"the manifest {manifest}"}[setting_from]

@@ -51,7 +51,18 @@ def _pool(processes: int):
     without an ``if __name__ == "__main__":`` guard)."""
     import multiprocessing as mp
 
-    return mp.get_context("fork" if _FORK else "spawn").Pool(processes)
+    return mp.get_context("fork" if _FORK else "spawn").Pool(processes, initializer=_worker_init)
+
+
+def _worker_init() -> None:
+    """Workers leave Ctrl-C to the main process, which stops them, and end quietly when it
+    terminates them (SIGTERM): they do not keep the command's own signal handlers."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    for name in ("SIGTERM", "SIGHUP"):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), signal.SIG_DFL)
 
 
 _FORK = sys.platform.startswith("linux")

@@ -289,6 +289,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     )
     from .metrics.cri import cie133_cri
     from .metrics.photometry import photometry
+    from .metrics.reference_table import reference_side
     from .metrics.tm30 import cie2017_rf, tm30
 
     XYZ = tristimulus(wl, values)
@@ -300,9 +301,12 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     # temperature (CCT itself stays undefined; the figures are flagged outside validity)
     ref_T = cct.reference_cct_K
     assert ref_T is not None  # cct_duv_ohno always gives it
-    cri = cie133_cri(wl, values, ref_T)
-    fid = tm30(wl, values, ref_T)
-    rf2017 = cie2017_rf(wl, values, ref_T, tm30_result=fid)
+    # One reference side per spectrum, from the tables built once per grid, shared by CIE 13.3,
+    # TM-30 and CIE 224 (lumeval.metrics.reference_table; within 1e-7 of the direct computation)
+    side = reference_side(wl, ref_T)
+    cri = cie133_cri(wl, values, ref_T, reference=side.cri)
+    fid = tm30(wl, values, ref_T, reference=side.tm30_jab)
+    rf2017 = cie2017_rf(wl, values, ref_T, tm30_result=fid, reference=side.cie224_jab)
     phot = photometry(wl, values)
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
 
@@ -313,8 +317,19 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
 
     out = []
     dc = np.asarray(cri.dc, dtype=float)
-    fid_reason = getattr(fid, "reason", ("",) * len(spectra))
-    for i in range(len(spectra)):
+    n = len(spectra)
+    fid_reason = getattr(fid, "reason", ("",) * n)
+    edges = getattr(fid, "hue_edge_pairs", ())
+    # Only spectra with something to say go through the checks below (most have nothing).
+    quiet = ~np.asarray(cct.outside_validity, dtype=bool)
+    quiet &= ~(np.isfinite(dc) & ~np.asarray(cri.within_dc_limit, dtype=bool))
+    quiet &= np.array([not (a or b or c) for a, b, c in zip(cct.reason, fid_reason, phot.reason)], dtype=bool)
+    if len(edges) == n:
+        quiet &= np.array([not e for e in edges], dtype=bool)
+    for i in range(n):
+        if quiet[i]:
+            out.append(tuple(spectra.notes[i]))
+            continue
         w = list(spectra.notes[i])
         if cct.outside_validity[i]:
             w.append(validity_warning(cct.reason[i], float(cct.reference_cct_K[i])))

@@ -176,7 +176,70 @@ def _sample_colorimetry(S: np.ndarray, weighted: np.ndarray, ybar_w: np.ndarray)
     return k, samples
 
 
-def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -> CRIResult:
+def _grid_kernels(start: int, stop: int, step: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(x̄ Δλ (W, 3), ȳ Δλ (W,), β_i x̄ Δλ (W, 42)) on the grid start..stop by step (nm) (not
+    cached: cheap, and it reads the TCS through :func:`_tcs_on_grid` every time)."""
+    wl = np.arange(start, stop + 1, step, dtype=float)
+    tcs = _tcs_on_grid(start, stop, step)  # (14, W)
+    cmf_w = cmfs_at(wl, OBSERVER_2) * float(step)  # (W, 3): x̄ Δλ
+    weighted = (tcs[:, :, None] * cmf_w[None, :, :]).transpose(1, 0, 2).reshape(wl.size, -1)  # (W, 42)
+    return cmf_w, np.ascontiguousarray(cmf_w[:, 1]), weighted
+
+
+def _grid_key(wl: np.ndarray) -> tuple[int, int, int]:
+    return int(round(wl[0])), int(round(wl[-1])), int(round(wl[1] - wl[0]))
+
+
+@dataclass(frozen=True)
+class CRIReference:
+    """The reference side of CIE 13.3 for N spectra: what the test side is compared with.
+
+    Attributes
+    ----------
+    uv : ndarray (N, 2)
+        CIE 1960 (u, v) of the reference illuminant (NaN rows: no reference).
+    UVW : ndarray (N, 14, 3)
+        CIE 1964 U*, V*, W* of TCS01-14 under the reference, the white at (u, v) above.
+    """
+
+    uv: np.ndarray
+    UVW: np.ndarray
+
+
+def cri_reference_from_spd(wavelengths_nm: ArrayLike, reference_values: ArrayLike) -> CRIReference:
+    """CIE 13.3 reference side computed from reference SPDs (N, W) on a prepared grid.
+
+    Steps 3 and 5 of the module docstring applied to the reference illuminant: its (u, v), the
+    14 samples' Y-normalised XYZ (source Y = 100) and their U*V*W* with the reference as white
+    (CIE 13.3-1995; CIE 15:2004). Rows that are not finite give NaN.
+    """
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    S_r = np.atleast_2d(np.asarray(reference_values, dtype=float))
+    cmf_w, ybar_w, weighted = _grid_kernels(*_grid_key(wl))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        uv_r = _uv(S_r @ cmf_w)
+        _, XYZ_ri = _sample_colorimetry(S_r, weighted, ybar_w)
+        uv_ri = _uv(XYZ_ri)
+        u_w = uv_r[:, 0][:, None]
+        v_w = uv_r[:, 1][:, None]
+        W_r = 25.0 * np.cbrt(XYZ_ri[..., 1]) - 17.0
+        UVW_r = np.stack([13.0 * W_r * (uv_ri[..., 0] - u_w), 13.0 * W_r * (uv_ri[..., 1] - v_w), W_r], axis=-1)
+    return CRIReference(uv=uv_r, UVW=UVW_r)
+
+
+def cri_reference(wavelengths_nm: ArrayLike, cct_K: ArrayLike) -> CRIReference:
+    """CIE 13.3 reference side at ``cct_K`` computed directly (reference SPD by
+    :func:`lumeval.metrics.reference.cri_reference_spd`, then :func:`cri_reference_from_spd`).
+    :func:`lumeval.metrics.reference_table.reference_side` gives the same quantities from a
+    table (within its stated bound)."""
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    T = np.atleast_1d(np.asarray(cct_K, dtype=float))
+    return cri_reference_from_spd(wl, cri_reference_spd(wl, T))
+
+
+def cie133_cri(
+    wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, reference: CRIReference | None = None
+) -> CRIResult:
     """CIE 13.3-1995 colour rendering indices of N spectra.
 
     Parameters
@@ -189,6 +252,9 @@ def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -
     cct_K : array_like, shape (N,) (or scalar for one spectrum)
         CCT of each spectrum from lumeval's Ohno (2014) method. NaN gives NaN results for that
         spectrum (no exception).
+    reference : CRIReference, optional
+        The reference side at ``cct_K`` already computed (the engine passes the tabulated one,
+        :func:`lumeval.metrics.reference_table.reference_side`); computed directly when None.
 
     Returns
     -------
@@ -225,25 +291,22 @@ def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -
             field="cct_K",
             fix="pass one CCT per spectrum (NaN where undefined)",
         )
+    if reference is not None and reference.uv.shape != (n, 2):
+        raise InputError(f"reference side for {reference.uv.shape[0]} spectra, values {n}", field="reference",
+                         fix="pass the reference side computed for the same spectra")
 
-    step = int(round(wl[1] - wl[0]))
-    tcs = _tcs_on_grid(int(round(wl[0])), int(round(wl[-1])), step)  # (14, W)
-    cmf_w = cmfs_at(wl, OBSERVER_2) * float(step)  # (W, 3): x̄ Δλ
-    ybar_w = cmf_w[:, 1]
-    weighted = (tcs[:, :, None] * cmf_w[None, :, :]).transpose(1, 0, 2).reshape(wl.size, -1)  # (W, 42)
-
+    cmf_w, ybar_w, weighted = _grid_kernels(*_grid_key(wl))
     defined = np.isfinite(T) & (T > 0)
-    S_r = cri_reference_spd(wl, T)  # (N, W), NaN rows where T undefined
+    if reference is None:
+        reference = cri_reference(wl, T)  # NaN rows where T undefined
+    uv_r = np.array(reference.uv, dtype=float)
+    UVW_r = np.array(reference.UVW, dtype=float)
 
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        # Test source (k) and reference (r): chromaticity of the sources themselves.
+        # Test source (k): chromaticity of the source itself, samples with the source's Y = 100.
         uv_k = _uv(S @ cmf_w)
-        uv_r = _uv(S_r @ cmf_w)
-        # Samples under each source, Y of the source = 100.
         _, XYZ_ki = _sample_colorimetry(S, weighted, ybar_w)
-        _, XYZ_ri = _sample_colorimetry(S_r, weighted, ybar_w)
         uv_ki = _uv(XYZ_ki)  # (N, 14, 2)
-        uv_ri = _uv(XYZ_ri)
 
         # Adaptive colour shift (von Kries type in CIE 1960 UCS), CIE 13.3.
         c_k, d_k = _cd(uv_k[:, 0], uv_k[:, 1])
@@ -259,9 +322,7 @@ def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -
         u_w = uv_r[:, 0][:, None]
         v_w = uv_r[:, 1][:, None]
         W_k = 25.0 * np.cbrt(XYZ_ki[..., 1]) - 17.0
-        W_r = 25.0 * np.cbrt(XYZ_ri[..., 1]) - 17.0
         UVW_k = np.stack([13.0 * W_k * (u_adapt - u_w), 13.0 * W_k * (v_adapt - v_w), W_k], axis=-1)
-        UVW_r = np.stack([13.0 * W_r * (uv_ri[..., 0] - u_w), 13.0 * W_r * (uv_ri[..., 1] - v_w), W_r], axis=-1)
 
         dE = np.sqrt(((UVW_k - UVW_r) ** 2).sum(axis=-1))
         R = 100.0 - 4.6 * dE
@@ -277,7 +338,7 @@ def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -
             arr[bad] = np.nan
     within = np.zeros(n, dtype=bool)
     np.less(dc, DC_LIMIT, out=within, where=np.isfinite(dc))
-    reference = tuple(
+    kinds = tuple(
         "" if not ok else (PLANCKIAN if t < DAYLIGHT_FROM_K else DAYLIGHT) for ok, t in zip(defined & ~bad, T)
     )
     ref_T = np.where(defined & ~bad, T, np.nan)
@@ -286,7 +347,7 @@ def cie133_cri(wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike) -
         R=R,
         dc=dc,
         within_dc_limit=within,
-        reference=reference,
+        reference=kinds,
         reference_cct_K=ref_T,
         uv_test=uv_k,
         uv_reference=uv_r,

@@ -46,11 +46,14 @@ def daylight_xy(cct_K: ArrayLike) -> np.ndarray:
     return np.stack([x, y], axis=-1)
 
 
-def daylight_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike, *, round_m: bool = True) -> np.ndarray:
-    """Relative SPD of CIE daylight at ``cct_K`` sampled at ``wavelengths_nm``.
+def daylight_m(cct_K: ArrayLike, *, round_m: bool = True) -> tuple[np.ndarray, np.ndarray]:
+    """The CIE daylight coefficients (M1, M2) at ``cct_K`` (CIE 15:2004 Eqs. 3.5-3.7).
 
-    Returns shape (W,) for a scalar CCT, (N, W) for shape (N,). Values are as CIE 15 defines
-    them (S0 + M1 S1 + M2 S2, about 100 at 560 nm), not renormalised.
+    ``M = 0.0241 + 0.2562 x_D − 0.7341 y_D``, ``M1 = (−1.3515 − 1.7703 x_D + 5.9114 y_D) / M``,
+    ``M2 = (0.0300 − 31.4424 x_D + 30.0717 y_D) / M``, rounded to three decimals when
+    ``round_m`` (as CIE 15 prescribes for the D illuminants; colour-science's default too).
+    The rounding makes the daylight SPD a step function of the CCT: every (M1, M2) pair holds
+    over a small range of temperatures (used by :mod:`lumeval.metrics.reference_table`).
     """
     xy = daylight_xy(cct_K)
     x, y = xy[..., 0], xy[..., 1]
@@ -60,10 +63,26 @@ def daylight_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike, *, round_m: bool =
     if round_m:
         M1 = np.round(M1, 3)
         M2 = np.round(M2, 3)
+    return M1, M2
+
+
+def daylight_spd_from_m(wavelengths_nm: ArrayLike, M1: ArrayLike, M2: ArrayLike) -> np.ndarray:
+    """CIE daylight S0 + M1 S1 + M2 S2 at ``wavelengths_nm`` for given coefficients (CIE 15:2004
+    Eq. 3.5), the basis interpolated linearly (see the module docstring). Shape (W,) or (N, W)."""
     wl_b, S = _daylight_basis()
     wl = np.asarray(wavelengths_nm, dtype=float)
     Si = np.stack([np.interp(wl, wl_b, S[k]) for k in range(3)])
     return cast("np.ndarray", Si[0] + np.asarray(M1)[..., None] * Si[1] + np.asarray(M2)[..., None] * Si[2])
+
+
+def daylight_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike, *, round_m: bool = True) -> np.ndarray:
+    """Relative SPD of CIE daylight at ``cct_K`` sampled at ``wavelengths_nm``.
+
+    Returns shape (W,) for a scalar CCT, (N, W) for shape (N,). Values are as CIE 15 defines
+    them (S0 + M1 S1 + M2 S2, about 100 at 560 nm), not renormalised.
+    """
+    M1, M2 = daylight_m(cct_K, round_m=round_m)
+    return daylight_spd_from_m(wavelengths_nm, M1, M2)
 
 
 def planckian_spd(wavelengths_nm: ArrayLike, cct_K: ArrayLike) -> np.ndarray:

@@ -286,12 +286,18 @@ def reference_spd(
     out[pl] = P[pl]
     out[dl] = D[dl]
     if bl.any():
-        ybar = cmfs_at(wl, blend_observer)[:, 1]
-        YP = P[bl] @ ybar
-        YD = D[bl] @ ybar
-        mb = m[bl][:, None]
-        out[bl] = (1.0 - mb) * P[bl] / YP[:, None] + mb * D[bl] / YD[:, None]
+        out[bl] = blend_spd(wl, P[bl], D[bl], m[bl], blend_observer)
     return out, m
+
+
+def blend_spd(wavelengths_nm: ArrayLike, P: np.ndarray, D: np.ndarray, m: np.ndarray, blend_observer: str) -> np.ndarray:
+    """The 4000-5000 K blend ``(1 − m) P / Y_P + m D / Y_D`` of Planckian ``P`` and daylight ``D``
+    (N, W), each normalised to equal Y with ``blend_observer``'s ȳ (CIE 224:2017; TM-30-18)."""
+    ybar = cmfs_at(np.asarray(wavelengths_nm, dtype=float), blend_observer)[:, 1]
+    YP = P @ ybar
+    YD = D @ ybar
+    mb = np.asarray(m, dtype=float)[:, None]
+    return cast("np.ndarray", (1.0 - mb) * P / YP[:, None] + mb * D / YD[:, None])
 
 
 # --------------------------------------------------------------------------- core
@@ -368,51 +374,97 @@ def cam02ucs_cie224(
     ``JMh_CIECAM02_to_CAM02UCS`` (the tested reference) up to the order of floating-point
     operations; measured agreement is in tests/test_metrics_tm30_cam02.py.
     """
-    XYZ = np.asarray(XYZ, dtype=float)
-    XYZ_w = np.asarray(XYZ_w, dtype=float)
+    return _cam02ucs(np.asarray(XYZ, dtype=float), np.asarray(XYZ_w, dtype=float), None, L_A, Y_b, True)
+
+
+#: Columns of the linear forms of (R′_a, G′_a, B′_a) that CIECAM02 uses (CIE 159:2004):
+#: a = R′_a − 12 G′_a / 11 + B′_a / 11, b = (R′_a + G′_a − 2 B′_a) / 9,
+#: A / N_bb + 0.305 = 2 R′_a + G′_a + B′_a / 20, and the t denominator R′_a + G′_a + 21 B′_a / 20.
+_L_FORMS = np.array([[1.0, 1.0 / 9.0, 2.0, 1.0], [-12.0 / 11.0, 1.0 / 9.0, 1.0, 1.0], [1.0 / 11.0, -2.0 / 9.0, 1.0 / 20.0, 21.0 / 20.0]])
+
+
+def _spow_into(x: np.ndarray, p: float | np.ndarray) -> np.ndarray:
+    """sign(x)·|x|^p in fewer passes (copysign; the same values as :func:`_spow`)."""
+    y = np.abs(x)
+    np.power(y, p, out=y)
+    return cast("np.ndarray", np.copysign(y, x, out=y))
+
+
+def _cam02ucs(
+    XYZ: np.ndarray, XYZ_w: np.ndarray, k: np.ndarray | None, L_A: float, Y_b: float, with_hue: bool
+) -> tuple[np.ndarray, np.ndarray]:
+    """The computation of :func:`cam02ucs_cie224`, arranged for speed (same equations).
+
+    ``k`` (M,), if given, scales each source's XYZ and XYZ_w (relative colorimetry: Y_w = 100);
+    it is folded into the per-source matrix instead of a pass over the samples. The linear
+    forms a, b, A and the t denominator come from one matrix product; e_t·√(a² + b²) is
+    ¼ (a cos 2 − b sin 2 + 3.8 √(a² + b²)) (cos(h + 2) expanded, h = atan2(b, a)); the hue
+    angle itself is computed only when ``with_hue`` (TM-30 needs only the reference hue).
+    Returns (Jab (M, K, 3), h (M, K) in degrees, or an empty array without ``with_hue``).
+    """
+    if k is not None:
+        XYZ_w = XYZ_w * k[:, None]
     Y_w = XYZ_w[:, 1]
-    k = 1.0 / (5.0 * L_A + 1.0)
-    k4 = k**4
+    kk = 1.0 / (5.0 * L_A + 1.0)
+    k4 = kk**4
     F_L = 0.2 * k4 * (5.0 * L_A) + 0.1 * (1.0 - k4) ** 2 * np.cbrt(5.0 * L_A)
     n = Y_b / Y_w  # (M,)
     N_bb = 0.725 * (1.0 / n) ** 0.2
     z = 1.48 + np.sqrt(n)
 
-    def compress(RGB_p: np.ndarray) -> np.ndarray:
-        x = (F_L * np.abs(RGB_p) / 100.0) ** 0.42  # base ≥ 0: the signed power is the plain one
-        return cast("np.ndarray", (400.0 * np.sign(RGB_p) * x) / (27.13 + x) + 0.1)
+    def compress(v: np.ndarray) -> np.ndarray:
+        # v = F_L R′ / 100: R′_a = 400 sign(v) |v|^0.42 / (27.13 + |v|^0.42) + 0.1 (CIE 159:2004)
+        y = np.abs(v)
+        np.power(y, 0.42, out=y)
+        den = y + 27.13
+        np.copysign(y, v, out=y)
+        y *= 400.0
+        y /= den
+        y += 0.1
+        return cast("np.ndarray", y)
 
     RGB_w = XYZ_w @ _M_CAT02.T  # (M, 3)
     D_scale = Y_w[:, None] / RGB_w  # D = 1: R_c = (Y_w / R_w) R
-    # Per-source matrix  M_HPE · M_CAT02⁻¹ · diag(Y_w / RGB_w) · M_CAT02, applied to every sample.
+    # Per-source matrix  F_L/100 · k · M_HPE · M_CAT02⁻¹ · diag(Y_w / RGB_w) · M_CAT02.
     M_src = _M_CAT02_TO_HPE[None, :, :] @ (D_scale[:, :, None] * _M_CAT02[None, :, :])  # (M, 3, 3)
-    RGB_a = compress(XYZ @ np.swapaxes(M_src, 1, 2))  # (M, K, 3)
-    RGB_aw = compress((RGB_w * D_scale) @ _M_CAT02_TO_HPE.T)  # (M, 3)
-
-    R, G, B = RGB_a[..., 0], RGB_a[..., 1], RGB_a[..., 2]
-    a = R - 12.0 * G / 11.0 + B / 11.0
-    b = (R + G - 2.0 * B) / 9.0
-    h = np.degrees(np.arctan2(b, a)) % 360.0
-    # cos h and sin h from a and b directly (h = 0 where a = b = 0, as atan2 gives), and
-    # cos(h + 2) = cos h cos 2 − sin h sin 2: fewer transcendental passes, same values.
+    RGB_aw = compress((RGB_w * D_scale) @ _M_CAT02_TO_HPE.T * (F_L / 100.0))  # (M, 3)
+    scale = np.full(Y_w.shape, F_L / 100.0) if k is None else k * (F_L / 100.0)
+    m, K = XYZ.shape[0], XYZ.shape[1]
+    RGB_a = compress(XYZ @ np.swapaxes(M_src * scale[:, None, None], 1, 2))  # (M, K, 3)
+    q = (RGB_a.reshape(-1, 3) @ _L_FORMS).reshape(m, K, 4)
+    a, b, dn = q[..., 0], q[..., 1], q[..., 3]
+    A_w = (RGB_aw @ _L_FORMS[:, 2] - 0.305) * N_bb
     r = np.hypot(a, b)
-    pos = r > 0
-    r_safe = np.where(pos, r, 1.0)
-    cos_h = np.where(pos, a / r_safe, 1.0)
-    sin_h = np.where(pos, b / r_safe, 0.0)
-    e_t = 0.25 * (cos_h * np.cos(2.0) - sin_h * np.sin(2.0) + 3.8)
-    A = (2.0 * R + G + B / 20.0 - 0.305) * N_bb[:, None]
-    A_w = (2.0 * RGB_aw[:, 0] + RGB_aw[:, 1] + RGB_aw[:, 2] / 20.0 - 0.305) * N_bb
-    J = 100.0 * _spow(A / A_w[:, None], _SURROUND_C * z[:, None])
     with np.errstate(divide="ignore", invalid="ignore"):
-        t = ((50000.0 / 13.0) * _SURROUND_NC * N_bb[:, None]) * (
-            e_t * r / (R + G + 21.0 * B / 20.0)
-        )
-    C = _spow(t, 0.9) * _spow(J / 100.0, 0.5) * _spow(1.64 - 0.29 ** n[:, None], 0.73)
-    M = C * _spow(F_L, 0.25)
-    Jp = 1.7 * J / (1.0 + 0.007 * J)
-    Mp = np.log1p(0.0228 * M) / 0.0228
-    return np.stack([Jp, Mp * cos_h, Mp * sin_h], axis=-1), h
+        Jn = q[..., 2] - 0.305
+        Jn *= (N_bb / A_w)[:, None]  # A / A_w
+        Jn = _spow_into(Jn, _SURROUND_C * z[:, None])  # J / 100
+        num = a * np.cos(2.0)
+        num -= b * np.sin(2.0)
+        num += 3.8 * r
+        num *= ((50000.0 / 13.0) * _SURROUND_NC * 0.25 * N_bb)[:, None]
+        num /= dn  # t
+        Mc = _spow_into(num, 0.9)
+        sq = np.sqrt(np.abs(Jn))
+        Mc *= np.copysign(sq, Jn, out=sq)
+        Mc *= (_spow(1.64 - 0.29**n, 0.73) * _spow(np.asarray(F_L), 0.25))[:, None]  # M
+        out = np.empty((m, K, 3))
+        J = out[..., 0]
+        np.multiply(Jn, 100.0, out=J)
+        np.multiply(J, 1.7, out=Jn)
+        J *= 0.007
+        J += 1.0
+        np.divide(Jn, J, out=J)  # J′ = 1.7 J / (1 + 0.007 J)
+        Mc *= 0.0228
+        np.log1p(Mc, out=Mc)
+        Mc /= 0.0228  # M′
+        pos = r > 0
+        np.divide(Mc, r, out=Mc, where=pos)
+        Mc[~pos] = 0.0  # a = b = 0: M′ = 0 (t = 0)
+        np.multiply(Mc, a, out=out[..., 1])
+        np.multiply(Mc, b, out=out[..., 2])
+    h = np.degrees(np.arctan2(b, a)) % 360.0 if with_hue else np.empty((m, 0))
+    return out, h
 
 
 def _ces_cmf_kernel(R: np.ndarray, cmf10: np.ndarray) -> np.ndarray:
@@ -438,22 +490,28 @@ def _cfi_tables(wl: ArrayLike) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 
 def _jab(
-    wl: np.ndarray, S: np.ndarray, R: np.ndarray, cmf10: np.ndarray, kernel: np.ndarray | None = None
+    wl: np.ndarray, S: np.ndarray, R: np.ndarray, cmf10: np.ndarray, kernel: np.ndarray | None = None,
+    with_hue: bool = True,
 ) -> tuple[np.ndarray, np.ndarray]:
     """CAM02-UCS J′a′b′ of the CES under the light sources ``S`` (M, W): (M, 99, 3), h (M, 99).
 
     Relative colorimetry with the CIE 1964 10° observer: XYZ = 100 Σ R S x̄ / Σ S ȳ (the white
     has Y_w = 100); CIECAM02 with L_A = 100, Y_b = 20, average surround, D = 1 (discounting the
-    illuminant), then CAM02-UCS (CIE 224:2017), by :func:`cam02ucs_cie224`.
+    illuminant), then CAM02-UCS (CIE 224:2017), by :func:`cam02ucs_cie224`. Without
+    ``with_hue`` the hue angle is not computed (an empty (M, 0) array is returned for it).
     """
     if kernel is None:
         kernel = _ces_cmf_kernel(R, cmf10)
     XYZ_w = S @ cmf10  # (M, 3)
     k = 100.0 / XYZ_w[:, 1]
-    XYZ_w = XYZ_w * k[:, None]
     XYZ = (S @ kernel).reshape(S.shape[0], R.shape[0], 3)
-    XYZ *= k[:, None, None]
-    return cam02ucs_cie224(XYZ, XYZ_w, L_A, Y_B)
+    return _cam02ucs(XYZ, XYZ_w, k, L_A, Y_B, with_hue)
+
+
+def reference_hue(Jab_ref: np.ndarray) -> np.ndarray:
+    """CIECAM02 hue angle h (degrees, [0, 360)) of CES from their CAM02-UCS (J′, a′, b′):
+    a′ = M′ cos h and b′ = M′ sin h with M′ ≥ 0 (Luo, Cui & Li 2006), so h = atan2(b′, a′)."""
+    return cast("np.ndarray", np.degrees(np.arctan2(Jab_ref[..., 2], Jab_ref[..., 1])) % 360.0)
 
 
 def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:
@@ -485,11 +543,15 @@ def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLER
     edge = (near_low | near_high) & finite
     own = np.clip(np.floor(h / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
     other = np.where(near_low, (own - 1) % N_BINS, (own + 1) % N_BINS)
-    out: list[list[tuple[int, int]]] = [[] for _ in range(h.shape[0])]
-    for i, k in zip(*np.nonzero(edge)):
-        a, b = sorted((int(own[i, k]) + 1, int(other[i, k]) + 1))
-        out[i] += [(a, int(k) + 1), (b, int(k) + 1)]
-    return tuple(tuple(sorted(p, key=lambda t: (t[1], t[0]))) for p in out)
+    out: list[tuple[tuple[int, int], ...]] = [()] * h.shape[0]
+    rows, cols = np.nonzero(edge)
+    for i in np.unique(rows).tolist():
+        pairs: list[tuple[int, int]] = []
+        for k in cols[rows == i].tolist():
+            a, b = sorted((int(own[i, k]) + 1, int(other[i, k]) + 1))
+            pairs += [(a, k + 1), (b, k + 1)]
+        out[i] = tuple(sorted(pairs, key=lambda t: (t[1], t[0])))
+    return tuple(out)
 
 
 def hue_edge_warnings(pairs_per_spectrum: Any, i: int) -> list[str]:
@@ -518,9 +580,9 @@ def tm30_from_reference(
 ) -> TM30Result:
     """TM-30-18 figures for test spectra against given reference spectra (same grid).
 
-    The engine behind :func:`tm30`; exposed so that a caller (or a test) can supply its own
-    reference illuminant. ``values`` and ``reference_values`` are (N, W) or (W,) on the same
-    prepared grid; rows with any non-finite value or non-positive Y10 give NaN figures.
+    Exposed so that a caller (or a test) can supply its own reference illuminant. ``values``
+    and ``reference_values`` are (N, W) or (W,) on the same prepared grid; rows with any
+    non-finite value or non-positive Y10 give NaN figures.
     """
     wl, S_t, step = _crop_grid(wavelengths_nm, values)
     _, S_r, _ = _crop_grid(wavelengths_nm, reference_values)
@@ -530,6 +592,33 @@ def tm30_from_reference(
             f"{S_r.shape[0]} reference spectra for {n} test spectra",
             fix="pass one reference spectrum per test spectrum",
         )
+    return _tm30_core(wl, S_t, reference_jab(wl, S_r), step, cct_K, reference_kind, daylight_fraction, blend_observer)
+
+
+def reference_jab(wavelengths_nm: ArrayLike, reference_values: ArrayLike) -> np.ndarray:
+    """CAM02-UCS J′a′b′ (N, 99, 3) of the CES under reference SPDs (N, W) on a cropped
+    380-780 nm grid, computed directly (:func:`_jab`); NaN rows where a reference is not finite
+    or its Y10 is not positive."""
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    S_r = np.atleast_2d(np.asarray(reference_values, dtype=float))
+    cmf10, R, kernel = _cfi_tables(wl)
+    out = np.full((S_r.shape[0], R.shape[0], 3), np.nan)
+    Yr = S_r @ cmf10[:, 1]
+    ok = np.all(np.isfinite(S_r), axis=1) & np.isfinite(Yr) & (Yr > 0)
+    if ok.any():
+        out[ok] = _jab(wl, S_r[ok], R, cmf10, kernel, with_hue=False)[0]
+    return out
+
+
+def _tm30_core(
+    wl: np.ndarray, S_t: np.ndarray, jab_ref: np.ndarray, step: float, cct_K: ArrayLike | None, reference_kind: Any,
+    daylight_fraction: Any, blend_observer: str,
+) -> TM30Result:
+    """TM-30-18 figures of test spectra ``S_t`` (N, W) on the cropped grid ``wl`` against the
+    reference side ``jab_ref`` (N, 99, 3): the CES's J′a′b′ under each spectrum's reference
+    (computed directly or from :mod:`lumeval.metrics.reference_table`). Only the reference hue
+    is computed (bins are defined on it); the test side needs J′a′b′ only."""
+    n = S_t.shape[0]
     cct = np.full(n, np.nan) if cct_K is None else np.broadcast_to(
         np.asarray(cct_K, dtype=float), (n,)).copy()
     frac = np.full(n, np.nan) if daylight_fraction is None else np.asarray(daylight_fraction, float)
@@ -538,68 +627,64 @@ def tm30_from_reference(
 
     cmf10, R, kernel = _cfi_tables(wl)
     Yt = S_t @ cmf10[:, 1]
-    Yr = S_r @ cmf10[:, 1]
-    ok = np.all(np.isfinite(S_t), axis=1) & np.all(np.isfinite(S_r), axis=1)
-    ok &= np.isfinite(Yt) & np.isfinite(Yr) & (Yt > 0) & (Yr > 0)
+    ref_ok = np.all(np.isfinite(jab_ref.reshape(n, -1)), axis=1)
+    test_finite = np.all(np.isfinite(S_t), axis=1)
+    ok = ref_ok & test_finite & np.isfinite(Yt) & (Yt > 0)
     for i in np.flatnonzero(~ok):
-        if not np.all(np.isfinite(S_r[i])):
+        if not ref_ok[i]:
             reasons[i] = "no reference illuminant (CCT undefined)"
-        elif not np.all(np.isfinite(S_t[i])):
+        elif not test_finite[i]:
             reasons[i] = "spectrum contains non-finite values"
         else:
             reasons[i] = "spectrum has no luminous content (Y10 ≤ 0)"
 
-    def nan(*shape: int) -> np.ndarray:
-        return np.full((n, *shape), np.nan)
-
-    Rf, Rg = nan(), nan()
-    Rf_ces, dE = nan(99), nan(99)
-    Rf_h, Rcs_h, Rhs_h = nan(N_BINS), nan(N_BINS), nan(N_BINS)
-    avg_t, avg_r = nan(N_BINS, 2), nan(N_BINS, 2)
-    counts = np.zeros((n, N_BINS), dtype=int)
-    hue_bin = np.full((n, 99), -1, dtype=int)
-    Jab_t, Jab_r = nan(99, 3), nan(99, 3)
-    hue_ref = nan(99)
-
     idx = np.flatnonzero(ok)
-    if idx.size:
-        m = idx.size
-        Jab, h = _jab(wl, np.concatenate([S_t[idx], S_r[idx]]), R, cmf10, kernel)
-        jt, jr = Jab[:m], Jab[m:]
-        hr = h[m:]
-        d = jt - jr
-        de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
-        bins = np.clip(np.floor(hr / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
-        # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
-        flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
+    m = idx.size
 
-        def binsum(w: np.ndarray) -> np.ndarray:
-            return np.bincount(flat, weights=w.ravel(), minlength=m * N_BINS).reshape(m, N_BINS)
+    def place(v: np.ndarray, fill: float = np.nan) -> np.ndarray:
+        """Rows of the m computed spectra into an (n, ...) array (no copy when all are computed)."""
+        if m == n:
+            return v
+        out = np.full((n, *v.shape[1:]), fill, dtype=v.dtype)
+        out[idx] = v
+        return out
 
-        cnt = np.bincount(flat, minlength=m * N_BINS).reshape(m, N_BINS).astype(float)  # (m, 16)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            at = np.stack([binsum(jt[..., 1]), binsum(jt[..., 2])], axis=-1) / cnt[..., None]
-            ar = np.stack([binsum(jr[..., 1]), binsum(jr[..., 2])], axis=-1) / cnt[..., None]
-            de_bin = binsum(de) / cnt
-            theta = np.deg2rad(BIN_WIDTH_DEG * np.arange(N_BINS) + BIN_WIDTH_DEG / 2.0)
-            cos, sin = np.cos(theta), np.sin(theta)
-            rr = np.hypot(ar[..., 0], ar[..., 1])
-            da = at[..., 0] - ar[..., 0]
-            db = at[..., 1] - ar[..., 1]
-            Rcs_h[idx] = 100.0 * (da * cos + db * sin) / rr
-            Rhs_h[idx] = (-da * sin + db * cos) / rr
-            Rg[idx] = 100.0 * _polygon_area(at) / _polygon_area(ar)
-        Rf[idx] = _Rf_scale(de.mean(axis=1))
-        Rf_ces[idx] = _Rf_scale(de)
-        dE[idx] = de
-        Rf_h[idx] = _Rf_scale(de_bin)
-        avg_t[idx], avg_r[idx] = at, ar
-        counts[idx] = cnt.astype(int)
-        hue_bin[idx] = bins
-        hue_ref[idx] = hr
-        Jab_t[idx], Jab_r[idx] = jt, jr
-        for i in idx[np.any(cnt == 0, axis=1)]:
-            reasons[i] = "a hue bin holds no sample: Rg and bin values are undefined"
+    jt = _jab(wl, S_t[idx], R, cmf10, kernel, with_hue=False)[0] if m else np.empty((0, 99, 3))
+    jr = jab_ref[idx]
+    hr = reference_hue(jr)
+    d = jt - jr
+    de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
+    bins = np.clip(np.floor(hr / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
+    # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
+    flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
+
+    def binsum(w: np.ndarray) -> np.ndarray:
+        return np.bincount(flat, weights=w.ravel(), minlength=m * N_BINS).reshape(m, N_BINS)
+
+    cnt = np.bincount(flat, minlength=m * N_BINS).reshape(m, N_BINS).astype(float)  # (m, 16)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        at = np.stack([binsum(jt[..., 1]), binsum(jt[..., 2])], axis=-1) / cnt[..., None]
+        ar = np.stack([binsum(jr[..., 1]), binsum(jr[..., 2])], axis=-1) / cnt[..., None]
+        de_bin = binsum(de) / cnt
+        theta = np.deg2rad(BIN_WIDTH_DEG * np.arange(N_BINS) + BIN_WIDTH_DEG / 2.0)
+        cos, sin = np.cos(theta), np.sin(theta)
+        rr = np.hypot(ar[..., 0], ar[..., 1])
+        da = at[..., 0] - ar[..., 0]
+        db = at[..., 1] - ar[..., 1]
+        Rcs_h = place(100.0 * (da * cos + db * sin) / rr)
+        Rhs_h = place((-da * sin + db * cos) / rr)
+        Rg = place(100.0 * _polygon_area(at) / _polygon_area(ar))
+    Rf = place(_Rf_scale(de.mean(axis=1)))
+    Rf_ces = place(_Rf_scale(de))
+    dE = place(de)
+    Rf_h = place(_Rf_scale(de_bin))
+    avg_t, avg_r = place(at), place(ar)
+    counts = place(cnt.astype(int), 0)
+    hue_bin = place(bins, -1)
+    hue_ref = place(hr)
+    Jab_t, Jab_r = place(jt), place(jr)
+    for i in idx[np.any(cnt == 0, axis=1)]:
+        reasons[i] = "a hue bin holds no sample: Rg and bin values are undefined"
 
     return TM30Result(
         Rf=Rf, Rg=Rg, Rf_ces=Rf_ces, delta_E_ces=dE, Rf_h=Rf_h, Rcs_h=Rcs_h, Rhs_h=Rhs_h,
@@ -611,7 +696,8 @@ def tm30_from_reference(
 
 
 def tm30(
-    wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = BLEND_OBSERVER_DEFAULT
+    wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = BLEND_OBSERVER_DEFAULT,
+    reference: np.ndarray | None = None,
 ) -> TM30Result:
     """CIE 224:2017 Rf and ANSI/IES TM-30-18/-20 Rf, Rg and hue-bin figures, vectorised.
 
@@ -629,6 +715,10 @@ def tm30(
     blend_observer : str
         Observer whose ȳ normalises the Planckian and daylight components of the 4000-5000 K
         blend (default CIE 1964 10°; colour-science uses CIE 1931 2°).
+    reference : ndarray (N, 99, 3), optional
+        The reference side already computed: the CES's CAM02-UCS J′a′b′ under each spectrum's
+        reference at ``cct_K`` (the engine passes the tabulated one,
+        :func:`lumeval.metrics.reference_table.reference_side`); computed directly when None.
 
     Returns
     -------
@@ -649,30 +739,27 @@ def tm30(
     vals = np.asarray(values, dtype=float)
     n = 1 if vals.ndim == 1 else vals.shape[0]
     cct = np.broadcast_to(np.atleast_1d(np.asarray(cct_K, dtype=float)), (n,)).copy()
-    wl_c, _, _ = _crop_grid(wl, vals)
-    keep = (wl >= CFI_RANGE_NM[0] - 1e-9) & (wl <= CFI_RANGE_NM[1] + 1e-9)
-    ref, frac = reference_spd(wl_c, cct, blend_observer=blend_observer)
-    kinds = []
-    for T in cct:
-        if not np.isfinite(T) or T <= 0:
-            kinds.append("")
-        elif T < BLEND_LO_K:
-            kinds.append(REFERENCE_PLANCKIAN)
-        elif T > BLEND_HI_K:
-            kinds.append(REFERENCE_DAYLIGHT)
-        else:
-            kinds.append(REFERENCE_BLEND)
-    vals2 = vals[None, :] if vals.ndim == 1 else vals
-    res = tm30_from_reference(
-        wl_c, vals2[:, keep], ref, cct, reference_kind=kinds, daylight_fraction=frac,
-        blend_observer=blend_observer,
-    )
-    return res
+    wl_c, S_t, step = _crop_grid(wl, vals)
+    frac = np.where(np.isfinite(cct) & (cct > 0),
+                    np.clip((cct - BLEND_LO_K) / (BLEND_HI_K - BLEND_LO_K), 0.0, 1.0), np.nan)
+    code = np.where(~(np.isfinite(cct) & (cct > 0)), 0,
+                    np.where(cct < BLEND_LO_K, 1, np.where(cct > BLEND_HI_K, 2, 3)))
+    names = ("", REFERENCE_PLANCKIAN, REFERENCE_DAYLIGHT, REFERENCE_BLEND)
+    kinds = tuple(names[c] for c in code.tolist())
+    if reference is None:
+        ref, _ = reference_spd(wl_c, cct, blend_observer=blend_observer)
+        jab_r = reference_jab(wl_c, ref)
+    else:
+        jab_r = np.asarray(reference, dtype=float)
+        if jab_r.shape != (n, 99, 3):
+            raise InputError(f"reference side of shape {jab_r.shape} for {n} spectra",
+                             fix="pass the CES J'a'b' under each spectrum's reference, shape (N, 99, 3)")
+    return _tm30_core(wl_c, S_t, jab_r, step, cct, kinds, frac, blend_observer)
 
 
 def cie2017_rf(
     wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = OBSERVER_2,
-    tm30_result: TM30Result | None = None,
+    tm30_result: TM30Result | None = None, reference: np.ndarray | None = None,
 ) -> np.ndarray:
     """CIE 224:2017 general colour fidelity index Rf, shape (N,).
 
@@ -687,7 +774,9 @@ def cie2017_rf(
     ≤ 1.3e-4 on generated LED spectra, and none outside 4000-5000 K.
 
     ``tm30_result``: pass the :func:`tm30` result for the same spectra to reuse it for every
-    spectrum whose reference is not a blend (only blends are recomputed).
+    spectrum whose reference is not a blend (only blends are recomputed). ``reference``: with
+    ``tm30_result``, the CES's J′a′b′ (N, 99, 3) under the ``blend_observer``-normalised
+    reference (only the rows of 4000-5000 K are read; the engine passes the tabulated ones).
     """
     vals = np.asarray(values, dtype=float)
     vals2 = vals[None, :] if vals.ndim == 1 else vals
@@ -715,9 +804,11 @@ def cie2017_rf(
         wl_c, _, _ = _crop_grid(wl, vals2)
         rows = np.flatnonzero(blend & np.isfinite(tm30_result.Rf))
         if rows.size:
-            ref, _ = reference_spd(wl_c, cct[rows], blend_observer=blend_observer)
-            cmf10, R, kernel = _cfi_tables(wl_c)
-            Jab_r, _ = _jab(wl_c, ref, R, cmf10, kernel)
+            if reference is not None:
+                Jab_r = np.asarray(reference, dtype=float)[rows]
+            else:
+                ref, _ = reference_spd(wl_c, cct[rows], blend_observer=blend_observer)
+                Jab_r = reference_jab(wl_c, ref)
             d = jt[rows] - Jab_r
             de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)
             out[rows] = _Rf_scale(de.mean(axis=1))

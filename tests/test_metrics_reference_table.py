@@ -1,0 +1,180 @@
+"""The tabulated reference side (lumeval.metrics.reference_table) against the direct computation.
+
+The direct computation (reference SPD by lumeval.metrics.reference / tm30.reference_spd, then the
+CIE 13.3 sample colorimetry and the CIE 224 CAM02-UCS of the 99 CES) is itself checked against
+colour-science 0.4.7's per-spectrum functions in tests/test_metrics_cri.py,
+tests/test_metrics_tm30.py and tests/test_engine_equivalence.py. Here every reference-based
+figure computed with the tabulated reference must equal the one computed with the direct
+reference within TOL = 1e-7 (the bound stated in the module docstring and docs/metrics.md; the
+issue asks for < 1e-4), over a dense sweep of 1000-25,000 K with the switches at 4000 K (Planckian
+/ blend), 5000 K (CIE 13.3 Planckian / daylight; end of the blend) and 7000 K (the two branches
+of the daylight locus) approached from both sides and hit exactly, on 1 nm and 5 nm grids and on
+grids of other ranges, in any fill order, and through the engine off the locus (|Duv| up to 0.08,
+where the figures are computed at the nearest Planckian temperature).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from lumeval.metrics import reference_table as rt
+from lumeval.metrics.colorimetry import OBSERVER_2, OBSERVER_10
+from lumeval.metrics.cri import cie133_cri, cri_reference
+from lumeval.metrics.reference import planckian_spd
+from lumeval.metrics.tm30 import (
+    BIN_WIDTH_DEG,
+    cie2017_rf,
+    reference_hue,
+    reference_jab,
+    reference_spd,
+    tm30,
+)
+
+TOL = 1e-7
+#: Reference-side quantities (J′a′b′, U*V*W*) are compared with a tighter bound.
+TOL_SIDE = 1e-8
+SWITCHES = (4000.0, 5000.0, 7000.0)
+
+
+def _sweep() -> np.ndarray:
+    mired = 1e6 / np.linspace(1e6 / 25000.0, 1e6 / 1000.0, 1500)
+    near = [s + np.concatenate([-np.geomspace(1e-9, 20.0, 25), [0.0], np.geomspace(1e-9, 20.0, 25)]) for s in SWITCHES]
+    ends = [1000.0, 999.5, 25000.0, 25000.5, 3999.9999999, 4000.0000001, 4999.9999999, 5000.0000001]
+    return np.unique(np.concatenate([mired, np.linspace(3990.0, 5010.0, 400), *near, ends]))
+
+
+def _led(n: int, wl: np.ndarray, seed: int) -> np.ndarray:
+    """White-LED-like SPDs (Gaussian bands; common practice, no source)."""
+    rng = np.random.default_rng(seed)
+
+    def band(c, w):
+        return np.exp(-0.5 * ((wl[None, :] - c[:, None]) / w[:, None]) ** 2)
+
+    s = band(rng.uniform(440, 460, n), rng.uniform(9, 12, n))
+    s = s + rng.uniform(0.5, 2.0, n)[:, None] * band(rng.uniform(520, 570, n), rng.uniform(35, 50, n))
+    s = s + rng.uniform(0.0, 1.2, n)[:, None] * band(rng.uniform(600, 650, n), rng.uniform(30, 45, n))
+    return s
+
+
+def _off_edge(hue_direct: np.ndarray, margin: float = 1e-6) -> np.ndarray:
+    """Rows (spectra) none of whose CES's reference hue lies within ``margin`` degrees of a
+    hue-bin edge: elsewhere a bin assignment can flip on any difference (the knife edge that
+    lumeval warns about at 0.01°)."""
+    r = np.mod(hue_direct, BIN_WIDTH_DEG)
+    return ~np.any((r < margin) | (BIN_WIDTH_DEG - r < margin), axis=1)
+
+
+@pytest.fixture(autouse=True)
+def fresh_tables():
+    rt._tm30_tables.cache_clear()
+    rt._cri_tables.cache_clear()
+    yield
+    rt._tm30_tables.cache_clear()
+    rt._cri_tables.cache_clear()
+
+
+@pytest.mark.parametrize("step", [1, 5])
+@pytest.mark.parametrize("observer", [OBSERVER_10, OBSERVER_2])
+def test_tm30_reference_side_equals_direct(step, observer):
+    wl = np.arange(380.0, 781.0, step)
+    T = _sweep()
+    direct = reference_jab(wl, reference_spd(wl, T, blend_observer=observer)[0])
+    # fill in a scattered order first (tables are filled lazily, a few nodes at a time)
+    rng = np.random.default_rng(3)
+    for part in np.array_split(rng.permutation(T.size), 40):
+        np.testing.assert_allclose(rt.tm30_reference_jab(step, T[part], observer), direct[part], rtol=0, atol=TOL_SIDE)
+    tab = rt.tm30_reference_jab(step, T, observer)
+    np.testing.assert_allclose(tab, direct, rtol=0, atol=TOL_SIDE)
+    # daylight entries are exact by construction (indexed by the rounded M1, M2)
+    day = T > 5000.0
+    np.testing.assert_allclose(tab[day], direct[day], rtol=0, atol=1e-11)
+
+
+@pytest.mark.parametrize("grid", [(360, 830, 1), (380, 780, 5), (360, 780, 1), (375, 800, 5), (380, 780, 1)])
+def test_cri_reference_side_equals_direct(grid):
+    wl = np.arange(grid[0], grid[1] + 1, grid[2], dtype=float)
+    T = _sweep()
+    d = cri_reference(wl, T)
+    t = rt.cri_reference_tabulated(wl, T)
+    np.testing.assert_allclose(t.uv, d.uv, rtol=0, atol=1e-12)
+    np.testing.assert_allclose(t.UVW, d.UVW, rtol=0, atol=TOL_SIDE)
+
+
+@pytest.mark.parametrize("step", [1, 5])
+def test_every_reference_figure_within_bound_over_the_sweep(step):
+    wl = np.arange(380.0, 781.0, step)
+    T = _sweep()
+    S = _led(T.size, wl, seed=step)
+    side = rt.reference_side(wl, T)
+    # CIE 13.3
+    a, b = cie133_cri(wl, S, T, reference=side.cri), cie133_cri(wl, S, T)
+    for f in ("Ra", "R", "dc", "uv_reference", "UVW_reference"):
+        np.testing.assert_allclose(getattr(a, f), getattr(b, f), rtol=0, atol=TOL, err_msg=f)
+    assert a.reference == b.reference
+    # CIE 224 / TM-30 (bins on the reference hue: knife-edge spectra compared separately)
+    ta, tb = tm30(wl, S, T, reference=side.tm30_jab), tm30(wl, S, T)
+    keep = _off_edge(reference_hue(tb.Jab_ref))
+    assert keep.mean() > 0.99
+    np.testing.assert_array_equal(ta.hue_bin[keep], tb.hue_bin[keep])
+    for f in ("Rf", "Rg", "Rf_ces", "Rf_h", "Rcs_h", "Rhs_h", "avg_ab_ref", "Jab_ref"):
+        np.testing.assert_allclose(getattr(ta, f)[keep], getattr(tb, f)[keep], rtol=0, atol=TOL, err_msg=f)
+    np.testing.assert_allclose(ta.Rf, tb.Rf, rtol=0, atol=TOL)  # Rf does not depend on the bins
+    assert ta.reference == tb.reference
+    np.testing.assert_array_equal(ta.daylight_fraction, tb.daylight_fraction)
+    # CIE 224 Rf (2° blend normalisation)
+    ra = cie2017_rf(wl, S, T, tm30_result=ta, reference=side.cie224_jab)
+    rb = cie2017_rf(wl, S, T, tm30_result=tb)
+    np.testing.assert_allclose(ra, rb, rtol=0, atol=TOL)
+    blend = (T >= 4000) & (T <= 5000)
+    assert np.abs(ra[blend] - ta.Rf[blend]).max() > 1e-6  # the 2° blend is really used
+
+
+def test_undefined_and_out_of_table_temperatures():
+    wl = np.arange(360.0, 831.0, 1.0)
+    T = np.array([np.nan, np.inf, -1.0, 0.0, 500.0, 850.0, 45000.0, 3000.0])
+    side = rt.reference_side(wl, T)
+    assert np.all(np.isnan(side.tm30_jab[:4])) and np.all(np.isnan(side.cri.UVW[:4])) and np.all(np.isnan(side.cri.uv[:4]))
+    wl_c = np.arange(380.0, 781.0, 1.0)
+    direct = reference_jab(wl_c, reference_spd(wl_c, T[4:])[0])
+    np.testing.assert_allclose(side.tm30_jab[4:], direct, rtol=0, atol=TOL_SIDE)  # outside the table: direct
+    d = cri_reference(wl, T[4:])
+    np.testing.assert_allclose(side.cri.UVW[4:], d.UVW, rtol=0, atol=TOL_SIDE)
+    S = planckian_spd(wl, np.full(T.size, 3000.0))
+    res = cie133_cri(wl, S, T, reference=side.cri)
+    assert np.all(np.isnan(res.Ra[:4])) and res.reference[:4] == ("",) * 4
+    fid = tm30(wl, S, T, reference=side.tm30_jab)
+    assert np.all(np.isnan(fid.Rf[:4])) and fid.reason[0] == "no reference illuminant (CCT undefined)"
+
+
+def test_engine_off_the_locus_and_at_the_switches_equals_direct():
+    """Through evaluate(): spectra on and off the Planckian locus (|Duv| to 0.08; beyond 0.05 the
+    figures are computed at the nearest Planckian temperature and flagged) and at the switch
+    temperatures; every reference-based figure equals the direct computation at the engine's
+    reference temperature."""
+    from lumeval.engine import evaluate
+    from lumeval.spectra.model import SpectrumSet
+
+    wl = np.arange(380.0, 781.0, 1.0)
+    T = np.array([1000.0, 1500.0, 2700.0, 3999.0, 4000.0, 4500.0, 5000.0, 5001.0, 6500.0, 7000.0, 12000.0, 25000.0])
+    base = planckian_spd(wl, T)
+    rows = [base]
+    for tilt in (0.8, 3.0, 6.0, -0.5, -0.9):  # green/magenta tilts: Duv of both signs, some beyond 0.05
+        bump = 1.0 + tilt * np.exp(-0.5 * ((wl - 540.0) / 40.0) ** 2)
+        rows.append(base * bump[None, :])
+    S = np.vstack(rows)
+    ev = evaluate(SpectrumSet(wl, S, tuple(f"s{i}" for i in range(len(S))), ("t",) * len(S)))
+    assert ev.outside_validity.any() and (~ev.outside_validity).any()
+    T_ref = ev.reference_cct_K
+    assert (np.abs(ev.duv[ev.outside_validity]) > 0.06).any() and (ev.duv[ev.outside_validity] < -0.05).any()
+    assert np.isfinite(T_ref).sum() >= 40
+    cri = cie133_cri(wl, S, T_ref)
+    fid = tm30(wl, S, T_ref)
+    rf = cie2017_rf(wl, S, T_ref, tm30_result=fid)
+    keep = _off_edge(reference_hue(fid.Jab_ref))
+    np.testing.assert_allclose(ev.cri.Ra, cri.Ra, rtol=0, atol=TOL)
+    np.testing.assert_allclose(ev.cri.R, cri.R, rtol=0, atol=TOL)
+    np.testing.assert_allclose(ev.cie2017_Rf, rf, rtol=0, atol=TOL)
+    np.testing.assert_allclose(ev.tm30.Rf, fid.Rf, rtol=0, atol=TOL)
+    for f in ("Rg", "Rf_h", "Rcs_h", "Rhs_h"):
+        np.testing.assert_allclose(getattr(ev.tm30, f)[keep], getattr(fid, f)[keep], rtol=0, atol=TOL, err_msg=f)

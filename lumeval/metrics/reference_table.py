@@ -63,9 +63,13 @@ from .reference import daylight_m, daylight_spd_from_m, planckian_spd
 #: Temperature range of the tables (K); outside it the reference side is computed directly.
 T_TABLE_LO_K = 900.0
 T_TABLE_HI_K = 40000.0
-#: Largest node spacing in mired (MK⁻¹) and the number of Lagrange points.
+#: Largest node spacing in mired (MK⁻¹) and the number of Lagrange points: Planckian range;
+#: blend (its value; its first derivatives by 3 points, its second derivatives taken at the
+#: nearest node).
 MIRED_STEP = 1.0
 LAGRANGE_POINTS = 6
+BLEND_MIRED_STEP = 0.5
+BLEND_POINTS = 4
 #: Step of the central differences in (M1, M2) for the blend's Taylor terms.
 TAYLOR_STEP = 5e-4
 #: CIE 224 / TM-30 switch temperatures (K) and the CIE 13.3 switch.
@@ -97,7 +101,9 @@ class _MiredTable:
 
     def __init__(self, t_lo: float, t_hi: float, width: int, compute: _Compute, taylor: bool) -> None:
         mu_lo, mu_hi = 1e6 / t_hi, 1e6 / t_lo
-        n = max(int(np.ceil((mu_hi - mu_lo) / MIRED_STEP - 1e-9)) + 1, LAGRANGE_POINTS)
+        self.points = BLEND_POINTS if taylor else LAGRANGE_POINTS
+        step = BLEND_MIRED_STEP if taylor else MIRED_STEP
+        n = max(int(np.ceil((mu_hi - mu_lo) / step - 1e-9)) + 1, self.points)
         self.mu0, self.h, self.n = mu_lo, (mu_hi - mu_lo) / (n - 1), n
         self.T = 1e6 / (mu_lo + self.h * np.arange(n))
         self.T[0], self.T[-1] = t_hi, t_lo
@@ -137,12 +143,12 @@ class _MiredTable:
         rounded minus unrounded daylight coefficients, for a Taylor table)."""
         m = T.size
         s = (1e6 / T - self.mu0) / self.h
-        idx, w = _lagrange(s, self.n, LAGRANGE_POINTS)
+        idx, w = _lagrange(s, self.n, self.points)
         if self.terms == 1:
             nodes, flat, wts = idx, idx, w
         else:
             assert d is not None
-            idx4, w4 = _lagrange(s, self.n, 4)
+            idx4, w4 = _lagrange(s, self.n, 3)
             near = np.clip(np.rint(s).astype(np.int64), 0, self.n - 1)[:, None]
             d1, d2 = d[:, 0:1], d[:, 1:2]
             nodes = np.concatenate([idx, idx4, near], axis=1)
@@ -227,7 +233,9 @@ def _jab_flat(wl: np.ndarray, spd: np.ndarray) -> np.ndarray:
     return reference_jab(wl, spd).reshape(spd.shape[0], -1)
 
 
-def _blend_compute(wl: np.ndarray, observer: str) -> _Compute:
+def _blend_compute(wl: np.ndarray, observers: tuple[str, ...]) -> _Compute:
+    """The blend's J′a′b′ for each observer's ȳ normalisation, side by side (m, 297 · k)."""
+
     def compute(T: np.ndarray, d: np.ndarray | None) -> np.ndarray:
         from .tm30 import blend_spd
 
@@ -235,7 +243,8 @@ def _blend_compute(wl: np.ndarray, observer: str) -> _Compute:
         if d is not None:
             M1, M2 = M1 + d[:, 0], M2 + d[:, 1]
         m = np.clip((T - _BLEND_LO) / (_BLEND_HI - _BLEND_LO), 0.0, 1.0)
-        return _jab_flat(wl, blend_spd(wl, planckian_spd(wl, T), daylight_spd_from_m(wl, M1, M2), m, observer))
+        P, D = planckian_spd(wl, T), daylight_spd_from_m(wl, M1, M2)
+        return np.concatenate([_jab_flat(wl, blend_spd(wl, P, D, m, o)) for o in observers], axis=1)
 
     return compute
 
@@ -245,12 +254,20 @@ def _cri_flat(ref: CRIReference) -> np.ndarray:
 
 
 class _TM30Tables:
-    def __init__(self, step: int, observers: tuple[str, ...]) -> None:
+    def __init__(self, step: int) -> None:
         wl = _tm30_grid(step)
         self.wl = wl
         self.planck = _MiredTable(T_TABLE_LO_K, _BLEND_LO, 297, lambda T, d: _jab_flat(wl, planckian_spd(wl, T)), False)
         self.daylight = _PairTable(297, lambda M1, M2: _jab_flat(wl, daylight_spd_from_m(wl, M1, M2)))
-        self.blend = {o: _MiredTable(_BLEND_LO, _BLEND_HI, 297, _blend_compute(wl, o), True) for o in observers}
+        self.blend: dict[tuple[str, ...], _MiredTable] = {}
+        self.lock = threading.Lock()
+
+    def blend_table(self, observers: tuple[str, ...]) -> _MiredTable:
+        with self.lock:
+            if observers not in self.blend:
+                self.blend[observers] = _MiredTable(
+                    _BLEND_LO, _BLEND_HI, 297 * len(observers), _blend_compute(self.wl, observers), True)
+            return self.blend[observers]
 
 
 class _CRITables:
@@ -263,7 +280,7 @@ class _CRITables:
 
 @lru_cache(maxsize=8)
 def _tm30_tables(step: int) -> _TM30Tables:
-    return _TM30Tables(step, (OBSERVER_10, OBSERVER_2))
+    return _TM30Tables(step)
 
 
 @lru_cache(maxsize=8)
@@ -281,32 +298,41 @@ def tm30_reference_jab(step: int, cct_K: ArrayLike, blend_observer: str = OBSERV
     The same quantity as :func:`lumeval.metrics.tm30.reference_jab` of
     :func:`lumeval.metrics.tm30.reference_spd` (the direct computation), within the bound
     stated in the module docstring; NaN rows where T is not finite or not positive."""
-    T = np.atleast_1d(np.asarray(cct_K, dtype=float))
-    tab = _tm30_tables(int(step))
-    out = np.full((T.size, 297), np.nan)
+    return _tm30_sides(int(step), np.atleast_1d(np.asarray(cct_K, dtype=float)), (blend_observer,))[0]
+
+
+def _tm30_sides(step: int, T: np.ndarray, observers: tuple[str, ...]) -> list[np.ndarray]:
+    """:func:`tm30_reference_jab` for several blend observers at once (one blend lookup)."""
+    tab = _tm30_tables(step)
+    outs = [np.full((T.size, 297), np.nan) for _ in observers]
     ok = np.isfinite(T) & (T > 0)
     inside = ok & (T >= T_TABLE_LO_K) & (T <= T_TABLE_HI_K)
     pl = inside & (T < _BLEND_LO)
     bl = inside & (T >= _BLEND_LO) & (T <= _BLEND_HI)
     dl = inside & (T > _BLEND_HI)
+    same = ~bl  # Planckian, daylight and undefined rows: the same for every blend observer
     if pl.any():
-        out[pl] = tab.planck(T[pl])
+        outs[0][pl] = tab.planck(T[pl])
     if dl.any():
         M1, M2 = daylight_m(T[dl])
-        out[dl] = tab.daylight(M1, M2)
-    if bl.any():
-        if blend_observer not in tab.blend:
-            tab.blend[blend_observer] = _MiredTable(_BLEND_LO, _BLEND_HI, 297, _blend_compute(tab.wl, blend_observer), True)
-        Tb = T[bl]
-        r1, r2 = daylight_m(Tb)
-        u1, u2 = daylight_m(Tb, round_m=False)
-        out[bl] = tab.blend[blend_observer](Tb, np.column_stack([r1 - u1, r2 - u2]))
+        outs[0][dl] = tab.daylight(M1, M2)
     direct = ok & ~inside
     if direct.any():
         from .tm30 import reference_spd
 
-        out[direct] = _jab_flat(tab.wl, reference_spd(tab.wl, T[direct], blend_observer=blend_observer)[0])
-    return out.reshape(T.size, 99, 3)
+        for o, out in zip(observers, outs):
+            out[direct] = _jab_flat(tab.wl, reference_spd(tab.wl, T[direct], blend_observer=o)[0])
+        same &= ~direct
+    for out in outs[1:]:
+        out[same] = outs[0][same]
+    if bl.any():
+        Tb = T[bl]
+        r1, r2 = daylight_m(Tb)
+        u1, u2 = daylight_m(Tb, round_m=False)
+        both = tab.blend_table(observers)(Tb, np.column_stack([r1 - u1, r2 - u2]))
+        for j, out in enumerate(outs):
+            out[bl] = both[:, 297 * j : 297 * (j + 1)]
+    return [out.reshape(T.size, 99, 3) for out in outs]
 
 
 def cri_reference_tabulated(wavelengths_nm: ArrayLike, cct_K: ArrayLike) -> CRIReference:
@@ -345,11 +371,8 @@ def reference_side(
     wl = np.asarray(wavelengths_nm, dtype=float)
     T = np.atleast_1d(np.asarray(cct_K, dtype=float))
     step = int(round(wl[1] - wl[0]))
-    jab = tm30_reference_jab(step, T, tm30_blend_observer)
-    blend = np.isfinite(T) & (T >= _BLEND_LO) & (T <= _BLEND_HI)
-    if cie224_blend_observer != tm30_blend_observer and blend.any():
-        jab2 = jab.copy()
-        jab2[blend] = tm30_reference_jab(step, T[blend], cie224_blend_observer)
+    if cie224_blend_observer == tm30_blend_observer:
+        jab = jab2 = _tm30_sides(step, T, (tm30_blend_observer,))[0]
     else:
-        jab2 = jab
+        jab, jab2 = _tm30_sides(step, T, (tm30_blend_observer, cie224_blend_observer))
     return ReferenceSide(cct_K=T, cri=cri_reference_tabulated(wl, T), tm30_jab=jab, cie224_jab=jab2)

@@ -235,7 +235,9 @@ def _crop_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray
             f"spectrum covers {wl[0]:g}-{wl[-1]:g} nm; CIE 224:2017 needs 380-780 nm",
             fix="extend or re-measure the spectrum to cover 380-780 nm",
         )
-    keep = (wl >= lo - 1e-9) & (wl <= hi + 1e-9)
+    keep_mask = (wl >= lo - 1e-9) & (wl <= hi + 1e-9)
+    i0 = int(np.argmax(keep_mask))
+    keep = slice(i0, i0 + int(keep_mask.sum()))  # a contiguous range: a view, not a copy
     wl_c = np.rint(wl[keep])
     if (wl_c[0] - lo) % step or (hi - wl_c[-1]) % step or wl_c[0] != lo or wl_c[-1] != hi:
         raise GridError(
@@ -649,8 +651,8 @@ def _tm30_core(
         out[idx] = v
         return out
 
-    jt = _jab(wl, S_t[idx], R, cmf10, kernel, with_hue=False)[0] if m else np.empty((0, 99, 3))
-    jr = jab_ref[idx]
+    S_ok, jr = (S_t, jab_ref) if m == n else (S_t[idx], jab_ref[idx])
+    jt = _jab(wl, S_ok, R, cmf10, kernel, with_hue=False)[0] if m else np.empty((0, 99, 3))
     hr = reference_hue(jr)
     d = jt - jr
     de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)

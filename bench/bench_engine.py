@@ -128,7 +128,7 @@ def luxpy_array(wl: np.ndarray, values: np.ndarray) -> tuple[float, dict] | None
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             import luxpy as lx
-    except Exception as exc:  # noqa: BLE001 - an optional oracle
+    except Exception as exc:  # an optional oracle
         print(f"  luxpy not available ({exc.__class__.__name__}: {exc})")
         return None
     finally:
@@ -139,10 +139,10 @@ def luxpy_array(wl: np.ndarray, values: np.ndarray) -> tuple[float, dict] | None
         with warnings.catch_warnings(), np.errstate(all="ignore"):
             warnings.simplefilter("ignore")
             xyz = lx.spd_to_xyz(spd, cieobs="1931_2", relative=True)
-            T, duv = lx.xyz_to_cct(xyz, cieobs="1931_2", out="cct,duv")
+            T = lx.xyz_to_cct(xyz, cieobs="1931_2", out="cct")
             ri = lx.cri.spd_to_cri(spd, cri_type="ciera-14", out="Rfi", rf_from_avg_rounded_rfi=False,
                                    cri_specific_pars={"round_xy_to": None})
-            rf, rg, rfh, rcsh, rhsh = lx.cri.spd_to_cri(spd, cri_type="iesrf-tm30-18", out="Rf,Rg,Rfhj,Rcshj,Rhshj")
+            rf, rg, rfh, _rcsh, _rhsh = lx.cri.spd_to_cri(spd, cri_type="iesrf-tm30-18", out="Rf,Rg,Rfhj,Rcshj,Rhshj")
             rf17 = lx.cri.spd_to_cri(spd, cri_type="cierf-224-2017", out="Rf")
         ri = np.asarray(ri, dtype=float)
         return {"cct_K": np.ravel(T), "R": ri.T, "Ra": ri[:8].mean(axis=0), "Rf": np.ravel(rf), "Rg": np.ravel(rg),

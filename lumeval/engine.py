@@ -326,11 +326,12 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     quiet &= np.array([not (a or b or c) for a, b, c in zip(cct.reason, fid_reason, phot.reason)], dtype=bool)
     if len(edges) == n:
         quiet &= np.array([not e for e in edges], dtype=bool)
-    for i in range(n):
-        if quiet[i]:
-            out.append(tuple(spectra.notes[i]))
+    notes = spectra.notes
+    for i, q in enumerate(quiet.tolist()):
+        if q:
+            out.append(tuple(notes[i]))
             continue
-        w = list(spectra.notes[i])
+        w = list(notes[i])
         if cct.outside_validity[i]:
             w.append(validity_warning(cct.reason[i], float(cct.reference_cct_K[i])))
         elif cct.reason[i]:

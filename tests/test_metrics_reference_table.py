@@ -25,6 +25,7 @@ from lumeval.metrics.reference import planckian_spd
 from lumeval.metrics.tm30 import (
     BIN_WIDTH_DEG,
     cie2017_rf,
+    hue_edge_pairs,
     reference_hue,
     reference_jab,
     reference_spd,
@@ -120,6 +121,9 @@ def test_every_reference_figure_within_bound_over_the_sweep(step):
     for f in ("Rf", "Rg", "Rf_ces", "Rf_h", "Rcs_h", "Rhs_h", "avg_ab_ref", "Jab_ref"):
         np.testing.assert_allclose(getattr(ta, f)[keep], getattr(tb, f)[keep], rtol=0, atol=TOL, err_msg=f)
     np.testing.assert_allclose(ta.Rf, tb.Rf, rtol=0, atol=TOL)  # Rf does not depend on the bins
+    # the knife-edge pairs found inside the computation equal the public function's
+    assert ta.hue_edge_pairs == hue_edge_pairs(reference_hue(ta.Jab_ref))
+    assert any(ta.hue_edge_pairs)
     assert ta.reference == tb.reference
     np.testing.assert_array_equal(ta.daylight_fraction, tb.daylight_fraction)
     # CIE 224 Rf (2° blend normalisation)

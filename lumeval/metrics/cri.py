@@ -111,6 +111,18 @@ class CRIResult:
 
 
 def _check_grid(wl: np.ndarray) -> None:
+    if wl.ndim == 1 and wl.tobytes() in _GRIDS_OK:
+        return
+    _check_grid_once(wl)
+    if len(_GRIDS_OK) < 64:
+        _GRIDS_OK.add(wl.tobytes())
+
+
+#: Grids that passed :func:`_check_grid` (by bytes).
+_GRIDS_OK: set[bytes] = set()
+
+
+def _check_grid_once(wl: np.ndarray) -> None:
     fix = "prepare the spectra first (uniform 1 nm or 5 nm integer grid covering 380-780 nm within 360-830 nm)"
     if wl.ndim != 1 or wl.size < 2:
         raise GridError("wavelengths must be a 1-D array of at least two values", field="wavelengths_nm", fix=fix)
@@ -176,14 +188,29 @@ def _sample_colorimetry(S: np.ndarray, weighted: np.ndarray, ybar_w: np.ndarray)
     return k, samples
 
 
-def _grid_kernels(start: int, stop: int, step: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(x̄ Δλ (W, 3), ȳ Δλ (W,), β_i x̄ Δλ (W, 42)) on the grid start..stop by step (nm) (not
-    cached: cheap, and it reads the TCS through :func:`_tcs_on_grid` every time)."""
-    wl = np.arange(start, stop + 1, step, dtype=float)
+def _grid_kernels(start: int, stop: int, step: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(x̄ Δλ (W, 3), ȳ Δλ (W,), β_i x̄ Δλ (W, 42), both side by side (W, 45)) on the grid
+    start..stop by step (nm).
+
+    Cached per grid together with the TCS table it was built from (:func:`_tcs_on_grid`, read
+    every time: a different table, as a test may substitute, rebuilds the kernels)."""
     tcs = _tcs_on_grid(start, stop, step)  # (14, W)
+    hit = _KERNELS.get((start, stop, step))
+    if hit is not None and hit[0] is tcs:
+        return hit[1]
+    wl = np.arange(start, stop + 1, step, dtype=float)
     cmf_w = cmfs_at(wl, OBSERVER_2) * float(step)  # (W, 3): x̄ Δλ
     weighted = (tcs[:, :, None] * cmf_w[None, :, :]).transpose(1, 0, 2).reshape(wl.size, -1)  # (W, 42)
-    return cmf_w, np.ascontiguousarray(cmf_w[:, 1]), weighted
+    both = np.ascontiguousarray(np.concatenate([cmf_w, weighted], axis=1))  # (W, 45): one product
+    out = (both[:, :3], np.ascontiguousarray(cmf_w[:, 1]), both[:, 3:], both)
+    for a in out:
+        a.setflags(write=False)
+    if len(_KERNELS) < 32:
+        _KERNELS[(start, stop, step)] = (tcs, out)
+    return out
+
+
+_KERNELS: dict[tuple[int, int, int], tuple[np.ndarray, tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]]] = {}
 
 
 def _grid_key(wl: np.ndarray) -> tuple[int, int, int]:
@@ -215,7 +242,7 @@ def cri_reference_from_spd(wavelengths_nm: ArrayLike, reference_values: ArrayLik
     """
     wl = np.asarray(wavelengths_nm, dtype=float)
     S_r = np.atleast_2d(np.asarray(reference_values, dtype=float))
-    cmf_w, ybar_w, weighted = _grid_kernels(*_grid_key(wl))
+    cmf_w, ybar_w, weighted, _ = _grid_kernels(*_grid_key(wl))
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         uv_r = _uv(S_r @ cmf_w)
         _, XYZ_ri = _sample_colorimetry(S_r, weighted, ybar_w)
@@ -295,7 +322,7 @@ def cie133_cri(
         raise InputError(f"reference side for {reference.uv.shape[0]} spectra, values {n}", field="reference",
                          fix="pass the reference side computed for the same spectra")
 
-    cmf_w, ybar_w, weighted = _grid_kernels(*_grid_key(wl))
+    kernel45 = _grid_kernels(*_grid_key(wl))[3]
     defined = np.isfinite(T) & (T > 0)
     if reference is None:
         reference = cri_reference(wl, T)  # NaN rows where T undefined
@@ -304,8 +331,12 @@ def cie133_cri(
 
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         # Test source (k): chromaticity of the source itself, samples with the source's Y = 100.
-        uv_k = _uv(S @ cmf_w)
-        _, XYZ_ki = _sample_colorimetry(S, weighted, ybar_w)
+        # source and samples in one product with the (W, 45) kernel [x̄Δλ | β_i x̄Δλ]
+        both = S @ kernel45
+        XYZ_k = both[:, :3]
+        uv_k = _uv(XYZ_k)
+        k = 100.0 / XYZ_k[:, 1]  # source Y = 100 (CIE 13.3; CIE 15:2004 Eq. 7.1)
+        XYZ_ki = both[:, 3:].reshape(n, len(TCS_NAMES), 3) * k[:, None, None]
         uv_ki = _uv(XYZ_ki)  # (N, 14, 2)
 
         # Adaptive colour shift (von Kries type in CIE 1960 UCS), CIE 13.3.

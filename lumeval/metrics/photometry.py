@@ -206,6 +206,24 @@ def d65_alpha_opic_elr_W_per_lm() -> np.ndarray:
 # --------------------------------------------------------------------------- the figures
 
 
+_REASONS = (
+    "",
+    "spectrum has non-finite values: no photometric figure is computed",
+    "spectrum has no positive radiant power: LER, S/P, α-opic figures and peak are undefined",
+    "spectrum has no V(λ)-weighted (visible) power: S/P and α-opic ratios are undefined",
+    "spectrum has no positive value: the peak wavelength is undefined",
+)
+
+
+@lru_cache(maxsize=16)
+def _weights(wl_key: bytes) -> np.ndarray:
+    """(W, 8): 1, V(λ), V′(λ) and the five α-opic action spectra on the grid (cached per grid)."""
+    wl = np.frombuffer(wl_key, dtype=float)
+    w = np.column_stack([np.ones(wl.size), v_lambda_at(wl), v_prime_lambda_at(wl), alpha_opic_action_spectra_at(wl)])
+    w.setflags(write=False)
+    return w
+
+
 def _check_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray, np.ndarray, float]:
     wl = np.asarray(wavelengths_nm, dtype=float)
     vals = np.asarray(values, dtype=float)
@@ -266,12 +284,14 @@ def photometry(wavelengths_nm: ArrayLike, values: ArrayLike) -> PhotometryResult
     wl, vals, step = _check_grid(wavelengths_nm, values)
     n = vals.shape[0]
     finite = np.all(np.isfinite(vals), axis=1)
-    safe = np.where(finite[:, None], vals, 0.0)
+    safe = vals if finite.all() else np.where(finite[:, None], vals, 0.0)
 
-    radiant = safe.sum(axis=1) * step
-    photopic = KM_LM_PER_W * (safe @ v_lambda_at(wl)) * step
-    scotopic = KPM_LM_PER_W * (safe @ v_prime_lambda_at(wl)) * step
-    e_alpha = (safe @ alpha_opic_action_spectra_at(wl)) * step  # (N, 5)
+    # every weighted sum in one product: columns 1, V, V′ and the five α-opic functions
+    sums = (safe @ _weights(np.ascontiguousarray(wl).tobytes())) * step  # (N, 8)
+    radiant = sums[:, 0]
+    photopic = KM_LM_PER_W * sums[:, 1]
+    scotopic = KPM_LM_PER_W * sums[:, 2]
+    e_alpha = sums[:, 3:]  # (N, 5)
 
     has_power = finite & (radiant > 0)
     has_light = finite & (photopic > 0)
@@ -289,18 +309,8 @@ def photometry(wavelengths_nm: ArrayLike, values: ArrayLike) -> PhotometryResult
         ok = finite & (top > 0)
         peak[ok] = wl[idx[ok]]
 
-    reasons = []
-    for i in range(n):
-        if not finite[i]:
-            reasons.append("spectrum has non-finite values: no photometric figure is computed")
-        elif not has_power[i]:
-            reasons.append("spectrum has no positive radiant power: LER, S/P, α-opic figures and peak are undefined")
-        elif not has_light[i]:
-            reasons.append("spectrum has no V(λ)-weighted (visible) power: S/P and α-opic ratios are undefined")
-        elif not ok[i]:
-            reasons.append("spectrum has no positive value: the peak wavelength is undefined")
-        else:
-            reasons.append("")
+    code = np.where(~finite, 1, np.where(~has_power, 2, np.where(~has_light, 3, np.where(~ok, 4, 0))))
+    reasons = [_REASONS[c] for c in code.tolist()]
 
     return PhotometryResult(
         ler_lm_per_W=ler,

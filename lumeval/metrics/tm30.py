@@ -220,6 +220,10 @@ def _crop_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray
             f"values of shape {np.shape(values)} do not match {wl.size} wavelengths",
             fix="pass values of shape (N, W) or (W,) on the wavelength grid",
         )
+    key = wl.tobytes()
+    hit = _GRIDS_OK.get(key)
+    if hit is not None:  # a grid already checked: the same crop
+        return hit[0], vals[:, hit[1]], hit[2]
     d = np.diff(wl)
     step = float(d[0])
     if not (np.allclose(d, step, rtol=0, atol=1e-9) and step in (1.0, 5.0)):
@@ -244,7 +248,14 @@ def _crop_grid(wavelengths_nm: ArrayLike, values: ArrayLike) -> tuple[np.ndarray
             f"the {step:g} nm grid does not fall on 380 nm and 780 nm",
             fix="prepare the spectra on integer wavelengths that are multiples of the spacing",
         )
+    if len(_GRIDS_OK) < 64:
+        wl_c.setflags(write=False)
+        _GRIDS_OK[key] = (wl_c, keep, step)
     return wl_c, vals[:, keep], step
+
+
+#: Grids that passed :func:`_crop_grid`'s checks: (cropped wavelengths, slice, step) by bytes.
+_GRIDS_OK: dict[bytes, tuple[np.ndarray, slice, float]] = {}
 
 
 # --------------------------------------------------------------------------- reference
@@ -537,20 +548,39 @@ def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLER
         1-based (bin, CES) pairs, ordered by CES then bin.
     """
     h = np.atleast_2d(np.asarray(hue_ref_deg, dtype=float))
-    finite = np.isfinite(h)
-    h = np.mod(np.where(finite, h, 0.0), 360.0)
-    r = np.mod(h, BIN_WIDTH_DEG)
-    near_low = r <= tolerance_deg  # just above an edge: the neighbour is the bin below
-    near_high = (BIN_WIDTH_DEG - r) <= tolerance_deg  # just below an edge: the bin above
-    edge = (near_low | near_high) & finite
-    own = np.clip(np.floor(h / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
-    other = np.where(near_low, (own - 1) % N_BINS, (own + 1) % N_BINS)
+    # Distance above the bin edge below: h mod 22.5° (NaN, for no figures, matches nothing).
+    with np.errstate(invalid="ignore"):  # ±inf: NaN, no pair
+        r = np.mod(h, BIN_WIDTH_DEG)
+    edge = (r <= tolerance_deg) | (r >= BIN_WIDTH_DEG - tolerance_deg)
     out: list[tuple[tuple[int, int], ...]] = [()] * h.shape[0]
     rows, cols = np.nonzero(edge)
+    if rows.size:
+        hh = np.mod(h[rows, cols], 360.0)
+        own = np.clip(np.floor(hh / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
+        near_low = r[rows, cols] <= tolerance_deg  # just above an edge: the neighbour is the bin below
+        other = np.where(near_low, (own - 1) % N_BINS, (own + 1) % N_BINS)
+        for i in np.unique(rows).tolist():
+            pairs: list[tuple[int, int]] = []
+            for j in np.flatnonzero(rows == i).tolist():
+                k = int(cols[j])
+                a, b = sorted((int(own[j]) + 1, int(other[j]) + 1))
+                pairs += [(a, k + 1), (b, k + 1)]
+            out[i] = tuple(sorted(pairs, key=lambda t: (t[1], t[0])))
+    return tuple(out)
+
+
+def _edge_pairs(r: np.ndarray, own: np.ndarray, m: int, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[Any, ...]:
+    """:func:`hue_edge_pairs` from the position within the bin ``r`` (degrees above the bin's
+    lower edge) and ``own`` = floor(h / 22.5°) of each (spectrum, CES), shape (m, 99)."""
+    near_low = r <= tolerance_deg
+    rows, cols = np.nonzero(near_low | (r >= BIN_WIDTH_DEG - tolerance_deg))
+    out: list[tuple[tuple[int, int], ...]] = [()] * m
     for i in np.unique(rows).tolist():
         pairs: list[tuple[int, int]] = []
         for k in cols[rows == i].tolist():
-            a, b = sorted((int(own[i, k]) + 1, int(other[i, k]) + 1))
+            b0 = int(own[i, k]) % N_BINS
+            b1 = (b0 - 1) % N_BINS if near_low[i, k] else (b0 + 1) % N_BINS
+            a, b = sorted((b0 + 1, b1 + 1))
             pairs += [(a, k + 1), (b, k + 1)]
         out[i] = tuple(sorted(pairs, key=lambda t: (t[1], t[0])))
     return tuple(out)
@@ -656,7 +686,13 @@ def _tm30_core(
     hr = reference_hue(jr)
     d = jt - jr
     de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
-    bins = np.clip(np.floor(hr / BIN_WIDTH_DEG).astype(int), 0, N_BINS - 1)
+    hq = hr / BIN_WIDTH_DEG
+    fl = np.floor(hq)
+    bins = np.clip(fl.astype(int), 0, N_BINS - 1)
+    # knife edges (see hue_edge_pairs): the position within the bin, from the same division
+    hq -= fl
+    hq *= BIN_WIDTH_DEG
+    edges = _edge_pairs(hq, fl, m)
     # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
     flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
 
@@ -683,7 +719,6 @@ def _tm30_core(
     avg_t, avg_r = place(at), place(ar)
     counts = place(cnt.astype(int), 0)
     hue_bin = place(bins, -1)
-    hue_ref = place(hr)
     Jab_t, Jab_r = place(jt), place(jr)
     for i in idx[np.any(cnt == 0, axis=1)]:
         reasons[i] = "a hue bin holds no sample: Rg and bin values are undefined"
@@ -693,7 +728,8 @@ def _tm30_core(
         avg_ab_test=avg_t, avg_ab_ref=avg_r, bin_count=counts, hue_bin=hue_bin,
         Jab_test=Jab_t, Jab_ref=Jab_r, cct_K=cct, daylight_fraction=frac,
         reference=kinds, reason=tuple(reasons), spacing_nm=step, blend_observer=blend_observer,
-        hue_edge_pairs=hue_edge_pairs(hue_ref),
+        hue_edge_pairs=edges if m == n else tuple(
+            dict(zip(idx.tolist(), edges)).get(i, ()) for i in range(n)),
     )
 
 

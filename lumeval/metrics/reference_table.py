@@ -80,15 +80,19 @@ _Compute = Callable[[np.ndarray, "np.ndarray | None"], np.ndarray]
 
 def _lagrange(s: np.ndarray, n_nodes: int, points: int) -> tuple[np.ndarray, np.ndarray]:
     """Node indices (m, points) and Lagrange weights (m, points) at fractional node positions
-    ``s`` (m,): the ``points`` nodes around s, shifted inwards at the ends of the table."""
+    ``s`` (m,): the ``points`` nodes around s, shifted inwards at the ends of the table.
+
+    w_k = Π_{j≠k} (t − j) / (k − j) with t = s − first node, from prefix and suffix products."""
     i0 = np.clip(np.floor(s).astype(np.int64) - (points // 2 - 1), 0, n_nodes - points)
-    t = s - i0
-    w = np.ones((s.size, points))
-    for k in range(points):
-        for j in range(points):
-            if j != k:
-                w[:, k] *= (t - j) / (k - j)
-    return i0[:, None] + np.arange(points)[None, :], w
+    diff = (s - i0)[:, None] - np.arange(points)[None, :]  # t − j, (m, points)
+    ones = np.ones((s.size, 1))
+    before = np.cumprod(np.concatenate([ones, diff[:, :-1]], axis=1), axis=1)
+    after = np.cumprod(np.concatenate([ones, diff[:, :0:-1]], axis=1), axis=1)[:, ::-1]
+    return i0[:, None] + np.arange(points)[None, :], before * after * _DENOMS[points]
+
+
+#: 1 / Π_{j≠k} (k − j) for the Lagrange weights, by number of points.
+_DENOMS = {p: np.array([1.0 / np.prod([k - j for j in range(p) if j != k]) for k in range(p)]) for p in (2, 3, 4, 6)}
 
 
 class _MiredTable:
@@ -162,6 +166,13 @@ class _MiredTable:
             W = np.zeros((m, hi - lo))
             W[np.repeat(np.arange(m), flat.shape[1]), (flat - lo).ravel()] = wts.ravel()
             return cast("np.ndarray", W @ self.rows[lo:hi])
+        if m * flat.shape[1] >= 1024:
+            # many spectra over a wide range of T: the weights as a sparse matrix (P entries a row)
+            from scipy.sparse import csr_matrix
+
+            W_s = csr_matrix((wts.ravel(), flat.ravel(), np.arange(0, flat.size + 1, flat.shape[1])),
+                             shape=(m, self.rows.shape[0]))
+            return np.asarray(W_s @ self.rows)
         # otherwise each spectrum's own rows, weighted: (m, 1, P) @ (m, P, width)
         return cast("np.ndarray", np.matmul(wts[:, None, :], self.rows[flat])[:, 0])
 

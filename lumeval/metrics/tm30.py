@@ -396,6 +396,10 @@ def cam02ucs_cie224(
 _L_FORMS = np.array([[1.0, 1.0 / 9.0, 2.0, 1.0], [-12.0 / 11.0, 1.0 / 9.0, 1.0, 1.0], [1.0 / 11.0, -2.0 / 9.0, 1.0 / 20.0, 21.0 / 20.0]])
 
 
+#: The forms above times 400 (R′_a = 400 c + 0.1), with a fifth column a cos 2 − b sin 2.
+_L_FORMS_400 = 400.0 * np.column_stack([_L_FORMS, _L_FORMS[:, 0] * np.cos(2.0) - _L_FORMS[:, 1] * np.sin(2.0)])
+
+
 def _spow_into(x: np.ndarray, p: float | np.ndarray) -> np.ndarray:
     """sign(x)·|x|^p in fewer passes (copysign; the same values as :func:`_spow`)."""
     y = np.abs(x)
@@ -426,36 +430,37 @@ def _cam02ucs(
     z = 1.48 + np.sqrt(n)
 
     def compress(v: np.ndarray) -> np.ndarray:
-        # v = F_L R′ / 100: R′_a = 400 sign(v) |v|^0.42 / (27.13 + |v|^0.42) + 0.1 (CIE 159:2004)
+        # v = F_L R′ / 100: R′_a = 400 sign(v) |v|^0.42 / (27.13 + |v|^0.42) + 0.1 (CIE 159:2004);
+        # returns c = (R′_a − 0.1) / 400 (the linear forms below take the 400 and the 0.1)
         y = np.abs(v)
         np.power(y, 0.42, out=y)
         den = y + 27.13
         np.copysign(y, v, out=y)
-        y *= 400.0
         y /= den
-        y += 0.1
         return cast("np.ndarray", y)
 
     RGB_w = XYZ_w @ _M_CAT02.T  # (M, 3)
     D_scale = Y_w[:, None] / RGB_w  # D = 1: R_c = (Y_w / R_w) R
     # Per-source matrix  F_L/100 · k · M_HPE · M_CAT02⁻¹ · diag(Y_w / RGB_w) · M_CAT02.
     M_src = _M_CAT02_TO_HPE[None, :, :] @ (D_scale[:, :, None] * _M_CAT02[None, :, :])  # (M, 3, 3)
-    RGB_aw = compress((RGB_w * D_scale) @ _M_CAT02_TO_HPE.T * (F_L / 100.0))  # (M, 3)
+    RGB_aw = 400.0 * compress((RGB_w * D_scale) @ _M_CAT02_TO_HPE.T * (F_L / 100.0)) + 0.1  # (M, 3)
     scale = np.full(Y_w.shape, F_L / 100.0) if k is None else k * (F_L / 100.0)
     m, K = XYZ.shape[0], XYZ.shape[1]
-    RGB_a = compress(XYZ @ np.swapaxes(M_src * scale[:, None, None], 1, 2))  # (M, K, 3)
-    q = (RGB_a.reshape(-1, 3) @ _L_FORMS).reshape(m, K, 4)
-    a, b, dn = q[..., 0], q[..., 1], q[..., 3]
+    c = compress(XYZ @ np.swapaxes(M_src * scale[:, None, None], 1, 2))  # (M, K, 3)
+    # a, b, A/N_bb + 0.305, the t denominator and a cos 2 − b sin 2 in one product. With
+    # R′_a = 400 c + 0.1 the constant 0.1 cancels exactly in a, b and A (the coefficients sum
+    # to 0, 0 and 3.05) and adds 0.305 to the denominator.
+    q = (c.reshape(-1, 3) @ _L_FORMS_400).reshape(m, K, 5)
+    a, b = q[..., 0], q[..., 1]
     A_w = (RGB_aw @ _L_FORMS[:, 2] - 0.305) * N_bb
     r = np.hypot(a, b)
     with np.errstate(divide="ignore", invalid="ignore"):
-        Jn = q[..., 2] - 0.305
-        Jn *= (N_bb / A_w)[:, None]  # A / A_w
+        Jn = q[..., 2] * (N_bb / A_w)[:, None]  # A / A_w
         Jn = _spow_into(Jn, _SURROUND_C * z[:, None])  # J / 100
-        num = a * np.cos(2.0)
-        num -= b * np.sin(2.0)
-        num += 3.8 * r
+        num = 3.8 * r
+        num += q[..., 4]  # e_t·√(a² + b²) · 4
         num *= ((50000.0 / 13.0) * _SURROUND_NC * 0.25 * N_bb)[:, None]
+        dn = q[..., 3] + 0.305
         num /= dn  # t
         Mc = _spow_into(num, 0.9)
         sq = np.sqrt(np.abs(Jn))

@@ -182,3 +182,17 @@ def test_engine_off_the_locus_and_at_the_switches_equals_direct():
     np.testing.assert_allclose(ev.tm30.Rf, fid.Rf, rtol=0, atol=TOL)
     for f in ("Rg", "Rf_h", "Rcs_h", "Rhs_h"):
         np.testing.assert_allclose(getattr(ev.tm30, f)[keep], getattr(fid, f)[keep], rtol=0, atol=TOL, err_msg=f)
+
+
+def test_tables_filled_from_several_threads_agree():
+    """Lazily filled tables shared by threads (a threaded scheduler): every lookup equals the
+    direct computation whatever the interleaving of the fills."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    T = np.random.default_rng(11).uniform(1000.0, 25000.0, 1200)
+    parts = np.array_split(T, 24)
+    with ThreadPoolExecutor(4) as pool:
+        got = list(pool.map(lambda t: rt.tm30_reference_jab(5, t), parts))
+    direct = reference_jab(wl, reference_spd(wl, T)[0])
+    np.testing.assert_allclose(np.concatenate(got), direct, rtol=0, atol=TOL_SIDE)

@@ -179,32 +179,36 @@ class _MiredTable:
 
 
 class _PairTable:
-    """Daylight quantities indexed by the rounded (M1, M2) pair, filled lazily (exact entries)."""
+    """Daylight quantities indexed by the rounded (M1, M2) pair, filled lazily (exact entries).
+
+    ``data`` = (sorted keys, rows) is replaced as one tuple when pairs are added, so that a
+    reader in another thread never pairs new keys with old rows."""
 
     def __init__(self, width: int, compute: Callable[[np.ndarray, np.ndarray], np.ndarray]) -> None:
-        self.keys = np.empty(0, dtype=np.int64)
-        self.rows = np.empty((0, width))
+        self.data: tuple[np.ndarray, np.ndarray] = (np.empty(0, dtype=np.int64), np.empty((0, width)))
         self.compute = compute
         self.lock = threading.Lock()
 
     def __call__(self, M1: np.ndarray, M2: np.ndarray) -> np.ndarray:
         key = np.rint(M1 * 1000.0).astype(np.int64) * (1 << 32) + np.rint(M2 * 1000.0).astype(np.int64)
-        pos = np.searchsorted(self.keys, key)
-        found = pos < self.keys.size
-        found[found] = self.keys[pos[found]] == key[found]
+        keys, rows = self.data
+        pos = np.searchsorted(keys, key)
+        found = pos < keys.size
+        found[found] = keys[pos[found]] == key[found]
         if not found.all():
             with self.lock:
+                keys, rows = self.data
                 new, first = np.unique(key[~found], return_index=True)
-                new_keys = new[~np.isin(new, self.keys)]
+                new_keys = new[~np.isin(new, keys)]
                 if new_keys.size:
                     rows_m = np.flatnonzero(~found)[first][np.isin(new, new_keys)]
                     vals = self.compute(M1[rows_m], M2[rows_m])
-                    keys = np.concatenate([self.keys, new_keys])
-                    order = np.argsort(keys, kind="stable")
-                    self.rows = np.concatenate([self.rows, vals])[order]
-                    self.keys = keys[order]
-            pos = np.searchsorted(self.keys, key)
-        return self.rows[pos]
+                    all_keys = np.concatenate([keys, new_keys])
+                    order = np.argsort(all_keys, kind="stable")
+                    self.data = (all_keys[order], np.concatenate([rows, vals])[order])
+                keys, rows = self.data
+            pos = np.searchsorted(keys, key)
+        return rows[pos]
 
 
 @dataclass(frozen=True)

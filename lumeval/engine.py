@@ -12,6 +12,11 @@ ever resampled to another spectrum's grid:
 4. CIE 224:2017 / ANSI/IES TM-30-18/-20 Rf, Rg and the 16 hue-bin values;
 5. photometric ratios (LER, S/P, melanopic DER per CIE S 026) and the peak wavelength.
 
+The reference side of 3 and 4 (what the samples look like under the reference illuminant)
+depends only on the reference temperature and the grid: it is looked up once per spectrum in
+tables built lazily per grid and shared by CIE 13.3, TM-30 and CIE 224
+(:mod:`lumeval.metrics.reference_table`: method, bound and sources there and in docs/metrics.md).
+
 Nothing here prints, reads files or knows about terminals.
 """
 

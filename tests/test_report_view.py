@@ -83,6 +83,16 @@ def test_report_view_is_built_from_a_real_check(ev):
         # the Duv registry format: signed, 4 decimals
         assert re.fullmatch(r"[+-]?\d\.\d{4,}", cell.lines[0]), cell.lines[0]
     assert len(view.samples) == len(ev) and [s.name for s in view.samples] == list(ev.spectra.names)
+    from lumeval import figures
+
+    for i, s in enumerate(view.samples):  # R1-R14 and the hue bins in the registry's formats
+        assert s.cri.headings == tuple(f"R{j}" for j in range(1, 15))
+        assert [c.text for c in s.cri.rows[0].cells] == [figures.get(f"R{j}").format(ev.figure(f"R{j}")[i])
+                                                         for j in range(1, 15)]
+        rcs = [c.text for c in s.hue_bins.rows[1].cells]
+        assert rcs[0] == "Rcs,h (%)" and rcs[1:] == [figures.get(f"Rcs_h{j}").format(ev.figure(f"Rcs_h{j}")[i])
+                                                     for j in range(1, 17)]
+        assert "-0" not in rcs and "+0" not in rcs  # a zero has no direction
     assert any("IEC 62471" in c for c in view.cautions)
 
 

@@ -454,15 +454,16 @@ def _design_intents(ev, i: int) -> tuple[TitledTable | None, str]:
 
 
 def sample_view(ev, i: int, number: str, figures: Sequence[FigureView], checks: Table | None) -> SampleView:
-    from .report_figures import _matrix
+    from .view import figure_values
 
-    R = _matrix(ev, "R", 14)[i]
-    cri = Table(tuple(f"R{j}" for j in range(1, 15)), (Row(cells(*(plain_number(v, "int") for v in R))),),
-                (True,) * 14, css="dense")
+    R = figure_values(ev, [f"R{j}" for j in range(1, 15)], [i])
+    cri = Table(tuple(c.label for c in R), (Row(cells(*(c.values[0] for c in R))),), (True,) * len(R), css="dense")
+
+    def bins(prefix: str) -> tuple[str, ...]:
+        return tuple(c.values[0] for c in figure_values(ev, [f"{prefix}{j}" for j in range(1, 17)], [i]))
+
     hue = Table(("bin", *(f"h{j}" for j in range(1, 17))), (
-        Row(cells("Rf,h", *(plain_number(v, "int") for v in _matrix(ev, "Rf_h", 16)[i]))),
-        Row(cells("Rcs,h (%)", *(plain_number(v, "+.0f") for v in _matrix(ev, "Rcs_h", 16)[i]))),
-        Row(cells("Rhs,h", *(plain_number(v, "+.2f") for v in _matrix(ev, "Rhs_h", 16)[i]))),
+        Row(cells("Rf,h", *bins("Rf_h"))), Row(cells("Rcs,h (%)", *bins("Rcs_h"))), Row(cells("Rhs,h", *bins("Rhs_h"))),
     ), (False,) + (True,) * 16, css="dense")
     design, note = _design_intents(ev, i)
     return SampleView(number, ev.spectra.names[i], str(ev.spectra.sources[i]), tuple(figures), checks, cri, hue,

@@ -38,14 +38,11 @@ def _hue_table(ev, idx):
         t.add_column(safe.text(ev.spectra.names[i]).append("\nRf,h"), justify="right")
         t.add_column("Rcs,h", justify="right")
         t.add_column("Rhs,h", justify="right")
-    from .. import figures
+    from .view import figure_values
 
     for j in range(16):
-        cells = []
-        fs = [figures.FIGURES[f"{p}{j + 1}"] for p in ("Rf_h", "Rcs_h", "Rhs_h")]
-        vals = [f.value(ev) for f in fs]
-        for i in idx:
-            cells += [f.format(v[i]) for f, v in zip(fs, vals)]
+        cols = figure_values(ev, [f"{p}{j + 1}" for p in ("Rf_h", "Rcs_h", "Rhs_h")], idx)
+        cells = [c.values[k] for k in range(len(idx)) for c in cols]
         t.add_row(f"h{j + 1:<2} {22.5 * j:5.1f}-{22.5 * (j + 1):5.1f}°", *cells)
     return t
 
@@ -122,12 +119,12 @@ def _compact_renderables(ev, width: int) -> list:
     from rich.table import Table
     from rich.text import Text
 
-    from .. import figures
+    from .view import figure_values
 
-    figs = [figures.FIGURES[name] for name in COMPACT_FIGURES if name in figures.FIGURES]
+    figs = figure_values(ev, COMPACT_FIGURES)  # the registry's labels, units and formats
     n = len(ev)
-    heads = [f"{f.label} ({f.unit})" if f.unit else f.label for f in figs]
-    cells = [[f.format(v[i]) for i in range(n)] for f, v in ((f, f.value(ev)) for f in figs)]
+    heads = [f.heading for f in figs]
+    cells = [list(f.values) for f in figs]
     names = [safe.clean(ev.spectra.names[i]) for i in range(n)]
     numbers_w = sum(max(len(h), *(len(c) for c in col)) + 2 for h, col in zip(heads, cells))
     in_table = max(len(x) for x in names) + 2 + numbers_w <= width

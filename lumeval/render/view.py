@@ -113,6 +113,24 @@ def figure_columns(ev, idx: Sequence[int] | None = None, groups: tuple[str, ...]
     return out
 
 
+def figure_values(ev, names: Sequence[str], idx: Sequence[int] | None = None) -> list[FigureColumn]:
+    """The figures ``names`` (registry names, in that order; unknown names left out) of the
+    spectra ``idx`` (default all), in the registry's formats: the R1-R14 and hue-bin tables and
+    the compact terminal layout read these."""
+    from .. import figures
+
+    idx = list(range(len(ev.spectra.names))) if idx is None else list(idx)
+    out = []
+    for name in names:
+        f = figures.FIGURES.get(name)
+        if f is None:
+            continue
+        v = f.value(ev)
+        out.append(FigureColumn(f.name, f.label, f.unit, f.heading, f.row_label, f.group,
+                                tuple(f.format(v[i]) for i in idx)))
+    return out
+
+
 def figure_descriptions(ev) -> str:
     """One line explaining the key figures outside the chromaticity group (label: what, source)."""
     shown = {c.name for c in figure_columns(ev)}

@@ -170,3 +170,10 @@ def test_series_shows_reading_and_evaluating():
     assert f"{n}/{n}" in stage_counts(screen, "reading")
     assert f"{n}/{n}" in stage_counts(screen, "evaluating")
     assert '"format": "lumeval.series"' in out
+
+
+def test_a_quick_single_file_inspect_draws_nothing():
+    code, out, screen = run_on_pty(["inspect", FILES[0], "-f", "json"])
+    assert code == 0, screen
+    assert "reading" not in screen and "evaluating" not in screen
+    assert '"format": "lumeval.inspect"' in out

@@ -3,8 +3,8 @@ writing the report): one row per stage with its count, the elapsed time and the 
 
 The API reports progress through a plain listener (:mod:`lumeval.progress`); this module is
 the command line's listener, drawn with rich. It shows nothing when stderr is not a terminal,
-with ``--quiet`` (the command's or ``lumeval --quiet``), or with ``LUMEVAL_PROGRESS=never``; a
-run that finishes within :data:`DELAY_S` shows nothing either (no flicker for a quick inspect).
+with ``--quiet`` (the command's or ``lumeval --quiet``), or with ``LUMEVAL_PROGRESS=never``; the
+rows appear only for work still under way after :data:`DELAY_S` (a quick inspect draws nothing).
 ``LUMEVAL_PROGRESS=always`` draws the bars even when stderr is not a terminal and from the first
 unit on (for logs and tests). The bars are removed when the command ends, so the report that
 follows starts on a clean screen.
@@ -92,7 +92,10 @@ class TerminalProgress:
     def __call__(self, stage: str, done: int, total: int | None) -> None:
         self._seen[stage] = (done, total)
         if self._bars is None:
-            if not self._force and time.monotonic() - self._start < DELAY_S:
+            # opened only for work still under way after DELAY_S: a quick run (one file inspected)
+            # draws nothing, not even a finished row
+            finished = total is not None and done >= total
+            if not self._force and (finished or time.monotonic() - self._start < DELAY_S):
                 return
             self._open()
         new = stage not in self._tasks

@@ -147,11 +147,14 @@ def check_renderables(result, *, width: int | None = None, evaluation=None, wide
     sections = _spectrum_sections(result) if wide or not many else []  # not built for a large run
     narrow = width is not None and max((_min_width(t) for t in sections if not isinstance(t, Text)), default=0) > width
     if not wide and (many or narrow):
-        out.extend(_compact_check(result, evaluation, width, "many" if many else "narrow"))
+        *rows, how_to_see_more = _compact_check(result, evaluation, width, "many" if many else "narrow")
+        out.extend(rows)
+        out.append(_requirements_text(result))
         if many:
             out.extend(_summary_renderables(result))
         else:
             out.extend(_not_passed_text(result))
+        out.append(how_to_see_more)
         out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
         out.append(_sources_text(result))
         out.append(_cautions_text())
@@ -313,6 +316,23 @@ def _compact_check(result, evaluation, width: int | None, why: str) -> list:
                     f"{' in a wider terminal' if why == 'narrow' else ''}, or `--format csv` / `--format json`.",
                     style="italic"))
     return out
+
+
+def _requirements_text(result):
+    """The requirements every spectrum was judged against, once (the compact layout has no
+    per-spectrum sections to show them): id, requirement, its limit and source wording, note."""
+    from rich.text import Text
+
+    t = Text("Requirements, for every spectrum:\n", style="bold")
+    for r in result.results:
+        t.append(f"  {clean(r.clause_id)}: ", style="bold")
+        t.append(clean(r.label))
+        if r.limit_text and r.limit_text not in r.label:
+            t.append(f" — {clean(r.limit_text)}", style="dim")
+        if getattr(r, "note", ""):
+            t.append(f" (note: {clean(r.note)})", style="italic")
+        t.append("\n")
+    return t
 
 
 def _not_passed_text(result) -> list:

@@ -117,9 +117,12 @@ def main(argv: list[str] | None = None) -> None:
     ap.add_argument("--quick", action="store_true", help="smaller sizes (indicative only)")
     ap.add_argument("--skip-dask", action="store_true", help="no Dask comparison")
     ap.add_argument("--skip-parquet", action="store_true", help="no Parquet archive (and no Dask)")
+    for k in SIZES:
+        ap.add_argument(f"--{k}", type=int, default=None, metavar="N", help=f"spectra for the {k} measurement "
+                        f"(default {SIZES[k][0]:,}; --quick {SIZES[k][1]:,})")
     ap.add_argument("--compare", action="store_true", help="also bench/bench_engine.py in full (colour-science, luxpy)")
     a = ap.parse_args(argv)
-    size = {k: v[1 if a.quick else 0] for k, v in SIZES.items()}
+    size = {k: getattr(a, k) or v[1 if a.quick else 0] for k, v in SIZES.items()}
     print(f"lumeval benchmark set ({'quick' if a.quick else 'full'} sizes) on {os.cpu_count()} cores; "
           f"load average {load()}; OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS')}", flush=True)
     res: dict = {}
@@ -190,8 +193,12 @@ def summary(res: dict, quick: bool) -> None:
         row(f"lot, Parquet, {r['n']:,} x 5 nm (spectra/CPU-s)", f"{cpu_rate:,.0f}",
             f">= {TARGETS['parquet_share']:.0%} of engine", cpu_rate >= TARGETS["parquet_share"] * e5,
             f"{cpu_rate / e5:.0%} of the engine at 5 nm")
-        row(f"lot, Parquet, {r['n']:,} x 5 nm (peak RSS MB)", f"{r['rss']:,.0f}", f"< {TARGETS['parquet_rss_mb']:,}"
-            + ("" if r["n"] >= 1_000_000 else " at 1e6"), r["rss"] < TARGETS["parquet_rss_mb"])
+        if r["n"] >= 1_000_000:
+            row(f"lot, Parquet, {r['n']:,} x 5 nm (peak RSS MB)", f"{r['rss']:,.0f}", f"< {TARGETS['parquet_rss_mb']:,}",
+                r["rss"] < TARGETS["parquet_rss_mb"])
+        else:  # the target is for 10^6 spectra: a smaller run only shows the figure
+            rows.append((f"lot, Parquet, {r['n']:,} x 5 nm (peak RSS MB)", f"{r['rss']:,.0f}",
+                         f"< {TARGETS['parquet_rss_mb']:,} at 1,000,000", "n/a", "run with --parquet 1000000"))
     if res.get("dask1") and res.get("dask2"):
         d1, d2 = res["dask1"], res["dask2"]
         rows.append((f"Dask, {d1['n']:,} x 5 nm: 1 process | 2 workers (s wall)", f"{d1['wall']:.1f} | {d2['wall']:.1f}",

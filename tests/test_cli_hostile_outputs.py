@@ -605,6 +605,22 @@ def test_huge_values_are_quoted_briefly_without_interpreter_advice(tmp_path, cap
         assert "set_int_max_str_digits" not in err and len(err) < 650, err
 
 
+def _wait_until_catching(p, signum, timeout=120.0):
+    """Wait until process ``p`` has installed a handler for ``signum`` (Linux: the SigCgt mask
+    in /proc/PID/status), so that the signal reaches lumeval's handler, not the default action."""
+    deadline = time.monotonic() + timeout
+    bit = 1 << (signum - 1)
+    while time.monotonic() < deadline and p.poll() is None:
+        try:
+            status = Path(f"/proc/{p.pid}/status").read_text()
+        except OSError:
+            return
+        caught = next((ln.split()[1] for ln in status.splitlines() if ln.startswith("SigCgt:")), "0")
+        if int(caught, 16) & bit:
+            return
+        time.sleep(0.05)
+
+
 def test_sigterm_during_a_real_lot_run_leaves_complete_outputs_or_none(tmp_path):
     """The unpatched CLI on the 200-module demo lot, stopped by SIGTERM part-way: exit 143 (or
     the run had already ended), no temporary file, and every output present is complete."""
@@ -615,7 +631,8 @@ def test_sigterm_during_a_real_lot_run_leaves_complete_outputs_or_none(tmp_path)
     p = subprocess.Popen([sys.executable, "-m", "lumeval", "lot", str(ROOT / "spectra_demo" / "lot_2026w48"), "-q",
                           "--json", str(out / "lot.json"), "--samples-csv", str(out / "s.csv"), "--html", str(out / "r.html"),
                           "--plots", str(out / "P")], env=ENV, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    time.sleep(2.5)
+    _wait_until_catching(p, signal.SIGTERM)  # a loaded machine may still be importing after 2.5 s
+    time.sleep(1.0)
     p.send_signal(signal.SIGTERM)
     code = p.wait(timeout=300)
     err = p.stderr.read().decode()

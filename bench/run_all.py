@@ -163,7 +163,10 @@ def main(argv: list[str] | None = None) -> None:
     ap.add_argument("--compare", action="store_true", help="also bench/bench_engine.py in full (colour-science, luxpy)")
     a = ap.parse_args(argv)
     size = {k: getattr(a, k) or v[1 if a.quick else 0] for k, v in SIZES.items()}
-    print(f"lumeval benchmark set ({'quick' if a.quick else 'full'} sizes) on {os.cpu_count()} cores; "
+    sizes = "quick" if a.quick else "full"
+    if any(size[k] != SIZES[k][1 if a.quick else 0] for k in SIZES):
+        sizes = "chosen"
+    print(f"lumeval benchmark set ({sizes} sizes) on {os.cpu_count()} cores; "
           f"load average {load()}; OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS')}", flush=True)
     res: dict = {}
     t0 = time.perf_counter()

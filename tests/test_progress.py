@@ -77,7 +77,9 @@ def stage_counts(screen: str, stage: str) -> set[str]:
 
 def test_lot_with_instrument_shows_every_stage_with_counts(inputs):
     crit, inst = inputs
-    code, _, screen = run_on_pty(["lot", *FILES, "-c", crit, "--instrument", inst, "--draws", "200"])
+    # forced: on an idle machine this small run ends before the 0.4 s after which rows open
+    code, _, screen = run_on_pty(["lot", *FILES, "-c", crit, "--instrument", inst, "--draws", "200"],
+                                 {"LUMEVAL_PROGRESS": "always"})
     assert code in (0, 1), screen
     n = len(FILES)
     assert f"{n}/{n}" in stage_counts(screen, "reading")
@@ -91,7 +93,7 @@ def test_check_many_files_with_report_shows_reading_evaluating_monte_carlo_and_w
     crit, inst = inputs
     html = tmp_path / "r.html"
     code, out, screen = run_on_pty(["check", *FILES, "-c", crit, "--instrument", inst, "--draws", "200",
-                                    "--html", html, "-f", "json"])
+                                    "--html", html, "-f", "json"], {"LUMEVAL_PROGRESS": "always"})
     assert code in (0, 1), screen
     n = len(FILES)
     for stage in ("reading", "evaluating", "Monte Carlo"):
@@ -99,6 +101,20 @@ def test_check_many_files_with_report_shows_reading_evaluating_monte_carlo_and_w
     written = [c.split("/") for c in stage_counts(screen, "writing report")]
     assert any(a == b and int(b) > 0 for a, b in written), screen  # every figure of the report counted
     assert '"format": "lumeval.check"' in out  # the report itself still goes to stdout, untouched
+
+
+def test_a_long_lot_draws_its_rows_without_being_forced(inputs):
+    """The default (auto) mode on a terminal: a run still busy after 0.4 s opens its rows, and
+    the stages already done by then are shown with their final counts."""
+    crit, inst = inputs
+    files = sorted(str(p) for p in (REPO / "spectra_demo" / "lot_2026w48").glob("*.csv"))
+    n = len(files)
+    assert n >= 100
+    code, _, screen = run_on_pty(["lot", *files, "-c", crit, "--instrument", inst, "--draws", "400", "-f", "json"])
+    assert code in (0, 1), screen
+    assert f"{n}/{n}" in stage_counts(screen, "reading")
+    done = [c.split("/") for c in stage_counts(screen, "Monte Carlo")]
+    assert any(a == b and int(b) >= n for a, b in done), screen  # every spectrum's draws (files may hold several)
 
 
 def test_inspect_many_files_forced_progress(tmp_path):
@@ -113,7 +129,7 @@ def test_inspect_many_files_forced_progress(tmp_path):
 def test_nothing_drawn_when_quiet(inputs, how):
     crit, inst = inputs
     argv = ["lot", *FILES, "-c", crit, "--instrument", inst, "--draws", "100", "-f", "json"]
-    env = None
+    env = {"LUMEVAL_PROGRESS": "always"}  # quiet wins even over the forced display
     if how == ["--quiet"]:
         argv.append("--quiet")
     elif how == ["root-quiet"]:

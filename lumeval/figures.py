@@ -363,6 +363,11 @@ for _j in range(1, 17):
 #: sits on the unit circle. colour-science's R_hs is the same quantity (tests/test_metrics_tm30.py).
 HUE_SHIFT_UNIT = "dimensionless"
 
+#: The key figures, in reading order: the one row per spectrum of the compact terminal layouts,
+#: the one-line ``repr`` summary and the distributions drawn for a lot all show these (the
+#: trade's usual short list: CCT, Duv, Ra, R9, Rf, Rg; common practice, no source).
+KEY_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+
 for _j in range(1, 17):
     register(Figure(f"Rhs_h{_j}", f"Rhs,h{_j}", "fidelity",
                     f"local hue shift Rhs,h{_j} (hue bin {_j}; {HUE_SHIFT_UNIT})",

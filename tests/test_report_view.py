@@ -262,3 +262,17 @@ def test_check_result_repr_is_short_and_its_html_fragment_shows_the_verdicts(ev)
     words = ["".join(b.itertext()) for b in grid.findall(".//span") if "badge" in (b.get("class") or "").split()]
     expected = [{"pass": "✓ PASS", "fail": "✗ FAIL"}.get(o, o) for o in res.results[0].outcome]
     assert words == expected
+
+
+def test_lot_run_repr_is_one_short_line():
+    """A lot's repr says what it found in one line (the dataclass default printed every figure
+    of every sample)."""
+    import lumeval
+
+    files = sorted(glob.glob(str(ROOT / "spectra_demo" / "lot_2026w48" / "*.csv")))
+    run = lumeval.lot(files, ROOT / "spectra_demo" / "lot_criteria.toml")
+    text = repr(run)
+    assert "\n" not in text and len(text) < 300, text
+    assert text.startswith("<LotRun ") and f"{len(run)} samples from {len(files)} files" in text
+    assert run.sample_verdicts is not None
+    assert f"{sum(v == 'pass' for v in run.sample_verdicts)} pass" in text

@@ -90,6 +90,23 @@ class LotRun:
     def __len__(self) -> int:
         return len(self.names)
 
+    def __repr__(self) -> str:
+        """One short line (the dataclass default would print every sample's figures)."""
+        parts = [f"{len(self)} sample{'' if len(self) == 1 else 's'} from {self.files} file{'' if self.files == 1 else 's'}"]
+        v = self.sample_verdicts
+        if v is not None:
+            counts: dict[str, int] = {}
+            for o in v:
+                counts[o] = counts.get(o, 0) + 1
+            parts.append(", ".join(f"{n} {o}" for o, n in sorted(counts.items())))
+        if self.lot_results:
+            bad = sum(r.outcome != "pass" for r in self.lot_results)
+            parts.append(f"{len(self.lot_results)} lot clause{'' if len(self.lot_results) == 1 else 's'}, {bad} not passed")
+        if self.unreadable:
+            parts.append(f"{len(self.unreadable)} unreadable")
+        outcome = "unreadable input" if self.unreadable else ("fail" if self.failed else "pass")
+        return f"<LotRun {outcome}: {'; '.join(parts)}>"
+
     @cached_property
     def sample_verdicts(self) -> tuple[str, ...] | None:
         """Each sample's overall verdict (combined once: a lot may have 10^6 samples)."""

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..figures import KEY_FIGURES
 from .report_inputs import VerdictRow, _limits_from_rows, _regions, verdict_rows
 from .report_inputs import as_lot as _as_lot
 
@@ -26,7 +27,7 @@ PER_SAMPLE_MAX: int | None = None
 
 
 #: Figures whose distributions are drawn for a lot (plus any figure a limit names).
-LOT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+LOT_FIGURES = KEY_FIGURES
 
 
 def _lot_spectra_for_display(ev, k: int):

@@ -14,6 +14,7 @@ import math
 
 import numpy as np
 
+from ..figures import KEY_FIGURES
 from . import safe
 
 _PER_TABLE = 4
@@ -108,7 +109,7 @@ def _rows(ev, idx):
 
 
 #: The key figures of the compact layout (one row per spectrum), in reading order.
-COMPACT_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+COMPACT_FIGURES = KEY_FIGURES
 
 
 def _compact_renderables(ev, width: int) -> list:

@@ -21,6 +21,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from ..figures import KEY_FIGURES
+
 if TYPE_CHECKING:  # pragma: no cover
     from .report_inputs import VerdictRow
 
@@ -316,7 +318,7 @@ def cautions() -> tuple[str, ...]:
 
 
 #: The figures of the one-line summary (``repr``), in reading order.
-SUMMARY_FIGURES = ("cct_K", "duv", "Ra", "R9", "Rf", "Rg")
+SUMMARY_FIGURES = KEY_FIGURES
 
 
 def _short(name: str, width: int = 24) -> str:

@@ -4,7 +4,8 @@ The computation and the API never print (docs: DEVELOPERS.md, "Architecture"); a
 wants to show progress passes a *listener*, any callable ``listener(stage, done, total)``:
 
 - ``stage``: one of :data:`STAGES` — :data:`READING` (files), :data:`EVALUATING` (spectra),
-  :data:`MONTE_CARLO` (spectra whose draws are done) and :data:`WRITING` (report figures);
+  :data:`MONTE_CARLO` (spectra whose draws are done), :data:`WRITING` (report figures) and
+  :data:`SOLVING` (setpoints of a channel mix whose weights are found);
 - ``done``: how many of the stage's units are finished (it only grows within one stage);
 - ``total``: how many there are in all, or None when not known yet.
 
@@ -31,9 +32,12 @@ EVALUATING = "evaluating"
 MONTE_CARLO = "Monte Carlo"
 #: Writing the report: figures drawn and written (unit: figures).
 WRITING = "writing report"
+#: Solving channel weights of a mix (unit: setpoints whose weights are found).
+SOLVING = "solving"
 
 #: The stages in the order a run goes through them, with the unit each one counts.
-STAGES: dict[str, str] = {READING: "files", EVALUATING: "spectra", MONTE_CARLO: "spectra", WRITING: "figures"}
+STAGES: dict[str, str] = {READING: "files", SOLVING: "setpoints", EVALUATING: "spectra", MONTE_CARLO: "spectra",
+                          WRITING: "figures"}
 
 #: A progress listener: ``listener(stage, done, total)``.
 Listener = Callable[[str, int, "int | None"], None]

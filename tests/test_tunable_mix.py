@@ -225,3 +225,19 @@ def test_nothing_to_maximise_with_two_or_three_channels_is_said():
     assert any("nothing to maximise (Ra) with two channels" in n for n in two.notes)
     three = mix(channels(WARM, COLD, GREEN), np.array([4000.0]), duv=0.0, maximise="ler")
     assert any("nothing to maximise (ler) with three channels" in n for n in three.notes)
+
+
+def test_four_channel_mix_reports_progress_per_setpoint():
+    """A listener (lumeval.progress) hears every reachable setpoint solved, then the mixes
+    evaluated; counts grow to their totals. Behaviour only, no colour-science numbers."""
+    from lumeval.progress import EVALUATING, SOLVING
+
+    seen = []
+    targets = np.array([3000.0, 3500.0, 4000.0])
+    res = mix(channels(WARM, COLD, GREEN, RED), targets, duv=0.0, maximise="Rf",
+              progress=lambda s, k, n: seen.append((s, k, n)))
+    n = int(res.reachable.sum())
+    assert n >= 2
+    assert [x for x in seen if x[0] == SOLVING] == [(SOLVING, k, n) for k in range(1, n + 1)]
+    assert [x for x in seen if x[0] == EVALUATING][-1] == (EVALUATING, n, n)
+    assert seen.index((SOLVING, n, n)) < seen.index((EVALUATING, n, n))

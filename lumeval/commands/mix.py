@@ -78,5 +78,9 @@ def register(app: typer.Typer) -> None:
         duv_value: object = duv
         with contextlib.suppress(ValueError):
             duv_value = float(duv)
-        report = mix_files(channels, cct, duv=duv_value, maximise=maximise.value, criteria=criteria)
+        from ._progress import progress_listener
+
+        with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints
+            report = mix_files(channels, cct, duv=duv_value, maximise=maximise.value, criteria=criteria,
+                               progress=progress)
         emit_report(report, output_format, html, "lumeval " + " ".join(sys.argv[1:]))

@@ -113,7 +113,7 @@ def join_grids(sets: list) -> list:
     return out
 
 
-def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None) -> TunableReport:
+def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None, progress=None) -> TunableReport:
     """Python twin of ``lumeval mix``.
 
     Parameters
@@ -128,6 +128,8 @@ def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None) ->
     maximise : "Rf", "Ra" or "ler"
     criteria : path, optional
         A criteria file; its clauses are judged at every setpoint (settings = target CCT in K).
+    progress : callable, optional
+        A progress listener (:mod:`lumeval.progress`): setpoints solved, spectra evaluated.
     """
     from .judge import judge, view_of_mix
     from .mix import mix, parse_setpoints
@@ -136,7 +138,7 @@ def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None) ->
     crit = _load_criteria(criteria)
     targets = parse_setpoints(cct) if isinstance(cct, str) else np.atleast_1d(np.asarray(cct, dtype=float))
     chans, notes = read_channels(paths)
-    res = mix(chans, targets, duv=duv, maximise=maximise, notes=notes)
+    res = mix(chans, targets, duv=duv, maximise=maximise, notes=notes, progress=progress)
     check = None
     if crit is not None:
         check = judge(crit, view_of_mix(res), res.target_cct_K, labels=res.names, unit="K",

@@ -407,13 +407,17 @@ def _refine(obj: _Objective, Vf: np.ndarray, lam0: np.ndarray, f0: float) -> tup
 
 
 def solve_multi_channels(
-    wl: np.ndarray, values: np.ndarray, XYZc: np.ndarray, uv_t: np.ndarray, figure: str, *, seed: int = 1
+    wl: np.ndarray, values: np.ndarray, XYZc: np.ndarray, uv_t: np.ndarray, figure: str, *, seed: int = 1,
+    progress=None,
 ) -> tuple[np.ndarray, np.ndarray, tuple[str, ...]]:
     """Non-negative weights of K ≥ 3 channels reaching each target (u, v), maximising ``figure``.
 
     Returns (weights (N, K) with the largest 1 and NaN where not reachable, reachable (N,),
-    reason (N,)). See the module docstring for the method.
+    reason (N,)). See the module docstring for the method. ``progress``: a listener
+    (:mod:`lumeval.progress`) told of each reachable setpoint solved (four or more channels).
     """
+    from ..progress import SOLVING, report
+
     n, K = uv_t.shape[0], XYZc.shape[0]
     V, ok = _vertex_solutions(XYZc, uv_t)
     reach: np.ndarray = np.asarray(ok.any(axis=1))
@@ -446,6 +450,7 @@ def solve_multi_channels(
                 if f2 > fbest:
                     lam, fbest = lam2, f2
             W[i] = lam @ Vf
+            report(progress, SOLVING, j + 1, len(rows))
     W[reach] = W[reach] / W[reach].max(axis=1, keepdims=True)
     W[~reach] = np.nan
     reasons = tuple(
@@ -465,6 +470,7 @@ def mix(
     duv=0.0,
     maximise: str = "Rf",
     notes: tuple[str, ...] = (),
+    progress=None,
 ) -> MixResult:
     """Solve channel weights for every target CCT and evaluate every figure of the mixes.
 
@@ -482,6 +488,8 @@ def mix(
         one solution per target).
     notes : tuple of str
         Run notes to carry (e.g. how the channels were brought onto one grid).
+    progress : callable, optional
+        A progress listener (:mod:`lumeval.progress`): setpoints solved, spectra evaluated.
 
     Returns
     -------
@@ -513,7 +521,8 @@ def mix(
         run_notes.append(duv_note)
         uv_t = uv_from_cct_duv(targets, tduv)
         fig = MAXIMISE[maximise]
-        W, reach, reasons = solve_multi_channels(channels.wavelengths_nm, channels.values, XYZc, uv_t, fig)
+        W, reach, reasons = solve_multi_channels(channels.wavelengths_nm, channels.values, XYZc, uv_t, fig,
+                                                 progress=progress)
         if K == 3:
             method = ("three channels: the unique non-negative weights reaching the target (u, v) "
                       "(two linear equations in XYZ, CIE 15:2004 §8.1; target point by Ohno 2014 Eqs. 13-14)")
@@ -533,7 +542,7 @@ def mix(
         chan_notes = tuple(dict.fromkeys(x for ns in channels.notes for x in ns))
         ss = SpectrumSet(channels.wavelengths_nm, wr @ channels.values, names, src,
                          tuple(chan_notes for _ in names), tuple({} for _ in names), prepared=True)
-        ev = evaluate(ss)
+        ev = evaluate(ss, progress=progress)
     return MixResult(channels, targets, tduv, reach, reasons, W, ev, index, fig, method, tuple(run_notes))
 
 

@@ -52,8 +52,9 @@ def main(argv=None) -> int:
 
     from chromium import Browser, ensure_chromium
 
+    from lumeval import check
     from lumeval.api import inspect as inspect_files
-    from lumeval.criteria import check, load_criteria, parse_criteria
+    from lumeval.criteria import load_criteria, parse_criteria
     from lumeval.render.html import regions_from_criteria, write_html_report
 
     # Paths in the report are shown as given: work from the repository root, with paths relative

@@ -26,7 +26,6 @@ machine: pass 1000000 to run it.
 from __future__ import annotations
 
 import os
-import subprocess
 import sys
 import tempfile
 import time
@@ -89,17 +88,12 @@ def engine_rate(step: float, n: int = 20000) -> float:
 
 
 def run_child(args: list[str]) -> tuple[float, float, float, int]:
-    """(wall s, CPU s of the child and its children, peak RSS MB of the child, exit code)."""
-    t = time.perf_counter()
-    p = subprocess.Popen([sys.executable, "-m", "lumeval", *args], cwd=REPO, stdout=subprocess.DEVNULL,
-                         stderr=subprocess.PIPE, env={**os.environ, "PYTHONPATH": str(REPO)})
-    _, status, ru = os.wait4(p.pid, 0)
-    wall = time.perf_counter() - t
-    p.returncode = os.waitstatus_to_exitcode(status)
-    err = p.stderr.read().decode() if p.stderr else ""
-    if p.returncode not in (0, 1):
-        print(err, file=sys.stderr)
-    return wall, ru.ru_utime + ru.ru_stime, ru.ru_maxrss / 1024, p.returncode
+    """(wall s, CPU s, peak RSS MB of the child, exit code): bench/run_all.py's measurement, which
+    polls the child's own high-water mark (the ``ru_maxrss`` of a child started by vfork, as
+    subprocess does, also reports this parent's peak: it inflated earlier figures)."""
+    from run_all import run_child as measured  # here, not at the top: run_all imports this module
+
+    return measured(args)
 
 
 def main() -> None:

@@ -25,7 +25,7 @@ import tempfile
 import zlib
 from array import array
 from collections.abc import Iterable, Iterator, Mapping, Sequence
-from typing import IO
+from typing import IO, Any
 
 import numpy as np
 
@@ -40,9 +40,27 @@ _ENC = ("utf-8", "surrogatepass")  # names may carry lone surrogates (undecodabl
 
 
 class _SequenceEq:
-    """Equality with any sequence of the same items (a packed column equals the tuple it packs)."""
+    """Equality with any sequence of the same items (a packed column equals the tuple it packs),
+    and indexing, slicing and iteration over a subclass's ``_one(i)`` and ``__len__``."""
 
     __hash__ = None  # type: ignore[assignment]
+
+    def _one(self, i: int) -> Any:
+        raise NotImplementedError
+
+    def __getitem__(self, i):
+        n = len(self)  # type: ignore[arg-type]
+        if isinstance(i, slice):
+            return [self._one(k) for k in range(*i.indices(n))]
+        if i < 0:
+            i += n
+        if not 0 <= i < n:
+            raise IndexError(f"{type(self).__name__} index out of range")
+        return self._one(i)
+
+    def __iter__(self) -> Iterator[Any]:
+        for i in range(len(self)):  # type: ignore[arg-type]
+            yield self._one(i)
 
     def __eq__(self, other: object) -> bool:
         if isinstance(other, (str, bytes)) or not isinstance(other, Sequence):
@@ -87,19 +105,6 @@ class TextColumn(_SequenceEq, Sequence[str]):
         start = self._ends[i - 1] if k else 0
         return self._block(b)[start : self._ends[i]].decode(*_ENC)
 
-    def __getitem__(self, i):
-        if isinstance(i, slice):
-            return [self._one(k) for k in range(*i.indices(len(self)))]
-        n = len(self)
-        if i < 0:
-            i += n
-        if not 0 <= i < n:
-            raise IndexError("TextColumn index out of range")
-        return self._one(i)
-
-    def __iter__(self) -> Iterator[str]:
-        for i in range(len(self)):
-            yield self._one(i)
 
     def __repr__(self) -> str:
         return f"TextColumn({len(self)} strings)"
@@ -130,19 +135,6 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
         start = self._ends[i - 1] if i else 0
         return tuple(self._texts[start : self._ends[i]])
 
-    def __getitem__(self, i):
-        if isinstance(i, slice):
-            return [self._one(k) for k in range(*i.indices(len(self)))]
-        n = len(self)
-        if i < 0:
-            i += n
-        if not 0 <= i < n:
-            raise IndexError("TextTuples index out of range")
-        return self._one(i)
-
-    def __iter__(self) -> Iterator[tuple[str, ...]]:
-        for i in range(len(self)):
-            yield self._one(i)
 
     def __repr__(self) -> str:
         return f"TextTuples({len(self)} samples)"

@@ -300,11 +300,23 @@ def _own_columns(run) -> list[str]:
     return cols
 
 
-def _cell(v) -> str:
-    if v is None:
-        return ""
-    f = float(v)
-    return repr(f) if math.isfinite(f) else ""
+def _quoted(s: str) -> str:
+    """A CSV cell as :mod:`csv`'s writer (QUOTE_MINIMAL, ``,`` and ``"``) writes it: quoted when it
+    holds the delimiter, a quote or a line break (text cells are cleaned of line breaks first)."""
+    if "," in s or '"' in s or "\n" in s or "\r" in s:
+        return '"' + s.replace('"', '""') + '"'
+    return s
+
+
+def _number_cells(block: np.ndarray) -> list[str]:
+    """Each row of a float block as its cells joined by commas: the shortest repr of every
+    finite value (the value read back bit for bit), an empty cell for a missing one. Formatted
+    row by row from Python floats: ``repr`` per value, without a per-cell Python function."""
+    finite = np.isfinite(block).all(axis=1).tolist() if block.size else [True] * block.shape[0]
+    out = []
+    for ok, row in zip(finite, block.tolist()):
+        out.append(",".join(map(repr, row)) if ok else ",".join(repr(v) if math.isfinite(v) else "" for v in row))
+    return out
 
 
 #: Rows of figures read at a time while writing the per-sample CSV.
@@ -315,38 +327,44 @@ def samples_csv(run, out=None) -> str | None:
     """One row per sample: verdict, outlier flag and reasons, Δu'v' and steps, every figure,
     each per-sample clause's outcome, and the warnings (joined with " | ").
 
-    Returns the CSV text, or streams it row by row to the text stream ``out`` (then None), so
-    that a large lot is never held in memory as one string."""
+    Returns the CSV text, or streams it block by block to the text stream ``out`` (then None),
+    so that a large lot is never held in memory as one string. The numbers of a block of rows
+    are formatted together (:func:`_number_cells`); the cells are those :mod:`csv`'s writer
+    gives (tests/test_lot_report.py reads the file back with it)."""
     t = csv_text
     buf = io.StringIO() if out is None else out
     w = csv.writer(buf, lineterminator="\n")
     w.writerow([t(c) for c in csv_columns(run)])
     st = run.stats
+    n = len(run)
     verdicts = run.sample_verdicts
     from ..lots.columns import figure_rows
 
-    fig_mat, meta = np.empty((0, 0)), []
-    for i in range(len(run)):
-        if i % _CSV_ROWS == 0:  # figures and metadata a block of rows at a time (a lot may keep them on disk)
-            fig_mat = figure_rows(run.figures, i, i + _CSV_ROWS)
-            meta = _metadata_values(run, i, _CSV_ROWS)
-        row = [
-            csv_first_cell(run.names[i]),
-            t(run.sources[i]),
-            *(_csv_value(v[i % _CSV_ROWS]) for _, v in meta),
-            verdicts[i] if verdicts is not None else "",
-            "yes" if st.outlier[i] else "no",
-            t(" | ".join(st.outlier_reasons[i])),
-            _cell(st.d_upvp_centroid[i]),
-            _cell(st.steps_centroid[i]),
-            _cell(None if st.d_upvp_nominal is None else st.d_upvp_nominal[i]),
-            _cell(None if st.steps_nominal is None else st.steps_nominal[i]),
-        ]
-        row += [_cell(v) for v in fig_mat[i % _CSV_ROWS]]
-        if run.check is not None:
-            row += [r.outcome[i] for r in run.check.results]
-        row.append(t(" | ".join(run.warnings[i])))
-        w.writerow(row)
+    def stat_block(a, i: int, j: int) -> np.ndarray:
+        if a is None:
+            return np.full((j - i, 1), np.nan)
+        return np.asarray(a[i:j], dtype=float).reshape(-1, 1)
+
+    for i in range(0, n, _CSV_ROWS):
+        j = min(n, i + _CSV_ROWS)
+        # figures and metadata a block of rows at a time (a lot may keep them on disk)
+        stats_txt = _number_cells(np.hstack([stat_block(st.d_upvp_centroid, i, j), stat_block(st.steps_centroid, i, j),
+                                             stat_block(st.d_upvp_nominal, i, j), stat_block(st.steps_nominal, i, j)]))
+        figs_txt = _number_cells(figure_rows(run.figures, i, i + _CSV_ROWS)[: j - i])
+        meta = [[_quoted(_csv_value(v)) for v in vals] for _, vals in _metadata_values(run, i, j - i)]
+        outlier = np.asarray(st.outlier[i:j], dtype=bool).tolist()
+        outcomes = [r.outcome[i:j] for r in run.check.results] if run.check is not None else []
+        lines = []
+        for k in range(j - i):
+            s = i + k
+            row = [_quoted(csv_first_cell(run.names[s])), _quoted(t(run.sources[s]))]
+            row += [m[k] for m in meta]
+            row += [verdicts[s] if verdicts is not None else "", "yes" if outlier[k] else "no",
+                    _quoted(t(" | ".join(st.outlier_reasons[s]))), stats_txt[k], figs_txt[k]]
+            row += [o[k] for o in outcomes]
+            row.append(_quoted(t(" | ".join(run.warnings[s]))))
+            lines.append(",".join(row))
+        buf.write("\n".join(lines) + "\n" if lines else "")
     buf.write(csv_notes())  # the cautions as the last rows (docs/output-formats.md, "CSV")
     return buf.getvalue() if out is None else None
 

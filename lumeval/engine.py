@@ -320,37 +320,44 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     from .metrics.cri import DC_LIMIT
     from .metrics.tm30 import hue_edge_warnings
 
-    out = []
-    dc = np.asarray(cri.dc, dtype=float)
     n = len(spectra)
+    dc = np.asarray(cri.dc, dtype=float)
+    # per-spectrum values as Python lists once (indexing numpy arrays element by element in the
+    # loop below cost more than the messages themselves)
+    outside = np.asarray(cct.outside_validity, dtype=bool).tolist()
+    dc_bad = (np.isfinite(dc) & ~np.asarray(cri.within_dc_limit, dtype=bool)).tolist()
+    dc_list = dc.tolist()
+    ref_T = np.asarray(cct.reference_cct_K, dtype=float)
+    ref_ok = np.isfinite(ref_T).tolist()
+    ref_list = ref_T.tolist()
+    cct_reason = cct.reason
     fid_reason = getattr(fid, "reason", ("",) * n)
+    phot_reason = phot.reason
     edges = getattr(fid, "hue_edge_pairs", ())
-    # Only spectra with something to say go through the checks below (most have nothing).
-    quiet = ~np.asarray(cct.outside_validity, dtype=bool)
-    quiet &= ~(np.isfinite(dc) & ~np.asarray(cri.within_dc_limit, dtype=bool))
-    quiet &= np.array([not (a or b or c) for a, b, c in zip(cct.reason, fid_reason, phot.reason)], dtype=bool)
-    if len(edges) == n:
-        quiet &= np.array([not e for e in edges], dtype=bool)
+    edges = edges if len(edges) == n else ((),) * n
     notes = spectra.notes
-    for i, q in enumerate(quiet.tolist()):
-        if q:
+    out = []
+    for i in range(n):
+        # most spectra have nothing to say: their notes as they are
+        if not (outside[i] or dc_bad[i] or cct_reason[i] or fid_reason[i] or phot_reason[i] or edges[i]):
             out.append(tuple(notes[i]))
             continue
         w = list(notes[i])
-        if cct.outside_validity[i]:
-            w.append(validity_warning(cct.reason[i], float(cct.reference_cct_K[i])))
-        elif cct.reason[i]:
-            w.append(f"CCT undefined: {cct.reason[i]}; CRI and TM-30 figures are not computed.")
-        elif np.isfinite(dc[i]) and not cri.within_dc_limit[i]:
+        if outside[i]:
+            w.append(validity_warning(cct_reason[i], ref_list[i]))
+        elif cct_reason[i]:
+            w.append(f"CCT undefined: {cct_reason[i]}; CRI and TM-30 figures are not computed.")
+        elif dc_bad[i]:
             w.append(
-                f"DC = {dc[i]:.4f} is not below {DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
+                f"DC = {dc_list[i]:.4f} is not below {DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
                 "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
             )
-        if np.isfinite(cct.reference_cct_K[i]) and fid_reason[i]:
+        if ref_ok[i] and fid_reason[i]:
             w.append(f"TM-30: {fid_reason[i]}.")
-        w.extend(hue_edge_warnings(getattr(fid, "hue_edge_pairs", ()), i))
-        if phot.reason[i]:
-            w.append(f"photometry: {phot.reason[i]}.")
+        if edges[i]:
+            w.extend(hue_edge_warnings(edges, i))
+        if phot_reason[i]:
+            w.append(f"photometry: {phot_reason[i]}.")
         out.append(tuple(w))
     return tuple(out)
 

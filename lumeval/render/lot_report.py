@@ -311,12 +311,22 @@ def _quoted(s: str) -> str:
 def _number_cells(block: np.ndarray) -> list[str]:
     """Each row of a float block as its cells joined by commas: the shortest repr of every
     finite value (the value read back bit for bit), an empty cell for a missing one. Formatted
-    row by row from Python floats: ``repr`` per value, without a per-cell Python function."""
-    finite = np.isfinite(block).all(axis=1).tolist() if block.size else [True] * block.shape[0]
-    out = []
-    for ok, row in zip(finite, block.tolist()):
-        out.append(",".join(map(repr, row)) if ok else ",".join(repr(v) if math.isfinite(v) else "" for v in row))
-    return out
+    column by column from Python floats (``repr`` per value, no Python function per cell), then
+    joined row by row."""
+    rows, ncols = block.shape
+    if ncols == 0:
+        return [""] * rows
+    finite = np.isfinite(block)
+    cols: list[list[str]] = []
+    for c, ok in enumerate(finite.all(axis=0).tolist()):
+        vals = block[:, c].tolist()
+        if ok:
+            cols.append(list(map(repr, vals)))
+        elif not finite[:, c].any():
+            cols.append([""] * rows)
+        else:
+            cols.append([repr(v) if math.isfinite(v) else "" for v in vals])
+    return list(map(",".join, zip(*cols)))
 
 
 #: Rows of figures read at a time while writing the per-sample CSV.

@@ -16,7 +16,8 @@ memory").
    * a folder of 10,000 single-spectrum CSV files at 1 nm;
    * a Parquet archive of 1,000,000 spectra at 5 nm (the peak-memory target).
 3. **Dask**: a Parquet archive through ``--workers 2`` (a local cluster of 2 single-threaded
-   worker processes on loopback) against the plain run in one process.
+   worker processes on loopback) against the run in one process (``--processes 1``) and the
+   default run (reading and evaluating worker processes, one per core, on this machine).
 
 The data are invented white-LED spectra (bench/benchmark.py and bench/bench_archive.py
 generators), written into a temporary folder that is deleted at the end. ``--quick`` runs
@@ -207,7 +208,8 @@ def main(argv: list[str] | None = None) -> None:
             print("3. Dask: local cluster of 2 workers against one process (same archive)", flush=True)
             small = tmp / "dask.parquet"
             write_archive(small, size["dask"], 5.0, seed=3)
-            res["dask1"] = lot([str(small)], size["dask"], "one process")
+            res["dask1"] = lot([str(small), "--processes", "1"], size["dask"], "one process (--processes 1)")
+            res["dask_local"] = lot([str(small)], size["dask"], "this machine's worker processes (default)")
             res["dask2"] = lot([str(small), "--workers", "2"], size["dask"], "--workers 2")
     summary(res, a.quick)
     print(f"total {time.perf_counter() - t0:.0f} s; load average at the end {load()}")
@@ -227,7 +229,8 @@ def summary(res: dict, quick: bool) -> None:
         r = res.get(key)
         if r:
             rate, cpu_rate = r["n"] / r["wall"], r["n"] / r["cpu"]
-            ok = r["code"] in (0, 1) and cpu_rate >= TARGETS[key]
+            # judged on wall time: a lot reads and evaluates in worker processes on every core
+            ok = r["code"] in (0, 1) and rate >= TARGETS[key]
             row(f"lot, {name}, {r['n']:,} x 1 nm (spectra/s: wall | CPU)", f"{rate:,.0f} | {cpu_rate:,.0f}",
                 f">= {TARGETS[key]:,}", ok, f"CPU rate {cpu_rate / eng:.0%} of the engine; exit {r['code']}")
     r = res.get("parquet")
@@ -246,6 +249,11 @@ def summary(res: dict, quick: bool) -> None:
         d1, d2 = res["dask1"], res["dask2"]
         rows.append((f"Dask, {d1['n']:,} x 5 nm: 1 process | 2 workers (s wall)", f"{d1['wall']:.1f} | {d2['wall']:.1f}",
                      "(no target)", "", f"speed-up {d1['wall'] / d2['wall']:.2f}x (2 cores shared)"))
+        dl = res.get("dask_local")
+        if dl:
+            rows.append((f"local workers, {dl['n']:,} x 5 nm: 1 process | default (s wall)",
+                         f"{d1['wall']:.1f} | {dl['wall']:.1f}", "(no target)", "",
+                         f"speed-up {d1['wall'] / dl['wall']:.2f}x (--processes 1 against one per core)"))
     print("\nSummary" + (" (quick sizes: indicative only)" if quick else ""))
     w = [max(len(str(x[i])) for x in rows) for i in range(5)]
     head = ("measure", "reached", "target", "met", "ratio / note")

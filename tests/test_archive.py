@@ -168,9 +168,43 @@ def test_lot_evaluates_no_more_than_one_batch_ahead_of_the_reader(tmp_path, monk
 
     monkeypatch.setattr(archive, "_batch_from_record", counting_batch)
     monkeypatch.setattr(streaming, "evaluate_batch", counting_eval)
-    run = run_lot([p], batch_spectra=8)
+    run = run_lot([p], batch_spectra=8, evaluate_processes=1)
     assert len(run) == 50 and evaluated[0] == 50
     assert worst[0] <= 8
+
+
+def test_lot_with_evaluating_workers_keeps_a_bounded_number_of_batches_in_flight(tmp_path, monkeypatch):
+    """With evaluating worker processes, the spectra read but not yet taken back as results
+    stay within the bound of lumeval.lots.evaluating (batches waiting per worker, plus the one
+    being sent and the one held before the pool starts)."""
+    from lumeval.commands.lot import run_lot
+    from lumeval.lots import evaluating, streaming
+    from lumeval.spectra import archive
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    band = np.exp(-0.5 * ((wl - 560) / 80) ** 2) + 0.2
+    n = 120
+    s = SpectrumSet(wl, band * (1 + 0.01 * np.arange(n)[:, None]), tuple(f"m{i}" for i in range(n)), ("g",) * n)
+    p = tmp_path / "lot.parquet"
+    write_archive(s, p, row_group_rows=3)
+    read_rows, taken, worst = [0], [0], [0]
+    real_batch, real_add = archive._batch_from_record, streaming.LotAccumulator.add
+
+    def counting_batch(batch, *a, **k):
+        read_rows[0] += batch.num_rows
+        worst[0] = max(worst[0], read_rows[0] - taken[0])
+        return real_batch(batch, *a, **k)
+
+    def counting_add(self, r):
+        taken[0] += len(r)
+        return real_add(self, r)
+
+    monkeypatch.setattr(archive, "_batch_from_record", counting_batch)
+    monkeypatch.setattr(streaming.LotAccumulator, "add", counting_add)
+    run = run_lot([p], batch_spectra=8, evaluate_processes=2)
+    assert len(run) == n and taken[0] == n
+    assert worst[0] <= (evaluating.IN_FLIGHT_PER_PROCESS * 2 + 2) * 8 + 3  # + one row group being read
+    assert worst[0] > 8  # the workers did run ahead of the results
 
 
 # --------------------------------------------------------------------------- bad archives

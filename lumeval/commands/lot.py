@@ -147,6 +147,9 @@ def register(app: typer.Typer) -> None:
         workers: int = typer.Option(
             None, "--workers", help="Evaluate Parquet archives on a local Dask cluster of N worker processes "
             "(loopback only).", show_default=False),
+        processes: int = typer.Option(
+            None, "--processes", min=1, help="Worker processes on this machine that read and evaluate the lot "
+            "(default: one per core; 1: this process only).", show_default=False),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ._targets import check_targets
@@ -184,7 +187,8 @@ def register(app: typer.Typer) -> None:
         # Monte Carlo of --instrument and the report figures; removed before the summary prints
         with progress_listener() as progress:
             run = lot(paths, criteria, instrument=instrument, seed=seed, draws=draws, progress=progress,
-                      keep_evaluation=report, scheduler=scheduler, workers=workers)
+                      keep_evaluation=report, scheduler=scheduler, workers=workers,
+                      **({} if processes is None else {"read_processes": processes, "evaluate_processes": processes}))
             if samples_csv is not None:
                 _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
                 announce("per-sample CSV", samples_csv)

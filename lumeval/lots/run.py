@@ -210,6 +210,7 @@ def run_lot(
     workers: int | None = None,
     keep_evaluation: bool = False,
     read_processes: int | None = None,
+    evaluate_processes: int | None = None,
 ) -> LotRun:
     """Python twin of ``lumeval lot``: read, evaluate, judge and summarise a lot.
 
@@ -257,7 +258,7 @@ def run_lot(
                             uncertainty=uncertainty)
     from ..spectra.archive import is_archive
     from ..spectra.read import unique_names
-    from .streaming import LotAccumulator, archive_batches, evaluate_batch
+    from .streaming import LotAccumulator, archive_batches
 
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
@@ -279,18 +280,24 @@ def run_lot(
         if has_sample_clauses(criteria):
             sample_criteria = criteria
 
-    def consume(s, meta=None) -> None:
-        total = max(expected, done)  # a wide CSV holds more samples than the one per file expected
-        acc.add(evaluate_batch(s, sample_criteria, uncertainty, offset=len(acc), metadata=meta,
-                               keep_evaluation=keep_evaluation, progress=offset(progress, len(acc), total)))
-        report(progress, EVALUATING, len(acc), total)
+    from .evaluating import BatchEvaluator
+    from .reading import default_read_processes, fork_available
 
+    if evaluate_processes is None:
+        evaluate_processes = default_read_processes() if fork_available() else 1
+
+    def on_result(r) -> None:
+        acc.add(r)
+        report(progress, EVALUATING, len(acc), max(expected, done))
+
+    evaluator = BatchEvaluator(evaluate_processes, sample_criteria, uncertainty, keep_evaluation, on_result,
+                               lambda start: offset(progress, start, max(expected, done)))
+
+    consume = evaluator.submit
     def flush() -> None:
         nonlocal pending, pending_n
-        if pending:
-            # one evaluation per batch: the engine groups the files by computation grid (each
-            # spectrum on its own grid, never resampled) and returns the samples in file order
-            consume(pending)
+        for part in _batches(pending, batch_spectra):
+            consume(part)
         pending = []
         pending_n = 0
 
@@ -300,40 +307,63 @@ def run_lot(
     # a text file over the single-file limit is read in column blocks (lumeval.spectra.text_columns)
     streamed = [not a and is_streamed(f) for f, a in zip(files, archives)]
     reads = ordered_reads([f for f, a, w in zip(files, archives, streamed) if not (a or w)], read_processes)
-    for k, path in enumerate(files):
-        if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
-            from ..errors import LumevalError
+    try:
+        for k, path in enumerate(files):
+            if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
+                from ..errors import LumevalError
 
-            flush()  # samples stay in input order
-            try:
-                for s, meta, bad in archive_batches(path, batch_spectra):
+                flush()  # samples stay in input order
+                try:
+                    for s, meta, bad in archive_batches(path, batch_spectra):
+                        unreadable.extend(bad)
+                        if s is not None:
+                            s = unique_names(s, seen_names)
+                            if not read_paths or read_paths[-1] != path:
+                                read_paths.append(path)
+                            done += len(s)
+                            consume(s, meta)
+                except LumevalError as exc:
+                    unreadable.append(Unreadable(path, exc.message))
+            else:  # read whole (in input order, maybe by workers), or a big text file in column blocks
+                for s, bad in (stream_blocks(path, batch_spectra) if streamed[k] else (next(reads),)):
                     unreadable.extend(bad)
                     if s is not None:
                         s = unique_names(s, seen_names)
                         if not read_paths or read_paths[-1] != path:
                             read_paths.append(path)
+                        pending.append(s)
+                        pending_n += len(s)
                         done += len(s)
-                        consume(s, meta)
-            except LumevalError as exc:
-                unreadable.append(Unreadable(path, exc.message))
-        else:  # read whole (in input order, maybe by workers), or a big text file in column blocks
-            for s, bad in (stream_blocks(path, batch_spectra) if streamed[k] else (next(reads),)):
-                unreadable.extend(bad)
-                if s is not None:
-                    s = unique_names(s, seen_names)
-                    if not read_paths or read_paths[-1] != path:
-                        read_paths.append(path)
-                    pending.append(s)
-                    pending_n += len(s)
-                    done += len(s)
-                if pending_n >= batch_spectra:
-                    flush()
-        report(progress, READING, k + 1, len(files))
-    reads.close()  # stops the worker processes, if any
-    flush()
+                    if pending_n >= batch_spectra:
+                        flush()
+            report(progress, READING, k + 1, len(files))
+        reads.close()  # stops the reading workers, if any
+        flush()
+        evaluator.close()  # the last results, in order; stops the evaluating workers
+    finally:
+        reads.close()
+        evaluator.terminate()
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
                       ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,
                       read_paths=tuple(read_paths))
+
+
+def _batches(pending: list, batch_spectra: int):
+    """Lists of sets of at most ``batch_spectra`` samples, in order: one evaluation per batch
+    (the engine groups the files by computation grid, each spectrum on its own grid, and returns
+    the samples in file order); a wide file read whole is cut into batches (for the workers)."""
+    part: list = []
+    n = 0
+    for s in pending:
+        for a in range(0, len(s), batch_spectra) if len(s) > batch_spectra else (0,):
+            piece = s if len(s) <= batch_spectra else s.subset(list(range(a, min(len(s), a + batch_spectra))))
+            if part and n + len(piece) > batch_spectra:
+                yield part
+                part, n = [], 0
+            part.append(piece)
+            n += len(piece)
+    if part:
+        yield part
 
 
 def _expected_samples(files: list[str], archives: list[bool]) -> int:

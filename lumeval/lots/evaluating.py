@@ -1,0 +1,117 @@
+"""The evaluating side of a lot run: batches evaluated here or in worker processes, their
+results taken in input order.
+
+:class:`BatchEvaluator` receives the lot's batches as they are read (prepared spectra, and an
+archive's metadata) and gives each :class:`~lumeval.lots.streaming.BatchResult` to the lot, in
+the order the batches came, whether they are evaluated here or by a pool of worker processes
+(forked on Linux, like the reading workers of :mod:`lumeval.lots.reading`). With workers, this
+process goes on reading while the batches are evaluated, and the evaluation itself uses every
+core. Each batch is evaluated by the same function (:func:`~lumeval.lots.streaming.evaluate_batch`)
+on the same spectra, so the per-sample figures, verdicts and warnings are those of a serial run
+(figures within the floating-point noise of another process's BLAS, as a Dask run's are).
+
+The pool is started only when a second batch comes (a lot of one batch never pays for it), and
+at most :data:`IN_FLIGHT_PER_PROCESS` batches per worker wait for their results, so memory stays
+bounded: a few batches of spectra, whatever the lot's size. Runs that keep every evaluation for
+a report (``keep_evaluation``) or decide under measurement uncertainty (whose Monte Carlo draws
+follow the sample index through the batches) are evaluated here.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from collections.abc import Callable
+from typing import Any
+
+#: Batches waiting per worker process (bounds the spectra in memory at once).
+IN_FLIGHT_PER_PROCESS = 2
+
+
+def _evaluate(args: tuple) -> Any:
+    from .streaming import evaluate_batch
+
+    spectra, sample_criteria, offset, metadata = args
+    return evaluate_batch(spectra, sample_criteria, None, offset=offset, metadata=metadata)
+
+
+class BatchEvaluator:
+    """Evaluate a lot's batches in order (see the module docstring).
+
+    Parameters
+    ----------
+    processes : int
+        Worker processes (1 or less: every batch is evaluated here, as it comes).
+    sample_criteria, uncertainty, keep_evaluation
+        As :func:`lumeval.lots.streaming.evaluate_batch` takes them.
+    on_result : callable(BatchResult)
+        Called with each batch's result, in the order of :meth:`submit`.
+    progress : callable(offset, total) -> listener or None
+        The listener a batch evaluated here reports its chunks to (``offset``: samples before
+        it); batches evaluated by workers are reported whole by ``on_result``'s caller.
+    """
+
+    def __init__(self, processes: int, sample_criteria, uncertainty, keep_evaluation: bool,
+                 on_result: Callable[[Any], None], progress: Callable[[int], Any] | None = None) -> None:
+        active = uncertainty is not None and getattr(uncertainty, "active", False)
+        self.processes = 1 if (keep_evaluation or active) else max(1, int(processes))
+        self.sample_criteria = sample_criteria
+        self.uncertainty = uncertainty
+        self.keep_evaluation = keep_evaluation
+        self.on_result = on_result
+        self.progress = progress
+        self._held: tuple | None = None
+        self._pool: Any = None
+        self._waiting: deque = deque()
+        self._submitted = 0  # samples submitted so far (the offset of the next batch)
+
+    def submit(self, spectra, metadata=None) -> None:
+        """Evaluate one batch (prepared spectra: a set or a list of sets)."""
+        offset = self._submitted
+        self._submitted += sum(len(s) for s in spectra) if isinstance(spectra, list) else len(spectra)
+        job = (spectra, self.sample_criteria, offset, metadata)
+        if self.processes <= 1:
+            self._here(job)
+            return
+        if self._pool is None and self._held is None:
+            self._held = job  # the pool is started only for a second batch
+            return
+        if self._pool is None:
+            from .reading import _pool
+
+            self._pool = _pool(self.processes)
+            held, self._held = self._held, None
+            if held is not None:
+                self._send(held)
+        self._send(job)
+
+    def _here(self, job: tuple) -> None:
+        from .streaming import evaluate_batch
+
+        spectra, crit, offset, metadata = job
+        listener = self.progress(offset) if self.progress is not None else None
+        self.on_result(evaluate_batch(spectra, crit, self.uncertainty, offset=offset, metadata=metadata,
+                                      keep_evaluation=self.keep_evaluation, progress=listener))
+
+    def _send(self, job: tuple) -> None:
+        self._waiting.append(self._pool.apply_async(_evaluate, (job,)))
+        while len(self._waiting) > IN_FLIGHT_PER_PROCESS * self.processes:
+            self.on_result(self._waiting.popleft().get())
+
+    def close(self) -> None:
+        """Evaluate what is held, wait for every result (in order) and stop the workers."""
+        try:
+            if self._held is not None:
+                held, self._held = self._held, None
+                self._here(held)
+            while self._waiting:
+                self.on_result(self._waiting.popleft().get())
+        finally:
+            self.terminate()
+
+    def terminate(self) -> None:
+        """Stop the workers at once (results not yet taken are dropped)."""
+        self._waiting.clear()
+        if self._pool is not None:
+            self._pool.terminate()
+            self._pool.join()
+            self._pool = None

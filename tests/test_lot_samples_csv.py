@@ -20,7 +20,7 @@ import pytest
 
 from lumeval.commands.lot import run_lot
 from lumeval.render import lot_report
-from lumeval.render.lot_report import csv_columns, samples_csv
+from lumeval.render.lot_report import _csv_value, csv_columns, samples_csv
 from lumeval.render.safe import csv_first_cell, csv_text
 from lumeval.render.tables import csv_notes
 from lumeval.spectra.model import SpectrumSet
@@ -41,16 +41,6 @@ def _number(v) -> str:
     return repr(f) if math.isfinite(f) else ""
 
 
-def _meta(v) -> str:
-    if v is None:
-        return ""
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, (int, float)):
-        return repr(v) if math.isfinite(v) else ""
-    return csv_text(v)
-
-
 def _oracle(run) -> str:
     """The per-sample CSV cell by cell through csv.writer."""
     buf = io.StringIO()
@@ -60,7 +50,7 @@ def _oracle(run) -> str:
     meta = [] if run.metadata is None else [run.metadata.column(c).to_pylist() for c in run.metadata.column_names]
     verdicts = run.sample_verdicts
     for i in range(len(run)):
-        row = [csv_first_cell(run.names[i]), csv_text(run.sources[i]), *(_meta(m[i]) for m in meta),
+        row = [csv_first_cell(run.names[i]), csv_text(run.sources[i]), *(_csv_value(m[i]) for m in meta),
                verdicts[i] if verdicts is not None else "", "yes" if st.outlier[i] else "no",
                csv_text(" | ".join(st.outlier_reasons[i])), _number(st.d_upvp_centroid[i]), _number(st.steps_centroid[i]),
                _number(None if st.d_upvp_nominal is None else st.d_upvp_nominal[i]),

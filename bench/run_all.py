@@ -10,8 +10,8 @@ memory").
    agreement printed).
 2. **lot end to end**, each as a child process ``python -m lumeval lot INPUT --quiet
    --samples-csv|--samples-parquet OUT`` (reading, preparing, evaluating, lot statistics,
-   writing the per-sample table), with wall time, CPU time (``os.wait4``) and the child's peak
-   resident memory (its VmHWM, polled; see :func:`run_child`):
+   writing the per-sample table), with wall time, CPU time (``os.wait4``, workers included) and the peak resident
+   memory of the child and its worker processes (polled; see :func:`run_child`):
    * a wide CSV of 20,000 spectra at 1 nm (one file, 380-780 nm; about 113 MB);
    * a folder of 10,000 single-spectrum CSV files at 1 nm;
    * a Parquet archive of 1,000,000 spectra at 5 nm (the peak-memory target).
@@ -103,25 +103,54 @@ def write_folder(folder: Path, n: int) -> None:
             (folder / f"module_{start + j:06d}.csv").write_text("wavelength_nm,relative_power\n" + lines + "\n")
 
 
-def _hwm_mb(pid: int) -> float:
-    """The process's peak resident memory so far (VmHWM, Linux), MB; 0 when unreadable."""
+def _status_mb(pid: int, key: str) -> float:
+    """A memory line of the process's /proc status (``VmHWM``, ``VmRSS``; Linux), MB; 0 when unreadable."""
     try:
         with open(f"/proc/{pid}/status") as f:
             for line in f:
-                if line.startswith("VmHWM:"):
+                if line.startswith(key + ":"):
                     return int(line.split()[1]) / 1024
     except OSError:
         pass
     return 0.0
 
 
+def _hwm_mb(pid: int) -> float:
+    """The process's peak resident memory so far (VmHWM, Linux), MB; 0 when unreadable."""
+    return _status_mb(pid, "VmHWM")
+
+
+def _descendants(pid: int) -> list[int]:
+    """The process's children, their children and so on (Linux /proc; [] when unreadable)."""
+    out, todo = [], [pid]
+    while todo:
+        p = todo.pop()
+        try:
+            tasks = os.listdir(f"/proc/{p}/task")
+        except OSError:
+            continue
+        for t in tasks:
+            try:
+                with open(f"/proc/{p}/task/{t}/children") as f:
+                    kids = [int(k) for k in f.read().split()]
+            except (OSError, ValueError):
+                continue
+            out += kids
+            todo += kids
+    return out
+
+
 def run_child(args: list[str]) -> tuple[float, float, float, int]:
     """(wall s, CPU s, peak RSS MB, exit code) of ``python -m lumeval ARGS`` as a child process.
 
-    The peak is the child's own high-water mark (VmHWM), read every 50 ms until it exits: the
-    child's ``ru_maxrss`` is not used, because a child started by vfork (as subprocess does)
-    also reports this parent's peak, and this parent held the engine's spectra. A peak in the
-    last 50 ms of a run could be missed (the outputs are written and closed by then)."""
+    The CPU time is the child's and its worker processes' (``os.wait4``: the workers are
+    waited for by the child). The peak memory counts the worker processes too: every 50 ms the
+    resident memory (VmRSS) of the child and of all its descendants is summed, and the figure
+    is the larger of the highest such sum and the child's own high-water mark (VmHWM). The sum
+    counts pages that forked workers share with the child once per process, so it is an upper
+    bound of the memory in use; a peak between two polls could be missed. The child's
+    ``ru_maxrss`` is not used, because a child started by vfork (as subprocess does) also
+    reports this parent's peak, and this parent held the engine's spectra."""
     import subprocess
 
     repo = BENCH.parent
@@ -130,7 +159,8 @@ def run_child(args: list[str]) -> tuple[float, float, float, int]:
                          stderr=subprocess.PIPE, env={**os.environ, "PYTHONPATH": str(repo)})
     peak = 0.0
     while True:
-        peak = max(peak, _hwm_mb(p.pid))
+        tree = _status_mb(p.pid, "VmRSS") + sum(_status_mb(k, "VmRSS") for k in _descendants(p.pid))
+        peak = max(peak, _hwm_mb(p.pid), tree)
         pid, status, ru = os.wait4(p.pid, os.WNOHANG)
         if pid:
             break

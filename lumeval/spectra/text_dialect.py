@@ -196,14 +196,22 @@ def _is_comment(s: str) -> bool:
     return s.startswith(_COMMENT_PREFIXES)
 
 
+def _could_be_row(c0: str) -> bool:
+    """The first character of a line that could be a row of numbers (a digit, a sign or a point)."""
+    return c0.isdigit() or (c0 != "" and c0 in "+-.")
+
+
 def _choose_delimiter(lines: list[tuple[int, str]], memo: _RowMemo | None = None) -> tuple[str | None, int]:
     memo = memo if memo is not None else _RowMemo()
     best, best_score = None, -1
+    # the lines that could be rows of numbers (the others score for no delimiter)
+    rows = [s for _, s in lines if not _is_comment(s) and _could_be_row(s.lstrip('"')[:1])]
     for d in _DELIMITERS:
         score = 0
-        for _, s in lines:
-            c0 = s.lstrip('"')[:1]
-            if _is_comment(s) or not (c0.isdigit() or (c0 and c0 in "+-.")):
+        for s in rows:
+            # a line without the delimiter is one cell (a line is stripped: without inner white
+            # space it is one cell for the white-space delimiter): it cannot score
+            if (d not in s) if d is not None else not _ANY_SPACE.search(s):
                 continue
             cells = memo.split(s, d)
             if len(cells) >= 2 and memo.all_numbers(cells, d != ","):

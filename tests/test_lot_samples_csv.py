@@ -108,6 +108,25 @@ def test_samples_csv_blocks_join_seamlessly(tmp_path, monkeypatch):
     assert samples_csv(run, out) is None and out.getvalue() == whole
 
 
+@pytest.mark.skipif(not __import__("lumeval._workers", fromlist=["x"]).fork_available(),
+                    reason="blocks are formatted by forked workers on Linux only")
+def test_samples_csv_blocks_formatted_by_workers(tmp_path, monkeypatch):
+    """Blocks formatted by two forked worker processes (three rows each, in order) give the
+    same file as this process alone and as csv.writer; one process asks for no pool."""
+    import lumeval._workers as workers
+
+    run = run_lot([_archive(tmp_path)], _criteria(tmp_path))
+    monkeypatch.setattr(lot_report, "_CSV_ROWS", 3)
+    started = []
+    real = workers.worker_pool
+    monkeypatch.setattr(workers, "worker_pool", lambda n: started.append(n) or real(n))
+    assert samples_csv(run, processes=1) == _oracle(run) and started == []
+    out = io.StringIO()
+    assert samples_csv(run, out, processes=2) is None
+    assert started == [2] and out.getvalue() == _oracle(run)
+    assert lot_report._FORKED_RUN is None  # not kept after the workers were forked
+
+
 def test_samples_csv_reads_back_every_figure_exactly(tmp_path):
     run = run_lot([_archive(tmp_path)], _criteria(tmp_path))
     rows = [r for r in csv.reader(io.StringIO(samples_csv(run))) if r and not r[0].startswith("#")]

@@ -190,7 +190,7 @@ def register(app: typer.Typer) -> None:
                       keep_evaluation=report, scheduler=scheduler, workers=workers,
                       **({} if processes is None else {"read_processes": processes, "evaluate_processes": processes}))
             if samples_csv is not None:
-                _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f), "--samples-csv")
+                _write_atomic(samples_csv, lambda f: lot_report.samples_csv(run, f, processes), "--samples-csv")
                 announce("per-sample CSV", samples_csv)
             if json_file is not None:
                 _write_atomic(json_file, lambda f: lot_report.lot_json(run, f), "--json")

@@ -31,11 +31,9 @@ FILES_PER_TASK = 32
 
 def default_read_processes() -> int:
     """Worker processes for reading: one per core the process may use, but at least 1."""
-    try:
-        n = len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):  # pragma: no cover - not Linux
-        n = os.cpu_count() or 1
-    return max(1, n)
+    from .._workers import default_processes
+
+    return default_processes()
 
 
 def _read_one(path: str):
@@ -45,33 +43,10 @@ def _read_one(path: str):
 
 
 def _pool(processes: int):
-    """A pool of ``processes`` workers. On Linux they are forked from this process: they start
-    at once with everything imported, and the caller's script is not run again in them (the
-    ``spawn`` and ``forkserver`` methods re-import the main module, which breaks scripts
-    without an ``if __name__ == "__main__":`` guard)."""
-    import multiprocessing as mp
+    """A pool of ``processes`` workers (:func:`lumeval._workers.worker_pool`: forked on Linux)."""
+    from .._workers import worker_pool
 
-    return mp.get_context("fork" if _FORK else "spawn").Pool(processes, initializer=_worker_init)
-
-
-def _worker_init() -> None:
-    """Workers leave Ctrl-C to the main process, which stops them, and end quietly when it
-    terminates them (SIGTERM): they do not keep the command's own signal handlers."""
-    import signal
-
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    for name in ("SIGTERM", "SIGHUP"):
-        if hasattr(signal, name):
-            signal.signal(getattr(signal, name), signal.SIG_DFL)
-    # One BLAS thread per worker: the workers already use every core, and several multi-threaded
-    # BLAS pools on the same cores spin against each other (measured: a 20,000-spectrum lot took
-    # longer with two workers than with none until this was set)
-    try:
-        from threadpoolctl import threadpool_limits
-
-        threadpool_limits(1)
-    except Exception:  # pragma: no cover - threadpoolctl missing or no BLAS found: default threads
-        pass
+    return worker_pool(processes)
 
 
 _FORK = sys.platform.startswith("linux")

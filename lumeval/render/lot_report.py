@@ -333,50 +333,104 @@ def _number_cells(block: np.ndarray) -> list[str]:
 _CSV_ROWS = 4096
 
 
-def samples_csv(run, out=None) -> str | None:
+def samples_csv(run, out=None, processes: int | None = None) -> str | None:
     """One row per sample: verdict, outlier flag and reasons, Δu'v' and steps, every figure,
     each per-sample clause's outcome, and the warnings (joined with " | ").
 
     Returns the CSV text, or streams it block by block to the text stream ``out`` (then None),
     so that a large lot is never held in memory as one string. The numbers of a block of rows
     are formatted together (:func:`_number_cells`); the cells are those :mod:`csv`'s writer
-    gives (tests/test_lot_report.py reads the file back with it)."""
+    gives (tests/test_lot_report.py reads the file back with it).
+
+    ``processes``: worker processes formatting blocks of rows (:func:`_block_texts`; None
+    chooses: one per core on Linux for a lot of two blocks or more, else none; 1: this process
+    only). The text is the same whatever the number."""
     t = csv_text
     buf = io.StringIO() if out is None else out
     w = csv.writer(buf, lineterminator="\n")
     w.writerow([t(c) for c in csv_columns(run)])
+    for text in _block_texts(run, len(run), processes):
+        buf.write(text)
+    buf.write(csv_notes())  # the cautions as the last rows (docs/output-formats.md, "CSV")
+    return buf.getvalue() if out is None else None
+
+
+def _block_text(run, i: int, j: int) -> str:
+    """The CSV rows of samples ``i:j`` (each ending with a line break)."""
+    t = csv_text
     st = run.stats
-    n = len(run)
     verdicts = run.sample_verdicts
     from ..lots.columns import figure_rows
 
-    def stat_block(a, i: int, j: int) -> np.ndarray:
+    def stat_block(a) -> np.ndarray:
         if a is None:
             return np.full((j - i, 1), np.nan)
         return np.asarray(a[i:j], dtype=float).reshape(-1, 1)
 
-    for i in range(0, n, _CSV_ROWS):
-        j = min(n, i + _CSV_ROWS)
-        # figures and metadata a block of rows at a time (a lot may keep them on disk)
-        stats_txt = _number_cells(np.hstack([stat_block(st.d_upvp_centroid, i, j), stat_block(st.steps_centroid, i, j),
-                                             stat_block(st.d_upvp_nominal, i, j), stat_block(st.steps_nominal, i, j)]))
-        figs_txt = _number_cells(figure_rows(run.figures, i, i + _CSV_ROWS)[: j - i])
-        meta = [[_quoted(_csv_value(v)) for v in vals] for _, vals in _metadata_values(run, i, j - i)]
-        outlier = np.asarray(st.outlier[i:j], dtype=bool).tolist()
-        outcomes = [r.outcome[i:j] for r in run.check.results] if run.check is not None else []
-        lines = []
-        for k in range(j - i):
-            s = i + k
-            row = [_quoted(csv_first_cell(run.names[s])), _quoted(t(run.sources[s]))]
-            row += [m[k] for m in meta]
-            row += [verdicts[s] if verdicts is not None else "", "yes" if outlier[k] else "no",
-                    _quoted(t(" | ".join(st.outlier_reasons[s]))), stats_txt[k], figs_txt[k]]
-            row += [o[k] for o in outcomes]
-            row.append(_quoted(t(" | ".join(run.warnings[s]))))
-            lines.append(",".join(row))
-        buf.write("\n".join(lines) + "\n" if lines else "")
-    buf.write(csv_notes())  # the cautions as the last rows (docs/output-formats.md, "CSV")
-    return buf.getvalue() if out is None else None
+    # figures and metadata a block of rows at a time (a lot may keep them on disk)
+    stats_txt = _number_cells(np.hstack([stat_block(st.d_upvp_centroid), stat_block(st.steps_centroid),
+                                         stat_block(st.d_upvp_nominal), stat_block(st.steps_nominal)]))
+    figs_txt = _number_cells(figure_rows(run.figures, i, j)[: j - i])
+    meta = [[_quoted(_csv_value(v)) for v in vals] for _, vals in _metadata_values(run, i, j - i)]
+    outlier = np.asarray(st.outlier[i:j], dtype=bool).tolist()
+    outcomes = [r.outcome[i:j] for r in run.check.results] if run.check is not None else []
+    lines = []
+    for k in range(j - i):
+        s = i + k
+        row = [_quoted(csv_first_cell(run.names[s])), _quoted(t(run.sources[s]))]
+        row += [m[k] for m in meta]
+        row += [verdicts[s] if verdicts is not None else "", "yes" if outlier[k] else "no",
+                _quoted(t(" | ".join(st.outlier_reasons[s]))), stats_txt[k], figs_txt[k]]
+        row += [o[k] for o in outcomes]
+        row.append(_quoted(t(" | ".join(run.warnings[s]))))
+        lines.append(",".join(row))
+    return "\n".join(lines) + "\n" if lines else ""
+
+
+#: The lot whose CSV blocks forked workers format (set only while their pool is being forked).
+_FORKED_RUN: Any = None
+
+
+def _forked_block(span: tuple[int, int]) -> str:
+    return _block_text(_FORKED_RUN, *span)
+
+
+def _block_texts(run, n: int, processes: int | None):
+    """The CSV text of each block of :data:`_CSV_ROWS` rows, in order, formatted here or by
+    worker processes forked with the lot in memory (:mod:`lumeval._workers`; each is given only
+    its rows' range and returns its text, at most two blocks per worker waiting): the
+    formatting of the numbers is most of the time of a large lot's CSV."""
+    from .._workers import default_processes, fork_available, in_worker, worker_pool
+
+    spans = [(i, min(n, i + _CSV_ROWS)) for i in range(0, n, _CSV_ROWS)]
+    if processes is None:
+        processes = default_processes()
+    if processes <= 1 or len(spans) < 2 or not fork_available() or in_worker():
+        for i, j in spans:
+            yield _block_text(run, i, j)
+        return
+    # smaller blocks for the workers: a few large ones would leave a worker idle at the end
+    step = max(1, min(_CSV_ROWS, -(-n // (8 * processes))))
+    spans = [(i, min(n, i + step)) for i in range(0, n, step)]
+    from collections import deque
+
+    global _FORKED_RUN
+    _FORKED_RUN = run
+    try:
+        pool = worker_pool(min(processes, len(spans)))
+    finally:
+        _FORKED_RUN = None
+    try:
+        waiting: deque = deque()
+        for span in spans:
+            waiting.append(pool.apply_async(_forked_block, (span,)))
+            while len(waiting) > 2 * processes:
+                yield waiting.popleft().get()
+        while waiting:
+            yield waiting.popleft().get()
+    finally:
+        pool.terminate()
+        pool.join()
 
 
 # --------------------------------------------------------------------------- terminal

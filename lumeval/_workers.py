@@ -1,0 +1,67 @@
+"""Worker processes on this machine: one place for how they are started.
+
+Lots read files, evaluate batches and format their per-sample CSV in worker processes
+(:mod:`lumeval.lots.reading`, :mod:`lumeval.lots.evaluating`,
+:func:`lumeval.render.lot_report.samples_csv`). On Linux the workers are forked from this
+process: they start at once with everything imported and with this process's data (a lot's
+figures, for instance) already in memory, and the caller's script is not run again in them (the
+``spawn`` and ``forkserver`` methods re-import the main module, which breaks scripts without an
+``if __name__ == "__main__":`` guard). Elsewhere work is done in this process unless parallel
+work is asked for.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+
+_FORK = sys.platform.startswith("linux")
+
+
+def fork_available() -> bool:
+    """True where worker processes are forked (Linux): lots then use them unless told otherwise."""
+    return _FORK
+
+
+def default_processes() -> int:
+    """Worker processes: one per core the process may use, but at least 1."""
+    try:
+        n = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        n = os.cpu_count() or 1
+    return max(1, n)
+
+
+def in_worker() -> bool:
+    """True inside a worker process of a pool (which may not start workers of its own)."""
+    import multiprocessing as mp
+
+    return bool(mp.current_process().daemon)
+
+
+def worker_pool(processes: int):
+    """A ``multiprocessing`` pool of ``processes`` workers (forked on Linux, see the module
+    docstring), each with :func:`worker_init` run first."""
+    import multiprocessing as mp
+
+    return mp.get_context("fork" if _FORK else "spawn").Pool(processes, initializer=worker_init)
+
+
+def worker_init() -> None:
+    """Workers leave Ctrl-C to the main process, which stops them, and end quietly when it
+    terminates them (SIGTERM): they do not keep the command's own signal handlers."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    for name in ("SIGTERM", "SIGHUP"):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), signal.SIG_DFL)
+    # One BLAS thread per worker: the workers already use every core, and several multi-threaded
+    # BLAS pools on the same cores spin against each other (measured: a 20,000-spectrum lot took
+    # longer with two workers than with none until this was set)
+    try:
+        from threadpoolctl import threadpool_limits
+
+        threadpool_limits(1)
+    except Exception:  # pragma: no cover - threadpoolctl missing or no BLAS found: default threads
+        pass

@@ -71,3 +71,26 @@ def test_parallel_reading_is_automatic_only_for_many_files(monkeypatch):
     with pytest.raises(RuntimeError):
         list(reading.ordered_reads(["x"] * reading.PARALLEL_MIN_FILES, None))
     assert started and started[0] >= 1
+
+
+@pytest.mark.skipif(not reading._FORK, reason="large blocks are converted by forked processes on Linux only")
+def test_a_large_file_read_here_is_converted_by_forked_processes_unless_one_is_asked(tmp_path, monkeypatch):
+    """A wide file's data block: converted by forked children when the processes are left to
+    choose, in this process only with processes=1 (lot --processes 1); same spectra either way."""
+    from lumeval.spectra import text_fast
+
+    wl = np.arange(380, 781, 5)
+    rows = "".join(f"{w}," + ",".join(f"{1 + 0.001 * w * (k + 1):.6f}" for k in range(30)) + "\n" for w in wl)
+    f = tmp_path / "wide.csv"
+    f.write_text("wavelength," + ",".join(f"M{k}" for k in range(30)) + "\n" + rows, encoding="utf-8")
+    monkeypatch.setattr(text_fast, "PARALLEL_BYTES", 1024)
+    calls = []
+    real = text_fast._forked_loadtxt
+    monkeypatch.setattr(text_fast, "_forked_loadtxt", lambda *a: calls.append(a[-1]) or real(*a))
+    (one, bad1), = reading.ordered_reads([str(f)], processes=1)
+    assert calls == []
+    (auto, bad2), = reading.ordered_reads([str(f)], processes=None)
+    k = reading.default_read_processes()
+    assert calls == ([] if k == 1 else [min(k, wl.size)])  # one core: converted here
+    assert bad1 == bad2 == [] and one.names == auto.names
+    np.testing.assert_array_equal(one.values, auto.values)  # the same numpy call on the same cells

@@ -190,3 +190,68 @@ def test_numpy_text_parser_equals_python_float():
     np.testing.assert_array_equal(got[:, 1], want[finite])
     comma = F.convert_block(text.replace(",", ";").replace(".", ","), ";", True, len(cells), 2)
     np.testing.assert_array_equal(comma[:, 1], want[finite])
+
+
+# --- large blocks converted by forked processes (lumeval.spectra.text_fast._forked_loadtxt)
+
+_FORKS = pytest.mark.skipif(not __import__("lumeval._workers", fromlist=["x"]).fork_available(),
+                            reason="large blocks are converted by forked processes on Linux only")
+
+
+@pytest.fixture
+def forked(monkeypatch):
+    """Every block over 64 bytes converted by three processes; the calls counted."""
+    calls = []
+    real = F._forked_loadtxt
+    monkeypatch.setattr(F, "PARALLEL_BYTES", 64)
+    monkeypatch.setattr(F, "_forked_loadtxt", lambda *a: calls.append(a[-1]) or real(*a))
+    with F.parse_processes(3):
+        yield calls
+
+
+@_FORKS
+def test_forked_conversion_equals_python_float(forked):
+    """The pieces converted by forked children give float(cell) exactly, row for row
+    (reference: Python's correctly rounded float(); the same numpy call on the same cells)."""
+    rng = random.Random(5)
+    cells = [f"{rng.uniform(-1e3, 1e3):.{rng.randint(0, 17)}f}" for _ in range(5_000)]
+    text = "\n".join(f"{380 + i},{c},{c}e-3" for i, c in enumerate(cells))
+    got = F.convert_block(text, ",", False, len(cells), 3)
+    assert forked == [3] and got is not None
+    np.testing.assert_array_equal(got[:, 0], 380.0 + np.arange(len(cells)))
+    np.testing.assert_array_equal(got[:, 1], [float(c) for c in cells])
+    np.testing.assert_array_equal(got[:, 2], [float(c + "e-3") for c in cells])
+
+
+@_FORKS
+@pytest.mark.parametrize("where", [0.1, 0.5, 0.9])
+@pytest.mark.parametrize("fault", ["bad cell", "short row", "long row", "too large"])
+def test_forked_conversion_gives_up_on_a_fault_in_any_piece(forked, where, fault):
+    """A fault in the first, middle or last piece: the conversion gives up (None), so the
+    line-by-line path reads the file and its message is the one a serial read gives."""
+    rows = [f"{380 + k},{k / 7:.5f},{k / 3:.4f}" for k in range(300)]
+    k = int(where * len(rows))
+    rows[k] = {"bad cell": f"{380 + k},1-2,3", "short row": f"{380 + k},1", "long row": f"{380 + k},1,2,3",
+               "too large": f"{380 + k},1e999,3"}[fault]
+    assert F.convert_block("\n".join(rows), ",", False, len(rows), 3) is None
+    assert forked == [3]
+    _assert_same("wl,S,T\n" + "\n".join(rows) + "\n")
+
+
+@_FORKS
+def test_forked_conversion_through_the_reader(forked):
+    """Dialect files read by both paths with the forked conversion on: the same spectra."""
+    for delim, dc in DIALECTS:
+        text = _dialect_file(delim, dc, header="units", cols=40, rows=401)
+        s = _assert_same(text)
+        assert s is not None and s.values.shape == (40, 401)
+    assert len(forked) == len(DIALECTS)
+
+
+def test_one_process_converts_here(monkeypatch):
+    """parse_processes(1) (lot --processes 1): no child, whatever the size."""
+    monkeypatch.setattr(F, "PARALLEL_BYTES", 64)
+    monkeypatch.setattr(F, "_forked_loadtxt", lambda *a: pytest.fail("forked with one process"))
+    with F.parse_processes(1):
+        got = F.convert_block("\n".join(f"{380 + k},{k}" for k in range(100)), ",", False, 100, 2)
+    np.testing.assert_array_equal(got[:, 1], np.arange(100.0))

@@ -67,14 +67,22 @@ def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generat
         Files to read whole (not Parquet archives, which stream in batches).
     processes : int, optional
         Worker processes: None chooses (:func:`default_read_processes` from
-        :data:`PARALLEL_MIN_FILES` files on, else none); 0 or 1 reads here, one file after
-        the other.
+        :data:`PARALLEL_MIN_FILES` files on, else none; a large file read here has its data
+        block converted by forked processes, :func:`lumeval.spectra.text_fast.parse_processes`);
+        0 or 1 reads here, one file after the other, in this process only.
     """
+    asked = processes
     if processes is None:
         processes = default_read_processes() if _FORK and len(paths) >= PARALLEL_MIN_FILES else 1
     if processes <= 1 or len(paths) < 2:
+        from ..spectra.text_fast import parse_processes
+
+        # read here: a large file's data block may be converted by forked processes, unless one
+        # process was asked for (the context is set around each read only, not across a yield)
         for p in paths:
-            yield _read_one(p)
+            with parse_processes(1 if asked is not None and asked <= 1 else None):
+                got = _read_one(p)
+            yield got
         return
     pool = _pool(processes)
     try:

@@ -93,6 +93,36 @@ def test_max_pairwise_distance_equals_all_pairs(n):
     assert lot.max_pairwise_distance_bruteforce(P, chunk=97) == pytest.approx(ref, rel=1e-12)
 
 
+@pytest.mark.parametrize("shape", ["cloud", "circle", "square grid", "two clusters"])
+def test_max_pairwise_distance_large_sets_against_scipy_hull(shape, monkeypatch):
+    """20,000 points: after the octagon filter the pairs are compared directly ("cloud", "two
+    clusters"), or through Qhull when many points are left ("circle": all 20,000 on the hull;
+    "square grid": hull points on the octagon's edges, ties). Reference: scipy's ConvexHull
+    and pdist over its vertices (an independent library; the diameter is a hull-vertex pair)."""
+    from scipy.spatial import ConvexHull
+
+    rng = np.random.default_rng(7)
+    n = 20_000
+    if shape == "cloud":
+        P = 0.2 + rng.normal(size=(n, 2)) * [0.002, 0.001]
+    elif shape == "circle":
+        t = rng.uniform(0, 2 * np.pi, n)
+        P = np.column_stack([0.3 + 0.01 * np.cos(t), 0.4 + 0.01 * np.sin(t)])
+    elif shape == "square grid":
+        g = np.arange(142) * 1e-4
+        P = np.array([(a, b) for a in g for b in g])[:n]
+    else:
+        P = np.vstack([rng.normal(size=(n // 2, 2)) * 1e-4 + [0.2, 0.5], rng.normal(size=(n // 2, 2)) * 1e-4 + [0.25, 0.45]])
+    P = P[rng.permutation(P.shape[0])]
+    hull = []
+    monkeypatch.setattr(lot, "_hull_vertices", lambda Q, real=lot._hull_vertices: hull.append(1) or real(Q))
+    d, i, j = lot.max_pairwise_distance(P)
+    ref = pdist(P[ConvexHull(P).vertices]).max()
+    assert d == pytest.approx(ref, rel=1e-12)
+    assert np.linalg.norm(P[i] - P[j]) == pytest.approx(ref, rel=1e-12)
+    assert bool(hull) == (shape == "circle")  # the filter leaves few points except on a circle
+
+
 def test_max_pairwise_degenerate_sets():
     # collinear points (Qhull refuses them): exact extreme pair
     t = np.linspace(0.0, 1.0, 40)

@@ -272,8 +272,12 @@ def max_pairwise_distance(points) -> tuple[float, int, int]:
     """Largest Euclidean distance between any two of N points, exactly, in O(N log N).
 
     The maximum is attained between two vertices of the convex hull (Preparata & Shamos 1985,
-    §4.2.3), so only hull vertices are compared (scipy.spatial.ConvexHull, Qhull). Points with
-    a non-finite coordinate are ignored.
+    §4.2.3), so only points that may be hull vertices are compared: first every point strictly
+    inside the octagon of the extreme points in eight directions is set aside (it cannot be a
+    hull vertex: the Akl-Toussaint heuristic, Akl & Toussaint 1978); when at most
+    :data:`BRUTE_FORCE_POINTS` remain, all their pairs are compared, else their convex hull is
+    computed first (scipy.spatial.ConvexHull, Qhull). Points with a non-finite coordinate are
+    ignored.
 
     Parameters
     ----------
@@ -292,12 +296,42 @@ def max_pairwise_distance(points) -> tuple[float, int, int]:
     if idx.size == 1:
         return 0.0, int(idx[0]), int(idx[0])
     Q = P[idx]
-    cand = _hull_vertices(Q)
+    outer = _outside_octagon(Q)
+    # few points left: every pair of them, no hull needed
+    cand = outer if outer.size <= BRUTE_FORCE_POINTS else outer[_hull_vertices(Q[outer])]
     C = Q[cand]
     d2 = ((C[:, None, :] - C[None, :, :]) ** 2).sum(-1)
     a, b = np.unravel_index(int(np.argmax(d2)), d2.shape)
     i, j = sorted((int(idx[cand[a]]), int(idx[cand[b]])))
     return float(np.sqrt(d2[a, b])), i, j
+
+
+#: Points compared pair by pair without a convex hull (a 1,500 x 1,500 distance table: 18 MB).
+BRUTE_FORCE_POINTS = 1500
+
+
+def _outside_octagon(Q: np.ndarray) -> np.ndarray:
+    """Indices of the points of ``Q`` (N, 2) that are not strictly inside the convex octagon
+    whose corners are the extreme points along x, y, x + y and x - y (in counter-clockwise
+    order), with a margin of rounding: every hull vertex is among them. Repeated corners are
+    one corner; a degenerate octagon (a line, a point) keeps every point."""
+    x, y = Q[:, 0], Q[:, 1]
+    s, d = x + y, x - y
+    corners = Q[[int(np.argmin(y)), int(np.argmax(d)), int(np.argmax(x)), int(np.argmax(s)),
+                 int(np.argmax(y)), int(np.argmin(d)), int(np.argmin(x)), int(np.argmin(s))]]
+    scale = float(np.max(np.abs(Q - Q.mean(axis=0)))) or 1.0
+    inside = np.ones(Q.shape[0], dtype=bool)
+    edges = 0
+    for a, b in zip(corners, np.roll(corners, -1, axis=0)):
+        e = b - a
+        if not e.any():  # a repeated corner: no edge
+            continue
+        edges += 1
+        # > 0: left of the edge a -> b (inside for a counter-clockwise polygon), beyond rounding
+        inside &= e[0] * (y - a[1]) - e[1] * (x - a[0]) > 1e-9 * scale * scale
+    if edges < 3:  # a line or a point: no inside
+        return np.arange(Q.shape[0])
+    return np.flatnonzero(~inside)
 
 
 def _hull_vertices(Q: np.ndarray) -> np.ndarray:

@@ -94,3 +94,29 @@ def test_a_large_file_read_here_is_converted_by_forked_processes_unless_one_is_a
     assert calls == ([] if k == 1 else [min(k, wl.size)])  # one core: converted here
     assert bad1 == bad2 == [] and one.names == auto.names
     np.testing.assert_array_equal(one.values, auto.values)  # the same numpy call on the same cells
+
+
+def _logged_read(path):
+    """A stand-in read (forked into the workers): notes the path in a log file, returns it."""
+    with open(path, "a", encoding="utf-8") as f:
+        f.write("r\n")
+    return path, []
+
+
+@pytest.mark.skipif(not reading._FORK, reason="reading workers are forked on Linux")
+def test_reading_workers_read_a_bounded_number_of_files_ahead(tmp_path, monkeypatch):
+    """While the caller holds the first result, the workers read at most the tasks in flight
+    ((TASKS_AHEAD_PER_PROCESS x processes + 1) tasks of FILES_PER_TASK files), not the folder."""
+    import time
+
+    log = tmp_path / "log.txt"
+    log.write_text("", encoding="utf-8")
+    monkeypatch.setattr(reading, "FILES_PER_TASK", 2)
+    monkeypatch.setattr(reading, "_read_one", _logged_read)
+    reads = reading.ordered_reads([str(log)] * 400, processes=2)
+    assert next(reads) == (str(log), [])
+    time.sleep(1.0)  # the workers would go on reading here if nothing bounded them
+    bound = (reading.TASKS_AHEAD_PER_PROCESS * 2 + 1) * 2
+    assert len(log.read_text(encoding="utf-8").split()) <= bound
+    assert sum(1 for _ in reads) == 399  # the rest, in order, when asked for
+    assert len(log.read_text(encoding="utf-8").split()) == 400

@@ -27,6 +27,8 @@ from collections.abc import Generator, Iterator, Sequence
 PARALLEL_MIN_FILES = 200
 #: Files a worker reads per task (fewer round trips; the order of the results is kept).
 FILES_PER_TASK = 32
+#: Tasks read ahead of the caller per worker (bounds the read spectra waiting in memory).
+TASKS_AHEAD_PER_PROCESS = 4
 
 
 def default_read_processes() -> int:
@@ -72,9 +74,8 @@ def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generat
         0 or 1 reads here, one file after the other, in this process only.
     """
     asked = processes
-    if processes is None:
-        processes = default_read_processes() if _FORK and len(paths) >= PARALLEL_MIN_FILES else 1
-    if processes <= 1 or len(paths) < 2:
+    processes = read_processes_for(len(paths), processes)
+    if processes <= 1:
         from ..spectra.text_fast import parse_processes
 
         # read here: a large file's data block may be converted by forked processes, unless one
@@ -84,14 +85,37 @@ def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generat
                 got = _read_one(p)
             yield got
         return
+    from collections import deque
+
     pool = _pool(processes)
     try:
-        # imap keeps the order of paths; results are values (prepared sets and Unreadable
-        # entries), so a bad file is reported exactly as a serial read reports it
-        yield from pool.imap(_read_one, paths, chunksize=FILES_PER_TASK)
+        # tasks of FILES_PER_TASK files, taken in the order of paths; results are values
+        # (prepared sets and Unreadable entries), so a bad file is reported exactly as a serial
+        # read reports it. At most TASKS_AHEAD_PER_PROCESS tasks per worker are read ahead of
+        # the caller (a lot of a million files never waits in memory as read spectra).
+        waiting: deque = deque()
+        for i in range(0, len(paths), FILES_PER_TASK):
+            waiting.append(pool.apply_async(_read_many, (paths[i: i + FILES_PER_TASK],)))
+            while len(waiting) > TASKS_AHEAD_PER_PROCESS * processes:
+                yield from waiting.popleft().get()
+        while waiting:
+            yield from waiting.popleft().get()
     finally:
         pool.terminate()
         pool.join()
+
+
+def read_processes_for(n_files: int, processes: int | None) -> int:
+    """The reading worker processes :func:`ordered_reads` uses for ``n_files`` files (1: read
+    here): ``processes`` when given (at least 1), else :func:`default_read_processes` from
+    :data:`PARALLEL_MIN_FILES` files on where workers are forked, else 1."""
+    if processes is None:
+        processes = default_read_processes() if _FORK and n_files >= PARALLEL_MIN_FILES else 1
+    return 1 if n_files < 2 else max(1, processes)
+
+
+def _read_many(paths: Sequence[str]) -> list:
+    return [_read_one(p) for p in paths]
 
 
 def _stream_bytes() -> int:

@@ -281,10 +281,12 @@ def run_lot(
             sample_criteria = criteria
 
     from .evaluating import BatchEvaluator
-    from .reading import default_read_processes, fork_available
+    from .reading import is_streamed, ordered_reads, stream_blocks
 
-    if evaluate_processes is None:
-        evaluate_processes = default_read_processes() if fork_available() else 1
+    # a text file over the single-file limit is read in column blocks (lumeval.spectra.text_columns)
+    streamed = [not a and is_streamed(f) for f, a in zip(files, archives)]
+    whole = [f for f, a, w in zip(files, archives, streamed) if not (a or w)]
+    evaluate_processes = _evaluating_processes(evaluate_processes, read_processes, len(whole))
 
     def on_result(r) -> None:
         acc.add(r)
@@ -302,11 +304,7 @@ def run_lot(
         pending_n = 0
 
     # files other than archives are read in input order, in worker processes when there are many
-    from .reading import is_streamed, ordered_reads, stream_blocks
-
-    # a text file over the single-file limit is read in column blocks (lumeval.spectra.text_columns)
-    streamed = [not a and is_streamed(f) for f, a in zip(files, archives)]
-    reads = ordered_reads([f for f, a, w in zip(files, archives, streamed) if not (a or w)], read_processes)
+    reads = ordered_reads(whole, read_processes)
     try:
         for k, path in enumerate(files):
             if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
@@ -346,6 +344,21 @@ def run_lot(
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
                       ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,
                       read_paths=tuple(read_paths))
+
+
+def _evaluating_processes(asked: int | None, read_processes: int | None, n_whole: int) -> int:
+    """The evaluating worker processes of a lot: ``asked`` when given; else none (this process
+    evaluates) when the files are read by worker processes, one per core, since evaluating
+    workers on top of them would share the same cores (measured on 2 cores, 10,000 single
+    files: 6.1 s wall with the main process evaluating, 7.3 s with two evaluating workers
+    besides the two readers); else one per core where workers are forked."""
+    from .reading import default_read_processes, fork_available, read_processes_for
+
+    if asked is not None:
+        return asked
+    if not fork_available() or read_processes_for(n_whole, read_processes) > 1:
+        return 1
+    return default_read_processes()
 
 
 def _batches(pending: list, batch_spectra: int):

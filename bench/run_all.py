@@ -115,6 +115,19 @@ def _status_mb(pid: int, key: str) -> float:
     return 0.0
 
 
+def _pss_mb(pid: int) -> float:
+    """The process's proportional set size (Pss of /proc/PID/smaps_rollup, Linux): its resident
+    pages, each page shared with other processes counted as its share; 0 when unreadable."""
+    try:
+        with open(f"/proc/{pid}/smaps_rollup") as f:
+            for line in f:
+                if line.startswith("Pss:"):
+                    return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    return 0.0
+
+
 def _hwm_mb(pid: int) -> float:
     """The process's peak resident memory so far (VmHWM, Linux), MB; 0 when unreadable."""
     return _status_mb(pid, "VmHWM")
@@ -145,10 +158,11 @@ def run_child(args: list[str]) -> tuple[float, float, float, int]:
 
     The CPU time is the child's and its worker processes' (``os.wait4``: the workers are
     waited for by the child). The peak memory counts the worker processes too: every 50 ms the
-    resident memory (VmRSS) of the child and of all its descendants is summed, and the figure
-    is the larger of the highest such sum and the child's own high-water mark (VmHWM). The sum
-    counts pages that forked workers share with the child once per process, so it is an upper
-    bound of the memory in use; a peak between two polls could be missed. The child's
+    proportional set sizes (Pss: a page that forked workers share with the child counted once
+    in all) of the child and of all its descendants are summed, and the figure is the larger of
+    the highest such sum and the child's own high-water mark (VmHWM); a peak between two polls
+    could be missed. (Summing resident sizes instead counted the lot's pages shared by two
+    forked CSV workers three times: 965 MB for the 20,000-spectrum wide CSV, 543-547 MB as Pss.) The child's
     ``ru_maxrss`` is not used, because a child started by vfork (as subprocess does) also
     reports this parent's peak, and this parent held the engine's spectra."""
     import subprocess
@@ -159,7 +173,7 @@ def run_child(args: list[str]) -> tuple[float, float, float, int]:
                          stderr=subprocess.PIPE, env={**os.environ, "PYTHONPATH": str(repo)})
     peak = 0.0
     while True:
-        tree = _status_mb(p.pid, "VmRSS") + sum(_status_mb(k, "VmRSS") for k in _descendants(p.pid))
+        tree = _pss_mb(p.pid) + sum(_pss_mb(k) for k in _descendants(p.pid))
         peak = max(peak, _hwm_mb(p.pid), tree)
         pid, status, ru = os.wait4(p.pid, os.WNOHANG)
         if pid:
@@ -231,6 +245,14 @@ def main(argv: list[str] | None = None) -> None:
             print(f"  (archive: {arch.stat().st_size / 1e6:.0f} MB Parquet)", flush=True)
             res["parquet"] = lot([str(arch), "--samples-parquet", str(tmp / "samples.parquet")], size["parquet"],
                                  "Parquet archive, 5 nm")
+            # the share of the engine is judged on one process (one core, like the engine's
+            # figure), with the engine measured again right after it (the machine's speed drifts)
+            res["parquet1"] = lot([str(arch), "--samples-parquet", str(tmp / "samples.parquet"), "--processes", "1"],
+                                  size["parquet"], "Parquet archive, 5 nm, one process (--processes 1)")
+            before = load()
+            res["engine_5nm_after"] = engine_rate(5.0, size["engine"])
+            print(f"  engine again, 5 nm: {res['engine_5nm_after']:,.0f} spectra/CPU-s (load {before}-{load()})",
+                  flush=True)
             arch.unlink()
             (tmp / "samples.parquet").unlink(missing_ok=True)
 
@@ -263,12 +285,16 @@ def summary(res: dict, quick: bool) -> None:
             ok = r["code"] in (0, 1) and rate >= TARGETS[key]
             row(f"lot, {name}, {r['n']:,} x 1 nm (spectra/s: wall | CPU)", f"{rate:,.0f} | {cpu_rate:,.0f}",
                 f">= {TARGETS[key]:,}", ok, f"CPU rate {cpu_rate / eng:.0%} of the engine; exit {r['code']}")
-    r = res.get("parquet")
+    r, r1 = res.get("parquet"), res.get("parquet1")
     if r:
-        cpu_rate = r["n"] / r["cpu"]
-        row(f"lot, Parquet, {r['n']:,} x 5 nm (spectra/CPU-s)", f"{cpu_rate:,.0f}",
-            f">= {TARGETS['parquet_share']:.0%} of engine", cpu_rate >= TARGETS["parquet_share"] * e5,
-            f"{cpu_rate / e5:.0%} of the engine at 5 nm")
+        e5m = (e5 + res["engine_5nm_after"]) / 2 if res.get("engine_5nm_after") else e5
+        cpu_rate = (r1 or r)["n"] / (r1 or r)["cpu"]
+        row(f"lot, Parquet, {r['n']:,} x 5 nm, one process (spectra/CPU-s)", f"{cpu_rate:,.0f}",
+            f">= {TARGETS['parquet_share']:.0%} of engine", cpu_rate >= TARGETS["parquet_share"] * e5m,
+            f"{cpu_rate / e5m:.0%} of the engine at 5 nm (mean of {e5:,.0f} before and "
+            f"{res.get('engine_5nm_after', e5):,.0f} after)")
+        rows.append((f"lot, Parquet, {r['n']:,} x 5 nm, default workers (spectra/s wall)", f"{r['n'] / r['wall']:,.0f}",
+                     "(no target)", "", f"{r['n'] / r['cpu']:,.0f} spectra/CPU-s with the workers' CPU"))
         if r["n"] >= 1_000_000:
             row(f"lot, Parquet, {r['n']:,} x 5 nm (peak RSS MB)", f"{r['rss']:,.0f}", f"< {TARGETS['parquet_rss_mb']:,}",
                 r["rss"] < TARGETS["parquet_rss_mb"])

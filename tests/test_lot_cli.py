@@ -160,6 +160,27 @@ def test_bad_criteria_exit_2_and_no_file_written(lot_dir, tmp_path):
     assert not out.exists()
 
 
+@pytest.mark.parametrize("value", ["0", "-2", "two"])
+def test_bad_processes_exit_2_and_no_file_written(lot_dir, tmp_path, value):
+    """--processes takes a whole number from 1 (1: this process only): anything else is a usage
+    error naming the option, exit 2, no output file."""
+    out = tmp_path / "s.csv"
+    r = run_cli("lot", lot_dir / "FL1.csv", "--processes", value, "--samples-csv", out)
+    assert r.returncode == 2 and "Traceback" not in r.stderr
+    assert "--processes" in r.stderr
+    assert not out.exists()
+
+
+def test_processes_1_gives_the_same_samples_csv(lot_dir, tmp_path):
+    """--processes 1 (every step in this process) writes the same per-sample CSV as the default."""
+    one, auto = tmp_path / "one.csv", tmp_path / "auto.csv"
+    r1 = run_cli("lot", lot_dir, "--processes", "1", "--samples-csv", one)
+    r2 = run_cli("lot", lot_dir, "--samples-csv", auto)
+    assert r1.returncode == r2.returncode  # (the folder holds bad files: exit 2)
+    assert r1.stderr.replace(str(one), str(auto)) == r2.stderr
+    assert one.read_text(encoding="utf-8") == auto.read_text(encoding="utf-8")
+
+
 # --------------------------------------------------------------------------- clauses in-process
 
 

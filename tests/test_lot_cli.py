@@ -172,7 +172,9 @@ def test_bad_processes_exit_2_and_no_file_written(lot_dir, tmp_path, value):
 
 
 def test_processes_1_gives_the_same_samples_csv(lot_dir, tmp_path):
-    """--processes 1 (every step in this process) writes the same per-sample CSV as the default."""
+    """A lot of one batch (read and evaluated in this process either way): --processes 1 changes
+    nothing, to the byte. (Larger lots evaluated by workers agree within floating-point noise:
+    docs/lots.md; tests/test_archive.py compares them with a tolerance.)"""
     one, auto = tmp_path / "one.csv", tmp_path / "auto.csv"
     r1 = run_cli("lot", lot_dir, "--processes", "1", "--samples-csv", one)
     r2 = run_cli("lot", lot_dir, "--samples-csv", auto)

@@ -156,10 +156,14 @@ def convert_rows(d: Dialect, b: Block, memo: _RowMemo, names_hdr: list[str] | No
     rows, bulk = b.rows, b.bulk
     m = 0 if bulk is None else bulk.shape[0]
     n_rows = m + len(rows)
-    data = np.empty((n_rows, ncols))
-    if bulk is not None:
-        data[:m] = bulk
+    if bulk is not None and not rows:  # the bulk is every row: used as it is (no copy)
+        data = bulk
         b.bulk = None
+    else:
+        data = np.empty((n_rows, ncols))
+        if bulk is not None:
+            data[:m] = bulk
+            b.bulk = None
         del bulk
     row_ln = np.concatenate([b.bulk_ln if b.bulk_ln is not None else np.empty(0, dtype=np.int64),
                              np.array([ln for ln, _ in rows], dtype=np.int64)])

@@ -369,7 +369,7 @@ def _batches(pending: list, batch_spectra: int):
     n = 0
     for s in pending:
         for a in range(0, len(s), batch_spectra) if len(s) > batch_spectra else (0,):
-            piece = s if len(s) <= batch_spectra else s.subset(list(range(a, min(len(s), a + batch_spectra))))
+            piece = s if len(s) <= batch_spectra else s.subset(slice(a, min(len(s), a + batch_spectra)))
             if part and n + len(piece) > batch_spectra:
                 yield part
                 part, n = [], 0

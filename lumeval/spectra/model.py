@@ -68,7 +68,12 @@ class SpectrumSet:
         return None
 
     def subset(self, index) -> SpectrumSet:
-        """The spectra at ``index`` (slice or integer array) as a new set."""
+        """The spectra at ``index`` (slice or integer array) as a new set (for a slice, the
+        values are a view of this set's values: sets are not changed in place)."""
+        if isinstance(index, slice):
+            return SpectrumSet(self.wavelengths_nm, self.values[index], tuple(self.names[index]),
+                               tuple(self.sources[index]), tuple(self.notes[index]), tuple(self.metadata[index]),
+                               self.prepared)
         idx = np.arange(len(self))[index]
         idx = np.atleast_1d(idx)
         return SpectrumSet(

@@ -342,11 +342,26 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
                 raise UsageError(f"{opt} and {opt2} both name {_shown(p)}", field=opt2,
                                  fix="give each output its own file")
     if given:
+        # _same_file(p, src) for every output and input, with one stat per input (a lot may
+        # have a million input files): the same file when both exist, else the same absolute path
+        outs = [(opt, p, _file_id(p), os.path.abspath(p)) for opt, p in given.items()]
+        any_exists = any(ident is not None for _, _, ident, _ in outs)
         for src in _input_files(inputs):
-            for opt, p in given.items():
-                if _same_file(p, src):
+            src_id = _file_id(src) if any_exists else None
+            src_abs = os.path.abspath(src)
+            for opt, p, ident, p_abs in outs:
+                if (ident == src_id) if (ident is not None and src_id is not None) else (p_abs == src_abs):
                     raise UsageError(f"{_shown(p)} is one of the input files: writing it would destroy the input",
                                      field=opt, fix="choose another output file name")
+
+
+def _file_id(p) -> tuple[int, int] | None:
+    """(device, inode) of the file ``p`` names (links followed), None when it cannot be found."""
+    try:
+        st = os.stat(p)
+    except (OSError, ValueError):
+        return None
+    return st.st_dev, st.st_ino
 
 
 def refuse_existing(path, option: str | None = None, *, force: bool = False) -> None:

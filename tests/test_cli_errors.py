@@ -92,6 +92,29 @@ def test_lot_never_overwrites_an_input(work, capsys, option, how):
     assert digest(spd) == before
 
 
+@pytest.mark.parametrize("alias", ["symlink", "hardlink", "relative"])
+def test_lot_never_overwrites_an_input_under_another_name(work, capsys, alias, monkeypatch):
+    """The output names an input of the folder by a link or a relative path: still refused."""
+    import os
+
+    tmp, spd, _, _ = work
+    before = digest(spd)
+    if alias == "symlink":
+        out = tmp.parent / "alias_out.csv"
+        out.unlink(missing_ok=True)
+        out.symlink_to(spd)
+    elif alias == "hardlink":
+        out = tmp.parent / "alias_hard.csv"
+        out.unlink(missing_ok=True)
+        os.link(spd, out)
+    else:
+        monkeypatch.chdir(spd.parent)
+        out = spd.name
+    code, _, err = run(["lot", str(tmp), "-q", "--samples-csv", str(out)], capsys)
+    assert_clean_error(code, err, "one of the input files")
+    assert digest(spd) == before
+
+
 def test_two_options_naming_one_file(work, capsys):
     tmp, spd, crit, _ = work
     code, _, err = run(["lot", spd, "-q", "--json", tmp / "o.json", "--samples-csv", tmp / "o.json"], capsys)

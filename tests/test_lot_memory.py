@@ -56,6 +56,13 @@ def test_packed_text_equals_the_tuples_it_packs(monkeypatch):
     warns = [(), ("one",), ("two", "three \u2264"), (), ("",)]
     w = TextTuples(warns)
     assert w == tuple(warns) and w[2] == ("two", "three \u2264") and w[-1] == ("",) and sum(1 for x in w if x) == 3
+    assert w.count_nonempty() == 3 and TextTuples().count_nonempty() == 0
+    # added in batches of any size, across block ends: the same as the whole at once
+    t2, w2 = TextColumn(), TextTuples()
+    for a, b in [(0, 1), (1, 4), (4, 4), (4, 6)]:
+        t2.extend(names[a:b])
+        w2.extend(iter(warns[a:b]))
+    assert t2 == names and w2 == warns[:6] and w2.count_nonempty() == 3
     with pytest.raises(IndexError):
         t[6]
 

@@ -83,9 +83,17 @@ class TextColumn(_SequenceEq, Sequence[str]):
         self.extend(items)
 
     def extend(self, items: Iterable[str]) -> None:
-        for s in items:
-            self._open += s.encode(*_ENC)
-            self._ends.append(len(self._open))
+        # a batch at a time (a lot adds thousands of names per batch): the strings up to the end
+        # of the open block are encoded, joined and their end offsets appended together
+        items = items if isinstance(items, (list, tuple)) else list(items)
+        i, n = 0, len(items)
+        while i < n:
+            room = TEXT_BLOCK - len(self._ends) % TEXT_BLOCK
+            enc = [s.encode(*_ENC) for s in items[i: i + room]]
+            ends = np.cumsum(np.fromiter(map(len, enc), dtype=np.int64, count=len(enc))) + len(self._open)
+            self._ends.frombytes(ends.astype("=i8").tobytes())
+            self._open += b"".join(enc)
+            i += len(enc)
             if len(self._ends) % TEXT_BLOCK == 0:
                 self._blocks.append(zlib.compress(self._open, 1))
                 self._open = bytearray()
@@ -124,9 +132,16 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
         self.extend(items)
 
     def extend(self, items: Iterable[Sequence[str]]) -> None:
-        for t in items:
-            self._texts.extend(t)
-            self._ends.append(len(self._texts))
+        items = items if isinstance(items, (list, tuple)) else list(items)
+        before = len(self._texts)
+        self._texts.extend([w for t in items for w in t])
+        ends = np.cumsum(np.fromiter(map(len, items), dtype=np.int64, count=len(items))) + before
+        self._ends.frombytes(ends.astype("=i8").tobytes())
+
+    def count_nonempty(self) -> int:
+        """Samples with at least one string (counted from the offsets, nothing decoded)."""
+        ends = np.frombuffer(self._ends, dtype=np.int64) if len(self._ends) else np.zeros(0, dtype=np.int64)
+        return int(np.count_nonzero(np.diff(ends, prepend=0)))
 
     def __len__(self) -> int:
         return len(self._ends)

@@ -645,7 +645,8 @@ def _lot_closing(run) -> list:
 
     st = run.stats
     out: list[Any] = []
-    nw = sum(1 for w in run.warnings if w)
+    w_all = run.warnings  # packed in a lot run: counted from its offsets, nothing decoded
+    nw = w_all.count_nonempty() if hasattr(w_all, "count_nonempty") else sum(1 for w in w_all if w)
     if nw:
         out.append(Text(f"{nw} sample(s) carry warnings (interpolation, validity limits...): see the per-sample CSV or JSON.", style="yellow"))
     for note in st.notes:

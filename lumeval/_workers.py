@@ -39,12 +39,55 @@ def in_worker() -> bool:
     return bool(mp.current_process().daemon)
 
 
-def worker_pool(processes: int):
-    """A ``multiprocessing`` pool of ``processes`` workers (forked on Linux, see the module
-    docstring), each with :func:`worker_init` run first."""
-    import multiprocessing as mp
+def worker_pool(processes: int) -> WorkerPool:
+    """A pool of ``processes`` workers (forked on Linux, see the module docstring), each with
+    :func:`worker_init` run first."""
+    return WorkerPool(processes)
 
-    return mp.get_context("fork" if _FORK else "spawn").Pool(processes, initializer=worker_init)
+
+class WorkerPool:
+    """Worker processes that run submitted calls (``concurrent.futures.ProcessPoolExecutor``:
+    unlike ``multiprocessing.Pool``, whose results wait forever for a worker that was killed,
+    a worker that dies makes every waiting result fail, and :meth:`result` then raises
+    :class:`lumeval.errors.WorkerError`). The workers are started at the first :meth:`submit`
+    (forked then: they see this process's data as it is at that moment)."""
+
+    def __init__(self, processes: int) -> None:
+        import multiprocessing as mp
+        from concurrent.futures import ProcessPoolExecutor
+
+        self.processes = max(1, int(processes))
+        self._ex = ProcessPoolExecutor(self.processes, mp_context=mp.get_context("fork" if _FORK else "spawn"),
+                                       initializer=worker_init)
+
+    def submit(self, fn, *args):
+        """Run ``fn(*args)`` in a worker; returns a future for :meth:`result`."""
+        return self._ex.submit(fn, *args)
+
+    @staticmethod
+    def result(future):
+        """The call's return value (its exception is raised here); :class:`WorkerError` when
+        its worker ended without finishing."""
+        from concurrent.futures.process import BrokenProcessPool
+
+        try:
+            return future.result()
+        except BrokenProcessPool:
+            from .errors import WorkerError
+
+            raise WorkerError("a worker process ended before finishing its work (stopped by a signal, or by "
+                              "the system when memory ran out); unfinished outputs were not written",
+                              fix="run again; if it recurs, use --processes 1 or free some memory") from None
+
+    def terminate(self) -> None:
+        """Stop the workers at once (results not yet taken are dropped)."""
+        procs = list((getattr(self._ex, "_processes", None) or {}).values())
+        self._ex.shutdown(wait=False, cancel_futures=True)
+        for p in procs:
+            if p.is_alive():
+                p.terminate()
+        for p in procs:
+            p.join()
 
 
 def worker_init() -> None:

@@ -86,6 +86,11 @@ class OutputError(LumevalError):
     """An output that cannot be written (disk full, permissions, a closed pipe...)."""
 
 
+class WorkerError(LumevalError):
+    """A worker process on this machine ended before finishing its work (killed by a signal,
+    by the system when memory ran out...): the run stops instead of waiting for it forever."""
+
+
 #: Longest piece of a user's data quoted in a message (an offending cell, name or value).
 QUOTE_MAX = 80
 

@@ -120,3 +120,37 @@ def test_reading_workers_read_a_bounded_number_of_files_ahead(tmp_path, monkeypa
     assert len(log.read_text(encoding="utf-8").split()) <= bound
     assert sum(1 for _ in reads) == 399  # the rest, in order, when asked for
     assert len(log.read_text(encoding="utf-8").split()) == 400
+
+
+def _killed_read(path):
+    """A stand-in read that kills its own worker process (as the system does when memory runs out)."""
+    import os
+    import signal
+
+    os.kill(os.getpid(), signal.SIGKILL)
+
+
+@pytest.mark.skipif(not reading._FORK, reason="reading workers are forked on Linux")
+def test_a_killed_reading_worker_stops_the_run_with_a_clear_error(monkeypatch):
+    """A worker killed mid-run: WorkerError (a LumevalError: one line, exit 2 from the command),
+    at once, instead of waiting forever for its results."""
+    from lumeval.errors import LumevalError, WorkerError
+
+    monkeypatch.setattr(reading, "_read_one", _killed_read)
+    with pytest.raises(WorkerError) as exc:
+        list(reading.ordered_reads(["x.csv"] * 100, processes=2))
+    assert isinstance(exc.value, LumevalError) and "--processes 1" in exc.value.message
+
+
+@pytest.mark.skipif(not reading._FORK, reason="evaluating workers are forked on Linux")
+def test_a_killed_evaluating_worker_stops_the_run_with_a_clear_error(monkeypatch):
+    from lumeval.errors import WorkerError
+    from lumeval.lots import evaluating
+
+    monkeypatch.setattr(evaluating, "_evaluate", _killed_read)
+    ev = evaluating.BatchEvaluator(2, None, None, False, on_result=lambda r: None)
+    with pytest.raises(WorkerError):
+        for _ in range(6):
+            ev.submit([])
+        ev.close()
+    ev.terminate()

@@ -140,3 +140,31 @@ def test_samples_csv_reads_back_every_figure_exactly(tmp_path):
         np.testing.assert_array_equal(got, np.asarray(run.figures[f], dtype=float))  # repr round trip: exact
     assert all(r[head.index("illuminance_lx")] == "" for r in body)  # relative spectra: no illuminance, an empty cell
     assert body[0][head.index("station")] == "ST,1" and body[1][head.index("station")] == 'say "x"'
+
+
+def _killed_block(run, i, j):
+    import os
+    import signal
+
+    if os.getpid() != _PARENT[0]:
+        os.kill(os.getpid(), signal.SIGKILL)
+    return ""
+
+
+_PARENT = [0]
+
+
+@pytest.mark.skipif(not __import__("lumeval._workers", fromlist=["x"]).fork_available(),
+                    reason="blocks are formatted by forked workers on Linux only")
+def test_a_killed_csv_worker_stops_the_writing_with_a_clear_error(tmp_path, monkeypatch):
+    import os
+
+    from lumeval.errors import WorkerError
+
+    run = run_lot([_archive(tmp_path)])
+    _PARENT[0] = os.getpid()
+    monkeypatch.setattr(lot_report, "_CSV_ROWS", 3)
+    monkeypatch.setattr(lot_report, "_block_text", _killed_block)
+    with pytest.raises(WorkerError):
+        samples_csv(run, io.StringIO(), processes=2)
+    assert lot_report._FORKED_RUN is None

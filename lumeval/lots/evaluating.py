@@ -93,9 +93,9 @@ class BatchEvaluator:
                                       keep_evaluation=self.keep_evaluation, progress=listener))
 
     def _send(self, job: tuple) -> None:
-        self._waiting.append(self._pool.apply_async(_evaluate, (job,)))
+        self._waiting.append(self._pool.submit(_evaluate, job))
         while len(self._waiting) > IN_FLIGHT_PER_PROCESS * self.processes:
-            self.on_result(self._waiting.popleft().get())
+            self.on_result(self._pool.result(self._waiting.popleft()))
 
     def close(self) -> None:
         """Evaluate what is held, wait for every result (in order) and stop the workers."""
@@ -104,7 +104,7 @@ class BatchEvaluator:
                 held, self._held = self._held, None
                 self._here(held)
             while self._waiting:
-                self.on_result(self._waiting.popleft().get())
+                self.on_result(self._pool.result(self._waiting.popleft()))
         finally:
             self.terminate()
 
@@ -113,5 +113,4 @@ class BatchEvaluator:
         self._waiting.clear()
         if self._pool is not None:
             self._pool.terminate()
-            self._pool.join()
             self._pool = None

@@ -95,14 +95,13 @@ def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generat
         # the caller (a lot of a million files never waits in memory as read spectra).
         waiting: deque = deque()
         for i in range(0, len(paths), FILES_PER_TASK):
-            waiting.append(pool.apply_async(_read_many, (paths[i: i + FILES_PER_TASK],)))
+            waiting.append(pool.submit(_read_many, paths[i: i + FILES_PER_TASK]))
             while len(waiting) > TASKS_AHEAD_PER_PROCESS * processes:
-                yield from waiting.popleft().get()
+                yield from pool.result(waiting.popleft())
         while waiting:
-            yield from waiting.popleft().get()
+            yield from pool.result(waiting.popleft())
     finally:
         pool.terminate()
-        pool.join()
 
 
 def read_processes_for(n_files: int, processes: int | None) -> int:

@@ -387,7 +387,7 @@ def _block_text(run, i: int, j: int) -> str:
     return "\n".join(lines) + "\n" if lines else ""
 
 
-#: The lot whose CSV blocks forked workers format (set only while their pool is being forked).
+#: The lot whose CSV blocks forked workers format (set only while they work).
 _FORKED_RUN: Any = None
 
 
@@ -415,22 +415,19 @@ def _block_texts(run, n: int, processes: int | None):
     from collections import deque
 
     global _FORKED_RUN
-    _FORKED_RUN = run
-    try:
-        pool = worker_pool(min(processes, len(spans)))
-    finally:
-        _FORKED_RUN = None
+    pool = worker_pool(min(processes, len(spans)))
+    _FORKED_RUN = run  # the workers are forked at the first submit: they see the lot
     try:
         waiting: deque = deque()
         for span in spans:
-            waiting.append(pool.apply_async(_forked_block, (span,)))
+            waiting.append(pool.submit(_forked_block, span))
             while len(waiting) > 2 * processes:
-                yield waiting.popleft().get()
+                yield pool.result(waiting.popleft())
         while waiting:
-            yield waiting.popleft().get()
+            yield pool.result(waiting.popleft())
     finally:
+        _FORKED_RUN = None
         pool.terminate()
-        pool.join()
 
 
 # --------------------------------------------------------------------------- terminal

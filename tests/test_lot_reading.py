@@ -148,6 +148,7 @@ def test_a_killed_evaluating_worker_stops_the_run_with_a_clear_error(monkeypatch
     from lumeval.lots import evaluating
 
     monkeypatch.setattr(evaluating, "_evaluate", _killed_read)
+    monkeypatch.setattr(evaluating.BatchEvaluator, "_here", lambda self, job: None)  # the first batch, evaluated here
     ev = evaluating.BatchEvaluator(2, None, None, False, on_result=lambda r: None)
     with pytest.raises(WorkerError):
         for _ in range(6):

@@ -10,9 +10,10 @@ core. Each batch is evaluated by the same function (:func:`~lumeval.lots.streami
 on the same spectra, so the per-sample figures, verdicts and warnings are those of a serial run
 (figures within the floating-point noise of another process's BLAS, as a Dask run's are).
 
-The pool is started only when a second batch comes (a lot of one batch never pays for it), and
-at most :data:`IN_FLIGHT_PER_PROCESS` batches per worker wait for their results, so memory stays
-bounded: a few batches of spectra, whatever the lot's size. Runs that keep every evaluation for
+The pool is started only when a second batch comes (a lot of one batch never pays for it; the
+first batch is then evaluated here before the workers fork, so that they start with the
+reference tables it filled), and at most :data:`IN_FLIGHT_PER_PROCESS` batches per worker wait
+for their results, so memory stays bounded: a few batches of spectra, whatever the lot's size. Runs that keep every evaluation for
 a report (``keep_evaluation``) or decide under measurement uncertainty (whose Monte Carlo draws
 follow the sample index through the batches) are evaluated here.
 """
@@ -78,10 +79,12 @@ class BatchEvaluator:
         if self._pool is None:
             from .reading import _pool
 
-            self._pool = _pool(self.processes)
+            # the held first batch is evaluated here before the workers fork: they start with
+            # the reference tables it filled (each worker filling them again cost ~0.2 s)
             held, self._held = self._held, None
             if held is not None:
-                self._send(held)
+                self._here(held)
+            self._pool = _pool(self.processes)
         self._send(job)
 
     def _here(self, job: tuple) -> None:

@@ -56,8 +56,7 @@ class WorkerPool:
         import multiprocessing as mp
         from concurrent.futures import ProcessPoolExecutor
 
-        self.processes = max(1, int(processes))
-        self._ex = ProcessPoolExecutor(self.processes, mp_context=mp.get_context("fork" if _FORK else "spawn"),
+        self._ex = ProcessPoolExecutor(max(1, int(processes)), mp_context=mp.get_context("fork" if _FORK else "spawn"),
                                        initializer=worker_init)
 
     def submit(self, fn, *args):

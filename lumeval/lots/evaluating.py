@@ -13,9 +13,10 @@ on the same spectra, so the per-sample figures, verdicts and warnings are those 
 The pool is started only when a second batch comes (a lot of one batch never pays for it; the
 first batch is then evaluated here before the workers fork, so that they start with the
 reference tables it filled), and at most :data:`IN_FLIGHT_PER_PROCESS` batches per worker wait
-for their results, so memory stays bounded: a few batches of spectra, whatever the lot's size. Runs that keep every evaluation for
-a report (``keep_evaluation``) or decide under measurement uncertainty (whose Monte Carlo draws
-follow the sample index through the batches) are evaluated here.
+for their results, so memory stays bounded: a few batches of spectra, whatever the lot's size.
+Runs that keep every evaluation for a report (``keep_evaluation``) or decide under measurement
+uncertainty (whose Monte Carlo draws follow the sample index through the batches) are
+evaluated here.
 """
 
 from __future__ import annotations

@@ -20,8 +20,10 @@ there are many, and wide text files streamed in column blocks.
 from __future__ import annotations
 
 import os
-import sys
 from collections.abc import Generator, Iterator, Sequence
+
+# where workers are forked (Linux): one definition, in lumeval._workers
+from .._workers import _FORK, fork_available  # noqa: F401  (fork_available: re-exported for run_lot)
 
 #: Fewest files for which reading in worker processes is started (the pool costs ~0.2 s).
 PARALLEL_MIN_FILES = 200
@@ -49,15 +51,6 @@ def _pool(processes: int):
     from .._workers import worker_pool
 
     return worker_pool(processes)
-
-
-_FORK = sys.platform.startswith("linux")
-
-
-def fork_available() -> bool:
-    """True where worker processes are forked (Linux): lots then read and evaluate in parallel
-    unless told otherwise."""
-    return _FORK
 
 
 def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generator[tuple, None, None]:

@@ -243,12 +243,19 @@ def is_stdout(path) -> bool:
 
 
 def _same_file(a: Path, b: Path) -> bool:
-    try:
-        if a.exists() and b.exists():
-            return os.path.samefile(a, b)
-    except OSError:
-        pass
-    return os.path.abspath(a) == os.path.abspath(b)
+    """The same file when both exist (links followed), else the same absolute path."""
+    return _same_ref(_file_ref(a), _file_ref(b))
+
+
+def _file_ref(p) -> tuple[tuple[int, int] | None, str]:
+    """What :func:`_same_file` compares of ``p``: its (device, inode), None when it cannot be
+    found, and its absolute path."""
+    return _file_id(p), os.path.abspath(p)
+
+
+def _same_ref(r1: tuple, r2: tuple) -> bool:
+    (i1, a1), (i2, a2) = r1, r2
+    return i1 == i2 if (i1 is not None and i2 is not None) else a1 == a2
 
 
 def _input_files(inputs: Iterable) -> list[Path]:
@@ -342,15 +349,14 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
                 raise UsageError(f"{opt} and {opt2} both name {_shown(p)}", field=opt2,
                                  fix="give each output its own file")
     if given:
-        # _same_file(p, src) for every output and input, with one stat per input (a lot may
-        # have a million input files): the same file when both exist, else the same absolute path
-        outs = [(opt, p, _file_id(p), os.path.abspath(p)) for opt, p in given.items()]
-        any_exists = any(ident is not None for _, _, ident, _ in outs)
+        # _same_file(p, src) for every output and input, each output's reference taken once and
+        # each input stat-ed once (a lot may have a million input files; none when no output exists)
+        outs = [(opt, p, _file_ref(p)) for opt, p in given.items()]
+        any_exists = any(ref[0] is not None for _, _, ref in outs)
         for src in _input_files(inputs):
-            src_id = _file_id(src) if any_exists else None
-            src_abs = os.path.abspath(src)
-            for opt, p, ident, p_abs in outs:
-                if (ident == src_id) if (ident is not None and src_id is not None) else (p_abs == src_abs):
+            src_ref = _file_ref(src) if any_exists else (None, os.path.abspath(src))
+            for opt, p, ref in outs:
+                if _same_ref(ref, src_ref):
                     raise UsageError(f"{_shown(p)} is one of the input files: writing it would destroy the input",
                                      field=opt, fix="choose another output file name")
 

@@ -24,7 +24,7 @@ import os
 import tempfile
 import zlib
 from array import array
-from collections.abc import Iterable, Iterator, Mapping, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence, Sized
 from typing import IO, Any
 
 import numpy as np
@@ -69,6 +69,13 @@ class _SequenceEq:
         return len(mine) == len(other) and all(a == b for a, b in zip(mine, other))
 
 
+def _append_ends(ends: array, parts: Sequence[Sized], base: int) -> None:
+    """Append to ``ends`` (int64 offsets) where each of ``parts`` ends when laid end to end
+    after ``base``: one cumulative sum for a batch instead of one append per part."""
+    lengths = np.fromiter(map(len, parts), dtype=np.int64, count=len(parts))
+    ends.frombytes((np.cumsum(lengths) + base).astype("=i8").tobytes())
+
+
 class TextColumn(_SequenceEq, Sequence[str]):
     """A growing sequence of strings packed as UTF-8 bytes and end offsets, in blocks of
     :data:`TEXT_BLOCK` strings compressed once full (zlib, level 1: names, sources and warnings
@@ -90,8 +97,7 @@ class TextColumn(_SequenceEq, Sequence[str]):
         while i < n:
             room = TEXT_BLOCK - len(self._ends) % TEXT_BLOCK
             enc = [s.encode(*_ENC) for s in items[i: i + room]]
-            ends = np.cumsum(np.fromiter(map(len, enc), dtype=np.int64, count=len(enc))) + len(self._open)
-            self._ends.frombytes(ends.astype("=i8").tobytes())
+            _append_ends(self._ends, enc, len(self._open))
             self._open += b"".join(enc)
             i += len(enc)
             if len(self._ends) % TEXT_BLOCK == 0:
@@ -135,8 +141,7 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
         items = items if isinstance(items, (list, tuple)) else list(items)
         before = len(self._texts)
         self._texts.extend([w for t in items for w in t])
-        ends = np.cumsum(np.fromiter(map(len, items), dtype=np.int64, count=len(items))) + before
-        self._ends.frombytes(ends.astype("=i8").tobytes())
+        _append_ends(self._ends, items, before)
 
     def count_nonempty(self) -> int:
         """Samples with at least one string (counted from the offsets, nothing decoded)."""

@@ -103,10 +103,10 @@ def write_folder(folder: Path, n: int) -> None:
             (folder / f"module_{start + j:06d}.csv").write_text("wavelength_nm,relative_power\n" + lines + "\n")
 
 
-def _status_mb(pid: int, key: str) -> float:
-    """A memory line of the process's /proc status (``VmHWM``, ``VmRSS``; Linux), MB; 0 when unreadable."""
+def _proc_mb(pid: int, file: str, key: str) -> float:
+    """The ``key:`` line (kB) of /proc/PID/``file`` (Linux), MB; 0 when unreadable."""
     try:
-        with open(f"/proc/{pid}/status") as f:
+        with open(f"/proc/{pid}/{file}") as f:
             for line in f:
                 if line.startswith(key + ":"):
                     return int(line.split()[1]) / 1024
@@ -116,21 +116,14 @@ def _status_mb(pid: int, key: str) -> float:
 
 
 def _pss_mb(pid: int) -> float:
-    """The process's proportional set size (Pss of /proc/PID/smaps_rollup, Linux): its resident
+    """The process's proportional set size (Pss of /proc/PID/smaps_rollup): its resident
     pages, each page shared with other processes counted as its share; 0 when unreadable."""
-    try:
-        with open(f"/proc/{pid}/smaps_rollup") as f:
-            for line in f:
-                if line.startswith("Pss:"):
-                    return int(line.split()[1]) / 1024
-    except OSError:
-        pass
-    return 0.0
+    return _proc_mb(pid, "smaps_rollup", "Pss")
 
 
 def _hwm_mb(pid: int) -> float:
-    """The process's peak resident memory so far (VmHWM, Linux), MB; 0 when unreadable."""
-    return _status_mb(pid, "VmHWM")
+    """The process's peak resident memory so far (VmHWM of /proc/PID/status), MB; 0 when unreadable."""
+    return _proc_mb(pid, "status", "VmHWM")
 
 
 def _descendants(pid: int) -> list[int]:

@@ -110,6 +110,31 @@ def test_knife_edges_agree_with_colour_science(colour, cie_eval):
     assert "CES 36" in w and "hue bins 4 and 5" in w
 
 
+def test_knife_edges_stay_with_their_spectrum_beside_spectra_without_figures(colour, cie_eval):
+    """Spectra without TM-30 figures (narrow blue and red bands, whose chromaticity lies beyond
+    the Planckian table: no reference) before, between and after FL12 and LED-V2: each spectrum keeps its own knife-edge pairs (colour-science's reference hues, as
+    above), the spectra without figures have none."""
+    from lumeval.engine import evaluate
+    from lumeval.spectra.model import SpectrumSet
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    names = ["blue-450", "FL12", "red-620", "LED-V2", "blue-455"]
+    rows = []
+    for n in names:
+        if n in CIE_NAMES:
+            rows.append(np.asarray(colour.SDS_ILLUMINANTS[n].values, float))
+        else:
+            rows.append(np.exp(-0.5 * ((wl - float(n[-3:])) / 10.0) ** 2) + 1e-6)
+    with np.errstate(all="ignore"):
+        ev = evaluate(SpectrumSet(wl, np.array(rows), tuple(names), tuple(names)))
+    pairs = ev.tm30.hue_edge_pairs
+    assert len(pairs) == len(names)
+    assert pairs[1] == T.hue_edge_pairs(_colour_reference_hues(colour, "FL12")[None, :])[0] == ((4, 36), (5, 36))
+    assert pairs[3] == T.hue_edge_pairs(_colour_reference_hues(colour, "LED-V2")[None, :])[0]
+    assert pairs[3] and pairs[0] == pairs[2] == pairs[4] == ()
+    assert np.isnan(ev.reference_cct_K[[0, 2, 4]]).all() and np.isnan(ev.tm30.Rf[[0, 2, 4]]).all()
+
+
 def test_verdict_on_an_affected_bin_carries_the_warning(cie_eval):
     """A criteria clause on Rf,h4 (affected for FL12 by CES 36) carries a knife-edge warning
     naming bin and sample; a clause on Rf,h7 does not; outcomes are unchanged."""

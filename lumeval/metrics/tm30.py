@@ -566,9 +566,16 @@ def _tm30_core(
         avg_ab_test=avg_t, avg_ab_ref=avg_r, bin_count=counts, hue_bin=hue_bin,
         Jab_test=Jab_t, Jab_ref=Jab_r, cct_K=cct, daylight_fraction=frac,
         reference=kinds, reason=tuple(reasons), spacing_nm=step, blend_observer=blend_observer,
-        hue_edge_pairs=edges if m == n else tuple(
-            dict(zip(idx.tolist(), edges)).get(i, ()) for i in range(n)),
+        hue_edge_pairs=edges if m == n else _placed(edges, idx, n),
     )
+
+
+def _placed(per_row: tuple[Any, ...], idx: np.ndarray, n: int) -> tuple[Any, ...]:
+    """Per-row tuples of the computed rows ``idx`` into a tuple of length ``n`` (``()`` elsewhere)."""
+    out: list[Any] = [()] * n
+    for i, e in zip(idx.tolist(), per_row):
+        out[i] = e
+    return tuple(out)
 
 
 def tm30(

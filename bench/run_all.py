@@ -3,7 +3,9 @@ one run, printed side by side with its ratio and against the targets (docs/lots.
 memory").
 
 1. **engine**: ``evaluate()`` on generated spectra already in memory, spectra per CPU-second
-   (one process, one BLAS thread = per core) at 1 nm and at 5 nm, measured by the engine's own
+   (one process, one BLAS thread = per core) at 1 nm and at 5 nm, as a lot runs it
+   (``keep_details=False``; the rate with the per-sample details kept is printed beside it),
+   measured by the engine's own
    benchmark (bench/bench_engine.py ``time_engine``: median of three runs after a cold run;
    bench/bench_archive.py's ``engine_rate`` when that file is absent). ``--compare`` also runs
    bench/bench_engine.py in full (against the colour-science loop and luxpy's array path,
@@ -75,7 +77,13 @@ def load() -> str:
 
 
 def engine_rate(step_nm: float, n: int) -> float:
-    """Spectra per CPU-second of the engine alone (see the module docstring)."""
+    """Spectra per CPU-second of the engine alone, as a lot runs it (see the module docstring)."""
+    return engine_rates(step_nm, n)[0]
+
+
+def engine_rates(step_nm: float, n: int) -> tuple[float, float | None]:
+    """(spectra per CPU-second of the engine as a lot runs it, the same with the per-sample
+    details kept (None without bench/bench_engine.py))."""
     try:
         import bench_engine  # the engine's own benchmark (bench/bench_engine.py), when present
     except ImportError:
@@ -86,10 +94,10 @@ def engine_rate(step_nm: float, n: int) -> float:
         values = generate_spectra(n)  # its spectra: 1 nm, 380-780 nm; 5 nm = every fifth sample
         k = int(round(step_nm))
         r = bench_engine.time_engine(WL[::k], np.ascontiguousarray(values[:, ::k]), 3)
-        return n / r["cpu"]
+        return n / r["cpu"], n / r["cpu_details"]
     from bench_archive import engine_rate as f
 
-    return float(f(step_nm, n))
+    return float(f(step_nm, n)), None
 
 
 def write_folder(folder: Path, n: int) -> None:
@@ -218,9 +226,12 @@ def main(argv: list[str] | None = None) -> None:
         print("1. engine alone (spectra in memory, one process)", flush=True)
         for step in (1.0, 5.0):
             before = load()
-            res[f"engine_{step:g}nm"] = engine_rate(step, size["engine"])
-            print(f"  {step:g} nm: {res[f'engine_{step:g}nm']:,.0f} spectra/CPU-s ({size['engine']:,} spectra; "
-                  f"load {before}-{load()})", flush=True)
+            res[f"engine_{step:g}nm"], details = engine_rates(step, size["engine"])
+            print(f"  {step:g} nm: {res[f'engine_{step:g}nm']:,.0f} spectra/CPU-s ({size['engine']:,} spectra, figures as a "
+                  f"lot computes them; load {before}-{load()})", flush=True)
+            if details is not None:
+                print(f"        {details:,.0f} spectra/CPU-s with the per-sample CES/TCS coordinates kept "
+                      "(evaluate()'s default, for reports of single spectra)", flush=True)
 
         print("2. `lumeval lot` end to end (child process)", flush=True)
         wide = tmp / "wide"

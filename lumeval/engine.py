@@ -42,9 +42,12 @@ if TYPE_CHECKING:  # pragma: no cover
     from .metrics.tm30 import TM30Result
     from .spectra.prepare import PreparedSpectra
 
-#: Spectra evaluated per chunk. The largest intermediate arrays are (chunk, 99, W) for the
-#: TM-30 samples: 256 × 99 × 471 doubles ≈ 95 MB.
-DEFAULT_CHUNK = 256
+#: Spectra evaluated per chunk. The largest intermediate arrays are (chunk, 297) and
+#: (chunk, 99, 3) for the TM-30 samples (1.2 MB each at 512) and the chunk's spectra
+#: (chunk, W). 512 is the measured optimum on the project machine (a fixed cost of about
+#: 2 ms of Python and numpy calls per chunk weighs double at 256; at 1024 the arrays leave the
+#: core's cache; bench/bench_engine.py), and what lots use (lumeval.lots.run.ENGINE_CHUNK).
+DEFAULT_CHUNK = 512
 
 
 def __getattr__(name: str) -> Any:

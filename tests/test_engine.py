@@ -86,3 +86,12 @@ def test_every_documented_figure_is_available(ev):
         assert ev.figure(name).shape == (len(ev),)
     with pytest.raises(KeyError):
         ev.figure("R15")
+
+
+def test_lots_use_the_engine_default_chunk():
+    """lumeval.lots.run keeps its own literal (it must not import numpy at start-up); the two
+    must not drift apart."""
+    from lumeval.engine import DEFAULT_CHUNK
+    from lumeval.lots.run import ENGINE_CHUNK
+
+    assert ENGINE_CHUNK == DEFAULT_CHUNK

@@ -27,9 +27,8 @@ if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays 
 
 #: Spectra evaluated together (bounded memory; the engine chunks further inside).
 BATCH_SPECTRA = 2048
-#: Engine chunk size for lots. Measured CPU per 1,000 spectra after the TM-30 speed-up: 0.089 s
-#: at 512, 0.097 s at 256, 0.105 s at 1024 (bench/benchmark.py); peak memory of a
-#: 100,000-spectrum lot stays near 600 MB (docs/lots.md).
+#: Engine chunk size for lots: the engine's default (lumeval.engine.DEFAULT_CHUNK, 512: the
+#: measured optimum); peak memory of a 100,000-spectrum lot stays near 600 MB (docs/lots.md).
 ENGINE_CHUNK = 512
 
 

@@ -112,8 +112,8 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
         return pa.array(np.asarray(a[sl], dtype=float), type=f64)
 
     cols: dict[str, object] = {
-        "name": pa.array(list(run.names[sl]), type=pa.string()),
-        "source": pa.array(list(run.sources[sl]), type=pa.string()),
+        "name": _text_array(pa, run.names, start, stop),
+        "source": _text_array(pa, run.sources, start, stop),
     }
     if run.metadata is not None:
         part = run.metadata.slice(start, stop - start)
@@ -122,7 +122,7 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
     verdicts = run.sample_verdicts
     cols["verdict"] = pa.array(list(verdicts[sl]) if verdicts is not None else [None] * (stop - start), type=pa.string())
     cols["outlier"] = pa.array(np.asarray(st.outlier[sl], dtype=bool), type=pa.bool_())
-    cols["outlier_reasons"] = pa.array([" | ".join(r) for r in st.outlier_reasons[sl]], type=pa.string())
+    cols["outlier_reasons"] = _joined_array(pa, st.outlier_reasons, start, stop)
     cols["delta_upvp_centroid"] = num(st.d_upvp_centroid)
     cols["steps_centroid"] = num(st.steps_centroid)
     cols["delta_upvp_nominal"] = num(st.d_upvp_nominal)
@@ -135,8 +135,48 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
     if run.check is not None:
         for r in run.check.results:
             cols[f"clause:{r.clause_id}"] = pa.array(list(r.outcome[sl]), type=pa.string())
-    cols["warnings"] = pa.array([" | ".join(w) for w in run.warnings[sl]], type=pa.string())
+    cols["warnings"] = _joined_array(pa, run.warnings, start, stop)
     return pa.table(cols)
+
+
+def arrow_strings(pa, data: bytes, offsets: np.ndarray):
+    """An Arrow string array from UTF-8 ``data`` and (n + 1) ``offsets``, or None when the bytes
+    are not valid UTF-8 (a lone surrogate of an undecodable file name) or do not fit 32-bit
+    offsets."""
+    if len(data) >= 2**31:
+        return None
+    arr = pa.StringArray.from_buffers(len(offsets) - 1, pa.py_buffer(offsets.astype(np.int32)), pa.py_buffer(data))
+    try:
+        arr.validate(full=True)
+    except pa.ArrowInvalid:
+        return None
+    return arr
+
+
+def _text_array(pa, column, start: int, stop: int):
+    """Rows ``start:stop`` of a text column as an Arrow string array: straight from the packed
+    bytes of a :class:`lumeval.lots.columns.TextColumn` (no Python string per row), else (or
+    for bytes that are not valid UTF-8) one string at a time, as before."""
+    if hasattr(column, "utf8_slice"):
+        arr = arrow_strings(pa, *column.utf8_slice(start, stop))
+        if arr is not None:
+            return arr
+    return pa.array(list(column[start:stop]), type=pa.string())
+
+
+def _joined_array(pa, column, start: int, stop: int):
+    """Rows ``start:stop`` of a column of tuples of strings, each tuple joined with " | ", as an
+    Arrow string array (packed :class:`lumeval.lots.columns.TextTuples`: joined by Arrow's
+    ``binary_join``; else one ``str.join`` per row)."""
+    if hasattr(column, "utf8_slice"):
+        data, str_offsets, tuple_offsets = column.utf8_slice(start, stop)
+        strings = arrow_strings(pa, data, str_offsets)
+        if strings is not None and tuple_offsets[-1] < 2**31:
+            import pyarrow.compute as pc
+
+            lists = pa.ListArray.from_arrays(pa.array(tuple_offsets.astype(np.int32)), strings)
+            return pc.binary_join(lists, " | ")
+    return pa.array([" | ".join(r) for r in column[start:stop]], type=pa.string())
 
 
 #: Rows converted to Arrow at a time when writing a lot's samples.

@@ -20,7 +20,7 @@ import tracemalloc
 import numpy as np
 import pytest
 
-pytest.importorskip("pyarrow")
+pa = pytest.importorskip("pyarrow")
 
 from lumeval.lots import columns
 from lumeval.lots.columns import FigureColumns, TextColumn, TextTuples, figure_rows
@@ -65,6 +65,28 @@ def test_packed_text_equals_the_tuples_it_packs(monkeypatch):
     assert t2 == names and w2 == warns[:6] and w2.count_nonempty() == 3
     with pytest.raises(IndexError):
         t[6]
+
+
+def test_packed_text_goes_to_arrow_as_the_strings_it_packs(monkeypatch):
+    """The per-sample Parquet's text columns built from the packed bytes (no Python string per
+    row) equal pyarrow's own conversion of the strings, for every slice across block ends; a
+    lone surrogate (not valid UTF-8) takes the string-by-string path."""
+    from lumeval.frames import _joined_array, _text_array
+
+    names = ["a", "", "Lamp 3000 K", "über-\u00e9", "x" * 300, "\u2264 5", "", "z"]
+    warns = [(), ("one",), ("two", "three \u2264"), (), ("",), ("a", "b", "c"), (), ("last",)]
+    monkeypatch.setattr(columns, "TEXT_BLOCK", 3)  # several compressed blocks and an open one
+    t, w = TextColumn(names), TextTuples(warns)
+    for start in range(len(names) + 1):
+        for stop in range(start, len(names) + 2):
+            got = _text_array(pa, t, start, stop)
+            assert got.equals(pa.array(names[start:stop], type=pa.string())), (start, stop)
+            joined = _joined_array(pa, w, start, stop)
+            assert joined.equals(pa.array([" | ".join(x) for x in warns[start:stop]], type=pa.string())), (start, stop)
+    bad = TextColumn(["ok", "bad\udcff"])
+    with pytest.raises(UnicodeEncodeError):  # as pyarrow refuses the string itself
+        _text_array(pa, bad, 0, 2)
+    assert _text_array(pa, bad, 0, 1).to_pylist() == ["ok"]
 
 
 # --------------------------------------------------------------------------- same results

@@ -120,6 +120,29 @@ class TextColumn(_SequenceEq, Sequence[str]):
         return self._block(b)[start : self._ends[i]].decode(*_ENC)
 
 
+    def utf8_slice(self, start: int, stop: int) -> tuple[bytes, np.ndarray]:
+        """Strings ``start:stop`` as their packed bytes joined and the (stop − start + 1) offsets
+        into them (int64, from 0): what an Arrow string array is made of, without one Python
+        string per row. The bytes are those stored (``surrogatepass``: a lone surrogate is not
+        valid UTF-8; :func:`lumeval.frames.arrow_strings` checks)."""
+        ends = np.frombuffer(self._ends, dtype=np.int64) if len(self._ends) else np.zeros(0, dtype=np.int64)
+        stop = min(stop, len(self))
+        if stop <= start:
+            return b"", np.zeros(1, dtype=np.int64)
+        data: list[bytes] = []
+        offsets = [np.zeros(1, dtype=np.int64)]
+        total = 0
+        b = start // TEXT_BLOCK
+        while b * TEXT_BLOCK < stop:
+            lo, hi = max(start, b * TEXT_BLOCK), min(stop, (b + 1) * TEXT_BLOCK)
+            s0 = int(ends[lo - 1]) if lo % TEXT_BLOCK else 0
+            e = ends[lo:hi]
+            data.append(bytes(self._block(b)[s0: int(e[-1])]))
+            offsets.append(e - s0 + total)
+            total += int(e[-1]) - s0
+            b += 1
+        return b"".join(data), np.concatenate(offsets)
+
     def __repr__(self) -> str:
         return f"TextColumn({len(self)} strings)"
 
@@ -155,6 +178,19 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
         start = self._ends[i - 1] if i else 0
         return tuple(self._texts[start : self._ends[i]])
 
+
+    def utf8_slice(self, start: int, stop: int) -> tuple[bytes, np.ndarray, np.ndarray]:
+        """Tuples ``start:stop``: the packed bytes and string offsets of their strings
+        (:meth:`TextColumn.utf8_slice`) and the (stop − start + 1) offsets of each tuple's first
+        string among them (int64, from 0)."""
+        ends = np.frombuffer(self._ends, dtype=np.int64) if len(self._ends) else np.zeros(0, dtype=np.int64)
+        stop = min(stop, len(self))
+        if stop <= start:
+            return b"", np.zeros(1, dtype=np.int64), np.zeros(1, dtype=np.int64)
+        t0 = int(ends[start - 1]) if start else 0
+        t1 = int(ends[stop - 1]) if stop > start else t0
+        data, str_offsets = self._texts.utf8_slice(t0, t1)
+        return data, str_offsets, np.concatenate([np.zeros(1, dtype=np.int64), ends[start:stop] - t0])
 
     def __repr__(self) -> str:
         return f"TextTuples({len(self)} samples)"

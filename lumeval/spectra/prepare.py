@@ -529,6 +529,10 @@ class PreparedSpectra:
         return int(self._where[0][i])
 
     def _per_spectrum(self, attr: str) -> tuple[Any, ...]:
+        if len(self.groups) == 1:  # one grid, its rows in input order: its own tuple
+            m = self.members[0]
+            if m.size == 0 or (m[0] == 0 and np.array_equal(m, np.arange(m.size))):
+                return tuple(getattr(self.groups[0], attr))
         grp, row = self._where
         return tuple(getattr(self.groups[g], attr)[r] for g, r in zip(grp, row))
 

@@ -20,7 +20,7 @@ import tracemalloc
 import numpy as np
 import pytest
 
-pa = pytest.importorskip("pyarrow")
+pytest.importorskip("pyarrow")
 
 from lumeval.lots import columns
 from lumeval.lots.columns import FigureColumns, TextColumn, TextTuples, figure_rows
@@ -71,6 +71,8 @@ def test_packed_text_goes_to_arrow_as_the_strings_it_packs(monkeypatch):
     """The per-sample Parquet's text columns built from the packed bytes (no Python string per
     row) equal pyarrow's own conversion of the strings, for every slice across block ends; a
     lone surrogate (not valid UTF-8) takes the string-by-string path."""
+    import pyarrow as pa
+
     from lumeval.frames import _joined_array, _text_array
 
     names = ["a", "", "Lamp 3000 K", "über-\u00e9", "x" * 300, "\u2264 5", "", "z"]

@@ -35,12 +35,40 @@ def mixed_folder(tmp_path_factory):
     wl = np.arange(380, 781, 5)
     rows = "".join(f"{w},{1 + 0.001 * w},{0.0},{2 - 0.001 * w}\n" for w in wl)
     (d / "AD30-w48-0405-wide.csv").write_text("wavelength,A,zero,B\n" + rows, encoding="utf-8")
+    # among the 1 nm files (read and prepared together by a worker: lots/reading._read_many): one
+    # with negative noise (clipped, with a note), one that cannot be prepared (all zero: the
+    # others of its task are then prepared one by one), a wide 1 nm file with a column that
+    # cannot be prepared (salvaged), a 2 nm file (interpolated: prepared alone) and one in
+    # descending order (sorted: prepared alone)
+    wl1 = np.arange(380, 781)
+    base = 1.0 + np.sin(wl1 / 40.0) ** 2
+    neg = base.copy()
+    neg[3:6] = -0.002
+    (d / "AD30-w48-010-neg.csv").write_text(
+        "wavelength_nm,neg\n" + "".join(f"{w},{v:.6f}\n" for w, v in zip(wl1, neg)), encoding="utf-8")
+    (d / "AD30-w48-020-zero.csv").write_text(
+        "wavelength_nm,zero1\n" + "".join(f"{w},0\n" for w in wl1), encoding="utf-8")
+    (d / "AD30-w48-030-wide1.csv").write_text(
+        "wavelength_nm,W1,Wzero\n" + "".join(f"{w},{v:.6f},0\n" for w, v in zip(wl1, base)), encoding="utf-8")
+    wl2 = np.arange(380, 781, 2)
+    (d / "AD30-w48-040-2nm.csv").write_text(
+        "wavelength_nm,two\n" + "".join(f"{w},{1 + 0.001 * w:.6f}\n" for w in wl2), encoding="utf-8")
+    (d / "AD30-w48-045-desc.csv").write_text(
+        "wavelength_nm,desc\n" + "".join(f"{w},{v:.6f}\n" for w, v in zip(wl1[::-1], base[::-1])), encoding="utf-8")
     return d
 
 
-def test_ordered_reads_in_workers_equal_serial_reads(mixed_folder):
+@pytest.mark.parametrize("files_per_task", [32, 7])
+def test_ordered_reads_in_workers_equal_serial_reads(mixed_folder, monkeypatch, files_per_task):
+    """Files read and prepared together by the workers give, file by file, exactly what reading
+    each alone gives: spectra, notes, refused files and columns with their messages."""
+    monkeypatch.setattr(reading, "FILES_PER_TASK", files_per_task)
     files = [str(p) for p in sorted(mixed_folder.iterdir())]
     serial = [read_one(f) for f in files]
+    shown = {Path(f).name: r for f, r in zip(files, serial)}
+    assert shown["AD30-w48-020-zero.csv"][0] is None and shown["AD30-w48-030-wide1.csv"][1]
+    assert any("below zero" in n for n in shown["AD30-w48-010-neg.csv"][0].notes[0])
+    assert any("interpolated" in n for n in shown["AD30-w48-040-2nm.csv"][0].notes[0])
     parallel = list(reading.ordered_reads(files, processes=2))
     assert len(parallel) == len(serial)
     for (s1, bad1), (s2, bad2) in zip(serial, parallel):
@@ -97,10 +125,11 @@ def test_a_large_file_read_here_is_converted_by_forked_processes_unless_one_is_a
 
 
 def _logged_read(path):
-    """A stand-in read (forked into the workers): notes the path in a log file, returns it."""
+    """A stand-in read of a worker (forked into the workers): notes the path in a log file and
+    returns it as the message of an unreadable file."""
     with open(path, "a", encoding="utf-8") as f:
         f.write("r\n")
-    return path, []
+    return None, [path]
 
 
 @pytest.mark.skipif(not reading._FORK, reason="reading workers are forked on Linux")
@@ -112,9 +141,9 @@ def test_reading_workers_read_a_bounded_number_of_files_ahead(tmp_path, monkeypa
     log = tmp_path / "log.txt"
     log.write_text("", encoding="utf-8")
     monkeypatch.setattr(reading, "FILES_PER_TASK", 2)
-    monkeypatch.setattr(reading, "_read_one", _logged_read)
+    monkeypatch.setattr(reading, "_read_raw", _logged_read)
     reads = reading.ordered_reads([str(log)] * 400, processes=2)
-    assert next(reads) == (str(log), [])
+    assert next(reads) == (None, [str(log)])
     time.sleep(1.0)  # the workers would go on reading here if nothing bounded them
     bound = (reading.TASKS_AHEAD_PER_PROCESS * 2 + 1) * 2
     assert len(log.read_text(encoding="utf-8").split()) <= bound
@@ -136,7 +165,7 @@ def test_a_killed_reading_worker_stops_the_run_with_a_clear_error(monkeypatch):
     at once, instead of waiting forever for its results."""
     from lumeval.errors import LumevalError, WorkerError
 
-    monkeypatch.setattr(reading, "_read_one", _killed_read)
+    monkeypatch.setattr(reading, "_read_raw", _killed_read)
     with pytest.raises(WorkerError) as exc:
         list(reading.ordered_reads(["x.csv"] * 100, processes=2))
     assert isinstance(exc.value, LumevalError) and "--processes 1" in exc.value.message

@@ -46,6 +46,12 @@ def _read_one(path: str):
     return read_one(path)
 
 
+def _read_raw(path: str):
+    from .run import read_raw
+
+    return read_raw(path)
+
+
 def _pool(processes: int):
     """A pool of ``processes`` workers (:func:`lumeval._workers.worker_pool`: forked on Linux)."""
     from .._workers import worker_pool
@@ -90,9 +96,9 @@ def ordered_reads(paths: Sequence[str], processes: int | None = None) -> Generat
         for i in range(0, len(paths), FILES_PER_TASK):
             waiting.append(pool.submit(_read_many, paths[i: i + FILES_PER_TASK]))
             while len(waiting) > TASKS_AHEAD_PER_PROCESS * processes:
-                yield from pool.result(waiting.popleft())
+                yield from _per_file(pool.result(waiting.popleft()))
         while waiting:
-            yield from pool.result(waiting.popleft())
+            yield from _per_file(pool.result(waiting.popleft()))
     finally:
         pool.terminate()
 
@@ -106,8 +112,62 @@ def read_processes_for(n_files: int, processes: int | None) -> int:
     return 1 if n_files < 2 else max(1, processes)
 
 
-def _read_many(paths: Sequence[str]) -> list:
-    return [_read_one(p) for p in paths]
+def _read_many(paths: Sequence[str]) -> tuple[list, list]:
+    """The files of one worker task: ``(joined, entries)``, one entry per path, in order: either
+    ``read_one(path)``'s result or ``(k, a, b)``, rows ``a:b`` of the prepared set ``joined[k]``
+    (:func:`_per_file` gives back the per-file results).
+
+    Files whose spectra lie on one wavelength grid that preparation uses as measured (uniform
+    1 or 5 nm on integers: :func:`lumeval.spectra.prepare.used_as_measured`, no arithmetic that
+    could depend on how many spectra are prepared together) are prepared together, as one set:
+    one preparation instead of one per file (about 0.1 ms of the ~0.6 ms a small file costs), and
+    one set to send back instead of one per file. Preparation is row by row, so each file's
+    spectra and notes are those of preparing the file alone; if any file of the set cannot be
+    prepared, each is prepared alone, so every message is the one a file read alone gives."""
+    from ..errors import LumevalError
+    from ..spectra.model import SpectrumSet
+    from ..spectra.prepare import prepare, used_as_measured
+    from .run import display_path, prepare_salvaging
+
+    entries: list = [None] * len(paths)
+    by_grid: dict[bytes, list] = {}
+    for i, p in enumerate(paths):
+        raw, bad = _read_raw(p)
+        if raw is None:
+            entries[i] = (None, bad)
+        elif used_as_measured(raw.wavelengths_nm):
+            by_grid.setdefault(raw.wavelengths_nm.tobytes(), []).append((i, raw))
+        else:
+            entries[i] = prepare_salvaging(raw, display_path(p))
+    joined: list = []
+    for members in by_grid.values():
+        prepared = None
+        if len(members) > 1:
+            try:
+                prepared = prepare(SpectrumSet.concatenate([raw for _, raw in members]))
+            except LumevalError:
+                prepared = None
+        if prepared is None:
+            for i, raw in members:
+                entries[i] = prepare_salvaging(raw, display_path(paths[i]))
+            continue
+        a = 0
+        for i, raw in members:
+            entries[i] = (len(joined), a, a + len(raw))
+            a += len(raw)
+        joined.append(prepared)
+    return joined, entries
+
+
+def _per_file(task: tuple[list, list]) -> Iterator[tuple]:
+    """``read_one(path)``'s result for each file of a :func:`_read_many` task, in order."""
+    joined, entries = task
+    for e in entries:
+        if len(e) == 3:
+            k, a, b = e
+            yield joined[k].subset(slice(a, b)), []
+        else:
+            yield e
 
 
 def _stream_bytes() -> int:

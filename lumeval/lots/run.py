@@ -134,16 +134,21 @@ class LotRun:
 def read_one(path: str):
     """(prepared SpectrumSet or None, [Unreadable]) for one file; salvages the usable columns
     of a wide file when some columns cannot be prepared."""
+    raw, bad = read_raw(path)
+    return (None, bad) if raw is None else prepare_salvaging(raw, display_path(path))
+
+
+def read_raw(path: str):
+    """(SpectrumSet as read or None, [Unreadable]) for one file, before preparation."""
     from ..errors import LumevalError
     from ..spectra.read import read_spectra
 
     try:
-        raw = read_spectra(path)
+        return read_spectra(path), []
     except LumevalError as exc:
         return None, [Unreadable(display_path(path), exc.message)]
     except OSError as exc:
         return None, [Unreadable(display_path(path), f"{display_path(path)}: cannot be read ({exc.strerror or exc}) — check the file and its permissions")]
-    return prepare_salvaging(raw, display_path(path))
 
 
 def prepare_salvaging(raw, shown: str):

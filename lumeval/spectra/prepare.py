@@ -307,6 +307,23 @@ def _check_values(
     return vals
 
 
+def _computation_step(step: float, wl: np.ndarray) -> bool:
+    """True when a uniform ``step`` over increasing ``wl`` is a computation grid (1 or 5 nm on
+    integer wavelengths): such data are used as measured, without interpolation."""
+    return (abs(step - 1) < 1e-9 or abs(step - 5) < 1e-9) and _on_integer_grid(wl)
+
+
+def used_as_measured(wavelengths_nm: np.ndarray) -> bool:
+    """True when :func:`prepare` uses data on ``wavelengths_nm`` as measured (increasing, uniform
+    1 or 5 nm steps on integer wavelengths): only views, cropping and clipping, no arithmetic
+    that could depend on how many spectra are prepared together."""
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    if wl.ndim != 1 or wl.size < 2 or not np.all(np.isfinite(wl)):
+        return False
+    d = np.diff(wl)
+    return bool(np.all(d > 0) and np.abs(d - d[0]).max() <= 1e-6 and _computation_step(float(d[0]), wl))
+
+
 def _on_integer_grid(wl: np.ndarray) -> bool:
     # np.allclose(wl, np.round(wl), rtol=0, atol=1e-9) for finite wl, without its overhead
     return bool(np.abs(wl - np.round(wl)).max() <= 1e-9)
@@ -389,7 +406,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
             )
 
     step = float(d[0])
-    as_measured = uniform and (abs(step - 1) < 1e-9 or abs(step - 5) < 1e-9) and _on_integer_grid(wl)
+    as_measured = uniform and _computation_step(step, wl)
     if as_measured:
         keep = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
         first = int(np.argmax(keep))

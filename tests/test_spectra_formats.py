@@ -168,6 +168,29 @@ def test_oversized_text_refused(tmp_path, monkeypatch):
         read_spectra(CORPUS / "two_col_header.csv")
 
 
+def test_a_file_is_read_to_its_size_and_at_most_one_byte_past_the_limit(tmp_path, monkeypatch):
+    """read_at_most sizes its read by the file's size; a file that grows after that size was
+    taken (simulated: fstat reports fewer bytes than there are) is read on, never beyond
+    limit + 1 bytes, so the caller's "too large" check still sees every oversized file."""
+    import os
+    from types import SimpleNamespace
+
+    from lumeval.spectra.text import read_at_most
+
+    p = tmp_path / "f.csv"
+    p.write_bytes(b"x" * 100)
+    with open(p, "rb") as fh:
+        assert read_at_most(fh, 1000) == b"x" * 100
+    with open(p, "rb") as fh:
+        assert read_at_most(fh, 60) == b"x" * 61  # too large: limit + 1 bytes
+    real_fstat = os.fstat
+    monkeypatch.setattr(os, "fstat", lambda fd: SimpleNamespace(st_size=10, st_mode=real_fstat(fd).st_mode))
+    with open(p, "rb") as fh:
+        assert read_at_most(fh, 1000) == b"x" * 100  # grew from 10 to 100 bytes: read on
+    with open(p, "rb") as fh:
+        assert read_at_most(fh, 60) == b"x" * 61  # and still bounded
+
+
 def test_missing_file_and_directory(tmp_path):
     with pytest.raises(InputError, match="no such file"):
         read_spectra(tmp_path / "nope.csv")

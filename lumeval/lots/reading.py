@@ -135,14 +135,12 @@ def _read_many(paths: Sequence[str]) -> tuple[list, list]:
         raw, bad = _read_raw(p)
         if raw is None:
             entries[i] = (None, bad)
-        elif used_as_measured(raw.wavelengths_nm):
-            by_grid.setdefault(raw.wavelengths_nm.tobytes(), []).append((i, raw))
         else:
-            entries[i] = prepare_salvaging(raw, display_path(p))
+            by_grid.setdefault(raw.wavelengths_nm.tobytes(), []).append((i, raw))
     joined: list = []
     for members in by_grid.values():
         prepared = None
-        if len(members) > 1:
+        if len(members) > 1 and used_as_measured(members[0][1].wavelengths_nm):
             try:
                 prepared = prepare(SpectrumSet.concatenate([raw for _, raw in members]))
             except LumevalError:

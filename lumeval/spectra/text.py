@@ -234,13 +234,27 @@ def _read_bytes(path: str | Path, limit: int) -> bytes:
     """
     from .._paths import display_path
 
-    raw = with_regular_file(path, lambda fh: fh.read(limit + 1), limit)
+    raw = with_regular_file(path, lambda fh: read_at_most(fh, limit), limit)
     if len(raw) > limit:
         raise InputError(
             f"is more than the {limit / 1e6:.0f} MB lumeval reads",
             file=display_path(path),
             fix="split the file or check that it is really a spectrum file",
         )
+    return raw
+
+
+def read_at_most(fh, limit: int) -> bytes:
+    """The bytes of the open binary file ``fh``, at most ``limit + 1`` of them (one more than
+    ``limit`` tells the caller the file is too large). The read is sized by the file's current
+    size: a read of ``limit + 1`` bytes makes Python reserve that much (64 MB for a 4 kB file,
+    about 20 µs a file); a file that grew since is read on, up to the same bound."""
+    import os
+
+    hint = max(0, min(limit, os.fstat(fh.fileno()).st_size))
+    raw = fh.read(hint + 1)
+    if len(raw) > hint and len(raw) <= limit:  # it grew: read on, up to limit + 1 in all
+        raw += fh.read(limit + 1 - len(raw))
     return raw
 
 

@@ -258,15 +258,26 @@ def _same_ref(r1: tuple, r2: tuple) -> bool:
     return i1 == i2 if (i1 is not None and i2 is not None) else a1 == a2
 
 
-def _input_files(inputs: Iterable) -> list[Path]:
-    """The input files named by ``inputs`` (files, the files directly in folders, glob matches)."""
-    out: list[Path] = []
+def _is_file(entry: os.DirEntry) -> bool:
+    """``Path.is_file`` of a folder entry (False when it cannot be examined)."""
+    try:
+        return entry.is_file()
+    except OSError:
+        return False
+
+
+def _input_files(inputs: Iterable) -> list[str | Path]:
+    """The input files named by ``inputs`` (files, the files directly in folders, glob matches).
+    A folder's files are listed with their types from the listing (``os.scandir``: a stat only
+    for symbolic links, which are followed), as paths (str)."""
+    out: list[str | Path] = []
     for item in inputs:
         text = os.fspath(item)
         p = Path(text)
         try:
             if p.is_dir():
-                out.extend(q for q in p.iterdir() if q.is_file())
+                with os.scandir(text) as it:
+                    out.extend(e.path for e in it if _is_file(e))
             elif p.exists():
                 out.append(p)
             elif glob.has_magic(text):

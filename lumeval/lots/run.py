@@ -260,14 +260,15 @@ def run_lot(
         return run_lot_dask(paths, criteria, scheduler=scheduler, workers=workers, ellipse=ellipse,
                             nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
                             uncertainty=uncertainty)
-    from ..spectra.archive import is_archive
+    from ..spectra.archive import has_archive_suffix
     from ..spectra.read import unique_names
     from .streaming import LotAccumulator, archive_batches
 
     found = expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []
-    archives = [is_archive(f, sniff=False) for f in files]  # by name: no extra open per file
+    # by name: the files are regular files (expand_inputs), so no stat or open per file
+    archives = [has_archive_suffix(f) for f in files]
     from ..progress import EVALUATING, READING, offset, report
 
     expected = _expected_samples(files, archives)

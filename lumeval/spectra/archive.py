@@ -88,6 +88,12 @@ def _parquet_files_in(folder: Path) -> list[Path]:
     )
 
 
+def has_archive_suffix(path: str | os.PathLike) -> bool:
+    """True when the name of ``path`` ends with a Parquet extension (no file system access: what
+    :func:`is_archive` decides without ``sniff`` for a path known to be a regular file)."""
+    return os.fspath(path).lower().endswith(PARQUET_SUFFIXES)
+
+
 def is_archive(path: str | os.PathLike, *, sniff: bool = True) -> bool:
     """True when ``path`` is a Parquet file (by extension, or with ``sniff`` by its first four
     bytes) or a folder holding Parquet files. Cheap: reads at most four bytes."""

@@ -95,12 +95,17 @@ class SpectrumSet:
         for s in sets[1:]:
             if s.wavelengths_nm.shape != wl.shape or not np.array_equal(s.wavelengths_nm, wl):
                 raise ValueError("spectrum sets do not share one wavelength grid")
+        from itertools import chain
+
+        def joined(attr: str) -> tuple:  # one pass (summing tuples copies them once per set)
+            return tuple(chain.from_iterable(getattr(s, attr) for s in sets))
+
         return SpectrumSet(
             wl,
             np.vstack([s.values for s in sets]),
-            sum((s.names for s in sets), ()),
-            sum((s.sources for s in sets), ()),
-            sum((s.notes for s in sets), ()),
-            sum((s.metadata for s in sets), ()),
+            joined("names"),
+            joined("sources"),
+            joined("notes"),
+            joined("metadata"),
             all(s.prepared for s in sets),
         )

@@ -36,7 +36,8 @@ import os
 import re
 import secrets
 import stat
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping, Sequence
+from itertools import chain
 from pathlib import Path
 from typing import IO
 
@@ -293,6 +294,7 @@ def check_targets(
     dirs: Mapping[str, str | os.PathLike[str] | None] | None = None,
     inputs: Iterable = (),
     dir_files: Mapping[str, Iterable[str]] | None = None,
+    input_files: Sequence[str] = (),
 ) -> None:
     """Refuse unusable output targets before any work (one :class:`UsageError`, exit code 2).
 
@@ -308,6 +310,10 @@ def check_targets(
     dir_files : mapping option name -> file-name patterns
         The files a folder option writes (e.g. ``{"--plots": ("chromaticity.svg", "spd-*.png", ...)}``):
         no file target may be one of them, and an existing one must be a regular file.
+    input_files : sequence of str
+        Inputs already known to be regular files (a lot's expanded inputs,
+        :func:`lumeval.lots.inputs.expand_inputs`): compared like ``inputs`` without being
+        examined again (no stat each when no target exists yet).
 
     Refused: see :func:`check_output_file` and :func:`check_output_dir`; a target that is one
     of the inputs; two options naming the same file; a file target that a folder option would
@@ -334,13 +340,14 @@ def check_targets(
         check_output_dir(v, opt, (dir_files or {}).get(opt))
         given_dirs[opt] = Path(os.fspath(v))
     try:
-        _check_collisions(given, given_dirs, inputs, dir_files or {})
+        _check_collisions(given, given_dirs, inputs, dir_files or {}, input_files)
     except OSError as exc:  # e.g. a name too long for the file system
         raise UsageError(f"cannot use {_shown(str(exc.filename or ''))}: {exc.strerror or exc}",
                          fix="choose a shorter or valid path") from None
 
 
-def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files: Mapping) -> None:
+def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files: Mapping,
+                      input_files: Sequence[str] = ()) -> None:
     import fnmatch
 
     for opt, p in given.items():
@@ -364,7 +371,7 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
         # each input stat-ed once (a lot may have a million input files; none when no output exists)
         outs = [(opt, p, _file_ref(p)) for opt, p in given.items()]
         any_exists = any(ref[0] is not None for _, _, ref in outs)
-        for src in _input_files(inputs):
+        for src in chain(_input_files(inputs), input_files):
             src_ref = _file_ref(src) if any_exists else (None, os.path.abspath(src))
             for opt, p, ref in outs:
                 if _same_ref(ref, src_ref):

@@ -165,8 +165,8 @@ def register(app: typer.Typer) -> None:
 
             dir_files = {"--plots": PLOT_FILE_PATTERNS}
         check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
-                      inputs=[*(expand_inputs(paths).files if any(v is not None for v in outputs.values()) else ()),
-                              *[p for p in (criteria_file, instrument) if p is not None]])
+                      inputs=[p for p in (criteria_file, instrument) if p is not None],
+                      input_files=expand_inputs(paths).files if any(v is not None for v in outputs.values()) else ())
         criteria = None
         if criteria_file is not None:
             from ..criteria import lot_clauses  # noqa: F401  (registers the lot clause kinds)

@@ -186,6 +186,18 @@ def _planck_table() -> tuple[np.ndarray, np.ndarray]:
     return T, uv
 
 
+@cache
+def _planck_search() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """What every CCT search reuses of :func:`_planck_table`: the indices of the 1 % coarse
+    table, its (u, v), ln T of the fine table and its v (read-only)."""
+    T, tab = _planck_table()
+    coarse_idx = np.arange(0, T.size, _COARSE)
+    out = (coarse_idx, tab[coarse_idx], np.log(T), np.ascontiguousarray(tab[:, 1]))
+    for a in out:
+        a.setflags(write=False)
+    return out
+
+
 def planckian_uv(temperature_K: ArrayLike) -> np.ndarray:
     """CIE 1960 (u, v) of the Planckian radiator at ``temperature_K``, shape (..., 2).
 
@@ -266,8 +278,7 @@ def cct_duv_ohno(uv: ArrayLike) -> CCTResult:
     n = uv.shape[0]
     m = np.zeros(n, dtype=int)
     finite = np.all(np.isfinite(uv), axis=1)
-    coarse_idx = np.arange(0, T.size, _COARSE)
-    coarse = tab[coarse_idx]
+    coarse_idx, coarse, log_T, v_tab = _planck_search()
     for s in range(0, n, 2048):
         sl = slice(s, s + 2048)
         q = uv[sl]
@@ -305,7 +316,7 @@ def cct_duv_ohno(uv: ArrayLike) -> CCTResult:
     # The sign needs only the locus' v at Tx: interpolating the fine table in log T is exact
     # to ~1e-9 in v, far below any Duv that could change a decision.
     Tx_safe = np.clip(np.where(np.isfinite(Tx) & (Tx > 0), Tx, T1), _T_LO, _T_HI)
-    v_locus = np.interp(np.log(Tx_safe), np.log(T), tab[:, 1])
+    v_locus = np.interp(np.log(Tx_safe), log_T, v_tab)
     sign = np.where(uv[:, 1] - v_locus >= 0.0, 1.0, -1.0)
     # Beyond the table's ends (900 K, 25 000 K) the nearest-point geometry breaks down: the
     # "distance to the locus" would be measured to an end of the table, not to the locus, so

@@ -177,3 +177,18 @@ def test_knife_edge_through_the_cli(tmp_path, capsys, colour):
     by = {r["id"]: r for r in s["clauses"]}
     assert by["h4"]["outcome"] == "pass" and "CES 36" in by["h4"]["reason"]
     assert by["Rf"]["reason"] is None
+
+
+def test_reference_hue_is_atan2_in_degrees_modulo_360():
+    """reference_hue equals numpy's own atan2 → degrees → remainder 360° bit for bit (its
+    shortcut for the remainder is exact for |h| ≤ 180°), signed zeros and non-finite a′, b′
+    included."""
+    rng = np.random.default_rng(7)
+    jab = rng.normal(size=(300, 99, 3)) * 30.0
+    jab[0, :6, 1:] = [[0.0, 0.0], [-0.0, 0.0], [0.0, -0.0], [-1e-300, -0.0], [-5.0, -1e-300], [-5.0, 1e-300]]
+    jab[1, :4, 1:] = [[np.nan, 1.0], [1.0, np.inf], [-np.inf, -np.inf], [-np.inf, 0.0]]
+    got = T.reference_hue(jab)
+    want = np.degrees(np.arctan2(jab[..., 2], jab[..., 1])) % 360.0
+    assert np.array_equal(got, want, equal_nan=True)
+    assert np.array_equal(np.signbit(got), np.signbit(want))
+    assert ((got[np.isfinite(got)] >= 0.0) & (got[np.isfinite(got)] < 360.0)).all()

@@ -362,7 +362,12 @@ def _jab(
 def reference_hue(Jab_ref: np.ndarray) -> np.ndarray:
     """CIECAM02 hue angle h (degrees, [0, 360)) of CES from their CAM02-UCS (J′, a′, b′):
     a′ = M′ cos h and b′ = M′ sin h with M′ ≥ 0 (Luo, Cui & Li 2006), so h = atan2(b′, a′)."""
-    return cast("np.ndarray", np.degrees(np.arctan2(Jab_ref[..., 2], Jab_ref[..., 1])) % 360.0)
+    h = np.degrees(np.arctan2(Jab_ref[..., 2], Jab_ref[..., 1]))  # in [-180°, 180°]
+    # h mod 360° without numpy's general remainder: for |h| < 360 it is h + 360 where h < 0
+    # (the same addition numpy's remainder makes) and h itself elsewhere
+    np.add(h, 360.0, out=h, where=h < 0.0)
+    h += 0.0  # -0° (atan2(-0, x)) as +0°, as the remainder gives it
+    return cast("np.ndarray", h)
 
 
 def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:

@@ -339,12 +339,13 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     edges = getattr(fid, "hue_edge_pairs", ())
     edges = edges if len(edges) == n else ((),) * n
     notes = spectra.notes
-    out = []
-    for i in range(n):
-        # most spectra have nothing to say: their notes as they are
-        if not (outside[i] or dc_bad[i] or cct_reason[i] or fid_reason[i] or phot_reason[i] or edges[i]):
-            out.append(tuple(notes[i]))
-            continue
+    # most spectra have nothing to say: their notes as they are; the others are found at C speed
+    # (a true value in any of the per-spectrum lists) and get their messages below
+    say = np.zeros(n, dtype=bool)
+    for flags in (outside, dc_bad, cct_reason, fid_reason, phot_reason, edges):
+        say |= np.fromiter(map(bool, flags), dtype=bool, count=n)
+    out = list(map(tuple, notes))  # (tuple() of a tuple is that tuple: no copy)
+    for i in np.flatnonzero(say).tolist():
         w = list(notes[i])
         if outside[i]:
             w.append(validity_warning(cct_reason[i], ref_list[i]))
@@ -361,7 +362,7 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
             w.extend(hue_edge_warnings(edges, i))
         if phot_reason[i]:
             w.append(f"photometry: {phot_reason[i]}.")
-        out.append(tuple(w))
+        out[i] = tuple(w)
     return tuple(out)
 
 

@@ -52,7 +52,7 @@ class SpectrumSet:
         if len(self.names) != n or len(self.sources) != n:
             raise ValueError("names and sources must have one entry per spectrum")
         if not self.notes:
-            object.__setattr__(self, "notes", tuple(() for _ in range(n)))
+            object.__setattr__(self, "notes", ((),) * n)
         if not self.metadata:
             object.__setattr__(self, "metadata", tuple({} for _ in range(n)))
 

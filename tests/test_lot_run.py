@@ -72,6 +72,19 @@ def test_batching_does_not_change_results(demo_run):
     assert a.stats.max_pairwise_d_upvp == pytest.approx(b.stats.max_pairwise_d_upvp, rel=1e-12)
 
 
+def test_a_lot_given_its_expanded_inputs_equals_the_lot_given_its_paths(demo_run, tmp_path):
+    """run_lot on expand_inputs' result (what the command passes, having expanded the inputs
+    once for its output checks) is the run on the paths themselves, missing inputs included."""
+    paths = [DEMO, str(tmp_path / "missing.csv")]
+    a = run_lot(paths, _criteria())
+    b = run_lot(expand_inputs(paths), _criteria())
+    assert len(a) == 200 and len(a.unreadable) == 1
+    assert a.names == b.names and a.sources == b.sources and a.read_paths == b.read_paths
+    assert a.unreadable == b.unreadable and a.exit_code == b.exit_code == 2
+    for k in a.figures:  # the same files in the same batches through the same code: the same numbers
+        np.testing.assert_array_equal(a.figures[k], b.figures[k])
+
+
 def test_expand_inputs(tmp_path):
     (tmp_path / "a.csv").write_text("x")
     (tmp_path / "b.txt").write_text("x")

@@ -134,7 +134,8 @@ def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, 
     """Judge a production lot (``lumeval lot``): every sample's figures and verdicts, the lot
     statistics, yield and outliers, and the lot clauses.
 
-    ``paths`` are files, folders and glob patterns (:func:`lumeval.lots.inputs.expand_inputs`);
+    ``paths`` are files, folders and glob patterns (:func:`lumeval.lots.inputs.expand_inputs`,
+    whose result may also be given);
     ``criteria`` a criteria file or parsed criteria (optional). With ``instrument`` (or an
     ``[instrument]`` table) each sample's clauses are decided under measurement uncertainty.
     ``keep_evaluation`` keeps the judged samples' spectra for a report that draws them.

@@ -164,9 +164,13 @@ def register(app: typer.Typer) -> None:
             from ..render.html import PLOT_FILE_PATTERNS
 
             dir_files = {"--plots": PLOT_FILE_PATTERNS}
+        # the inputs expanded once: for the outputs-vs-inputs check and for the run (not for a
+        # Dask run, which expands its own archives)
+        expanded = expand_inputs(paths) if scheduler is None and workers is None else None
         check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
                       inputs=[p for p in (criteria_file, instrument) if p is not None],
-                      input_files=expand_inputs(paths).files if any(v is not None for v in outputs.values()) else ())
+                      input_files=((expanded if expanded is not None else expand_inputs(paths)).files
+                                   if any(v is not None for v in outputs.values()) else ()))
         criteria = None
         if criteria_file is not None:
             from ..criteria import lot_clauses  # noqa: F401  (registers the lot clause kinds)
@@ -186,7 +190,8 @@ def register(app: typer.Typer) -> None:
         # progress on stderr (a terminal only, not with --quiet) while reading, evaluating, the
         # Monte Carlo of --instrument and the report figures; removed before the summary prints
         with progress_listener() as progress:
-            run = lot(paths, criteria, instrument=instrument, seed=seed, draws=draws, progress=progress,
+            run = lot(paths if expanded is None else expanded, criteria, instrument=instrument, seed=seed, draws=draws,
+                      progress=progress,
                       keep_evaluation=report, scheduler=scheduler, workers=workers,
                       **({} if processes is None else {"read_processes": processes, "evaluate_processes": processes}))
             if samples_csv is not None:

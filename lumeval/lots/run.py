@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from functools import cached_property
 from typing import TYPE_CHECKING
 
-from .inputs import Skipped, Unreadable, display_path, expand_inputs
+from .inputs import LotInputs, Skipped, Unreadable, display_path, expand_inputs
 
 if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays light
     import numpy as np
@@ -202,7 +202,7 @@ def _concat_clause(parts: list):
 
 
 def run_lot(
-    paths: Sequence[str | os.PathLike],
+    paths: Sequence[str | os.PathLike] | LotInputs,
     criteria=None,
     *,
     ellipse=None,
@@ -220,8 +220,10 @@ def run_lot(
 
     Parameters
     ----------
-    paths : sequence of str or Path
-        Files, folders and glob patterns (see the module docstring).
+    paths : sequence of str or Path, or LotInputs
+        Files, folders and glob patterns (see the module docstring), or their expansion by
+        :func:`lumeval.lots.inputs.expand_inputs` already made (the command expands once for
+        its output checks and the run).
     criteria : lumeval.criteria.model.Criteria, optional
         Per-sample clauses give each sample's verdict and the yield; lot clauses (see
         :mod:`lumeval.criteria.lot_clauses`) are judged on the lot statistics.
@@ -257,14 +259,16 @@ def run_lot(
     if scheduler is not None or workers is not None:
         from .dask_runner import run_lot_dask
 
-        return run_lot_dask(paths, criteria, scheduler=scheduler, workers=workers, ellipse=ellipse,
+        # the Dask runner expands its inputs itself (from the files, when given expanded)
+        return run_lot_dask(list(paths.files) if isinstance(paths, LotInputs) else paths, criteria,
+                            scheduler=scheduler, workers=workers, ellipse=ellipse,
                             nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
                             uncertainty=uncertainty)
     from ..spectra.archive import has_archive_suffix
     from ..spectra.read import unique_names
     from .streaming import LotAccumulator, archive_batches
 
-    found = expand_inputs(paths)
+    found = paths if isinstance(paths, LotInputs) else expand_inputs(paths)
     files, unreadable = list(found.files), list(found.unreadable)
     read_paths: list[str] = []
     # by name: the files are regular files (expand_inputs), so no stat or open per file

@@ -282,13 +282,7 @@ def run_lot(
     pending_n = 0
     done = 0
 
-    sample_criteria = None
-    if criteria is not None:
-        from ..criteria.lot_clauses import has_sample_clauses
-
-        if has_sample_clauses(criteria):
-            sample_criteria = criteria
-
+    sample_criteria = _sample_criteria(criteria)
     from .evaluating import BatchEvaluator
     from .reading import is_streamed, ordered_reads, stream_blocks
 
@@ -353,6 +347,15 @@ def run_lot(
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
                       ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,
                       read_paths=tuple(read_paths))
+
+
+def _sample_criteria(criteria):
+    """The criteria when they hold per-sample clauses (every sample is then judged), else None."""
+    if criteria is None:
+        return None
+    from ..criteria.lot_clauses import has_sample_clauses
+
+    return criteria if has_sample_clauses(criteria) else None
 
 
 def _evaluating_processes(asked: int | None, read_processes: int | None, n_whole: int) -> int:

@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint venv clean bench bench-lots bench-lots-quick fuzz browser-deps postgres-deps
+.PHONY: demo test test-numeric lint venv clean bench bench-lots bench-lots-quick fuzz browser-deps postgres-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -61,6 +61,17 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(PY) -m pytest
+
+# The tests whose assertions compare computed figures (metrics, engine, reference tables, lots,
+# criteria and verdicts, uncertainty, tunable sources, the history store's recorded figures,
+# Dask against a local run): CI runs them a second time with one BLAS thread.
+NUMERIC_TESTS = $(sort $(wildcard tests/test_metrics*.py tests/test_engine*.py tests/test_tm30*.py \
+	tests/test_hue*.py tests/test_uncertainty*.py tests/test_tunable*.py tests/test_grid*.py \
+	tests/test_validity*.py tests/test_criteria*.py tests/test_lot_*.py tests/test_spectra_prepare.py \
+	tests/test_dask*.py tests/test_store*.py))
+
+test-numeric: $(STAMP)
+	$(PY) -m pytest $(NUMERIC_TESTS)
 
 # Gates (configured in pyproject.toml): ruff on the whole tree, then mypy on lumeval/ (strict on
 # the computation core: metrics/, engine.py, figures.py, spectra/prepare.py).

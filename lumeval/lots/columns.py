@@ -96,10 +96,16 @@ class TextColumn(_SequenceEq, Sequence[str]):
         i, n = 0, len(items)
         while i < n:
             room = TEXT_BLOCK - len(self._ends) % TEXT_BLOCK
-            enc = [s.encode(*_ENC) for s in items[i: i + room]]
-            _append_ends(self._ends, enc, len(self._open))
-            self._open += b"".join(enc)
-            i += len(enc)
+            part = items[i: i + room]
+            joined = "".join(part)
+            if joined.isascii():  # one encoding for the lot (ASCII: a string's bytes are its characters)
+                _append_ends(self._ends, part, len(self._open))
+                self._open += joined.encode("ascii")
+            else:
+                enc = [s.encode(*_ENC) for s in part]
+                _append_ends(self._ends, enc, len(self._open))
+                self._open += b"".join(enc)
+            i += len(part)
             if len(self._ends) % TEXT_BLOCK == 0:
                 self._blocks.append(zlib.compress(self._open, 1))
                 self._open = bytearray()

@@ -76,6 +76,11 @@ def _append_ends(ends: array, parts: Sequence[Sized], base: int) -> None:
     ends.frombytes((np.cumsum(lengths) + base).astype("=i8").tobytes())
 
 
+def _ends_array(ends: array) -> np.ndarray:
+    """The int64 end offsets ``ends`` as a numpy array (a view; empty for none)."""
+    return np.frombuffer(ends, dtype=np.int64) if len(ends) else np.zeros(0, dtype=np.int64)
+
+
 class TextColumn(_SequenceEq, Sequence[str]):
     """A growing sequence of strings packed as UTF-8 bytes and end offsets, in blocks of
     :data:`TEXT_BLOCK` strings compressed once full (zlib, level 1: names, sources and warnings
@@ -131,7 +136,7 @@ class TextColumn(_SequenceEq, Sequence[str]):
         into them (int64, from 0): what an Arrow string array is made of, without one Python
         string per row. The bytes are those stored (``surrogatepass``: a lone surrogate is not
         valid UTF-8; :func:`lumeval.frames.arrow_strings` checks)."""
-        ends = np.frombuffer(self._ends, dtype=np.int64) if len(self._ends) else np.zeros(0, dtype=np.int64)
+        ends = _ends_array(self._ends)
         stop = min(stop, len(self))
         if stop <= start:
             return b"", np.zeros(1, dtype=np.int64)
@@ -174,7 +179,7 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
 
     def count_nonempty(self) -> int:
         """Samples with at least one string (counted from the offsets, nothing decoded)."""
-        ends = np.frombuffer(self._ends, dtype=np.int64) if len(self._ends) else np.zeros(0, dtype=np.int64)
+        ends = _ends_array(self._ends)
         return int(np.count_nonzero(np.diff(ends, prepend=0)))
 
     def __len__(self) -> int:
@@ -189,12 +194,12 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
         """Tuples ``start:stop``: the packed bytes and string offsets of their strings
         (:meth:`TextColumn.utf8_slice`) and the (stop − start + 1) offsets of each tuple's first
         string among them (int64, from 0)."""
-        ends = np.frombuffer(self._ends, dtype=np.int64) if len(self._ends) else np.zeros(0, dtype=np.int64)
+        ends = _ends_array(self._ends)
         stop = min(stop, len(self))
         if stop <= start:
             return b"", np.zeros(1, dtype=np.int64), np.zeros(1, dtype=np.int64)
         t0 = int(ends[start - 1]) if start else 0
-        t1 = int(ends[stop - 1]) if stop > start else t0
+        t1 = int(ends[stop - 1])
         data, str_offsets = self._texts.utf8_slice(t0, t1)
         return data, str_offsets, np.concatenate([np.zeros(1, dtype=np.int64), ends[start:stop] - t0])
 

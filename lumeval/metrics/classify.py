@@ -79,11 +79,8 @@ def ansi_category(upvp: ArrayLike, edition: str = "2017") -> tuple[np.ndarray, n
 
     P = np.atleast_2d(np.asarray(upvp, dtype=float))
     cats = sorted(ansi_table(edition))
-    corners = [np.asarray(ansi_quadrangle(c, edition).corners_upvp, dtype=float) for c in cats]
-    if len({c.shape for c in corners}) == 1:  # (Quadrangle.margin of each category, in one pass)
-        margins = polygons_signed_distance(np.stack(corners), P)  # (N, K)
-    else:
-        margins = np.stack([ansi_quadrangle(c, edition).margin(P) for c in cats], axis=1)
+    # Quadrangle.margin of every category (each has 4 corners), in one pass: (N, K)
+    margins = polygons_signed_distance(np.stack([ansi_quadrangle(c, edition).corners_upvp for c in cats]), P)
     ok = np.all(np.isfinite(P), axis=1)
     k = np.argmax(np.where(ok[:, None], margins, -np.inf), axis=1)
     best = margins[np.arange(P.shape[0]), k]

@@ -307,6 +307,11 @@ def _check_values(
     return vals
 
 
+def _uniform(d: np.ndarray) -> bool:
+    """The (finite) steps ``d`` are one spacing: np.allclose(d, d[0], rtol=0, atol=1e-6), without its overhead."""
+    return bool(np.abs(d - d[0]).max() <= 1e-6)
+
+
 def _computation_step(step: float, wl: np.ndarray) -> bool:
     """True when a uniform ``step`` over increasing ``wl`` is a computation grid (1 or 5 nm on
     integer wavelengths): such data are used as measured, without interpolation."""
@@ -321,7 +326,7 @@ def used_as_measured(wavelengths_nm: np.ndarray) -> bool:
     if wl.ndim != 1 or wl.size < 2 or not np.all(np.isfinite(wl)):
         return False
     d = np.diff(wl)
-    return bool(np.all(d > 0) and np.abs(d - d[0]).max() <= 1e-6 and _computation_step(float(d[0]), wl))
+    return bool(np.all(d > 0) and _uniform(d) and _computation_step(float(d[0]), wl))
 
 
 def _on_integer_grid(wl: np.ndarray) -> bool:
@@ -397,7 +402,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
             f"coarser than {_fmt(MAX_SPACING_NM)} nm cannot resolve lamp spectra",
             "measure or export at 5 nm spacing or finer (1 nm preferred)",
         )
-    uniform = bool(np.abs(d - d[0]).max() <= 1e-6)  # np.allclose(d, d[0], rtol=0, atol=1e-6); d is finite
+    uniform = _uniform(d)  # d is finite
     if max_gap > WARN_SPACING_NM + 1e-9:
         for k in range(n):
             notes[k].append(

@@ -93,14 +93,23 @@ def test_max_pairwise_distance_equals_all_pairs(n):
     assert lot.max_pairwise_distance_bruteforce(P, chunk=97) == pytest.approx(ref, rel=1e-12)
 
 
-@pytest.mark.parametrize("shape", ["cloud", "circle", "square grid", "two clusters"])
+def _diameter_scipy(P: np.ndarray) -> float:
+    """Reference diameter: scipy's ConvexHull (Qhull), then scipy's cdist between its vertices,
+    a block of rows at a time (an independent library; the diameter is a hull-vertex pair)."""
+    from scipy.spatial import ConvexHull
+    from scipy.spatial.distance import cdist
+
+    H = P[ConvexHull(P).vertices]
+    return max(float(cdist(H[k: k + 2000], H).max()) for k in range(0, H.shape[0], 2000))
+
+
+@pytest.mark.parametrize("shape", ["cloud", "circle", "square grid", "two clusters", "disc"])
 def test_max_pairwise_distance_large_sets_against_scipy_hull(shape, monkeypatch):
     """20,000 points: after the octagon filter the pairs are compared directly ("cloud", "two
-    clusters"), or through Qhull when many points are left ("circle": all 20,000 on the hull;
-    "square grid": hull points on the octagon's edges, ties). Reference: scipy's ConvexHull
-    and pdist over its vertices (an independent library; the diameter is a hull-vertex pair)."""
-    from scipy.spatial import ConvexHull
-
+    clusters"), after the finer 32- and 256-gon filters ("disc": about 2,000 points are left
+    around the octagon), or through Qhull and rotating calipers when nearly every point is a
+    hull vertex ("circle": all 20,000); "square grid": hull points on the octagon's edges, ties.
+    Reference: scipy's ConvexHull and cdist over its vertices."""
     rng = np.random.default_rng(7)
     n = 20_000
     if shape == "cloud":
@@ -111,16 +120,63 @@ def test_max_pairwise_distance_large_sets_against_scipy_hull(shape, monkeypatch)
     elif shape == "square grid":
         g = np.arange(142) * 1e-4
         P = np.array([(a, b) for a in g for b in g])[:n]
+    elif shape == "disc":
+        r, t = np.sqrt(rng.uniform(0, 1, n)), rng.uniform(0, 2 * np.pi, n)
+        P = np.column_stack([0.2 + 0.01 * r * np.cos(t), 0.45 + 0.01 * r * np.sin(t)])
+        assert lot._outside_octagon(P).size > lot.BRUTE_FORCE_POINTS  # the case the finer filters are for
     else:
         P = np.vstack([rng.normal(size=(n // 2, 2)) * 1e-4 + [0.2, 0.5], rng.normal(size=(n // 2, 2)) * 1e-4 + [0.25, 0.45]])
     P = P[rng.permutation(P.shape[0])]
-    hull = []
+    hull, calipers = [], []
     monkeypatch.setattr(lot, "_hull_vertices", lambda Q, real=lot._hull_vertices: hull.append(1) or real(Q))
+    monkeypatch.setattr(lot, "_calipers", lambda H, real=lot._calipers: calipers.append(1) or real(H))
     d, i, j = lot.max_pairwise_distance(P)
-    ref = pdist(P[ConvexHull(P).vertices]).max()
+    ref = _diameter_scipy(P)
     assert d == pytest.approx(ref, rel=1e-12)
     assert np.linalg.norm(P[i] - P[j]) == pytest.approx(ref, rel=1e-12)
-    assert bool(hull) == (shape == "circle")  # the filter leaves few points except on a circle
+    assert bool(hull) == bool(calipers) == (shape == "circle")  # the filters leave few points except on a circle
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_calipers_farthest_pair_of_convex_polygons(seed):
+    """Rotating calipers over convex polygons (counter-clockwise, from scipy's ConvexHull) against
+    scipy's pdist over all vertex pairs: random points on ellipses, on a coarse grid (parallel
+    edges, ties) and in a cloud."""
+    from scipy.spatial import ConvexHull
+
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(3, 80))
+    if seed % 3 == 0:
+        t = rng.uniform(0, 2 * np.pi, n)
+        P = np.column_stack([rng.uniform(0.5, 2) * np.cos(t), np.sin(t)])
+    elif seed % 3 == 1:
+        P = rng.integers(0, 5, (n + 3, 2)).astype(float)
+        P[:3] = [[0, 0], [4, 0], [0, 4]]  # never collinear
+    else:
+        P = rng.normal(size=(n, 2))
+    H = P[ConvexHull(P).vertices]
+    a, b = lot._calipers(H)
+    assert np.linalg.norm(H[a] - H[b]) == pytest.approx(pdist(H).max(), rel=1e-12)
+
+
+def test_max_pairwise_distance_of_points_on_a_circle_in_bounded_memory():
+    """50,000 points on a circle are all hull vertices: comparing every pair would need a
+    50,000 x 50,000 table (37 GB); the rotating calipers need memory proportional to the points.
+    Reference: the diameter of a circle of radius 0.01 is 0.02 (to the points' angular spacing)."""
+    import tracemalloc
+
+    t = np.linspace(0, 2 * np.pi, 50_000, endpoint=False)
+    P = np.column_stack([0.3 + 0.01 * np.cos(t), 0.4 + 0.01 * np.sin(t)])
+    P = P[np.random.default_rng(3).permutation(P.shape[0])]
+    tracemalloc.start()
+    try:
+        d, i, j = lot.max_pairwise_distance(P)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert d == pytest.approx(0.02, rel=1e-9)
+    assert np.linalg.norm(P[i] - P[j]) == pytest.approx(d, rel=1e-12)
+    assert peak < 200e6
 
 
 def test_max_pairwise_degenerate_sets():

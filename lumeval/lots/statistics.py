@@ -307,8 +307,8 @@ def max_pairwise_distance(points) -> tuple[float, int, int]:
     if cand.size > BRUTE_FORCE_POINTS:
         hull = cand[_hull_vertices(Q[cand])]
         if hull.size > BRUTE_FORCE_POINTS:
-            a, b = _calipers(Q[hull])
-            i, j = sorted((int(idx[hull[a]]), int(idx[hull[b]])))
+            p, q = _calipers(Q[hull])
+            i, j = sorted((int(idx[hull[p]]), int(idx[hull[q]])))
             return float(np.hypot(*(P[i] - P[j]))), i, j
         cand = hull
     C = Q[cand]

@@ -109,7 +109,7 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
     def num(a):
         if a is None:
             return pa.nulls(stop - start, f64)
-        return pa.array(np.asarray(a[sl], dtype=float), type=f64)
+        return float_array(pa, a[sl])
 
     cols: dict[str, object] = {
         "name": _text_array(pa, run.names, start, stop),
@@ -120,8 +120,8 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
         for head, name in zip(metadata_headers(run), run.metadata.column_names):
             cols[head] = part.column(name)
     verdicts = run.sample_verdicts
-    cols["verdict"] = pa.array(list(verdicts[sl]) if verdicts is not None else [None] * (stop - start), type=pa.string())
-    cols["outlier"] = pa.array(np.asarray(st.outlier[sl], dtype=bool), type=pa.bool_())
+    cols["verdict"] = string_array(pa, verdicts[sl]) if verdicts is not None else pa.nulls(stop - start, pa.string())
+    cols["outlier"] = bool_array(pa, st.outlier[sl])
     cols["outlier_reasons"] = _joined_array(pa, st.outlier_reasons, start, stop)
     cols["delta_upvp_centroid"] = num(st.d_upvp_centroid)
     cols["steps_centroid"] = num(st.steps_centroid)
@@ -131,12 +131,44 @@ def lot_samples_table(run, start: int = 0, stop: int | None = None):
 
     mat = figure_rows(run.figures, start, stop)  # rows start:stop of every figure, read once
     for j, k in enumerate(run.figures):
-        cols[k] = pa.array(mat[:, j], type=f64)
+        cols[k] = float_array(pa, mat[:, j])
     if run.check is not None:
         for r in run.check.results:
-            cols[f"clause:{r.clause_id}"] = pa.array(list(r.outcome[sl]), type=pa.string())
+            cols[f"clause:{r.clause_id}"] = string_array(pa, r.outcome[sl])
     cols["warnings"] = _joined_array(pa, run.warnings, start, stop)
     return pa.table(cols)
+
+
+# Arrow arrays from their buffers: pyarrow's ``pa.array`` (of a list or an ndarray) and ``pa.scalar``
+# import pandas when it is installed (0.4 s per process), which a lot never needs otherwise.
+
+
+def float_array(pa, a):
+    """A float64 Arrow array of the values ``a`` (NaN stays NaN, as ``pa.array`` keeps it)."""
+    v = np.ascontiguousarray(a, dtype=float)
+    return pa.Array.from_buffers(pa.float64(), v.shape[0], [None, pa.py_buffer(v)])
+
+
+def bool_array(pa, a):
+    """A boolean Arrow array of the values ``a`` (Arrow's bits: least significant first)."""
+    v = np.asarray(a, dtype=bool)
+    return pa.Array.from_buffers(pa.bool_(), v.shape[0], [None, pa.py_buffer(np.packbits(v, bitorder="little"))])
+
+
+def string_array(pa, values):
+    """An Arrow string array of Python strings, None as null; a lone surrogate raises
+    UnicodeEncodeError, as ``pa.array`` does."""
+    vals = list(values)
+    n = len(vals)
+    enc = [b"" if v is None else v.encode("utf-8") for v in vals]
+    data = b"".join(enc)
+    if len(data) >= 2**31:
+        return pa.array(vals, type=pa.string())
+    offsets = np.zeros(n + 1, dtype=np.int32)
+    np.cumsum(np.fromiter(map(len, enc), dtype=np.int32, count=n), out=offsets[1:])  # < 2**31 in all
+    nulls = np.fromiter((v is None for v in vals), dtype=bool, count=n)
+    validity = pa.py_buffer(np.packbits(~nulls, bitorder="little")) if nulls.any() else None
+    return pa.StringArray.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data), validity, int(nulls.sum()))
 
 
 def arrow_strings(pa, data: bytes, offsets: np.ndarray):
@@ -161,7 +193,7 @@ def _text_array(pa, column, start: int, stop: int):
         arr = arrow_strings(pa, *column.utf8_slice(start, stop))
         if arr is not None:
             return arr
-    return pa.array(list(column[start:stop]), type=pa.string())
+    return string_array(pa, column[start:stop])
 
 
 def _joined_array(pa, column, start: int, stop: int):
@@ -174,9 +206,16 @@ def _joined_array(pa, column, start: int, stop: int):
         if strings is not None and tuple_offsets[-1] < 2**31:
             import pyarrow.compute as pc
 
-            lists = pa.ListArray.from_arrays(pa.array(tuple_offsets.astype(np.int32)), strings)
-            return pc.binary_join(lists, " | ")
-    return pa.array([" | ".join(r) for r in column[start:stop]], type=pa.string())
+            offs = np.ascontiguousarray(tuple_offsets, dtype=np.int32)
+            lists = pa.ListArray.from_arrays(pa.Array.from_buffers(pa.int32(), offs.shape[0], [None, pa.py_buffer(offs)]),
+                                             strings)
+            return pc.binary_join(lists, _SEPARATOR(pa))
+    return string_array(pa, [" | ".join(r) for r in column[start:stop]])
+
+
+def _SEPARATOR(pa):
+    """" | " as an Arrow scalar (taken from an array: ``pa.scalar`` imports pandas)."""
+    return arrow_strings(pa, b" | ", np.array([0, 3]))[0]
 
 
 #: Rows converted to Arrow at a time when writing a lot's samples.

@@ -143,6 +143,69 @@ def test_frames_do_not_load_at_start_up():
     assert r.stdout.strip() == "False", r.stderr
 
 
+def test_archive_lot_does_not_import_pandas(tmp_path):
+    """A Parquet lot with per-sample verdicts and clause outcomes written to Parquet runs without
+    pandas (pyarrow's ``pa.array``, ``pa.scalar``, ``to_numpy`` import it when it is installed:
+    0.4 s per process). Checked in a fresh interpreter, with pandas installed."""
+    pytest.importorskip("pandas")
+    arch = demo_archive(tmp_path / "demo.parquet")
+    table = pq.read_table(arch)
+    # a float32 wavelength column (a missing value would be refused: the null branch of the
+    # buffer reader is checked in the next test)
+    j = table.column_names.index("400")
+    table = table.set_column(j, "400", table.column(j).cast(pa.float32()))
+    arch = tmp_path / "lot.parquet"
+    pq.write_table(table, arch, row_group_size=64)
+    out = tmp_path / "samples.parquet"
+    argv = ["lumeval", "lot", str(arch), "--criteria", str(DEMO_CRITERIA), "--samples-parquet", str(out), "--quiet"]
+    code = ("import sys, runpy\n"
+            f"sys.argv = {argv!r}\n"
+            "try:\n    runpy.run_module('lumeval', run_name='__main__')\n"
+            "except SystemExit as e:\n    print('exit', e.code)\n"
+            "print('pandas' in sys.modules)\n")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, timeout=300)
+    lines = r.stdout.strip().splitlines()
+    assert lines[-2] in ("exit 0", "exit 1") and lines[-1] == "False", r.stdout[-2000:] + r.stderr
+    t = pq.read_table(out)
+    assert t.num_rows == table.num_rows and t.column("verdict").null_count == 0
+    assert any(c.startswith("clause:") for c in t.column_names)
+    assert t.column("outlier").type == pa.bool_()
+
+
+def test_arrays_from_buffers_equal_pyarrows_own_conversion():
+    """lumeval.frames' float, boolean and string arrays (built from buffers) against
+    ``pa.array`` of the same values (pyarrow's own conversion, the reference); the archive
+    reader's float values against pyarrow's ``fill_null`` + ``to_numpy``."""
+    from lumeval.frames import bool_array, float_array, string_array
+    from lumeval.spectra.archive import float_values
+
+    rng = np.random.default_rng(5)
+    x = rng.normal(size=41)
+    x[[3, 5]] = np.nan
+    x[7], x[8] = -0.0, np.inf
+    for v in (x, x[::3], x[:0]):
+        a, ref = float_array(pa, v), pa.array(v, type=pa.float64())
+        assert a.type == ref.type and a.null_count == ref.null_count == 0
+        got, want = np.asarray(a.to_numpy()), np.asarray(ref.to_numpy())
+        assert got.tobytes() == want.tobytes()  # the same bits, signed zero and NaN included
+    b = rng.random(77) > 0.5
+    for v in (b, b[1::2], b[:0]):
+        assert bool_array(pa, v).equals(pa.array(v, type=pa.bool_()))
+    for vals in (["pass", None, "fail", "", "na\u00efve \u2713", None, "x" * 1000], [None, None], [], ["only"]):
+        arr = string_array(pa, vals)
+        arr.validate(full=True)
+        assert arr.equals(pa.array(vals, type=pa.string())), vals
+    with pytest.raises(UnicodeEncodeError):  # as pa.array: a lone surrogate is not UTF-8
+        string_array(pa, ["bad\udcff"])
+    for typ in (pa.float64(), pa.float32()):
+        arr = pa.array([1.5, None, 3.25, np.nan, -0.0, None, 7.0, 2.5e-3], type=typ)
+        for part in (arr, arr.slice(1), arr.slice(2, 4), arr.slice(8), arr.slice(5, 3), pa.array([1.0, 2.0], type=typ)):
+            want = part.cast(pa.float64()).fill_null(float("nan")).to_numpy(zero_copy_only=False)
+            got = float_values(pa, part)
+            assert got.dtype == np.float64 and got.tobytes() == np.asarray(want, dtype=np.float64).tobytes()
+    assert float_values(pa, pa.array([1, 2])) is None  # integers: the reader's general path
+
+
 def test_metadata_text_is_untrusted_in_the_csv(tmp_path):
     """A metadata cell that a spreadsheet would run as a formula is neutralised (OWASP CSV
     injection guidance: a leading quote); control characters are escaped."""

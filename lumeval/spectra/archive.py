@@ -289,15 +289,40 @@ class ArchiveBatch:
 
 def _values(batch, layout: Layout) -> np.ndarray:
     """(n, W) float64 matrix of the wavelength columns of a record batch (nulls → NaN)."""
+    pa, _ = _pa()
     n = batch.num_rows
     out = np.empty((n, len(layout.wavelength_columns)))
     names = batch.schema.names
     for j, col in enumerate(layout.wavelength_columns):
         arr = batch.column(names.index(col))
-        if arr.null_count:
-            arr = arr.cast("float64").fill_null(float("nan"))
-        out[:, j] = arr.to_numpy(zero_copy_only=False)
+        v = float_values(pa, arr)
+        if v is None:  # integer and decimal columns
+            if arr.null_count:
+                arr = arr.cast("float64").fill_null(float("nan"))
+            v = arr.to_numpy(zero_copy_only=False)
+        out[:, j] = v
     return out
+
+
+def float_values(pa, arr) -> np.ndarray | None:
+    """The values of a float32 or float64 Arrow array as float64, nulls as NaN, read from the
+    array's buffers (a view when float64 without nulls); None for any other type.
+
+    (``Array.to_numpy`` and ``fill_null`` with a Python value import pandas when it is
+    installed, 0.4 s per process; an archive lot does not otherwise need it.)"""
+    if arr.type not in (pa.float64(), pa.float32()):
+        return None
+    if arr.type != pa.float64():
+        arr = arr.cast(pa.float64())  # exact
+    n, off = len(arr), arr.offset
+    if n == 0:
+        return np.empty(0)
+    buffers = arr.buffers()
+    vals = np.frombuffer(buffers[1], dtype=np.float64, count=off + n)[off:]
+    if arr.null_count:
+        valid = np.unpackbits(np.frombuffer(buffers[0], dtype=np.uint8), count=off + n, bitorder="little")[off:]
+        vals = np.where(valid.astype(bool), vals, np.nan)
+    return vals
 
 
 def _names(batch, layout: Layout, file: str, first_row: int) -> list[str]:
@@ -466,11 +491,13 @@ def archive_table(spectra: SpectrumSet):
         for k in m:
             if k not in _DERIVED and k not in keys and k != NAME_COLUMN and wavelength_of(k) is None:
                 keys.append(k)
-    cols = {NAME_COLUMN: pa.array(list(spectra.names), type=pa.string())}
+    from ..frames import float_array, string_array  # from buffers: pa.array would import pandas
+
+    cols = {NAME_COLUMN: string_array(pa, spectra.names)}
     for k in keys:
-        cols[k] = pa.array([None if m.get(k) is None else str(m[k]) for m in spectra.metadata], type=pa.string())
+        cols[k] = string_array(pa, [None if m.get(k) is None else str(m[k]) for m in spectra.metadata])
     for j, w in enumerate(spectra.wavelengths_nm):
-        cols[wavelength_column_name(w)] = pa.array(np.ascontiguousarray(spectra.values[:, j]), type=pa.float64())
+        cols[wavelength_column_name(w)] = float_array(pa, spectra.values[:, j])
     return pa.table(cols)
 
 

@@ -45,6 +45,14 @@ def test_figure_columns_give_back_exactly_what_was_stored(tmp_path):
         np.testing.assert_array_equal(cols.rows(a, b), data[a:b])
         np.testing.assert_array_equal(figure_rows(cols, a, b), figure_rows(dict(zip(names, data.T)), a, b))
     assert np.signbit(cols["f0"][77])
+    assert cols.rows(5, 60)[:, 2].flags.c_contiguous  # one figure's rows contiguous (the writers read so)
+    more = rng.normal(size=(3, 5))
+    cols.add(more)  # fewer than a block: rows not yet sealed
+    assert cols.n_rows == 106
+    data = np.vstack([data, more])
+    for a, b in [(0, 106), (95, 106), (103, 106), (104, 105), (101, 104)]:
+        np.testing.assert_array_equal(cols.rows(a, b), data[a:b])
+        np.testing.assert_array_equal(cols.column("f1", a, b), data[a:b, 1])
 
 
 def test_packed_text_equals_the_tuples_it_packs(monkeypatch):

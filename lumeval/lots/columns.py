@@ -251,7 +251,9 @@ class FigureColumns(Mapping[str, np.ndarray]):
     def _seal(self) -> None:
         if not self._pending_n:
             return
-        block = np.ascontiguousarray(np.concatenate(self._pending).T)  # (F, rows): one figure contiguous
+        # (F, rows): one figure contiguous; a batch's figures usually come in that order already
+        # (evaluate_batch), and then no transposition is needed
+        block = np.ascontiguousarray(np.concatenate([p.T for p in self._pending], axis=1))
         self._pending, n, self._pending_n = [], self._pending_n, 0
         data: np.ndarray | int = block
         if self._mem + block.nbytes > self.spill_bytes:
@@ -327,12 +329,25 @@ class FigureColumns(Mapping[str, np.ndarray]):
         return out
 
     def rows(self, start: int, stop: int) -> np.ndarray:
-        """Rows ``start:stop`` of every figure, shape (rows, F), figures in name order."""
+        """Rows ``start:stop`` of every figure, shape (rows, F), figures in name order.
+
+        The array is stored figure by figure (Fortran order: ``out[:, j]`` is contiguous, as
+        the Parquet and CSV writers read it); each block in the range is read whole, one read
+        per spilled block (not one per figure and block)."""
         stop = min(stop, self.n_rows)
-        out = np.empty((max(stop - start, 0), len(self._names)))
-        for j, name in enumerate(self._names):
-            out[:, j] = self.column(name, start, stop)
-        return out
+        n = max(stop - start, 0)
+        out = np.empty((len(self._names), n))
+        for first, m, data in self._blocks:
+            a, b = max(start, first), min(stop, first + m)
+            if a >= b:
+                continue
+            block = data if isinstance(data, np.ndarray) else self._read(data, len(self._names) * m).reshape(-1, m)
+            out[:, a - start: b - start] = block[:, a - first: b - first]
+        if self._pending_n and stop > self._sealed:
+            pending = np.concatenate(self._pending)
+            lo = max(start - self._sealed, 0)
+            out[:, max(self._sealed - start, 0):] = pending[lo: stop - self._sealed].T
+        return out.T
 
     def __getitem__(self, name: str) -> np.ndarray:
         return self.column(name)

@@ -75,7 +75,8 @@ def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: i
     from .run import ENGINE_CHUNK
 
     ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False, progress=progress)
-    figs = np.column_stack([ev.figure(k) for k in figure_names()])
+    # (n, F) stored figure by figure (Fortran order): the lot record keeps blocks that way
+    figs = np.array([ev.figure(k) for k in figure_names()], dtype=float).T
     xy = np.column_stack([ev.x, ev.y])
     clauses = None
     if sample_criteria is not None and uncertainty is not None and uncertainty.active:

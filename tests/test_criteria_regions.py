@@ -441,6 +441,45 @@ def test_ansi_category_margins_match_a_dense_trace_of_every_quadrangle():
         assert np.array_equal(inside, margin >= 0) and inside.any() and (~inside).any()
 
 
+def test_largest_signed_distance_equals_the_argmax_over_every_polygon():
+    """largest_signed_distance computes only the distances that can be the largest (a bound
+    from each polygon's circumscribing disc); its choice and value must equal the argmax over
+    polygons_signed_distance's full matrix (numpy's argmax: the first on a tie). Exact equality:
+    the same arithmetic on the same numbers. Points: scattered near and far, on the corners and
+    edge midpoints of the ANSI quadrangles (shared edges: ties), non-finite; polygons: the ANSI
+    categories of both editions, a duplicated polygon (a tie everywhere), random convex ones."""
+    from scipy.spatial import ConvexHull
+
+    rng = np.random.default_rng(17)
+    sets = []
+    for ed in ("2008", "2017"):
+        sets.append(np.stack([R.ansi_quadrangle(c, ed).corners_upvp for c in sorted(R.ansi_table(ed))]))
+    q = sets[-1]
+    sets.append(np.concatenate([q[:3], q[2:3], q[3:]]))  # the third polygon twice
+    rand = []
+    for _ in range(7):
+        pts = rng.normal(0.0, 1.0, (40, 2)) * rng.uniform(0.002, 0.02) + rng.uniform(0.15, 0.3, 2)
+        hull = pts[ConvexHull(pts).vertices]
+        rand.append(hull[np.linspace(0, hull.shape[0] - 1, 5).astype(int)])  # 5 corners of a convex hull
+    sets.append(np.stack(rand))
+    for V in sets:
+        corners = V.reshape(-1, 2)
+        mids = (V + np.roll(V, -1, axis=1)).reshape(-1, 2) / 2
+        pts = np.vstack([
+            np.column_stack([rng.uniform(0.15, 0.32, 3000), rng.uniform(0.40, 0.56, 3000)]),
+            rng.normal(0.0, 2.0, (200, 2)),  # far away
+            corners, mids,
+            [[np.nan, 0.5], [0.2, np.inf], [np.nan, np.nan]],
+        ])
+        full = R.polygons_signed_distance(V, pts)
+        ok = np.isfinite(pts).all(axis=1)
+        k_ref = np.argmax(np.where(ok[:, None], full, -np.inf), axis=1)
+        k, best = R.largest_signed_distance(V, pts)
+        assert np.array_equal(k[ok], k_ref[ok])
+        assert np.array_equal(best[ok], full[np.arange(pts.shape[0]), k_ref][ok])
+        assert np.all(k[~ok] == 0) and np.all(np.isnan(best[~ok]))
+
+
 def test_ellipse_margin_matches_a_dense_trace():
     """The fast Δu'v' to the n-step boundary agrees with plain geometry on a 20 000-vertex trace
     of the boundary (sign exact, distance within 2e-7), inside and outside, for every IEC centre."""

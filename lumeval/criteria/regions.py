@@ -498,6 +498,43 @@ def polygons_signed_distance(vertices, points) -> np.ndarray:
     return out
 
 
+def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
+    """For each point, the polygon of ``vertices`` (Q, K, 2) with the largest signed distance
+    (:func:`polygons_signed_distance`; the first on a tie) and that distance: ``(k, best)`` of
+    shape (N,), k = 0 and best = NaN for a point with a non-finite coordinate. The same as the
+    argmax over :func:`polygons_signed_distance`'s matrix, with the same arithmetic for every
+    distance it computes, but without computing the distances that cannot be the largest.
+
+    Bound (plain geometry): a convex polygon lies in the disc of radius r about its corners'
+    mean c, so its signed distance at p is at most r − |p − c| (inside, a disc of that distance
+    about p fits in the polygon, hence in the disc about c; outside it is negative and at least
+    |p − c| − r away). Each point's distance to the polygon of the highest bound is computed
+    first; then only the polygons whose bound reaches it (less a margin of rounding)."""
+    V = np.asarray(vertices, dtype=float)
+    P = np.atleast_2d(np.asarray(points, dtype=float))
+    n, Q = P.shape[0], V.shape[0]
+    c = V.mean(axis=1)  # (Q, 2)
+    r = np.sqrt(((V - c[:, None, :]) ** 2).sum(axis=2)).max(axis=1)  # (Q,)
+    ok = np.all(np.isfinite(P), axis=1)
+    bound = r - np.hypot(P[:, 0, None] - c[:, 0], P[:, 1, None] - c[:, 1])  # (n, Q)
+    bound[~ok] = -np.inf
+    m = np.full((n, Q), -np.inf)
+    first = np.argmax(bound, axis=1)
+    for q in range(Q):
+        sel = ok & (first == q)
+        if sel.any():
+            m[sel, q] = _signed_distance_chunk(V[q: q + 1], P[sel])[:, 0]
+    reach = m.max(axis=1) - 1e-12 * (1.0 + r.max())
+    need = (bound >= reach[:, None]) & (m == -np.inf)
+    for q in range(Q):
+        sel = need[:, q]
+        if sel.any():
+            m[sel, q] = _signed_distance_chunk(V[q: q + 1], P[sel])[:, 0]
+    k = np.argmax(m, axis=1)
+    best = np.where(ok, m[np.arange(n), k], np.nan)
+    return np.where(ok, k, 0), best
+
+
 def _signed_distance_chunk(V: np.ndarray, P: np.ndarray) -> np.ndarray:
     """(n, Q) signed distances of the points P (n, 2) to the polygons V (Q, K, 2), computed on
     x and y components (n, Q, K) apart (no reductions over a length-2 axis)."""

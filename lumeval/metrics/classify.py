@@ -75,15 +75,14 @@ def ansi_category(upvp: ArrayLike, edition: str = "2017") -> tuple[np.ndarray, n
         when there is one, else the nearest), whether the point is inside it, and the signed
         Δu'v' margin (positive inside).
     """
-    from ..criteria.regions import ansi_quadrangle, ansi_table, polygons_signed_distance
+    from ..criteria.regions import ansi_quadrangle, ansi_table, largest_signed_distance
 
     P = np.atleast_2d(np.asarray(upvp, dtype=float))
     cats = sorted(ansi_table(edition))
-    # Quadrangle.margin of every category (each has 4 corners), in one pass: (N, K)
-    margins = polygons_signed_distance(np.stack([ansi_quadrangle(c, edition).corners_upvp for c in cats]), P)
+    # the largest Quadrangle.margin over the categories (each has 4 corners), computed only for
+    # the categories that can have it (a point is near two or three of the ten)
+    k, best = largest_signed_distance(np.stack([ansi_quadrangle(c, edition).corners_upvp for c in cats]), P)
     ok = np.all(np.isfinite(P), axis=1)
-    k = np.argmax(np.where(ok[:, None], margins, -np.inf), axis=1)
-    best = margins[np.arange(P.shape[0]), k]
     nominal = np.where(ok, np.asarray(cats, dtype=float)[k], np.nan)
     margin = np.where(ok, best, np.nan)
     return nominal, ok & (margin >= 0.0), margin

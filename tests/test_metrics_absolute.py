@@ -125,6 +125,12 @@ def test_radiance_gives_luminance_and_edl_and_relative_gives_nothing(colour):
     assert np.isnan(res.illuminance_lx[:2]).all() and np.isnan(res.luminance_cd_m2[1:]).all()
     # a file in mW is a thousand times smaller in W
     np.testing.assert_allclose(res.illuminance_lx[2], res.luminance_cd_m2[0] * 1e-3, rtol=1e-12)
+    # relative data only (a lot's usual case, its own short path): what the mixed run gave the
+    # relative spectrum, for every spectrum
+    rel = absolute_photometry(ev.XYZ[:, 1], ev.photometry.melanopic_der, [None, None, None])
+    assert rel.quantity == ("", "", "") and rel.unit_text == ("", "", "") and res.unit_text[1] == ""
+    for k in ("illuminance_lx", "luminance_cd_m2", "melanopic_edi_lx", "melanopic_edl_cd_m2"):
+        assert getattr(rel, k).shape == (3,) and np.isnan(getattr(rel, k)).all() and np.isnan(getattr(res, k)[1])
 
 
 def test_photometric_scale_uncertainty_reaches_illuminance_only():

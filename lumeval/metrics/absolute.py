@@ -94,6 +94,10 @@ def absolute_photometry(Y: ArrayLike, melanopic_der: ArrayLike, quantities: Sequ
     n = Y.shape[0]
     if der.shape[0] != n or len(qs) != n:
         raise ValueError(f"Y ({n}), melanopic_der ({der.shape[0]}) and quantities ({len(qs)}) differ in length")
+    if qs.count(None) == n:  # relative data only (the usual lot): nothing absolute
+        return AbsoluteResult(quantity=("",) * n, unit_text=("",) * n, illuminance_lx=np.full(n, np.nan),
+                              luminance_cd_m2=np.full(n, np.nan), melanopic_edi_lx=np.full(n, np.nan),
+                              melanopic_edl_cd_m2=np.full(n, np.nan))
     kind = np.array([q.kind if q is not None else "" for q in qs], dtype=object)
     factor = np.array([q.factor if q is not None else np.nan for q in qs], dtype=float)
     value = KM_LM_PER_W * factor * Y

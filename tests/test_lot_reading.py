@@ -184,3 +184,21 @@ def test_a_killed_evaluating_worker_stops_the_run_with_a_clear_error(monkeypatch
             ev.submit([])
         ev.close()
     ev.terminate()
+
+
+def test_a_bad_criteria_file_is_refused_before_the_inputs_are_listed(tmp_path, monkeypatch, capsys):
+    """``lumeval lot`` loads its criteria file before it lists its inputs: a bad criteria file
+    is refused at once (exit 2, one clean line naming it, no output written), not after a large
+    folder has been listed."""
+    from lumeval.commands import lot as lot_command
+
+    from .conftest import assert_clean_error, run_cli_in_process
+
+    listed = []
+    monkeypatch.setattr(lot_command, "expand_inputs", lambda paths, **k: listed.append(paths) or 1 / 0)
+    crit = tmp_path / "criteria.toml"
+    crit.write_text("lumeval_criteria = 1\n[[clause]]\nid = \"Ra\"\nfigure = \"Ra\"\nmin = \"ninety\"\n")
+    out = tmp_path / "samples.csv"
+    code, _, err = run_cli_in_process(["lot", str(tmp_path), "-c", str(crit), "--samples-csv", str(out)], capsys)
+    assert_clean_error(code, err, "criteria.toml")
+    assert listed == [] and not out.exists()

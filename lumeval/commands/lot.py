@@ -164,13 +164,7 @@ def register(app: typer.Typer) -> None:
             from ..render.html import PLOT_FILE_PATTERNS
 
             dir_files = {"--plots": PLOT_FILE_PATTERNS}
-        # the inputs expanded once: for the outputs-vs-inputs check and for the run (not for a
-        # Dask run, which expands its own archives)
-        expanded = expand_inputs(paths) if scheduler is None and workers is None else None
-        check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
-                      inputs=[p for p in (criteria_file, instrument) if p is not None],
-                      input_files=((expanded if expanded is not None else expand_inputs(paths)).files
-                                   if any(v is not None for v in outputs.values()) else ()))
+        # the criteria first: a bad criteria file is refused before a large folder is listed
         criteria = None
         if criteria_file is not None:
             from ..criteria import lot_clauses  # noqa: F401  (registers the lot clause kinds)
@@ -179,6 +173,13 @@ def register(app: typer.Typer) -> None:
             criteria = load_criteria(criteria_file)
             for w in criteria.warnings:
                 print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
+        # the inputs expanded once: for the outputs-vs-inputs check and for the run (not for a
+        # Dask run, which expands its own archives)
+        expanded = expand_inputs(paths) if scheduler is None and workers is None else None
+        check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
+                      inputs=[p for p in (criteria_file, instrument) if p is not None],
+                      input_files=((expanded if expanded is not None else expand_inputs(paths)).files
+                                   if any(v is not None for v in outputs.values()) else ()))
         from ..api import lot
 
         report = html is not None or plots is not None

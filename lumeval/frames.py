@@ -209,11 +209,11 @@ def _joined_array(pa, column, start: int, stop: int):
             offs = np.ascontiguousarray(tuple_offsets, dtype=np.int32)
             lists = pa.ListArray.from_arrays(pa.Array.from_buffers(pa.int32(), offs.shape[0], [None, pa.py_buffer(offs)]),
                                              strings)
-            return pc.binary_join(lists, _SEPARATOR(pa))
+            return pc.binary_join(lists, _separator(pa))
     return string_array(pa, [" | ".join(r) for r in column[start:stop]])
 
 
-def _SEPARATOR(pa):
+def _separator(pa):
     """" | " as an Arrow scalar (taken from an array: ``pa.scalar`` imports pandas)."""
     return arrow_strings(pa, b" | ", np.array([0, 3]))[0]
 

@@ -240,7 +240,7 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
         d["mean"][j] = mean
         if c > ddof:
             dev = x - mean
-            d["std"][j] = np.sqrt(np.dot(dev, dev) / (c - ddof))
+            d["std"][j] = np.sqrt(np.sum(dev * dev) / (c - ddof))  # numpy's pairwise sum: no BLAS threads
         d["min"][j], d["max"][j] = x.min(), x.max()
         d["median"][j], d["p05"][j], d["p95"][j] = np.percentile(x, [50.0, 5.0, 95.0], method=percentile_method)  # type: ignore[call-overload]
     return {"count": count, "undefined": a.shape[0] - count, **d}

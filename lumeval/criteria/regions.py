@@ -525,7 +525,7 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
         if sel.any():
             m[sel, q] = _signed_distance_chunk(V[q: q + 1], P[sel])[:, 0]
     reach = m.max(axis=1) - 1e-12 * (1.0 + r.max())
-    need = (bound >= reach[:, None]) & (m == -np.inf)
+    need = ok[:, None] & (bound >= reach[:, None]) & (m == -np.inf)
     for q in range(Q):
         sel = need[:, q]
         if sel.any():

@@ -337,8 +337,21 @@ def _outside_polygon(Q: np.ndarray, k: int) -> np.ndarray:
     (counter-clockwise: the support point of a convex set moves counter-clockwise along its
     boundary as the direction turns so, ties included)."""
     t = 2.0 * np.pi * np.arange(k) / k
-    corners = Q[np.argmax(np.column_stack([np.cos(t), np.sin(t)]) @ Q.T, axis=1)]  # (k, N): rows contiguous
-    return _outside_corners(Q, corners)
+    D = np.column_stack([np.cos(t), np.sin(t)])  # (k, 2)
+    best = np.full(k, -np.inf)
+    arg = np.zeros(k, dtype=np.int64)
+    step = max(1, _TEMP_ELEMENTS // k)
+    for s in range(0, Q.shape[0], step):  # blocks of points: (k, step) projections at a time
+        proj = D @ Q[s: s + step].T  # rows contiguous
+        j = np.argmax(proj, axis=1)
+        v = proj[np.arange(k), j]
+        better = v > best  # strictly: the first of equal extremes, as one argmax over all
+        best[better], arg[better] = v[better], j[better] + s
+    return _outside_corners(Q, Q[arg])
+
+
+#: Elements of the (points x edges) temporaries of the filter polygons (16 MB of float64).
+_TEMP_ELEMENTS = 1 << 21
 
 
 def _outside_corners(Q: np.ndarray, corners: np.ndarray) -> np.ndarray:
@@ -354,8 +367,9 @@ def _outside_corners(Q: np.ndarray, corners: np.ndarray) -> np.ndarray:
         return np.arange(Q.shape[0])
     a, e = a[keep], e[keep]
     inside = np.ones(Q.shape[0], dtype=bool)
-    for k in range(0, a.shape[0], 16):  # 16 edges at a time: bounded temporaries
-        ak, ek = a[k: k + 16], e[k: k + 16]
+    step = max(1, min(16, _TEMP_ELEMENTS // max(1, Q.shape[0])))  # edges at a time: bounded temporaries
+    for k in range(0, a.shape[0], step):
+        ak, ek = a[k: k + step], e[k: k + step]
         # > 0: left of the edge a -> a + e (inside for a counter-clockwise polygon), beyond rounding
         cross = ek[:, 0] * (y[:, None] - ak[:, 1]) - ek[:, 1] * (x[:, None] - ak[:, 0])
         inside &= (cross > 1e-9 * scale * scale).all(axis=1)

@@ -82,12 +82,17 @@ def main(argv: list[str] | None = None) -> None:
     ap.add_argument("--n", type=int, default=200_000, help="spectra of the generated archive (default 200,000)")
     ap.add_argument("--archive", type=Path, help="an existing archive instead of a generated one")
     a = ap.parse_args(argv)
+    sys.path.insert(0, str(BENCH))
+    from run_all import compile_bytecode
+
+    note = compile_bytecode()
+    if note:
+        print(f"({note})")
     env = {**os.environ, "PYTHONPATH": str(REPO), "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
     with tempfile.TemporaryDirectory(prefix="lumeval_stages_") as tmp_name:
         tmp = Path(tmp_name)
         arch = a.archive
         if arch is None:
-            sys.path.insert(0, str(BENCH))
             from bench_archive import write_archive
 
             arch = tmp / "archive.parquet"

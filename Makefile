@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test test-numeric lint venv clean bench bench-lots bench-lots-quick fuzz browser-deps postgres-deps
+.PHONY: demo test test-numeric lint venv clean bench bench-lots bench-lots-quick bench-lot-stages fuzz browser-deps postgres-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -97,6 +97,10 @@ bench-lots: $(STAMP)
 
 bench-lots-quick: $(STAMP)
 	OPENBLAS_NUM_THREADS=1 $(PY) bench/run_all.py --quick
+
+# Where a one-process Parquet lot's CPU time goes, stage by stage (200,000 spectra by default).
+bench-lot-stages: $(STAMP)
+	OPENBLAS_NUM_THREADS=1 $(PY) bench/bench_lot_stages.py
 
 # On-demand reader fuzzing: 3 properties x 3500 hypothesis cases (> 10,000), prints the count.
 fuzz: $(STAMP)

@@ -519,17 +519,16 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
     bound = r - np.hypot(P[:, 0, None] - c[:, 0], P[:, 1, None] - c[:, 1])  # (n, Q)
     bound[~ok] = -np.inf
     m = np.full((n, Q), -np.inf)
-    first = np.argmax(bound, axis=1)
-    for q in range(Q):
-        sel = ok & (first == q)
-        if sel.any():
-            m[sel, q] = _signed_distance_chunk(V[q: q + 1], P[sel])[:, 0]
+
+    def fill(need: np.ndarray) -> None:  # the distances of the (point, polygon) pairs marked
+        for q in range(Q):
+            sel = need[:, q]
+            if sel.any():
+                m[sel, q] = polygons_signed_distance(V[q: q + 1], P[sel])[:, 0]
+
+    fill(ok[:, None] & (np.arange(Q) == np.argmax(bound, axis=1)[:, None]))
     reach = m.max(axis=1) - 1e-12 * (1.0 + r.max())
-    need = ok[:, None] & (bound >= reach[:, None]) & (m == -np.inf)
-    for q in range(Q):
-        sel = need[:, q]
-        if sel.any():
-            m[sel, q] = _signed_distance_chunk(V[q: q + 1], P[sel])[:, 0]
+    fill(ok[:, None] & (bound >= reach[:, None]) & (m == -np.inf))
     k = np.argmax(m, axis=1)
     best = np.where(ok, m[np.arange(n), k], np.nan)
     return np.where(ok, k, 0), best

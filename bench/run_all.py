@@ -14,7 +14,7 @@ memory").
    --samples-csv|--samples-parquet OUT`` (reading, preparing, evaluating, lot statistics,
    writing the per-sample table), with wall time, CPU time (``os.wait4``, workers included) and the peak resident
    memory of the child and its worker processes (polled; see :func:`run_child`). The
-   one-process Parquet run also reports the CPU time its engine took (:data:`ENGINE_TIMER`):
+   one-process Parquet run also reports the CPU time its engine took (:data:`STAGE_TIMER`):
    the engine's share of that very run is the Parquet target judged in the same process at the
    same moment, beside the share against the engine measured apart:
    * a wide CSV of 20,000 spectra at 1 nm (one file, 380-780 nm; about 113 MB);
@@ -162,23 +162,54 @@ def _descendants(pid: int) -> list[int]:
 
 
 #: ``python -c`` driver that runs ``lumeval ARGS`` exactly as ``python -m lumeval`` does, with
-#: the CPU time spent inside ``lumeval.engine.evaluate`` (``time.process_time``, this process
-#: only: for runs with ``--processes 1``) written at exit to the file named by the environment
-#: variable below: the engine's share of the very run, measured in the same process at the same
-#: moment (the machine's speed drifts 1.3-1.5x between two measurements a minute apart).
-ENGINE_CPU_ENV = "LUMEVAL_BENCH_ENGINE_CPU_FILE"
-ENGINE_TIMER = f"""
-import atexit, os, sys, time
-import lumeval.engine as engine
-_evaluate, _cpu = engine.evaluate, [0.0]
-def _timed(*a, **k):
-    c = time.process_time()
-    try:
-        return _evaluate(*a, **k)
-    finally:
-        _cpu[0] += time.process_time() - c
-engine.evaluate = _timed
-atexit.register(lambda: open(os.environ[{ENGINE_CPU_ENV!r}], "w").write(repr(_cpu[0])))
+#: the CPU time (``time.process_time``, this process only: for runs with ``--processes 1``)
+#: spent in a few functions added up and written at exit, as JSON, to the file named by the
+#: environment variable below: "engine" (``lumeval.engine.evaluate``), "batch"
+#: (``lumeval.lots.streaming.evaluate_batch``, the engine included), "reading and preparing"
+#: (``archive_batches``, timed inside each step of the generator), "adding to the lot record"
+#: (``LotAccumulator.add``), "lot statistics and verdicts" (``LotAccumulator.finish``) and
+#: "writing the per-sample Parquet" (``lumeval.frames.write_samples_parquet``). The engine's
+#: share of the very run is thus measured in the same process at the same moment (the machine's
+#: speed drifts 1.3-1.5x between two measurements a minute apart); bench/bench_lot_stages.py
+#: prints every stage.
+STAGE_CPU_ENV = "LUMEVAL_BENCH_STAGES"
+STAGE_TIMER = f"""
+import atexit, json, os, sys, time
+cpu = {{}}
+
+def timed(owner, name, key):
+    f = getattr(owner, name)
+    def wrapper(*a, **k):
+        c = time.process_time()
+        try:
+            return f(*a, **k)
+        finally:
+            cpu[key] = cpu.get(key, 0.0) + time.process_time() - c
+    setattr(owner, name, wrapper)
+
+def timed_generator(owner, name, key):
+    f = getattr(owner, name)
+    def wrapper(*a, **k):
+        it = f(*a, **k)
+        while True:
+            c = time.process_time()
+            try:
+                item = next(it)
+            except StopIteration:
+                return
+            finally:
+                cpu[key] = cpu.get(key, 0.0) + time.process_time() - c
+            yield item
+    setattr(owner, name, wrapper)
+
+import lumeval.engine, lumeval.frames, lumeval.lots.streaming as streaming
+timed(lumeval.engine, "evaluate", "engine")
+timed(streaming, "evaluate_batch", "batch")
+timed_generator(streaming, "archive_batches", "reading and preparing")
+timed(streaming.LotAccumulator, "add", "adding to the lot record")
+timed(streaming.LotAccumulator, "finish", "lot statistics and verdicts")
+timed(lumeval.frames, "write_samples_parquet", "writing the per-sample Parquet")
+atexit.register(lambda: open(os.environ[{STAGE_CPU_ENV!r}], "w").write(json.dumps(cpu)))
 sys.argv = ["lumeval", *sys.argv[1:]]
 import runpy
 runpy.run_module("lumeval", run_name="__main__", alter_sys=True)
@@ -199,10 +230,10 @@ def compile_bytecode() -> str:
             "so that the child processes do not compile it again")
 
 
-def run_child(args: list[str], engine_cpu_file: Path | None = None) -> tuple[float, float, float, int]:
+def run_child(args: list[str], stages_file: Path | None = None) -> tuple[float, float, float, int]:
     """(wall s, CPU s, peak RSS MB, exit code) of ``python -m lumeval ARGS`` as a child process
-    (with ``engine_cpu_file``: through :data:`ENGINE_TIMER`, which writes there the CPU seconds
-    spent in the engine).
+    (with ``stages_file``: through :data:`STAGE_TIMER`, which writes there the CPU seconds spent
+    in the engine and the other stages).
 
     The CPU time is the child's and its worker processes' (``os.wait4``: the workers are
     waited for by the child). The peak memory counts the worker processes too: every 50 ms the
@@ -219,9 +250,9 @@ def run_child(args: list[str], engine_cpu_file: Path | None = None) -> tuple[flo
     t = time.perf_counter()
     cmd = [sys.executable, "-m", "lumeval", *args]
     env = {**os.environ, "PYTHONPATH": str(repo)}
-    if engine_cpu_file is not None:
-        cmd = [sys.executable, "-c", ENGINE_TIMER, *args]
-        env[ENGINE_CPU_ENV] = str(engine_cpu_file)
+    if stages_file is not None:
+        cmd = [sys.executable, "-c", STAGE_TIMER, *args]
+        env[STAGE_CPU_ENV] = str(stages_file)
     p = subprocess.Popen(cmd, cwd=repo, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env)
     peak = 0.0
     while True:
@@ -239,16 +270,18 @@ def run_child(args: list[str], engine_cpu_file: Path | None = None) -> tuple[flo
     return wall, ru.ru_utime + ru.ru_stime, peak, p.returncode
 
 
-def lot(args: list[str], n: int, label: str, engine_cpu_file: Path | None = None) -> dict:
-    """Run ``lumeval lot`` as a child process and print its figures (with ``engine_cpu_file``:
-    also the CPU time its engine took, see :data:`ENGINE_TIMER`)."""
+def lot(args: list[str], n: int, label: str, stages_file: Path | None = None) -> dict:
+    """Run ``lumeval lot`` as a child process and print its figures (with ``stages_file``: also
+    the CPU time its engine took, see :data:`STAGE_TIMER`)."""
     before = load()
-    wall, cpu, rss, code = run_child(["lot", *args, "--quiet"], engine_cpu_file)
+    wall, cpu, rss, code = run_child(["lot", *args, "--quiet"], stages_file)
     r = {"n": n, "wall": wall, "cpu": cpu, "rss": rss, "code": code, "load": f"{before}-{load()}"}
     print(f"  {label}: {n:,} spectra, {wall:.1f} s wall, {cpu:.1f} s CPU -> {n / wall:,.0f} spectra/s wall, "
           f"{n / cpu:,.0f} spectra/CPU-s; peak RSS {rss:,.0f} MB; exit {code}; load {r['load']}", flush=True)
-    if engine_cpu_file is not None and engine_cpu_file.exists():
-        r["engine_cpu"] = float(engine_cpu_file.read_text())
+    if stages_file is not None and stages_file.exists():
+        import json
+
+        r["engine_cpu"] = float(json.loads(stages_file.read_text())["engine"])
         print(f"        of which in the engine (evaluate): {r['engine_cpu']:.1f} CPU-s = {r['engine_cpu'] / cpu:.0%} "
               f"of the run; the engine ran at {n / r['engine_cpu']:,.0f} spectra/CPU-s inside it", flush=True)
     return r
@@ -312,7 +345,7 @@ def main(argv: list[str] | None = None) -> None:
             # figure), with the engine measured again right after it (the machine's speed drifts)
             res["parquet1"] = lot([str(arch), "--samples-parquet", str(tmp / "samples.parquet"), "--processes", "1"],
                                   size["parquet"], "Parquet archive, 5 nm, one process (--processes 1)",
-                                  engine_cpu_file=tmp / "engine_cpu.txt")
+                                  stages_file=tmp / "stages.json")
             before = load()
             res["engine_5nm_after"] = engine_rate(5.0, size["engine"])
             print(f"  engine again, 5 nm: {res['engine_5nm_after']:,.0f} spectra/CPU-s (load {before}-{load()})",

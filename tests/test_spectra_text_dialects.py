@@ -255,3 +255,124 @@ def test_one_process_converts_here(monkeypatch):
     with F.parse_processes(1):
         got = F.convert_block("\n".join(f"{380 + k},{k}" for k in range(100)), ",", False, 100, 2)
     np.testing.assert_array_equal(got[:, 1], np.arange(100.0))
+
+
+# --- large blocks converted by Arrow's CSV reader (lumeval.spectra.text_fast._arrow_convert)
+# Reference: Python's float() (correctly rounded, IEEE 754 binary64) for the values, and numpy's
+# text parser (the conversion the block had before) for which cells are accepted; exact equality:
+# both sides convert the same decimal text with a correctly rounded conversion.
+
+
+
+@pytest.fixture
+def arrow(monkeypatch):
+    """Every block over 64 bytes converted by Arrow, in pieces of about 300 bytes; the calls
+    that gave an array counted."""
+    pytest.importorskip("pyarrow")
+    calls = []
+    real = F._arrow_convert
+
+    def counted(*a):
+        got = real(*a)
+        calls.append(got is not None)
+        return got
+
+    monkeypatch.setattr(F, "ARROW_BYTES", 64)
+    monkeypatch.setattr(F, "ARROW_PIECE_BYTES", 300)
+    monkeypatch.setattr(F, "_arrow_convert", counted)
+    return calls
+
+
+def _random_number_cells(rng: random.Random, n: int) -> list[str]:
+    """Well-formed cells of the reader's number grammar: signs, digits before and after a point,
+    exponents (the generator of test_numpy_text_parser_equals_python_float)."""
+    cells = []
+    for _ in range(n):
+        digits = "".join(rng.choice("0123456789") for _ in range(rng.randint(1, 25)))
+        k = rng.randint(0, len(digits))
+        c = digits[:k] + "." + digits[k:] if rng.random() < 0.8 else digits
+        if c == ".":
+            c = "0."
+        if rng.random() < 0.3:
+            c += rng.choice("eE") + rng.choice(["", "+", "-"]) + str(rng.randint(0, 330))
+        cells.append(rng.choice(["", "-", "+"]) + c)
+    return cells
+
+
+def test_arrow_conversion_equals_python_float(arrow):
+    rng = random.Random(23)
+    cells = [c for c in _random_number_cells(rng, 20_000) if np.isfinite(float(c))]
+    rows = [cells[i: i + 4] for i in range(0, len(cells) - 3, 4)]
+    text = "\n".join(f"{380 + i}," + ",".join(r) for i, r in enumerate(rows))
+    got = F.convert_block(text, ",", False, len(rows), 5)
+    assert arrow == [True] and got is not None
+    np.testing.assert_array_equal(got[:, 0], 380.0 + np.arange(len(rows)))
+    np.testing.assert_array_equal(got[:, 1:], [[float(c) for c in r] for r in rows])
+    comma = F.convert_block(text.replace(",", ";").replace(".", ","), ";", True, len(rows), 5)
+    np.testing.assert_array_equal(comma, got)
+
+
+def test_arrow_accepts_exactly_the_cells_numpy_accepts(arrow):
+    """Cells made of the characters that reach the conversion (digits, ``. e E + -``), well
+    formed or not: Arrow gives numpy's value, or refuses where numpy refuses."""
+    rng = random.Random(29)
+    pieces = ["1", "0", "42", ".", "e", "E", "+", "-", "5", "e-3", "E+7", "00", "1e999", "9" * 30]
+    for _ in range(3000):
+        cell = "".join(rng.choice(pieces) for _ in range(rng.randint(1, 4)))
+        raw = f"380,{cell}\n381,2".encode("ascii")
+        try:
+            want = F._loadtxt(raw, ",")
+        except ValueError:
+            want = None
+        got = F._arrow_convert(raw, ",", 2, 2)
+        if want is None:
+            assert got is None, cell
+        else:
+            assert got is not None, cell
+            np.testing.assert_array_equal(got, want)
+
+
+@pytest.mark.parametrize("where", [0.02, 0.5, 0.98])
+@pytest.mark.parametrize("fault", ["bad cell", "short row", "long row", "too large", "empty cell", "space"])
+def test_arrow_conversion_gives_up_on_a_fault_in_any_piece(arrow, where, fault):
+    """A fault in the first, a middle or the last piece: no array from Arrow; the block goes to
+    numpy and then, as before, to the line-by-line path, whose message is a serial read's."""
+    rows = [f"{380 + k},{k / 7:.5f},{k / 3:.4f}" for k in range(300)]
+    k = int(where * len(rows))
+    rows[k] = {"bad cell": f"{380 + k},1-2,3", "short row": f"{380 + k},1", "long row": f"{380 + k},1,2,3",
+               "too large": f"{380 + k},1e999,3", "empty cell": f"{380 + k},,3", "space": f"{380 + k}, 1,3"}[fault]
+    got = F.convert_block("\n".join(rows), ",", False, len(rows), 3)
+    # 1e999: Arrow gives inf, as numpy does, and the block is refused for it after either
+    assert arrow == [fault == "too large"]
+    if fault == "space":  # numpy accepts a space around a cell
+        np.testing.assert_array_equal(got[k], [380.0 + k, 1.0, 3.0])
+    else:
+        assert got is None
+    _assert_same("wl,S,T\n" + "\n".join(rows) + "\n")
+
+
+def test_arrow_conversion_row_count_must_match(arrow):
+    rows = "\n".join(f"{380 + k},{k}" for k in range(50))
+    assert F._arrow_convert(rows.encode(), ",", 49, 2) is None  # a row more than counted
+    assert F._arrow_convert(rows.encode(), ",", 51, 2) is None  # a row fewer
+    np.testing.assert_array_equal(F._arrow_convert(rows.encode(), ",", 50, 2)[:, 1], np.arange(50.0))
+    # a short row and a long row in one piece: the cell total is right, the rows are not
+    swapped = rows.replace("\n384,4\n", "\n384\n").replace("\n386,6\n", "\n386,6,6\n")
+    assert swapped.count(",") == rows.count(",") and F._arrow_convert(swapped.encode(), ",", 50, 2) is None
+
+
+def test_arrow_conversion_through_the_reader(arrow):
+    """Dialect files read by both paths with Arrow's conversion on: the same spectra. Whitespace
+    delimiters and cells with spaces stay with numpy."""
+    for delim, dc in DIALECTS:
+        text = _dialect_file(delim, dc, header="units", cols=40, rows=401)
+        s = _assert_same(text)
+        assert s is not None and s.values.shape == (40, 401)
+    assert arrow.count(True) == sum(1 for d, _ in DIALECTS if not d.isspace() and " " not in d)
+
+
+def test_without_pyarrow_numpy_converts(arrow, monkeypatch):
+    monkeypatch.setitem(__import__("sys").modules, "pyarrow", None)  # import pyarrow fails
+    got = F.convert_block("\n".join(f"{380 + k},{k}" for k in range(100)), ",", False, 100, 2)
+    assert arrow == [False]
+    np.testing.assert_array_equal(got[:, 1], np.arange(100.0))

@@ -12,8 +12,13 @@ work is asked for.
 
 from __future__ import annotations
 
+import functools
 import os
 import sys
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
+from typing import Any
 
 _FORK = sys.platform.startswith("linux")
 
@@ -107,3 +112,45 @@ def worker_init() -> None:
         threadpool_limits(1)
     except Exception:  # pragma: no cover - threadpoolctl missing or no BLAS found: default threads
         pass
+
+
+@functools.lru_cache(maxsize=1)
+def _blas_controller():
+    from threadpoolctl import ThreadpoolController
+
+    return ThreadpoolController()
+
+
+_blas_lock = threading.Lock()
+_blas_depth = 0
+_blas_limiter: Any = None
+
+
+@contextmanager
+def one_blas_thread() -> Iterator[None]:
+    """Within the block, BLAS uses one thread (threadpoolctl; nothing changes where it is missing).
+
+    lumeval computes every figure and every cached table this way (:func:`lumeval.engine.evaluate`,
+    the reference tables, the Planckian table of the CCT search...), as its worker processes do
+    throughout (:func:`worker_init`): a multi-threaded BLAS product splits its rows between
+    threads, and the rows' last bits then differ from a one-thread product's (measured: up to
+    8e-13 in TM-30 Rf,h), so figures would depend on the thread count, and a lot's figures on
+    which process evaluated a batch. The limit is process-wide (BLAS has one thread setting):
+    nested and concurrent blocks share it, the first one in sets it and the last one out
+    restores the caller's setting."""
+    global _blas_depth, _blas_limiter
+    with _blas_lock:
+        if _blas_depth == 0:
+            try:
+                _blas_limiter = _blas_controller().limit(limits=1, user_api="blas")
+            except Exception:  # pragma: no cover - threadpoolctl missing or no BLAS found
+                _blas_limiter = None
+        _blas_depth += 1
+    try:
+        yield
+    finally:
+        with _blas_lock:
+            _blas_depth -= 1
+            if _blas_depth == 0 and _blas_limiter is not None:
+                _blas_limiter.restore_original_limits()
+                _blas_limiter = None

@@ -5,10 +5,13 @@ of worker processes and on a scheduler and worker started here with Dask's own c
 Outside references: the demo lot's planted outliers and failing module are facts of the
 generator (spectra_demo/generate_lot.py); the equality is against lumeval's own local run,
 which tests/test_lot_run.py and tests/test_engine_equivalence.py tie to outside values.
-Tolerances: names, sources, verdicts, outlier flags and metadata exactly; floats within
-rtol 1e-12 plus 1e-10 absolute (Dask workers run BLAS single-threaded, a local run may not:
-summation order may differ in the last bits, and Duv, a difference of ~0.3 quantities, keeps
-that absolute error; common practice, no source).
+Tolerances: none. Names, sources, verdicts, outlier flags, metadata and every float are
+compared exactly: a Dask worker evaluates the same batches as a local run, with one BLAS thread
+as a local run does (lumeval._workers.one_blas_thread), and every reference-table entry is
+computed in a fixed group whatever the process evaluated before
+(lumeval.metrics.reference_table), so the claim is the same bits. (Until those two changes the
+floats differed in the last bits, and this file allowed rtol 1e-12 plus 1e-10 absolute; it fails
+on that code with no tolerance.)
 """
 
 from __future__ import annotations
@@ -34,8 +37,8 @@ from lumeval.commands.lot import run_lot
 from .test_lot_archive import DEMO, DEMO_CRITERIA, _criteria, demo_archive
 
 REPO = Path(__file__).resolve().parents[1]
-RTOL = 1e-12
-ATOL = 1e-10
+RTOL = 0.0  # exact (see the module docstring)
+ATOL = 0.0
 
 
 @pytest.fixture(scope="module")

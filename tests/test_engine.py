@@ -79,6 +79,61 @@ def test_chunking_does_not_change_results(cie_sources, ev):
     assert small.tm30.Jab_test.shape == (len(cie_sources), 0)
 
 
+def test_memory_layout_does_not_change_results(cie_sources):
+    """The same spectra as a C-ordered array and as a column-sliced view of a transposed one (a
+    wide file's layout): the same bits (the claim, so compared exactly; the engine works on a
+    C-ordered copy of each chunk: without it, figures differed by up to 2.5e-9 K in CCT)."""
+    from lumeval.figures import names
+
+    v = np.asarray(cie_sources.values, dtype=float)
+    wide = np.empty((v.shape[1], v.shape[0] + 3))  # (wavelengths, spectra + 3): rows are wavelengths
+    wide[:, 2:-1] = v.T
+    view = wide[:, 2:-1].T  # (spectra, wavelengths), neither C- nor F-contiguous in the big block
+    assert not view.flags["C_CONTIGUOUS"]
+    a = evaluate(SpectrumSet(cie_sources.wavelengths_nm, np.ascontiguousarray(v), cie_sources.names, cie_sources.sources))
+    b = evaluate(SpectrumSet(cie_sources.wavelengths_nm, view, cie_sources.names, cie_sources.sources))
+    for name in names():
+        np.testing.assert_array_equal(b.figure(name), a.figure(name), err_msg=name)
+
+
+def _clear_cached_tables():
+    from lumeval.metrics import colorimetry
+    from lumeval.metrics import reference_table as rt
+
+    for f in (rt._tm30_tables, rt._cri_tables, colorimetry._planck_table, colorimetry._planck_search):
+        f.cache_clear()
+
+
+def test_blas_thread_count_does_not_change_results(cie_sources):
+    """Evaluated with one BLAS thread, and with every core's thread after the reference and
+    Planckian tables were filled by direct calls with every core's thread: the same bits (the
+    claim, so compared exactly; the engine and the cached tables run with one BLAS thread).
+    On a one-core machine both runs use one thread and this checks nothing more than repeatability."""
+    import os
+
+    from threadpoolctl import threadpool_limits
+
+    from lumeval.figures import names
+    from lumeval.metrics import reference_table as rt
+    from lumeval.metrics.colorimetry import cct_duv_ohno
+
+    wl = cie_sources.wavelengths_nm
+    try:
+        _clear_cached_tables()
+        with threadpool_limits(1):
+            a = evaluate(cie_sources)
+        _clear_cached_tables()
+        with threadpool_limits(os.cpu_count() or 1):
+            rt.reference_side(np.arange(380.0, 781.0), np.geomspace(1500.0, 24000.0, 400))
+            rt.reference_side(np.asarray(wl, dtype=float), np.geomspace(1500.0, 24000.0, 400))
+            cct_duv_ohno(np.array([[0.2, 0.3]]))
+            b = evaluate(cie_sources)
+    finally:
+        _clear_cached_tables()
+    for name in names():
+        np.testing.assert_array_equal(b.figure(name), a.figure(name), err_msg=name)
+
+
 def test_every_documented_figure_is_available(ev):
     from lumeval.engine import FIGURE_NAMES
 

@@ -294,7 +294,9 @@ def test_lot_statistics_against_independent_computation():
     up = np.column_stack([4 * xy[:, 0], 9 * xy[:, 1]]) / (-2 * xy[:, 0] + 12 * xy[:, 1] + 3)[:, None]
     c = up.mean(axis=0)
     np.testing.assert_allclose(st.centroid_upvp, c, rtol=1e-14)
-    np.testing.assert_allclose(st.d_upvp_centroid, np.hypot(*(up - c).T), rtol=1e-12)
+    # atol 1e-15: the centroid is a correctly rounded mean (math.fsum), numpy's mean may differ
+    # from it by an ulp (~1e-16 in u'v'), which moves every distance by up to that much
+    np.testing.assert_allclose(st.d_upvp_centroid, np.hypot(*(up - c).T), rtol=1e-12, atol=1e-15)
     np.testing.assert_allclose(st.d_upvp_nominal, np.hypot(*(up - st.nominal_upvp).T), rtol=1e-12)
     assert st.max_pairwise_d_upvp == pytest.approx(pdist(up).max(), rel=1e-12)
     # steps from the centroid: the same quadratic form at the centroid's (x, y)

@@ -214,3 +214,77 @@ def test_weighted_rows_equal_the_sum_over_each_spectrums_own_rows():
             want = np.einsum("mp,mpw->mw", w, rows[flat])
             np.testing.assert_allclose(_weighted_rows(flat, w, rows), want, rtol=1e-13, atol=1e-13)
     assert _weighted_rows(np.zeros((0, 6), dtype=np.int64), np.zeros((0, 6)), rows).shape == (0, 37)
+
+
+# --- fixed fill groups: a table entry never depends on what a process filled before
+# (bit identity is the claim, so the comparisons are exact: the same arithmetic on the same
+# numbers, in the same groups, whatever came before)
+
+
+def test_daylight_pairs_are_met_in_one_narrow_run():
+    """The premise of the daylight pair table's groups (rt._PairTable): over 5,000-40,000 K
+    each rounded (M1, M2) pair of CIE 15:2004 Eqs. 3.5-3.7 is met over one run of temperatures
+    (never again), narrower than 0.06 MK⁻¹ and so than a mired block."""
+    from lumeval.metrics.reference import daylight_m
+
+    mu = np.linspace(1e6 / 40000.0, 1e6 / 5000.0, 2_000_001)
+    key = rt._pair_key(*daylight_m(1e6 / mu))
+    starts = np.flatnonzero(np.diff(key)) + 1
+    run_keys = key[np.r_[0, starts]]
+    assert np.unique(run_keys).size == run_keys.size  # no pair met twice
+    widths = np.diff(np.r_[0, starts, key.size]) * (mu[1] - mu[0])
+    assert widths[1:-1].max() < 0.06 < rt.PAIR_BLOCK_MIRED
+
+
+def _fill(step: int, T: np.ndarray):
+    wl = np.arange(380.0, 781.0, float(step))
+    side = rt.reference_side(wl, T)
+    return side.tm30_jab, side.cie224_jab, side.cri.uv, side.cri.UVW
+
+
+@pytest.mark.parametrize("step", [1, 5])
+def test_table_entries_do_not_depend_on_what_was_filled_before(step):
+    """The same temperatures looked up in fresh tables and after other temperatures were filled
+    (in other orders): the same bits. (Before fixed groups they differed by up to 8e-13 with
+    the fill history. Looked up *together* with other temperatures they may differ in the last
+    bits: the lookup's dense products take the rows of the whole call, as the engine's test
+    side does; that depends on the batch, which a run fixes, not on what came before.)"""
+    rng = np.random.default_rng(31)
+    B = np.concatenate([rng.uniform(1000.0, 25000.0, 150), rng.uniform(3990.0, 5010.0, 30),
+                        rng.uniform(5000.0, 7500.0, 60)])
+    others = [rng.uniform(1000.0, 25000.0, 200), rng.uniform(4000.0, 9000.0, 120), B[::-1][:37]]
+    want = _fill(step, B)
+    for before in others:
+        rt._tm30_tables.cache_clear()
+        rt._cri_tables.cache_clear()
+        _fill(step, before)
+        for a, b in zip(_fill(step, B), want):
+            np.testing.assert_array_equal(a, b)
+
+
+def test_pair_table_groups_are_the_blocks_first_pairs():
+    """Each pair computed belongs to the group of the lowest block it is met in; a pair met by
+    no sample is computed alone."""
+    calls = []
+    table = rt._PairTable(2, lambda M1, M2: calls.append(M1.size) or np.column_stack([M1, M2]))
+    T = np.array([6500.0, 6500.5, 6499.0])
+    got = table(T)
+    from lumeval.metrics.reference import daylight_m
+
+    np.testing.assert_array_equal(got, np.column_stack(daylight_m(T)))
+    b = int(np.floor(1e6 / 6500.0 / rt.PAIR_BLOCK_MIRED))
+    own = [k for k in rt._pairs_met(b)[0].tolist() if k not in rt._pairs_met(b - 1)[3]]
+    assert calls and calls[0] == len(own) and table.size == sum(calls)
+    # a key no sample meets (a run narrower than the sampling) is computed alone
+    k = rt._pair_key(*daylight_m(np.array([6500.0])))[0]
+    assert k in rt._pairs_met(b)[3]
+    table2 = rt._PairTable(2, lambda M1, M2: calls.append(-M1.size) or np.column_stack([M1, M2]))
+    rt._pairs_met.cache_clear()
+    try:
+        orig = rt.PAIR_SAMPLES
+        rt.PAIR_SAMPLES = 1  # one sample per block: most pairs are met by none
+        table2(np.array([6500.0]))
+    finally:
+        rt.PAIR_SAMPLES = orig
+        rt._pairs_met.cache_clear()
+    assert calls[-1] in (-1, -len(rt._pairs_met(b)[0]))  # alone, or its block's single pair

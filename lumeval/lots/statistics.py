@@ -247,12 +247,20 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
 
 
 def chromaticity_centroid(upvp) -> np.ndarray:
-    """Mean (u', v') of the samples with a defined chromaticity, shape (2,) (NaN if none)."""
+    """Mean (u', v') of the samples with a defined chromaticity, shape (2,) (NaN if none).
+
+    Each coordinate's sum is correctly rounded (``math.fsum``), so the centroid is the same bits
+    whatever the order or memory layout of the samples (numpy's mean over the first axis of an
+    (N, 2) array sums in an order that follows the layout: a lot run with worker processes
+    and one without gave centroids differing in the last bit)."""
+    import math
+
     p = np.atleast_2d(np.asarray(upvp, dtype=float))
     ok = np.all(np.isfinite(p), axis=1)
     if not ok.any():
         return np.full(2, np.nan)
-    return p[ok].mean(axis=0)
+    m = int(ok.sum())
+    return np.array([math.fsum(p[ok, 0].tolist()) / m, math.fsum(p[ok, 1].tolist()) / m])
 
 
 def delta_upvp(upvp, centre) -> np.ndarray:

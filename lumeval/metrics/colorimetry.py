@@ -182,7 +182,10 @@ _RANGE_TOL_K = 0.5
 def _planck_table() -> tuple[np.ndarray, np.ndarray]:
     n = int(np.ceil(np.log(_T_HI / _T_LO) / np.log(_STEP))) + 1
     T = _T_LO * _STEP ** np.arange(n)
-    uv = planckian_uv(T)
+    from .._workers import one_blas_thread
+
+    with one_blas_thread():  # cached for the process: the same bits whatever the caller's BLAS threads
+        uv = planckian_uv(T)
     return T, uv
 
 

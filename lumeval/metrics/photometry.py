@@ -198,8 +198,11 @@ def d65_alpha_opic_elr_W_per_lm() -> np.ndarray:
     wl_d65, v_d65 = table("d65")
     wl = np.arange(380.0, 781.0)
     d65 = np.interp(wl, wl_d65, v_d65)
-    e_alpha = d65 @ alpha_opic_action_spectra_at(wl)
-    e_v = KM_LM_PER_W * (d65 @ v_lambda_at(wl))
+    from .._workers import one_blas_thread
+
+    with one_blas_thread():  # cached for the process: the same bits whatever the caller's BLAS threads
+        e_alpha = d65 @ alpha_opic_action_spectra_at(wl)
+        e_v = KM_LM_PER_W * (d65 @ v_lambda_at(wl))
     return cast("np.ndarray", e_alpha / e_v)
 
 

@@ -121,8 +121,11 @@ _DENSE_MAX = 2_000_000
 
 @lru_cache(maxsize=16)
 def _dense_sprague(n_in: int, x_key: bytes) -> np.ndarray:
+    from .._workers import one_blas_thread
+
     x = np.frombuffer(x_key, dtype=float)
-    out = _sprague_banded(np.eye(n_in), x).T.copy()
+    with one_blas_thread():  # cached for the process: the same bits whatever the caller's BLAS threads
+        out = _sprague_banded(np.eye(n_in), x).T.copy()
     out.setflags(write=False)
     return out
 

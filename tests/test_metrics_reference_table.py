@@ -216,24 +216,8 @@ def test_weighted_rows_equal_the_sum_over_each_spectrums_own_rows():
     assert _weighted_rows(np.zeros((0, 6), dtype=np.int64), np.zeros((0, 6)), rows).shape == (0, 37)
 
 
-# --- fixed fill groups: a table entry never depends on what a process filled before
-# (bit identity is the claim, so the comparisons are exact: the same arithmetic on the same
-# numbers, in the same groups, whatever came before)
-
-
-def test_daylight_pairs_are_met_in_one_narrow_run():
-    """The premise of the daylight pair table's groups (rt._PairTable): over 5,000-40,000 K
-    each rounded (M1, M2) pair of CIE 15:2004 Eqs. 3.5-3.7 is met over one run of temperatures
-    (never again), narrower than 0.06 MK⁻¹ and so than a mired block."""
-    from lumeval.metrics.reference import daylight_m
-
-    mu = np.linspace(1e6 / 40000.0, 1e6 / 5000.0, 2_000_001)
-    key = rt._pair_key(*daylight_m(1e6 / mu))
-    starts = np.flatnonzero(np.diff(key)) + 1
-    run_keys = key[np.r_[0, starts]]
-    assert np.unique(run_keys).size == run_keys.size  # no pair met twice
-    widths = np.diff(np.r_[0, starts, key.size]) * (mu[1] - mu[0])
-    assert widths[1:-1].max() < 0.06 < rt.PAIR_BLOCK_MIRED
+# --- a table entry never depends on what a process filled before (bit identity is the claim,
+# so the comparisons are exact: the same arithmetic on the same numbers, row by row)
 
 
 def _fill(step: int, T: np.ndarray):
@@ -245,8 +229,8 @@ def _fill(step: int, T: np.ndarray):
 @pytest.mark.parametrize("step", [1, 5])
 def test_table_entries_do_not_depend_on_what_was_filled_before(step):
     """The same temperatures looked up in fresh tables and after other temperatures were filled
-    (in other orders): the same bits. (Before fixed groups they differed by up to 8e-13 with
-    the fill history. Looked up *together* with other temperatures they may differ in the last
+    (in other orders): the same bits. (Before row-independent fills they differed by up to
+    8e-13 with the fill history. Looked up *together* with other temperatures they may differ in the last
     bits: the lookup's dense products take the rows of the whole call, as the engine's test
     side does; that depends on the batch, which a run fixes, not on what came before.)"""
     rng = np.random.default_rng(31)
@@ -262,29 +246,44 @@ def test_table_entries_do_not_depend_on_what_was_filled_before(step):
             np.testing.assert_array_equal(a, b)
 
 
-def test_pair_table_groups_are_the_blocks_first_pairs():
-    """Each pair computed belongs to the group of the lowest block it is met in; a pair met by
-    no sample is computed alone."""
-    calls = []
-    table = rt._PairTable(2, lambda M1, M2: calls.append(M1.size) or np.column_stack([M1, M2]))
-    T = np.array([6500.0, 6500.5, 6499.0])
-    got = table(T)
+@pytest.mark.parametrize("step", [1, 5])
+def test_table_computations_give_each_row_alone(step):
+    """Within rowwise_products, every computation the tables make (Planckian, daylight pair and
+    blend J′a′b′; CIE 13.3 sides) gives each row the bits it gives that row computed alone
+    (lumeval.metrics._rowwise); outside it, the same within rounding (BLAS products)."""
+    from lumeval.metrics._rowwise import rowwise_products
     from lumeval.metrics.reference import daylight_m
 
-    np.testing.assert_array_equal(got, np.column_stack(daylight_m(T)))
-    b = int(np.floor(1e6 / 6500.0 / rt.PAIR_BLOCK_MIRED))
-    own = [k for k in rt._pairs_met(b)[0].tolist() if k not in rt._pairs_met(b - 1)[3]]
-    assert calls and calls[0] == len(own) and table.size == sum(calls)
-    # a key no sample meets (a run narrower than the sampling) is computed alone
-    k = rt._pair_key(*daylight_m(np.array([6500.0])))[0]
-    assert k in rt._pairs_met(b)[3]
-    table2 = rt._PairTable(2, lambda M1, M2: calls.append(-M1.size) or np.column_stack([M1, M2]))
-    rt._pairs_met.cache_clear()
-    try:
-        orig = rt.PAIR_SAMPLES
-        rt.PAIR_SAMPLES = 1  # one sample per block: most pairs are met by none
-        table2(np.array([6500.0]))
-    finally:
-        rt.PAIR_SAMPLES = orig
-        rt._pairs_met.cache_clear()
-    assert calls[-1] in (-1, -len(rt._pairs_met(b)[0]))  # alone, or its block's single pair
+    tm, cr = rt._TM30Tables(step), rt._CRITables(380, 780, step)
+    T = np.linspace(2000.0, 3900.0, 13)
+    M1, M2 = daylight_m(np.linspace(5100.0, 9000.0, 13))
+    Tb = np.linspace(4000.0, 5000.0, 13)
+    d = np.random.default_rng(0).uniform(-5e-4, 5e-4, (13, 2))
+    blend = rt._blend_compute(rt._tm30_grid(step), (OBSERVER_10, OBSERVER_2))
+    for name, f in [("tm30 planck", lambda s: tm.planck.compute(T[s], None)),
+                    ("cri planck", lambda s: cr.planck.compute(T[s], None)),
+                    ("tm30 daylight", lambda s: tm.daylight.compute(M1[s], M2[s])),
+                    ("cri daylight", lambda s: cr.daylight.compute(M1[s], M2[s])),
+                    ("blend", lambda s: blend(Tb[s], d[s]))]:
+        with rowwise_products():
+            together = f(slice(None))
+            alone = np.vstack([f(slice(i, i + 1)) for i in range(13)])
+            tail = f(slice(3, None))
+        np.testing.assert_array_equal(together, alone, err_msg=name)
+        np.testing.assert_array_equal(together[3:], tail, err_msg=name)
+        np.testing.assert_allclose(f(slice(None)), together, rtol=1e-12, atol=1e-12, err_msg=name)
+
+
+def test_rowwise_product_equals_the_matrix_product():
+    """lumeval.metrics._rowwise.mm against numpy's matmul (an independent implementation) within
+    1e-13 relative, for small and large inner dimensions, matrices and vectors, stacked rows."""
+    from lumeval.metrics._rowwise import mm, rowwise_products
+
+    rng = np.random.default_rng(4)
+    for a_shape, b_shape in [((7, 3), (3, 3)), ((5, 9, 3), (3, 5)), ((6, 3), (3,)), ((11, 401), (401, 297)),
+                             ((4, 401), (401,)), ((2, 3, 20), (20, 4))]:
+        a, b = rng.normal(size=a_shape), rng.normal(size=b_shape)
+        with rowwise_products():
+            got = mm(a, b)
+        np.testing.assert_allclose(got, a @ b, rtol=1e-13, atol=1e-13)
+        np.testing.assert_array_equal(mm(a, b), a @ b)  # outside the block: a @ b itself

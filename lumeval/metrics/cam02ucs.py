@@ -16,6 +16,8 @@ from typing import cast
 import numpy as np
 from numpy.typing import ArrayLike
 
+from ._rowwise import mm
+
 #: CIECAM02 viewing conditions of CIE 224:2017 / TM-30-18: adapting luminance (cd/m²),
 #: relative background luminance, surround; complete adaptation (D = 1).
 L_A = 100.0
@@ -139,20 +141,20 @@ def _cam02ucs(
         y /= den
         return cast("np.ndarray", y)
 
-    RGB_w = XYZ_w @ _M_CAT02.T  # (M, 3)
+    RGB_w = mm(XYZ_w, _M_CAT02.T)  # (M, 3)
     D_scale = Y_w[:, None] / RGB_w  # D = 1: R_c = (Y_w / R_w) R
     # Per-source matrix  F_L/100 · k · M_HPE · M_CAT02⁻¹ · diag(Y_w / RGB_w) · M_CAT02.
     M_src = _M_CAT02_TO_HPE[None, :, :] @ (D_scale[:, :, None] * _M_CAT02[None, :, :])  # (M, 3, 3)
-    RGB_aw = 400.0 * compress((RGB_w * D_scale) @ _M_CAT02_TO_HPE.T * (F_L / 100.0)) + 0.1  # (M, 3)
+    RGB_aw = 400.0 * compress(mm(RGB_w * D_scale, _M_CAT02_TO_HPE.T) * (F_L / 100.0)) + 0.1  # (M, 3)
     scale = np.full(Y_w.shape, F_L / 100.0) if k is None else k * (F_L / 100.0)
     m, K = XYZ.shape[0], XYZ.shape[1]
     c = compress(XYZ @ np.swapaxes(M_src * scale[:, None, None], 1, 2))  # (M, K, 3)
     # a, b, A/N_bb + 0.305, the t denominator and a cos 2 − b sin 2 in one product. With
     # R′_a = 400 c + 0.1 the constant 0.1 cancels exactly in a, b and A (the coefficients sum
     # to 0, 0 and 3.05) and adds 0.305 to the denominator.
-    q = (c.reshape(-1, 3) @ _L_FORMS_400).reshape(m, K, 5)
+    q = mm(c.reshape(-1, 3), _L_FORMS_400).reshape(m, K, 5)
     a, b = q[..., 0], q[..., 1]
-    A_w = (RGB_aw @ _L_FORMS[:, 2] - 0.305) * N_bb
+    A_w = (mm(RGB_aw, _L_FORMS[:, 2]) - 0.305) * N_bb
     # √(a² + b²): a and b are O(1-100), far from overflow; numpy's hypot is not vectorised
     # (about 4x the time of the square root of the sum here)
     r = a * a

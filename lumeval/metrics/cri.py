@@ -51,6 +51,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from ..errors import GridError, InputError
+from ._rowwise import mm
 from .colorimetry import OBSERVER_2, cmfs_at
 from .reference import cri_reference_spd
 
@@ -183,8 +184,8 @@ def _sample_colorimetry(S: np.ndarray, weighted: np.ndarray, ybar_w: np.ndarray)
     ``weighted`` is the (W, 14*3) matrix β_i(λ)·x̄(λ)·Δλ; the normalisation makes the source's
     own Y equal to 100 (CIE 13.3, CIE 15:2004 Eq. 7.1 with k = 100 / Σ S ȳ Δλ).
     """
-    k = 100.0 / (S @ ybar_w)  # (N,)
-    samples = (S @ weighted).reshape(S.shape[0], len(TCS_NAMES), 3) * k[:, None, None]
+    k = 100.0 / mm(S, ybar_w)  # (N,)
+    samples = mm(S, weighted).reshape(S.shape[0], len(TCS_NAMES), 3) * k[:, None, None]
     return k, samples
 
 
@@ -244,7 +245,7 @@ def cri_reference_from_spd(wavelengths_nm: ArrayLike, reference_values: ArrayLik
     S_r = np.atleast_2d(np.asarray(reference_values, dtype=float))
     cmf_w, ybar_w, weighted, _ = _grid_kernels(*_grid_key(wl))
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        uv_r = _uv(S_r @ cmf_w)
+        uv_r = _uv(mm(S_r, cmf_w))
         _, XYZ_ri = _sample_colorimetry(S_r, weighted, ybar_w)
         uv_ri = _uv(XYZ_ri)
         u_w = uv_r[:, 0][:, None]

@@ -25,7 +25,8 @@ so every reference temperature the engine produces, 999.5-25,000.5 K, lies insid
    M2 to three decimals, so the daylight SPD is a step function of T: every rounded pair
    (M1, M2) holds over a small range of temperatures. The table is indexed by that pair
    (computed from T exactly as the direct path does, both branches of x_D included), so these
-   entries are the direct computation itself, not an approximation.
+   entries are the direct computation itself, not an approximation (up to the last bits of the
+   row-by-row products they are computed with, below).
 3. **Blend** (4000 K ≤ T ≤ 5000 K, TM-30 / CIE 224): the reference depends on T (Planckian
    part, weight m) and on the rounded (M1, M2). With d = (M1, M2)_rounded − (M1, M2)_exact
    (|d| ≤ 5e-4 per coefficient) the quantities are a second-order Taylor expansion in d
@@ -40,12 +41,14 @@ computation (tests/test_metrics_reference_table.py): every figure (Ra, R1-R14, D
 Rf,h, Rcs,h, Rhs,h, CIE 224 Rf) within 1e-7 over a dense sweep of 1000-25,000 K including the
 switches at 4000, 5000 and 7000 K, off the locus to |Duv| = 0.08, on 1 nm and 5 nm grids.
 
-Tables are filled lazily, in fixed groups: the first time a spectrum needs a node, its aligned
-block of :data:`FILL_NODES` nodes is computed, and the first time it needs a daylight pair, the
-pairs of its mired block (:class:`_PairTable`); an entry is then the same bits whatever the
-process evaluated before (a matrix product's rows change in their last bits with the other rows
-of the product). One spectrum costs a few groups of reference computations and a long lot at
-most the whole table (≈ 2 MB for the Planckian range, ≈ 2.9 MB for the blend, ≈ 2.4 kB per daylight pair). They are cached per grid
+Tables are filled lazily: a node or daylight pair is computed the first time a spectrum needs
+it, with matrix products whose rows do not depend on the other rows computed with them
+(:mod:`lumeval.metrics._rowwise`) and one BLAS thread, so that an entry is the same bits
+whatever the process needed before (a BLAS product's rows change in their last bits with the
+other rows of the product: before, the same lot gave figures differing in the 13th digit from
+run to run when its batches went to worker processes in another order). One spectrum costs a
+handful of reference computations and a long lot at most the whole
+table (≈ 2 MB for the Planckian range, ≈ 2.9 MB for the blend, ≈ 2.4 kB per daylight pair). They are cached per grid
 (the last 8 grids) and filled under a lock.
 """
 
@@ -62,6 +65,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .._workers import one_blas_thread
+from ._rowwise import rowwise_products
 from .colorimetry import OBSERVER_2, OBSERVER_10
 from .cri import CRIReference, cri_reference, cri_reference_from_spd
 from .reference import daylight_m, daylight_spd_from_m, planckian_spd
@@ -76,20 +80,6 @@ MIRED_STEP = 1.0
 LAGRANGE_POINTS = 6
 BLEND_MIRED_STEP = 0.5
 BLEND_POINTS = 4
-#: Nodes of a mired table computed together, in aligned blocks ``[k·FILL_NODES, (k+1)·FILL_NODES)``,
-#: and daylight pairs likewise by mired blocks of width 1 (:class:`_PairTable`). The reference
-#: computations are matrix products, and a BLAS product's rows change in their last bits with
-#: the other rows of the product (measured: up to 8e-13 between one node computed alone and in
-#: a batch). Computing whatever a lot happened to need together made a table entry, and every
-#: figure taken from it, depend on the spectra a process had evaluated before: the same lot gave
-#: figures differing in the 13th digit from run to run when its batches went to worker processes
-#: in another order. Fixed groups make each entry a function of its group only.
-FILL_NODES = 16
-#: Width (MK⁻¹) of the mired blocks of the daylight pair table, and the temperatures sampled per
-#: block to list its pairs (one every 2e-4 MK⁻¹; 64 of the 8,661 pairs of 5,000-40,000 K are met
-#: over a narrower run, and are computed alone if a spectrum needs one).
-PAIR_BLOCK_MIRED = 1.0
-PAIR_SAMPLES = 5000
 #: Step of the central differences in (M1, M2) for the blend's Taylor terms.
 TAYLOR_STEP = 5e-4
 #: CIE 224 / TM-30 switch temperatures (K) and the CIE 13.3 switch.
@@ -144,14 +134,14 @@ class _MiredTable:
         with self.lock:
             need = np.unique(nodes)
             need = need[~self.filled[need]]
-            # whole blocks of FILL_NODES nodes, one computation each: a node's value never
-            # depends on which other nodes a lot happened to need with it (see FILL_NODES)
-            with one_blas_thread():  # and with one BLAS thread, whatever the caller's
-                for b in np.unique(need // FILL_NODES).tolist():
-                    self._fill_nodes(np.arange(b * FILL_NODES, min(self.n, (b + 1) * FILL_NODES)))
+            if need.size:
+                # rows independent of the other nodes computed with them, with one BLAS thread:
+                # an entry is the same bits whatever the process needed before (module docstring)
+                with one_blas_thread(), rowwise_products():
+                    self._fill_nodes(need)
 
     def _fill_nodes(self, need: np.ndarray) -> None:
-        """Compute the nodes ``need`` in one call (the caller holds the lock)."""
+        """Compute the nodes ``need`` (the caller holds the lock)."""
         T = self.T[need]
         if self.terms == 1:
             self.values[need, 0] = self.compute(T, None)
@@ -225,31 +215,10 @@ def _pair_key(M1: np.ndarray, M2: np.ndarray) -> np.ndarray:
     return np.rint(M1 * 1000.0).astype(np.int64) * (1 << 32) + np.rint(M2 * 1000.0).astype(np.int64)
 
 
-@lru_cache(maxsize=1024)
-def _pairs_met(b: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, frozenset[int]]:
-    """(keys, M1, M2, key set) of the daylight pairs met at :data:`PAIR_SAMPLES` temperatures
-    evenly spaced in mired block ``b`` (``[b, b + 1) · PAIR_BLOCK_MIRED`` MK⁻¹), in the order
-    met (shared by the tables of every grid)."""
-    mu = (b + (np.arange(PAIR_SAMPLES) + 0.5) / PAIR_SAMPLES) * PAIR_BLOCK_MIRED
-    M1, M2 = daylight_m(1e6 / mu)
-    keys, first = np.unique(_pair_key(M1, M2), return_index=True)
-    first = np.sort(first)
-    return _pair_key(M1[first], M2[first]), M1[first], M2[first], frozenset(keys.tolist())
-
-
 class _PairTable:
-    """Daylight quantities indexed by the rounded (M1, M2) pair, filled lazily (exact entries).
-
-    Called with temperatures (the pairs are :func:`lumeval.metrics.reference.daylight_m`'s).
-    Pairs are computed in fixed groups (see :data:`FILL_NODES`): the pairs met at
-    :data:`PAIR_SAMPLES` temperatures evenly spaced in each mired block
-    ``[b, b + 1) · PAIR_BLOCK_MIRED`` belong to the lowest block they are met in, and a block's pairs are computed
-    together, in the order they are met, the first time any is needed. A pair is met over a run
-    of temperatures narrower than 0.06 MK⁻¹ and never again (checked over 5,000-40,000 K by
-    tests/test_metrics_reference_table.py), so the blocks that can hold a pair needed at T are
-    floor(10⁶/T) and its two neighbours, and its owner is the lowest of these that does. A pair
-    met by no sample (a run narrower than the sampling) is computed alone, which is a fixed
-    group too.
+    """Daylight quantities indexed by the rounded (M1, M2) pair, filled lazily (entries computed
+    from the rounded pair, as the direct path computes them), called with temperatures (the
+    pairs are :func:`lumeval.metrics.reference.daylight_m`'s).
 
     ``data`` = (sorted keys, their rows in the store, the store) is replaced as one tuple when
     pairs are added, so that a reader in another thread never pairs new keys with old rows; the
@@ -271,44 +240,30 @@ class _PairTable:
         found[found] = keys[pos[found]] == key[found]
         if not found.all():
             with self.lock:
-                self._add(key[~found], M1[~found], M2[~found], T[~found])
+                self._add(key[~found], M1[~found], M2[~found])
                 keys, where, store = self.data
             pos = np.searchsorted(keys, key)
         return cast("np.ndarray", store[where[pos]])
 
-    def _add(self, key: np.ndarray, M1: np.ndarray, M2: np.ndarray, T: np.ndarray) -> None:
-        """Compute the groups of the pairs ``key`` (met at T) that the table lacks, one call
-        per group, and add them all at once."""
+    def _add(self, key: np.ndarray, M1: np.ndarray, M2: np.ndarray) -> None:
+        """Compute the pairs ``key`` that the table lacks and add them."""
         keys, where, store = self.data
-        have = set(keys.tolist())
-        added_keys, added_rows = [], []
         new, first = np.unique(key, return_index=True)
-        for k, i in zip(new.tolist(), first.tolist()):
-            if k in have:  # already there, or added with an earlier one's group
-                continue
-            b = int(np.floor(1e6 / T[i] / PAIR_BLOCK_MIRED))
-            owner = next((c for c in (b - 1, b, b + 1) if k in _pairs_met(c)[3]), None)
-            if owner is None:  # met by no sample: alone
-                gk, g1, g2 = np.array([k]), M1[i: i + 1], M2[i: i + 1]
-            else:
-                gk, g1, g2, _ = _pairs_met(owner)
-                below = _pairs_met(owner - 1)[3]
-                own = np.fromiter((q not in below for q in gk.tolist()), dtype=bool, count=gk.size)
-                gk, g1, g2 = gk[own], g1[own], g2[own]
-            have.update(gk.tolist())
-            added_keys.append(gk)
-            with one_blas_thread():  # the same bits whatever the caller's BLAS threads
-                added_rows.append(self.compute(g1, g2))
-        if not added_keys:
+        fresh = ~np.isin(new, keys)
+        if not fresh.any():
             return
-        rows = np.concatenate(added_rows)
+        i = first[fresh]
+        # rows independent of the other pairs computed with them, with one BLAS thread: an
+        # entry is the same bits whatever the process needed before (module docstring)
+        with one_blas_thread(), rowwise_products():
+            rows = self.compute(M1[i], M2[i])
         n0, n1 = self.size, self.size + rows.shape[0]
         if n1 > store.shape[0]:  # a new store: readers keep the old one
             grown = np.empty((max(n1, 2 * store.shape[0]), store.shape[1]))
             grown[:n0] = store[:n0]
             store = grown
         store[n0:n1] = rows
-        all_keys = np.concatenate([keys, *added_keys])
+        all_keys = np.concatenate([keys, new[fresh]])
         order = np.argsort(all_keys, kind="stable")
         self.data = (all_keys[order], np.concatenate([where, np.arange(n0, n1)])[order], store)
         self.size = n1

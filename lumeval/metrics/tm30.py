@@ -76,6 +76,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from ..errors import GridError, InputError
+from ._rowwise import mm
 from .cam02ucs import L_A, Y_B, _cam02ucs, cam02ucs_cie224  # noqa: F401  (cam02ucs_cie224: public here too)
 from .colorimetry import OBSERVER_2, OBSERVER_10, cmfs_at
 from .reference import daylight_spd, planckian_spd
@@ -304,8 +305,8 @@ def blend_spd(wavelengths_nm: ArrayLike, P: np.ndarray, D: np.ndarray, m: np.nda
     """The 4000-5000 K blend ``(1 − m) P / Y_P + m D / Y_D`` of Planckian ``P`` and daylight ``D``
     (N, W), each normalised to equal Y with ``blend_observer``'s ȳ (CIE 224:2017; TM-30-18)."""
     ybar = cmfs_at(np.asarray(wavelengths_nm, dtype=float), blend_observer)[:, 1]
-    YP = P @ ybar
-    YD = D @ ybar
+    YP = mm(P, ybar)
+    YD = mm(D, ybar)
     mb = np.asarray(m, dtype=float)[:, None]
     return cast("np.ndarray", (1.0 - mb) * P / YP[:, None] + mb * D / YD[:, None])
 
@@ -353,9 +354,9 @@ def _jab(
     """
     if kernel is None:
         kernel = _ces_cmf_kernel(R, cmf10)
-    XYZ_w = S @ cmf10  # (M, 3)
+    XYZ_w = mm(S, cmf10)  # (M, 3)
     k = 100.0 / XYZ_w[:, 1]
-    XYZ = (S @ kernel).reshape(S.shape[0], R.shape[0], 3)
+    XYZ = mm(S, kernel).reshape(S.shape[0], R.shape[0], 3)
     return _cam02ucs(XYZ, XYZ_w, k, L_A, Y_B, with_hue)
 
 
@@ -478,7 +479,7 @@ def reference_jab(wavelengths_nm: ArrayLike, reference_values: ArrayLike) -> np.
     S_r = np.atleast_2d(np.asarray(reference_values, dtype=float))
     cmf10, R, kernel = _cfi_tables(wl)
     out = np.full((S_r.shape[0], R.shape[0], 3), np.nan)
-    Yr = S_r @ cmf10[:, 1]
+    Yr = mm(S_r, cmf10[:, 1])
     ok = np.all(np.isfinite(S_r), axis=1) & np.isfinite(Yr) & (Yr > 0)
     if ok.any():
         out[ok] = _jab(wl, S_r[ok], R, cmf10, kernel, with_hue=False)[0]

@@ -240,8 +240,9 @@ def test_workers_give_the_same_bits_as_one_process(tmp_path):
     """Spectra from 2,000 K to 20,000 K (Planckian, blend and daylight references, many table
     entries shared between batches) in batches of 16: evaluated in one process, and by two
     forked workers that each fill the reference tables in the order their batches come. The
-    figures are the same bits (the claim, so compared exactly): every table entry is computed in
-    a fixed group (lumeval.metrics.reference_table), and every batch with one BLAS thread
+    figures are the same bits (the claim, so compared exactly): every table entry is computed
+    with row-independent products (lumeval.metrics.reference_table), and every batch with one
+    BLAS thread
     (lumeval._workers.one_blas_thread; without it this test failed here: the parent's
     two-thread BLAS gave TM-30 figures up to 8e-13 from the workers' one-thread ones). The fill
     history itself is tested in tests/test_metrics_reference_table.py."""

@@ -8,7 +8,7 @@ which tests/test_lot_run.py and tests/test_engine_equivalence.py tie to outside 
 Tolerances: none. Names, sources, verdicts, outlier flags, metadata and every float are
 compared exactly: a Dask worker evaluates the same batches as a local run, with one BLAS thread
 as a local run does (lumeval._workers.one_blas_thread), and every reference-table entry is
-computed in a fixed group whatever the process evaluated before
+computed with row-independent products, whatever the process evaluated before
 (lumeval.metrics.reference_table), so the claim is the same bits. (Until those two changes the
 floats differed in the last bits, and this file allowed rtol 1e-12 plus 1e-10 absolute; it fails
 on that code with no tolerance.)

@@ -209,7 +209,7 @@ def test_a_wide_file_gives_the_same_bytes_with_and_without_workers(tmp_path):
     """A wide CSV (a column per spectrum: each batch is a strided view of the file's block) of
     spectra from about 2,000 K to 20,000 K, evaluated in this process and by two workers: the
     per-sample CSV is the same bytes (the claim, so compared exactly). Before the engine took
-    C-ordered chunks, one BLAS thread per batch everywhere and fixed table groups, 17,937 of
+    C-ordered chunks, one BLAS thread per batch everywhere and row-independent table fills, 17,937 of
     20,000 rows of the benchmark's wide CSV differed in their last digits."""
     import io
 

@@ -8,7 +8,7 @@ the order the batches came, whether they are evaluated here or by a pool of work
 process goes on reading while the batches are evaluated, and the evaluation itself uses every
 core. Each batch is evaluated by the same function (:func:`~lumeval.lots.streaming.evaluate_batch`)
 on the same spectra, so the per-sample figures, verdicts and warnings are those of a serial run,
-bit for bit (one BLAS thread per batch, C-ordered chunks and fixed reference-table groups: see
+bit for bit (one BLAS thread per batch, C-ordered chunks and row-independent reference-table fills: see
 docs/lots.md).
 
 The pool is started only when a second batch comes (a lot of one batch never pays for it; the

@@ -376,3 +376,17 @@ def test_without_pyarrow_numpy_converts(arrow, monkeypatch):
     got = F.convert_block("\n".join(f"{380 + k},{k}" for k in range(100)), ",", False, 100, 2)
     assert arrow == [False]
     np.testing.assert_array_equal(got[:, 1], np.arange(100.0))
+
+
+@SETTINGS
+@given(text=csv_text())
+def test_fast_path_with_arrow_agrees_with_line_by_line_path_generated(text):
+    """The generated files of test_fast_path_agrees_with_line_by_line_path_generated with every
+    data block converted by Arrow, in pieces of 64 bytes: the same spectra or the same message."""
+    pytest.importorskip("pyarrow")
+    saved = F.ARROW_BYTES, F.ARROW_PIECE_BYTES
+    F.ARROW_BYTES, F.ARROW_PIECE_BYTES = 0, 64
+    try:
+        _assert_same(text, "fuzz/gen.csv")
+    finally:
+        F.ARROW_BYTES, F.ARROW_PIECE_BYTES = saved

@@ -2,8 +2,8 @@
 
 A BLAS matrix product's rows change in their last bits with the other rows of the product
 (measured: up to 1.4e-13 in a (13, 401) @ (401, 297) product against the same rows one at a
-time, and 2e-16 in an (N, 3) @ (3, 3) one): the micro-kernels that take the rows at the edges
-of a block sum differently from those in the middle. For the test side of the figures that is
+time, and 2e-16 in an (N, 3) @ (3, 3) one; how the library blocks the rows, and which of its
+kernels takes which rows, is its own affair). For the test side of the figures that is
 harmless (a batch is evaluated the same way in every run), but an entry of a lazily filled
 table (:mod:`lumeval.metrics.reference_table`) computed together with whatever other entries a
 process needed at that moment would depend on what that process had evaluated before.

@@ -135,9 +135,14 @@ def one_blas_thread() -> Iterator[None]:
     throughout (:func:`worker_init`): a multi-threaded BLAS product splits its rows between
     threads, and the rows' last bits then differ from a one-thread product's (measured: up to
     8e-13 in TM-30 Rf,h), so figures would depend on the thread count, and a lot's figures on
-    which process evaluated a batch. The limit is process-wide (BLAS has one thread setting):
-    nested and concurrent blocks share it, the first one in sets it and the last one out
-    restores the caller's setting."""
+    which process evaluated a batch. Nested and concurrent blocks share the limit: the first one
+    in sets it and the last one out restores the caller's setting. It holds for the thread that
+    set it; in other threads of an application that has set OpenBLAS's thread count before,
+    OpenBLAS 0.3.30 was measured to keep its own count (lumeval's command line and its worker
+    processes evaluate in their main thread; Dask's nanny starts workers with
+    OPENBLAS_NUM_THREADS=1 in its default configuration).
+    An application evaluating from several threads gets the same bits by starting with
+    ``OPENBLAS_NUM_THREADS=1``."""
     global _blas_depth, _blas_limiter
     with _blas_lock:
         if _blas_depth == 0:

@@ -126,6 +126,19 @@ _blas_depth = 0
 _blas_limiter: Any = None
 
 
+def _release_openblas_control() -> None:
+    """Let any thread set OpenBLAS's thread count through threadpoolctl: with OpenBLAS's
+    process-wide (pthreads) pool, threadpoolctl lets only the first thread that set it set it
+    again and silently ignores the others, so a limit set or restored from another thread would
+    do nothing."""
+    try:
+        from threadpoolctl import OpenBLASController
+
+        OpenBLASController.clear_controlling_thread(force=True)
+    except Exception:  # pragma: no cover - threadpoolctl without it (older than 3.6) or missing
+        pass
+
+
 @contextmanager
 def one_blas_thread() -> Iterator[None]:
     """Within the block, BLAS uses one thread (threadpoolctl; nothing changes where it is missing).
@@ -135,17 +148,15 @@ def one_blas_thread() -> Iterator[None]:
     throughout (:func:`worker_init`): a multi-threaded BLAS product splits its rows between
     threads, and the rows' last bits then differ from a one-thread product's (measured: up to
     8e-13 in TM-30 Rf,h), so figures would depend on the thread count, and a lot's figures on
-    which process evaluated a batch. Nested and concurrent blocks share the limit: the first one
-    in sets it and the last one out restores the caller's setting. It holds for the thread that
-    set it; in other threads of an application that has set OpenBLAS's thread count before,
-    OpenBLAS 0.3.30 was measured to keep its own count (lumeval's command line and its worker
-    processes evaluate in their main thread; Dask's nanny starts workers with
-    OPENBLAS_NUM_THREADS=1 in its default configuration).
-    An application evaluating from several threads gets the same bits by starting with
-    ``OPENBLAS_NUM_THREADS=1``."""
+    which process evaluated a batch. OpenBLAS's pool is process-wide: nested blocks and blocks
+    in several threads share one limit, the first one in sets it and the last one out, in
+    whichever thread, restores the caller's setting (threadpoolctl's record of the thread
+    allowed to set it is cleared around each change: it ignored a limit set from a thread other
+    than the first one that ever set it, measured with OpenBLAS 0.3.30 and threadpoolctl 3.8)."""
     global _blas_depth, _blas_limiter
     with _blas_lock:
         if _blas_depth == 0:
+            _release_openblas_control()
             try:
                 _blas_limiter = _blas_controller().limit(limits=1, user_api="blas")
             except Exception:  # pragma: no cover - threadpoolctl missing or no BLAS found
@@ -157,5 +168,7 @@ def one_blas_thread() -> Iterator[None]:
         with _blas_lock:
             _blas_depth -= 1
             if _blas_depth == 0 and _blas_limiter is not None:
+                _release_openblas_control()
                 _blas_limiter.restore_original_limits()
+                _release_openblas_control()
                 _blas_limiter = None

@@ -1,11 +1,14 @@
 """lumeval._workers.one_blas_thread: one BLAS thread inside (the bits of a one-thread product),
-the caller's setting restored after nested blocks.
+in the main thread and in others, the caller's setting restored after nested and overlapping
+blocks, whichever thread leaves last.
 
 The thread counts are read with threadpoolctl's threadpool_info (an independent library's view
 of the loaded BLAS), not with lumeval's own bookkeeping.
 """
 
 from __future__ import annotations
+
+import threading
 
 import pytest
 
@@ -54,3 +57,70 @@ def test_products_inside_run_on_one_thread(two_threads):
     with one_blas_thread():
         inside = a @ b
     np.testing.assert_array_equal(inside, one)  # exact: the claim is the same bits
+
+
+def _products():
+    import numpy as np
+
+    rng = np.random.default_rng(0)
+    a, b = rng.random((2000, 401)), rng.random((401, 297))
+    with threadpoolctl.threadpool_limits(1, user_api="blas"):
+        one = a @ b
+    two = a @ b
+    if np.array_equal(one, two):
+        pytest.skip("one- and two-thread products agree here")
+    return a, b, one, two
+
+
+def test_a_block_in_another_thread_after_the_main_thread_used_one(two_threads):
+    """threadpoolctl lets only the thread that first set OpenBLAS's count set it again; the
+    block clears that record, so a block in another thread limits too, and restores after."""
+    import numpy as np
+
+    a, b, one, two = _products()
+    with one_blas_thread():
+        pass
+    got = {}
+
+    def work():
+        with one_blas_thread():
+            got["inside"] = a @ b
+        got["after"] = a @ b
+
+    t = threading.Thread(target=work)
+    t.start()
+    t.join(20)
+    np.testing.assert_array_equal(got["inside"], one)
+    np.testing.assert_array_equal(got["after"], two)
+
+
+def test_overlapping_blocks_in_two_threads(two_threads):
+    """Thread A enters, thread B enters, A leaves: B still computes with one thread; when B
+    (not the thread that set the limit) leaves, the caller's setting is back."""
+    import numpy as np
+
+    a, b, one, two = _products()
+    a_in, b_in, a_out = threading.Event(), threading.Event(), threading.Event()
+    got = {}
+
+    def first():
+        with one_blas_thread():
+            a_in.set()
+            b_in.wait(10)
+        a_out.set()
+
+    def second():
+        a_in.wait(10)
+        with one_blas_thread():
+            b_in.set()
+            a_out.wait(10)
+            got["second"] = a @ b
+
+    threads = [threading.Thread(target=first), threading.Thread(target=second)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(20)
+    np.testing.assert_array_equal(got["second"], one)
+    np.testing.assert_array_equal(a @ b, two)
+    assert min(_blas_threads()) == 2

@@ -167,12 +167,11 @@ def test_fast_path_agrees_with_line_by_line_path_generated(text):
     _assert_same(text, "fuzz/gen.csv")
 
 
-def test_numpy_text_parser_equals_python_float():
-    """numpy.loadtxt, on the characters the fast path lets through, gives float(cell) exactly
-    (reference: Python's correctly rounded float(); IEEE 754 binary64)."""
-    rng = random.Random(11)
+def _random_number_cells(rng: random.Random, n: int) -> list[str]:
+    """Well-formed cells of the reader's number grammar: signs, digits before and after a point,
+    exponents."""
     cells = []
-    for _ in range(20_000):
+    for _ in range(n):
         digits = "".join(rng.choice("0123456789") for _ in range(rng.randint(1, 25)))
         k = rng.randint(0, len(digits))
         c = digits[:k] + "." + digits[k:] if rng.random() < 0.8 else digits
@@ -181,6 +180,13 @@ def test_numpy_text_parser_equals_python_float():
         if rng.random() < 0.3:
             c += rng.choice("eE") + rng.choice(["", "+", "-"]) + str(rng.randint(0, 330))
         cells.append(rng.choice(["", "-", "+"]) + c)
+    return cells
+
+
+def test_numpy_text_parser_equals_python_float():
+    """numpy.loadtxt, on the characters the fast path lets through, gives float(cell) exactly
+    (reference: Python's correctly rounded float(); IEEE 754 binary64)."""
+    cells = _random_number_cells(random.Random(11), 20_000)
     want = np.array([float(c) for c in cells])
     finite = np.isfinite(want)
     cells = [c for c, f in zip(cells, finite) if f]
@@ -281,22 +287,6 @@ def arrow(monkeypatch):
     monkeypatch.setattr(F, "ARROW_PIECE_BYTES", 300)
     monkeypatch.setattr(F, "_arrow_convert", counted)
     return calls
-
-
-def _random_number_cells(rng: random.Random, n: int) -> list[str]:
-    """Well-formed cells of the reader's number grammar: signs, digits before and after a point,
-    exponents (the generator of test_numpy_text_parser_equals_python_float)."""
-    cells = []
-    for _ in range(n):
-        digits = "".join(rng.choice("0123456789") for _ in range(rng.randint(1, 25)))
-        k = rng.randint(0, len(digits))
-        c = digits[:k] + "." + digits[k:] if rng.random() < 0.8 else digits
-        if c == ".":
-            c = "0."
-        if rng.random() < 0.3:
-            c += rng.choice("eE") + rng.choice(["", "+", "-"]) + str(rng.randint(0, 330))
-        cells.append(rng.choice(["", "-", "+"]) + c)
-    return cells
 
 
 def test_arrow_conversion_equals_python_float(arrow):

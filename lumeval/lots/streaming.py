@@ -70,13 +70,11 @@ def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: i
     batching). ``progress``: a listener (:mod:`lumeval.progress`) told of each chunk evaluated
     and each sample's Monte Carlo draws (counted within the batch).
     """
-    from .._workers import one_blas_thread
     from ..engine import evaluate
     from ..figures import names as figure_names
     from .run import ENGINE_CHUNK
 
-    with one_blas_thread():  # the same bits in any process (see one_blas_thread)
-        ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False, progress=progress)
+    ev = evaluate(spectra, chunk_size=engine_chunk or ENGINE_CHUNK, keep_details=False, progress=progress)
     # (n, F) stored figure by figure (Fortran order): the lot record keeps blocks that way
     figs = np.array([ev.figure(k) for k in figure_names()], dtype=float).T
     xy = np.column_stack([ev.x, ev.y])

@@ -227,7 +227,6 @@ class _PairTable:
     def __init__(self, width: int, compute: Callable[[np.ndarray, np.ndarray], np.ndarray]) -> None:
         empty = np.empty(0, dtype=np.int64)
         self.data: tuple[np.ndarray, np.ndarray, np.ndarray] = (empty, empty, np.empty((64, width)))
-        self.size = 0
         self.compute = compute
         self.lock = threading.Lock()
 
@@ -257,7 +256,7 @@ class _PairTable:
         # entry is the same bits whatever the process needed before (module docstring)
         with one_blas_thread(), rowwise_products():
             rows = self.compute(M1[i], M2[i])
-        n0, n1 = self.size, self.size + rows.shape[0]
+        n0, n1 = keys.size, keys.size + rows.shape[0]  # the store's rows in use: one per key
         if n1 > store.shape[0]:  # a new store: readers keep the old one
             grown = np.empty((max(n1, 2 * store.shape[0]), store.shape[1]))
             grown[:n0] = store[:n0]
@@ -266,7 +265,6 @@ class _PairTable:
         all_keys = np.concatenate([keys, new[fresh]])
         order = np.argsort(all_keys, kind="stable")
         self.data = (all_keys[order], np.concatenate([where, np.arange(n0, n1)])[order], store)
-        self.size = n1
 
 
 @dataclass(frozen=True)

@@ -133,8 +133,8 @@ def _arrow_convert(raw: bytes, delim: str | None, nrows: int, ncols: int) -> np.
     converts with fast_float (correctly rounded), numpy with Python's correctly rounded
     conversion, so a cell both accept gives the same float; within the characters that reach
     here (digits, ``. e E + -``, the delimiter, line breaks) Arrow accepts exactly the cells
-    numpy accepts (tests/test_text_fast.py compares the two on well-formed and malformed cells),
-    and any cell it refuses sends the block to numpy, which decides as before."""
+    numpy accepts (tests/test_spectra_text_dialects.py compares the two on well-formed and
+    malformed cells), and any cell it refuses sends the block to numpy, which decides as before."""
     if delim is None or delim.isspace() or nrows > ARROW_MAX_ROWS or b" " in raw or b"\t" in raw:
         return None
     try:

@@ -115,10 +115,17 @@ def worker_init() -> None:
 
 
 @functools.lru_cache(maxsize=1)
-def _blas_controller():
+def _blas_controller_for(n_modules: int):
     from threadpoolctl import ThreadpoolController
 
     return ThreadpoolController()
+
+
+def _blas_controller():
+    """threadpoolctl's view of the loaded BLAS libraries (finding them costs ~1 ms), made again
+    when modules were imported since: a library loaded later (scipy's own OpenBLAS, loaded
+    with scipy.linalg) was not limited by a view made before it."""
+    return _blas_controller_for(len(sys.modules))
 
 
 _blas_lock = threading.Lock()

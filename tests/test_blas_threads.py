@@ -119,3 +119,28 @@ def test_overlapping_blocks_in_two_threads(two_threads):
     np.testing.assert_array_equal(got["second"], one)
     np.testing.assert_array_equal(a @ b, two)
     assert min(_blas_threads()) == 2
+
+
+def test_a_blas_loaded_after_the_first_block_is_limited_too():
+    """A block taken before another BLAS library is loaded (scipy's own OpenBLAS, with
+    scipy.linalg) limits that library too in later blocks (it did not: the view of the loaded
+    libraries was made once). Run in a fresh interpreter, where scipy.linalg is not yet loaded."""
+    import subprocess
+    import sys
+
+    code = (
+        "import numpy as np, threadpoolctl\n"
+        "from lumeval._workers import one_blas_thread\n"
+        "np.ones((2, 2)) @ np.ones((2, 2))\n"
+        "with one_blas_thread(): pass\n"
+        "import scipy.linalg\n"
+        "libs = [i for i in threadpoolctl.threadpool_info() if i['user_api'] == 'blas']\n"
+        "with one_blas_thread():\n"
+        "    inside = sorted({i['num_threads'] for i in threadpoolctl.threadpool_info() if i['user_api'] == 'blas'})\n"
+        "print(len(libs), inside)\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120, check=True).stdout
+    n_libs, inside = out.split(" ", 1)
+    if n_libs == "1":
+        pytest.skip("scipy.linalg brings no BLAS library of its own here")
+    assert inside.strip() == "[1]"

@@ -34,7 +34,7 @@ pytest.importorskip("pyarrow")
 
 from lumeval.commands.lot import run_lot
 
-from .test_lot_archive import DEMO, DEMO_CRITERIA, _criteria, demo_archive
+from .test_lot_archive import DEMO, DEMO_CRITERIA, _criteria, demo_archive, empty_archive
 
 REPO = Path(__file__).resolve().parents[1]
 RTOL = 0.0  # exact (see the module docstring)
@@ -83,6 +83,15 @@ def test_local_cluster_equals_local_run(arch, small_partitions):
     assert_same_run(local, dist)
     flagged = {dist.names[i] for i in np.flatnonzero(dist.stats.outlier)}
     assert {"AD30-w48-037", "AD30-w48-118", "AD30-w48-164"} <= flagged
+
+
+def test_an_archive_without_rows_is_listed_as_locally(arch, tmp_path):
+    empty = empty_archive(arch, tmp_path / "empty.parquet")
+    local = run_lot([empty, arch], batch_spectra=64)
+    dist = run_lot([empty, arch], batch_spectra=64, workers=1)
+    assert dist.unreadable == local.unreadable and len(local.unreadable) == 1
+    assert "the archive holds no rows" in dist.unreadable[0].message
+    assert dist.names == local.names and dist.exit_code == local.exit_code == 2
 
 
 def _free_port() -> int:

@@ -111,6 +111,25 @@ def test_a_lot_mixing_an_archive_and_a_csv_file(arch):
     assert st[0] is None and st[1] == "ST-0"
 
 
+def empty_archive(arch: Path, path: Path) -> Path:
+    """An archive with ``arch``'s columns and not a single row."""
+    pq.write_table(pq.read_table(arch).slice(0, 0), path)
+    return path
+
+
+def test_an_archive_without_rows_is_listed_unreadable(arch, tmp_path):
+    # inspect and check refuse an archive without rows; a lot must not count it as read (an
+    # export that wrote no spectrum would otherwise pass unnoticed)
+    empty = empty_archive(arch, tmp_path / "empty.parquet")
+    run = run_lot([empty, arch])
+    assert len(run) == 200 and run.exit_code == 2
+    assert [(u.source, u.message) for u in run.unreadable] == [
+        (str(empty), f"{empty}: the archive holds no rows — give an archive with at least one spectrum")]
+    r = subprocess.run([sys.executable, "-m", "lumeval", "lot", str(empty), "--quiet"],
+                       capture_output=True, text=True, cwd=REPO, timeout=300)
+    assert r.returncode == 2 and "the archive holds no rows" in r.stderr and "Traceback" not in r.stderr
+
+
 def test_evaluation_to_pandas_and_arrow(colour):
     from lumeval.engine import FIGURE_NAMES, evaluate
 

@@ -157,7 +157,7 @@ def run_lot_dask(
         Equal to the local run's (same samples, order, figures, verdicts and statistics).
     """
     from ..errors import LumevalError, UsageError
-    from ..spectra.archive import is_archive, open_file, plan_partitions
+    from ..spectra.archive import is_archive, no_rows_error, open_file, plan_partitions
     from .inputs import Unreadable, expand_inputs
     from .run import BATCH_SPECTRA
     from .streaming import LotAccumulator
@@ -190,6 +190,9 @@ def run_lot_dask(
             opened = open_file(f)
         except LumevalError as exc:
             bad_by_file[k].append(Unreadable(f, exc.message))
+            continue
+        if not opened[0].metadata.num_rows:
+            bad_by_file[k].append(Unreadable(f, no_rows_error(f).message))
             continue
         parts = plan_partitions(opened[0])
         expected += opened[0].metadata.num_rows

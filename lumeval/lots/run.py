@@ -264,7 +264,7 @@ def run_lot(
                             scheduler=scheduler, workers=workers, ellipse=ellipse,
                             nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
                             uncertainty=uncertainty)
-    from ..spectra.archive import has_archive_suffix
+    from ..spectra.archive import has_archive_suffix, no_rows_error
     from ..spectra.read import unique_names
     from .streaming import LotAccumulator, archive_batches
 
@@ -315,7 +315,9 @@ def run_lot(
 
                 flush()  # samples stay in input order
                 try:
+                    rows = False
                     for s, meta, bad in archive_batches(path, batch_spectra):
+                        rows = True
                         unreadable.extend(bad)
                         if s is not None:
                             s = unique_names(s, seen_names)
@@ -323,6 +325,8 @@ def run_lot(
                                 read_paths.append(path)
                             done += len(s)
                             consume(s, meta)
+                    if not rows:
+                        raise no_rows_error(path)
                 except LumevalError as exc:
                     unreadable.append(Unreadable(path, exc.message))
             else:  # read whole (in input order, maybe by workers), or a big text file in column blocks

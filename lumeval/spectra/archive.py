@@ -458,8 +458,15 @@ def read_archive(path: str | os.PathLike) -> SpectrumSet:
         wl = opened[1].wavelengths_nm
         sets.extend(b.spectra for b in iter_batches(f, batch_rows=65536, row_metadata=True, opened=opened))
     if not sets:
-        raise InputError("the archive holds no rows", file=str(path), fix="give an archive with at least one spectrum")
+        raise no_rows_error(path)
     return sets[0] if len(sets) == 1 else SpectrumSet.concatenate(sets)
+
+
+def no_rows_error(path: str | os.PathLike) -> InputError:
+    """The error of an archive (a file, or a folder of them) without a single row: ``inspect``
+    and ``check`` refuse it, a lot lists such a file as unreadable (an export that wrote no
+    spectrum must not pass as a lot that was read)."""
+    return InputError("the archive holds no rows", file=str(path), fix="give an archive with at least one spectrum")
 
 
 def count_rows(path: str | os.PathLike) -> int:

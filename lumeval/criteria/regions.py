@@ -491,10 +491,13 @@ def polygons_signed_distance(vertices, points) -> np.ndarray:
     V = np.asarray(vertices, dtype=float)
     P = np.atleast_2d(np.asarray(points, dtype=float))
     out = np.empty((P.shape[0], V.shape[0]))
+    terms = _polygon_terms(V)
     # chunks keep the (n, Q, K) intermediates bounded: n·Q·K ≤ 1e6 (8 MB per array)
     step = max(1, 1_000_000 // max(1, V.shape[0] * V.shape[1]))
     for s in range(0, P.shape[0], step):
-        out[s : s + step] = _signed_distance_chunk(V, P[s : s + step])
+        c = P[s : s + step]
+        d = _distances(*terms, c[:, 0, None, None], c[:, 1, None, None])
+        out[s : s + step] = np.where(np.all(np.isfinite(c), axis=1)[:, None], d, np.nan)
     return out
 
 
@@ -509,49 +512,63 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
     mean c, so its signed distance at p is at most r − |p − c| (inside, a disc of that distance
     about p fits in the polygon, hence in the disc about c; outside it is negative and at least
     |p − c| − r away). Each point's distance to the polygon of the highest bound is computed
-    first; then only the polygons whose bound reaches it (less a margin of rounding)."""
+    first; then only the polygons whose bound reaches it (less a margin of rounding). The
+    (point, polygon) pairs of each step are computed together, each pair with its polygon's
+    corners, edges and orientation (:func:`_distances`: elementwise, so a pair's value does not
+    depend on the pairs computed with it)."""
     V = np.asarray(vertices, dtype=float)
     P = np.atleast_2d(np.asarray(points, dtype=float))
     n, Q = P.shape[0], V.shape[0]
     c = V.mean(axis=1)  # (Q, 2)
     r = np.sqrt(((V - c[:, None, :]) ** 2).sum(axis=2)).max(axis=1)  # (Q,)
     ok = np.all(np.isfinite(P), axis=1)
-    bound = r - np.hypot(P[:, 0, None] - c[:, 0], P[:, 1, None] - c[:, 1])  # (n, Q)
+    # (n, Q); sqrt of the squares, not hypot (several times slower here): the bound only
+    # chooses the first polygon and prunes, with a margin far above its rounding
+    dx, dy = P[:, 0, None] - c[:, 0], P[:, 1, None] - c[:, 1]
+    bound = r - np.sqrt(dx * dx + dy * dy)
     bound[~ok] = -np.inf
     m = np.full((n, Q), -np.inf)
+    terms = _polygon_terms(V)
+    step = max(1, 1_000_000 // max(1, V.shape[1]))  # pairs at a time: (pairs, K) ≤ 1e6 elements
 
-    def fill(need: np.ndarray) -> None:  # the distances of the (point, polygon) pairs marked
-        for q in range(Q):
-            sel = need[:, q]
-            if sel.any():
-                m[sel, q] = polygons_signed_distance(V[q: q + 1], P[sel])[:, 0]
+    def fill(pi: np.ndarray, qi: np.ndarray) -> None:  # the distances of the pairs (pi[j], qi[j])
+        for s in range(0, pi.size, step):
+            p, q = pi[s: s + step], qi[s: s + step]
+            m[p, q] = _distances(*(t[q] for t in terms), P[p, 0, None], P[p, 1, None])
 
-    fill(ok[:, None] & (np.arange(Q) == np.argmax(bound, axis=1)[:, None]))
+    first = np.flatnonzero(ok)
+    fill(first, np.argmax(bound, axis=1)[first])
     reach = m.max(axis=1) - 1e-12 * (1.0 + r.max())
-    fill(ok[:, None] & (bound >= reach[:, None]) & (m == -np.inf))
+    fill(*np.nonzero(ok[:, None] & (bound >= reach[:, None]) & (m == -np.inf)))
     k = np.argmax(m, axis=1)
     best = np.where(ok, m[np.arange(n), k], np.nan)
     return np.where(ok, k, 0), best
 
 
-def _signed_distance_chunk(V: np.ndarray, P: np.ndarray) -> np.ndarray:
-    """(n, Q) signed distances of the points P (n, 2) to the polygons V (Q, K, 2), computed on
-    x and y components (n, Q, K) apart (no reductions over a length-2 axis)."""
-    ax, ay = V[..., 0], V[..., 1]  # (Q, K)
+def _polygon_terms(V: np.ndarray) -> tuple[np.ndarray, ...]:
+    """What :func:`_distances` needs of the polygons V (Q, K, 2): corners ``ax, ay``, edges
+    ``ex, ey`` (to the next corner) and their lengths ``L``, each (Q, K), and the orientation
+    ``sign`` (Q, 1): +1 counter-clockwise (positive area), -1 clockwise."""
+    ax, ay = V[..., 0], V[..., 1]
     bx, by = np.roll(ax, -1, axis=1), np.roll(ay, -1, axis=1)
-    ex, ey = bx - ax, by - ay  # edges (Q, K)
-    # orientation of each polygon: positive area = counter-clockwise
-    sign = np.where(np.sum(ax * by - bx * ay, axis=1) > 0, 1.0, -1.0)[:, None]  # (Q, 1)
-    L = np.hypot(ex, ey)
-    px, py = P[:, 0, None, None], P[:, 1, None, None]  # (n, 1, 1)
-    rx, ry = px - ax, py - ay  # (n, Q, K)
+    ex, ey = bx - ax, by - ay
+    sign = np.where(np.sum(ax * by - bx * ay, axis=1) > 0, 1.0, -1.0)[:, None]
+    return ax, ay, ex, ey, np.hypot(ex, ey), sign
+
+
+def _distances(ax, ay, ex, ey, L, sign, px, py) -> np.ndarray:
+    """Signed distances of points (px, py) to convex polygons given by :func:`_polygon_terms`'
+    arrays, broadcast together with the corners on the last axis (reduced): positive inside
+    (the smallest distance to an edge line), negative outside (minus the distance to the
+    nearest edge segment), zero on the boundary. Only elementwise operations and a min/all
+    over the corners: a (point, polygon) pair gives the same bits whatever is computed with it."""
+    rx, ry = px - ax, py - ay
     cross = ex * ry - ey * rx
     line_d = sign * cross / L  # positive on the inner side of each edge
-    inside = np.all(line_d >= 0.0, axis=2)
+    inside = np.all(line_d >= 0.0, axis=-1)
     t = np.clip((rx * ex + ry * ey) / (L**2), 0.0, 1.0)
-    seg_d = np.hypot(px - (ax + t * ex), py - (ay + t * ey)).min(axis=2)
-    out = np.where(inside, line_d.min(axis=2), -seg_d)
-    return np.where(np.all(np.isfinite(P), axis=1)[:, None], out, np.nan)
+    seg_d = np.hypot(px - (ax + t * ex), py - (ay + t * ey)).min(axis=-1)
+    return np.where(inside, line_d.min(axis=-1), -seg_d)
 
 
 # --------------------------------------------------------------------------- SDCM ellipses

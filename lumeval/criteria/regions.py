@@ -534,7 +534,8 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
     def fill(pi: np.ndarray, qi: np.ndarray) -> None:  # the distances of the pairs (pi[j], qi[j])
         for s in range(0, pi.size, step):
             p, q = pi[s: s + step], qi[s: s + step]
-            m[p, q] = _distances(*(t[q] for t in terms), P[p, 0, None], P[p, 1, None])
+            ax, ay, ex, ey, L, sign = (t[q] for t in terms)
+            m[p, q] = _distances(ax, ay, ex, ey, L, sign, P[p, 0, None], P[p, 1, None])
 
     first = np.flatnonzero(ok)
     fill(first, np.argmax(bound, axis=1)[first])
@@ -545,7 +546,7 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
     return np.where(ok, k, 0), best
 
 
-def _polygon_terms(V: np.ndarray) -> tuple[np.ndarray, ...]:
+def _polygon_terms(V: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """What :func:`_distances` needs of the polygons V (Q, K, 2): corners ``ax, ay``, edges
     ``ex, ey`` (to the next corner) and their lengths ``L``, each (Q, K), and the orientation
     ``sign`` (Q, 1): +1 counter-clockwise (positive area), -1 clockwise."""

@@ -3,6 +3,8 @@ library, and the reference SPD it offers to reports."""
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 
@@ -77,6 +79,14 @@ def test_chunking_does_not_change_results(cie_sources, ev):
     for name in ("x", "cct_K", "duv", "Ra", "R9", "Rf", "Rg", "cie2017_Rf", "Rcs_h1", "ler_lm_per_W", "melanopic_der"):
         np.testing.assert_allclose(small.figure(name), ev.figure(name), rtol=1e-12, atol=1e-12)
     assert small.tm30.Jab_test.shape == (len(cie_sources), 0)
+    # the per-spectrum texts (reasons, reference kinds, warnings), joined from the chunks in order
+    assert small.warnings == ev.warnings and small.cct_reason == ev.cct_reason
+    for part in ("cri", "tm30", "photometry"):
+        a, b = getattr(small, part), getattr(ev, part)
+        texts = [f.name for f in dataclasses.fields(a) if isinstance(getattr(a, f.name), tuple)]
+        assert texts, part
+        for f in texts:
+            assert getattr(a, f) == getattr(b, f) and len(getattr(a, f)) in (0, len(cie_sources)), (part, f)
 
 
 def test_memory_layout_does_not_change_results(cie_sources):

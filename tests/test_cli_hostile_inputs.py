@@ -212,6 +212,49 @@ def test_inspect_non_utf8_file_name(tmp_path):
         code, out, err = run_sub(["inspect", name, "--format", fmt], tmp_path, timeout=120)
         assert code == 0, err
         assert "x\ufffd" in out
+    # the HTML report's command line names the file too (it once failed to encode: exit 3)
+    code, out, err = run_sub(["inspect", name, "--html", "r.html", "--quiet"], tmp_path, timeout=120)
+    assert code == 0, err
+    assert "lumeval inspect x\ufffd.csv --html r.html" in (tmp_path / "r.html").read_text(encoding="utf-8")
+
+
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+def test_archive_with_a_non_utf8_file_name(tmp_path):
+    """A Parquet archive whose name is not UTF-8 is read as a text file with such a name is
+    (pyarrow takes only UTF-8 path text: lumeval opens it by its bytes; before, it was refused as
+    "not a readable Parquet file"); an empty one is listed unreadable (its source once made the
+    JSON writer fail with an internal error); every writer, the HTML's command line too, gets
+    the printable name."""
+    pa = pytest.importorskip("pyarrow")
+    pq = pytest.importorskip("pyarrow.parquet")
+    write_spd(tmp_path / "a.csv")
+    code, _, err = run_sub(["convert", "a.csv", "a.parquet", "--quiet"], tmp_path, timeout=120)
+    assert code == 0, err
+    base = os.fsencode(tmp_path)
+    os.rename(tmp_path / "a.parquet", os.path.join(base, b"arch\xff.parquet"))
+    pq.write_table(pq.read_table(pa.OSFile(os.path.join(base, b"arch\xff.parquet"))).slice(0, 0), tmp_path / "none.parquet")
+    os.rename(tmp_path / "none.parquet", os.path.join(base, b"none\xfe.parquet"))
+    good, empty = os.fsdecode(b"arch\xff.parquet"), os.fsdecode(b"none\xfe.parquet")
+
+    code, out, err = run_sub(["lot", good, "--json", "l.json", "--samples-csv", "s.csv", "--html", "r.html", "--quiet"],
+                             tmp_path, timeout=180)
+    assert code == 0, err
+    doc = json.loads((tmp_path / "l.json").read_text(encoding="utf-8"))
+    assert [s["source"] for s in doc["samples"]] == ["arch\ufffd.parquet#row 1"]
+    assert "arch\ufffd.parquet#row 1" in (tmp_path / "s.csv").read_text(encoding="utf-8")
+    assert "lumeval lot arch\ufffd.parquet" in (tmp_path / "r.html").read_text(encoding="utf-8")
+
+    code, out, err = run_sub(["lot", empty, good, "--json", "l2.json", "--samples-csv", "s2.csv", "--html", "r2.html",
+                              "--quiet"], tmp_path, timeout=180)
+    assert code == 2 and "Traceback" not in err and "internal error" not in err, err
+    doc = json.loads((tmp_path / "l2.json").read_text(encoding="utf-8"))
+    assert doc["unreadable"] == [{"source": "none\ufffd.parquet", "message": "none\ufffd.parquet: the archive holds no "
+                                  "rows \u2014 give an archive with at least one spectrum"}]
+    assert len(doc["samples"]) == 1
+
+    code, out, err = run_sub(["inspect", good, "--format", "json"], tmp_path, timeout=120)
+    assert code == 0, err
+    assert json.loads(out)["spectra"][0]["source"] == "arch\ufffd.parquet#row 1"
 
 
 # --------------------------------------------------------------------------- silent acceptance

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import typer
 
+from .._paths import command_line
 from ..render.safe import clean
 
 
@@ -118,7 +119,7 @@ def register(app: typer.Typer) -> None:
                 from ..render.html import regions_from_criteria, write_outputs
 
                 written = write_outputs(ev, html=html, plots=plots, verdicts=result, regions=regions_from_criteria(crit),
-                                        inputs=[*files, criteria], command="lumeval " + " ".join(sys.argv[1:]),
+                                        inputs=[*files, criteria], command=command_line(),
                                         progress=progress)
                 announce_outputs(written, html, plots)
         if output_format is OutputFormat.json:

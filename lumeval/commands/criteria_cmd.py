@@ -9,6 +9,7 @@ from typing import Any
 
 import typer
 
+from .._paths import command_line
 from .check import OutputFormat, emit, plain_text
 
 
@@ -312,7 +313,7 @@ def register(app: typer.Typer) -> None:
 
             write_html_report(html, ev, verdicts=claims_verdict_rows(result), inputs=[*files, claims],
                               title="Datasheet claims against the supplier's spectra",
-                              command="lumeval " + " ".join(sys.argv[1:]),
+                              command=command_line(),
                               overall="fail" if result.exit_code else None)
             announce("HTML report", html)
 

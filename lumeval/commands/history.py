@@ -17,6 +17,8 @@ from pathlib import Path
 
 import typer
 
+from .._paths import command_line
+
 
 class ListFormat(str, Enum):
     terminal = "terminal"
@@ -206,7 +208,7 @@ def register(app: typer.Typer) -> None:
                                            exact_product=True))
                     except StoreError:
                         pass  # no category recorded with these lots
-            trend_report.write_trend_html(html, tr, chromaticity=extra, command="lumeval " + " ".join(sys.argv[1:]))
+            trend_report.write_trend_html(html, tr, chromaticity=extra, command=command_line())
         if output_format is ListFormat.json:
             sys.stdout.write(trend_report.trend_json(tr))
         else:

@@ -7,6 +7,8 @@ from pathlib import Path
 
 import typer
 
+from .._paths import command_line
+
 
 class OutputFormat(str, Enum):
     terminal = "terminal"
@@ -77,12 +79,10 @@ def register(app: typer.Typer) -> None:
         with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints
             ev = inspect(files, progress=progress)
             if html is not None or plots is not None:
-                import sys
-
                 from ..render.html import write_outputs
 
                 written = write_outputs(ev, html=html, plots=plots, inputs=list(files),
-                                        command="lumeval " + " ".join(sys.argv[1:]), progress=progress)
+                                        command=command_line(), progress=progress)
                 announce_outputs(written, html, plots)
         if output_format is OutputFormat.json:
             from ..render.tables import to_json

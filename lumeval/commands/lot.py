@@ -28,6 +28,8 @@ from pathlib import Path
 
 import typer
 
+from .._paths import command_line
+
 # The lot run lives in lumeval.lots (re-exported here for code written against this module).
 from ..lots.inputs import (  # noqa: F401
     SPECTRUM_SUFFIXES,
@@ -98,7 +100,7 @@ def _write_lot_report(run: LotRun, criteria, html, plots, progress=None) -> None
         ev, html=html, plots=plots, verdicts=verdicts or None, lot=run.stats,
         overall=("fail" if run.failed else "pass") if verdicts else None,
         regions=regions_from_criteria(criteria) if criteria is not None else None,
-        inputs=list(run.read_paths), command="lumeval " + " ".join(sys.argv[1:]), progress=progress,
+        inputs=list(run.read_paths), command=command_line(), progress=progress,
     )
     announce_outputs(written, html, plots)
 

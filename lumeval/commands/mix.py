@@ -10,6 +10,8 @@ from pathlib import Path
 
 import typer
 
+from .._paths import command_line
+
 
 class OutputFormat(str, Enum):
     terminal = "terminal"
@@ -83,4 +85,4 @@ def register(app: typer.Typer) -> None:
         with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints
             report = mix_files(channels, cct, duv=duv_value, maximise=maximise.value, criteria=criteria,
                                progress=progress)
-        emit_report(report, output_format, html, "lumeval " + " ".join(sys.argv[1:]))
+        emit_report(report, output_format, html, command_line())

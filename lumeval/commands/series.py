@@ -4,12 +4,12 @@ setting's Δu′v′ from a reference (Python twin: :func:`lumeval.tunable.api.s
 
 from __future__ import annotations
 
-import sys
 from enum import Enum
 from pathlib import Path
 
 import typer
 
+from .._paths import command_line
 from .mix import OutputFormat, emit_report
 
 
@@ -52,4 +52,4 @@ def register(app: typer.Typer) -> None:
         with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints
             report = series_files(files, setting_from=setting_from.value, key=setting_key, manifest=manifest,
                                   unit=unit, reference=reference, criteria=criteria, progress=progress)
-        emit_report(report, output_format, html, "lumeval " + " ".join(sys.argv[1:]))
+        emit_report(report, output_format, html, command_line())

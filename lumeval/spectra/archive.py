@@ -217,7 +217,10 @@ def open_file(file: str):
     pa, pq = _pa()
     opened_as, file = file, display_path(file)  # open the path as given; show its printable form
     try:
-        pf = pq.ParquetFile(opened_as)
+        if opened_as != file:  # undecodable bytes in the name: pyarrow takes only UTF-8 path text
+            pf = pq.ParquetFile(pa.OSFile(os.fsencode(opened_as)))
+        else:
+            pf = pq.ParquetFile(opened_as)
     except FileNotFoundError:
         raise InputError("no such file", file=file, fix="check the path") from None
     except IsADirectoryError:
@@ -466,7 +469,9 @@ def no_rows_error(path: str | os.PathLike) -> InputError:
     """The error of an archive (a file, or a folder of them) without a single row: ``inspect``
     and ``check`` refuse it, a lot lists such a file as unreadable (an export that wrote no
     spectrum must not pass as a lot that was read)."""
-    return InputError("the archive holds no rows", file=str(path), fix="give an archive with at least one spectrum")
+    from .._paths import display_path
+
+    return InputError("the archive holds no rows", file=display_path(path), fix="give an archive with at least one spectrum")
 
 
 def count_rows(path: str | os.PathLike) -> int:

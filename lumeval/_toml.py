@@ -103,7 +103,9 @@ def read_toml(path: str | Path, *, what: str, option: str, error: type[LumevalEr
     """Read and parse a TOML file: ``(data, text)``. See the module docstring for the rules;
     :func:`read_text` and :func:`loads` for the errors."""
     text = read_text(path, what=what, option=option, error=error, read_error=read_error, max_bytes=max_bytes)
-    return loads(text, str(path), error=error), text
+    from ._paths import display_path
+
+    return loads(text, display_path(path), error=error), text
 
 
 def _too_deep(text: str) -> int | None:

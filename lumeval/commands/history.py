@@ -49,11 +49,30 @@ def parse_trend_figures(text: str | None) -> list[str]:
     return out
 
 
+def _utf8_label(option: str, value: str | None) -> None:
+    """Refuse a label that is not UTF-8 text (undecodable bytes from the command line, e.g. a
+    shell variable made from a file name): labels are stored and compared as given, so they are
+    not silently changed to a printable form."""
+    from ..errors import UsageError
+
+    if value is None:
+        return
+    try:
+        value.encode("utf-8")
+    except UnicodeEncodeError:
+        from .._paths import display_path
+
+        raise UsageError(f"{option} {display_path(value)!r} is not UTF-8 text", field=option,
+                         fix="give the label as UTF-8 text") from None
+
+
 def check_store_options(store, lot_id, product, trend_figures, fail_on_signal) -> list[str]:
     """Validate ``lot``'s store options before any work: the store URL's form and the trend
     figures. Returns the resolved trend figures."""
     from ..errors import UsageError
 
+    for opt, v in (("--lot-id", lot_id), ("--product", product)):
+        _utf8_label(opt, v)
     if store is None:
         given = [o for o, v in (("--lot-id", lot_id), ("--product", product), ("--trend-figures", trend_figures),
                                 ("--fail-on-signal", fail_on_signal or None)) if v is not None]
@@ -64,7 +83,7 @@ def check_store_options(store, lot_id, product, trend_figures, fail_on_signal) -
 
 
 def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_figures=None,
-                     fail_on_signal: bool = False, exit_code: int = 0) -> int:
+                     fail_on_signal: bool = False, exit_code: int = 0, criteria_path=None) -> int:
     """Record a judged lot and report new control-chart signals (``lot --store``).
 
     Called after the lot's other outputs are written, so that a store that cannot be reached
@@ -84,7 +103,7 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
               "fully judged", file=sys.stderr)
         return 2
     try:
-        rec = lot_record(run, criteria=criteria, lot_id=lot_id, product=product)
+        rec = lot_record(run, criteria=criteria, lot_id=lot_id, product=product, criteria_path=criteria_path)
         res = record_lot(store, rec)
     except StoreError as exc:
         print(f"lumeval: error: {exc.message} (the lot's other outputs are written; the lot is not recorded)",
@@ -156,6 +175,7 @@ def register(app: typer.Typer) -> None:
         output_format: ListFormat = typer.Option(ListFormat.terminal, "--format", "-f", help="terminal or json."),
     ) -> None:
         """List the recorded lots: number, label, product, time, samples, yield, lot verdict."""
+        _utf8_label("--product", product)
         from ..store.db import parse_store_url
         from ..store.query import list_lots
 
@@ -190,6 +210,7 @@ def register(app: typer.Typer) -> None:
         fail_on_signal: bool = typer.Option(False, "--fail-on-signal", help="Exit 1 when any lot gives a signal."),
     ) -> None:
         """Control charts of a figure over the recorded lots, with Western Electric signals."""
+        _utf8_label("--product", product)
         from ..store.db import StoreError, parse_store_url
         from ..store.trend import CHROMATICITY_FIGURES, trend
         from ._targets import check_targets

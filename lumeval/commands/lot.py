@@ -228,4 +228,4 @@ def register(app: typer.Typer) -> None:
         # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which
         # would turn typer.Exit into a return value and lose the code.
         sys.exit(record_after_lot(run, criteria, store=store, lot_id=lot_id, product=product, trend_figures=trend_figures,
-                                  fail_on_signal=fail_on_signal, exit_code=run.exit_code))
+                                  fail_on_signal=fail_on_signal, exit_code=run.exit_code, criteria_path=criteria_file))

@@ -294,6 +294,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
 
 def load_claims(path) -> Claims:
     """Read and parse a claims file."""
+    from .._paths import display_path
     from .._toml import read_text
 
-    return parse_claims(read_text(path, what="claims", option="--claims"), str(path))
+    return parse_claims(read_text(path, what="claims", option="--claims"), display_path(path))

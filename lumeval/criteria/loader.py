@@ -294,4 +294,6 @@ def _uncertainty_tables(data: dict, text: str, file: str) -> dict:
 
 def load_criteria(path) -> Criteria:
     """Read and parse a criteria file (see :func:`parse_criteria`)."""
-    return parse_criteria(read_text(path, what="criteria", option="--criteria"), str(path))
+    from .._paths import display_path
+
+    return parse_criteria(read_text(path, what="criteria", option="--criteria"), display_path(path))

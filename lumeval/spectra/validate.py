@@ -62,10 +62,11 @@ def validate_report(path: str | Path) -> list[SpectrumCheck]:
     where one spectrum cannot be prepared gives ``ok=False`` for that spectrum and the others
     are still checked.
     """
+    from .._paths import display_path
     from .prepare import prepare
     from .read import read_spectra
 
-    file = str(path)
+    file = display_path(path)
     try:
         raw = read_spectra(path)
     except InputError as exc:

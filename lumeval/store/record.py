@@ -135,11 +135,12 @@ def _region_of(criteria, stats) -> Region | None:
 
 
 def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | None = None,
-               input_files=None) -> LotRecord:
+               input_files=None, criteria_path=None) -> LotRecord:
     """Build the record of a judged lot (a :class:`lumeval.commands.lot.LotRun`).
 
-    Hashes the input files (``input_files``, default the files the samples came from) and the
-    criteria file. Lot label: ``lot_id``, else the criteria identification's ``lot``; product:
+    Hashes the input files (``input_files``, default the files the samples came from:
+    ``run.read_paths``, the paths that open them) and the criteria file (``criteria_path``, the
+    path as given, default ``run.criteria_file``); paths are recorded in their printable form. Lot label: ``lot_id``, else the criteria identification's ``lot``; product:
     ``product``, else the identification's ``product``.
     """
     from .. import __version__
@@ -148,14 +149,18 @@ def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | 
 
     ident = dict(getattr(run, "identification", {}) or {})
     ident_s = {str(k): (v if isinstance(v, (str, int, float, bool)) or v is None else str(v)) for k, v in ident.items()}
-    if input_files is None:
-        input_files = sorted({src.split("#", 1)[0] for src in run.sources})
     import os
 
+    from .._paths import display_path
+
+    if input_files is None:
+        # the opened paths, not the samples' sources: a source is the printable name (a file
+        # name's undecodable bytes shown as U+FFFD) and may hold "#" (FILE#column)
+        input_files = list(getattr(run, "read_paths", ()) or ()) or sorted({src.split("#", 1)[0] for src in run.sources})
     inputs = []
-    for p in input_files:
-        inputs.append((str(p), sha256_of(p), os.path.getsize(p)))
-    crit_file = getattr(run, "criteria_file", None)
+    for p in sorted(set(input_files), key=display_path):
+        inputs.append((display_path(p), sha256_of(p), os.path.getsize(p)))
+    crit_file = criteria_path if criteria_path is not None else getattr(run, "criteria_file", None)
     crit_sha = sha256_of(crit_file) if crit_file else None
     doc = lot_document(run)
     doc.pop("samples", None)
@@ -170,7 +175,7 @@ def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | 
     return LotRecord(
         label=lot_id if lot_id else (str(ident["lot"]) if ident.get("lot") is not None else None),
         product=product if product else (str(ident["product"]) if ident.get("product") is not None else None),
-        criteria_file=str(crit_file) if crit_file else None,
+        criteria_file=display_path(crit_file) if crit_file else None,
         criteria_sha256=crit_sha,
         identification=ident_s,
         inputs=tuple(inputs),

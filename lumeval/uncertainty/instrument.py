@@ -336,8 +336,10 @@ def load_instrument(path: str | Path) -> tuple[InstrumentModel, MonteCarloSettin
         Bad TOML, a missing ``[instrument]`` table, an unknown table or key, or a bad value
         (the message names the line and key).
     """
+    from .._paths import display_path
+
     data, text = parse_toml(path)
-    file = str(path)
+    file = display_path(path)
     for key in data:
         if key not in ("instrument", "monte_carlo"):
             raise CriteriaError(f"unknown table or key {key!r} in an instrument file", file=file,

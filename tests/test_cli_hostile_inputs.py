@@ -257,6 +257,21 @@ def test_archive_with_a_non_utf8_file_name(tmp_path):
     assert json.loads(out)["spectra"][0]["source"] == "arch\ufffd.parquet#row 1"
 
 
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+def test_criteria_file_with_a_non_utf8_name(tmp_path):
+    """The criteria file's name is shown in the verdicts, the JSON and the HTML report: printable
+    (it once made the HTML writer fail: internal error, exit 3)."""
+    write_spd(tmp_path / "lamp.csv")
+    crit = os.path.join(os.fsencode(tmp_path), b"tender\xfe.toml")
+    with open(crit, "w", encoding="utf-8") as fh:
+        fh.write('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 1\n')
+    code, out, err = run_sub(["check", "lamp.csv", "--criteria", os.fsdecode(crit), "--format", "json", "--html", "r.html",
+                              "--quiet"], tmp_path, timeout=120)
+    assert code in (0, 1) and "Traceback" not in err and "internal error" not in err, err
+    assert json.loads(out)["criteria_file"].endswith("/tender\ufffd.toml")
+    assert "tender\ufffd.toml" in (tmp_path / "r.html").read_text(encoding="utf-8")
+
+
 # --------------------------------------------------------------------------- silent acceptance
 
 

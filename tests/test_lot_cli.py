@@ -160,10 +160,11 @@ def test_bad_criteria_exit_2_and_no_file_written(lot_dir, tmp_path):
     assert not out.exists()
 
 
-@pytest.mark.parametrize("value", ["0", "-2", "two"])
+@pytest.mark.parametrize("value", ["0", "-2", "two", "257", "99999999999999999999"])
 def test_bad_processes_exit_2_and_no_file_written(lot_dir, tmp_path, value):
-    """--processes takes a whole number from 1 (1: this process only): anything else is a usage
-    error naming the option, exit 2, no output file."""
+    """--processes takes a whole number from 1 to 256 (1: this process only): anything else is a
+    usage error naming the option, exit 2, no output file (a number too large for a C int once
+    ended in an internal error)."""
     out = tmp_path / "s.csv"
     r = run_cli("lot", lot_dir / "FL1.csv", "--processes", value, "--samples-csv", out)
     assert r.returncode == 2 and "Traceback" not in r.stderr

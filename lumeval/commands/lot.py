@@ -150,8 +150,9 @@ def register(app: typer.Typer) -> None:
             None, "--workers", help="Evaluate Parquet archives on a local Dask cluster of N worker processes "
             "(loopback only).", show_default=False),
         processes: int = typer.Option(
-            None, "--processes", min=1, help="Worker processes on this machine that read, convert, evaluate and "
-            "write the lot's per-sample CSV (default: one per core; 1: this process only).", show_default=False),
+            None, "--processes", min=1, max=256, help="Worker processes on this machine that read, convert, evaluate "
+            "and write the lot's per-sample CSV, 1 to 256 (default: one per core; 1: this process only).",
+            show_default=False),
     ) -> None:
         """Judge a production lot: every sample's figures, lot statistics, yield and outliers."""
         from ._targets import check_targets

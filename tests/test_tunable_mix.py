@@ -185,6 +185,12 @@ def test_parse_setpoints():
     for bad in ("2700:6500", "6500:2700:100", "2700:6500:0", "abc", "500,3000", "2700:6500:333"):
         with pytest.raises(UsageError):
             parse_setpoints(bad)
+    # a step so small that the count of setpoints overflows a float: a usage error (it was an
+    # OverflowError), and a huge count is written short
+    with pytest.raises(UsageError, match="more than 20001 setpoints"):
+        parse_setpoints("1000:20000:1e-320")
+    with pytest.raises(UsageError, match=r"gives about 1e\+303 setpoints"):
+        parse_setpoints("3000:4000:1e-300")
 
 
 def test_bad_channels():

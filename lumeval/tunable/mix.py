@@ -168,8 +168,12 @@ def parse_setpoints(text: str, *, option: str = "--cct") -> np.ndarray:
             if not (np.isfinite(lo) and np.isfinite(hi) and np.isfinite(step)) or step <= 0 or hi < lo:
                 raise UsageError(f"{option} {s!r}: need LOW ≤ HIGH and a positive STEP", fix=fix)
             n = (hi - lo) / step
+            if not np.isfinite(n):  # a step so small that the count overflows
+                raise UsageError(f"{option} {s!r}: the step {step:g} gives more than {MAX_SETPOINTS} setpoints",
+                                 fix="use a larger step")
             if n + 1 > MAX_SETPOINTS:
-                raise UsageError(f"{option} {s!r} gives {int(n) + 1} setpoints, more than {MAX_SETPOINTS}", fix="use a larger step")
+                many = f"{int(n) + 1}" if n < 1e15 else f"about {n:.3g}"
+                raise UsageError(f"{option} {s!r} gives {many} setpoints, more than {MAX_SETPOINTS}", fix="use a larger step")
             k = int(round(n))
             if abs(n - k) > 1e-9 * max(1.0, n):
                 raise UsageError(f"{option} {s!r}: the step {step:g} does not divide {lo:g}…{hi:g}", fix=fix)

@@ -69,7 +69,8 @@ def _root(
 
 #: Words for the value an option takes in ``--help`` (the parser would print Python type names
 #: such as ``<list[Path]>``, ``<int>``); None: nothing (the argument's name says it).
-_HELP_WORDS = {"path": "PATH", "int": "N", "float": "NUMBER", "text": "TEXT", "str": "TEXT"}
+_HELP_WORDS = {"path": "PATH", "int": "N", "float": "NUMBER", "text": "TEXT", "str": "TEXT", "int range": "N",
+               "float range": "NUMBER"}
 
 
 def _plain_help_types() -> None:

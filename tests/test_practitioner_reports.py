@@ -82,7 +82,8 @@ def test_help_has_no_python_type_names_and_offers_completion():
     for cmd in COMMANDS:
         r = run_cli(*cmd.split(), "--help")
         assert r.returncode == 0, (cmd, r.stderr)
-        for bad in ("<list[", "<path>", "<int>", "<float>", "<text>", "<str>", "list[Path]", "{files}"):
+        for bad in ("<list[", "<path>", "<int>", "<float>", "<text>", "<str>", "list[Path]", "{files}", "int range",
+                    "float range"):
             assert bad not in r.stdout, (cmd, bad)
 
 

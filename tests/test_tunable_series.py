@@ -123,6 +123,12 @@ def test_series_refusals(series_dir, tmp_path):
         series_files([paths[0]])
     with pytest.raises(UsageError, match="no setting 42"):
         series_files(paths, reference="42")
+    import warnings
+
+    with warnings.catch_warnings():  # an infinite reference names no setting, without a stray warning
+        warnings.simplefilter("error")
+        with pytest.raises(UsageError, match="no setting inf"):
+            series_files(paths, reference="1e400")
     with pytest.raises(UsageError, match="not CCTs"):
         series_files(paths, reference="locus")
 

@@ -173,7 +173,9 @@ def reference_points(view, settings: np.ndarray, reference) -> tuple[np.ndarray,
         k = int(np.argmin(settings))
         desc = f"the lowest setting ({settings[k]:g})"
     else:
-        hits = np.flatnonzero(np.isclose(settings, float(reference), rtol=0, atol=1e-9 * max(1.0, abs(float(reference)))))
+        r = float(reference)
+        hits = (np.flatnonzero(np.isclose(settings, r, rtol=0, atol=1e-9 * max(1.0, abs(r)))) if np.isfinite(r)
+                else np.zeros(0, dtype=int))  # inf/nan name no setting (and isclose would warn)
         if hits.size == 0:
             return np.full((n, 2), np.nan), f"setting {float(reference):g}", f"there is no setting {float(reference):g} to refer to"
         k = int(hits[0])

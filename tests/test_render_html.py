@@ -343,6 +343,25 @@ def test_names_are_escaped(demo_eval):
     html5lib.HTMLParser(strict=True).parse(text)
 
 
+def test_control_characters_in_names_are_shown_not_written(demo_eval):
+    """A name from a file may hold a NUL (which an HTML page cannot hold: a parse error), a
+    bidirectional override (which would reorder what a table cell shows) or a terminal escape:
+    the page shows each as a visible escape, as the terminal does, and holds none of them raw
+    (they once went into the table cells as they were)."""
+    from dataclasses import replace
+
+    evil = "\u202e\x00lamp\x1b[31m\x07"
+    names = (evil,) + demo_eval.spectra.names[1:]
+    sp = demo_eval.spectra
+    ev = replace(demo_eval, spectra=replace(sp, groups=(replace(sp.groups[0], names=names),)))
+    text = H.render_html_report(ev)
+    for ch in ("\x00", "\u202e", "\x1b", "\x07"):
+        assert ch not in text, repr(ch)
+    assert "\\u202e\\x00lamp\\x1b[31m\\x07" in text
+    import html5lib  # a test dependency (pyproject [test]): fail, never skip, when it is missing
+    html5lib.HTMLParser(strict=True).parse(text)
+
+
 def test_write_outputs_draws_once_and_checks_targets_first(demo_eval, tmp_path, monkeypatch):
     calls = []
     real = H.report_figures

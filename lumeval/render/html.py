@@ -78,6 +78,7 @@ from .report_view import (
     ReportView,
     build_report_view,
 )
+from .safe import html_value
 
 __all__ = [
     "CHECK_GRID_MAX", "KEY_FIGURE_TABLES", "LOT_FIGURES", "MAX_TABLE_ROWS", "PER_SAMPLE_MAX", "PLOT_FILE_PATTERNS",
@@ -100,12 +101,14 @@ def template_text(name: str) -> str:
 @functools.cache
 def _environment():
     """The Jinja2 environment of lumeval's pages: templates from the package data, every
-    ``{{ }}`` autoescaped, an undefined name an error (never an empty string)."""
+    ``{{ }}`` cleaned of control characters (:func:`lumeval.render.safe.html_value`) and
+    autoescaped, an undefined name an error (never an empty string)."""
     import jinja2
 
     env = jinja2.Environment(
         loader=jinja2.FunctionLoader(lambda name: (template_text(name), None, lambda: True)),
         autoescape=True,
+        finalize=html_value,  # control characters from files shown as escapes, then HTML-escaped
         undefined=jinja2.StrictUndefined,
         keep_trailing_newline=True,
     )
@@ -362,5 +365,5 @@ def inline_svg(svg: str, prefix: str, label: str) -> str:
     s = _URL_RE.sub(lambda m: f"url(#{prefix}-{m.group(1)})", s)
     s = re.sub(r'<svg\b([^>]*?)\swidth="[^"]*"', r"<svg\1", s, count=1)
     s = re.sub(r'<svg\b([^>]*?)\sheight="[^"]*"', r"<svg\1", s, count=1)
-    s = s.replace("<svg ", f'<svg class="chart" role="img" aria-label="{escape(label)}" ', 1)
+    s = s.replace("<svg ", f'<svg class="chart" role="img" aria-label="{escape(html_value(label))}" ', 1)
     return s.strip()

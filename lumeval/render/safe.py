@@ -10,6 +10,8 @@ people made. Every renderer passes them through this module:
 - :func:`text` wraps the cleaned string in a rich ``Text``, which rich never parses as markup:
   ``[bold green]PASS[/]`` or ``[link=…]`` in a name prints literally. Renderers give rich
   ``Text`` objects, never markup strings, for anything that holds data;
+- :func:`html_value` does the same for HTML pages (every ``{{ }}`` of the templates), keeping
+  tab and line breaks, which HTML shows as white space;
 - :func:`csv_text` neutralises a text cell that a spreadsheet would run as a formula (a leading
   ``=``, ``+``, ``-``, ``@``, tab or CR gets a leading single quote, as the OWASP "CSV
   injection" guidance recommends); it is applied to text columns only, so numbers such as
@@ -41,6 +43,9 @@ def _escape(cp: int) -> str:
 
 _TABLE = {cp: _escape(cp) for cp in [*range(0x20), *range(0x7F, 0xA0), *_FORMAT_CONTROLS]}
 
+#: The same escapes for HTML, where tab and line breaks are plain white space.
+_HTML_TABLE = {cp: v for cp, v in _TABLE.items() if cp not in (0x09, 0x0A, 0x0D)}
+
 #: Leading characters a spreadsheet reads as the start of a formula (OWASP, "CSV Injection").
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -55,6 +60,19 @@ def text(value, style: str | None = None):
     from rich.text import Text
 
     return Text(clean(value), style=style or "")
+
+
+def html_value(value):
+    """What an HTML page's ``{{ }}`` prints (the Jinja2 environment's ``finalize``): a string
+    keeps tab and line breaks but has every other character :func:`clean` escapes shown as a
+    visible escape (a NUL, which HTML cannot hold; a bidirectional override, which would
+    reorder a table cell); markup lumeval made (``Markup``) and other values pass unchanged.
+    HTML escaping of ``<``, ``>``, ``&`` and quotes follows (autoescape)."""
+    from markupsafe import Markup
+
+    if isinstance(value, str) and not isinstance(value, Markup):
+        return value.translate(_HTML_TABLE)
+    return value
 
 
 def csv_text(value) -> str:

@@ -84,7 +84,7 @@ def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_cri
     """
     _tune_malloc()
     from ..errors import LumevalError
-    from .inputs import Unreadable, display_path
+    from .inputs import Unreadable
     from .streaming import archive_batches, evaluate_batch
 
     results, bad_all = [], []
@@ -94,7 +94,7 @@ def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_cri
             if s is not None:
                 results.append(evaluate_batch(s, sample_criteria, None, metadata=meta))
     except LumevalError as exc:
-        return [], [Unreadable(display_path(file), exc.message)]
+        return [], [Unreadable(file, exc.message)]
     return results, bad_all
 
 
@@ -158,7 +158,7 @@ def run_lot_dask(
     """
     from ..errors import LumevalError, UsageError
     from ..spectra.archive import is_archive, no_rows_error, open_file, plan_partitions
-    from .inputs import Unreadable, display_path, expand_inputs
+    from .inputs import Unreadable, expand_inputs
     from .run import BATCH_SPECTRA
     from .streaming import LotAccumulator
 
@@ -189,10 +189,10 @@ def run_lot_dask(
         try:
             opened = open_file(f)
         except LumevalError as exc:
-            bad_by_file[k].append(Unreadable(display_path(f), exc.message))
+            bad_by_file[k].append(Unreadable(f, exc.message))
             continue
         if not opened[0].metadata.num_rows:
-            bad_by_file[k].append(Unreadable(display_path(f), no_rows_error(f).message))
+            bad_by_file[k].append(Unreadable(f, no_rows_error(f).message))
             continue
         parts = plan_partitions(opened[0])
         expected += opened[0].metadata.num_rows
@@ -221,7 +221,7 @@ def run_lot_dask(
                 done[futures[fut]] = fut.result()
             except Exception as exc:  # a worker died or a task failed: name the partition
                 k, j = futures[fut]
-                done[futures[fut]] = ([], [Unreadable(display_path(files[k]), f"{display_path(files[k])}: partition {j + 1} was not evaluated "
+                done[futures[fut]] = ([], [Unreadable(files[k], f"{files[k]}: partition {j + 1} was not evaluated "
                                                                 f"on the cluster ({type(exc).__name__}: "
                                                                 f"{' '.join(str(exc).split())[:120]})")])
             fut.release()

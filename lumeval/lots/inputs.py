@@ -45,10 +45,16 @@ _GLOB_CHARS = set("*?[")
 
 @dataclass(frozen=True)
 class Unreadable:
-    """An input that gave no sample: the path (or ``path#column``) and the reason."""
+    """An input that gave no sample: the path (or ``path#column``) and the reason, both in
+    printable form (:func:`display_path`: a file name's undecodable bytes as U+FFFD, whoever
+    built the entry), since every output writes them."""
 
     source: str
     message: str
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "source", display_path(self.source))
+        object.__setattr__(self, "message", display_path(self.message))
 
 
 @dataclass(frozen=True)

@@ -328,7 +328,7 @@ def run_lot(
                     if not rows:
                         raise no_rows_error(path)
                 except LumevalError as exc:
-                    unreadable.append(Unreadable(display_path(path), exc.message))  # printable: every output writes it
+                    unreadable.append(Unreadable(path, exc.message))
             else:  # read whole (in input order, maybe by workers), or a big text file in column blocks
                 for s, bad in (stream_blocks(path, batch_spectra) if streamed[k] else (next(reads),)):
                     unreadable.extend(bad)

@@ -23,11 +23,10 @@ def display_path(path: str | os.PathLike | bytes) -> str:
         return p.encode("utf-8", "surrogateescape").decode("utf-8", "replace")
 
 
-def command_line(argv: list[str] | None = None) -> str:
+def command_line() -> str:
     """The command as it was run (``lumeval lot …``), for the provenance of reports: every
     argument in its printable form (:func:`display_path`), so that a file name's undecodable
-    bytes cannot stop a writer (an HTML report of a lot with such a file name failed to encode).
-    ``argv``: the arguments after the program name (default: this process's)."""
+    bytes cannot stop a writer (an HTML report of a lot with such a file name failed to encode)."""
     import sys
 
-    return " ".join(["lumeval", *(display_path(a) for a in (sys.argv[1:] if argv is None else argv))])
+    return " ".join(["lumeval", *map(display_path, sys.argv[1:])])

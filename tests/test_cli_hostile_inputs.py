@@ -225,8 +225,8 @@ def test_archive_with_a_non_utf8_file_name(tmp_path):
     "not a readable Parquet file"); an empty one is listed unreadable (its source once made the
     JSON writer fail with an internal error); every writer, the HTML's command line too, gets
     the printable name."""
-    pa = pytest.importorskip("pyarrow")
-    pq = pytest.importorskip("pyarrow.parquet")
+    import pyarrow as pa  # a test dependency (pyproject [test]): fail, never skip, when it is missing
+    import pyarrow.parquet as pq
     write_spd(tmp_path / "a.csv")
     code, _, err = run_sub(["convert", "a.csv", "a.parquet", "--quiet"], tmp_path, timeout=120)
     assert code == 0, err

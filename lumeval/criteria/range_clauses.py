@@ -177,7 +177,7 @@ def reference_points(view, settings: np.ndarray, reference) -> tuple[np.ndarray,
         hits = (np.flatnonzero(np.isclose(settings, r, rtol=0, atol=1e-9 * max(1.0, abs(r)))) if np.isfinite(r)
                 else np.zeros(0, dtype=int))  # inf/nan name no setting (and isclose would warn)
         if hits.size == 0:
-            return np.full((n, 2), np.nan), f"setting {float(reference):g}", f"there is no setting {float(reference):g} to refer to"
+            return np.full((n, 2), np.nan), f"setting {r:g}", f"there is no setting {r:g} to refer to"
         k = int(hits[0])
         desc = f"setting {settings[k]:g}"
     p = upvp[k]

@@ -16,6 +16,8 @@ import sys
 
 import typer
 
+from . import _stop
+
 #: Command modules, in the order their commands appear in ``--help``.
 _COMMAND_MODULES = [
     "lumeval.commands.inspect",
@@ -116,21 +118,6 @@ for _name in _COMMAND_MODULES:
     importlib.import_module(_name).register(app)
 
 
-class _Stopped(BaseException):
-    """SIGTERM or SIGHUP, raised where the program is, so that every ``finally`` runs (the atomic
-    writer removes its temporary file) exactly as for Ctrl-C. Not a KeyboardInterrupt, which the
-    argument parser would turn into a silent exit 130."""
-
-    def __init__(self, signum: int) -> None:
-        super().__init__(signum)
-        self.signum = signum
-
-
-def _on_stop_signal(signum, _frame) -> None:
-    signal.signal(signum, signal.SIG_IGN)  # a second signal must not interrupt the clean-up
-    raise _Stopped(signum)
-
-
 def _say(line: str, *, raw: bool = False) -> None:
     """One line on stderr; a closed or full stderr is not worth a second error.
 
@@ -215,10 +202,10 @@ def main(argv: list[str] | None = None) -> None:
     """
     args = list(argv if argv is not None else sys.argv[1:])
     if argv is None:
-        for name in ("SIGTERM", "SIGHUP"):
-            if hasattr(signal, name):
-                signal.signal(getattr(signal, name), _on_stop_signal)
+        _stop.install()
     code = _run(args)
+    if argv is None:
+        _stop.settle()
     failed = _stdout_failed()
     if failed is not None:
         if code in (0, 1, None):
@@ -285,7 +272,7 @@ def _run(args: list[str]):
             raise
         _say(f"lumeval: error: {exc.message}")
         return 2
-    except _Stopped as exc:
+    except _stop.Stopped as exc:
         _say(f"lumeval: stopped by {signal.Signals(exc.signum).name}; unfinished outputs were not written")
         return 128 + exc.signum
     except KeyboardInterrupt:

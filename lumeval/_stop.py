@@ -1,0 +1,95 @@
+"""Stop signals (SIGTERM, SIGHUP, SIGINT) that always stop the run.
+
+A stop signal raises an exception where the program is, so that every ``finally`` runs (the
+atomic writer removes its temporary file). Python runs a signal's handler at the next bytecode
+boundary of the main thread, which may be inside a finaliser or a weak-reference callback run by
+the garbage collector (matplotlib registers many). An exception raised there is not propagated:
+Python reports it through :data:`sys.unraisablehook` ("Exception ignored in ...", with a
+traceback) and carries on, so the stop would be lost and the run would go on to the end (Python
+docs, ``sys.unraisablehook`` and "Execution of Python signal handlers").
+
+:func:`install` sets a hook that recognises such a dropped stop, keeps it quiet and delivers the
+same signal again to the main thread a moment later (from a timer thread: a real signal, which
+also interrupts a blocking wait), when the main thread is back in ordinary code; a stop dropped
+again is delivered again.
+"""
+
+from __future__ import annotations
+
+import _thread
+import signal
+import sys
+import threading
+
+#: Delay before a dropped stop is delivered again: long enough for the finaliser to return.
+REDELIVERY_DELAY = 0.01
+
+_in_hook = False
+_default_hook = sys.unraisablehook
+
+
+class Stopped(BaseException):
+    """SIGTERM or SIGHUP, raised where the program is, exactly as Ctrl-C raises
+    KeyboardInterrupt. Not a KeyboardInterrupt, which the argument parser would turn into a
+    silent exit 130."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def on_stop_signal(signum, _frame) -> None:
+    if _in_hook:  # the hook is handling a dropped stop: deliver this one after it too
+        _redeliver(signum)
+        return
+    signal.signal(signum, signal.SIG_IGN)  # a second signal must not interrupt the clean-up
+    raise Stopped(signum)
+
+
+def _redeliver(signum: int) -> None:
+    def send() -> None:
+        main = threading.main_thread().ident
+        if hasattr(signal, "pthread_kill") and main is not None:
+            signal.pthread_kill(main, signum)
+        else:
+            _thread.interrupt_main(signal.Signals(signum))
+
+    timer = threading.Timer(REDELIVERY_DELAY, send)
+    timer.daemon = True
+    timer.start()
+
+
+def _unraisable(unraisable) -> None:
+    global _in_hook
+    exc = unraisable.exc_value
+    if isinstance(exc, Stopped):
+        signum = exc.signum
+    elif isinstance(exc, KeyboardInterrupt):
+        signum = signal.SIGINT
+    else:
+        _default_hook(unraisable)
+        return
+    _in_hook = True
+    try:
+        if isinstance(exc, Stopped):  # its handler ignored further signals: take them again
+            signal.signal(signum, on_stop_signal)
+        _redeliver(signum)
+    finally:
+        _in_hook = False
+
+
+def install() -> None:
+    """Raise :class:`Stopped` on SIGTERM and SIGHUP, and never lose a stop (or a Ctrl-C) to a
+    finaliser."""
+    for name in ("SIGTERM", "SIGHUP"):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), on_stop_signal)
+    sys.unraisablehook = _unraisable
+
+
+def settle() -> None:
+    """The run is over (its outputs written or not): a stop arriving now, or one being delivered
+    again, changes nothing and must not end in a traceback."""
+    for name in ("SIGTERM", "SIGHUP", "SIGINT"):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), signal.SIG_IGN)

@@ -286,7 +286,16 @@ BAD = {
     "null_name.parquet": (lambda: pa.table({"name": pa.array([None], type=pa.string()), **_wl_cols()}),
                           "row 1 has no name"),
     "zero_nm.parquet": (lambda: pa.table({"0": [1.0], **_wl_cols()}), "names the wavelength 0 nm"),
+    # two columns of one name: which holds the names (or the metadata) would be a guess; the
+    # first was taken and the second dropped silently
+    "two_names.parquet": (lambda: _same_names("name", ["a"], ["b"]), "two columns are named 'name'"),
+    "two_stations.parquet": (lambda: _same_names("station", ["x"], ["y"]), "two columns are named 'station'"),
 }
+
+
+def _same_names(column, first, second):
+    t = pa.table(_wl_cols())
+    return pa.Table.from_arrays([pa.array(first), *t.columns, pa.array(second)], names=[column, *t.column_names, column])
 
 
 @pytest.mark.parametrize("fname", sorted(BAD))

@@ -160,8 +160,9 @@ def layout_of(schema, file: str) -> Layout:
     Raises
     ------
     InputError
-        No wavelength columns; a wavelength of zero or out of range; two columns naming one
-        wavelength; a wavelength column that does not hold numbers; a ``name`` column that
+        No wavelength columns; two columns of the same name (which one holds the names, or the
+        metadata, would be a guess); a wavelength of zero or out of range; two columns naming
+        one wavelength; a wavelength column that does not hold numbers; a ``name`` column that
         does not hold text.
     """
     pa, _ = _pa()
@@ -169,8 +170,13 @@ def layout_of(schema, file: str) -> Layout:
     meta: list[str] = []
     name_col = None
     seen: dict[float, str] = {}
+    names: set[str] = set()
     for fld in schema:
         col = fld.name
+        if col in names:
+            raise InputError(f"two columns are named {col!r}", file=file, field=col,
+                             fix="give every column its own name")
+        names.add(col)
         w = wavelength_of(col)
         if w is None:
             if col == NAME_COLUMN:

@@ -56,9 +56,9 @@ def plain_text(renderables) -> str:
     """Render rich renderables to plain text (no colour codes) for a file."""
     import io
 
-    from rich.console import Console
+    from ..render.safe import console as make_console
 
-    console = Console(file=io.StringIO(), record=True, width=140, color_system=None)
+    console = make_console(file=io.StringIO(), record=True, width=140, color_system=None)
     for r in renderables:
         console.print(r)
     return console.export_text()

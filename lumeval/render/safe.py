@@ -17,7 +17,8 @@ people made. Every renderer passes them through this module:
   injection" guidance recommends); it is applied to text columns only, so numbers such as
   ``-0.5`` are never altered;
 - :func:`console` makes the rich consoles of the reports: a closed pipe raises
-  ``BrokenPipeError`` to the CLI (exit code 2, one line) instead of rich's silent exit 1.
+  ``BrokenPipeError`` to the CLI (exit code 2, one line) instead of rich's silent exit 1, and a
+  table wider than the console is split, never cut (:mod:`lumeval.render.fit`).
 
 Pure string functions; rich is imported only by :func:`text` and :func:`console`.
 """
@@ -103,5 +104,20 @@ def console(**kwargs):
         def on_broken_pipe(self) -> None:  # rich's default exits 1, which reads "a criterion failed"
             self.quiet = True
             raise BrokenPipeError(32, "Broken pipe")
+
+        def print(self, *objects, **kwargs) -> None:
+            """A table too wide for the console is printed as several narrower ones, never with
+            numbers cut (:mod:`lumeval.render.fit`)."""
+            from rich.table import Table
+
+            from .fit import split_to_width
+
+            parts = [p for o in objects for p in (split_to_width(o, kwargs.get("width") or self.width)
+                                                  if isinstance(o, Table) else [o])]
+            if len(parts) == len(objects) and all(p is o for p, o in zip(parts, objects)):
+                super().print(*objects, **kwargs)
+                return
+            for part in parts:
+                super().print(part, **kwargs)
 
     return _Console(**kwargs)

@@ -21,6 +21,7 @@ from typing import Any, overload
 
 import numpy as np
 
+from .fit import min_width
 from .safe import clean
 from .safe import text as _text
 from .tables import CAUTIONS
@@ -145,7 +146,7 @@ def check_renderables(result, *, width: int | None = None, evaluation=None, wide
         out.append(_uncertainty_text(result.uncertainty))
     many = len(result.names) > DETAIL_MAX
     sections = _spectrum_sections(result) if wide or not many else []  # not built for a large run
-    narrow = width is not None and max((_min_width(t) for t in sections if not isinstance(t, Text)), default=0) > width
+    narrow = width is not None and max((min_width(t) for t in sections if not isinstance(t, Text)), default=0) > width
     if not wide and (many or narrow):
         *rows, how_to_see_more = _compact_check(result, evaluation, width, "many" if many else "narrow")
         out.extend(rows)
@@ -164,25 +165,6 @@ def check_renderables(result, *, width: int | None = None, evaluation=None, wide
     out.append(_sources_text(result))
     out.append(_cautions_text())
     return out
-
-
-def _min_width(table) -> int:
-    """The narrowest width ``table`` can be drawn at without wrapping a no-wrap column (its
-    widest cell) or narrowing a column below its ``min_width``; padding and separators added."""
-    from rich.console import Console
-
-    con = Console(width=10_000, color_system=None)
-    total = 0
-    for col in table.columns:
-        cells = [col.header, *col.cells]
-        if col.no_wrap:
-            total += max(con.measure(c).maximum for c in cells)
-        else:
-            total += max(col.min_width or 0, *(con.measure(c).minimum for c in cells))
-    n = len(table.columns)
-    left, right = table.padding[3], table.padding[1]
-    total += n * (left + right) - (0 if table.pad_edge else left + right)
-    return total + (n - 1 if table.box is not None else 0) + (2 if table.show_edge and table.box is not None else 0)
 
 
 def _spectrum_sections(result) -> list:
@@ -301,7 +283,7 @@ def _compact_check(result, evaluation, width: int | None, why: str) -> list:
         return t
 
     t = table(True)
-    in_table = width is None or _min_width(t) <= width
+    in_table = width is None or min_width(t) <= width
     if not in_table:  # names too long for one row: numbers in the table, the names listed under it
         t = table(False)
     out: list[Any] = [Text(f"\n{_count(n, 'spectrum', 'spectra')}, one row each (met: requirements met, of "

@@ -1,0 +1,103 @@
+"""Terminal tables that never cut a number.
+
+rich fits a table that is wider than the terminal by narrowing its columns, and a column that
+may not wrap (a number, a figure's name) is then cut with an ellipsis: "-0.00…" for a Duv of
+-0.0012, which nobody can read and a reader may misread. (Output sent to a pipe or a file is 80
+columns wide unless COLUMNS says otherwise, so saved reports were cut too.)
+
+:func:`split_to_width` instead splits such a table into consecutive tables of whole columns,
+each repeating the first column (the row's name), so that every cell is shown in full at any
+width where the first column and one other fit. The reports' console (:func:`lumeval.render.
+safe.console`) applies it to every table it prints.
+"""
+
+from __future__ import annotations
+
+import copy
+
+
+def _ranges(table) -> list[tuple[int, int]]:
+    """Per column, the narrowest and the widest content width (padding excluded) that shows
+    every cell whole: a no-wrap column needs its widest cell; a wrapping column its longest word
+    (or its ``min_width``); a fixed-width column its width."""
+    from rich.console import Console
+
+    con = Console(width=10_000, color_system=None)
+    out = []
+    for col in table.columns:
+        if col.width is not None:
+            out.append((col.width, col.width))
+            continue
+        sizes = [con.measure(c) for c in (col.header, *col.cells)]
+        hi = max(m.maximum for m in sizes)
+        lo = hi if col.no_wrap else min(hi, max(col.min_width or 0, *(m.minimum for m in sizes)))
+        out.append((lo, hi))
+    return out
+
+
+def _overhead(table) -> int:
+    """The columns' padding and the separators (a simple box draws them as spaces)."""
+    n = len(table.columns)
+    left, right = table.padding[3], table.padding[1]
+    pad = n * (left + right) - (0 if table.pad_edge else left + right)
+    return pad + (n - 1 if table.box is not None else 0) + (2 if table.show_edge and table.box is not None else 0)
+
+
+def min_width(table) -> int:
+    """The narrowest width ``table`` can be drawn at without cutting a no-wrap column (its
+    widest cell) or narrowing a column below its longest word or its ``min_width``; padding and
+    separators added."""
+    return sum(lo for lo, _ in _ranges(table)) + _overhead(table)
+
+
+def _full_width(table) -> int:
+    return sum(hi for _, hi in _ranges(table)) + _overhead(table)
+
+
+def _part(table, columns, title, width: int | None):
+    """A copy of ``table`` with ``columns`` (copies), and, when ``width`` is given, each
+    column's width fixed so that every cell shows whole within ``width``: no-wrap columns and
+    longest words get what they need, the rest is shared in proportion to what each wrapping
+    column would use beyond its minimum (rich's own narrowing would cut words and numbers)."""
+    part = copy.copy(table)
+    part.columns = []
+    for i, col in enumerate(columns):
+        c = copy.copy(col)
+        c._index = i  # rich pads the first and last column by their position
+        part.columns.append(c)
+    part.title = title
+    if width is not None:
+        ranges = _ranges(part)
+        spare = width - _overhead(part) - sum(lo for lo, _ in ranges)
+        want = [hi - lo for lo, hi in ranges]
+        total = sum(want)
+        for c, (lo, hi), w in zip(part.columns, ranges, want):
+            c.width = min(hi, lo + (spare * w // total if total and spare > 0 else 0))
+    return part
+
+
+def split_to_width(table, width: int | None) -> list:
+    """``table`` itself when it fits ``width`` columns at its natural width (or ``width`` is
+    None); else the same table with its wrapping columns narrowed so that no word and no number
+    is cut, when that fits; else tables of the first column and as many of the next columns as
+    fit, in order, each so narrowed. The title is kept on the first and marked "(continued)" on
+    the others, the caption kept on the last."""
+    if width is None or not table.columns or _full_width(table) <= width:
+        return [table]
+    if min_width(table) <= width or len(table.columns) < 3:
+        return [_part(table, table.columns, table.title, width)]
+    key, rest = table.columns[0], table.columns[1:]
+    groups: list[list] = [[]]
+    for col in rest:
+        if groups[-1] and min_width(_part(table, [key, *groups[-1], col], None, None)) > width:
+            groups.append([])
+        groups[-1].append(col)
+    title = table.title
+    more = None
+    if title:
+        more = title.copy() if hasattr(title, "copy") else f"{title}"
+        more = more + " (continued)"
+    parts = [_part(table, [key, *g], title if k == 0 else more, width) for k, g in enumerate(groups)]
+    for p in parts[:-1]:
+        p.caption = None
+    return parts

@@ -225,9 +225,12 @@ SAMPLES_SLICE = 16384
 def write_samples_parquet(run, path, *, option: str | None = "--samples-parquet") -> None:
     """Write a lot's per-sample table (:func:`lot_samples_table`) as Parquet, slice by slice,
     atomically (:func:`lumeval.spectra.archive.write_tables`)."""
+    from .lots.own_reports import PARQUET_KEY
     from .spectra.archive import write_tables
 
     first = lot_samples_table(run, 0, min(SAMPLES_SLICE, len(run)))
+    # marked as lumeval's, so that a later lot over the folder it is written in skips it
+    first = first.replace_schema_metadata({**(first.schema.metadata or {}), PARQUET_KEY: b"lumeval.lot-samples"})
 
     def slices():
         yield first

@@ -94,6 +94,23 @@ def test_an_archive_without_rows_is_listed_as_locally(arch, tmp_path):
     assert dist.names == local.names and dist.exit_code == local.exit_code == 2
 
 
+def test_a_lots_own_parquet_table_in_the_folder_is_skipped_as_locally(arch, tmp_path):
+    """An earlier lot's --samples-parquet table written into the folder of archives: skipped,
+    on the cluster as locally (it has no wavelength columns: it was listed unreadable)."""
+    from lumeval.frames import write_samples_parquet
+
+    d = tmp_path / "lots"
+    d.mkdir()
+    shutil.copy(arch, d / "lot.parquet")
+    write_samples_parquet(run_lot([arch], batch_spectra=64), d / "w47.parquet")
+    local = run_lot([d], batch_spectra=64)
+    dist = run_lot([d], batch_spectra=64, workers=1)
+    assert len(local.unreadable) == len(dist.unreadable) == 0
+    assert dist.skipped == local.skipped
+    assert [s.reason for s in dist.skipped] == ["a lumeval Parquet table (lumeval.lot-samples), not a spectrum file"]
+    assert dist.names == local.names and len(dist.names) == 200
+
+
 def _free_port() -> int:
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))

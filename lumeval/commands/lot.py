@@ -105,6 +105,20 @@ def _write_lot_report(run: LotRun, criteria, html, plots, progress=None) -> None
     announce_outputs(written, html, plots)
 
 
+def _inputs_to_keep(found, outputs) -> list[str]:
+    """The input files an output may not overwrite: all, except an output target that an earlier
+    run wrote into a folder being judged (a lumeval report found there, not named as an input:
+    the run skips it, and this run's output replaces it; lumeval.lots.own_reports)."""
+    import os
+
+    from ..lots.own_reports import report_kind
+
+    targets = {os.path.abspath(t) for t in outputs.values() if t is not None}
+    given = set(found.given)
+    return [f for f in found.files
+            if f in given or os.path.abspath(f) not in targets or report_kind(f) is None]
+
+
 def register(app: typer.Typer) -> None:
     @app.command("lot")
     def lot_cmd(
@@ -181,7 +195,7 @@ def register(app: typer.Typer) -> None:
         expanded = expand_inputs(paths) if scheduler is None and workers is None else None
         check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
                       inputs=[p for p in (criteria_file, instrument) if p is not None],
-                      input_files=((expanded if expanded is not None else expand_inputs(paths)).files
+                      input_files=(_inputs_to_keep(expanded if expanded is not None else expand_inputs(paths), outputs)
                                    if any(v is not None for v in outputs.values()) else ()))
         from ..api import lot
 

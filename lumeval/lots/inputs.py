@@ -79,11 +79,14 @@ class LotInputs:
         Inputs that name nothing readable (the lot cannot be declared to pass).
     skipped : tuple of Skipped
         Entries left out on purpose, with the reason.
+    given : tuple of str
+        The files of ``files`` named as such (not found in a folder or by a pattern).
     """
 
     files: tuple[str, ...]
     unreadable: tuple[Unreadable, ...]
     skipped: tuple[Skipped, ...]
+    given: tuple[str, ...] = ()
 
 
 def _kind_of(mode: int) -> str | None:
@@ -105,6 +108,7 @@ class _Collector:
         # real file -> (path taken, its index in files, whether that path is a symbolic link)
         self._by_id: dict[tuple[int, int], tuple[str, int, bool]] = {}
         self._abs: set[str] = set()
+        self.given: set[str] = set()  # absolute names of the files named as such
 
     def bad(self, path: str, problem: str, fix: str) -> None:
         shown = display_path(path)
@@ -302,6 +306,7 @@ def expand_inputs(paths: Sequence[str | os.PathLike]) -> LotInputs:
                 pass  # every entry was already taken by an earlier input
         elif os.path.lexists(p) or not (_GLOB_CHARS & set(p)):
             c.take(p, explicit=True)
+            c.given.add(os.path.abspath(p))
         else:
             hits = sorted(glob_paths(p))
             if not hits:
@@ -322,4 +327,5 @@ def expand_inputs(paths: Sequence[str | os.PathLike]) -> LotInputs:
                         c.skip(h, "a folder, not a file (patterns do not enter the folders they match)")
                     continue
                 c.take(h, explicit=False)
-    return LotInputs(tuple(c.files), tuple(c.unreadable), tuple(c.skipped))
+    return LotInputs(tuple(c.files), tuple(c.unreadable), tuple(c.skipped),
+                     tuple(f for f in c.files if os.path.abspath(f) in c.given))

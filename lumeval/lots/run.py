@@ -19,6 +19,7 @@ from functools import cached_property
 from typing import TYPE_CHECKING
 
 from .inputs import LotInputs, Skipped, Unreadable, display_path, expand_inputs
+from .own_reports import set_aside
 
 if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays light
     import numpy as np
@@ -248,9 +249,8 @@ def run_lot(
         Keep the judged samples' spectra and figures in ``LotRun.evaluation`` (for the HTML
         report and plots; memory grows with the lot: about 4 kB per sample). Local runs only.
     read_processes : int, optional
-        Worker processes reading the files that are not Parquet archives
-        (:func:`lumeval.lots.reading.ordered_reads`): None chooses (parallel from 200 files
-        on), 1 reads them one after the other here. Results and messages do not depend on it.
+        Processes reading the files other than archives (:func:`lumeval.lots.reading.ordered_reads`):
+        None chooses (parallel from 200 files on), 1 reads here. Results do not depend on it.
 
     Returns
     -------
@@ -348,8 +348,9 @@ def run_lot(
     finally:
         reads.close()
         evaluator.terminate()
-    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files),
-                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped,
+    unreadable, reports = set_aside(unreadable, found)
+    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files) - len(reports),
+                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped + reports,
                       read_paths=tuple(read_paths))
 
 

@@ -1,0 +1,104 @@
+"""A lot's outputs written into the folder being judged do not break the next run over it.
+
+Before: the second run of ``lumeval lot FOLDER --json FOLDER/lot.json`` refused to start
+("'lot.json' is one of the input files"), and any run over a folder holding an earlier lot's
+JSON or per-sample CSV listed them as unreadable inputs (exit 2: the lot could not pass).
+Now lumeval's own reports found in a folder are listed as skipped (lumeval.lots.own_reports);
+one named explicitly as an input is still an error, saying what it is; a JSON or CSV file that
+is not lumeval's stays unreadable. Behaviour checks only (exit codes, lists, the samples read):
+the figures are the same code path as any lot.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import pyarrow.parquet as pq
+import pytest
+
+from lumeval.lots.own_reports import report_kind
+
+from .conftest import run_cli_in_process
+
+REPO = Path(__file__).resolve().parents[1]
+DOWNLIGHTS = sorted((REPO / "spectra_demo" / "downlights").glob("*.csv"))
+
+
+@pytest.fixture
+def run(capsys):
+    return lambda *argv: run_cli_in_process(list(argv), capsys)
+
+
+def _folder(tmp_path: Path) -> Path:
+    d = tmp_path / "week48"
+    d.mkdir()
+    for f in DOWNLIGHTS:
+        shutil.copy(f, d / f.name)
+    return d
+
+
+def _doc(path: Path) -> dict:
+    return json.loads(path.read_text(encoding="utf-8"))
+
+
+def test_rerun_with_outputs_inside_the_folder(tmp_path, run):
+    d = _folder(tmp_path)
+    args = ["lot", d, "-q", "--json", d / "lot.json", "--samples-csv", d / "samples.csv"]
+    code, _, err = run(*args)
+    assert code == 0, err
+    first = _doc(d / "lot.json")
+    code, _, err = run(*args)  # the same outputs, now inside the folder read
+    assert code == 0, err
+    second = _doc(d / "lot.json")
+    assert len(second["samples"]) == len(first["samples"]) == len(DOWNLIGHTS)
+    assert second["unreadable"] == [] and second["counts"]["files"] == len(DOWNLIGHTS)  # the reports not counted
+    skipped = {s["path"]: s["reason"] for s in second["skipped"]}
+    assert skipped == {str(d / "lot.json"): "a lumeval JSON document (lumeval.lot), not a spectrum file",
+                       str(d / "samples.csv"): "a lumeval CSV report, not a spectrum file"}
+
+
+def test_an_earlier_lots_reports_in_the_folder_are_skipped(tmp_path, run):
+    d = _folder(tmp_path)
+    code, _, err = run("lot", *DOWNLIGHTS, "-q", "--json", d / "w47.json", "--samples-csv", d / "w47.csv",
+                       "--samples-parquet", d / "w47.parquet")
+    assert code == 0, err
+    code, _, err = run("lot", d, "-q", "--json", tmp_path / "w48.json")
+    assert code == 0, err
+    doc = _doc(tmp_path / "w48.json")
+    assert len(doc["samples"]) == len(DOWNLIGHTS) and doc["unreadable"] == []
+    assert sorted(Path(s["path"]).name for s in doc["skipped"]) == ["w47.csv", "w47.json", "w47.parquet"]
+    assert report_kind(d / "w47.parquet") == "Parquet table (lumeval.lot-samples)"
+    assert pq.read_schema(d / "w47.parquet").metadata[b"lumeval.report"] == b"lumeval.lot-samples"
+
+
+def test_a_report_named_as_an_input_is_an_error_that_says_what_it_is(tmp_path, run):
+    d = _folder(tmp_path)
+    code, _, err = run("lot", d, "-q", "--json", tmp_path / "lot.json")
+    assert code == 0, err
+    code, _, err = run("lot", tmp_path / "lot.json", *DOWNLIGHTS, "-q")
+    assert code == 2
+    assert "lot.json: a lumeval JSON document (lumeval.lot), not a spectrum file" in err
+    assert "Traceback" not in err
+
+
+def test_other_json_and_csv_files_stay_unreadable(tmp_path, run):
+    d = _folder(tmp_path)
+    (d / "notes.json").write_text('{"format": "other", "a": 1}', encoding="utf-8")
+    (d / "log.csv").write_text("when,what\n2026-12-01,calibrated\n", encoding="utf-8")
+    # a lumeval-looking name is not enough: the cautions must close the file exactly
+    (d / "edited.csv").write_text("name,verdict\na,pass\n# caution: edited by hand\n", encoding="utf-8")
+    code, _, err = run("lot", d, "-q", "--json", tmp_path / "lot.json")
+    assert code == 2, err
+    doc = _doc(tmp_path / "lot.json")
+    assert sorted(Path(u["source"]).name for u in doc["unreadable"]) == ["edited.csv", "log.csv", "notes.json"]
+    assert doc["skipped"] == []
+
+
+def test_a_spectra_document_is_not_taken_for_a_report(tmp_path, run):
+    out = tmp_path / "s.json"
+    code, _, err = run("convert", DOWNLIGHTS[0], out)
+    assert code == 0, err
+    assert _doc(out)["format"] == "lumeval.spectra" and report_kind(out) is None
+    assert report_kind(DOWNLIGHTS[0]) is None

@@ -129,3 +129,31 @@ def test_the_claims_table_keeps_its_headers_whole_at_80_columns():
     assert r.returncode == 1, r.stderr
     assert max(len(x) for x in r.stdout.splitlines()) <= 80
     assert "measured" in r.stdout.split() and "measur…" not in r.stdout
+
+
+def test_a_folding_column_gives_way_and_short_columns_stay_whole():
+    """A column made to fold (long paths, overflow="fold") is narrowed before a short column of
+    words is broken, and a short label column keeps its line (the lot's Skipped and Requirements
+    tables at 80 columns)."""
+    path = "/tmp/" + "very_long_folder_name_" * 4 + "/pipe.csv"
+    reason = "a FIFO (named pipe), not a regular file"
+    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False)
+    t.add_column("entry", overflow="fold")
+    t.add_column("why")
+    t.add_row(path, reason)
+    out = _print(t, 80)
+    assert max(len(x) for x in out.splitlines()) <= 80
+    rows = out.splitlines()
+    rows = rows[next(i for i, ln in enumerate(rows) if "━" in ln) + 1:]
+    # the path folded over the first column's lines, each line opening (after the table's edge
+    # space) with its next piece
+    assert "".join(ln.split()[0] for ln in rows if ln[1:2].strip()) == path, out
+    assert all(w in out.split() for w in reason.split()), out
+
+    r = Table(box=box.SIMPLE_HEAVY, pad_edge=False)
+    r.add_column("requirement", ratio=1)
+    r.add_column("result", ratio=2)
+    r.add_row("yield ≥ 90 %", "not judged: " + "no per-sample clause in the criteria, so no sample can pass or fail " * 2)
+    out = _print(r, 80)
+    assert max(len(x) for x in out.splitlines()) <= 80
+    assert any(ln.lstrip().startswith("yield ≥ 90 %") for ln in out.splitlines()), out

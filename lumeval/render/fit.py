@@ -15,11 +15,14 @@ from __future__ import annotations
 
 import copy
 
+#: The narrowest a column that folds its text (``overflow="fold"``) is made.
+FOLD_MIN = 12
+
 
 def _ranges(table) -> list[tuple[int, int]]:
     """Per column, the narrowest and the widest content width (padding excluded) that shows
     every cell whole: a no-wrap column needs its widest cell; a wrapping column its longest word
-    (or its ``min_width``); a fixed-width column its width."""
+    (or its ``min_width``), a folding one :data:`FOLD_MIN`; a fixed-width column its width."""
     from rich.console import Console
 
     con = Console(width=10_000, color_system=None)
@@ -30,7 +33,12 @@ def _ranges(table) -> list[tuple[int, int]]:
             continue
         sizes = [con.measure(c) for c in (col.header, *col.cells)]
         hi = max(m.maximum for m in sizes)
-        lo = hi if col.no_wrap else min(hi, max(col.min_width or 0, *(m.minimum for m in sizes)))
+        if col.no_wrap:
+            lo = hi
+        elif col.overflow == "fold":  # made to be broken anywhere (long paths): any width will do
+            lo = min(hi, max(col.min_width or 0, FOLD_MIN))
+        else:
+            lo = min(hi, max(col.min_width or 0, *(m.minimum for m in sizes)))
         out.append((lo, hi))
     return out
 
@@ -56,9 +64,9 @@ def _full_width(table) -> int:
 
 def _part(table, columns, title, width: int | None):
     """A copy of ``table`` with ``columns`` (copies), and, when ``width`` is given, each
-    column's width fixed so that every cell shows whole within ``width``: no-wrap columns and
-    longest words get what they need, the rest is shared in proportion to what each wrapping
-    column would use beyond its minimum (rich's own narrowing would cut words and numbers)."""
+    column's width fixed (:func:`_capped`) so that every cell shows whole within ``width``:
+    no-wrap columns and longest words get what they need (rich's own narrowing would cut words
+    and numbers)."""
     part = copy.copy(table)
     part.columns = []
     for i, col in enumerate(columns):
@@ -67,13 +75,35 @@ def _part(table, columns, title, width: int | None):
         part.columns.append(c)
     part.title = title
     if width is not None:
-        ranges = _ranges(part)
-        spare = width - _overhead(part) - sum(lo for lo, _ in ranges)
-        want = [hi - lo for lo, hi in ranges]
-        total = sum(want)
-        for c, (lo, hi), w in zip(part.columns, ranges, want):
-            c.width = min(hi, lo + (spare * w // total if total and spare > 0 else 0))
+        for c, w in zip(part.columns, _capped(_ranges(part), width - _overhead(part))):
+            c.width = w
     return part
+
+
+def _capped(ranges: list[tuple[int, int]], budget: int) -> list[int]:
+    """Content widths within ``budget``: every column at its natural width capped by one common
+    cap (never below its minimum), the cap the largest that fits, what remains given to the
+    capped columns one by one: the widest columns give way first and short ones stay whole (as
+    rich narrows a table, but never below a column's minimum)."""
+    def at(cap: int) -> list[int]:
+        return [max(lo, min(hi, cap)) for lo, hi in ranges]
+
+    lo_cap, hi_cap = 0, max(hi for _, hi in ranges)
+    while lo_cap < hi_cap:  # the largest cap whose widths fit the budget
+        mid = (lo_cap + hi_cap + 1) // 2
+        if sum(at(mid)) <= budget:
+            lo_cap = mid
+        else:
+            hi_cap = mid - 1
+    widths = at(lo_cap)
+    left = budget - sum(widths)
+    for i, (_, hi) in enumerate(ranges):
+        if left <= 0:
+            break
+        if widths[i] < hi:
+            widths[i] += 1
+            left -= 1
+    return widths
 
 
 def split_to_width(table, width: int | None) -> list:

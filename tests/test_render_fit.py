@@ -157,3 +157,14 @@ def test_a_folding_column_gives_way_and_short_columns_stay_whole():
     out = _print(r, 80)
     assert max(len(x) for x in out.splitlines()) <= 80
     assert any(ln.lstrip().startswith("yield ≥ 90 %") for ln in out.splitlines()), out
+
+
+def test_the_parts_are_of_even_sizes_when_they_fit_so():
+    from lumeval.render.fit import min_width, split_to_width
+
+    t = _figures_table()
+    width = min_width(t) - 2  # one part too many: two parts
+    parts = split_to_width(t, width)
+    assert [len(p.columns) - 1 for p in parts] == [4, 3]  # the seven number columns, 4 + 3, not 6 + 1
+    assert all(p.columns[0].header == "figure" for p in parts)
+    assert all(min_width(p) <= width for p in parts)

@@ -117,11 +117,20 @@ def split_to_width(table, width: int | None) -> list:
     if min_width(table) <= width or len(table.columns) < 3:
         return [_part(table, table.columns, table.title, width)]
     key, rest = table.columns[0], table.columns[1:]
+
+    def fits(group) -> bool:
+        return min_width(_part(table, [key, *group], None, None)) <= width
+
     groups: list[list] = [[]]
     for col in rest:
-        if groups[-1] and min_width(_part(table, [key, *groups[-1], col], None, None)) > width:
+        if groups[-1] and not fits([*groups[-1], col]):
             groups.append([])
         groups[-1].append(col)
+    # as many parts as needed, but of even sizes when they fit so (4 + 3 columns, not 6 + 1)
+    n, g = len(rest), len(groups)
+    even = [rest[-(-n * k // g): -(-n * (k + 1) // g)] for k in range(g)]  # the larger parts first
+    if all(even) and all(fits(e) for e in even):
+        groups = even
     title = table.title
     more = None
     if title:

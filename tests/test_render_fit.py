@@ -168,3 +168,20 @@ def test_the_parts_are_of_even_sizes_when_they_fit_so():
     assert [len(p.columns) - 1 for p in parts] == [4, 3]  # the seven number columns, 4 + 3, not 6 + 1
     assert all(p.columns[0].header == "figure" for p in parts)
     assert all(min_width(p) <= width for p in parts)
+
+
+def test_a_long_lot_label_is_folded_whole_in_the_history_list(tmp_path):
+    """A lot's label is the user's text: at 80 columns a 240-character label was cut ('LOT-LOT…')
+    and the lot number shrunk to '…'; now the label folds over lines, whole."""
+    label = "LOT-" * 60
+    store = tmp_path / "h.db"
+    r = _cli("lot", *map(str, sorted((REPO / "spectra_demo" / "downlights").glob("*.csv"))[:2]), "-q",
+             "--store", str(store), "--lot-id", label)
+    assert r.returncode == 0, r.stderr
+    r = _cli("history", "list", "--store", str(store))
+    assert r.returncode == 0, r.stderr
+    lines = r.stdout.splitlines()
+    assert max(len(x) for x in lines) <= 80 and "…" not in r.stdout, r.stdout
+    cells = [ln.split("│") for ln in lines if ln.startswith("│")]
+    assert cells[0][1].strip() == "1"  # the lot number, whole
+    assert "".join(c[2].strip() for c in cells) == label, r.stdout

@@ -63,8 +63,9 @@ def print_list(lots, store: str, console=None) -> None:
             ("samples", "right"), ("yield %", "right"), ("verdict", "left")]
     if one:
         cols = [c for c in cols if c[0] != "product"]
-    for col, just in cols:
-        t.add_column(col, justify=just, no_wrap=col != "product")
+    for col, just in cols:  # labels and products are the user's text: folded, never cut
+        t.add_column(col, justify=just, no_wrap=col not in ("label", "product"),
+                     overflow="fold" if col in ("label", "product") else "ellipsis")
     for lot in lots:
         verdict = {"pass": "✓ pass", "fail": "✗ FAIL"}.get(lot.verdict, lot.verdict)
         row = [str(lot.id), Text(plain(lot.label or "")), Text(plain(lot.product or "")), lot.recorded_at,
@@ -127,7 +128,8 @@ def print_trend(tr, console=None) -> None:
     cols = ["lot", "label", "n", "mean" if tr.chart == "xbar-s" else "value", "s" if tr.chart == "xbar-s" else "MR",
             "EWMA", "signals"]
     for c in cols:
-        t.add_column(c, justify="left" if c in ("label", "signals") else "right")
+        t.add_column(c, justify="left" if c in ("label", "signals") else "right",
+                     overflow="fold" if c == "label" else "ellipsis")  # the user's label: folded, never cut
     for i, p in enumerate(tr.points):
         second = p.s if tr.chart == "xbar-s" else tr.main.moving_range[i]
         t.add_row(str(p.lot) + ("ᴮ" if tr.baseline[i] else ""), Text(plain(p.label or "")), str(p.n), _fmt(p.mean),

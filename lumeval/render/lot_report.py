@@ -590,7 +590,7 @@ def _lot_outliers(run) -> list:
     idx = np.flatnonzero(st.outlier)
     if idx.size:
         t = Table(title=f"Outliers: {idx.size} sample(s) flagged (not removed from any statistic)", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
-        t.add_column("sample", no_wrap=True)
+        t.add_column("sample", overflow="fold")  # names are data: folded, never cut
         t.add_column("why")
         for i in idx[:_SHOW_MAX]:
             t.add_row(_text(run.names[i]), _text("; ".join(st.outlier_reasons[i])))

@@ -146,7 +146,7 @@ def renderables(report) -> list:
         for c in r.channel_names:
             t.add_column(_text(f"w {c}"), justify="right", no_wrap=True)
     else:
-        t.add_column("spectrum")
+        t.add_column("spectrum", overflow="fold")  # names are data: folded, never cut
         t.add_column("u′", justify="right", no_wrap=True)
         t.add_column("v′", justify="right", no_wrap=True)
         t.add_column("Δu′v′", justify="right", no_wrap=True)
@@ -232,7 +232,7 @@ def _check_tables(check) -> list:
 
     t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, title="Criteria over the range: " + clean(check.criteria_file), title_justify="left")
     t.add_column("", no_wrap=True)
-    t.add_column("clause")
+    t.add_column("clause", overflow="fold")  # the criteria's ids: folded, never cut
     t.add_column("applies at")
     t.add_column("limit")
     t.add_column("verdict")

@@ -205,7 +205,7 @@ def _spectrum_sections(result) -> list:
         out.append(line)
         t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
         t.add_column("", no_wrap=True)
-        t.add_column("id", no_wrap=True)
+        t.add_column("id", overflow="fold")  # the criteria's ids: folded, never cut
         t.add_column("requirement", min_width=_REQUIREMENT_MIN)
         t.add_column("measured", justify="right", no_wrap=True)
         t.add_column("margin", justify="right", no_wrap=True)

@@ -12,7 +12,10 @@ the figures are the same code path as any lot.
 from __future__ import annotations
 
 import json
+import os
 import shutil
+import subprocess
+import sys
 from pathlib import Path
 
 import pyarrow.parquet as pq
@@ -102,3 +105,28 @@ def test_a_spectra_document_is_not_taken_for_a_report(tmp_path, run):
     assert code == 0, err
     assert _doc(out)["format"] == "lumeval.spectra" and report_kind(out) is None
     assert report_kind(DOWNLIGHTS[0]) is None
+
+
+def _lot_into(stdout_path: Path, *args) -> subprocess.CompletedProcess:
+    """``lumeval lot ARGS > stdout_path``, as a shell runs it (the file created before the run)."""
+    env = {**os.environ, "PYTHONPATH": str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", "")}
+    with open(stdout_path, "w", encoding="utf-8") as out:
+        return subprocess.run([sys.executable, "-m", "lumeval", "lot", *map(str, args)], stdout=out,
+                              stderr=subprocess.PIPE, text=True, env=env, timeout=300)
+
+
+def test_a_report_redirected_into_the_judged_folder_is_not_read(tmp_path):
+    """`lumeval lot week48 -f json > week48/lot.json`: the shell creates the (empty) file before
+    lumeval starts; it was read as an input ('not valid JSON', exit 2) and the report recorded
+    that failure. Now it is skipped as this run's standard output; named as an input, it is an
+    error that says why."""
+    d = _folder(tmp_path)
+    r = _lot_into(d / "lot.json", d, "-q", "-f", "json")
+    assert r.returncode == 0, r.stderr
+    doc = _doc(d / "lot.json")
+    assert doc["unreadable"] == [] and len(doc["samples"]) == len(DOWNLIGHTS)
+    assert doc["skipped"] == [{"path": str(d / "lot.json"), "reason": "this run's standard output (lumeval is writing into it)"}]
+    r = _lot_into(tmp_path / "x.csv", tmp_path / "x.csv", "-q")
+    assert r.returncode == 2
+    assert "x.csv: is this run's standard output: the shell created or emptied it before lumeval started" in r.stderr
+    assert "Traceback" not in r.stderr

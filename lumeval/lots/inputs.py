@@ -109,6 +109,7 @@ class _Collector:
         self._by_id: dict[tuple[int, int], tuple[str, int, bool]] = {}
         self._abs: set[str] = set()
         self.given: set[str] = set()  # absolute names of the files named as such
+        self._streams = _stream_files()
 
     def bad(self, path: str, problem: str, fix: str) -> None:
         shown = display_path(path)
@@ -159,6 +160,14 @@ class _Collector:
                 self.skip(path, f"{kind}, not a regular file")
             return
         ident = (st.st_dev, st.st_ino)
+        stream = self._streams.get(ident)
+        if stream is not None:  # `lumeval lot week48 -f csv > week48/samples.csv`
+            if explicit:
+                self.bad(path, f"is this run's {stream}: the shell created or emptied it before lumeval started",
+                         f"write the {stream} to a file that is not an input")
+            else:
+                self.skip(path, f"this run's {stream} (lumeval is writing into it)")
+            return
         is_link = stat.S_ISLNK(lst.st_mode)
         first = self._by_id.get(ident)
         if first is not None:
@@ -173,6 +182,20 @@ class _Collector:
             return
         self._by_id[ident] = (path, len(self.files), is_link)
         self.files.append(path)
+
+
+def _stream_files() -> dict[tuple[int, int], str]:
+    """The regular files this process's standard output and error are redirected to, by
+    (device, inode): a lot's report redirected into the folder it judges is not an input."""
+    out: dict[tuple[int, int], str] = {}
+    for fd, name in ((1, "standard output"), (2, "standard error")):
+        try:
+            st = os.fstat(fd)
+        except OSError:
+            continue
+        if stat.S_ISREG(st.st_mode):
+            out.setdefault((st.st_dev, st.st_ino), name)
+    return out
 
 
 def _folder_entries(folder: str) -> tuple[list[str], str | None]:

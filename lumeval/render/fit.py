@@ -26,26 +26,39 @@ def _ranges(table) -> list[tuple[int, int]]:
     from rich.console import Console
 
     con = Console(width=10_000, color_system=None)
+    opts = con.options
     out = []
     for col in table.columns:
         if col.width is not None:
             out.append((col.width, col.width))
             continue
-        sizes = [con.measure(c) for c in (col.header, *col.cells)]
-        hi = max(m.maximum for m in sizes)
+        sizes = [_measure(con, opts, c) for c in (col.header, *col.cells)]
+        hi = max(m[1] for m in sizes)
         if col.no_wrap:
             lo = hi
         elif col.overflow == "fold":  # made to be broken anywhere (long paths): any width will do
             lo = min(hi, max(col.min_width or 0, FOLD_MIN))
         else:
-            lo = min(hi, max(col.min_width or 0, *(m.minimum for m in sizes)))
+            lo = min(hi, max(col.min_width or 0, *(m[0] for m in sizes)))
         out.append((lo, hi))
     return out
 
 
-def _overhead(table) -> int:
-    """The columns' padding and the separators (a simple box draws them as spaces)."""
-    n = len(table.columns)
+def _measure(con, opts, cell) -> tuple[int, int]:
+    """(longest word, longest line) of a cell, as rich measures it; text measured directly (a
+    table of thousands of rows is measured in a fraction of the time rich's generic path takes)."""
+    from rich.text import Text
+
+    if isinstance(cell, str):  # rich reads a str cell as markup; plain text needs no parsing
+        cell = con.render_str(cell) if ("[" in cell or ":" in cell) else Text(cell)
+    m = cell.__rich_measure__(con, opts) if isinstance(cell, Text) else con.measure(cell)
+    return m.minimum, m.maximum
+
+
+def _overhead(table, n: int | None = None) -> int:
+    """The padding and the separators of ``table`` with ``n`` of its columns (all by default;
+    a simple box draws the separators as spaces)."""
+    n = len(table.columns) if n is None else n
     left, right = table.padding[3], table.padding[1]
     pad = n * (left + right) - (0 if table.pad_edge else left + right)
     return pad + (n - 1 if table.box is not None else 0) + (2 if table.show_edge and table.box is not None else 0)
@@ -58,25 +71,19 @@ def min_width(table) -> int:
     return sum(lo for lo, _ in _ranges(table)) + _overhead(table)
 
 
-def _full_width(table) -> int:
-    return sum(hi for _, hi in _ranges(table)) + _overhead(table)
-
-
-def _part(table, columns, title, width: int | None):
-    """A copy of ``table`` with ``columns`` (copies), and, when ``width`` is given, each
-    column's width fixed (:func:`_capped`) so that every cell shows whole within ``width``:
+def _part(table, columns, ranges, title, width: int):
+    """A copy of ``table`` with ``columns`` (copies; ``ranges`` theirs, from :func:`_ranges`),
+    each column's width fixed (:func:`_capped`) so that every cell shows whole within ``width``:
     no-wrap columns and longest words get what they need (rich's own narrowing would cut words
     and numbers)."""
     part = copy.copy(table)
     part.columns = []
-    for i, col in enumerate(columns):
+    for i, (col, w) in enumerate(zip(columns, _capped(ranges, width - _overhead(table, len(columns))))):
         c = copy.copy(col)
         c._index = i  # rich pads the first and last column by their position
+        c.width = w
         part.columns.append(c)
     part.title = title
-    if width is not None:
-        for c, w in zip(part.columns, _capped(_ranges(part), width - _overhead(part))):
-            c.width = w
     return part
 
 
@@ -111,32 +118,36 @@ def split_to_width(table, width: int | None) -> list:
     None); else the same table with its wrapping columns narrowed so that no word and no number
     is cut, when that fits; else tables of the first column and as many of the next columns as
     fit, in order, each so narrowed. The title is kept on the first and marked "(continued)" on
-    the others, the caption kept on the last."""
-    if width is None or not table.columns or _full_width(table) <= width:
+    the others, the caption kept on the last. Each column is measured once."""
+    if width is None or not table.columns:
         return [table]
-    if min_width(table) <= width or len(table.columns) < 3:
-        return [_part(table, table.columns, table.title, width)]
-    key, rest = table.columns[0], table.columns[1:]
+    ranges = _ranges(table)
+    n = len(ranges)
+    if sum(hi for _, hi in ranges) + _overhead(table) <= width:
+        return [table]
 
-    def fits(group) -> bool:
-        return min_width(_part(table, [key, *group], None, None)) <= width
+    def need(idx: list[int]) -> int:
+        return sum(ranges[i][0] for i in idx) + _overhead(table, len(idx))
 
-    groups: list[list] = [[]]
-    for col in rest:
-        if groups[-1] and not fits([*groups[-1], col]):
+    if need(list(range(n))) <= width or n < 3:
+        return [_part(table, table.columns, ranges, table.title, width)]
+    groups: list[list[int]] = [[]]
+    for i in range(1, n):  # the first column (the rows' names) opens every part
+        if groups[-1] and need([0, *groups[-1], i]) > width:
             groups.append([])
-        groups[-1].append(col)
+        groups[-1].append(i)
     # as many parts as needed, but of even sizes when they fit so (4 + 3 columns, not 6 + 1)
-    n, g = len(rest), len(groups)
-    even = [rest[-(-n * k // g): -(-n * (k + 1) // g)] for k in range(g)]  # the larger parts first
-    if all(even) and all(fits(e) for e in even):
+    rest, g = list(range(1, n)), len(groups)
+    even = [rest[-(-(n - 1) * k // g): -(-(n - 1) * (k + 1) // g)] for k in range(g)]  # the larger first
+    if all(even) and all(need([0, *e]) <= width for e in even):
         groups = even
     title = table.title
     more = None
     if title:
         more = title.copy() if hasattr(title, "copy") else f"{title}"
         more = more + " (continued)"
-    parts = [_part(table, [key, *g], title if k == 0 else more, width) for k, g in enumerate(groups)]
+    parts = [_part(table, [table.columns[i] for i in (0, *grp)], [ranges[i] for i in (0, *grp)],
+                   title if k == 0 else more, width) for k, grp in enumerate(groups)]
     for p in parts[:-1]:
         p.caption = None
     return parts

@@ -185,3 +185,21 @@ def test_a_long_lot_label_is_folded_whole_in_the_history_list(tmp_path):
     cells = [ln.split("│") for ln in lines if ln.startswith("│")]
     assert cells[0][1].strip() == "1"  # the lot number, whole
     assert "".join(c[2].strip() for c in cells) == label, r.stdout
+
+
+def test_a_table_can_repeat_several_key_columns_in_each_part():
+    """check's one-row-per-spectrum table names a row by its mark, result and number: each part
+    of a split repeats the three (before, the second part kept only the mark)."""
+    from lumeval.render.fit import min_width, set_key_columns, split_to_width
+
+    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
+    for h in ("", "result", "#", *HEADS):
+        t.add_column(h, no_wrap=True, justify="right")
+    for r in range(3):
+        t.add_row(">>", "FAIL", str(r + 1), *_cells(r))
+    set_key_columns(t, 3)
+    parts = split_to_width(t, min_width(t) - 10)
+    assert len(parts) >= 2
+    for p in parts:
+        assert [c.header for c in p.columns[:3]] == ["", "result", "#"]
+    assert [c.header for p in parts for c in p.columns[3:]] == HEADS  # every other column once, in order

@@ -17,6 +17,14 @@ import copy
 
 #: The narrowest a column that folds its text (``overflow="fold"``) is made.
 FOLD_MIN = 12
+#: Attribute of a table naming how many leading columns each part of a split repeats.
+_KEYS = "lumeval_key_columns"
+
+
+def set_key_columns(table, n: int) -> None:
+    """When ``table`` is split to fit, each part repeats its first ``n`` columns (those that
+    name a row; 1 by default)."""
+    setattr(table, _KEYS, n)
 
 
 def _ranges(table) -> list[tuple[int, int]]:
@@ -117,8 +125,9 @@ def split_to_width(table, width: int | None) -> list:
     """``table`` itself when it fits ``width`` columns at its natural width (or ``width`` is
     None); else the same table with its wrapping columns narrowed so that no word and no number
     is cut, when that fits; else tables of the first column and as many of the next columns as
-    fit, in order, each so narrowed. The title is kept on the first and marked "(continued)" on
-    the others, the caption kept on the last. Each column is measured once."""
+    fit, in order, each so narrowed (:func:`set_key_columns` makes them repeat more than their
+    first column). The title is kept on the first and marked "(continued)" on the others,
+    the caption kept on the last. Each column is measured once."""
     if width is None or not table.columns:
         return [table]
     ranges = _ranges(table)
@@ -129,24 +138,27 @@ def split_to_width(table, width: int | None) -> list:
     def need(idx: list[int]) -> int:
         return sum(ranges[i][0] for i in idx) + _overhead(table, len(idx))
 
-    if need(list(range(n))) <= width or n < 3:
+    # the columns that name a row open every part: the first, or as many as the table says
+    keys = list(range(min(max(1, getattr(table, _KEYS, 1)), n)))
+    if need(list(range(n))) <= width or n < len(keys) + 2:
         return [_part(table, table.columns, ranges, table.title, width)]
     groups: list[list[int]] = [[]]
-    for i in range(1, n):  # the first column (the rows' names) opens every part
-        if groups[-1] and need([0, *groups[-1], i]) > width:
+    for i in range(len(keys), n):
+        if groups[-1] and need([*keys, *groups[-1], i]) > width:
             groups.append([])
         groups[-1].append(i)
     # as many parts as needed, but of even sizes when they fit so (4 + 3 columns, not 6 + 1)
-    rest, g = list(range(1, n)), len(groups)
-    even = [rest[-(-(n - 1) * k // g): -(-(n - 1) * (k + 1) // g)] for k in range(g)]  # the larger first
-    if all(even) and all(need([0, *e]) <= width for e in even):
+    rest, g = list(range(len(keys), n)), len(groups)
+    m = len(rest)
+    even = [rest[-(-m * k // g): -(-m * (k + 1) // g)] for k in range(g)]  # the larger first
+    if all(even) and all(need([*keys, *e]) <= width for e in even):
         groups = even
     title = table.title
     more = None
     if title:
         more = title.copy() if hasattr(title, "copy") else f"{title}"
         more = more + " (continued)"
-    parts = [_part(table, [table.columns[i] for i in (0, *grp)], [ranges[i] for i in (0, *grp)],
+    parts = [_part(table, [table.columns[i] for i in (*keys, *grp)], [ranges[i] for i in (*keys, *grp)],
                    title if k == 0 else more, width) for k, grp in enumerate(groups)]
     for p in parts[:-1]:
         p.caption = None

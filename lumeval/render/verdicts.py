@@ -21,7 +21,7 @@ from typing import Any, overload
 
 import numpy as np
 
-from .fit import min_width
+from .fit import min_width, set_key_columns
 from .safe import clean
 from .safe import text as _text
 from .tables import CAUTIONS
@@ -280,6 +280,7 @@ def _compact_check(result, evaluation, width: int | None, why: str) -> list:
             v = result.verdict(i)
             t.add_row(">>" if v != "pass" else "", Text(verdict[row], style=_STYLE[v]),
                       _text(names[row]) if in_table else str(i + 1), *[col[row] for col in cells], counts[row])
+        set_key_columns(t, 3)  # split to fit the terminal: each part repeats mark, result and row
         return t
 
     t = table(True)

@@ -25,6 +25,7 @@ from typing import Any
 
 import numpy as np
 
+from .fit import set_key_columns
 from .tables import CAUTIONS, spectrum_records
 
 #: The headline figures of the per-setting tables (issue 16: Ra, R9, Rf, Rg, Duv, LER, with CCT).
@@ -240,6 +241,7 @@ def _check_tables(check) -> list:
     t.add_column("worst value", justify="right")
     t.add_column("margin", justify="right")
     t.add_column("failed at")
+    set_key_columns(t, 2)  # split to fit: each part repeats the mark and the clause
     for rr in check.results:
         res = rr.result
         where = "every evaluated setting" if rr.over is None and res.kind not in ("series_shift", "track_locus") else (

@@ -210,6 +210,7 @@ def _spectrum_sections(result) -> list:
         t.add_column("measured", justify="right", no_wrap=True)
         t.add_column("margin", justify="right", no_wrap=True)
         t.add_column("result", no_wrap=True)
+        set_key_columns(t, 2)  # split to fit: each part repeats the mark and the clause id
         notes = []
         for k, r in enumerate(result.results):
             o = r.outcome[i]
@@ -626,6 +627,7 @@ def claims_renderables(check) -> list:
         for col, kw in (("", {"no_wrap": True}), ("claim", {"no_wrap": True}), ("as stated", {}), ("measured", {"justify": "right"}),
                         ("accepted as", {}), ("by how much", {"justify": "right"}), ("result", {"no_wrap": True})):
             t.add_column(col, **kw)
+        set_key_columns(t, 2)  # split to fit: each part repeats the mark and the claim
         notes = []
         for r in check.results:
             o = r.outcome[i]

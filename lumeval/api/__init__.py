@@ -155,7 +155,8 @@ def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, 
     return run_lot(paths, crit, uncertainty=setup, keep_evaluation=keep_evaluation, progress=progress, **options)
 
 
-def convert(src: str | Path, dst: str | Path, *, column: str | None = None, force: bool = False) -> int:
+def convert(src: str | Path, dst: str | Path, *, column: str | None = None, force: bool = False,
+            notes: list[str] | None = None) -> int:
     """The ``lumeval convert`` command as a function: read ``src`` and write it to ``dst``.
 
     The output format follows ``dst``'s extension (.csv, .xml/.spdx, .json, .parquet). Data are written
@@ -163,6 +164,11 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
     shortest round-trip number formatting, so CSV → TM-27 XML → CSV reproduces the numbers
     exactly; header metadata travel along. The output is written atomically; the input is
     never overwritten; an existing output is replaced only with ``force``.
+
+    What the output format cannot keep as it is (a name with control characters or a line
+    break, a formula-like name quoted for spreadsheets, CSV's one metadata block) is written as
+    the format can hold it and said, in words, in ``notes`` when a list is given
+    (:func:`lumeval.spectra.write.conversion_notes`; ``lumeval convert`` prints them).
 
     Returns the number of spectra written. Raises :class:`lumeval.errors.InputError` /
     :class:`lumeval.errors.UsageError` (nothing written).
@@ -202,4 +208,8 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
         spectra = spectra.subset(matches[:1])
     data = serialise(spectra, kind)
     write_bytes(dst_p, data, option="OUT")
+    if notes is not None:
+        from ..spectra.write import conversion_notes
+
+        notes.extend(conversion_notes(spectra, kind))
     return len(spectra)

@@ -32,7 +32,10 @@ def register(app: typer.Typer) -> None:
         from ..api import convert
         from ..render.safe import clean
 
-        n = convert(src, dst, column=column, force=force)
+        notes: list[str] = []
+        n = convert(src, dst, column=column, force=force, notes=notes)
+        for note in notes:  # what the format could not keep as it was (even with --quiet)
+            typer.echo(f"lumeval: note: {clean(dst)}: {clean(note)}", err=True)
         from ._announce import is_quiet, set_quiet
 
         set_quiet(quiet)

@@ -9,6 +9,7 @@ file as it was.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 from ..errors import UsageError
@@ -54,12 +55,18 @@ def _clean(s: str) -> str:
     return "".join(c for c in s if c >= " " or c == "\t")
 
 
-def _quote(name: str) -> str:
+def _csv_name(name: str) -> str:
+    """A spectrum name as the CSV header holds it (and a reader reads it back): one line without
+    control characters, a leading ``'`` before a character that would start a spreadsheet
+    formula (OWASP CSV injection)."""
     from ..render.safe import FORMULA_START
 
     name = _clean(name)
-    if name.startswith(FORMULA_START):  # a spreadsheet would run it as a formula (OWASP CSV injection)
-        name = "'" + name
+    return "'" + name if name.startswith(FORMULA_START) else name
+
+
+def _quote(name: str) -> str:
+    name = _csv_name(name)
     if any(c in name for c in ',"') or name != name.strip():
         return '"' + name.replace('"', '""') + '"'
     return name
@@ -81,6 +88,44 @@ def kind_for(path: str | Path) -> str:
         file=str(path),
         fix="name the output .csv, .xml (IES TM-27), .json (lumeval JSON) or .parquet (archive)",
     )
+
+
+def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
+    """What writing ``spectra`` as ``kind`` cannot keep as it is, in words (empty when the format
+    keeps everything): names and metadata text that CSV holds on one line without control
+    characters (a formula-like name quoted) or that XML 1.0 cannot hold, and, in CSV, metadata
+    that differs between spectra (one header block holds only what they share). JSON and
+    Parquet keep every name and metadata value."""
+    from ..render.safe import clean
+    from .tm27 import _xml_text
+
+    if kind not in ("csv", "xml"):
+        return []
+    metas = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
+    dropped: list[str] = []
+    name_as: Callable[[str], str] = _xml_text
+    text_as: Callable[[str], str] = _xml_text
+    written = metas
+    if kind == "csv":
+        name_as, text_as = _csv_name, _clean
+        keys = sorted({k for m in metas for k in m})
+        dropped = [k for k in keys if any(m.get(k) != metas[0].get(k) for m in metas)]
+        written = [{k: v for k, v in metas[0].items() if k not in dropped}] if metas else []  # the one block
+    notes = []
+    changed = [(n, name_as(n)) for n in spectra.names if name_as(n) != n]
+    if changed:
+        old, new = changed[0]
+        notes.append(f'{len(changed)} spectrum name(s) written as the format can hold them: "{clean(old)}" as '
+                     f'"{clean(new)}"' + (" and others" if len(changed) > 1 else ""))
+    altered = sum(1 for m in written for k, v in m.items() if text_as(str(k)) != str(k) or text_as(str(v)) != str(v))
+    if altered:
+        notes.append(f"{altered} metadata value(s) written " + ("without the characters XML cannot hold (control "
+                     "characters)" if kind == "xml" else "on one line without control characters"))
+    if dropped:
+        shown = ", ".join(f'"{clean(k)}"' for k in dropped[:5]) + (" …" if len(dropped) > 5 else "")
+        notes.append(f"metadata that differs between the spectra is not kept in CSV (one header block): {shown} "
+                     "— convert to .json or .parquet to keep it")
+    return notes
 
 
 def serialise(spectra: SpectrumSet, kind: str) -> bytes:

@@ -37,7 +37,7 @@ def _csv_tail() -> bytes:
 
 
 def report_kind(path: str | os.PathLike) -> str | None:
-    """What lumeval report ``path`` is (e.g. "lot JSON document (lumeval.lot)", "CSV report"),
+    """What lumeval report ``path`` is (e.g. "JSON document (lumeval.lot)", "CSV report"),
     or None when it is not one (or cannot be opened: the reader says why)."""
     tail = _csv_tail()
     try:

@@ -5,10 +5,15 @@ may not wrap (a number, a figure's name) is then cut with an ellipsis: "-0.00…
 -0.0012, which nobody can read and a reader may misread. (Output sent to a pipe or a file is 80
 columns wide unless COLUMNS says otherwise, so saved reports were cut too.)
 
-:func:`split_to_width` instead splits such a table into consecutive tables of whole columns,
-each repeating the first column (the row's name), so that every cell is shown in full at any
-width where the first column and one other fit. The reports' console (:func:`lumeval.render.
-safe.console`) applies it to every table it prints.
+:func:`split_to_width` instead first narrows only what may wrap (text between words, folding
+columns such as paths), with widths it fixes itself, and when that is not enough splits the
+table into consecutive tables of whole columns, each repeating the columns that name a row
+(:func:`set_key_columns`; the first by default), so that every cell is shown in full at any
+width where those and one other column fit. The reports' console
+(:func:`lumeval.render.safe.console`) applies it to every table it prints. It reads rich's
+``Table`` and ``Column`` attributes (``columns``, ``cells``, ``no_wrap``, ``overflow``,
+``padding``...) and sets ``Column.width`` and ``_index`` on copies; tests/test_render_fit.py
+checks the result on the installed rich.
 """
 
 from __future__ import annotations

@@ -130,3 +130,38 @@ def test_a_report_redirected_into_the_judged_folder_is_not_read(tmp_path):
     assert r.returncode == 2
     assert "x.csv: is this run's standard output: the shell created or emptied it before lumeval started" in r.stderr
     assert "Traceback" not in r.stderr
+
+
+def test_a_lot_with_an_unread_input_is_never_reported_as_a_pass(tmp_path, run):
+    """Found while checking the skipped list in the HTML report: with an input that could not be
+    read and every sample read passing, the exit code was 2 ("not fully judged") but the HTML
+    report's verdict said "✓ PASS — Every criterion is met" and listed neither the unread nor
+    the skipped inputs, and the terminal said "Lot verdict: PASS." first. Now the HTML opens
+    its verdict with the unread inputs (a "not judged" verdict), lists the skipped entries with
+    the provenance, and the terminal verdict is NOT PASSED."""
+    import re
+
+    import html5lib  # a test dependency: fail, never skip
+
+    d = _folder(tmp_path)
+    (d / "notes.json").write_text('{"a": 1}', encoding="utf-8")
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 70\n', encoding="utf-8")
+    code, _, err = run("lot", d, "-q", "--criteria", crit, "--json", d / "lot.json")  # every sample passes Ra >= 70
+    assert code == 2, err
+    code, out, err = run("lot", d, "-q", "--criteria", crit, "--html", tmp_path / "r.html")
+    assert code == 2, err
+    assert "Lot verdict: NOT PASSED: 1 input(s) could not be read" in " ".join(out.split())
+    assert "Lot verdict: PASS" not in out
+    html = (tmp_path / "r.html").read_text(encoding="utf-8")
+    html5lib.HTMLParser(strict=True, namespaceHTMLElements=False).parse(html)
+    verdict = re.search(r'<section id="verdict">(.*?)</section>', html, re.S).group(1)
+    text = " ".join(re.sub(r"<[^>]+>", " ", verdict).split())
+    assert "1 input(s) could not be read, so the lot is not fully judged and cannot pass" in text
+    assert "notes.json" in text
+    # both summary boxes (the unread inputs, the verdict) say "not judged"; none says pass
+    assert re.findall(r'<div class="summary ([^"]+)"', verdict) == ["not-judged", "not-judged"]
+    assert "No criterion fails for the inputs that were read" in text
+    provenance = re.search(r'<section id="provenance">(.*?)</section>', html, re.S).group(1)
+    assert "Entries left out" in provenance and "lot.json" in provenance
+    assert "a lumeval JSON document (lumeval.lot), not a spectrum file" in provenance

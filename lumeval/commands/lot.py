@@ -98,9 +98,11 @@ def _write_lot_report(run: LotRun, criteria, html, plots, progress=None) -> None
 
     written = write_outputs(
         ev, html=html, plots=plots, verdicts=verdicts or None, lot=run.stats,
-        overall=("fail" if run.failed else "pass") if verdicts else None,
+        # a lot with inputs that were not read is not fully judged: never a pass
+        overall=("fail" if run.failed else "not judged" if run.unreadable else "pass") if verdicts else None,
         regions=regions_from_criteria(criteria) if criteria is not None else None,
         inputs=list(run.read_paths), command=command_line(), progress=progress,
+        unreadable=[(u.source, u.message) for u in run.unreadable], skipped=[(k.path, k.reason) for k in run.skipped],
     )
     announce_outputs(written, html, plots)
 

@@ -207,6 +207,8 @@ def write_html_report(
     per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
     overall: str | None = None,
+    unreadable: Sequence[tuple[str, str]] = (),
+    skipped: Sequence[tuple[str, str]] = (),
     progress=None,
 ) -> Path:
     """Write the self-contained HTML report to ``path`` atomically; returns the path.
@@ -220,7 +222,8 @@ def write_html_report(
     check_output_file(p, "--html")
     text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
                               title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max,
-                              figures=figures, overall=overall, progress=progress)
+                              figures=figures, overall=overall, unreadable=unreadable, skipped=skipped,
+                              progress=progress)
     write_bytes(p, text.encode("utf-8"), option="--html")
     return p
 
@@ -239,6 +242,8 @@ def write_outputs(
     command: str | None = None,
     per_sample_max: int | None = PER_SAMPLE_MAX,
     overall: str | None = None,
+    unreadable: Sequence[tuple[str, str]] = (),
+    skipped: Sequence[tuple[str, str]] = (),
     progress=None,
 ) -> list[Path]:
     """The ``--html FILE`` and ``--plots DIR`` options in one call: check both targets, draw
@@ -264,7 +269,8 @@ def write_outputs(
     if html is not None:
         out.append(write_html_report(html, evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot,
                                      inputs=inputs, title=title, command=command, per_sample_max=per_sample_max,
-                                     figures=figs, overall=overall, progress=offset(progress, n_plots, total)))
+                                     figures=figs, overall=overall, unreadable=unreadable, skipped=skipped,
+                                     progress=offset(progress, n_plots, total)))
     return out
 
 
@@ -287,6 +293,8 @@ def render_html_report(
     per_sample_max: int | None = PER_SAMPLE_MAX,
     figures: Sequence[ReportFigure] | None = None,
     overall: str | None = None,
+    unreadable: Sequence[tuple[str, str]] = (),
+    skipped: Sequence[tuple[str, str]] = (),
     progress=None,
 ) -> str:
     """The report as one HTML document (a string).
@@ -316,6 +324,10 @@ def render_html_report(
     figures : sequence of ReportFigure, optional
         Figures already made by :func:`report_figures` with the same inputs (to draw them once
         for both the report and ``--plots``).
+    unreadable, skipped : sequences of (input, why)
+        A lot's inputs that could not be read (listed first, under the verdict: such a lot is
+        not fully judged and cannot pass) and those left out on purpose (listed with the
+        provenance).
     """
     ev = evaluation
     figs = list(figures) if figures is not None else report_figures(
@@ -325,7 +337,7 @@ def render_html_report(
     (inline,) = counting(progress, WRITING, inline_svg)  # progress: one per figure drawn into the page
     view = build_report_view(ev, figs, verdicts=verdicts, lot=lot, inputs=inputs, title=title, command=command,
                              generated_at=generated_at, per_sample_max=per_sample_max, overall=overall,
-                             inline=inline)
+                             unreadable=unreadable, skipped=skipped, inline=inline)
     return render_template("report.html.j2", v=view)
 
 

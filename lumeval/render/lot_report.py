@@ -673,6 +673,9 @@ def _verdict_line(run) -> str:
         if v is not None and not run.has_yield_clause:
             outcomes += list(v)
         base = "Lot verdict: FAIL." if "fail" in outcomes else "Lot verdict: NOT PASSED (a requirement could not be judged)."
+    elif run.unreadable:  # never "PASS" for a lot with inputs that were not read
+        return (f"Lot verdict: NOT PASSED: {len(run.unreadable)} input(s) could not be read, so the lot is not fully "
+                "judged (exit code 2); the samples that were read meet the criteria.")
     else:
         base = "Lot verdict: PASS."
     if run.unreadable:

@@ -161,6 +161,11 @@ class ReportView:
     notes_more: str | None
     provenance: ProvenanceView
     cautions: tuple[str, ...]
+    #: A lot's inputs that could not be read: the sentence above their table, and the table.
+    unread_summary: str | None = None
+    unread: Table | None = None
+    #: A lot's inputs left out on purpose (not spectrum files, already read, its own reports).
+    skipped: Table | None = None
 
 
 # --------------------------------------------------------------------------- verdicts
@@ -254,6 +259,18 @@ def _uncertainty_text(verdicts) -> str | None:
     return (f'{unc.get("rule_text", "")} Margins are shown ± U (expanded uncertainty from the Monte Carlo '
             f'propagation of the instrument model {inst.get("name") or inst.get("source", "")}, JCGM 101:2008); '
             "p_c is the probability of conformance (JCGM 106:2012). See docs/uncertainty.md.")
+
+
+def _with_unread(vd: VerdictView, unreadable, rows) -> VerdictView:
+    """A lot with inputs that were not read is "not judged" (the command decides so): when
+    every check of what was read passed, its summary says why, not the generic "a criterion
+    could not be judged"."""
+    if not unreadable or not vd.judged or vd.overall != "not judged" or any(r.outcome != "pass" for r in rows):
+        return vd
+    import dataclasses
+
+    return dataclasses.replace(vd, summary="No criterion fails for the inputs that were read, but the lot is not "
+                                           "fully judged: some inputs could not be read (listed above).")
 
 
 def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str | None, grid_max: int) -> VerdictView:
@@ -519,6 +536,8 @@ def build_report_view(
     generated_at=None,
     per_sample_max: int | None = None,
     overall: str | None = None,
+    unreadable: Sequence[tuple[str, str]] = (),
+    skipped: Sequence[tuple[str, str]] = (),
     inline=None,
 ) -> ReportView:
     """The report of ``ev`` as a :class:`ReportView` (the parameters are those of
@@ -552,7 +571,8 @@ def build_report_view(
         title=title or ("Colour quality report: " + (names[0] if n == 1 else f"{n} spectra")),
         subtitle=(f"{n} spectr{'a' if n != 1 else 'um'}", f"generated {prov.generated_at}",
                   f"lumeval {dict(prov.versions).get('lumeval', '?')}"),
-        verdict=verdict_view(rows, verdicts, lot=lot, n=n, overall=overall, grid_max=grid_max),
+        verdict=_with_unread(verdict_view(rows, verdicts, lot=lot, n=n, overall=overall, grid_max=grid_max),
+                             unreadable, rows),
         aggregate_note=(f"The {n} spectra are drawn together (medians, ranges and distributions), as asked (more "
                         f"than {per_sample_max} spectra); every spectrum's figures are in the tables below and in "
                         "the JSON and CSV outputs.") if aggregate and lot is None else None,
@@ -565,6 +585,12 @@ def build_report_view(
         notes_more=f"… and {more} further notes (see the JSON output)." if more else None,
         provenance=provenance_view(prov, command),
         cautions=cautions(),
+        unread_summary=(f"{len(unreadable)} input(s) could not be read, so the lot is not fully judged and cannot "
+                        "pass (lumeval exits with code 2). Every other result here covers the inputs that were "
+                        "read.") if unreadable else None,
+        unread=Table(("Input", "Why it could not be read"),
+                     tuple(Row(cells(a, b), True) for a, b in unreadable)) if unreadable else None,
+        skipped=Table(("Entry", "Why it was left out"), tuple(Row(cells(a, b)) for a, b in skipped)) if skipped else None,
     )
 
 

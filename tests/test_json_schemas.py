@@ -33,6 +33,9 @@ COMMANDS = [
     ("claims", "claims", ["claims", A, "--claims", DEMO / "supplier_claims.toml", "--format", "json"]),
     ("lot", "lot", ["lot", DEMO / "lot_2026w48", "-c", DEMO / "lot_criteria.toml", "--format", "json", "--quiet"]),
     ("lot-plain", "lot", ["lot", *WEEKLY[:1], "--format", "json", "--quiet"]),
+    # an input that cannot be read: exit code 2 in the document (the schema allowed only 0 and 1)
+    ("lot-unread", "lot", ["lot", A, "{store}.missing.csv", "-c", DEMO / "lot_criteria.toml", "--format", "json",
+                           "--quiet"]),
     ("validation", "validation", ["inspect", "--validate-only", A, "--format", "json"]),
     ("mix", "mix", ["mix", DEMO / "tunable" / "tw2_channels.csv", "--cct", "2700:4000:650", "-c",
                     DEMO / "tunable_criteria.toml", "--format", "json"]),
@@ -63,7 +66,7 @@ def outputs(tmp_path_factory):
     out = {}
     for doc_id, _, args in COMMANDS:
         argv = [str(a).replace("{store}", str(store)) for a in args]
-        out[doc_id] = json.loads(_lumeval(*argv).stdout)
+        out[doc_id] = json.loads(_lumeval(*argv, ok=(2,) if doc_id == "lot-unread" else (0, 1)).stdout)
     _lumeval("convert", A, tmp / "a.json", "--quiet", ok=(0,))
     out["spectra"] = json.loads((tmp / "a.json").read_text(encoding="utf-8"))
     return out
@@ -102,6 +105,7 @@ def test_the_documents_cover_what_the_schemas_allow(outputs):
     chart kinds, reachable and unreachable mixes."""
     assert "criteria" in outputs["mix"] and "criteria" not in outputs["mix-plain"]
     assert outputs["lot"]["criteria"] is not None and outputs["lot-plain"]["criteria"] is None
+    assert outputs["lot-unread"]["verdict"]["exit_code"] == 2 and len(outputs["lot-unread"]["unreadable"]) == 1
     assert "criteria" in outputs["series"] and "criteria" not in outputs["series-plain"]
     assert outputs["trend"]["chart"] == "xbar-s" and outputs["trend-individuals"]["chart"] == "individuals"
     assert len(outputs["history_list"]["lots"]) == len(WEEKLY)

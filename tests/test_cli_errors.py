@@ -288,3 +288,20 @@ def test_names_outside_the_plot_font_keep_stderr_clean(work, capsys):
                           capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0 and proc.stderr == "", proc.stderr
     assert "照明 名前 «été»" in (tmp / "r.html").read_text(encoding="utf-8")
+
+
+@pytest.mark.parametrize("command", [["inspect"], ["check", "-c", "{crit}"], ["claims", "--claims", "{claims}"],
+                                     ["convert", "{out}"]])
+def test_a_folder_given_to_a_single_file_command_says_which_command_reads_folders(work, capsys, command):
+    """`lumeval inspect FOLDER` (the lot's folder, as `lot` takes it) said "is a directory, not a
+    file — name the spectrum file"; it now says how to name the files, and that `lot` reads
+    folders. A folder of Parquet files is still read as one archive (tests/test_archive.py)."""
+    tmp, spd, crit, claims = work
+    folder = tmp / "lot"
+    folder.mkdir()
+    shutil.copyfile(spd, folder / "lamp.csv")
+    out = tmp / "out.csv"
+    rest = [a.format(crit=crit, claims=claims, out=out) for a in command[1:]]
+    code, _, err = run([command[0], str(folder), *rest], capsys)
+    assert_clean_error(code, err, "is a folder, not a spectrum file", "FOLDER/*.csv", "`lumeval lot` is the command")
+    assert not out.exists()

@@ -194,5 +194,5 @@ def test_a_file_is_read_to_its_size_and_at_most_one_byte_past_the_limit(tmp_path
 def test_missing_file_and_directory(tmp_path):
     with pytest.raises(InputError, match="no such file"):
         read_spectra(tmp_path / "nope.csv")
-    with pytest.raises(InputError, match="directory"):
+    with pytest.raises(InputError, match="is a folder, not a spectrum file"):
         read_spectra(tmp_path)

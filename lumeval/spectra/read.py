@@ -70,10 +70,17 @@ def read_spectra(path: str | Path) -> SpectrumSet:
     # a Parquet archive (lumeval.spectra.archive): by its name, a folder holding Parquet
     # files, or the file's first bytes; other files pay no extra open or import
     p = Path(path)
-    if p.suffix.lower() in _PARQUET_SUFFIXES or (p.is_dir() and _archive_folder(p)):
+    is_dir = p.is_dir()
+    if p.suffix.lower() in _PARQUET_SUFFIXES or (is_dir and _archive_folder(p)):
         from .archive import read_archive
 
         return read_archive(path)
+    if is_dir:  # the commands that read single files are often given the folder of a lot
+        from ..errors import InputError
+
+        raise InputError("is a folder, not a spectrum file", file=display_path(path),
+                         fix="name the files in it (e.g. FOLDER/*.csv); `lumeval lot` is the command that reads "
+                             "whole folders")
     raw = _read_bytes(path, MAX_TEXT_BYTES)
     if raw[:4] == b"PAR1":
         from .archive import read_archive

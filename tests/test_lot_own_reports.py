@@ -165,3 +165,18 @@ def test_a_lot_with_an_unread_input_is_never_reported_as_a_pass(tmp_path, run):
     provenance = re.search(r'<section id="provenance">(.*?)</section>', html, re.S).group(1)
     assert "Entries left out" in provenance and "lot.json" in provenance
     assert "a lumeval JSON document (lumeval.lot), not a spectrum file" in provenance
+
+
+def test_no_sample_read_says_the_report_was_not_drawn(tmp_path, run):
+    """Every input unreadable: `--html` and `--plots` were silently not written (with --quiet
+    nothing at all said so). Now one note says so; the JSON is still written."""
+    d = tmp_path / "lot"
+    d.mkdir()
+    (d / "a.json").write_text('{"a": 1}', encoding="utf-8")
+    (d / "b.csv").write_text("x\n", encoding="utf-8")
+    code, _, err = run("lot", d, "-q", "--html", tmp_path / "r.html", "--plots", tmp_path / "P", "--json",
+                       tmp_path / "lot.json")
+    assert code == 2 and "Traceback" not in err
+    assert "lumeval: note: no sample could be read, so nothing was drawn: --html and --plots not written" in err
+    assert not (tmp_path / "r.html").exists() and not (tmp_path / "P").exists()
+    assert len(_doc(tmp_path / "lot.json")["unreadable"]) == 2

@@ -91,7 +91,9 @@ def _write_lot_report(run: LotRun, criteria, html, plots, progress=None) -> None
     ev = run.evaluation
     if ev is None and run.names:
         ev = _evaluate_for_report(run)
-    if ev is None or len(ev) == 0:
+    if ev is None or len(ev) == 0:  # said even with --quiet: an output asked for is not there
+        asked = " and ".join(o for o, v in (("--html", html), ("--plots", plots)) if v is not None)
+        print(f"lumeval: note: no sample could be read, so nothing was drawn: {asked} not written", file=sys.stderr)
         return
     verdicts = ([run.check] if run.check is not None else []) + list(run.lot_results)
     from ._announce import announce_outputs

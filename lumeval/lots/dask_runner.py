@@ -243,9 +243,5 @@ def run_lot_dask(
     for bad in bad_by_file:
         unreadable.extend(bad)
     read_paths = tuple(files[k] for k in sorted(used))
-    from .own_reports import set_aside
-
-    unreadable, reports = set_aside(unreadable, found)
-    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files) - len(reports),
-                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=None, skipped=found.skipped + reports,
-                      read_paths=read_paths)
+    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, inputs=found,
+                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=None, read_paths=read_paths)

@@ -19,7 +19,6 @@ from functools import cached_property
 from typing import TYPE_CHECKING
 
 from .inputs import LotInputs, Skipped, Unreadable, display_path, expand_inputs
-from .own_reports import set_aside
 
 if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays light
     import numpy as np
@@ -348,10 +347,8 @@ def run_lot(
     finally:
         reads.close()
         evaluator.terminate()
-    unreadable, reports = set_aside(unreadable, found)
-    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, files=len(files) - len(reports),
-                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, skipped=found.skipped + reports,
-                      read_paths=tuple(read_paths))
+    return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, inputs=found,
+                      ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=uncertainty, read_paths=tuple(read_paths))
 
 
 def _sample_criteria(criteria):

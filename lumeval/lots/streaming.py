@@ -220,12 +220,22 @@ class LotAccumulator:
             return pa.concat_tables([p.cast(pa.schema([(c, pa.string()) for c in p.column_names])) for p in parts],
                                     promote_options="permissive")
 
-    def finish(self, criteria=None, *, sample_criteria=None, unreadable=(), files: int = 0, ellipse=None,
+    def finish(self, criteria=None, *, sample_criteria=None, unreadable=(), inputs=None, ellipse=None,
                nominal_xy=None, uncertainty=None, **extra):
         """The :class:`lumeval.lots.run.LotRun` of everything added (``extra``: further
-        LotRun fields, e.g. ``skipped``, ``read_paths``)."""
+        LotRun fields, e.g. ``read_paths``). ``inputs``: the run's
+        :class:`lumeval.lots.inputs.LotInputs`; lumeval's own reports among the unreadable
+        entries are set aside as skipped (:func:`lumeval.lots.own_reports.set_aside`), the
+        other files counted."""
+        from .own_reports import set_aside
         from .run import LotRun, _concat_clause, _nominal_from_criteria, join_evaluations
         from .statistics import lot_statistics
+
+        files = 0
+        if inputs is not None:
+            unreadable, reports = set_aside(unreadable, inputs)
+            files = len(inputs.files) - len(reports)
+            extra["skipped"] = inputs.skipped + reports
 
         names = self.names
         figures = self._figs

@@ -77,6 +77,11 @@ def _overhead(table, n: int | None = None) -> int:
     return pad + (n - 1 if table.box is not None else 0) + (2 if table.show_edge and table.box is not None else 0)
 
 
+def natural_width(table) -> int:
+    """The width ``table`` takes with no cell wrapped; padding and separators added."""
+    return sum(hi for _, hi in _ranges(table)) + _overhead(table)
+
+
 def min_width(table) -> int:
     """The narrowest width ``table`` can be drawn at without cutting a no-wrap column (its
     widest cell) or narrowing a column below its longest word or its ``min_width``; padding and

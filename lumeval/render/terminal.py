@@ -16,6 +16,7 @@ import numpy as np
 
 from ..figures import KEY_FIGURES
 from . import safe
+from .fit import natural_width
 
 _PER_TABLE = 4
 _PER_HUE_TABLE = 2
@@ -144,13 +145,6 @@ def _compact_renderables(ev, width: int) -> list:
     return out
 
 
-def _full_width(table) -> int:
-    """The width ``table`` needs without wrapping any cell."""
-    from rich.console import Console
-
-    return Console(width=10_000, color_system=None).measure(table).maximum
-
-
 def inspect_renderables(ev, width: int | None = None):
     """The rich renderables of the inspect report, in order.
 
@@ -178,7 +172,7 @@ def inspect_renderables(ev, width: int | None = None):
                 t.add_row(Text(sec, style="bold cyan"), *[""] * len(idx))
                 section = sec
             t.add_row("  " + label, *cells)  # our labels and numbers: no data text
-        if width is not None and _full_width(t) > width:
+        if width is not None and natural_width(t) > width:
             compact = True
             break
         out.append(t)

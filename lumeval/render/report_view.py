@@ -261,23 +261,19 @@ def _uncertainty_text(verdicts) -> str | None:
             "p_c is the probability of conformance (JCGM 106:2012). See docs/uncertainty.md.")
 
 
-def _with_unread(vd: VerdictView, unreadable, rows) -> VerdictView:
-    """A lot with inputs that were not read is "not judged" (the command decides so): when
-    every check of what was read passed, its summary says why, not the generic "a criterion
-    could not be judged"."""
-    if not unreadable or not vd.judged or vd.overall != "not judged" or any(r.outcome != "pass" for r in rows):
-        return vd
-    import dataclasses
-
-    return dataclasses.replace(vd, summary="No criterion fails for the inputs that were read, but the lot is not "
-                                           "fully judged: some inputs could not be read (listed above).")
-
-
-def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str | None, grid_max: int) -> VerdictView:
+def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str | None, grid_max: int,
+                 unread: bool = False) -> VerdictView:
+    """``unread``: some of a lot's inputs could not be read (the command then decides "not
+    judged"); when every check of what was read passed, the summary says so instead of the
+    generic "a criterion could not be judged"."""
     if not rows:
         return VerdictView(judged=False)
     ident, crit_file = _verdict_meta(verdicts)
     overall = overall if overall in OUTCOME_TEXT else worst(r.outcome for r in rows)
+    summary = _SUMMARY_WORDS[overall]
+    if unread and overall == "not judged" and all(r.outcome == "pass" for r in rows):
+        summary = ("No criterion fails for the inputs that were read, but the lot is not fully judged: some "
+                   "inputs could not be read (listed above).")
     counts = {o: sum(r.outcome == o for r in rows) for o in OUTCOME_ORDER}
     per_sample: dict[str, list[str]] = {}
     for r in rows:
@@ -295,7 +291,7 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
     return VerdictView(
         judged=True, criteria_file=None if not crit_file else str(crit_file),
         identification=tuple((str(k), str(v)) for k, v in dict(ident or {}).items()),
-        overall=overall, summary=_SUMMARY_WORDS[overall],
+        overall=overall, summary=summary,
         counts=f"{len(rows)} check{'s' if len(rows) != 1 else ''}: "
                + ", ".join(f"{counts[o]} {OUTCOME_TEXT[o][1].lower()}" for o in OUTCOME_ORDER if counts[o]) + ".",
         lot_criteria=lot_table, samples_intro=intro, samples=table, samples_footnote=foot,
@@ -571,8 +567,8 @@ def build_report_view(
         title=title or ("Colour quality report: " + (names[0] if n == 1 else f"{n} spectra")),
         subtitle=(f"{n} spectr{'a' if n != 1 else 'um'}", f"generated {prov.generated_at}",
                   f"lumeval {dict(prov.versions).get('lumeval', '?')}"),
-        verdict=_with_unread(verdict_view(rows, verdicts, lot=lot, n=n, overall=overall, grid_max=grid_max),
-                             unreadable, rows),
+        verdict=verdict_view(rows, verdicts, lot=lot, n=n, overall=overall, grid_max=grid_max,
+                             unread=bool(unreadable)),
         aggregate_note=(f"The {n} spectra are drawn together (medians, ranges and distributions), as asked (more "
                         f"than {per_sample_max} spectra); every spectrum's figures are in the tables below and in "
                         "the JSON and CSV outputs.") if aggregate and lot is None else None,

@@ -32,12 +32,7 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
     ``# [name] key: value``... only shared keys are kept (CSV has one header block).
     """
     lines: list[str] = []
-    metas = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
-    shared = dict(metas[0]) if metas else {}
-    for m in metas[1:]:
-        for k in list(shared):
-            if m.get(k) != shared[k]:
-                del shared[k]
+    shared, _ = _csv_metadata(spectra)
     for k, v in shared.items():
         for vl in str(v).split("\n"):
             lines.append(f"# {_clean(k)}: {_clean(vl)}")
@@ -47,6 +42,18 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
     for j, wl in enumerate(spectra.wavelengths_nm):
         lines.append(",".join([repr(float(wl))] + [repr(float(v)) for v in vals[:, j]]))
     return ("\n".join(lines) + "\n").encode("utf-8", errors="replace")
+
+
+def _csv_metadata(spectra: SpectrumSet) -> tuple[dict, list[str]]:
+    """The metadata CSV's one header block holds (what every spectrum shares, keys describing
+    how a file was read left out) and the keys it cannot hold (they differ between spectra)."""
+    metas = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
+    shared = dict(metas[0]) if metas else {}
+    for m in metas[1:]:
+        for k in list(shared):
+            if m.get(k) != shared[k]:
+                del shared[k]
+    return shared, sorted({k for m in metas for k in m} - set(shared))
 
 
 def _clean(s: str) -> str:
@@ -101,16 +108,14 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
 
     if kind not in ("csv", "xml"):
         return []
-    metas = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
     dropped: list[str] = []
     name_as: Callable[[str], str] = _xml_text
     text_as: Callable[[str], str] = _xml_text
-    written = metas
+    written = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
     if kind == "csv":
         name_as, text_as = _csv_name, _clean
-        keys = sorted({k for m in metas for k in m})
-        dropped = [k for k in keys if any(m.get(k) != metas[0].get(k) for m in metas)]
-        written = [{k: v for k, v in metas[0].items() if k not in dropped}] if metas else []  # the one block
+        shared, dropped = _csv_metadata(spectra)
+        written = [shared]  # the one header block
     notes = []
     changed = [(n, name_as(n)) for n in spectra.names if name_as(n) != n]
     if changed:

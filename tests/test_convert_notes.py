@@ -74,3 +74,18 @@ def test_the_command_prints_the_notes_and_a_plain_conversion_none(tmp_path, arch
     write_archive(_set(["a", "b"], [{"line": "L1"}, {"line": "L1"}]), tmp_path / "plain.parquet")
     code, _, err = run_cli_in_process(["convert", str(tmp_path / "plain.parquet"), str(plain)], capsys)
     assert code == 0 and "note" not in err, err
+
+
+def test_a_multi_line_metadata_value_is_kept_in_csv_and_not_noted(tmp_path):
+    """CSV writes a value with line breaks as one `# key: line` per line and reads it back
+    joined, so it is kept; only the control character of the other value is noted (the first
+    version of the notes counted both)."""
+    src = tmp_path / "one.json"
+    from lumeval.spectra.write import serialise
+
+    src.write_bytes(serialise(_set(["lamp"], [{"k": "first\nsecond", "j": "x\x01y"}]), "json"))
+    notes: list[str] = []
+    convert(src, tmp_path / "one.csv", notes=notes)
+    back = read_spectra(tmp_path / "one.csv").metadata[0]
+    assert back["k"] == "first\nsecond" and back["j"] == "xy"
+    assert notes == ["1 metadata value(s) written without control characters"]

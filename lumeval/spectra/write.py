@@ -56,6 +56,12 @@ def _csv_metadata(spectra: SpectrumSet) -> tuple[dict, list[str]]:
     return shared, sorted({k for m in metas for k in m} - set(shared))
 
 
+def _csv_value(s: str) -> str:
+    """A metadata value as CSV's header lines hold it and a reader joins it back: each line of
+    it cleaned (:func:`_clean`), the lines kept (one ``# key: line`` each)."""
+    return "\n".join(_clean(line) for line in str(s).split("\n"))
+
+
 def _clean(s: str) -> str:
     """One line of text: line breaks become spaces, NUL and other C0 controls are dropped."""
     s = str(s).replace("\r\n", " ").replace("\r", " ").replace("\n", " ")
@@ -110,10 +116,11 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
         return []
     dropped: list[str] = []
     name_as: Callable[[str], str] = _xml_text
+    key_as: Callable[[str], str] = _xml_text
     text_as: Callable[[str], str] = _xml_text
     written = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
     if kind == "csv":
-        name_as, text_as = _csv_name, _clean
+        name_as, key_as, text_as = _csv_name, _clean, _csv_value
         shared, dropped = _csv_metadata(spectra)
         written = [shared]  # the one header block
     notes = []
@@ -122,10 +129,10 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
         old, new = changed[0]
         notes.append(f'{len(changed)} spectrum name(s) written as the format can hold them: "{clean(old)}" as '
                      f'"{clean(new)}"' + (" and others" if len(changed) > 1 else ""))
-    altered = sum(1 for m in written for k, v in m.items() if text_as(str(k)) != str(k) or text_as(str(v)) != str(v))
+    altered = sum(1 for m in written for k, v in m.items() if key_as(str(k)) != str(k) or text_as(str(v)) != str(v))
     if altered:
         notes.append(f"{altered} metadata value(s) written " + ("without the characters XML cannot hold (control "
-                     "characters)" if kind == "xml" else "on one line without control characters"))
+                     "characters)" if kind == "xml" else "without control characters"))
     if dropped:
         shown = ", ".join(f'"{clean(k)}"' for k in dropped[:5]) + (" …" if len(dropped) > 5 else "")
         notes.append(f"metadata that differs between the spectra is not kept in CSV (one header block): {shown} "

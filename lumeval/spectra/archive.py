@@ -44,6 +44,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError, UsageError
+from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
 
 #: File name endings of Parquet files (inside an archive folder too).
@@ -494,9 +495,6 @@ def wavelength_column_name(wl: float) -> str:
     return str(int(w)) if w.is_integer() else repr(w)
 
 
-#: metadata keys describing how a file was read; not written as archive columns
-_DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format",
-            "lumeval.tm27_version", "lumeval.tm27_namespace")
 
 
 def archive_table(spectra: SpectrumSet):

@@ -6,6 +6,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+#: Metadata keys lumeval derives while reading a file (how it was read), never written back as
+#: file metadata by the CSV, TM-27 XML and Parquet writers.
+DERIVED_KEYS = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format",
+                "lumeval.tm27_version", "lumeval.tm27_namespace")
 
 @dataclass(frozen=True)
 class SpectrumSet:

@@ -31,6 +31,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
 
 NAMESPACE = "http://www.ies.org/iestm2714"
@@ -395,9 +396,6 @@ _KEY_ALIASES = {
     "bandwidthcorrected": "BandwidthCorrected",
 }
 
-#: keys lumeval derives while reading; not written back as file metadata
-_DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format",
-            "lumeval.tm27_version", "lumeval.tm27_namespace")
 
 
 _XML_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")

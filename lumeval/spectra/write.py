@@ -13,6 +13,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 from ..errors import UsageError
+from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
 
 CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
@@ -20,8 +21,6 @@ XML_SUFFIXES = {".xml", ".spdx"}
 JSON_SUFFIXES = {".json"}
 PARQUET_SUFFIXES = {".parquet", ".parq", ".pq"}
 
-#: metadata keys describing how a file was read; not written back as file metadata
-_DERIVED = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format", "lumeval.tm27_version", "lumeval.tm27_namespace")
 
 
 def to_csv_bytes(spectra: SpectrumSet) -> bytes:

@@ -64,6 +64,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..metrics.colorimetry import upvp_from_xy, xy_from_upvp
+from .quantiles import median, percentiles_linear
 
 #: Default figures screened for outliers (lumeval figure names).
 OUTLIER_FIGURES: tuple[str, ...] = ("u_prime", "v_prime", "cct_K", "duv", "Ra", "R9", "Rf", "Rg", "ler_lm_per_W")
@@ -242,7 +243,10 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
             dev = x - mean
             d["std"][j] = np.sqrt(np.sum(dev * dev) / (c - ddof))  # numpy's pairwise sum: no BLAS threads
         d["min"][j], d["max"][j] = x.min(), x.max()
-        d["median"][j], d["p05"][j], d["p95"][j] = np.percentile(x, [50.0, 5.0, 95.0], method=percentile_method)  # type: ignore[call-overload]
+        if percentile_method == "linear":  # the same values as numpy's, by sampled selection
+            d["median"][j], d["p05"][j], d["p95"][j] = percentiles_linear(x, [50.0, 5.0, 95.0])
+        else:
+            d["median"][j], d["p05"][j], d["p95"][j] = np.percentile(x, [50.0, 5.0, 95.0], method=percentile_method)  # type: ignore[call-overload]
     return {"count": count, "undefined": a.shape[0] - count, **d}
 
 
@@ -464,9 +468,9 @@ def robust_z(values) -> np.ndarray:
     if not ok.any():
         return out
     xs = x[ok]
-    med = float(np.median(xs))
+    med = median(xs)  # np.median's values (lumeval.lots.quantiles), found by sampled selection
     dev = xs - med
-    mad = float(np.median(np.abs(dev)))
+    mad = median(np.abs(dev))
     if mad > 0:
         out[ok] = _MAD_K * dev / mad
     else:
@@ -526,7 +530,7 @@ def screen_outliers(
             continue
         z = robust_z(x)
         zs[name] = z
-        med = float(np.nanmedian(x))
+        med = median(x[np.isfinite(x)])
         hit = np.abs(np.nan_to_num(z, nan=0.0)) > threshold
         label = registry.label(name)
         for i in np.flatnonzero(hit):

@@ -310,23 +310,12 @@ def _quoted(s: str) -> str:
 
 def _number_cells(block: np.ndarray) -> list[str]:
     """Each row of a float block as its cells joined by commas: the shortest repr of every
-    finite value (the value read back bit for bit), an empty cell for a missing one. Formatted
-    column by column from Python floats (``repr`` per value, no Python function per cell), then
-    joined row by row."""
-    rows, ncols = block.shape
-    if ncols == 0:
-        return [""] * rows
-    finite = np.isfinite(block)
-    cols: list[list[str]] = []
-    for c, ok in enumerate(finite.all(axis=0).tolist()):
-        vals = block[:, c].tolist()
-        if ok:
-            cols.append(list(map(repr, vals)))
-        elif not finite[:, c].any():
-            cols.append([""] * rows)
-        else:
-            cols.append([repr(v) if math.isfinite(v) else "" for v in vals])
-    return list(map(",".join, zip(*cols)))
+    finite value (the value read back bit for bit), an empty cell for a missing one
+    (:func:`lumeval.render.number_text.number_rows`: Arrow's text for large blocks where it is
+    ``repr``'s, ``repr`` elsewhere)."""
+    from .number_text import number_rows
+
+    return number_rows(block)
 
 
 #: Rows of figures read at a time while writing the per-sample CSV.

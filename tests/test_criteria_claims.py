@@ -84,3 +84,70 @@ def test_not_checkable_claims_never_fail():
     assert [r.outcome[0] for r in chk.results] == [NOT_CHECKABLE, NOT_CHECKABLE, SUPPORTED]
     assert chk.exit_code == 0 and chk.verdict(0) == SUPPORTED
     assert "flux" in chk.results[0].reason[0]
+
+
+# --------------------------------------------------------------------------- datasheet wordings
+# Ranges and the words datasheets put before values (reading rules: common practice, no source).
+
+
+@pytest.mark.parametrize("text", ["2700-3000 K", "2700 - 3000 K", "2700 K – 3000 K", "2700—3000", "2700 to 3000 K",
+                                  "2700...3000 K", "2700…3000"])
+def test_a_range_is_read_with_half_a_unit_beyond_each_bound(text):
+    c = claims(f'[claims]\ncct_K = "{text}"\n')
+    cl = c.claims[0]
+    assert (cl.stated_lower, cl.stated_upper) == (2700.0, 3000.0)
+    assert (cl.lower, cl.upper) == (2699.5, 3000.5)
+    r = c.check(Ev(cct_K=[2699.6, 2699.4, 3000.4, 3000.6, 2850.0])).results[0]
+    assert r.outcome == (SUPPORTED, CONTRADICTED, SUPPORTED, CONTRADICTED, SUPPORTED)
+    np.testing.assert_allclose(r.excess[[1, 3]], [2699.4 - 2700.0, 3000.6 - 3000.0], rtol=0, atol=1e-9)
+
+
+def test_a_range_keeps_each_bounds_precision_and_signs():
+    c = claims('[claims]\nRf = "90 to 95.5"\nduv = "-0.003-0.0030"\n')
+    rf, duv = c.claims
+    assert (rf.lower, rf.upper) == pytest.approx((89.5, 95.55))
+    assert (duv.stated_lower, duv.stated_upper) == (-0.003, 0.003)
+    assert (duv.lower, duv.upper) == pytest.approx((-0.0035, 0.00305))
+    assert "0.5 below, 0.05 above" in rf.tolerance_note
+
+
+def test_a_range_uses_the_tolerances_table():
+    c = claims('[claims]\nRa = "80-90"\n[tolerances]\nRa = 2\n')
+    assert (c.claims[0].lower, c.claims[0].upper) == (78.0, 92.0)
+
+
+@pytest.mark.parametrize(("text", "lower", "upper"), [
+    ("min. 90", 89.5, None), ("Min 90", 89.5, None), ("minimum 90", 89.5, None), ("at least 90", 89.5, None),
+    ("max. 95", None, 95.5), ("maximum 95", None, 95.5), ("at most 95", None, 95.5), ("up to 95", None, 95.5),
+    ("~90", 89.5, 90.5), ("≈ 90", 89.5, 90.5), ("approx. 90", 89.5, 90.5), ("about 90", 89.5, 90.5),
+    ("ca. 90", 89.5, 90.5),
+])
+def test_words_before_a_value_stand_for_a_comparison(text, lower, upper):
+    cl = claims(f'[claims]\nRa = "{text}"\n').claims[0]
+    assert (cl.lower, cl.upper) == (pytest.approx(lower) if lower else None, pytest.approx(upper) if upper else None)
+
+
+def test_duv_tolerance_alone_is_read_around_the_locus():
+    cl = claims('[claims]\nduv = "±0.003"\n').claims[0]
+    assert (cl.lower, cl.upper) == (-0.003, 0.003)
+    chk = claims('[claims]\nduv = "± 0.003"\n').check(Ev(duv=[0.0029, -0.0031]))
+    assert chk.results[0].outcome == (SUPPORTED, CONTRADICTED)
+
+
+@pytest.mark.parametrize(("text", "words"), [
+    ("3000-2700 K", ["runs from 3000 down to 2700", "lower bound first"]),
+    ("2700 K - 3000 nm", ["unit"]),
+    ("2700-3000 %", ["unit '%' does not fit"]),
+    ("±100", ["cannot read the claim"]),          # a tolerance alone is read for Duv only
+    ("min. about 90", ["cannot read the claim"]),
+    ("90-95-100", ["cannot read the claim"]),
+])
+def test_unreadable_wordings_are_refused_with_the_line(text, words):
+    from lumeval.errors import CriteriaError
+
+    with pytest.raises(CriteriaError) as e:
+        claims(f'[claims]\ncct_K = "{text}"\n')
+    msg = str(e.value)
+    assert msg.startswith("claims.toml:2 "), msg
+    for w in words:
+        assert w in msg, msg

@@ -387,3 +387,19 @@ def test_claims_file_level_errors(tmp_path, capsys, spectra_dir, text, words):
         assert w in err
     code, _, err = run(["claims", spectra_dir / "planck3000.csv", "--claims", tmp_path / "missing.toml"], capsys)
     assert code == 2 and "no such file" in err
+
+
+def test_datasheet_wordings_through_the_cli(tmp_path, capsys, spectra_dir):
+    """Ranges and words as datasheets write them; F12's CCT ≈ 3000 K (CIE 15:2004 Table T.8.1)."""
+    p = write(tmp_path, '[claims]\ncct_K = "2700 K – 3200 K"\nRa = "min. 90"\nduv = "±0.006"\nRf = "88 to 95"\n',
+              "claims.toml")
+    code, out, err = run(["claims", spectra_dir / "f12.csv", "--claims", p, "--format", "json"], capsys)
+    assert code == 1, err
+    cl = {c["key"]: c for c in json.loads(out)["spectra"][0]["claims"]}
+    assert cl["cct_K"]["outcome"] == "supported"
+    assert cl["Ra"]["outcome"] == "contradicted"
+    assert cl["Ra"]["excess"] == pytest.approx(cl["Ra"]["measured"] - 90)
+    code, out, _ = run(["claims", spectra_dir / "f12.csv", "--claims", p], capsys)
+    # the accepted bounds printed as they are, not at the figure's precision ("≥ 90", "88 … 96")
+    for needle in ("2699.5 … 3200.5 K", "≥ 89.5", "87.5 … 95.5", "-0.0060 … 0.0060", "min. 90", "88 to 95"):
+        assert needle in out, needle

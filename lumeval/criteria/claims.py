@@ -15,6 +15,13 @@ table overrides the tolerance per figure, in the figure's own units):
   anything that rounds to 90; "0.85" for anything that rounds to 0.85).
 * ``"v ± d"`` (explicit tolerance, also ``"3000K ± 100K"`` or ``"v +/- d"``): supported when
   |measured − v| ≤ d (no further tolerance).
+* ``"lo-hi"`` / ``"lo to hi"`` / ``"lo … hi"`` (a range, e.g. "2700-3000 K", "2700 K – 6500 K",
+  "90 to 95"): supported when lo − t ≤ measured ≤ hi + t, each t half a unit of the last digit
+  written of its bound.
+* Words before a value: "min. 90" / "minimum 90" / "at least 90" read as ">= 90"; "max. 0.003" /
+  "maximum" / "at most" / "up to" as "<="; "~90" / "≈ 90" / "approx. 90" / "about 90" / "ca. 90"
+  as the plain value 90. For Duv, "± 0.003" alone reads as "0 ± 0.003" (within 0.003 of the
+  Planckian locus).
 * a plain value ``v`` (a nominal claim, e.g. "CCT 3000 K"):
   - ``cct_K``: when v is a nominal category of ANSI C78.377-2017 Table 1, supported when the
     measured CCT lies within that category's target ± tolerance (e.g. 3000 → 2870-3220 K);
@@ -73,6 +80,32 @@ _CLAIM_RE = re.compile(
         (?P<plus>\+)?\s*$""",
     re.VERBOSE,
 )
+
+
+_NUM = r"[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?"
+_UNIT = r"K|%|lm/W|nm"
+#: A range as datasheets write it: "2700-3000 K", "2700 K – 6500 K", "90 to 95", "0.80...0.90".
+_RANGE_RE = re.compile(
+    rf"""^\s*(?P<lo>{_NUM})\s*(?P<unit1>{_UNIT})?\s*
+        (?:-|–|—|\bto\b|\.\.\.?|…)\s*
+        (?P<hi>{_NUM})\s*(?P<unit2>{_UNIT})?\s*$""",
+    re.VERBOSE,
+)
+#: Words datasheets put before a value, and the comparison each stands for ("" = a nominal value).
+_WORDS = (
+    (re.compile(r"^\s*(?:min\.?|minimum|at\s+least)\s*(?=[-+\d])", re.IGNORECASE), ">= "),
+    (re.compile(r"^\s*(?:max\.?|maximum|at\s+most|up\s+to)\s*(?=[-+\d])", re.IGNORECASE), "<= "),
+    (re.compile(r"^\s*(?:approx\.?|approximately|about|ca\.?|~|≈)\s*(?=[-+\d])", re.IGNORECASE), ""),
+)
+
+
+def _with_words_read(text: str) -> str:
+    """``text`` with a leading word replaced by the comparison it stands for: "min. 90" ->
+    ">= 90", "max 0.003" -> "<= 0.003", "~90" / "approx. 90" -> "90" (a nominal value)."""
+    for pattern, op in _WORDS:
+        if pattern.match(text):
+            return pattern.sub(op, text, count=1)
+    return text
 
 
 def _half_unit(text: str) -> float:
@@ -241,15 +274,22 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             claims.append(Claim(key, "", text, None, None, None, None, "", line, NOT_CHECKABLE_KEYS[key]))
             continue
         assert fig is not None  # an unknown key was refused above
+        m = None
         if is_number(value):
             text = repr(value) if isinstance(value, float) else str(value)
             m = _CLAIM_RE.match(text)
         elif isinstance(value, str):
-            m = _CLAIM_RE.match(value)
-        else:
-            m = None
+            read = _with_words_read(value)
+            if fig == "duv" and re.fullmatch(r"\s*(?:±|\+/-|\+-)\s*\d.*", read):
+                read = "0 " + read.strip()  # "Duv ±0.003": within 0.003 of the Planckian locus
+            m = _CLAIM_RE.match(read)
+            r = _RANGE_RE.match(read) if m is None else None
+            if r is not None:
+                claims.append(_range_claim(key, fig, text, r, tolerances.get(fig), line, err))
+                continue
         if m is None:
-            raise err(("claims",), key, f"cannot read the claim {value!r}", 'write e.g. ">= 90", "<= 0.003", "3000 K", "100 ± 3" or a plain number')
+            raise err(("claims",), key, f"cannot read the claim {value!r}",
+                      'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number')
         units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
         if m.group("plus") and (m.group("op") or m.group("tol") is not None):
             raise err(("claims",), key, f"cannot read the claim {value!r}", 'write a minimum as "90+" or ">= 90", not both')
@@ -290,6 +330,31 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                 lo, hi, note = v - t, v + t, f"read at the precision written: ± {fmt_number(t)}"
             claims.append(Claim(key, fig, text, lo, hi, lo, hi, note, line))
     return Claims(tuple(claims), supplier, file)
+
+
+def _range_claim(key: str, fig: str, text: str, m: re.Match, t_override: float | None, line, err) -> Claim:
+    """A range claim ("2700-3000 K", "90 to 95"): supported when lower − t ≤ measured ≤ upper + t,
+    each t half a unit of the last digit written of its bound, or the [tolerances] entry."""
+    units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
+    if len(units) > 1 or (units and units != {figure_unit(fig)}):
+        unit = "|".join(sorted(units))
+        raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(fig) or 'none'!r})",
+                  f"write {key} in {figure_unit(fig) or 'plain numbers'}")
+    lo, hi = float(m.group("lo")), float(m.group("hi"))
+    if not (np.isfinite(lo) and np.isfinite(hi)):
+        raise err(("claims",), key, f"the claim {text!r} holds a number too large to represent",
+                  'write the range as the datasheet states it, e.g. "2700-3000 K"')
+    if lo > hi:
+        raise err(("claims",), key, f"the range {text!r} runs from {fmt_number(lo)} down to {fmt_number(hi)}",
+                  f'write the lower bound first: "{m.group("hi")} to {m.group("lo")}"')
+    if t_override is not None:
+        t_lo = t_hi = t_override
+        note = f"range, tolerance from [tolerances]: {fmt_number(t_override)}"
+    else:
+        t_lo, t_hi = _half_unit(m.group("lo")), _half_unit(m.group("hi"))
+        both = fmt_number(t_lo) if t_lo == t_hi else f"{fmt_number(t_lo)} below, {fmt_number(t_hi)} above"
+        note = f"range read at the precision written (half a unit of the last digit): {both}"
+    return Claim(key, fig, text, lo, hi, lo - t_lo, hi + t_hi, note, line)
 
 
 def load_claims(path) -> Claims:

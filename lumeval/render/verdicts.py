@@ -17,6 +17,7 @@ import csv
 import io
 import json
 import math
+import re
 from typing import Any, overload
 
 import numpy as np
@@ -668,10 +669,24 @@ def claims_renderables(check) -> list:
 
 def _accepted(c, unit: str, spec: str) -> str:
     if c.lower is not None and c.upper is not None:
-        return f"{_f(c.lower, spec)} … {_f(c.upper, spec, unit)}"
+        return f"{_f(c.lower, _bound_spec(c.lower, spec))} … {_f(c.upper, _bound_spec(c.upper, spec), unit)}"
     if c.lower is not None:
-        return f"≥ {_f(c.lower, spec, unit)}"
-    return f"≤ {_f(c.upper, spec, unit)}"
+        return f"≥ {_f(c.lower, _bound_spec(c.lower, spec), unit)}"
+    return f"≤ {_f(c.upper, _bound_spec(c.upper, spec), unit)}"
+
+
+def _bound_spec(v: float, spec: str) -> str:
+    """``spec`` with as many more decimals (up to three) as the accepted bound ``v`` needs to
+    print as it is: a claim "90 to 95" is accepted from 89.5 to 95.5, which the figure's own
+    precision would print as "90 … 96"."""
+    m = re.fullmatch(r"(\+?)\.(\d+)f", spec)
+    if m is None or not math.isfinite(v):
+        return spec
+    d = int(m.group(2))
+    for extra in range(4):
+        if abs(float(format(v, f".{d + extra}f")) - v) <= 1e-9 * max(1.0, abs(v)):
+            return f"{m.group(1)}.{d + extra}f"
+    return f"{m.group(1)}.{d + 3}f"
 
 
 def print_claims(check, console=None) -> None:

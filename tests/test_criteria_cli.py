@@ -389,7 +389,7 @@ def test_claims_file_level_errors(tmp_path, capsys, spectra_dir, text, words):
     assert code == 2 and "no such file" in err
 
 
-def test_datasheet_wordings_through_the_cli(tmp_path, capsys, spectra_dir):
+def test_datasheet_wordings_through_the_cli(tmp_path, capsys, spectra_dir, monkeypatch):
     """Ranges and words as datasheets write them; F12's CCT ≈ 3000 K (CIE 15:2004 Table T.8.1)."""
     p = write(tmp_path, '[claims]\ncct_K = "2700 K – 3200 K"\nRa = "min. 90"\nduv = "±0.006"\nRf = "88 to 95"\n',
               "claims.toml")
@@ -399,6 +399,7 @@ def test_datasheet_wordings_through_the_cli(tmp_path, capsys, spectra_dir):
     assert cl["cct_K"]["outcome"] == "supported"
     assert cl["Ra"]["outcome"] == "contradicted"
     assert cl["Ra"]["excess"] == pytest.approx(cl["Ra"]["measured"] - 90)
+    monkeypatch.setenv("COLUMNS", "160")  # wide enough that no cell wraps
     code, out, _ = run(["claims", spectra_dir / "f12.csv", "--claims", p], capsys)
     # the accepted bounds printed as they are, not at the figure's precision ("≥ 90", "88 … 96")
     for needle in ("2699.5 … 3200.5 K", "≥ 89.5", "87.5 … 95.5", "-0.0060 … 0.0060", "min. 90", "88 to 95"):

@@ -180,3 +180,35 @@ def test_check_shows_clause_notes_plurals_and_sources_once(tmp_path):
     one.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 80\n', encoding="utf-8")
     r1 = run_cli("check", spd, "-c", one)
     assert "all 1 requirements" not in r1.stdout and "the requirement is met" in r1.stdout
+
+
+def test_claims_html_speaks_of_claims_and_signs_margins_as_the_page_says(tmp_path, colour):
+    """The claims HTML report: verdicts as claims supported / contradicted (the terminal's and
+    JSON's words), and a contradicted maximum claim's margin negative, as the page's legend
+    ("+ inside the limits, − outside") says. FL4: Ra 51 (CIE 15:2004 Table T.8.1, secondary,
+    shared/reference-values.md): "Ra <= 40" is exceeded by about 11, "Ra >= 60" missed by about 9."""
+    import html as html_mod
+    import json
+
+    import pytest
+
+    from .conftest import cie_illuminant
+
+    wl, s = cie_illuminant(colour, "FL4")
+    spd = tmp_path / "FL4.csv"
+    spd.write_text("wavelength_nm,value\n" + "".join(f"{w:g},{v!r}\n" for w, v in zip(wl, s)), encoding="utf-8")
+    for claim, bound in (('"<= 40"', 40.0), ('">= 60"', 60.0)):
+        claims = tmp_path / "claims.toml"
+        claims.write_text(f"lumeval_claims = 1\n[claims]\nRa = {claim}\nlifetime_h = 50000\n", encoding="utf-8")
+        out = tmp_path / "c.html"
+        r = run_cli("claims", spd, "--claims", claims, "-f", "json", "--html", out)
+        assert r.returncode == 1, r.stderr
+        ra = float(json.loads(r.stdout)["spectra"][0]["claims"][0]["measured"])
+        text = re.sub(r"\s+", " ", html_mod.unescape(re.sub(r"<[^>]+>", " ", out.read_text(encoding="utf-8"))))
+        assert "CONTRADICTED" in text and "NOT CHECKABLE" in text and "the datasheet over-claims" in text
+        assert "FAIL" not in text and "criterion is not met" not in text
+        m = re.search(r"CONTRADICTED [0-9.]+ margin ([-+−]?[0-9.]+)", text)
+        assert m is not None, text[:2000]
+        margin = float(m.group(1).replace("−", "-"))
+        assert margin < 0
+        assert abs(margin) == pytest.approx(abs(ra - bound), abs=0.6)  # shown at the figure's precision

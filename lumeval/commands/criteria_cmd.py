@@ -238,7 +238,12 @@ _CLAIM_OUTCOME = {"supported": "pass", "contradicted": "fail", "not checkable": 
 
 def claims_verdict_rows(result) -> list[dict]:
     """The claims judged, as verdict rows for the HTML report (supported: pass; contradicted:
-    fail, the margin being by how much; not checkable: not judged, with the reason)."""
+    fail, the margin being by how much, negative as every margin outside its limit is; not
+    checkable: not judged, with the reason).
+
+    (The report's margins are + inside the limits, − outside; a claim's excess is measured −
+    stated bound, positive for a maximum exceeded, which the report showed as "+5" for Ra 85
+    against "<= 80".)"""
     rows = []
     for r in result.results:
         c = r.claim
@@ -248,7 +253,7 @@ def claims_verdict_rows(result) -> list[dict]:
                 "sample": name, "clause": f"{c.key} = {c.text}", "figure": c.figure or c.key,
                 "measured": float(r.measured[i]), "unit": r.unit, "limit": c.tolerance_note or c.text,
                 "lower": c.lower, "upper": c.upper,
-                "margin": ex if r.outcome[i] == "contradicted" else None,
+                "margin": -abs(ex) if r.outcome[i] == "contradicted" else None,
                 "outcome": _CLAIM_OUTCOME.get(r.outcome[i], "not judged"), "reason": r.reason[i],
             })
     return rows
@@ -310,11 +315,12 @@ def register(app: typer.Typer) -> None:
 
         if html is not None:
             from ..render.html import write_html_report
+            from ..render.report_inputs import CLAIMS_WORDING
 
             write_html_report(html, ev, verdicts=claims_verdict_rows(result), inputs=[*files, claims],
                               title="Datasheet claims against the supplier's spectra",
                               command=command_line(),
-                              overall="fail" if result.exit_code else None)
+                              overall="fail" if result.exit_code else None, wording=CLAIMS_WORDING)
             announce("HTML report", html)
 
         if output_format is OutputFormat.json:

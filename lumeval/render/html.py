@@ -70,7 +70,15 @@ from .report_figures import (
     ReportFigure,
     report_figures,
 )
-from .report_inputs import OUTCOME_TEXT, VerdictRow, _regions, regions_from_criteria, verdict_rows
+from .report_inputs import (
+    CRITERIA_WORDING,
+    OUTCOME_TEXT,
+    VerdictRow,
+    Wording,
+    _regions,
+    regions_from_criteria,
+    verdict_rows,
+)
 from .report_view import (
     CHECK_GRID_MAX,
     KEY_FIGURE_TABLES,
@@ -210,6 +218,7 @@ def write_html_report(
     unreadable: Sequence[tuple[str, str]] = (),
     skipped: Sequence[tuple[str, str]] = (),
     progress=None,
+    wording: Wording = CRITERIA_WORDING,
 ) -> Path:
     """Write the self-contained HTML report to ``path`` atomically; returns the path.
 
@@ -223,7 +232,7 @@ def write_html_report(
     text = render_html_report(evaluation, verdicts=verdicts, limits=limits, regions=regions, lot=lot, inputs=inputs,
                               title=title, command=command, generated_at=generated_at, per_sample_max=per_sample_max,
                               figures=figures, overall=overall, unreadable=unreadable, skipped=skipped,
-                              progress=progress)
+                              progress=progress, wording=wording)
     write_bytes(p, text.encode("utf-8"), option="--html")
     return p
 
@@ -296,6 +305,7 @@ def render_html_report(
     unreadable: Sequence[tuple[str, str]] = (),
     skipped: Sequence[tuple[str, str]] = (),
     progress=None,
+    wording: Wording = CRITERIA_WORDING,
 ) -> str:
     """The report as one HTML document (a string).
 
@@ -328,6 +338,9 @@ def render_html_report(
         A lot's inputs that could not be read (listed first, under the verdict: such a lot is
         not fully judged and cannot pass) and those left out on purpose (listed with the
         provenance).
+    wording : Wording
+        The verdict's words: :data:`CRITERIA_WORDING` (met / not met) or
+        :data:`lumeval.render.report_inputs.CLAIMS_WORDING` (claims supported / contradicted).
     """
     ev = evaluation
     figs = list(figures) if figures is not None else report_figures(
@@ -337,8 +350,8 @@ def render_html_report(
     (inline,) = counting(progress, WRITING, inline_svg)  # progress: one per figure drawn into the page
     view = build_report_view(ev, figs, verdicts=verdicts, lot=lot, inputs=inputs, title=title, command=command,
                              generated_at=generated_at, per_sample_max=per_sample_max, overall=overall,
-                             unreadable=unreadable, skipped=skipped, inline=inline)
-    return render_template("report.html.j2", v=view)
+                             unreadable=unreadable, skipped=skipped, inline=inline, wording=wording)
+    return render_template("report.html.j2", v=view, OUTCOMES=wording.outcome_text)
 
 
 def evaluation_html(evaluation) -> str:

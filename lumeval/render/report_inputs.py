@@ -29,6 +29,43 @@ OUTCOME_TEXT = {
 _OUTCOME_TEXT = OUTCOME_TEXT
 
 
+@dataclass(frozen=True)
+class Wording:
+    """The words a report gives its verdicts: criteria are met or not; a datasheet's claims are
+    supported or contradicted by the supplier's own spectrum (``lumeval claims --html``)."""
+
+    #: outcome -> (symbol, word) of the badges
+    outcome_text: Mapping[str, tuple[str, str]]
+    #: overall outcome -> the verdict's sentence
+    summary: Mapping[str, str]
+    #: the heading of the column naming what was checked
+    noun: str
+
+
+CRITERIA_WORDING = Wording(OUTCOME_TEXT, {
+    "pass": "Every criterion is met.",
+    "fail": "At least one criterion is not met.",
+    "indeterminate": "No criterion fails, but at least one cannot be decided.",
+    "not judged": "No criterion fails, but at least one could not be judged.",
+    "not valid": "At least one criterion rests on a figure outside its validity range "
+                 "(CRI/TM-30 with |Duv| > 0.05): not a pass.",
+}, "Criterion")
+CLAIMS_WORDING = Wording({
+    "pass": ("✓", "SUPPORTED"),
+    "fail": ("✗", "CONTRADICTED"),
+    "not valid": ("✗", "NOT VALID"),
+    "indeterminate": ("?", "INDETERMINATE"),
+    "not judged": ("–", "NOT CHECKABLE"),
+}, {
+    "pass": "No claim is contradicted by the supplier's own spectrum.",
+    "fail": "At least one claim is contradicted by the supplier's own spectrum: the datasheet over-claims.",
+    "indeterminate": "No claim is contradicted, but at least one cannot be decided.",
+    "not judged": "No claim is contradicted, but at least one could not be checked from the spectrum.",
+    "not valid": "At least one claim rests on a figure outside its validity range "
+                 "(CRI/TM-30 with |Duv| > 0.05).",
+}, "Claim")
+
+
 def worst(outcomes) -> str:
     """The worst of ``outcomes`` (``"pass"`` for none)."""
     w = "pass"

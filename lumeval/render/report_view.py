@@ -19,9 +19,11 @@ from typing import Any
 import numpy as np
 
 from .report_inputs import (
+    CRITERIA_WORDING,
     OUTCOME_ORDER,
     OUTCOME_TEXT,
     VerdictRow,
+    Wording,
     _get,
     _is_check_result,
     _verdict_meta,
@@ -54,14 +56,6 @@ KEY_FIGURE_TABLES: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("Photometry", ("photometry",)),
 )
 
-_SUMMARY_WORDS = {
-    "pass": "Every criterion is met.",
-    "fail": "At least one criterion is not met.",
-    "indeterminate": "No criterion fails, but at least one cannot be decided.",
-    "not judged": "No criterion fails, but at least one could not be judged.",
-    "not valid": "At least one criterion rests on a figure outside its validity range "
-                 "(CRI/TM-30 with |Duv| > 0.05): not a pass.",
-}
 
 
 @dataclass(frozen=True)
@@ -181,7 +175,7 @@ def _verdict_cell(r: VerdictRow) -> Cell:
     return Cell("", outcome=r.outcome, notes=(r.reason,) if r.reason else ())
 
 
-def sample_checks_table(rows: list[VerdictRow]) -> Table | None:
+def sample_checks_table(rows: list[VerdictRow], noun: str = "Criterion") -> Table | None:
     """One spectrum's checks (its section in a report with too many spectra for the grid)."""
     if not rows:
         return None
@@ -190,11 +184,11 @@ def sample_checks_table(rows: list[VerdictRow]) -> Table | None:
         c = check_line(r)
         body.append(Row(cells(r.clause, c.measured, r.limit, c.margin_with_uncertainty) + (_verdict_cell(r),),
                         r.outcome == "fail"))
-    return Table(("Criterion", "Measured", "Limit", "Margin (+ inside)", "Verdict"), tuple(body),
+    return Table((noun, "Measured", "Limit", "Margin (+ inside)", "Verdict"), tuple(body),
                  (False, True, False, True, False))
 
 
-def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX) -> ChecksView:
+def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: str = "Criterion") -> ChecksView:
     """A criterion × sample grid for a few samples, else a list of the checks that did not pass
     (the passes are counted, not listed)."""
     samples = list(dict.fromkeys(r.sample or "lot" for r in rows))
@@ -207,7 +201,7 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX) -> Check
             body.append(Row(cells(*key) + tuple(Cell() if r is None else _check_cell(r) for r in found)))
         return ChecksView("Checks", ("Each cell: verdict, measured value, margin to the nearest limit "
                                      "(+ inside the limits, − outside).",),
-                          Table(("Criterion", "Limit", *samples), tuple(body), css="grid"))
+                          Table((noun, "Limit", *samples), tuple(body), css="grid"))
     not_passed = [r for r in rows if r.outcome != "pass"]
     shown = sorted(not_passed, key=lambda r: r.outcome != "fail")[:MAX_TABLE_ROWS]
     title = f"Checks that did not pass ({len(not_passed)} of {len(rows)})"
@@ -221,18 +215,19 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX) -> Check
         body.append(Row(cells(r.sample or "lot", r.clause, c.measured, r.limit, c.margin_with_uncertainty)
                         + (_verdict_cell(r),),
                         r.outcome == "fail"))
-    return ChecksView(title, notes, Table(("Sample", "Criterion", "Measured", "Limit", "Margin (+ inside)", "Verdict"),
+    return ChecksView(title, notes, Table(("Sample", noun, "Measured", "Limit", "Margin (+ inside)", "Verdict"),
                                           tuple(body), (False, False, True, False, True, False)))
 
 
-def _not_passed_text(outcomes) -> str:
+def _not_passed_text(outcomes, wording: Wording = CRITERIA_WORDING) -> str:
     """"2 failed, 1 indeterminate" (or "none") for one sample's check outcomes."""
-    bits = [f"{sum(o == k for o in outcomes)} {OUTCOME_TEXT[k][1].lower()}"
+    bits = [f"{sum(o == k for o in outcomes)} {wording.outcome_text[k][1].lower()}"
             for k in ("fail", "not valid", "indeterminate", "not judged") if k in outcomes]
     return ", ".join(bits) or "none"
 
 
-def _samples_table(per_sample: dict[str, list[str]], lot, n: int) -> tuple[str | None, Table, str | None]:
+def _samples_table(per_sample: dict[str, list[str]], lot, n: int,
+                   wording: Wording = CRITERIA_WORDING) -> tuple[str | None, Table, str | None]:
     items = list(per_sample.items())  # input order: the numbering of every table and figure
     intro = None
     if lot is not None:  # a lot: list the samples that did not pass; the rest are counted
@@ -244,7 +239,7 @@ def _samples_table(per_sample: dict[str, list[str]], lot, n: int) -> tuple[str |
         keep = sorted(range(len(items)), key=lambda j: "fail" not in items[j][1])[:MAX_TABLE_ROWS]
         shown = [items[j] for j in sorted(keep)]
     table = Table(("Sample", "Verdict", "Checks not passed"),
-                  tuple(Row((Cell(s), Cell("", outcome=worst(o)), Cell(_not_passed_text(o))), "fail" in o)
+                  tuple(Row((Cell(s), Cell("", outcome=worst(o)), Cell(_not_passed_text(o, wording))), "fail" in o)
                         for s, o in shown))
     foot = (f"{len(shown)} of {len(items)} samples listed (failed first, in input order); every sample's verdict "
             "is in the JSON and CSV outputs.") if len(items) > len(shown) else None
@@ -262,15 +257,15 @@ def _uncertainty_text(verdicts) -> str | None:
 
 
 def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str | None, grid_max: int,
-                 unread: bool = False) -> VerdictView:
+                 unread: bool = False, wording: Wording = CRITERIA_WORDING) -> VerdictView:
     """``unread``: some of a lot's inputs could not be read (the command then decides "not
     judged"); when every check of what was read passed, the summary says so instead of the
-    generic "a criterion could not be judged"."""
+    generic "a criterion could not be judged". ``wording``: the words of criteria or of claims."""
     if not rows:
         return VerdictView(judged=False)
     ident, crit_file = _verdict_meta(verdicts)
     overall = overall if overall in OUTCOME_TEXT else worst(r.outcome for r in rows)
-    summary = _SUMMARY_WORDS[overall]
+    summary = wording.summary[overall]
     if unread and overall == "not judged" and all(r.outcome == "pass" for r in rows):
         summary = ("No criterion fails for the inputs that were read, but the lot is not fully judged: some "
                    "inputs could not be read (listed above).")
@@ -287,15 +282,15 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
             for r in lot_rows), (False, True, False, True, False))
     intro = table = foot = None
     if len(per_sample) > 1:
-        intro, table, foot = _samples_table(per_sample, lot, n)
+        intro, table, foot = _samples_table(per_sample, lot, n, wording)
     return VerdictView(
         judged=True, criteria_file=None if not crit_file else str(crit_file),
         identification=tuple((str(k), str(v)) for k, v in dict(ident or {}).items()),
         overall=overall, summary=summary,
         counts=f"{len(rows)} check{'s' if len(rows) != 1 else ''}: "
-               + ", ".join(f"{counts[o]} {OUTCOME_TEXT[o][1].lower()}" for o in OUTCOME_ORDER if counts[o]) + ".",
+               + ", ".join(f"{counts[o]} {wording.outcome_text[o][1].lower()}" for o in OUTCOME_ORDER if counts[o]) + ".",
         lot_criteria=lot_table, samples_intro=intro, samples=table, samples_footnote=foot,
-        uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max))
+        uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max, wording.noun))
 
 
 # --------------------------------------------------------------------------- key figures
@@ -535,6 +530,7 @@ def build_report_view(
     unreadable: Sequence[tuple[str, str]] = (),
     skipped: Sequence[tuple[str, str]] = (),
     inline=None,
+    wording: Wording = CRITERIA_WORDING,
 ) -> ReportView:
     """The report of ``ev`` as a :class:`ReportView` (the parameters are those of
     :func:`lumeval.render.html.render_html_report`; ``figs`` the figures already drawn by
@@ -560,7 +556,7 @@ def build_report_view(
     samples = []
     for num, fl in sorted(per_sample_figs.items()):
         i = int(num) - 1
-        checks = sample_checks_table([r for r in rows if r.sample == names[i]]) if grid_too_wide else None
+        checks = sample_checks_table([r for r in rows if r.sample == names[i]], wording.noun) if grid_too_wide else None
         samples.append(sample_view(ev, i, num, fl, checks))
     note_rows, more = notes_by_message(ev, MAX_TABLE_ROWS)
     return ReportView(
@@ -568,7 +564,7 @@ def build_report_view(
         subtitle=(f"{n} spectr{'a' if n != 1 else 'um'}", f"generated {prov.generated_at}",
                   f"lumeval {dict(prov.versions).get('lumeval', '?')}"),
         verdict=verdict_view(rows, verdicts, lot=lot, n=n, overall=overall, grid_max=grid_max,
-                             unread=bool(unreadable)),
+                             unread=bool(unreadable), wording=wording),
         aggregate_note=(f"The {n} spectra are drawn together (medians, ranges and distributions), as asked (more "
                         f"than {per_sample_max} spectra); every spectrum's figures are in the tables below and in "
                         "the JSON and CSV outputs.") if aggregate and lot is None else None,

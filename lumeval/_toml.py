@@ -34,7 +34,8 @@ MAX_TOML_BYTES = 1024 * 1024
 MAX_TOML_DEPTH = 32
 
 _BOM = "\ufeff"
-_AT = re.compile(r"\s*\(at line (\d+), column (\d+)\)")
+# no leading \s*: the message may quote a key, and a long run of spaces in it made re backtrack
+_AT = re.compile(r"\(at line (\d+), column (\d+)\)")
 
 
 def loads(text: str, file: str, *, error: type[LumevalError] = CriteriaError) -> dict[str, Any]:
@@ -58,11 +59,13 @@ def loads(text: str, file: str, *, error: type[LumevalError] = CriteriaError) ->
         else:
             m2 = re.search(r"line (\d+)", msg)
             line = int(m2.group(1)) if m2 else (max(1, len(text.splitlines())) if "end of document" in msg else None)
-        problem = _AT.sub("", msg) or "invalid TOML"
+        problem = _AT.sub("", msg).rstrip() or "invalid TOML"
         raise error(f"not valid TOML: {problem[:120]}", file=file, line=line, column=column,
                     fix="check quotes, brackets and `key = value` syntax") from None
     except ValueError:  # an integer too long for int() (Python's 4300-digit limit): no interpreter advice
-        m3 = re.search(r"[0-9_]{1000,}", text)
+        # the first run of 1000+ digits; runs found one by one (a search for "[0-9_]{1000,}" would
+        # rescan each shorter run from every one of its positions)
+        m3 = next((r for r in re.finditer(r"[0-9_]+", text) if r.end() - r.start() >= 1000), None)
         raise error("a number with thousands of digits", file=file,
                     line=text.count("\n", 0, m3.start()) + 1 if m3 else None,
                     fix="write the value as an ordinary number") from None

@@ -91,6 +91,10 @@ _RANGE_RE = re.compile(
         (?P<hi>{_NUM})\s*(?P<unit2>{_UNIT})?\s*$""",
     re.VERBOSE,
 )
+#: The longest claim text read. Python's regular expressions backtrack: the patterns above, with
+#: optional white space between optional parts, take polynomial time on long runs of white space,
+#: so a claim is read with its white space runs made single spaces and only up to this length.
+_CLAIM_MAX_CHARS = 200
 #: Words datasheets put before a value, and the comparison each stands for ("" = a nominal value).
 _WORDS = (
     (re.compile(r"^\s*(?:min\.?|minimum|at\s+least)\s*(?=[-+\d])", re.IGNORECASE), ">= "),
@@ -279,7 +283,10 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             text = repr(value) if isinstance(value, float) else str(value)
             m = _CLAIM_RE.match(text)
         elif isinstance(value, str):
-            read = _with_words_read(value)
+            if len(value) > _CLAIM_MAX_CHARS:
+                raise err(("claims",), key, f"the claim is {len(value):,} characters long; a claim is one short value",
+                          'write e.g. ">= 90", "3000 K ± 100 K" or "2700-3000 K"; put remarks in a TOML comment')
+            read = _with_words_read(" ".join(value.split()))
             if fig == "duv" and re.fullmatch(r"\s*(?:±|\+/-|\+-)\s*\d.*", read):
                 read = "0 " + read.strip()  # "Duv ±0.003": within 0.003 of the Planckian locus
             m = _CLAIM_RE.match(read)

@@ -31,8 +31,10 @@ IDENTIFICATION_KEYS: dict[str, str] = {
 
 TOP_LEVEL_KEYS = (FORMAT_KEY, "identification", "clause", "instrument", "monte_carlo", "decision")
 
-_HEADER_AOT = re.compile(r"^\[\[\s*([^\]]+?)\s*\]\]")
-_HEADER = re.compile(r"^\[\s*([^\]]+?)\s*\]")
+# Table headers; the caller strips the name. (No ``\s*`` around a lazy group: Python's
+# backtracking re took time cubic in a run of spaces on a line with no closing bracket.)
+_HEADER_AOT = re.compile(r"^\[\[([^\]]+)\]\]")
+_HEADER = re.compile(r"^\[([^\]]+)\]")
 _KEY = re.compile(r"""^("([^"]*)"|'([^']*)'|[A-Za-z0-9_\-]+)\s*=""")
 
 

@@ -39,7 +39,6 @@ from .text_dialect import (  # noqa: F401  (re-exported)
     _DELIM_NAMES,
     _DELIMITERS,
     _INFINITE,
-    _KEY_VALUE,
     _LINE_SPLIT,
     _MISSING,
     _NUM_ANY,

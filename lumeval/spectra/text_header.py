@@ -16,11 +16,11 @@ from ..errors import InputError
 from .model import SpectrumSet
 from .text_dialect import (
     _DELIM_NAMES,
-    _KEY_VALUE,
     Dialect,
     _describe_cell,
     _is_number,
     _split,
+    split_key_value,
 )
 
 # unit hints ---------------------------------------------------------------------------------
@@ -32,6 +32,8 @@ _WL_UNITS = [
 _WAVELENGTH_LABEL = re.compile(
     r"wave|wl|lambda|λ|nm\b|[µμu]m\b|wellenl|longueur|lunghezza|longitud|golflengte|våglängd|^x\b|^\s*$", re.I
 )
+#: A cell of a units row. Match it against the cell with white space runs made single spaces:
+#: the optional ``\s*`` between optional parts backtrack badly on long runs.
 _UNIT_CELL = re.compile(
     r"^\s*[\[(]?\s*(nm|[µμu]m|Å|a\.?\s*u\.?|%|counts|rel\.?|relative|arb\.?( units)?|"
     r"[mµμun]?w(\s*(/|·|\*|per\b|\s+m\b).*)?|cm-1|thz|ev|)\s*[\])]?\s*$",
@@ -45,9 +47,9 @@ _RELATIVE = re.compile(r"relative|\brel\b|a\.\s*u\.|\bau\b|arb|normali[sz]ed|%|p
 
 def _key_value(s: str, delim: str | None) -> tuple[str, str] | None:
     s = s.lstrip("#%/ \t")
-    m = _KEY_VALUE.match(s)
-    if m and re.search(r"[^\W\d_]", m.group(1)):
-        return m.group(1).strip(), m.group(2).strip()
+    kv = split_key_value(s)
+    if kv is not None and re.search(r"[^\W\d_]", kv[0]):
+        return kv
     if delim is not None:
         cells = _split(s, delim)
         if len(cells) == 2 and cells[0] and re.search(r"[^\W\d_]", cells[0]) and len(cells[0]) <= 80:
@@ -70,7 +72,8 @@ def _unit_words(text: str, whole: bool) -> list[str]:
     if whole:
         return [text.strip()]
     out = []
-    for m in _UNIT_SPOT.finditer(text):
+    # white space runs made single spaces: _UNIT_SPOT backtracks badly on long runs
+    for m in _UNIT_SPOT.finditer(" ".join(text.split())):
         w = next(g for g in m.groups() if g is not None)
         out.append(w.strip())
     return out
@@ -194,7 +197,8 @@ def find_header(before: list, delim: str | None, decimal_comma: bool, ncols: int
         alt = [c.strip() for c in re.split(r"\t|\s{2,}", hs) if c.strip()]
         if len(alt) != ncols:
             # "wavelength (km) S0": a bracketed unit belongs to the word before it
-            alt = [c.strip() for c in re.split(r"\s+(?=[^\s(\[])", hs.strip()) if c.strip()]
+            # (white space runs made single spaces first: the split backtracks on long runs)
+            alt = [c.strip() for c in re.split(r"\s+(?=[^\s(\[])", " ".join(hs.split())) if c.strip()]
         if len(alt) == ncols:
             hcells = alt
     if len(hcells) == ncols:
@@ -214,7 +218,7 @@ def find_header(before: list, delim: str | None, decimal_comma: bool, ncols: int
             header_ln = hln
             before = before[:-1]
             # a row of units under a row of names ("Wavelength,Irradiance" / "nm,W/m2/nm")
-            if all(_UNIT_CELL.match(c) for c in header) and before:
+            if all(_UNIT_CELL.match(" ".join(c.split())) for c in header) and before:
                 pln, ps = before[-1]
                 pcells = _split(ps, delim)
                 if len(pcells) == ncols and not _is_number(pcells[0], decimal_comma):

@@ -175,7 +175,19 @@ MAX_DRAWS_BLOCK = 20_000
 
 # ----------------------------------------------------------------------------------- parsing
 
-_HEADER = re.compile(r"^\s*\[\s*([A-Za-z0-9_.\-\"' ]+?)\s*\]\s*(#.*)?$")
+_HEADER = re.compile(r"\[([^\]]+)\]")
+_TABLE_NAME = re.compile(r"[A-Za-z0-9_.\-\"' ]+")
+
+
+def _table_header(raw: str) -> str | None:
+    r"""The name in a ``[table]`` header line (a comment may follow), else None. Written without
+    ``\s*`` around a lazy group: Python's backtracking re took time cubic in a run of spaces."""
+    s = raw.strip()
+    m = _HEADER.match(s)
+    if m is None or s[m.end():].lstrip()[:1] not in ("", "#"):
+        return None
+    name = m.group(1).strip()
+    return name if _TABLE_NAME.fullmatch(name) else None
 
 
 def key_line(text: str | None, table: str, key: str | None = None) -> int | None:
@@ -185,9 +197,9 @@ def key_line(text: str | None, table: str, key: str | None = None) -> int | None
         return None
     current = ""
     for no, raw in enumerate(text.splitlines(), start=1):
-        m = _HEADER.match(raw)
-        if m and not raw.lstrip().startswith("[["):
-            current = m.group(1).replace('"', "").replace("'", "").strip()
+        name = _table_header(raw)
+        if name is not None and not raw.lstrip().startswith("[["):
+            current = name.replace('"', "").replace("'", "").strip()
             if key is None and current == table:
                 return no
             continue

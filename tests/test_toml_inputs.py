@@ -103,3 +103,15 @@ def test_other_encodings_are_refused(kind, tmp_path, capsys):
     p.write_bytes('# caf\u00e9\nx = 1\n'.encode("latin-1"))
     line = one_error_line(*run(kind, p, capsys)[::2])
     assert f"{p}: is not UTF-8 text" in line and f"save the {kind} file as UTF-8" in line, line
+
+
+@pytest.mark.parametrize("kind", sorted(KINDS))
+def test_a_number_with_thousands_of_digits_names_its_line(kind, tmp_path, capsys):
+    """Python refuses to convert integers over 4,300 digits; the message names the line of the
+    first such number (found after shorter digit runs earlier in the file) and gives no
+    interpreter advice."""
+    p = tmp_path / "digits.toml"
+    p.write_text("# runs\na = 123456\nb = 7_000\n\nhuge = " + "9" * 5000 + "\n", encoding="utf-8")
+    line = one_error_line(*run(kind, p, capsys)[::2])
+    assert f"{p}:5: a number with thousands of digits" in line, line
+    assert "sys.set_int_max_str_digits" not in line

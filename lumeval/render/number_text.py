@@ -82,6 +82,20 @@ def _arrow_usable() -> bool:
     return _arrow_ok
 
 
+def _repr_texts(pa, v: np.ndarray, where: np.ndarray):
+    """An Arrow string array as long as ``v``: ``repr`` of the finite values at the sorted
+    indices ``where``, empty elsewhere (only those values become Python strings; ``repr`` of a
+    float is ASCII, so its bytes are valid UTF-8 as they are)."""
+    xs = v[where]
+    fin = np.isfinite(xs)
+    enc = [repr(x).encode("ascii") for x in xs[fin].tolist()]
+    lengths = np.zeros(v.shape[0], dtype=np.int64)
+    lengths[where[fin]] = np.fromiter(map(len, enc), dtype=np.int64, count=len(enc))
+    offsets = np.zeros(v.shape[0] + 1, dtype=np.int32)  # a block's text is far below 2**31 bytes
+    np.cumsum(lengths, out=offsets[1:])
+    return pa.StringArray.from_buffers(v.shape[0], pa.py_buffer(offsets), pa.py_buffer(b"".join(enc)))
+
+
 def number_rows(block: np.ndarray) -> list[str]:
     """Each row of the float block ``block`` (rows, columns) as its cells joined by commas: the
     shortest repr of every finite value, an empty cell for a missing one."""
@@ -92,20 +106,18 @@ def number_rows(block: np.ndarray) -> list[str]:
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    from ..frames import arrow_strings, bool_array, string_array
+    from ..frames import arrow_strings, bool_array
 
     cols = []
     for c in range(ncols):
         v = np.ascontiguousarray(block[:, c])
         plain = _plain(v)
+        if not plain.any():
+            cols.append(_repr_texts(pa, v, np.arange(rows)))
+            continue
         texts = _arrow_texts(pa, pc, v)
         if not plain.all():
-            other = [""] * rows
-            for i in np.flatnonzero(~plain).tolist():
-                x = float(v[i])
-                if math.isfinite(x):
-                    other[i] = repr(x)
-            texts = pc.if_else(bool_array(pa, plain), texts, string_array(pa, other))
+            texts = pc.if_else(bool_array(pa, plain), texts, _repr_texts(pa, v, np.flatnonzero(~plain)))
         cols.append(texts)
     comma = arrow_strings(pa, b",", np.array([0, 1]))[0]  # a scalar taken from an array: pa.scalar imports pandas
     return pc.binary_join_element_wise(*cols, comma).to_pylist()

@@ -404,3 +404,25 @@ def test_datasheet_wordings_through_the_cli(tmp_path, capsys, spectra_dir, monke
     # the accepted bounds printed as they are, not at the figure's precision ("≥ 90", "88 … 96")
     for needle in ("2699.5 … 3200.5 K", "≥ 89.5", "87.5 … 95.5", "-0.0060 … 0.0060", "min. 90", "88 to 95"):
         assert needle in out, needle
+
+
+def test_a_narrowly_contradicted_claim_never_reads_as_inside(tmp_path, capsys, spectra_dir, monkeypatch):
+    """A claim missed by less than the figure's printed precision: the terminal shows the
+    measured value and "by how much" with the decimals that put it outside the accepted range
+    (F12's Ra: 83 in CIE 15:2004 Table T.8.1, shared/reference-values.md; the exact value is
+    taken from the JSON of the same run).
+    Before, "Ra = c ± 1" missed by 0.3 printed the rounded value and "by how much 0"."""
+    p = write(tmp_path, '[claims]\nRa = ">= 1"\n', "probe.toml")
+    code, out, err = run(["claims", spectra_dir / "f12.csv", "--claims", p, "--format", "json"], capsys)
+    assert code == 0, err
+    ra = json.loads(out)["spectra"][0]["claims"][0]["measured"]
+    assert ra == pytest.approx(83, abs=0.5)  # CIE 15:2004 Table T.8.1 (F12: Ra 83, rounded)
+    c = round(ra + 1.3, 1)  # accepted from c - 1, about 0.3 above the measured value
+    p = write(tmp_path, f'[claims]\nRa = "{c} ± 1"\n', "claims.toml")
+    monkeypatch.setenv("COLUMNS", "160")
+    code, out, err = run(["claims", spectra_dir / "f12.csv", "--claims", p], capsys)
+    assert code == 1, err
+    row = next(line for line in out.splitlines() if line.startswith(">>") and " Ra " in line).split()
+    measured, by = float(row[row.index("±") + 2]), float(row[-3])
+    assert measured < c - 1 and measured == pytest.approx(ra, abs=0.05)  # printed to the decimal needed
+    assert by != 0 and by == pytest.approx(ra - (c - 1), abs=0.05)

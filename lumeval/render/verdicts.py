@@ -635,9 +635,10 @@ def claims_renderables(check) -> list:
             c = r.claim
             spec = _spec(c.figure) if c.figure else ".3g"
             accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
-            by = _f(r.excess[i], "+" + spec, r.unit) if o == "contradicted" else ""
+            mspec = _more(spec, _claim_decimals(c, r.measured[i], r.excess[i], spec)) if o == "contradicted" else spec
+            by = _f(r.excess[i], "+" + mspec, r.unit) if o == "contradicted" else ""
             t.add_row(">>" if o == "contradicted" else "", _text(c.key), _text(c.text),
-                      _text(_f(r.measured[i], spec, r.unit) if not c.not_checkable else "—"), _text(accepted), _text(by),
+                      _text(_f(r.measured[i], mspec, r.unit) if not c.not_checkable else "—"), _text(accepted), _text(by),
                       Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
             if r.reason[i]:
                 notes.append(f"{c.key}: {r.reason[i]}")
@@ -665,6 +666,18 @@ def claims_renderables(check) -> list:
     out.append(overall)
     out.append(_cautions_text())
     return out
+
+
+def _claim_decimals(c, measured: float, excess: float, spec: str) -> int:
+    """Extra decimals for a contradicted claim's measured value and "by how much", so that
+    neither reads as inside the claim: Rg 94.67 against "100 ± 5" (accepted 95 … 105) printed
+    at Rg's precision read "95" and "by how much 0"; it prints "94.7" and "-0.3"."""
+    m = float(measured)
+    outside = (m - c.lower if c.lower is not None and m < c.lower
+               else (m - c.upper if c.upper is not None and m > c.upper else 0.0))
+    if "f" not in spec:
+        return 0
+    return max(_extra_decimals(outside, spec), _extra_decimals(excess, spec))
 
 
 def _accepted(c, unit: str, spec: str) -> str:

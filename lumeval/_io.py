@@ -464,6 +464,9 @@ def atomic_output(
             fh.flush()
             os.fsync(fh.fileno())
             _keep_attributes(fh.fileno(), target)
+        from . import _stop
+
+        _stop.check()  # a stop received on the way, even if something swallowed it: not committed
         os.replace(tmp, target)
         tmp = None
     except OSError as exc:

@@ -12,6 +12,12 @@ docs, ``sys.unraisablehook`` and "Execution of Python signal handlers").
 same signal again to the main thread a moment later (from a timer thread: a real signal, which
 also interrupts a blocking wait), when the main thread is back in ordinary code; a stop dropped
 again is delivered again.
+
+A stop can also be lost to code that catches every exception (a bare ``except:`` in a library
+the run passes through). So each stop received is also recorded (:func:`received`): no output
+is committed once one was (:func:`check`, called by the atomic writer and the history store
+before they commit), and a run that went on to the end after a stop still ends as stopped
+(``lumeval.cli.main``).
 """
 
 from __future__ import annotations
@@ -26,6 +32,8 @@ REDELIVERY_DELAY = 0.01
 
 _in_hook = False
 _default_hook = sys.unraisablehook
+#: The stop signal received in this run, if any (set by the handlers that :func:`install` sets).
+_received: int | None = None
 
 
 class Stopped(BaseException):
@@ -39,10 +47,37 @@ class Stopped(BaseException):
 
 
 def on_stop_signal(signum, _frame) -> None:
+    global _received
     if _in_hook:  # the hook is handling a dropped stop: deliver this one after it too
         _redeliver(signum)
         return
+    _received = signum
     signal.signal(signum, signal.SIG_IGN)  # a second signal must not interrupt the clean-up
+    raise Stopped(signum)
+
+
+def on_interrupt(signum, frame) -> None:
+    """Ctrl-C: Python's own KeyboardInterrupt, the stop recorded first."""
+    global _received
+    _received = signal.SIGINT
+    signal.default_int_handler(signum, frame)
+
+
+def received() -> int | None:
+    """The stop signal received in this run (SIGINT, SIGTERM or SIGHUP), or None."""
+    return _received
+
+
+def check() -> None:
+    """Raise the stop received in this run, if any: called before an output is committed, so
+    that a stop swallowed on its way (see the module docstring) still leaves every output
+    unchanged. Further signals of the same kind are ignored from here (the clean-up runs)."""
+    signum = _received
+    if signum is None:
+        return
+    signal.signal(signum, signal.SIG_IGN)
+    if signum == signal.SIGINT:
+        raise KeyboardInterrupt
     raise Stopped(signum)
 
 
@@ -84,6 +119,8 @@ def install() -> None:
     for name in ("SIGTERM", "SIGHUP"):
         if hasattr(signal, name):
             signal.signal(getattr(signal, name), on_stop_signal)
+    if signal.getsignal(signal.SIGINT) is signal.default_int_handler:  # not when started with Ctrl-C ignored
+        signal.signal(signal.SIGINT, on_interrupt)
     sys.unraisablehook = _unraisable
 
 

@@ -205,6 +205,11 @@ def main(argv: list[str] | None = None) -> None:
         _stop.install()
     code = _run(args)
     if argv is None:
+        stop = _stop.received()
+        if stop is not None and code != 128 + stop:
+            # the stop was swallowed on its way (a bare except: in a library) and the run went
+            # on; the outputs were not committed after it (_stop.check): it still ends as stopped
+            code = _stopped(stop)
         _stop.settle()
     failed = _stdout_failed()
     if failed is not None:
@@ -235,6 +240,15 @@ def _usage_line(exc) -> str:
     text = re.sub(rf"'([^']{{{QUOTE_MAX + 1},}})'", lambda m: f"'{m.group(1)[:QUOTE_MAX]}…'", text)
     text = text.rstrip(".")
     return f"lumeval: error: {where + ': ' if where else ''}{text} — see '{path} --help'"
+
+
+def _stopped(signum: int) -> int:
+    """Say that the run was stopped by ``signum``; its exit code (130 for Ctrl-C, 128 + N)."""
+    if signum == signal.SIGINT:
+        _say("lumeval: interrupted; unfinished outputs were not written")
+    else:
+        _say(f"lumeval: stopped by {signal.Signals(signum).name}; unfinished outputs were not written")
+    return 128 + signum
 
 
 def _run(args: list[str]):
@@ -273,11 +287,9 @@ def _run(args: list[str]):
         _say(f"lumeval: error: {exc.message}")
         return 2
     except _stop.Stopped as exc:
-        _say(f"lumeval: stopped by {signal.Signals(exc.signum).name}; unfinished outputs were not written")
-        return 128 + exc.signum
+        return _stopped(exc.signum)
     except KeyboardInterrupt:
-        _say("lumeval: interrupted; unfinished outputs were not written")
-        return 130
+        return _stopped(signal.SIGINT)
     except OSError as exc:
         if exc.filename is None and exc.errno in _STREAM_ERRNOS and not debug:
             # every named file goes through lumeval._io (OutputError naming it): an unnamed write

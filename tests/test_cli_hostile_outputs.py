@@ -685,9 +685,15 @@ def test_a_stop_received_inside_a_finaliser_still_stops_the_run(tmp_path, signam
     printed the dropped exception with a traceback and the run went on to exit 0. The stop (and a
     Ctrl-C alike) is now delivered again once the callback has returned: the documented exit code,
     the one stop line, no traceback, no temporary file, no report."""
+    _assert_stopped_lot(tmp_path, _STOP_IN_A_FINALISER, signame, code)
+
+
+def _assert_stopped_lot(tmp_path, script: str, signame: str, code: int) -> None:
+    """Run ``script`` (the CLI with a stop arranged) on the demo lot with JSON and HTML reports:
+    the documented exit code, the one stop line, no traceback, no report, no temporary file."""
     out = tmp_path / "out"
     out.mkdir()
-    p = subprocess.run([sys.executable, "-c", _STOP_IN_A_FINALISER, signame, "lot",
+    p = subprocess.run([sys.executable, "-c", script, signame, "lot",
                         str(ROOT / "spectra_demo" / "lot_2026w48"), "-q", "--json", str(out / "lot.json"),
                         "--html", str(out / "r.html")], env=ENV, capture_output=True, timeout=300)
     err = p.stderr.decode()
@@ -695,3 +701,39 @@ def test_a_stop_received_inside_a_finaliser_still_stops_the_run(tmp_path, signam
     assert "Traceback" not in err and "Exception ignored" not in err, err
     assert err.strip().splitlines()[-1].startswith(("lumeval: stopped by SIGTERM", "lumeval: interrupted")), err
     assert sorted(x.name for x in out.iterdir()) == []
+
+
+#: A run of the real CLI in which the stop signal arrives inside code that catches every
+#: exception (a bare ``except:``, as some libraries have): the KeyboardInterrupt or the stop is
+#: swallowed there and the run goes on.
+_STOP_SWALLOWED = """
+import signal, sys
+from lumeval import cli
+from lumeval.lots import streaming
+
+SIGNAL = getattr(signal, sys.argv[1])
+real_add = streaming.LotAccumulator.add
+calls = []
+
+def add(self, result):
+    if not calls:
+        calls.append(1)
+        try:
+            signal.raise_signal(SIGNAL)
+            sum(range(100))  # the handler runs at a bytecode boundary inside the try
+        except BaseException:
+            pass
+    return real_add(self, result)
+
+streaming.LotAccumulator.add = add
+sys.argv = ["lumeval", *sys.argv[2:]]
+cli.main()
+"""
+
+
+@pytest.mark.parametrize("signame,code", [("SIGTERM", 128 + signal.SIGTERM), ("SIGINT", 130)])
+def test_a_stop_swallowed_on_its_way_still_stops_the_run(tmp_path, signame, code):
+    """A stop caught and dropped by code the run passes through used to let the run finish and
+    write every report with exit 0: it is recorded when received, no output is committed after
+    it, and the run ends as stopped (the documented code, one stop line, no report)."""
+    _assert_stopped_lot(tmp_path, _STOP_SWALLOWED, signame, code)

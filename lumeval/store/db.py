@@ -391,6 +391,9 @@ def connect(su: StoreURL, *, write: bool, action: str):
                 _switch_to_wal(conn.connection.driver_connection, time.monotonic() + SQLITE_BUSY_TIMEOUT_S)
             with conn.begin():
                 yield conn
+                from .. import _stop
+
+                _stop.check()  # a stop received on the way (even if swallowed): rolled back, not committed
     except (StoreError, IntegrityError):  # IntegrityError: the caller decides (a lot recorded twice)
         raise
     except (DBAPIError, SQLAlchemyError, sqlite3.Error) as exc:

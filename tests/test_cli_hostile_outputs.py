@@ -655,6 +655,9 @@ import gc, signal, sys, weakref
 from lumeval import cli
 
 SIGNAL = getattr(signal, sys.argv[1])
+# Ctrl-C as in a terminal: a process started in the background by a shell without job control
+# (as `make test &` is) inherits SIGINT ignored, and Python then keeps it ignored
+signal.signal(signal.SIGINT, signal.default_int_handler)
 refs = []
 
 class Node:
@@ -712,6 +715,11 @@ from lumeval import cli
 from lumeval.lots import streaming
 
 SIGNAL = getattr(signal, sys.argv[1])
+if len(sys.argv) > 2 and sys.argv[2] == "--ignored":  # started with Ctrl-C ignored
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    del sys.argv[2]
+else:  # Ctrl-C as in a terminal (see _STOP_IN_A_FINALISER)
+    signal.signal(signal.SIGINT, signal.default_int_handler)
 real_add = streaming.LotAccumulator.add
 calls = []
 
@@ -737,3 +745,16 @@ def test_a_stop_swallowed_on_its_way_still_stops_the_run(tmp_path, signame, code
     write every report with exit 0: it is recorded when received, no output is committed after
     it, and the run ends as stopped (the documented code, one stop line, no report)."""
     _assert_stopped_lot(tmp_path, _STOP_SWALLOWED, signame, code)
+
+
+def test_ctrl_c_ignored_at_start_stays_ignored(tmp_path):
+    """A run started with SIGINT ignored (a background job of a shell without job control, as
+    nohup leaves it) keeps ignoring it, as Python does: lumeval's Ctrl-C handler is not set
+    over that, and the run ends normally with its reports written."""
+    out = tmp_path / "out"
+    out.mkdir()
+    p = subprocess.run([sys.executable, "-c", _STOP_SWALLOWED, "SIGINT", "--ignored", "lot",
+                        str(ROOT / "spectra_demo" / "lot_2026w48"), "-q", "--json", str(out / "lot.json")],
+                       env=ENV, capture_output=True, timeout=300)
+    assert p.returncode == 0, p.stderr.decode()
+    assert sorted(x.name for x in out.iterdir()) == ["lot.json"]

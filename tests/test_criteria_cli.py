@@ -426,3 +426,28 @@ def test_a_narrowly_contradicted_claim_never_reads_as_inside(tmp_path, capsys, s
     measured, by = float(row[row.index("±") + 2]), float(row[-3])
     assert measured < c - 1 and measured == pytest.approx(ra, abs=0.05)  # printed to the decimal needed
     assert by != 0 and by == pytest.approx(ra - (c - 1), abs=0.05)
+
+
+def test_one_row_per_spectrum_table_never_prints_a_failed_value_as_its_limit(tmp_path, capsys, spectra_dir,
+                                                                             monkeypatch):
+    """The compact check table (one row per spectrum, for many spectra) prints a figure
+    that failed a clause by less than its printed precision with the decimals its margin needs:
+    F12's Ra (83 in CIE 15:2004 Table T.8.1; the exact value from the JSON of the same run)
+    against a minimum about 0.3 above it printed "83" (or "84") beside "Ra ≥ 83.4"."""
+    probe = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 1\n', "probe.toml")
+    code, out, err = run(["check", spectra_dir / "f12.csv", "--criteria", probe, "--format", "json"], capsys)
+    assert code == 0, err
+    ra = json.loads(out)["spectra"][0]["clauses"][0]["measured"]
+    assert ra == pytest.approx(83, abs=0.5)  # CIE 15:2004 Table T.8.1 (F12: Ra 83, rounded)
+    c = round(ra + 0.3, 1)
+    crit = write(tmp_path, f'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = {c}\n')
+    copies = []
+    for k in range(13):  # more spectra than the per-spectrum sections show: one row each
+        copies.append(tmp_path / f"f12_{k:02d}.csv")
+        copies[-1].write_bytes((spectra_dir / "f12.csv").read_bytes())
+    monkeypatch.setenv("COLUMNS", "120")
+    code, out, err = run(["check", *copies, "--criteria", crit], capsys)
+    assert code == 1, err
+    assert "one row each" in out
+    row = next(line for line in out.splitlines() if line.startswith(">>"))
+    assert f"{ra:.1f}" in row.split(), row

@@ -246,6 +246,17 @@ _REQUIREMENT_MIN = 22
 _ROWS_MAX = 100
 
 
+def _failed_extra(result, fig, i: int) -> int:
+    """Extra decimals for figure ``fig`` of spectrum ``i`` in the one-row-per-spectrum table: as
+    many as a clause on that figure that the spectrum did not pass needs for its margin not to
+    read zero, so that a failed value never prints as its limit (candidate C's Rg 94.67 against
+    Rg 95 … 110 printed "95"; it prints "94.7")."""
+    from ..figures import margin_extra_decimals
+
+    return max((margin_extra_decimals(r.margin[i], fig.decimals) for r in result.results
+                if r.figure == fig.name and r.outcome[i] != "pass"), default=0)
+
+
 def _compact_check(result, evaluation, width: int | None, why: str) -> list:
     """One row per spectrum: verdict, name (or its number, with the names listed under the
     table when they do not fit), the key figures of ``evaluation`` (registry formats, never
@@ -261,7 +272,8 @@ def _compact_check(result, evaluation, width: int | None, why: str) -> list:
     shown = list(range(min(n, _ROWS_MAX)))
     figs = [figures.FIGURES[k] for k in COMPACT_FIGURES if k in figures.FIGURES] if evaluation is not None else []
     heads = [f.heading for f in figs]
-    cells = [[f.format(v[i]) for i in shown] for f, v in ((f, f.value(evaluation)) for f in figs)]
+    cells = [[f.format(v[i], _failed_extra(result, f, i)) for i in shown]
+             for f, v in ((f, f.value(evaluation)) for f in figs)]
     verdict = [_WORD[result.verdict(i)] for i in shown]
     n_clauses = len(result.results)
     counts = []

@@ -203,3 +203,16 @@ def test_western_electric_rules(series, rule, where):
 
 def test_western_electric_no_signal_in_control():
     assert charts.western_electric([0.5, -0.5, 0.9, -0.9, 1.9, -1.9, 0.2, -0.2, 0.5], 0.0, 1.0) == []
+
+
+def test_limit_signals_print_both_numbers_positionally_and_distinctly():
+    """A limit signal's text: six significant digits of each number in positional notation (a
+    Duv of 3.55174e-05 beside a limit of -0.000239336 read as two kinds of number), more where
+    the two would print alike. Text only: the chart's arithmetic is tested above."""
+    from lumeval.store.charts import beyond_limits
+
+    texts = [s.text for s in beyond_limits([3.55174e-05, 3004.571, -5.0], [-0.000239336, 3004.57, 1.0],
+                                           [-1.0, 0.0, -2e-6 * 1e6], chart="EWMA")]
+    assert texts == ["above the upper control limit (0.0000355174 > -0.000239336)",
+                     "above the upper control limit (3004.571 > 3004.57)",
+                     "below the lower control limit (-5 < -2)"]

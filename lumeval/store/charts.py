@@ -378,6 +378,19 @@ def western_electric(values, centre, sigma, *, chart: str = "xbar", rules=("WE1"
     return out
 
 
+def _pair_text(a: float, b: float) -> tuple[str, str]:
+    """Two numbers with six significant digits each in positional notation, more when the two
+    would print alike (a Duv of 3.55174e-05 beside a limit of -0.000239336 read as two kinds of
+    number; now 0.0000355174 and -0.000239336)."""
+    def text(v: float, digits: int) -> str:
+        return np.format_float_positional(v, precision=digits, unique=False, fractional=False, trim="-")
+
+    digits = 6
+    while text(a, digits) == text(b, digits) and a != b and digits < 17:  # a point just beyond its limit
+        digits += 1
+    return text(a, digits), text(b, digits)
+
+
 def beyond_limits(values, ucl, lcl, *, chart: str, rule: str = "WE1") -> list[Signal]:
     """Points above ``ucl`` or below ``lcl`` (scalars or (m,) arrays; NaN limits never signal).
 
@@ -393,7 +406,9 @@ def beyond_limits(values, ucl, lcl, *, chart: str, rule: str = "WE1") -> list[Si
         if not np.isfinite(x[i]):
             continue
         if np.isfinite(u[i]) and x[i] > u[i]:
-            out.append(Signal(i, chart, rule, f"above the upper control limit ({x[i]:.6g} > {u[i]:.6g})"))
+            a, b = _pair_text(float(x[i]), float(u[i]))
+            out.append(Signal(i, chart, rule, f"above the upper control limit ({a} > {b})"))
         elif np.isfinite(lo[i]) and x[i] < lo[i]:
-            out.append(Signal(i, chart, rule, f"below the lower control limit ({x[i]:.6g} < {lo[i]:.6g})"))
+            a, b = _pair_text(float(x[i]), float(lo[i]))
+            out.append(Signal(i, chart, rule, f"below the lower control limit ({a} < {b})"))
     return out

@@ -216,3 +216,15 @@ def test_limit_signals_print_both_numbers_positionally_and_distinctly():
     assert texts == ["above the upper control limit (0.0000355174 > -0.000239336)",
                      "above the upper control limit (3004.571 > 3004.57)",
                      "below the lower control limit (-5 < -2)"]
+
+
+@pytest.mark.parametrize("value", [-9.5925e-05, 6.2569e-06, -0.00045617, 2973.456, 3.5e-9, 123456.7, -1.0])
+def test_trend_numbers_are_positional_with_five_significant_digits(value):
+    """The trend table's and limits line's numbers (lumeval.render.trend_report._fmt): no
+    exponent beside the positional numbers of the same column, five significant digits kept
+    (read back within half a unit of the fifth digit)."""
+    from lumeval.render.trend_report import _fmt
+
+    text = _fmt(value)
+    assert "e" not in text.lower()
+    assert float(text) == pytest.approx(value, rel=5e-5)

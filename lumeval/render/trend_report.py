@@ -28,10 +28,19 @@ def plain(s) -> str:
 
 
 def _fmt(v, spec: str = ".5g") -> str:
+    """``v`` with the significant digits of ``spec`` (".5g": five) in positional notation, as the
+    other numbers of its column: a lot mean of -9.5925e-05 among -0.00045617 read as another
+    kind of number (now -0.000095925)."""
     if v is None:
         return "n/a"
     f = float(v)
-    return "n/a" if not math.isfinite(f) else format(f, spec)
+    if not math.isfinite(f):
+        return "n/a"
+    if not spec.endswith("g"):
+        return format(f, spec)
+    import numpy as np
+
+    return np.format_float_positional(f, precision=int(spec[1:-1]), unique=False, fractional=False, trim="-")
 
 
 # --------------------------------------------------------------------------- list

@@ -114,7 +114,8 @@ def test_doc_examples_parse():
 
 
 def test_csv_columns_documented_in_order():
-    from lumeval.render.verdicts import CHECK_CSV_COLUMNS, CLAIMS_CSV_COLUMNS
+    from lumeval.render.claims_report import CLAIMS_CSV_COLUMNS
+    from lumeval.render.verdicts import CHECK_CSV_COLUMNS
 
     flat = " ".join(DOC.split())
     assert ", ".join(CHECK_CSV_COLUMNS) in flat

@@ -311,7 +311,7 @@ def register(app: typer.Typer) -> None:
         set_quiet(quiet)
         check_targets(files={"--output": output, "--html": html}, inputs=[*files, claims])
         ev, result = run_claims(files, claims)
-        from ..render import verdicts as rv
+        from ..render import claims_report as rv
 
         if html is not None:
             from ..render.html import write_html_report

@@ -17,7 +17,6 @@ import csv
 import io
 import json
 import math
-import re
 from typing import Any, overload
 
 import numpy as np
@@ -33,8 +32,6 @@ _WORD = {"pass": "✔ pass", "fail": "✘ FAIL", "indeterminate": "? INDETERMINA
          "not valid": "✘ NOT VALID"}
 _STYLE = {"pass": "green", "fail": "bold red", "indeterminate": "bold yellow", "not judged": "bold yellow",
           "not valid": "bold red"}
-_CLAIM_WORD = {"supported": "✔ supported", "contradicted": "✘ CONTRADICTED", "not checkable": "– not checkable"}
-_CLAIM_STYLE = {"supported": "green", "contradicted": "bold red", "not checkable": "yellow"}
 
 def _spec(figure: str) -> str:
     """The human format of ``figure`` without a sign (the figure registry's decimals; margins add
@@ -230,14 +227,21 @@ def _spectrum_sections(result) -> list:
             if r.reason and r.reason[i]:
                 notes.append(f"{r.clause_id}: {r.reason[i]}")
         out.append(t)
-        for w in result.warnings[i] if i < len(result.warnings) else ():
-            notes.append(w)
-        if notes:
-            nt = Text()
-            for s in notes:
-                nt.append(f"  note: {clean(s)}\n")
-            out.append(nt)
+        append_notes(out, notes, result.warnings[i] if i < len(result.warnings) else ())
     return out
+
+
+def append_notes(out: list, notes: list, warnings) -> None:
+    """Append a table's notes and its spectrum's warnings to ``out`` as one block of
+    "note:" lines (nothing when there are none)."""
+    from rich.text import Text
+
+    lines = [*notes, *warnings]
+    if lines:
+        nt = Text()
+        for s in lines:
+            nt.append(f"  note: {clean(s)}\n")
+        out.append(nt)
 
 
 #: The requirement column of a spectrum's clause table is at least this wide (characters).
@@ -613,193 +617,4 @@ def check_to_csv(result) -> str:
         for r, meas, lo, hi, mg, d, u, p, why in cols:
             w.writerow((first(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
                         meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i])))
-    return buf.getvalue() + csv_notes()
-
-
-# --------------------------------------------------------------------------- claims
-
-
-def claims_renderables(check) -> list:
-    from rich import box
-    from rich.table import Table
-    from rich.text import Text
-
-    out = [_header("Datasheet claims against the supplier's spectrum", check.claims_file, check.supplier)]
-    for i, name in enumerate(check.names):
-        v = check.verdict(i)
-        ncon = sum(1 for r in check.results if r.outcome[i] == "contradicted")
-        line = Text(f"\n{clean(name)}  —  ", style="bold")
-        if v == "contradicted":
-            line.append(f"✘ {ncon} CLAIM(S) CONTRADICTED by the spectrum", style="bold red")
-        elif v == "supported":
-            line.append("✔ every checkable claim is supported", style="bold green")
-        else:
-            line.append("– no claim could be checked from the spectrum", style="bold yellow")
-        out.append(line)
-        t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
-        for col, kw in (("", {"no_wrap": True}), ("claim", {"no_wrap": True}), ("as stated", {}), ("measured", {"justify": "right"}),
-                        ("accepted as", {}), ("by how much", {"justify": "right"}), ("result", {"no_wrap": True})):
-            t.add_column(col, **kw)
-        set_key_columns(t, 2)  # split to fit: each part repeats the mark and the claim
-        notes = []
-        for r in check.results:
-            o = r.outcome[i]
-            c = r.claim
-            spec = _spec(c.figure) if c.figure else ".3g"
-            accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
-            mspec = _more(spec, _claim_decimals(c, r.measured[i], r.excess[i], spec)) if o == "contradicted" else spec
-            by = _f(r.excess[i], "+" + mspec, r.unit) if o == "contradicted" else ""
-            t.add_row(">>" if o == "contradicted" else "", _text(c.key), _text(c.text),
-                      _text(_f(r.measured[i], mspec, r.unit) if not c.not_checkable else "—"), _text(accepted), _text(by),
-                      Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
-            if r.reason[i]:
-                notes.append(f"{c.key}: {r.reason[i]}")
-        out.append(t)
-        for w in check.warnings[i] if i < len(check.warnings) else ():
-            notes.append(w)
-        if notes:
-            nt = Text()
-            for s in notes:
-                nt.append(f"  note: {clean(s)}\n")
-            out.append(nt)
-    tol = Text("\nHow each claim was read:\n", style="dim")
-    for r in check.results:
-        if r.claim.tolerance_note:
-            tol.append(clean(f"  - {r.claim.key} {r.claim.text}: {r.claim.tolerance_note}") + "\n", style="dim")
-    out.append(tol)
-    overall = Text("\n")
-    if check.exit_code:
-        overall.append("OVERALL: ✘ the datasheet over-claims: at least one claim is contradicted by the supplier's own spectrum", style="bold red")
-    elif not any(o == "supported" for r in check.results for o in r.outcome):
-        overall.append("OVERALL: – nothing could be checked: no claim is contradicted, but none is supported either",
-                       style="bold yellow")
-    else:
-        overall.append("OVERALL: ✔ no claim is contradicted by the spectrum", style="bold green")
-    out.append(overall)
-    out.append(_cautions_text())
-    return out
-
-
-def _claim_decimals(c, measured: float, excess: float, spec: str) -> int:
-    """Extra decimals for a contradicted claim's measured value and "by how much", so that
-    neither reads as inside the claim: Rg 94.67 against "100 ± 5" (accepted 95 … 105) printed
-    at Rg's precision read "95" and "by how much 0"; it prints "94.7" and "-0.3"."""
-    m = float(measured)
-    outside = (m - c.lower if c.lower is not None and m < c.lower
-               else (m - c.upper if c.upper is not None and m > c.upper else 0.0))
-    if "f" not in spec:
-        return 0
-    return max(_extra_decimals(outside, spec), _extra_decimals(excess, spec))
-
-
-def _accepted(c, unit: str, spec: str) -> str:
-    if c.lower is not None and c.upper is not None:
-        return f"{_f(c.lower, _bound_spec(c.lower, spec))} … {_f(c.upper, _bound_spec(c.upper, spec), unit)}"
-    if c.lower is not None:
-        return f"≥ {_f(c.lower, _bound_spec(c.lower, spec), unit)}"
-    return f"≤ {_f(c.upper, _bound_spec(c.upper, spec), unit)}"
-
-
-def _bound_spec(v: float, spec: str) -> str:
-    """``spec`` with as many more decimals (up to three) as the accepted bound ``v`` needs to
-    print as it is: a claim "90 to 95" is accepted from 89.5 to 95.5, which the figure's own
-    precision would print as "90 … 96"."""
-    m = re.fullmatch(r"(\+?)\.(\d+)f", spec)
-    if m is None or not math.isfinite(v):
-        return spec
-    d = int(m.group(2))
-    for extra in range(4):
-        if abs(float(format(v, f".{d + extra}f")) - v) <= 1e-9 * max(1.0, abs(v)):
-            return f"{m.group(1)}.{d + extra}f"
-    return f"{m.group(1)}.{d + 3}f"
-
-
-def print_claims(check, console=None) -> None:
-    from .safe import console as safe_console
-
-    console = console or safe_console()
-    for r in claims_renderables(check):
-        console.print(r)
-
-
-def claims_record(check) -> dict:
-    spectra = []
-    for i, name in enumerate(check.names):
-        spectra.append(
-            {
-                "name": name,
-                "verdict": check.verdict(i),
-                "warnings": list(check.warnings[i]) if i < len(check.warnings) else [],
-                "claims": [
-                    {
-                        "key": r.claim.key,
-                        "figure": r.claim.figure or None,
-                        "as_stated": r.claim.text,
-                        "unit": r.unit,
-                        "measured": _num(r.measured[i]),
-                        "accepted_lower": r.claim.lower,
-                        "accepted_upper": r.claim.upper,
-                        "how_read": r.claim.tolerance_note or None,
-                        "excess": _num(r.excess[i]),
-                        "outcome": r.outcome[i],
-                        "reason": r.reason[i] or None,
-                        "line": r.claim.line,
-                    }
-                    for r in check.results
-                ],
-            }
-        )
-    from ..schemas import header
-
-    return {
-        **header("claims"),
-        "lumeval_claims_check": JSON_SCHEMA_VERSION,
-        "claims_file": check.claims_file,
-        "supplier": check.supplier,
-        "exit_code": check.exit_code,
-        "spectra": spectra,
-        "cautions": list(CAUTIONS),
-    }
-
-
-def claims_to_json(check) -> str:
-    return json.dumps(claims_record(check), indent=2, ensure_ascii=False) + "\n"
-
-
-CLAIMS_CSV_COLUMNS = ("spectrum", "claim", "as_stated", "unit", "measured", "accepted_lower", "accepted_upper", "excess", "outcome", "reason")
-
-
-def claims_to_csv(check) -> str:
-    """One row per (spectrum, claim); text cells neutralised for spreadsheets; the cautions as
-    note rows at the end (:func:`lumeval.render.tables.csv_notes`)."""
-    from .safe import csv_first_cell
-    from .safe import csv_text as t
-    from .tables import csv_notes
-
-    buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=CLAIMS_CSV_COLUMNS, lineterminator="\n")
-    w.writeheader()
-
-    def cell(v):
-        if v is None:
-            return ""
-        f = float(v)
-        return repr(f) if math.isfinite(f) else ""
-
-    for i, name in enumerate(check.names):
-        for r in check.results:
-            w.writerow(
-                {
-                    "spectrum": csv_first_cell(name),
-                    "claim": t(r.claim.key),
-                    "as_stated": t(r.claim.text),
-                    "unit": t(r.unit),
-                    "measured": cell(r.measured[i]),
-                    "accepted_lower": cell(r.claim.lower),
-                    "accepted_upper": cell(r.claim.upper),
-                    "excess": cell(r.excess[i]),
-                    "outcome": r.outcome[i],
-                    "reason": t(r.reason[i]),
-                }
-            )
     return buf.getvalue() + csv_notes()

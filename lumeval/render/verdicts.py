@@ -71,15 +71,12 @@ def _num(v):
 
 
 def _extra_decimals(margin: float, spec: str) -> int:
-    """Extra decimals needed so that a non-zero margin does not print as zero (at most 6):
-    a value of -7.03 % against a limit of -7 % must not read "-7.0 %, margin 0.0"."""
-    f = float(margin)
-    if not math.isfinite(f) or f == 0.0:
-        return 0
-    for k in range(7):
-        if float(format(abs(f), _more(spec, k))) != 0.0:
-            return k
-    return 6
+    """Extra decimals needed so that a non-zero margin does not print at the decimals of the
+    fixed-point ``spec`` (like "+.1f") as zero, at most 6: the figure registry's rule
+    (:func:`lumeval.figures.margin_extra_decimals`)."""
+    from ..figures import margin_extra_decimals
+
+    return margin_extra_decimals(margin, int(spec.partition(".")[2][:-1] or 0))
 
 
 def _more(spec: str, k: int) -> str:

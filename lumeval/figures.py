@@ -119,6 +119,15 @@ class Figure:
         return np.asarray(self.read(ev), dtype=float)
 
 
+def format_significant(value: float, digits: int) -> str:
+    """``value`` with ``digits`` significant digits in positional notation, never an exponent
+    (trailing zeros dropped): numbers of very different sizes in one column or one sentence
+    then read as one kind of number (-0.000095925 beside -0.00045617)."""
+    import numpy as np
+
+    return np.format_float_positional(float(value), precision=digits, unique=False, fractional=False, trim="-")
+
+
 def format_number(value: Any, spec: str, *, missing: str = "n/a") -> str:
     """``value`` formatted with ``spec``; ``missing`` for None/NaN/inf; a value that rounds to zero
     prints without a sign ("-0" or "+0.00" would suggest a direction)."""

@@ -38,9 +38,9 @@ def _fmt(v, spec: str = ".5g") -> str:
         return "n/a"
     if not spec.endswith("g"):
         return format(f, spec)
-    import numpy as np
+    from ..figures import format_significant
 
-    return np.format_float_positional(f, precision=int(spec[1:-1]), unique=False, fractional=False, trim="-")
+    return format_significant(f, int(spec[1:-1]))
 
 
 # --------------------------------------------------------------------------- list

@@ -382,13 +382,12 @@ def _pair_text(a: float, b: float) -> tuple[str, str]:
     """Two numbers with six significant digits each in positional notation, more when the two
     would print alike (a Duv of 3.55174e-05 beside a limit of -0.000239336 read as two kinds of
     number; now 0.0000355174 and -0.000239336)."""
-    def text(v: float, digits: int) -> str:
-        return np.format_float_positional(v, precision=digits, unique=False, fractional=False, trim="-")
+    from ..figures import format_significant
 
     digits = 6
-    while text(a, digits) == text(b, digits) and a != b and digits < 17:  # a point just beyond its limit
-        digits += 1
-    return text(a, digits), text(b, digits)
+    while format_significant(a, digits) == format_significant(b, digits) and a != b and digits < 17:
+        digits += 1  # a point just beyond its limit
+    return format_significant(a, digits), format_significant(b, digits)
 
 
 def beyond_limits(values, ucl, lcl, *, chart: str, rule: str = "WE1") -> list[Signal]:

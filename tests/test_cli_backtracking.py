@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import re
 
-import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -21,21 +20,14 @@ from lumeval.spectra.read import read_spectra
 from lumeval.spectra.text_dialect import split_key_value
 
 from .conftest import assert_clean_error
-from .test_cli_hostile_inputs import run_sub
+from .test_cli_hostile_inputs import run_sub, spectrum_text
 
 HANG_SECONDS = 60  # the fixed code needs well under a second for each input
 
 
-def _rows() -> str:
-    """A smooth broadband spectrum, invented: only the reading is judged here."""
-    wl = np.arange(380, 781, 5)
-    v = np.exp(-(((wl - 560) / 120.0) ** 2)) + 0.1
-    return "".join(f"{a},{b:.6f}\n" for a, b in zip(wl, v))
-
-
 def test_metadata_line_with_a_long_run_of_spaces_is_read_promptly(tmp_path):
     f = tmp_path / "note.csv"
-    f.write_text("# Note: a" + " " * 200_000 + "b\nwavelength,value\n" + _rows(), encoding="utf-8")
+    f.write_text("# Note: a" + " " * 200_000 + "b\n" + spectrum_text(), encoding="utf-8")
     code, out, err = run_sub(["inspect", "note.csv", "--format", "json"], tmp_path, timeout=HANG_SECONDS)
     assert code == 0, err
     assert '"name": "note"' in out
@@ -45,14 +37,14 @@ def test_metadata_line_with_a_long_run_of_spaces_is_read_promptly(tmp_path):
 
 def test_units_row_cell_with_a_long_run_of_spaces_is_read_promptly(tmp_path):
     f = tmp_path / "units.csv"
-    f.write_text("Wavelength,Power\n(" + " " * 30_000 + "x nm,W\n" + _rows(), encoding="utf-8")
+    f.write_text(spectrum_text(header="Wavelength,Power\n(" + " " * 30_000 + "x nm,W"), encoding="utf-8")
     code, _out, err = run_sub(["inspect", "units.csv", "--format", "json"], tmp_path, timeout=HANG_SECONDS)
     assert code == 0, err
 
 
 def test_wavelength_header_with_brackets_and_a_long_run_of_spaces_is_read_promptly(tmp_path):
     f = tmp_path / "spot.csv"
-    f.write_text("wavelength (" + " " * 30_000 + "(,value\n" + _rows(), encoding="utf-8")
+    f.write_text(spectrum_text(header="wavelength (" + " " * 30_000 + "(,value"), encoding="utf-8")
     code, _out, err = run_sub(["inspect", "spot.csv", "--format", "json"], tmp_path, timeout=HANG_SECONDS)
     assert code == 0, err
 
@@ -60,7 +52,7 @@ def test_wavelength_header_with_brackets_and_a_long_run_of_spaces_is_read_prompt
 def test_criteria_line_opening_a_bracket_then_spaces_is_located_promptly(tmp_path):
     """A nested array written over lines is valid TOML; the line finder used to backtrack on a
     line that opens "[" and never closes it."""
-    (tmp_path / "lamp.csv").write_text("wavelength,value\n" + _rows(), encoding="utf-8")
+    (tmp_path / "lamp.csv").write_text(spectrum_text(), encoding="utf-8")
     (tmp_path / "c.toml").write_text(
         'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 50\nlimits = [\n[' + " " * 20_000 + "1,\n2]]\n",
         encoding="utf-8",
@@ -72,8 +64,7 @@ def test_criteria_line_opening_a_bracket_then_spaces_is_located_promptly(tmp_pat
 def test_white_space_header_with_a_long_run_before_a_bracket_is_read_promptly(tmp_path):
     """A header split on white space whose cell count does not fit is re-split keeping "(nm)"
     with the word before it; that split backtracked on a long run before a bracket."""
-    wl = np.arange(380, 781, 5)
-    rows = "".join(f"{a} {b:.6f}\n" for a, b in zip(wl, np.exp(-(((wl - 560) / 120.0) ** 2)) + 0.1))
+    rows = spectrum_text().split("\n", 1)[1].replace(",", " ")  # the same rows, white-space separated
     (tmp_path / "ws.txt").write_text("wavelength" + " " * 200_000 + "(nm)  value  x\n" + rows, encoding="utf-8")
     code, _out, err = run_sub(["inspect", "ws.txt", "--format", "json"], tmp_path, timeout=HANG_SECONDS)
     assert code == 0, err
@@ -82,7 +73,7 @@ def test_white_space_header_with_a_long_run_before_a_bracket_is_read_promptly(tm
 def test_toml_error_quoting_a_key_with_a_long_run_of_spaces_is_prompt(tmp_path):
     """tomllib's message quotes the key declared twice; finding "(at line L, column C)" in it
     backtracked on the spaces."""
-    (tmp_path / "lamp.csv").write_text("wavelength,value\n" + _rows(), encoding="utf-8")
+    (tmp_path / "lamp.csv").write_text(spectrum_text(), encoding="utf-8")
     table = '["a' + " " * 200_000 + 'b"]\n'
     (tmp_path / "c.toml").write_text("lumeval_criteria = 1\n" + table + "x = 1\n" + table, encoding="utf-8")
     code, _out, err = run_sub(["check", "lamp.csv", "--criteria", "c.toml"], tmp_path, timeout=HANG_SECONDS)
@@ -91,7 +82,7 @@ def test_toml_error_quoting_a_key_with_a_long_run_of_spaces_is_prompt(tmp_path):
 
 def test_instrument_file_with_a_bracket_line_in_a_string_is_located_promptly(tmp_path):
     """The instrument file's line finder met a line "[" + spaces inside a multi-line string."""
-    (tmp_path / "lamp.csv").write_text("wavelength,value\n" + _rows(), encoding="utf-8")
+    (tmp_path / "lamp.csv").write_text(spectrum_text(), encoding="utf-8")
     (tmp_path / "c.toml").write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 50\n',
                                      encoding="utf-8")
     (tmp_path / "i.toml").write_text('[instrument]\nstray_light = """\n[' + " " * 30_000 + '\n"""\nbandwidth_nm = -1\n',
@@ -102,7 +93,7 @@ def test_instrument_file_with_a_bracket_line_in_a_string_is_located_promptly(tmp
 
 
 def test_claim_with_a_long_run_of_spaces_is_refused_promptly(tmp_path):
-    (tmp_path / "lamp.csv").write_text("wavelength,value\n" + _rows(), encoding="utf-8")
+    (tmp_path / "lamp.csv").write_text(spectrum_text(), encoding="utf-8")
     (tmp_path / "claims.toml").write_text('[claims]\nRa = "1' + " " * 1000 + 'x"\n', encoding="utf-8")
     code, _out, err = run_sub(["claims", "lamp.csv", "--claims", "claims.toml"], tmp_path, timeout=HANG_SECONDS)
     assert_clean_error(code, err, "claims.toml:2", "'Ra'", "1,002 characters long")

@@ -114,7 +114,9 @@ def parse_spectra(raw: bytes, file: str) -> SpectrumSet:
         from .jsonio import parse_json
 
         return parse_json(raw, file)
-    return parse_text(_decode(raw, file), file)
+    from .text_fast import raw_lines
+
+    return parse_text(_decode(raw, file), file, raw=raw_lines(raw))
 
 
 def unique_names(s: SpectrumSet, seen: dict[str, int]) -> SpectrumSet:

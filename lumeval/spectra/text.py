@@ -29,6 +29,7 @@ Nothing here judges whether the data are good enough to compute with: that is
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from ..errors import InputError
 from .model import SpectrumSet
@@ -86,6 +87,9 @@ from .text_header import (  # noqa: F401  (re-exported)
 )
 from .text_rows import Block, _bulk_rows, convert_rows, find_start, take_rows  # noqa: F401
 
+if TYPE_CHECKING:
+    from .text_fast import RawLines
+
 #: Refuse files larger than this many bytes (a spectrum file is kilobytes; 64 MB is a lot run).
 MAX_TEXT_BYTES = 64 * 1024 * 1024
 
@@ -142,7 +146,8 @@ def _sample(lines: list) -> list:
     return lines[:_SAMPLE_HEAD] + lines[-_SAMPLE_TAIL:]
 
 
-def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = True) -> SpectrumSet:
+def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = True,
+               raw: RawLines | None = None) -> SpectrumSet:
     """Parse the decoded text of a delimited spectrum file.
 
     The reading goes in stages, each a function of its own: dialect
@@ -169,6 +174,9 @@ def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = Tr
         Try the fast path first (:mod:`lumeval.spectra.text_fast`: dialect from a sample of
         lines, the data block converted in one call; it gives the same result or hands over).
         False reads line by line only (tests and ``bench/bench_readers.py`` compare the two).
+    raw : RawLines, optional
+        The bytes ``text`` was decoded from (:func:`lumeval.spectra.text_fast.raw_lines`): the
+        fast path then converts a clean data block from them instead of joining its lines.
 
     Returns
     -------
@@ -185,13 +193,15 @@ def parse_text(text: str, file: str, stem: str | None = None, *, fast: bool = Tr
     if not lines:
         raise InputError("the file is empty", file=file, fix="export the spectrum data into it")
     return parse_lines(lines, file, stem, fast=fast, comments=comment_lines(text, lines),
-                       non_comment=non_comment_lines(text, lines))
+                       non_comment=non_comment_lines(text, lines), raw=raw)
 
 
 def parse_lines(lines: list[tuple[int, str]], file: str, stem: str, *, fast: bool = True,
-                comments: list | None = None, non_comment: list | None = None) -> SpectrumSet:
+                comments: list | None = None, non_comment: list | None = None,
+                raw: RawLines | None = None) -> SpectrumSet:
     """:func:`parse_text` of a file's non-blank lines, given as (line number, stripped text)
-    (``comments``, ``non_comment``: the comment lines and the others, when known)."""
+    (``comments``, ``non_comment``: the comment lines and the others, when known; ``raw``:
+    as :func:`parse_text` takes it)."""
     if comments is None:
         comments = [t for t in lines if _is_comment(t[1])]
     if non_comment is None:
@@ -205,7 +215,7 @@ def parse_lines(lines: list[tuple[int, str]], file: str, stem: str, *, fast: boo
     if fast:
         from .text_fast import fast_block
 
-        found = fast_block(non_comment, _RowMemo())
+        found = fast_block(non_comment, _RowMemo(), raw)
     if found is not None:
         d, block, rest = found
     else:

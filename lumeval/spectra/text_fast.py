@@ -32,6 +32,11 @@ Why the result is the same (each point is checked, or the fast path gives up):
   is installed (:func:`_arrow_convert`: ~4x numpy's speed on a 64 MB wide CSV, on Arrow's
   threads); it accepts exactly the cells numpy accepts within these characters, with the same
   floats, checks each row's cell count itself, and leaves the block to numpy on any doubt.
+* **Bytes** (files over :data:`RAW_SPAN_BYTES`, :func:`span_convert`): when the block's lines
+  are consecutive lines of the file and its bytes hold only digits, ``. e E + -``, line breaks,
+  the delimiter (one character, not white space) and the decimal comma, those bytes are the
+  joined block's text itself, and the block is converted from them (no join, no encoding, one
+  translation for Arrow's pieces); anything else joins the lines as above.
 """
 
 from __future__ import annotations
@@ -91,18 +96,109 @@ def convert_block(text: str, delim: str | None, decimal_comma: bool, nrows: int,
     if decimal_comma:
         raw = raw.replace(b",", b".")
     data = _arrow_convert(raw, delim, nrows, ncols) if len(raw) > ARROW_BYTES else None
-    if data is None:
-        k = _parse_processes(len(raw), nrows)
-        if k > 1:
-            data = _forked_loadtxt(raw, delim, nrows, ncols, k)
-        else:
-            try:
-                data = _loadtxt(raw, delim)
-            except ValueError:
-                return None
+    return _numpy_convert(raw, delim, nrows, ncols) if data is None else _checked(data, nrows, ncols)
+
+
+def _numpy_convert(raw: bytes, delim: str | None, nrows: int, ncols: int) -> np.ndarray | None:
+    """:func:`convert_block`'s numpy conversion of the block ``raw`` (decimal points only)."""
+    k = _parse_processes(len(raw), nrows)
+    if k > 1:
+        return _checked(_forked_loadtxt(raw, delim, nrows, ncols, k), nrows, ncols)
+    try:
+        return _checked(_loadtxt(raw, delim), nrows, ncols)
+    except ValueError:
+        return None
+
+
+def _checked(data: np.ndarray | None, nrows: int, ncols: int) -> np.ndarray | None:
     if data is None or data.shape != (nrows, ncols) or not np.isfinite(data).all():
         return None
     return data
+
+
+#: Files of more bytes than this give the reader their bytes (:class:`RawLines`): a clean data
+#: block is then converted from a view of them (:func:`span_convert`).
+RAW_SPAN_BYTES = 2**20
+#: The characters a block taken from the file's bytes may hold besides its delimiter (and the
+#: decimal comma): no space, tab, carriage return or anything outside ASCII.
+_PURE = b"0123456789.eE+-\n"
+
+
+class RawLines:
+    """Where lines lie in the bytes a text was decoded from, for :func:`span_convert`.
+
+    Valid for bytes decoded by an ASCII-compatible decoding (UTF-8, with or without its
+    byte-order mark, cp1252, Latin-1: a byte ``\n`` is the character ``\n`` and ASCII bytes are
+    their characters) holding no carriage return, so that the reader's line ``L`` (1-based,
+    lines split at ``\n``: :func:`~lumeval.spectra.text_dialect._content_lines`) starts after
+    the ``L - 1``-th byte ``\n``. :func:`raw_lines` gives None for any other bytes."""
+
+    def __init__(self, raw: bytes) -> None:
+        self.raw = raw
+        self.n = raw.count(b"\n") + 1
+
+    def start(self, ln: int) -> int:
+        """Offset of line ``ln``'s first byte (searched from the nearer end of the bytes)."""
+        raw, pos = self.raw, 0
+        if ln - 1 <= self.n - ln:
+            for _ in range(ln - 1):
+                pos = raw.index(b"\n", pos) + 1
+            return pos
+        pos = len(raw)
+        for _ in range(self.n - ln + 1):
+            pos = raw.rindex(b"\n", 0, pos)
+        return pos + 1
+
+    def span(self, lines: list, i: int, j: int) -> tuple[int, int] | None:
+        """(start, end) offsets of ``lines[i:j]`` ((line number, text) tuples) when they are
+        consecutive lines of the file (no blank or comment line among them), else None."""
+        first, last = lines[i][0], lines[j - 1][0]
+        if last - first != j - i - 1:
+            return None
+        end = self.start(last + 1) - 1 if last < self.n else len(self.raw)
+        return self.start(first), end
+
+
+def raw_lines(raw: bytes) -> RawLines | None:
+    """:class:`RawLines` of a file's bytes when they are large enough to be worth it
+    (:data:`RAW_SPAN_BYTES`) and valid for it (no UTF-16 byte-order mark, no carriage return)."""
+    if len(raw) <= RAW_SPAN_BYTES or raw.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\r" in raw:
+        return None
+    return RawLines(raw)
+
+
+def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma: bool, nrows: int,
+                 ncols: int) -> tuple[bool, np.ndarray | None]:
+    """(taken, numbers) of the block ``raw[lo:hi]``, whose lines are the block's ``nrows`` lines.
+
+    ``taken`` is False when the bytes hold anything but :data:`_PURE`, the delimiter and the
+    decimal comma: the caller then converts the joined lines (:func:`convert_block`). Otherwise
+    the bytes *are* the block's text (``"\n".join`` of its stripped lines, in ASCII: no white
+    space to strip, line breaks where the lines end), and ``numbers`` is what
+    :func:`convert_block` gives for that text, computed without copying it three times: one
+    translation of the file's bytes (delimiter to line break, decimal comma to point, every
+    other character to NUL: a NUL in the span is anything impure) whose pieces Arrow reads as
+    views (:func:`_arrow_convert`), the same pieces as the joined text gives."""
+    if delim is None or delim.isspace() or not delim.isascii() or len(delim) != 1 or delim.encode() in _PURE:
+        return False, None
+    head = raw[lo: min(hi, lo + 2**16)]  # a cheap look first: the whole file is translated below
+    if head.translate(None, _PURE + delim.encode() + (b"," if decimal_comma else b"")):
+        return False, None
+    table = bytearray(256)  # zeros: every other byte becomes a NUL
+    for c in _PURE:
+        table[c] = c
+    table[ord(delim)] = ord("\n")
+    if decimal_comma:
+        table[ord(",")] = ord(".")
+    conv = raw.translate(bytes(table))
+    if conv.find(b"\0", lo, hi) >= 0:
+        return False, None
+    data = _arrow_convert(raw, delim, nrows, ncols, lo, hi, conv) if hi - lo > ARROW_BYTES else None
+    if data is not None:
+        return True, _checked(data, nrows, ncols)
+    del conv
+    block = raw[lo:hi]
+    return True, _numpy_convert(block.replace(b",", b".") if decimal_comma else block, delim, nrows, ncols)
 
 
 def _loadtxt(raw: bytes, delim: str | None) -> np.ndarray:
@@ -120,7 +216,8 @@ ARROW_MAX_ROWS = 200_000
 ARROW_PIECE_BYTES = 4 * 2**20
 
 
-def _arrow_convert(raw: bytes, delim: str | None, nrows: int, ncols: int) -> np.ndarray | None:
+def _arrow_convert(raw: bytes, delim: str | None, nrows: int, ncols: int, lo: int = 0, hi: int | None = None,
+                   conv: bytes | None = None) -> np.ndarray | None:
     """The (nrows, ncols) numbers of ``raw`` converted by Arrow's CSV reader (C++, on Arrow's
     threads), or None to leave the block to numpy: pyarrow not installed, a delimiter that is
     whitespace or none, a space or tab in the text, more than :data:`ARROW_MAX_ROWS` rows, a row
@@ -134,8 +231,15 @@ def _arrow_convert(raw: bytes, delim: str | None, nrows: int, ncols: int) -> np.
     conversion, so a cell both accept gives the same float; within the characters that reach
     here (digits, ``. e E + -``, the delimiter, line breaks) Arrow accepts exactly the cells
     numpy accepts (tests/test_spectra_text_dialects.py compares the two on well-formed and
-    malformed cells), and any cell it refuses sends the block to numpy, which decides as before."""
-    if delim is None or delim.isspace() or nrows > ARROW_MAX_ROWS or b" " in raw or b"\t" in raw:
+    malformed cells), and any cell it refuses sends the block to numpy, which decides as before.
+
+    The block is ``raw[lo:hi]`` (default: all of ``raw``). ``conv``: ``raw`` already translated
+    as the pieces need it (the delimiter made a line break, decimal commas points, same length,
+    :func:`span_convert`), so that a piece is a view of it instead of two copies of its bytes."""
+    hi = len(raw) if hi is None else hi
+    if delim is None or delim.isspace() or nrows > ARROW_MAX_ROWS:
+        return None
+    if conv is None and (raw.find(b" ", lo, hi) >= 0 or raw.find(b"\t", lo, hi) >= 0):
         return None
     try:
         import pyarrow as pa
@@ -153,22 +257,23 @@ def _arrow_convert(raw: bytes, delim: str | None, nrows: int, ncols: int) -> np.
                                  ignore_empty_lines=False),
                pcsv.ConvertOptions(column_types={"v": pa.float64()}, null_values=[], strings_can_be_null=False,
                                    quoted_strings_can_be_null=False))
-    a = row = filled = 0
+    view = memoryview(conv) if conv is not None else None
+    a, row, filled = lo, 0, 0
     while row < nrows:
-        if a >= len(raw):  # fewer rows than counted
+        if a >= hi:  # fewer rows than counted
             return None
         # a piece of whole rows of about ARROW_PIECE_BYTES (bounded temporaries), each row's
         # cell count checked (the rows are separated by single line breaks)
-        start, stop = a, min(len(raw), a + ARROW_PIECE_BYTES)
+        start, stop = a, min(hi, a + ARROW_PIECE_BYTES)
         while row < nrows and a < stop:
-            b = raw.find(b"\n", a)
-            b = len(raw) if b < 0 else b
+            b = raw.find(b"\n", a, hi)
+            b = hi if b < 0 else b
             if raw.count(d, a, b) != ncols - 1:
                 return None
             a, row = b + 1, row + 1
+        piece = view[start: a - 1] if view is not None else raw[start: a - 1].replace(d, b"\n")
         try:
-            table = pcsv.read_csv(pa.py_buffer(raw[start: a - 1].replace(d, b"\n")), *options,
-                                  memory_pool=pa.system_memory_pool())
+            table = pcsv.read_csv(pa.py_buffer(piece), *options, memory_pool=pa.system_memory_pool())
         except pa.ArrowException:  # ArrowInvalid: a cell Arrow does not convert
             return None
         col = table.column(0)
@@ -177,7 +282,7 @@ def _arrow_convert(raw: bytes, delim: str | None, nrows: int, ncols: int) -> np.
         for chunk in col.chunks:
             flat[filled: filled + len(chunk)] = float_values(pa, chunk)
             filled += len(chunk)
-    return out if a >= len(raw) else None  # else: more rows than counted
+    return out if a >= hi else None  # else: more rows than counted
 
 
 #: Blocks of more bytes than this are converted by several processes (Linux; see
@@ -324,17 +429,27 @@ def head_tail(non_comment: list) -> tuple[int, int] | None:
     return head_end, max(head_end, n - TAIL_LINES)
 
 
-def fast_block(non_comment: list, memo: _RowMemo) -> tuple[Dialect, Block, int] | None:
+def fast_block(non_comment: list, memo: _RowMemo, raw: RawLines | None = None) -> tuple[Dialect, Block, int] | None:
     """(dialect, data block with ``bulk`` filled, index in ``non_comment`` of the first line
-    after the block) of a file, or None when the line-by-line path must read it."""
+    after the block) of a file, or None when the line-by-line path must read it.
+
+    ``raw``: where the lines lie in the file's bytes (:func:`raw_lines`), so that a clean block
+    is converted from them (:func:`span_convert`) and the lines in the middle of the sample are
+    searched there, instead of joining the lines (same result)."""
     nc = non_comment
     ht = head_tail(nc)
     if ht is None:
         return None
     head_end, tail_start = ht
     has_middle = tail_start > head_end
-    middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
-    plan = sample_plan(nc[:head_end], nc[tail_start:], "," in middle_text, "." in middle_text, has_middle, memo)
+    mid = raw.span(nc, head_end, tail_start) if raw is not None and has_middle else None
+    middle_text = None
+    if raw is not None and mid is not None:
+        marks = raw.raw.find(b",", *mid) >= 0, raw.raw.find(b".", *mid) >= 0
+    else:
+        middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
+        marks = "," in middle_text, "." in middle_text
+    plan = sample_plan(nc[:head_end], nc[tail_start:], *marks, has_middle, memo)
     if plan is None:
         return None
     delim, decimal_comma, start, ncols, end = plan
@@ -342,11 +457,18 @@ def fast_block(non_comment: list, memo: _RowMemo) -> tuple[Dialect, Block, int] 
         end += tail_start
     if end - start < 2:
         return None
-    if has_middle:
-        parts = [s for _, s in nc[start:head_end]] + [middle_text] + [s for _, s in nc[tail_start:end]]
-    else:
-        parts = [s for _, s in nc[start:end]]
-    data = convert_block("\n".join(parts), delim, decimal_comma, end - start, ncols)
+    taken, data = False, None
+    span = raw.span(nc, start, end) if raw is not None else None
+    if raw is not None and span is not None:
+        taken, data = span_convert(raw.raw, *span, delim, decimal_comma, end - start, ncols)
+    if not taken:
+        if not has_middle:
+            parts = [s for _, s in nc[start:end]]
+        else:
+            if middle_text is None:
+                middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
+            parts = [s for _, s in nc[start:head_end]] + [middle_text] + [s for _, s in nc[tail_start:end]]
+        data = convert_block("\n".join(parts), delim, decimal_comma, end - start, ncols)
     if data is None:
         return None
     block = Block(start, nc[start][0], ncols)

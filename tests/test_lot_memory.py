@@ -73,6 +73,14 @@ def test_packed_text_equals_the_tuples_it_packs(monkeypatch):
     assert t2 == names and w2 == warns[:6] and w2.count_nonempty() == 3
     with pytest.raises(IndexError):
         t[6]
+    # slices (taken a range at a time: one decoding per block) equal the lists' own slices
+    for packed, plain in ((t, names), (w, warns)):
+        for a in range(-7, 8):
+            for b in [*range(-7, 8), None]:
+                for step in (None, 1, 2, -1):
+                    assert packed[a:b:step] == plain[a:b:step], (a, b, step)
+    ascii_names = TextColumn(["L1", "L22", "", "L333", "L4", "L55"])
+    assert ascii_names[1:6] == ["L22", "", "L333", "L4", "L55"]  # the ASCII decoding of a range
 
 
 def test_packed_text_goes_to_arrow_as_the_strings_it_packs(monkeypatch):

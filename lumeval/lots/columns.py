@@ -20,6 +20,7 @@ stored, so a lot's statistics and outputs are the same however its samples were 
 
 from __future__ import annotations
 
+import itertools
 import os
 import tempfile
 import zlib
@@ -48,10 +49,18 @@ class _SequenceEq:
     def _one(self, i: int) -> Any:
         raise NotImplementedError
 
+    def _range(self, start: int, stop: int) -> list:
+        """Items ``start:stop`` (``start <= stop``, both in range); a subclass may give them
+        all at once."""
+        return [self._one(k) for k in range(start, stop)]
+
     def __getitem__(self, i):
         n = len(self)  # type: ignore[arg-type]
         if isinstance(i, slice):
-            return [self._one(k) for k in range(*i.indices(n))]
+            start, stop, step = i.indices(n)
+            if step == 1:
+                return self._range(start, max(start, stop))
+            return [self._one(k) for k in range(start, stop, step)]
         if i < 0:
             i += n
         if not 0 <= i < n:
@@ -130,6 +139,15 @@ class TextColumn(_SequenceEq, Sequence[str]):
         start = self._ends[i - 1] if k else 0
         return self._block(b)[start : self._ends[i]].decode(*_ENC)
 
+    def _range(self, start: int, stop: int) -> list[str]:
+        # one decoding for the range (ASCII: a string's bytes are its characters), not one per string
+        data, offsets = self.utf8_slice(start, stop)
+        o = offsets.tolist()
+        if data.isascii():
+            text = data.decode("ascii")
+            return [text[a:b] for a, b in itertools.pairwise(o)]
+        return [data[a:b].decode(*_ENC) for a, b in itertools.pairwise(o)]
+
 
     def utf8_slice(self, start: int, stop: int) -> tuple[bytes, np.ndarray]:
         """Strings ``start:stop`` as their packed bytes joined and the (stop − start + 1) offsets
@@ -188,6 +206,15 @@ class TextTuples(_SequenceEq, Sequence[tuple[str, ...]]):
     def _one(self, i: int) -> tuple[str, ...]:
         start = self._ends[i - 1] if i else 0
         return tuple(self._texts[start : self._ends[i]])
+
+    def _range(self, start: int, stop: int) -> list[tuple[str, ...]]:
+        if stop <= start:
+            return []
+        ends = _ends_array(self._ends)
+        t0 = int(ends[start - 1]) if start else 0
+        texts = self._texts[t0: int(ends[stop - 1])]
+        bounds = [0, *(ends[start:stop] - t0).tolist()]
+        return [tuple(texts[a:b]) for a, b in itertools.pairwise(bounds)]
 
 
     def utf8_slice(self, start: int, stop: int) -> tuple[bytes, np.ndarray, np.ndarray]:

@@ -363,15 +363,29 @@ def _block_text(run, i: int, j: int) -> str:
     meta = [[_quoted(_csv_value(v)) for v in vals] for _, vals in _metadata_values(run, i, j - i)]
     outlier = np.asarray(st.outlier[i:j], dtype=bool).tolist()
     outcomes = [r.outcome[i:j] for r in run.check.results] if run.check is not None else []
+    # the block's texts taken at once (a lot keeps them packed: one decoding per block), and
+    # each distinct tuple of reasons or warnings made a cell once (samples share them)
+    names, sources = run.names[i:j], run.sources[i:j]
+    cells: dict[tuple, str] = {}
+
+    def joined(texts) -> str:
+        key = texts if isinstance(texts, tuple) else tuple(texts)
+        cell = cells.get(key)
+        if cell is None:
+            cell = cells[key] = _quoted(t(" | ".join(key)))
+        return cell
+
+    reasons = [joined(r) for r in st.outlier_reasons[i:j]]
+    warns = [joined(w) for w in run.warnings[i:j]]
     lines = []
     for k in range(j - i):
         s = i + k
-        row = [_quoted(csv_first_cell(run.names[s])), _quoted(t(run.sources[s]))]
+        row = [_quoted(csv_first_cell(names[k])), _quoted(t(sources[k]))]
         row += [m[k] for m in meta]
         row += [verdicts[s] if verdicts is not None else "", "yes" if outlier[k] else "no",
-                _quoted(t(" | ".join(st.outlier_reasons[s]))), stats_txt[k], figs_txt[k]]
+                reasons[k], stats_txt[k], figs_txt[k]]
         row += [o[k] for o in outcomes]
-        row.append(_quoted(t(" | ".join(run.warnings[s]))))
+        row.append(warns[k])
         lines.append(",".join(row))
     return "\n".join(lines) + "\n" if lines else ""
 

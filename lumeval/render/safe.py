@@ -52,8 +52,13 @@ FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
 def clean(value) -> str:
-    """``value`` as one line of inert text: control characters become visible escapes."""
-    return str(value).translate(_TABLE)
+    """``value`` as one line of inert text: control characters become visible escapes.
+
+    A printable string (``str.isprintable``: no character of the categories Cc, Cf, Zl, Zp, Zs
+    other than the space, which hold every character escaped here) is returned as it is,
+    without the translation's lookup per character."""
+    s = str(value)
+    return s if s.isprintable() else s.translate(_TABLE)
 
 
 def text(value, style: str | None = None):

@@ -95,9 +95,9 @@ def test_bytes_route_equals_line_by_line_path_on_dialects(spans, monkeypatch, de
     kind, s = _check_bytes(text.encode("utf-8"))
     assert kind == "ok" and s.values.shape[0] == (40 if extras == "wide" else 3)
     # which blocks come from the bytes: a single-character delimiter that is not white space,
-    # no space in the block, no carriage return in the file, no comment line inside the block
-    # (a comment line inside the block or a carriage return: no span of the bytes is looked at)
-    if extras in {"crlf", "comments"}:
+    # no space in the block (Windows line ends are fine); a comment line inside the block: no
+    # span of the bytes is looked at
+    if extras == "comments":
         assert spans == []
     else:
         assert spans == [delim in {",", ";"}]
@@ -143,6 +143,33 @@ def test_the_bytes_route_is_taken_for_a_clean_wide_file_and_gives_its_numbers(sp
     kind, s = _check_bytes(text.encode("ascii"))
     assert kind == "ok" and spans == [True]
     np.testing.assert_array_equal(s.values, np.array([[float(c) for c in r[1:]] for r in cells]).T)
+
+
+@pytest.mark.parametrize("arrow", [False, True])
+@pytest.mark.parametrize("ends", ["crlf", "crlf, no final", "lone cr", "cr and crlf", "lf and crlf"])
+def test_windows_line_ends(spans, monkeypatch, arrow, ends):
+    """Windows line ends throughout: the bytes route keeps the carriage returns (Arrow reads
+    CR LF as one line break; numpy is given LF); a lone CR anywhere (a line break of its own)
+    keeps the file away from it. Each against the line-by-line path."""
+    if arrow:
+        pytest.importorskip("pyarrow")
+        monkeypatch.setattr(F, "ARROW_BYTES", 64)
+        monkeypatch.setattr(F, "ARROW_PIECE_BYTES", 300)
+    rows = ["Date: 2026-01-02", "wavelength (nm);S;T"] + [f"{380 + k};{k / 7:.6f};{k / 3:.5f}" for k in range(81)]
+    text = {"crlf": "\r\n".join(rows) + "\r\n", "crlf, no final": "\r\n".join(rows),
+            "lone cr": "\r".join(rows) + "\r", "cr and crlf": "\r\n".join(rows[:40]) + "\r" + "\r\n".join(rows[40:]),
+            "lf and crlf": "\r\n".join(rows[:40]) + "\n" + "\r\n".join(rows[40:]) + "\n"}[ends]
+    kind, s = _check_bytes(text.encode())
+    assert kind == "ok" and s.values.shape == (2, 81)
+    assert spans == ([] if ends in {"lone cr", "cr and crlf"} else [True])
+
+
+def test_a_fault_in_a_windows_file_gives_the_line_by_line_message(spans, monkeypatch):
+    monkeypatch.setattr(F, "ARROW_BYTES", 64)
+    monkeypatch.setattr(F, "ARROW_PIECE_BYTES", 300)
+    rows = ["wl,S"] + [f"{380 + k},{'1-2' if k == 40 else k / 7}" for k in range(81)]
+    kind, msg = _check_bytes(("\r\n".join(rows) + "\r\n").encode())
+    assert kind == "error" and "1-2" in msg
 
 
 def test_no_final_line_break_and_trailing_blank_lines(spans):
@@ -202,9 +229,27 @@ def test_raw_lines_find_the_lines_str_split_finds(lines, enc):
         assert r.span([numbered[0], numbered[2]], 0, 2) is None
 
 
-def test_raw_lines_only_for_large_ascii_compatible_bytes_without_carriage_returns():
+def test_raw_lines_only_for_large_ascii_compatible_bytes_without_lone_carriage_returns():
     big = b"wl,S\n" + b"380,1\n" * (F.RAW_SPAN_BYTES // 6 + 1)
-    assert isinstance(F.raw_lines(big), F.RawLines)
+    assert isinstance(F.raw_lines(big), F.RawLines) and not F.raw_lines(big).crlf
     assert F.raw_lines(b"wl,S\n380,1\n") is None  # small: not worth it
-    assert F.raw_lines(big.replace(b"\n", b"\r\n")) is None
+    assert F.raw_lines(big.replace(b"\n", b"\r\n")).crlf  # Windows line ends
+    assert F.raw_lines(big.replace(b"\n", b"\r")) is None  # old Mac line ends
+    assert F.raw_lines(big + b"x\ry\r\n") is None  # one lone carriage return
     assert F.raw_lines(b"\xff\xfe" + big) is None and F.raw_lines(b"\xfe\xff" + big) is None
+
+
+@SETTINGS
+@given(lines=st.lists(_LINE, min_size=1, max_size=30))
+def test_raw_lines_of_windows_line_ends(lines):
+    """The same with CR LF between the lines: a line starts where the split says, a span ends
+    before its last line's CR."""
+    text = "\r\n".join(lines)
+    raw = text.encode("utf-8")
+    r = F.RawLines(raw, crlf=True)
+    numbered = list(enumerate(lines, start=1))
+    for i in range(len(numbered)):
+        assert raw[r.start(i + 1):].decode("utf-8").startswith(lines[i])
+        for j in range(i + 1, min(len(numbered), i + 3) + 1):
+            a, b = r.span(numbered, i, j)
+            assert raw[a:b].decode("utf-8") == "\r\n".join(lines[i:j])

@@ -33,10 +33,11 @@ Why the result is the same (each point is checked, or the fast path gives up):
   threads); it accepts exactly the cells numpy accepts within these characters, with the same
   floats, checks each row's cell count itself, and leaves the block to numpy on any doubt.
 * **Bytes** (files over :data:`RAW_SPAN_BYTES`, :func:`span_convert`): when the block's lines
-  are consecutive lines of the file and its bytes hold only digits, ``. e E + -``, line breaks,
-  the delimiter (one character, not white space) and the decimal comma, those bytes are the
-  joined block's text itself, and the block is converted from them (no join, no encoding, one
-  translation for Arrow's pieces); anything else joins the lines as above.
+  are consecutive lines of the file and its bytes hold only digits, ``. e E + -``, line breaks
+  (``\n``, or ``\r\n`` throughout), the delimiter (one character, not white space) and the
+  decimal comma, those bytes are the joined block's text itself (with ``\r\n`` for ``\n``),
+  and the block is converted from them (no join, no encoding, one translation for Arrow's
+  pieces); anything else joins the lines as above.
 """
 
 from __future__ import annotations
@@ -120,7 +121,8 @@ def _checked(data: np.ndarray | None, nrows: int, ncols: int) -> np.ndarray | No
 #: block is then converted from a view of them (:func:`span_convert`).
 RAW_SPAN_BYTES = 2**20
 #: The characters a block taken from the file's bytes may hold besides its delimiter (and the
-#: decimal comma): no space, tab, carriage return or anything outside ASCII.
+#: decimal comma, and the carriage returns of Windows line ends): no space, tab or anything
+#: outside ASCII.
 _PURE = b"0123456789.eE+-\n"
 
 
@@ -129,13 +131,15 @@ class RawLines:
 
     Valid for bytes decoded by an ASCII-compatible decoding (UTF-8, with or without its
     byte-order mark, cp1252, Latin-1: a byte ``\n`` is the character ``\n`` and ASCII bytes are
-    their characters) holding no carriage return, so that the reader's line ``L`` (1-based,
-    lines split at ``\n``: :func:`~lumeval.spectra.text_dialect._content_lines`) starts after
-    the ``L - 1``-th byte ``\n``. :func:`raw_lines` gives None for any other bytes."""
+    their characters) whose carriage returns, if any, all stand before a line feed (Windows line
+    ends, ``crlf``), so that the reader's line ``L`` (1-based, lines split at ``\r\n``, a lone
+    ``\r`` or ``\n``: :func:`~lumeval.spectra.text_dialect._content_lines`) starts after the
+    ``L - 1``-th byte ``\n``. :func:`raw_lines` gives None for any other bytes."""
 
-    def __init__(self, raw: bytes) -> None:
+    def __init__(self, raw: bytes, crlf: bool = False) -> None:
         self.raw = raw
         self.n = raw.count(b"\n") + 1
+        self.crlf = crlf
 
     def start(self, ln: int) -> int:
         """Offset of line ``ln``'s first byte (searched from the nearer end of the bytes)."""
@@ -156,19 +160,25 @@ class RawLines:
         if last - first != j - i - 1:
             return None
         end = self.start(last + 1) - 1 if last < self.n else len(self.raw)
+        if self.crlf and self.raw[end - 1: end] == b"\r":  # the last line's end, without its \r
+            end -= 1
         return self.start(first), end
 
 
 def raw_lines(raw: bytes) -> RawLines | None:
     """:class:`RawLines` of a file's bytes when they are large enough to be worth it
-    (:data:`RAW_SPAN_BYTES`) and valid for it (no UTF-16 byte-order mark, no carriage return)."""
-    if len(raw) <= RAW_SPAN_BYTES or raw.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\r" in raw:
+    (:data:`RAW_SPAN_BYTES`) and valid for it (no UTF-16 byte-order mark; no carriage return but
+    in Windows line ends)."""
+    if len(raw) <= RAW_SPAN_BYTES or raw.startswith((b"\xff\xfe", b"\xfe\xff")):
         return None
-    return RawLines(raw)
+    crlf = b"\r" in raw
+    if crlf and raw.count(b"\r") != raw.count(b"\r\n"):  # a lone \r is a line break of its own
+        return None
+    return RawLines(raw, crlf)
 
 
 def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma: bool, nrows: int,
-                 ncols: int) -> tuple[bool, np.ndarray | None]:
+                 ncols: int, crlf: bool = False) -> tuple[bool, np.ndarray | None]:
     """(taken, numbers) of the block ``raw[lo:hi]``, whose lines are the block's ``nrows`` lines.
 
     ``taken`` is False when the bytes hold anything but :data:`_PURE`, the delimiter and the
@@ -178,14 +188,19 @@ def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma:
     :func:`convert_block` gives for that text, computed without copying it three times: one
     translation of the file's bytes (delimiter to line break, decimal comma to point, every
     other character to NUL: a NUL in the span is anything impure) whose pieces Arrow reads as
-    views (:func:`_arrow_convert`), the same pieces as the joined text gives."""
+    views (:func:`_arrow_convert`), the same pieces as the joined text gives.
+
+    ``crlf``: the file's lines end with ``\r\n`` (:class:`RawLines`): the span's carriage returns
+    are kept (Arrow reads ``\r\n`` as one line break, so the cells are the same) and taken out
+    for numpy."""
     if delim is None or delim.isspace() or not delim.isascii() or len(delim) != 1 or delim.encode() in _PURE:
         return False, None
+    pure = _PURE + (b"\r" if crlf else b"")
     head = raw[lo: min(hi, lo + 2**16)]  # a cheap look first: the whole file is translated below
-    if head.translate(None, _PURE + delim.encode() + (b"," if decimal_comma else b"")):
+    if head.translate(None, pure + delim.encode() + (b"," if decimal_comma else b"")):
         return False, None
     table = bytearray(256)  # zeros: every other byte becomes a NUL
-    for c in _PURE:
+    for c in pure:
         table[c] = c
     table[ord(delim)] = ord("\n")
     if decimal_comma:
@@ -197,7 +212,7 @@ def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma:
     if data is not None:
         return True, _checked(data, nrows, ncols)
     del conv
-    block = raw[lo:hi]
+    block = raw[lo:hi].replace(b"\r\n", b"\n") if crlf else raw[lo:hi]
     return True, _numpy_convert(block.replace(b",", b".") if decimal_comma else block, delim, nrows, ncols)
 
 
@@ -460,7 +475,7 @@ def fast_block(non_comment: list, memo: _RowMemo, raw: RawLines | None = None) -
     taken, data = False, None
     span = raw.span(nc, start, end) if raw is not None else None
     if raw is not None and span is not None:
-        taken, data = span_convert(raw.raw, *span, delim, decimal_comma, end - start, ncols)
+        taken, data = span_convert(raw.raw, *span, delim, decimal_comma, end - start, ncols, raw.crlf)
     if not taken:
         if not has_middle:
             parts = [s for _, s in nc[start:end]]

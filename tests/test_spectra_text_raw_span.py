@@ -134,6 +134,21 @@ def test_a_fault_anywhere_in_the_block_gives_the_line_by_line_outcome(spans, mon
         assert spans == [False] or spans == []
 
 
+@pytest.mark.parametrize("arrow", [False, True])
+@pytest.mark.parametrize("fault", ["space", "no-break space", "byte-order mark", "none"])
+def test_a_block_impure_past_its_first_64_kib_is_not_taken(spans, monkeypatch, arrow, fault):
+    """The first 64 KiB of a block are looked at first; an impurity after them is found by the
+    whole block's check (numpy's route) or the translation's (Arrow's route)."""
+    if arrow:
+        pytest.importorskip("pyarrow")
+        monkeypatch.setattr(F, "ARROW_BYTES", 1000)
+    rows = [f"{380 + k * 0.01:.2f},{k / 7:.9f},{k / 3:.9f}" for k in range(5000)]  # about 170 kB
+    rows[4900] += {"space": " ", "no-break space": "\u00a0", "byte-order mark": "\ufeff", "none": ""}[fault]
+    kind, s = _check_bytes(("wl,S,T\n" + "\n".join(rows) + "\n").encode())
+    assert kind == "ok" and s.values.shape == (2, 5000)
+    assert spans == [fault == "none"]
+
+
 def test_the_bytes_route_is_taken_for_a_clean_wide_file_and_gives_its_numbers(spans):
     """Values checked against Python's float() of the cells written (a reference outside the reader)."""
     rng = np.random.default_rng(5)

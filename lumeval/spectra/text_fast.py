@@ -196,23 +196,29 @@ def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma:
     if delim is None or delim.isspace() or not delim.isascii() or len(delim) != 1 or delim.encode() in _PURE:
         return False, None
     pure = _PURE + (b"\r" if crlf else b"")
+    allowed = pure + delim.encode() + (b"," if decimal_comma else b"")
     head = raw[lo: min(hi, lo + 2**16)]  # a cheap look first: the whole file is translated below
-    if head.translate(None, pure + delim.encode() + (b"," if decimal_comma else b"")):
+    if head.translate(None, allowed):
         return False, None
-    table = bytearray(256)  # zeros: every other byte becomes a NUL
-    for c in pure:
-        table[c] = c
-    table[ord(delim)] = ord("\n")
-    if decimal_comma:
-        table[ord(",")] = ord(".")
-    conv = raw.translate(bytes(table))
-    if conv.find(b"\0", lo, hi) >= 0:
+    data = None
+    if hi - lo > ARROW_BYTES:  # Arrow's pieces: views of the translated bytes
+        table = bytearray(256)  # zeros: every other byte becomes a NUL
+        for c in pure:
+            table[c] = c
+        table[ord(delim)] = ord("\n")
+        if decimal_comma:
+            table[ord(",")] = ord(".")
+        conv = raw.translate(bytes(table))
+        if conv.find(b"\0", lo, hi) >= 0:
+            return False, None
+        data = _arrow_convert(raw, delim, nrows, ncols, lo, hi, conv)
+        del conv
+        if data is not None:
+            return True, _checked(data, nrows, ncols)
+    block = raw[lo:hi]
+    if hi - lo <= ARROW_BYTES and block.translate(None, allowed):  # (checked above for a larger block)
         return False, None
-    data = _arrow_convert(raw, delim, nrows, ncols, lo, hi, conv) if hi - lo > ARROW_BYTES else None
-    if data is not None:
-        return True, _checked(data, nrows, ncols)
-    del conv
-    block = raw[lo:hi].replace(b"\r\n", b"\n") if crlf else raw[lo:hi]
+    block = block.replace(b"\r\n", b"\n") if crlf else block
     return True, _numpy_convert(block.replace(b",", b".") if decimal_comma else block, delim, nrows, ncols)
 
 

@@ -127,6 +127,14 @@ def test_words_before_a_value_stand_for_a_comparison(text, lower, upper):
     assert (cl.lower, cl.upper) == (pytest.approx(lower) if lower else None, pytest.approx(upper) if upper else None)
 
 
+def test_a_comma_not_between_digits_gets_no_hint():
+    from lumeval.errors import CriteriaError
+
+    with pytest.raises(CriteriaError) as e:
+        claims('[claims]\ncct_K = "90, 95"\n')
+    assert "cannot read the claim" in str(e.value) and "thousands" not in str(e.value)
+
+
 def test_duv_tolerance_alone_is_read_around_the_locus():
     cl = claims('[claims]\nduv = "±0.003"\n').claims[0]
     assert (cl.lower, cl.upper) == (-0.003, 0.003)
@@ -141,6 +149,10 @@ def test_duv_tolerance_alone_is_read_around_the_locus():
     ("±100", ["cannot read the claim"]),          # a tolerance alone is read for Duv only
     ("min. about 90", ["cannot read the claim"]),
     ("90-95-100", ["cannot read the claim"]),
+    # a comma between digits: a thousands separator in one datasheet, a decimal comma in another
+    ("2,700 K", ["cannot read the claim", "neither as a thousands separator nor as a decimal mark", "2700, not 2,700"]),
+    ("0,003", ["neither as a thousands separator nor as a decimal mark", "0.003, not 0,003"]),
+    ("2,700-3,000 K", ["neither as a thousands separator nor as a decimal mark"]),
 ])
 def test_unreadable_wordings_are_refused_with_the_line(text, words):
     from lumeval.errors import CriteriaError

@@ -112,6 +112,18 @@ def _with_words_read(text: str) -> str:
     return text
 
 
+#: A comma between digits: "2,700" (a thousands separator) or "0,003" (a decimal comma).
+_DIGIT_COMMA = re.compile(r"\d,\d")
+
+
+def _comma_hint(text: str) -> str:
+    """Why a claim with a comma between digits was not read: its numbers take neither a
+    thousands separator nor a decimal comma ("1,500" is 1500 in one datasheet, 1.5 in another)."""
+    if len(text) <= _CLAIM_MAX_CHARS and _DIGIT_COMMA.search(text):
+        return ": a comma between digits is read neither as a thousands separator nor as a decimal mark"
+    return ""
+
+
 def _half_unit(text: str) -> float:
     """Half a unit of the last digit written: "90" -> 0.5, "0.85" -> 0.005, "3000" -> 0.5."""
     d = Decimal(text.lstrip("+-"))
@@ -295,8 +307,9 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                 claims.append(_range_claim(key, fig, text, r, tolerances.get(fig), line, err))
                 continue
         if m is None:
-            raise err(("claims",), key, f"cannot read the claim {value!r}",
-                      'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number')
+            raise err(("claims",), key, f"cannot read the claim {value!r}" + _comma_hint(str(value)),
+                      'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number'
+                      + (" (2700, not 2,700; 0.003, not 0,003)" if _comma_hint(str(value)) else ""))
         units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
         if m.group("plus") and (m.group("op") or m.group("tol") is not None):
             raise err(("claims",), key, f"cannot read the claim {value!r}", 'write a minimum as "90+" or ">= 90", not both')

@@ -12,6 +12,8 @@ from __future__ import annotations
 from collections.abc import Callable
 from pathlib import Path
 
+import numpy as np
+
 from ..errors import UsageError
 from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
@@ -37,9 +39,17 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
             lines.append(f"# {_clean(k)}: {_clean(vl)}")
     header = ["wavelength (nm)"] + [_quote(n) for n in spectra.names]
     lines.append(",".join(header))
-    vals = spectra.values
-    for j, wl in enumerate(spectra.wavelengths_nm):
-        lines.append(",".join([repr(float(wl))] + [repr(float(v)) for v in vals[:, j]]))
+    vals = np.asarray(spectra.values, dtype=float)
+    wls = np.asarray(spectra.wavelengths_nm, dtype=float)
+    if vals.size and np.isfinite(vals).all() and np.isfinite(wls).all():
+        # the same cells, a block at a time (Arrow's text where it is repr's: 20,000 spectra at
+        # 1 nm, 8 million numbers, 3.6 -> 1.0 s)
+        from ..render.number_text import number_rows
+
+        lines += number_rows(np.column_stack([wls, vals.T]))
+    else:  # (a value that is not finite is written as repr writes it, e.g. "nan")
+        for j, wl in enumerate(wls.tolist()):
+            lines.append(",".join([repr(wl)] + [repr(float(v)) for v in vals[:, j]]))
     return ("\n".join(lines) + "\n").encode("utf-8", errors="replace")
 
 

@@ -204,18 +204,21 @@ def _joined_array(pa, column, start: int, stop: int):
         data, str_offsets, tuple_offsets = column.utf8_slice(start, stop)
         strings = arrow_strings(pa, data, str_offsets)
         if strings is not None and tuple_offsets[-1] < 2**31:
-            import pyarrow.compute as pc
-
-            offs = np.ascontiguousarray(tuple_offsets, dtype=np.int32)
-            lists = pa.ListArray.from_arrays(pa.Array.from_buffers(pa.int32(), offs.shape[0], [None, pa.py_buffer(offs)]),
-                                             strings)
-            return pc.binary_join(lists, _separator(pa))
+            return joined_runs(pa, strings, tuple_offsets, b" | ")
     return string_array(pa, [" | ".join(r) for r in column[start:stop]])
 
 
-def _separator(pa):
-    """" | " as an Arrow scalar (taken from an array: ``pa.scalar`` imports pandas)."""
-    return arrow_strings(pa, b" | ", np.array([0, 3]))[0]
+def joined_runs(pa, strings, offsets: np.ndarray, sep: bytes):
+    """Runs of the Arrow string array ``strings`` joined with ``sep``: run k is
+    ``strings[offsets[k]:offsets[k + 1]]`` ((runs + 1) int offsets below 2**31), joined by
+    Arrow's ``binary_join``; the separator is an Arrow scalar taken from an array
+    (``pa.scalar`` imports pandas)."""
+    import pyarrow.compute as pc
+
+    offs = np.ascontiguousarray(offsets, dtype=np.int32)
+    lists = pa.ListArray.from_arrays(pa.Array.from_buffers(pa.int32(), offs.shape[0], [None, pa.py_buffer(offs)]),
+                                     strings)
+    return pc.binary_join(lists, arrow_strings(pa, sep, np.array([0, len(sep)]))[0])
 
 
 #: Rows converted to Arrow at a time when writing a lot's samples.

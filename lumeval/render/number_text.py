@@ -117,9 +117,8 @@ def number_rows(block: np.ndarray) -> list[str]:
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    from ..frames import arrow_strings, bool_array
+    from ..frames import bool_array, joined_runs
 
-    comma = arrow_strings(pa, b",", np.array([0, 1]))[0]  # a scalar taken from an array: pa.scalar imports pandas
     step = max(1, ARROW_CALL_CELLS // ncols)
     out: list[str] = []
     for r in range(0, rows, step):
@@ -132,7 +131,5 @@ def number_rows(block: np.ndarray) -> list[str]:
             texts = _arrow_texts(pa, pc, flat)
             if not plain.all():
                 texts = pc.if_else(bool_array(pa, plain), texts, _repr_texts(pa, flat, np.flatnonzero(~plain)))
-        offsets = np.arange(0, n * ncols + 1, ncols, dtype=np.int32)
-        lists = pa.ListArray.from_arrays(pa.Array.from_buffers(pa.int32(), n + 1, [None, pa.py_buffer(offsets)]), texts)
-        out += pc.binary_join(lists, comma).to_pylist()
+        out += joined_runs(pa, texts, np.arange(0, n * ncols + 1, ncols), b",").to_pylist()
     return out

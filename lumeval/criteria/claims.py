@@ -307,9 +307,10 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                 claims.append(_range_claim(key, fig, text, r, tolerances.get(fig), line, err))
                 continue
         if m is None:
-            raise err(("claims",), key, f"cannot read the claim {value!r}" + _comma_hint(str(value)),
+            hint = _comma_hint(str(value))
+            raise err(("claims",), key, f"cannot read the claim {value!r}" + hint,
                       'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number'
-                      + (" (2700, not 2,700; 0.003, not 0,003)" if _comma_hint(str(value)) else ""))
+                      + (" (2700, not 2,700; 0.003, not 0,003)" if hint else ""))
         units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
         if m.group("plus") and (m.group("op") or m.group("tol") is not None):
             raise err(("claims",), key, f"cannot read the claim {value!r}", 'write a minimum as "90+" or ">= 90", not both')

@@ -197,11 +197,9 @@ def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma:
         return False, None
     pure = _PURE + (b"\r" if crlf else b"")
     allowed = pure + delim.encode() + (b"," if decimal_comma else b"")
-    head = raw[lo: min(hi, lo + 2**16)]  # a cheap look first: the whole file is translated below
-    if head.translate(None, allowed):
-        return False, None
-    data = None
     if hi - lo > ARROW_BYTES:  # Arrow's pieces: views of the translated bytes
+        if raw[lo: min(hi, lo + 2**16)].translate(None, allowed):  # a cheap look before the whole file is translated
+            return False, None
         table = bytearray(256)  # zeros: every other byte becomes a NUL
         for c in pure:
             table[c] = c
@@ -216,7 +214,7 @@ def span_convert(raw: bytes, lo: int, hi: int, delim: str | None, decimal_comma:
         if data is not None:
             return True, _checked(data, nrows, ncols)
     block = raw[lo:hi]
-    if hi - lo <= ARROW_BYTES and block.translate(None, allowed):  # (checked above for a larger block)
+    if hi - lo <= ARROW_BYTES and block.translate(None, allowed):  # (a larger block: checked by the translation)
         return False, None
     block = block.replace(b"\r\n", b"\n") if crlf else block
     return True, _numpy_convert(block.replace(b",", b".") if decimal_comma else block, delim, nrows, ncols)
@@ -463,12 +461,16 @@ def fast_block(non_comment: list, memo: _RowMemo, raw: RawLines | None = None) -
         return None
     head_end, tail_start = ht
     has_middle = tail_start > head_end
+
+    def middle() -> str:
+        return "\n".join([s for _, s in nc[head_end:tail_start]])
+
     mid = raw.span(nc, head_end, tail_start) if raw is not None and has_middle else None
     middle_text = None
     if raw is not None and mid is not None:
         marks = raw.raw.find(b",", *mid) >= 0, raw.raw.find(b".", *mid) >= 0
     else:
-        middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
+        middle_text = middle()
         marks = "," in middle_text, "." in middle_text
     plan = sample_plan(nc[:head_end], nc[tail_start:], *marks, has_middle, memo)
     if plan is None:
@@ -486,9 +488,8 @@ def fast_block(non_comment: list, memo: _RowMemo, raw: RawLines | None = None) -
         if not has_middle:
             parts = [s for _, s in nc[start:end]]
         else:
-            if middle_text is None:
-                middle_text = "\n".join([s for _, s in nc[head_end:tail_start]])
-            parts = [s for _, s in nc[start:head_end]] + [middle_text] + [s for _, s in nc[tail_start:end]]
+            parts = [s for _, s in nc[start:head_end]] + [middle_text if middle_text is not None else middle()]
+            parts += [s for _, s in nc[tail_start:end]]
         data = convert_block("\n".join(parts), delim, decimal_comma, end - start, ncols)
     if data is None:
         return None

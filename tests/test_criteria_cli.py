@@ -282,6 +282,8 @@ def test_claims_command(tmp_path, capsys, spectra_dir):
     [
         ("[claims]\nRa9 = '>= 50'\n", "Ra9", ["unknown claim", "did you mean"]),
         ("[claims]\nRa = 'about ninety'\n", "Ra", ["cannot read the claim"]),
+        ("[claims]\ncct_K = '2,700 K'\n", "cct_K", ["neither as a thousands separator nor as a decimal mark",
+                                                   "2700, not 2,700"]),
         ("[claims]\ncct_K = '3000 lm/W'\n", "cct_K", ["does not fit"]),
         ("[claims]\nRa = '>= 90 ± 2'\n", "Ra", ["cannot be combined"]),
         ("[claims]\ncct_K = 12000\n", "cct_K", ["no default tolerance"]),

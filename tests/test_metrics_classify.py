@@ -89,6 +89,14 @@ def test_nan_chromaticity_gives_nan_not_a_category():
     assert np.isfinite(nominal[1])
 
 
+def test_nan_chromaticity_gives_no_sdcm_centre():
+    xy = np.array([IEC_CENTRES["F3000"], [np.nan, 0.4], IEC_CENTRES["F6500"]])
+    centres, steps = nearest_sdcm(xy)
+    assert centres == ("F3000", "", "F6500")
+    assert all(type(c) is str for c in centres)
+    assert np.isnan(steps[1]) and np.all(np.isfinite(steps[[0, 2]]))
+
+
 def test_iec_centres_are_zero_steps_from_themselves():
     names = list(IEC_CENTRES)
     centres, steps = nearest_sdcm(np.array([IEC_CENTRES[k] for k in names]))

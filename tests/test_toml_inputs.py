@@ -115,3 +115,24 @@ def test_a_number_with_thousands_of_digits_names_its_line(kind, tmp_path, capsys
     line = one_error_line(*run(kind, p, capsys)[::2])
     assert f"{p}:5: a number with thousands of digits" in line, line
     assert "sys.set_int_max_str_digits" not in line
+
+
+def test_the_line_locator_reads_quoted_headers_and_skips_multiline_strings():
+    """One locator names the lines of criteria, claims, instrument and decision tables
+    (lumeval.criteria.loader.locate_lines). TOML (v1.0.0, "Table" and "String") allows quoted
+    table names and multi-line strings; Python's tomllib parses the same text, so the expected
+    keys are checked against it."""
+    import tomllib
+
+    from lumeval.criteria.loader import locate_lines
+
+    text = ("top = 1\n['single']\na = 1\n[ \"double\" ]\nb = '''\nc = 2\n'''\nc = 3\n"
+            "[[rows]]\nd = 4\n[[rows]]\nd = 5\n")
+    parsed = tomllib.loads(text)
+    assert parsed["double"]["c"] == 3 and "c = 2" in parsed["double"]["b"]
+    lines = locate_lines(text)
+    assert lines[("top",)] == 1
+    assert lines[("single",)] == 2 and lines[("single", "a")] == 3
+    assert lines[("double",)] == 4 and lines[("double", "b")] == 5
+    assert lines[("double", "c")] == 8  # not the look-alike inside the string on line 6
+    assert lines[("rows", 0, "d")] == 10 and lines[("rows", 1, "d")] == 12

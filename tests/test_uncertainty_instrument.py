@@ -78,6 +78,10 @@ def test_partial_file_keeps_defaults_and_says_so(tmp_path):
         ("[instrument]\n[monte_carlo]\nrepeats = 3\n", 3, "unknown key 'repeats'"),
         ("[instrument]\nnoise_relative = \n", 2, "not valid TOML"),
         ("[instrumnet]\nnoise_relative = 0.1\n", 1, "unknown table"),
+        # quoted headers and a multi-line string whose text looks like a key line: the line of
+        # the real key (the criteria loader's locator, shared since 2026-12-04)
+        ("['instrument']\nstray_light = true\n", 2, "must be a number"),
+        ('[ "instrument" ]\nname = """\nbandwidth_nm = 2\n"""\nbandwidth_nm = -1\n', 5, "≥ 0"),
     ],
 )
 def test_errors_name_file_line_and_key(tmp_path, text, line, words):

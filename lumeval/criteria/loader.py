@@ -38,6 +38,12 @@ _HEADER = re.compile(r"^\[([^\]]+)\]")
 _KEY = re.compile(r"""^("([^"]*)"|'([^']*)'|[A-Za-z0-9_\-]+)\s*=""")
 
 
+def _table_name(header: str) -> str:
+    """A header's table name as the parsed TOML names it: ``[ "a" ]``, ``['a']`` and ``[a]``
+    are all ``a`` (quotes inside a dotted name are dropped too: ``[a."b"]`` is ``a.b``)."""
+    return header.replace('"', "").replace("'", "").strip()
+
+
 def locate_lines(text: str) -> dict[tuple, int]:
     """Map TOML paths to line numbers (1-based).
 
@@ -60,7 +66,7 @@ def locate_lines(text: str) -> dict[tuple, int]:
             continue
         m = _HEADER_AOT.match(s)
         if m:
-            name = m.group(1).strip().strip('"')
+            name = _table_name(m.group(1))
             i = counters.get(name, -1) + 1
             counters[name] = i
             current = (name, i)
@@ -68,7 +74,7 @@ def locate_lines(text: str) -> dict[tuple, int]:
             continue
         m = _HEADER.match(s)
         if m:
-            current = (m.group(1).strip().strip('"'),)
+            current = (_table_name(m.group(1)),)
             out.setdefault(current, lineno)
             continue
         m = _KEY.match(s)

@@ -33,7 +33,6 @@ Unknown keys are errors (a misspelt key would otherwise silently leave a default
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, fields
 from pathlib import Path
 
@@ -175,37 +174,18 @@ MAX_DRAWS_BLOCK = 20_000
 
 # ----------------------------------------------------------------------------------- parsing
 
-_HEADER = re.compile(r"\[([^\]]+)\]")
-_TABLE_NAME = re.compile(r"[A-Za-z0-9_.\-\"' ]+")
-
-
-def _table_header(raw: str) -> str | None:
-    r"""The name in a ``[table]`` header line (a comment may follow), else None. Written without
-    ``\s*`` around a lazy group: Python's backtracking re took time cubic in a run of spaces."""
-    s = raw.strip()
-    m = _HEADER.match(s)
-    if m is None or s[m.end():].lstrip()[:1] not in ("", "#"):
-        return None
-    name = m.group(1).strip()
-    return name if _TABLE_NAME.fullmatch(name) else None
-
 
 def key_line(text: str | None, table: str, key: str | None = None) -> int | None:
     """1-based line of ``key = ...`` inside ``[table]`` of TOML ``text`` (of the header when
-    ``key`` is None); None when it cannot be found (e.g. inline tables)."""
-    if not text:
+    ``key`` is None; a top-level key with ``table=""``); None when it cannot be found (e.g.
+    inline tables). Located by the criteria loader's one TOML line locator
+    (:func:`lumeval.criteria.loader.locate_lines`)."""
+    from ..criteria.loader import locate_lines
+
+    path = tuple(p for p in (table, key) if p)
+    if not text or not path:
         return None
-    current = ""
-    for no, raw in enumerate(text.splitlines(), start=1):
-        name = _table_header(raw)
-        if name is not None and not raw.lstrip().startswith("[["):
-            current = name.replace('"', "").replace("'", "").strip()
-            if key is None and current == table:
-                return no
-            continue
-        if key is not None and current == table and re.match(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=", raw):
-            return no
-    return None
+    return locate_lines(text).get(path)
 
 
 def _number(value, *, file, text, table, key, lower=0.0, upper=math.inf, unit="", hint="") -> float:

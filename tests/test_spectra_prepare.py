@@ -125,6 +125,43 @@ def test_one_nm_grid_uniform_data_off_integers_is_resampled():
     np.testing.assert_allclose(p.values[0][1:], _led(p.wavelengths_nm[1:]), atol=2e-4)
 
 
+@pytest.mark.parametrize("start", [378.0, 382.0, 361.0])
+def test_five_nm_data_off_the_five_nm_tabulation_are_resampled(start):
+    """5 nm data on 378, 383 ... nm are not on the 5 nm grid of the CIE tables (380 ... 780 nm,
+    CIE 15:2004 §7.1; CIE 224:2017 evaluates 380-780 nm): they are interpolated to 1 nm like
+    any other spacing. They were once used as measured and then refused by the TM-30 step."""
+    from lumeval.spectra.prepare import used_as_measured
+
+    wl = np.arange(start, 786.0, 5.0)
+    assert not used_as_measured(wl)
+    assert used_as_measured(np.arange(380.0, 781.0, 5.0)) and used_as_measured(np.arange(361.0, 790.0, 1.0))
+    p = prepare(_set(wl, _led(wl)))
+    assert p.spacing_nm == 1.0 and p.wavelengths_nm[0] <= 380 and p.wavelengths_nm[-1] >= 780
+    assert any("uniform 5 nm data interpolated to 1 nm (Sprague" in n for n in p.notes[0])
+    inside = (p.wavelengths_nm >= wl[0]) & (p.wavelengths_nm <= wl[-1])
+    # the smooth source function reproduced closely (Sprague is exact for quartics)
+    np.testing.assert_allclose(p.values[0][inside], _led(p.wavelengths_nm[inside]), atol=2e-3)
+
+
+def test_a_planckian_at_5_nm_off_the_tabulation_is_its_own_reference():
+    """A Planckian radiator is its own CIE 13.3 and CIE 224 / TM-30 reference below 4000 K:
+    Ra = 100 and Rf = 100 (CIE 13.3-1995; CIE 224:2017), and its CCT is its temperature (CIE 15).
+    Planck's law here from scipy.constants (CODATA h, c, k), independent of lumeval's own; the
+    5 nm sampling and Sprague interpolation cost < 0.05 in the indices and < 1 K (tolerances
+    ours)."""
+    from scipy import constants as k
+
+    from lumeval.engine import evaluate
+
+    wl = np.arange(382.0, 783.0, 5.0)
+    lam = wl * 1e-9
+    spd = 1.0 / (lam**5 * np.expm1(k.h * k.c / (lam * k.k * 3000.0)))
+    ev = evaluate(_set(wl, spd / spd.max()))
+    np.testing.assert_allclose(ev.figure("cct_K"), [3000.0], atol=1.0)
+    np.testing.assert_allclose(ev.figure("Ra"), [100.0], atol=0.05)
+    np.testing.assert_allclose(ev.figure("Rf"), [100.0], atol=0.05)
+
+
 def test_irregular_data_interpolated_close_to_truth():
     rng = np.random.default_rng(3)
     wl = np.unique(np.concatenate([[378.0, 782.0], rng.uniform(378, 782, 300)]))
@@ -254,3 +291,22 @@ def test_implausible_magnitudes_refused(scale, ok):
     else:
         with pytest.raises(InputError, match="implausibly"):
             prepare(s)
+
+
+def test_inspect_reads_5_nm_files_on_and_off_the_tabulation_together(tmp_path, capsys):
+    """Through the CLI: a 5 nm file on 382 ... 782 nm next to one on 380 ... 780 nm; both are
+    evaluated (exit 0), the first with the interpolation note (it once stopped the whole run with
+    exit 2 and a message naming no file)."""
+    from .conftest import run_cli_in_process
+
+    paths = []
+    for start in (380.0, 382.0):
+        wl = np.arange(start, start + 401.0, 5.0)
+        p = tmp_path / f"led_{int(start)}.csv"
+        p.write_text("wavelength_nm,value\n" + "".join(f"{w:g},{v:.6f}\n" for w, v in zip(wl, _led(wl))))
+        paths.append(p)
+    code, out, err = run_cli_in_process(["inspect", *paths, "--format", "csv"], capsys)
+    assert code == 0, err
+    rows = out.strip().splitlines()
+    assert rows[1].startswith("led_380,") and rows[2].startswith("led_382,")
+    assert "interpolated to 1 nm" in out and "led_382" in out

@@ -118,7 +118,7 @@ def _read_many(paths: Sequence[str]) -> tuple[list, list]:
     (:func:`_per_file` gives back the per-file results).
 
     Files whose spectra lie on one wavelength grid that preparation uses as measured (uniform
-    1 or 5 nm on integers: :func:`lumeval.spectra.prepare.used_as_measured`, no arithmetic that
+    1 nm on integers or 5 nm on multiples of 5: :func:`lumeval.spectra.prepare.used_as_measured`, no arithmetic that
     could depend on how many spectra are prepared together) are prepared together, as one set:
     one preparation instead of one per file (about 0.1 ms of the ~0.6 ms a small file costs), and
     one set to send back instead of one per file. Preparation is row by row, so each file's

@@ -273,7 +273,7 @@ def cie133_cri(
     Parameters
     ----------
     wavelengths_nm : array_like, shape (W,)
-        A prepared grid: uniform 1 nm or 5 nm spacing, integer wavelengths, covering 380-780 nm
+        A prepared grid: uniform 1 nm on integers or 5 nm on multiples of 5 nm, covering 380-780 nm
         and lying within 360-830 nm.
     values : array_like, shape (N, W) or (W,)
         Spectral power distributions (any radiometric unit; only relative values matter).

@@ -6,7 +6,8 @@ prepared wavelength grid give arrays of shape (N,) (or (N, 5) for the five α-op
 Conventions (apply to every figure here)
 ----------------------------------------
 - **Grid.** The spectra arrive *prepared* (see ``lumeval.spectra.prepare``): a uniform grid of
-  1 nm or 5 nm on integer wavelengths, inside 360-830 nm, covering at least 380-780 nm.
+  1 nm on integer wavelengths or 5 nm on multiples of 5 nm, inside 360-830 nm, covering at
+  least 380-780 nm.
 - **Integration.** Every integral is the plain sum Σ S(λ) w(λ) Δλ over the spectrum's own grid
   (CIE 15:2004 §7.1 summation, the same rule the tristimulus values use; no trapezoid end
   correction, no weighting tables). Tabulated weighting functions are *sampled* at the grid's
@@ -257,7 +258,7 @@ def photometry(wavelengths_nm: ArrayLike, values: ArrayLike) -> PhotometryResult
     Parameters
     ----------
     wavelengths_nm : array_like, shape (W,)
-        A prepared grid: uniform 1 nm or 5 nm spacing on integer wavelengths, inside 360-830 nm,
+        A prepared grid: uniform 1 nm on integers or 5 nm on multiples of 5 nm, inside 360-830 nm,
         covering at least 380-780 nm (other uniform grids are accepted and sampled the same way).
     values : array_like, shape (N, W) or (W,)
         Spectral power (any radiometric unit per nm: the figures are ratios and do not depend

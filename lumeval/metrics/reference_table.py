@@ -434,7 +434,7 @@ def reference_side(
 ) -> ReferenceSide:
     """One reference side per spectrum for CIE 13.3, TM-30 and CIE 224, from the tables.
 
-    ``wavelengths_nm`` is the spectra's prepared grid (uniform 1 or 5 nm, integer, covering
+    ``wavelengths_nm`` is the spectra's prepared grid (uniform 1 nm on integers or 5 nm on multiples of 5, covering
     380-780 nm within 360-830 nm); the CIE 13.3 part is computed on it, the CIE 224 part on
     its 380-780 nm crop. ``cct_K`` (N,): each spectrum's reference temperature (NaN: none).
     """

@@ -34,7 +34,7 @@ Sources
 
 Wavelength range and grid
 -------------------------
-Spectra arrive prepared (uniform 1 nm or 5 nm, integer wavelengths, covering 380-780 nm; see
+Spectra arrive prepared (uniform 1 nm on integers or 5 nm on multiples of 5 nm, covering 380-780 nm; see
 the shared interface notes). CIE 224:2017 evaluates over 380-780 nm: the spectra are cropped to
 that range here, and all sums (test, reference, CES, CMFs) run over it on the spectra's own grid.
 
@@ -593,7 +593,7 @@ def tm30(
     Parameters
     ----------
     wavelengths_nm : array_like, shape (W,)
-        Prepared grid: uniform 1 nm or 5 nm on integer wavelengths, covering 380-780 nm
+        Prepared grid: uniform 1 nm on integers or 5 nm on multiples of 5 nm, covering 380-780 nm
         (cropped to 380-780 nm here, as CIE 224:2017 computes over that range).
     values : array_like, shape (N, W) or (W,)
         Spectral power distributions (any radiometric scale: the method is relative).

@@ -1,7 +1,7 @@
 """Bring raw spectra onto the computation grid, or refuse them with a reason.
 
-The computation grid (rule set in the shared interfaces): a uniform grid of exactly 1 nm or
-5 nm on integer wavelengths, inside 360-830 nm, covering at least 380-780 nm.
+The computation grid (rule set in the shared interfaces): a uniform grid of exactly 1 nm on
+integer wavelengths or 5 nm on multiples of 5 nm, inside 360-830 nm, covering at least 380-780 nm.
 
 Rules, applied to each spectrum set in this order (every change leaves a note on the
 spectrum, and notes travel into every report):
@@ -13,8 +13,8 @@ spectrum, and notes travel into every report):
    ``NEGATIVE_CLIP_FRACTION`` (5 %) of the peak are treated as measurement noise around zero
    and set to zero (note); anything more negative is an error (a baseline or dark-subtraction
    fault that clipping would hide). The 5 % limit is our rule (common practice, no source).
-3. **Spacing**: data at exactly 1 nm or 5 nm on integer wavelengths are used as measured
-   (CIE 15:2004 §7.1 summation). Other uniform spacings are interpolated to 1 nm with the
+3. **Spacing**: data at exactly 1 nm on integer wavelengths or 5 nm on multiples of 5 nm
+   are used as measured (CIE 15:2004 §7.1 summation). Other uniform spacings are interpolated to 1 nm with the
    Sprague (1880) fifth-order method that CIE 167:2005 recommends for uniformly spaced data.
    Irregular grids are interpolated to 1 nm with a not-a-knot cubic spline, the method CIE
    15:2004 recommends for non-uniformly spaced data (as cited by colour-science's
@@ -316,14 +316,19 @@ def _uniform(d: np.ndarray) -> bool:
 
 
 def _computation_step(step: float, wl: np.ndarray) -> bool:
-    """True when a uniform ``step`` over increasing ``wl`` is a computation grid (1 or 5 nm on
-    integer wavelengths): such data are used as measured, without interpolation."""
-    return (abs(step - 1) < 1e-9 or abs(step - 5) < 1e-9) and _on_integer_grid(wl)
+    """True when a uniform ``step`` over increasing ``wl`` is a computation grid (1 nm on
+    integer wavelengths, or 5 nm on multiples of 5 nm): such data are used as measured, without
+    interpolation. 5 nm data must fall on the 5 nm tabulation of the CIE tables (380, 385 ...
+    780 nm: CIE 15:2004 §7.1 sums on that grid, and CIE 224 / TM-30 evaluate 380-780 nm): 5 nm
+    data on 382, 387 ... nm are interpolated to 1 nm like any other spacing."""
+    if abs(step - 1) < 1e-9:
+        return _on_integer_grid(wl)
+    return abs(step - 5) < 1e-9 and _on_integer_grid(wl / 5.0)
 
 
 def used_as_measured(wavelengths_nm: np.ndarray) -> bool:
     """True when :func:`prepare` uses data on ``wavelengths_nm`` as measured (increasing, uniform
-    1 or 5 nm steps on integer wavelengths): only views, cropping and clipping, no arithmetic
+    1 nm steps on integer wavelengths or 5 nm steps on multiples of 5 nm): only views, cropping and clipping, no arithmetic
     that could depend on how many spectra are prepared together."""
     wl = np.asarray(wavelengths_nm, dtype=float)
     if wl.ndim != 1 or wl.size < 2 or not np.all(np.isfinite(wl)):
@@ -655,7 +660,7 @@ def prepare(spectra: SpectrumSet | Sequence[SpectrumSet]) -> SpectrumSet:
     Returns
     -------
     SpectrumSet
-        Values (N, W) on a uniform 1 nm or 5 nm integer grid inside 360-830 nm covering at
+        Values (N, W) on a uniform 1 nm integer grid or 5 nm grid on multiples of 5 nm, inside 360-830 nm, covering at
         least 380-780 nm; ``notes`` say what was done to each spectrum; ``prepared`` is True
         (preparing it again returns it unchanged).
 

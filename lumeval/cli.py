@@ -251,6 +251,20 @@ def _stopped(signum: int) -> int:
     return 128 + signum
 
 
+def _traceback() -> None:
+    """``--debug``: the traceback of the exception being handled on stderr, before the usual
+    one-line message; the exit code stays the same (2 bad input, 3 a bug), so that a test
+    station running with ``--debug`` never logs bad input as a failed requirement. Each line's
+    control characters are escaped as in every other line lumeval prints (messages quote file
+    content)."""
+    import traceback
+
+    from .render.safe import clean
+
+    for line in traceback.format_exc().splitlines():
+        _say(clean(line), raw=True)
+
+
 def _run(args: list[str]):
     """Run the app; the exit code (or SystemExit's argument).
 
@@ -283,7 +297,7 @@ def _run(args: list[str]):
         return exc.exit_code if exc.exit_code else 2
     except LumevalError as exc:
         if debug:
-            raise
+            _traceback()
         _say(f"lumeval: error: {exc.message}")
         return 2
     except _stop.Stopped as exc:
@@ -291,12 +305,12 @@ def _run(args: list[str]):
     except KeyboardInterrupt:
         return _stopped(signal.SIGINT)
     except OSError as exc:
-        if exc.filename is None and exc.errno in _STREAM_ERRNOS and not debug:
+        if debug:
+            _traceback()
+        if exc.filename is None and exc.errno in _STREAM_ERRNOS:
             # every named file goes through lumeval._io (OutputError naming it): an unnamed write
             # failure is the stream the results are printed to
             return _stdout_error(exc)
-        if debug:
-            raise
         if exc.filename is None:
             _say(f"lumeval: internal error: {type(exc).__name__}: {exc} "
                  "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)")
@@ -308,7 +322,7 @@ def _run(args: list[str]):
         return 2
     except Exception as exc:  # a bug, not bad input: still no traceback unless asked for
         if debug:
-            raise
+            _traceback()
         _say(f"lumeval: internal error: {type(exc).__name__}: {exc} "
              "(please report it with the output of the same command run as `lumeval --debug COMMAND ...`)")
         return 3

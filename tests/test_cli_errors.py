@@ -305,3 +305,35 @@ def test_a_folder_given_to_a_single_file_command_says_which_command_reads_folder
     code, _, err = run([command[0], str(folder), *rest], capsys)
     assert_clean_error(code, err, "is a folder, not a spectrum file", "FOLDER/*.csv", "`lumeval lot` is the command")
     assert not out.exists()
+
+
+def test_debug_adds_the_traceback_but_keeps_the_exit_code(work, capsys):
+    """`--debug` only adds the traceback (README, docs/output-formats.md): bad input still exits
+    2 and a bug still 3, never Python's 1 ("a requirement failed"), each with its usual line;
+    the traceback's lines have their control characters escaped like every other line."""
+    tmp, spd, crit, _ = work
+    crit.write_text(CRITERIA.replace("min =", "mni ="), encoding="utf-8")
+    for argv, line in ((["--debug", "inspect", "/nonexistent/lamp.csv"],
+                        "lumeval: error: /nonexistent/lamp.csv: no such file — check the path"),
+                       (["--debug", "check", spd, "-c", crit], "unknown key 'mni'")):
+        code, out, err = run(argv, capsys)
+        assert code == 2, err
+        assert "Traceback (most recent call last)" in err and "Error" in err
+        assert line in err.rstrip().splitlines()[-1]
+
+
+def test_debug_shows_a_bug_with_exit_3(capsys, monkeypatch, tmp_path):
+    import lumeval.api
+
+    def broken(*a, **k):
+        raise RuntimeError("boom \x1b[2J in a message")
+
+    monkeypatch.setattr(lumeval.api, "inspect", broken)  # the command imports it when it runs
+    spd = tmp_path / "lamp.csv"
+    shutil.copyfile(SPD, spd)
+    for argv, traced in ((["--debug", "inspect", spd], True), (["inspect", spd], False)):
+        code, out, err = run(argv, capsys)
+        assert code == 3, err
+        assert ("Traceback (most recent call last)" in err) is traced
+        assert "\x1b" not in err
+        assert "lumeval: internal error: RuntimeError: boom" in err.splitlines()[-1]

@@ -196,6 +196,10 @@ def test_an_output_that_plots_would_write_is_refused_before_any_work(work, capsy
         (["lot", spd, "-q", "--samples-csv", r / "spd-01-lamp.png", "--plots", r], "--samples-csv"),
         (["check", spd, "-c", crit, "-o", r / "cri-01-lamp.svg", "--plots", r], "--output"),
         (["inspect", spd, "--html", r / "distributions.svg", "--plots", r], "--html"),
+        # found by a docs walkthrough: three figures' names were missing from the guard
+        (["check", spd, "-c", crit, "-o", r / "fidelity-gamut.svg", "--plots", r], "--output"),
+        (["inspect", spd, "--html", r / "chromaticity-xy.png", "--plots", r], "--html"),
+        (["lot", spd, "-q", "--json", r / "colour-vectors-01-lamp.svg", "--plots", r], "--json"),
     ):
         code, _, err = run(argv, capsys)
         one_error_line(code, err, opt, "--plots")
@@ -204,6 +208,26 @@ def test_an_output_that_plots_would_write_is_refused_before_any_work(work, capsy
     code, _, err = run(["lot", spd, "-q", "--json", r / "lot.json", "--plots", r], capsys)
     assert code == 0, err
     assert (r / "lot.json").read_text().startswith("{") and (r / "chromaticity.svg").exists()
+
+
+@pytest.mark.parametrize("n, lot", [(1, None), (3, None), (3, True)])
+def test_every_figure_the_plots_option_writes_is_guarded(tmp_path, n, lot):
+    """Each key report_figures() draws (one spectrum, several, a lot) matches one of the patterns
+    the output guard refuses for another output of the run (PLOT_FILE_PATTERNS)."""
+    import fnmatch
+
+    from lumeval.engine import evaluate
+    from lumeval.render.report_figures import PLOT_FILE_PATTERNS, report_figures
+    from lumeval.spectra.read import read_spectra
+
+    path = lamp_csv(tmp_path / "lamps.csv", names=tuple(f"s{i}" for i in range(n)),
+                    cct=tuple(2700.0 + 300 * i for i in range(n)))
+    figs = report_figures(evaluate(read_spectra(path)), lot=lot)
+    keys = [f.key for f in figs]
+    assert any(k == "fidelity-gamut" for k in keys) and any(k.startswith("colour-vectors") for k in keys)
+    for k in keys:
+        for ext in ("svg", "png"):
+            assert any(fnmatch.fnmatch(f"{k}.{ext}", p) for p in PLOT_FILE_PATTERNS), k
 
 
 def test_a_fifo_among_the_plot_files_is_refused_before_any_work(work, capsys):

@@ -253,9 +253,12 @@ def _colour_vector_figures(ev, idx: list[int], key: str, title: str) -> list[Rep
         colour_vector_figure(ref_unit, test, Rcs_h=_matrix(ev, "Rcs_h", 16)[idx]),
     )]
 
+#: The file stems of :func:`report_figures`' keys (``*``: one per spectrum, or ``lot``). A test
+#: draws every figure of a single spectrum, of several and of a lot and checks each key
+#: against these.
+PLOT_STEMS = ("chromaticity", "chromaticity-xy", "fidelity-gamut", "distributions", "spd-*", "cri-*", "hue-bins-*",
+              "colour-vectors-*")
 #: The files ``--plots DIR`` writes: ``DIR/<key>.svg`` and ``.png`` for the keys of
-#: :func:`report_figures` (``chromaticity``, ``distributions``, ``spd-*``, ``cri-*``,
-#: ``hue-bins-*``). Another output of the same run may not be one of them.
-PLOT_FILE_PATTERNS = tuple(f"{stem}.{ext}" for stem in ("chromaticity", "distributions", "spd-*", "cri-*", "hue-bins-*")
-                           for ext in ("svg", "png"))
+#: :func:`report_figures`. Another output of the same run may not be one of them.
+PLOT_FILE_PATTERNS = tuple(f"{stem}.{ext}" for stem in PLOT_STEMS for ext in ("svg", "png"))
 

@@ -366,10 +366,11 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
             if _same_file(p, q):
                 raise UsageError(f"{opt} and {opt2} both name {_shown(p)}", field=opt2,
                                  fix="give each output its own file")
-    if given:
+    # the files a folder option would replace: those of its names that exist already
+    outs = [(opt, p, _file_ref(p)) for opt, p in given.items()] + _dir_files_present(given_dirs, dir_files)
+    if outs:
         # _same_file(p, src) for every output and input, each output's reference taken once and
         # each input stat-ed once (a lot may have a million input files; none when no output exists)
-        outs = [(opt, p, _file_ref(p)) for opt, p in given.items()]
         any_exists = any(ref[0] is not None for _, _, ref in outs)
         for src in chain(_input_files(inputs), input_files):
             src_ref = _file_ref(src) if any_exists else (None, os.path.abspath(src))
@@ -377,6 +378,26 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
                 if _same_ref(ref, src_ref):
                     raise UsageError(f"{_shown(p)} is one of the input files: writing it would destroy the input",
                                      field=opt, fix="choose another output file name")
+
+
+def _dir_files_present(given_dirs: dict, dir_files: Mapping) -> list[tuple[str, Path, tuple]]:
+    """(option, path, reference) of each existing file in a target folder whose name the
+    folder option writes (``dir_files`` patterns): an input there under such a name (a spectrum
+    saved as ``chromaticity.svg``) would be replaced. Only the folder is listed, not the inputs."""
+    import fnmatch
+
+    out = []
+    for opt, d in given_dirs.items():
+        pats = tuple(dir_files.get(opt, ()))
+        if not pats:
+            continue
+        try:
+            with os.scandir(d) as it:
+                names = [e.name for e in it if any(fnmatch.fnmatchcase(e.name, pat) for pat in pats)]
+        except (OSError, ValueError):  # not there yet (created by the run), or not a folder: checked elsewhere
+            continue
+        out += [(opt, d / name, _file_ref(d / name)) for name in names]
+    return out
 
 
 def _file_id(p) -> tuple[int, int] | None:

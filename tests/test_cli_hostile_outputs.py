@@ -210,6 +210,46 @@ def test_an_output_that_plots_would_write_is_refused_before_any_work(work, capsy
     assert (r / "lot.json").read_text().startswith("{") and (r / "chromaticity.svg").exists()
 
 
+def test_plots_never_replace_an_input_named_like_a_figure(work, capsys):
+    """An input (a spectrum, a criteria file) saved in the --plots folder under a figure's name
+    was replaced by the figure (found by exploratory testing); now refused like any output
+    naming an input, before any work, inputs unchanged."""
+    tmp, spd, crit = work
+    r = tmp / "R"
+    r.mkdir()
+    as_plot = r / "chromaticity.svg"
+    as_plot.write_bytes(spd.read_bytes())
+    crit_as_plot = r / "fidelity-gamut.png"
+    crit_as_plot.write_bytes(crit.read_bytes())
+    before = {p: p.read_bytes() for p in (as_plot, crit_as_plot)}
+    for argv in (["inspect", as_plot, "--plots", r], ["lot", as_plot, "-q", "--plots", r],
+                 ["check", spd, "-c", crit_as_plot, "--plots", r]):
+        code, _, err = run(argv, capsys)
+        one_error_line(code, err, "one of the input files")
+    assert {p: p.read_bytes() for p in (as_plot, crit_as_plot)} == before
+    assert sorted(q.name for q in r.iterdir()) == ["chromaticity.svg", "fidelity-gamut.png"]
+    # a previous run's figures in the folder are no inputs: a second run replaces them
+    code, _, err = run(["lot", spd, "-q", "--plots", tmp / "P"], capsys)
+    assert code == 0, err
+    code, _, err = run(["lot", spd, "-q", "--plots", tmp / "P"], capsys)
+    assert code == 0, err
+
+
+def test_an_output_never_replaces_the_history_store(work, capsys):
+    """`lot --store h.db --json h.db` replaced the store (every recorded lot) with the JSON, then
+    failed to record (found by exploratory testing); the store is an input of the run."""
+    tmp, spd, crit = work
+    store = tmp / "h.db"
+    code, _, err = run(["lot", spd, "-q", "--store", store], capsys)
+    assert code == 0, err
+    before = store.read_bytes()
+    for opt in ("--json", "--samples-csv", "--html", "--samples-parquet"):
+        for target in (store, f"sqlite:///{store}"):
+            code, _, err = run(["lot", spd, "-q", "--store", target, opt, store], capsys)
+            one_error_line(code, err, opt, "one of the input files")
+    assert store.read_bytes() == before
+
+
 @pytest.mark.parametrize("n, lot", [(1, None), (3, None), (3, True)])
 def test_every_figure_the_plots_option_writes_is_guarded(tmp_path, n, lot):
     """Each key report_figures() draws (one spectrum, several, a lot) matches one of the patterns

@@ -21,6 +21,7 @@ unread samples cannot be declared to pass).
 
 from __future__ import annotations
 
+import contextlib
 import sys
 from collections.abc import Callable
 from enum import Enum
@@ -197,10 +198,18 @@ def register(app: typer.Typer) -> None:
         # the inputs expanded once: for the outputs-vs-inputs check and for the run (not for a
         # Dask run, which expands its own archives)
         expanded = expand_inputs(paths) if scheduler is None and workers is None else None
+        # the history store is an input too: an output naming it would replace every recorded lot
+        # (a store URL that cannot be used is reported when the lot is recorded, after its outputs)
+        store_file = None
+        if store is not None:
+            from ..store.db import StoreError, parse_store_url
+
+            with contextlib.suppress(StoreError):
+                store_file = parse_store_url(store).sqlite_path
         check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
-                      inputs=[p for p in (criteria_file, instrument) if p is not None],
+                      inputs=[p for p in (criteria_file, instrument, store_file) if p is not None],
                       input_files=(_inputs_to_keep(expanded if expanded is not None else expand_inputs(paths), outputs)
-                                   if any(v is not None for v in outputs.values()) else ()))
+                                   if any(v is not None for v in (*outputs.values(), plots)) else ()))
         from ..api import lot
 
         report = html is not None or plots is not None

@@ -79,6 +79,14 @@ def test_alarm_and_fail_on_signal(store_url, tmp_path):
     assert (tmp_path / "s.csv").exists() and (tmp_path / "lot.json").exists()
     t = lumeval("history", "trend", "--store", store_url, "--product", "AD", "--figure", "R9", "--fail-on-signal")
     assert t.returncode == 1 and "WE1" in t.stdout
+    # the terminal trend ends with the cautions its JSON and HTML carry (docs/report.md: every
+    # terminal report; it had none, found by a docs walkthrough)
+    from lumeval.render.tables import CAUTIONS
+    from lumeval.store.trend import CHART_CAUTIONS
+
+    tail = " ".join(t.stdout.split())
+    for c in (*CHART_CAUTIONS, *CAUTIONS):
+        assert " ".join(c.split()) in tail, c
 
 
 @pytest.mark.parametrize("url, expect", [
@@ -249,3 +257,17 @@ def test_demo_weekly_drift_is_flagged(tmp_path):
     assert flagged == {6, 7, 8}
     edge = trend(db, "centroid_edge_margin", baseline_count=5)
     assert edge.points[-1].mean < edge.points[0].mean  # heading for the quadrangle edge
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes are a POSIX feature")
+def test_a_fifo_as_store_is_refused_not_waited_on(tmp_path):
+    """A store path naming a FIFO made `lot --store`, `history list` and `history trend` wait
+    forever on opening it (found by exploratory testing); it is refused like any input that is
+    not a regular file, exit 2, the lot's other outputs written."""
+    fifo = tmp_path / "fifo.db"
+    os.mkfifo(fifo)
+    for r in (lot(tmp_path, "--store", fifo), lumeval("history", "list", "--store", fifo, timeout=60),
+              lumeval("history", "trend", "--store", fifo, "--figure", "duv", timeout=60)):
+        assert r.returncode == 2, (r.returncode, r.stderr)
+        assert "FIFO" in one_error_line(r)
+    assert (tmp_path / "s.csv").stat().st_size > 0

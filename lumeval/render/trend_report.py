@@ -154,6 +154,9 @@ def print_trend(tr, console=None) -> None:
         console.print(Text("No signal: every lot is inside the limits and no Western Electric rule is broken."))
     for n in tr.notes:
         console.print(Text("note: " + n, style="dim"))
+    # the chart cautions and the report cautions, once at the end, as the JSON and HTML carry them
+    for c in doc["cautions"]:
+        console.print(Text("Caution: " + c, style="dim"))
 
 
 # --------------------------------------------------------------------------- trend, HTML figures

@@ -371,6 +371,14 @@ def connect(su: StoreURL, *, write: bool, action: str):
         if write and not os.path.isdir(folder):
             raise StoreError(f"{su.shown}: the folder {folder} does not exist", fix="create the folder first")
         if os.path.exists(p):
+            import stat
+
+            mode = os.stat(p).st_mode
+            if not stat.S_ISREG(mode):  # a FIFO would block the open (and SQLite) forever
+                from ..spectra.text import special_file_kind
+
+                raise StoreError(f"{su.shown}: is {special_file_kind(mode)}, not a regular file: a store is a file",
+                                 fix="give the path of a lumeval store file such as history.db")
             try:
                 with open(p, "rb") as fh:
                     head = fh.read(16)

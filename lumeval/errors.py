@@ -9,6 +9,9 @@ traceback).
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
+
 
 class LumevalError(Exception):
     """Base class of every error lumeval reports to its user."""
@@ -105,3 +108,47 @@ def quote(value, limit: int = QUOTE_MAX) -> str:
         text = text[:limit]
     r = repr(text)
     return r[:-1] + "…" + r[-1] if cut else r
+
+
+def shown(value, limit: int = QUOTE_MAX) -> str:
+    """A value read from a user's file (a TOML number, string, array...) as a one-line message
+    shows it: as ``repr`` writes it when that is at most ``limit`` characters; a longer integer as
+    its first digits, an ellipsis and its digit count; a longer string through :func:`quote`; an
+    array item by item by the same rule; anything else cut to ``limit`` characters with an
+    ellipsis."""
+    if isinstance(value, str):
+        return quote(value, limit)
+    if isinstance(value, list):  # each item shown by this rule: a huge integer in an array as well
+        text = "[" + ", ".join(shown(v, limit) for v in value[:limit // 2]) + (", …]" if len(value) > limit // 2 else "]")
+    else:
+        text = repr(value)
+    if len(text) <= limit:
+        return text
+    if isinstance(value, int) and not isinstance(value, bool):
+        digits = len(text.lstrip("-"))
+        return f"{text[:limit // 4]}… ({digits} digits)"
+    return text[:limit] + "…"
+
+
+#: The fix every message refusing a number outside float's range gives: lumeval's rule, with
+#: 1e308 a round figure below the largest finite IEEE 754 binary64 value, about 1.7977e308.
+FINITE_FIX = "write a plain number within ±1e308"
+
+
+def finite_float(value: int | float, fail: Callable[[str], Exception]) -> float:
+    """A number read from a TOML file (an int or a float; the caller has checked the type) as a
+    finite float, or the caller's own error.
+
+    TOML integers have no size limit in Python's reader (up to its 4300-digit limit on parsing
+    integers), and ``float(n)`` raises OverflowError for ``|n|`` beyond float's range (about
+    1.8e308); ``inf`` and ``nan`` are TOML floats. All of them are refused the same way:
+    ``fail(text)`` builds the exception to raise, ``text`` being the value as a message shows it
+    (:func:`shown`: a 310-digit integer is never quoted whole). Every reader of numbers from
+    criteria, claims, instrument and manifest files goes through this one conversion."""
+    try:
+        v = float(value)
+    except OverflowError:
+        v = math.inf
+    if not math.isfinite(v):
+        raise fail(shown(value))
+    return v

@@ -43,7 +43,7 @@ from decimal import Decimal
 import numpy as np
 
 from .. import figures
-from ..errors import CriteriaError
+from ..errors import FINITE_FIX, CriteriaError, finite_float, shown
 from . import regions
 from .loader import locate_lines
 from .model import figure_unit, fmt_number, is_number, suggest
@@ -254,7 +254,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             s = suggest(k, TOP_LEVEL_KEYS)
             raise err((), k, f"unknown key {k!r} at the top level", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(TOP_LEVEL_KEYS)}")
     if FORMAT_KEY in data and data[FORMAT_KEY] != FORMAT_VERSION:
-        raise err((), FORMAT_KEY, f"unsupported format version {data[FORMAT_KEY]!r}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
+        raise err((), FORMAT_KEY, f"unsupported format version {shown(data[FORMAT_KEY])}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
     supplier = {}
     for k, v in (data.get("supplier") or {}).items():
         if k not in SUPPLIER_KEYS:
@@ -274,9 +274,16 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         if fk is None:
             s = suggest(k, figures.spellings())
             raise err(("tolerances",), k, f"unknown figure {k!r}", (f"did you mean {s!r}? " if s else "") + "use a figure name, as in [claims]")
-        if not is_number(v) or not np.isfinite(v) or v < 0:
-            raise err(("tolerances",), k, f"must be a non-negative number, got {v!r}", "write the tolerance in the figure's own units, e.g. Ra = 1")
-        tolerances[fk] = float(v)
+        if not is_number(v):
+            raise err(("tolerances",), k, f"must be a non-negative number, got {shown(v)}", "write the tolerance in the figure's own units, e.g. Ra = 1")
+
+        def not_finite(text: str, k: str = k) -> CriteriaError:
+            return err(("tolerances",), k, f"must be a finite non-negative number, got {text}", FINITE_FIX)
+
+        t = finite_float(v, not_finite)
+        if t < 0:
+            raise err(("tolerances",), k, f"must be a non-negative number, got {shown(v)}", "write the tolerance in the figure's own units, e.g. Ra = 1")
+        tolerances[fk] = t
 
     claims = []
     for key, value in raw.items():
@@ -308,7 +315,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                 continue
         if m is None:
             hint = _comma_hint(str(value))
-            raise err(("claims",), key, f"cannot read the claim {value!r}" + hint,
+            raise err(("claims",), key, f"cannot read the claim {shown(value)}" + hint,
                       'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number'
                       + (" (2700, not 2,700; 0.003, not 0,003)" if hint else ""))
         units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
@@ -319,7 +326,8 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(fig) or 'none'!r})", f"write {key} in {figure_unit(fig) or 'plain numbers'}")
         v = float(m.group("value"))
         if not np.isfinite(v) or (m.group("tol") is not None and not np.isfinite(float(m.group("tol")))):
-            raise err(("claims",), key, f"the claim {value!r} holds a number too large to represent", "write the value as the datasheet states it, e.g. \">= 90\"")
+            raise err(("claims",), key, f"the claim {shown(value)} holds a number too large to represent",
+                      "write the value as the datasheet states it, e.g. \">= 90\" (plain numbers within ±1e308)")
         op = m.group("op") or (">=" if m.group("plus") else "")
         t_override = tolerances.get(fig)
         if m.group("tol") is not None:

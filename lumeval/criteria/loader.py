@@ -11,7 +11,7 @@ import re
 
 from .._toml import loads as toml_loads
 from .._toml import read_text
-from ..errors import CriteriaError
+from ..errors import CriteriaError, shown
 from .model import CLAUSE_KINDS, COMMON_KEYS, Criteria, ParseError, suggest
 
 #: Format marker: ``lumeval_criteria = 1`` (optional; other values are refused).
@@ -132,7 +132,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
         if key not in TOP_LEVEL_KEYS:
             raise _unknown_key(where, (), key, TOP_LEVEL_KEYS, "the top level")
     if FORMAT_KEY in data and data[FORMAT_KEY] != FORMAT_VERSION:
-        raise where.error((), FORMAT_KEY, f"unsupported format version {data[FORMAT_KEY]!r}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
+        raise where.error((), FORMAT_KEY, f"unsupported format version {shown(data[FORMAT_KEY])}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
 
     ident_raw = data.get("identification", {})
     if not isinstance(ident_raw, dict):
@@ -168,7 +168,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
         if not isinstance(kind, str) or kind not in CLAUSE_KINDS:
             s = suggest(str(kind), kinds)
             hint = f"did you mean {s!r}? " if s else ""
-            raise where.error(path, "kind", f"unknown clause kind {kind!r}", f"{hint}allowed: {', '.join(kinds)}")
+            raise where.error(path, "kind", f"unknown clause kind {shown(kind)}", f"{hint}allowed: {', '.join(kinds)}")
         cls = CLAUSE_KINDS[kind]
         allowed = list(COMMON_KEYS) + list(cls.KEYS)
         for key in table:
@@ -178,7 +178,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
                 raise _unknown_key(where, path, key, allowed, f"a {kind!r} clause", other)
         cid = table.get("id", f"C{i + 1}")
         if not isinstance(cid, str) or not cid.strip():
-            raise where.error(path, "id", f"must be a non-empty string, got {cid!r}", 'write e.g. id = "R9"')
+            raise where.error(path, "id", f"must be a non-empty string, got {shown(cid)}", 'write e.g. id = "R9"')
         if cid in seen_ids:
             raise where.error(path, "id", f"duplicate clause id {cid!r} (also clause {seen_ids[cid] + 1})", "give each clause its own id")
         seen_ids[cid] = i
@@ -186,7 +186,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
         for key in ("label", "note"):
             v = table.get(key, "")
             if not isinstance(v, str):
-                raise where.error(path, key, f"must be a string, got {v!r}", f'write {key} = "..."')
+                raise where.error(path, key, f"must be a string, got {shown(v)}", f'write {key} = "..."')
             common[key] = v
         try:
             clause = cls.parse(table, common)

@@ -23,6 +23,7 @@ from typing import Any, ClassVar
 import numpy as np
 
 from .. import figures
+from ..errors import FINITE_FIX, finite_float, shown
 from . import presets, regions
 from .verdicts import NOT_VALID, CheckResult, ClauseResult, margin_to_limits, simple_outcomes
 
@@ -266,10 +267,8 @@ def number(table: dict, key: str, *, positive: bool = False, allow_zero: bool = 
         return None
     v = table[key]
     if not is_number(v):
-        raise ParseError(key, f"must be a number, got {v!r}", "write a plain number, e.g. 90 or 0.0035")
-    v = float(v)
-    if not np.isfinite(v):
-        raise ParseError(key, f"must be a finite number, got {v}", "write a finite number")
+        raise ParseError(key, f"must be a number, got {shown(v)}", "write a plain number, e.g. 90 or 0.0035")
+    v = finite_float(v, lambda s: ParseError(key, f"must be a finite number, got {s}", FINITE_FIX))
     if positive and (v < 0 or (v == 0 and not allow_zero)):
         raise ParseError(key, f"must be greater than zero, got {v:g}", "write a positive number")
     return v
@@ -344,10 +343,9 @@ class FigureClause(ClauseKind):
                 raise ParseError("range", "`range` cannot be combined with `min` or `max`", "use either range = [low, high] or min/max")
             r = table["range"]
             if not (isinstance(r, list) and len(r) == 2 and all(is_number(v) for v in r)):
-                raise ParseError("range", f"must be an array of two numbers, got {r!r}", "write e.g. range = [2870, 3220]")
-            lo, hi = float(r[0]), float(r[1])
-            if not (np.isfinite(lo) and np.isfinite(hi)):
-                raise ParseError("range", "limits must be finite numbers", "write finite numbers")
+                raise ParseError("range", f"must be an array of two numbers, got {shown(r)}", "write e.g. range = [2870, 3220]")
+            lo, hi = (finite_float(v, lambda s: ParseError("range", f"limits must be finite numbers, got {s}", FINITE_FIX))
+                      for v in r)
             if lo > hi:
                 raise ParseError("range", f"low limit {lo:g} is above high limit {hi:g}", "write range = [low, high] with low ≤ high")
         elif lo is None and hi is None:
@@ -460,10 +458,11 @@ class AnsiQuadrangleClause(ClauseKind):
                                      f"write a tolerance from 1 to {top:.0f} K (or leave it out for the flexible-CCT formula)")
             label = common["label"] or f"inside {name} flexible {tgt:.0f} K quadrangle"
             return cls(common["id"], label, common["note"], common["line"], None, tgt, tol, ed)
-        if not (is_number(nom) and float(nom) in table_1):
-            other = [e for e in regions.ANSI_EDITIONS if e != ed and is_number(nom) and float(nom) in regions.ansi_table(e)]
+        # the categories are int keys: 3000.0 finds 3000 without a float() that a huge integer overflows
+        if not (is_number(nom) and nom in table_1):
+            other = [e for e in regions.ANSI_EDITIONS if e != ed and is_number(nom) and nom in regions.ansi_table(e)]
             hint = f" (it is one of edition {other[0]})" if other else ""
-            raise ParseError("nominal_cct", f"{nom!r} is not a nominal CCT category of {name}{hint}", f"allowed: {allowed}")
+            raise ParseError("nominal_cct", f"{shown(nom)} is not a nominal CCT category of {name}{hint}", f"allowed: {allowed}")
         for k in ("target_cct_K", "tolerance_K"):
             if k in table:
                 raise ParseError(k, f"`{k}` applies only to a flexible category", 'remove it, or set nominal_cct = "flexible"')
@@ -589,8 +588,8 @@ class SdcmClause(ClauseKind):
             ell = regions.macadam1942_ellipse(k)
         else:
             c = table["centre_xy"]
-            if not (isinstance(c, list) and len(c) == 2 and all(is_number(v) for v in c) and all(0 < float(v) < 1 for v in c)):
-                raise ParseError("centre_xy", f"must be [x, y] with 0 < x, y < 1, got {c!r}", "write e.g. centre_xy = [0.4338, 0.4030]")
+            if not (isinstance(c, list) and len(c) == 2 and all(is_number(v) for v in c) and all(0 < v < 1 for v in c)):
+                raise ParseError("centre_xy", f"must be [x, y] with 0 < x, y < 1, got {shown(c)}", "write e.g. centre_xy = [0.4338, 0.4030]")
             if len(gkeys) != 3:
                 missing = [k for k in ("g11", "g12", "g22") if k not in table]
                 raise ParseError(None, f"centre_xy needs the ellipse coefficients; missing {', '.join(missing)}", "add g11, g12 and g22 of your 1-step ellipse")

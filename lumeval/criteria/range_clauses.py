@@ -29,6 +29,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
+from ..errors import FINITE_FIX, finite_float, shown
 from .model import (
     ClauseKind,
     KeySpec,
@@ -57,10 +58,8 @@ JUDGED_BY = "`lumeval mix` or `lumeval series`"
 def parse_over(value) -> tuple[float, float]:
     """``over = [low, high]`` -> (low, high); :class:`ParseError` otherwise."""
     if not (isinstance(value, list) and len(value) == 2 and all(is_number(v) for v in value)):
-        raise ParseError("over", f"must be an array of two numbers, got {value!r}", "write e.g. over = [2700, 5000]")
-    lo, hi = float(value[0]), float(value[1])
-    if not (np.isfinite(lo) and np.isfinite(hi)):
-        raise ParseError("over", "limits must be finite numbers", "write finite numbers")
+        raise ParseError("over", f"must be an array of two numbers, got {shown(value)}", "write e.g. over = [2700, 5000]")
+    lo, hi = (finite_float(v, lambda s: ParseError("over", f"limits must be finite numbers, got {s}", FINITE_FIX)) for v in value)
     if lo > hi:
         raise ParseError("over", f"low end {lo:g} is above high end {hi:g}", "write over = [low, high] with low ≤ high")
     return lo, hi
@@ -143,9 +142,9 @@ class RangeKind(ClauseKind):
 def _reference_value(v):
     if isinstance(v, str) and v in ("max", "min", "locus"):
         return v
-    if is_number(v) and np.isfinite(float(v)):
-        return float(v)
-    raise ParseError("reference", f"must be \"max\", \"min\", \"locus\" or a setting (number), got {v!r}",
+    if is_number(v):
+        return finite_float(v, lambda s: ParseError("reference", f"must be a finite number when it names a setting, got {s}", FINITE_FIX))
+    raise ParseError("reference", f"must be \"max\", \"min\", \"locus\" or a setting (number), got {shown(v)}",
                      'write e.g. reference = "max" (full output) or reference = 100')
 
 

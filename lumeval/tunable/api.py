@@ -23,7 +23,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import InputError, UsageError
+from ..errors import FINITE_FIX, InputError, UsageError, finite_float, quote, shown
 
 #: Where a series takes its settings from.
 SETTING_SOURCES = ("name", "metadata", "manifest")
@@ -272,9 +272,10 @@ def _read_manifest(path) -> tuple[dict[str, float], str]:
 
 
 def _number(v, file: str, line, field: str) -> float:
-    if isinstance(v, bool) or not isinstance(v, (int, float)) or not np.isfinite(float(v)):
-        raise InputError(f"setting {v!r} is not a finite number", file=file, line=line, field=field, fix="write a plain number")
-    return float(v)
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        raise InputError(f"setting {shown(v)} is not a finite number", file=file, line=line, field=field, fix="write a plain number")
+    return finite_float(v, lambda s: InputError(f"setting {s} is not a finite number", file=file, line=line, field=field,
+                                                fix=FINITE_FIX))
 
 
 def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
@@ -290,7 +291,10 @@ def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
     st = data.get("settings")
     if not isinstance(st, dict) or not st:
         raise InputError("no [settings] table", file=file, fix='add [settings] with lines "file name" = setting')
-    return {str(k): _number(v, file, None, str(k)) for k, v in st.items()}, unit
+    from ..criteria.loader import locate_lines
+
+    lines = locate_lines(text)
+    return {str(k): _number(v, file, lines.get(("settings", k)), str(k)) for k, v in st.items()}, unit
 
 
 def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str]:
@@ -306,9 +310,9 @@ def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str]:
         except ValueError:
             if n == 0:  # header row
                 continue
-            raise InputError(f"setting {val!r} is not a number", file=file, line=n + 1, fix="write a plain number") from None
+            raise InputError(f"setting {quote(val)} is not a number", file=file, line=n + 1, fix="write a plain number") from None
         if not np.isfinite(v):
-            raise InputError(f"setting {val!r} is not a finite number", file=file, line=n + 1, fix="write a plain number")
+            raise InputError(f"setting {quote(val)} is not a finite number", file=file, line=n + 1, fix="write a plain number")
         out[name] = v
         if len(r) > 2 and r[2].strip():
             unit = r[2].strip()[:16]

@@ -51,12 +51,11 @@ script; the JSON output says which); 2 bad input.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import CriteriaError
+from ..errors import CriteriaError, finite_float, shown
 from .instrument import key_line
 
 PASS = "pass"
@@ -335,9 +334,15 @@ def rule_from_table(table: dict, *, file: str | None = None, text: str | None = 
     ):
         if key in table:
             v = table[key]
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(float(v)) \
-                    or not (lo < float(v) <= hi if key == "guard_band_factor" else lo <= float(v) <= hi):
-                raise CriteriaError(f"{key} = {v!r} is outside the accepted range ({lo:g} to {hi:g})", file=file,
-                                    line=key_line(text, table_name, key), field=f"{table_name}.{key}", fix=fix)
-            kw[key] = float(v)
+
+            def outside(shown_v: str, key=key, lo=lo, hi=hi, fix=fix) -> CriteriaError:
+                return CriteriaError(f"{key} = {shown_v} is outside the accepted range ({lo:g} to {hi:g})", file=file,
+                                     line=key_line(text, table_name, key), field=f"{table_name}.{key}", fix=fix)
+
+            if isinstance(v, bool) or not isinstance(v, (int, float)):
+                raise outside(shown(v))
+            f = finite_float(v, outside)  # a huge integer or inf/nan: outside the range as well
+            if not (lo < f <= hi if key == "guard_band_factor" else lo <= f <= hi):
+                raise outside(shown(v))
+            kw[key] = f
     return DecisionRule(**kw)

@@ -36,7 +36,7 @@ import math
 from dataclasses import dataclass, fields
 from pathlib import Path
 
-from ..errors import CriteriaError, InputError
+from ..errors import FINITE_FIX, CriteriaError, InputError, finite_float, shown
 
 
 @dataclass(frozen=True)
@@ -103,9 +103,16 @@ class InstrumentModel:
     def __post_init__(self) -> None:
         for k in PARAMETERS:
             v = getattr(self, k)
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
-                raise ValueError(f"InstrumentModel.{k} must be a finite number ≥ 0, got {v!r}")
-            object.__setattr__(self, k, float(v))
+
+            def bad(text: str, k=k) -> ValueError:
+                return ValueError(f"InstrumentModel.{k} must be a finite number ≥ 0, got {text}")
+
+            if isinstance(v, bool) or not isinstance(v, (int, float)):
+                raise bad(shown(v))
+            f = finite_float(v, bad)
+            if f < 0:
+                raise bad(shown(v))
+            object.__setattr__(self, k, f)
 
     @property
     def is_zero(self) -> bool:
@@ -192,18 +199,19 @@ def _number(value, *, file, text, table, key, lower=0.0, upper=math.inf, unit=""
     line = key_line(text, table, key)
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise CriteriaError(
-            f"{key} must be a number, not {type(value).__name__} {value!r}",
+            f"{key} must be a number, not {type(value).__name__} {shown(value)}",
             file=file, line=line, field=f"{table}.{key}", fix=hint or "write a plain number",
         )
-    v = float(value)
-    if not math.isfinite(v) or v < lower:
+    v = finite_float(value, lambda s: CriteriaError(f"{key} = {s} must be a finite number ≥ {lower:g}", file=file,
+                                                     line=line, field=f"{table}.{key}", fix=FINITE_FIX))
+    if v < lower:
         raise CriteriaError(
-            f"{key} = {value!r} must be a finite number ≥ {lower:g}", file=file, line=line,
+            f"{key} = {shown(value)} must be a finite number ≥ {lower:g}", file=file, line=line,
             field=f"{table}.{key}", fix="uncertainties are never negative",
         )
     if v > upper:
         raise CriteriaError(
-            f"{key} = {value!r} is implausibly large (above {upper:g}{(' ' + unit) if unit else ''})",
+            f"{key} = {shown(value)} is implausibly large (above {upper:g}{(' ' + unit) if unit else ''})",
             file=file, line=line, field=f"{table}.{key}", fix=hint,
         )
     return v
@@ -270,26 +278,26 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
         elif isinstance(d, int) and not isinstance(d, bool) and 100 <= d <= 1_000_000:
             kw["draws"] = d
         else:
-            raise CriteriaError(f"draws = {d!r} is not an integer from 100 to 1000000 nor \"adaptive\"",
+            raise CriteriaError(f"draws = {shown(d)} is not an integer from 100 to 1000000 nor \"adaptive\"",
                                 file=file, line=line("draws"), field=f"{table_name}.draws",
                                 fix='write e.g. draws = 2000 or draws = "adaptive"')
     if "seed" in table:
         s = table["seed"]
         if not isinstance(s, int) or isinstance(s, bool) or s < 0:
-            raise CriteriaError(f"seed = {s!r} must be a non-negative integer", file=file, line=line("seed"),
+            raise CriteriaError(f"seed = {shown(s)} must be a non-negative integer", file=file, line=line("seed"),
                                 field=f"{table_name}.seed", fix="write e.g. seed = 1")
         kw["seed"] = s
     if "significant_digits" in table:
         s = table["significant_digits"]
         if s not in (1, 2) or isinstance(s, bool):
-            raise CriteriaError(f"significant_digits = {s!r} must be 1 or 2", file=file,
+            raise CriteriaError(f"significant_digits = {shown(s)} must be 1 or 2", file=file,
                                 line=line("significant_digits"), field=f"{table_name}.significant_digits",
                                 fix="JCGM 101 §7.9.2 uses one or two significant digits")
         kw["significant_digits"] = s
     if "max_draws" in table:
         s = table["max_draws"]
         if not isinstance(s, int) or isinstance(s, bool) or not 1000 <= s <= 10_000_000:
-            raise CriteriaError(f"max_draws = {s!r} must be an integer from 1000 to 10000000", file=file,
+            raise CriteriaError(f"max_draws = {shown(s)} must be an integer from 1000 to 10000000", file=file,
                                 line=line("max_draws"), field=f"{table_name}.max_draws")
         kw["max_draws"] = s
     if "draws_block" in table:
@@ -300,7 +308,7 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
                                 fix='add draws = "adaptive" or remove draws_block')
         top = min(MAX_DRAWS_BLOCK, kw.get("max_draws", MonteCarloSettings.max_draws) // 2)
         if not isinstance(s, int) or isinstance(s, bool) or not 100 <= s <= top:
-            raise CriteriaError(f"draws_block = {s!r} must be an integer from 100 to {top} (at least two runs "
+            raise CriteriaError(f"draws_block = {shown(s)} must be an integer from 100 to {top} (at least two runs "
                                 f"within max_draws, at most {MAX_DRAWS_BLOCK} trials held at once)", file=file,
                                 line=line("draws_block"), field=f"{table_name}.draws_block",
                                 fix="write e.g. draws_block = 2000")

@@ -133,7 +133,7 @@ def renderables(report) -> list:
         head.append(f"method: {r.method}\n")
     else:
         head.append(f"Measured series — {len(r)} spectra\n", style="bold")
-        head.append(f"settings from: {clean(r.setting_source)}; unit: {r.unit or '(none)'}\n")
+        head.append(f"settings from: {clean(r.setting_source)}; unit: {clean(r.unit) if r.unit else '(none)'}\n")
         head.append(f"Δu′v′ measured from: {r.reference}\n")
     out.append(head)
     for note in _notes(report):
@@ -250,7 +250,7 @@ def _check_tables(check) -> list:
         w = rr.worst
         mark = ">>" if rr.range_outcome in ("fail", "not valid") else ""
         t.add_row(
-            mark, _text(f"{res.clause_id}: {res.label}"), f"{where} ({n_app})", _text(res.limit_text),
+            mark, _text(f"{res.clause_id}: {res.label}"), _text(f"{where} ({n_app})"), _text(res.limit_text),
             Text(_WORD[rr.range_outcome], style=_STYLE[rr.range_outcome]),
             _text(check.labels[w]) if w is not None else "—",
             _value(res, w) if w is not None else "—",

@@ -44,8 +44,10 @@ PANELS = (("Ra", "Ra (CIE 13.3)"), ("R9", "R9 (CIE 13.3)"), ("Rf", "Rf (TM-30 / 
 def _setting_axis_label(report) -> str:
     if report.kind == "mix":
         return "target CCT (K)"
-    u = report.result.unit
-    return f"setting ({u})" if u else "setting"
+    from .plots import _lit
+
+    u = report.result.unit  # from a manifest or the command line: escaped like any file text
+    return _lit(f"setting ({u})") if u else "setting"
 
 
 def _settings(report) -> np.ndarray:
@@ -57,7 +59,7 @@ def trajectory_figure(report, *, title: str | None = None):
     """The chromaticity trajectory on the CIE 1960 (u, v) diagram with the ANSI categories it
     crosses (see the module docstring). Artists: the base diagram's, plus ``trajectory``."""
     from ..criteria import regions
-    from .plots import PALETTE, _ctx, chromaticity_figure
+    from .plots import PALETTE, _ctx, _lit, chromaticity_figure
 
     r = report.result
     upvp = np.stack([r.figure("u_prime"), r.figure("v_prime")], axis=-1)
@@ -79,7 +81,7 @@ def trajectory_figure(report, *, title: str | None = None):
         idx = np.flatnonzero(fin)
         for k, ha in ((idx[:1], "right"), (idx[-1:], "left")):
             for i in k:
-                ax.annotate(labels[i], (u[i], v[i]), xytext=(-6 if ha == "right" else 6, 6), textcoords="offset points",
+                ax.annotate(_lit(labels[i]), (u[i], v[i]), xytext=(-6 if ha == "right" else 6, 6), textcoords="offset points",
                             fontsize=7, ha=ha, va="bottom", color="#222222")
     for line in ax.get_lines():
         gid = line.get_gid() or ""
@@ -114,7 +116,7 @@ def figures_versus_setting(report, *, title: str | None = None):
     settings it applies to. Artists carry ``gid`` ``panel-<figure>``, ``limit-<clause>``,
     ``unreachable``.
     """
-    from .plots import PALETTE, _ctx, _new_figure
+    from .plots import PALETTE, _ctx, _lit, _new_figure
 
     r = report.result
     s = _settings(report)
@@ -142,7 +144,7 @@ def figures_versus_setting(report, *, title: str | None = None):
                 for lim in (lo, hi):
                     if lim is not None:
                         ax.plot([a, b], [lim, lim], color=PALETTE["black"], lw=1.0, ls=(0, (5, 3)), gid=f"limit-{cid}")
-                        ax.annotate(f"{cid}: {lim:g}", (b, lim), fontsize=6, ha="right", va="bottom", color="#333333",
+                        ax.annotate(_lit(f"{cid}: {lim:g}"), (b, lim), fontsize=6, ha="right", va="bottom", color="#333333",
                                     xytext=(0, 1), textcoords="offset points")
             if name == "duv":
                 ax.axhline(0.0, color=PALETTE["grey"], lw=0.6)

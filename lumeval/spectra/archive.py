@@ -149,8 +149,11 @@ class Layout:
 
 
 def wavelength_of(column: str) -> float | None:
-    """The wavelength a column name states, or None when the name is not a number."""
-    if not _NUMBER.match(column):
+    """The wavelength a column name states, or None when the name is not a number.
+
+    ASCII only: a name in another script's digits (Arabic-Indic ``'٣٨٠'``, full-width
+    ``'３８０'``) is not a number, so it is a metadata column, as any other name is."""
+    if not column.isascii() or not _NUMBER.match(column):
         return None
     return float(column)
 

@@ -169,16 +169,22 @@ def _line(holder) -> int | None:
 
 
 def _float(text: str | None, what: str, file: str, line: int | None) -> float:
+    """``text`` as a finite number, by the CSV reader's rule (``_is_number``): ASCII digits
+    0-9, an optional sign, decimal point and exponent; no other script's digits, no
+    underscores, no ``inf``/``nan`` (``float()`` alone would read ``'١'`` and ``'1_000'``)."""
+    from .text_dialect import _describe_cell, _foreign_digit, _is_number
+
     t = (text or "").strip()
-    try:
-        v = float(t)
-    except ValueError:
-        raise InputError(
-            f"{what} {t[:30]!r} is not a number" if t else f"{what} is empty",
-            file=file,
-            line=line,
-            fix="give a decimal number such as 0.1234",
-        ) from None
+    if not t:
+        raise InputError(f"{what} is empty", file=file, line=line, fix="give a decimal number such as 0.1234")
+    if not _is_number(t, decimal_comma=False):
+        if t.lower() in {"inf", "+inf", "-inf", "infinity", "+infinity", "-infinity", "nan", "+nan", "-nan"}:
+            raise InputError(f"{what} {t[:30]!r} is not a finite number", file=file, line=line,
+                             fix="give a finite value")
+        problem = _describe_cell(t) if _foreign_digit(t) else f"{t[:30]!r}, which is not a number"
+        raise InputError(f"{what} is {problem}", file=file, line=line,
+                         fix="give a decimal number with the digits 0-9, such as 0.1234")
+    v = float(t)
     if not math.isfinite(v):
         raise InputError(f"{what} {t[:30]!r} is not a finite number", file=file, line=line, fix="give a finite value")
     return v
@@ -227,8 +233,8 @@ def _distribution(
                     line=line,
                     fix='write it as <SpectralData wavelength="380">value</SpectralData>',
                 )
-            wls.append(_float(wl_attr, "wavelength", file, line))
-            vals.append(_float(child.text, f"value at wavelength {wl_attr.strip()[:20]}", file, line))
+            wls.append(_float(wl_attr, "<SpectralData> wavelength attribute", file, line))
+            vals.append(_float(child.text, f"<SpectralData> value at wavelength {wl_attr.strip()[:20]}", file, line))
             row_lines.append(line)
         elif name in SD_FIELDS or (name and not _own_key(name)):
             text = (child.text or "").strip()

@@ -162,6 +162,25 @@ def test_a_planckian_at_5_nm_off_the_tabulation_is_its_own_reference():
     np.testing.assert_allclose(ev.figure("Rf"), [100.0], atol=0.05)
 
 
+@pytest.mark.parametrize("stray", [[1000.0], [0.0], [-5.0], [831.5], [900.0, 1000.0], [350.5, 831.0]])
+def test_a_stray_row_outside_360_830_nm_leaves_a_clean_grid_as_measured(stray):
+    """Rows outside 360-830 nm are dropped (CIE 15 range); a clean 1 nm grid inside stays as
+    measured. A stray row (an instrument's 0 nm or 1000 nm line) once made the whole grid
+    "irregular": the data went through the cubic spline with a note saying so (found by
+    exploratory testing; the values were unchanged, the note was false)."""
+    from lumeval.spectra.prepare import used_as_measured
+
+    inner = np.arange(360.0, 831.0, 1.0)
+    wl = np.sort(np.concatenate([inner, stray]))
+    vals = _led(wl)
+    assert used_as_measured(wl)
+    p = prepare(_set(wl, vals))
+    np.testing.assert_array_equal(p.wavelengths_nm, inner)
+    np.testing.assert_array_equal(p.values[0], vals[(wl >= 360) & (wl <= 830)])  # the measured values themselves
+    assert not any("interpolated" in n for n in p.notes[0])
+    assert any("dropped (CIE 15 range 360-830 nm)" in n for n in p.notes[0])
+
+
 def test_irregular_data_interpolated_close_to_truth():
     rng = np.random.default_rng(3)
     wl = np.unique(np.concatenate([[378.0, 782.0], rng.uniform(378, 782, 300)]))

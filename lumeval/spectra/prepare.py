@@ -327,14 +327,16 @@ def _computation_step(step: float, wl: np.ndarray) -> bool:
 
 
 def used_as_measured(wavelengths_nm: np.ndarray) -> bool:
-    """True when :func:`prepare` uses data on ``wavelengths_nm`` as measured (increasing, uniform
-    1 nm steps on integer wavelengths or 5 nm steps on multiples of 5 nm): only views, cropping and clipping, no arithmetic
-    that could depend on how many spectra are prepared together."""
+    """True when :func:`prepare` uses data on ``wavelengths_nm`` as measured (increasing; inside
+    360-830 nm uniform 1 nm steps on integer wavelengths or 5 nm steps on multiples of 5 nm;
+    samples outside are dropped): only views, cropping and clipping, no arithmetic that could
+    depend on how many spectra are prepared together."""
     wl = np.asarray(wavelengths_nm, dtype=float)
-    if wl.ndim != 1 or wl.size < 2 or not np.all(np.isfinite(wl)):
+    if wl.ndim != 1 or wl.size < 2 or not np.all(np.isfinite(wl)) or not np.all(np.diff(wl) > 0):
         return False
-    d = np.diff(wl)
-    return bool(np.all(d > 0) and _uniform(d) and _computation_step(float(d[0]), wl))
+    inside = wl[(wl >= CIE_MIN_NM - 1e-9) & (wl <= CIE_MAX_NM + 1e-9)]
+    d = np.diff(inside)
+    return bool(inside.size > 1 and _uniform(d) and _computation_step(float(d[0]), inside))
 
 
 def _on_integer_grid(wl: np.ndarray) -> bool:
@@ -410,7 +412,10 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
             f"coarser than {_fmt(MAX_SPACING_NM)} nm cannot resolve lamp spectra",
             "measure or export at 5 nm spacing or finer (1 nm preferred)",
         )
-    uniform = _uniform(d)  # d is finite
+    # the spacing is judged on the data inside 360-830 nm: a stray row outside (an instrument's
+    # 0 nm or 1000 nm line) is dropped anyway and must not turn a clean grid into an irregular one
+    in_wl = wl[idx[0] : idx[-1] + 1]
+    as_measured = in_wl.size > 1 and _uniform(dd) and _computation_step(float(dd[0]), in_wl)
     if max_gap > WARN_SPACING_NM + 1e-9:
         for k in range(n):
             notes[k].append(
@@ -418,17 +423,17 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
                 "narrow emission peaks may be misrepresented"
             )
 
-    step = float(d[0])
-    as_measured = uniform and _computation_step(step, wl)
     if as_measured:
         keep = (wl >= CIE_MIN_NM) & (wl <= CIE_MAX_NM)
         first = int(np.argmax(keep))
         cols = slice(first, first + int(keep.sum()))  # one run (wl increases): a view, not a copy
         wl_new, vals_new = np.round(wl[cols]), vals[:, cols]
-        h = step
+        h = float(dd[0])
     else:
         h = 1.0
         src_wl, src_vals = wl[i0 : i1 + 1], vals[:, i0 : i1 + 1]
+        src_d = np.diff(src_wl)
+        uniform, step = _uniform(src_d), float(src_d[0])  # the interpolated samples, neighbours included
         start = max(np.ceil(src_wl[0] - 1e-9), CIE_MIN_NM)
         end = min(np.floor(src_wl[-1] + 1e-9), CIE_MAX_NM)
         wl_new = np.arange(start, end + 0.5, 1.0)

@@ -285,6 +285,9 @@ BAD = {
     "name_not_text.parquet": (lambda: pa.table({"name": [7], **_wl_cols()}), "'name' column holds int64, not text"),
     "null_name.parquet": (lambda: pa.table({"name": pa.array([None], type=pa.string()), **_wl_cols()}),
                           "row 1 has no name"),
+    # an empty or blank name, as a null (found by exploratory testing: it reached every output empty)
+    "empty_name.parquet": (lambda: pa.table({"name": ["a", " \t"], **{k: v * 2 for k, v in _wl_cols().items()}}),
+                           "row 2 has an empty name"),
     "zero_nm.parquet": (lambda: pa.table({"0": [1.0], **_wl_cols()}), "names the wavelength 0 nm"),
     # two columns of one name: which holds the names (or the metadata) would be a guess; the
     # first was taken and the second dropped silently

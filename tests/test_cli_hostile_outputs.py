@@ -822,3 +822,18 @@ def test_ctrl_c_ignored_at_start_stays_ignored(tmp_path):
                        env=ENV, capture_output=True, timeout=300)
     assert p.returncode == 0, p.stderr.decode()
     assert sorted(x.name for x in out.iterdir()) == ["lot.json"]
+
+
+def test_an_output_path_ending_in_a_separator_is_refused(tmp_path):
+    """Through the Python API a path given as text keeps its trailing separator: "out.txt/"
+    names a folder, and pathlib would drop the separator and write a file "out.txt" (found by
+    exploratory testing; the CLI's own path options drop it before lumeval sees it)."""
+    import os
+
+    from lumeval._io import check_output_file
+    from lumeval.errors import UsageError
+
+    with pytest.raises(UsageError, match="names a folder"):
+        check_output_file(f"{tmp_path}{os.sep}out.txt{os.sep}", "--html")
+    check_output_file(f"{tmp_path}{os.sep}out.txt", "--html")  # the same without the separator is fine
+    assert list(tmp_path.iterdir()) == []

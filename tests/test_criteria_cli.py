@@ -65,6 +65,9 @@ BAD = [
     ("identifcation = 1\n[[clause]]\nfigure='Ra'\nmin=1", 1, "identifcation", ["did you mean 'identification'"]),
     ("[identification]\nprojekt = 'x'\n[[clause]]\nfigure='Ra'\nmin=1", 2, "projekt", ["did you mean 'project'"]),
     ("lumeval_criteria = 2\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version"]),
+    # true and 1.0 equal 1 in Python, but are no version number (found by exploratory testing)
+    ("lumeval_criteria = true\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version True"]),
+    ("lumeval_criteria = 1.0\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version 1.0"]),
     ("[identification]\nproject = 'x'\n", None, None, ["no clauses"]),
     ("[[clause]]\nmin = 3\n", 1, None, ["has no `kind`"]),
     ("[[clause]]\nkind = 'sdcn'\n", 2, "kind", ["did you mean 'sdcm'"]),
@@ -379,7 +382,8 @@ def test_demo_scenario_outcomes_match_the_docs(capsys):
 @pytest.mark.parametrize(
     "text,words",
     [("[supplier]\nname = 'x'\n", ["no claims"]), ("[claims\nRa = 1\n", ["not valid TOML"]),
-     ("lumeval_claims = 3\n[claims]\nRa = 90\n", ["unsupported format version"])],
+     ("lumeval_claims = 3\n[claims]\nRa = 90\n", ["unsupported format version"]),
+     ("lumeval_claims = true\n[claims]\nRa = 90\n", ["unsupported format version True"])],
 )
 def test_claims_file_level_errors(tmp_path, capsys, spectra_dir, text, words):
     p = write(tmp_path, text, "claims.toml")

@@ -253,7 +253,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         if k not in TOP_LEVEL_KEYS:
             s = suggest(k, TOP_LEVEL_KEYS)
             raise err((), k, f"unknown key {k!r} at the top level", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(TOP_LEVEL_KEYS)}")
-    if FORMAT_KEY in data and data[FORMAT_KEY] != FORMAT_VERSION:
+    if FORMAT_KEY in data and (type(data[FORMAT_KEY]) is not int or data[FORMAT_KEY] != FORMAT_VERSION):  # not true, not 1.0
         raise err((), FORMAT_KEY, f"unsupported format version {shown(data[FORMAT_KEY])}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
     supplier = {}
     for k, v in (data.get("supplier") or {}).items():

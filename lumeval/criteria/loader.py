@@ -131,7 +131,8 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
     for key in data:
         if key not in TOP_LEVEL_KEYS:
             raise _unknown_key(where, (), key, TOP_LEVEL_KEYS, "the top level")
-    if FORMAT_KEY in data and data[FORMAT_KEY] != FORMAT_VERSION:
+    # exactly the integer 1: true and 1.0 compare equal to 1 in Python but are not a version number
+    if FORMAT_KEY in data and (type(data[FORMAT_KEY]) is not int or data[FORMAT_KEY] != FORMAT_VERSION):
         raise where.error((), FORMAT_KEY, f"unsupported format version {shown(data[FORMAT_KEY])}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
 
     ident_raw = data.get("identification", {})

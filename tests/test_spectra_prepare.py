@@ -11,6 +11,8 @@ Outside truths used here:
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pytest
 
@@ -219,6 +221,18 @@ def test_spacing_limits(step, outcome):
     p = prepare(s)
     warned = any("coarser than the 5 nm" in n for n in p.notes[0])
     assert warned == (outcome == "warn")
+
+
+@pytest.mark.parametrize("low, words", [(-0.2, "20.0 % of the peak below zero"), (-1e308, "1e+308 times the peak below zero"),
+                                        (-30.0, "30 times the peak below zero")])
+def test_a_deep_negative_value_is_measured_against_the_peak(low, words):
+    """The refusal says how far below zero, without overflowing to "inf %" (found by
+    exploratory testing with -1e308 in an archive)."""
+    wl = np.arange(380, 781, 5.0)
+    v = _led(wl) / _led(wl).max()
+    v[3] = low
+    with pytest.raises(InputError, match=re.escape(words)):
+        prepare(_set(wl, v))
 
 
 @pytest.mark.parametrize("offset,ok", [(-0.04, True), (-0.2, False)])

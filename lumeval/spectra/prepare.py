@@ -292,10 +292,12 @@ def _check_values(
         if low < 0:
             if -low > NEGATIVE_CLIP_FRACTION * peak:
                 k = int(np.argmin(np.where(inside, vals[i], np.inf)))
+                ratio = -low / peak  # as a multiple when large: ratio * 100 overflows for -1e308
+                how_far = f"{ratio * 100:.1f} % of the peak" if ratio < 10 else f"{ratio:.3g} times the peak"
                 raise _err(
                     spectra,
                     i,
-                    f"value {_fmt(low)} at {_fmt(wl[k])} nm is {(-low / peak) * 100:.1f} % of the peak "
+                    f"value {_fmt(low)} at {_fmt(wl[k])} nm is {how_far} "
                     f"below zero, more than the {NEGATIVE_CLIP_FRACTION * 100:g} % lumeval treats as noise",
                     "check the dark/baseline subtraction of the measurement",
                 )

@@ -123,6 +123,18 @@ def test_fast_path_through_the_file_reader(tmp_path, extras):
         assert a.names == b.names and a.metadata == b.metadata
 
 
+@pytest.mark.parametrize("enc", ["utf-32", "utf-32-le", "utf-32-be"])
+def test_utf32_is_refused_by_name(enc):
+    """A UTF-32 file with a byte-order mark was decoded as UTF-16 (its mark starts with the
+    UTF-16 one) and refused as "no rows of numbers found" (found by exploratory testing); it is
+    now named. The byte-order marks are the Unicode Standard's (common knowledge, no source checked)."""
+    from lumeval.errors import InputError
+
+    raw = ("\ufeff" if enc != "utf-32" else "") + "wl,S\n" + "".join(f"{380 + k},1\n" for k in range(60))
+    with pytest.raises(InputError, match="UTF-32 byte-order mark"):
+        parse_spectra(raw.encode(enc), "d/lamp.csv")
+
+
 # Files the fast path hands over (it must give up, and the line-by-line path decides)
 HANDED_OVER = {
     "quoted numbers": '"wavelength","S"\n' + "".join(f'"{380 + k}","{k / 7:.5f}"\n' for k in range(60)),

@@ -103,6 +103,9 @@ def _decode(raw: bytes, file: str) -> str:
                 file=file,
                 fix="save the file as UTF-8",
             ) from None
+    if raw.startswith((b"\xff\xfe\x00\x00", b"\x00\x00\xfe\xff")):  # before UTF-16: the same first two bytes
+        raise InputError("starts with a UTF-32 byte-order mark: lumeval reads UTF-8 and UTF-16 text files",
+                         file=file, fix="save the file as UTF-8")
     if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
         try:
             return raw.decode("utf-16")

@@ -44,8 +44,8 @@ class LumevalError(Exception):
             parts.append(str(self.file) + at)
         elif self.line is not None:
             parts.append(f"line {self.line}")
-        if self.field is not None:
-            parts.append(f"field {self.field!r}")
+        if self.field is not None:  # a column or key name from the file: quoted in ~80 characters
+            parts.append(f"field {quote(self.field) if isinstance(self.field, str) else repr(self.field)}")
         return " ".join(parts)
 
     @property

@@ -315,6 +315,18 @@ def test_bad_archive_is_refused_in_one_line(tmp_path, fname):
     assert "Traceback" not in r.stderr
 
 
+def test_a_long_column_name_is_quoted_short_by_lot_too(tmp_path):
+    """A 5,000-character column name was quoted whole by `lot` (about 24 kB on stderr and in
+    the unreadable table; `inspect` cut it): messages quote at most ~80 characters of a name
+    (lumeval.errors.quote), wherever they are printed (found by exploratory testing)."""
+    p = tmp_path / "long.parquet"
+    pq.write_table(pa.table({**_wl_cols(), "9" * 5000: [1.0]}), p)
+    r = run_cli("lot", p)
+    assert r.returncode == 2 and "Traceback" not in r.stderr
+    assert len(r.stderr) < 600 and len(r.stdout) < 8000, (len(r.stderr), len(r.stdout))
+    assert "9" * 79 + "…" in r.stderr and "9" * 200 not in r.stdout
+
+
 def test_not_parquet_and_truncated_files_are_refused(tmp_path):
     garbage = tmp_path / "garbage.parquet"
     garbage.write_bytes(b"name,380\nx,1\n")

@@ -43,7 +43,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import InputError, UsageError
+from ..errors import InputError, UsageError, quote
 from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
 
@@ -178,7 +178,7 @@ def layout_of(schema, file: str) -> Layout:
     for fld in schema:
         col = fld.name
         if col in names:
-            raise InputError(f"two columns are named {col!r}", file=file, field=col,
+            raise InputError(f"two columns are named {quote(col)}", file=file, field=col,
                              fix="give every column its own name")
         names.add(col)
         w = wavelength_of(col)
@@ -195,14 +195,14 @@ def layout_of(schema, file: str) -> Layout:
                 meta.append(col)
             continue
         if not math.isfinite(w) or w <= 0 or w > 100000:
-            raise InputError(f"column {col!r} names the wavelength {w:g} nm, which no spectrum has", file=file, field=col,
+            raise InputError(f"column {quote(col)} names the wavelength {w:g} nm, which no spectrum has", file=file, field=col,
                              fix="name wavelength columns in nm, e.g. '380' or '380.5'")
         if w in seen:
-            raise InputError(f"columns {seen[w]!r} and {col!r} both name {w:g} nm", file=file, field=col,
+            raise InputError(f"columns {quote(seen[w])} and {quote(col)} both name {w:g} nm", file=file, field=col,
                              fix="keep one column per wavelength")
         t = fld.type
         if not (pa.types.is_integer(t) or pa.types.is_floating(t) or pa.types.is_decimal(t)):
-            raise InputError(f"wavelength column {col!r} holds {t}, not numbers", file=file, field=col,
+            raise InputError(f"wavelength column {quote(col)} holds {t}, not numbers", file=file, field=col,
                              fix="store spectral values as floating-point numbers (float64)")
         seen[w] = col
         wl_cols.append((w, col))

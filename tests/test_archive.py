@@ -366,3 +366,13 @@ def test_inspect_reads_an_archive(tmp_path, colour):
 def test_wavelength_column_names():
     assert wavelength_column_name(380.0) == "380"
     assert wavelength_column_name(382.5) == "382.5"
+
+
+def test_validate_only_says_scale_unknown_for_an_archive(tmp_path):
+    """An archive states no scale: `inspect --validate-only` said "scale None" (Python's
+    spelling), the text readers "scale unknown" (found by exploratory testing)."""
+    p = tmp_path / "a.parquet"
+    pq.write_table(pa.table({"name": ["a"], **{str(w): [1.0 + w / 1000] for w in range(380, 781, 5)}}), p)
+    r = run_cli("inspect", "--validate-only", p)
+    assert r.returncode == 0, r.stderr
+    assert "scale unknown, Parquet archive" in r.stdout and "None" not in r.stdout

@@ -127,7 +127,7 @@ def format_report(checks: list[SpectrumCheck]) -> str:
         assert c.range_nm is not None  # set for every file that was read
         lines.append(
             f"      read: {c.points} points, {c.range_nm[0]:g}-{c.range_nm[1]:g} nm, spacing {spacing}, "
-            f"scale {c.scale}, {c.format}"
+            f"scale {c.scale or 'unknown'}, {c.format}"
         )
         if c.grid_nm:
             lines.append(f"      computation grid: {c.grid_nm[0]:g}-{c.grid_nm[1]:g} nm at {c.grid_nm[2]:g} nm")

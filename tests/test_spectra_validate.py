@@ -69,3 +69,19 @@ def test_validate_only_does_not_import_colour_science():
     r = subprocess.run([sys.executable, "-c", code, str(CORPUS / "irregular.csv")], capture_output=True, text=True,
                        timeout=60)
     assert r.returncode == 0, r.stderr
+
+
+def test_validate_only_names_repeated_spectra_as_inspect_does(tmp_path, capsys):
+    """Columns `a, a (2), a` in one file and a second copy of the file: `inspect` names them
+    a, a (2), a (3), a (4)...; `--validate-only` showed `a` twice (found by exploratory
+    testing). Both now give the same names, in the same order."""
+    rows = "".join(f"{w},{1 + w / 1000},{2 + w / 900},{3 + w / 800}\n" for w in range(380, 781, 5))
+    p = tmp_path / "dup.csv"
+    p.write_text("wl,a,a (2),a\n" + rows)
+    code, out, err = _run(["inspect", "--validate-only", "-f", "json", str(p), str(p)], capsys)
+    assert code == 0, err
+    validated = [e["name"] for e in json.loads(out)["validation"]]
+    code, out, err = _run(["inspect", "-f", "json", str(p), str(p)], capsys)
+    assert code == 0, err
+    inspected = [s["name"] for s in json.loads(out)["spectra"]]
+    assert validated == inspected and len(set(validated)) == 6

@@ -55,8 +55,10 @@ class SpectrumCheck:
         }
 
 
-def validate_report(path: str | Path) -> list[SpectrumCheck]:
+def validate_report(path: str | Path, seen: dict[str, int] | None = None) -> list[SpectrumCheck]:
     """Read and prepare one file without computing; one :class:`SpectrumCheck` per spectrum.
+    Repeated names get the suffixes ``inspect`` gives them (:func:`lumeval.spectra.read.unique_names`;
+    ``seen``: the names of the run so far, shared by :func:`validate_files`).
 
     A file that cannot be read gives a single entry with ``ok=False``. A multi-spectrum file
     where one spectrum cannot be prepared gives ``ok=False`` for that spectrum and the others
@@ -64,11 +66,11 @@ def validate_report(path: str | Path) -> list[SpectrumCheck]:
     """
     from .._paths import display_path
     from .prepare import prepare
-    from .read import read_spectra
+    from .read import read_spectra, unique_names
 
     file = display_path(path)
     try:
-        raw = read_spectra(path)
+        raw = unique_names(read_spectra(path), {} if seen is None else seen)
     except InputError as exc:
         return [SpectrumCheck(file=file, ok=False, error=exc.message)]
     out: list[SpectrumCheck] = []
@@ -106,8 +108,9 @@ def validate_report(path: str | Path) -> list[SpectrumCheck]:
 def validate_files(paths: Iterable[str | Path]) -> list[SpectrumCheck]:
     """:func:`validate_report` over many files, concatenated; a bad file never stops the others."""
     out: list[SpectrumCheck] = []
+    seen: dict[str, int] = {}  # one run: names unique across the files, as inspect makes them
     for p in paths:
-        out.extend(validate_report(p))
+        out.extend(validate_report(p, seen))
     return out
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from lumeval.errors import CriteriaError, InputError
+from lumeval.errors import CriteriaError, InputError, UsageError
 from lumeval.uncertainty import (
     InstrumentModel,
     MonteCarloSettings,
@@ -75,6 +75,8 @@ def test_partial_file_keeps_defaults_and_says_so(tmp_path):
         ("[instrument]\nstray_light = true\n", 2, "must be a number"),
         ("[instrument]\n\n[monte_carlo]\ndraws = 10\n", 4, "draws"),
         ("[instrument]\n[monte_carlo]\nseed = -1\n", 3, "seed"),
+        # above TOML's 64-bit integer range (TOML v1.0.0, "Integer"): no integer other readers keep
+        ("[instrument]\n[monte_carlo]\nseed = 9223372036854775808\n", 3, "from 0 to 9223372036854775807"),
         ("[instrument]\n[monte_carlo]\nrepeats = 3\n", 3, "unknown key 'repeats'"),
         ("[instrument]\nnoise_relative = \n", 2, "not valid TOML"),
         ("[instrumnet]\nnoise_relative = 0.1\n", 1, "unknown table"),
@@ -121,3 +123,13 @@ def test_public_api_names():
     assert lumeval.InstrumentModel is InstrumentModel
     assert callable(lumeval.propagate_uncertainty) and callable(lumeval.load_instrument)
     assert lumeval.DecisionRule().rule == "simple"
+
+
+def test_the_largest_seed_is_accepted_and_one_more_refused_as_an_override(tmp_path):
+    from lumeval.uncertainty.judge import resolve_setup
+
+    inst = _write(tmp_path, "[instrument]\nnoise_relative = 0.01\n[monte_carlo]\nseed = 9223372036854775807\n")
+    _, settings = load_instrument(inst)
+    assert settings.seed == 2**63 - 1
+    with pytest.raises(UsageError, match="too large"):
+        resolve_setup(None, inst, seed=2**63)

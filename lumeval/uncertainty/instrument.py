@@ -174,6 +174,9 @@ class MonteCarloSettings:
 
 
 _MC_KEYS = {"draws", "seed", "significant_digits", "max_draws", "draws_block"}
+#: Largest seed: TOML's integer range (v1.0.0: 64-bit signed integers, up to 2**63 - 1); a larger
+#: one is no TOML integer other readers keep, and it is written into every JSON report.
+SEED_MAX = 2**63 - 1
 #: Largest ``draws_block``: one run's drawn spectra are held at once (20,000 x ~450 points
 #: is about 70 MB), the same bound as the fixed-M runs in lumeval.uncertainty.montecarlo.
 MAX_DRAWS_BLOCK = 20_000
@@ -283,9 +286,9 @@ def settings_from_table(table: dict, *, file: str | None = None, text: str | Non
                                 fix='write e.g. draws = 2000 or draws = "adaptive"')
     if "seed" in table:
         s = table["seed"]
-        if not isinstance(s, int) or isinstance(s, bool) or s < 0:
-            raise CriteriaError(f"seed = {shown(s)} must be a non-negative integer", file=file, line=line("seed"),
-                                field=f"{table_name}.seed", fix="write e.g. seed = 1")
+        if not isinstance(s, int) or isinstance(s, bool) or not 0 <= s <= SEED_MAX:
+            raise CriteriaError(f"seed = {shown(s)} must be an integer from 0 to {SEED_MAX}", file=file,
+                                line=line("seed"), field=f"{table_name}.seed", fix="write e.g. seed = 1")
         kw["seed"] = s
     if "significant_digits" in table:
         s = table["significant_digits"]

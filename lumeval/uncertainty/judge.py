@@ -25,7 +25,7 @@ import numpy as np
 
 from ..criteria.verdicts import NOT_VALID
 from .decision import DecisionRule, decide
-from .instrument import InstrumentModel, MonteCarloSettings, load_instrument
+from .instrument import SEED_MAX, InstrumentModel, MonteCarloSettings, load_instrument
 from .montecarlo import UncertaintyResult, propagate
 
 #: Figures whose uncertainties every report lists (besides the judged quantities).
@@ -82,10 +82,11 @@ def resolve_setup(criteria=None, instrument_path=None, *, seed: int | None = Non
             settings = file_settings
     if seed is not None:
         settings = dataclasses.replace(settings, seed=int(seed))
-    if seed is not None and int(seed) < 0:
-        from ..errors import UsageError
+    if seed is not None and not 0 <= int(seed) <= SEED_MAX:
+        from ..errors import UsageError, shown
 
-        raise UsageError(f"--seed {seed} is negative", fix="give a seed ≥ 0")
+        raise UsageError(f"--seed {shown(int(seed))} is {'negative' if int(seed) < 0 else 'too large'}",
+                         fix=f"give a seed from 0 to {SEED_MAX}")
     if draws is not None:
         if not 100 <= int(draws) <= 1_000_000:
             from ..errors import UsageError

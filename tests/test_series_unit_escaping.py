@@ -79,3 +79,13 @@ def test_unit_is_escaped_in_the_html_report_and_its_figures(two, manifest, capsy
     # still shown: in the axis label "setting (UNIT)" and the labels of the trajectory's ends
     assert f"setting ({ESCAPED})" in page
     assert f"5 {ESCAPED}" in page and f"10 {ESCAPED}" in page
+
+
+def test_a_criteria_file_name_with_brackets_is_shown_as_written(tmp_path, two, manifest, capsys):
+    """The criteria table's title named the file through rich markup: "crit[bold]x.toml" lost
+    its "[bold]" (it became a style). The name is text, shown as written."""
+    crit = tmp_path / "crit[bold]x.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 1\n', encoding="utf-8")
+    code, out, err = run(["series", *two, "--manifest", manifest, "--criteria", crit], capsys)
+    assert code in (0, 1), err
+    assert "crit[bold]x.toml" in _words(out).replace(" ", "")

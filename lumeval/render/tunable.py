@@ -231,7 +231,9 @@ def _check_tables(check) -> list:
     from rich.table import Table
     from rich.text import Text
 
-    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, title="Criteria over the range: " + clean(check.criteria_file), title_justify="left")
+    # the path as text, not markup: a file named "crit[bold].toml" keeps its brackets
+    t = Table(box=box.SIMPLE_HEAVY, pad_edge=False, title=Text("Criteria over the range: " + clean(check.criteria_file)),
+              title_justify="left")
     t.add_column("", no_wrap=True)
     t.add_column("clause", overflow="fold")  # the criteria's ids: folded, never cut
     t.add_column("applies at")

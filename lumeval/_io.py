@@ -390,15 +390,19 @@ def _dir_files_present(given_dirs: dict, dir_files: Mapping) -> list[tuple[str, 
     folder option writes (``dir_files`` patterns): an input there under such a name (a spectrum
     saved as ``chromaticity.svg``) would be replaced. Only the folder is listed, not the inputs."""
     import fnmatch
+    import re
 
     out = []
     for opt, d in given_dirs.items():
         pats = tuple(dir_files.get(opt, ()))
         if not pats:
             continue
+        # one compiled pattern (fnmatchcase's rules): the folder may be a lot's input folder of a
+        # million files, each name matched once rather than once per pattern
+        match = re.compile("|".join(f"(?:{fnmatch.translate(pat)})" for pat in pats)).match
         try:
             with os.scandir(d) as it:
-                names = [e.name for e in it if any(fnmatch.fnmatchcase(e.name, pat) for pat in pats)]
+                names = [e.name for e in it if match(e.name)]
         except (OSError, ValueError):  # not there yet (created by the run), or not a folder: checked elsewhere
             continue
         out += [(opt, d / name, _file_ref(d / name)) for name in names]

@@ -206,10 +206,16 @@ def register(app: typer.Typer) -> None:
 
             with contextlib.suppress(StoreError):
                 store_file = parse_store_url(store).sqlite_path
+        found = None
+        if any(v is not None for v in (*outputs.values(), plots)):
+            found = expanded if expanded is not None else expand_inputs(paths)
+        input_files: list[str] = []
+        if found is not None:  # --plots alone: the inputs as found (compared only if a figure's name exists there)
+            input_files = (_inputs_to_keep(found, outputs) if any(v is not None for v in outputs.values())
+                           else list(found.files))
         check_targets(files=outputs, dirs={"--plots": plots}, dir_files=dir_files,
                       inputs=[p for p in (criteria_file, instrument, store_file) if p is not None],
-                      input_files=(_inputs_to_keep(expanded if expanded is not None else expand_inputs(paths), outputs)
-                                   if any(v is not None for v in (*outputs.values(), plots)) else ()))
+                      input_files=input_files)
         from ..api import lot
 
         report = html is not None or plots is not None

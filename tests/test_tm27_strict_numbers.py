@@ -65,24 +65,20 @@ BAD_WAVELENGTHS = {
 }
 
 
-@pytest.mark.parametrize("case", sorted(BAD_VALUES))
-def test_bad_value_is_refused_naming_file_and_line(tmp_path, capsys, case):
-    p = tmp_path / f"{case}.xml"
-    p.write_text(xml_text(value=BAD_VALUES[case]), encoding="utf-8")
+@pytest.mark.parametrize("where, case", [("value", c) for c in sorted(BAD_VALUES)]
+                         + [("wavelength", c) for c in sorted(BAD_WAVELENGTHS)])
+def test_bad_number_is_refused_naming_file_line_and_place(tmp_path, capsys, where, case):
+    p = tmp_path / f"{where}_{case}.xml"
+    if where == "value":
+        p.write_text(xml_text(value=BAD_VALUES[case]), encoding="utf-8")
+    else:
+        p.write_text(xml_text(wavelength=BAD_WAVELENGTHS[case]), encoding="utf-8")
     code, out, err = run(["inspect", "-f", "csv", p], capsys)
-    assert_clean_error(code, err, f"{case}.xml:{line_of(400)}:", "value at wavelength 400")
+    place = "value at wavelength 400" if where == "value" else "wavelength attribute"
+    assert_clean_error(code, err, f"{where}_{case}.xml:{line_of(400)}:", place)
     assert out == ""
     with pytest.raises(InputError):
         parse_tm27(p.read_bytes(), str(p))
-
-
-@pytest.mark.parametrize("case", sorted(BAD_WAVELENGTHS))
-def test_bad_wavelength_is_refused_naming_file_line_and_attribute(tmp_path, capsys, case):
-    p = tmp_path / f"wl_{case}.xml"
-    p.write_text(xml_text(wavelength=BAD_WAVELENGTHS[case]), encoding="utf-8")
-    code, out, err = run(["inspect", "-f", "csv", p], capsys)
-    assert_clean_error(code, err, f"wl_{case}.xml:{line_of(400)}:", "wavelength attribute")
-    assert out == ""
 
 
 def test_foreign_digit_is_named(tmp_path, capsys):

@@ -193,12 +193,87 @@ def _zone_series(z):
     ([0, -2.5, -2.1, 0, 0], "WE2", [2]),
     ([1.5, 1.2, 0.2, 1.1, 1.3, 0], "WE3", [4]),
     ([0.1, 0.2, 0.3, 0.1, 0.2, 0.4, 0.1, 0.3, -1], "WE4", [7]),
+    # at the start of a series: the pattern is complete before a full window exists (any window
+    # of three or five points that holds it qualifies); these were missed (found by a review)
+    ([2.5, 2.5, 0, 0, 0], "WE2", [1]),
+    ([-2.5, -2.2, 0.1, 0, 0], "WE2", [1]),
+    ([1.5, 1.5, 1.5, 1.5, 0, 0], "WE3", [3]),
 ])
 def test_western_electric_rules(series, rule, where):
     """The four rules as Montgomery §5.3.6 states them (exact by construction: each series
     breaks exactly the named rule at the named point and no other rule)."""
     sig = charts.western_electric(_zone_series(series), 0.0, 1.0)
     assert [(s.rule, s.index) for s in sig] == [(rule, i) for i in where]
+
+
+def test_western_electric_agrees_with_a_scan_of_every_window():
+    """Independent check: WE2 and WE3 found by scanning every window of three or five consecutive
+    points (the rules' own words, Montgomery §5.3.6), each signal at the pattern's last
+    qualifying point; random series, seeded."""
+    rng = np.random.default_rng(7)
+    for _ in range(300):
+        z = rng.normal(0, 1.3, 12)
+        expect = set()
+        for rule, size, level, need in (("WE2", 3, 2.0, 2), ("WE3", 5, 1.0, 4)):
+            for side in (1.0, -1.0):
+                for a in range(-size + 1, z.size):  # windows clipped at the series' ends
+                    w = range(max(a, 0), min(a + size, z.size))
+                    hits = [i for i in w if side * z[i] > level]
+                    if len(hits) >= need:
+                        expect.add((rule, hits[need - 1] if a < 0 else max(hits)))
+        got = {(s.rule, s.index) for s in charts.western_electric(z, 0.0, 1.0, rules=("WE2", "WE3"))}
+        assert {g[0] for g in got} <= {"WE2", "WE3"}
+        # every pattern the scan finds is signalled at or before its last point, and every signal
+        # ends a pattern the scan finds
+        for rule, i in expect:
+            assert any(r == rule and j <= i for r, j in got), (z, rule, i)
+        for rule, j in got:
+            assert any(r == rule and i >= j for r, i in expect), (z, rule, j)
+
+
+def test_ewma_limits_with_lot_sizes_that_differ_use_the_exact_variance():
+    """Var(z_i) = Σ_j λ² (1−λ)^(2(i−j)) σ²/n_j for independent lot means (z_i is a weighted sum
+    of them; Montgomery eq. 9.24 is its constant-n case), computed here by the sum. The closed
+    form with the current lot's n made the limits after a small lot far too narrow (found by a
+    review: 0.138 against 0.448 at the lot after two lots of 2 among lots of 50)."""
+    n = np.array([50, 50, 50, 50, 2, 2, 50, 50, 50, 50], float)
+    lam, L, sigma = 0.2, 3.0, 1.0
+    ch = charts.ewma_chart(np.zeros(10), 0.0, sigma / np.sqrt(n), lam=lam, L=L)
+    for i in range(10):
+        var = sum(lam**2 * (1 - lam) ** (2 * (i - j)) * sigma**2 / n[j] for j in range(i + 1))
+        assert_allclose(ch.ucl[i], L * math.sqrt(var), rtol=1e-12)
+    assert_allclose(ch.ucl[6:10], [0.448, 0.368, 0.307, 0.260], atol=0.0015)
+    # constant n: the textbook closed form (eq. 9.24)
+    same = charts.ewma_chart(np.zeros(10), 0.0, 0.5, lam=lam, L=L)
+    t = np.arange(1, 11)
+    assert_allclose(same.ucl, L * 0.5 * np.sqrt(lam / (2 - lam) * (1 - (1 - lam) ** (2 * t))), rtol=1e-12)
+
+
+def test_an_undefined_lot_is_skipped_by_the_ewma():
+    """A lot without the figure (NaN) adds no observation: z and its variance are carried, the
+    lot has no limits and gets no signal (it was signalled with the carried z)."""
+    x = np.array([0.0, 0.0, 5.0, np.nan, np.nan, 0.0])
+    ch = charts.ewma_chart(x, 0.0, 1.0, lam=0.2, L=3.0)
+    assert np.isnan(ch.ucl[3]) and np.isnan(ch.ucl[4]) and ch.z[3] == ch.z[2] == ch.z[4]
+    ref = charts.ewma_chart(np.array([0.0, 0.0, 5.0, 0.0]), 0.0, 1.0, lam=0.2, L=3.0)
+    assert_allclose([ch.ucl[5], ch.z[5]], [ref.ucl[3], ref.z[3]], rtol=1e-15)
+    sig = charts.beyond_limits(ch.z, ch.ucl, ch.lcl, chart="ewma", rule="EWMA")
+    assert [s.index for s in sig] == [2]  # lots 3 and 4 (undefined) are not signalled
+
+
+def test_a_lot_of_one_sample_has_xbar_limits_from_the_baseline_sigma():
+    """A one-sample lot has no s (A3(1) does not exist), but its value has the X̄ limits
+    x̿ ± 3σ̂ (Montgomery §6.3, limits μ ± 3σ/√n with σ estimated by s̄/c4); they were NaN, and a
+    value 10σ̂ away gave no X̄ signal (found by a review)."""
+    mean = [10.0, 10.2, 9.9, 10.1, 13.0]
+    s, n = [0.3, 0.25, 0.35, 0.3, np.nan], [5, 5, 5, 5, 1]
+    ch = charts.xbar_s_chart(mean, s, n, [True, True, True, True, False])
+    sigma = float(np.mean([0.3, 0.25, 0.35, 0.3])) / float(charts.c4(5))
+    assert_allclose([ch.xbar_ucl[4], ch.xbar_lcl[4]], [ch.grand_mean + 3 * sigma, ch.grand_mean - 3 * sigma],
+                    rtol=1e-12)
+    assert np.isnan(ch.s_ucl[4])
+    sig_pt = (ch.xbar_ucl - ch.grand_mean) / 3.0
+    assert [(x.rule, x.index) for x in charts.western_electric(mean, ch.grand_mean, sig_pt)] == [("WE1", 4)]
 
 
 def test_western_electric_no_signal_in_control():
@@ -228,3 +303,21 @@ def test_trend_numbers_are_positional_with_five_significant_digits(value):
     text = _fmt(value)
     assert "e" not in text.lower()
     assert float(text) == pytest.approx(value, rel=5e-5)
+
+
+def test_an_xbar_s_baseline_without_spread_is_refused():
+    """Every baseline s = 0 gives X̄ limits of zero width; a lot 1e-4 away was above the UCL
+    yet not signalled (its z was infinite and skipped) while the s and EWMA charts signalled
+    it (found by a review). Refused, as the individuals chart refuses a baseline without
+    moving range; one sample lot with spread in the baseline is enough."""
+    from lumeval.errors import LumevalError
+    from lumeval.store.trend import LotPoint, compute_trend
+
+    def pts(s_values):
+        return [LotPoint(k + 1, None, "P", "2026-12-01", 5, 80.0 + (1e-4 if k == 5 else 0.0), s)
+                for k, s in enumerate(s_values)]
+
+    with pytest.raises(LumevalError, match="no spread within lots"):
+        compute_trend(pts([0.0] * 6), [True] * 5 + [False], figure="Ra", chart="xbar-s")
+    tr = compute_trend(pts([0.0, 0.0, 0.0, 0.0, 0.1, 0.0]), [True] * 5 + [False], figure="Ra", chart="xbar-s")
+    assert math.isfinite(tr.main.sigma) and tr.main.sigma > 0

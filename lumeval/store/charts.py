@@ -199,8 +199,8 @@ class EwmaChart:
     Attributes
     ----------
     z, ucl, lcl : ndarray (m,)
-        The statistic and its time-varying limits
-        centre ± L σ_i √(λ/(2−λ) [1 − (1−λ)^(2i)]) (eqs. 9.24-9.25).
+        The statistic and its time-varying limits centre ± L √Var(z_i) (eqs. 9.24-9.25, the
+        variance carried lot by lot: see :func:`ewma_chart`); NaN limits for a skipped lot.
     centre, lam, L : float
     sigma_point : ndarray (m,)
         Standard deviation of each plotted x_i (σ/√n_i for lot means).
@@ -246,7 +246,8 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
     lot, as the book draws it.
 
     Lots with n < 2 have no s: they are excluded from the estimate and get NaN limits on the
-    s chart. NaN everywhere when the baseline holds no lot with n ≥ 2.
+    s chart; a lot of one sample gets the X̄ limits x̿ ± 3σ̂ (no A3 exists for n = 1). NaN
+    everywhere when the baseline holds no lot with n ≥ 2.
     """
     mean = np.asarray(mean, dtype=float)
     s = np.asarray(s, dtype=float)
@@ -271,8 +272,12 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
     sigma = s_bar / float(c4(n_typ))
     with np.errstate(invalid="ignore"):
         nn = np.where(n >= 2, n, np.nan)
-        ucl = grand + a3(nn) * s_bar
-        lcl = grand - a3(nn) * s_bar
+        # a lot of one sample has no s (and A3(1) is undefined), but its value still has X̄
+        # limits x̿ ± 3σ̂/√1 with σ̂ from the baseline (Montgomery §6.3: the limits μ ± 3σ/√n
+        # with σ estimated)
+        half = np.where(n == 1, L_SHEWHART * sigma, a3(nn) * s_bar)
+        ucl = grand + half
+        lcl = grand - half
         s_ucl = b4(nn) * s_bar
         s_lcl = b3(nn) * s_bar
     s_centre = np.where(np.isfinite(nn), s_bar, np.nan)
@@ -303,10 +308,16 @@ def individuals_chart(x, baseline) -> IndividualsChart:
 
 def ewma_chart(x, centre: float, sigma_point, lam: float = EWMA_LAMBDA, L: float = EWMA_L) -> EwmaChart:
     """EWMA of the series x (Montgomery §9.2.1, eqs. 9.22-9.25): z_0 = centre,
-    z_i = λ x_i + (1 − λ) z_{i−1}; limits centre ± L σ_i √(λ/(2−λ) [1 − (1−λ)^(2i)]).
+    z_i = λ x_i + (1 − λ) z_{i−1}; limits centre ± L √Var(z_i), with the exact variance of z_i
+    carried by the recursion Var(z_i) = (1 − λ)² Var(z_{i−1}) + λ² σ_i², Var(z_0) = 0 (z_i is
+    a weighted sum of independent x_j: Var(z_i) = Σ_j λ² (1−λ)^(2(i−j)) σ_j²). With one σ for
+    every point this is σ² λ/(2−λ) [1 − (1−λ)^(2i)], eq. 9.24; with lot means of different
+    sizes (σ_j = σ/√n_j) it gives each lot's own limits, which the closed form does not (it
+    made the limits after a small lot up to three times too narrow).
 
     ``sigma_point`` is the standard deviation of one plotted x (scalar or (m,)): σ for
-    individuals, σ/√n_i for lot means. A NaN x leaves z unchanged (the lot is skipped).
+    individuals, σ/√n_i for lot means. A NaN x (the figure undefined in that lot) is skipped:
+    z and its variance are carried unchanged and the lot gets NaN limits (no signal).
     """
     x = np.asarray(x, dtype=float)
     m = x.size
@@ -314,13 +325,15 @@ def ewma_chart(x, centre: float, sigma_point, lam: float = EWMA_LAMBDA, L: float
         raise ValueError("the EWMA weight must lie in (0, 1]")
     sp = np.broadcast_to(np.asarray(sigma_point, dtype=float), (m,)).copy()
     z = np.empty(m)
-    prev = float(centre)
+    var = np.full(m, np.nan)
+    prev, v = float(centre), 0.0
     for i in range(m):  # a recursion: m is the number of lots (hundreds), not samples
         if np.isfinite(x[i]):
             prev = lam * x[i] + (1.0 - lam) * prev
+            v = (1.0 - lam) ** 2 * v + lam**2 * sp[i] ** 2
+            var[i] = v
         z[i] = prev
-    t = np.arange(1, m + 1)
-    half = L * sp * np.sqrt(lam / (2.0 - lam) * (1.0 - (1.0 - lam) ** (2 * t)))
+    half = L * np.sqrt(var)
     return EwmaChart(z, centre + half, centre - half, float(centre), float(lam), float(L), sp)
 
 
@@ -341,8 +354,11 @@ def western_electric(values, centre, sigma, *, chart: str = "xbar", rules=("WE1"
     ``centre`` and ``sigma`` (the standard deviation of one plotted point) may be scalars or
     (m,) arrays (limits that change with the lot size). A point is attributed the signal when
     it completes the pattern *and* is itself one of the points the rule counts (common practice
-    of rule implementations, no source). Points with NaN value or sigma are skipped (they break
-    no run and do not count). Rule names: WE1..WE4 (Montgomery §5.3.6 order).
+    of rule implementations, no source). At the start of a series a pattern may be complete
+    before a full window exists: the first two points beyond 2 sigma on one side break WE2 at
+    the second, the first four beyond 1 sigma break WE3 at the fourth (any window of three or
+    five points that holds them qualifies). Points with NaN value or sigma are skipped (they
+    break no run and do not count). Rule names: WE1..WE4 (Montgomery §5.3.6 order).
     """
     x = np.asarray(values, dtype=float)
     m = x.size
@@ -364,12 +380,12 @@ def western_electric(values, centre, sigma, *, chart: str = "xbar", rules=("WE1"
         if "WE1" in rules and abs(z) > 3.0:
             out.append(Signal(int(i), chart, "WE1", f"{WE_RULES['WE1']} ({z:+.2f} sigma)"))
         if "WE2" in rules and side * z > 2.0:
-            w = window(k, 3)
-            if w.size == 3 and np.sum(side * w > 2.0) >= 2:
+            w = window(k, 3)  # at the start of a series, the points there are (two of two count)
+            if np.sum(side * w > 2.0) >= 2:
                 out.append(Signal(int(i), chart, "WE2", WE_RULES["WE2"] + (" (above)" if side > 0 else " (below)")))
         if "WE3" in rules and side * z > 1.0:
             w = window(k, 5)
-            if w.size == 5 and np.sum(side * w > 1.0) >= 4:
+            if np.sum(side * w > 1.0) >= 4:
                 out.append(Signal(int(i), chart, "WE3", WE_RULES["WE3"] + (" (above)" if side > 0 else " (below)")))
         if "WE4" in rules and z != 0.0:
             w = window(k, 8)

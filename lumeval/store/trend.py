@@ -262,6 +262,9 @@ def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str =
         if not math.isfinite(main.sigma):
             raise StoreError("no baseline lot has two samples or more: an X̄/s chart needs them", field="--chart",
                              fix="use --chart individuals")
+        if main.sigma == 0.0:  # limits of zero width: every other mean would be "beyond" them
+            raise StoreError("the baseline lots have no spread within lots (every s is 0): X̄/s limits would have "
+                             "no width", field="--baseline", fix="choose other baseline lots, or use --chart individuals")
         with np.errstate(invalid="ignore", divide="ignore"):
             sig_pt = (main.xbar_ucl - main.grand_mean) / charts.L_SHEWHART
         sig = charts.western_electric(mean, main.grand_mean, sig_pt, chart="xbar")
@@ -269,8 +272,8 @@ def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str =
         with np.errstate(invalid="ignore", divide="ignore"):
             ew = charts.ewma_chart(mean, main.grand_mean, main.sigma / np.sqrt(np.where(n >= 1, n, np.nan)), lam, L)
         if np.any((n < 2) & np.isfinite(mean)):
-            notes.append("Lots with one sample have no s; they are on the X̄ chart with their own (wider) limits "
-                         "only where n ≥ 2.")
+            notes.append("Lots with one sample have no s (they are not on the s chart); on the X̄ chart their value "
+                         "has the limits x̿ ± 3σ̂.")
     elif chart == "individuals":
         main = charts.individuals_chart(mean, usable_b)
         if not math.isfinite(main.sigma) or main.sigma == 0.0:

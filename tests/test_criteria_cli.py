@@ -457,3 +457,31 @@ def test_one_row_per_spectrum_table_never_prints_a_failed_value_as_its_limit(tmp
     assert "one row each" in out
     row = next(line for line in out.splitlines() if line.startswith(">>"))
     assert f"{ra:.1f}" in row.split(), row
+
+
+@pytest.mark.parametrize("clauses, command, judged_by", [
+    ('[[clause]]\nfigure = "Ra"\nmin = 90\nover = [2700, 5000]\n', "check", "`lumeval mix` or `lumeval series`"),
+    ('[[clause]]\nkind = "lot_yield"\nmin_percent = 90\n', "check", "`lumeval lot`"),
+    ('[[clause]]\nfigure = "Ra"\nmin = 90\nover = [2700, 5000]\n', "lot", "`lumeval mix` or `lumeval series`"),
+])
+def test_criteria_that_the_command_does_not_judge_are_refused(tmp_path, capsys, spectra_dir, clauses, command,
+                                                              judged_by):
+    """A criteria file with no clause the command judges read as "all 0 requirements met": a
+    pass, exit 0, for a spectrum that fails the clause (Ra 90 over 2700-5000 K; found by a
+    review). Refused before any work, naming the command that judges the clauses."""
+    p = write(tmp_path, "lumeval_criteria = 1\n" + clauses)
+    code, out, err = run([command, spectra_dir / "planck3000.csv", "--criteria", p, *(["-q"] if command == "lot" else [])],
+                         capsys)
+    assert code == 2 and out == "", (code, out, err)
+    line = err.strip()
+    assert "\n" not in line and f"is judged by `lumeval {command}`" in line and judged_by in line
+    # the Python API refuses the same way; a result holding no clause is never a pass
+    import lumeval
+    from lumeval.criteria.verdicts import CheckResult
+    from lumeval.errors import UsageError
+
+    if command == "check":
+        with pytest.raises(UsageError):
+            lumeval.check([spectra_dir / "planck3000.csv"], p)
+    empty = CheckResult(("a",), ("a.csv",), ((),), (), {}, "c.toml")
+    assert empty.verdicts == ("not judged",) and empty.exit_code == 1

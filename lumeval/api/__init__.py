@@ -92,6 +92,7 @@ def check_run(spectra: Evaluation | Sequence[PathLike], criteria: Criteria | Pat
     from ..uncertainty.judge import judge_with_uncertainty, resolve_setup
 
     crit = _criteria(criteria)  # first: a bad criteria file is reported before any computation
+    crit.require_clauses_for("check")
     setup = resolve_setup(crit, instrument, seed=seed, draws=draws)
     ev = _evaluation(spectra, progress)
     if setup.active:
@@ -147,6 +148,8 @@ def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, 
     from ..lots.run import run_lot
 
     crit = _criteria(criteria) if criteria is not None else None
+    if crit is not None:
+        crit.require_clauses_for("lot", ("sample", "lot"))
     setup = None
     if crit is not None or instrument is not None or seed is not None or draws is not None:
         from ..uncertainty.judge import resolve_setup

@@ -193,6 +193,7 @@ def register(app: typer.Typer) -> None:
             from ..criteria.loader import load_criteria
 
             criteria = load_criteria(criteria_file)
+            criteria.require_clauses_for("lot", ("sample", "lot"))  # before a large folder is listed
             for w in criteria.warnings:
                 print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
         # the inputs expanded once: for the outputs-vs-inputs check and for the run (not for a

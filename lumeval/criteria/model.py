@@ -729,6 +729,20 @@ class Criteria:
     #: each other where a comparison may intend it); every report carries them.
     warnings: tuple = ()
 
+    def require_clauses_for(self, command: str, scopes: tuple[str, ...] = ("sample",)) -> None:
+        """Refuse (:class:`lumeval.errors.UsageError`, exit code 2) criteria with no clause that
+        ``lumeval COMMAND`` judges (``scopes``: the clause scopes it judges): a run that judged
+        nothing read as "all 0 requirements met", a pass with exit code 0 (found by a review of
+        criteria files holding only lot clauses, or only clauses over a range of settings)."""
+        if any(getattr(c, "SCOPE", "sample") in scopes for c in self.clauses):
+            return
+        from ..errors import UsageError
+
+        by = sorted({getattr(c, "JUDGED_BY", f"`lumeval {c.SCOPE}`") for c in self.clauses})
+        raise UsageError(f"{self.file}: none of its {len(self.clauses)} clause(s) is judged by `lumeval {command}`: "
+                         f"they are judged by {' and '.join(by)}", field="--criteria",
+                         fix=f"run {' or '.join(by)}, or add clauses that `lumeval {command}` judges")
+
     def evaluate(self, ev) -> CheckResult:
         """Judge every clause for every spectrum of ``ev`` (an Evaluation)."""
 

@@ -204,7 +204,9 @@ class CheckResult:
         return check_html(self)
 
     def verdict(self, i: int) -> str:
-        """Overall outcome for spectrum i."""
+        """Overall outcome for spectrum i ("not judged" when no clause was judged: never a pass)."""
+        if not self.results:
+            return NOT_JUDGED
         return combine_outcomes([r.outcome[i] for r in self.results])
 
     @property
@@ -218,7 +220,7 @@ class CheckResult:
 
     @property
     def exit_code(self) -> int:
-        """0 when every spectrum passes (or there is nothing to judge), 1 otherwise."""
+        """0 when every spectrum passes, 1 otherwise (also when no clause was judged)."""
         return 0 if all(v == PASS for v in self.verdicts) else 1
 
     def counts(self) -> dict[str, int]:

@@ -392,3 +392,22 @@ def test_fast_path_with_arrow_agrees_with_line_by_line_path_generated(text):
         _assert_same(text, "fuzz/gen.csv")
     finally:
         F.ARROW_BYTES, F.ARROW_PIECE_BYTES = saved
+
+
+@pytest.mark.parametrize("trailing", [",", ""])
+def test_a_header_naming_a_column_without_values_is_refused(trailing):
+    """`wavelength_nm,S1,S2,S3` over rows `λ,a,b,` (or `λ,a,b`): S3 has no values. The header was
+    dropped (names became file#1, file#2) and S3 lost silently; a lot of such files passed
+    (found by a review). Refused, naming the line and the column."""
+    from lumeval.errors import InputError
+
+    rows = "".join(f"{w},{1 + np.sin(w / 40):.4f},{2 + np.cos(w / 50):.4f}{trailing}\n" for w in range(380, 781, 5))
+    with pytest.raises(InputError, match=r"names 3 spectra but the rows hold 2 value\(s\): the column 'S3' has no values") as e:
+        parse_spectra(("wavelength_nm,S1,S2,S3\n" + rows).encode(), "d/wide.csv")
+    assert e.value.line == 1
+    # a header naming exactly the columns there are, with trailing delimiters on the rows: read
+    ok = parse_spectra(("wavelength_nm,S1,S2\n" + rows).encode(), "d/wide.csv")
+    assert ok.names == ("S1", "S2")
+    # a metadata line with more cells than the data, not naming a wavelength axis: still metadata
+    meta = parse_spectra(("Date,2026-01-02,12:00,UTC\nwavelength_nm,S1,S2\n" + rows).encode(), "d/wide.csv")
+    assert meta.names == ("S1", "S2")

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, quote
 from .model import SpectrumSet
 from .text_dialect import (
     _DELIM_NAMES,
@@ -227,6 +227,17 @@ def find_header(before: list, delim: str | None, decimal_comma: bool, ncols: int
                     header_units = [(n.strip(), u) for n, u in zip(pcells, units)]
                     header_ln = pln
                     before = before[:-1]
+    elif (delim is not None and len(hcells) > ncols and hcells[0].strip() and _WAVELENGTH_LABEL.search(hcells[0])
+          and any(c.strip() for c in hcells[ncols:])):
+        # a header (with a delimiter that cannot be part of a name) naming more spectra than the
+        # rows hold values for: the last named column is empty in every row (its delimiters
+        # read as trailing ones). Taken silently, that spectrum was lost and the others lost
+        # their names (found by a review).
+        missing = next(c.strip() for c in hcells[ncols:] if c.strip())
+        raise InputError(
+            f"the header names {len(hcells) - 1} spectra but the rows hold {ncols - 1} value(s): the column "
+            f"{quote(missing)} has no values",
+            file=file, line=hln, fix="fill in the column, or remove its name from the header")
     return Header(header, header_units, header_ln, before)
 
 

@@ -65,6 +65,9 @@ BAD = [
     ("identifcation = 1\n[[clause]]\nfigure='Ra'\nmin=1", 1, "identifcation", ["did you mean 'identification'"]),
     ("[identification]\nprojekt = 'x'\n[[clause]]\nfigure='Ra'\nmin=1", 2, "projekt", ["did you mean 'project'"]),
     ("lumeval_criteria = 2\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version"]),
+    # a clause over a range of settings against one that applies everywhere (found by a review)
+    ("[[clause]]\nfigure='Ra'\nmin=90\n[[clause]]\nfigure='Ra'\nmax=80\nover=[2700,3000]", 4, None,
+     ["contradict each other", "at the settings 2700-3000"]),
     # true and 1.0 equal 1 in Python, but are no version number (found by exploratory testing)
     ("lumeval_criteria = true\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version True"]),
     ("lumeval_criteria = 1.0\n[[clause]]\nfigure='Ra'\nmin=1", 1, "lumeval_criteria", ["unsupported format version 1.0"]),
@@ -485,3 +488,13 @@ def test_criteria_that_the_command_does_not_judge_are_refused(tmp_path, capsys, 
             lumeval.check([spectra_dir / "planck3000.csv"], p)
     empty = CheckResult(("a",), ("a.csv",), ((),), (), {}, "c.toml")
     assert empty.verdicts == ("not judged",) and empty.exit_code == 1
+
+
+def test_limits_over_ranges_that_do_not_meet_are_no_contradiction():
+    """Ra ≥ 90 over 4000-5000 K and Ra ≤ 80 over 2700-3000 K apply at different settings: a
+    tunable product may meet both (docs/tunable.md); they load."""
+    from lumeval.criteria import parse_criteria
+
+    c = parse_criteria("lumeval_criteria = 1\n[[clause]]\nid='a'\nfigure='Ra'\nmin=90\nover=[4000,5000]\n"
+                       "[[clause]]\nid='b'\nfigure='Ra'\nmax=80\nover=[2700,3000]\n")
+    assert [k.clause_id for k in c.clauses] == ["a", "b"]

@@ -7,6 +7,7 @@ keys are errors, contradictory limits are errors; nothing is silently ignored.
 
 from __future__ import annotations
 
+import math
 import re
 
 from .._toml import loads as toml_loads
@@ -198,8 +199,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(clause)
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
-    # clauses judged over different ranges of settings (`over`, tunable products) never meet on one spectrum
-    warnings = _contradictions([c for c in clauses if getattr(c, "SCOPE", "sample") != "range"], file)
+    warnings = _contradictions(clauses, file)
     return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings)
 
 
@@ -215,18 +215,25 @@ def _contradictions(clauses, file: str) -> tuple[str, ...]:
     out: list[str] = []
     by_figure: dict[str, list] = {}
     for c in clauses:
-        if getattr(c, "KIND", "") == "figure":
-            by_figure.setdefault(c.figure, []).append(c)
+        # a clause with `over = [low, high]` (tunable products) applies at the settings in that
+        # range only, one without at every setting: two limits contradict where their ranges meet
+        inner, over = getattr(c, "inner", c), getattr(c, "over", None)
+        if getattr(inner, "KIND", "") == "figure" and getattr(c, "SCOPE", "sample") in ("sample", "range"):
+            by_figure.setdefault(inner.figure, []).append((inner, over or (-math.inf, math.inf)))
     for fig, cs in by_figure.items():
-        lo_c = max((c for c in cs if c.lower is not None), key=lambda c: c.lower, default=None)
-        hi_c = min((c for c in cs if c.upper is not None), key=lambda c: c.upper, default=None)
-        if lo_c is not None and hi_c is not None and lo_c.lower > hi_c.upper:
-            first, second = sorted((lo_c, hi_c), key=lambda c: c.line or 0)
-            raise CriteriaError(
-                f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}) and {hi_c.clause_id!r} ({fig} ≤ {hi_c.upper:g}) "
-                f"contradict each other: no value meets both" + (f" (lines {first.line} and {second.line})" if first.line and second.line else ""),
-                file=file, line=second.line, fix="correct or remove one of them")
-    quads = [c for c in clauses if getattr(c, "KIND", "") == "ansi_quadrangle"]
+        for lo_c, lo_over in (x for x in cs if x[0].lower is not None):
+            for hi_c, hi_over in (x for x in cs if x[0].upper is not None):
+                meet = max(lo_over[0], hi_over[0]) <= min(lo_over[1], hi_over[1])
+                if meet and lo_c.lower > hi_c.upper:
+                    first, second = sorted((lo_c, hi_c), key=lambda c: c.line or 0)
+                    raise CriteriaError(
+                        f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}) and {hi_c.clause_id!r} ({fig} ≤ "
+                        f"{hi_c.upper:g}) contradict each other: no value meets both"
+                        + ("" if math.isinf(max(lo_over[0], hi_over[0])) and math.isinf(min(lo_over[1], hi_over[1]))
+                           else f" at the settings {max(lo_over[0], hi_over[0]):g}-{min(lo_over[1], hi_over[1]):g}")
+                        + (f" (lines {first.line} and {second.line})" if first.line and second.line else ""),
+                        file=file, line=second.line, fix="correct or remove one of them")
+    quads = [c for c in clauses if getattr(c, "KIND", "") == "ansi_quadrangle" and getattr(c, "SCOPE", "sample") == "sample"]
     for i, a in enumerate(quads):
         for b in quads[i + 1:]:
             qa, qb = a.quadrangle, b.quadrangle

@@ -498,3 +498,25 @@ def test_limits_over_ranges_that_do_not_meet_are_no_contradiction():
     c = parse_criteria("lumeval_criteria = 1\n[[clause]]\nid='a'\nfigure='Ra'\nmin=90\nover=[4000,5000]\n"
                        "[[clause]]\nid='b'\nfigure='Ra'\nmax=80\nover=[2700,3000]\n")
     assert [k.clause_id for k in c.clauses] == ["a", "b"]
+
+
+def test_claims_on_figures_outside_their_validity_range_are_not_checkable(tmp_path, capsys):
+    """A narrow green band (|Duv| ≈ 0.16) has Ra and Rf computed outside their validity range
+    (CIE 13.3 / CIE 224 apply near the locus; CIE 15:2004 §9.5 for the 0.05 limit): "Ra ≥ -50"
+    and "Rf ≤ 5" were reported supported while `check` calls the same figures not valid (found
+    by a review). They are not checkable, with the reason."""
+    wl = np.arange(380.0, 781.0, 1.0)
+    v = np.exp(-0.5 * ((wl - 530.0) / 15.0) ** 2)
+    spd = write(tmp_path, "wl,green\n" + "".join(f"{a:g},{b:.6f}\n" for a, b in zip(wl, v)), "green.csv")
+    claims = write(tmp_path, 'lumeval_claims = 1\n[claims]\nRa = ">= -50"\nRf = "<= 5"\n', "claims.toml")
+    code, out, err = run(["claims", spd, "--claims", claims, "-f", "json"], capsys)
+    assert code == 0, err
+    import json
+
+    doc = json.loads(out)
+    (spectrum,) = doc["spectra"]
+    assert spectrum["verdict"] == "not checkable"
+    rows = {c["figure"]: c for c in spectrum["claims"]}
+    for fig in ("Ra", "Rf"):
+        assert rows[fig]["outcome"] == "not checkable", rows[fig]
+        assert "outside the validity range" in rows[fig]["reason"]

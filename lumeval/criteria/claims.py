@@ -180,11 +180,20 @@ class Claims:
             m = np.asarray(ev.figure(c.figure), dtype=float)
             excess = np.zeros(n)
             outcome, reason = [], []
+            # a figure computed outside its validity range (CIE 13.3 / CIE 224 far from the
+            # locus) confirms and contradicts nothing: `check` calls it "not valid"
+            flag = getattr(ev, "outside_validity_of", None)
+            outside = np.asarray(flag(c.figure), dtype=bool) if flag is not None else np.zeros(n, dtype=bool)
             for i in range(n):
                 if not np.isfinite(m[i]):
                     outcome.append(NOT_CHECKABLE)
                     r = reasons_cct[i] if reasons_cct is not None and reasons_cct[i] else ""
                     reason.append(f"{c.figure} is undefined for this spectrum" + (f" ({r})" if r else ""))
+                    excess[i] = np.nan
+                elif outside[i]:
+                    outcome.append(NOT_CHECKABLE)
+                    why = ev.validity_reason(i) if hasattr(ev, "validity_reason") else "outside the validity range"
+                    reason.append(f"{c.figure} was computed {why}")
                     excess[i] = np.nan
                 elif c.lower is not None and m[i] < c.lower:
                     outcome.append(CONTRADICTED)

@@ -520,3 +520,21 @@ def test_claims_on_figures_outside_their_validity_range_are_not_checkable(tmp_pa
     for fig in ("Ra", "Rf"):
         assert rows[fig]["outcome"] == "not checkable", rows[fig]
         assert "outside the validity range" in rows[fig]["reason"]
+
+
+def test_a_clause_on_the_ansi_category_says_when_it_is_only_the_nearest(tmp_path, spectra_dir):
+    """The ANSI category figure is the quadrangle containing the chromaticity or the nearest
+    (docs/metrics.md); a clause on it passes a point outside every quadrangle. The reason says
+    so, with the distance (the ansi_distance_upvp figure), for such points only (found by a
+    review). A 3000 K Planckian lies inside the 3000 K quadrangle (ANSI C78.377: the categories
+    straddle the locus)."""
+    import lumeval
+
+    wl = np.arange(380.0, 781.0, 1.0)
+    v = np.exp(-0.5 * ((wl - 530.0) / 15.0) ** 2)
+    green = write(tmp_path, "wl,green\n" + "".join(f"{a:g},{b:.6f}\n" for a, b in zip(wl, v)), "green.csv")
+    crit = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nfigure = "ansi_category_K"\nrange = [2700, 6500]\n')
+    res = lumeval.check([green, spectra_dir / "planck3000.csv"], crit)
+    (r,) = res.results
+    assert "outside every ANSI C78.377 quadrangle" in r.reason[0] and 'kind = "ansi_quadrangle"' in r.reason[0]
+    assert "outside every" not in (r.reason[1] or "")

@@ -127,6 +127,23 @@ def _not_valid(ev, figure: str, n: int, outcome: tuple, reason: tuple, accept: b
     return tuple(outcome_l), tuple(reason_l)
 
 
+def _nearest_category_notes(ev, r):
+    """The ANSI category figure names the quadrangle containing the chromaticity *or the nearest
+    one*: a clause on it passes a point outside every quadrangle (a green line 0.16 off the
+    locus was "5000 K, pass"; found by a review). Each such spectrum's reason says so and how
+    far out it lies; membership is what an `ansi_quadrangle` clause judges."""
+    d = np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
+    out = np.flatnonzero(np.isfinite(d) & (d > 0))
+    if not out.size:
+        return r
+    reasons = list(r.reason) if r.reason else [""] * d.size
+    for i in out:
+        note = (f"the nearest category: the chromaticity lies outside every ANSI C78.377 quadrangle "
+                f"(Δu′v′ = {d[i]:.4f} out); to require it inside, use kind = \"ansi_quadrangle\"")
+        reasons[i] = f"{reasons[i]}; {note}" if reasons[i] else note
+    return replace(r, reason=tuple(reasons))
+
+
 def figure_result(
     ev, *, clause_id: str, label: str, kind: str, figure: str, lower, upper, source: str, group: str, line,
     accept_outside_validity: bool = False,
@@ -358,21 +375,22 @@ class FigureClause(ClauseKind):
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         _desc, std = describe(self.figure)
-        return (
-            figure_result(
-                ev,
-                clause_id=self.clause_id,
-                label=self.label,
-                kind=self.KIND,
-                figure=self.figure,
-                lower=self.lower,
-                upper=self.upper,
-                source=std,
-                group=self.clause_id,
-                line=self.line,
-                accept_outside_validity=self.accept_outside_validity,
-            ),
+        r = figure_result(
+            ev,
+            clause_id=self.clause_id,
+            label=self.label,
+            kind=self.KIND,
+            figure=self.figure,
+            lower=self.lower,
+            upper=self.upper,
+            source=std,
+            group=self.clause_id,
+            line=self.line,
+            accept_outside_validity=self.accept_outside_validity,
         )
+        if figures.get(self.figure).name == "ansi_category_K":
+            r = _nearest_category_notes(ev, r)
+        return (r,)
 
     def tender_text(self) -> str:
         desc, std = describe(self.figure)

@@ -375,19 +375,9 @@ class FigureClause(ClauseKind):
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         _desc, std = describe(self.figure)
-        r = figure_result(
-            ev,
-            clause_id=self.clause_id,
-            label=self.label,
-            kind=self.KIND,
-            figure=self.figure,
-            lower=self.lower,
-            upper=self.upper,
-            source=std,
-            group=self.clause_id,
-            line=self.line,
-            accept_outside_validity=self.accept_outside_validity,
-        )
+        r = figure_result(ev, clause_id=self.clause_id, label=self.label, kind=self.KIND, figure=self.figure,
+                          lower=self.lower, upper=self.upper, source=std, group=self.clause_id, line=self.line,
+                          accept_outside_validity=self.accept_outside_validity)
         if figures.get(self.figure).name == "ansi_category_K":
             r = _nearest_category_notes(ev, r)
         return (r,)

@@ -7,6 +7,7 @@ T.4) by CIE 15:2004 Eqs. 8.1-8.2.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -113,6 +114,27 @@ def test_series_from_toml_and_csv_manifest(series_dir):
     csvm.write_text("file,setting\ndim_100pct.csv,1.0\n", encoding="utf-8")
     with pytest.raises(InputError, match="not listed in the manifest"):
         series_files(paths, manifest=csvm)
+
+
+@pytest.mark.parametrize("text, line, words", [
+    # settings in two units: the last row's unit was given to every setting (found by a review)
+    ("file,setting,unit\ndim_100pct.csv,100,%\ndim_050pct.csv,2700,K\ndim_010pct.csv,10,%\n", 3,
+     "settings in two units: '%' (line 2) and 'K' (line 3)"),
+    # a file listed twice: the later row won silently (found by a review); comments and blank
+    # lines keep the physical line numbers
+    ("file,setting\n# dimming levels\ndim_100pct.csv,100\n\ndim_050pct.csv,50\ndim_100pct.csv,10\n", 6,
+     "'dim_100pct.csv' is listed twice (lines 3 and 6)"),
+    # numbers by the spectrum readers' rule: no underscores, no other scripts' digits
+    ("file,setting\ndim_100pct.csv,1_00\ndim_050pct.csv,50\ndim_010pct.csv,10\n", 2, "is not a number"),
+    ("file,setting\ndim_100pct.csv,\u0661\u0660\u0660\ndim_050pct.csv,50\ndim_010pct.csv,10\n", 2, "is not a number"),
+])
+def test_a_csv_manifest_is_refused_naming_the_line(series_dir, text, line, words):
+    d, paths = series_dir
+    m = d / "bad_manifest.csv"
+    m.write_text(text, encoding="utf-8")
+    with pytest.raises(InputError, match=re.escape(words)) as e:
+        series_files(paths, manifest=m)
+    assert e.value.line == line
 
 
 def test_series_refusals(series_dir, tmp_path):

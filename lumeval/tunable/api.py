@@ -298,24 +298,45 @@ def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
 
 
 def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str]:
-    rows = [r for r in csv.reader(io.StringIO(text)) if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
+    """``file,setting[,unit]`` rows (a header row and ``#`` comments allowed): the settings by
+    file name and their unit. Numbers follow the spectrum readers' rule (ASCII digits); a file
+    listed twice and settings in two units are refused, naming the lines (found by a review: the
+    last row won silently, and the last row's unit was given to every setting)."""
+    from ..spectra.text_dialect import _is_number
+
+    reader = csv.reader(io.StringIO(text))
     out: dict[str, float] = {}
-    unit = ""
-    for n, r in enumerate(rows):
+    seen: dict[str, int] = {}
+    units: dict[str, int] = {}
+    first = True
+    for r in reader:
+        ln = reader.line_num
+        if not r or not any(c.strip() for c in r) or r[0].lstrip().startswith("#"):
+            continue
         if len(r) < 2:
-            raise InputError("a manifest row needs a file name and a setting", file=file, line=n + 1, fix="write rows file,setting")
+            raise InputError("a manifest row needs a file name and a setting", file=file, line=ln, fix="write rows file,setting")
         name, val = r[0].strip(), r[1].strip()
-        try:
-            v = float(val)
-        except ValueError:
-            if n == 0:  # header row
+        if not _is_number(val, decimal_comma=False):
+            if first:  # header row
+                first = False
                 continue
-            raise InputError(f"setting {quote(val)} is not a number", file=file, line=n + 1, fix="write a plain number") from None
+            raise InputError(f"setting {quote(val)} is not a number", file=file, line=ln,
+                             fix="write a plain number with the digits 0-9")
+        first = False
+        v = float(val)
         if not np.isfinite(v):
-            raise InputError(f"setting {quote(val)} is not a finite number", file=file, line=n + 1, fix="write a plain number")
+            raise InputError(f"setting {quote(val)} is not a finite number", file=file, line=ln, fix="write a plain number")
+        if name in seen:
+            raise InputError(f"{quote(name)} is listed twice (lines {seen[name]} and {ln})", file=file, line=ln,
+                             fix="list each file once")
+        seen[name] = ln
         out[name] = v
         if len(r) > 2 and r[2].strip():
-            unit = r[2].strip()[:16]
+            units.setdefault(r[2].strip()[:16], ln)
+    if len(units) > 1:
+        (u1, l1), (u2, l2) = list(units.items())[:2]
+        raise InputError(f"settings in two units: {quote(u1)} (line {l1}) and {quote(u2)} (line {l2})", file=file,
+                         line=l2, fix="give every setting in one unit (one manifest per unit)")
     if not out:
         raise InputError("no settings listed", file=file, fix="write rows file,setting (e.g. dim_100.csv,100)")
-    return out, unit
+    return out, next(iter(units), "")

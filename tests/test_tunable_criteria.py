@@ -148,6 +148,22 @@ def test_unreachable_setting_in_range_is_not_judged():
     assert chk.exit_code == 1
 
 
+def test_the_range_line_names_every_reason_a_setting_was_not_judged():
+    """One setting not reachable, the others without the reference setting 3100 they refer to:
+    the range line named only the first reason ("not reachable"), so fixing it left the clause
+    unjudged (found by a review). Every distinct reason is given, in setting order."""
+    c = parse_criteria('lumeval_criteria = 1\n[[clause]]\nid = "ss"\nkind = "series_shift"\n'
+                       'max_delta_upvp = 0.01\nreference = 3100\n', "t")
+    s = np.array([2600.0, 3000.0, 3500.0])
+    up, vp = np.array([np.nan, 0.25, 0.24]), np.array([np.nan, 0.52, 0.51])
+    why = ("not reachable: x", "", "")
+    chk = judge(c, View(u_prime=up, v_prime=vp), s, labels=["2600 K", "3000 K", "3500 K"], unit="K",
+                available=np.array([False, True, True]), unavailable_reason=why)
+    (r,) = chk.results
+    assert r.range_outcome == "not judged"
+    assert "not reachable: x" in r.range_reason and "3100" in r.range_reason, r.range_reason
+
+
 def test_locus_reference_against_colour_science(colour):
     """series_shift with reference = "locus": Δu′v′ from the Planckian point of each nominal
     CCT; the locus point recomputed with colour-science's blackbody and CMFs."""

@@ -359,7 +359,12 @@ def summarise(result: ClauseResult, applies: np.ndarray, over, unavailable: np.n
     mg = np.where(np.isfinite(margin[cand]), margin[cand], np.inf)
     worst = int(cand[int(np.argmin(mg))])
     if overall == NOT_JUDGED:
-        range_reason = why[worst]
+        # every distinct reason, in setting order: the first setting's alone named the wrong cause
+        # when settings were not judged for different reasons (one not reachable, the others
+        # lacking a reference setting; found by a review)
+        reasons = list(dict.fromkeys(why[i] for i in idx if out[i] == NOT_JUDGED and why[i]))
+        range_reason = "; ".join(reasons[:3]) + (f"; and {len(reasons) - 3} other reason(s)" if len(reasons) > 3 else "")
+        range_reason = range_reason or why[worst]
     return RangeClauseResult(result, over, applies, tuple(out), tuple(why), overall, worst, range_reason)
 
 

@@ -133,3 +133,22 @@ def test_the_largest_seed_is_accepted_and_one_more_refused_as_an_override(tmp_pa
     assert settings.seed == 2**63 - 1
     with pytest.raises(UsageError, match="too large"):
         resolve_setup(None, inst, seed=2**63)
+
+
+def test_an_instrument_files_monte_carlo_table_wins_even_with_default_values(tmp_path):
+    """docs/uncertainty.md: the command-line file wins and the report says so. An instrument
+    file stating seed 1 and 2000 draws (the defaults) was ignored in favour of the criteria
+    file's [monte_carlo] (found by a review); a file without the table leaves the criteria's."""
+    from lumeval.criteria import parse_criteria
+    from lumeval.uncertainty.judge import resolve_setup
+
+    crit = parse_criteria('lumeval_criteria = 1\n[[clause]]\nfigure = "Ra"\nmin = 80\n'
+                          "[instrument]\nnoise_relative = 0.01\n[monte_carlo]\ndraws = 500\nseed = 5\n", "c.toml")
+    with_mc = _write(tmp_path, "[instrument]\nnoise_relative = 0.01\n[monte_carlo]\ndraws = 2000\nseed = 1\n")
+    setup = resolve_setup(crit, with_mc)
+    assert (setup.settings.draws, setup.settings.seed) == (2000, 1)
+    assert any("[monte_carlo]" in n for n in setup.notes)
+    without = tmp_path / "plain.toml"
+    without.write_text("[instrument]\nnoise_relative = 0.01\n", encoding="utf-8")
+    setup = resolve_setup(crit, without)
+    assert (setup.settings.draws, setup.settings.seed) == (500, 5)

@@ -194,6 +194,11 @@ def test_numerical_tolerance_jcgm101_7_9_2():
     np.testing.assert_allclose(numerical_tolerance([0.0032], 2), [0.00005])
     np.testing.assert_allclose(numerical_tolerance([25.7], 1), [5.0])
     assert np.isinf(numerical_tolerance([0.0], 1))[0]
+    # u is written with n_dig digits *after rounding*: 0.0989 → 1 × 10⁻¹ (δ = 0.05), 9.7 → 1 × 10¹
+    # (δ = 5), 0.997 with two digits → 10 × 10⁻¹ (δ = 0.05); 0.094 stays 9 × 10⁻² (δ = 0.005).
+    # The exponent of u unrounded gave δ ten times too small (found by a review).
+    np.testing.assert_allclose(numerical_tolerance([0.0989, 9.7, 0.094], 1), [0.05, 5.0, 0.005])
+    np.testing.assert_allclose(numerical_tolerance([0.997], 2), [0.05])
 
 
 def test_adaptive_procedure_stabilises_in_whole_runs():

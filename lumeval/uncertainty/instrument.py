@@ -329,7 +329,16 @@ def parse_toml(path: str | Path) -> tuple[dict, str]:
 
 
 def load_instrument(path: str | Path) -> tuple[InstrumentModel, MonteCarloSettings]:
-    """Read an instrument file: an ``[instrument]`` table and an optional ``[monte_carlo]``.
+    """Read an instrument file: an ``[instrument]`` table and an optional ``[monte_carlo]``
+    (the defaults when it has none; :func:`read_instrument_file` also says whether it had one).
+    """
+    model, settings, _ = read_instrument_file(path)
+    return model, settings
+
+
+def read_instrument_file(path: str | Path) -> tuple[InstrumentModel, MonteCarloSettings, bool]:
+    """:func:`load_instrument`, and whether the file has a ``[monte_carlo]`` table (a table that
+    states the default values is still the file's choice: it replaces the criteria file's).
 
     Raises
     ------
@@ -353,4 +362,4 @@ def load_instrument(path: str | Path) -> tuple[InstrumentModel, MonteCarloSettin
                             fix="start the file with [instrument] and key = value lines (see docs/uncertainty.md)")
     model = instrument_from_table(data["instrument"], file=file, text=text)
     settings = settings_from_table(data.get("monte_carlo", {}), file=file, text=text)
-    return model, settings
+    return model, settings, "monte_carlo" in data

@@ -25,7 +25,7 @@ import numpy as np
 
 from ..criteria.verdicts import NOT_VALID
 from .decision import DecisionRule, decide
-from .instrument import SEED_MAX, InstrumentModel, MonteCarloSettings, load_instrument
+from .instrument import SEED_MAX, InstrumentModel, MonteCarloSettings, read_instrument_file
 from .montecarlo import UncertaintyResult, propagate
 
 #: Figures whose uncertainties every report lists (besides the judged quantities).
@@ -74,11 +74,13 @@ def resolve_setup(criteria=None, instrument_path=None, *, seed: int | None = Non
     rule = table.get("decision") or DecisionRule()
     notes: list[str] = []
     if instrument_path is not None:
-        file_model, file_settings = load_instrument(instrument_path)
+        file_model, file_settings, file_has_mc = read_instrument_file(instrument_path)
         if instrument is not None:
             notes.append(f"instrument file {instrument_path} replaces the criteria file's [instrument] table")
         instrument = file_model
-        if table.get("monte_carlo") is None or file_settings != MonteCarloSettings():
+        if file_has_mc:  # the command-line file wins, even where it states the default values
+            if table.get("monte_carlo") is not None:
+                notes.append(f"instrument file {instrument_path} replaces the criteria file's [monte_carlo] table")
             settings = file_settings
     if seed is not None:
         settings = dataclasses.replace(settings, seed=int(seed))

@@ -279,13 +279,17 @@ def summarise(samples: np.ndarray, p: float = 0.95) -> dict[str, np.ndarray]:
 
 def numerical_tolerance(u, significant_digits: int = 1) -> np.ndarray:
     """JCGM 101:2008 §7.9.2 (quoted from memory): write u = c × 10^l with c an integer of
-    ``significant_digits`` digits; the numerical tolerance is δ = ½ × 10^l. Zero or NaN u gives
-    δ = inf (nothing to stabilise)."""
+    ``significant_digits`` digits; the numerical tolerance is δ = ½ × 10^l. u is rounded to that
+    many digits first, so 0.0989 with one digit is 0.1 = 1 × 10^-1 and δ = 0.05 (taking the
+    exponent of u unrounded gave 0.005, ten times too strict; found by a review). Zero or NaN u
+    gives δ = inf (nothing to stabilise)."""
     u = np.atleast_1d(np.asarray(u, dtype=float))
     out = np.full(u.shape, np.inf)
     ok = np.isfinite(u) & (u > 0)
     lg = np.floor(np.log10(u[ok])) - (significant_digits - 1)
-    out[ok] = 0.5 * 10.0 ** lg
+    c = np.round(u[ok] / 10.0**lg)  # the digits of u; 10^n_dig when rounding carries over
+    lg = lg + (c >= 10.0**significant_digits)
+    out[ok] = 0.5 * 10.0**lg
     return out
 
 

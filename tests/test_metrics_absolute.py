@@ -41,6 +41,9 @@ KM = 683.0
         ("W/(sr·m²·nm)", RADIANCE, 1.0),
         ("W·sr⁻¹·m⁻²·nm⁻¹", RADIANCE, 1.0),
         ("mW/sr/m2/nm", RADIANCE, 1e-3),
+        ("W m^-2 nm^-1", IRRADIANCE, 1.0),
+        ("W sr-1 m-2 nm-1", RADIANCE, 1.0),
+        ("LED 103 (W/m2/nm)", IRRADIANCE, 1.0),  # a number in a column's name is no scale
     ],
 )
 def test_recognised_units(text, kind, factor):
@@ -52,7 +55,11 @@ def test_recognised_units(text, kind, factor):
 @pytest.mark.parametrize(
     "text",
     ["W/nm", "W/(sr·nm)", "W/m2", "counts", "relative", "W/(m²·µm)", "W/(m2 nm) or mW/(m2 nm)", "a.u.", "", None,
-     "W/(sr·sr·m²·nm)"],
+     "W/(sr·sr·m²·nm)",
+     # a scale beside the unit, or a wavelength interval other than one nm: a factor lumeval would
+     # have to guess ("x 1e-3" was read as plain W/(m² nm), 1000x too high; found by a review)
+     "irradiance (W/(m2 nm)) x 1e-3", "irradiance [mW/(m² nm) x1000]", "W/(m2 sr nm) [x 1e-3]",
+     "W/(m2 nm) × 10^-3", "1e-3 W/(m2 nm)", "W/(m2 nm) *1000", "W/(m2 5nm)", "W/(m2 10 nm)"],
 )
 def test_anything_else_gives_no_absolute_quantity(text):
     assert spectral_quantity(text) is None
@@ -149,3 +156,23 @@ def test_photometric_scale_uncertainty_reaches_illuminance_only():
     rel = res.u[0] / res.measured[0]
     np.testing.assert_allclose(rel[:2], 0.05, rtol=0.15)
     assert rel[2] < 1e-9
+
+
+def test_a_declared_absolute_scale_keeps_the_unit_of_an_ordinary_unit_line(tmp_path):
+    """`# lumeval.scale: absolute` with `# unit: mW/(m2 nm)` gave no absolute figure (the
+    declared scale took its unit from lumeval.value_unit only; found by a review); the same
+    file without the scale line gave it. Both now give the same illuminance (683 lm/W × Σ E V Δλ,
+    CIE 15:2004 / the SI definition of the lumen at 540 THz: Km = 683 lm/W)."""
+    import lumeval
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    v = 1e-3 / (wl**5 * np.expm1(1.4388e7 / (wl * 2856.0)))
+    v = v / v.max() * 1e-3
+    rows = "wl,A\n" + "".join(f"{a:g},{b:.6e}\n" for a, b in zip(wl, v))
+    declared = tmp_path / "declared.csv"
+    declared.write_text("# lumeval.scale: absolute\n# unit: mW/(m2 nm)\n" + rows)
+    plain = tmp_path / "plain.csv"
+    plain.write_text("# unit: mW/(m2 nm)\n" + rows)
+    a, b = (lumeval.inspect([p]).figure("illuminance_lx")[0] for p in (declared, plain))
+    assert np.isfinite(a)
+    np.testing.assert_allclose(a, b, rtol=1e-12)

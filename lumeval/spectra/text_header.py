@@ -118,9 +118,6 @@ def _wavelength_unit(header_cell: str | None, meta: dict, file: str, line: int |
 
 
 def _scale(header_cell: str | None, meta: dict) -> tuple[str, str | None]:
-    declared = meta.get("lumeval.scale")
-    if declared in {"absolute", "relative", "unknown"}:
-        return declared, meta.get("lumeval.value_unit")
     texts = []
     if header_cell:
         texts.append(header_cell)
@@ -129,6 +126,14 @@ def _scale(header_cell: str | None, meta: dict) -> tuple[str, str | None]:
         if kl in {"unit", "units", "y unit", "y-unit", "yunit", "y units", "scale", "spectral quantity",
                   "spectralquantity", "quantity", "value unit", "values"}:
             texts.append(v)
+    declared = meta.get("lumeval.scale")
+    if declared in {"absolute", "relative", "unknown"}:
+        # a declared scale with its unit on an ordinary line ("unit: mW/(m2 nm)"): that unit
+        # (it was dropped, and with it every absolute figure; found by a review)
+        unit = meta.get("lumeval.value_unit")
+        if unit is None and declared == "absolute":
+            unit = next((t for t in texts if _ABSOLUTE.search(t)), None)
+        return declared, unit
     for t in texts:
         if _RELATIVE.search(t):
             return "relative", t

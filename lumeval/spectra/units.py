@@ -64,6 +64,10 @@ _AREA = re.compile(r"(?<![a-zµ])([cm]?)m\s*-?2(?![0-9])")
 _STERADIAN = re.compile(r"(?<![a-z])sr(?![a-z])")
 _PER_NM = re.compile(r"(?<![a-zµ])nm(?![a-z])")
 _OTHER_LENGTH = re.compile(r"(?<![a-zµ])(?:[µu]m|cm|mm)\s*-?1?(?![0-9a-z])|(?<![a-z])micron")
+# a scale written with the unit ("x 1e-3", "×1000", "*10", "1e-3 W/...") or a wavelength
+# interval other than one nm ("W/(m2 5nm)"): the values would need a factor lumeval would have
+# to guess, so no absolute figure (found by a review: "x 1e-3" was read as plain W/(m² nm))
+_SCALED = re.compile(r"(?<![a-z])[x×*]\s*[-+]?\d|\d\s*e\s*[-+]?\d|(?<![a-z0-9\-.])\d+(?:\.\d+)?\s*nm(?![a-z])")
 
 
 def spectral_quantity(unit_text: str | None) -> SpectralQuantity | None:
@@ -71,7 +75,8 @@ def spectral_quantity(unit_text: str | None) -> SpectralQuantity | None:
 
     Recognised: one power unit (W, mW, µW/uW, nW), one area (m², cm², mm²), per nm, and
     optionally per sr: irradiance without sr, radiance with it. Returns None for anything else,
-    including text that names two power units or no per-nm wavelength interval.
+    including text that names two power units, no per-nm wavelength interval, another interval
+    ("per 5 nm") or a scale written beside the unit ("x 1e-3", "× 10^3").
 
     Examples
     --------
@@ -81,7 +86,11 @@ def spectral_quantity(unit_text: str | None) -> SpectralQuantity | None:
     """
     if not unit_text:
         return None
+    if re.search(r"10\s*\^", str(unit_text)):
+        return None  # "× 10^-3": a scale (see _SCALED)
     t = _normalise(str(unit_text))
+    if _SCALED.search(t):
+        return None
     powers = _POWER.findall(t)
     areas = _AREA.findall(t)
     if len(powers) != 1 or len(areas) != 1 or not _PER_NM.search(t):

@@ -89,3 +89,45 @@ def test_a_multi_line_metadata_value_is_kept_in_csv_and_not_noted(tmp_path):
     back = read_spectra(tmp_path / "one.csv").metadata[0]
     assert back["k"] == "first\nsecond" and back["j"] == "xy"
     assert notes == ["1 metadata value(s) written without control characters"]
+
+
+def test_parquet_keeps_metadata_keys_that_would_read_back_as_names_or_wavelengths(tmp_path):
+    """A metadata key "name" or "555" was dropped from a Parquet archive without a note (a column
+    so named is the names, or a wavelength; found by a review). It is kept as "meta:KEY", and
+    the note says so; the values and the spectra read back exactly."""
+    s = _set(["a", "b"], [{"555": "filter", "name": "other name", "station": "S1"}, {"555": "none", "station": "S2"}])
+    src = tmp_path / "in.json"
+    convert_notes: list[str] = []
+    convert(write_json(s, src), tmp_path / "out.parquet", notes=convert_notes)
+    assert len(convert_notes) == 1 and '"555" as "meta:555"' in convert_notes[0], convert_notes
+    back = read_spectra(tmp_path / "out.parquet")
+    assert back.names == ("a", "b")
+    np.testing.assert_array_equal(back.values, s.values)
+    np.testing.assert_array_equal(back.wavelengths_nm, WL)
+    assert back.metadata[0]["meta:555"] == "filter" and back.metadata[0]["meta:name"] == "other name"
+    assert back.metadata[1]["meta:555"] == "none" and back.metadata[1]["station"] == "S2"
+
+
+def test_an_archive_folder_is_never_written_into(tmp_path, capsys):
+    """`convert FOLDER FOLDER/member.parquet --force` replaced a member of the input archive with
+    the whole output (a second run then read 399 spectra of 200; found by a review); a new
+    .parquet in the folder would join the archive. Both refused, the folder unchanged."""
+    folder = tmp_path / "arch"
+    folder.mkdir()
+    for k in range(2):
+        write_archive(_set([f"s{k}"], [{"station": f"S{k}"}]), folder / f"part{k}.parquet")
+    before = {p.name: p.read_bytes() for p in folder.iterdir()}
+    for target, extra in ((folder / "part0.parquet", ["--force"]), (folder / "new.parquet", [])):
+        code, out, err = run_cli_in_process(["convert", folder, target, *extra], capsys)
+        assert code == 2 and "input archive folder" in err, err
+    assert {p.name: p.read_bytes() for p in folder.iterdir()} == before
+    code, out, err = run_cli_in_process(["convert", "-q", folder, tmp_path / "all.parquet"], capsys)
+    assert code == 0, err
+    assert len(read_spectra(tmp_path / "all.parquet")) == 2
+
+
+def write_json(spectra, path):
+    from lumeval.spectra.write import serialise
+
+    path.write_bytes(serialise(spectra, "json"))
+    return path

@@ -513,16 +513,28 @@ def archive_table(spectra: SpectrumSet):
     keys: list[str] = []
     for m in spectra.metadata:
         for k in m:
-            if k not in _DERIVED and k not in keys and k != NAME_COLUMN and wavelength_of(k) is None:
+            if k not in _DERIVED and k not in keys:
                 keys.append(k)
     from ..frames import float_array, string_array  # from buffers: pa.array would import pandas
 
     cols = {NAME_COLUMN: string_array(pa, spectra.names)}
     for k in keys:
-        cols[k] = string_array(pa, [None if m.get(k) is None else str(m[k]) for m in spectra.metadata])
+        cols[metadata_column_name(k, cols)] = string_array(pa, [None if m.get(k) is None else str(m[k])
+                                                                for m in spectra.metadata])
     for j, w in enumerate(spectra.wavelengths_nm):
         cols[wavelength_column_name(w)] = float_array(pa, spectra.values[:, j])
     return pa.table(cols)
+
+
+def metadata_column_name(key: str, taken) -> str:
+    """The column a metadata key is written to: the key itself, or ``meta:KEY`` when the key
+    would be read back as something else (``name`` names the spectra, a number is a wavelength)
+    or is taken. They were dropped without a word (found by a review); the conversion notes say
+    so (:func:`lumeval.spectra.write.conversion_notes`)."""
+    col = key
+    while col == NAME_COLUMN or wavelength_of(col) is not None or col in taken:
+        col = f"meta:{col}"
+    return col
 
 
 def to_parquet_bytes(spectra: SpectrumSet, *, row_group_rows: int = ROW_GROUP_ROWS) -> bytes:

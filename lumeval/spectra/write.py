@@ -116,11 +116,28 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
     """What writing ``spectra`` as ``kind`` cannot keep as it is, in words (empty when the format
     keeps everything): names and metadata text that CSV holds on one line without control
     characters (a formula-like name quoted) or that XML 1.0 cannot hold, and, in CSV, metadata
-    that differs between spectra (one header block holds only what they share). JSON and
-    Parquet keep every name and metadata value."""
+    that differs between spectra (one header block holds only what they share), in Parquet a
+    metadata key that would be read back as the names or a wavelength (written as ``meta:KEY``).
+    JSON keeps every name and metadata value."""
     from ..render.safe import clean
     from .tm27 import _xml_text
 
+    if kind == "parquet":
+        from .archive import NAME_COLUMN, metadata_column_name
+
+        keys = list(dict.fromkeys(k for m in spectra.metadata for k in m if k not in _DERIVED))
+        taken: set[str] = {NAME_COLUMN}
+        renamed = []
+        for k in keys:
+            col = metadata_column_name(k, taken)
+            taken.add(col)
+            if col != k:
+                renamed.append((k, col))
+        if not renamed:
+            return []
+        return [f"{len(renamed)} metadata key(s) written under another column name, since a column so named would "
+                f'be read back as the names or as a wavelength: "{clean(renamed[0][0])}" as "{clean(renamed[0][1])}"'
+                + (" and others" if len(renamed) > 1 else "")]
     if kind not in ("csv", "xml"):
         return []
     dropped: list[str] = []

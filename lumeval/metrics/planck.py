@@ -19,7 +19,10 @@ from typing import cast
 import numpy as np
 from numpy.typing import ArrayLike
 
-#: First radiation constant as CIE 15:2004 gives it (W m²).
+#: First radiation constant (W m²): the CODATA value rounded to 7 digits. The label "as CIE
+#: 15:2004 gives it" was not checked against the standard (its printed value is recalled, from
+#: memory, as 3.74183e-16). It scales every Planckian spectrum equally, so no figure lumeval
+#: computes depends on it: every one is a ratio of integrals of the same spectrum.
 C1_CIE = 3.741771e-16
 #: Second radiation constant as CIE 15:2004 uses it for the Planckian locus (m K).
 C2_CIE = 1.4388e-2

@@ -265,6 +265,31 @@ def _traceback() -> None:
         _say(clean(line), raw=True)
 
 
+#: The options that name one output file (a path ending in a separator names a folder).
+_FILE_OUTPUT_OPTIONS = frozenset({"-o", "--output", "--html", "--json", "--samples-csv", "--samples-parquet"})
+
+
+def _folder_like_output(args: list[str]) -> str | None:
+    """``OPTION VALUE`` of a file-output option whose value ends in a path separator, or None.
+    The argument parser turns the value into a ``pathlib.Path``, which drops the separator, so
+    ``-o out.txt/`` wrote a file ``out.txt`` (found by exploratory testing); only the raw
+    arguments still show it."""
+    seps = tuple(x for x in (os.sep, os.altsep) if x)
+    for i, a in enumerate(args):
+        if a == "--":
+            break
+        opt, eq, value = a.partition("=")
+        if eq and opt in _FILE_OUTPUT_OPTIONS:
+            v = value
+        elif a in _FILE_OUTPUT_OPTIONS and i + 1 < len(args):
+            opt, v = a, args[i + 1]
+        else:
+            continue
+        if v != "-" and v.endswith(seps):
+            return f"{opt} {v}"
+    return None
+
+
 def _run(args: list[str]):
     """Run the app; the exit code (or SystemExit's argument).
 
@@ -275,6 +300,10 @@ def _run(args: list[str]):
     from .errors import LumevalError
 
     debug = "--debug" in args
+    folder_like = _folder_like_output(args)
+    if folder_like is not None:
+        _say(f"lumeval: error: {folder_like}: a path ending in '/' names a folder, not a file — give a file name")
+        return 2
     click_exception = _click_class("ClickException")
     try:
         command = typer.main.get_command(app)

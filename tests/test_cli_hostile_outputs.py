@@ -837,3 +837,16 @@ def test_an_output_path_ending_in_a_separator_is_refused(tmp_path):
         check_output_file(f"{tmp_path}{os.sep}out.txt{os.sep}", "--html")
     check_output_file(f"{tmp_path}{os.sep}out.txt", "--html")  # the same without the separator is fine
     assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize("argv", [["inspect", "{spd}", "-o", "{tmp}/out.txt/"], ["inspect", "{spd}", "--html={tmp}/r.html/"],
+                                  ["lot", "{spd}", "-q", "--json", "{tmp}/lot.json/"],
+                                  ["lot", "{spd}", "-q", "--samples-csv", "{tmp}/s.csv/"]])
+def test_a_file_output_ending_in_a_separator_is_refused_by_the_cli(work, capsys, argv):
+    """The argument parser drops a trailing separator (pathlib), so `-o out.txt/` wrote a file
+    out.txt (found by exploratory testing); the raw arguments are checked before parsing."""
+    tmp, spd, _ = work
+    before = sorted(p.name for p in tmp.iterdir())
+    code, out, err = run([a.format(spd=spd, tmp=tmp) for a in argv], capsys)
+    one_error_line(code, err, "names a folder")
+    assert sorted(p.name for p in tmp.iterdir()) == before

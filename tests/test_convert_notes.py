@@ -131,3 +131,28 @@ def write_json(spectra, path):
 
     path.write_bytes(serialise(spectra, "json"))
     return path
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".xml"])
+def test_text_formats_say_when_a_key_or_a_name_reads_back_otherwise(tmp_path, suffix):
+    """A metadata key holding ": " (and in CSV " = ") is split there when read back, spaces
+    around keys and values are lost, and a lone CSV column headed "380" is read as a plain value
+    column (named after the file): each was silent (found by a review). The notes say so, and
+    what they announce is what the file reads back as; the values stay exact."""
+    s = _set(["380"], [{"a: b": "c", " padded ": "v ", "station": "S1"}])
+    notes: list[str] = []
+    src = write_json(s, tmp_path / "in.json")
+    out = tmp_path / f"out{suffix}"
+    convert(src, out, notes=notes)
+    back = read_spectra(out)
+    np.testing.assert_array_equal(back.values, s.values)
+    assert back.metadata[0]["station"] == "S1"
+    assert "a: b" not in back.metadata[0] and "padded" in back.metadata[0]  # what the note announces
+    assert any("metadata key(s) read back otherwise" in n for n in notes), notes
+    if suffix == ".csv":
+        assert back.names == ("out",)
+        assert any('the spectrum name "380" reads back as the file\'s name' in n for n in notes), notes
+    # a plain conversion has none of these notes
+    plain: list[str] = []
+    convert(write_json(_set(["lamp"], [{"station": "S1"}]), tmp_path / "p.json"), tmp_path / f"p{suffix}", notes=plain)
+    assert plain == []

@@ -163,6 +163,23 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
         shown = ", ".join(f'"{clean(k)}"' for k in dropped[:5]) + (" …" if len(dropped) > 5 else "")
         notes.append(f"metadata that differs between the spectra is not kept in CSV (one header block): {shown} "
                      "— convert to .json or .parquet to keep it")
+    # what the text formats' "key: value" lines read back otherwise (found by a review; the
+    # values themselves stay exact): a key holding ": " or " = " splits there, and the spaces
+    # around a key or a value are not kept
+    marks = (": ", " = ") if kind == "csv" else (": ",)  # TM-27's comment lines split at ": " only
+    resplit = sorted({str(k) for m in written for k, v in m.items()
+                      if any(x in str(k) for x in marks) or str(k) != str(k).strip() or str(v) != str(v).strip()})
+    if resplit:
+        notes.append(f"{len(resplit)} metadata key(s) read back otherwise (a key holding "
+                     f"{' or '.join(repr(x) for x in marks)} splits there; spaces around keys and values are not kept): "
+                     f'"{clean(resplit[0])}"'
+                     + (" and others" if len(resplit) > 1 else "") + " — convert to .json or .parquet to keep them")
+    if kind == "csv" and len(spectra) == 1:
+        from .text_header import _generic_value_name
+
+        if _generic_value_name(name_as(spectra.names[0])):  # a heading such as "380" or "value" names no spectrum
+            notes.append(f'the spectrum name "{clean(spectra.names[0])}" reads back as the file\'s name: a lone '
+                         "column so headed is read as a plain value column — convert to .json or .parquet to keep it")
     return notes
 
 

@@ -152,7 +152,7 @@ def check_output_file(path: str | os.PathLike, option: str | None = None) -> Non
     if isinstance(text, str) and text.endswith((os.sep, os.altsep) if os.altsep else os.sep):
         # a path ending in a separator names a folder; Path() drops the separator, so the run would
         # have written a file of that name
-        raise UsageError(f"cannot write {_shown(Path(text))}{os.sep}: a path ending in {os.sep!r} names a folder",
+        raise UsageError(f"cannot write {_shown(text)}: a path ending in {os.sep!r} names a folder",
                          field=option, fix="give a file name (without the trailing separator)")
     try:
         st = os.lstat(p)

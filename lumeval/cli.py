@@ -269,11 +269,13 @@ def _traceback() -> None:
 _FILE_OUTPUT_OPTIONS = frozenset({"-o", "--output", "--html", "--json", "--samples-csv", "--samples-parquet"})
 
 
-def _folder_like_output(args: list[str]) -> str | None:
-    """``OPTION VALUE`` of a file-output option whose value ends in a path separator, or None.
-    The argument parser turns the value into a ``pathlib.Path``, which drops the separator, so
-    ``-o out.txt/`` wrote a file ``out.txt`` (found by exploratory testing); only the raw
-    arguments still show it."""
+def _refuse_folder_like_outputs(args: list[str]) -> None:
+    """Refuse a file-output option whose raw value ends in a path separator, by the output
+    policy's own check (:func:`lumeval._io.check_output_file`). The argument parser turns the
+    value into a ``pathlib.Path``, which drops the separator, so ``-o out.txt/`` wrote a file
+    ``out.txt`` (found by exploratory testing); only the raw arguments still show it."""
+    from ._io import check_output_file
+
     seps = tuple(x for x in (os.sep, os.altsep) if x)
     for i, a in enumerate(args):
         if a == "--":
@@ -286,8 +288,7 @@ def _folder_like_output(args: list[str]) -> str | None:
         else:
             continue
         if v != "-" and v.endswith(seps):
-            return f"{opt} {v}"
-    return None
+            check_output_file(v, opt)
 
 
 def _run(args: list[str]):
@@ -300,12 +301,9 @@ def _run(args: list[str]):
     from .errors import LumevalError
 
     debug = "--debug" in args
-    folder_like = _folder_like_output(args)
-    if folder_like is not None:
-        _say(f"lumeval: error: {folder_like}: a path ending in '/' names a folder, not a file — give a file name")
-        return 2
     click_exception = _click_class("ClickException")
     try:
+        _refuse_folder_like_outputs(args)
         command = typer.main.get_command(app)
         with command.make_context("lumeval", list(args)) as ctx:
             command.invoke(ctx)

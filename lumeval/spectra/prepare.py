@@ -416,8 +416,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
         )
     # the spacing is judged on the data inside 360-830 nm: a stray row outside (an instrument's
     # 0 nm or 1000 nm line) is dropped anyway and must not turn a clean grid into an irregular one
-    in_wl = wl[idx[0] : idx[-1] + 1]
-    as_measured = in_wl.size > 1 and _uniform(dd) and _computation_step(float(dd[0]), in_wl)
+    as_measured = used_as_measured(wl)
     if max_gap > WARN_SPACING_NM + 1e-9:
         for k in range(n):
             notes[k].append(

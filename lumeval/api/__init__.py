@@ -197,7 +197,8 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
         )
     from .._io import check_targets, refuse_existing
 
-    if src_p.is_dir():  # an archive folder: its members are inputs, and a new .parquet there would join it
+    src_is_folder = src_p.is_dir()
+    if src_is_folder:  # an archive folder: its members are inputs, and a new .parquet there would join it
         from ..spectra.archive import PARQUET_SUFFIXES
 
         parent = dst_p.parent if str(dst_p.parent) else Path(".")
@@ -210,7 +211,7 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
                              "files or join the archive read next time", file=str(dst),
                              fix="write the output outside the input folder")
     # a folder, a device, a missing folder, an input file: before reading
-    check_targets(files={"OUT": dst_p}, inputs=[src_p] if src_p.is_dir() else [])
+    check_targets(files={"OUT": dst_p}, inputs=[src_p] if src_is_folder else [])
     refuse_existing(dst_p, "OUT", force=force)
     spectra = read_spectra(src_p)
     if column is not None:

@@ -223,14 +223,13 @@ def _contradictions(clauses, file: str) -> tuple[str, ...]:
     for fig, cs in by_figure.items():
         for lo_c, lo_over in (x for x in cs if x[0].lower is not None):
             for hi_c, hi_over in (x for x in cs if x[0].upper is not None):
-                meet = max(lo_over[0], hi_over[0]) <= min(lo_over[1], hi_over[1])
-                if meet and lo_c.lower > hi_c.upper:
+                a, b = max(lo_over[0], hi_over[0]), min(lo_over[1], hi_over[1])  # the settings both apply at
+                if a <= b and lo_c.lower > hi_c.upper:
                     first, second = sorted((lo_c, hi_c), key=lambda c: c.line or 0)
                     raise CriteriaError(
                         f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}) and {hi_c.clause_id!r} ({fig} ≤ "
                         f"{hi_c.upper:g}) contradict each other: no value meets both"
-                        + ("" if math.isinf(max(lo_over[0], hi_over[0])) and math.isinf(min(lo_over[1], hi_over[1]))
-                           else f" at the settings {max(lo_over[0], hi_over[0]):g}-{min(lo_over[1], hi_over[1]):g}")
+                        + ("" if math.isinf(a) and math.isinf(b) else f" at the settings {a:g}-{b:g}")
                         + (f" (lines {first.line} and {second.line})" if first.line and second.line else ""),
                         file=file, line=second.line, fix="correct or remove one of them")
     quads = [c for c in clauses if getattr(c, "KIND", "") == "ansi_quadrangle" and getattr(c, "SCOPE", "sample") == "sample"]

@@ -83,12 +83,12 @@ def resolve_setup(criteria=None, instrument_path=None, *, seed: int | None = Non
                 notes.append(f"instrument file {instrument_path} replaces the criteria file's [monte_carlo] table")
             settings = file_settings
     if seed is not None:
-        settings = dataclasses.replace(settings, seed=int(seed))
-    if seed is not None and not 0 <= int(seed) <= SEED_MAX:
-        from ..errors import UsageError, shown
+        if not 0 <= int(seed) <= SEED_MAX:
+            from ..errors import UsageError, shown
 
-        raise UsageError(f"--seed {shown(int(seed))} is {'negative' if int(seed) < 0 else 'too large'}",
-                         fix=f"give a seed from 0 to {SEED_MAX}")
+            raise UsageError(f"--seed {shown(int(seed))} is {'negative' if int(seed) < 0 else 'too large'}",
+                             fix=f"give a seed from 0 to {SEED_MAX}")
+        settings = dataclasses.replace(settings, seed=int(seed))
     if draws is not None:
         if not 100 <= int(draws) <= 1_000_000:
             from ..errors import UsageError

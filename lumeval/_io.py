@@ -53,12 +53,21 @@ _DEV_SCRATCH = ("/dev/shm", "/dev/mqueue")
 #: The longest target name (in bytes) quoted in a temporary name; file systems allow 255.
 _NAME_BYTES = 120
 
+#: Plain-language names of the file types that are neither regular files nor folders: output
+#: targets of these types are refused (:func:`check_output_file`), and the readers, the lot input
+#: expansion and the store name a refused input with them (:func:`special_file_kind`).
 _KIND = {
     stat.S_IFCHR: "a character device",
     stat.S_IFBLK: "a block device",
     stat.S_IFIFO: "a FIFO (named pipe)",
     stat.S_IFSOCK: "a socket",
 }
+
+
+def special_file_kind(mode: int) -> str:
+    """A plain-language name of a file type (``st_mode``) that is neither a regular file nor a
+    folder: a FIFO, a socket, a character or block device, else "a special file"."""
+    return _KIND.get(stat.S_IFMT(mode), "a special file")
 
 
 # --------------------------------------------------------------------------- target checks

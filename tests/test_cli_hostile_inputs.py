@@ -86,6 +86,32 @@ def test_dev_zero_is_refused(capsys):
     one_error_line(code, err, "/dev/zero", "character device")
 
 
+def test_special_file_kinds_have_one_home():
+    """The names of the special file types lived twice: a table in lumeval._io (refused
+    outputs) and a function in lumeval.spectra.text (refused inputs, lot entries, stores),
+    which could drift apart (found by a review). One home, _io; the readers' name is the same
+    function."""
+    import stat
+
+    from lumeval import _io
+    from lumeval.spectra import text
+
+    assert text.special_file_kind is _io.special_file_kind
+    for mode, name in ((stat.S_IFIFO, "a FIFO (named pipe)"), (stat.S_IFSOCK, "a socket"),
+                       (stat.S_IFCHR, "a character device"), (stat.S_IFBLK, "a block device")):
+        assert _io.special_file_kind(mode | 0o644) == name
+
+
+@needs_fifo
+def test_a_fifo_is_named_alike_as_input_and_as_output(tmp_path, capsys):
+    os.mkfifo(tmp_path / "pipe")
+    spd = write_spd(tmp_path / "a.csv")
+    code, _out, err = run(["inspect", spd, "-o", tmp_path / "pipe"], capsys)
+    one_error_line(code, err, "it is a FIFO (named pipe), and lumeval writes regular files only")
+    code, _out, err = run_sub(["inspect", "pipe"], tmp_path, timeout=60)
+    one_error_line(code, err, "pipe: is a FIFO (named pipe), not a regular file")
+
+
 # --------------------------------------------------------------------------- deep TOML
 
 

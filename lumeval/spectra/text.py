@@ -31,6 +31,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from .._io import special_file_kind  # their one home; still importable from here (lots, store)
 from ..errors import InputError
 from .model import SpectrumSet
 
@@ -312,19 +313,3 @@ def with_regular_file(path: str | Path, use, limit: int | None = None):
         if exc.errno == errno.ELOOP:
             raise InputError("is a symbolic link that loops", file=file, fix="fix or remove the link") from None
         raise InputError(f"cannot be read ({exc.strerror or exc})", file=file, fix="check the path") from None
-
-
-def special_file_kind(mode: int) -> str:
-    """A plain-language name of a file type that is neither a regular file nor a folder (the
-    readers and the lot input expansion name refused entries with it)."""
-    import stat
-
-    if stat.S_ISFIFO(mode):
-        return "a FIFO (named pipe)"
-    if stat.S_ISSOCK(mode):
-        return "a socket"
-    if stat.S_ISCHR(mode):
-        return "a character device"
-    if stat.S_ISBLK(mode):
-        return "a block device"
-    return "a special file"

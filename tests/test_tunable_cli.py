@@ -119,6 +119,26 @@ def test_series_cli(tmp_path, capsys):
     assert doc["criteria"]["clauses"][0]["worst_setting"] == "10 %"
 
 
+@pytest.mark.parametrize("name, text, line", [
+    ("m.csv", "file,setting,unit\n# dimming levels\ndim_100pct.csv,100,%\ndim_010pct.csv,10,%\n", 3),
+    ("m.toml", '# dimming levels\nunit = "%"\n[settings]\n"dim_100pct.csv" = 100\n"dim_010pct.csv" = 10\n', 2),
+], ids=["csv", "toml"])
+def test_series_manifest_unit_and_a_different_unit_option_are_refused(tmp_path, capsys, name, text, line):
+    """A manifest stating its settings' unit and ``--unit`` giving another: the option won
+    silently (found by a review: 10 % and 100 % reported as 10 K and 100 K). Now refused, naming
+    the manifest's line and the option, nothing written; the same unit on both is fine."""
+    files = [write_wide(tmp_path / f"dim_{lv:03d}pct.csv", {"x": w * WARM + (1 - w) * COOL}) for lv, w in ((100, 1.0), (10, 0.5))]
+    m = tmp_path / name
+    m.write_text(text, encoding="utf-8")
+    html = tmp_path / "out.html"
+    code, out, err = run(["series", *files, "--manifest", m, "--unit", "K", "--html", html], capsys)
+    assert_clean_error(code, err, f"{m}:{line}", "unit '%'", "--unit gives 'K'")
+    assert out == "" and not html.exists()
+    code, out, err = run(["series", *files, "--manifest", m, "--unit", "%", "--format", "json"], capsys)
+    assert code == 0, err
+    assert json.loads(out)["unit"] == "%"
+
+
 def test_cli_errors(tmp_path, capsys, chans):
     one = write_wide(tmp_path / "one.csv", {"warm": WARM})
     code, out, err = run(["mix", one, "--cct", "3000"], capsys)

@@ -160,7 +160,8 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
         ``metadata``: the metadata field ``key``; ``manifest``: the TOML or CSV file
         ``manifest`` (see docs/tunable.md).
     unit : str, optional
-        The settings' unit; default: the unit written with the numbers, or the manifest's.
+        The settings' unit; default: the unit written with the numbers, or the manifest's (a
+        manifest stating another unit is an :class:`InputError`).
     reference : "max", "min", "locus" or a setting
         What Δu′v′ is measured from (default the highest setting, i.e. full output).
     criteria : path, optional
@@ -183,7 +184,10 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
     if setting_from == "manifest" and manifest is None:
         raise UsageError("--setting-from manifest needs --manifest FILE", fix="name the TOML or CSV manifest with --manifest")
     crit = _load_criteria(criteria)
-    table, m_unit = _read_manifest(manifest) if manifest is not None else ({}, "")
+    table, m_unit, m_line = _read_manifest(manifest) if manifest is not None else ({}, "", None)
+    if unit is not None and m_unit and _unit_word(unit) != _unit_word(m_unit):
+        raise InputError(f"the manifest states the unit {quote(m_unit)} but --unit gives {quote(unit)}",
+                         file=str(manifest), line=m_line, fix="drop --unit, or give the manifest's unit with it")
     sets = []
     for k, p in enumerate(paths):
         sets.append(read_spectra(p))
@@ -258,9 +262,17 @@ def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -
                      fix=f"add a line for {path.name!r} (or {path.name + '#' + s.names[i]!r} for a column of a wide file)")
 
 
-def _read_manifest(path) -> tuple[dict[str, float], str]:
+def _unit_word(unit: str) -> str:
+    """A unit as lumeval spells it (``k`` and ``K``, ``pct`` and ``%`` are one unit)."""
+    from .series import UNIT_WORDS
+
+    return UNIT_WORDS.get(unit.strip().lower(), unit.strip())
+
+
+def _read_manifest(path) -> tuple[dict[str, float], str, int | None]:
     """Settings from a manifest: TOML (``unit = "%"`` and a ``[settings]`` table of
-    ``"file name" = number``) or CSV (rows ``file,setting``, an optional header row)."""
+    ``"file name" = number``) or CSV (rows ``file,setting``, an optional header row); the
+    settings by file name, their unit and the line stating it (None when none does)."""
     from .._toml import read_text
 
     p = Path(path)
@@ -278,7 +290,7 @@ def _number(v, file: str, line, field: str) -> float:
                                                 fix=FINITE_FIX))
 
 
-def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
+def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str, int | None]:
     from .._toml import loads
 
     data = loads(text, file, error=InputError)
@@ -294,10 +306,11 @@ def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str]:
     from ..criteria.loader import locate_lines
 
     lines = locate_lines(text)
-    return {str(k): _number(v, file, lines.get(("settings", k)), str(k)) for k, v in st.items()}, unit
+    return ({str(k): _number(v, file, lines.get(("settings", k)), str(k)) for k, v in st.items()}, unit,
+            lines.get(("unit",)))
 
 
-def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str]:
+def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str, int | None]:
     """``file,setting[,unit]`` rows (a header row and ``#`` comments allowed): the settings by
     file name and their unit. Numbers follow the spectrum readers' rule (ASCII digits); a file
     listed twice and settings in two units are refused, naming the lines (found by a review: the
@@ -339,4 +352,4 @@ def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str]:
                          line=l2, fix="give every setting in one unit (one manifest per unit)")
     if not out:
         raise InputError("no settings listed", file=file, fix="write rows file,setting (e.g. dim_100.csv,100)")
-    return out, next(iter(units), "")
+    return out, next(iter(units), ""), next(iter(units.values()), None)

@@ -114,6 +114,40 @@ def _plain_help_types() -> None:
 _plain_help_types()
 
 
+def _is_number_option(param) -> bool:
+    """True for an option or argument the parser turns into an int or a float."""
+    desc = getattr(param, "type_descriptor", None)  # typer that converts through its own adapters
+    if desc is not None:
+        return desc.annotation in (int, float)
+    return any(k.__name__ in ("IntParamType", "FloatParamType") for k in type(getattr(param, "type", None)).__mro__)
+
+
+def _plain_number_options() -> None:
+    """Every int or float option reads its value by the file readers' rule (digits 0-9:
+    :func:`lumeval.errors.plain_number`) before the parser converts it. Python's int() and
+    float(), on which the parser relies, also take other scripts' digits ('١٢٣', full-width
+    '１２３') and underscores ('3_000'): a usage error instead, exit 2."""
+    core = getattr(typer, "core", None)
+    for cls_name in ("TyperArgument", "TyperOption"):
+        cls = getattr(core, cls_name, None)
+        if cls is None or not hasattr(cls, "process_value") or getattr(cls, "_lumeval_numbers", False):
+            continue
+
+        def process_value(self, ctx, value, _original=cls.process_value):
+            if isinstance(value, str) and _is_number_option(self):
+                from .errors import plain_number
+
+                plain_number(value, lambda text: typer.BadParameter(
+                    f"{text} is not a number written with the digits 0-9", ctx=ctx, param=self))
+            return _original(self, ctx, value)
+
+        cls.process_value = process_value
+        cls._lumeval_numbers = True
+
+
+_plain_number_options()
+
+
 for _name in _COMMAND_MODULES:
     importlib.import_module(_name).register(app)
 

@@ -152,3 +152,22 @@ def finite_float(value: int | float, fail: Callable[[str], Exception]) -> float:
     if not math.isfinite(v):
         raise fail(shown(value))
     return v
+
+
+def plain_number(text: str, fail: Callable[[str], Exception]) -> float:
+    """A number typed by the user (a command-line option's value) by the rule of lumeval's file
+    readers, or the caller's own error: the digits 0-9 with an optional sign, decimal point and
+    exponent, white space around it ignored (the number grammar of
+    :mod:`lumeval.spectra.text_dialect`).
+
+    Python's ``float()`` and ``int()`` also read digits of other scripts (Arabic-Indic ``'١٢٣'``,
+    full-width ``'１２３'``) and underscores (``'1_000'``), which no file reader accepts; the
+    command line follows the files' rule. ``fail(text)`` builds the exception to raise, ``text``
+    being the value as a message quotes it (:func:`quote`). The result may be infinite
+    (``1e999``): callers check the range they need."""
+    from .spectra.text_dialect import _NUMBER
+
+    t = str(text).strip()
+    if not _NUMBER.match(t):
+        raise fail(quote(text))
+    return float(t)

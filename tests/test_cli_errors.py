@@ -171,6 +171,48 @@ def test_seed_or_draws_without_uncertainty_is_refused(work, capsys, extra):
     assert_clean_error(code, err, "--instrument")
 
 
+TUNABLE = ROOT / "spectra_demo" / "tunable"
+
+
+@pytest.mark.parametrize("argv, option", [
+    (["criteria", "new", "{out}", "--nominal-cct", "\u0663\u0660\u0660\u0660"], "--nominal-cct"),  # Arabic-Indic
+    (["criteria", "new", "{out}", "--nominal-cct", "\uff13\uff10\uff10\uff10"], "--nominal-cct"),  # full-width
+    (["criteria", "new", "{out}", "--nominal-cct", "3_000"], "--nominal-cct"),
+    (["check", "{spd}", "-c", "{crit}", "-o", "{out}", "--draws", "5_00"], "--draws"),
+    (["lot", "{spd}", "--samples-csv", "{out}", "--processes", "\u0661"], "--processes"),
+    (["mix", str(TUNABLE / "tw2_channels.csv"), "--cct", "\u0663\u0660\u0660\u0660", "--html", "{out}"], "--cct"),
+    (["mix", str(TUNABLE / "tw2_channels.csv"), "--cct", "3000:\uff14000:500", "--html", "{out}"], "--cct"),
+    (["mix", str(TUNABLE / "tw2_channels.csv"), "--cct", "3000", "--duv", "\u0660", "--html", "{out}"], "--duv"),
+    (["series", str(TUNABLE / "tw2_dim2warm_010pct.csv"), str(TUNABLE / "tw2_dim2warm_050pct.csv"),
+      "--reference", "\u0665\u0660", "--html", "{out}"], "--reference"),
+])
+def test_numbers_on_the_command_line_take_the_digits_0_9_only(work, capsys, argv, option):
+    """Python's int() and float() read other scripts' digits ('١٢٣', full-width '１２３') and
+    underscores ('3_000'), so options took them (--cct ٣٠٠٠ mixed to 3000 K, --reference ٥٠ was
+    setting 50) where every file reader refuses them (found by a review). Now a usage error naming
+    the option, exit 2, nothing written."""
+    tmp, spd, crit, _ = work
+    out = tmp / "out.txt"
+    code, stdout, err = run([a.format(spd=spd, crit=crit, out=out) for a in argv], capsys)
+    assert_clean_error(code, err, option, "digits 0-9")
+    assert stdout == "" and not out.exists()
+
+
+def test_plain_number_follows_the_file_readers_rule():
+    from numpy.testing import assert_allclose
+
+    from lumeval.errors import UsageError, plain_number
+
+    def fail(text):
+        return UsageError(f"{text} is not a number")
+
+    for text, want in ((" 3000 ", 3000.0), ("-0.002", -0.002), ("+1e3", 1000.0), (".5", 0.5)):
+        assert_allclose(plain_number(text, fail), want, rtol=0, atol=0)  # exact: decimal text read by float()
+    for text in ("\u0661\u0662\u0663", "\uff11\uff12\uff13", "1_000", "inf", "nan", "0x10", "", "3\u00a0000"):
+        with pytest.raises(UsageError, match="is not a number"):
+            plain_number(text, fail)
+
+
 # ----------------------------------------------------------------- bad file contents
 
 @pytest.mark.parametrize("claim", ['">= 1e999"', '"3 ± 1e999"', '"1e999"'])

@@ -75,11 +75,12 @@ def register(app: typer.Typer) -> None:
         from ._targets import check_targets
 
         check_targets(files={"--html": html}, inputs=[*channels, *([criteria] if criteria else [])])
+        from ..errors import plain_number
         from ..tunable.api import mix_files
 
         duv_value: object = duv
         with contextlib.suppress(ValueError):
-            duv_value = float(duv)
+            duv_value = plain_number(duv, ValueError)
         from ._progress import progress_listener
 
         with progress_listener() as progress:  # on stderr, a terminal only; removed before the report prints

@@ -54,7 +54,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import InputError, UsageError
+from ..errors import InputError, UsageError, plain_number
 from ..spectra.model import SpectrumSet
 
 #: ``--maximise`` choices -> lumeval figure names.
@@ -158,10 +158,10 @@ def parse_setpoints(text: str, *, option: str = "--cct") -> np.ndarray:
     divide the range, or targets outside 1000-20000 K (where lumeval reports CCT).
     """
     s = str(text).strip()
-    fix = f"write {option} LOW:HIGH:STEP (e.g. 2700:6500:100), a list 2700,3000,4000 or one value"
+    fix = f"write {option} LOW:HIGH:STEP (e.g. 2700:6500:100), a list 2700,3000,4000 or one value, in the digits 0-9"
     try:
         if ":" in s:
-            parts = [float(p) for p in s.split(":")]
+            parts = [plain_number(p, ValueError) for p in s.split(":")]
             if len(parts) != 3:
                 raise ValueError
             lo, hi, step = parts
@@ -179,7 +179,7 @@ def parse_setpoints(text: str, *, option: str = "--cct") -> np.ndarray:
                 raise UsageError(f"{option} {s!r}: the step {step:g} does not divide {lo:g}…{hi:g}", fix=fix)
             targets = lo + step * np.arange(k + 1)
         else:
-            targets = np.array([float(p) for p in s.split(",")])
+            targets = np.array([plain_number(p, ValueError) for p in s.split(",")])
     except ValueError:
         raise UsageError(f"{option} {s!r} is not a list of numbers", fix=fix) from None
     if targets.size == 0 or not np.all(np.isfinite(targets)):
@@ -200,10 +200,10 @@ def target_duvs(targets_K: np.ndarray, duv) -> tuple[np.ndarray, str]:
     if isinstance(duv, str):
         if duv.strip().lower() != "ansi":
             try:
-                duv = float(duv)
+                duv = plain_number(duv, ValueError)
             except ValueError:
                 raise UsageError(f"--duv {duv!r} is neither a number nor 'ansi'",
-                                 fix="write e.g. --duv 0, --duv 0.002 or --duv ansi") from None
+                                 fix="write e.g. --duv 0, --duv 0.002 or --duv ansi (a number in the digits 0-9)") from None
         else:
             from ..criteria import regions
 

@@ -141,13 +141,15 @@ def series(evaluation, settings, *, unit: str = "", setting_source: str = "", re
         raise ValueError("settings must be strictly increasing: order the spectra with setting_order() first")
     ev = evaluation
     if isinstance(reference, str) and reference not in ("max", "min", "locus"):
+        from ..errors import plain_number
+
         try:
-            reference = float(reference)
+            reference = plain_number(reference, ValueError)
         except ValueError:
             from ..errors import UsageError
 
             raise UsageError(f"--reference {reference!r} is not max, min, locus or a setting",
-                             fix="write --reference max (full output), min, locus or a setting value") from None
+                             fix="write --reference max (full output), min, locus or a setting value in the digits 0-9") from None
     ref, desc, why = reference_points(ev, s, reference)
     if why:
         from ..errors import UsageError

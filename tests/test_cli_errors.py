@@ -224,6 +224,16 @@ def test_claim_too_large_to_represent(work, capsys, claim):
     assert_clean_error(code, err, f"{claims.name}:3", "Ra")
 
 
+def test_cct_claim_with_a_dot_as_thousands_separator_is_refused_at_load_time(work, capsys):
+    # was: read as 3 K ± 150 K and contradicted (exit 1, a wrong verdict on the supplier)
+    tmp, spd, _, claims = work
+    claims.write_text('lumeval_claims = 1\n[claims]\nRa = ">= 80"\ncct_K = "3.000 K ± 150 K"\n', encoding="utf-8")
+    out = tmp / "claims.html"
+    code, stdout, err = run(["claims", spd, "--claims", claims, "--html", out], capsys)
+    assert_clean_error(code, err, f"{claims.name}:4", "cct_K", "'3.000 K ± 150 K'", "did you mean 3000 K")
+    assert stdout == "" and not out.exists()
+
+
 def test_criteria_new_escapes_the_project_name(work, capsys):
     # was: a name with a quote, backslash or newline gave a criteria file that is not TOML
     tmp, spd, _, _ = work

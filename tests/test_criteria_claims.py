@@ -163,3 +163,49 @@ def test_unreadable_wordings_are_refused_with_the_line(text, words):
     assert msg.startswith("claims.toml:2 "), msg
     for w in words:
         assert w in msg, msg
+
+
+@pytest.mark.parametrize(("text", "meant"), [
+    ('"3.000 K ± 150 K"', "3000"),   # a dot as thousands separator: read as 3 K, then contradicted
+    ('"6.500 K"', "6500"),
+    ("2.700", "2700"),               # a TOML float: 2.7
+    ('">= 2.700 K"', "2700"),
+    ('"2.700-3.000 K"', "2700"),     # the first bound out of range is named
+    ('"2700 K - 6.500 K"', "6500"),
+    ('"500 K"', None),               # outside the range, no thousands-separator reading
+    ('"<= 30000 K"', None),
+    ('"-3.000"', None),
+])
+def test_a_cct_claim_outside_the_cct_range_is_refused(text, meant):
+    """A CCT claim outside 1000-25000 K, where lumeval reports CCT, cannot be meant: refused with
+    its line, suggesting the thousands-separator reading where there is one (found by a review:
+    "3.000 K ± 150 K" was judged as 3 K ± 150 K and contradicted)."""
+    from lumeval.errors import CriteriaError
+
+    with pytest.raises(CriteriaError) as e:
+        claims(f'[claims]\nRa = ">= 80"\ncct_K = {text}\n')
+    msg = str(e.value)
+    assert msg.startswith("claims.toml:3 field 'cct_K': "), msg
+    assert "outside the 1000-25000 K where lumeval reports CCT" in msg, msg
+    assert (f"did you mean {meant} K" in msg) if meant else ("did you mean" not in msg), msg
+
+
+@pytest.mark.parametrize("text", ["1000 K ± 10 K", "25000 ± 100", "2700-3000 K", ">= 2700", "3000 K ± 150 K"])
+def test_cct_claims_inside_the_cct_range_are_read(text):
+    assert len(claims(f'[claims]\ncct_K = "{text}"\n').claims) == 1
+
+
+@pytest.mark.parametrize(("key", "text"), [
+    ("Ra", ">= " + "9" * 150 + "+"),                  # a minimum written twice
+    ("Ra", "1" + "0" * 100 + " - 1e999"),             # a bound too large to represent
+    ("Ra", "9" * 100 + " to 1"),                      # a range running downwards
+])
+def test_refused_claims_are_quoted_as_the_main_message_quotes_them(key, text):
+    """Every refused claim is quoted through errors.shown (at most about 80 characters), as the
+    main "cannot read the claim" message does; some messages quoted it whole with repr."""
+    from lumeval.errors import CriteriaError, shown
+
+    with pytest.raises(CriteriaError) as e:
+        claims(f'[claims]\n{key} = "{text}"\n')
+    msg = str(e.value)
+    assert shown(text) in msg and repr(text) not in msg, msg

@@ -30,6 +30,9 @@ table overrides the tolerance per figure, in the figure's own units):
   - ``duv``: ± 0.006 (the ANSI C78.377 Duv tolerance);
   - every other figure: half a unit of the last digit written.
 
+A CCT claim outside 1000-25000 K (where lumeval reports CCT) is refused: "3.000 K" is a dot
+written as a thousands separator, not 3 K.
+
 By how much a claim is contradicted is ``measured − bound`` in the figure's units (negative
 when the product falls short of a minimum claim).
 """
@@ -43,7 +46,7 @@ from decimal import Decimal
 import numpy as np
 
 from .. import figures
-from ..errors import FINITE_FIX, CriteriaError, finite_float, shown
+from ..errors import FINITE_FIX, CriteriaError, finite_float, quote, shown
 from . import regions
 from .loader import locate_lines
 from .model import figure_unit, fmt_number, is_number, suggest
@@ -122,6 +125,23 @@ def _comma_hint(text: str) -> str:
     if len(text) <= _CLAIM_MAX_CHARS and _DIGIT_COMMA.search(text):
         return ": a comma between digits is read neither as a thousands separator nor as a decimal mark"
     return ""
+
+
+def _cct_claimed(v: float, written: str, value, key: str, err) -> None:
+    """Refuse a CCT claim outside the range where lumeval reports CCT (1000-25000 K): no product
+    is meant by it. The likely slip is a dot written as a thousands separator ("3.000 K" for
+    3000 K, read as 3 K and then contradicted): the message suggests that reading."""
+    from ..metrics.colorimetry import CCT_MAX_K, CCT_MIN_K
+
+    if CCT_MIN_K <= v <= CCT_MAX_K:
+        return
+    t = re.fullmatch(r"\+?([0-9]{1,3})\.([0-9]{3})", written)
+    meant = float(t.group(1) + t.group(2)) if t else None
+    fix = 'write the CCT in kelvin, e.g. "3000 K ± 150 K"'
+    if meant is not None and CCT_MIN_K <= meant <= CCT_MAX_K:
+        fix = f"did you mean {meant:.0f} K (the dot a thousands separator)? Write it without the dot: {meant:.0f}"
+    raise err(("claims",), key, f"the claim {shown(value)} reads as a CCT of {fmt_number(v)} K, outside the "
+              f"{CCT_MIN_K:.0f}-{CCT_MAX_K:.0f} K where lumeval reports CCT, so it cannot be meant", fix)
 
 
 def _half_unit(text: str) -> float:
@@ -261,14 +281,14 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
     for k in data:
         if k not in TOP_LEVEL_KEYS:
             s = suggest(k, TOP_LEVEL_KEYS)
-            raise err((), k, f"unknown key {k!r} at the top level", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(TOP_LEVEL_KEYS)}")
+            raise err((), k, f"unknown key {quote(k)} at the top level", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(TOP_LEVEL_KEYS)}")
     if FORMAT_KEY in data and (type(data[FORMAT_KEY]) is not int or data[FORMAT_KEY] != FORMAT_VERSION):  # not true, not 1.0
         raise err((), FORMAT_KEY, f"unsupported format version {shown(data[FORMAT_KEY])}", f"this lumeval reads {FORMAT_KEY} = {FORMAT_VERSION}")
     supplier = {}
     for k, v in (data.get("supplier") or {}).items():
         if k not in SUPPLIER_KEYS:
             s = suggest(k, SUPPLIER_KEYS)
-            raise err(("supplier",), k, f"unknown key {k!r} in [supplier]", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(SUPPLIER_KEYS)}")
+            raise err(("supplier",), k, f"unknown key {quote(k)} in [supplier]", (f"did you mean {s!r}? " if s else "") + f"allowed: {', '.join(SUPPLIER_KEYS)}")
         supplier[k] = str(v)
     raw = data.get("claims")
     if not isinstance(raw, dict) or not raw:
@@ -282,7 +302,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         fk = figures.lookup(k)
         if fk is None:
             s = suggest(k, figures.spellings())
-            raise err(("tolerances",), k, f"unknown figure {k!r}", (f"did you mean {s!r}? " if s else "") + "use a figure name, as in [claims]")
+            raise err(("tolerances",), k, f"unknown figure {quote(k)}", (f"did you mean {s!r}? " if s else "") + "use a figure name, as in [claims]")
         if not is_number(v):
             raise err(("tolerances",), k, f"must be a non-negative number, got {shown(v)}", "write the tolerance in the figure's own units, e.g. Ra = 1")
 
@@ -300,7 +320,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         fig = figures.lookup(key) if key not in NOT_CHECKABLE_KEYS else None
         if fig is None and key not in NOT_CHECKABLE_KEYS:
             s = suggest(key, allowed_keys)
-            raise err(("claims",), key, f"unknown claim {key!r}", (f"did you mean {s!r}? " if s else "") + "use a lumeval figure name (cct_K, duv, Ra, R9, Rf, Rg, ...) or one of " + ", ".join(NOT_CHECKABLE_KEYS))
+            raise err(("claims",), key, f"unknown claim {quote(key)}", (f"did you mean {s!r}? " if s else "") + "use a lumeval figure name (cct_K, duv, Ra, R9, Rf, Rg, ...) or one of " + ", ".join(NOT_CHECKABLE_KEYS))
         text = str(value)
         if key in NOT_CHECKABLE_KEYS:
             claims.append(Claim(key, "", text, None, None, None, None, "", line, NOT_CHECKABLE_KEYS[key]))
@@ -329,7 +349,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                       + (" (2700, not 2,700; 0.003, not 0,003)" if hint else ""))
         units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
         if m.group("plus") and (m.group("op") or m.group("tol") is not None):
-            raise err(("claims",), key, f"cannot read the claim {value!r}", 'write a minimum as "90+" or ">= 90", not both')
+            raise err(("claims",), key, f"cannot read the claim {shown(value)}", 'write a minimum as "90+" or ">= 90", not both')
         unit = units.pop() if len(units) == 1 else (None if not units else "|".join(sorted(units)))
         if unit and unit != figure_unit(fig):
             raise err(("claims",), key, f"unit {unit!r} does not fit {key} (unit {figure_unit(fig) or 'none'!r})", f"write {key} in {figure_unit(fig) or 'plain numbers'}")
@@ -337,6 +357,9 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         if not np.isfinite(v) or (m.group("tol") is not None and not np.isfinite(float(m.group("tol")))):
             raise err(("claims",), key, f"the claim {shown(value)} holds a number too large to represent",
                       "write the value as the datasheet states it, e.g. \">= 90\" (plain numbers within ±1e308)")
+        if fig == "cct_K":
+            _cct_claimed(v, f"{v:.3f}" if isinstance(value, float) and float(f"{v:.3f}") == v else m.group("value"),
+                         value, key, err)
         op = m.group("op") or (">=" if m.group("plus") else "")
         t_override = tolerances.get(fig)
         if m.group("tol") is not None:
@@ -380,10 +403,13 @@ def _range_claim(key: str, fig: str, text: str, m: re.Match, t_override: float |
                   f"write {key} in {figure_unit(fig) or 'plain numbers'}")
     lo, hi = float(m.group("lo")), float(m.group("hi"))
     if not (np.isfinite(lo) and np.isfinite(hi)):
-        raise err(("claims",), key, f"the claim {text!r} holds a number too large to represent",
+        raise err(("claims",), key, f"the claim {shown(text)} holds a number too large to represent",
                   'write the range as the datasheet states it, e.g. "2700-3000 K"')
+    if fig == "cct_K":  # before the order of the bounds: "2700 - 6.500 K" is not a range running downwards
+        _cct_claimed(lo, m.group("lo"), text, key, err)
+        _cct_claimed(hi, m.group("hi"), text, key, err)
     if lo > hi:
-        raise err(("claims",), key, f"the range {text!r} runs from {fmt_number(lo)} down to {fmt_number(hi)}",
+        raise err(("claims",), key, f"the range {shown(text)} runs from {fmt_number(lo)} down to {fmt_number(hi)}",
                   f'write the lower bound first: "{m.group("hi")} to {m.group("lo")}"')
     if t_override is not None:
         t_lo = t_hi = t_override

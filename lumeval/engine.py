@@ -66,7 +66,7 @@ def __getattr__(name: str) -> Any:
 #: Figures computed against a reference illuminant: where |Duv| > 0.05 they are computed against
 #: the reference at the nearest Planckian temperature and flagged outside their validity range.
 VALIDITY_FIGURES: frozenset[str] = frozenset(
-    ("Ra", "dc", "Rf", "Rg", "cie2017_Rf")
+    ("Ra", "Re", "dc", "Rf", "Rg", "cie2017_Rf")
     + tuple(f"R{i}" for i in range(1, 15))
     + tuple(f"{p}{j}" for p in ("Rf_h", "Rcs_h", "Rhs_h") for j in range(1, 17))
 )
@@ -151,7 +151,7 @@ class Evaluation:
         """Boolean (N,): where figure ``name`` was computed outside its validity range.
 
         Only the figures computed against a reference illuminant (:data:`VALIDITY_FIGURES`:
-        CIE 13.3 Ra, Ri, DC; CIE 224 / TM-30 Rf, Rg and hue-bin values) can be; CCT is then
+        CIE 13.3 Ra, Ri, their mean Re, DC; CIE 224 / TM-30 Rf, Rg and hue-bin values) can be; CCT is then
         undefined (NaN) rather than flagged."""
         from . import figures
 

@@ -138,7 +138,7 @@ def test_off_locus_mixes_agree_with_luxpy(off_locus, luxpy):
     np.testing.assert_allclose(ev.figure("R9"), ri[8], atol=0.6)
     np.testing.assert_allclose(ev.figure("Rf"), np.ravel(rf), atol=0.2)
     np.testing.assert_allclose(ev.figure("Rg"), np.ravel(rg), atol=0.3)
-    for name in ("Ra", "R9", "Rf", "Rg", "Rcs_h1"):
+    for name in ("Ra", "R9", "Re", "Rf", "Rg", "Rcs_h1"):  # Re: the mean of R1-R14 (was left unflagged)
         assert ev.outside_validity_of(name).all()
     for name in ("x", "duv", "ler_lm_per_W", "cct_K"):
         assert not ev.outside_validity_of(name).any()
@@ -200,3 +200,15 @@ def test_accept_outside_validity_must_be_a_boolean(tmp_path, rgb_file):
     crit.write_text('[[clause]]\nfigure = "Rf"\nmin = 10\naccept_outside_validity = "yes"\n', encoding="utf-8")
     r = run_cli("check", rgb_file, "--criteria", crit)
     assert r.returncode == 2 and "accept_outside_validity" in r.stderr and "Traceback" not in r.stderr
+
+
+def test_re_is_judged_not_valid_like_the_indices_it_averages(rgb_file, tmp_path):
+    """Re, the mean of CIE 13.3 R1-R14, is computed against the same reference as Ra and the Ri
+    (CIE 13.3-1995): outside the validity range it is 'not valid' as they are (it was judged as
+    if valid, and counted in lot statistics)."""
+    crit = tmp_path / "re.toml"
+    crit.write_text('[[clause]]\nid = "Re"\nfigure = "Re"\nmin = 0\n', encoding="utf-8")
+    r = run_cli("check", rgb_file, "--criteria", crit, "--format", "json")
+    assert r.returncode == 1, r.stdout + r.stderr
+    (cl,) = json.loads(r.stdout)["spectra"][0]["clauses"]
+    assert cl["outcome"] == "not valid" and "accept_outside_validity" in cl["reason"]

@@ -62,10 +62,12 @@ def assert_same_run(a, b):
         np.testing.assert_allclose(b.figures[k], a.figures[k], rtol=RTOL, atol=ATOL, equal_nan=True, err_msg=k)
     assert a.sample_verdicts == b.sample_verdicts
     assert np.array_equal(a.stats.outlier, b.stats.outlier)
+    assert np.array_equal(a.stats.outside_validity, b.stats.outside_validity)
     assert a.stats.outlier_reasons == b.stats.outlier_reasons
     np.testing.assert_allclose(b.stats.d_upvp_centroid, a.stats.d_upvp_centroid, rtol=RTOL, atol=1e-15)
     for fa, fb in zip(a.stats.figures, b.stats.figures):
-        assert (fa.name, fa.count, fa.undefined) == (fb.name, fb.count, fb.undefined)
+        assert (fa.name, fa.count, fa.undefined, fa.outside_validity) == (fb.name, fb.count, fb.undefined,
+                                                                          fb.outside_validity)
         np.testing.assert_allclose([fb.mean, fb.std, fb.min, fb.max, fb.median, fb.p05, fb.p95],
                                    [fa.mean, fa.std, fa.min, fa.max, fa.median, fa.p05, fa.p95],
                                    rtol=RTOL, atol=ATOL, equal_nan=True, err_msg=fa.name)

@@ -13,7 +13,8 @@ task per partition is sent to the cluster: the worker opens the file itself (so 
 must be at a path or URL every worker can read: shared storage, or object storage through
 pyarrow/fsspec), streams the partition in batches, prepares, evaluates and judges each batch
 (:func:`lumeval.lots.streaming.evaluate_batch`) and sends back only the per-sample results
-(every figure, x y, the clause outcomes, warnings, metadata: about 0.7 kB per sample,
+(every figure, x y, the clause outcomes, warnings, metadata, the flag of the samples computed
+outside the validity range: about 0.7 kB per sample,
 compared with 3.2 kB for a 1 nm spectrum). Spectra never travel through the client.
 
 How the results are merged
@@ -25,7 +26,8 @@ verdicts once, with the same function as a local run (:class:`LotAccumulator.fin
 means, standard deviations, minima and maxima, the convex-hull diameter (largest pairwise
 Δu'v'), the yield, and the percentiles and medians too (numpy's linear method over all
 values, as locally; no sketch or merged histogram is needed because the per-sample values are
-at hand). The per-sample outputs equal a local run's: the batches are the same (they never
+at hand). Values computed outside the validity range (|Duv| > 0.05) are left out of the
+statistics and counted exactly as locally: each partition's flag travels with its samples. The per-sample outputs equal a local run's: the batches are the same (they never
 span a partition, locally either), and each sample is computed by the same code; floating-
 point results agree to the last bit on workers with the same CPU and libraries, and within
 rounding (about 1e-15 relative) across machines whose BLAS differs.

@@ -7,13 +7,22 @@ returns them) and chromaticities; :func:`lot_from_evaluation` is the convenience
 
 What is computed, and the rule behind each number
 -------------------------------------------------
-Per figure (NaN = undefined samples are left out and counted):
+Per figure (NaN = undefined samples are left out and counted as ``undefined``):
     mean; standard deviation with ``ddof`` (default 1: the sample standard deviation, the
     unbiased variance estimator's square root, as usual for a sample drawn from a production
     run); min; max; median; 5th and 95th percentiles by numpy's ``method="linear"`` — Hyndman &
     Fan (1996), "Sample quantiles in statistical packages", Am. Stat. 50(4):361-365,
     definition 7: the p-quantile interpolates linearly between order statistics at position
     (n − 1)·p.
+Values computed outside the validity range (left out and counted as ``outside_validity``):
+    a sample with |Duv| > 0.05 has no meaningful CCT (CIE 15:2004 §9.5: CCT is then NaN and
+    counted as undefined), and its reference-based figures (:data:`lumeval.engine.VALIDITY_FIGURES`:
+    CIE 13.3-1995 Ra, R1-R14, DC; CIE 224:2017 / TM-30 Rf, Rg, hue-bin values), computed against the
+    reference at the nearest Planckian temperature, lie outside the range where those standards
+    define them. Such values are left out of those figures' statistics and of their outlier
+    screening exactly as NaN values are, and counted per figure; the sample's other figures
+    (x, y, u', v', Duv, LER...) are used as usual (:mod:`lumeval.lots.validity`). So
+    ``count + undefined + outside_validity`` is the number of samples.
 Chromaticity centroid:
     the arithmetic mean of the samples' CIE 1976 (u', v') (CIE 15:2004 §8.1) — the centre of
     mass of the lot in the (approximately) uniform chromaticity diagram in which Δu'v' is
@@ -46,8 +55,9 @@ Outliers (flagged, never removed):
     deviation from the median, ``M_i = (x_i − x̃) / (1.253314 · MeanAD)`` (common practice, no
     source; 1.253314 = sqrt(π/2) makes MeanAD consistent with σ for normal data). With fewer
     than :data:`OUTLIER_MIN_SAMPLES` defined values a figure is not screened (common practice,
-    no source: a median and MAD of a handful of values say little). Each flag carries its
-    reason, naming the figure, the value, the median and M.
+    no source: a median and MAD of a handful of values say little). Values computed outside
+    the validity range are not screened (above). Each flag carries its reason, naming the
+    figure, the value, the median and M.
 Yield:
     the percentage of evaluated samples whose overall verdict is ``pass``. Samples that could
     not be judged, or were indeterminate, count as not passing (a conservative reading; the
@@ -82,7 +92,6 @@ PERCENTILE_METHOD = "linear"
 DDOF = 1
 
 
-
 # --------------------------------------------------------------------------- results
 
 
@@ -95,11 +104,14 @@ class FigureSummary:
     name : str
         lumeval figure name (e.g. ``"Ra"``, ``"cct_K"``).
     count : int
-        Samples where the figure is defined.
+        Samples whose value the statistics use (defined, and inside the validity range).
     undefined : int
         Samples where it is NaN.
     mean, std, min, max, median, p05, p95 : float
         ``std`` with the lot's ``ddof``; percentiles by the lot's ``percentile_method``.
+    outside_validity : int
+        Samples whose value was computed outside the validity range (|Duv| > 0.05; only the
+        figures of :data:`lumeval.engine.VALIDITY_FIGURES`): left out, like the undefined ones.
     """
 
     name: str
@@ -112,6 +124,7 @@ class FigureSummary:
     median: float
     p05: float
     p95: float
+    outside_validity: int = 0
 
 
 @dataclass(frozen=True)
@@ -168,7 +181,11 @@ class LotStatistics:
     yield_ : LotYield or None
         Yield against criteria, when a verdict per sample was given.
     notes : tuple of str
-        What the statistics could not do (e.g. no defined chromaticity).
+        What the statistics could not do (e.g. no defined chromaticity), and which samples'
+        values were left out as computed outside the validity range.
+    outside_validity : ndarray of bool (N,) or None
+        The samples whose reference-based figures were computed outside the validity range
+        (as given to :func:`lot_statistics`; None when not given).
     """
 
     n_samples: int
@@ -193,6 +210,7 @@ class LotStatistics:
     outlier_rule: str = ""
     yield_: LotYield | None = None
     notes: tuple[str, ...] = ()
+    outside_validity: np.ndarray | None = None
 
     def summary(self, name: str) -> FigureSummary:
         """The :class:`FigureSummary` of figure ``name``."""
@@ -205,8 +223,9 @@ class LotStatistics:
 # --------------------------------------------------------------------------- pieces
 
 
-def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_METHOD) -> dict[str, np.ndarray]:
-    """Column statistics of a (N, F) matrix, ignoring NaN.
+def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_METHOD,
+             outside_validity=None) -> dict[str, np.ndarray]:
+    """Column statistics of a (N, F) matrix, ignoring NaN and the values of flagged samples.
 
     Parameters
     ----------
@@ -215,24 +234,35 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
         Delta degrees of freedom of the standard deviation (1 = sample standard deviation).
     percentile_method : str
         numpy percentile method (default ``"linear"``, Hyndman & Fan 1996 definition 7).
+    outside_validity : array_like of bool, shape (N,), optional
+        Samples whose values (in every column given) were computed outside their validity
+        range: left out and counted in ``outside_validity`` (a NaN among them stays undefined).
 
     Returns
     -------
     dict of ndarray (F,)
-        ``count, undefined, mean, std, min, max, median, p05, p95``; NaN where a column has
-        no defined value (and ``std`` NaN where ``count <= ddof``).
+        ``count, undefined, mean, std, min, max, median, p05, p95, outside_validity``; NaN where
+        a column has no value used (and ``std`` NaN where ``count <= ddof``).
     """
     a = np.asarray(values, dtype=float)
     if a.ndim == 1:
         a = a[:, None]
     F = a.shape[1]
+    from .validity import sample_flags
+
+    flag = sample_flags(outside_validity, a.shape[0])  # None when nothing is left out: the usual path
     count = np.zeros(F, dtype=np.int64)
+    left_out = np.zeros(F, dtype=np.int64)
     d = {k: np.full(F, np.nan) for k in ("mean", "std", "min", "max", "median", "p05", "p95")}
     # one column at a time, over its defined values only (a lot's column: 10^6 values; each
     # extra full-length temporary cost a few ms per figure)
     for j in range(F):
         col = a[:, j]
         finite = np.isfinite(col)
+        if flag is not None:
+            left = finite & flag
+            left_out[j] = np.count_nonzero(left)
+            finite ^= left  # defined and inside the validity range
         x = col if finite.all() else col[finite]
         c = count[j] = x.size
         if c == 0:
@@ -250,7 +280,7 @@ def describe(values, *, ddof: int = DDOF, percentile_method: str = PERCENTILE_ME
             d["median"][j], d["p05"][j], d["p95"][j] = percentiles_linear(x, [50.0, 5.0, 95.0])
         else:
             d["median"][j], d["p05"][j], d["p95"][j] = np.percentile(x, [50.0, 5.0, 95.0], method=percentile_method)  # type: ignore[call-overload]
-    return {"count": count, "undefined": a.shape[0] - count, **d}
+    return {"count": count, "undefined": a.shape[0] - count - left_out, **d, "outside_validity": left_out}
 
 
 def chromaticity_centroid(upvp) -> np.ndarray:
@@ -260,8 +290,6 @@ def chromaticity_centroid(upvp) -> np.ndarray:
     whatever the order or memory layout of the samples (numpy's mean over the first axis of an
     (N, 2) array sums in an order that follows the layout: a lot run with worker processes
     and one without gave centroids differing in the last bit)."""
-    import math
-
     p = np.atleast_2d(np.asarray(upvp, dtype=float))
     ok = np.all(np.isfinite(p), axis=1)
     if not ok.any():
@@ -506,8 +534,14 @@ def screen_outliers(
     *,
     threshold: float = OUTLIER_THRESHOLD,
     min_samples: int = OUTLIER_MIN_SAMPLES,
+    outside_validity=None,
 ) -> tuple[np.ndarray, tuple[tuple[str, ...], ...], dict[str, np.ndarray]]:
     """Flag samples whose |modified z| exceeds ``threshold`` for any screened figure.
+
+    ``outside_validity`` (bool (N,), optional): samples whose reference-based figures
+    (:func:`lumeval.lots.validity.is_validity_figure`) were computed outside their validity range;
+    those values are not screened (their z is NaN), as undefined values are not, and count
+    neither towards ``min_samples`` nor towards the median and MAD.
 
     Returns
     -------
@@ -524,11 +558,15 @@ def screen_outliers(
     reasons: dict[int, list[str]] = {}  # flagged samples only (a lot may have 10^6 samples)
     zs: dict[str, np.ndarray] = {}
     from .. import figures as registry
+    from .validity import is_validity_figure, sample_flags
 
+    left_out = sample_flags(outside_validity, n)
     for name in names:
         if name not in figures:
             continue
         x = np.asarray(figures[name], dtype=float)
+        if left_out is not None and is_validity_figure(name):
+            x = np.where(left_out, np.nan, x)  # left out exactly as an undefined value is
         if np.isfinite(x).sum() < min_samples:
             continue
         z = robust_z(x)
@@ -576,6 +614,24 @@ def nearest_standard_ellipse(centre_upvp):
 # --------------------------------------------------------------------------- the lot
 
 
+def summarise_figures(figures: Mapping[str, np.ndarray], names: Sequence[str], *, ddof: int = DDOF,
+                      percentile_method: str = PERCENTILE_METHOD, left_out=None) -> tuple[FigureSummary, ...]:
+    """The :class:`FigureSummary` of each figure ``names`` of ``figures`` by :func:`describe`,
+    one figure at a time (temporaries of N values, not N × figures: a lot of 10^6 samples). The
+    values of the samples flagged in ``left_out`` (bool (N,) or None) are left out of the
+    figures computed against a reference illuminant (:func:`lumeval.lots.validity.is_validity_figure`)."""
+    from .validity import is_validity_figure
+
+    out = []
+    for k in names:
+        c = describe(np.asarray(figures[k], dtype=float), ddof=ddof, percentile_method=percentile_method,
+                     outside_validity=left_out if left_out is not None and is_validity_figure(k) else None)
+        f = {key: float(c[key][0]) for key in ("mean", "std", "min", "max", "median", "p05", "p95")}
+        out.append(FigureSummary(k, int(c["count"][0]), int(c["undefined"][0]), **f,
+                                 outside_validity=int(c["outside_validity"][0])))
+    return tuple(out)
+
+
 def lot_statistics(
     figures: Mapping[str, np.ndarray],
     xy,
@@ -587,6 +643,7 @@ def lot_statistics(
     percentile_method: str = PERCENTILE_METHOD,
     outlier_figures: Sequence[str] = OUTLIER_FIGURES,
     outlier_threshold: float = OUTLIER_THRESHOLD,
+    outside_validity=None,
 ) -> LotStatistics:
     """Statistics and chromatic consistency of a lot.
 
@@ -609,6 +666,11 @@ def lot_statistics(
         See :func:`describe`.
     outlier_figures, outlier_threshold
         See :func:`screen_outliers`.
+    outside_validity : array_like of bool (N,), optional
+        Samples whose reference-based figures were computed outside their validity range
+        (:attr:`lumeval.engine.Evaluation.outside_validity`): their values of those figures
+        (:func:`lumeval.lots.validity.is_validity_figure`) are left out of the statistics and
+        the outlier screening and counted (``FigureSummary.outside_validity``); a note names them.
 
     Returns
     -------
@@ -629,26 +691,14 @@ def lot_statistics(
     if verdicts is not None and len(verdicts) != n:
         raise ValueError(f"{len(verdicts)} verdicts for {n} samples")
     notes: list[str] = []
+    from .validity import left_out_note, sample_flags
 
-    # one figure at a time: temporaries of N values, not N × figures (a lot of 10^6 samples)
-    cols = [describe(np.asarray(figures[k], dtype=float), ddof=ddof, percentile_method=percentile_method) for k in names]
-    d = ({key: np.array([c[key][0] for c in cols]) for key in cols[0]} if cols
-         else describe(np.empty((n, 0)), ddof=ddof, percentile_method=percentile_method))
-    summaries = tuple(
-        FigureSummary(
-            k,
-            int(d["count"][j]),
-            int(d["undefined"][j]),
-            float(d["mean"][j]),
-            float(d["std"][j]),
-            float(d["min"][j]),
-            float(d["max"][j]),
-            float(d["median"][j]),
-            float(d["p05"][j]),
-            float(d["p95"][j]),
-        )
-        for j, k in enumerate(names)
-    )
+    left_out = sample_flags(outside_validity, n)  # None when no sample is flagged
+
+    summaries = summarise_figures(figures, names, ddof=ddof, percentile_method=percentile_method, left_out=left_out)
+    note = left_out_note(left_out, summaries)
+    if note:
+        notes.append(note)
 
     upvp = upvp_from_xy(xy)
     centroid = chromaticity_centroid(upvp)
@@ -680,7 +730,8 @@ def lot_statistics(
 
     dmax, i, j = max_pairwise_distance(upvp)
 
-    flags, reasons, zs = screen_outliers(figures, outlier_figures, threshold=outlier_threshold)
+    flags, reasons, zs = screen_outliers(figures, outlier_figures, threshold=outlier_threshold,
+                                         outside_validity=left_out)
     rule = (
         f"modified z-score 0.6745·(x − median)/MAD, flagged when |z| > {outlier_threshold:g} for any of "
         f"{', '.join(_figure_label(f) for f in outlier_figures if f in figures)} "
@@ -713,6 +764,7 @@ def lot_statistics(
         outlier_rule=rule,
         yield_=lot_yield(verdicts) if verdicts is not None else None,
         notes=tuple(notes),
+        outside_validity=None if outside_validity is None else np.asarray(outside_validity, dtype=bool),
     )
 
 
@@ -727,9 +779,13 @@ def lot_from_evaluation(ev, *, figure_names: Sequence[str] | None = None, **kwar
     """:func:`lot_statistics` of an :class:`~lumeval.engine.Evaluation`.
 
     ``figure_names`` defaults to every figure of the registry (:func:`lumeval.figures.names`); other
-    keyword arguments go to :func:`lot_statistics`.
+    keyword arguments go to :func:`lot_statistics`. The evaluation's own flag of the samples
+    computed outside the validity range (:attr:`~lumeval.engine.Evaluation.outside_validity`)
+    decides which values are left out, unless ``outside_validity`` is given.
     """
     names = tuple(figure_names) if figure_names is not None else default_figure_names()
     figs = {k: ev.figure(k) for k in names}
     xy = np.column_stack([ev.x, ev.y])
+    flag = getattr(ev, "outside_validity", None)
+    kwargs.setdefault("outside_validity", np.zeros(len(xy), dtype=bool) if flag is None else flag)
     return lot_statistics(figs, xy, **kwargs)

@@ -7,7 +7,8 @@ One lot run, on one machine (:func:`lumeval.lots.run.run_lot`) or on a Dask clus
    :func:`archive_batches`);
 2. :func:`evaluate_batch`: prepare and evaluate it and judge its per-sample clauses, keeping
    only what the lot needs per sample (:class:`BatchResult`: every figure, x y, the clause
-   outcomes, the warnings, the archive's metadata columns; about 0.7 kB per sample);
+   outcomes, the warnings, the archive's metadata columns, the flag of the samples computed
+   outside the validity range; about 0.7 kB per sample);
 3. :class:`LotAccumulator`: join the batch results in input order and compute the lot
    statistics and lot verdicts once over all samples (:meth:`LotAccumulator.finish`).
 
@@ -45,6 +46,9 @@ class BatchResult:
         The batch's evaluation itself, kept only for a report that draws the samples.
     run_warnings : tuple of str
         Warnings of the computation libraries during the batch (Evaluation.run_warnings).
+    outside_validity : ndarray of bool (n,) or None
+        The samples whose reference-based figures were computed outside their validity range
+        (Evaluation.outside_validity; None: none). The lot statistics leave those values out.
     """
 
     names: list
@@ -56,6 +60,7 @@ class BatchResult:
     metadata: Any = None
     evaluation: object = None
     run_warnings: tuple = ()
+    outside_validity: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -86,8 +91,10 @@ def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: i
                                                        progress=progress)[0].results)
     elif sample_criteria is not None:
         clauses = list(sample_criteria.evaluate(ev).results)
+    flag = ev.outside_validity
     return BatchResult(list(ev.spectra.names), list(ev.spectra.sources), list(ev.warnings), figs, xy, clauses,
-                       metadata, ev if keep_evaluation else None, tuple(ev.run_warnings))
+                       metadata, ev if keep_evaluation else None, tuple(ev.run_warnings),
+                       None if flag is None else np.asarray(flag, dtype=bool))
 
 
 def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None) -> Iterator[tuple]:
@@ -131,16 +138,17 @@ def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None)
 
 
 class _Columns:
-    """A growing column-major float64 buffer (F, capacity) of a few per-sample numbers."""
+    """A growing column-major buffer (F, capacity) of a few per-sample numbers (float64 unless
+    ``dtype`` says otherwise)."""
 
-    def __init__(self, width: int, capacity: int) -> None:
-        self.buf = np.empty((width, max(int(capacity), 1024)))
+    def __init__(self, width: int, capacity: int, dtype=float) -> None:
+        self.buf = np.empty((width, max(int(capacity), 1024)), dtype=dtype)
         self.n = 0
 
     def add(self, rows: np.ndarray) -> None:
         m = rows.shape[0]
         if self.n + m > self.buf.shape[1]:
-            grown = np.empty((self.buf.shape[0], max(2 * self.buf.shape[1], self.n + m)))
+            grown = np.empty((self.buf.shape[0], max(2 * self.buf.shape[1], self.n + m)), dtype=self.buf.dtype)
             grown[:, : self.n] = self.buf[:, : self.n]
             self.buf = grown
         self.buf[:, self.n : self.n + m] = rows.T
@@ -164,7 +172,8 @@ class LotAccumulator:
 
     Memory: names, sources and warnings are packed (:mod:`lumeval.lots.columns`), the figures
     of a large lot wait in a temporary file, so what grows in memory with the lot is about
-    0.3 kB per sample (x, y, the per-sample statistics, packed text) instead of 1.25 kB.
+    0.3 kB per sample (x, y, the per-sample statistics, packed text) instead of 1.25 kB. The
+    flag of the samples computed outside the validity range takes one byte per sample.
     """
 
     def __init__(self, expected: int = 0, *, keep_evaluation: bool = False, spill_bytes: int | None = None) -> None:
@@ -180,6 +189,7 @@ class LotAccumulator:
         self.warnings = TextTuples()
         self._figs = FigureColumns(self.figure_names, spill_bytes=spill_bytes)
         self._xy = _Columns(2, expected)
+        self._outside = _Columns(1, expected, dtype=bool)  # Evaluation.outside_validity, one byte a sample
         self._clauses: list[list] = []
         self._meta: list[tuple[int, Any]] = []  # (samples, Arrow table or None): pyarrow is imported lazily
 
@@ -192,6 +202,8 @@ class LotAccumulator:
         self.warnings.extend(r.warnings)
         self._figs.add(r.figures)
         self._xy.add(np.asarray(r.xy, dtype=float).reshape(-1, 2))
+        flag = r.outside_validity
+        self._outside.add(np.zeros((len(r), 1), dtype=bool) if flag is None else np.asarray(flag, dtype=bool)[:, None])
         if r.clauses is not None:
             self._clauses.append(r.clauses)
         self._meta.append((len(r), r.metadata))
@@ -259,7 +271,8 @@ class LotAccumulator:
             ellipse, nominal_xy = _nominal_from_criteria(criteria)
 
         stats = lot_statistics(figures, xy, ellipse=ellipse, nominal_xy=nominal_xy,
-                               verdicts=check.verdicts if check is not None else None)
+                               verdicts=check.verdicts if check is not None else None,
+                               outside_validity=self._outside.columns()[0].copy())
         lot_results: tuple = ()
         has_yield = False
         if criteria is not None:

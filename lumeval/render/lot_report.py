@@ -1,20 +1,24 @@
 """Renderings of a production lot (:class:`lumeval.commands.lot.LotRun`): terminal, JSON, CSV.
 
 Nothing is computed here beyond formatting. Numbers in JSON and CSV are unrounded; an
-undefined figure is ``null`` (JSON) or an empty cell (CSV). The terminal summary rounds as the
+undefined figure is ``null`` (JSON) or an empty cell (CSV). Per figure, the statistics give the
+samples they leave out: ``undefined`` (NaN) and ``outside_validity`` (computed outside the
+validity range, |Duv| > 0.05; :mod:`lumeval.lots.validity`); ``counts.outside_validity`` is the
+number of such samples. The per-sample records keep every value as computed, with its warnings. The terminal summary rounds as the
 inspect report does (x, y, u', v' to 4 decimals, Δu'v' to 5, CCT to 1 K, indices to 0.1 for
 lot statistics so that spreads below one unit stay visible).
 
 Lot JSON (``schema_version`` 1; names never change meaning, new names may be added)::
 
     lumeval_version, schema_version, kind = "lot",
-    counts {samples, files, unreadable, passed, failed, not_judged, indeterminate, outliers},
+    counts {samples, files, unreadable, passed, failed, not_judged, indeterminate, outliers,
+            outside_validity},
     criteria {file, identification} | null,
     verdict {exit_code, failed, lot_clauses [{id, label, kind, figure, unit, measured, limit,
              margin, outcome, reason, source, line}], yield {total, passed, failed,
              not_judged, indeterminate, percent} | null},
     statistics {ddof, percentile_method, figures {name: {count, undefined, mean, std, min,
-                max, median, p05, p95}}},
+                max, median, p05, p95, outside_validity}}},
     chromaticity {centroid_xy, centroid_upvp, nominal_xy, nominal_upvp, ellipse, ellipse_source,
                   max_pairwise_delta_upvp, max_pair [name, name], delta_upvp_centroid
                   {max, p95}, steps_centroid {max, p95}},
@@ -85,7 +89,14 @@ def _counts(run) -> dict:
         "not_judged": None if v is None else sum(o == "not judged" for o in v),
         "indeterminate": None if v is None else sum(o == "indeterminate" for o in v),
         "outliers": int(np.sum(run.stats.outlier)),
+        "outside_validity": _n_outside(run.stats),
     }
+
+
+def _n_outside(st) -> int:
+    """Samples whose reference-based figures were computed outside the validity range."""
+    flag = getattr(st, "outside_validity", None)
+    return 0 if flag is None else int(np.count_nonzero(flag))
 
 
 def _pct(a, q):
@@ -207,6 +218,7 @@ def lot_document(run) -> dict:
                     "median": _num(f.median),
                     "p05": _num(f.p05),
                     "p95": _num(f.p95),
+                    "outside_validity": f.outside_validity,
                 }
                 for f in st.figures
             },
@@ -569,7 +581,9 @@ def _lot_figures(run) -> list:
         except KeyError:
             continue
     any_undef = any(f.undefined for f, _ in shown)
-    cols = ("figure", "mean", "std", "min", "p5", "p95", "max") + (("n/a",) if any_undef else ())
+    any_out = any(f.outside_validity for f, _ in shown)
+    cols = (("figure", "mean", "std", "min", "p5", "p95", "max") + (("n/a",) if any_undef else ())
+            + ((_NOT_VALID,) if any_out else ()))
     for col in cols:
         t.add_column(col, justify="left" if col == "figure" else "right", no_wrap=True)
     for f, fig in shown:
@@ -577,9 +591,18 @@ def _lot_figures(run) -> list:
             return fig.format(x, extra, sign=False)
 
         row = [fig.heading, v(f.mean), v(f.std, 1), v(f.min), v(f.p05), v(f.p95), v(f.max)]
-        t.add_row(*(row + ([str(f.undefined)] if any_undef else [])))
+        t.add_row(*(row + ([str(f.undefined)] if any_undef else []) + ([str(f.outside_validity)] if any_out else [])))
     out.append(t)
+    if any_out:
+        from rich.text import Text
+
+        out.append(Text(f"{_NOT_VALID}: samples left out of that figure's statistics because its value was computed "
+                        "outside the validity range, |Duv| > 0.05 (CIE 15:2004 §9.5; see the note below)", style="dim"))
     return out
+
+
+#: Heading of the terminal column counting the values left out as outside the validity range.
+_NOT_VALID = "not valid"
 
 
 def _lot_outliers(run) -> list:

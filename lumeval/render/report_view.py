@@ -328,11 +328,14 @@ def key_figures_view(ev, names: Sequence[str], failed: Sequence[bool | None]) ->
 
 
 _SUMMARY_COLUMNS = ("figure", "n", "undefined", "mean", "std", "min", "p5", "median", "p95", "max")
+#: The column of values left out as computed outside the validity range (shown when a lot has any).
+_NOT_VALID_COLUMN = "not valid"  # as the terminal summary heads it
 
 
-def _summary_row(f) -> dict:
+def _summary_row(f, not_valid: bool = False) -> dict:
     """One figure's lot statistics with the registry's label, unit and precision (the standard
-    deviation with one more decimal)."""
+    deviation with one more decimal); with ``not_valid``, the count of values left out as
+    computed outside the validity range after ``undefined``."""
     from .. import figures
 
     try:
@@ -343,9 +346,11 @@ def _summary_row(f) -> dict:
     def v(x, extra=0):
         return fig.format(x, extra, sign=False) if fig is not None else plain_number(x)
 
-    return {"figure": fig.heading if fig is not None else f.name, "n": str(f.count), "undefined": str(f.undefined),
-            "mean": v(f.mean), "std": v(f.std, 1), "min": v(f.min), "p5": v(f.p05), "median": v(f.median),
-            "p95": v(f.p95), "max": v(f.max)}
+    row = {"figure": fig.heading if fig is not None else f.name, "n": str(f.count), "undefined": str(f.undefined)}
+    if not_valid:
+        row[_NOT_VALID_COLUMN] = str(getattr(f, "outside_validity", 0))
+    return row | {"mean": v(f.mean), "std": v(f.std, 1), "min": v(f.min), "p5": v(f.p05), "median": v(f.median),
+                  "p95": v(f.p95), "max": v(f.max)}
 
 
 def _statistics_notes(lot, names) -> list[str]:
@@ -405,8 +410,10 @@ def lot_view(lot, names=None) -> LotView | None:
         return None
     numeric = None
     if hasattr(lot, "figures") and hasattr(lot, "n_samples"):  # lumeval.lots.statistics.LotStatistics
-        title, rows, notes = "Lot statistics", [_summary_row(f) for f in lot.figures], _statistics_notes(lot, names)
-        numeric = tuple(c != "figure" for c in _SUMMARY_COLUMNS)
+        not_valid = any(getattr(f, "outside_validity", 0) for f in lot.figures)
+        title, notes = "Lot statistics", _statistics_notes(lot, names)
+        rows = [_summary_row(f, not_valid) for f in lot.figures]
+        numeric = tuple(c != "figure" for c in rows[0]) if rows else None
     elif isinstance(lot, Mapping):
         title, rows, notes = str(lot.get("title", "Lot statistics")), list(lot.get("rows", ())), [str(x) for x in lot.get("notes", ())]
     elif _get(lot, "rows") is not None and not isinstance(lot, (list, tuple)):

@@ -5,7 +5,8 @@ the criteria file (FIPS 180-4). Recording the same inputs with the same criteria
 the earlier record ("already recorded as lot N") instead of adding a duplicate, whatever
 ``--lot-id`` says. Everything of one lot (the lot row, its inputs, its per-figure summaries and
 every sample) is written in one transaction: after a crash or ``kill -9`` the store holds the
-whole lot or nothing of it.
+whole lot or nothing of it. The per-figure summaries leave out the values computed outside the
+validity range, as the lot statistics do (:func:`figure_summaries`; docs/history.md).
 """
 
 from __future__ import annotations
@@ -57,6 +58,9 @@ class LotRecord:
     warnings: tuple[tuple[str, ...], ...]
     lumeval_version: str = ""
     extra: dict = field(default_factory=dict)
+    #: bool (N,): samples whose reference-based figures were computed outside the validity range
+    #: (|Duv| > 0.05); their values of those figures are left out of ``lot_figures`` (None: none).
+    outside_validity: np.ndarray | None = None
 
     @property
     def lot_key(self) -> str:
@@ -92,14 +96,22 @@ def _num(v):
     return f if math.isfinite(f) else None
 
 
-def figure_summaries(figures: dict) -> list[dict]:
-    """Per figure: count of defined values, mean, standard deviation (ddof 1; None below 2
-    values), min and max, ignoring NaN. Vectorised over the (N, F) matrix."""
+def figure_summaries(figures: dict, outside_validity=None) -> list[dict]:
+    """Per figure: count of the values used, mean, standard deviation (ddof 1; None below 2
+    values), min and max, ignoring NaN and, for the figures computed against a reference
+    illuminant, the values of the samples flagged in ``outside_validity`` (bool (N,): computed
+    outside the validity range, |Duv| > 0.05, CIE 15:2004 §9.5; the rule of the lot statistics,
+    :mod:`lumeval.lots.validity`). Vectorised over the (N, F) matrix."""
+    from ..lots.validity import is_validity_figure, sample_flags
+
     names = list(figures)
     if not names:
         return []
     M = np.column_stack([np.asarray(figures[k], dtype=float) for k in names]) if len(next(iter(figures.values()))) else np.empty((0, len(names)))
     fin = np.isfinite(M)
+    flag = sample_flags(outside_validity, M.shape[0])
+    if flag is not None:  # left out exactly as NaN is
+        fin &= ~(flag[:, None] & np.array([is_validity_figure(k) for k in names])[None, :])
     n = fin.sum(axis=0)
     Z = np.where(fin, M, 0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -193,6 +205,7 @@ def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | 
         outliers=tuple(bool(o) for o in np.asarray(run.stats.outlier, dtype=bool)),
         warnings=tuple(tuple(w) for w in run.warnings),
         lumeval_version=__version__,
+        outside_validity=getattr(run.stats, "outside_validity", None),
     )
 
 
@@ -287,7 +300,7 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
                 conn.execute(insert(t["inputs"]), [
                     {"lot_id": lot_id, "position": k, "path": p, "sha256": s, "size_bytes": b}
                     for k, (p, s, b) in enumerate(rec.inputs)])
-            figs = figure_summaries(rec.figures)
+            figs = figure_summaries(rec.figures, rec.outside_validity)
             if figs:
                 conn.execute(insert(t["figures"]), [{"lot_id": lot_id, **f} for f in figs])
             batch: list[dict] = []

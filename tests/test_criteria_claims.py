@@ -209,3 +209,14 @@ def test_refused_claims_are_quoted_as_the_main_message_quotes_them(key, text):
         claims(f'[claims]\n{key} = "{text}"\n')
     msg = str(e.value)
     assert shown(text) in msg and repr(text) not in msg, msg
+
+
+@pytest.mark.parametrize("text", ["\u2265 \u0669\u0660", "\uff19\uff10+", "90 \u00b1 \u0661", "\u0662\u0667\u0660\u0660-3000 K"])
+def test_claims_take_the_digits_0_9_only(text):
+    """As every reader of lumeval: Arabic-Indic or full-width digits were read as 90, 1, 2700 by
+    the claims' patterns (Python's \\d matches any script's digits)."""
+    from lumeval.errors import CriteriaError
+
+    key = "cct_K" if "3000" in text else "Ra"
+    with pytest.raises(CriteriaError, match="cannot read the claim"):
+        claims(f'[claims]\n{key} = "{text}"\n')

@@ -321,3 +321,16 @@ def test_an_xbar_s_baseline_without_spread_is_refused():
         compute_trend(pts([0.0] * 6), [True] * 5 + [False], figure="Ra", chart="xbar-s")
     tr = compute_trend(pts([0.0, 0.0, 0.0, 0.0, 0.1, 0.0]), [True] * 5 + [False], figure="Ra", chart="xbar-s")
     assert math.isfinite(tr.main.sigma) and tr.main.sigma > 0
+
+
+@pytest.mark.parametrize("text", ["\u0661..\u0662", "\uff11..\uff12", "1..\u0662"])
+def test_baseline_range_takes_the_digits_0_9_only(text):
+    """--baseline A..B reads lot numbers with the digits 0-9, as every number lumeval reads
+    (other scripts' digits were read by Python's \\d and int())."""
+    from lumeval.store.db import StoreError
+    from lumeval.store.trend import baseline_mask
+
+    with pytest.raises(StoreError, match="digits 0-9"):
+        baseline_mask([1, 2, 3], text)
+    mask, _ = baseline_mask([1, 2, 3], "1..2")
+    assert mask.tolist() == [True, True, False]

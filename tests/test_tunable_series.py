@@ -166,3 +166,10 @@ def test_series_locus_reference(tmp_path, colour):
         locus.append((4 * X / (X + 15 * Y + 3 * Z), 9 * Y / (X + 15 * Y + 3 * Z)))
     meas = upvp_reference(colour, np.vstack([spd(6.0), spd(0.0)]))
     assert_allclose(r.delta_upvp, np.hypot(*(meas - np.array(locus)).T), rtol=0, atol=3e-6)
+
+
+def test_numbers_in_takes_the_digits_0_9_only():
+    """A setting in a file name is read with the digits 0-9, as numbers in files are (other
+    scripts' digits were read: 'dim_٥٠pct' gave 50 %)."""
+    assert numbers_in("dim_\u0665\u0660pct") == [] and numbers_in("dim_\uff15\uff10pct") == []
+    assert numbers_in("dim_50pct") == [(50.0, "%")]

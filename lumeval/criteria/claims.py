@@ -77,15 +77,15 @@ NOT_CHECKABLE_KEYS: dict[str, str] = {
 #: ">= 90", ">90", "≥ 90", "90+", "3000 K", "3000K ± 100K", "100 ± 3", "<= 0.003".
 _CLAIM_RE = re.compile(
     r"""^\s*(?P<op>>=|≥|=>|>|<=|≤|=<|<|=)?\s*
-        (?P<value>[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*
+        (?P<value>[-+]?[0-9]+(?:\.[0-9]*)?(?:[eE][-+]?[0-9]+)?)\s*
         (?P<unit1>K|%|lm/W|nm)?\s*
-        (?:(?:±|\+/-|\+-)\s*(?P<tol>\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*(?P<unit2>K|%|lm/W|nm)?)?\s*
+        (?:(?:±|\+/-|\+-)\s*(?P<tol>[0-9]+(?:\.[0-9]*)?(?:[eE][-+]?[0-9]+)?)\s*(?P<unit2>K|%|lm/W|nm)?)?\s*
         (?P<plus>\+)?\s*$""",
     re.VERBOSE,
 )
 
 
-_NUM = r"[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?"
+_NUM = r"[-+]?[0-9]+(?:\.[0-9]*)?(?:[eE][-+]?[0-9]+)?"
 _UNIT = r"K|%|lm/W|nm"
 #: A range as datasheets write it: "2700-3000 K", "2700 K – 6500 K", "90 to 95", "0.80...0.90".
 _RANGE_RE = re.compile(
@@ -100,9 +100,9 @@ _RANGE_RE = re.compile(
 _CLAIM_MAX_CHARS = 200
 #: Words datasheets put before a value, and the comparison each stands for ("" = a nominal value).
 _WORDS = (
-    (re.compile(r"^\s*(?:min\.?|minimum|at\s+least)\s*(?=[-+\d])", re.IGNORECASE), ">= "),
-    (re.compile(r"^\s*(?:max\.?|maximum|at\s+most|up\s+to)\s*(?=[-+\d])", re.IGNORECASE), "<= "),
-    (re.compile(r"^\s*(?:approx\.?|approximately|about|ca\.?|~|≈)\s*(?=[-+\d])", re.IGNORECASE), ""),
+    (re.compile(r"^\s*(?:min\.?|minimum|at\s+least)\s*(?=[-+0-9])", re.IGNORECASE), ">= "),
+    (re.compile(r"^\s*(?:max\.?|maximum|at\s+most|up\s+to)\s*(?=[-+0-9])", re.IGNORECASE), "<= "),
+    (re.compile(r"^\s*(?:approx\.?|approximately|about|ca\.?|~|≈)\s*(?=[-+0-9])", re.IGNORECASE), ""),
 )
 
 
@@ -116,7 +116,7 @@ def _with_words_read(text: str) -> str:
 
 
 #: A comma between digits: "2,700" (a thousands separator) or "0,003" (a decimal comma).
-_DIGIT_COMMA = re.compile(r"\d,\d")
+_DIGIT_COMMA = re.compile(r"[0-9],[0-9]")
 
 
 def _comma_hint(text: str) -> str:
@@ -335,7 +335,7 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                 raise err(("claims",), key, f"the claim is {len(value):,} characters long; a claim is one short value",
                           'write e.g. ">= 90", "3000 K ± 100 K" or "2700-3000 K"; put remarks in a TOML comment')
             read = _with_words_read(" ".join(value.split()))
-            if fig == "duv" and re.fullmatch(r"\s*(?:±|\+/-|\+-)\s*\d.*", read):
+            if fig == "duv" and re.fullmatch(r"\s*(?:±|\+/-|\+-)\s*[0-9].*", read):
                 read = "0 " + read.strip()  # "Duv ±0.003": within 0.003 of the Planckian locus
             m = _CLAIM_RE.match(read)
             r = _RANGE_RE.match(read) if m is None else None

@@ -36,6 +36,7 @@ from typing import Any
 
 import numpy as np
 
+from ..errors import quote
 from . import charts
 from .db import StoreError, StoreURL, connect, ensure_schema, parse_store_url
 
@@ -198,7 +199,7 @@ def _chromaticity_value(figure: str, r) -> float:
 
 # --------------------------------------------------------------------------- baseline
 
-_RANGE_RE = re.compile(r"^\s*(\d+)\s*\.\.\s*(\d+)\s*$")
+_RANGE_RE = re.compile(r"^\s*([0-9]+)\s*\.\.\s*([0-9]+)\s*$")
 
 
 def baseline_mask(lot_ids, baseline: str | None = None, count: int | None = None, *, exclude_last: bool = False):
@@ -213,7 +214,7 @@ def baseline_mask(lot_ids, baseline: str | None = None, count: int | None = None
     if baseline is not None:
         mt = _RANGE_RE.match(baseline)
         if not mt:
-            raise StoreError(f"--baseline {baseline!r}: expected two lot numbers as A..B", field="--baseline",
+            raise StoreError(f"--baseline {quote(baseline)}: expected two lot numbers as A..B (digits 0-9)", field="--baseline",
                              fix="e.g. --baseline 1..20 (see `lumeval history list` for the lot numbers)")
         a, b = int(mt.group(1)), int(mt.group(2))
         if a > b:

@@ -24,7 +24,7 @@ from ..errors import InputError
 #: that "3000k" still reads as kelvin: names are matched case-insensitively below).
 UNIT_WORDS: dict[str, str] = {"k": "K", "%": "%", "pct": "%", "percent": "%", "ma": "mA", "a": "A"}
 
-_NUMBER = re.compile(r"(?<![\d.])(\d+(?:[.,]\d+)?)\s?(k|%|pct|percent|ma|a)?(?![a-z])", re.IGNORECASE)
+_NUMBER = re.compile(r"(?<![0-9.])([0-9]+(?:[.,][0-9]+)?)\s?(k|%|pct|percent|ma|a)?(?![a-z])", re.IGNORECASE)
 
 
 def numbers_in(text: str) -> list[tuple[float, str]]:

@@ -88,8 +88,9 @@ def register(app: typer.Typer) -> None:
                                   "gets one row per spectrum with the key figures)."),
     ) -> None:
         """Judge each spectrum against acceptance criteria. Exit code 0: every spectrum meets
-        every requirement; 1: a requirement failed or is indeterminate under the decision rule
-        (never a pass); 2: bad input."""
+        every requirement check judges (clauses over a range of settings or of a whole lot are
+        named in the verdict and judged by mix, series or lot); 1: a requirement failed or is
+        indeterminate under the decision rule (never a pass); 2: bad input."""
         from ._announce import announce_outputs, set_quiet
         from ._targets import check_targets
 

@@ -98,6 +98,13 @@ class VerdictView:
     samples_footnote: str | None = None
     uncertainty: str | None = None
     checks: ChecksView | None = None
+    #: Clauses this report does not judge (over a range of settings, or a whole lot in a check):
+    #: the sentence of the headline, then the criteria's own note on each.
+    not_judged_summary: str = ""
+    not_judged: tuple[str, ...] = ()
+    #: The check's other notes: the criteria file's WARNINGs (clauses no spectrum can meet together)
+    #: and, under measurement uncertainty, the instrument model's notes.
+    criteria_notes: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -165,6 +172,33 @@ class ReportView:
 # --------------------------------------------------------------------------- verdicts
 
 
+def _clause_id(r: VerdictRow) -> str:
+    """The id of the clause a row was read from ("" when the row does not say)."""
+    return "" if r.origin is None else str(getattr(r.origin[0], "clause_id", "") or "")
+
+
+def _clause_cell(r: VerdictRow) -> Cell:
+    """The requirement as the criteria word it, with the clause's id: two clauses may read the same."""
+    cid = _clause_id(r)
+    return Cell(r.clause, notes=(f"id: {cid}",) if cid and cid != r.clause else ())
+
+
+def _clause_keys(rows: list[VerdictRow]) -> list[tuple]:
+    """One key per row naming its clause, never by its words alone (two clauses may read the
+    same: one label on R9 and R12, two ellipses with one centre): the clause result it was read
+    from; a row given as a mapping, its words and how many rows of its sample read so before it."""
+    seen: dict[tuple, int] = {}
+    keys: list[tuple] = []
+    for r in rows:
+        if r.origin is not None:
+            keys.append(("clause", id(r.origin[0])))
+        else:
+            k = (r.sample, r.clause, r.limit)
+            seen[k] = seen.get(k, -1) + 1
+            keys.append(("row", r.clause, r.limit, seen[k]))
+    return keys
+
+
 def _check_cell(r: VerdictRow) -> Cell:
     c = check_line(r)
     return Cell("", outcome=r.outcome, lines=(c.measured,),
@@ -182,7 +216,7 @@ def sample_checks_table(rows: list[VerdictRow], noun: str = "Criterion") -> Tabl
     body = []
     for r in rows:
         c = check_line(r)
-        body.append(Row(cells(r.clause, c.measured, r.limit, c.margin_with_uncertainty) + (_verdict_cell(r),),
+        body.append(Row((_clause_cell(r),) + cells(c.measured, r.limit, c.margin_with_uncertainty) + (_verdict_cell(r),),
                         r.outcome == "fail"))
     return Table((noun, "Measured", "Limit", "Margin (+ inside)", "Verdict"), tuple(body),
                  (False, True, False, True, False))
@@ -192,13 +226,17 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: st
     """A criterion × sample grid for a few samples, else a list of the checks that did not pass
     (the passes are counted, not listed)."""
     samples = list(dict.fromkeys(r.sample or "lot" for r in rows))
-    clauses = list(dict.fromkeys((r.clause, r.limit) for r in rows))
+    keys = _clause_keys(rows)
+    first: dict[tuple, VerdictRow] = {}  # each clause's first row (its words), in the criteria's order
+    for k, r in zip(keys, rows):
+        first.setdefault(k, r)
     if len(samples) <= grid_max:
-        grid = {((r.clause, r.limit), r.sample or "lot"): r for r in rows}
+        grid = {(k, r.sample or "lot"): r for k, r in zip(keys, rows)}
         body = []
-        for key in clauses:
+        for key, head in first.items():
             found = [grid.get((key, s)) for s in samples]
-            body.append(Row(cells(*key) + tuple(Cell() if r is None else _check_cell(r) for r in found)))
+            body.append(Row((_clause_cell(head), Cell(head.limit))
+                            + tuple(Cell() if r is None else _check_cell(r) for r in found)))
         return ChecksView("Checks", ("Each cell: verdict, measured value, margin to the nearest limit "
                                      "(+ inside the limits, − outside).",),
                           Table((noun, "Limit", *samples), tuple(body), css="grid"))
@@ -212,18 +250,28 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: st
     body = []
     for r in shown:
         c = check_line(r)
-        body.append(Row(cells(r.sample or "lot", r.clause, c.measured, r.limit, c.margin_with_uncertainty)
+        body.append(Row((Cell(r.sample or "lot"), _clause_cell(r)) + cells(c.measured, r.limit, c.margin_with_uncertainty)
                         + (_verdict_cell(r),),
                         r.outcome == "fail"))
     return ChecksView(title, notes, Table(("Sample", noun, "Measured", "Limit", "Margin (+ inside)", "Verdict"),
                                           tuple(body), (False, False, True, False, True, False)))
 
 
+def _tally(outcomes, wording: Wording, leave_out: tuple[str, ...] = ("pass",)) -> str:
+    """"1 failed, 2 not valid, 1 not judged" (worst first), as the terminal counts them; a claims
+    report in its own words ("1 contradicted")."""
+    from .verdicts import TALLY_WORDS, outcome_tally
+
+    outcomes = list(outcomes)
+    if dict(wording.outcome_text) == OUTCOME_TEXT:
+        return outcome_tally(outcomes, leave_out=leave_out)
+    return ", ".join(f"{k} {wording.outcome_text[o][1].lower()}" for o, _w in TALLY_WORDS
+                     if o not in leave_out and (k := sum(x == o for x in outcomes)))
+
+
 def _not_passed_text(outcomes, wording: Wording = CRITERIA_WORDING) -> str:
     """"2 failed, 1 indeterminate" (or "none") for one sample's check outcomes."""
-    bits = [f"{sum(o == k for o in outcomes)} {wording.outcome_text[k][1].lower()}"
-            for k in ("fail", "not valid", "indeterminate", "not judged") if k in outcomes]
-    return ", ".join(bits) or "none"
+    return _tally(outcomes, wording) or "none"
 
 
 def _samples_table(per_sample: dict[str, list[str]], lot, n: int,
@@ -256,20 +304,44 @@ def _uncertainty_text(verdicts) -> str | None:
             "p_c is the probability of conformance (JCGM 106:2012). See docs/uncertainty.md.")
 
 
+def _check_results(verdicts) -> list:
+    """The check results among ``verdicts`` (one, or those of a list mixing results and rows)."""
+    return [verdicts] if _is_check_result(verdicts) else [v for v in (verdicts or ()) if _is_check_result(v)]
+
+
+def _counts_text(rows: list[VerdictRow], wording: Wording) -> str:
+    """"5 checks: 1 failed, 2 not valid, 1 not judged, 1 passed." (worst first, every outcome
+    counted; a claims report in its own words: "1 contradicted, 2 supported")."""
+    n = len(rows)
+    return f"{n} check{'s' if n != 1 else ''}: {_tally((r.outcome for r in rows), wording, leave_out=())}."
+
+
 def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str | None, grid_max: int,
-                 unread: bool = False, wording: Wording = CRITERIA_WORDING) -> VerdictView:
+                 unread: bool = False, wording: Wording = CRITERIA_WORDING, leave_out_notes=()) -> VerdictView:
     """``unread``: some of a lot's inputs could not be read (the command then decides "not
     judged"); when every check of what was read passed, the summary says so instead of the
-    generic "a criterion could not be judged". ``wording``: the words of criteria or of claims."""
+    generic "a criterion could not be judged". ``wording``: the words of criteria or of claims.
+    Clauses the report does not judge (a check: those over a range of settings or of a whole
+    lot; a lot: those over a range) are said in the headline and listed; the check's other notes
+    (the criteria file's WARNINGs), less ``leave_out_notes`` (shown elsewhere), are listed too."""
     if not rows:
         return VerdictView(judged=False)
+    from .verdicts import check_notes, not_judged_here, not_judged_text
+
     ident, crit_file = _verdict_meta(verdicts)
     overall = overall if overall in OUTCOME_TEXT else worst(r.outcome for r in rows)
     summary = wording.summary[overall]
     if unread and overall == "not judged" and all(r.outcome == "pass" for r in rows):
         summary = ("No criterion fails for the inputs that were read, but the lot is not fully judged: some "
                    "inputs could not be read (listed above).")
-    counts = {o: sum(r.outcome == o for r in rows) for o in OUTCOME_ORDER}
+    checks = _check_results(verdicts)
+    scopes, command = (("sample", "lot"), "lot") if lot is not None else (("sample",), "check")
+    skipped = [c for res in checks for c in not_judged_here(res, scopes)]
+    if skipped and overall == "pass":
+        summary = "Every criterion judged here is met."
+    notes = tuple(dict.fromkeys([x for res in checks for x in check_notes(res, leave_out_notes)]
+                                # the instrument model's notes under uncertainty, as the terminal prints them
+                                + [str(x) for res in checks for x in ((_get(res, "uncertainty") or {}).get("notes") or ())]))
     per_sample: dict[str, list[str]] = {}
     for r in rows:
         per_sample.setdefault(r.sample or "(lot)", []).append(r.outcome)
@@ -286,11 +358,11 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
     return VerdictView(
         judged=True, criteria_file=None if not crit_file else str(crit_file),
         identification=tuple((str(k), str(v)) for k, v in dict(ident or {}).items()),
-        overall=overall, summary=summary,
-        counts=f"{len(rows)} check{'s' if len(rows) != 1 else ''}: "
-               + ", ".join(f"{counts[o]} {wording.outcome_text[o][1].lower()}" for o in OUTCOME_ORDER if counts[o]) + ".",
+        overall=overall, summary=summary, counts=_counts_text(rows, wording),
         lot_criteria=lot_table, samples_intro=intro, samples=table, samples_footnote=foot,
-        uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max, wording.noun))
+        uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max, wording.noun),
+        not_judged_summary=not_judged_text(skipped, command) + ":" if skipped else "",
+        not_judged=tuple(c.note for c in skipped), criteria_notes=notes)
 
 
 # --------------------------------------------------------------------------- key figures
@@ -571,7 +643,9 @@ def build_report_view(
         subtitle=(f"{n} spectr{'a' if n != 1 else 'um'}", f"generated {prov.generated_at}",
                   f"lumeval {dict(prov.versions).get('lumeval', '?')}"),
         verdict=verdict_view(rows, verdicts, lot=lot, n=n, overall=overall, grid_max=grid_max,
-                             unread=bool(unreadable), wording=wording),
+                             unread=bool(unreadable), wording=wording,
+                             # the run's own notes are in "Notes on the data" ("all spectra")
+                             leave_out_notes=tuple(str(w) for w in getattr(ev, "run_warnings", ()) or ())),
         aggregate_note=(f"The {n} spectra are drawn together (medians, ranges and distributions), as asked (more "
                         f"than {per_sample_max} spectra); every spectrum's figures are in the tables below and in "
                         "the JSON and CSV outputs.") if aggregate and lot is None else None,

@@ -12,6 +12,7 @@ import io
 import itertools
 import json
 import math
+from collections.abc import Iterable
 from typing import Any
 
 import numpy as np
@@ -201,21 +202,81 @@ def to_csv(ev) -> str:
 #: What the note rows at the end of a CSV report start with (docs/output-formats.md, "CSV").
 CSV_NOTE = "# caution: "
 
+#: What a note row about the run as a whole starts with (the criteria file's warnings, clauses
+#: another command judges, the computation's own warnings): rows just before the cautions.
+CSV_RUN_NOTE = "# note: "
 
-def csv_notes() -> str:
-    """The cautions as the last rows of a CSV report, one row of one cell each:
-    ``# caution: Colour metrics only: ...`` (quoted where the text holds a comma).
+
+def csv_notes(notes: Iterable[str] = ()) -> str:
+    """The note rows that end a CSV report, one row of one cell each: first ``# note: ...`` for
+    each of ``notes`` (text from files inside them is cleaned of control characters,
+    :func:`lumeval.render.safe.csv_text`), then the cautions, ``# caution: Colour metrics only:
+    ...`` (quoted where the text holds a comma). Without ``notes``: the cautions only, the exact
+    tail by which lumeval knows its own CSV reports (:mod:`lumeval.lots.own_reports`).
 
     A CSV report is a table for other programs and for spreadsheets: the header stays the first
-    row and every data row keeps its place; the cautions follow the data, so a spreadsheet shows
+    row and every data row keeps its place; the notes follow the data, so a spreadsheet shows
     them under the table and a program drops the rows whose first cell starts with ``#`` (data
     rows never do: :func:`lumeval.render.safe.csv_first_cell`). lumeval's own CSV readers skip
     such rows. Nothing goes to stderr (docs/output-formats.md)."""
+    from .safe import csv_text
+
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
+    for n in notes:
+        w.writerow([csv_text(CSV_RUN_NOTE + str(n))])  # starts with "#": a spreadsheet reads it as text
     for c in CAUTIONS:
         w.writerow([CSV_NOTE + c])
     return buf.getvalue()
+
+
+#: Columns of ``lumeval check --format csv``, one row per spectrum and clause (docs/criteria.md,
+#: docs/output-formats.md). Stable order: a new column is added at the end.
+CHECK_CSV_COLUMNS = (
+    "spectrum", "source", "verdict", "clause_id", "group", "kind", "label", "figure", "unit", "measured",
+    "lower", "upper", "limit", "margin", "delta_upvp", "u", "p_conformance", "outcome", "reason", "warnings",
+)
+
+
+def _cells(values: Any, n: int) -> list[str]:
+    """Unrounded numbers as CSV cells (NaN, infinities and None: empty); ``n`` empty cells for a
+    missing column."""
+    if values is None:
+        return [""] * n
+    return [repr(v) if math.isfinite(v) else "" for v in np.asarray(values, dtype=float).ravel().tolist()]
+
+
+def check_to_csv(result) -> str:
+    """The CSV report of a check (a :class:`lumeval.criteria.verdicts.CheckResult`): one row per
+    (spectrum, clause) in the columns :data:`CHECK_CSV_COLUMNS`; undefined numbers are empty
+    cells; text cells are neutralised for spreadsheets (:func:`lumeval.render.safe.csv_text`).
+
+    ``warnings`` holds what reading, preparing and evaluating did or found for the row's
+    spectrum (extrapolated range, interpolation, figures outside their validity range), joined
+    with `` | `` as in the inspect CSV, on every row of that spectrum: a verdict is never read
+    apart from them. The notes of the check as a whole (``result.notes``: the criteria file's
+    warnings, clauses judged by another command, the computation's own warnings) are ``# note:``
+    rows after the data, just before the cautions (:func:`csv_notes`)."""
+    from .safe import csv_first_cell as first
+    from .safe import csv_text as t
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(CHECK_CSV_COLUMNS)
+    n = len(result.names)
+    cols = []
+    for r in result.results:
+        lo = _cells([r.lower], 1)[0] if r.lower is not None else ""
+        hi = _cells([r.upper], 1)[0] if r.upper is not None else ""
+        cols.append((r, _cells(r.measured, n), lo, hi, _cells(r.margin, n), _cells(r.details.get("delta_upvp"), n),
+                     _cells(r.uncertainty, n), _cells(r.p_conformance, n), r.reason if r.reason else ("",) * n))
+    ws = result.warnings
+    for i, (name, src, verdict) in enumerate(zip(result.names, result.sources, result.verdicts)):
+        warned = t(" | ".join(ws[i])) if i < len(ws) else ""
+        for r, meas, lo, hi, mg, d, u, p, why in cols:
+            w.writerow((first(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
+                        meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i]), warned))
+    return buf.getvalue() + csv_notes(getattr(result, "notes", ()))
 
 
 def data_rows(text: str) -> list[list[str]]:

@@ -6,18 +6,23 @@ Terminal layout (our own): for each spectrum a verdict line, then one row per cl
 order of the criteria file — requirement, measured value, limit, margin, result. A failure is
 impossible to miss without colour: the result cell reads ``✘ FAIL`` in capitals, the row is
 marked with ``>>`` in the first column, and the verdict line spells the number of failed
-clauses; colour (red/green) only repeats what the words say. An undefined figure prints as
+clauses and of every other outcome that is not a pass (not valid, indeterminate, not judged);
+colour (red/green) only repeats what the words say. Clauses the check leaves to another command
+(over a range of settings, or a whole lot) are named in the overall verdict, which then speaks
+of the requirements judged here only. An undefined figure prints as
 "n/a" with the reason below the table, never as a number. Margins are positive inside the
 acceptance zone.
 """
 
 from __future__ import annotations
 
-import csv
-import io
+import ast
 import json
 import math
-from typing import Any, overload
+import re
+from collections import Counter
+from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -108,6 +113,99 @@ def margin_text(r, i: int) -> str:
     return _f(r.margin[i], "+" + _more(spec, _extra_decimals(r.margin[i], spec)), r.unit)
 
 
+# --------------------------------------------------------------------------- words the terminal and the HTML share
+
+
+@dataclass(frozen=True)
+class NotJudgedHere:
+    """A clause a check leaves to another command (a clause over a range of settings, judged by
+    ``mix`` / ``series``; a lot clause, judged by ``lot``), with the criteria's own note on it."""
+
+    clause_id: str
+    kind: str
+    scope: str
+    judged_by: str
+    note: str
+
+
+#: The note :meth:`lumeval.criteria.model.Criteria.evaluate` writes for a clause it does not judge
+#: per spectrum (ids and kinds as Python literals; tests/test_check_report_clauses.py pins it).
+_NOT_JUDGED_NOTE = re.compile(
+    r"clause (?P<id>'(?:[^'\\]|\\.)*'|\"(?:[^\"\\]|\\.)*\") \(kind (?P<kind>'[^'\\]*')\) applies to a whole "
+    r"(?P<scope>\w+): it is judged by (?P<by>.+), not per spectrum", re.S)
+
+
+def _skip_notes(result) -> list[NotJudgedHere]:
+    out = []
+    for note in getattr(result, "notes", ()) or ():
+        m = _NOT_JUDGED_NOTE.fullmatch(str(note))
+        if m is None:
+            continue
+        try:
+            cid, kind = ast.literal_eval(m["id"]), ast.literal_eval(m["kind"])
+        except (ValueError, SyntaxError):
+            continue
+        out.append(NotJudgedHere(str(cid), str(kind), m["scope"], m["by"], str(note)))
+    return out
+
+
+def not_judged_here(result, judged_scopes: tuple[str, ...] = ("sample",)) -> tuple[NotJudgedHere, ...]:
+    """The clauses of ``result`` (a ``CheckResult``) that were not judged because they apply to
+    a scope the report does not judge (``check``: only ``"sample"``; a lot report also ``"lot"``)."""
+    return tuple(c for c in _skip_notes(result) if c.scope not in judged_scopes)
+
+
+def check_notes(result, leave_out=()) -> tuple[str, ...]:
+    """The notes of ``result`` other than its not-judged clauses (listed on their own): the
+    criteria file's WARNINGs and the run's notes, less those in ``leave_out``."""
+    skip = {c.note for c in _skip_notes(result)} | set(leave_out)
+    return tuple(str(n) for n in getattr(result, "notes", ()) or () if str(n) not in skip)
+
+
+def _ids(ids: list[str], shown: int = 5) -> str:
+    return ", ".join(ids[:shown]) + (f" and {len(ids) - shown} more" if len(ids) > shown else "")
+
+
+def not_judged_text(skipped, command: str = "check") -> str:
+    """``1 requirement not judged by `lumeval check` (Ra-over: judged by `lumeval mix` or
+    `lumeval series`)``: the clauses ``command`` left to other commands, by command."""
+    by: dict[str, list[str]] = {}
+    for c in skipped:
+        by.setdefault(c.judged_by, []).append(c.clause_id)
+    return (f"{_count(len(skipped), 'requirement')} not judged by `lumeval {command}` ("
+            + "; ".join(f"{_ids(ids)}: judged by {who}" for who, ids in by.items()) + ")")
+
+
+#: Every outcome, worst first, as a count says it ("1 failed, 6 not valid, 2 not judged").
+TALLY_WORDS = (("fail", "failed"), ("not valid", "not valid"), ("indeterminate", "indeterminate"),
+               ("not judged", "not judged"), ("pass", "passed"))
+
+
+def outcome_tally(outcomes, *, leave_out: tuple[str, ...] = ("pass",)) -> str:
+    """The counts of ``outcomes`` in words, worst first, without those in ``leave_out``
+    ("" when nothing is left)."""
+    c = Counter(outcomes)
+    return ", ".join(f"{c[o]} {w}" for o, w in TALLY_WORDS if c[o] and o not in leave_out)
+
+
+def verdict_tail(outcomes, verdict: str, skipped: bool = False) -> str:
+    """What one spectrum's verdict line says after its name: how many of its requirements met,
+    or every outcome that is not a pass ("1 of 10 requirements FAILED, 6 not valid, 2 not judged")."""
+    n, c = len(outcomes), Counter(outcomes)
+    of = _count(n, "requirement")
+    if verdict == "pass":
+        here = " judged here" if skipped else ""
+        return f"the requirement{here} is met" if n == 1 else f"all {n} requirements{here} met"
+    if verdict == "fail":
+        more = outcome_tally(outcomes, leave_out=("pass", "fail"))
+        return f"{c['fail']} of {of} FAILED" + (f", {more}" if more else "")
+    if verdict == "not valid":
+        more = outcome_tally(outcomes, leave_out=("pass", "not valid"))
+        return (f"{c['not valid']} of {of} rest{'s' if c['not valid'] == 1 else ''} on figures outside the validity "
+                "range (|Duv| > 0.05)" + (f", {more}" if more else "") + " — not a pass")
+    return f"{c['indeterminate'] + c['not judged']} of {of} could not be decided — not a pass"
+
+
 # --------------------------------------------------------------------------- terminal
 
 
@@ -140,7 +238,8 @@ def check_renderables(result, *, width: int | None = None, evaluation=None, wide
     if getattr(result, "uncertainty", None):
         out.append(_uncertainty_text(result.uncertainty))
     many = len(result.names) > DETAIL_MAX
-    sections = _spectrum_sections(result) if wide or not many else []  # not built for a large run
+    skipped = not_judged_here(result)  # clauses left to `mix`, `series` or `lot`: said in the verdicts
+    sections = _spectrum_sections(result, bool(skipped)) if wide or not many else []  # not built for a large run
     narrow = width is not None and max((min_width(t) for t in sections if not isinstance(t, Text)), default=0) > width
     if not wide and (many or narrow):
         *rows, how_to_see_more = _compact_check(result, evaluation, width, "many" if many else "narrow")
@@ -151,50 +250,41 @@ def check_renderables(result, *, width: int | None = None, evaluation=None, wide
         else:
             out.extend(_not_passed_text(result))
         out.append(how_to_see_more)
-        out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
+        out.append(_overall_text(result.overall, result.verdicts, skipped))
         out.append(_sources_text(result))
         out.append(_cautions_text())
         return out
     out.extend(sections)
-    out.append(_overall_text(result.overall, len(result.names), sum(1 for v in result.verdicts if v == "fail")))
+    out.append(_overall_text(result.overall, result.verdicts, skipped))
     out.append(_sources_text(result))
     out.append(_cautions_text())
     return out
 
 
-def _spectrum_sections(result) -> list:
-    """Per spectrum: the verdict line, the table of its clauses (id, measured, margin and result
-    never wrap; the requirement column wraps, at least :data:`_REQUIREMENT_MIN` wide), notes."""
+def _spectrum_sections(result, skipped: bool = False) -> list:
+    """Per spectrum: the verdict line (every outcome that is not a pass counted; with
+    ``skipped``, a pass is of the requirements judged here), the table of its clauses (id,
+    measured, margin and result never wrap; the requirement column wraps, at least
+    :data:`_REQUIREMENT_MIN` wide), notes."""
     from rich import box
     from rich.table import Table
     from rich.text import Text
 
     out: list[Any] = []
-    n_clauses = len(result.results)
     from .view import check_grid
 
     words = check_grid(result)  # measured values and margins as the HTML report words them
     for i, name in enumerate(result.names):
         v = result.verdict(i)
-        nfail = sum(1 for r in result.results if r.outcome[i] == "fail")
-        nopen = sum(1 for r in result.results if r.outcome[i] in ("indeterminate", "not judged"))
         line = Text("\n")
         if v == "pass":
             line.append("✔ PASS  ", style="bold green")
-            tail = "the requirement is met" if n_clauses == 1 else f"all {n_clauses} requirements met"
-        elif v == "fail":
-            line.append("✘ FAIL  ", style="bold red")
-            tail = f"{nfail} of {_count(n_clauses, 'requirement')} FAILED"
-        elif v == "not valid":
-            nnv = sum(1 for r in result.results if r.outcome[i] == "not valid")
-            line.append("✘ NOT VALID  ", style="bold red")
-            tail = (f"{nnv} of {_count(n_clauses, 'requirement')} rest{'s' if nnv == 1 else ''} on figures outside the validity range "
-                    "(|Duv| > 0.05) — not a pass")
+        elif v in ("fail", "not valid"):
+            line.append(f"{_WORD[v].upper()}  ", style="bold red")
         else:
             line.append(f"? {v.upper()}  ", style="bold yellow")
-            tail = f"{nopen} of {_count(n_clauses, 'requirement')} could not be decided — not a pass"
         line.append(clean(name), style="bold")
-        line.append(f" — {tail}")
+        line.append(f" — {verdict_tail([r.outcome[i] for r in result.results], v, skipped)}")
         if result.sources[i]:
             line.append(f"\n  file: {clean(result.sources[i])}", style="dim")
         out.append(line)
@@ -446,21 +536,28 @@ def _count(n: int, one: str, many: str | None = None) -> str:
     return f"{n} {one if n == 1 else (many or one + 's')}"
 
 
-def _overall_text(overall: str, n: int, nfail: int):
+def _overall_text(overall: str, verdicts, skipped=()):
+    """The overall verdict from the spectra's ``verdicts`` (a failure counts the other spectra
+    that did not pass too); with ``skipped`` (clauses left to other commands) a pass is of the
+    requirements judged here, and every verdict says which were not judged and by what they are."""
     from rich.text import Text
 
+    n, nfail = len(verdicts), sum(1 for v in verdicts if v == "fail")
     t = Text("\n")
     if overall == "pass":
         t.append("OVERALL: ✔ PASS — " + ("the spectrum meets" if n == 1 else f"all {n} spectra meet")
-                 + " every requirement", style="bold green")
+                 + " every requirement" + (" judged here" if skipped else ""), style="bold green")
     elif overall == "fail":
-        t.append(f"OVERALL: ✘ FAIL — {nfail} of {_count(n, 'spectrum', 'spectra')} failed at least one requirement",
-                 style="bold red")
+        more = outcome_tally(verdicts, leave_out=("pass", "fail"))
+        t.append(f"OVERALL: ✘ FAIL — {nfail} of {_count(n, 'spectrum', 'spectra')} failed at least one requirement"
+                 + (f", {more}" if more else ""), style="bold red")
     elif overall == "not valid":
         t.append("OVERALL: ✘ NOT VALID — some requirements rest on figures outside their validity range; "
                  "this is not a pass", style="bold red")
     else:
         t.append(f"OVERALL: ? {overall.upper()} — some requirements could not be decided; this is not a pass", style="bold yellow")
+    if skipped:
+        t.append(f"; {clean(not_judged_text(skipped))}", style="bold")
     return t
 
 
@@ -558,60 +655,6 @@ def check_to_json(result) -> str:
     return json.dumps(check_record(result), indent=2, ensure_ascii=False) + "\n"
 
 
-CHECK_CSV_COLUMNS = (
-    "spectrum", "source", "verdict", "clause_id", "group", "kind", "label", "figure", "unit", "measured",
-    "lower", "upper", "limit", "margin", "delta_upvp", "u", "p_conformance", "outcome", "reason",
-)
-
-
-@overload
-def _cells(values: None) -> None: ...
-
-
-@overload
-def _cells(values: Any) -> list[str]: ...
-
-
-def _cells(values: Any) -> list[str] | None:
-    """Unrounded numbers as CSV cells; NaN/inf/None -> empty."""
-    if values is None:
-        return None
-    a = np.asarray(values, dtype=float)
-    return [repr(v) if math.isfinite(v) else "" for v in a.tolist()]
-
-
-def check_to_csv(result) -> str:
-    """One row per (spectrum, clause), in the columns :data:`CHECK_CSV_COLUMNS`; undefined
-    numbers are empty cells; text cells are neutralised for spreadsheets
-    (:func:`lumeval.render.safe.csv_text`)."""
-    from .safe import csv_first_cell as first
-    from .safe import csv_text as t
-    from .tables import csv_notes
-
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(CHECK_CSV_COLUMNS)
-    verdicts = result.verdicts
-    n = len(result.names)
-    cols = []
-    for r in result.results:
-        empty = [""] * n
-        lo = _cells([r.lower])[0] if r.lower is not None else ""
-        hi = _cells([r.upper])[0] if r.upper is not None else ""
-        cols.append((
-            r,
-            _cells(r.measured),
-            lo,
-            hi,
-            _cells(r.margin),
-            _cells(r.details["delta_upvp"]) if "delta_upvp" in r.details else empty,
-            _cells(r.uncertainty) if r.uncertainty is not None else empty,
-            _cells(r.p_conformance) if r.p_conformance is not None else empty,
-            r.reason if r.reason else ("",) * n,
-        ))
-    for i, name in enumerate(result.names):
-        src, verdict = result.sources[i], verdicts[i]
-        for r, meas, lo, hi, mg, d, u, p, why in cols:
-            w.writerow((first(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
-                        meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i])))
-    return buf.getvalue() + csv_notes()
+# the check CSV is written with the other CSV reports (its per-spectrum warnings column and its
+# "# note:" rows: docs/output-formats.md); kept importable from here
+from .tables import CHECK_CSV_COLUMNS, check_to_csv  # noqa: E402, F401

@@ -508,7 +508,7 @@ def _assert_inert(text: str, where):
 def test_terminal_reports_print_untrusted_text_literally(tmp_path, force_colour):
     spd, crit, claims = hostile_inputs(tmp_path)
     strict = tmp_path / "strict.toml"  # every spectrum fails: the summary of many lists them by name
-    strict.write_text(crit.read_text(encoding="utf-8").replace("min = 80", "min = 100.5"), encoding="utf-8")
+    strict.write_text(crit.read_text(encoding="utf-8").replace("min = 80", "max = -100"), encoding="utf-8")
     env = {**ENV, "COLUMNS": "250"}
     env.pop("NO_COLOR", None)
     if force_colour:

@@ -142,12 +142,39 @@ def new_criteria_text(nominal_cct: int = 3000, level: str = "good", project: str
     a("# [[clause]]")
     a('# figure = "Rf_h1"        # any figure: see docs/criteria.md for the list')
     a("# min = 85")
-    a("#")
-    a("# [[clause]]")
-    a('# kind = "sdcm"')
-    a('# centre = "F3000"          # an IEC 60081 centre with its own ellipse (x 0.440, y 0.403)')
-    a("# max_steps = 3")
+    L.extend(_fixed_centre_example(nominal_cct, sd, lim["sdcm"]))
     return "\n".join(L) + "\n"
+
+
+def _fixed_centre_example(nominal_cct: int, sd, max_steps) -> list[str]:
+    """The commented example of an SDCM clause on a fixed IEC 60081 centre, for the end of the
+    file ``criteria new`` writes: the centre nearest the category's own (``sd.shape_from``),
+    offered only where both the category centre and a Planckian source at the target CCT lie
+    within ``max_steps`` of it (so that uncommenting it keeps the file agreeing with itself);
+    elsewhere a comment says why none is offered. (The example used to be F3000 whatever the
+    CCT: uncommented in a 4000 K file it failed every 4000 K source by about 31 steps.)"""
+    from ..criteria import regions
+
+    name = sd.shape_from
+    x, y = regions.iec60081_ellipse(name).centre_xy
+    at_centre, at_planck = sd.shape_steps
+    where = f"{name} (x {x:.3f}, y {y:.3f})"
+    if max(at_centre, at_planck) <= max_steps:
+        return [
+            "#",
+            f"# An IEC 60081 centre with its own ellipse: {where}, the one nearest the {nominal_cct} K",
+            f"# category; the category's centre is {at_centre:.1f} steps from it.",
+            "# [[clause]]",
+            '# kind = "sdcm"',
+            f'# centre = "{name}"',
+            f"# max_steps = {max_steps}",
+        ]
+    return [
+        "#",
+        f"# No clause on a fixed IEC 60081 centre is offered for {nominal_cct} K: the nearest, {where},",
+        f"# lies {at_centre:.1f} steps from the category's centre, so a {max_steps}-step clause round it would fail",
+        "# sources of this category. Use the SDCM clause above, centred on the category.",
+    ]
 
 
 def explain_markdown(criteria) -> str:
@@ -289,7 +316,12 @@ def register(app: typer.Typer) -> None:
         from ._targets import check_targets
 
         check_targets(files={"--output": output}, inputs=[file])
-        emit(explain_markdown(load_criteria(file)), output, what="tender wording")
+        criteria = load_criteria(file)
+        from ..render.safe import clean
+
+        for w in criteria.warnings:  # clauses that contradict each other: said where the file is written
+            print(f"lumeval: warning: {clean(w)}", file=sys.stderr)
+        emit(explain_markdown(criteria), output, what="tender wording")
 
     app.add_typer(crit, name="criteria")
 

@@ -242,7 +242,79 @@ def _contradictions(clauses, file: str) -> tuple[str, ...]:
                     f"{where}clauses {a.clause_id!r} ({qa.name}) and {b.clause_id!r} ({qb.name}) contradict each other: "
                     "the two quadrangles have no chromaticity in common, so every spectrum fails one of them — keep the "
                     "quadrangle of the product's nominal CCT and remove the other")
+    out += _region_contradictions(clauses, quads, file)
     return tuple(out)
+
+
+def _region_contradictions(clauses, quads, file: str) -> list[str]:
+    """Warnings, like those for two quadrangles, for chromaticity regions of one file that share
+    no chromaticity (per-sample clauses only): an SDCM ellipse apart from a quadrangle, another
+    ellipse or a CCT band (a ``cct_K`` figure clause), and a quadrangle outside a CCT band.
+    Every spectrum then fails one of the two; typically an IEC 60081 centre of another CCT
+    (F3000 in a 4000 K file is about 30 steps from the 4000 K quadrangle). Each ellipse is
+    replaced by a polygon that contains it (:func:`_ellipse_polygon`), so a warning is given
+    only where the regions are certainly apart."""
+    ells = [c for c in clauses if getattr(c, "KIND", "") == "sdcm" and getattr(c, "SCOPE", "sample") == "sample"]
+    bands = [c for c in clauses if getattr(c, "KIND", "") == "figure" and getattr(c, "SCOPE", "sample") == "sample"
+             and c.figure == "cct_K"]
+    out: list[str] = []
+    centre_it = ("centre the ellipse near the product's nominal chromaticity (the SDCM clause `lumeval criteria new` "
+                 "offers is centred on the ANSI category) or remove one of the two")
+
+    def say(a, b, why: str, fix: str) -> None:
+        (first, what_1), (second, what_2) = sorted((a, b), key=lambda p: p[0].line or 0)
+        where = f"{file}:{second.line}: " if second.line else f"{file}: "
+        out.append(f"{where}clauses {first.clause_id!r} ({what_1}) and {second.clause_id!r} ({what_2}) contradict each "
+                   f"other: they have no chromaticity in common{why}, so every spectrum fails one of them — {fix}")
+
+    def apart(span: tuple[float, float], band) -> bool:
+        return span[0] > (math.inf if band.upper is None else band.upper) or \
+            span[1] < (-math.inf if band.lower is None else band.lower)
+
+    for q in quads if bands else ():
+        span = _cct_span(q.quadrangle.corners_upvp)
+        for b in (b for b in bands if apart(span, b)):
+            say((q, q.quadrangle.name), (b, b.label), f" (the quadrangle spans CCT {span[0]:.0f}-{span[1]:.0f} K)",
+                "correct the CCT band or the quadrangle's nominal CCT")
+    polygons = {id(e): _ellipse_polygon(e.ellipse, e.max_steps) for e in ells}
+    for i, e in enumerate(ells):
+        this = (e, f"within {e.max_steps:g} steps of {e.ellipse.name}")
+        for q in quads:
+            if _common_area(q.quadrangle.corners_upvp, polygons[id(e)]) <= 0.0:
+                say((q, q.quadrangle.name), this, "", centre_it)
+        for f in ells[i + 1:]:
+            if _common_area(polygons[id(e)], polygons[id(f)]) <= 0.0:
+                say(this, (f, f"within {f.max_steps:g} steps of {f.ellipse.name}"), "", centre_it)
+        span = _cct_span(polygons[id(e)]) if bands else (-math.inf, math.inf)
+        for b in (b for b in bands if apart(span, b)):
+            say((b, b.label), this, f" (the ellipse spans CCT {span[0]:.0f}-{span[1]:.0f} K)", centre_it)
+    return out
+
+
+def _ellipse_polygon(ellipse, n_steps: float, vertices: int = 64):
+    """A convex polygon in CIE 1976 (u′, v′) that contains the ``n_steps`` ellipse: the regular
+    polygon circumscribing a circle, with its vertices at radius 1/cos(π/m), is mapped by the
+    ellipse's affine map (plain geometry) and then to (u′, v′), a projective map that keeps
+    straight lines straight and the region convex (CIE 15:2004 §8.1)."""
+    from ..metrics.colorimetry import upvp_from_xy
+
+    return upvp_from_xy(ellipse.boundary_xy(n_steps / math.cos(math.pi / vertices), vertices))
+
+
+def _cct_span(polygon_upvp) -> tuple[float, float]:
+    """The CCT range (K) of a convex region of (u′, v′) within the CCT domain, from its vertices
+    (isotemperature lines are straight in CIE 1960 (u, v), so the extremes lie on the boundary of
+    a convex region; Ohno (2014) LEUKOS 10(1):47-55 for CCT). (-inf, inf) where some vertex has
+    no CCT, so that no warning is given."""
+    import numpy as np
+
+    from ..metrics.colorimetry import cct_duv_ohno
+
+    p = np.asarray(polygon_upvp, dtype=float)
+    t = cct_duv_ohno(np.stack([p[:, 0], p[:, 1] / 1.5], axis=-1)).cct_K
+    if not np.all(np.isfinite(t)):
+        return -math.inf, math.inf
+    return float(t.min()), float(t.max())
 
 
 def _common_area(p, q) -> float:

@@ -24,7 +24,7 @@ import numpy as np
 
 from .. import figures
 from ..errors import FINITE_FIX, finite_float, shown
-from . import presets, regions
+from . import plausible, presets, regions
 from .verdicts import NOT_VALID, CheckResult, ClauseResult, margin_to_limits, simple_outcomes
 
 # --------------------------------------------------------------------------- figures
@@ -363,10 +363,14 @@ class FigureClause(ClauseKind):
                 raise ParseError("range", f"must be an array of two numbers, got {shown(r)}", "write e.g. range = [2870, 3220]")
             lo, hi = (finite_float(v, lambda s: ParseError("range", f"limits must be finite numbers, got {s}", FINITE_FIX))
                       for v in r)
+            _refuse_implausible(fig, "range", r, [lo, hi])
             if lo > hi:
                 raise ParseError("range", f"low limit {lo:g} is above high limit {hi:g}", "write range = [low, high] with low ≤ high")
         elif lo is None and hi is None:
             raise ParseError(None, f"clause on {fig!r} has no limit", "add min = ..., max = ... or range = [low, high]")
+        for key, v in (("min", lo), ("max", hi)):
+            if v is not None and key in table:
+                _refuse_implausible(fig, key, [table[key]], [v])
         if lo is not None and hi is not None and lo > hi:
             raise ParseError("min", f"min = {lo:g} is above max = {hi:g}", "the limits contradict each other; swap or correct them")
         unit = figure_unit(fig)
@@ -395,6 +399,13 @@ class FigureClause(ClauseKind):
 
     def sources(self) -> tuple[str, ...]:
         return (describe(self.figure)[1],)
+
+
+def _refuse_implausible(figure: str, key: str, raw: list, values: list[float]) -> None:
+    """Raise :class:`ParseError` for a limit only a slip of units explains (:mod:`.plausible`)."""
+    found = plausible.check_limits(figure, key, raw, values)
+    if found is not None:
+        raise ParseError(key, *found)
 
 
 def _figure_summary() -> list[str]:
@@ -453,7 +464,8 @@ class AnsiQuadrangleClause(ClauseKind):
                 raise ParseError(None, 'nominal_cct = "flexible" needs `target_cct_K`', "add target_cct_K = e.g. 3800")
             lo, hi = regions.ANSI_FLEXIBLE_RANGES_K[ed]
             if not lo <= tgt <= hi:
-                raise ParseError("target_cct_K", f"{tgt:g} K is outside the flexible range {lo:.0f}-{hi:.0f} K of {name}", f"write a value between {lo:.0f} and {hi:.0f}")
+                raise ParseError("target_cct_K", f"{tgt:g} K is outside the flexible range {lo:.0f}-{hi:.0f} K of {name}",
+                                 plausible.kelvin_fix("target_cct_K", tgt, lambda w: lo <= w <= hi) + f"write a value between {lo:.0f} and {hi:.0f}")
             if tol is not None:
                 from ..metrics.colorimetry import CCT_MAX_K, CCT_MIN_K
 
@@ -466,11 +478,14 @@ class AnsiQuadrangleClause(ClauseKind):
                                      f"write a tolerance from 1 to {top:.0f} K (or leave it out for the flexible-CCT formula)")
             label = common["label"] or f"inside {name} flexible {tgt:.0f} K quadrangle"
             return cls(common["id"], label, common["note"], common["line"], None, tgt, tol, ed)
+        if isinstance(nom, str):
+            raise ParseError("nominal_cct", *plausible.quoted_category(nom, table_1, allowed))
         # the categories are int keys: 3000.0 finds 3000 without a float() that a huge integer overflows
         if not (is_number(nom) and nom in table_1):
             other = [e for e in regions.ANSI_EDITIONS if e != ed and is_number(nom) and nom in regions.ansi_table(e)]
             hint = f" (it is one of edition {other[0]})" if other else ""
-            raise ParseError("nominal_cct", f"{shown(nom)} is not a nominal CCT category of {name}{hint}", f"allowed: {allowed}")
+            fix = "" if other or not is_number(nom) else plausible.kelvin_fix("nominal_cct", nom, lambda w: w in table_1)
+            raise ParseError("nominal_cct", f"{shown(nom)} is not a nominal CCT category of {name}{hint}", f"{fix}allowed: {allowed}")
         for k in ("target_cct_K", "tolerance_K"):
             if k in table:
                 raise ParseError(k, f"`{k}` applies only to a flexible category", 'remove it, or set nominal_cct = "flexible"')

@@ -94,6 +94,10 @@ class SdcmSuggestion:
         The IEC 60081 colour whose ellipse shape is used (nearest centre in u'v').
     planckian_steps : float
         Steps from the centre to the Planckian point at the target CCT (Duv 0).
+    shape_steps : tuple of float
+        Steps, by the ``shape_from`` ellipse round its own IEC 60081 centre, of the category
+        centre and of the Planckian point at the target CCT: how far a clause fixed on that
+        centre (``centre = "F4000"``) sits from the category.
     """
 
     centre_xy: tuple[float, float]
@@ -102,6 +106,7 @@ class SdcmSuggestion:
     g22: float
     shape_from: str
     planckian_steps: float
+    shape_steps: tuple[float, float] = (0.0, 0.0)
 
 
 def ansi_duv_band(nominal_cct: int) -> tuple[float, float]:
@@ -144,4 +149,5 @@ def sdcm_suggestion(nominal_cct: int) -> SdcmSuggestion:
     e = regions.iec60081_ellipse(near)
     ell = regions.SdcmEllipse("suggestion", np.array(centre), e.g11, e.g12, e.g22, "")
     pl = xy_from_uv(planckian_uv(np.array([cat.target_cct_K])))
-    return SdcmSuggestion(centre, e.g11, e.g12, e.g22, near, float(ell.steps(pl)[0]))
+    own = e.steps(np.array([centre, pl[0]]))
+    return SdcmSuggestion(centre, e.g11, e.g12, e.g22, near, float(ell.steps(pl)[0]), (float(own[0]), float(own[1])))

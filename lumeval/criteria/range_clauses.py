@@ -263,9 +263,11 @@ class TrackLocusClause(RangeKind):
         m = number(table, "max_abs_duv", positive=True, allow_zero=False)
         if m is None:
             raise ParseError(None, "a track_locus clause needs `max_abs_duv`", "add e.g. max_abs_duv = 0.006")
-        if m > 0.05:
-            raise ParseError("max_abs_duv", f"{m:g} exceeds 0.05, beyond which CCT is not meaningful (CIE 15:2004)",
-                             "write a value up to 0.05, e.g. 0.006")
+        from .plausible import check_limits
+
+        found = check_limits("duv", "max_abs_duv", [table["max_abs_duv"]], [m])  # |Duv| ≤ 0.05 (CIE 15:2004 §9.5)
+        if found is not None:
+            raise ParseError("max_abs_duv", *found)
         label = common["label"] or f"|Duv| ≤ {m:g}"
         return cls(common["id"], label, common["note"], common["line"], m)
 

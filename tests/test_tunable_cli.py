@@ -211,3 +211,20 @@ def test_three_channels_ansi_duv_and_metadata_settings(tmp_path, capsys):
     assert code == 0, err
     doc = json.loads(out)
     assert [s["setting"] for s in doc["settings"]] == [30.0, 60.0, 90.0] and doc["unit"] == "%"
+
+
+def test_mix_and_series_refuse_criteria_they_judge_no_clause_of(tmp_path, capsys, chans):
+    """Criteria holding only lot clauses: mix and series judged nothing and exited 0 (a pass that
+    judged nothing), where check and lot refuse such files; now exit 2 naming the command."""
+    crit = tmp_path / "lot_only.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "spread"\nkind = "lot_max_pairwise"\n'
+                    'max_delta_upvp = 0.004\n', encoding="utf-8")
+    d = tmp_path / "s"
+    d.mkdir()
+    files = [write_wide(d / f"dim_{lv:03d}pct.csv", {f"dim_{lv:03d}pct": w * WARM + (1 - w) * COOL})
+             for lv, w in ((100, 1.0), (10, 0.5))]
+    for argv, command in ((["mix", chans, "--cct", "3000"], "mix"), (["series", *files], "series")):
+        out = tmp_path / f"{command}.html"
+        code, stdout, err = run([*argv, "--criteria", crit, "--html", out], capsys)
+        assert_clean_error(code, err, "lot_only.toml", f"`lumeval {command}`")
+        assert not out.exists()

@@ -135,7 +135,7 @@ def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None, pr
     from .mix import mix, parse_setpoints
 
     paths = [channels] if isinstance(channels, (str, Path)) else list(channels)
-    crit = _load_criteria(criteria)
+    crit = _load_criteria(criteria, "mix")
     targets = parse_setpoints(cct) if isinstance(cct, str) else np.atleast_1d(np.asarray(cct, dtype=float))
     chans, notes = read_channels(paths)
     res = mix(chans, targets, duv=duv, maximise=maximise, notes=notes, progress=progress)
@@ -183,7 +183,7 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
         setting_from = "manifest"
     if setting_from == "manifest" and manifest is None:
         raise UsageError("--setting-from manifest needs --manifest FILE", fix="name the TOML or CSV manifest with --manifest")
-    crit = _load_criteria(criteria)
+    crit = _load_criteria(criteria, "series")
     table, m_unit, m_line = _read_manifest(manifest) if manifest is not None else ({}, "", None)
     if unit is not None and m_unit and _unit_word(unit) != _unit_word(m_unit):
         raise InputError(f"the manifest states the unit {quote(m_unit)} but --unit gives {quote(unit)}",
@@ -229,12 +229,16 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
 # --------------------------------------------------------------------------- helpers
 
 
-def _load_criteria(path):
+def _load_criteria(path, command: str):
+    """The criteria file ``path`` (None: none), refused when ``lumeval COMMAND`` judges none of
+    its clauses (only lot clauses: a run that judged nothing would read as a pass)."""
     if path is None:
         return None
     from ..criteria import load_criteria
 
-    return load_criteria(path)
+    crit = load_criteria(path)
+    crit.require_clauses_for(command, ("sample", "range"))
+    return crit
 
 
 def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -> tuple[float, str]:

@@ -214,21 +214,21 @@ def test_clauses_left_to_another_command_are_said_not_judged(tmp_path, capsys, m
 
 def test_lot_report_does_not_call_its_own_lot_clauses_not_judged():
     """A lot report judges lot clauses: only a check report lists them as left to `lumeval lot`."""
+    from lumeval.criteria.verdicts import NotJudgedHere
     from lumeval.render.verdicts import not_judged_here
 
     class Result:
-        notes = ("clause 'yield' (kind 'lot_yield') applies to a whole lot: it is judged by `lumeval lot`, "
-                 "not per spectrum",
-                 "clause \"it's\" (kind 'figure') applies to a whole range: it is judged by `lumeval mix` or "
-                 "`lumeval series`, not per spectrum",
-                 "WARNING: something else")
+        not_judged = (NotJudgedHere("yield", "lot_yield", "lot", "`lumeval lot`", "note 1"),
+                      NotJudgedHere("it's", "figure", "range", "`lumeval mix` or `lumeval series`", "note 2"))
+        notes = ("note 1", "note 2", "WARNING: something else")
 
     assert [(c.clause_id, c.scope) for c in not_judged_here(Result())] == [("yield", "lot"), ("it's", "range")]
     assert [c.clause_id for c in not_judged_here(Result(), judged_scopes=("sample", "lot"))] == ["it's"]
 
 
-def test_the_note_read_is_the_note_the_criteria_write():
-    """The not-judged clauses are read from the note Criteria.evaluate writes: this pins its form."""
+def test_the_check_records_the_clauses_it_does_not_judge():
+    """Criteria.evaluate records each clause it leaves to another command as data (the reports
+    name them from it), with the note it writes about it."""
     import lumeval
     from lumeval.criteria import parse_criteria
     from lumeval.render.verdicts import not_judged_here

@@ -25,7 +25,14 @@ import numpy as np
 from .. import figures
 from ..errors import FINITE_FIX, finite_float, shown
 from . import plausible, presets, regions
-from .verdicts import NOT_VALID, CheckResult, ClauseResult, margin_to_limits, simple_outcomes
+from .verdicts import (
+    NOT_VALID,
+    CheckResult,
+    ClauseResult,
+    NotJudgedHere,
+    margin_to_limits,
+    simple_outcomes,
+)
 
 # --------------------------------------------------------------------------- figures
 
@@ -771,11 +778,13 @@ class Criteria:
 
         results: list[ClauseResult] = []
         notes: list[str] = [f"WARNING: {w}" for w in self.warnings]
+        skipped: list[NotJudgedHere] = []
         for c in self.clauses:
             if c.SCOPE != "sample":
                 judged_by = getattr(c, "JUDGED_BY", f"`lumeval {c.SCOPE}`")
                 notes.append(f"clause {c.clause_id!r} (kind {c.KIND!r}) applies to a whole {c.SCOPE}: it is judged by "
                              f"{judged_by}, not per spectrum")
+                skipped.append(NotJudgedHere(c.clause_id, c.KIND, c.SCOPE, judged_by, notes[-1]))
                 continue
             note = getattr(c, "note", "") or ""
             for r in c.evaluate(ev):
@@ -786,5 +795,6 @@ class Criteria:
         spectra = getattr(ev, "spectra", None)
         sources = tuple(getattr(spectra, "sources", None) or ("",) * n)
         warnings = tuple(getattr(ev, "warnings", None) or ((),) * n)
-        return CheckResult(names, sources, warnings, tuple(results), dict(self.identification), self.file, notes=tuple(notes))
+        return CheckResult(names, sources, warnings, tuple(results), dict(self.identification), self.file,
+                           notes=tuple(notes), not_judged=tuple(skipped))
 

@@ -160,6 +160,19 @@ def combine_outcomes(outcomes: list[str]) -> str:
 
 
 @dataclass(frozen=True)
+class NotJudgedHere:
+    """A clause a per-spectrum check leaves to another command (a clause over a range of
+    settings, judged by ``mix`` / ``series``; a lot clause, judged by ``lot``), with the note the
+    check writes about it (also in :attr:`CheckResult.notes`)."""
+
+    clause_id: str
+    kind: str
+    scope: str
+    judged_by: str
+    note: str
+
+
+@dataclass(frozen=True)
 class CheckResult:
     """All clause results for N spectra against one criteria file.
 
@@ -187,6 +200,8 @@ class CheckResult:
     uncertainty: dict = field(default_factory=dict)
     #: Notes about the check as a whole (e.g. lot clauses that ``check`` does not judge).
     notes: tuple[str, ...] = ()
+    #: The clauses not judged per spectrum (their notes are among ``notes``).
+    not_judged: tuple[NotJudgedHere, ...] = ()
 
     def __len__(self) -> int:
         return len(self.names)

@@ -16,12 +16,9 @@ acceptance zone.
 
 from __future__ import annotations
 
-import ast
 import json
 import math
-import re
 from collections import Counter
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -116,40 +113,13 @@ def margin_text(r, i: int) -> str:
 # --------------------------------------------------------------------------- words the terminal and the HTML share
 
 
-@dataclass(frozen=True)
-class NotJudgedHere:
-    """A clause a check leaves to another command (a clause over a range of settings, judged by
-    ``mix`` / ``series``; a lot clause, judged by ``lot``), with the criteria's own note on it."""
-
-    clause_id: str
-    kind: str
-    scope: str
-    judged_by: str
-    note: str
+def _skip_notes(result) -> tuple:
+    """The clauses ``result`` (a ``CheckResult``) did not judge per spectrum
+    (:class:`lumeval.criteria.verdicts.NotJudgedHere`, as the check recorded them)."""
+    return tuple(getattr(result, "not_judged", ()) or ())
 
 
-#: The note :meth:`lumeval.criteria.model.Criteria.evaluate` writes for a clause it does not judge
-#: per spectrum (ids and kinds as Python literals; tests/test_check_report_clauses.py pins it).
-_NOT_JUDGED_NOTE = re.compile(
-    r"clause (?P<id>'(?:[^'\\]|\\.)*'|\"(?:[^\"\\]|\\.)*\") \(kind (?P<kind>'[^'\\]*')\) applies to a whole "
-    r"(?P<scope>\w+): it is judged by (?P<by>.+), not per spectrum", re.S)
-
-
-def _skip_notes(result) -> list[NotJudgedHere]:
-    out = []
-    for note in getattr(result, "notes", ()) or ():
-        m = _NOT_JUDGED_NOTE.fullmatch(str(note))
-        if m is None:
-            continue
-        try:
-            cid, kind = ast.literal_eval(m["id"]), ast.literal_eval(m["kind"])
-        except (ValueError, SyntaxError):
-            continue
-        out.append(NotJudgedHere(str(cid), str(kind), m["scope"], m["by"], str(note)))
-    return out
-
-
-def not_judged_here(result, judged_scopes: tuple[str, ...] = ("sample",)) -> tuple[NotJudgedHere, ...]:
+def not_judged_here(result, judged_scopes: tuple[str, ...] = ("sample",)) -> tuple:
     """The clauses of ``result`` (a ``CheckResult``) that were not judged because they apply to
     a scope the report does not judge (``check``: only ``"sample"``; a lot report also ``"lot"``)."""
     return tuple(c for c in _skip_notes(result) if c.scope not in judged_scopes)

@@ -309,3 +309,14 @@ def _parse_fragment(tmp_path, crit):
 
     res = load_criteria(crit).evaluate(lumeval.inspect([str(CANDIDATE_B)]))
     return html5lib.HTMLParser(strict=True, namespaceHTMLElements=False).parseFragment(res._repr_html_())
+
+
+def test_key_figures_say_they_are_rounded_and_criteria_compare_unrounded(tmp_path, capsys, monkeypatch):
+    """A specifier read the key figures' 'Ra 80' beside a failed 'Ra ≥ 80' (the value 79.6) as a
+    wrong verdict: the table says the figures are rounded and the criteria compare unrounded values."""
+    from lumeval.render.report_view import ROUNDED_NOTE
+
+    crit = _write(tmp_path, "ra.toml", 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 80\n')
+    _code, _out, _err, doc = _check(tmp_path, capsys, monkeypatch, [CANDIDATE_B], crit)
+    section = next(s for s in doc.iter("section") if s.get("id") == "figures-table")
+    assert ROUNDED_NOTE in " ".join(_text(section).split())

@@ -393,7 +393,14 @@ def key_figures_view(ev, names: Sequence[str], failed: Sequence[bool | None]) ->
     from .view import figure_descriptions
 
     return KeyFiguresView(note, tuple(tables),
-                          figure_descriptions(ev) + " n/a: undefined for that spectrum (see the notes).")
+                          figure_descriptions(ev) + " n/a: undefined for that spectrum (see the notes). "
+                          + ROUNDED_NOTE)
+
+
+#: Why a key figure can read as meeting a limit its check failed (a specifier's review: Ra 79.6
+#: shown as 80 beside "Ra ≥ 80: FAIL").
+ROUNDED_NOTE = ("Figures here are rounded as the standards report them; criteria compare the unrounded values "
+                "(Ra 79.6 shows as 80 and does not meet Ra ≥ 80): the checks give each measured value in full.")
 
 
 # --------------------------------------------------------------------------- lot statistics

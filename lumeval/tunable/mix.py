@@ -37,11 +37,13 @@ Three or more channels
     (linear-programming theory: the vertices of {w ≥ 0, A w = b} with three equality rows have
     at most three non-zero components). With three channels the solution is unique; with
     more, the polytope is searched for the weights that maximise the chosen figure: first a
-    batch of candidates for every setpoint at once (its vertices and random convex
-    combinations, evaluated by :func:`lumeval.engine.evaluate` in one call), then SLSQP
-    (``scipy.optimize.minimize``) from the best candidate over the convex-combination
-    coefficients, every step of which stays exactly on the target chromaticity. A target
-    outside the convex hull of the channels' chromaticities is *not reachable*.
+    batch of candidates for many setpoints at once (their vertices and random convex
+    combinations, evaluated by :func:`lumeval.engine.evaluate` in chunks of at most
+    :data:`CANDIDATE_BATCH` spectra), then SLSQP (``scipy.optimize.minimize``) from the best
+    candidate over the convex-combination coefficients, every step of which stays exactly on
+    the target chromaticity; a setpoint where SLSQP stops at its iteration limit says so. A
+    target outside the convex hull of the channels' chromaticities is *not reachable*. At most
+    :data:`MAX_CHANNELS` channels are accepted, none proportional to another.
 
 Weights are reported normalised so that the largest is 1.
 """
@@ -50,11 +52,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from itertools import combinations
+from math import comb
 from typing import Any
 
 import numpy as np
 
-from ..errors import InputError, UsageError, plain_number
+from ..errors import InputError, UsageError, plain_number, quote
 from ..spectra.model import SpectrumSet
 
 #: ``--maximise`` choices -> lumeval figure names.
@@ -73,6 +76,25 @@ TWO_CHANNEL_GRID = 2049
 BISECTIONS = 60
 #: Random convex combinations per setpoint in the batched candidate search (K ≥ 4).
 CANDIDATES = 48
+#: Most channels a mix accepts. The candidate search enumerates every channel triple
+#: (C(K, 3) vertices per setpoint) and SLSQP differentiates over the feasible ones, so the cost
+#: grows about as K³. Measured on the 2-core project machine (one setpoint, maximise Rf): 0.1-1 s
+#: at 8-10 channels, 1-1.7 s at 12, up to 5-9 s at 14-16 and 38 s at 20 (docs/tunable.md).
+MAX_CHANNELS = 12
+#: Two channels whose spectra, each divided by its own peak, differ by at most this fraction of
+#: the peak at every wavelength are one channel given twice, or scaled (common practice for
+#: "equal up to a factor": a copy written with six or more significant digits stays below it —
+#: the reviewer's ×2 copy at nine digits differs by 3e-9 — while the noise of a real measurement
+#: alone is 1e-4 of the peak or more).
+PROPORTIONAL_TOL = 1e-5
+#: Most candidate spectra one engine call evaluates in the K ≥ 4 search: setpoints are solved
+#: in chunks of at most this many candidates (at least one setpoint), bounding memory.
+CANDIDATE_BATCH = 20000
+#: SLSQP iterations per setpoint; where the limit is reached the setpoint carries :data:`LIMIT_NOTE`.
+SLSQP_MAXITER = 40
+#: The note of a setpoint whose search stopped at the iteration limit.
+LIMIT_NOTE = ("the optimiser stopped at its iteration limit before converging: the maximised figure may be slightly "
+              "below the best these channels can reach at this setpoint")
 #: Most setpoints one run accepts (a 1 K step over 1000-20000 K is 19,001).
 MAX_SETPOINTS = 20001
 #: Target CCT range: where lumeval reports CCT (Ohno 2014's stated range).
@@ -223,7 +245,8 @@ def target_duvs(targets_K: np.ndarray, duv) -> tuple[np.ndarray, str]:
 
 
 def check_channels(channels: SpectrumSet) -> None:
-    """Refuse fewer than two channels, or a channel with no emission inside 360-830 nm."""
+    """Refuse fewer than two channels, more than :data:`MAX_CHANNELS`, two channels with one
+    name, and a channel proportional to another (:data:`PROPORTIONAL_TOL`)."""
     if len(channels) < 2:
         src = channels.sources[0].partition("#")[0] if len(channels) else None
         raise InputError(
@@ -231,11 +254,53 @@ def check_channels(channels: SpectrumSet) -> None:
             file=src,
             fix="give one wide file with a column per channel (at full drive), or several files",
         )
+    files = [s.partition("#")[0] for s in channels.sources]
+    if len(channels) > MAX_CHANNELS:
+        raise InputError(
+            f"{len(channels)} channels, more than the {MAX_CHANNELS} a mix accepts (the search over their "
+            "combinations grows with the cube of the count)", file=_files_of(files),
+            fix=f"give at most {MAX_CHANNELS} channels (the ones the luminaire really has)")
     names = channels.names
-    dup = sorted({n for n in names if names.count(n) > 1})
-    if dup:
-        raise InputError(f"two channels are both named {dup[0]!r}", file=channels.sources[0].partition("#")[0],
-                         fix="give each channel column its own name")
+    seen: dict[str, int] = {}
+    for j, n in enumerate(names):
+        if n in seen:
+            i = seen[n]
+            where = files[i] if files[i] == files[j] else f"{files[i]} and {files[j]}"
+            raise InputError(f"two channels are both named {quote(n)}", file=where,
+                             fix="give each channel column its own name")
+        seen[n] = j
+    pair = proportional_pair(channels.values)
+    if pair is not None:
+        i, j = pair
+        where = files[i] if files[i] == files[j] else f"{files[i]} and {files[j]}"
+        raise InputError(
+            f"channels {quote(names[i])} and {quote(names[j])} have one spectrum up to a factor (each divided by its "
+            f"peak, they differ by at most {PROPORTIONAL_TOL:g} of it), so no mix can tell them apart", file=where, fix="give each channel once (drop the copy or the scaled copy)")
+
+
+def _files_of(files: list[str], most: int = 3) -> str:
+    """The distinct files, in order, for a message (the first ``most`` and how many more)."""
+    uniq = list(dict.fromkeys(files))
+    text = ", ".join(uniq[:most])
+    return text + (f" and {len(uniq) - most} more files" if len(uniq) > most else "")
+
+
+def proportional_pair(values: np.ndarray) -> tuple[int, int] | None:
+    """The first pair (i, j), i < j, of channels whose spectra, each divided by its own peak,
+    differ by at most :data:`PROPORTIONAL_TOL` at every wavelength (one is the other × k);
+    None if there is none. Channels without a positive peak are skipped (refused elsewhere)."""
+    v = np.asarray(values, dtype=float)
+    peak = v.max(axis=1)
+    good = peak > 0
+    norm = np.where(good[:, None], v / np.where(good, peak, 1.0)[:, None], np.nan)
+    for i in range(v.shape[0] - 1):
+        if not good[i]:
+            continue
+        d = np.max(np.abs(norm[i + 1:] - norm[i][None, :]), axis=1)
+        hit = np.flatnonzero(good[i + 1:] & (d <= PROPORTIONAL_TOL))
+        if hit.size:
+            return i, i + 1 + int(hit[0])
+    return None
 
 
 def channel_tristimulus(channels: SpectrumSet) -> np.ndarray:
@@ -370,13 +435,14 @@ class _Objective:
         return np.where(np.isfinite(fig), fig, -np.inf)
 
 
-def _refine(obj: _Objective, Vf: np.ndarray, lam0: np.ndarray, f0: float) -> tuple[np.ndarray, float]:
+def _refine(obj: _Objective, Vf: np.ndarray, lam0: np.ndarray, f0: float) -> tuple[np.ndarray, float, bool]:
     """SLSQP over convex-combination coefficients λ of the feasible vertices ``Vf`` (T, K).
 
     Every λ ≥ 0 gives weights Vfᵀλ on the target chromaticity (each vertex is on it and the
     constraint is homogeneous), and every lumeval figure is scale-free, so the problem is
     max φ(Vfᵀλ) over λ ≥ 0, Σλ = 1. The gradient is a forward difference computed for all
-    coordinates in one batch.
+    coordinates in one batch. Returns (λ, figure, True if SLSQP stopped at its iteration limit
+    of :data:`SLSQP_MAXITER` — scipy's status 9 — rather than by converging).
     """
     from scipy.optimize import minimize
 
@@ -402,66 +468,90 @@ def _refine(obj: _Objective, Vf: np.ndarray, lam0: np.ndarray, f0: float) -> tup
     res = minimize(
         lambda w: both(w)[0], lam0, jac=lambda w: both(w)[1], method="SLSQP",
         bounds=[(0.0, 1.0)] * T, constraints=[{"type": "eq", "fun": lambda w: np.sum(w) - 1.0, "jac": lambda w: np.ones(T)}],
-        options={"maxiter": 40, "ftol": 1e-9},
+        options={"maxiter": SLSQP_MAXITER, "ftol": 1e-9},
     )
     lam = np.clip(res.x, 0.0, None)
     lam = lam / lam.sum() if lam.sum() > 0 else lam0
     f = float(obj(lam @ Vf)[0])
-    return lam, f
+    return lam, f, int(res.status) == 9
 
 
 def solve_multi_channels(
     wl: np.ndarray, values: np.ndarray, XYZc: np.ndarray, uv_t: np.ndarray, figure: str, *, seed: int = 1,
     progress=None,
-) -> tuple[np.ndarray, np.ndarray, tuple[str, ...]]:
+) -> tuple[np.ndarray, np.ndarray, tuple[str, ...], np.ndarray]:
     """Non-negative weights of K ≥ 3 channels reaching each target (u, v), maximising ``figure``.
 
     Returns (weights (N, K) with the largest 1 and NaN where not reachable, reachable (N,),
-    reason (N,)). See the module docstring for the method. ``progress``: a listener
+    reason (N,), stopped (N,): True where SLSQP ended at its iteration limit). See the module
+    docstring for the method. The setpoints are solved in chunks of at most
+    :data:`CANDIDATE_BATCH` candidate spectra (one engine call each), in order, with one random
+    stream: the result does not depend on the chunk size. ``progress``: a listener
     (:mod:`lumeval.progress`) told of each reachable setpoint solved (four or more channels).
     """
-    from ..progress import SOLVING, report
-
     n, K = uv_t.shape[0], XYZc.shape[0]
-    V, ok = _vertex_solutions(XYZc, uv_t)
-    reach: np.ndarray = np.asarray(ok.any(axis=1))
     W = np.full((n, K), np.nan)
-    if K == 3:
-        W[reach] = V[reach, 0]
-    elif reach.any():
-        obj = _Objective(wl, values, figure)
-        rng = np.random.default_rng(seed)
-        rows = np.flatnonzero(reach)
-        # batched candidates for every reachable setpoint: vertices, centroid, random mixes
-        cand_w, cand_lam = [], []
-        for i in rows:
-            Vf = V[i, ok[i]]
-            T = Vf.shape[0]
-            lams = np.vstack([np.eye(T), np.full((1, T), 1.0 / T), rng.dirichlet(np.ones(T), size=CANDIDATES if T > 1 else 0)])
-            cand_lam.append(lams)
-            cand_w.append(lams @ Vf)
-        vals = obj(np.vstack(cand_w))
-        start = 0
-        for j, i in enumerate(rows):
-            m = cand_lam[j].shape[0]
-            v = vals[start:start + m]
-            start += m
-            b = int(np.argmax(v))
-            Vf = V[i, ok[i]]
-            lam, fbest = cand_lam[j][b], float(v[b])
-            if Vf.shape[0] > 1:
-                lam2, f2 = _refine(obj, Vf, lam, fbest)
-                if f2 > fbest:
-                    lam, fbest = lam2, f2
-            W[i] = lam @ Vf
-            report(progress, SOLVING, j + 1, len(rows))
+    reach = np.zeros(n, dtype=bool)
+    stopped = np.zeros(n, dtype=bool)
+    per = comb(K, 3) + 1 + CANDIDATES  # most candidates one setpoint can have
+    step = max(1, CANDIDATE_BATCH // per)
+    for start in range(0, n, step):  # which setpoints are reachable (a cheap pass, for progress)
+        reach[start:start + step] = _vertex_solutions(XYZc, uv_t[start:start + step])[1].any(axis=1)
+    obj = _Objective(wl, values, figure) if K > 3 else None
+    rng = np.random.default_rng(seed)
+    done = [0, int(reach.sum())]  # reachable setpoints solved, of all reachable
+    for start in range(0, n, step):
+        sl = slice(start, min(n, start + step))
+        V, ok = _vertex_solutions(XYZc, uv_t[sl])
+        r = reach[sl]
+        if K == 3:
+            W[sl][r] = V[r, 0]
+        elif r.any():
+            W[sl], stopped[sl] = _search_chunk(obj, V, ok, rng, progress, done)
     W[reach] = W[reach] / W[reach].max(axis=1, keepdims=True)
     W[~reach] = np.nan
     reasons = tuple(
         "" if r else "not reachable: the target chromaticity lies outside the channels' gamut (no non-negative mix reaches it)"
         for r in reach
     )
-    return W, reach, reasons
+    return W, reach, reasons, stopped
+
+
+def _search_chunk(obj, V: np.ndarray, ok: np.ndarray, rng, progress, done: list[int]):
+    """The K ≥ 4 search for one chunk of setpoints: every candidate of the chunk (vertices,
+    centroid, random convex combinations) in one engine call, then SLSQP from the best of each.
+    Returns (weights (n, K), NaN rows where not reachable; stopped at the iteration limit (n,))."""
+    from ..progress import SOLVING, report
+
+    n, K = V.shape[0], V.shape[2]
+    W = np.full((n, K), np.nan)
+    stopped = np.zeros(n, dtype=bool)
+    rows = np.flatnonzero(ok.any(axis=1))
+    cand_w, cand_lam = [], []
+    for i in rows:
+        Vf = V[i, ok[i]]
+        T = Vf.shape[0]
+        lams = np.vstack([np.eye(T), np.full((1, T), 1.0 / T), rng.dirichlet(np.ones(T), size=CANDIDATES if T > 1 else 0)])
+        cand_lam.append(lams)
+        cand_w.append(lams @ Vf)
+    vals = obj(np.vstack(cand_w))
+    start = 0
+    for j, i in enumerate(rows):
+        m = cand_lam[j].shape[0]
+        v = vals[start:start + m]
+        start += m
+        b = int(np.argmax(v))
+        Vf = V[i, ok[i]]
+        lam, fbest = cand_lam[j][b], float(v[b])
+        if Vf.shape[0] > 1:
+            lam2, f2, limit = _refine(obj, Vf, lam, fbest)
+            stopped[i] = limit
+            if f2 > fbest:
+                lam, fbest = lam2, f2
+        W[i] = lam @ Vf
+        done[0] += 1
+        report(progress, SOLVING, done[0], done[1])
+    return W, stopped
 
 
 # --------------------------------------------------------------------------- the whole job
@@ -511,6 +601,7 @@ def mix(
     tduv_all, duv_note = target_duvs(targets, duv)  # validates --duv whatever the channel count
     if K == 2:
         W, reach, reasons = solve_two_channels(XYZc, targets)
+        stopped = np.zeros(targets.shape, dtype=bool)
         tduv = np.full(targets.shape, np.nan)
         fig = None
         method = ("two channels: weights (1−f, f); CCT(f) by Ohno (2014) on the mix's exact XYZ, "
@@ -525,8 +616,8 @@ def mix(
         run_notes.append(duv_note)
         uv_t = uv_from_cct_duv(targets, tduv)
         fig = MAXIMISE[maximise]
-        W, reach, reasons = solve_multi_channels(channels.wavelengths_nm, channels.values, XYZc, uv_t, fig,
-                                                 progress=progress)
+        W, reach, reasons, stopped = solve_multi_channels(channels.wavelengths_nm, channels.values, XYZc, uv_t, fig,
+                                                          progress=progress)
         if K == 3:
             method = ("three channels: the unique non-negative weights reaching the target (u, v) "
                       "(two linear equations in XYZ, CIE 15:2004 §8.1; target point by Ohno 2014 Eqs. 13-14)")
@@ -544,8 +635,10 @@ def mix(
         names = tuple(n for n, r in zip(_names(targets, tduv), reach) if r)
         src = tuple("mix: " + ", ".join(f"{c} × {w:.4f}" for c, w in zip(channels.names, row)) for row in wr)
         chan_notes = tuple(dict.fromkeys(x for ns in channels.notes for x in ns))
+        # a setpoint whose search stopped at the iteration limit says so with its own figures
+        per_notes = tuple(chan_notes + ((LIMIT_NOTE,) if s else ()) for s in stopped[reach])
         ss = SpectrumSet(channels.wavelengths_nm, wr @ channels.values, names, src,
-                         tuple(chan_notes for _ in names), tuple({} for _ in names), prepared=True)
+                         per_notes, tuple({} for _ in names), prepared=True)
         ev = evaluate(ss, progress=progress)
     return MixResult(channels, targets, tduv, reach, reasons, W, ev, index, fig, method, tuple(run_notes))
 

@@ -214,9 +214,14 @@ class LotAccumulator:
     def metadata_table(self):
         """The archive metadata of every sample as one Arrow table (None when no input had
         metadata columns); samples from other inputs, or from files without a column, get
-        nulls."""
+        nulls. A column whose types differ between the files and cannot be unified is carried
+        as text (:func:`_join_metadata`; its note is added to the lot by :meth:`finish`)."""
+        return self._joined_metadata()[0]
+
+    def _joined_metadata(self) -> tuple[Any, tuple[str, ...]]:
+        """(metadata table or None, notes on the columns carried as text)."""
         if not any(m is not None for _, m in self._meta):
-            return None
+            return None, ()
         import pyarrow as pa
 
         first = next(m for _, m in self._meta if m is not None)
@@ -226,11 +231,7 @@ class LotAccumulator:
             if m is None:  # samples from other inputs: null in every column
                 m = pa.table({filler: pa.nulls(n)}) if filler is not None else pa.table({})
             parts.append(m)
-        try:  # columns missing from a part become nulls; numeric types widen
-            return pa.concat_tables(parts, promote_options="permissive")
-        except (pa.ArrowException, TypeError):  # clashing types across files: keep them as text
-            return pa.concat_tables([p.cast(pa.schema([(c, pa.string()) for c in p.column_names])) for p in parts],
-                                    promote_options="permissive")
+        return _join_metadata(parts)
 
     def finish(self, criteria=None, *, sample_criteria=None, unreadable=(), inputs=None, ellipse=None,
                nominal_xy=None, uncertainty=None, **extra):
@@ -273,6 +274,11 @@ class LotAccumulator:
         stats = lot_statistics(figures, xy, ellipse=ellipse, nominal_xy=nominal_xy,
                                verdicts=check.verdicts if check is not None else None,
                                outside_validity=self._outside.columns()[0].copy())
+        metadata, meta_notes = self._joined_metadata()
+        if meta_notes:  # metadata columns carried as text: said with the lot's other notes
+            from dataclasses import replace
+
+            stats = replace(stats, notes=tuple(stats.notes) + meta_notes)
         lot_results: tuple = ()
         has_yield = False
         if criteria is not None:
@@ -294,8 +300,165 @@ class LotAccumulator:
             criteria_file=getattr(criteria, "file", None) if criteria is not None else None,
             identification=dict(getattr(criteria, "identification", {}) or {}) if criteria is not None else {},
             has_yield_clause=has_yield,
-            metadata=self.metadata_table(),
+            metadata=metadata,
             evaluation=join_evaluations(self._evaluations) if self._evaluations else None,
             run_warnings=tuple(self.run_warnings),
             **extra,
         )
+
+
+# --- joining the metadata of the files of an archive ------------------------------------------
+
+def _join_metadata(parts: list) -> tuple[Any, tuple[str, ...]]:
+    """Concatenate the metadata tables of the batches (one file each) into one table.
+
+    Columns missing from a part become nulls; types widen as Arrow's permissive promotion does
+    (int32 and int64, int64 and double...); a dictionary-encoded column and a plain one of
+    the same value type are joined as plain values. A column whose types cannot be unified
+    (text in one file, int64 in another; a list in one, a number in another) is carried as
+    text in every part (:func:`_as_text`), with a note naming it and its types.
+    """
+    import pyarrow as pa
+
+    try:
+        return pa.concat_tables(parts, promote_options="permissive"), ()
+    except (pa.ArrowException, TypeError):
+        pass
+    types: dict[str, list] = {}
+    for p in parts:
+        for field in p.schema:
+            seen = types.setdefault(field.name, [])
+            if field.type not in seen:
+                seen.append(field.type)
+    clashing = {c: ts for c, ts in types.items() if len(ts) > 1}
+    text = {c for c, ts in clashing.items() if _unified(ts) is None}
+    for attempt in (text, set(clashing)):  # the second: should a cast fail although the types unify
+        try:
+            joined = pa.concat_tables([_with_types(p, clashing, attempt) for p in parts],
+                                      promote_options="permissive")
+        except (pa.ArrowException, TypeError):
+            continue
+        return joined, tuple(_text_note(c, clashing[c]) for c in types if c in attempt)
+    # not reached with Arrow's types (every column in question is now text); kept as a guard
+    raise RuntimeError("metadata columns could not be joined")  # pragma: no cover
+
+
+def _text_note(column: str, types: list) -> str:
+    from ..errors import quote
+
+    shown = ", ".join(str(t) for t in types if not _is_null(t))
+    return (f"metadata column {quote(column)} is carried as text in every output: the files of the "
+            f"archive give it types that cannot be unified ({shown})")
+
+
+def _is_null(t) -> bool:
+    import pyarrow as pa
+
+    return bool(pa.types.is_null(t))
+
+
+def _plain(t):
+    """A dictionary type's value type (the encoding is not the type a reader sees)."""
+    import pyarrow as pa
+
+    return t.value_type if pa.types.is_dictionary(t) else t
+
+
+def _unified(types: list):
+    """The type Arrow's permissive promotion gives ``types`` (dictionaries as their values),
+    or None when they cannot be unified."""
+    import pyarrow as pa
+
+    try:
+        schema = pa.unify_schemas([pa.schema([("c", _plain(t))]) for t in types], promote_options="permissive")
+    except (pa.ArrowException, TypeError):
+        return None
+    return schema.field("c").type
+
+
+def _with_types(part, clashing: dict, text: set):
+    """``part`` with its columns in ``text`` as text and its other clashing dictionary columns
+    decoded (so that Arrow joins them with the plain columns of other parts)."""
+    import pyarrow as pa
+
+    for j, name in enumerate(part.column_names):
+        if name not in clashing:
+            continue
+        col = part.column(j)
+        if name in text:
+            col = _as_text(col)
+        elif pa.types.is_dictionary(col.type):
+            col = col.cast(col.type.value_type)
+        else:
+            continue
+        part = part.set_column(j, name, col)
+    return part
+
+
+def _as_text(col):
+    """A metadata column (pyarrow ChunkedArray) as text, value by value as a reader expects;
+    nulls stay null.
+
+    Text stays text; numbers, booleans, decimals and dates as Arrow writes them (``1.5``,
+    ``true``; a NaN or infinite float is null, as in the JSON); timestamps in ISO 8601 form
+    (``2024-01-02T03:04:05.000000``); binary as its text when it is valid UTF-8, else as ``0x``
+    and its hexadecimal digits; lists, structs and maps as their JSON-like text
+    (``["a", "b"]``). Vectorised with Arrow compute; binary is converted once per distinct
+    value, nested values one by one (both are rare in metadata).
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    t = col.type
+    if pa.types.is_dictionary(t):
+        return _as_text(col.cast(t.value_type))
+    if pa.types.is_null(t):
+        return pa.chunked_array([pa.nulls(len(col), pa.string())])
+    if pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t):
+        return col.cast(pa.string())
+    if pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t) \
+            or pa.types.is_binary_view(t):
+        enc = pc.dictionary_encode(col.cast(pa.binary()) if not pa.types.is_binary(t) else col).combine_chunks()
+        words = pa.array([_bytes_text(b) for b in enc.dictionary.to_pylist()], pa.string())
+        return pa.chunked_array([pc.take(words, enc.indices)])
+    if pa.types.is_nested(t):
+        return pa.chunked_array([pa.array([None if v is None else _json_text(v) for v in col.to_pylist()],
+                                          pa.string())])
+    try:
+        text = col.cast(pa.string())
+    except (pa.ArrowException, TypeError):  # an exotic type Arrow does not write as text
+        return pa.chunked_array([pa.array([None if v is None else str(v) for v in col.to_pylist()], pa.string())])
+    if pa.types.is_floating(t):
+        text = pc.if_else(pc.is_finite(col), text, pa.scalar(None, pa.string()))
+    elif pa.types.is_timestamp(t):
+        text = pc.replace_substring(text, " ", "T", max_replacements=1)
+    return text
+
+
+def _bytes_text(b: bytes) -> str:
+    """Binary as its UTF-8 text when it is valid UTF-8, else ``0x`` and its hex digits."""
+    try:
+        return b.decode("utf-8")
+    except UnicodeDecodeError:
+        return "0x" + b.hex()
+
+
+def _json_text(value) -> str:
+    """A nested value (list, struct, map) as JSON-like text: ``["a", "b"]``, ``{"k": 1}``."""
+    import json
+    import math
+
+    def plain(v):
+        if isinstance(v, float):
+            return v if math.isfinite(v) else None
+        if isinstance(v, bytes):
+            return _bytes_text(v)
+        if isinstance(v, dict):
+            return {str(k): plain(x) for k, x in v.items()}
+        if isinstance(v, list | tuple):
+            return [plain(x) for x in v]
+        if v is None or isinstance(v, bool | int | str):
+            return v
+        return v.isoformat() if hasattr(v, "isoformat") else str(v)
+
+    return json.dumps(plain(value), ensure_ascii=False)

@@ -114,6 +114,8 @@ def test_text_against_int64_and_a_list_column(tmp_path, capsys, plain):
     assert table.schema.field("station").type == pa.string()
     assert table.column("station").to_pylist() == ["S-1", "S-2", None, "7", "8", None]
     assert table.schema.field("tags").type == pa.list_(pa.string())  # one type: kept
+    # in the JSON a kept list reads as the JSON-like text a clashing one gets (was Python's "['x', 'y']")
+    assert [s["metadata"].get("tags") for s in doc["samples"]][:2] == ['["x", "y"]', "[]"]
     notes = _notes(doc)
     assert len(notes) == 1 and "'station'" in notes[0] and "int64" in notes[0] and "string" in notes[0], notes
     _same_figures(doc, plain)
@@ -164,3 +166,13 @@ def test_dictionary_text_against_plain_text_with_a_binary_column(tmp_path, capsy
     notes = _notes(doc)
     assert len(notes) == 1 and "'blob'" in notes[0] and "binary" in notes[0], notes
     _same_figures(doc, plain)
+
+
+def test_json_safe_writes_binary_and_nested_values_as_the_text_rules_say():
+    """A metadata value of a kept binary or nested type reaches the JSON as the same text a column
+    carried as text gets (was Python's repr: "b'\\xff'", "['x']")."""
+    from lumeval.spectra.archive import json_safe
+
+    assert json_safe(b"\xff\x00") == "0xff00" and json_safe("é".encode()) == "é"
+    assert json_safe(["x", 'q"uote']) == '["x", "q\\"uote"]' and json_safe({"k": 1.5}) == '{"k": 1.5}'
+    assert json_safe(float("nan")) is None and json_safe(3) == 3

@@ -409,6 +409,9 @@ def _as_text(col):
     import pyarrow as pa
     import pyarrow.compute as pc
 
+    from ..spectra.archive import bytes_text as _bytes_text
+    from ..spectra.archive import nested_text as _json_text
+
     t = col.type
     if pa.types.is_dictionary(t):
         return _as_text(col.cast(t.value_type))
@@ -433,32 +436,3 @@ def _as_text(col):
     elif pa.types.is_timestamp(t):
         text = pc.replace_substring(text, " ", "T", max_replacements=1)
     return text
-
-
-def _bytes_text(b: bytes) -> str:
-    """Binary as its UTF-8 text when it is valid UTF-8, else ``0x`` and its hex digits."""
-    try:
-        return b.decode("utf-8")
-    except UnicodeDecodeError:
-        return "0x" + b.hex()
-
-
-def _json_text(value) -> str:
-    """A nested value (list, struct, map) as JSON-like text: ``["a", "b"]``, ``{"k": 1}``."""
-    import json
-    import math
-
-    def plain(v):
-        if isinstance(v, float):
-            return v if math.isfinite(v) else None
-        if isinstance(v, bytes):
-            return _bytes_text(v)
-        if isinstance(v, dict):
-            return {str(k): plain(x) for k, x in v.items()}
-        if isinstance(v, list | tuple):
-            return [plain(x) for x in v]
-        if v is None or isinstance(v, bool | int | str):
-            return v
-        return v.isoformat() if hasattr(v, "isoformat") else str(v)
-
-    return json.dumps(plain(value), ensure_ascii=False)

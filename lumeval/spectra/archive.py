@@ -356,14 +356,47 @@ def _names(batch, layout: Layout, file: str, first_row: int) -> list[str]:
 
 
 def json_safe(v):
-    """A metadata value as JSON-friendly Python (numbers, text, booleans; others as text)."""
+    """A metadata value as JSON-friendly Python (numbers, text, booleans; others as text:
+    binary by :func:`bytes_text`, lists, structs and maps by :func:`nested_text`)."""
     if v is None or isinstance(v, (bool, int, str)):
         return v
     if isinstance(v, float):
         return v if math.isfinite(v) else None
+    if isinstance(v, bytes):
+        return bytes_text(v)
+    if isinstance(v, (list, tuple, dict)):
+        return nested_text(v)
     if hasattr(v, "isoformat"):
         return v.isoformat()
     return str(v)
+
+
+def bytes_text(b: bytes) -> str:
+    """Binary as its UTF-8 text when it is valid UTF-8, else ``0x`` and its hex digits."""
+    try:
+        return b.decode("utf-8")
+    except UnicodeDecodeError:
+        return "0x" + b.hex()
+
+
+def nested_text(value) -> str:
+    """A nested value (list, struct, map) as JSON-like text: ``["a", "b"]``, ``{"k": 1}``."""
+    import json
+
+    def plain(v):
+        if isinstance(v, float):
+            return v if math.isfinite(v) else None
+        if isinstance(v, bytes):
+            return bytes_text(v)
+        if isinstance(v, dict):
+            return {str(k): plain(x) for k, x in v.items()}
+        if isinstance(v, list | tuple):
+            return [plain(x) for x in v]
+        if v is None or isinstance(v, bool | int | str):
+            return v
+        return v.isoformat() if hasattr(v, "isoformat") else str(v)
+
+    return json.dumps(plain(value), ensure_ascii=False)
 
 
 def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_metadata: bool) -> ArchiveBatch:

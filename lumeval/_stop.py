@@ -23,6 +23,7 @@ before they commit), and a run that went on to the end after a stop still ends a
 from __future__ import annotations
 
 import _thread
+import os
 import signal
 import sys
 import threading
@@ -126,7 +127,32 @@ def install() -> None:
 
 def settle() -> None:
     """The run is over (its outputs written or not): a stop arriving now, or one being delivered
-    again, changes nothing and must not end in a traceback."""
+    again, changes nothing and must not end in a traceback.
+
+    After a stop, the command's exit must not wait for work left behind: the interpreter waits
+    at exit for every thread still running (an executor's thread reading from a worker process
+    that was stopped part-way through sending its result never ended: the command stayed alive,
+    deaf to further signals). So a watchdog ends the process with the stop's exit code
+    (128 + N, as the command returns) if it is still alive :data:`EXIT_GRACE` seconds from now;
+    the outputs are settled by then and every message is on stderr."""
     for name in ("SIGTERM", "SIGHUP", "SIGINT"):
         if hasattr(signal, name):
             signal.signal(getattr(signal, name), signal.SIG_IGN)
+    signum = _received
+    if signum is not None:
+        watchdog = threading.Timer(EXIT_GRACE, _exit_now, args=(128 + signum,))
+        watchdog.daemon = True
+        watchdog.start()
+
+
+#: Seconds a stopped command may take to exit after :func:`settle` before it is ended at once.
+EXIT_GRACE = 5.0
+
+
+def _exit_now(code: int) -> None:
+    for stream in (sys.stderr, sys.stdout):
+        try:
+            stream.flush()
+        except Exception:  # a closed or broken stream: nothing more can be said on it
+            pass
+    os._exit(code)

@@ -84,19 +84,44 @@ class WorkerPool:
                               fix="run again; if it recurs, use --processes 1 or free some memory") from None
 
     def terminate(self) -> None:
-        """Stop the workers at once (results not yet taken are dropped)."""
-        procs = list((getattr(self._ex, "_processes", None) or {}).values())
-        self._ex.shutdown(wait=False, cancel_futures=True)
+        """Stop the workers at once (results not yet taken are dropped), and the executor's
+        thread with them.
+
+        The workers are killed (SIGKILL: a worker held by SIGSTOP ends too, where SIGTERM would
+        wait for it to be resumed). A worker killed part-way through sending a result leaves the
+        executor's thread reading the rest of it from the result pipe, and this process holds
+        that pipe's write end too (the workers were forked with it): the read would never end,
+        and the interpreter, which waits for that thread at exit, would never exit (seen after
+        Ctrl-C, deaf to further signals). So this process's copy of the write end is closed
+        once the workers are gone: the read ends (end of file), the executor counts its pool
+        as broken and its thread ends."""
+        ex = self._ex
+        procs = list((getattr(ex, "_processes", None) or {}).values())
+        results = getattr(ex, "_result_queue", None)
+        thread = getattr(ex, "_executor_manager_thread", None)
+        ex.shutdown(wait=False, cancel_futures=True)
         for p in procs:
             if p.is_alive():
-                p.terminate()
+                p.kill()
         for p in procs:
             p.join()
+        writer = getattr(results, "_writer", None)
+        if writer is not None:
+            writer.close()
+        if thread is not None:
+            thread.join(THREAD_GRACE)
+
+
+#: Seconds :meth:`WorkerPool.terminate` waits for the executor's thread to end (it ends at once
+#: unless a process forked later still holds the result pipe; :func:`lumeval._stop.settle` then
+#: keeps the command's exit from waiting for it).
+THREAD_GRACE = 2.0
 
 
 def worker_init() -> None:
-    """Workers leave Ctrl-C to the main process, which stops them, and end quietly when it
-    terminates them (SIGTERM): they do not keep the command's own signal handlers."""
+    """Workers leave Ctrl-C to the main process, which stops them (:meth:`WorkerPool.terminate`),
+    and end quietly on SIGTERM (sent to the whole process group, say): they do not keep the
+    command's own signal handlers."""
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)

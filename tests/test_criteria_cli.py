@@ -76,7 +76,7 @@ BAD = [
     ("[[clause]]\nmin = 3\n", 1, None, ["has no `kind`"]),
     ("[[clause]]\nkind = 'sdcn'\n", 2, "kind", ["did you mean 'sdcm'"]),
     ("[[clause]]\nfigure = 'Ra'\nmni = 80\n", 3, "mni", ["did you mean 'min'", "allowed:"]),
-    ("[[clause]]\nfigure = 'Ra'\nmin = 80\ncentre = 'F3000'\n", 4, "centre", ["belongs to kind 'sdcm'"]),
+    ("[[clause]]\nfigure = 'Ra'\nmin = 80\ncentre = 'F3000'\n", 4, "centre", ["'centre' belongs to sdcm clauses"]),
     ("[[clause]]\nfigure = 'R_9'\nmin = 50\n", 2, "figure", ["did you mean 'R9'"]),
     ("[[clause]]\nfigure = 'Rcs_h17'\nmin = 50\n", 2, "figure", ["unknown figure"]),
     ("[[clause]]\nfigure = 'Ra'\nmin = 95\nmax = 90\n", 3, "min", ["above max", "contradict"]),
@@ -347,7 +347,7 @@ def test_explain_every_region_kind(tmp_path, capsys):
     assert code == 0, err
     assert "flexible-CCT quadrangle for 3800 K" in out
     assert "MacAdam (1942) ellipse 14" in out and "Wyszecki & Stiles" in out
-    assert "user ellipse" in out and "g11 = 3.9e+05" in out
+    assert "the ellipse centred at x = 0.4400, y = 0.4000" in out and "g11 = 3.9e+05" in out
     assert "Fidelity priority level 1 (F1): Rf ≥ 95; Rf,h1 ≥ 90" in out
 
 

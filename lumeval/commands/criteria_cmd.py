@@ -181,7 +181,7 @@ def explain_markdown(criteria) -> str:
     """Tender wording (Markdown) for ``criteria``: one numbered requirement per clause, the
     measurement requirements (:func:`lumeval.criteria.explain.measurement_requirements`), the
     method of evaluation, the standards relied on and the cautions."""
-    from ..criteria.explain import measurement_requirements
+    from ..criteria.explain import measurement_requirements, tender_words
     from ..engine import METHOD_LABELS, METHODS
     from ..render.safe import clean
     from ..render.tables import CAUTIONS
@@ -204,10 +204,13 @@ def explain_markdown(criteria) -> str:
     )
     a("")
     sources: list[str] = []
+    labelled: frozenset[str] = getattr(criteria, "labelled", frozenset())
     for n, c in enumerate(criteria.clauses, 1):
-        text = c.tender_text()
-        a(f"{n}. **{clean(c.clause_id)}** — {clean(text)}" + (f" *{clean(c.note)}*" if c.note else ""))
-        for s in c.sources():
+        text = tender_words(c.tender_text())
+        # the requirement's name: its id, and the file's own label for it when it gives one
+        name = f"{c.clause_id}: {c.label}" if c.clause_id in labelled and c.label != c.clause_id else c.clause_id
+        a(f"{n}. **{clean(name)}** — {clean(text)}" + (f" *{clean(c.note)}*" if c.note else ""))
+        for s in map(tender_words, c.sources()):
             if s and s not in sources:
                 sources.append(s)
     a("")
@@ -215,10 +218,10 @@ def explain_markdown(criteria) -> str:
     a("## Method of evaluation")
     a("")
     for k, v in METHODS.items():
-        a(f"- {METHOD_LABELS.get(k, k.replace('_', ' ').capitalize())}: {v}.")
+        a(f"- {METHOD_LABELS.get(k, k.replace('_', ' ').capitalize())}: {tender_words(v)}.")
     rule = (getattr(criteria, "uncertainty", None) or {}).get("decision")
     if rule is not None and hasattr(rule, "summary"):
-        a(f"- Decision rule: {rule.summary()}; measurement uncertainty from the instrument model (docs/uncertainty.md).")
+        a(f"- Decision rule: {rule.summary()}; measurement uncertainty from the instrument model.")
     else:
         a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty.")
     a(

@@ -13,10 +13,30 @@ rule of thumb without a published source is marked "common practice, no source".
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 #: How a placeholder reads in the text; the specifier replaces each before issuing the tender.
 PLACEHOLDER = "**[SPECIFY: {}]**"
+
+
+# Pointers into lumeval's own code and documentation, which a tender has no use for (a review
+# found "lumeval.criteria.regions; secondary" and "docs/uncertainty.md" in tender text): a module
+# named as where a secondary value lives reads "secondary source"; other pointers are dropped.
+_TENDER_POINTERS = (
+    (re.compile(r"\(lumeval(?:\.\w+)+;\s*secondary\)"), "(secondary source)"),
+    (re.compile(r"\s*\(lumeval(?:\.\w+)+\)"), ""),
+    (re.compile(r"[;,]\s*see docs/[\w./-]+"), ""),
+    (re.compile(r"\s*\((?:see )?docs/[\w./-]+\)"), ""),
+)
+
+
+def tender_words(text: str) -> str:
+    """``text`` (a source, a method, a requirement) as a tender states it: without lumeval's
+    module names and documentation paths (:data:`_TENDER_POINTERS`)."""
+    for pattern, by in _TENDER_POINTERS:
+        text = pattern.sub(by, text)
+    return text
 
 
 def specify(what: str) -> str:
@@ -96,12 +116,12 @@ def _range_and_step(n: _Needs) -> list[str]:
                  "from tables at 1 nm and 5 nm (quoted from memory);")
     if n.melanopic:
         L.append("  - melanopic quantities: the CIE S 026/E:2018 action spectrum over 380–780 nm at 1 nm "
-                 "(the table lumeval uses, lumeval/data/CIE_a-opic_action_spectra.csv);")
+                 "(the table lumeval uses);")
     L.append("  - lumeval reads any uniform or irregular step and interpolates it to 1 nm (Sprague, CIE "
              "167:2005; cubic spline for irregular steps); data coarser than 5 nm lose narrow emission lines, "
              "which is why a step of 5 nm or finer is asked for (common practice, no source for a limit). "
              "Data that stop short of 380–780 nm are extended by their end values and flagged in every "
-             "report (docs/input-files.md).")
+             "report.")
     L.append(f"  - Instrument bandwidth (FWHM): not more than {specify('e.g. 5 nm')}; a bandwidth about "
              "equal to the step is usual (common practice, no source).")
     return L
@@ -132,10 +152,10 @@ def _instrument(n: _Needs) -> list[str]:
         what = " and ".join(x for x, on in (("spectral irradiance in W/(m²·nm) at the stated position", n.irradiance),
                                             ("spectral radiance in W/(sr·m²·nm)", n.radiance)) if on)
         L.append(f"  - Absolute quantities are judged: the data must be {what} (absolute calibration), "
-                 "with the unit in the file's header, as lumeval reads it (docs/input-files.md); relative data "
+                 "with the unit in the file's header, as lumeval reads it; relative data "
                  "give no illuminance, luminance or melanopic EDI/EDL.")
     if n.uncertainty:
-        L.append("  - The criteria decide under measurement uncertainty (docs/uncertainty.md): the bidder states "
+        L.append("  - The criteria decide under measurement uncertainty: the bidder states "
                  "the instrument's uncertainties as the instrument model needs them (wavelength offset, noise, "
                  "bandwidth, stray light, photometric scale), or the buyer's model in the criteria file applies.")
     return L
@@ -160,7 +180,7 @@ def _format(n: _Needs) -> list[str]:
             "smoothing, no resampling beyond the instrument's own, no normalisation that hides clipping). "
             f"Delivered {specify('how and when: e.g. with the bid, by e-mail, within 10 working days of sampling')}, "
             "together with the measurement report stating the conditions above. lumeval checks such files with "
-            "`lumeval inspect --validate-only` (docs/input-files.md)."]
+            "`lumeval inspect --validate-only`."]
 
 
 def measurement_requirements(criteria) -> list[str]:

@@ -12,7 +12,8 @@ import re
 
 from .._toml import loads as toml_loads
 from .._toml import read_text
-from ..errors import CriteriaError, shown
+from ..errors import CriteriaError, quote, shown
+from . import plausible
 from .model import CLAUSE_KINDS, COMMON_KEYS, Criteria, ParseError, suggest
 
 #: Format marker: ``lumeval_criteria = 1`` (optional; other values are refused).
@@ -101,10 +102,21 @@ class _Where:
         return CriteriaError(problem, file=self.file, line=self.line(path, key), field=key, fix=fix)
 
 
-def _unknown_key(where: _Where, path: tuple, key: str, allowed, what: str, other_kinds: str = "") -> CriteriaError:
+def _unknown_key(where: _Where, path: tuple, key: str, allowed, what: str, owners=()) -> CriteriaError:
+    """An unknown key; one that another clause kind takes (``owners``) is said to belong there,
+    with no spelling suggestion (a review found `min` in a quadrangle clause answered with "did
+    you mean 'kind'?")."""
+    if owners:
+        kinds = " and ".join(f"{o} clauses" for o in owners)
+        return where.error(path, key, f"{quote(key)} belongs to {kinds}; {what} takes {', '.join(allowed)}",
+                           f"remove {quote(key)}, or give it in a clause of its own kind")
     s = suggest(key, allowed)
     hint = f"did you mean {s!r}? " if s else ""
-    return where.error(path, key, f"unknown key {key!r} in {what}{other_kinds}", f"{hint}allowed: {', '.join(allowed)}")
+    return where.error(path, key, f"unknown key {quote(key)} in {what}", f"{hint}allowed: {', '.join(allowed)}")
+
+
+def _article(word: str) -> str:
+    return "an" if word[:1].lower() in "aeio" else "a"
 
 
 def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
@@ -176,8 +188,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
         for key in table:
             if key not in allowed:
                 owners = [k for k, c in CLAUSE_KINDS.items() if key in c.KEYS]
-                other = f" (it belongs to kind {', '.join(repr(o) for o in owners)})" if owners else ""
-                raise _unknown_key(where, path, key, allowed, f"a {kind!r} clause", other)
+                raise _unknown_key(where, path, key, allowed, f"{_article(kind)} {kind!r} clause", owners)
         cid = table.get("id", f"C{i + 1}")
         if not isinstance(cid, str) or not cid.strip():
             raise where.error(path, "id", f"must be a non-empty string, got {shown(cid)}", 'write e.g. id = "R9"')
@@ -199,8 +210,25 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(clause)
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
-    warnings = _contradictions(clauses, file)
-    return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings)
+    warnings = _contradictions(clauses, file) + _fidelity_ceilings(clauses, file)
+    labelled = frozenset(c.clause_id for c, t in zip(clauses, clauses_raw) if t.get("label"))
+    return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings,
+                    labelled=labelled)
+
+
+def _fidelity_ceilings(clauses, file: str) -> tuple[str, ...]:
+    """A warning per figure clause whose maximum on Rf or Rf,hj a source identical to its
+    reference fails (:func:`lumeval.criteria.plausible.fidelity_ceiling`)."""
+    out = []
+    for c in clauses:
+        inner = getattr(c, "inner", c)
+        if getattr(inner, "KIND", "") != "figure":
+            continue
+        why = plausible.fidelity_ceiling(inner.figure, inner.lower, inner.upper)
+        if why:
+            where = f"{file}:{inner.line}: " if inner.line else f"{file}: "
+            out.append(f"{where}clause {quote(inner.clause_id)}: {why}")
+    return tuple(out)
 
 
 def _contradictions(clauses, file: str) -> tuple[str, ...]:

@@ -25,6 +25,7 @@ import numpy as np
 from .. import figures
 from ..errors import FINITE_FIX, finite_float, shown
 from . import plausible, presets, regions
+from .undefined import undefined_reasons
 from .verdicts import (
     NOT_VALID,
     CheckResult,
@@ -82,13 +83,6 @@ def limit_text(lower: float | None, upper: float | None, unit: str) -> str:
     if lower is not None:
         return f"≥ {fmt_number(lower, unit)}"
     return f"≤ {fmt_number(upper, unit)}"
-
-
-def _cct_reasons(ev, n: int) -> tuple[str, ...] | None:
-    reasons = getattr(ev, "cct_reason", None)
-    if reasons is None or len(reasons) != n:
-        return None
-    return tuple(f"CCT undefined: {r}" if r else "" for r in reasons)
 
 
 def _with_hue_edge_warnings(ev, figure: str, reason: tuple[str, ...]) -> tuple[str, ...]:
@@ -163,7 +157,7 @@ def figure_result(
     unit = figure_unit(figure)
     margin = margin_to_limits(m, lower, upper)
     margin = np.where(np.isfinite(m), margin, np.nan)
-    outcome, reason = simple_outcomes(margin, _cct_reasons(ev, m.size))
+    outcome, reason = simple_outcomes(margin, undefined_reasons(ev, figure, m))
     outcome, reason = _not_valid(ev, figure, m.size, outcome, reason, accept_outside_validity)
     reason = _with_hue_edge_warnings(ev, figure, reason)
     return ClauseResult(
@@ -544,11 +538,11 @@ class AnsiQuadrangleClause(ClauseKind):
         if self.nominal is not None:
             cat = regions.ansi_table(self.edition)[self.nominal]
             what = (
-                f"the {self.nominal} K nominal CCT category of {name} (Table 1: target CCT "
+                f"the quadrangle of the {self.nominal} K nominal CCT category of {name} (Table 1: target CCT "
                 f"{cat.target_cct_K:.0f} ± {cat.tolerance_K:.0f} K, i.e. {lo:.0f} K to {hi:.0f} K, target Duv "
                 f"{cat.target_duv:+.4f} ± 0.006)"
             )
-        else:
+        else:  # "quadrangle" once (a review found "the quadrangle of the … flexible-CCT quadrangle")
             what = f"the {name} flexible-CCT quadrangle for {self.target_cct_K:.0f} K (CCT {lo:.0f}–{hi:.0f} K)"
         if q.corners_origin == "published":
             xy = q.corners_xy
@@ -560,7 +554,7 @@ class AnsiQuadrangleClause(ClauseKind):
         else:
             how = (f"with corners at CCT {lo:.0f} K and {hi:.0f} K and Duv equal to the standard's flexible-CCT "
                    f"target at each edge ± 0.006")
-        return f"The chromaticity shall lie inside the quadrangle of {what}, {how}."
+        return f"The chromaticity shall lie inside {what}, {how}."
 
     def sources(self) -> tuple[str, ...]:
         return (self.quadrangle.source, "Ohno (2014) LEUKOS 10(1):47-55 for CCT/Duv")
@@ -659,10 +653,10 @@ class SdcmClause(ClauseKind):
         )
 
     def tender_text(self) -> str:
-        e = self.ellipse
+        e = self.ellipse  # a user ellipse's name holds its centre, which the text gives (said twice before)
         return (
             f"The chromaticity shall lie within {self.max_steps:g} steps (standard deviations of colour matching, SDCM) "
-            f"of {e.name} centred at x = {e.centre_xy[0]:.4f}, y = {e.centre_xy[1]:.4f} (CIE 1931), steps computed as "
+            f"of {'the ellipse' if e.name.startswith('user ellipse') else e.name} centred at x = {e.centre_xy[0]:.4f}, y = {e.centre_xy[1]:.4f} (CIE 1931), steps computed as "
             f"√(g11 Δx² + 2 g12 Δx Δy + g22 Δy²) with g11 = {e.g11:.4g}, g12 = {e.g12:.4g}, g22 = {e.g22:.4g}."
         )
 
@@ -758,6 +752,7 @@ class Criteria:
     #: Problems of the file as a whole that do not stop it being used (clauses that contradict
     #: each other where a comparison may intend it); every report carries them.
     warnings: tuple = ()
+    labelled: frozenset = frozenset()  #: ids of the clauses whose ``label`` the file gives
 
     def require_clauses_for(self, command: str, scopes: tuple[str, ...] = ("sample",)) -> None:
         """Refuse (:class:`lumeval.errors.UsageError`, exit code 2) criteria with no clause that

@@ -152,6 +152,21 @@ def check_limits(figure: str, key: str, raw: list, values: list[float]) -> tuple
     return problem, f"write a minimum of at most {math.floor(top):d}"
 
 
+def fidelity_ceiling(figure: str, lower: float | None, upper: float | None) -> str | None:
+    """A warning when a maximum on a fidelity figure (Rf, Rf,hj) lies from 100 up to just below
+    :data:`RF_MAX`, else None: the CIE 224:2017 scaling gives a source identical to its reference
+    Rf = 10 ln(e¹⁰ + 1) ≈ 100.00045, so ``max = 100`` fails it (found by a review). A warning, not a
+    refusal: the limit is possible, only probably not meant. The text names the fix (the key as the
+    clause has it, ``max`` or ``range``)."""
+    bound = _upper_bounds().get(figure)
+    if upper is None or bound is None or bound[0] != RF_MAX or not 100.0 <= upper < RF_MAX:
+        return None
+    label = figures.label(figure)
+    fix = "max = 100.0005" if lower is None else f"range = [{_number(lower)}, 100.0005]"
+    return (f"the maximum {label} ≤ {_number(upper)} fails a source identical to its reference, whose {label} is "
+            f"10 ln(e¹⁰ + 1) ≈ {RF_MAX:.5f} by the CIE 224:2017 scaling — write {fix}, or no maximum")
+
+
 def kelvin_fix(key: str, value, ok) -> str:
     """``"CCTs are in kelvin: did you mean KEY = V? "`` when ``value`` times a power of ten (10³
     first: a CCT written in kilokelvin) is a value ``ok`` accepts, else ``""``."""

@@ -92,9 +92,10 @@ def measured_text(r, i: int) -> str:
     """The measured value of result ``r`` for spectrum ``i`` as a person reads it."""
     if r.kind == "ansi_quadrangle":
         cct, duv = r.details["cct_K"][i], r.details["duv"][i]
-        return f"CCT {_f(cct, '.0f')} K, Duv {_f(duv, '+.4f')}"
+        # an undefined CCT reads "CCT n/a", without the unit (a review found "CCT n/a K")
+        return f"CCT {_f(cct, '.0f', 'K')}, Duv {_f(duv, '+.4f')}"
     if r.kind == "sdcm":
-        return f"{_f(r.measured[i], _more('.2f', _extra_decimals(r.margin[i], '.2f')))} steps"
+        return _f(r.measured[i], _more('.2f', _extra_decimals(r.margin[i], '.2f')), "steps")
     spec = _spec(r.figure)
     return _f(r.measured[i], _more(_value_spec(r.figure), _extra_decimals(r.margin[i], spec)), r.unit)
 

@@ -32,6 +32,12 @@ span a partition, locally either), and each sample is computed by the same code;
 point results agree to the last bit on workers with the same CPU and libraries, and within
 rounding (about 1e-15 relative) across machines whose BLAS differs.
 
+Names are made unique on the client in input order, as locally; an error part-way through a
+file keeps what was read before it and drops the rest of the file (its later partitions too),
+as locally. A failure of the cluster itself (a lost scheduler or worker, a cancelled task, a
+worker without lumeval or pyarrow) is not a property of the input: it stops the lot with a
+:class:`~lumeval.errors.WorkerError` (exit code 2, no output written).
+
 Cost of exactness: the client holds every sample's figures (about 0.7 kB per sample, as a
 local run does). Monte Carlo decisions under uncertainty (``--instrument``) are not sent to a
 cluster (refused with a usage error).
@@ -42,8 +48,10 @@ from __future__ import annotations
 import os
 from collections.abc import Callable, Sequence
 
-#: Seconds to wait for a scheduler to answer.
+#: Seconds to wait for a scheduler to answer (connection and Dask's handshake).
 CONNECT_TIMEOUT_S = 10
+#: Seconds to wait for a running scheduler to have at least one worker.
+WORKERS_TIMEOUT_S = 30
 
 
 #: glibc malloc settings for worker processes (see :func:`_tune_malloc`).
@@ -78,26 +86,214 @@ def _tune_malloc() -> None:
         pass
 
 
-def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_criteria, batch_rows: int):
+def _evaluate_partition(file: str, first_row: int, groups: list[int], sample_criteria, batch_rows: int,
+                        shown: str | None = None):
     """Worker side: stream one partition of an archive file and evaluate it.
 
-    Returns ``(list of BatchResult, list of Unreadable)``; an error of the whole file is
-    returned (not raised) as one Unreadable so that the client reports it like a local run.
+    Returns ``(results, unreadable, stopped)``: ``results`` a list of ``(BatchResult, note
+    counts)`` (the number of reading notes of each sample, so that the client can insert the
+    note of a renamed sample where a local run has it, :func:`_unique_names`); ``unreadable``
+    the rows that could not be used; ``stopped`` True when an error of the file itself (a row
+    without a name, a page that cannot be decoded) ended the partition part-way: the batches
+    read before it are kept and the error is returned (not raised) as one Unreadable, as a
+    local run keeps them (the client then drops the file's later partitions, as a local run
+    stops reading the file). ``file`` is the path the worker opens (absolute), ``shown`` the
+    path as the user gave it (in sources and messages, as locally).
+
+    Anything else (a missing library on the worker, a failing worker) is a failure of the
+    cluster, not of the input: it is raised, naming the worker and the partition's rows.
     """
     _tune_malloc()
-    from ..errors import LumevalError
+    from ..errors import LumevalError, UsageError
     from .inputs import Unreadable
     from .streaming import archive_batches, evaluate_batch
 
-    results, bad_all = [], []
+    shown = shown or file
+    results: list = []
+    bad_all: list = []
     try:
         for s, meta, bad in archive_batches(file, batch_rows, partitions=[(first_row, groups)]):
-            bad_all.extend(bad)
+            bad_all.extend(_shown(b, file, shown) for b in bad)
             if s is not None:
-                results.append(evaluate_batch(s, sample_criteria, None, metadata=meta))
+                counts = [len(n) for n in s.notes]
+                results.append((evaluate_batch(s, sample_criteria, None, metadata=meta), counts))
     except LumevalError as exc:
-        return [], [Unreadable(file, exc.message)]
-    return results, bad_all
+        if not isinstance(exc, UsageError):  # UsageError: pyarrow missing on this worker
+            bad_all.append(Unreadable(shown, _replace_path(exc.message, file, shown)))
+            return _shown_results(results, file, shown), bad_all, True
+        failure: Exception = exc
+    except Exception as exc:  # the worker's environment: a cluster failure, reported by the client
+        failure = exc
+    else:
+        return _shown_results(results, file, shown), bad_all, False
+    raise RuntimeError(f"on worker {_worker_address()}, {shown} rows {first_row + 1}-: "
+                       f"{type(failure).__name__}: {_short(failure)}")
+
+
+def _replace_path(text: str, file: str, shown: str) -> str:
+    from .._paths import display_path
+
+    return text if file == shown else text.replace(display_path(file), display_path(shown))
+
+
+def _shown(bad, file: str, shown: str):
+    """An Unreadable of a row with the path as the user gave it."""
+    from dataclasses import replace
+
+    if file == shown:
+        return bad
+    return replace(bad, source=_replace_path(bad.source, file, shown), message=_replace_path(bad.message, file, shown))
+
+
+def _shown_results(results: list, file: str, shown: str) -> list:
+    """The samples' sources with the path as the user gave it (a local run's sources)."""
+    if file == shown:
+        return results
+    for r, _ in results:
+        r.sources = [_replace_path(x, file, shown) for x in r.sources]
+    return results
+
+
+def _worker_address() -> str:
+    try:
+        from distributed import get_worker
+
+        return get_worker().address
+    except Exception:  # not on a worker
+        return "?"
+
+
+def _short(exc: BaseException) -> str:
+    return " ".join(str(exc).split())[:160] or type(exc).__name__
+
+
+def _unique_names(r, note_counts, seen: dict[str, int]):
+    """``r`` (a BatchResult) with the names made unique across the run, as a local run makes
+    them (:func:`lumeval.spectra.read.unique_names` in input order): the renamed sample's note
+    goes after its reading notes and before the computation's warnings, where a local run has
+    it (the local run renames before evaluating)."""
+    from dataclasses import dataclass
+
+    from ..spectra.read import unique_names
+
+    @dataclass(frozen=True)
+    class _Names:
+        names: tuple
+        notes: tuple
+
+    names = _Names(tuple(r.names), ((),) * len(r.names))
+    new = unique_names(names, seen)  # type: ignore[arg-type]
+    if new is names:
+        return r
+    warnings = list(r.warnings)
+    for i, note in enumerate(new.notes):
+        if note:
+            w, c = tuple(warnings[i]), note_counts[i]
+            warnings[i] = w[:c] + tuple(note) + w[c:]
+    r.names, r.warnings = list(new.names), warnings
+    return r
+
+
+def _check_address(scheduler: str) -> None:
+    """Refuse an address Dask cannot use from here, before any connection is tried."""
+    from ..errors import UsageError
+
+    def bad(problem: str, fix: str = "give tcp://HOST:PORT, e.g. tcp://127.0.0.1:8786"):
+        return UsageError(f"the scheduler address {scheduler!r} {problem}", field="--scheduler", fix=fix)
+
+    if not scheduler.strip():
+        raise UsageError("the scheduler address is empty", field="--scheduler", fix="give tcp://HOST:PORT")
+    from distributed.comm import parse_address
+    from distributed.comm.addressing import parse_host_port
+
+    try:
+        scheme, loc = parse_address(scheduler)
+    except (ValueError, TypeError) as exc:
+        raise bad(f"cannot be read ({_short(exc)})") from None
+    if scheme not in ("tcp", "tls"):
+        raise bad(f"uses {scheme}://, which lumeval does not use (tcp:// or tls:// only)")
+    if "://" not in scheduler:
+        raise bad("has no scheme")
+    try:
+        host, port = parse_host_port(loc)
+    except (ValueError, TypeError):
+        raise bad("has no port number (or an invalid one)") from None
+    if not host or not port:
+        raise bad("has no host or port")
+    if scheme == "tls":
+        from distributed.security import Security
+
+        if not Security().get_connection_args("client").get("ssl_context"):
+            raise bad("uses tls:// but Dask's configuration holds no TLS settings for the client",
+                      fix="set distributed.comm.tls.ca-file, .client.cert and .client.key in Dask's "
+                          "configuration, or use tcp://")
+
+
+def _probe(scheduler: str, timeout: float) -> str | None:
+    """None when a Dask scheduler answers the handshake at ``scheduler`` within ``timeout``
+    seconds, else why not (a service that is not Dask's would keep the connection open)."""
+    import asyncio
+    from concurrent.futures import ThreadPoolExecutor
+
+    from distributed.comm import connect
+    from distributed.security import Security
+
+    async def hello() -> None:
+        comm = await asyncio.wait_for(connect(scheduler, timeout=timeout,
+                                              **Security().get_connection_args("client")), timeout)
+        await comm.close()
+
+    pool = ThreadPoolExecutor(1)
+    try:
+        pool.submit(asyncio.run, hello()).result(timeout + 5)
+    except TimeoutError:
+        return f"no Dask handshake within {timeout:g} s"
+    except Exception as exc:
+        return _short(exc)
+    finally:
+        pool.shutdown(wait=False)
+    return None
+
+
+def _connect(scheduler: str):
+    """A client of the running scheduler at ``scheduler`` (one-line UsageError otherwise)."""
+    from distributed import Client
+
+    from ..errors import UsageError
+
+    def unreachable(why: str) -> UsageError:
+        return UsageError(f"cannot reach the Dask scheduler {scheduler!r} ({why})", field="--scheduler",
+                          fix="start it with `dask scheduler` and check the address")
+
+    _check_address(scheduler)
+    why = _probe(scheduler, CONNECT_TIMEOUT_S)
+    if why is not None:
+        raise unreachable(why)
+    half: list = []
+
+    class _Client(Client):  # keeps the client being built, to close it if the connection fails
+        def start(self, **kwargs):
+            half.append(self)
+            return super().start(**kwargs)
+
+    try:
+        client = _Client(scheduler, timeout=CONNECT_TIMEOUT_S, set_as_default=False)
+    except Exception as exc:  # OSError, TimeoutError, ValueError, TypeError (comm without its settings)
+        for c in half:  # not left to the garbage collector (its __del__ would fail ~20 s later)
+            try:
+                c.close(timeout=2)
+            except Exception:
+                pass
+        half.clear()
+        raise unreachable(_short(exc)) from None
+    try:
+        client.wait_for_workers(1, timeout=WORKERS_TIMEOUT_S)
+    except Exception:
+        client.close(timeout=5)
+        raise UsageError(f"the Dask scheduler {scheduler!r} has no worker (none joined within "
+                         f"{WORKERS_TIMEOUT_S} s)", field="--scheduler",
+                         fix="start workers with `dask worker ADDRESS`") from None
+    return client
 
 
 def _client(scheduler: str | None, workers: int | None):
@@ -105,25 +301,128 @@ def _client(scheduler: str | None, workers: int | None):
     from ..errors import UsageError
 
     try:
-        from distributed import Client, LocalCluster
+        import distributed  # noqa: F401
     except ImportError:  # pragma: no cover - the extra is part of the test install
         raise UsageError("--scheduler/--workers need Dask distributed", fix="pip install 'lumeval[archive]'") from None
     if scheduler is not None and workers is not None:
         raise UsageError("--scheduler and --workers both given", field="--workers",
                          fix="use a running cluster (--scheduler) or start a local one (--workers), not both")
     if scheduler is not None:
-        if not scheduler.strip():
-            raise UsageError("the scheduler address is empty", field="--scheduler", fix="give tcp://HOST:PORT")
-        try:
-            return Client(scheduler, timeout=CONNECT_TIMEOUT_S, set_as_default=False), None
-        except (OSError, TimeoutError, ValueError) as exc:
-            raise UsageError(f"cannot reach the Dask scheduler {scheduler!r} ({' '.join(str(exc).split())[:160]})",
-                             field="--scheduler", fix="start it with `dask scheduler` and check the address") from None
+        return _connect(scheduler), None
     if workers is None or workers < 1 or workers > 256:
         raise UsageError(f"--workers must be 1 to 256, not {workers}", field="--workers", fix="give the number of processes")
+    from distributed import Client, LocalCluster
+
     cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
                            dashboard_address=None, silence_logs=40)
     return Client(cluster, set_as_default=False), cluster
+
+
+def _cluster_failure(exc: BaseException, where: str, client=None, fut=None):
+    """The WorkerError that stops a lot when the cluster fails (not the input): one line naming
+    the cause, and the worker and partition when known."""
+    from ..errors import WorkerError
+
+    worker = ""
+    if fut is not None and client is not None and "on worker " not in str(exc):
+        try:
+            key = fut.key
+            on = client.run_on_scheduler(lambda dask_scheduler: sorted(dask_scheduler.tasks[key].erred_on or ()))
+            worker = f" on worker {', '.join(on)}" if on else ""
+        except Exception:
+            pass
+    return WorkerError(f"the Dask cluster failed{worker} ({where}: {type(exc).__name__}: {_short(exc)}); "
+                       "the lot was stopped and unfinished outputs were not written",
+                       fix="check that every worker has lumeval and pyarrow installed and reaches the "
+                           "scheduler, then run again")
+
+
+def _plan(files: list[str]):
+    """(tasks, expected rows, unreadable per file) from the footers, on the client."""
+    from ..errors import LumevalError
+    from ..spectra.archive import no_rows_error, open_file, plan_partitions
+    from .inputs import Unreadable
+
+    tasks: list[tuple[int, str, int, int, list[int]]] = []
+    expected = 0
+    bad_by_file: list[list] = [[] for _ in files]  # unreadable inputs in file order, as a local run lists them
+    for k, f in enumerate(files):
+        try:
+            opened = open_file(f)
+        except LumevalError as exc:
+            bad_by_file[k].append(Unreadable(f, exc.message))
+            continue
+        if not opened[0].metadata.num_rows:
+            bad_by_file[k].append(Unreadable(f, no_rows_error(f).message))
+            continue
+        parts = plan_partitions(opened[0])
+        expected += opened[0].metadata.num_rows
+        for j, (first_row, groups) in enumerate(parts):
+            tasks.append((k, f, j, first_row, groups))
+    return tasks, expected, bad_by_file
+
+
+def _run_tasks(client, tasks, files, sample_criteria, batch, acc, bad_by_file, expected, progress) -> set[int]:
+    """Submit the partitions, join their results in input order; the files that gave samples.
+
+    Follows a local run exactly: names made unique in input order; an error of a file part-way
+    keeps what was read before it and drops the file's later partitions. A failure of the
+    cluster (a task that raised, a lost scheduler, a cancelled future) stops the lot
+    (:func:`_cluster_failure`)."""
+    import asyncio
+
+    from distributed import as_completed
+
+    from ..errors import LumevalError
+
+    futures = {}
+    for k, f, j, first_row, groups in tasks:
+        fut = client.submit(_evaluate_partition, os.path.abspath(f), first_row, groups, sample_criteria, batch,
+                            f, pure=False)
+        futures[fut] = (k, j, first_row)
+    order = [(k, j) for k, _, j, _, _ in tasks]
+    by_file: dict[int, list] = {}
+    for fut, (k, _, _) in futures.items():
+        by_file.setdefault(k, []).append(fut)
+    next_i = done_samples = 0
+    done: dict[tuple[int, int], tuple] = {}
+    used: set[int] = set()
+    stopped: set[int] = set()
+    seen: dict[str, int] = {}
+    for fut in as_completed(list(futures), loop=client.loop):
+        k, j, first_row = futures[fut]
+        if k in stopped:  # a later partition of a file that ended part-way: dropped, as locally
+            fut.release()
+            continue
+        try:
+            done[(k, j)] = fut.result()
+        except (LumevalError, KeyboardInterrupt):
+            raise
+        except (Exception, asyncio.CancelledError) as exc:
+            raise _cluster_failure(exc, f"{files[k]}, partition {j + 1} (rows {first_row + 1}-)", client,
+                                   fut) from None
+        fut.release()
+        while next_i < len(order) and (order[next_i] in done or order[next_i][0] in stopped):
+            key = order[next_i]
+            next_i += 1
+            if key[0] in stopped:
+                done.pop(key, None)
+                continue
+            results, bad, stop = done.pop(key)
+            for r, counts in results:
+                acc.add(_unique_names(r, counts, seen))
+                done_samples += len(r)
+                used.add(key[0])
+            bad_by_file[key[0]].extend(bad)
+            if stop:
+                stopped.add(key[0])
+                for later in by_file[key[0]]:
+                    if futures[later][1] > key[1]:
+                        later.cancel()
+                        done.pop((key[0], futures[later][1]), None)
+            if progress is not None:
+                progress("evaluating", done_samples, max(expected, done_samples))
+    return used
 
 
 def run_lot_dask(
@@ -145,7 +444,8 @@ def run_lot_dask(
     ----------
     paths
         Parquet archives (files, folders of them, patterns). Other spectrum files are refused:
-        convert them first (``lumeval convert FILE OUT.parquet``).
+        convert them first (``lumeval convert FILE OUT.parquet``). Relative paths are made
+        absolute here (a worker's working folder may differ from the client's).
     scheduler : str, optional
         Address of a running scheduler (``tcp://HOST:PORT``).
     workers : int, optional
@@ -156,11 +456,18 @@ def run_lot_dask(
     Returns
     -------
     LotRun
-        Equal to the local run's (same samples, order, figures, verdicts and statistics).
+        Equal to the local run's (same samples, order, names, figures, verdicts, unreadable
+        entries and statistics).
+
+    Raises
+    ------
+    lumeval.errors.WorkerError
+        The cluster failed (lost scheduler, a worker without lumeval or pyarrow, a cancelled
+        task): nothing is returned, the command writes no output.
     """
     from ..errors import LumevalError, UsageError
-    from ..spectra.archive import is_archive, no_rows_error, open_file, plan_partitions
-    from .inputs import Unreadable, expand_inputs
+    from ..spectra.archive import is_archive
+    from .inputs import expand_inputs
     from .run import BATCH_SPECTRA
     from .streaming import LotAccumulator
 
@@ -183,67 +490,34 @@ def run_lot_dask(
         if has_sample_clauses(criteria):
             sample_criteria = criteria
 
-    # plan on the client: footers only
-    tasks: list[tuple[int, str, int, int, list[int]]] = []
-    expected = 0
-    bad_by_file: list[list] = [[] for _ in files]  # unreadable inputs in file order, as a local run lists them
-    for k, f in enumerate(files):
-        try:
-            opened = open_file(f)
-        except LumevalError as exc:
-            bad_by_file[k].append(Unreadable(f, exc.message))
-            continue
-        if not opened[0].metadata.num_rows:
-            bad_by_file[k].append(Unreadable(f, no_rows_error(f).message))
-            continue
-        parts = plan_partitions(opened[0])
-        expected += opened[0].metadata.num_rows
-        for j, (first_row, groups) in enumerate(parts):
-            tasks.append((k, f, j, first_row, groups))
-
+    tasks, expected, bad_by_file = _plan(files)  # on the client: footers only
+    made = client is None
     own = None
-    if client is None:
+    if made:
         client, own = _client(scheduler, workers)
+    acc = LotAccumulator(expected)
     try:
-        futures = {}
-        for k, f, j, first_row, groups in tasks:
-            fut = client.submit(_evaluate_partition, f, first_row, groups, sample_criteria, batch, pure=False)
-            futures[fut] = (k, j)
-        acc = LotAccumulator(expected)
-        # join in input order as partitions complete (finished ones wait, the rest stream on)
-        from distributed import as_completed
-
-        order = [(k, j) for k, _, j, _, _ in tasks]
-        next_i = 0
-        done_samples = 0
-        done: dict[tuple[int, int], tuple] = {}
-        used: set[int] = set()
-        for fut in as_completed(list(futures), loop=client.loop):
-            try:
-                done[futures[fut]] = fut.result()
-            except Exception as exc:  # a worker died or a task failed: name the partition
-                k, j = futures[fut]
-                done[futures[fut]] = ([], [Unreadable(files[k], f"{files[k]}: partition {j + 1} was not evaluated "
-                                                                f"on the cluster ({type(exc).__name__}: "
-                                                                f"{' '.join(str(exc).split())[:120]})")])
-            fut.release()
-            while next_i < len(order) and order[next_i] in done:
-                results, bad = done.pop(order[next_i])
-                if results:
-                    used.add(order[next_i][0])
-                for r in results:
-                    acc.add(r)
-                    done_samples += len(r)
-                bad_by_file[order[next_i][0]].extend(bad)
-                next_i += 1
-                if progress is not None:
-                    progress("evaluating", done_samples, max(expected, done_samples))
+        used = _run_tasks(client, tasks, files, sample_criteria, batch, acc, bad_by_file, expected, progress)
+    except (LumevalError, KeyboardInterrupt):
+        raise
+    except (Exception, __import__("asyncio").CancelledError) as exc:  # the connection to the scheduler
+        raise _cluster_failure(exc, "while waiting for the results") from None
     finally:
-        if own is not None:
-            client.close()
-            own.close()
+        if made:
+            _close(client, own)
     for bad in bad_by_file:
         unreadable.extend(bad)
     read_paths = tuple(files[k] for k in sorted(used))
     return acc.finish(criteria, sample_criteria=sample_criteria, unreadable=unreadable, inputs=found,
                       ellipse=ellipse, nominal_xy=nominal_xy, uncertainty=None, read_paths=read_paths)
+
+
+def _close(client, cluster) -> None:
+    """Close the client (and the local cluster) without letting a lost connection raise."""
+    for c in (client, cluster):
+        if c is None:
+            continue
+        try:
+            c.close(timeout=10)
+        except Exception:
+            pass

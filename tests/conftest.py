@@ -66,3 +66,24 @@ def assert_clean_error(code, err, *needles) -> str:
     for n in needles:
         assert n in lines[0], err
     return lines[0]
+
+
+@pytest.fixture(scope="module")
+def planckians(tmp_path_factory):
+    """One Planckian spectrum (1 nm, 360-830 nm, normalised to its peak) at each ANSI C78.377-2017
+    category's target CCT, as CSV files by category (criteria tests of `criteria new`)."""
+    import numpy as np
+
+    from lumeval.criteria import regions
+    from lumeval.metrics.planck import planck_exitance
+
+    d = tmp_path_factory.mktemp("planck")
+    wl = np.arange(360.0, 831.0, 1.0)
+    out = {}
+    for n in sorted(regions.ANSI_C78377_2017):
+        s = planck_exitance(wl, regions.ANSI_C78377_2017[n].target_cct_K)
+        s = s / s.max()
+        p = d / f"planck_{n}.csv"
+        p.write_text(f"wavelength_nm,planck_{n}\n" + "".join(f"{w:.0f},{v:.10f}\n" for w, v in zip(wl, s)))
+        out[n] = p
+    return out

@@ -19,7 +19,6 @@ import numpy as np
 import pytest
 
 from lumeval.criteria import load_criteria, parse_criteria, presets, regions
-from lumeval.metrics.planck import planck_exitance
 
 from .conftest import run_cli_in_process as run
 
@@ -31,22 +30,6 @@ PUBLISHED_CENTRES = {
     3500: (0.4078, 0.3930), 4000: (0.3818, 0.3797), 4500: (0.3613, 0.3670), 5000: (0.3446, 0.3551),
     5700: (0.3287, 0.3425), 6500: (0.3123, 0.3283),
 }
-
-
-@pytest.fixture(scope="module")
-def planckians(tmp_path_factory):
-    """One Planckian spectrum (1 nm, 360-830 nm) at each category's target CCT."""
-    d = tmp_path_factory.mktemp("planck")
-    wl = np.arange(360.0, 831.0, 1.0)
-    out = {}
-    for n in CATEGORIES:
-        t = regions.ANSI_C78377_2017[n].target_cct_K
-        s = planck_exitance(wl, t)
-        s = s / s.max()
-        p = d / f"planck_{n}.csv"
-        p.write_text(f"wavelength_nm,planck_{n}\n" + "".join(f"{w:.0f},{v:.10f}\n" for w, v in zip(wl, s)))
-        out[n] = p
-    return out
 
 
 @pytest.mark.parametrize("nominal", CATEGORIES)

@@ -23,7 +23,6 @@ import pytest
 import lumeval
 from lumeval.commands.criteria_cmd import new_criteria_text
 from lumeval.criteria import parse_criteria, regions
-from lumeval.metrics.planck import planck_exitance
 
 from .conftest import run_cli_in_process as run
 
@@ -39,20 +38,6 @@ def uncomment_examples(text: str) -> str:
     assert sep, "the generated file has no example block"
     lines = [ln[2:] if _TOML_LINE.match(ln) else ln for ln in tail.splitlines()]
     return head + sep + "\n".join(lines) + "\n"
-
-
-@pytest.fixture(scope="module")
-def planckians(tmp_path_factory):
-    """A Planckian spectrum at each category's target CCT (1 nm, 360-830 nm), evaluated once."""
-    d = tmp_path_factory.mktemp("planck")
-    wl = np.arange(360.0, 831.0, 1.0)
-    paths = {}
-    for n in CATEGORIES:
-        s = planck_exitance(wl, regions.ANSI_C78377_2017[n].target_cct_K)
-        p = d / f"planck_{n}.csv"
-        p.write_text(f"wavelength_nm,planck_{n}\n" + "".join(f"{w:.0f},{v:.10g}\n" for w, v in zip(wl, s / s.max())))
-        paths[n] = p
-    return paths
 
 
 @pytest.mark.parametrize("nominal", CATEGORIES)

@@ -91,6 +91,12 @@ def _setting(key: str, values: list[float]) -> str:
     return f"range = [{_number(values[0])}, {_number(values[1])}]" if key == "range" else f"{key} = {_number(values[0])}"
 
 
+
+def _first_outside(values, ok) -> int | None:
+    """Index of the first value for which ``ok`` is false (None: all are fine)."""
+    return next((i for i, v in enumerate(values) if not ok(v)), None)
+
+
 def check_limits(figure: str, key: str, raw: list, values: list[float]) -> tuple[str, str] | None:
     """The problem and the fix when a limit on ``figure`` is implausible, else None.
 
@@ -112,10 +118,9 @@ def check_limits(figure: str, key: str, raw: list, values: list[float]) -> tuple
         def in_range(w: float) -> bool:
             return CCT_MIN_K <= w <= CCT_MAX_K
 
-        bad = [i for i, v in enumerate(values) if not in_range(v)]
-        if not bad:
+        i = _first_outside(values, in_range)
+        if i is None:
             return None
-        i = bad[0]
         problem = (f"{label} limit {shown(raw[i])} K is outside {CCT_MIN_K:.0f}-{CCT_MAX_K:.0f} K, where lumeval "
                    "reports CCT: no spectrum has a CCT there, so the limit cannot mean what it says")
         powers = [0 if in_range(v) else _power(v, in_range, (3, 1, 2, -1, -2)) for v in values]
@@ -128,10 +133,9 @@ def check_limits(figure: str, key: str, raw: list, values: list[float]) -> tuple
         def small(w: float) -> bool:
             return abs(w) <= DUV_LIMIT
 
-        bad = [i for i, v in enumerate(values) if not small(v)]
-        if not bad:
+        i = _first_outside(values, small)
+        if i is None:
             return None
-        i = bad[0]
         problem = (f"Duv limit {shown(raw[i])} exceeds {DUV_LIMIT:g} in magnitude: so far from the Planckian locus "
                    "CCT is not meaningful (CIE 15:2004 §9.5) and lumeval reports none")
         fixed = [v if small(v) else (v / 1000.0 if abs(v) >= 1 and small(v / 1000.0) else None) for v in values]

@@ -228,3 +228,15 @@ def test_mix_and_series_refuse_criteria_they_judge_no_clause_of(tmp_path, capsys
         code, stdout, err = run([*argv, "--criteria", crit, "--html", out], capsys)
         assert_clean_error(code, err, "lot_only.toml", f"`lumeval {command}`")
         assert not out.exists()
+
+
+def test_mix_csv_weight_heading_of_a_formula_like_name_is_the_name(tmp_path, capsys):
+    """The weight column is headed 'w:' + the channel's name; the cell does not begin with a
+    formula character, so the name stays as written (an apostrophe was put inside it:
+    'w:'=HYPERLINK(...)'), while a control character is still made visible."""
+    chans = write_wide(tmp_path / "c.csv", {"=HYPERLINK(1)": WARM, "cool\x1b[31m": COOL})
+    code, out, err = run(["mix", chans, "--cct", "3000", "--format", "csv"], capsys)
+    assert code == 0, err
+    head = next(csv.reader(io.StringIO(out)))
+    assert "w:=HYPERLINK(1)" in head
+    assert not any("\x1b" in h for h in head)

@@ -387,7 +387,7 @@ def to_csv(report) -> str:
     labels, avail, _reasons = _per_setting(report)
     head = ["setting", "label"]
     if report.kind == "mix":
-        head += ["reachable", "target_duv"] + [f"w:{_csv_cell(c)}" for c in r.channel_names]
+        head += ["reachable", "target_duv"] + [_csv_cell(f"w:{c}") for c in r.channel_names]  # the whole cell
     else:
         head += ["source", "delta_upvp"]
     head += list(FIGURE_NAMES) + ["ansi_category"]

@@ -260,13 +260,11 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: st
 def _tally(outcomes, wording: Wording, leave_out: tuple[str, ...] = ("pass",)) -> str:
     """"1 failed, 2 not valid, 1 not judged" (worst first), as the terminal counts them; a claims
     report in its own words ("1 contradicted")."""
-    from .verdicts import TALLY_WORDS, outcome_tally
+    from .verdicts import outcome_tally
 
-    outcomes = list(outcomes)
     if dict(wording.outcome_text) == OUTCOME_TEXT:
         return outcome_tally(outcomes, leave_out=leave_out)
-    return ", ".join(f"{k} {wording.outcome_text[o][1].lower()}" for o, _w in TALLY_WORDS
-                     if o not in leave_out and (k := sum(x == o for x in outcomes)))
+    return outcome_tally(outcomes, leave_out=leave_out, word=lambda o: wording.outcome_text[o][1].lower())
 
 
 def _not_passed_text(outcomes, wording: Wording = CRITERIA_WORDING) -> str:

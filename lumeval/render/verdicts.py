@@ -152,11 +152,12 @@ TALLY_WORDS = (("fail", "failed"), ("not valid", "not valid"), ("indeterminate",
                ("not judged", "not judged"), ("pass", "passed"))
 
 
-def outcome_tally(outcomes, *, leave_out: tuple[str, ...] = ("pass",)) -> str:
+def outcome_tally(outcomes, *, leave_out: tuple[str, ...] = ("pass",), word=None) -> str:
     """The counts of ``outcomes`` in words, worst first, without those in ``leave_out``
-    ("" when nothing is left)."""
+    ("" when nothing is left); ``word(outcome)`` gives a report's own word for an outcome
+    (default :data:`TALLY_WORDS`)."""
     c = Counter(outcomes)
-    return ", ".join(f"{c[o]} {w}" for o, w in TALLY_WORDS if c[o] and o not in leave_out)
+    return ", ".join(f"{c[o]} {word(o) if word else w}" for o, w in TALLY_WORDS if c[o] and o not in leave_out)
 
 
 def verdict_tail(outcomes, verdict: str, skipped: bool = False) -> str:

@@ -67,6 +67,8 @@ def _upper_bounds() -> dict[str, tuple[float, str]]:
 
 #: The figures whose limits are CCTs in kelvin.
 CCT_FIGURES = ("cct_K", "ansi_category_K")
+#: Powers of ten tried to read a CCT slip as kelvin: kilokelvin (10³) first.
+_KELVIN_POWERS = (3, 1, 2, -1, -2)
 
 
 def _number(v: float) -> str:
@@ -89,7 +91,6 @@ def _times(v: float, k: int) -> float:
 
 def _setting(key: str, values: list[float]) -> str:
     return f"range = [{_number(values[0])}, {_number(values[1])}]" if key == "range" else f"{key} = {_number(values[0])}"
-
 
 
 def _first_outside(values, ok) -> int | None:
@@ -123,7 +124,7 @@ def check_limits(figure: str, key: str, raw: list, values: list[float]) -> tuple
             return None
         problem = (f"{label} limit {shown(raw[i])} K is outside {CCT_MIN_K:.0f}-{CCT_MAX_K:.0f} K, where lumeval "
                    "reports CCT: no spectrum has a CCT there, so the limit cannot mean what it says")
-        powers = [0 if in_range(v) else _power(v, in_range, (3, 1, 2, -1, -2)) for v in values]
+        powers = [0 if in_range(v) else _power(v, in_range, _KELVIN_POWERS) for v in values]
         if all(k is not None for k in powers):
             ends = [_times(v, k) for v, k in zip(values, powers) if k is not None]
             meant = f" ({_number(ends[0])}-{_number(ends[1])} K)" if key == "range" else ""
@@ -180,14 +181,14 @@ def kelvin_fix(key: str, value, ok) -> str:
         return ""
     if not math.isfinite(v):
         return ""
-    k = _power(v, ok, (3, 1, 2, -1, -2))
+    k = _power(v, ok, _KELVIN_POWERS)
     return "" if k is None else f"CCTs are in kelvin: did you mean {key} = {_number(_times(v, k))}? "
 
 
 def quoted_category(text: str, table_1: dict, allowed: str) -> tuple[str, str]:
     """(problem, fix) for a ``nominal_cct`` given as text: ``"4000"`` or ``"4000 K"`` names a
     category but is a string in TOML, and a category is a number (written without quotes)."""
-    m = re.fullmatch(r"(\d{1,6})(?:\.0*)?(?: ?K)?", text.strip(), flags=re.IGNORECASE)  # no nested repeats
+    m = re.fullmatch(r"([0-9]{1,6})(?:\.0*)?(?: ?K)?", text.strip(), flags=re.IGNORECASE)  # no nested repeats
     if m and int(m.group(1)) in table_1:
         return (f"{shown(text)} is text in quotes; a nominal CCT category is a number",
                 f"write nominal_cct = {int(m.group(1))} without quotes")

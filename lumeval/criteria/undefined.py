@@ -26,30 +26,26 @@ ABSOLUTE_NEEDS = {
 }
 
 
-def _canonical(figure: str) -> str:
-    from .. import figures
-
-    try:
-        return figures.get(figure).name
-    except KeyError:
-        return figure
-
-
-def _absolute_reason(ev, i: int, figure: str) -> str:
-    """Why the absolute ``figure`` is missing for spectrum ``i`` (plain words, data quoted)."""
-    from .. import figures
-
-    need, unit = ABSOLUTE_NEEDS[figure]
-    what = f"its {figures.label(figure)} cannot be computed"
+def _scale_of(ev, i: int) -> tuple[str, str, str]:
+    """Spectrum ``i``'s (absolute quantity, ``lumeval.scale``, ``lumeval.value_unit``) as read."""
     ab = getattr(ev, "absolute", None)
     quantity = ab.quantity[i] if ab is not None and i < len(ab.quantity) else ""
+    metas = getattr(getattr(ev, "spectra", None), "metadata", None)
+    meta = (metas[i] if metas is not None and i < len(metas) else None) or {}
+    return quantity, meta.get("lumeval.scale") or "", meta.get("lumeval.value_unit") or ""
+
+
+def _absolute_reason(scale_of: tuple[str, str, str], figure: str) -> str:
+    """Why the absolute ``figure`` is missing for a spectrum read so (:func:`_scale_of`; plain
+    words, data quoted)."""
+    from .. import figures
+
+    quantity, scale, value_unit = scale_of
+    need, unit = ABSOLUTE_NEEDS[figure]
+    what = f"its {figures.label(figure)} cannot be computed"
     if quantity and quantity != need:
         return (f"the spectrum is a spectral {quantity}, not a spectral {need}, so {what} "
                 f"(it needs spectral {need} data in {unit})")
-    metas = getattr(getattr(ev, "spectra", None), "metadata", None)
-    meta = metas[i] if metas is not None and i < len(metas) else {}
-    scale = (meta or {}).get("lumeval.scale")
-    value_unit = (meta or {}).get("lumeval.value_unit")
     if scale == "absolute" and value_unit:
         return (f"the spectrum's unit {quote(value_unit)} is not a spectral irradiance or radiance lumeval can use, "
                 f"so its values are taken as relative (no absolute scale) and {what} (it needs spectral {need} in {unit})")
@@ -69,9 +65,21 @@ def undefined_reasons(ev, figure: str, measured) -> tuple[str, ...] | None:
     figure is undefined."""
     m = np.asarray(measured, dtype=float)
     n = m.size
-    name = _canonical(figure)
-    if name in ABSOLUTE_NEEDS:
-        return tuple(_absolute_reason(ev, int(i), name) if not ok else "" for i, ok in enumerate(np.isfinite(m)))
+    from .. import figures
+
+    name = figures.lookup(figure) or figure
+    if name in ABSOLUTE_NEEDS:  # one wording per way of reading (a lot: many spectra read alike)
+        words: dict[tuple[str, str, str], str] = {}
+        out = []
+        for i, ok in enumerate(np.isfinite(m)):
+            if ok:
+                out.append("")
+                continue
+            key = _scale_of(ev, i)
+            if key not in words:
+                words[key] = _absolute_reason(key, name)
+            out.append(words[key])
+        return tuple(out)
     reasons = getattr(ev, "cct_reason", None)
     if reasons is None or len(reasons) != n:
         return None

@@ -48,6 +48,8 @@ from __future__ import annotations
 import os
 from collections.abc import Callable, Sequence
 
+from ..errors import quote
+
 #: Seconds to wait for a scheduler to answer (connection and Dask's handshake).
 CONNECT_TIMEOUT_S = 10
 #: Seconds to wait for a running scheduler to have at least one worker.
@@ -172,25 +174,16 @@ def _unique_names(r, note_counts, seen: dict[str, int]):
     them (:func:`lumeval.spectra.read.unique_names` in input order): the renamed sample's note
     goes after its reading notes and before the computation's warnings, where a local run has
     it (the local run renames before evaluating)."""
-    from dataclasses import dataclass
+    from ..spectra.read import renamed_names
 
-    from ..spectra.read import unique_names
-
-    @dataclass(frozen=True)
-    class _Names:
-        names: tuple
-        notes: tuple
-
-    names = _Names(tuple(r.names), ((),) * len(r.names))
-    new = unique_names(names, seen)  # type: ignore[arg-type]
-    if new is names:
+    renamed = renamed_names(r.names, seen)
+    if not renamed:
         return r
-    warnings = list(r.warnings)
-    for i, note in enumerate(new.notes):
-        if note:
-            w, c = tuple(warnings[i]), note_counts[i]
-            warnings[i] = w[:c] + tuple(note) + w[c:]
-    r.names, r.warnings = list(new.names), warnings
+    names, warnings = list(r.names), list(r.warnings)
+    for i, (new, note) in renamed.items():
+        w, c = tuple(warnings[i]), note_counts[i]
+        names[i], warnings[i] = new, w[:c] + (note,) + w[c:]
+    r.names, r.warnings = names, warnings
     return r
 
 
@@ -199,7 +192,7 @@ def _check_address(scheduler: str) -> None:
     from ..errors import UsageError
 
     def bad(problem: str, fix: str = "give tcp://HOST:PORT, e.g. tcp://127.0.0.1:8786"):
-        return UsageError(f"the scheduler address {scheduler!r} {problem}", field="--scheduler", fix=fix)
+        return UsageError(f"the scheduler address {quote(scheduler)} {problem}", field="--scheduler", fix=fix)
 
     if not scheduler.strip():
         raise UsageError("the scheduler address is empty", field="--scheduler", fix="give tcp://HOST:PORT")
@@ -262,7 +255,7 @@ def _connect(scheduler: str):
     from ..errors import UsageError
 
     def unreachable(why: str) -> UsageError:
-        return UsageError(f"cannot reach the Dask scheduler {scheduler!r} ({why})", field="--scheduler",
+        return UsageError(f"cannot reach the Dask scheduler {quote(scheduler)} ({why})", field="--scheduler",
                           fix="start it with `dask scheduler` and check the address")
 
     _check_address(scheduler)
@@ -290,7 +283,7 @@ def _connect(scheduler: str):
         client.wait_for_workers(1, timeout=WORKERS_TIMEOUT_S)
     except Exception:
         client.close(timeout=5)
-        raise UsageError(f"the Dask scheduler {scheduler!r} has no worker (none joined within "
+        raise UsageError(f"the Dask scheduler {quote(scheduler)} has no worker (none joined within "
                          f"{WORKERS_TIMEOUT_S} s)", field="--scheduler",
                          fix="start workers with `dask worker ADDRESS`") from None
     return client

@@ -130,9 +130,21 @@ def unique_names(s: SpectrumSet, seen: dict[str, int]) -> SpectrumSet:
     """
     from dataclasses import replace
 
+    renamed = renamed_names(s.names, seen)
+    if not renamed:
+        return s
     names = list(s.names)
     notes = [tuple(n) for n in s.notes]
-    changed = False
+    for i, (new, note) in renamed.items():
+        names[i] = new
+        notes[i] = notes[i] + (note,)
+    return replace(s, names=tuple(names), notes=tuple(notes))
+
+
+def renamed_names(names, seen: dict[str, int]) -> dict[int, tuple[str, str]]:
+    """The renaming :func:`unique_names` makes: index -> (new name, its note) for every name of
+    ``names`` already in ``seen`` (updated, in order)."""
+    out: dict[int, tuple[str, str]] = {}
     for i, n in enumerate(names):
         if n not in seen:
             seen[n] = 1
@@ -143,10 +155,8 @@ def unique_names(s: SpectrumSet, seen: dict[str, int]) -> SpectrumSet:
         seen[n] = k
         new = f"{n} ({k})"
         seen[new] = 1
-        names[i] = new
-        notes[i] = notes[i] + (f"named {new!r}: another spectrum of this run is already named {n!r}",)
-        changed = True
-    return replace(s, names=tuple(names), notes=tuple(notes)) if changed else s
+        out[i] = (new, f"named {new!r}: another spectrum of this run is already named {n!r}")
+    return out
 
 
 def read_many(

@@ -265,17 +265,20 @@ def check_channels(channels: SpectrumSet) -> None:
     for j, n in enumerate(names):
         if n in seen:
             i = seen[n]
-            where = files[i] if files[i] == files[j] else f"{files[i]} and {files[j]}"
-            raise InputError(f"two channels are both named {quote(n)}", file=where,
+            raise InputError(f"two channels are both named {quote(n)}", file=_two_files(files, i, j),
                              fix="give each channel column its own name")
         seen[n] = j
     pair = proportional_pair(channels.values)
     if pair is not None:
         i, j = pair
-        where = files[i] if files[i] == files[j] else f"{files[i]} and {files[j]}"
         raise InputError(
             f"channels {quote(names[i])} and {quote(names[j])} have one spectrum up to a factor (each divided by its "
-            f"peak, they differ by at most {PROPORTIONAL_TOL:g} of it), so no mix can tell them apart", file=where, fix="give each channel once (drop the copy or the scaled copy)")
+            f"peak, they differ by at most {PROPORTIONAL_TOL:g} of it), so no mix can tell them apart", file=_two_files(files, i, j), fix="give each channel once (drop the copy or the scaled copy)")
+
+
+def _two_files(files: list[str], i: int, j: int) -> str:
+    """Where channels i and j come from: one file, or "A and B"."""
+    return files[i] if files[i] == files[j] else f"{files[i]} and {files[j]}"
 
 
 def _files_of(files: list[str], most: int = 3) -> str:

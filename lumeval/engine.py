@@ -71,6 +71,14 @@ VALIDITY_FIGURES: frozenset[str] = frozenset(
     + tuple(f"{p}{j}" for p in ("Rf_h", "Rcs_h", "Rhs_h") for j in range(1, 17))
 )
 
+def is_validity_figure(name: str) -> bool:
+    """True when figure ``name`` (a registry name or an alias) is one of :data:`VALIDITY_FIGURES`,
+    computed against a reference illuminant and so possibly outside its validity range."""
+    from . import figures
+
+    return (figures.lookup(name) or name) in VALIDITY_FIGURES
+
+
 #: The words every output uses for the flag (terminal, JSON, CSV, HTML, verdicts).
 OUTSIDE_VALIDITY = "outside the validity range"
 
@@ -153,14 +161,8 @@ class Evaluation:
         Only the figures computed against a reference illuminant (:data:`VALIDITY_FIGURES`:
         CIE 13.3 Ra, Ri, their mean Re, DC; CIE 224 / TM-30 Rf, Rg and hue-bin values) can be; CCT is then
         undefined (NaN) rather than flagged."""
-        from . import figures
-
-        try:
-            name = figures.get(name).name  # an alias names the same figure
-        except KeyError:
-            pass
         n = len(self)
-        if self.outside_validity is None or name not in VALIDITY_FIGURES:
+        if self.outside_validity is None or not is_validity_figure(name):
             return np.zeros(n, dtype=bool)
         return np.asarray(self.outside_validity, dtype=bool)
 

@@ -539,7 +539,7 @@ def screen_outliers(
     """Flag samples whose |modified z| exceeds ``threshold`` for any screened figure.
 
     ``outside_validity`` (bool (N,), optional): samples whose reference-based figures
-    (:func:`lumeval.lots.validity.is_validity_figure`) were computed outside their validity range;
+    (:func:`lumeval.engine.is_validity_figure`) were computed outside their validity range;
     those values are not screened (their z is NaN), as undefined values are not, and count
     neither towards ``min_samples`` nor towards the median and MAD.
 
@@ -558,7 +558,8 @@ def screen_outliers(
     reasons: dict[int, list[str]] = {}  # flagged samples only (a lot may have 10^6 samples)
     zs: dict[str, np.ndarray] = {}
     from .. import figures as registry
-    from .validity import is_validity_figure, sample_flags
+    from ..engine import is_validity_figure
+    from .validity import sample_flags
 
     left_out = sample_flags(outside_validity, n)
     for name in names:
@@ -619,8 +620,8 @@ def summarise_figures(figures: Mapping[str, np.ndarray], names: Sequence[str], *
     """The :class:`FigureSummary` of each figure ``names`` of ``figures`` by :func:`describe`,
     one figure at a time (temporaries of N values, not N × figures: a lot of 10^6 samples). The
     values of the samples flagged in ``left_out`` (bool (N,) or None) are left out of the
-    figures computed against a reference illuminant (:func:`lumeval.lots.validity.is_validity_figure`)."""
-    from .validity import is_validity_figure
+    figures computed against a reference illuminant (:func:`lumeval.engine.is_validity_figure`)."""
+    from ..engine import is_validity_figure
 
     out = []
     for k in names:
@@ -669,7 +670,7 @@ def lot_statistics(
     outside_validity : array_like of bool (N,), optional
         Samples whose reference-based figures were computed outside their validity range
         (:attr:`lumeval.engine.Evaluation.outside_validity`): their values of those figures
-        (:func:`lumeval.lots.validity.is_validity_figure`) are left out of the statistics and
+        (:func:`lumeval.engine.is_validity_figure`) are left out of the statistics and
         the outlier screening and counted (``FigureSummary.outside_validity``); a note names them.
 
     Returns

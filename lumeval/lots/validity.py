@@ -25,20 +25,6 @@ RULE = ("computed outside the validity range (|Duv| > 0.05: CIE 15:2004 §9.5; C
 _NAMED_MAX = 6
 
 
-def is_validity_figure(name: str) -> bool:
-    """True when figure ``name`` (a registry name or alias) is computed against a reference
-    illuminant (:data:`lumeval.engine.VALIDITY_FIGURES`), so that it can lie outside its validity
-    range."""
-    from .. import figures
-    from ..engine import VALIDITY_FIGURES
-
-    try:
-        name = figures.get(name).name
-    except KeyError:
-        pass
-    return name in VALIDITY_FIGURES
-
-
 def sample_flags(outside_validity, n: int) -> np.ndarray | None:
     """The per-sample flag as a boolean array (n,), or None when no sample is flagged (then
     nothing is left out and the statistics take their usual path).

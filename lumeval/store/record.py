@@ -102,7 +102,8 @@ def figure_summaries(figures: dict, outside_validity=None) -> list[dict]:
     illuminant, the values of the samples flagged in ``outside_validity`` (bool (N,): computed
     outside the validity range, |Duv| > 0.05, CIE 15:2004 §9.5; the rule of the lot statistics,
     :mod:`lumeval.lots.validity`). Vectorised over the (N, F) matrix."""
-    from ..lots.validity import is_validity_figure, sample_flags
+    from ..engine import is_validity_figure
+    from ..lots.validity import sample_flags
 
     names = list(figures)
     if not names:

@@ -64,6 +64,50 @@ def test_round_trip_is_exact(tmp_path):
     assert pq.ParquetFile(p).metadata.num_row_groups == 5  # 30 rows in groups of 7
 
 
+def test_float_columns_are_byte_stream_split_and_read_back_bit_for_bit(tmp_path):
+    """Every Parquet file lumeval writes takes its options from one place
+    (archive.write_options): floating-point columns BYTE_STREAM_SPLIT (the Parquet format's
+    encoding for floats, version 2.8), other columns dictionary-encoded. An encoding must not
+    change a single bit: signed zeros, subnormals, the extremes of float64 and values one ulp
+    apart come back as written, as pyarrow (an independent reader) decodes them."""
+    from lumeval.frames import write_samples_parquet
+    from lumeval.lots.run import run_lot
+
+    s = _random_set(n=8)
+    special = np.array([0.0, -0.0, 5e-324, 2.2250738585072014e-308, 1.7976931348623157e308, 1.0,
+                        np.nextafter(1.0, 2.0), 1 / 3])
+    vals = s.values.copy()
+    vals[:, 3] = special  # one wavelength column holds them all
+    s = SpectrumSet(s.wavelengths_nm, vals, s.names, s.sources, (), s.metadata)
+    p = tmp_path / "a.parquet"
+    write_archive(s, p)
+    back = pq.read_table(p).column(wavelength_column_name(s.wavelengths_nm[3])).to_numpy()
+    assert np.array_equal(back.view(np.uint64), special.view(np.uint64))  # bit for bit
+    out = tmp_path / "samples.parquet"
+    write_samples_parquet(run_lot([str(_write_wide(tmp_path))], batch_spectra=64), out)
+    for f in (p, out):
+        meta = pq.ParquetFile(f).metadata
+        schema = pq.ParquetFile(f).schema_arrow
+        col = {meta.row_group(0).column(i).path_in_schema: meta.row_group(0).column(i) for i in range(meta.num_columns)}
+        for field in schema:
+            enc = col[field.name].encodings
+            if pa.types.is_floating(field.type):
+                assert "BYTE_STREAM_SPLIT" in enc and "RLE_DICTIONARY" not in enc, (f.name, field.name, enc)
+            elif not pa.types.is_boolean(field.type):  # (Parquet keeps booleans as bits)
+                assert "RLE_DICTIONARY" in enc, (f.name, field.name, enc)
+            assert col[field.name].compression == "ZSTD"
+
+
+def _write_wide(tmp_path):
+    """A small wide CSV of the random set (a lot input)."""
+    s = _random_set(n=12)
+    p = tmp_path / "wide.csv"
+    rows = ["wavelength," + ",".join(s.names)]
+    rows += [f"{w:g}," + ",".join(repr(float(v)) for v in s.values[:, j]) for j, w in enumerate(s.wavelengths_nm)]
+    p.write_text("\n".join(rows) + "\n")
+    return p
+
+
 def test_convert_round_trips_through_parquet(tmp_path):
     src = REPO / "spectra_demo" / "lot_2026w48" / "station_B_modules_151-200.csv"
     if not src.exists():

@@ -571,13 +571,13 @@ def metadata_column_name(key: str, taken) -> str:
 
 
 def to_parquet_bytes(spectra: SpectrumSet, *, row_group_rows: int = ROW_GROUP_ROWS) -> bytes:
-    """Serialise spectra as one Parquet file (zstd-compressed, row groups of ``row_group_rows``).
+    """Serialise spectra as one Parquet file (written as :func:`write_options` says, row groups of
+    ``row_group_rows``).
     Values are float64: reading the file back is exact."""
     pa, pq = _pa()
     sink = pa.BufferOutputStream()
     table = archive_table(spectra)
-    pq.write_table(table, sink, row_group_size=row_group_rows, compression="zstd",
-                   use_dictionary=dictionary_columns(table.schema))
+    pq.write_table(table, sink, row_group_size=row_group_rows, **write_options(table.schema))
     return sink.getvalue().to_pybytes()
 
 
@@ -588,15 +588,32 @@ def write_archive(spectra: SpectrumSet, path: str | os.PathLike, *, row_group_ro
     write_bytes(path, to_parquet_bytes(spectra, row_group_rows=row_group_rows))
 
 
-def dictionary_columns(schema) -> list[str]:
-    """The columns Parquet should dictionary-encode: all but the floating-point ones. Spectral
-    values and figures are nearly all distinct, so a dictionary only costs (pyarrow tries one
-    for every column by default and falls back page by page: writing 200,000 per-sample rows
-    took 1.14 s with it on every column, 0.50 s without it on the floats, and the file was 19 %
-    smaller); names, stations, verdicts and warnings repeat."""
+def write_options(schema) -> dict:
+    """How lumeval writes every Parquet file (archives and per-sample tables): one home.
+
+    * zstd at level -1 (one of zstd's fast levels) for every column;
+    * floating-point columns (spectral values, figures) with Parquet's ``BYTE_STREAM_SPLIT``
+      encoding and no dictionary: their values are nearly all distinct, so a dictionary only
+      costs (pyarrow tries one for every column by default and falls back page by page:
+      writing 200,000 per-sample rows took 1.14 s with it on every column, 0.50 s without it
+      on the floats, and the file was 19 % smaller), while splitting each value's bytes into
+      streams puts the exponent and high mantissa bytes together, which zstd compresses
+      where it could not compress whole doubles. Measured on this machine (2026-12-05, one
+      core): the benchmark's 200,000-spectrum archive (5 nm) written 0.30 → 0.22 CPU-s,
+      122.7 → 115.7 MB, read back 0.19 → 0.12 CPU-s; the per-sample table of a 200,000-sample
+      lot written 0.35 → 0.29 CPU-s, 122.6 → 113.5 MB. The values are unchanged (an encoding,
+      not a rounding). ``BYTE_STREAM_SPLIT`` is in the Parquet format since version 2.8
+      (2019): pyarrow, DuckDB, polars and Spark 3.2 or later read it; an older reader may not;
+    * names, stations, verdicts and warnings (everything not floating-point) dictionary-
+      encoded: they repeat.
+    """
     import pyarrow as pa
 
-    return [f.name for f in schema if not pa.types.is_floating(f.type)]
+    floats = [f.name for f in schema if pa.types.is_float32(f.type) or pa.types.is_float64(f.type)]
+    taken = set(floats)
+    return {"compression": "zstd", "compression_level": -1,
+            "use_dictionary": [f.name for f in schema if f.name not in taken and not pa.types.is_floating(f.type)],
+            "column_encoding": dict.fromkeys(floats, "BYTE_STREAM_SPLIT")}
 
 
 def write_tables(path: str | os.PathLike, schema, tables, *, option: str | None = None) -> None:
@@ -607,7 +624,7 @@ def write_tables(path: str | os.PathLike, schema, tables, *, option: str | None 
 
     _, pq = _pa()
     with atomic_output(path, option=option) as fh:
-        writer = pq.ParquetWriter(fh, schema, compression="zstd", use_dictionary=dictionary_columns(schema))
+        writer = pq.ParquetWriter(fh, schema, **write_options(schema))
         try:
             for t in tables:
                 writer.write_table(t)

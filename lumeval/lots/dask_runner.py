@@ -304,11 +304,30 @@ def _client(scheduler: str | None, workers: int | None):
         return _connect(scheduler), None
     if workers is None or workers < 1 or workers > 256:
         raise UsageError(f"--workers must be 1 to 256, not {workers}", field="--workers", fix="give the number of processes")
+    import tempfile
+
+    import dask
     from distributed import Client, LocalCluster
 
-    cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
-                           dashboard_address=None, silence_logs=40)
+    # the scheduler's and workers' scratch space in a folder of this run's own, removed by
+    # _close: by default Dask keeps $TMPDIR/dask-scratch-space and its lock files after a run
+    scratch = tempfile.mkdtemp(prefix="lumeval-dask-")
+    try:
+        with dask.config.set({"temporary-directory": scratch}):
+            cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                   dashboard_address=None, silence_logs=40, local_directory=scratch)
+    except BaseException:
+        _remove_scratch(scratch)
+        raise
+    cluster.lumeval_scratch = scratch  # type: ignore[attr-defined]  # read back by _close
     return Client(cluster, set_as_default=False), cluster
+
+
+def _remove_scratch(folder: str | None) -> None:
+    if folder:
+        import shutil
+
+        shutil.rmtree(folder, ignore_errors=True)
 
 
 def _cluster_failure(exc: BaseException, where: str, client=None, fut=None):
@@ -506,7 +525,8 @@ def run_lot_dask(
 
 
 def _close(client, cluster) -> None:
-    """Close the client (and the local cluster) without letting a lost connection raise."""
+    """Close the client (and the local cluster, removing its scratch folder) without letting a
+    lost connection raise."""
     for c in (client, cluster):
         if c is None:
             continue
@@ -514,3 +534,4 @@ def _close(client, cluster) -> None:
             c.close(timeout=10)
         except Exception:
             pass
+    _remove_scratch(getattr(cluster, "lumeval_scratch", None))

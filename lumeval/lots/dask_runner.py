@@ -315,7 +315,11 @@ def _client(scheduler: str | None, workers: int | None):
     try:
         with dask.config.set({"temporary-directory": scratch}):
             cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
-                                   dashboard_address=None, silence_logs=40, local_directory=scratch)
+                                   dashboard_address=None, silence_logs=40, local_directory=scratch,
+                                   # without a dashboard the scheduler still serves HTTP (health,
+                                   # metrics) on 8787, warning on stderr when that port is taken:
+                                   # any free port of the loopback instead
+                                   scheduler_kwargs={"dashboard_address": "127.0.0.1:0"})
     except BaseException:
         _remove_scratch(scratch)
         raise

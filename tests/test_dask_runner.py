@@ -193,7 +193,11 @@ def test_refusals_are_one_line(arch, tmp_path):
         (["lot", str(one), "--workers", "1"], "is not a Parquet archive"),
         (["lot", str(arch), "--workers", "1", "--scheduler", "tcp://127.0.0.1:1"], "--scheduler and --workers both"),
         (["lot", str(arch), "--workers", "0"], "--workers must be 1 to 256"),
-        (["lot", str(arch), "--scheduler", f"tcp://127.0.0.1:{_free_port()}"], "cannot reach the Dask scheduler"),
+        (["lot", str(arch), "--scheduler", f"tcp://127.0.0.1:{_free_port()}"],
+         "cannot reach the Dask scheduler"),
+        # said at once (Dask's connect retried a refused connection for 10 s and said it timed out)
+        (["lot", str(arch), "--scheduler", f"tcp://127.0.0.1:{_free_port()}"], "connection refused"),
+        (["lot", str(arch), "--scheduler", "tcp://no-such-host.invalid:8786"], "cannot be resolved"),
     ]
     for args, expected in cases:
         r = subprocess.run([sys.executable, "-m", "lumeval", *args, "--quiet"], capture_output=True, text=True,

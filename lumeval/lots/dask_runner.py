@@ -236,6 +236,9 @@ def _probe(scheduler: str, timeout: float) -> str | None:
                                               **Security().get_connection_args("client")), timeout)
         await comm.close()
 
+    why = _tcp_reachable(scheduler, timeout)
+    if why is not None:
+        return why
     pool = ThreadPoolExecutor(1)
     try:
         pool.submit(asyncio.run, hello()).result(timeout + 5)
@@ -245,6 +248,30 @@ def _probe(scheduler: str, timeout: float) -> str | None:
         return _short(exc)
     finally:
         pool.shutdown(wait=False)
+    return None
+
+
+def _tcp_reachable(scheduler: str, timeout: float) -> str | None:
+    """None when something accepts a TCP connection at the address (checked by
+    :func:`_check_address`), else why not. Dask's own connect retries a refused connection
+    until its timeout: a scheduler address with nothing listening took 10 s to refuse, where
+    the system says so at once."""
+    import socket
+
+    from distributed.comm import parse_address
+    from distributed.comm.addressing import parse_host_port
+
+    host, port = parse_host_port(parse_address(scheduler)[1])
+    try:
+        socket.create_connection((host, port), timeout=timeout).close()
+    except ConnectionRefusedError:
+        return "connection refused: nothing listens at that address"
+    except socket.gaierror as exc:
+        return f"host name {quote(host)} cannot be resolved: {exc.strerror or exc}"
+    except TimeoutError:
+        return f"no answer within {timeout:g} s"
+    except OSError as exc:
+        return _short(exc)
     return None
 
 

@@ -68,20 +68,39 @@ class WorkerPool:
         """Run ``fn(*args)`` in a worker; returns a future for :meth:`result`."""
         return self._ex.submit(fn, *args)
 
-    @staticmethod
-    def result(future):
+    def result(self, future):
         """The call's return value (its exception is raised here); :class:`WorkerError` when
-        its worker ended without finishing."""
+        its worker ended without finishing.
+
+        The executor notices a dead worker itself, but not one that died part-way through
+        sending a result (killed by the system when memory ran out, say): its thread then reads
+        the rest of the message from a pipe whose write end this process and the other workers
+        hold too (see :meth:`terminate`), so neither the rest nor an end of file comes and the
+        result would be awaited for good. So the result is awaited in steps of :data:`POLL_S`,
+        and a worker found ended with a failure before it came stops the pool
+        (:meth:`terminate`). A result that came is returned, and a worker that ended normally
+        (exit code 0: retired by the executor) is no failure."""
+        from concurrent.futures import wait
         from concurrent.futures.process import BrokenProcessPool
 
         try:
+            while not wait((future,), timeout=POLL_S).done:
+                if self._a_worker_failed() and not future.done():
+                    self.terminate()
+                    raise _worker_error()
             return future.result()
         except BrokenProcessPool:
-            from .errors import WorkerError
+            raise _worker_error() from None
 
-            raise WorkerError("a worker process ended before finishing its work (stopped by a signal, or by "
-                              "the system when memory ran out); unfinished outputs were not written",
-                              fix="run again; if it recurs, use --processes 1 or free some memory") from None
+    def _a_worker_failed(self) -> bool:
+        """True when a worker process ended with a non-zero exit code (a signal's is negative),
+        or is gone although no exit code was read (reaped elsewhere: with SIGCHLD ignored, say)."""
+        for p in tuple((self._ex._processes or {}).values()):  # the executor's thread edits it
+            if p.exitcode is None and _exists(p.pid):
+                continue  # running, or ended a moment ago (its exit code is read at the next look)
+            if p.exitcode != 0:  # read again: the executor's thread may have reaped it meanwhile
+                return True
+        return False
 
     def terminate(self) -> None:
         """Stop the workers at once (results not yet taken are dropped), and the executor's
@@ -111,6 +130,28 @@ class WorkerPool:
         if thread is not None:
             thread.join(THREAD_GRACE)
 
+
+def _exists(pid) -> bool:
+    """True while process ``pid`` exists (running, or ended and not reaped yet) and is ours."""
+    try:
+        os.kill(pid, 0)
+    except OSError:  # no such process, or another user's (the pid was reused)
+        return False
+    return True
+
+
+def _worker_error():
+    from .errors import WorkerError
+
+    return WorkerError("a worker process ended before finishing its work (stopped by a signal, or by "
+                       "the system when memory ran out); unfinished outputs were not written",
+                       fix="run again; if it recurs, use --processes 1 or free some memory")
+
+
+#: Seconds :meth:`WorkerPool.result` waits for a result between looks at the workers: a result
+#: is taken as soon as it comes; this only bounds how long a worker that died mid-send goes
+#: unnoticed (a look costs microseconds).
+POLL_S = 0.5
 
 #: Seconds :meth:`WorkerPool.terminate` waits for the executor's thread to end (it ends at once
 #: unless a process forked later still holds the result pipe; :func:`lumeval._stop.settle` then

@@ -16,6 +16,8 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+from .verdicts import CHROMATICITY_KINDS
+
 #: How a placeholder reads in the text; the specifier replaces each before issuing the tender.
 PLACEHOLDER = "**[SPECIFY: {}]**"
 
@@ -59,7 +61,7 @@ class _Needs:
     settings: bool
 
 
-_CHROMATICITY_KINDS = {"ansi_quadrangle", "sdcm", "series_shift", "track_locus", "lot_centroid_steps", "lot_max_pairwise"}
+_CHROMATICITY_KINDS = CHROMATICITY_KINDS  # one list of them (criteria.verdicts)
 _IRRADIANCE = {"illuminance_lx", "melanopic_edi_lx"}
 _RADIANCE = {"luminance_cd_m2", "melanopic_edl_cd_m2"}
 _MELANOPIC = {"melanopic_der", "melanopic_edi_lx", "melanopic_edl_cd_m2"}

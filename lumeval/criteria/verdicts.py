@@ -119,6 +119,28 @@ class ClauseResult:
         return np.array([o == FAIL for o in self.outcome], dtype=bool)
 
 
+#: Clause kinds that judge where a chromaticity lies: a region (ANSI quadrangle, SDCM ellipse),
+#: a shift along a range of settings, the distance from the locus over a range, a lot's
+#: chromaticity consistency. A ``figure`` clause is a chromaticity requirement when its figure
+#: is (CCT or Duv band, ANSI category, SDCM steps, x, y ...): :func:`judges_chromaticity`.
+CHROMATICITY_KINDS = frozenset({"ansi_quadrangle", "sdcm", "series_shift", "track_locus", "lot_centroid_steps",
+                                "lot_max_pairwise"})
+
+
+def judges_chromaticity(kind: str, figure: str) -> bool:
+    """Whether a clause result of ``kind`` on ``figure`` is a chromaticity requirement: a kind of
+    :data:`CHROMATICITY_KINDS`, or a clause on a figure of the registry's chromaticity group
+    (also for a row without a kind, e.g. a verdict row given as a mapping)."""
+    if kind in CHROMATICITY_KINDS:
+        return True
+    if kind not in ("", "figure"):
+        return False
+    from .. import figures
+
+    name = figures.lookup(figure) if figure else None
+    return name is not None and figures.get(name).group == "chromaticity"
+
+
 def margin_to_limits(measured, lower: float | None, upper: float | None) -> np.ndarray:
     """Signed distance of ``measured`` (N,) to the interval [lower, upper], positive inside.
 

@@ -299,6 +299,7 @@ def chromaticity_figure(
     show_centroid: bool | None = None,
     title: str | None = None,
     diagram: str = "uv",
+    marker_basis: str | None = None,
 ):
     """Sample chromaticities near the Planckian locus in CIE 1960 (u, v) or CIE 1931 (x, y).
 
@@ -329,6 +330,8 @@ def chromaticity_figure(
     show_centroid : bool, optional
         Default: when N ≥ 2.
     diagram : ``"uv"`` (default) or ``"xy"``
+    marker_basis : str, optional
+        Which requirements ``failed`` reflects, said in the legend ("sample (<basis>): passed").
 
     Artists carry ``gid`` values for tests and SVG ids: ``planckian-locus``,
     ``isotemperature-<T>``, ``duv-<value>``, ``region-<k>``, ``samples-pass``,
@@ -372,7 +375,7 @@ def chromaticity_figure(
         _draw_isotemperature_lines(ax, tf, xlim, ylim)
         _draw_regions(ax, regs)
 
-        _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim)
+        _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim, marker_basis)
         if show_centroid is None:
             show_centroid = int(fin.sum()) >= 2
         if show_centroid and fin.any():
@@ -469,8 +472,9 @@ def _draw_regions(ax, regs) -> None:
         ax.add_patch(poly)
 
 
-def _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim) -> None:
-    """The samples: filled circle passed, ✗ failed, hollow circle not judged; labelled when few."""
+def _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim, basis: str | None = None) -> None:
+    """The samples: filled circle passed, ✗ failed, hollow circle not judged (on ``basis``, said
+    in the legend); labelled when few."""
     n = pu.size
     f = np.array([None if x is None else bool(x) for x in failed], dtype=object)
     groups = (
@@ -483,6 +487,7 @@ def _draw_samples(ax, pu, pv, fin, failed, labels, xlim, ylim) -> None:
         m = mask.astype(bool) & fin
         if m.any():
             style = {"ms": ms, "mew": 0.8, "ls": "none", **style}
+            lab = lab.replace("sample:", f"sample ({basis}):") if basis else lab
             ax.plot(pu[m], pv[m], gid=gid, label=f"{lab} ({int(m.sum())})", zorder=5,
                     rasterized=bool(fin.sum() > RASTER_POINTS), **style)
     if labels is not None and 1 <= n <= 6:

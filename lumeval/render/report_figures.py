@@ -79,10 +79,12 @@ def _reference_label(cct: float) -> str:
     return f"CIE 13.3 reference: {kind} at {cct:.0f} K"
 
 
-def _sample_failed(rows: list[VerdictRow], names: Sequence[str]) -> list[bool | None]:
+def _sample_failed(rows: list[VerdictRow], names: Sequence[str], keep=None) -> list[bool | None]:
+    """Per sample: True when a clause (of those ``keep(row)`` accepts; default all) failed, False
+    when all passed, None when none was judged or one could not be decided."""
     out: list[bool | None] = []
     for n in names:
-        mine = [r.outcome for r in rows if r.sample == n]
+        mine = [r.outcome for r in rows if r.sample == n and (keep is None or keep(r))]
         if not mine:
             out.append(None)
         elif "fail" in mine:
@@ -92,6 +94,21 @@ def _sample_failed(rows: list[VerdictRow], names: Sequence[str]) -> list[bool | 
         else:
             out.append(None)
     return out
+
+
+#: What the markers of the chromaticity diagrams show, in their legend.
+CHROMATICITY_MARKER_BASIS = "chromaticity requirements"
+
+
+def chromaticity_markers(rows: list[VerdictRow], names: Sequence[str]) -> list[bool | None]:
+    """The marker of each sample on the chromaticity diagrams (True ✗, False passed, None
+    hollow): the outcome of its *chromaticity* requirements only — ANSI quadrangle, SDCM
+    ellipse, CCT and Duv bands (:func:`lumeval.criteria.verdicts.judges_chromaticity`). A sample
+    that failed only, say, Ra is drawn as passed inside the region it meets; its overall verdict
+    is in the verdict table. None where no chromaticity requirement was judged."""
+    from ..criteria.verdicts import judges_chromaticity
+
+    return _sample_failed(rows, names, lambda r: judges_chromaticity(r.kind, r.figure))
 
 
 def report_figures(
@@ -114,6 +131,7 @@ def report_figures(
     if limits:
         lim.update({k: tuple(v) for k, v in limits.items()})
     failed = _sample_failed(rows, names)
+    chroma_failed = chromaticity_markers(rows, names)
     as_lot = _as_lot(lot, n, per_sample_max)
     cct = _fig(ev, "cct_K")
     figs: list[ReportFigure] = []
@@ -125,11 +143,12 @@ def report_figures(
         + (", the criteria region(s) (blue dashed, hatched)" if regions else "")
         + (", every sample, their centroid (+) and spread (2σ ellipse)" if as_lot and n >= 2
            else (", the samples" if n > 1 else ", the sample"))
-        + ". Markers: ✗ failed a criterion, filled circle passed, hollow circle not judged.",
-        plots.chromaticity_figure(_fig(ev, "u"), _fig(ev, "v"), labels=names, failed=failed,
-                                  regions=_regions(regions), show_centroid=as_lot and n >= 2),
+        + ". " + _CHROMATICITY_MARKERS,
+        plots.chromaticity_figure(_fig(ev, "u"), _fig(ev, "v"), labels=names, failed=chroma_failed,
+                                  regions=_regions(regions), show_centroid=as_lot and n >= 2,
+                                  marker_basis=CHROMATICITY_MARKER_BASIS),
     ))
-    figs += _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot)
+    figs += _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot, chroma_failed)
 
     if not as_lot:
         for i, name in enumerate(names):
@@ -201,8 +220,16 @@ def report_figures(
     return figs
 
 
-def _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot) -> list[ReportFigure]:
-    """The CIE 1931 (x, y) diagram and the Rf-Rg chart (all spectra in one of each)."""
+#: The captions' words for the markers of the chromaticity diagrams (our own wording).
+_CHROMATICITY_MARKERS = ("Markers show the chromaticity requirements only (quadrangle, SDCM ellipse, CCT and Duv "
+                         "bands): ✗ failed one, filled circle met all, hollow circle none judged; a sample that "
+                         "failed another requirement (e.g. Ra) is marked here by its chromaticity alone — its "
+                         "overall verdict is in the verdict table.")
+
+
+def _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot, chroma_failed) -> list[ReportFigure]:
+    """The CIE 1931 (x, y) diagram (markers: ``chroma_failed``) and the Rf-Rg chart (all
+    spectra in one of each)."""
     from . import plots
     from .tm30_plots import fidelity_gamut_figure
 
@@ -211,9 +238,11 @@ def _xy_and_gamut_figures(ev, names, failed, regions, lim, as_lot) -> list[Repor
         "chromaticity-xy", "Chromaticity in CIE 1931 (x, y)",
         "The same samples and criteria regions in the CIE 1931 (x, y) diagram, where ANSI C78.377 quadrangles and "
         "SDCM ellipses are usually read; Planckian locus, isotemperature lines and lines of constant Duv as in the "
-        "(u, v) view. Inset: the whole diagram (spectrum locus, CIE 1931 2°) with the enlarged window.",
-        plots.chromaticity_xy_figure(_fig(ev, "x"), _fig(ev, "y"), labels=names, failed=failed,
-                                     regions=_regions(regions), show_centroid=as_lot and n >= 2),
+        "(u, v) view. Inset: the whole diagram (spectrum locus, CIE 1931 2°) with the enlarged window. "
+        + _CHROMATICITY_MARKERS,
+        plots.chromaticity_xy_figure(_fig(ev, "x"), _fig(ev, "y"), labels=names, failed=chroma_failed,
+                                     regions=_regions(regions), show_centroid=as_lot and n >= 2,
+                                     marker_basis=CHROMATICITY_MARKER_BASIS),
     )]
     Rf, Rg = _fig(ev, "Rf"), _fig(ev, "Rg")
     if np.any(np.isfinite(Rf) & np.isfinite(Rg)):

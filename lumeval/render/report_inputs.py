@@ -90,6 +90,9 @@ class VerdictRow:
     margin: float | None
     outcome: str
     reason: str = ""
+    #: The clause kind (``figure``, ``ansi_quadrangle``, ``sdcm``...; "" when a row given as a
+    #: mapping does not say): with ``figure`` it tells a chromaticity requirement from others.
+    kind: str = ""
     #: Expanded uncertainty U = k·u of the judged quantity and the probability of conformance,
     #: when the check ran under measurement uncertainty (lumeval.uncertainty).
     expanded_uncertainty: float | None = None
@@ -161,6 +164,7 @@ def _expand_check(check, names: Sequence[str]) -> list[VerdictRow]:
         reason = tuple(getattr(r, "reason", ()) or ())
         big_u = (getattr(r, "details", None) or {}).get("U")
         p_c = getattr(r, "p_conformance", None)
+        kind = str(getattr(r, "kind", "") or "")
         for i, o in enumerate(outcome):
             rows.append(
                 VerdictRow(
@@ -175,6 +179,7 @@ def _expand_check(check, names: Sequence[str]) -> list[VerdictRow]:
                     margin=float(margin[i]) if i < margin.size else None,
                     outcome=_outcome_of({"outcome": o}),
                     reason=reason[i] if i < len(reason) else "",
+                    kind=kind,
                     expanded_uncertainty=_opt_float(big_u[i]) if big_u is not None and i < len(big_u) else None,
                     p_conformance=_opt_float(p_c[i]) if p_c is not None and i < len(p_c) else None,
                     origin=(r, i),
@@ -212,6 +217,7 @@ def _one_row(row) -> VerdictRow:
         margin=_opt_float(_get(row, "margin")),
         outcome=_outcome_of(row),
         reason=str(_get(row, "reason", "note", default="") or ""),
+        kind=str(_get(row, "kind", default="") or ""),
     )
 
 

@@ -6,7 +6,8 @@ carried by marker shape and line style as well as colour, CIE 1960 (u, v) diagra
 * :func:`trajectory_figure` — the settings' chromaticities joined in setting order on the
   chromaticity diagram (drawn by :func:`lumeval.render.plots.chromaticity_figure`: Planckian
   locus, isotemperature lines, lines of constant Duv), with the ANSI C78.377-2017 quadrangles
-  the trajectory crosses, each setting marked by its verdict and the ends labelled;
+  the trajectory crosses, each setting marked by the verdict of its chromaticity requirements
+  (:func:`trajectory_markers`) and the ends labelled;
 * :func:`figures_versus_setting` — Ra, R9, Rf, Rg, Duv and LER against the setting, with the
   criteria limits over their ranges (dashed) and the settings not reachable shaded.
 
@@ -55,6 +56,25 @@ def _settings(report) -> np.ndarray:
     return np.asarray(r.target_cct_K if report.kind == "mix" else r.settings, dtype=float)
 
 
+def trajectory_markers(report) -> list[bool | None] | None:
+    """The marker of each setting on the trajectory (True ✗, False passed, None hollow): the
+    verdict of its chromaticity requirements only (quadrangle, SDCM ellipse, CCT and Duv bands,
+    track_locus ...: :func:`lumeval.criteria.verdicts.judges_chromaticity`); a setting that
+    failed only, say, Ra keeps a pass marker. None (no criteria) when nothing was judged."""
+    from ..criteria.range_clauses import NOT_APPLICABLE
+    from ..criteria.verdicts import combine_outcomes, judges_chromaticity
+
+    check = report.check
+    if check is None:
+        return None
+    mine = [rr.outcome for rr in check.results if judges_chromaticity(rr.result.kind, rr.result.figure)]
+    out: list[bool | None] = []
+    for i in range(len(report.result)):
+        outs = [o[i] for o in mine if o[i] != NOT_APPLICABLE]
+        out.append({"fail": True, "pass": False}.get(combine_outcomes(outs)) if outs else None)
+    return out
+
+
 def trajectory_figure(report, *, title: str | None = None):
     """The chromaticity trajectory on the CIE 1960 (u, v) diagram with the ANSI categories it
     crosses (see the module docstring). Artists: the base diagram's, plus ``trajectory``."""
@@ -67,11 +87,12 @@ def trajectory_figure(report, *, title: str | None = None):
     cats = sorted({int(c.split()[0]) for c in ansi_category(upvp) if c})
     regs = [{"label": f"ANSI C78.377-2017 {c} K", "vertices": regions.ansi_quadrangle(c).corners_upvp, "space": "u'v'"}
             for c in cats]
-    failed = None
-    if report.check is not None:
-        failed = [{"fail": True, "pass": False}.get(report.check.verdict(i)) for i in range(len(r))]
+    from .report_figures import CHROMATICITY_MARKER_BASIS
+
+    failed = trajectory_markers(report)
     fig = chromaticity_figure(u, v, failed=failed, regions=regs, show_centroid=False,
-                              title=title or "Chromaticity trajectory over the settings")
+                              title=title or "Chromaticity trajectory over the settings",
+                              marker_basis=CHROMATICITY_MARKER_BASIS)
     ax = fig.axes[0]
     fin = np.isfinite(u) & np.isfinite(v)
     labels = _per_setting(report)[0]
@@ -86,7 +107,7 @@ def trajectory_figure(report, *, title: str | None = None):
     for line in ax.get_lines():
         gid = line.get_gid() or ""
         if gid.startswith("samples-"):
-            line.set_label(line.get_label().replace("sample:", "setting:"))
+            line.set_label(line.get_label().replace("sample", "setting", 1))
     for leg in fig.legends:
         leg.remove()
     fig.legend(loc="outside lower center", ncols=3, frameon=False, fontsize=7)
@@ -266,7 +287,9 @@ def tunable_view(report, *, command: str | None = None, generated_at=None) -> Tu
         ("trajectory", trajectory_figure(report),
          "The chromaticity at each setting, joined in setting order, on the CIE 1960 (u, v) diagram with the Planckian "
          "locus, isotemperature lines and lines of constant Duv; hatched outlines: the ANSI C78.377-2017 quadrangles the "
-         "trajectory falls in. ✗: a setting that failed a clause."),
+         "trajectory falls in. Markers show the chromaticity requirements only (quadrangle, SDCM ellipse, CCT and Duv "
+         "bands, distance from the locus): ✗ failed one, filled circle met all; a setting that failed another "
+         "requirement (e.g. Ra) is marked by its chromaticity alone — its verdict is in the table."),
         ("versus-setting", figures_versus_setting(report),
          "Ra, R9, Rf, Rg, Duv and LER against the setting; dashed lines: a clause's limits over its range."),
     )):

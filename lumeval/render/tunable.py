@@ -381,7 +381,9 @@ def to_json(report) -> str:
 
 def to_csv(report) -> str:
     """One row per setting: setting, weights (mix) or Δu′v′ (series), every figure, each
-    clause's outcome (``clause:<id>``) and the setting's verdict."""
+    clause's outcome (``clause:<id>``) and the setting's verdict; a mix ends with ``notes``: the
+    setpoint's own notes (e.g. the optimiser's iteration limit, the CIE 13.3 reference switch)
+    joined with "; ", empty when none or not reachable."""
     FIGURE_NAMES = csv_figures()
     r = report.result
     labels, avail, _reasons = _per_setting(report)
@@ -394,6 +396,8 @@ def to_csv(report) -> str:
     check = report.check
     if check is not None:
         head += [f"clause:{_csv_cell(rr.result.clause_id)}" for rr in check.results] + ["verdict"]
+    if report.kind == "mix":
+        head.append("notes")
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(head)
@@ -413,6 +417,9 @@ def to_csv(report) -> str:
         row += [cell(figs[n][i]) for n in FIGURE_NAMES] + [cats[i]]
         if check is not None:
             row += [rr.outcome[i] for rr in check.results] + [check.verdict(i)]
+        if report.kind == "mix":
+            k = int(r.index[i])  # the setpoint's row in the evaluation, −1 where not reachable
+            row.append(_csv_cell("; ".join(r.evaluation.warnings[k])) if k >= 0 else "")
         w.writerow(row)
     from .tables import csv_notes
 

@@ -95,6 +95,23 @@ SLSQP_MAXITER = 40
 #: The note of a setpoint whose search stopped at the iteration limit.
 LIMIT_NOTE = ("the optimiser stopped at its iteration limit before converging: the maximised figure may be slightly "
               "below the best these channels can reach at this setpoint")
+#: Half-width (K) of the band around the CIE 13.3 reference switch (5000 K) in which a setpoint
+#: carries :data:`REFERENCE_SWITCH_NOTE`. The mix reaches its target CCT to numerical precision,
+#: so in the model only a target at 5000 K itself sits on the switch; but a product built to the
+#: setpoint, or the same chromaticity through another valid CCT method, is not held within a
+#: few kelvin of it (Ohno 2014 states about 1 K for his method, quoted from memory; the model leaves out droop and current shifts,
+#: :data:`MODEL_NOTE`), and 10 K at 5000 K is a chromaticity step of only Δuv ≈ 0.00014 — below
+#: what a re-measurement of chromaticity usually repeats (common practice, no source). ±10 K
+#: covers that reach of the switch while leaving the neighbours on the usual 50 K and 100 K
+#: setpoint grids (4950 K, 5050 K) without the note.
+REFERENCE_SWITCH_BAND_K = 10.0
+#: The note of a setpoint whose target CCT lies within :data:`REFERENCE_SWITCH_BAND_K` of 5000 K.
+REFERENCE_SWITCH_NOTE = (
+    f"reference switch: the target CCT lies within ±{REFERENCE_SWITCH_BAND_K:g} K of 5000 K, where CIE 13.3 "
+    "changes Ra's reference from the Planckian radiator (below) to CIE daylight (from 5000 K on); Ra and R1-R14 "
+    "can jump between setpoints either side of it, and the product measured a few kelvin off this target may be "
+    "rated against the other reference"
+)
 #: Most setpoints one run accepts (a 1 K step over 1000-20000 K is 19,001).
 MAX_SETPOINTS = 20001
 #: Target CCT range: where lumeval reports CCT (Ohno 2014's stated range).
@@ -639,11 +656,23 @@ def mix(
         src = tuple("mix: " + ", ".join(f"{c} × {w:.4f}" for c, w in zip(channels.names, row)) for row in wr)
         chan_notes = tuple(dict.fromkeys(x for ns in channels.notes for x in ns))
         # a setpoint whose search stopped at the iteration limit says so with its own figures
-        per_notes = tuple(chan_notes + ((LIMIT_NOTE,) if s else ()) for s in stopped[reach])
+        # and one near the CIE 13.3 reference switch that Ra may jump there
+        near = reference_switch_near(targets)
+        per_notes = tuple(chan_notes + ((LIMIT_NOTE,) if s else ()) + ((REFERENCE_SWITCH_NOTE,) if k else ())
+                          for s, k in zip(stopped[reach], near[reach]))
         ss = SpectrumSet(channels.wavelengths_nm, wr @ channels.values, names, src,
                          per_notes, tuple({} for _ in names), prepared=True)
         ev = evaluate(ss, progress=progress)
     return MixResult(channels, targets, tduv, reach, reasons, W, ev, index, fig, method, tuple(run_notes))
+
+
+def reference_switch_near(targets_K) -> np.ndarray:
+    """Boolean (N,): the target CCT lies within :data:`REFERENCE_SWITCH_BAND_K` of the CRI
+    reference switch (:data:`lumeval.metrics.cri.DAYLIGHT_FROM_K`, 5000 K), inclusive."""
+    from ..metrics.cri import DAYLIGHT_FROM_K
+
+    t = np.asarray(targets_K, dtype=float)
+    return np.abs(t - DAYLIGHT_FROM_K) <= REFERENCE_SWITCH_BAND_K
 
 
 def _names(targets, tduv) -> tuple[str, ...]:

@@ -36,6 +36,7 @@ def main(argv: list[str] | None = None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--n", type=int, default=200_000, help="spectra of the generated archive (default 200,000)")
     ap.add_argument("--archive", type=Path, help="an existing archive instead of a generated one")
+    ap.add_argument("--no-samples", action="store_true", help="the lot alone, without --samples-parquet")
     a = ap.parse_args(argv)
     sys.path.insert(0, str(BENCH))
     from run_all import compile_bytecode, run_child  # the driver: run_all.STAGE_TIMER
@@ -54,13 +55,14 @@ def main(argv: list[str] | None = None) -> None:
         import pyarrow.parquet as pq
 
         n = pq.ParquetFile(arch).metadata.num_rows
-        _, total, _, code = run_child(["lot", str(arch), "--samples-parquet", str(tmp / "s.parquet"), "--processes", "1",
-                                       "--quiet"], tmp / "stages.json")
+        out = [] if a.no_samples else ["--samples-parquet", str(tmp / "s.parquet")]
+        _, total, _, code = run_child(["lot", str(arch), *out, "--processes", "1", "--quiet"], tmp / "stages.json")
         cpu = json.loads((tmp / "stages.json").read_text())
     cpu["batch"] -= cpu["engine"]
     stages = {"engine": cpu.pop("engine"), "the rest of each batch's evaluation": cpu.pop("batch"), **cpu}
     stages["the rest (start-up, imports, CLI, summary)"] = total - sum(stages.values())
-    print(f"one-process Parquet lot of {n:,} spectra at 5 nm: {total:.2f} CPU-s (exit {code}), "
+    what = "without a per-sample file" if a.no_samples else "with --samples-parquet"
+    print(f"one-process Parquet lot of {n:,} spectra at 5 nm ({what}): {total:.2f} CPU-s (exit {code}), "
           f"{n / total:,.0f} spectra/CPU-s")
     for k, v in stages.items():
         print(f"  {k:<45} {v:7.2f} s  {v / total:5.1%}  {v / n * 1e6:6.2f} us/spectrum")

@@ -69,7 +69,7 @@ def test_partial_file_keeps_defaults_and_says_so(tmp_path):
     "text, line, words",
     [
         ("[instrument]\nbandwith_nm = 2\n", 2, "unknown key 'bandwith_nm'"),
-        ("[instrument]\nnoise_relative = 0.5\nbandwidth_nm = -1\n", 3, "≥ 0"),
+        ("[instrument]\nnoise_relative = 0.05\nbandwidth_nm = -1\n", 3, "≥ 0"),
         ("[instrument]\nnoise_relative = 2\n", 2, "not a percentage"),
         ('[instrument]\nwavelength_offset_nm = "0.2 nm"\n', 2, "must be a number"),
         ("[instrument]\nstray_light = true\n", 2, "must be a number"),

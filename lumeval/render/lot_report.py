@@ -532,6 +532,8 @@ def _lot_requirements(run) -> list:
                 f"{unc.get('rule_text', '')} Per-sample clauses judged with {mc.get('draws', '?')} Monte Carlo draws per "
                 f"sample (JCGM 101:2008, seed {mc.get('seed', '?')}), instrument model: {unc.get('instrument', {}).get('source', '')}; "
                 "lot clauses use the measured values.", style="dim"))
+            for n in unc.get("notes") or ():  # e.g. fewer than 2000 draws per sample
+                out.append(_text(f"note: {n}", style="dim"))
     return out
 
 
@@ -698,7 +700,14 @@ def _verdict_line(run) -> str:
         v = run.sample_verdicts
         if v is not None and not run.has_yield_clause:
             outcomes += list(v)
-        base = "Lot verdict: FAIL." if "fail" in outcomes else "Lot verdict: NOT PASSED (a requirement could not be judged)."
+        if "fail" in outcomes:
+            base = "Lot verdict: FAIL."
+        elif "indeterminate" in outcomes:  # judged, but the decision rule could not decide: not "not judged"
+            base = ("Lot verdict: NOT PASSED (a requirement is indeterminate under the decision rule: measured, but "
+                    "neither conformity nor non-conformity is proven"
+                    + ("; another could not be judged)." if "not judged" in outcomes else ")."))
+        else:
+            base = "Lot verdict: NOT PASSED (a requirement could not be judged)."
     elif run.unreadable:  # never "PASS" for a lot with inputs that were not read
         return (f"Lot verdict: NOT PASSED: {len(run.unreadable)} input(s) could not be read, so the lot is not fully "
                 "judged (exit code 2); the samples that were read meet the criteria.")

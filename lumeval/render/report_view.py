@@ -296,9 +296,13 @@ def _uncertainty_text(verdicts) -> str | None:
     unc = _get(verdicts, "uncertainty") if _is_check_result(verdicts) else None
     if not unc:
         return None
+    from .verdicts import margin_meaning
+
     inst = unc.get("instrument", {})
+    meaning = margin_meaning(unc.get("decision_rule"))
     return (f'{unc.get("rule_text", "")} Margins are shown ± U (expanded uncertainty from the Monte Carlo '
-            f'propagation of the instrument model {inst.get("name") or inst.get("source", "")}, JCGM 101:2008); '
+            f'propagation of the instrument model {inst.get("name") or inst.get("source", "")}, JCGM 101:2008). '
+            f"{meaning[0].upper()}{meaning[1:]} "
             "p_c is the probability of conformance (JCGM 106:2012). See docs/uncertainty.md.")
 
 

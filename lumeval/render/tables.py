@@ -276,7 +276,28 @@ def check_to_csv(result) -> str:
         for r, meas, lo, hi, mg, d, u, p, why in cols:
             w.writerow((first(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
                         meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i]), warned))
-    return buf.getvalue() + csv_notes(getattr(result, "notes", ()))
+    return buf.getvalue() + csv_notes(tuple(getattr(result, "notes", ())) + uncertainty_csv_notes(result))
+
+
+def uncertainty_csv_notes(result) -> tuple[str, ...]:
+    """The ``# note:`` rows of a check judged under measurement uncertainty (none otherwise): the
+    decision rule with k, r and the Monte Carlo's draws and seed, so that the CSV states the rule
+    with the statement of conformity (ISO/IEC 17025:2017 §7.8.6, quoted from memory), then the
+    uncertainty block's own notes (default model, few draws, an adaptive run that did not
+    stabilise)."""
+    info = getattr(result, "uncertainty", None) or {}
+    if not info:
+        return ()
+    mc = info.get("monte_carlo", {})
+    used = sorted(set(mc.get("draws_used") or ()))
+    draws = ", ".join(map(str, used)) if used else str(mc.get("draws", "?"))
+    k, r = info.get("coverage_factor", 2.0), info.get("guard_band_factor", 1.0)
+    band = "no guard band (w = 0)" if info.get("decision_rule") == "simple" else f"guard band w = r × U with r = {r:g}"
+    return (f"{info.get('rule_text', '')} (decision_rule = {info.get('decision_rule', '?')})",
+            f"expanded uncertainty U = k × u with k = {k:g} (u: column u); {band}; margins are to the tolerance limits",
+            f"Monte Carlo (JCGM 101:2008): {draws} draws per spectrum"
+            f"{' (adaptive)' if mc.get('draws') == 'adaptive' else ''}, seed {mc.get('seed', '?')}",
+            *(str(n) for n in info.get("notes", ())))
 
 
 def data_rows(text: str) -> list[list[str]]:

@@ -10,8 +10,9 @@ clauses and of every other outcome that is not a pass (not valid, indeterminate,
 colour (red/green) only repeats what the words say. Clauses the check leaves to another command
 (over a range of settings, or a whole lot) are named in the overall verdict, which then speaks
 of the requirements judged here only. An undefined figure prints as
-"n/a" with the reason below the table, never as a number. Margins are positive inside the
-acceptance zone.
+"n/a" with the reason below the table, never as a number. Margins are the distance of the
+measured value to the nearer tolerance limit, positive inside the limits; under a guarded
+decision rule the guard band is not subtracted from them (the footer says so).
 """
 
 from __future__ import annotations
@@ -97,18 +98,42 @@ def measured_text(r, i: int) -> str:
     if r.kind == "sdcm":
         return _f(r.measured[i], _more('.2f', _extra_decimals(r.margin[i], '.2f')), "steps")
     spec = _spec(r.figure)
-    return _f(r.measured[i], _more(_value_spec(r.figure), _extra_decimals(r.margin[i], spec)), r.unit)
+    return _f(r.measured[i], _more(_value_spec(r.figure), _figure_decimals(r, i, spec)), r.unit)
+
+
+def _figure_decimals(r, i: int, spec: str) -> int:
+    """Decimals beyond ``spec``'s for a figure clause's measured value, margin and U: enough that
+    the margin does not print as zero and, judged under uncertainty, that U shows two
+    significant digits (the measured value and margin then to U's decimal place: "79.5 ± 0.2,
+    margin +0.2" read the same for a margin just above the guard band and one just below)."""
+    k = _extra_decimals(r.margin[i], spec)
+    big_u = (getattr(r, "details", None) or {}).get("U")
+    if big_u is not None and i < len(big_u) and math.isfinite(float(big_u[i])) and float(big_u[i]) > 0:
+        from .view import uncertainty_decimals
+
+        k = max(k, uncertainty_decimals(float(big_u[i])) - int(spec.partition(".")[2][:-1] or 0))
+    return k
+
+
+def expanded_text(r, i: int) -> str:
+    """U of a figure clause at the decimals of its measured value and margin ("" for other kinds
+    or without a finite U)."""
+    big_u = (getattr(r, "details", None) or {}).get("U")
+    if r.kind in ("ansi_quadrangle", "sdcm") or big_u is None or not math.isfinite(float(big_u[i])):
+        return ""
+    spec = _spec(r.figure)
+    return _f(float(big_u[i]), _more(spec, _figure_decimals(r, i, spec)), r.unit)
 
 
 def margin_text(r, i: int) -> str:
-    """The margin (positive inside the acceptance zone), never printed as a misleading zero."""
+    """The margin (to the nearer tolerance limit, positive inside), never printed as a misleading zero."""
     if r.kind == "ansi_quadrangle":
         return f"{_f(r.margin[i], _more('+.4f', _extra_decimals(r.margin[i], '.4f')))} Δu'v'"
     if r.kind == "sdcm":
         k = _extra_decimals(r.margin[i], ".2f")
         return f"{_f(r.margin[i], _more('+.2f', k))} steps ({_f(r.details['delta_upvp'][i], '+.4f')} Δu'v')"
     spec = _spec(r.figure)
-    return _f(r.margin[i], "+" + _more(spec, _extra_decimals(r.margin[i], spec)), r.unit)
+    return _f(r.margin[i], "+" + _more(spec, _figure_decimals(r, i, spec)), r.unit)
 
 
 # --------------------------------------------------------------------------- words the terminal and the HTML share
@@ -281,7 +306,7 @@ def _spectrum_sections(result, skipped: bool = False) -> list:
             said = words[k][i]
             meas, res_cell = said.measured, Text(_WORD[o], style=_STYLE[o])
             if r.uncertainty is not None:
-                meas, res_cell = _with_uncertainty(r, i, meas, res_cell)
+                meas, res_cell = _with_uncertainty(r, i, meas, res_cell, said.expanded)
             t.add_row(mark, _text(r.clause_id), req, Text(meas), Text(said.margin), res_cell, style=style)
             if r.reason and r.reason[i]:
                 notes.append(f"{r.clause_id}: {r.reason[i]}")
@@ -416,17 +441,21 @@ def _not_passed_text(result) -> list:
     return [txt]
 
 
-def _with_uncertainty(r, i: int, meas: str, res_cell):
+def _with_uncertainty(r, i: int, meas: str, res_cell, expanded: str = ""):
     """Measured value with its expanded uncertainty U (and the 95 % interval), result with p_c
-    (lumeval.uncertainty; the unit of U is the unit of the judged quantity)."""
+    (lumeval.uncertainty; the unit of U is the unit of the judged quantity). ``expanded``: U
+    as the HTML report words it (:func:`lumeval.render.view.check_line`: two significant
+    digits, to the decimal place of the measured value and margin)."""
     u = float(r.uncertainty[i])
     if not math.isfinite(u):
         return meas + "\n± n/a", res_cell
     big_u = float(r.details["U"][i]) if "U" in r.details else 2.0 * u
     if r.kind == "ansi_quadrangle":
-        meas += f"\nΔu'v' ± {big_u:.1g}" if big_u < 1e-4 else f"\nΔu'v' ± {big_u:.4f}"
+        meas += f"\nΔu'v' ± {big_u:.2g}"
     elif r.kind == "sdcm":
-        meas += f"\n± {big_u:.2f} steps"
+        meas += f"\n± {big_u:.2g} steps"
+    elif expanded:
+        meas += f"\n± {expanded}"
     else:
         spec = _more(_spec(r.figure), 1)
         meas += f"\n± {_f(big_u, spec, r.unit)}"
@@ -449,7 +478,8 @@ def _uncertainty_text(info: dict):
     t.append(
         f"Measured values are shown ± U (expanded uncertainty, U = {info.get('coverage_factor', 2):g} × u) from "
         f"{mc.get('draws', '?')} Monte Carlo draws per spectrum (JCGM 101:2008, seed {mc.get('seed', '?')}); "
-        "p_c is the probability that the true value conforms (normal distribution, JCGM 106:2012 §7).\n",
+        "p_c is the probability that the true value conforms (normal distribution, JCGM 106:2012 §7; where some "
+        "draws left the quantity's domain, the fraction of all draws inside the limits).\n",
         style="dim",
     )
     t.append(
@@ -545,8 +575,20 @@ def _sources_text(result):
     t = Text("\nSources of the limits and regions:\n", style="dim")
     for s in seen:
         t.append(f"  - {clean(s)}\n", style="dim")
-    t.append(f"  Decision rule: {clean(result.results[0].decision_rule) if result.results else 'n/a'}; margins are positive inside the acceptance zone.\n", style="dim")
+    t.append(f"  Decision rule: {clean(result.results[0].decision_rule) if result.results else 'n/a'}; "
+             f"{margin_meaning((getattr(result, 'uncertainty', None) or {}).get('decision_rule'))}\n", style="dim")
     return t
+
+
+def margin_meaning(rule: str | None = None) -> str:
+    """What a printed margin is measured to, under decision rule ``rule`` (None or "simple": no
+    guard band): the clause footer of the terminal report and the rule text of the HTML one."""
+    base = "margins are the distance of the measured value to the nearer tolerance limit, positive inside the limits"
+    if rule == "guarded-acceptance":
+        return base + "; the guard band w is not subtracted: a pass needs a margin of at least w = r × U."
+    if rule == "guarded-rejection":
+        return base + "; the guard band w is not subtracted: a fail needs a margin below −w, w = r × U."
+    return base + "."
 
 
 def _cautions_text():

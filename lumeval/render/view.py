@@ -169,6 +169,8 @@ class CheckLine:
     reason: str = ""
     #: "± U, p_c …" when judged under measurement uncertainty (else "").
     uncertainty: str = ""
+    #: U alone with its unit, to the decimal place of the measured value and margin (else "").
+    expanded: str = ""
 
     @property
     def margin_with_uncertainty(self) -> str:
@@ -228,18 +230,41 @@ def check_line(r: VerdictRow) -> CheckLine:
         meas = plain_number(r.measured) + (unit if finite else "")
         marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else plain_number(r.margin, "+g") + unit
     else:
+        meas = marg = ""  # from the registry's format below
+    big_u = r.expanded_uncertainty
+    has_u = big_u is not None and math.isfinite(big_u)
+    # U to two significant digits (GUM practice, JCGM 100:2008 §7.2.6), where not already finer
+    u_text = f"{plain_number(big_u, '.2g')}{unit}" if has_u else ""
+    if words is None and fmt is not None:
         dec, signed = fmt
-        k = margin_extra_decimals(r.margin, dec)
-        meas = (format_number(r.measured, f"{'+' if signed else ''}.{dec + k}f") + unit) if finite else plain_number(r.measured)
-        marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else format_number(r.margin, f"+.{dec + k}f") + unit
-    u_text = ""
-    if r.expanded_uncertainty is not None and math.isfinite(r.expanded_uncertainty):
+        d = dec + margin_extra_decimals(r.margin, dec)
+        if big_u is not None and has_u:
+            # measured value, margin and U to one decimal place: U's second significant digit
+            # or finer, so that a margin within U of the guard band is not printed equal to it
+            d = max(d, uncertainty_decimals(big_u))
+            u_text = format_number(big_u, f".{d}f") + unit
+        meas = (format_number(r.measured, f"{'+' if signed else ''}.{d}f") + unit) if finite else plain_number(r.measured)
+        marg = "n/a" if r.margin is None or not math.isfinite(r.margin) else format_number(r.margin, f"+.{d}f") + unit
+    if has_u and words is not None and r.origin is not None:
+        from .verdicts import expanded_text
+
+        u_text = expanded_text(*r.origin) or u_text  # at the decimals of the kind's own words
+    expanded = u_text
+    if has_u:
         # the clause's judged quantity (for a chromaticity region: its Δu'v' margin) ± U
-        u_text = f" ± {plain_number(r.expanded_uncertainty, '.2g')}{unit}"
+        u_text = f" ± {u_text}"
         if r.p_conformance is not None and math.isfinite(r.p_conformance):
             p = r.p_conformance
             u_text += f", p_c {'< 0.001' if p < 0.001 else ('> 0.999' if p > 0.999 else format(p, '.3f'))}"
-    return CheckLine(r.sample, r.clause, r.limit, meas, marg, r.outcome, r.reason, u_text)
+    return CheckLine(r.sample, r.clause, r.limit, meas, marg, r.outcome, r.reason, u_text, expanded)
+
+
+def uncertainty_decimals(big_u: float, digits: int = 2) -> int:
+    """Decimals that show ``big_u`` (> 0) to ``digits`` significant digits (0 for U ≥ 10^(digits−1);
+    0 for U not finite or not positive)."""
+    if not (math.isfinite(big_u) and big_u > 0):
+        return 0
+    return max(0, digits - 1 - math.floor(math.log10(float(format(big_u, f".{digits - 1}e")))))
 
 
 def check_lines(verdicts, names: Sequence[str]) -> list[CheckLine]:

@@ -263,21 +263,28 @@ def outcomes_from_margin(margin, w, rule: DecisionRule) -> tuple[str, ...]:
     return tuple(out)
 
 
-def decide(measured, u, lower: float | None, upper: float | None, rule: DecisionRule) -> Decision:
-    """Decide a figure clause [lower, upper] for N measured values with standard uncertainties u.
-
-    The margin is min(y − T_L, T_U − y) (the distance to the nearer limit, positive inside);
-    guard band w = r·k·u; outcomes per :func:`outcomes_from_margin`; p_c per
-    :func:`probability_of_conformance`.
-    """
+def margin_to_limits(measured, lower: float | None, upper: float | None) -> np.ndarray:
+    """min(y − T_L, T_U − y): the signed distance of y to the nearer tolerance limit, positive
+    inside (+inf without limits, NaN for undefined y). The guard band is not subtracted."""
     y = np.asarray(measured, dtype=float).reshape(-1)
-    u = np.broadcast_to(np.asarray(u, dtype=float), y.shape)
     parts = []
     if lower is not None:
         parts.append(y - float(lower))
     if upper is not None:
         parts.append(float(upper) - y)
-    margin = np.minimum.reduce(parts) if parts else np.full(y.shape, np.inf)
+    return np.minimum.reduce(parts) if parts else np.full(y.shape, np.inf)
+
+
+def decide(measured, u, lower: float | None, upper: float | None, rule: DecisionRule) -> Decision:
+    """Decide a figure clause [lower, upper] for N measured values with standard uncertainties u.
+
+    The margin is min(y − T_L, T_U − y) (the distance to the nearer limit, positive inside,
+    :func:`margin_to_limits`); guard band w = r·k·u; outcomes per :func:`outcomes_from_margin`;
+    p_c per :func:`probability_of_conformance`.
+    """
+    y = np.asarray(measured, dtype=float).reshape(-1)
+    u = np.broadcast_to(np.asarray(u, dtype=float), y.shape)
+    margin = margin_to_limits(y, lower, upper)
     w = rule.guard_band(u)
     return Decision(
         outcome=outcomes_from_margin(margin, w, rule),

@@ -124,13 +124,26 @@ class InstrumentModel:
 
 
 #: Numeric parameters: key -> (upper bound accepted, unit, hint shown when the bound is exceeded).
+#: The fractions' bounds lie well above any plausible instrument and below the percentage
+#: spellings of the typical values, so "0.5" meant as 0.5 % is refused rather than read as 50 %
+#: (the former bounds 0.5, 0.5, 0.5, 0.1 let exactly those spellings through; found by a review):
+#:
+#: - noise_relative ≤ 0.1 (fraction of the signal at each sample): typical 0.002-0.01; 10 % random
+#:   noise at every sample is a reading nobody would judge colour from;
+#: - noise_absolute ≤ 0.01 (fraction of the peak): typical 1e-4-1e-3; 1 % of the peak is a
+#:   signal-to-noise ratio of 100 at the peak, ten times worse than the worst typical value;
+#: - photometric_scale ≤ 0.2 (relative): typical 0.02-0.05; 20 % is beyond any calibrated scale;
+#: - stray_light ≤ 0.01 (fraction of the peak): typical 1e-4-1e-3 uncorrected; 1 % of the peak
+#:   flat across the spectrum is ten times the worst typical value.
+#:
+#: (Typical values: common practice, no source, as in :class:`InstrumentModel`.)
 PARAMETERS: dict[str, tuple[float, str, str]] = {
     "wavelength_offset_nm": (10.0, "nm", "give a standard uncertainty in nm (typical 0.1-0.3)"),
-    "noise_relative": (0.5, "", "give a fraction, not a percentage (0.005 for 0.5 %)"),
-    "noise_absolute": (0.5, "", "give a fraction of the peak, not a percentage (0.0005 for 0.05 %)"),
+    "noise_relative": (0.1, "", "give a fraction of the signal, not a percentage (0.005 for 0.5 %)"),
+    "noise_absolute": (0.01, "", "give a fraction of the peak, not a percentage (0.0005 for 0.05 %)"),
     "bandwidth_nm": (20.0, "nm", "give the slit FWHM in nm (typical 1-5)"),
-    "photometric_scale": (0.5, "", "give a fraction, not a percentage (0.02 for 2 %)"),
-    "stray_light": (0.1, "", "give a fraction of the peak, not a percentage (0.0005 for 0.05 %)"),
+    "photometric_scale": (0.2, "", "give a fraction, not a percentage (0.02 for 2 %)"),
+    "stray_light": (0.01, "", "give a fraction of the peak, not a percentage (0.0005 for 0.05 %)"),
 }
 
 
@@ -213,9 +226,11 @@ def _number(value, *, file, text, table, key, lower=0.0, upper=math.inf, unit=""
             field=f"{table}.{key}", fix="uncertainties are never negative",
         )
     if v > upper:
+        # a dimensionless fraction: most likely a percentage, so name the fraction it would be
+        guess = f"did you mean {v / 100:g}? " if not unit else ""
         raise CriteriaError(
             f"{key} = {shown(value)} is implausibly large (above {upper:g}{(' ' + unit) if unit else ''})",
-            file=file, line=line, field=f"{table}.{key}", fix=hint,
+            file=file, line=line, field=f"{table}.{key}", fix=guess + hint,
         )
     return v
 

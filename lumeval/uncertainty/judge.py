@@ -24,7 +24,15 @@ from typing import Any
 import numpy as np
 
 from ..criteria.verdicts import NOT_VALID
-from .decision import DecisionRule, decide
+from .decision import (
+    FAIL,
+    GUARDED_ACCEPTANCE,
+    INDETERMINATE,
+    PASS,
+    DecisionRule,
+    decide,
+    margin_to_limits,
+)
 from .instrument import SEED_MAX, InstrumentModel, MonteCarloSettings, read_instrument_file
 from .montecarlo import UncertaintyResult, propagate
 
@@ -152,12 +160,14 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
             # conformity indicator: its Monte Carlo mean is the fraction of draws inside the
             # tolerance interval, p_c as the integral of the PDF over it (JCGM 106:2012 §7.1)
             # evaluated on the draws without assuming a normal distribution
-            ok = np.ones(m.shape, dtype=bool)
+            # A draw where the quantity is undefined (e.g. CCT beyond |Duv| 0.05) does not lie in
+            # the tolerance interval: it counts as non-conforming (0), never left out
+            ok = np.isfinite(m)
             if r.lower is not None:
                 ok &= m >= r.lower
             if r.upper is not None:
                 ok &= m <= r.upper
-            out[_conform_key(r)] = np.where(np.isfinite(m), ok.astype(float), np.nan)
+            out[_conform_key(r)] = ok.astype(float)
         return out
 
     keys = tuple(_clause_key(r) for r in plain.results)
@@ -169,16 +179,16 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
         j = unc.index(_clause_key(r))
         u = unc.u[:, j]
         d = decide(r.measured, u, r.lower, r.upper, setup.rule)
-        # undefined figures and figures judged 'not valid' (outside their validity range) keep
-        # their plain outcome: no decision rule makes them conform
-        outcome = tuple(o if np.isfinite(m) and r.outcome[i] != NOT_VALID else r.outcome[i]
-                        for i, (o, m) in enumerate(zip(d.outcome, r.measured)))
+        frac = unc.undefined_fraction[:, j]
+        p_mc = unc.mean[:, unc.index(_conform_key(r))]
+        # where draws left the quantity's domain the normal p_c (which sees only the defined
+        # draws' u) overstates conformance: p_c is then the fraction of all draws inside the limits
+        p_c = np.where(frac > 0, p_mc, d.p_conformance)
+        outcome, notes = _rule_outcomes(r, d, u, frac, unc.draws, setup)
         reason = list(r.reason) if r.reason else [""] * len(outcome)
-        for i, frac in enumerate(unc.undefined_fraction[:, j]):
-            if np.isfinite(r.measured[i]) and frac > 0:
-                extra_note = (f"the judged quantity was undefined in {frac * 100:.1f} % of the Monte Carlo draws; "
-                              "its uncertainty is from the others")
-                reason[i] = f"{reason[i]}; {extra_note}" if reason[i] else extra_note
+        for i, note in enumerate(notes):
+            if note:
+                reason[i] = f"{reason[i]}; {note}" if reason[i] else note
         details = dict(r.details)
         details.update({
             "u": u,
@@ -187,10 +197,11 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
             "ci95_low": unc.low[:, j],
             "ci95_high": unc.high[:, j],
             "mc_mean": unc.mean[:, j],
-            "p_conformance_mc": unc.mean[:, unc.index(_conform_key(r))],
+            "p_conformance_mc": p_mc,
+            "undefined_fraction": frac,
         })
         results.append(dataclasses.replace(
-            r, outcome=outcome, reason=tuple(reason), uncertainty=u, p_conformance=d.p_conformance,
+            r, outcome=outcome, reason=tuple(reason), uncertainty=u, p_conformance=p_c,
             decision_rule=setup.rule.summary(), details=details,
         ))
     info = uncertainty_info(setup, unc)
@@ -198,6 +209,82 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
     if any(f.name == "uncertainty" for f in dataclasses.fields(check)):
         check = dataclasses.replace(check, uncertainty=info)
     return check, unc
+
+
+def undefined_limit(setup: UncertaintySetup) -> float:
+    """The largest fraction of undefined draws with which a guarded rule still decides: 1 − p
+    (0.05 for the 95 % coverage probability). The guard band w = U stands for the 95 % spread
+    of the judged quantity; when more than 1 − p of the draws have no value at all, not even
+    the 95 % coverage interval can be made of values of the quantity, and u, U and w taken from
+    the remaining draws describe a distribution the measurement does not have."""
+    return 1.0 - setup.settings.coverage
+
+
+def _rule_outcomes(r, d, u, frac, draws, setup: UncertaintySetup) -> tuple[tuple[str, ...], list[str]]:
+    """The outcome of clause result ``r`` per spectrum under the rule (``d``: its decision from
+    the measured values) and a note for each (empty when nothing to say).
+
+    - Undefined figures and figures judged 'not valid' (outside their validity range) keep
+      their plain outcome: no decision rule makes them conform.
+    - Draws where the judged quantity is undefined: said, with how u and p_c were computed;
+      under a guarded rule, a decision that rests on the guard band (a pass under guarded
+      acceptance, a fail under guarded rejection) is not made when more than
+      :func:`undefined_limit` of the draws are undefined: indeterminate.
+    - A guarded decision whose margin lies within the Monte Carlo resolution of the guard
+      band: said, advising more draws (:func:`guard_band_resolution`).
+    """
+    rule = setup.rule
+    limit = undefined_limit(setup)
+    margin = margin_to_limits(r.measured, r.lower, r.upper)
+    n_def = np.asarray(draws, dtype=float) * (1.0 - frac)
+    res = guard_band_resolution(u, n_def, rule)
+    unit = f" {r.unit}" if r.unit and r.unit != "%" else (r.unit or "")
+    outcome, notes = [], []
+    for i, o in enumerate(d.outcome):
+        if not np.isfinite(r.measured[i]) or r.outcome[i] == NOT_VALID:
+            outcome.append(r.outcome[i])
+            notes.append("")
+            continue
+        said = []
+        on_guard = rule.guarded and o == (PASS if rule.rule == GUARDED_ACCEPTANCE else FAIL)
+        blocked = False  # not decided: too many draws undefined
+        if frac[i] > 0:
+            said.append(f"the judged quantity was undefined (outside its domain) in {frac[i] * 100:.1f} % of the "
+                        f"{int(draws[i])} Monte Carlo draws: u, U and the 95 % interval are from the "
+                        f"{int(round(n_def[i]))} defined draws only; p_c is the fraction of all draws inside the limits "
+                        "(an undefined draw counts as not conforming)")
+            if on_guard and frac[i] > limit:
+                o, blocked = INDETERMINATE, True
+                said.append(f"more than {limit * 100:g} % of the draws undefined: a guarded rule does not decide from "
+                            "the remaining draws")
+        w = d.guard_band[i]
+        # the side of the limit where the guard band decides (inside for guarded acceptance,
+        # outside for guarded rejection): pass/indeterminate or fail/indeterminate hangs on w
+        guard_side = margin[i] >= 0 if rule.rule == GUARDED_ACCEPTANCE else margin[i] < 0
+        if rule.guarded and guard_side and not blocked and np.isfinite(res[i]) and abs(abs(margin[i]) - w) < res[i]:
+            said.append(f"the margin to the limit ({margin[i]:+.3g}{unit}) is within the Monte Carlo resolution "
+                        f"(±{res[i]:.2g}{unit}) of the guard band w = {w:.3g}{unit}: another seed may decide otherwise; "
+                        "use more draws (--draws, or draws = \"adaptive\")")
+        outcome.append(o)
+        notes.append("; ".join(said))
+    return tuple(outcome), notes
+
+
+def guard_band_resolution(u, defined_draws, rule: DecisionRule) -> np.ndarray:
+    """How far a guard band w = r·k·u taken from M Monte Carlo draws may lie from the w of
+    infinitely many: 2·r·k·u/√(2(M − 1)).
+
+    u/√(2(M − 1)) is the standard deviation of a sample standard deviation from M draws of a
+    normal quantity (to first order in 1/M; the same rule docs/uncertainty.md gives, ±1.6 % for
+    M = 2000), so r·k·u/√(2(M − 1)) is that of w; the factor 2 follows the stabilisation test of
+    JCGM 101:2008 §7.9.4 (twice the standard deviation of a result within the numerical
+    tolerance; quoted from memory). NaN for a simple rule, u = 0 or fewer than 2 draws."""
+    u = np.asarray(u, dtype=float)
+    m = np.asarray(defined_draws, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = 2.0 * rule.guard_band_factor * rule.coverage_factor * u / np.sqrt(2.0 * (m - 1.0))
+    ok = rule.guarded & (u > 0) & (m >= 2)
+    return np.where(ok, out, np.nan)
 
 
 def uncertainty_info(setup: UncertaintySetup, unc: UncertaintyResult | None) -> dict:
@@ -210,8 +297,9 @@ def uncertainty_info(setup: UncertaintySetup, unc: UncertaintyResult | None) -> 
         "coverage_factor": setup.rule.coverage_factor,
         "instrument": setup.model.as_dict(),
         "monte_carlo": {
-            "method": "JCGM 101:2008 Monte Carlo; u = standard deviation of the draws; "
-                      "probabilistically symmetric coverage interval (JCGM 101 §7.7)",
+            "method": "JCGM 101:2008 Monte Carlo; u = standard deviation of the draws where the quantity is "
+                      "defined; probabilistically symmetric coverage interval (JCGM 101 §7.7) of those draws; "
+                      "p_conformance_mc = fraction of all draws inside the limits (undefined draws do not conform)",
             "draws": "adaptive" if s.adaptive else s.draws,
             "seed": s.seed,
             "coverage_probability": s.coverage,
@@ -227,7 +315,37 @@ def uncertainty_info(setup: UncertaintySetup, unc: UncertaintyResult | None) -> 
             if name in unc.quantities:
                 o = unc.of(name)
                 figs[name] = {k: [None if not np.isfinite(v) else float(v) for v in o[k]]
-                              for k in ("measured", "u", "low", "high")}
+                              for k in ("measured", "u", "low", "high", "undefined_fraction")}
         info["figures"] = figs
         info["notes"] = list(setup.notes) + list(unc.notes)
+    info["notes"] += draws_notes(s, unc)
     return info
+
+
+#: Fewest draws per spectrum without a caution: M ≥ 100/(1 − p) for p = 0.95, the basis
+#: docs/uncertainty.md gives for a 95 % coverage interval (JCGM 101:2008, quoted from memory).
+MIN_DRAWS = 2000
+
+#: Spectra named in one note before "and N more".
+_NAMES_SHOWN = 5
+
+
+def draws_notes(settings: MonteCarloSettings, unc: UncertaintyResult | None) -> list[str]:
+    """Notes on the Monte Carlo itself, for every output format: fewer than :data:`MIN_DRAWS`
+    draws for some spectrum; an adaptive run that did not stabilise (each such spectrum with the
+    draws it used). Spectrum names are text from files: the renderers escape them."""
+    out = []
+    used = [int(m) for m in unc.draws] if unc is not None else ([] if settings.adaptive else [int(settings.draws or 0)])
+    few = sorted({m for m in used if m < MIN_DRAWS})
+    if few:
+        out.append(f"only {', '.join(map(str, few))} Monte Carlo draws per spectrum, fewer than the {MIN_DRAWS} that "
+                   f"a 95 % coverage interval needs (M ≥ 100/(1 − p), JCGM 101:2008; docs/uncertainty.md): u, U, the "
+                   "guard band and p_c are rough; use --draws 2000 or more")
+    if unc is not None and not all(bool(b) for b in unc.stabilised):
+        bad = [i for i, b in enumerate(unc.stabilised) if not b]
+        named = ", ".join(f"{unc.names[i]} ({int(unc.draws[i])} draws)" for i in bad[:_NAMES_SHOWN])
+        more = f" and {len(bad) - _NAMES_SHOWN} more" if len(bad) > _NAMES_SHOWN else ""
+        out.append(f"the adaptive Monte Carlo did not stabilise (JCGM 101:2008 §7.9) within max_draws = "
+                   f"{settings.max_draws} for {len(bad)} {'spectra' if len(bad) != 1 else 'spectrum'}: {named}{more}; their "
+                   "u, U and guard bands may be off in the last digit shown: raise max_draws in [monte_carlo]")
+    return out

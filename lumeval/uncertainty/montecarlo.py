@@ -358,6 +358,25 @@ class UncertaintyResult:
         return self.u[:, self.index(name)]
 
 
+def spectrum_seed(seed: int, wavelengths_nm, values) -> np.random.SeedSequence:
+    """The random stream of one spectrum's draws: the user's ``seed`` and the spectrum's content.
+
+    ``SeedSequence(seed, spawn_key=words)`` with ``words`` the SHA-256 digest of the spectrum's
+    wavelengths and values (as prepared, little-endian float64 bytes, wavelengths first), read
+    as eight 32-bit integers. Two identical spectra get the same draws and so the same verdict,
+    wherever they stand in a run, however a lot is batched and on any number of processes
+    (a stream keyed to the position in the run gave two copies of one file different draws,
+    found by a review); different spectra get unrelated streams.
+    """
+    import hashlib
+
+    h = hashlib.sha256()
+    h.update(np.ascontiguousarray(wavelengths_nm, dtype="<f8").tobytes())
+    h.update(np.ascontiguousarray(values, dtype="<f8").tobytes())
+    words = tuple(int(w) for w in np.frombuffer(h.digest(), dtype="<u4"))
+    return np.random.SeedSequence(int(seed), spawn_key=words)
+
+
 def _figures_of(evaluation, names) -> np.ndarray:
     return np.column_stack([np.asarray(evaluation.figure(n), dtype=float) for n in names])
 
@@ -480,8 +499,8 @@ def propagate(
     evaluate_fn : callable, optional
         Replacement for :func:`lumeval.engine.evaluate` (tests).
     index_offset : int
-        Position of the first spectrum in a larger run (a lot evaluated in batches), so that
-        every spectrum of the run gets its own random stream.
+        Position of the first spectrum in a larger run. Kept for callers; it no longer changes
+        the draws (each spectrum's stream is keyed to its content, :func:`spectrum_seed`).
     progress : callable, optional
         A progress listener (:mod:`lumeval.progress`): called as
         ``progress("Monte Carlo", spectra_done, spectra_total)`` after each spectrum's draws.
@@ -492,8 +511,9 @@ def propagate(
 
     Notes
     -----
-    Spectrum i uses the random stream ``SeedSequence(seed, spawn_key=(index_offset + i,))``:
-    the same file order, model and seed reproduce every number.
+    Each spectrum uses the random stream of :func:`spectrum_seed`: the seed and the spectrum's
+    own values, so the same data, model and seed reproduce every number, in any order and
+    batching, and two identical spectra get identical results.
 
     Adaptive procedure (JCGM 101:2008 §7.9.4, quoted from memory): runs of M_b trials
     (``settings.draws_block``, default 2000 instead of the Supplement's max(100/(1−p), 10⁴), to
@@ -521,8 +541,8 @@ def propagate(
     stabilised = np.ones(n, dtype=bool)
 
     for i in range(n):
-        rng = np.random.default_rng(np.random.SeedSequence(settings.seed, spawn_key=(index_offset + i,)))
         wl, s_m = prepared.spectrum(i)  # each spectrum on its own computation grid
+        rng = np.random.default_rng(spectrum_seed(settings.seed, wl, s_m))
 
         def run(m):  # called only within this iteration, so the loop variables are current
             vals = draw_spectra(wl, s_m, instrument, m, rng)  # noqa: B023

@@ -132,7 +132,7 @@ def test_trend_json_recomputed_from_its_points(store_url):
         assert_allclose(p["ewma"], z, rtol=1e-12)
     flagged = {s["lot"] for s in doc["signals"] if s["chart"] == "xbar"}
     assert flagged and flagged <= set(range(26, 31))
-    assert all(s["rule"] in ("WE1", "WE2", "WE3", "WE4", "EWMA") for s in doc["signals"])
+    assert all(s["rule"] in ("WE1", "WE2", "WE3", "WE4", "EWMA", "limits") for s in doc["signals"])
     assert {"lot", "rule", "chart", "text"} <= set(doc["signals"][0])
     for p in pts:  # a point beyond its limits must be listed as WE1
         if p["mean"] > p["ucl"] or p["mean"] < p["lcl"]:
@@ -351,11 +351,20 @@ def test_switch_to_wal_waits_for_a_reader_holding_the_old_journal(tmp_path):
     import sqlite3
     import threading
 
+    from sqlalchemy import create_engine
+
+    from lumeval.store.db import _stamp, _tables
+
     path = tmp_path / "h.db"
+    eng = create_engine(f"sqlite:///{path}")  # a lumeval store still in the rollback journal (a database of
+    with eng.begin() as c:  # another application would be refused before the switch)
+        _tables()[0].create_all(c)
+        _stamp(c, SCHEMA_VERSION)
+    eng.dispose()
     holder = sqlite3.connect(path, isolation_level=None, check_same_thread=False)
-    holder.execute("CREATE TABLE t (x)")
+    assert holder.execute("PRAGMA journal_mode").fetchone()[0] == "delete"
     holder.execute("BEGIN")
-    holder.execute("SELECT * FROM t").fetchall()  # shared lock held
+    holder.execute("SELECT * FROM lots").fetchall()  # shared lock held
     timer = threading.Timer(0.5, lambda: holder.execute("COMMIT"))
     timer.start()
     try:

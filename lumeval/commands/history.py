@@ -66,24 +66,37 @@ def _utf8_label(option: str, value: str | None) -> None:
                          fix="give the label as UTF-8 text") from None
 
 
-def check_store_options(store, lot_id, product, trend_figures, fail_on_signal) -> list[str]:
-    """Validate ``lot``'s store options before any work: the store URL's form and the trend
-    figures. Returns the resolved trend figures."""
+def check_store_options(store, lot_id, product, trend_figures, fail_on_signal, baseline=None,
+                        baseline_count=None) -> list[str]:
+    """Validate ``lot``'s store options before any work: the store URL's form, the trend
+    figures and the alarm baseline (``--baseline A..B`` / ``--baseline-count K``, checked as
+    ``history trend`` checks them). Returns the resolved trend figures."""
     from ..errors import UsageError
 
     for opt, v in (("--lot-id", lot_id), ("--product", product)):
         _utf8_label(opt, v)
     if store is None:
         given = [o for o, v in (("--lot-id", lot_id), ("--product", product), ("--trend-figures", trend_figures),
-                                ("--fail-on-signal", fail_on_signal or None)) if v is not None]
+                                ("--fail-on-signal", fail_on_signal or None), ("--baseline", baseline),
+                                ("--baseline-count", baseline_count)) if v is not None]
         if given:
             raise UsageError(f"{given[0]} needs --store", field=given[0], fix="add --store PATH_OR_URL")
         return []
-    return parse_trend_figures(trend_figures)
+    figures = parse_trend_figures(trend_figures)
+    if baseline is not None or baseline_count is not None:
+        from ..store.trend import baseline_mask
+
+        opt = "--baseline" if baseline is not None else "--baseline-count"
+        if not figures:
+            raise UsageError(f"{opt} chooses the alarm baseline: it needs --trend-figures", field=opt,
+                             fix="add --trend-figures FIGURES, or leave the option out")
+        baseline_mask([], baseline, baseline_count)  # the form, as `history trend` checks it
+    return figures
 
 
 def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_figures=None,
-                     fail_on_signal: bool = False, exit_code: int = 0, criteria_path=None) -> int:
+                     fail_on_signal: bool = False, exit_code: int = 0, criteria_path=None, baseline=None,
+                     baseline_count=None) -> int:
     """Record a judged lot and report new control-chart signals (``lot --store``).
 
     Called after the lot's other outputs are written, so that a store that cannot be reached
@@ -91,6 +104,11 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
     go to standard error (standard output may carry the lot's JSON or CSV). Returns the exit
     code: ``exit_code`` unchanged, 2 on a store error, at least 1 when the lot triggers a
     signal and ``fail_on_signal``.
+
+    The alarms judge the lot by its store number (:func:`lumeval.store.alarm.alarm_trend`):
+    against the lots recorded before it, never itself or later lots; a lot already recorded
+    gets the signals it got at its place. ``baseline``/``baseline_count`` replace the default
+    alarm baseline.
     """
     if store is None:
         return exit_code
@@ -120,11 +138,20 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
     charted = []
     for fig in figures:
         try:
-            tr = _trend_for(store, fig, rec.product)
+            tr = _trend_for(store, fig, res.lot_id, baseline=baseline, baseline_count=baseline_count)
         except StoreError as exc:
-            print(f"lumeval: note: no control chart of {fig} yet ({exc.problem})", file=sys.stderr)
+            if exc.field in ("--baseline", "--baseline-count"):  # the user's own baseline: an error
+                print(f"lumeval: error: {exc.message} (the lot is recorded)", file=sys.stderr)
+                exit_code = max(exit_code, 2)
+                continue
+            print(f"lumeval: note: no control chart of {fig} yet ({plain(exc.problem)})", file=sys.stderr)
             continue
         charted.append(fig)
+        left = tr.extra.get("left_out") or []
+        if left:
+            shown = "; ".join(f"lot {lot} ({why})" for lot, why in left[:10])
+            more = f"; and {len(left) - 10} more" if len(left) > 10 else ""
+            print(f"lumeval: note: {fig} alarm leaves out of its baseline and charts {shown}{more}", file=sys.stderr)
         from ..render.trend_report import signal_lines
 
         for line in signal_lines(tr, res.lot_id):
@@ -137,17 +164,11 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
     return exit_code
 
 
-def _trend_for(store, figure: str, product):
-    """The alarm's trend: the lots of the recorded lot's product, default baseline (never the
-    newest lot)."""
-    from ..store.db import StoreError
-    from ..store.trend import MIN_ALARM_BASELINE, trend
+def _trend_for(store, figure: str, lot_id: int, *, baseline=None, baseline_count=None):
+    """The alarm's trend of recorded lot ``lot_id`` (:func:`lumeval.store.alarm.alarm_trend`)."""
+    from ..store.alarm import alarm_trend
 
-    tr = trend(store, figure, product=product, exclude_last=True, exact_product=True)
-    if int(tr.baseline.sum()) < MIN_ALARM_BASELINE:
-        raise StoreError(f"{int(tr.baseline.sum())} earlier lots of this product; alarms start with "
-                         f"{MIN_ALARM_BASELINE}")
-    return tr
+    return alarm_trend(store, figure, lot_id, baseline=baseline, baseline_count=baseline_count)
 
 
 # --------------------------------------------------------------------------- commands

@@ -159,6 +159,11 @@ def register(app: typer.Typer) -> None:
                                           "signals of these figures (e.g. duv,R9).", show_default=False),
         fail_on_signal: bool = typer.Option(False, "--fail-on-signal", help="Exit 1 when the recorded lot gives a "
                                             "control-chart signal."),
+        baseline: str = typer.Option(None, "--baseline", help="Alarm baseline: lots A..B (store numbers, inclusive; "
+                                     "as `history trend`; default: the first 20 earlier lots whose verdict did not "
+                                     "fail, less those beyond their trial limits).", show_default=False),
+        baseline_count: int = typer.Option(None, "--baseline-count", help="Alarm baseline: the first K lots (as "
+                                           "`history trend`).", show_default=False),
         samples_parquet: Path = typer.Option(
             None, "--samples-parquet", help="Also write the per-sample table (figures, verdicts, outliers and the "
             "archive's metadata columns) as Parquet to this file.", show_default=False),
@@ -177,7 +182,7 @@ def register(app: typer.Typer) -> None:
         from ._targets import check_targets
         from .history import check_store_options, record_after_lot
 
-        check_store_options(store, lot_id, product, trend_figures, fail_on_signal or None)
+        check_store_options(store, lot_id, product, trend_figures, fail_on_signal or None, baseline, baseline_count)
 
         outputs = {"--samples-csv": samples_csv, "--json": json_file, "--html": html,
                    "--samples-parquet": samples_parquet}
@@ -263,4 +268,5 @@ def register(app: typer.Typer) -> None:
         # sys.exit, not typer.Exit: the entry point runs click with standalone_mode=False, which
         # would turn typer.Exit into a return value and lose the code.
         sys.exit(record_after_lot(run, criteria, store=store, lot_id=lot_id, product=product, trend_figures=trend_figures,
-                                  fail_on_signal=fail_on_signal, exit_code=run.exit_code, criteria_path=criteria_file))
+                                  fail_on_signal=fail_on_signal, exit_code=run.exit_code, criteria_path=criteria_file,
+                                  baseline=baseline, baseline_count=baseline_count))

@@ -243,7 +243,11 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
     Sizes that differ (Montgomery §6.3.2, eqs. 6.31-6.32): x̿ = Σ n_i x̄_i / Σ n_i,
     s̄ = √(Σ (n_i − 1) s_i² / Σ (n_i − 1)), and each lot i gets its own limits
     x̿ ± A3(n_i) s̄, B3(n_i) s̄, B4(n_i) s̄, with s̄ as the s chart's centre line for every
-    lot, as the book draws it.
+    lot, as the book draws it (the baseline lots differ in size).
+
+    Baseline lots of one size n_b and a charted lot of another size n: that lot's limits come
+    from σ̂ = s̄/c4(n_b) with its own n, x̿ ± 3σ̂/√n, s chart centre c4(n) σ̂ and limits
+    B5(n) σ̂, B6(n) σ̂ (for n = n_b these are the A3, B3, B4 limits exactly).
 
     Lots with n < 2 have no s: they are excluded from the estimate and get NaN limits on the
     s chart; a lot of one sample gets the X̄ limits x̿ ± 3σ̂ (no A3 exists for n = 1). NaN
@@ -272,15 +276,27 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
     sigma = s_bar / float(c4(n_typ))
     with np.errstate(invalid="ignore"):
         nn = np.where(n >= 2, n, np.nan)
-        # a lot of one sample has no s (and A3(1) is undefined), but its value still has X̄
-        # limits x̿ ± 3σ̂/√1 with σ̂ from the baseline (Montgomery §6.3: the limits μ ± 3σ/√n
-        # with σ estimated)
-        half = np.where(n == 1, L_SHEWHART * sigma, a3(nn) * s_bar)
+        if equal:
+            # one baseline size: s̄ estimates c4(n_b) σ, so every lot's limits come from
+            # σ̂ = s̄/c4(n_b) with the lot's own n (Montgomery §6.3.1, the limits with σ given:
+            # μ ± 3σ/√n, s chart centre c4 σ, limits B5 σ and B6 σ; memory). For n = n_b these
+            # are exactly x̿ ± A3 s̄, s̄, B3 s̄ and B4 s̄; a lot of another size gets its own
+            # (A3(2) s̄ would be 24 % too wide beside lots of 30), as its EWMA point σ̂/√n has.
+            c = c4(nn)
+            half = L_SHEWHART * sigma / np.sqrt(np.where(n >= 1, n, np.nan))
+            s_centre = c * sigma
+            s_ucl = (c + L_SHEWHART * np.sqrt(1.0 - c * c)) * sigma
+            s_lcl = np.maximum(0.0, c - L_SHEWHART * np.sqrt(1.0 - c * c)) * sigma
+        else:
+            # a lot of one sample has no s (and A3(1) is undefined), but its value still has X̄
+            # limits x̿ ± 3σ̂/√1 with σ̂ from the baseline (Montgomery §6.3: the limits μ ± 3σ/√n
+            # with σ estimated)
+            half = np.where(n == 1, L_SHEWHART * sigma, a3(nn) * s_bar)
+            s_ucl = b4(nn) * s_bar
+            s_lcl = b3(nn) * s_bar
+            s_centre = np.where(np.isfinite(nn), s_bar, np.nan)
         ucl = grand + half
         lcl = grand - half
-        s_ucl = b4(nn) * s_bar
-        s_lcl = b3(nn) * s_bar
-    s_centre = np.where(np.isfinite(nn), s_bar, np.nan)
     return XbarSChart(mean, s, n, b, grand, s_bar, sigma, ucl, lcl, s_centre, s_ucl, s_lcl, equal)
 
 

@@ -334,8 +334,18 @@ def _first_line(exc: BaseException) -> str:
     return text[0].strip() if text else type(orig).__name__
 
 
-def _fix_for(su: StoreURL, text: str) -> str:
+#: The hint for a WAL-mode store opened with ``?mode=ro`` that SQLite could not open.
+WAL_READ_ONLY_FIX = ("a read-only view (?mode=ro) of a store in WAL mode still needs the store's -wal and -shm files "
+                     "(SQLite keeps the readers' shared memory there): they must exist next to it, or this user must "
+                     "be allowed to create them in its folder — give viewers write access to the folder, or read a "
+                     "copy of the store")
+
+
+def _fix_for(su: StoreURL, text: str, *, wal: bool = False, write: bool = True) -> str:
     t = text.lower()
+    if wal and not write and su.url.endswith("?mode=ro&uri=true") and ("readonly" in t or "read-only" in t or "unable to open" in t
+                                                         or "permission denied" in t or "disk i/o" in t):
+        return WAL_READ_ONLY_FIX
     if "readonly" in t or "read-only" in t or "read only" in t or "permission denied" in t:
         return "the store is read-only here: record into a store this user may write, or ask its owner"
     if su.backend == "postgresql":
@@ -359,6 +369,7 @@ def connect(su: StoreURL, *, write: bool, action: str):
 
     from sqlalchemy.exc import DBAPIError, IntegrityError, SQLAlchemyError
 
+    wal = False
     if su.backend == "sqlite":
         p = su.sqlite_path
         assert p is not None
@@ -381,17 +392,21 @@ def connect(su: StoreURL, *, write: bool, action: str):
                                  fix="give the path of a lumeval store file such as history.db")
             try:
                 with open(p, "rb") as fh:
-                    head = fh.read(16)
+                    head = fh.read(20)
             except OSError as exc:
                 raise StoreError(f"{su.shown}: cannot be read ({exc.strerror or exc})",
                                  fix="check the file's permissions") from None
-            if head and head != b"SQLite format 3\x00":
+            if head and head[:16] != b"SQLite format 3\x00":
                 raise StoreError(f"{su.shown}: not an SQLite database", fix="give the path of a lumeval store")
+            # file format versions 2/2 at bytes 18-19: a database in WAL mode (sqlite.org/fileformat2.html §1.3.4)
+            wal = head[18:20] == b"\x02\x02"
     eng = _make_engine(su)
     try:
         with eng.connect() as conn:
             conn.info["lumeval_write"] = write
             if su.backend == "sqlite" and write:
+                # a database of another application is refused before anything is changed in it
+                _refuse_foreign_sqlite(conn.connection.driver_connection, su)
                 # outside any transaction (SQLite cannot change the journal mode inside one);
                 # the mode is stored in the file, so this is a no-op after the first writer
                 import time
@@ -406,11 +421,28 @@ def connect(su: StoreURL, *, write: bool, action: str):
         raise
     except (DBAPIError, SQLAlchemyError, sqlite3.Error) as exc:
         text = _first_line(exc)
-        err = StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text))
+        err = StoreError(f"{su.shown}: cannot {action} ({text})", fix=_fix_for(su, text, wal=wal, write=write))
         err.busy = su.backend == "sqlite" and _is_sqlite_busy(text)
         raise err from None
     finally:
         eng.dispose()
+
+
+def _foreign_store_error(su: StoreURL, count: int) -> StoreError:
+    what = "1 table, index, view or trigger" if count == 1 else f"{count} tables, indexes, views or triggers"
+    return StoreError(f"{su.shown}: a database of another application (it holds {what} and no "
+                      "lumeval_schema table): not a lumeval store, and left unchanged",
+                      fix="give the path or URL of a lumeval store, or of a new or empty database")
+
+
+def _refuse_foreign_sqlite(raw, su: StoreURL) -> None:
+    """Refuse an SQLite database that holds anything but is not a lumeval store (no
+    ``lumeval_schema`` table), before the journal mode or the schema are touched: lumeval
+    never adds its tables to someone else's database. An empty database (no table, view,
+    index or trigger) may become a store. Only reads ``sqlite_master``."""
+    names = [r[0] for r in raw.execute("SELECT name FROM sqlite_master").fetchall()]
+    if names and "lumeval_schema" not in names:
+        raise _foreign_store_error(su, len(names))
 
 
 def ensure_schema(conn, su: StoreURL, *, create: bool) -> None:
@@ -427,6 +459,11 @@ def ensure_schema(conn, su: StoreURL, *, create: bool) -> None:
         if not create:
             raise StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)",
                              fix="check the URL; a store is created by `lumeval lot ... --store URL`")
+        from sqlalchemy import inspect
+
+        others = inspect(conn).get_table_names()
+        if others:  # PostgreSQL (SQLite was checked before the journal mode was set)
+            raise _foreign_store_error(su, len(others))
         md, _t = _tables()
         md.create_all(conn)
         _stamp(conn, SCHEMA_VERSION)

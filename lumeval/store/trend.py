@@ -11,6 +11,10 @@ the baseline, and assembles a :class:`Trend` and its JSON document (``format`` =
              ewma_ucl, ewma_lcl, baseline}],
     signals [{lot, rule, chart, text}], notes, sources, cautions
 
+A signal's ``rule`` is WE1-WE4 on the X̄ and individuals charts (Western Electric), ``limits``
+on the s and moving-range charts (beyond their limits; earlier versions labelled them WE1)
+and ``EWMA`` on the EWMA chart.
+
 Lots are charted in the order they were recorded (store id). Chart kinds:
 
 * ``xbar-s``: X̄ chart of the lot means and s chart of the within-lot standard deviations
@@ -78,6 +82,8 @@ class LotPoint:
     n: int
     mean: float
     s: float
+    #: the lot verdict recorded with the lot ("pass", "fail", "not judged"; None when not read)
+    verdict: str | None = None
 
 
 @dataclass(frozen=True)
@@ -164,20 +170,20 @@ def read_series(conn, su: StoreURL, figure: str, product: str | None, *, exact_p
     if figure in CHROMATICITY_FIGURES:
         rows = conn.execute(select(lots.c.id, lots.c.label, lots.c.product, lots.c.recorded_at, lots.c.centroid_u,
                                    lots.c.centroid_v, lots.c.region_centre_u, lots.c.region_centre_v,
-                                   lots.c.region_corners).where(cond).order_by(lots.c.id)).all()
+                                   lots.c.region_corners, lots.c.verdict).where(cond).order_by(lots.c.id)).all()
         pts = []
         for r in rows:
             value = _chromaticity_value(figure, r)
             pts.append(LotPoint(int(r.id), r.label, r.product, r.recorded_at, 1 if math.isfinite(value) else 0, value,
-                                float("nan")))
+                                float("nan"), r.verdict))
         return pts, product
     rows = conn.execute(select(lots.c.id, lots.c.label, lots.c.product, lots.c.recorded_at, figs.c.n, figs.c.mean,
-                               figs.c.std).select_from(lots.outerjoin(figs, (figs.c.lot_id == lots.c.id)
-                                                                      & (figs.c.figure == figure)))
+                               figs.c.std, lots.c.verdict).select_from(lots.outerjoin(figs, (figs.c.lot_id == lots.c.id)
+                                                                                    & (figs.c.figure == figure)))
                         .where(cond).order_by(lots.c.id)).all()
     pts = [LotPoint(int(r.id), r.label, r.product, r.recorded_at, int(r.n or 0),
                     float(r.mean) if r.mean is not None else float("nan"),
-                    float(r.std) if r.std is not None else float("nan")) for r in rows]
+                    float(r.std) if r.std is not None else float("nan"), r.verdict) for r in rows]
     return pts, product
 
 
@@ -235,11 +241,31 @@ def baseline_mask(lot_ids, baseline: str | None = None, count: int | None = None
 # --------------------------------------------------------------------------- assembling
 
 
+def auto_chart(n_baseline, figure: str) -> str:
+    """The chart ``--chart auto`` picks from the sample counts of the usable baseline lots.
+
+    X̄/s unless more than half of those lots have one sample, or fewer than two have two
+    samples or more. X̄/s handles lots of one sample (their value gets x̿ ± 3σ̂ with σ̂ from
+    the lots of several samples; Montgomery §6.3), so one such lot must not switch a store of
+    lots of 30 to individuals, whose limits come from the lot-to-lot spread and can hide the
+    X̄ chart's signals. When most lots are single samples, σ̂ would rest on a minority of lots
+    and the process is the one-measurement-per-period case the individuals chart is for
+    (Montgomery §6.4). The chromaticity figures are always individuals.
+    """
+    nb = np.asarray(n_baseline, dtype=float)
+    if figure in CHROMATICITY_FIGURES:
+        return "individuals"
+    several = int(np.sum(nb >= 2))
+    return "xbar-s" if several >= 2 and 2 * several >= nb.size else "individuals"
+
+
 def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str = "", product=None,
                   chart: str = "auto", baseline_rule: str = "", lam: float = charts.EWMA_LAMBDA,
-                  L: float = charts.EWMA_L, store: str = "") -> Trend:
+                  L: float = charts.EWMA_L, store: str = "", baseline_field: str | None = None) -> Trend:
     """Control charts and signals of ``points`` (LotPoint, in order) with the boolean
-    ``baseline`` mask (pure: no I/O)."""
+    ``baseline`` mask (pure: no I/O). ``baseline_field``: the option that chose the baseline
+    (``--baseline``, ``--baseline-count``), named in errors about it; None for a default
+    baseline."""
     pts = tuple(points)
     m = len(pts)
     b = np.asarray(baseline, dtype=bool)
@@ -250,11 +276,11 @@ def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str =
     usable_b = b & np.isfinite(mean) & (n >= 1)
     if int(usable_b.sum()) < 2:
         raise StoreError(f"a control chart needs at least 2 baseline lots with the figure defined; "
-                         f"{int(usable_b.sum())} of {m} lots qualify", field="--baseline",
+                         f"{int(usable_b.sum())} of {m} lots qualify", field=baseline_field,
                          fix="record more lots, or choose the baseline with --baseline A..B / --baseline-count K")
     main: Any
     if chart == "auto":
-        chart = "xbar-s" if np.all(n[usable_b] >= 2) and figure not in CHROMATICITY_FIGURES else "individuals"
+        chart = auto_chart(n[usable_b], figure)
     if chart == "xbar-s":
         if figure in CHROMATICITY_FIGURES:
             raise StoreError(f"{figure} is one value per lot: it has no within-lot spread for an s chart",
@@ -265,11 +291,11 @@ def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str =
                              fix="use --chart individuals")
         if main.sigma == 0.0:  # limits of zero width: every other mean would be "beyond" them
             raise StoreError("the baseline lots have no spread within lots (every s is 0): X̄/s limits would have "
-                             "no width", field="--baseline", fix="choose other baseline lots, or use --chart individuals")
+                             "no width", field=baseline_field, fix="choose other baseline lots, or use --chart individuals")
         with np.errstate(invalid="ignore", divide="ignore"):
             sig_pt = (main.xbar_ucl - main.grand_mean) / charts.L_SHEWHART
         sig = charts.western_electric(mean, main.grand_mean, sig_pt, chart="xbar")
-        sig += charts.beyond_limits(s, main.s_ucl, main.s_lcl, chart="s")
+        sig += charts.beyond_limits(s, main.s_ucl, main.s_lcl, chart="s", rule="limits")  # not a zone rule
         with np.errstate(invalid="ignore", divide="ignore"):
             ew = charts.ewma_chart(mean, main.grand_mean, main.sigma / np.sqrt(np.where(n >= 1, n, np.nan)), lam, L)
         if np.any((n < 2) & np.isfinite(mean)):
@@ -279,9 +305,9 @@ def compute_trend(points, baseline, *, figure: str, label: str = "", unit: str =
         main = charts.individuals_chart(mean, usable_b)
         if not math.isfinite(main.sigma) or main.sigma == 0.0:
             raise StoreError("the baseline lots give no moving range (need two consecutive baseline lots that differ)",
-                             field="--baseline")
+                             field=baseline_field)
         sig = charts.western_electric(mean, main.centre, main.sigma, chart="individuals")
-        sig += charts.beyond_limits(main.moving_range, main.mr_ucl, 0.0, chart="moving_range")
+        sig += charts.beyond_limits(main.moving_range, main.mr_ucl, 0.0, chart="moving_range", rule="limits")
         ew = charts.ewma_chart(mean, main.centre, main.sigma, lam, L)
     else:
         raise StoreError(f"unknown chart {chart!r}", field="--chart", fix="use auto, xbar-s or individuals")
@@ -314,8 +340,9 @@ def trend(store: str | StoreURL, figure: str, *, product: str | None = None, bas
     if baseline is not None and not mask.any():
         raise StoreError(f"--baseline {baseline}: no recorded lot of this product has a number in that range",
                          field="--baseline", fix="see `lumeval history list` for the lot numbers")
+    given = "--baseline" if baseline is not None else "--baseline-count" if baseline_count is not None else None
     return compute_trend(pts, mask, figure=fig, label=label, unit=unit, product=product, chart=chart,
-                         baseline_rule=rule, store=su.shown)
+                         baseline_rule=rule, store=su.shown, baseline_field=given)
 
 
 # --------------------------------------------------------------------------- JSON

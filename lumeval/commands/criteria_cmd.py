@@ -289,6 +289,23 @@ def claims_verdict_rows(result) -> list[dict]:
     return rows
 
 
+class ClaimsSource:
+    """The claims file and its ``[supplier]`` block (name, product, datasheet revision, ...) for
+    the HTML report, which shows a check result's ``identification`` under its verdict: a check
+    result without results of its own, put before the claims' verdict rows. Values are made
+    inert here (control characters escaped, as the terminal shows them); the page escapes HTML."""
+
+    results: tuple = ()
+    criteria_file = None  # the report would call it a criteria file: named in ``identification``
+
+    def __init__(self, result) -> None:
+        from ..render.safe import clean
+
+        label = {"name": "supplier"}
+        self.identification = {"claims file": clean(result.claims_file),
+                               **{label.get(k, k): clean(v) for k, v in dict(result.supplier).items()}}
+
+
 def register(app: typer.Typer) -> None:
     crit = typer.Typer(help="Write and explain acceptance criteria files.", no_args_is_help=True)
 
@@ -352,7 +369,7 @@ def register(app: typer.Typer) -> None:
             from ..render.html import write_html_report
             from ..render.report_inputs import CLAIMS_WORDING
 
-            write_html_report(html, ev, verdicts=claims_verdict_rows(result), inputs=[*files, claims],
+            write_html_report(html, ev, verdicts=[ClaimsSource(result), *claims_verdict_rows(result)], inputs=[*files, claims],
                               title="Datasheet claims against the supplier's spectra",
                               command=command_line(),
                               overall="fail" if result.exit_code else None, wording=CLAIMS_WORDING)

@@ -10,9 +10,11 @@ table overrides the tolerance per figure, in the figure's own units):
 
 * ``">= v"`` / ``"> v"`` / ``"≥ v"`` / ``"v+"`` (minimum claims, e.g. "Ra ≥ 90", "CRI >90",
   "90+"): supported when measured ≥ v − t.
-* ``"<= v"`` / ``"< v"``: supported when measured ≤ v + t.
+* ``"<= v"`` / ``"< v"``: supported when measured ≤ v + t. For Duv with v > 0 ("Duv < 0.003")
+  the bound is on |Duv|: −v − t ≤ Duv ≤ v + t (either side of the locus).
   Default t for these: half a unit of the last digit written (a datasheet "90" stands for
-  anything that rounds to 90; "0.85" for anything that rounds to 0.85).
+  anything that rounds to 90; "0.85" for anything that rounds to 0.85), at most the figure's
+  cap (:data:`_IMPLIED_MAX`: Duv 0.0005, S/P 0.05, indices 0.5, ...) — "Duv < 0" is not Duv ≤ 0.5.
 * ``"v ± d"`` (explicit tolerance, also ``"3000K ± 100K"`` or ``"v +/- d"``): supported when
   |measured − v| ≤ d (no further tolerance).
 * ``"lo-hi"`` / ``"lo to hi"`` / ``"lo … hi"`` (a range, e.g. "2700-3000 K", "2700 K – 6500 K",
@@ -29,6 +31,10 @@ table overrides the tolerance per figure, in the figure's own units):
     :func:`lumeval.criteria.regions.ansi_flexible_tolerance_K` (memory, see there);
   - ``duv``: ± 0.006 (the ANSI C78.377 Duv tolerance);
   - every other figure: half a unit of the last digit written.
+
+Each figure is claimed once (``Ra`` and ``"CRI Ra"`` together are refused); ``SDCM`` and
+``"MacAdam steps"`` are spellings of ``sdcm_steps``, not checkable. A bare TOML float is read as
+written on its line ("1.50", not 1.5).
 
 A CCT claim outside 1000-25000 K (where lumeval reports CCT) is refused: "3.000 K" is a dot
 written as a thousands separator, not 3 K.
@@ -127,6 +133,30 @@ def _comma_hint(text: str) -> str:
     return ""
 
 
+#: A figure's name written before the value ("CRI 90+", "Rf ≥ 90", "CCT 3000 K").
+_NAME_FIRST = re.compile(r"^\s*(?P<name>[A-Za-z][A-Za-z0-9 ,/'_-]*?)\s*(?P<rest>[<>≥≤=~≈±+-]*\s*[0-9].*)$")
+
+
+def _unread_hint(text: str, key: str) -> tuple[str, str]:
+    """(why, fix) for a claim not read, when the slip is a usual one: a Unicode minus sign, the
+    SDCM steps written into a CCT claim, the figure's name repeated before the value; ("", "")
+    otherwise. The claim's text reaches the message only through :func:`shown`."""
+    if len(text) > _CLAIM_MAX_CHARS:
+        return "", ""
+    if "\u2212" in text:
+        return (": it has a Unicode minus sign (U+2212)",
+                f"write the minus as the ASCII hyphen-minus, e.g. {shown(text.replace(chr(0x2212), '-'))}")
+    if re.search(r"sdcm|macadam|\bsteps?\b", text, re.IGNORECASE):
+        return (": SDCM (MacAdam) steps are a claim of their own",
+                f'write the CCT alone, e.g. {key} = "3000 K", and the steps as sdcm_steps = 3 '
+                "(not checkable from one spectrum)")
+    m = _NAME_FIRST.match(text)
+    if m and figures.lookup(m.group("name").strip()) is not None:
+        return (f": it repeats the figure's name {shown(m.group('name').strip())} before the value",
+                f"write the value alone: {key} = {shown(m.group('rest').strip())}")
+    return "", ""
+
+
 def _cct_claimed(v: float, written: str, value, key: str, err) -> None:
     """Refuse a CCT claim outside the range where lumeval reports CCT (1000-25000 K): no product
     is meant by it. The likely slip is a dot written as a thousands separator ("3.000 K" for
@@ -149,6 +179,62 @@ def _half_unit(text: str) -> float:
     d = Decimal(text.lstrip("+-"))
     exp = d.as_tuple().exponent
     return 0.5 * 10.0 ** (exp if isinstance(exp, int) else 0)
+
+
+#: The most a claim's written precision may imply, per figure (its own scale): a number written
+#: more coarsely says nothing about the finer digits, it does not widen the claim. Without a cap
+#: "Duv < 0" read as Duv ≤ 0.5 and "S/P >= 1" as S/P ≥ 0.5 (found by a review). The caps are
+#: the coarsest resolution at which each figure is stated on datasheets (common practice, no
+#: source): Duv and distances in u'v' / uv (ANSI distance, CIE 13.3 DC) to three decimals
+#: ("Duv < 0.003"; ANSI C78.377's Duv tolerance 0.006 is twelve such half-units); chromaticity
+#: coordinates and TM-30 Rhs,h to two decimals; S/P and melanopic DER to one decimal ("S/P 1.5"
+#: is a usual claim and stands for 1.45-1.55; a cap of 0.005 would narrow it tenfold); every
+#: other figure (indices, %, K, nm, lm/W, lx, cd/m²) to whole units. A claim finer than its cap
+#: keeps its own precision ("Duv <= 0.0030": ± 0.00005).
+_IMPLIED_MAX: dict[str, float] = {
+    **dict.fromkeys(("duv", "ansi_distance_upvp", "dc"), 0.0005),
+    **dict.fromkeys(("x", "y", "u", "v", "u_prime", "v_prime"), 0.005),
+    **dict.fromkeys(("sp_ratio", "melanopic_der"), 0.05),
+}
+_IMPLIED_MAX_FAMILY = {"Rhs_h": 0.005}
+_IMPLIED_MAX_DEFAULT = 0.5
+
+
+def implied_max(fig: str) -> float:
+    """The largest tolerance the written precision of a claim on ``fig`` may imply."""
+    fam = figures.family(fig)
+    return _IMPLIED_MAX.get(fig, _IMPLIED_MAX_FAMILY.get(fam or "", _IMPLIED_MAX_DEFAULT))
+
+
+def _implied(fig: str, written: str) -> tuple[float, str]:
+    """(tolerance, how it was found) implied by the written precision of ``written`` for ``fig``:
+    half a unit of the last digit written, at most :func:`implied_max`. An exponent form is read
+    at the resolution of its last digit ("1e2" has one significant digit: a resolution of 100,
+    which the cap then replaces; "1.00e2" has a resolution of 1)."""
+    half, cap = _half_unit(written), implied_max(fig)
+    if half <= cap:
+        return half, fmt_number(half)
+    return cap, f"{fmt_number(cap)} (the most a written precision implies for {fig}; {written} alone would give {fmt_number(half)})"
+
+
+#: A TOML float as written at the end of a ``key = value`` line (a comment may follow).
+_FLOAT_LINE = re.compile(r"=\s*(?P<lit>[-+]?[0-9_]+(?:\.[0-9_]+)?(?:[eE][-+]?[0-9_]+)?)\s*(?:#.*)?$")
+
+
+def _toml_literal(lines: list[str], line: int | None, value: float) -> str | None:
+    """A TOML float claim as written on its line ("1.50", which TOML gives as the number 1.5,
+    its trailing zero lost), or None when the line does not show it plainly (e.g. an inline
+    table): the claim is then read from the number."""
+    if line is None or not 1 <= line <= len(lines):
+        return None
+    m = _FLOAT_LINE.search(lines[line - 1])
+    if m is None:
+        return None
+    lit = m.group("lit").replace("_", "")
+    try:
+        return lit if float(lit) == value else None
+    except ValueError:
+        return None
 
 
 @dataclass(frozen=True)
@@ -315,20 +401,33 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
         tolerances[fk] = t
 
     claims = []
+    seen: dict[str, str] = {}  # figure (or not-checkable key) -> the key that claimed it
+    src_lines = text.splitlines()
     for key, value in raw.items():
         line = lines.get(("claims", key))
         fig = figures.lookup(key) if key not in NOT_CHECKABLE_KEYS else None
         if fig is None and key not in NOT_CHECKABLE_KEYS:
             s = suggest(key, allowed_keys)
             raise err(("claims",), key, f"unknown claim {quote(key)}", (f"did you mean {s!r}? " if s else "") + "use a lumeval figure name (cct_K, duv, Ra, R9, Rf, Rg, ...) or one of " + ", ".join(NOT_CHECKABLE_KEYS))
-        text = str(value)
-        if key in NOT_CHECKABLE_KEYS:
-            claims.append(Claim(key, "", text, None, None, None, None, "", line, NOT_CHECKABLE_KEYS[key]))
+        # every spelling of a figure is one claim: "Ra" and "CRI Ra" (or "CCT" and "cct_K") both
+        # claimed would judge one figure against two statements
+        same = fig or key
+        if same in seen:
+            raise err(("claims",), key, f"{quote(key)} and {quote(seen[same])} are two claims on the same figure ({same})",
+                      "keep one of them (a datasheet states each figure once)")
+        seen[same] = key
+        # "SDCM", "MacAdam steps": spellings of sdcm_steps, as not checkable as it
+        key_nc = fig if fig in NOT_CHECKABLE_KEYS else (key if key in NOT_CHECKABLE_KEYS else "")
+        if key_nc:
+            claims.append(Claim(key, "", str(value), None, None, None, None, "", line, NOT_CHECKABLE_KEYS[key_nc]))
             continue
+        text = str(value)
         assert fig is not None  # an unknown key was refused above
         m = None
         if is_number(value):
             text = repr(value) if isinstance(value, float) else str(value)
+            if isinstance(value, float):  # 1.50 as written, not 1.5: the written precision is the claim's
+                text = _toml_literal(src_lines, line, value) or text
             m = _CLAIM_RE.match(text)
         elif isinstance(value, str):
             if len(value) > _CLAIM_MAX_CHARS:
@@ -344,8 +443,9 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
                 continue
         if m is None:
             hint = _comma_hint(str(value))
-            raise err(("claims",), key, f"cannot read the claim {shown(value)}" + hint,
-                      'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number'
+            why, fix = _unread_hint(str(value), key) if not hint else ("", "")
+            raise err(("claims",), key, f"cannot read the claim {shown(value)}" + (hint or why),
+                      fix or 'write e.g. ">= 90", "min. 90", "<= 0.003", "3000 K", "100 ± 3", "2700-3000 K" or a plain number'
                       + (" (2700, not 2,700; 0.003, not 0,003)" if hint else ""))
         units = {u for u in (m.group("unit1"), m.group("unit2")) if u}
         if m.group("plus") and (m.group("op") or m.group("tol") is not None):
@@ -368,14 +468,23 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             d = float(m.group("tol"))
             claims.append(Claim(key, fig, text, v - d, v + d, v - d, v + d, f"stated ± {fmt_number(d)}", line))
             continue
-        if op in (">=", "≥", "=>", ">"):
-            t = t_override if t_override is not None else _half_unit(m.group("value"))
-            note = "tolerance from [tolerances]" if t_override is not None else "read at the precision written (half a unit of the last digit)"
-            claims.append(Claim(key, fig, text, v, None, v - t, None, f"{note}: {fmt_number(t)}", line))
-        elif op in ("<=", "≤", "=<", "<"):
-            t = t_override if t_override is not None else _half_unit(m.group("value"))
-            note = "tolerance from [tolerances]" if t_override is not None else "read at the precision written (half a unit of the last digit)"
-            claims.append(Claim(key, fig, text, None, v, None, v + t, f"{note}: {fmt_number(t)}", line))
+        if op in (">=", "≥", "=>", ">", "<=", "≤", "=<", "<"):
+            if t_override is not None:
+                t, note = t_override, f"tolerance from [tolerances]: {fmt_number(t_override)}"
+            else:
+                t, how = _implied(fig, m.group("value"))
+                note = f"read at the precision written (half a unit of the last digit): {how}"
+            if op in (">=", "≥", "=>", ">"):
+                claims.append(Claim(key, fig, text, v, None, v - t, None, note, line))
+            elif fig == "duv" and v > 0:
+                # "Duv < 0.003" on a datasheet bounds the distance from the Planckian locus on either
+                # side, |Duv| (common practice, no source): a pink source at Duv −0.008 does not
+                # meet it. A bound at or below zero ("< 0": below the locus) stays signed.
+                claims.append(Claim(key, fig, text, -v, v, -v - t, v + t,
+                                    f"a maximum Duv, read as |Duv| ≤ {fmt_number(v)} (either side of the Planckian locus); "
+                                    + note, line))
+            else:
+                claims.append(Claim(key, fig, text, None, v, None, v + t, note, line))
         else:
             if t_override is not None:
                 lo, hi, note = v - t_override, v + t_override, f"± {fmt_number(t_override)} from [tolerances]"
@@ -387,8 +496,8 @@ def parse_claims(text: str, file: str = "<claims>") -> Claims:
             elif fig == "duv":
                 lo, hi, note = v - regions.ANSI_DUV_TOLERANCE, v + regions.ANSI_DUV_TOLERANCE, "± 0.006 (ANSI C78.377 Duv tolerance)"
             else:
-                t = _half_unit(m.group("value"))
-                lo, hi, note = v - t, v + t, f"read at the precision written: ± {fmt_number(t)}"
+                t, how = _implied(fig, m.group("value"))
+                lo, hi, note = v - t, v + t, f"read at the precision written: ± {how}"
             claims.append(Claim(key, fig, text, lo, hi, lo, hi, note, line))
     return Claims(tuple(claims), supplier, file)
 
@@ -415,8 +524,8 @@ def _range_claim(key: str, fig: str, text: str, m: re.Match, t_override: float |
         t_lo = t_hi = t_override
         note = f"range, tolerance from [tolerances]: {fmt_number(t_override)}"
     else:
-        t_lo, t_hi = _half_unit(m.group("lo")), _half_unit(m.group("hi"))
-        both = fmt_number(t_lo) if t_lo == t_hi else f"{fmt_number(t_lo)} below, {fmt_number(t_hi)} above"
+        (t_lo, how_lo), (t_hi, how_hi) = _implied(fig, m.group("lo")), _implied(fig, m.group("hi"))
+        both = how_lo if t_lo == t_hi else f"{how_lo} below, {how_hi} above"
         note = f"range read at the precision written (half a unit of the last digit): {both}"
     return Claim(key, fig, text, lo, hi, lo - t_lo, hi + t_hi, note, line)
 

@@ -59,6 +59,7 @@ def claims_renderables(check) -> list:
             c = r.claim
             spec = _spec(c.figure) if c.figure else ".3g"
             accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
+            spec = _bounds_spec(c, spec)  # the measured value as precise as the accepted bounds
             mspec = _more(spec, _claim_decimals(c, r.measured[i], r.excess[i], spec)) if o == "contradicted" else spec
             by = _f(r.excess[i], "+" + mspec, r.unit) if o == "contradicted" else ""
             t.add_row(">>" if o == "contradicted" else "", _text(c.key), _text(c.text),
@@ -104,6 +105,18 @@ def _accepted(c, unit: str, spec: str) -> str:
     if c.lower is not None:
         return f"≥ {_f(c.lower, _bound_spec(c.lower, spec), unit)}"
     return f"≤ {_f(c.upper, _bound_spec(c.upper, spec), unit)}"
+
+
+def _bounds_spec(c, spec: str) -> str:
+    """``spec`` with the most decimals either accepted bound of claim ``c`` prints with, for its
+    measured value: Rg 99.30 printed "99" beside "99.297 … 99.303" could not be compared."""
+    best = spec
+    for b in (c.lower, c.upper):
+        if b is not None:
+            s = _bound_spec(b, spec)
+            if int(s.rpartition(".")[2][:-1] or 0) > int(best.rpartition(".")[2][:-1] or 0):
+                best = s
+    return best
 
 
 def _bound_spec(v: float, spec: str) -> str:

@@ -62,11 +62,17 @@ def test_manifest_unit_is_escaped_on_the_terminal(two, manifest, capsys):
     assert "unit: " + ESCAPED in _words(out), out
 
 
-def test_command_line_unit_is_escaped_on_the_terminal(two, capsys):
-    code, out, err = run(["series", *two, "--unit", HOSTILE], capsys)
+def test_command_line_unit_is_escaped_on_the_terminal(two, capsys, tmp_path):
+    # names without a unit: --unit names it (against the "pct" of ``two`` it is refused, escaped)
+    bare = [write(tmp_path / f"level_{k}.csv", np.loadtxt(p, delimiter=",", skiprows=1)[:, 1])
+            for k, p in ((5, two[0]), (10, two[1]))]
+    code, out, err = run(["series", *bare, "--unit", HOSTILE], capsys)
     assert code == 0, err
     _no_controls(out)
     assert "unit: " + ESCAPED in _words(out), out
+    code, out, err = run(["series", *two, "--unit", HOSTILE], capsys)
+    assert code == 2 and out == "" and ESCAPED in err, err
+    _no_controls(err)
 
 
 def test_unit_is_escaped_in_the_html_report_and_its_figures(two, manifest, capsys, tmp_path):

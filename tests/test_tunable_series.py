@@ -43,7 +43,8 @@ def write(path: Path, values, meta: dict | None = None, header: str | None = Non
     ("level 25 %", (25.0, "%")),
     ("drive_350mA_lot7", (350.0, "mA")),
     ("sample_42", (42.0, "")),
-    ("cct 2700,5k", (2700.5, "K")),
+    ("lamp_1,2_3000K", (3000.0, "K")),  # a comma number that is not the setting is left alone
+    ("lamp,10pct", (10.0, "%")),  # a comma that is not between digits separates words
 ])
 def test_setting_from_names(text, want):
     assert setting_from_text(text, what="name", file=None, fix="") == want

@@ -195,7 +195,11 @@ def _short(source: str) -> str:
 
 def _notes(report) -> list[str]:
     """The run's notes, then each setting's warnings (prefixed with the setting; a warning that
-    every setting shares is given once, for all)."""
+    every setting shares is given once, for all). A series groups only settings whose warning
+    reads the same, so each count and value quoted is that of the settings named (found by a
+    review: "51 values below zero" was quoted for five settings, as at the first); a mix, with
+    hundreds of setpoints, groups warnings that differ only in their numbers and says whose
+    numbers are quoted."""
     r = report.result
     notes = list(r.notes)
     ev = r.evaluation
@@ -212,10 +216,12 @@ def _notes(report) -> list[str]:
         for k, ws in enumerate(ev.warnings):
             for w in ws:
                 if w not in common:
-                    groups.setdefault(re.sub(r"[-+]?\d+(\.\d+)?", "#", w), []).append((labels[rows[k]], w))
+                    key = w if report.kind == "series" else re.sub(r"[-+]?\d+(\.\d+)?", "#", w)
+                    groups.setdefault(key, []).append((labels[rows[k]], w))
         for members in groups.values():
             where = ", ".join(lab for lab, _ in members)
-            extra = "" if len(members) == 1 else f" (as at {members[0][0]}; each setting's own values are in the JSON output)"
+            same = len({w for _, w in members}) == 1
+            extra = "" if same else f" (as at {members[0][0]}; each setting's own values are in the JSON output)"
             notes.append(f"{where}: {members[0][1]}{extra}")
         for w in ev.run_warnings:
             if w not in seen:

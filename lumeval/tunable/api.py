@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -184,7 +185,7 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
     if setting_from == "manifest" and manifest is None:
         raise UsageError("--setting-from manifest needs --manifest FILE", fix="name the TOML or CSV manifest with --manifest")
     crit = _load_criteria(criteria, "series")
-    table, m_unit, m_line = _read_manifest(manifest) if manifest is not None else ({}, "", None)
+    table, m_unit, m_line, m_lines = _read_manifest(manifest) if manifest is not None else ({}, "", None, {})
     if unit is not None and m_unit and _unit_word(unit) != _unit_word(m_unit):
         raise InputError(f"the manifest states the unit {quote(m_unit)} but --unit gives {quote(unit)}",
                          file=str(manifest), line=m_line, fix="drop --unit, or give the manifest's unit with it")
@@ -198,19 +199,27 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
     values: list[float] = []
     units: list[str] = []
     sources: list[str] = []
+    entries: list[str] = []  # the manifest entry each spectrum was found under
     for p, s in zip(paths, sets):
         for i in range(len(s)):
-            v, u = _setting(p, s, i, setting_from, key, table, manifest)
+            v, u, entry = _setting(p, s, i, setting_from, key, table, manifest)
             values.append(v)
             units.append(u)
             sources.append(s.sources[i])
+            entries.append(entry)
+    _refuse_unused_entries(table, set(entries), m_lines, manifest)
     found = {u for u in units if u}
     if unit is None:
         if len(found) > 1:
             raise InputError(f"the settings are written in several units ({', '.join(sorted(found))})",
                              fix="give every spectrum's setting in one unit, or state it with --unit")
         unit = m_unit or (found.pop() if found else "")
+    else:
+        _refuse_other_written_unit(unit, units, sources, setting_from, key)
+    _refuse_negative_settings(values, unit, sources, [(manifest, m_lines.get(e)) if e else None for e in entries])
     order = setting_order(values, sources)
+    if crit is not None:
+        _refuse_unknown_references(crit, np.sort(np.asarray(values, dtype=float)), unit)
     singles = [(s, i) for s in sets for i in range(len(s))]
     # one spectrum per entry, in setting order; the engine prepares them by the rules of
     # docs/input-files.md (spectra on different grids as it treats any spectra evaluated together)
@@ -241,29 +250,105 @@ def _load_criteria(path, command: str):
     return crit
 
 
-def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -> tuple[float, str]:
+def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -> tuple[float, str, str]:
+    """Spectrum ``i`` of ``s``: its setting, the unit written with it ("" when none) and the
+    manifest entry it was found under ("" when not from a manifest)."""
     from .series import setting_from_text
 
     src = s.sources[i]
     if how == "name":
         text = path.stem if len(s) == 1 else s.names[i]
-        return setting_from_text(
+        return (*setting_from_text(
             text, what="file name" if len(s) == 1 else "column name", file=str(path),
             fix="put the setting in the name (e.g. downlight_3000K.csv, dim_10pct.csv), or use --setting-from metadata / --manifest",
-        )
+        ), "")
     if how == "metadata":
         md = s.metadata[i] if i < len(s.metadata) else {}
         hit = next((k for k in md if str(k).strip().lower() == key.lower()), None)
         if hit is None:
             raise InputError(f"no metadata field {key!r} to take the setting from", file=str(path), field=key,
                              fix=f"add a line '{key}: VALUE' to the file, choose the field with --setting-key, or use a manifest")
-        return setting_from_text(str(md[hit]), what=f"metadata field {key!r} value", file=str(path),
-                                 fix=f"write one number (with its unit) in the field {key!r}")
+        return (*setting_from_text(str(md[hit]), what=f"metadata field {key!r} value", file=str(path),
+                                   fix=f"write one number (with its unit) in the field {key!r}", signed=True), "")
     for cand in (src, src.replace(str(path), path.name), str(path), path.name):
         if cand in table:
-            return table[cand], ""
+            return table[cand], "", cand
     raise InputError(f"{src!r} is not listed in the manifest", file=str(manifest),
                      fix=f"add a line for {path.name!r} (or {path.name + '#' + s.names[i]!r} for a column of a wide file)")
+
+
+def _refuse_unused_entries(table: dict, used: set, lines: dict, manifest) -> None:
+    """A manifest lists exactly the spectra given: an entry no spectrum was found under is a
+    measurement missing from the command line, refused naming it (found by a review: such an
+    entry was ignored, so a missing measurement went unnoticed)."""
+    unused = [k for k in table if k not in used]
+    if unused:
+        more = f" (and {len(unused) - 1} other entry(ies))" if len(unused) > 1 else ""
+        raise InputError(f"the manifest lists {quote(unused[0])}{more}, but no spectrum given is that file",
+                         file=str(manifest), line=lines.get(unused[0]),
+                         fix="give that file too, or remove its entry if it is not part of this series")
+
+
+def _refuse_other_written_unit(unit: str, units: list, sources: list, how: str, key: str) -> None:
+    """``--unit`` naming a unit other than the one written with a setting: the option relabelled
+    the settings silently (found by a review: dim_10pct.csv ... read as 10 mA with --unit mA)."""
+    for u, src in zip(units, sources):
+        if u and _unit_word(u) != _unit_word(unit):
+            where = {"name": "file (or column) name", "metadata": f"metadata field {key!r}"}.get(how, "entry")
+            raise InputError(f"the {where} writes the setting in {quote(u)} but --unit gives {quote(unit)}",
+                             file=str(src).partition("#")[0] or None,
+                             fix="drop --unit, or give the unit written with the settings")
+
+
+#: Units of settings that cannot be negative: a CCT, a dim level, a drive current.
+NON_NEGATIVE_UNITS = ("K", "%", "mA", "A")
+
+
+def _refuse_negative_settings(values: list, unit: str, sources: list, written_at: list) -> None:
+    """A negative CCT, dimming level or drive current (found by a review: "-1 %" in a manifest
+    was accepted), refused naming the manifest line (``written_at``: (manifest, line) per
+    spectrum, None when the setting was read from the spectrum's own file). Settings without a
+    unit or in another unit (an ambient temperature in °C ...) may be negative."""
+    u = _unit_word(unit)
+    if u not in NON_NEGATIVE_UNITS:
+        return
+    for v, src, at in zip(values, sources, written_at):
+        if v < 0:
+            what = {"K": "a CCT", "%": "a dimming level", "mA": "a drive current", "A": "a drive current"}[u]
+            file, line = at if at is not None else (str(src).partition("#")[0] or None, None)
+            raise InputError(f"the setting of {quote(src)} is {v:g} {u}, but {what} cannot be negative",
+                             file=str(file) if file is not None else None, line=line,
+                             fix="write the setting as measured (0 or more)")
+
+
+def _refuse_unknown_references(crit, settings: np.ndarray, unit: str) -> None:
+    """A series_shift clause whose reference is no setting of the series (or ``"locus"`` when the
+    settings are not CCTs): refused as ``--reference`` is, naming the clause and the settings,
+    rather than reported *not judged* (found by a review: exit 1 from the file, 2 from the
+    command line)."""
+    from ..criteria.range_clauses import SeriesShiftClause, reference_points
+    from .series import setting_label
+
+    for c in crit.clauses:
+        if not isinstance(c, SeriesShiftClause) or c.reference in ("max", "min"):
+            continue
+        zero = np.zeros(settings.size)  # any finite chromaticity: only whether the reference exists is asked
+        why = reference_points(SimpleView(zero, zero), settings, c.reference)[2]
+        if why:
+            shown_ = [setting_label(v, unit) for v in settings[:12]] + (["…"] if settings.size > 12 else [])
+            ref = f"{c.reference:g}" if isinstance(c.reference, float) else shown(c.reference)
+            raise InputError(f"clause {quote(c.clause_id)}: reference {ref}: {why}; the settings are "
+                             f"{', '.join(shown_)}", file=str(getattr(crit, 'file', '') or '') or None, line=c.line,
+                             fix='name one of the settings, or write reference = "max" (full output) or "min"')
+
+
+@dataclass(frozen=True)
+class SimpleView:
+    """u′v′ only: what :func:`lumeval.criteria.range_clauses.reference_points` needs to tell
+    whether a reference names a setting."""
+
+    u_prime: np.ndarray
+    v_prime: np.ndarray
 
 
 def _unit_word(unit: str) -> str:
@@ -273,10 +358,11 @@ def _unit_word(unit: str) -> str:
     return UNIT_WORDS.get(unit.strip().lower(), unit.strip())
 
 
-def _read_manifest(path) -> tuple[dict[str, float], str, int | None]:
+def _read_manifest(path) -> tuple[dict[str, float], str, int | None, dict[str, int | None]]:
     """Settings from a manifest: TOML (``unit = "%"`` and a ``[settings]`` table of
     ``"file name" = number``) or CSV (rows ``file,setting``, an optional header row); the
-    settings by file name, their unit and the line stating it (None when none does)."""
+    settings by file name, their unit, the line stating it (None when none does) and each
+    entry's line."""
     from .._toml import read_text
 
     p = Path(path)
@@ -288,13 +374,19 @@ def _read_manifest(path) -> tuple[dict[str, float], str, int | None]:
 
 
 def _number(v, file: str, line, field: str) -> float:
+    comma = _DIGIT_COMMA.search(v[:200]) if isinstance(v, str) else None
+    if comma is not None:  # "1,050" in quotes (unquoted, TOML itself refuses it)
+        from .series import comma_fix, comma_problem
+
+        raise InputError(comma_problem("the manifest writes the setting", str(v)), file=file, line=line, field=field,
+                         fix=comma_fix(comma.group(0)))
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         raise InputError(f"setting {shown(v)} is not a finite number", file=file, line=line, field=field, fix="write a plain number")
     return finite_float(v, lambda s: InputError(f"setting {s} is not a finite number", file=file, line=line, field=field,
                                                 fix=FINITE_FIX))
 
 
-def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str, int | None]:
+def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str, int | None, dict[str, int | None]]:
     from .._toml import loads
 
     data = loads(text, file, error=InputError)
@@ -311,10 +403,10 @@ def _manifest_toml(text: str, file: str) -> tuple[dict[str, float], str, int | N
 
     lines = locate_lines(text)
     return ({str(k): _number(v, file, lines.get(("settings", k)), str(k)) for k, v in st.items()}, unit,
-            lines.get(("unit",)))
+            lines.get(("unit",)), {str(k): lines.get(("settings", k)) for k in st})
 
 
-def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str, int | None]:
+def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str, int | None, dict[str, int | None]]:
     """``file,setting[,unit]`` rows (a header row and ``#`` comments allowed): the settings by
     file name and their unit. Numbers follow the spectrum readers' rule (ASCII digits); a file
     listed twice and settings in two units are refused, naming the lines (found by a review: the
@@ -333,6 +425,7 @@ def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str, int | No
         if len(r) < 2:
             raise InputError("a manifest row needs a file name and a setting", file=file, line=ln, fix="write rows file,setting")
         name, val = r[0].strip(), r[1].strip()
+        _refuse_csv_comma(val, r[2].strip() if len(r) > 2 else "", file, ln)
         if not _is_number(val, decimal_comma=False):
             if first:  # header row
                 first = False
@@ -356,4 +449,26 @@ def _manifest_csv(text: str, file: str) -> tuple[dict[str, float], str, int | No
                          line=l2, fix="give every setting in one unit (one manifest per unit)")
     if not out:
         raise InputError("no settings listed", file=file, fix="write rows file,setting (e.g. dim_100.csv,100)")
-    return out, next(iter(units), ""), next(iter(units.values()), None)
+    return out, next(iter(units), ""), next(iter(units.values()), None), dict(seen)
+
+
+#: A comma between digits ("1,050", "1,5"), as the claims reader spots it.
+_DIGIT_COMMA = re.compile(r"[0-9]+,[0-9]+")
+
+
+def _refuse_csv_comma(val: str, after: str, file: str, line: int) -> None:
+    """A CSV manifest's setting written with a comma: quoted ("1,050") it is one cell, unquoted
+    (1,050) the comma splits it and the digits after it landed in the unit column (no unit
+    starts with a digit)."""
+    from .series import comma_fix, comma_problem
+
+    m = _DIGIT_COMMA.search(val[:200])
+    split = re.match(r"[0-9]+", after) if re.fullmatch(r"[0-9]+", val) else None
+    if m is not None:
+        written = m.group(0)
+    elif split is not None:
+        written = val + "," + split.group(0)
+    else:
+        return
+    raise InputError(comma_problem("the manifest writes the setting", written), file=file, line=line,
+                     fix=comma_fix(written))

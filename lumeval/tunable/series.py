@@ -18,39 +18,71 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, quote
 
 #: Units recognised after a number in a name or a metadata value (case-sensitive for K/A so
 #: that "3000k" still reads as kelvin: names are matched case-insensitively below).
 UNIT_WORDS: dict[str, str] = {"k": "K", "%": "%", "pct": "%", "percent": "%", "ma": "mA", "a": "A"}
 
-_NUMBER = re.compile(r"(?<![0-9.])([0-9]+(?:[.,][0-9]+)?)\s?(k|%|pct|percent|ma|a)?(?![a-z])", re.IGNORECASE)
+#: A number (the digits 0-9, a dot for decimals) and the unit written after it. A comma between
+#: digits is kept in the number's text so that it can be refused, never read: "1,050" is 1050
+#: with a thousands separator and 1.05 with a decimal comma (found by a review: drv_1,050mA.csv
+#: was read as 1.05 mA, which moved the full-output reference to another spectrum).
+_NUMBER = re.compile(r"(?<![0-9.])(?<![0-9],)([0-9]+(?:[.,][0-9]+)?)\s?(k|%|pct|percent|ma|a)?(?![a-z])", re.IGNORECASE)
+
+#: A minus sign written before a metadata value's number ("-1 %"), at its start or after a space.
+_SIGN = re.compile(r"(?:^|\s)[-\u2212]\s*$")
+
+
+def _written_numbers(text: str) -> list[tuple[str, str, int]]:
+    """Every number in ``text`` as written, with its unit ("" when none) and where it starts."""
+    return [(m.group(1), UNIT_WORDS.get((m.group(2) or "").lower(), ""), m.start(1)) for m in _NUMBER.finditer(str(text))]
 
 
 def numbers_in(text: str) -> list[tuple[float, str]]:
     """Every number in ``text`` with the unit written after it ("" when none): e.g.
-    ``"dl_ch2_3000K"`` -> ``[(2.0, ""), (3000.0, "K")]``. A decimal comma is accepted."""
-    out = []
-    for m in _NUMBER.finditer(str(text)):
-        unit = UNIT_WORDS.get((m.group(2) or "").lower(), "")
-        out.append((float(m.group(1).replace(",", ".")), unit))
-    return out
+    ``"dl_ch2_3000K"`` -> ``[(2.0, ""), (3000.0, "K")]``. A number written with a comma between
+    its digits is left out (:func:`setting_from_text` refuses it as a setting)."""
+    return [(float(w), u) for w, u, _ in _written_numbers(text) if "," not in w]
 
 
-def setting_from_text(text: str, *, what: str, file: str | None, fix: str) -> tuple[float, str]:
+def setting_from_text(text: str, *, what: str, file: str | None, fix: str, signed: bool = False) -> tuple[float, str]:
     """The setting written in ``text``: the one number followed by a unit (K, %, pct, mA, A),
-    else the only number. Anything else is an :class:`InputError` saying what was found."""
-    nums = numbers_in(text)
+    else the only number. Anything else is an :class:`InputError` saying what was found, and so
+    is a setting written with a comma between digits. With ``signed`` (a metadata value), a minus
+    sign written before the number makes it negative (file names use "-" as a separator)."""
+    nums = _written_numbers(text)
     with_unit = [n for n in nums if n[1]]
     if len(with_unit) == 1:
-        return with_unit[0]
-    if not with_unit and len(nums) == 1:
-        return nums[0]
-    if not nums:
+        hit = with_unit[0]
+    elif not with_unit and len(nums) == 1:
+        hit = nums[0]
+    elif not nums:
         raise InputError(f"no number in the {what} {text!r} to take the setting from", file=file, fix=fix)
-    found = ", ".join(f"{v:g}{u}" for v, u in (with_unit or nums))
-    raise InputError(f"the {what} {text!r} holds several numbers ({found}): which is the setting is ambiguous",
-                     file=file, fix=fix)
+    else:
+        found = ", ".join(f"{w}{u}" for w, u, _ in (with_unit or nums))
+        raise InputError(f"the {what} {text!r} holds several numbers ({found}): which is the setting is ambiguous",
+                         file=file, fix=fix)
+    written, unit, start = hit
+    if "," in written:
+        raise InputError(comma_problem(f"the {what} {quote(text)} writes the setting", written + unit), file=file,
+                         fix=comma_fix(written, unit))
+    value = float(written)
+    if signed and _SIGN.search(str(text)[:start]):
+        value = -value
+    return value, unit
+
+
+def comma_problem(where: str, written: str) -> str:
+    """Why a setting written with a comma between digits is refused (``written`` as in the file)."""
+    return (f"{where} as {quote(written)}, with a comma between digits: a comma is read neither as a thousands "
+            "separator nor as a decimal mark, since 1,050 is 1050 in one convention and 1.05 in another")
+
+
+def comma_fix(written: str, unit: str = "") -> str:
+    whole, frac = written.split(",", 1)
+    return (f"write the setting with the digits 0-9 and a dot for decimals: {int(whole + frac)}{unit} or "
+            f"{float(whole + '.' + frac):g}{unit}, whichever is meant")
 
 
 @dataclass(frozen=True)

@@ -29,22 +29,10 @@ from lumeval.criteria import parse_claims
 from lumeval.criteria.claims import CONTRADICTED, NOT_CHECKABLE, SUPPORTED
 from lumeval.errors import CriteriaError
 
+from .test_criteria_claims import Ev  # figures given by hand (decision logic only)
+
 REPO = Path(__file__).resolve().parents[1]
 WL = np.arange(380.0, 781.0, 1.0)
-
-
-class Ev:
-    """The figures of N spectra, given by hand (decision logic only)."""
-
-    def __init__(self, **figs):
-        n = len(next(iter(figs.values())))
-        self.figs = {k: np.asarray(v, float) for k, v in figs.items()}
-        self.x = np.zeros(n)
-        self.names = tuple(f"s{i}" for i in range(n))
-        self.cct_reason = ("",) * n
-
-    def figure(self, name):
-        return self.figs[name]
 
 
 def claims(body: str):

@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import csv
 import io
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -22,6 +21,8 @@ from lumeval.render.tables import data_rows
 from lumeval.render.tunable import to_csv, to_json
 from lumeval.tunable import mix as mixmod
 from lumeval.tunable.api import mix_files
+
+from .test_tunable_mix_limits import write_wide
 
 WL = np.arange(380.0, 781.0, 1.0)
 
@@ -41,14 +42,6 @@ id = "Ra"
 figure = "Ra"
 min = 50
 """
-
-
-def write_wide(path: Path, cols: dict) -> Path:
-    lines = ["wavelength_nm," + ",".join(cols)]
-    for i, w in enumerate(WL):
-        lines.append(f"{w:g}," + ",".join(f"{c[i]:.9g}" for c in cols.values()))
-    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    return path
 
 
 def _rows(report) -> list[dict]:

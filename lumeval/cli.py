@@ -183,7 +183,9 @@ def _shorten(line: str) -> str:
         q, body = m.group(1), m.group(2)
         return f"{q}{body[:QUOTE_MAX]}…{q}"
 
-    line = re.sub(rf"(['\"])([^'\"]{{{QUOTE_MAX + 1},}})\1", cut, line)
+    # a run between two quotes that holds " — " is the text between two quoted values (the
+    # problem and its fix), not a value: kept, so the fix is never cut away
+    line = re.sub(rf"(['\"])([^'\"\u2014]{{{QUOTE_MAX + 1},}})\1", cut, line)
     if len(line) > 4 * _LONG_LINE:  # an unquoted run of data: keep the start and the fix
         head, sep, fix = line.rpartition(" \u2014 ")
         line = (head[:2 * _LONG_LINE] + "…" + sep + fix[:_LONG_LINE]) if sep else line[:4 * _LONG_LINE] + "…"

@@ -200,7 +200,9 @@ def explain_markdown(criteria) -> str:
     a("")
     a(
         "Each light source offered shall meet every requirement below, judged from its measured spectral power "
-        "distribution (SPD). Limits are inclusive and are compared with unrounded computed values."
+        "distribution (SPD). Limits are inclusive and are compared with unrounded computed values"
+        + (", except where a requirement states the decimal places its value is rounded to before comparison."
+           if any(getattr(getattr(c, "inner", c), "round_to", None) is not None for c in criteria.clauses) else ".")
     )
     a("")
     sources: list[str] = []

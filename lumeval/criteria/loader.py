@@ -13,7 +13,7 @@ import re
 from .._toml import loads as toml_loads
 from .._toml import read_text
 from ..errors import CriteriaError, quote, shown
-from . import plausible
+from . import plausible, rounding
 from .model import CLAUSE_KINDS, COMMON_KEYS, Criteria, ParseError, suggest
 
 #: Format marker: ``lumeval_criteria = 1`` (optional; other values are refused).
@@ -210,10 +210,15 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(clause)
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
-    warnings = _contradictions(clauses, file) + _fidelity_ceilings(clauses, file)
+    warnings = _contradictions(clauses, file) + _fidelity_ceilings(clauses, file) + rounding.limit_warnings(clauses, file)
     labelled = frozenset(c.clause_id for c, t in zip(clauses, clauses_raw) if t.get("label"))
-    return Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings,
-                    labelled=labelled)
+    out = Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings,
+                   labelled=labelled)
+    unc = out.uncertainty
+    if unc.get("instrument") is not None or getattr(unc.get("decision"), "guarded", False):
+        rounding.refuse_under_uncertainty(out, "its [instrument] table or guarded [decision] rule",
+                                          {c.clause_id: where.line(("clause", i), "round_to") for i, c in enumerate(clauses)})
+    return out
 
 
 def _fidelity_ceilings(clauses, file: str) -> tuple[str, ...]:

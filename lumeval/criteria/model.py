@@ -24,7 +24,9 @@ import numpy as np
 
 from .. import figures
 from ..errors import FINITE_FIX, finite_float, shown
-from . import plausible, presets, regions
+from . import plausible, presets, regions, rounding
+from .figure_notes import nearest_category_notes as _nearest_category_notes
+from .figure_notes import with_hue_edge_warnings as _with_hue_edge_warnings
 from .undefined import undefined_reasons
 from .verdicts import (
     NOT_VALID,
@@ -85,31 +87,6 @@ def limit_text(lower: float | None, upper: float | None, unit: str) -> str:
     return f"≤ {fmt_number(upper, unit)}"
 
 
-def _with_hue_edge_warnings(ev, figure: str, reason: tuple[str, ...]) -> tuple[str, ...]:
-    """Add a knife-edge warning to the verdict of a hue-bin figure (Rf_hj, Rcs_hj, Rhs_hj) for
-    every spectrum where a CES lies within 0.01° of an edge of bin j (the pairs computed by
-    :func:`lumeval.metrics.tm30.hue_edge_pairs`); the outcome is unchanged, the warning names
-    the bin and the sample."""
-    for p in ("Rf_h", "Rcs_h", "Rhs_h"):
-        if figure.startswith(p) and figure[len(p):].isdigit():
-            j = int(figure[len(p):])
-            break
-    else:
-        return reason
-    pairs = getattr(getattr(ev, "tm30", None), "hue_edge_pairs", ()) or ()
-    if len(pairs) != len(reason):
-        return reason
-    out = list(reason)
-    for i, pp in enumerate(pairs):
-        ces = [c for b, c in pp if b == j]
-        if ces:
-            names = ", ".join(f"CES {c}" for c in ces)
-            w = (f"knife edge: {names} of hue bin {j} has a reference hue within 0.01° of a bin edge; "
-                 f"{display_name(figure)} can differ between equally valid implementations")
-            out[i] = f"{out[i]}; {w}" if out[i] else w
-    return tuple(out)
-
-
 def _not_valid(ev, figure: str, n: int, outcome: tuple, reason: tuple, accept: bool) -> tuple[tuple, tuple]:
     """Where ``figure`` was computed outside its validity range: ``not valid`` (with the reason),
     or, when the clause accepts such figures, the plain outcome with a note."""
@@ -128,34 +105,19 @@ def _not_valid(ev, figure: str, n: int, outcome: tuple, reason: tuple, accept: b
     return tuple(outcome_l), tuple(reason_l)
 
 
-def _nearest_category_notes(ev, r):
-    """The ANSI category figure names the quadrangle containing the chromaticity *or the nearest
-    one*: a clause on it passes a point outside every quadrangle (a green line 0.16 off the
-    locus was "5000 K, pass"; found by a review). Each such spectrum's reason says so and how
-    far out it lies; membership is what an `ansi_quadrangle` clause judges."""
-    d = np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
-    out = np.flatnonzero(np.isfinite(d) & (d > 0))
-    if not out.size:
-        return r
-    reasons = list(r.reason) if r.reason else [""] * d.size
-    for i in out:
-        note = (f"the nearest category: the chromaticity lies outside every ANSI C78.377 quadrangle "
-                f"(Δu′v′ = {d[i]:.4f} out); to require it inside, use kind = \"ansi_quadrangle\"")
-        reasons[i] = f"{reasons[i]}; {note}" if reasons[i] else note
-    return replace(r, reason=tuple(reasons))
-
-
 def figure_result(
     ev, *, clause_id: str, label: str, kind: str, figure: str, lower, upper, source: str, group: str, line,
-    accept_outside_validity: bool = False,
+    accept_outside_validity: bool = False, round_to: int | None = None,
 ) -> ClauseResult:
-    """Judge ``lower ≤ figure ≤ upper`` for every spectrum (simple acceptance).
+    """Judge ``lower ≤ figure ≤ upper`` for every spectrum (simple acceptance); with ``round_to``
+    the figure rounded to that many decimals is judged (:mod:`.rounding`; ``details["compared"]``).
 
     A figure computed outside its validity range (:meth:`lumeval.engine.Evaluation.outside_validity_of`)
     is ``not valid`` unless ``accept_outside_validity``."""
     m = np.asarray(ev.figure(figure), dtype=float)
     unit = figure_unit(figure)
-    margin = margin_to_limits(m, lower, upper)
+    c = m if round_to is None else rounding.round_half_even(m, round_to)
+    margin = margin_to_limits(c, lower, upper)
     margin = np.where(np.isfinite(m), margin, np.nan)
     outcome, reason = simple_outcomes(margin, undefined_reasons(ev, figure, m))
     outcome, reason = _not_valid(ev, figure, m.size, outcome, reason, accept_outside_validity)
@@ -169,14 +131,15 @@ def figure_result(
         measured=m,
         lower=None if lower is None else float(lower),
         upper=None if upper is None else float(upper),
-        limit_text=limit_text(lower, upper, unit),
+        limit_text=rounding.marked(limit_text(lower, upper, unit), round_to, unit),
         margin=margin,
         outcome=outcome,
-        details={},
+        details={} if round_to is None else {rounding.COMPARED: c},
         reason=reason,
         source=source,
         group=group,
         line=line,
+        round_to=round_to,
     )
 
 
@@ -335,12 +298,14 @@ class FigureClause(ClauseKind):
         KeySpec("max", "number", "highest acceptable value (inclusive)"),
         KeySpec("range", "array of two numbers [low, high]", "acceptable range (inclusive); instead of min and max"),
         ACCEPT_OUTSIDE_VALIDITY,
+        KeySpec("round_to", rounding.ALLOWED, rounding.MEANING),
     )
 
     figure: str
     lower: float | None
     upper: float | None
     accept_outside_validity: bool = False
+    round_to: int | None = None  #: decimals the value is rounded to before comparison (None: unrounded)
 
     @classmethod
     def parse(cls, table: dict, common: dict) -> FigureClause:
@@ -374,15 +339,15 @@ class FigureClause(ClauseKind):
                 _refuse_implausible(fig, key, [table[key]], [v])
         if lo is not None and hi is not None and lo > hi:
             raise ParseError("min", f"min = {lo:g} is above max = {hi:g}", "the limits contradict each other; swap or correct them")
-        unit = figure_unit(fig)
-        label = common["label"] or f"{display_name(fig)} {limit_text(lo, hi, unit)}"
-        return cls(common["id"], label, common["note"], common["line"], fig, lo, hi, boolean(table, ACCEPT_OUTSIDE_VALIDITY.name))
+        unit, rt = figure_unit(fig), rounding.parse(table)
+        label = common["label"] or rounding.marked(f"{display_name(fig)} {limit_text(lo, hi, unit)}", rt, unit)
+        return cls(common["id"], label, common["note"], common["line"], fig, lo, hi, boolean(table, ACCEPT_OUTSIDE_VALIDITY.name), rt)
 
     def evaluate(self, ev) -> tuple[ClauseResult, ...]:
         _desc, std = describe(self.figure)
         r = figure_result(ev, clause_id=self.clause_id, label=self.label, kind=self.KIND, figure=self.figure,
                           lower=self.lower, upper=self.upper, source=std, group=self.clause_id, line=self.line,
-                          accept_outside_validity=self.accept_outside_validity)
+                          accept_outside_validity=self.accept_outside_validity, round_to=self.round_to)
         if figures.get(self.figure).name == "ansi_category_K":
             r = _nearest_category_notes(ev, r)
         return (r,)
@@ -396,7 +361,7 @@ class FigureClause(ClauseKind):
             req = f"shall be at least {fmt_number(self.lower, unit)}"
         else:
             req = f"shall not exceed {fmt_number(self.upper, unit)}"
-        return f"The {desc} (`{self.figure}`, {std}) {req}."
+        return f"The {desc} (`{self.figure}`, {std}) {req}{rounding.tender_words(self.round_to, unit)}."
 
     def sources(self) -> tuple[str, ...]:
         return (describe(self.figure)[1],)

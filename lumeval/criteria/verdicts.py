@@ -85,6 +85,8 @@ class ClauseResult:
     p_conformance : ndarray (N,) or None
         Probability of conformance under the decision rule.
     decision_rule : str
+    round_to : int or None
+        Decimal places the value was rounded to before comparison (None: unrounded).
     """
 
     clause_id: str
@@ -109,6 +111,10 @@ class ClauseResult:
     #: The clause's ``note`` from the criteria file (why the requirement is there), shown with
     #: its verdict in the check report.
     note: str = ""
+    #: Decimal places the value was rounded to before it was compared with the limits (a figure
+    #: clause's ``round_to``; ``details["compared"]`` holds the rounded values, ``margin`` is
+    #: theirs); None: the unrounded value was compared (lumeval.criteria.rounding).
+    round_to: int | None = None
 
     def __len__(self) -> int:
         return len(self.outcome)

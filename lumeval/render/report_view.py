@@ -402,7 +402,8 @@ def key_figures_view(ev, names: Sequence[str], failed: Sequence[bool | None]) ->
 #: Why a key figure can read as meeting a limit its check failed (a specifier's review: Ra 79.6
 #: shown as 80 beside "Ra ≥ 80: FAIL").
 ROUNDED_NOTE = ("Figures here are rounded as the standards report them; criteria compare the unrounded values "
-                "(Ra 79.6 shows as 80 and does not meet Ra ≥ 80): the checks give each measured value in full.")
+                "(Ra 79.6 shows as 80 and does not meet Ra ≥ 80) unless a clause says it rounds them first "
+                "(round_to): the checks give each measured value in full.")
 
 
 # --------------------------------------------------------------------------- lot statistics

@@ -235,6 +235,7 @@ def csv_notes(notes: Iterable[str] = ()) -> str:
 CHECK_CSV_COLUMNS = (
     "spectrum", "source", "verdict", "clause_id", "group", "kind", "label", "figure", "unit", "measured",
     "lower", "upper", "limit", "margin", "delta_upvp", "u", "p_conformance", "outcome", "reason", "warnings",
+    "round_to", "compared",
 )
 
 
@@ -269,13 +270,14 @@ def check_to_csv(result) -> str:
         lo = _cells([r.lower], 1)[0] if r.lower is not None else ""
         hi = _cells([r.upper], 1)[0] if r.upper is not None else ""
         cols.append((r, _cells(r.measured, n), lo, hi, _cells(r.margin, n), _cells(r.details.get("delta_upvp"), n),
-                     _cells(r.uncertainty, n), _cells(r.p_conformance, n), r.reason if r.reason else ("",) * n))
+                     _cells(r.uncertainty, n), _cells(r.p_conformance, n), r.reason if r.reason else ("",) * n,
+                     "" if getattr(r, "round_to", None) is None else str(r.round_to), _cells(r.details.get("compared"), n)))
     ws = result.warnings
     for i, (name, src, verdict) in enumerate(zip(result.names, result.sources, result.verdicts)):
         warned = t(" | ".join(ws[i])) if i < len(ws) else ""
-        for r, meas, lo, hi, mg, d, u, p, why in cols:
+        for r, meas, lo, hi, mg, d, u, p, why, rt, cmp in cols:
             w.writerow((first(name), t(src), verdict, t(r.clause_id), t(r.group), t(r.kind), t(r.label), t(r.figure), t(r.unit),
-                        meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i]), warned))
+                        meas[i], lo, hi, t(r.limit_text), mg[i], d[i], u[i], p[i], r.outcome[i], t(why[i]), warned, rt, cmp[i]))
     return buf.getvalue() + csv_notes(tuple(getattr(result, "notes", ())) + uncertainty_csv_notes(result))
 
 

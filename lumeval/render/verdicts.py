@@ -97,8 +97,15 @@ def measured_text(r, i: int) -> str:
         return f"CCT {_f(cct, '.0f', 'K')}, Duv {_f(duv, '+.4f')}"
     if r.kind == "sdcm":
         return _f(r.measured[i], _more('.2f', _extra_decimals(r.margin[i], '.2f')), "steps")
-    spec = _spec(r.figure)
-    return _f(r.measured[i], _more(_value_spec(r.figure), _figure_decimals(r, i, spec)), r.unit)
+    spec, vspec = _spec(r.figure), _value_spec(r.figure)
+    k = _figure_decimals(r, i, spec)
+    compared, n = (getattr(r, "details", None) or {}).get("compared"), getattr(r, "round_to", None)
+    if compared is None or n is None:
+        return _f(r.measured[i], _more(vspec, k), r.unit)
+    # judged by the rounding method: the value in full (two decimals beyond the rounding) → the one compared
+    k = max(k, n + 2 - int(vspec.partition(".")[2][:-1] or 0))
+    head = vspec.partition(".")[0]
+    return f"{_f(r.measured[i], _more(vspec, k), r.unit)} → {_f(compared[i], f'{head}.{max(n, 0)}f', r.unit)}"
 
 
 def _figure_decimals(r, i: int, spec: str) -> int:
@@ -577,6 +584,9 @@ def _sources_text(result):
         t.append(f"  - {clean(s)}\n", style="dim")
     t.append(f"  Decision rule: {clean(result.results[0].decision_rule) if result.results else 'n/a'}; "
              f"{margin_meaning((getattr(result, 'uncertainty', None) or {}).get('decision_rule'))}\n", style="dim")
+    if any(getattr(r, "round_to", None) is not None for r in result.results):
+        t.append("  A requirement marked \"value rounded\" compares the measured value rounded as it says (ties to "
+                 "even; shown as measured → compared): its margin and result are those of the rounded value.\n", style="dim")
     return t
 
 
@@ -638,6 +648,8 @@ def check_record(result) -> dict:
                 "decision_rule": r.decision_rule,
                 "source": r.source,
                 "line": r.line,
+                # decimals the value was rounded to before comparison (details.compared); null: unrounded
+                "round_to": getattr(r, "round_to", None),
             }
             clauses.append(rec)
         spectra.append(

@@ -107,6 +107,10 @@ def resolve_setup(criteria=None, instrument_path=None, *, seed: int | None = Non
     if rule.guarded and instrument is None:
         notes.append("no instrument model given: lumeval's documented default model was used (docs/uncertainty.md)")
     setup = UncertaintySetup(instrument, settings, rule, tuple(notes))
+    if setup.active:  # guard bands are about unrounded values: a clause with round_to is refused
+        from ..criteria.rounding import refuse_under_uncertainty
+
+        refuse_under_uncertainty(criteria, "the check" if instrument_path is None else "the check with --instrument")
     if (seed is not None or draws is not None) and not setup.active:
         from ..errors import UsageError
 
@@ -148,6 +152,10 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
         The check with uncertainties, probabilities and the rule's outcomes (unchanged plain
         check and None when ``setup`` is not active).
     """
+    if setup.active:
+        from ..criteria.rounding import refuse_under_uncertainty
+
+        refuse_under_uncertainty(criteria, "the check")
     plain = plain if plain is not None else criteria.evaluate(evaluation)
     if not setup.active or not plain.results:
         return plain, None

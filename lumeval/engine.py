@@ -204,8 +204,10 @@ class Evaluation:
         from .metrics.absolute import absolute_photometry
         from .spectra.units import quantity_of
 
+        # (an empty metadata dict, as every spectrum of an archive lot has, says no unit: skipped
+        # without the call, 0.4 µs a spectrum of a lot's own time)
         return absolute_photometry(self.XYZ[:, 1], self.photometry.melanopic_der,
-                                   [quantity_of(m) for m in self.spectra.metadata])
+                                   [quantity_of(m) if m else None for m in self.spectra.metadata])
 
     def figure(self, name: str) -> np.ndarray:
         """The figure ``name`` (a name or alias of :mod:`lumeval.figures`) as an array of shape (N,);

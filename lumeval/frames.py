@@ -160,15 +160,21 @@ def string_array(pa, values):
     UnicodeEncodeError, as ``pa.array`` does."""
     vals = list(values)
     n = len(vals)
-    enc = [b"" if v is None else v.encode("utf-8") for v in vals]
+    n_null = vals.count(None)  # (C speed; most columns have none, and then no per-value test)
+    if n_null:
+        enc = [b"" if v is None else v.encode("utf-8") for v in vals]
+    else:
+        enc = list(map(str.encode, vals))  # UTF-8, strict: a lone surrogate raises
     data = b"".join(enc)
     if len(data) >= 2**31:
         return pa.array(vals, type=pa.string())
     offsets = np.zeros(n + 1, dtype=np.int32)
     np.cumsum(np.fromiter(map(len, enc), dtype=np.int32, count=n), out=offsets[1:])  # < 2**31 in all
-    nulls = np.fromiter((v is None for v in vals), dtype=bool, count=n)
-    validity = pa.py_buffer(np.packbits(~nulls, bitorder="little")) if nulls.any() else None
-    return pa.StringArray.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data), validity, int(nulls.sum()))
+    validity = None
+    if n_null:
+        nulls = np.fromiter((v is None for v in vals), dtype=bool, count=n)
+        validity = pa.py_buffer(np.packbits(~nulls, bitorder="little"))
+    return pa.StringArray.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data), validity, n_null)
 
 
 def arrow_strings(pa, data: bytes, offsets: np.ndarray):
@@ -205,7 +211,17 @@ def _joined_array(pa, column, start: int, stop: int):
         strings = arrow_strings(pa, data, str_offsets)
         if strings is not None and tuple_offsets[-1] < 2**31:
             return joined_runs(pa, strings, tuple_offsets, b" | ")
-    return string_array(pa, [" | ".join(r) for r in column[start:stop]])
+    rows = column[start:stop]
+    full = np.flatnonzero(np.fromiter(map(len, rows), dtype=np.int64, count=len(rows)))
+    if 4 * full.size > len(rows):
+        return string_array(pa, [" | ".join(r) for r in rows])
+    # mostly empty (the outlier reasons of a lot): only the rows that say something are joined
+    enc = [" | ".join(rows[k]).encode("utf-8") for k in full.tolist()]
+    lengths = np.zeros(len(rows), dtype=np.int64)
+    lengths[full] = np.fromiter(map(len, enc), dtype=np.int64, count=len(enc))
+    offsets = np.concatenate([np.zeros(1, dtype=np.int64), np.cumsum(lengths)])
+    arr = arrow_strings(pa, b"".join(enc), offsets) if offsets[-1] < 2**31 else None
+    return arr if arr is not None else string_array(pa, [" | ".join(r) for r in rows])
 
 
 def joined_runs(pa, strings, offsets: np.ndarray, sep: bytes):

@@ -216,6 +216,20 @@ def test_arrays_from_buffers_equal_pyarrows_own_conversion():
         assert arr.equals(pa.array(vals, type=pa.string())), vals
     with pytest.raises(UnicodeEncodeError):  # as pa.array: a lone surrogate is not UTF-8
         string_array(pa, ["bad\udcff"])
+    # tuples of texts joined with " | " (outlier reasons: mostly empty, only the others joined;
+    # warnings: mostly full) against str.join and pa.array of the joined texts
+    from lumeval.frames import _joined_array
+
+    reasons = tuple(("Rf low", "v\u2032 low") if k % 9 == 0 else (("R9 \u2713",) if k % 13 == 0 else ())
+                    for k in range(300))
+    for rows in (reasons, tuple(r or ("note",) for r in reasons), ((),) * 5, ()):
+        for start, stop in ((0, len(rows)), (7, 123), (50, 50)):
+            want = pa.array([" | ".join(r) for r in rows[start:stop]], type=pa.string())
+            got = _joined_array(pa, rows, start, stop)
+            got.validate(full=True)
+            assert got.equals(want), (start, stop)
+    with pytest.raises(UnicodeEncodeError):
+        _joined_array(pa, ((),) * 10 + (("bad\udcff",),), 0, 11)
     for typ in (pa.float64(), pa.float32()):
         arr = pa.array([1.5, None, 3.25, np.nan, -0.0, None, 7.0, 2.5e-3], type=typ)
         for part in (arr, arr.slice(1), arr.slice(2, 4), arr.slice(8), arr.slice(5, 3), pa.array([1.0, 2.0], type=typ)):

@@ -582,7 +582,10 @@ def screen_outliers(
                 f"(modified z = {z[i]:+.1f}, |z| > {threshold:g})"
             )
         flags |= hit
-    return flags, tuple(tuple(reasons[i]) if i in reasons else () for i in range(n)), zs
+    out: list[tuple[str, ...]] = [()] * n  # most samples have no reason: only the flagged ones set
+    for i, why in reasons.items():
+        out[i] = tuple(why)
+    return flags, tuple(out), zs
 
 
 def lot_yield(verdicts: Sequence[str]) -> LotYield:

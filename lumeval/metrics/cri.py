@@ -370,9 +370,11 @@ def cie133_cri(
             arr[bad] = np.nan
     within = np.zeros(n, dtype=bool)
     np.less(dc, DC_LIMIT, out=within, where=np.isfinite(dc))
-    kinds = tuple(
-        "" if not ok else (PLANCKIAN if t < DAYLIGHT_FROM_K else DAYLIGHT) for ok, t in zip(defined & ~bad, T)
-    )
+    # "" where undefined, else the reference's kind by its CCT (one array lookup, not a Python
+    # expression per spectrum)
+    with np.errstate(invalid="ignore"):
+        pick = np.where(defined & ~bad, np.where(np.asarray(T, dtype=float) < DAYLIGHT_FROM_K, 1, 2), 0)
+    kinds = tuple(np.array(["", PLANCKIAN, DAYLIGHT], dtype=object)[pick].tolist())
     ref_T = np.where(defined & ~bad, T, np.nan)
     return CRIResult(
         Ra=Ra,

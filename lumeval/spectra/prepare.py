@@ -220,7 +220,7 @@ def _err(spectra: SpectrumSet, i: int, problem: str, fix: str) -> InputError:
 
 
 def _check_values(
-    spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: list[list[str]], owned: bool = False
+    spectra: SpectrumSet, wl: np.ndarray, vals: np.ndarray, notes: _Notes, owned: bool = False
 ) -> np.ndarray:
     """Validate values inside 360-830 nm; clip small negative noise. Returns the values: ``vals``
     itself when nothing is clipped (``wl`` is increasing), else a copy with the clipped rows
@@ -355,7 +355,7 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
     # chunk needs little more than the chunk itself (memory, docs/lots.md).
     vals = np.asarray(spectra.values, dtype=float)
     owned = vals is not spectra.values
-    notes = [list(n) for n in spectra.notes]
+    notes = _Notes(spectra.notes)
     n = len(spectra)
     if wl.size < 2 or not np.all(np.isfinite(wl)):
         raise _err(spectra, 0, "the wavelengths are missing or not finite numbers", "check the wavelength column")
@@ -470,14 +470,43 @@ def _prepare_one(spectra: SpectrumSet) -> SpectrumSet:
         vals_new,
         spectra.names,
         spectra.sources,
-        tuple(tuple(x) for x in notes),
+        notes.result(),
         spectra.metadata,
         prepared=True,
     )
 
 
+class _Notes:
+    """The per-spectrum notes of a set being prepared: ``notes[k]`` is spectrum k's list, made
+    from its notes so far the first time it is asked for (most spectra of a batch get no note:
+    no list is made for them, 0.25 µs a spectrum of a Parquet lot)."""
+
+    def __init__(self, base: tuple[tuple[str, ...], ...]) -> None:
+        self._base = base
+        self._changed: dict[int, list[str]] = {}
+
+    def __len__(self) -> int:
+        return len(self._base)
+
+    def __getitem__(self, k: int) -> list[str]:
+        got = self._changed.get(k)
+        if got is None:
+            got = self._changed[k] = list(self._base[k])
+        return got
+
+    def result(self) -> tuple[tuple[str, ...], ...]:
+        """Every spectrum's notes, as a tuple of tuples."""
+        base = tuple(map(tuple, self._base))  # (tuple() of a tuple is that tuple: no copy)
+        if not self._changed:
+            return base
+        out = list(base)
+        for k, v in self._changed.items():
+            out[k] = tuple(v)
+        return tuple(out)
+
+
 def _extend(
-    wl: np.ndarray, vals: np.ndarray, h: float, start: float, end: float, notes: list[list[str]]
+    wl: np.ndarray, vals: np.ndarray, h: float, start: float, end: float, notes: _Notes
 ) -> tuple[np.ndarray, np.ndarray]:
     """Extend (N, W) data on a uniform grid of step h by constant end values to cover start..end."""
     n_lo = int(np.ceil((wl[0] - start) / h - 1e-9)) if wl[0] > start else 0

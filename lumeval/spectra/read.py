@@ -145,10 +145,6 @@ def renamed_names(names, seen: dict[str, int]) -> dict[int, tuple[str, str]]:
     """The renaming :func:`unique_names` makes: index -> (new name, its note) for every name of
     ``names`` already in ``seen`` (updated, in order)."""
     out: dict[int, tuple[str, str]] = {}
-    fresh = dict.fromkeys(names, 1)
-    if len(fresh) == len(names) and seen.keys().isdisjoint(fresh):  # no repeat: every name kept (C speed)
-        seen.update(fresh)
-        return out
     for i, n in enumerate(names):
         if n not in seen:
             seen[n] = 1

@@ -114,3 +114,27 @@ def test_ces_under_reference_and_led_sources(step):
     M = np.hypot(Jab_ref[..., 1], Jab_ref[..., 2])
     assert dh[M >= 1.0].max() <= TOL
     assert (M * np.radians(dh)).max() <= TOL
+
+
+def test_powers_and_the_rf_scale_agree_with_numpys_direct_functions():
+    """The power and logarithm the forward model and the Rf scale are computed with (exp/log,
+    numpy's vectorised functions) against numpy's ``np.power`` and ``np.log1p`` (the direct
+    definitions): relative 1e-14 for the powers over the values the model meets and beyond
+    (10⁻¹⁰ … 10⁶, exponents 0.42, 0.9 and c·z from 0.69·1.48 to 0.69·2.5), absolute 5e-14 for
+    Rf = 10 ln(1 + exp((100 − 6.73 ΔE′)/10)) over ΔE′ 0 … 60 (CIE 224:2017 Eq. for Rf)."""
+    from lumeval.metrics.cam02ucs import _pow_into, _spow_into
+
+    rng = np.random.default_rng(11)
+    y = 10.0 ** rng.uniform(-10, 6, 200_000)
+    for p in (0.42, 0.9, 0.69 * 1.48, 0.69 * 2.5):
+        np.testing.assert_allclose(_pow_into(y.copy(), p), np.power(y, p), rtol=1e-14, atol=0)
+    p_arr = rng.uniform(0.69 * 1.48, 0.69 * 2.5, (1000, 1))
+    x = rng.normal(size=(1000, 99)) * 10.0
+    np.testing.assert_allclose(_spow_into(x.copy(), p_arr), np.sign(x) * np.power(np.abs(x), p_arr), rtol=1e-14, atol=0)
+    special = np.array([0.0, np.inf, np.nan])
+    got = _pow_into(special.copy(), 0.42)
+    assert got[0] == 0.0 and got[1] == np.inf and np.isnan(got[2])
+    assert np.signbit(_spow_into(np.array([-0.0, -8.0]), 0.42)).all()
+    de = np.linspace(0.0, 60.0, 150_001)
+    want = 10.0 * np.log1p(np.exp((100.0 - T.C_F * de) / 10.0))
+    np.testing.assert_allclose(T._Rf_scale(de), want, rtol=0, atol=5e-14)

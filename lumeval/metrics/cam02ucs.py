@@ -102,10 +102,24 @@ _L_FORMS = np.array([[1.0, 1.0 / 9.0, 2.0, 1.0], [-12.0 / 11.0, 1.0 / 9.0, 1.0, 
 _L_FORMS_400 = 400.0 * np.column_stack([_L_FORMS, _L_FORMS[:, 0] * np.cos(2.0) - _L_FORMS[:, 1] * np.sin(2.0)])
 
 
+def _pow_into(y: np.ndarray, p: float | np.ndarray) -> np.ndarray:
+    """y^p in place for y ≥ 0 (0 stays 0, ∞ stays ∞, NaN stays NaN), as exp(p·ln y).
+
+    numpy's logarithm and exponential are vectorised and its general ``power`` is not: on
+    this machine 10.3 against 16.8 ns a value (2·10⁶ values, 2026-12-05). The relative error
+    is about (1 + |p·ln y|) units in the last place, against half a unit for ``np.power``: a
+    few units for the values here (tests/test_metrics_tm30_cam02.py compares the result with
+    colour-science). The exponent p is positive everywhere it is used."""
+    with np.errstate(divide="ignore"):  # ln 0 = −∞, and exp(−∞) = 0 = 0^p
+        np.log(y, out=y)
+    y *= p
+    return cast("np.ndarray", np.exp(y, out=y))
+
+
 def _spow_into(x: np.ndarray, p: float | np.ndarray) -> np.ndarray:
-    """sign(x)·|x|^p in fewer passes (copysign; the same values as :func:`_spow`)."""
-    y = np.abs(x)
-    np.power(y, p, out=y)
+    """sign(x)·|x|^p in fewer passes (copysign; :func:`_spow`'s values within a few units in
+    the last place, :func:`_pow_into`)."""
+    y = _pow_into(np.abs(x), p)
     return cast("np.ndarray", np.copysign(y, x, out=y))
 
 
@@ -134,12 +148,11 @@ def _cam02ucs(
     def compress(v: np.ndarray) -> np.ndarray:
         # v = F_L R′ / 100: R′_a = 400 sign(v) |v|^0.42 / (27.13 + |v|^0.42) + 0.1 (CIE 159:2004);
         # returns c = (R′_a − 0.1) / 400 (the linear forms below take the 400 and the 0.1)
-        y = np.abs(v)
-        np.power(y, 0.42, out=y)
+        y = _pow_into(np.abs(v), 0.42)
         den = y + 27.13
         np.copysign(y, v, out=y)
         y /= den
-        return cast("np.ndarray", y)
+        return y
 
     RGB_w = mm(XYZ_w, _M_CAT02.T)  # (M, 3)
     D_scale = Y_w[:, None] / RGB_w  # D = 1: R_c = (Y_w / R_w) R
@@ -180,7 +193,8 @@ def _cam02ucs(
         J += 1.0
         np.divide(Jn, J, out=J)  # J′ = 1.7 J / (1 + 0.007 J)
         Mc *= 0.0228
-        np.log1p(Mc, out=Mc)
+        Mc += 1.0  # ln(1 + x) by np.log: vectorised, unlike np.log1p (5.4 against 13 ns a value);
+        np.log(Mc, out=Mc)  # log1p is only more exact for x ≪ 1, and M′ is used absolutely
         Mc /= 0.0228  # M′
         pos = r > 0
         np.divide(Mc, r, out=Mc, where=pos)

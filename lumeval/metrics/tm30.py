@@ -315,8 +315,18 @@ def blend_spd(wavelengths_nm: ArrayLike, P: np.ndarray, D: np.ndarray, m: np.nda
 
 
 def _Rf_scale(delta_E: ArrayLike) -> np.ndarray:
-    """Rf = 10 ln(exp((100 − 6.73 ΔE′)/10) + 1) (CIE 224:2017; TM-30-18), via log1p."""
-    return cast("np.ndarray", 10.0 * np.log1p(np.exp((100.0 - C_F * np.asarray(delta_E)) / 10.0)))
+    """Rf = 10 ln(exp((100 − 6.73 ΔE′)/10) + 1) (CIE 224:2017; TM-30-18).
+
+    Written with ``np.log`` of 1 + exp(…), not ``np.log1p``: numpy's logarithm is vectorised
+    and its log1p is not (5.4 against 13 ns a value on this machine, 2026-12-05). log1p is
+    only more accurate where exp(…) is far below 1, i.e. Rf near 0; the two differ by at most
+    3·10⁻¹⁴ in Rf (two units in the last place of a value near 100; ΔE′ from 0 to 40 in steps
+    of 0.0004, compared once), and Rf is judged on absolute differences."""
+    y = np.asarray(np.exp((100.0 - C_F * np.asarray(delta_E, dtype=float)) / 10.0))
+    y += 1.0
+    np.log(y, out=y)
+    y *= 10.0
+    return y
 
 
 def _ces_cmf_kernel(R: np.ndarray, cmf10: np.ndarray) -> np.ndarray:

@@ -137,6 +137,11 @@ def test_series_manifest_unit_and_a_different_unit_option_are_refused(tmp_path, 
     code, out, err = run(["series", *files, "--manifest", m, "--unit", "%", "--format", "json"], capsys)
     assert code == 0, err
     assert json.loads(out)["unit"] == "%"
+    # a spelling of the same unit is the unit as the reports write it (was shown as "10 pct")
+    code, out, err = run(["series", *files, "--manifest", m, "--unit", "pct", "--format", "json"], capsys)
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["unit"] == "%" and doc["settings"][0]["label"] == "10 %", doc["settings"][0]
 
 
 def test_cli_errors(tmp_path, capsys, chans):

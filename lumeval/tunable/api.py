@@ -216,6 +216,7 @@ def series_files(paths, *, setting_from: str = "name", key: str = "setting", man
         unit = m_unit or (found.pop() if found else "")
     else:
         _refuse_other_written_unit(unit, units, sources, setting_from, key)
+    unit = _unit_word(unit)  # as the reports write it: --unit pct (or a manifest's "percent") is %
     _refuse_negative_settings(values, unit, sources, [(manifest, m_lines.get(e)) if e else None for e in entries])
     order = setting_order(values, sources)
     if crit is not None:

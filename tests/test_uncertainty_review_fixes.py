@@ -213,6 +213,28 @@ def test_an_adaptive_run_that_did_not_stabilise_is_said_in_every_format(tmp_path
         assert "did not stabilise" in text and "led_a (1000 draws)" in text, fmt
 
 
+def test_a_lot_says_which_samples_did_not_stabilise(tmp_path, capsys):
+    """A lot decided under uncertainty runs the Monte Carlo batch by batch and said neither the
+    samples that did not stabilise nor their draws (found by a review): now the terminal
+    summary, the lot JSON and the HTML report carry the note a check carries, naming them."""
+    leds = [_led(tmp_path, f"led_{k}") for k in "abc"]
+    crit, inst = _files(tmp_path, GUARDED.format(id="Ra", fig="Ra", lo=79),
+                        INST + '[monte_carlo]\ndraws = "adaptive"\ndraws_block = 500\nmax_draws = 1000\n'
+                        "significant_digits = 2\n")
+    out_json, html = tmp_path / "lot.json", tmp_path / "lot.html"
+    code, out, err = run(["lot", *leds, "-c", crit, "--instrument", inst, "--json", out_json, "--html", html], capsys)
+    assert code in (0, 1), err
+    notes = json.loads(out_json.read_text(encoding="utf-8"))["uncertainty"]["notes"]
+    said = [n for n in notes if "did not stabilise" in n]
+    assert len(said) == 1 and "for 3 spectra" in said[0], notes
+    assert all(f"led_{k} (1000 draws)" in said[0] for k in "abc")
+    assert "did not stabilise" in re.sub(r"\s+", " ", out) and "led_a (1000 draws)" in re.sub(r"\s+", " ", out)
+    import html as _html
+
+    page = re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", html.read_text(encoding="utf-8"))))
+    assert "did not stabilise" in page and "led_c (1000 draws)" in page
+
+
 # ------------------------------------------------------------------ 6. words
 
 

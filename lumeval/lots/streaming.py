@@ -49,6 +49,10 @@ class BatchResult:
     outside_validity : ndarray of bool (n,) or None
         The samples whose reference-based figures were computed outside their validity range
         (Evaluation.outside_validity; None: none). The lot statistics leave those values out.
+    mc_draws, mc_stabilised : ndarray (n,) or None
+        Under measurement uncertainty: the Monte Carlo draws each sample used and whether its
+        adaptive procedure stabilised (:class:`lumeval.uncertainty.montecarlo.UncertaintyResult`);
+        the lot's notes name the samples that did not (None: no Monte Carlo).
     """
 
     names: list
@@ -61,6 +65,8 @@ class BatchResult:
     evaluation: object = None
     run_warnings: tuple = ()
     outside_validity: np.ndarray | None = None
+    mc_draws: np.ndarray | None = None
+    mc_stabilised: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -84,17 +90,20 @@ def evaluate_batch(spectra, sample_criteria=None, uncertainty=None, *, offset: i
     figs = np.array([ev.figure(k) for k in figure_names()], dtype=float).T
     xy = np.column_stack([ev.x, ev.y])
     clauses = None
+    mc_draws = mc_stable = None
     if sample_criteria is not None and uncertainty is not None and uncertainty.active:
         from ..uncertainty.judge import judge_with_uncertainty
 
-        clauses = list(judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset,
-                                                       progress=progress)[0].results)
+        judged, unc = judge_with_uncertainty(ev, sample_criteria, uncertainty, index_offset=offset, progress=progress)
+        clauses = list(judged.results)
+        if unc is not None:
+            mc_draws, mc_stable = np.asarray(unc.draws, dtype=np.int64), np.asarray(unc.stabilised, dtype=bool)
     elif sample_criteria is not None:
         clauses = list(sample_criteria.evaluate(ev).results)
     flag = ev.outside_validity
     return BatchResult(list(ev.spectra.names), list(ev.spectra.sources), list(ev.warnings), figs, xy, clauses,
                        metadata, ev if keep_evaluation else None, tuple(ev.run_warnings),
-                       None if flag is None else np.asarray(flag, dtype=bool))
+                       None if flag is None else np.asarray(flag, dtype=bool), mc_draws, mc_stable)
 
 
 def archive_batches(file: str, batch_rows: int, *, partitions=None, opened=None) -> Iterator[tuple]:
@@ -191,6 +200,7 @@ class LotAccumulator:
         self._xy = _Columns(2, expected)
         self._outside = _Columns(1, expected, dtype=bool)  # Evaluation.outside_validity, one byte a sample
         self._clauses: list[list] = []
+        self._mc: list[tuple[np.ndarray, np.ndarray]] = []  # (draws, stabilised) of each batch under uncertainty
         self._meta: list[tuple[int, Any]] = []  # (samples, Arrow table or None): pyarrow is imported lazily
 
     def __len__(self) -> int:
@@ -206,6 +216,8 @@ class LotAccumulator:
         self._outside.add(np.zeros((len(r), 1), dtype=bool) if flag is None else np.asarray(flag, dtype=bool)[:, None])
         if r.clauses is not None:
             self._clauses.append(r.clauses)
+        if r.mc_draws is not None and r.mc_stabilised is not None:
+            self._mc.append((r.mc_draws, r.mc_stabilised))
         self._meta.append((len(r), r.metadata))
         if self.keep_evaluation and r.evaluation is not None:
             self._evaluations.append(r.evaluation)
@@ -264,9 +276,11 @@ class LotAccumulator:
             if uncertainty is not None and uncertainty.active:
                 from dataclasses import replace as _replace
 
-                from ..uncertainty.judge import uncertainty_info
+                from ..uncertainty.judge import lot_draws_notes, uncertainty_info
 
-                check = _replace(check, uncertainty=uncertainty_info(uncertainty, None))
+                info = uncertainty_info(uncertainty, None)
+                info["notes"] += lot_draws_notes(uncertainty.settings, self._mc, names)
+                check = _replace(check, uncertainty=info)
 
         if criteria is not None and ellipse is None and nominal_xy is None:
             ellipse, nominal_xy = _nominal_from_criteria(criteria)

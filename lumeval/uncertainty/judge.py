@@ -338,10 +338,12 @@ MIN_DRAWS = 2000
 _NAMES_SHOWN = 5
 
 
-def draws_notes(settings: MonteCarloSettings, unc: UncertaintyResult | None) -> list[str]:
+def draws_notes(settings: MonteCarloSettings, unc: Any) -> list[str]:
     """Notes on the Monte Carlo itself, for every output format: fewer than :data:`MIN_DRAWS`
     draws for some spectrum; an adaptive run that did not stabilise (each such spectrum with the
-    draws it used). Spectrum names are text from files: the renderers escape them."""
+    draws it used). ``unc``: an :class:`UncertaintyResult` (or anything with its ``draws``,
+    ``stabilised`` and ``names``), or None. Spectrum names are text from files: the renderers
+    escape them."""
     out = []
     used = [int(m) for m in unc.draws] if unc is not None else ([] if settings.adaptive else [int(settings.draws or 0)])
     few = sorted({m for m in used if m < MIN_DRAWS})
@@ -357,3 +359,21 @@ def draws_notes(settings: MonteCarloSettings, unc: UncertaintyResult | None) -> 
                    f"{settings.max_draws} for {len(bad)} {'spectra' if len(bad) != 1 else 'spectrum'}: {named}{more}; their "
                    "u, U and guard bands may be off in the last digit shown: raise max_draws in [monte_carlo]")
     return out
+
+
+def lot_draws_notes(settings: MonteCarloSettings, batches, names) -> list[str]:
+    """:func:`draws_notes` of a lot whose Monte Carlo ran batch by batch: ``batches`` holds each
+    batch's (draws used, stabilised) per sample, in the order of ``names`` (the lot's sample
+    names). A fixed number of draws is already said by :func:`uncertainty_info` (nothing
+    here); for the adaptive procedure, the samples with fewer than :data:`MIN_DRAWS` draws and
+    those that did not stabilise are said as for a check (found by a review: a lot said
+    neither)."""
+    if not settings.adaptive or not batches:
+        return []
+    from types import SimpleNamespace
+
+    draws = np.concatenate([np.asarray(d, dtype=np.int64) for d, _ in batches])
+    stabilised = np.concatenate([np.asarray(s, dtype=bool) for _, s in batches])
+    if draws.size != len(names):  # (every batch of a lot under uncertainty has its draws)
+        return []
+    return draws_notes(settings, SimpleNamespace(draws=draws, stabilised=stabilised, names=names))

@@ -75,6 +75,32 @@ def test_record_and_idempotent_rerecord(store_url):
     assert r4.created and r4.lot_id == 2
 
 
+def test_the_same_input_files_under_other_criteria_are_said(store_url):
+    """Recording byte-identical input files again under other criteria makes a new lot (its
+    identity is the inputs and the criteria), and a trend over the store then counts those
+    samples twice: the record says so, naming the earlier lot and how many files it shares
+    (found by a history review). A lot sharing some of its files is said the same way."""
+    from dataclasses import replace
+
+    a = make_record([1.0, 2.0, 3.0], key="a")
+    assert record_lot(store_url, a).overlaps == ()
+    other = replace(a, criteria_file="c2.toml", criteria_sha256=hashlib.sha256(b"other criteria").hexdigest())
+    r = record_lot(store_url, other)
+    assert r.created and r.lot_id == 2 and r.overlaps == ((1, 1),)
+    assert "recorded as lot 2" in r.message and "; note: all of its 1 input file is already in lot 1" in r.message
+    assert "counts those samples in each lot" in r.message
+    again = record_lot(store_url, other)  # the same lot again: the known message, no note
+    assert not again.created and "note" not in again.message
+    sha = {k: hashlib.sha256(k.encode()).hexdigest() for k in "abc"}
+    part = replace(make_record([4.0, 5.0], key="p"),
+                   inputs=(("a.csv", sha["a"], 100), ("b.csv", sha["b"], 100), ("c.csv", sha["c"], 100)))
+    r = record_lot(store_url, part)
+    assert r.created and r.overlaps == ((1, 1), (2, 1)) and r.n_inputs == 3
+    assert "1 of its 3 input files is already in lot 1, 1 of its 3 input files is already in lot 2" in r.message
+    fresh = record_lot(store_url, make_record([6.0], key="z"))
+    assert fresh.overlaps == () and "note" not in fresh.message
+
+
 def test_figure_summary_stored(store_url):
     vals = [3.0, 4.0, np.nan, 8.0]
     record_lot(store_url, make_record(vals, key="a"))

@@ -82,13 +82,34 @@ class RecordResult:
     store: str
     product: str | None
     label: str | None
+    #: (lot id, how many of this lot's input files it also holds) for every earlier lot that
+    #: holds some of the same files (byte for byte): recorded under other criteria, or in a lot
+    #: that overlaps this one. A trend over the store counts those samples in each lot.
+    overlaps: tuple[tuple[int, int], ...] = ()
+    n_inputs: int = 0
 
     @property
     def message(self) -> str:
         what = f"lot {self.lot_id}" + (f" ({self.label})" if self.label else "")
         if self.created:
-            return f"recorded as {what} in {self.store}"
+            return f"recorded as {what} in {self.store}" + self.overlap_note
         return f"already recorded as {what} in {self.store} (same input files and criteria): not recorded again"
+
+    @property
+    def overlap_note(self) -> str:
+        """"; note: …" when earlier lots hold some of the same input files ("" when none)."""
+        if not self.overlaps:
+            return ""
+        shown = self.overlaps[:_OVERLAPS_SHOWN]
+        parts = [f"{'all' if k == self.n_inputs else k} of its {self.n_inputs} input file{'s' if self.n_inputs != 1 else ''} "
+                 f"{'are' if k != 1 else 'is'} already in lot {lid}" for lid, k in shown]
+        more = f" and {len(self.overlaps) - len(shown)} more lots" if len(self.overlaps) > len(shown) else ""
+        return ("; note: " + ", ".join(parts) + more + " (the same bytes, recorded under other criteria or in "
+                "another lot): a trend over the store counts those samples in each lot")
+
+
+#: Earlier lots named in the overlap note before "and N more lots".
+_OVERLAPS_SHOWN = 3
 
 
 def _num(v):
@@ -272,6 +293,24 @@ def record_lot(store: str | StoreURL, rec: LotRecord, *, _after_batch=None) -> R
         pause = min(pause * 2, 0.5)
 
 
+def _overlapping_lots(conn, t, rec: LotRecord) -> tuple[tuple[int, int], ...]:
+    """(lot id, shared input files) of the lots already in the store that hold any of
+    ``rec``'s input files (the same SHA-256), most shared first, then by id."""
+    from sqlalchemy import distinct, func, select
+
+    shas = sorted({s for _p, s, _b in rec.inputs})
+    if not shas:
+        return ()
+    li = t["inputs"]
+    shared: dict[int, int] = {}
+    for k in range(0, len(shas), 900):  # IN lists within SQLite's oldest limit of 999 parameters
+        q = (select(li.c.lot_id, func.count(distinct(li.c.sha256))).where(li.c.sha256.in_(shas[k:k + 900]))
+             .group_by(li.c.lot_id))
+        for lot_id, n in conn.execute(q):
+            shared[int(lot_id)] = shared.get(int(lot_id), 0) + int(n)
+    return tuple(sorted(shared.items(), key=lambda kv: (-kv[1], kv[0])))
+
+
 def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_batch) -> RecordResult:
     from sqlalchemy import insert
     from sqlalchemy.exc import IntegrityError
@@ -282,6 +321,7 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
             row = existing(conn)
             if row is not None:
                 return RecordResult(int(row[0]), False, su.shown, rec.product, row[1])
+            overlaps = _overlapping_lots(conn, t, rec)
             reg = rec.region
             lot_id = conn.execute(insert(t["lots"]).values(
                 lot_key=key, label=rec.label, product=rec.product, recorded_at=_now(),
@@ -318,7 +358,8 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
                 conn.execute(insert(t["samples"]), batch)
                 if _after_batch is not None:
                     _after_batch(k + 1)
-            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label)
+            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label, overlaps,
+                                len({s for _p, s, _b in rec.inputs}))
     except IntegrityError:
         pass  # the same lot, recorded by another process at the same moment: report that record
     with connect(su, write=False, action="read the store") as conn:

@@ -41,3 +41,36 @@ def test_failing_lot_clause_fails_the_report(tmp_path):
     verdict = page[page.index('id="verdict"'):page.index('id="figures-table"')]
     assert 'class="summary fail"' in verdict
     assert "largest pairwise" in verdict
+
+
+def test_the_report_names_each_per_sample_criterion_with_its_counts(tmp_path):
+    """A lot report listed only the samples that did not pass: when all passed, nothing named
+    what they were judged on (found by a review). Each per-sample criterion is now a row with
+    its limit, the samples that passed and failed, and the worst margin: the same counts as
+    the per-sample CSV of the same run."""
+    import html as _html
+    import re
+
+    import numpy as np
+
+    crit = tmp_path / "crit.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 91.5\n'
+                    '[[clause]]\nid = "R9"\nfigure = "R9"\nmin = 50\nround_to = 0\n', encoding="utf-8")
+    html, samples = tmp_path / "lot.html", tmp_path / "s.csv"
+    r = subprocess.run([sys.executable, "-m", "lumeval", "lot", str(LOT), "--criteria", str(crit), "--quiet",
+                        "--html", str(html), "--samples-csv", str(samples)],
+                       capture_output=True, text=True, cwd=REPO, timeout=600)
+    assert r.returncode == 1, r.stderr
+    from lumeval.render.tables import read_csv_report
+
+    rows = read_csv_report(samples.read_text(encoding="utf-8"))
+    ra_fail = sum(x["clause:Ra"] == "fail" for x in rows)
+    assert 0 < ra_fail < len(rows)  # the premise: the demo lot's Ra spreads around 91.5
+    worst = min(float(x["Ra"]) for x in rows) - 91.5
+    text = re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", html.read_text(encoding="utf-8"))))
+    assert "Per-sample criteria over the lot" in text
+    m = re.search(r"Ra ≥ 91\.5 (\d+) (\d+) none (-?[\d.]+)", text)
+    assert m, text[text.find("Per-sample criteria"):][:600]
+    assert (int(m.group(1)), int(m.group(2))) == (len(rows) - ra_fail, ra_fail)
+    np.testing.assert_allclose(float(m.group(3)), worst, rtol=0, atol=1e-3)  # shown to 4 significant digits
+    assert re.search(rf"R9 ≥ 50 \(value rounded to 0 decimal places\) {len(rows)} 0 none", text)

@@ -93,6 +93,9 @@ class VerdictView:
     summary: str = ""
     counts: str = ""
     lot_criteria: Table | None = None
+    #: A lot: each per-sample criterion over the lot (passed, failed, other, worst margin), so
+    #: that a report whose samples all pass still names what they were judged on.
+    sample_criteria: Table | None = None
     samples_intro: str | None = None
     samples: Table | None = None
     samples_footnote: str | None = None
@@ -257,6 +260,30 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: st
                                           tuple(body), (False, False, True, False, True, False)))
 
 
+def _sample_criteria_table(rows: list[VerdictRow], wording: Wording) -> Table | None:
+    """A lot's per-sample criteria, one row each in the criteria's order: the requirement, its
+    limit, how many samples passed and failed, the other outcomes counted, and the worst margin
+    (the terminal summary's "Requirements" table, in the report)."""
+    if not rows:
+        return None
+    groups: dict[tuple, list[VerdictRow]] = {}
+    for k, r in zip(_clause_keys(rows), rows):
+        groups.setdefault(k if k[0] == "clause" else ("row", r.clause, r.limit), []).append(r)
+    body = []
+    for rs in groups.values():
+        head = rs[0]
+        outcomes = [r.outcome for r in rs]
+        margins = [float(r.margin) for r in rs if isinstance(r.margin, (int, float)) and np.isfinite(r.margin)]
+        unit = f" {head.unit}" if head.unit and head.unit != "%" else head.unit
+        worst_margin = plain_number(min(margins)) + unit if margins else "n/a"
+        failed = outcomes.count("fail")
+        body.append(Row((_clause_cell(head), Cell(head.limit), Cell(str(outcomes.count("pass"))), Cell(str(failed)),
+                         Cell(_tally(outcomes, wording, leave_out=("pass", "fail")) or "none"), Cell(worst_margin)),
+                        failed > 0))
+    return Table(("Per-sample criterion", "Limit", "Passed", "Failed", "Other", "Worst margin"), tuple(body),
+                 (False, False, True, True, False, True))
+
+
 def _tally(outcomes, wording: Wording, leave_out: tuple[str, ...] = ("pass",)) -> str:
     """"1 failed, 2 not valid, 1 not judged" (worst first), as the terminal counts them; a claims
     report in its own words ("1 contradicted")."""
@@ -357,11 +384,12 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
     intro = table = foot = None
     if len(per_sample) > 1:
         intro, table, foot = _samples_table(per_sample, lot, n, wording)
+    sample_table = _sample_criteria_table([r for r in rows if r.sample is not None], wording) if lot is not None else None
     return VerdictView(
         judged=True, criteria_file=None if not crit_file else str(crit_file),
         identification=tuple((str(k), str(v)) for k, v in dict(ident or {}).items()),
         overall=overall, summary=summary, counts=_counts_text(rows, wording),
-        lot_criteria=lot_table, samples_intro=intro, samples=table, samples_footnote=foot,
+        lot_criteria=lot_table, sample_criteria=sample_table, samples_intro=intro, samples=table, samples_footnote=foot,
         uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max, wording.noun),
         not_judged_summary=not_judged_text(skipped, command) + ":" if skipped else "",
         not_judged=tuple(c.note for c in skipped), criteria_notes=notes)

@@ -74,3 +74,46 @@ def test_the_report_names_each_per_sample_criterion_with_its_counts(tmp_path):
     assert (int(m.group(1)), int(m.group(2))) == (len(rows) - ra_fail, ra_fail)
     np.testing.assert_allclose(float(m.group(3)), worst, rtol=0, atol=1e-3)  # shown to 4 significant digits
     assert re.search(rf"R9 ≥ 50 \(value rounded to 0 decimal places\) {len(rows)} 0 none", text)
+
+
+def test_a_not_valid_sample_is_counted_but_not_in_the_worst_margin(tmp_path):
+    """A green source far off the locus (Duv ≈ +0.15) has an Ra computed outside its validity
+    range: its outcome is "not valid", and its Ra (about −2) is not a judged value. The lot's
+    worst margin was that sample's (−82; found by a review) and the terminal said "every sample
+    passes". Now the worst margin is over the judged samples (their Ra from the per-sample CSV)
+    and both the terminal and the report count the not-valid one."""
+    import html as _html
+    import re
+    import shutil
+
+    import numpy as np
+
+    from lumeval.render.tables import read_csv_report
+
+    d = tmp_path / "lot"
+    d.mkdir()
+    for f in sorted(LOT.glob("*.csv"))[:4]:
+        shutil.copy(f, d / f.name)
+    wl = np.arange(380, 781, 1.0)
+    green = np.exp(-0.5 * ((wl - 530) / 15) ** 2) + 0.05 * np.exp(-0.5 * ((wl - 450) / 10) ** 2)
+    (d / "GREEN-1.csv").write_text("wavelength_nm,GREEN-1\n" + "".join(f"{a:g},{b:.8f}\n" for a, b in zip(wl, green)),
+                                   encoding="utf-8")
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 80\n', encoding="utf-8")
+    html, samples = tmp_path / "lot.html", tmp_path / "s.csv"
+    r = subprocess.run([sys.executable, "-m", "lumeval", "lot", str(d), "--criteria", str(crit), "--html", str(html),
+                        "--samples-csv", str(samples)], capture_output=True, text=True, cwd=REPO, timeout=600)
+    assert r.returncode == 1, r.stderr  # a not-valid sample counts as failing the lot
+    rows = read_csv_report(samples.read_text(encoding="utf-8"))
+    outcomes = {x["name"]: x["clause:Ra"] for x in rows}
+    assert outcomes.pop("GREEN-1") == "not valid" and set(outcomes.values()) == {"pass"}  # the premise
+    worst = min(float(x["Ra"]) for x in rows if x["clause:Ra"] == "pass") - 80.0
+    out = re.sub(r"\s+", " ", r.stdout)
+    m = re.search(r"no sample fails, 1 not valid \(computed outside the validity range\) \(worst margin ([\d.]+) of "
+                  r"the samples judged\)", out)
+    assert m, out[:3000]
+    np.testing.assert_allclose(float(m.group(1)), worst, rtol=0, atol=0.01)  # shown to 4 significant digits
+    text = re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", html.read_text(encoding="utf-8"))))
+    m = re.search(r"Ra ≥ 80 4 0 1 not valid ([\d.]+)", text)
+    assert m, text[text.find("Per-sample criteria"):][:600]
+    np.testing.assert_allclose(float(m.group(1)), worst, rtol=0, atol=0.01)

@@ -273,3 +273,18 @@ class CheckResult:
             for o in r.outcome:
                 c[o] += 1
         return c
+
+
+#: The outcomes whose margin is a judged value's distance to its limits: a "not valid" sample's
+#: figure was computed outside its validity range and a "not judged" one is undefined, so their
+#: margins are left out of a clause's worst margin over a lot (found by a review: an invalid
+#: Ra of −2 of a green source was the lot's "worst margin −82").
+JUDGED_OUTCOMES = ("pass", "fail", "indeterminate")
+
+
+def worst_judged_margin(margins, outcomes) -> float:
+    """The smallest finite margin among the samples whose outcome is in :data:`JUDGED_OUTCOMES`
+    (NaN when none)."""
+    mg = np.asarray(margins, dtype=float)
+    keep = np.fromiter((o in JUDGED_OUTCOMES for o in outcomes), dtype=bool, count=mg.size) & np.isfinite(mg)
+    return float(mg[keep].min()) if keep.any() else float("nan")

@@ -483,6 +483,8 @@ def _lot_requirements(run) -> list:
     from rich.table import Table
     from rich.text import Text
 
+    from ..criteria.verdicts import worst_judged_margin
+
     st = run.stats
     out: list[Any] = []
     if run.check is not None or run.lot_results:
@@ -494,16 +496,19 @@ def _lot_requirements(run) -> list:
                 fails = sum(o == "fail" for o in r.outcome)
                 nj = sum(o == "not judged" for o in r.outcome)
                 ni = sum(o == "indeterminate" for o in r.outcome)
-                mg = np.asarray(r.margin, dtype=float)
-                worst = float(np.nanmin(mg)) if np.isfinite(mg).any() else float("nan")
-                res = f"{fails} of {len(r.outcome)} samples fail" if fails else ("every sample passes" if not ni else "no sample fails")
+                nv = sum(o == "not valid" for o in r.outcome)
+                worst = worst_judged_margin(r.margin, r.outcome)
+                res = (f"{fails} of {len(r.outcome)} samples fail" if fails
+                       else ("every sample passes" if not (ni or nv or nj) else "no sample fails"))
+                if nv:  # (counted as failing in the yield, docs/criteria.md)
+                    res += f", {nv} not valid (computed outside the validity range)"
                 if ni:
                     res += f", {ni} indeterminate (not a pass)"
                 if nj:
                     res += f", {nj} not judged"
                 unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
-                res += f" (worst margin {_fmt(worst, '.4g')}{unit})"
-                t.add_row(_text(r.label), _result_text(res, fails == 0 and nj == 0 and ni == 0))
+                res += f" (worst margin {_fmt(worst, '.4g')}{unit}" + (" of the samples judged)" if nv or nj else ")")
+                t.add_row(_text(r.label), _result_text(res, fails == 0 and nj == 0 and ni == 0 and nv == 0))
         for r in run.lot_results:
             unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
             res = f"{r.outcome}: {_fmt(r.measured, '.4g')}{unit}, limit {r.limit_text}, margin {_fmt(r.margin, '.4g')}{unit}"

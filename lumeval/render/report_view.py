@@ -266,6 +266,10 @@ def _sample_criteria_table(rows: list[VerdictRow], wording: Wording) -> Table | 
     (the terminal summary's "Requirements" table, in the report)."""
     if not rows:
         return None
+    from ..criteria.verdicts import (
+        JUDGED_OUTCOMES,  # a not-valid or not-judged sample's margin is not a judged one
+    )
+
     groups: dict[tuple, list[VerdictRow]] = {}
     for k, r in zip(_clause_keys(rows), rows):
         groups.setdefault(k if k[0] == "clause" else ("row", r.clause, r.limit), []).append(r)
@@ -273,7 +277,8 @@ def _sample_criteria_table(rows: list[VerdictRow], wording: Wording) -> Table | 
     for rs in groups.values():
         head = rs[0]
         outcomes = [r.outcome for r in rs]
-        margins = [float(r.margin) for r in rs if isinstance(r.margin, (int, float)) and np.isfinite(r.margin)]
+        margins = [float(r.margin) for r in rs if r.outcome in JUDGED_OUTCOMES and isinstance(r.margin, (int, float))
+                   and np.isfinite(r.margin)]
         unit = f" {head.unit}" if head.unit and head.unit != "%" else head.unit
         worst_margin = plain_number(min(margins)) + unit if margins else "n/a"
         failed = outcomes.count("fail")

@@ -77,9 +77,10 @@ def test_record_and_idempotent_rerecord(store_url):
 
 def test_the_same_input_files_under_other_criteria_are_said(store_url):
     """Recording byte-identical input files again under other criteria makes a new lot (its
-    identity is the inputs and the criteria), and a trend over the store then counts those
-    samples twice: the record says so, naming the earlier lot and how many files it shares
-    (found by a history review). A lot sharing some of its files is said the same way."""
+    identity is the inputs and the criteria), and a trend of the product then counts those
+    samples twice: the record says so, naming the earlier lots of the same product and how
+    many of its files they hold (found by a history review; files counted as files, two
+    identical files as two, and lots of another product not named)."""
     from dataclasses import replace
 
     a = make_record([1.0, 2.0, 3.0], key="a")
@@ -87,16 +88,20 @@ def test_the_same_input_files_under_other_criteria_are_said(store_url):
     other = replace(a, criteria_file="c2.toml", criteria_sha256=hashlib.sha256(b"other criteria").hexdigest())
     r = record_lot(store_url, other)
     assert r.created and r.lot_id == 2 and r.overlaps == ((1, 1),)
-    assert "recorded as lot 2" in r.message and "; note: all of its 1 input file is already in lot 1" in r.message
-    assert "counts those samples in each lot" in r.message
+    assert "recorded as lot 2" in r.message and "; note: its only input file is already in lot 1 (" in r.message
+    assert "a trend of the product counts those samples in each of these lots" in r.message
     again = record_lot(store_url, other)  # the same lot again: the known message, no note
     assert not again.created and "note" not in again.message
     sha = {k: hashlib.sha256(k.encode()).hexdigest() for k in "abc"}
-    part = replace(make_record([4.0, 5.0], key="p"),
-                   inputs=(("a.csv", sha["a"], 100), ("b.csv", sha["b"], 100), ("c.csv", sha["c"], 100)))
+    part = replace(make_record([4.0, 5.0, 6.0, 7.0], key="p"),
+                   inputs=(("a.csv", sha["a"], 100), ("a-copy.csv", sha["a"], 100), ("b.csv", sha["b"], 100),
+                           ("c.csv", sha["c"], 100)))
     r = record_lot(store_url, part)
-    assert r.created and r.overlaps == ((1, 1), (2, 1)) and r.n_inputs == 3
-    assert "1 of its 3 input files is already in lot 1, 1 of its 3 input files is already in lot 2" in r.message
+    assert r.created and r.overlaps == ((1, 2), (2, 2)) and r.n_inputs == 4
+    assert "; note: 2 of its 4 input files are already in lots 1 and 2 (" in r.message
+    elsewhere = replace(make_record([8.0], key="a", product="P-2"), criteria_sha256="0" * 64)
+    r = record_lot(store_url, elsewhere)  # the same file as lot 1, recorded for another product
+    assert r.created and r.overlaps == () and "note" not in r.message
     fresh = record_lot(store_url, make_record([6.0], key="z"))
     assert fresh.overlaps == () and "note" not in fresh.message
 

@@ -82,9 +82,10 @@ class RecordResult:
     store: str
     product: str | None
     label: str | None
-    #: (lot id, how many of this lot's input files it also holds) for every earlier lot that
-    #: holds some of the same files (byte for byte): recorded under other criteria, or in a lot
-    #: that overlaps this one. A trend over the store counts those samples in each lot.
+    #: (lot id, how many of this lot's input files it also holds) for every earlier lot of the
+    #: same product that holds some of the same files (byte for byte): recorded under other
+    #: criteria, or a lot that overlaps this one. A trend of the product counts those samples
+    #: in each lot. ``n_inputs``: this lot's input files.
     overlaps: tuple[tuple[int, int], ...] = ()
     n_inputs: int = 0
 
@@ -97,19 +98,36 @@ class RecordResult:
 
     @property
     def overlap_note(self) -> str:
-        """"; note: …" when earlier lots hold some of the same input files ("" when none)."""
+        """"; note: …" when earlier lots of the product hold some of the same input files ("" when none)."""
         if not self.overlaps:
             return ""
-        shown = self.overlaps[:_OVERLAPS_SHOWN]
-        parts = [f"{'all' if k == self.n_inputs else k} of its {self.n_inputs} input file{'s' if self.n_inputs != 1 else ''} "
-                 f"{'are' if k != 1 else 'is'} already in lot {lid}" for lid, k in shown]
-        more = f" and {len(self.overlaps) - len(shown)} more lots" if len(self.overlaps) > len(shown) else ""
-        return ("; note: " + ", ".join(parts) + more + " (the same bytes, recorded under other criteria or in "
-                "another lot): a trend over the store counts those samples in each lot")
+        n = self.n_inputs
+        by_count: dict[int, list[int]] = {}
+        for lot_id, k in self.overlaps:
+            by_count.setdefault(k, []).append(lot_id)
+        parts = []
+        for k, ids in sorted(by_count.items(), key=lambda kv: -kv[0]):
+            if k >= n:
+                what = "its only input file is" if n == 1 else f"all {n} of its input files are"
+            else:
+                what = f"{k} of its {n} input files {'is' if k == 1 else 'are'}"
+            parts.append(f"{what} already in {_lots_text(ids)}")
+        return ("; note: " + "; ".join(parts) + " (the same bytes, recorded under other criteria or in another lot of "
+                "this product): a trend of the product counts those samples in each of these lots")
 
 
-#: Earlier lots named in the overlap note before "and N more lots".
-_OVERLAPS_SHOWN = 3
+def _lots_text(ids: list[int]) -> str:
+    """"lot 3", "lots 1, 2 and 3", "lots 1, 2, 3, 4, 5 and 7 more"."""
+    if len(ids) == 1:
+        return f"lot {ids[0]}"
+    shown, rest = ids[:_OVERLAPS_SHOWN], len(ids) - _OVERLAPS_SHOWN
+    if rest > 0:
+        return f"lots {', '.join(map(str, shown))} and {rest} more"
+    return f"lots {', '.join(map(str, shown[:-1]))} and {shown[-1]}"
+
+
+#: Earlier lots named in the overlap note before "and N more".
+_OVERLAPS_SHOWN = 5
 
 
 def _num(v):
@@ -294,20 +312,26 @@ def record_lot(store: str | StoreURL, rec: LotRecord, *, _after_batch=None) -> R
 
 
 def _overlapping_lots(conn, t, rec: LotRecord) -> tuple[tuple[int, int], ...]:
-    """(lot id, shared input files) of the lots already in the store that hold any of
-    ``rec``'s input files (the same SHA-256), most shared first, then by id."""
-    from sqlalchemy import distinct, func, select
+    """(lot id, how many of ``rec``'s input files it holds) of the lots of ``rec``'s product
+    already in the store that hold any of its input files (the same SHA-256; two identical
+    files of ``rec`` count as two), most shared first, then by id."""
+    from sqlalchemy import select
 
-    shas = sorted({s for _p, s, _b in rec.inputs})
+    per_sha: dict[str, int] = {}
+    for _p, s, _b in rec.inputs:
+        per_sha[s] = per_sha.get(s, 0) + 1
+    shas = sorted(per_sha)
     if not shas:
         return ()
-    li = t["inputs"]
-    shared: dict[int, int] = {}
+    li, lots = t["inputs"], t["lots"]
+    same_product = lots.c.product.is_(None) if rec.product is None else lots.c.product == rec.product
+    found: dict[int, set[str]] = {}
     for k in range(0, len(shas), 900):  # IN lists within SQLite's oldest limit of 999 parameters
-        q = (select(li.c.lot_id, func.count(distinct(li.c.sha256))).where(li.c.sha256.in_(shas[k:k + 900]))
-             .group_by(li.c.lot_id))
-        for lot_id, n in conn.execute(q):
-            shared[int(lot_id)] = shared.get(int(lot_id), 0) + int(n)
+        q = (select(li.c.lot_id, li.c.sha256).distinct().join(lots, lots.c.id == li.c.lot_id)
+             .where(li.c.sha256.in_(shas[k:k + 900]), same_product))
+        for lot_id, sha in conn.execute(q):
+            found.setdefault(int(lot_id), set()).add(sha)
+    shared = {lot_id: sum(per_sha[s] for s in got) for lot_id, got in found.items()}
     return tuple(sorted(shared.items(), key=lambda kv: (-kv[1], kv[0])))
 
 
@@ -358,8 +382,7 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
                 conn.execute(insert(t["samples"]), batch)
                 if _after_batch is not None:
                     _after_batch(k + 1)
-            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label, overlaps,
-                                len({s for _p, s, _b in rec.inputs}))
+            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label, overlaps, len(rec.inputs))
     except IntegrityError:
         pass  # the same lot, recorded by another process at the same moment: report that record
     with connect(su, write=False, action="read the store") as conn:

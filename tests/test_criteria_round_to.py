@@ -337,3 +337,61 @@ def test_an_over_long_error_line_keeps_its_fix():
     assert _shorten(line) == line
     long_value = "lumeval: error: c.toml:4 field 'x': bad value '" + "v" * 400 + "' — write a short one"
     assert _shorten(long_value) == "lumeval: error: c.toml:4 field 'x': bad value '" + "v" * 80 + "…' — write a short one"
+
+
+def test_limits_are_shown_as_the_criteria_file_writes_them(tmp_path, capsys):
+    """A limit with many decimals was cut to six significant digits (91.61096 shown as 91.611,
+    which a rounded value of 91.610963 seemed to fail) and a small one written in exponent form
+    (-0.0005 as -5.00e-04), in the tender text and in every report (found by a review). The
+    limit is now the file's own text, here compared with the literal written in the file."""
+    crit = write(tmp_path, "c.toml", figure_clause(limits="min = 91.61096") + "\n"
+                 + figure_clause(figure="duv", limits="range = [-0.0005, 0.006]", cid="duv") + "\n"
+                 + figure_clause(figure="cct_K", limits="range = [2870.0, 3220]", cid="cct") + "\n"
+                 + figure_clause(figure="duv", limits="max = 5e-05", cid="tiny"))
+    code, out, err = run(["criteria", "explain", crit], capsys)
+    assert code == 0, err
+    text = " ".join(out.split())
+    assert "shall be at least 91.61096." in text and "shall be between -0.0005 and 0.006 inclusive." in text
+    assert "shall be between 2870 K and 3220 K inclusive." in text and "shall not exceed 0.00005." in text
+    code, out, err = run(["check", DOWNLIGHT, "--criteria", crit, "--format", "json"], capsys)
+    limits = [c["limit"] for c in json.loads(out)["spectra"][0]["clauses"]]
+    assert limits == ["≥ 91.61096", "-0.0005 … 0.006", "2870 K … 3220 K", "≤ 0.00005"]
+
+
+VERDANT = ROOT / "spectra_demo" / "downlights" / "candidate_E_verdant_2700K.csv"
+
+
+def test_review_findings_margin_digits_negative_zero_empty_range_and_rule(tmp_path, capsys):
+    """A review of the rounding method found: the margin of a rounded value printed at the
+    figure's own decimals (77.5 against 80 shown as −2, not −2.5); 2999.6 K rounded to hundreds
+    shown as "3000 K → 3000 K"; −0 as a compared value; a range no rounded value can meet only
+    warned about; and the decision rule saying "the measured value decides" on rounded clauses.
+    The expected values are the decimal arithmetic of the written limits (Python's decimal)."""
+    import lumeval
+
+    ra = float(lumeval.inspect([VERDANT]).figure("Ra")[0])
+    assert reference(ra, 1) == 77.5  # the premise
+    crit = write(tmp_path, "c.toml", figure_clause("round_to = 1\n", limits="min = 80") + "\n"
+                 + figure_clause("round_to = -2\n", figure="cct_K", limits="range = [3000, 4000]", cid="CCT") + "\n"
+                 + figure_clause("round_to = 2\n", figure="duv", limits="range = [-0.006, 0.006]", cid="duv"))
+    code, out, err = run(["check", VERDANT, DOWNLIGHT, "--criteria", crit], capsys)
+    text = " ".join(out.split())
+    assert "77.517 → 77.5 -2.5 ✘ FAIL" in text, text
+    assert "2999.6 K → 3000 K 0 K ✔ pass" in text, text
+    assert "Decision rule: simple acceptance of the rounded values" in text
+    code, out, err = run(["check", DOWNLIGHT, "--criteria", crit, "--format", "json"], capsys)
+    clauses = json.loads(out)["spectra"][0]["clauses"]
+    duv = clauses[2]
+    assert duv["measured"] < 0 and duv["details"]["compared"] == 0.0 and not math.copysign(1, duv["details"]["compared"]) < 0
+    assert clauses[0]["decision_rule"].startswith("simple acceptance of the rounded value (the measured value rounded to "
+                                                  "1 decimal place, ties to even")
+    code, out, err = run(["criteria", "explain", crit], capsys)
+    assert "where a requirement says so, the measured value rounded as it states (ties to even) decides instead" in \
+        " ".join(out.split())
+    empty = write(tmp_path, "e.toml", figure_clause("round_to = -1\n", figure="cct_K", limits="range = [3011, 3015]"))
+    code, _, err = run(["check", DOWNLIGHT, "--criteria", empty], capsys)
+    assert_clean_error(code, err, "e.toml:1", "field 'round_to'", "no value rounded to the nearest 10 K lies between 3011 "
+                       "and 3015", "can never pass")
+    ok = write(tmp_path, "ok.toml", figure_clause("round_to = -1\n", figure="cct_K", limits="range = [3005, 3015]"))
+    code, _, err = run(["check", DOWNLIGHT, "--criteria", ok, "-q"], capsys)
+    assert code in (0, 1), err  # 3010 lies between: used, with the two limit warnings

@@ -225,7 +225,10 @@ def explain_markdown(criteria) -> str:
     if rule is not None and hasattr(rule, "summary"):
         a(f"- Decision rule: {rule.summary()}; measurement uncertainty from the instrument model.")
     else:
-        a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty.")
+        a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty"
+          + ("; where a requirement says so, the measured value rounded as it states (ties to even) decides instead "
+             "(the rounding method of ASTM E29)." if any(getattr(getattr(c, "inner", c), "round_to", None) is not None
+                                                         for c in criteria.clauses) else "."))
     a(
         "- Chromaticity regions: ANSI C78.377 quadrangles of the edition each requirement names, with that "
         "edition's published corners where available, otherwise corners computed by the edition's formula "

@@ -210,6 +210,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
             clauses.append(clause)
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
+    rounding.refuse_empty(clauses, file)
     warnings = _contradictions(clauses, file) + _fidelity_ceilings(clauses, file) + rounding.limit_warnings(clauses, file)
     labelled = frozenset(c.clause_id for c, t in zip(clauses, clauses_raw) if t.get("label"))
     out = Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings,

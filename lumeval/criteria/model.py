@@ -30,6 +30,7 @@ from .figure_notes import with_hue_edge_warnings as _with_hue_edge_warnings
 from .undefined import undefined_reasons
 from .verdicts import (
     NOT_VALID,
+    SIMPLE_ACCEPTANCE,
     CheckResult,
     ClauseResult,
     NotJudgedHere,
@@ -79,12 +80,29 @@ def fmt_number(v: float | None, unit: str = "") -> str:
     return f"{text}{sp}{unit}"
 
 
+def limit_number(v: float | None, unit: str = "") -> str:
+    """A limit as the criteria file writes it: the shortest decimal that reads back as the same
+    number (Python's ``repr``), in positional notation, without a trailing ".0" (91.61096 stays
+    91.61096, −0.0005 stays −0.0005; a review found them shown as 91.611 and −5.00e-04 in the
+    tender text and every report); unit appended."""
+    if v is None or not np.isfinite(v):
+        return fmt_number(v, unit)
+    text = repr(float(v))
+    if "e" in text:
+        from decimal import Decimal
+
+        text = format(Decimal(text), "f")
+    text = text.removesuffix(".0")
+    sp = "" if unit in ("", "%") else " "
+    return f"{text}{sp}{unit}"
+
+
 def limit_text(lower: float | None, upper: float | None, unit: str) -> str:
     if lower is not None and upper is not None:
-        return f"{fmt_number(lower, unit)} … {fmt_number(upper, unit)}"
+        return f"{limit_number(lower, unit)} … {limit_number(upper, unit)}"
     if lower is not None:
-        return f"≥ {fmt_number(lower, unit)}"
-    return f"≤ {fmt_number(upper, unit)}"
+        return f"≥ {limit_number(lower, unit)}"
+    return f"≤ {limit_number(upper, unit)}"
 
 
 def _not_valid(ev, figure: str, n: int, outcome: tuple, reason: tuple, accept: bool) -> tuple[tuple, tuple]:
@@ -140,6 +158,7 @@ def figure_result(
         group=group,
         line=line,
         round_to=round_to,
+        decision_rule=rounding.decision_rule(round_to, unit) or SIMPLE_ACCEPTANCE,
     )
 
 
@@ -356,11 +375,11 @@ class FigureClause(ClauseKind):
         desc, std = describe(self.figure)
         unit = figure_unit(self.figure)
         if self.lower is not None and self.upper is not None:
-            req = f"shall be between {fmt_number(self.lower, unit)} and {fmt_number(self.upper, unit)} inclusive"
+            req = f"shall be between {limit_number(self.lower, unit)} and {limit_number(self.upper, unit)} inclusive"
         elif self.lower is not None:
-            req = f"shall be at least {fmt_number(self.lower, unit)}"
+            req = f"shall be at least {limit_number(self.lower, unit)}"
         else:
-            req = f"shall not exceed {fmt_number(self.upper, unit)}"
+            req = f"shall not exceed {limit_number(self.upper, unit)}"
         return f"The {desc} (`{self.figure}`, {std}) {req}{rounding.tender_words(self.round_to, unit)}."
 
     def sources(self) -> tuple[str, ...]:

@@ -34,9 +34,9 @@ from .model import (
     ClauseKind,
     KeySpec,
     ParseError,
-    fmt_number,
     is_number,
     key_table,
+    limit_number,
     number,
     register_clause_kind,
 )
@@ -226,7 +226,7 @@ class SeriesShiftClause(RangeKind):
         outcome, reason = simple_outcomes(margin, reasons)
         return (ClauseResult(
             clause_id=self.clause_id, label=self.label, kind=self.KIND, figure="Δu'v'", unit="",
-            measured=d, lower=None, upper=self.max_delta_upvp, limit_text=f"≤ {fmt_number(self.max_delta_upvp)} from {desc}",
+            measured=d, lower=None, upper=self.max_delta_upvp, limit_text=f"≤ {limit_number(self.max_delta_upvp)} from {desc}",
             margin=margin, outcome=outcome, details={"delta_upvp": d, "u_prime": upvp[:, 0], "v_prime": upvp[:, 1]},
             reason=reason, source="CIE 15:2004 §8.1 (CIE 1976 UCS)", group=self.clause_id, line=self.line,
         ),)
@@ -278,7 +278,7 @@ class TrackLocusClause(RangeKind):
         outcome, reason = simple_outcomes(margin, _view_reasons(view, settings.size, ""))
         return (ClauseResult(
             clause_id=self.clause_id, label=self.label, kind=self.KIND, figure="|Duv|", unit="",
-            measured=a, lower=None, upper=self.max_abs_duv, limit_text=f"≤ {fmt_number(self.max_abs_duv)}",
+            measured=a, lower=None, upper=self.max_abs_duv, limit_text=f"≤ {limit_number(self.max_abs_duv)}",
             margin=margin, outcome=outcome, details={"duv": duv}, reason=reason,
             source="ANSI C78.377 (Duv sign); Ohno (2014) LEUKOS 10(1):47-55", group=self.clause_id, line=self.line,
         ),)

@@ -87,7 +87,8 @@ def exact(value: float, places: int) -> float:
     nearest float (non-finite values unchanged)."""
     if not np.isfinite(value):
         return float(value)
-    return float(Decimal(float(value)).quantize(_quantum(places), rounding=ROUND_HALF_EVEN, context=_CONTEXT))
+    # (+ 0.0: a value rounded to zero from below is 0, not -0, in every output)
+    return float(Decimal(float(value)).quantize(_quantum(places), rounding=ROUND_HALF_EVEN, context=_CONTEXT)) + 0.0
 
 
 def round_half_even(values, places: int) -> np.ndarray:
@@ -107,6 +108,7 @@ def round_half_even(values, places: int) -> np.ndarray:
     if idx.size:
         distinct, back = np.unique(x[idx], return_inverse=True)
         out[idx] = np.array([exact(v, places) for v in distinct.tolist()], dtype=float)[back.ravel()]
+    out += 0.0  # -0.0 (a small negative value rounded to zero) as 0.0, as a person writes it
     return out
 
 
@@ -175,3 +177,32 @@ def refuse_under_uncertainty(criteria, why: str, lines: dict | None = None) -> N
             "value: lumeval does not combine the two",
             file=getattr(criteria, "file", "<criteria>"), line=(lines or {}).get(f.clause_id) or f.line, field="round_to",
             fix="remove round_to (the absolute method), or judge without an instrument model and a guarded decision rule")
+
+
+def decision_rule(places: int | None, unit: str = "") -> str | None:
+    """The decision rule a clause judged by the rounding method states in every output (its
+    ``decision_rule``; None without ``round_to``: the default simple acceptance)."""
+    if places is None:
+        return None
+    return (f"simple acceptance of the rounded value (the measured value rounded to {places_words(places, unit)}, "
+            "ties to even, decides: the rounding method of ASTM E29; no guard band)")
+
+
+def refuse_empty(clauses, file: str) -> None:
+    """Refuse (:class:`CriteriaError`, exit code 2) a figure clause whose limits no rounded value
+    can meet: both limits at once, once each acts at the rounding's resolution (``range =
+    [3011, 3015]`` with ``round_to = -1`` admits 3020 and up and 3010 and down: nothing). A
+    review found it only warned about, as each limit separately."""
+    for _c, f in _figure_clauses(clauses):
+        if f.lower is None or f.upper is None:
+            continue
+        q = _quantum(f.round_to)
+        lo = Decimal(repr(float(f.lower))).quantize(q, rounding=ROUND_CEILING, context=_CONTEXT)
+        hi = Decimal(repr(float(f.upper))).quantize(q, rounding=ROUND_FLOOR, context=_CONTEXT)
+        if lo > hi:
+            unit = figures.unit(f.figure)
+            raise CriteriaError(
+                f"clause {quote(f.clause_id)}: no value rounded to {places_words(f.round_to, unit)} lies between "
+                f"{repr(float(f.lower)).removesuffix('.0')} and {repr(float(f.upper)).removesuffix('.0')}, so the "
+                "clause can never pass", file=file, line=f.line, field="round_to",
+                fix="widen the range to include a rounded value, or round to more decimal places")

@@ -376,6 +376,10 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
     notes = tuple(dict.fromkeys([x for res in checks for x in check_notes(res, leave_out_notes)]
                                 # the instrument model's notes under uncertainty, as the terminal prints them
                                 + [str(x) for res in checks for x in ((_get(res, "uncertainty") or {}).get("notes") or ())]))
+    if any(getattr(c, "round_to", None) is not None for res in checks for c in (_get(res, "results") or ())):
+        from .verdicts import ROUNDING_NOTE
+
+        notes += (ROUNDING_NOTE,)
     per_sample: dict[str, list[str]] = {}
     for r in rows:
         per_sample.setdefault(r.sample or "(lot)", []).append(r.outcome)

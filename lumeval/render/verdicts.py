@@ -102,8 +102,10 @@ def measured_text(r, i: int) -> str:
     compared, n = (getattr(r, "details", None) or {}).get("compared"), getattr(r, "round_to", None)
     if compared is None or n is None:
         return _f(r.measured[i], _more(vspec, k), r.unit)
-    # judged by the rounding method: the value in full (two decimals beyond the rounding) → the one compared
-    k = max(k, n + 2 - int(vspec.partition(".")[2][:-1] or 0))
+    # judged by the rounding method: the value in full (two decimals beyond the rounding, and at
+    # least one: 2999.6 K rounded to hundreds is "2999.6 K → 3000 K", not "3000 K → 3000 K") → the
+    # one compared
+    k = max(k, max(n + 2, 1) - int(vspec.partition(".")[2][:-1] or 0))
     head = vspec.partition(".")[0]
     return f"{_f(r.measured[i], _more(vspec, k), r.unit)} → {_f(compared[i], f'{head}.{max(n, 0)}f', r.unit)}"
 
@@ -140,7 +142,22 @@ def margin_text(r, i: int) -> str:
         k = _extra_decimals(r.margin[i], ".2f")
         return f"{_f(r.margin[i], _more('+.2f', k))} steps ({_f(r.details['delta_upvp'][i], '+.4f')} Δu'v')"
     spec = _spec(r.figure)
+    if getattr(r, "round_to", None) is not None:  # the rounding method: the margin exactly, as written
+        return _f(r.margin[i], f"+.{_rounded_margin_decimals(r)}f", r.unit)
     return _f(r.margin[i], "+" + _more(spec, _figure_decimals(r, i, spec)), r.unit)
+
+
+def _rounded_margin_decimals(r) -> int:
+    """Decimals of a margin judged by the rounding method: the rounded value less a limit as
+    the file writes it is exact at the larger of their decimals (77.5 against 80 is −2.5, which
+    the figure's own format showed as −2; found by a review)."""
+    from ..criteria.model import limit_number
+
+    ds = [max(int(r.round_to), 0)]
+    for v in (r.lower, r.upper):
+        if v is not None:
+            ds.append(len(limit_number(v).partition(".")[2]))
+    return max(ds)
 
 
 # --------------------------------------------------------------------------- words the terminal and the HTML share
@@ -582,12 +599,22 @@ def _sources_text(result):
     t = Text("\nSources of the limits and regions:\n", style="dim")
     for s in seen:
         t.append(f"  - {clean(s)}\n", style="dim")
-    t.append(f"  Decision rule: {clean(result.results[0].decision_rule) if result.results else 'n/a'}; "
+    # the rule of the clauses judged on their unrounded value (those with round_to say their own below)
+    plain = [r for r in result.results if getattr(r, "round_to", None) is None]
+    rule = (clean(plain[0].decision_rule) if plain else
+            "simple acceptance of the rounded values (each requirement's measured value rounded as it states, ties to "
+            "even, decides; no guard band)" if result.results else "n/a")
+    t.append(f"  Decision rule: {rule}; "
              f"{margin_meaning((getattr(result, 'uncertainty', None) or {}).get('decision_rule'))}\n", style="dim")
     if any(getattr(r, "round_to", None) is not None for r in result.results):
-        t.append("  A requirement marked \"value rounded\" compares the measured value rounded as it says (ties to "
-                 "even; shown as measured → compared): its margin and result are those of the rounded value.\n", style="dim")
+        t.append(f"  {ROUNDING_NOTE}\n", style="dim")
     return t
+
+
+#: What a check says when a clause is judged by the rounding method (terminal footer, HTML notes).
+ROUNDING_NOTE = ("A requirement marked \"value rounded\" compares the measured value rounded as it says (ties to "
+                 "even; shown as measured → compared; the rounding method of ASTM E29): its margin and result are "
+                 "those of the rounded value.")
 
 
 def margin_meaning(rule: str | None = None) -> str:

@@ -117,3 +117,29 @@ def test_a_not_valid_sample_is_counted_but_not_in_the_worst_margin(tmp_path):
     m = re.search(r"Ra ≥ 80 4 0 1 not valid ([\d.]+)", text)
     assert m, text[text.find("Per-sample criteria"):][:600]
     np.testing.assert_allclose(float(m.group(1)), worst, rtol=0, atol=0.01)
+
+
+def test_a_lot_passed_by_its_yield_says_that_samples_fail(tmp_path):
+    """A lot whose yield clause allows a failing sample passes, and its report said "Every
+    criterion is met." above a table with a failed row (found by a review). It now says the
+    lot criteria are met and how many samples do not pass, as the per-sample CSV counts them."""
+    import html as _html
+    import re
+
+    from lumeval.render.tables import read_csv_report
+
+    crit = tmp_path / "crit.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "bin"\nkind = "ansi_quadrangle"\nnominal_cct = 3000\n'
+                    '[[clause]]\nkind = "lot_yield"\nmin_percent = 90\n', encoding="utf-8")
+    html, samples = tmp_path / "lot.html", tmp_path / "s.csv"
+    r = subprocess.run([sys.executable, "-m", "lumeval", "lot", str(LOT), "--criteria", str(crit), "--quiet",
+                        "--html", str(html), "--samples-csv", str(samples)], capture_output=True, text=True, cwd=REPO,
+                       timeout=600)
+    assert r.returncode == 0, r.stderr
+    bad = sum(x["verdict"] != "pass" for x in read_csv_report(samples.read_text(encoding="utf-8")))
+    assert bad >= 1  # the premise: a demo module lies outside the 3000 K quadrangle
+    text = re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", html.read_text(encoding="utf-8"))))
+    assert "Every criterion is met." not in text
+    verb = "does" if bad == 1 else "do"
+    assert (f"Every lot criterion is met; {bad} of 200 samples {verb} not pass every per-sample criterion, within the "
+            "lot's yield allowance") in text

@@ -373,6 +373,13 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
     skipped = [c for res in checks for c in not_judged_here(res, scopes)]
     if skipped and overall == "pass":
         summary = "Every criterion judged here is met."
+    if lot is not None and overall == "pass" and wording is CRITERIA_WORDING:
+        # a lot passed by its yield clause although samples fail: "every criterion is met" read as
+        # if no sample failed (found by a review)
+        bad = sorted({r.sample for r in rows if r.sample is not None and r.outcome != "pass"})
+        if bad:
+            summary = (f"Every lot criterion is met{' judged here' if skipped else ''}; {len(bad)} of {n} samples "
+                       f"{'does' if len(bad) == 1 else 'do'} not pass every per-sample criterion, within the lot's yield allowance (listed below).")
     notes = tuple(dict.fromkeys([x for res in checks for x in check_notes(res, leave_out_notes)]
                                 # the instrument model's notes under uncertainty, as the terminal prints them
                                 + [str(x) for res in checks for x in ((_get(res, "uncertainty") or {}).get("notes") or ())]))

@@ -286,6 +286,25 @@ def test_a_lot_judges_every_sample_on_its_rounded_value(tmp_path, capsys):
     assert [r["clause:Ra"] for r in rows] == list(res.outcome)
 
 
+def test_a_lot_carries_the_criteria_files_warnings_in_every_output(tmp_path, capsys):
+    """A limit finer than the rounding (``min = 90.5`` with ``round_to = 0`` acts as 91) was
+    said on standard error only by a lot (found by a review): the lot's terminal summary, JSON,
+    per-sample CSV and HTML now carry the criteria file's warnings, as a check does."""
+    import html as _html
+    import re
+
+    crit = write(tmp_path, "c.toml", figure_clause("round_to = 0\n", limits="min = 90.5"))
+    out_json, html, samples = tmp_path / "l.json", tmp_path / "l.html", tmp_path / "s.csv"
+    code, out, err = run(["lot", *LOT, "--criteria", crit, "--json", out_json, "--html", html, "--samples-csv",
+                          samples], capsys)
+    assert code in (0, 1), err
+    needle = "the lower limit 90.5 is written more finely than round_to = 0"
+    assert needle in " ".join(out.split())
+    assert any(needle in n for n in json.loads(out_json.read_text(encoding="utf-8"))["notes"])
+    assert f"# note: WARNING: {crit}:1: clause 'Ra': {needle}" in samples.read_text(encoding="utf-8")
+    assert needle in re.sub(r"\s+", " ", _html.unescape(re.sub(r"<[^>]+>", " ", html.read_text(encoding="utf-8"))))
+
+
 def test_a_clause_over_settings_is_judged_on_its_rounded_value(tmp_path, capsys):
     import lumeval
 

@@ -221,13 +221,24 @@ def test_a_lot_says_which_samples_did_not_stabilise(tmp_path, capsys):
     crit, inst = _files(tmp_path, GUARDED.format(id="Ra", fig="Ra", lo=79),
                         INST + '[monte_carlo]\ndraws = "adaptive"\ndraws_block = 500\nmax_draws = 1000\n'
                         "significant_digits = 2\n")
-    out_json, html = tmp_path / "lot.json", tmp_path / "lot.html"
-    code, out, err = run(["lot", *leds, "-c", crit, "--instrument", inst, "--json", out_json, "--html", html], capsys)
+    out_json, html, samples = tmp_path / "lot.json", tmp_path / "lot.html", tmp_path / "s.csv"
+    code, out, err = run(["lot", *leds, "-c", crit, "--instrument", inst, "--json", out_json, "--html", html,
+                          "--samples-csv", samples], capsys)
     assert code in (0, 1), err
-    notes = json.loads(out_json.read_text(encoding="utf-8"))["uncertainty"]["notes"]
+    unc = json.loads(out_json.read_text(encoding="utf-8"))["uncertainty"]
+    notes = unc["notes"]
     said = [n for n in notes if "did not stabilise" in n]
     assert len(said) == 1 and "for 3 spectra" in said[0], notes
     assert all(f"led_{k} (1000 draws)" in said[0] for k in "abc")
+    # every such sample for a program reading the JSON, as a check gives its per-spectrum arrays
+    mc = unc["monte_carlo"]
+    assert mc["not_stabilised"] == [{"sample": f"led_{k}", "draws": 1000} for k in "abc"]
+    assert mc["draws_used_min"] == mc["draws_used_max"] == 1000
+    # the advice of an adaptive run is max_draws, not --draws (which would switch it off)
+    few = [n for n in notes if "fewer than the 2000" in n]
+    assert len(few) == 1 and "raise max_draws in [monte_carlo] to 2000 or more" in few[0] and "--draws" not in few[0]
+    csv_text = samples.read_text(encoding="utf-8")
+    assert "# note: the adaptive Monte Carlo did not stabilise" in csv_text and "fewer than the 2000" in csv_text
     assert "did not stabilise" in re.sub(r"\s+", " ", out) and "led_a (1000 draws)" in re.sub(r"\s+", " ", out)
     import html as _html
 

@@ -271,15 +271,19 @@ class LotAccumulator:
             from ..criteria.verdicts import CheckResult
 
             results = tuple(_concat_clause([p[j] for p in self._clauses]) for j in range(len(self._clauses[0])))
+            # the criteria file's warnings ("limit acts as 80", contradictions), as a check carries them: a
+            # lot said them on standard error only (found by a review)
             check = CheckResult(names, self.sources, self.warnings, results,
-                                dict(criteria.identification), criteria.file)
+                                dict(criteria.identification), criteria.file,
+                                notes=tuple(f"WARNING: {w}" for w in getattr(criteria, "warnings", ())))
             if uncertainty is not None and uncertainty.active:
                 from dataclasses import replace as _replace
 
-                from ..uncertainty.judge import lot_draws_notes, uncertainty_info
+                from ..uncertainty.judge import lot_draws_notes, lot_draws_summary, uncertainty_info
 
                 info = uncertainty_info(uncertainty, None)
                 info["notes"] += lot_draws_notes(uncertainty.settings, self._mc, names)
+                info["monte_carlo"].update(lot_draws_summary(self._mc, names))
                 check = _replace(check, uncertainty=info)
 
         if criteria is not None and ellipse is None and nominal_xy is None:

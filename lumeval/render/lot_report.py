@@ -237,7 +237,7 @@ def lot_document(run) -> dict:
         },
         "outlier_rule": st.outlier_rule,
         "uncertainty": (getattr(run.check, "uncertainty", None) or None) if run.check is not None else None,
-        "notes": list(st.notes),
+        "notes": [*st.notes, *(getattr(run.check, "notes", ()) or () if run.check is not None else ())],
         "run_warnings": list(getattr(run, "run_warnings", ())),
         "unreadable": [{"source": u.source, "message": u.message} for u in run.unreadable],
         "skipped": [{"path": k.path, "reason": k.reason} for k in getattr(run, "skipped", ())],
@@ -352,8 +352,18 @@ def samples_csv(run, out=None, processes: int | None = None) -> str | None:
     w.writerow([t(c) for c in csv_columns(run)])
     for text in _block_texts(run, len(run), processes):
         buf.write(text)
-    buf.write(csv_notes())  # the cautions as the last rows (docs/output-formats.md, "CSV")
+    buf.write(csv_notes(lot_check_notes(run)))  # notes, then the cautions as the last rows (docs/output-formats.md)
     return buf.getvalue() if out is None else None
+
+
+def lot_check_notes(run) -> tuple[str, ...]:
+    """The notes of a lot's judgement for every output: the criteria file's warnings and, under
+    measurement uncertainty, the Monte Carlo's notes (draws, stabilisation)."""
+    check = run.check
+    if check is None:
+        return ()
+    unc = getattr(check, "uncertainty", None) or {}
+    return tuple(dict.fromkeys([*map(str, getattr(check, "notes", ()) or ()), *map(str, unc.get("notes") or ())]))
 
 
 def _block_text(run, i: int, j: int) -> str:
@@ -681,6 +691,8 @@ def _lot_closing(run) -> list:
         out.append(Text(f"{nw} sample(s) carry warnings (interpolation, validity limits...): see the per-sample CSV or JSON.", style="yellow"))
     for note in st.notes:
         out.append(Text(f"Note: {clean(note)}.", style="dim"))
+    for note in (getattr(run.check, "notes", ()) or ()) if run.check is not None else ():  # criteria warnings
+        out.append(Text(f"Note: {clean(note)}", style="yellow"))
     for w in getattr(run, "run_warnings", ()):
         out.append(Text(f"Note: {clean(w)}", style="yellow"))
     from .view import cautions

@@ -348,9 +348,13 @@ def draws_notes(settings: MonteCarloSettings, unc: Any) -> list[str]:
     used = [int(m) for m in unc.draws] if unc is not None else ([] if settings.adaptive else [int(settings.draws or 0)])
     few = sorted({m for m in used if m < MIN_DRAWS})
     if few:
+        # the adaptive procedure stops at max_draws: --draws would switch it off (a review found the two
+        # notes of an adaptive run giving contradicting advice)
+        advice = (f"raise max_draws in [monte_carlo] to {MIN_DRAWS} or more" if settings.adaptive
+                  else f"use --draws {MIN_DRAWS} or more")
         out.append(f"only {', '.join(map(str, few))} Monte Carlo draws per spectrum, fewer than the {MIN_DRAWS} that "
                    f"a 95 % coverage interval needs (M ≥ 100/(1 − p), JCGM 101:2008; docs/uncertainty.md): u, U, the "
-                   "guard band and p_c are rough; use --draws 2000 or more")
+                   f"guard band and p_c are rough; {advice}")
     if unc is not None and not all(bool(b) for b in unc.stabilised):
         bad = [i for i, b in enumerate(unc.stabilised) if not b]
         named = ", ".join(f"{unc.names[i]} ({int(unc.draws[i])} draws)" for i in bad[:_NAMES_SHOWN])
@@ -377,3 +381,18 @@ def lot_draws_notes(settings: MonteCarloSettings, batches, names) -> list[str]:
     if draws.size != len(names):  # (every batch of a lot under uncertainty has its draws)
         return []
     return draws_notes(settings, SimpleNamespace(draws=draws, stabilised=stabilised, names=names))
+
+
+def lot_draws_summary(batches, names) -> dict:
+    """For a lot's JSON ``uncertainty.monte_carlo``: the fewest and most draws a sample used and
+    every sample whose adaptive procedure did not stabilise, with its draws (``batches`` as
+    :func:`lot_draws_notes` takes them; {} without). A check gives the per-spectrum arrays; a
+    lot gave neither (found by a review)."""
+    if not batches:
+        return {}
+    draws = np.concatenate([np.asarray(d, dtype=np.int64) for d, _ in batches])
+    stabilised = np.concatenate([np.asarray(s, dtype=bool) for _, s in batches])
+    if draws.size != len(names) or not draws.size:
+        return {}
+    return {"draws_used_min": int(draws.min()), "draws_used_max": int(draws.max()),
+            "not_stabilised": [{"sample": names[i], "draws": int(draws[i])} for i in np.flatnonzero(~stabilised).tolist()]}

@@ -317,6 +317,19 @@ def test_a_clause_over_settings_is_judged_on_its_rounded_value(tmp_path, capsys)
     code, out, err = run(["series", *SETPOINTS, "--criteria", write(tmp_path, "a.toml", text.replace("round_to = 0\n", "")),
                           "--format", "json"], capsys)
     assert code == 1, err
+    # every output shows the value compared (found by a review: series and mix showed only the
+    # unrounded value, and their JSON had neither round_to nor the compared value)
+    code, out, err = run(["series", *SETPOINTS, "--criteria", write(tmp_path, "r.toml", text), "--format", "json"], capsys)
+    doc = json.loads(out)
+    c = doc["criteria"]["clauses"][0]
+    assert c["round_to"] == 0 and c["worst_compared"] == reference(c["worst_measured"], 0)
+    per = [s["clauses"]["Ra"] for s in doc["settings"]]
+    assert all(x["round_to"] == 0 and x["compared"] == reference(x["measured"], 0) for x in per)
+    from .test_json_schemas import _errors
+
+    assert not list(_errors("series", doc))
+    code, out, err = run(["series", *SETPOINTS, "--criteria", write(tmp_path, "r.toml", text)], capsys)
+    assert f"{c['worst_measured']:.2f} → 96" in " ".join(out.split()), out
 
 
 def test_round_to_with_measurement_uncertainty_is_refused(tmp_path, capsys):

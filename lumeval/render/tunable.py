@@ -300,12 +300,33 @@ def _spec_of(res) -> str:
     return ".1f"
 
 
+def _rounded(res) -> bool:
+    """A figure clause judged by the rounding method (``round_to``): shown as a check shows it."""
+    return getattr(res, "round_to", None) is not None and "compared" in (getattr(res, "details", None) or {})
+
+
 def _value(res, i: int) -> str:
+    if _rounded(res):  # measured → compared (a review found only the unrounded value shown)
+        from .verdicts import measured_text
+
+        return measured_text(res, i)
     return _f(res.measured[i], _spec_of(res)) + (f" {res.unit}" if res.unit and res.unit not in ("%",) and math.isfinite(float(res.measured[i])) else "")
 
 
 def _margin(res, i: int) -> str:
+    if _rounded(res):  # the rounded value's margin, exactly
+        from .verdicts import margin_text
+
+        return margin_text(res, i)
     return _f(res.margin[i], "+" + _spec_of(res))
+
+
+def _rounding_fields(res, i: int | None) -> dict:
+    """``round_to`` and the value compared at setting ``i`` of a clause judged by the rounding
+    method, for the JSON ({} otherwise)."""
+    if not _rounded(res):
+        return {}
+    return {"round_to": int(res.round_to), "compared": None if i is None else _num(res.details["compared"][i])}
 
 
 # --------------------------------------------------------------------------- JSON
@@ -342,7 +363,8 @@ def to_json(report) -> str:
             rec["verdict"] = report.check.verdict(i)
             rec["clauses"] = {
                 rr.result.clause_id: {"outcome": rr.outcome[i], "measured": _num(rr.result.measured[i]),
-                                      "margin": _num(rr.result.margin[i]), "reason": rr.reason[i] or None}
+                                      "margin": _num(rr.result.margin[i]), "reason": rr.reason[i] or None,
+                                      **_rounding_fields(rr.result, i)}
                 for rr in report.check.results
             }
         settings.append(rec)
@@ -374,7 +396,8 @@ def to_json(report) -> str:
                  "worst_setting": c.labels[rr.worst] if rr.worst is not None else None,
                  "worst_measured": _num(rr.result.measured[rr.worst]) if rr.worst is not None else None,
                  "worst_margin": _num(rr.result.margin[rr.worst]) if rr.worst is not None else None,
-                 "source": rr.result.source}
+                 "source": rr.result.source,
+                 **({f"worst_{k}" if k == "compared" else k: v for k, v in _rounding_fields(rr.result, rr.worst).items()})}
                 for rr in c.results
             ],
         }

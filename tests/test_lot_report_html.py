@@ -143,3 +143,11 @@ def test_a_lot_passed_by_its_yield_says_that_samples_fail(tmp_path):
     verb = "does" if bad == 1 else "do"
     assert (f"Every lot criterion is met; {bad} of 200 samples {verb} not pass every per-sample criterion, within the "
             "lot's yield allowance") in text
+
+
+def test_no_empty_sample_table_when_every_sample_passes(tmp_path):
+    """A lot whose samples all pass showed an empty "Sample | Verdict | Checks not passed"
+    table under "200 of 200 samples met every per-sample criterion." (found by a review)."""
+    r, page = _lot(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 50\n')
+    assert r.returncode == 0, r.stderr
+    assert "200 of 200 samples met every per-sample criterion." in page and "Checks not passed" not in page

@@ -305,7 +305,7 @@ def _not_passed_text(outcomes, wording: Wording = CRITERIA_WORDING) -> str:
 
 
 def _samples_table(per_sample: dict[str, list[str]], lot, n: int,
-                   wording: Wording = CRITERIA_WORDING) -> tuple[str | None, Table, str | None]:
+                   wording: Wording = CRITERIA_WORDING) -> tuple[str | None, Table | None, str | None]:
     items = list(per_sample.items())  # input order: the numbering of every table and figure
     intro = None
     if lot is not None:  # a lot: list the samples that did not pass; the rest are counted
@@ -321,7 +321,7 @@ def _samples_table(per_sample: dict[str, list[str]], lot, n: int,
                         for s, o in shown))
     foot = (f"{len(shown)} of {len(items)} samples listed (failed first, in input order); every sample's verdict "
             "is in the JSON and CSV outputs.") if len(items) > len(shown) else None
-    return intro, table, foot
+    return intro, (table if shown else None), foot  # (no empty table when every sample passed)
 
 
 def _uncertainty_text(verdicts) -> str | None:

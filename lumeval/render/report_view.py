@@ -395,7 +395,8 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
     if lot is not None and lot_rows:
         lot_table = Table(("Criterion", "Measured", "Limit", "Margin", "Verdict"), tuple(
             Row(cells(r.clause, plain_number(r.measured) + (f" {r.unit}" if r.unit else ""), r.limit,
-                      plain_number(r.margin)) + (Cell("", outcome=r.outcome),), r.outcome == "fail")
+                      plain_number(r.margin) + (f" {r.unit}" if r.unit and r.margin is not None else ""))
+                + (Cell("", outcome=r.outcome),), r.outcome == "fail")
             for r in lot_rows), (False, True, False, True, False))
     intro = table = foot = None
     if len(per_sample) > 1:

@@ -143,6 +143,9 @@ def test_a_lot_passed_by_its_yield_says_that_samples_fail(tmp_path):
     verb = "does" if bad == 1 else "do"
     assert (f"Every lot criterion is met; {bad} of 200 samples {verb} not pass every per-sample criterion, within the "
             "lot's yield allowance") in text
+    # the lot criterion's margin carries its unit, as its measured value does
+    pct = 100.0 * (200 - bad) / 200
+    assert f"≥ 90 % {pct:g} % ≥ 90 % {pct - 90:g} %" in text, text[text.find("Lot criteria"):][:300]
 
 
 def test_no_empty_sample_table_when_every_sample_passes(tmp_path):

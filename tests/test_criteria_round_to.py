@@ -427,3 +427,11 @@ def test_review_findings_margin_digits_negative_zero_empty_range_and_rule(tmp_pa
     ok = write(tmp_path, "ok.toml", figure_clause("round_to = -1\n", figure="cct_K", limits="range = [3005, 3015]"))
     code, _, err = run(["check", DOWNLIGHT, "--criteria", ok, "-q"], capsys)
     assert code in (0, 1), err  # 3010 lies between: used, with the two limit warnings
+
+
+def test_a_lot_clause_refusal_does_not_list_over(tmp_path, capsys):
+    """The refusal of a key on a lot clause listed `over` among the keys it takes, though `over`
+    on a lot clause is itself an error (found by a review)."""
+    crit = write(tmp_path, "c.toml", '[[clause]]\nkind = "lot_yield"\nmin_percent = 90\nround_to = 0\n')
+    code, _, err = run(["check", DOWNLIGHT, "--criteria", crit], capsys)
+    assert_clean_error(code, err, "c.toml:4", "a 'lot_yield' clause takes kind, id, label, note, min_percent —")

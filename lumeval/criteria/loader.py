@@ -188,7 +188,9 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
         for key in table:
             if key not in allowed:
                 owners = [k for k, c in CLAUSE_KINDS.items() if key in c.KEYS]
-                raise _unknown_key(where, path, key, allowed, f"{_article(kind)} {kind!r} clause", owners)
+                # (a lot clause is never judged over settings: `over` is not listed as a key it takes)
+                listed = [k for k in allowed if not (k == "over" and getattr(cls, "SCOPE", "") == "lot")]
+                raise _unknown_key(where, path, key, listed, f"{_article(kind)} {kind!r} clause", owners)
         cid = table.get("id", f"C{i + 1}")
         if not isinstance(cid, str) or not cid.strip():
             raise where.error(path, "id", f"must be a non-empty string, got {shown(cid)}", 'write e.g. id = "R9"')

@@ -181,6 +181,7 @@ def explain_markdown(criteria) -> str:
     """Tender wording (Markdown) for ``criteria``: one numbered requirement per clause, the
     measurement requirements (:func:`lumeval.criteria.explain.measurement_requirements`), the
     method of evaluation, the standards relied on and the cautions."""
+    from ..criteria import rounding
     from ..criteria.explain import measurement_requirements, tender_words
     from ..engine import METHOD_LABELS, METHODS
     from ..render.safe import clean
@@ -202,7 +203,7 @@ def explain_markdown(criteria) -> str:
         "Each light source offered shall meet every requirement below, judged from its measured spectral power "
         "distribution (SPD). Limits are inclusive and are compared with unrounded computed values"
         + (", except where a requirement states the decimal places its value is rounded to before comparison."
-           if any(getattr(getattr(c, "inner", c), "round_to", None) is not None for c in criteria.clauses) else ".")
+           if rounding.any_rounded(criteria.clauses) else ".")
     )
     a("")
     sources: list[str] = []
@@ -227,8 +228,7 @@ def explain_markdown(criteria) -> str:
     else:
         a("- Decision rule: simple acceptance — the measured value decides, without a guard band for measurement uncertainty"
           + ("; where a requirement says so, the measured value rounded as it states (ties to even) decides instead "
-             "(the rounding method of ASTM E29)." if any(getattr(getattr(c, "inner", c), "round_to", None) is not None
-                                                         for c in criteria.clauses) else "."))
+             "(the rounding method of ASTM E29)." if rounding.any_rounded(criteria.clauses) else "."))
     a(
         "- Chromaticity regions: ANSI C78.377 quadrangles of the edition each requirement names, with that "
         "edition's published corners where available, otherwise corners computed by the edition's formula "

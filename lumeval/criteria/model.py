@@ -738,6 +738,11 @@ class Criteria:
     warnings: tuple = ()
     labelled: frozenset = frozenset()  #: ids of the clauses whose ``label`` the file gives
 
+    @property
+    def warning_notes(self) -> tuple[str, ...]:
+        """:attr:`warnings` as every judgement's notes carry them (check, lot, mix, series)."""
+        return tuple(f"WARNING: {w}" for w in self.warnings)
+
     def require_clauses_for(self, command: str, scopes: tuple[str, ...] = ("sample",)) -> None:
         """Refuse (:class:`lumeval.errors.UsageError`, exit code 2) criteria with no clause that
         ``lumeval COMMAND`` judges (``scopes``: the clause scopes it judges): a run that judged
@@ -756,7 +761,7 @@ class Criteria:
         """Judge every clause for every spectrum of ``ev`` (an Evaluation)."""
 
         results: list[ClauseResult] = []
-        notes: list[str] = [f"WARNING: {w}" for w in self.warnings]
+        notes: list[str] = list(self.warning_notes)
         skipped: list[NotJudgedHere] = []
         for c in self.clauses:
             if c.SCOPE != "sample":

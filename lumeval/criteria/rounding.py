@@ -142,24 +142,35 @@ def _figure_clauses(clauses, scopes=("sample", "range")):
             yield c, inner
 
 
+def _acts_as(limit: float, places: int, towards: str) -> Decimal:
+    """The limit as the file writes it (its shortest decimal), rounded ``towards`` (ROUND_CEILING
+    for a lower limit, ROUND_FLOOR for an upper one) to ``places``: the limit a rounded value
+    actually meets."""
+    return Decimal(repr(float(limit))).quantize(_quantum(places), rounding=towards, context=_CONTEXT)
+
+
+def _written(limit: float) -> str:
+    """A limit as the criteria file writes it (:func:`lumeval.criteria.model.limit_number`)."""
+    from .model import limit_number  # (model imports this module)
+
+    return limit_number(limit)
+
+
 def limit_warnings(clauses, file: str) -> tuple[str, ...]:
     """A warning per limit written with more decimals than its clause's ``round_to`` keeps: a
     rounded value never equals it (``min = 79.5`` with ``round_to = 0`` acts as ``min = 80``)."""
     out = []
     for _c, f in _figure_clauses(clauses):
-        q = _quantum(f.round_to)
         for side, v, towards in (("lower", f.lower, ROUND_CEILING), ("upper", f.upper, ROUND_FLOOR)):
             if v is None:
                 continue
-            written = Decimal(repr(float(v)))  # the limit as the file writes it
-            if written.quantize(q, rounding=ROUND_HALF_EVEN, context=_CONTEXT) == written:
+            acts = _acts_as(v, f.round_to, towards)
+            if acts == Decimal(repr(float(v))):  # written at the rounding's resolution
                 continue
-            acts = format(written.quantize(q, rounding=towards, context=_CONTEXT), "f")
-            text = repr(float(v)).removesuffix(".0")
             where = f"{file}:{f.line}: " if f.line else f"{file}: "
-            out.append(f"{where}clause {quote(f.clause_id)}: the {side} limit {text} is written more finely than "
+            out.append(f"{where}clause {quote(f.clause_id)}: the {side} limit {_written(v)} is written more finely than "
                        f"round_to = {f.round_to} rounds (to {places_words(f.round_to, figures.unit(f.figure))}): a "
-                       f"rounded value never equals it, so the limit acts as {acts} — write the limit at the "
+                       f"rounded value never equals it, so the limit acts as {format(acts, 'f')} — write the limit at the "
                        "rounding's resolution, or change round_to")
     return tuple(out)
 
@@ -196,13 +207,15 @@ def refuse_empty(clauses, file: str) -> None:
     for _c, f in _figure_clauses(clauses):
         if f.lower is None or f.upper is None:
             continue
-        q = _quantum(f.round_to)
-        lo = Decimal(repr(float(f.lower))).quantize(q, rounding=ROUND_CEILING, context=_CONTEXT)
-        hi = Decimal(repr(float(f.upper))).quantize(q, rounding=ROUND_FLOOR, context=_CONTEXT)
-        if lo > hi:
+        if _acts_as(f.lower, f.round_to, ROUND_CEILING) > _acts_as(f.upper, f.round_to, ROUND_FLOOR):
             unit = figures.unit(f.figure)
             raise CriteriaError(
                 f"clause {quote(f.clause_id)}: no value rounded to {places_words(f.round_to, unit)} lies between "
-                f"{repr(float(f.lower)).removesuffix('.0')} and {repr(float(f.upper)).removesuffix('.0')}, so the "
+                f"{_written(f.lower)} and {_written(f.upper)}, so the "
                 "clause can never pass", file=file, line=f.line, field="round_to",
                 fix="widen the range to include a rounded value, or round to more decimal places")
+
+
+def any_rounded(clauses) -> bool:
+    """Whether any figure clause of ``clauses`` (one judged over settings included) gives ``round_to``."""
+    return next(_figure_clauses(clauses, scopes=("sample", "range", "lot")), None) is not None

@@ -275,7 +275,7 @@ class LotAccumulator:
             # lot said them on standard error only (found by a review)
             check = CheckResult(names, self.sources, self.warnings, results,
                                 dict(criteria.identification), criteria.file,
-                                notes=tuple(f"WARNING: {w}" for w in getattr(criteria, "warnings", ())))
+                                notes=tuple(getattr(criteria, "warning_notes", ())))
             if uncertainty is not None and uncertainty.active:
                 from dataclasses import replace as _replace
 

@@ -266,9 +266,8 @@ def _sample_criteria_table(rows: list[VerdictRow], wording: Wording) -> Table | 
     (the terminal summary's "Requirements" table, in the report)."""
     if not rows:
         return None
-    from ..criteria.verdicts import (
-        JUDGED_OUTCOMES,  # a not-valid or not-judged sample's margin is not a judged one
-    )
+    # (a not-valid or not-judged sample's margin is not a judged one: left out of the worst)
+    from ..criteria.verdicts import worst_judged_margin
 
     groups: dict[tuple, list[VerdictRow]] = {}
     for k, r in zip(_clause_keys(rows), rows):
@@ -277,10 +276,9 @@ def _sample_criteria_table(rows: list[VerdictRow], wording: Wording) -> Table | 
     for rs in groups.values():
         head = rs[0]
         outcomes = [r.outcome for r in rs]
-        margins = [float(r.margin) for r in rs if r.outcome in JUDGED_OUTCOMES and isinstance(r.margin, (int, float))
-                   and np.isfinite(r.margin)]
+        worst = worst_judged_margin([r.margin if isinstance(r.margin, (int, float)) else np.nan for r in rs], outcomes)
         unit = f" {head.unit}" if head.unit and head.unit != "%" else head.unit
-        worst_margin = plain_number(min(margins)) + unit if margins else "n/a"
+        worst_margin = plain_number(worst) + unit if np.isfinite(worst) else "n/a"
         failed = outcomes.count("fail")
         body.append(Row((_clause_cell(head), Cell(head.limit), Cell(str(outcomes.count("pass"))), Cell(str(failed)),
                          Cell(_tally(outcomes, wording, leave_out=("pass", "fail")) or "none"), Cell(worst_margin)),

@@ -144,7 +144,7 @@ def judge(criteria, view, settings, *, labels, unit: str = "", available=None, u
     avail = np.ones(n, dtype=bool) if available is None else np.asarray(available, dtype=bool)
     why = tuple(unavailable_reason) if unavailable_reason is not None else ("",) * n
     results: list[RangeClauseResult] = []
-    notes: list[str] = [f"WARNING: {w}" for w in getattr(criteria, "warnings", ()) or ()]
+    notes: list[str] = list(getattr(criteria, "warning_notes", ()))
     for c in criteria.clauses:
         scope = getattr(c, "SCOPE", "sample")
         if scope == "lot":

@@ -365,6 +365,17 @@ def draws_notes(settings: MonteCarloSettings, unc: Any) -> list[str]:
     return out
 
 
+def _lot_draws(batches, names):
+    """(draws used, stabilised) of every sample of a lot, joined from its batches' (draws,
+    stabilised) in the order of ``names``; None without, or when they do not cover the lot
+    (every batch of a lot under uncertainty has its draws)."""
+    if not batches:
+        return None
+    draws = np.concatenate([np.asarray(d, dtype=np.int64) for d, _ in batches])
+    stabilised = np.concatenate([np.asarray(s, dtype=bool) for _, s in batches])
+    return (draws, stabilised) if draws.size == len(names) and draws.size else None
+
+
 def lot_draws_notes(settings: MonteCarloSettings, batches, names) -> list[str]:
     """:func:`draws_notes` of a lot whose Monte Carlo ran batch by batch: ``batches`` holds each
     batch's (draws used, stabilised) per sample, in the order of ``names`` (the lot's sample
@@ -372,15 +383,12 @@ def lot_draws_notes(settings: MonteCarloSettings, batches, names) -> list[str]:
     here); for the adaptive procedure, the samples with fewer than :data:`MIN_DRAWS` draws and
     those that did not stabilise are said as for a check (found by a review: a lot said
     neither)."""
-    if not settings.adaptive or not batches:
+    got = _lot_draws(batches, names) if settings.adaptive else None
+    if got is None:
         return []
     from types import SimpleNamespace
 
-    draws = np.concatenate([np.asarray(d, dtype=np.int64) for d, _ in batches])
-    stabilised = np.concatenate([np.asarray(s, dtype=bool) for _, s in batches])
-    if draws.size != len(names):  # (every batch of a lot under uncertainty has its draws)
-        return []
-    return draws_notes(settings, SimpleNamespace(draws=draws, stabilised=stabilised, names=names))
+    return draws_notes(settings, SimpleNamespace(draws=got[0], stabilised=got[1], names=names))
 
 
 def lot_draws_summary(batches, names) -> dict:
@@ -388,11 +396,9 @@ def lot_draws_summary(batches, names) -> dict:
     every sample whose adaptive procedure did not stabilise, with its draws (``batches`` as
     :func:`lot_draws_notes` takes them; {} without). A check gives the per-spectrum arrays; a
     lot gave neither (found by a review)."""
-    if not batches:
+    got = _lot_draws(batches, names)
+    if got is None:
         return {}
-    draws = np.concatenate([np.asarray(d, dtype=np.int64) for d, _ in batches])
-    stabilised = np.concatenate([np.asarray(s, dtype=bool) for _, s in batches])
-    if draws.size != len(names) or not draws.size:
-        return {}
+    draws, stabilised = got
     return {"draws_used_min": int(draws.min()), "draws_used_max": int(draws.max()),
             "not_stabilised": [{"sample": names[i], "draws": int(draws[i])} for i in np.flatnonzero(~stabilised).tolist()]}

@@ -44,11 +44,13 @@ if TYPE_CHECKING:  # pragma: no cover
     from .spectra.prepare import PreparedSpectra
 
 #: Spectra evaluated per chunk. The largest intermediate arrays are (chunk, 297) and
-#: (chunk, 99, 3) for the TM-30 samples (1.2 MB each at 512) and the chunk's spectra
-#: (chunk, W). 512 is the measured optimum on the project machine (a fixed cost of about
-#: 2 ms of Python and numpy calls per chunk weighs double at 256; at 1024 the arrays leave the
-#: core's cache; bench/bench_engine.py), and what lots use (lumeval.lots.run.ENGINE_CHUNK).
-DEFAULT_CHUNK = 512
+#: (chunk, 99, 3) for the TM-30 samples (2.4 MB each at 1024) and the chunk's spectra
+#: (chunk, W). A fixed cost of about 2 ms of Python and numpy calls per chunk weighs on small
+#: chunks; large ones leave the cache. Measured 2026-12-05 (20,000 white-LED spectra, five
+#: alternated runs, median spectra per CPU-second): 512: 20,704 (1 nm) / 25,383 (5 nm); 768:
+#: 22,280 / 26,795; 1024: 21,739 / 27,755; 1536: 21,972 / 26,831 (an earlier machine measured
+#: 512 best). What lots use (lumeval.lots.run.ENGINE_CHUNK).
+DEFAULT_CHUNK = 1024
 
 
 def __getattr__(name: str) -> Any:
@@ -324,6 +326,11 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
 
 
+#: The warning of a DC at or over the CIE 13.3 limit (the DC, the limit).
+_DC_WARNING = ("DC = %.4f is not below %s (CIE 13.3 validity limit): the source is too far from the Planckian locus "
+               "for the CRI to be meaningful; treat Ra and Ri with caution.")
+
+
 def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fid: Any, phot: Any) -> tuple[tuple[str, ...], ...]:
     from .metrics.cri import DC_LIMIT
     from .metrics.tm30 import hue_edge_warnings
@@ -346,21 +353,23 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     notes = spectra.notes
     # most spectra have nothing to say: their notes as they are; the others are found at C speed
     # (a true value in any of the per-spectrum lists) and get their messages below
-    say = np.zeros(n, dtype=bool)
-    for flags in (outside, dc_bad, cct_reason, fid_reason, phot_reason, edges):
-        say |= np.fromiter(map(bool, flags), dtype=bool, count=n)
+    flagged = [np.fromiter(map(bool, flags), dtype=bool, count=n)
+               for flags in (dc_bad, outside, cct_reason, fid_reason, phot_reason, edges)]
+    others = np.logical_or.reduce(flagged[1:])
     out = list(map(tuple, notes))  # (tuple() of a tuple is that tuple: no copy)
-    for i in np.flatnonzero(say).tolist():
+    # the commonest case alone (a DC at or over the limit and nothing else to say: most spectra
+    # of a lot far from the locus), its message from one format string
+    dc_only = np.flatnonzero(flagged[0] & ~others)
+    for i, x in zip(dc_only.tolist(), dc[dc_only].tolist()):
+        out[i] = (*notes[i], _DC_WARNING % (x, DC_LIMIT))
+    for i in np.flatnonzero(others).tolist():
         w = list(notes[i])
         if outside[i]:
             w.append(validity_warning(cct_reason[i], ref_list[i]))
         elif cct_reason[i]:
             w.append(f"CCT undefined: {cct_reason[i]}; CRI and TM-30 figures are not computed.")
         elif dc_bad[i]:
-            w.append(
-                f"DC = {dc_list[i]:.4f} is not below {DC_LIMIT} (CIE 13.3 validity limit): the source is too far from "
-                "the Planckian locus for the CRI to be meaningful; treat Ra and Ri with caution."
-            )
+            w.append(_DC_WARNING % (dc_list[i], DC_LIMIT))
         if ref_ok[i] and fid_reason[i]:
             w.append(f"TM-30: {fid_reason[i]}.")
         if edges[i]:

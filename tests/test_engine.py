@@ -160,3 +160,27 @@ def test_lots_use_the_engine_default_chunk():
     from lumeval.lots.run import ENGINE_CHUNK
 
     assert ENGINE_CHUNK == DEFAULT_CHUNK
+
+
+def test_dc_warning_is_the_same_alone_and_beside_other_warnings():
+    """A DC at or over the CIE 13.3-1995 limit (DC < 5.4e-3, CIE 13.3 §5.3) gets one warning
+    with the DC to four decimals, whether it is the spectrum's only warning (the fast path) or
+    comes with others (here a photometry reason); a DC below the limit gets none, and notes
+    read with the spectrum stay first."""
+    from types import SimpleNamespace
+
+    from lumeval.engine import _warnings_for
+
+    n = 4
+    spectra = type("S", (), {"notes": (("read note",), (), (), ()), "__len__": lambda self: n})()
+    cct = SimpleNamespace(outside_validity=np.zeros(n, bool), reference_cct_K=np.full(n, 4000.0), reason=("",) * n)
+    cri = SimpleNamespace(dc=np.array([0.0123, 0.00611, 0.0031, np.nan]), within_dc_limit=np.array([False, False, True, False]))
+    fid = SimpleNamespace(reason=("",) * n, hue_edge_pairs=((),) * n)
+    phot = SimpleNamespace(reason=("", "no light", "", ""))
+    w = _warnings_for(spectra, cct, cri, fid, phot)
+    text = ("DC = {} is not below 0.0054 (CIE 13.3 validity limit): the source is too far from the Planckian "
+            "locus for the CRI to be meaningful; treat Ra and Ri with caution.")
+    assert w[0] == ("read note", text.format("0.0123"))
+    assert w[1] == (text.format("0.0061"), "photometry: no light.")
+    assert w[2] == ()
+    assert w[3] == ()  # no DC (NaN): nothing said about it

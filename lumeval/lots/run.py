@@ -27,9 +27,9 @@ if TYPE_CHECKING:  # numpy is imported where it is used: `lumeval --help` stays 
 
 #: Spectra evaluated together (bounded memory; the engine chunks further inside).
 BATCH_SPECTRA = 2048
-#: Engine chunk size for lots: the engine's default (lumeval.engine.DEFAULT_CHUNK, 512: the
-#: measured optimum); peak memory of a 100,000-spectrum lot stays near 600 MB (docs/lots.md).
-ENGINE_CHUNK = 512
+#: Engine chunk size for lots: the engine's default (lumeval.engine.DEFAULT_CHUNK, 1024: the
+#: measured optimum); peak memory stays bounded by the batch (docs/lots.md, "Memory").
+ENGINE_CHUNK = 1024
 
 
 @dataclass(frozen=True)

@@ -326,8 +326,8 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
 
 
-#: The warning of a DC at or over the CIE 13.3 limit (the DC, the limit).
-_DC_WARNING = ("DC = %.4f is not below %s (CIE 13.3 validity limit): the source is too far from the Planckian locus "
+#: The warning of a DC at or over the CIE 13.3 limit (``format`` with the limit, then ``%`` the DC).
+_DC_WARNING = ("DC = %.4f is not below {} (CIE 13.3 validity limit): the source is too far from the Planckian locus "
                "for the CRI to be meaningful; treat Ra and Ri with caution.")
 
 
@@ -359,9 +359,10 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     out = list(map(tuple, notes))  # (tuple() of a tuple is that tuple: no copy)
     # the commonest case alone (a DC at or over the limit and nothing else to say: most spectra
     # of a lot far from the locus), its message from one format string
+    dc_text = _DC_WARNING.format(DC_LIMIT)  # the limit put in once: "DC = %.4f is not below 0.0054 ..."
     dc_only = np.flatnonzero(flagged[0] & ~others)
     for i, x in zip(dc_only.tolist(), dc[dc_only].tolist()):
-        out[i] = (*notes[i], _DC_WARNING % (x, DC_LIMIT))
+        out[i] = (*notes[i], dc_text % x)
     for i in np.flatnonzero(others).tolist():
         w = list(notes[i])
         if outside[i]:
@@ -369,7 +370,7 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
         elif cct_reason[i]:
             w.append(f"CCT undefined: {cct_reason[i]}; CRI and TM-30 figures are not computed.")
         elif dc_bad[i]:
-            w.append(_DC_WARNING % (dc_list[i], DC_LIMIT))
+            w.append(dc_text % dc_list[i])
         if ref_ok[i] and fid_reason[i]:
             w.append(f"TM-30: {fid_reason[i]}.")
         if edges[i]:

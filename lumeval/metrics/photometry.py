@@ -314,7 +314,7 @@ def photometry(wavelengths_nm: ArrayLike, values: ArrayLike) -> PhotometryResult
         peak[ok] = wl[idx[ok]]
 
     code = np.where(~finite, 1, np.where(~has_power, 2, np.where(~has_light, 3, np.where(~ok, 4, 0))))
-    reasons = [_REASONS[c] for c in code.tolist()]
+    reasons = [_REASONS[c] for c in code.tolist()] if code.any() else [_REASONS[0]] * n
 
     return PhotometryResult(
         ler_lm_per_W=ler,

@@ -81,3 +81,27 @@ def test_descending_wide_file_keeps_columns_together():
     np.testing.assert_array_equal(s.wavelengths_nm, WL)
     np.testing.assert_allclose(s.values[1], 2 * s.values[0])
     np.testing.assert_allclose(s.values[0], WL / 1000)
+
+
+@pytest.mark.parametrize(
+    "headers,meta,want",
+    [
+        # no column states a unit: every column takes the file's (its metadata line)
+        (["A", "B", "C"], ["Units: mW/(m2 nm)"], [("absolute", "mW/(m2 nm)")] * 3),
+        (["A", "B", "C"], [], [("unknown", None)] * 3),
+        # one column states its own unit: that column only
+        (["A", "B (relative)", "C"], ["Units: W/nm"], [("absolute", "W/nm"), ("relative", "B (relative)"), ("absolute", "W/nm")]),
+        (["A", "B", "C mW/nm"], [], [("unknown", None), ("unknown", None), ("absolute", "C mW/nm")]),
+        # names that hold letters of units inside words without stating one
+        (["raw 1", "sample B", "cdx"], ["Units: W/nm"], [("absolute", "W/nm")] * 3),
+        (["raw 1", "sample B", "2 W"], [], [("unknown", None), ("unknown", None), ("absolute", "2 W")]),
+    ],
+)
+def test_scale_of_each_column_of_a_wide_file(headers, meta, want):
+    """Each column's scale and unit come from its own header when it states one, else from the
+    file's metadata, whether or not another column states one (the columns' headers are looked
+    at together first)."""
+    rows = [f"{w},{v},{v},{v}" for w, v in (r.split(",") for r in _rows())]
+    s = _parse(meta + ["nm," + ",".join(headers)] + rows)
+    got = [(m["lumeval.scale"], m.get("lumeval.value_unit")) for m in s.metadata]
+    assert got == want

@@ -354,6 +354,15 @@ def name_spectra(wl: np.ndarray, data: np.ndarray, h: Header, meta: dict, d: Dia
     sources: list[str] = []
     metas: list[dict] = []
     delimiter = _DELIM_NAMES[d.delim] + (" with decimal comma" if d.decimal_comma else "")
+    # The scale of a column whose header states no unit is the file's (its metadata): found
+    # once when no header of these columns matches a unit pattern. A pattern matching in a
+    # header matches in the headers joined by line breaks (a line break is neither a letter
+    # nor a word character, like the ends of a string), so no match there means none in any.
+    common = None
+    if header:
+        joined = "\n".join(header[first_column + 1 : first_column + n + 1])
+        if not (_RELATIVE.search(joined) or _ABSOLUTE.search(joined)):
+            common = _scale(None, meta)
     for j in range(first_column, first_column + n):
         col_name = header[j + 1] if header else ""
         col_label = col_name  # with its unit, for the scale
@@ -366,7 +375,7 @@ def name_spectra(wl: np.ndarray, data: np.ndarray, h: Header, meta: dict, d: Dia
             name = col_name or f"{stem}#{j + 1}"
             src = f"{file}#{col_name}" if col_name else f"{file}#{j + 1}"
         m = dict(meta)
-        scale, unit = _scale(col_label or None, meta)
+        scale, unit = common if common is not None else _scale(col_label or None, meta)
         m["lumeval.scale"] = scale
         if unit:
             m["lumeval.value_unit"] = unit

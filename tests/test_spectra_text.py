@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from lumeval.errors import InputError
 from lumeval.spectra.read import parse_spectra
@@ -105,3 +107,13 @@ def test_scale_of_each_column_of_a_wide_file(headers, meta, want):
     s = _parse(meta + ["nm," + ",".join(headers)] + rows)
     got = [(m["lumeval.scale"], m.get("lumeval.value_unit")) for m in s.metadata]
     assert got == want
+
+
+@settings(max_examples=3000, deadline=None)
+@given(st.text(alphabet="wWlLmMcCdDxXuUrReEaAtTiIvVbBnNoOzZsSpP%. /·*µ2\n\tſK", max_size=12))
+def test_quick_no_unit_check_agrees_with_the_unit_patterns(text):
+    """The quick look at column headers (lumeval.spectra.text_header._states_no_unit) says "no
+    unit" exactly when neither unit pattern matches, including non-ASCII case variants."""
+    from lumeval.spectra import text_header as th
+
+    assert th._states_no_unit(text) == (not (th._RELATIVE.search(text) or th._ABSOLUTE.search(text)))

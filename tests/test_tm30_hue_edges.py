@@ -192,3 +192,34 @@ def test_reference_hue_is_atan2_in_degrees_modulo_360():
     assert np.array_equal(got, want, equal_nan=True)
     assert np.array_equal(np.signbit(got), np.signbit(want))
     assert ((got[np.isfinite(got)] >= 0.0) & (got[np.isfinite(got)] < 360.0)).all()
+
+
+def test_bin_positions_equal_those_of_the_reference_hue():
+    """The engine's bins and knife-edge positions (tm30._bin_positions: arctan of b′/a′, and
+    arctan2 near the edges) equal those computed from tm30.reference_hue (numpy's arctan2, the
+    form colour-science uses: h = atan2(b′, a′) in degrees, modulo 360°) on generated J′a′b′
+    with a third of the hues on, just inside or just outside the edges and the knife-edge band
+    (±1e-12°, ±1e-7°, ±0.01°, 0.0100001°), chroma from 1e-8 to 100, and a′ or b′ zero or −0."""
+    rng = np.random.default_rng(5)
+    m = 200
+    for _ in range(20):
+        r = 10 ** rng.uniform(-8, 2, (m, 99))
+        ang = rng.uniform(0, 2 * np.pi, (m, 99))
+        k, sel = rng.integers(0, 16, (m, 99)), rng.random((m, 99)) < 0.3
+        offs = rng.choice([0.0, 1e-12, -1e-12, 0.01, -0.01, 0.0100001, -0.0100001, 1e-7, -1e-7], sel.sum())
+        ang[sel] = np.deg2rad(k[sel] * 22.5 + offs)
+        jr = np.stack([rng.uniform(0, 100, (m, 99)), r * np.cos(ang), r * np.sin(ang)], -1)
+        jr[..., 1][rng.random((m, 99)) < 0.02] = 0.0
+        jr[..., 2][rng.random((m, 99)) < 0.02] = 0.0
+        neg = rng.random((m, 99)) < 0.02
+        jr[..., 2][neg] = -0.0
+        jr[..., 1][neg & (rng.random((m, 99)) < 0.5)] = -0.0
+        hq = T.reference_hue(jr) / T.BIN_WIDTH_DEG
+        fl = np.floor(hq)
+        pos = (hq - fl) * T.BIN_WIDTH_DEG
+        got_fl, got_pos = T._bin_positions(jr)
+        np.testing.assert_array_equal(got_fl, fl)
+        assert T._edge_pairs(got_pos, got_fl, m) == T._edge_pairs(pos, fl, m)
+        tol = T.HUE_EDGE_TOLERANCE_DEG
+        near = (pos <= tol) | (pos >= T.BIN_WIDTH_DEG - tol)  # positions that make knife edges: the same bits
+        np.testing.assert_array_equal(got_pos[near], pos[near])

@@ -265,7 +265,7 @@ def _concat(parts: list[Any]) -> Any:
 #: Per-sample detail arrays (CAM02-UCS coordinates of the 99 CES, U*V*W* of the 14 TCS...)
 #: that reports of single spectra use, but a large lot does not need: ``evaluate(...,
 #: keep_details=False)`` replaces them by empty (N, 0) arrays to bound memory.
-_DETAIL_FIELDS = ("Jab_test", "Jab_ref", "delta_E_ces", "hue_bin", "UVW_test", "UVW_reference", "delta_E")
+_DETAIL_FIELDS = ("Jab_test", "Jab_ref", "delta_E_ces", "Rf_ces", "hue_bin", "UVW_test", "UVW_reference", "delta_E")
 
 
 def _strip_details(result: Any) -> Any:
@@ -294,7 +294,7 @@ class _Chunk:
     cie2017_Rf: np.ndarray
 
 
-def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
+def _evaluate_chunk(wl: np.ndarray, values: np.ndarray, details: bool = True) -> _Chunk:
     from .metrics.colorimetry import (
         cct_duv_ohno,
         tristimulus,
@@ -320,7 +320,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray) -> _Chunk:
     # TM-30 and CIE 224 (lumeval.metrics.reference_table; within 1e-7 of the direct computation)
     side = reference_side(wl, ref_T)
     cri = cie133_cri(wl, values, ref_T, reference=side.cri)
-    fid = tm30(wl, values, ref_T, reference=side.tm30_jab)
+    fid = tm30(wl, values, ref_T, reference=side.tm30_jab, per_ces=details)
     rf2017 = cie2017_rf(wl, values, ref_T, tm30_result=fid, reference=side.cie224_jab)
     phot = photometry(wl, values)
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)
@@ -409,8 +409,9 @@ def evaluate(spectra: SpectrumSet | Sequence[SpectrumSet] | PreparedSpectra, *, 
     chunk_size : int
         Spectra evaluated together; bounds peak memory for large lots.
     keep_details : bool
-        Keep per-sample detail arrays (CES/TCS coordinates) for reports; pass False for large
-        lots, where they would dominate memory (about 7 kB per spectrum).
+        Keep per-sample detail arrays (CES/TCS coordinates, ΔE of each sample, Rf,CESi) for
+        reports; pass False for large lots, where they would dominate memory (about 8 kB per
+        spectrum): they are then empty (N, 0) arrays, and Rf,CESi is not computed.
     progress : callable, optional
         A progress listener (:mod:`lumeval.progress`): ``progress("evaluating", done, total)``
         after each chunk.
@@ -443,7 +444,7 @@ def _evaluate(spectra: Any, chunk_size: int, keep_details: bool,
                 # C order: the BLAS products' summation order follows the memory layout (a
                 # column slice of a wide file's transposed block gave figures differing from a
                 # C-ordered copy's by up to 2.5e-9 K in CCT): the same bits whatever the layout
-                part = _evaluate_chunk(wl, np.ascontiguousarray(group.values[start : start + chunk_size]))
+                part = _evaluate_chunk(wl, np.ascontiguousarray(group.values[start : start + chunk_size]), keep_details)
             if not keep_details:
                 part = dataclasses.replace(part, cri=_strip_details(part.cri), tm30=_strip_details(part.tm30))
             parts.append(part)

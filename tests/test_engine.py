@@ -184,3 +184,17 @@ def test_dc_warning_is_the_same_alone_and_beside_other_warnings():
     assert w[1] == (text.format("0.0061"), "photometry: no light.")
     assert w[2] == ()
     assert w[3] == ()  # no DC (NaN): nothing said about it
+
+
+def test_per_ces_fidelity_only_with_details(cie_sources, ev):
+    """Rf,CESi (the special fidelity index of each CES, CIE 224:2017) is computed when the
+    details are kept, and then equals 10·ln(exp((100 − 6.73·ΔE′_i)/10) + 1) of the kept ΔE′_i
+    (CIE 224:2017's scaling, c = 6.73); without details it is an empty (N, 0) array like the
+    other per-CES arrays, and the general Rf is the same."""
+    full = evaluate(cie_sources)
+    lean = evaluate(cie_sources, keep_details=False)
+    de = full.tm30.delta_E_ces
+    assert full.tm30.Rf_ces.shape == de.shape == (len(cie_sources), 99)
+    np.testing.assert_allclose(full.tm30.Rf_ces, 10.0 * np.log(np.exp((100.0 - 6.73 * de) / 10.0) + 1.0), rtol=1e-12)
+    assert lean.tm30.Rf_ces.shape == (len(cie_sources), 0)
+    np.testing.assert_allclose(lean.tm30.Rf, full.tm30.Rf, rtol=1e-12)

@@ -536,7 +536,7 @@ def reference_jab(wavelengths_nm: ArrayLike, reference_values: ArrayLike) -> np.
 
 def _tm30_core(
     wl: np.ndarray, S_t: np.ndarray, jab_ref: np.ndarray, step: float, cct_K: ArrayLike | None, reference_kind: Any,
-    daylight_fraction: Any, blend_observer: str,
+    daylight_fraction: Any, blend_observer: str, per_ces: bool = True,
 ) -> TM30Result:
     """TM-30-18 figures of test spectra ``S_t`` (N, W) on the cropped grid ``wl`` against the
     reference side ``jab_ref`` (N, 99, 3): the CES's J′a′b′ under each spectrum's reference
@@ -600,7 +600,7 @@ def _tm30_core(
         Rhs_h = place((-da * sin + db * cos) / rr)
         Rg = place(100.0 * _polygon_area(at) / _polygon_area(ar))
     Rf = place(_Rf_scale(de.mean(axis=1)))
-    Rf_ces = place(_Rf_scale(de))
+    Rf_ces = place(_Rf_scale(de)) if per_ces else np.empty((n, 0))
     dE = place(de)
     Rf_h = place(_Rf_scale(de_bin))
     avg_t, avg_r = place(at), place(ar)
@@ -629,7 +629,7 @@ def _placed(per_row: tuple[Any, ...], idx: np.ndarray, n: int) -> tuple[Any, ...
 
 def tm30(
     wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = BLEND_OBSERVER_DEFAULT,
-    reference: np.ndarray | None = None,
+    reference: np.ndarray | None = None, per_ces: bool = True,
 ) -> TM30Result:
     """CIE 224:2017 Rf and ANSI/IES TM-30-18/-20 Rf, Rg and hue-bin figures, vectorised.
 
@@ -651,6 +651,9 @@ def tm30(
         The reference side already computed: the CES's CAM02-UCS J′a′b′ under each spectrum's
         reference at ``cct_K`` (the engine passes the tabulated one,
         :func:`lumeval.metrics.reference_table.reference_side`); computed directly when None.
+    per_ces : bool
+        Compute Rf,CESi (``Rf_ces``); when False it is an empty (N, 0) array (a lot that keeps
+        no per-CES values saves its 99 logarithms and exponentials a spectrum).
 
     Returns
     -------
@@ -686,7 +689,7 @@ def tm30(
         if jab_r.shape != (n, 99, 3):
             raise InputError(f"reference side of shape {jab_r.shape} for {n} spectra",
                              fix="pass the CES J'a'b' under each spectrum's reference, shape (N, 99, 3)")
-    return _tm30_core(wl_c, S_t, jab_r, step, cct, kinds, frac, blend_observer)
+    return _tm30_core(wl_c, S_t, jab_r, step, cct, kinds, frac, blend_observer, per_ces)
 
 
 def cie2017_rf(

@@ -387,10 +387,11 @@ def reference_hue(Jab_ref: np.ndarray) -> np.ndarray:
 _HUE_EXACT_MARGIN_DEG = 1e-6
 
 
-def _bin_positions(Jab_ref: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """(floor(h / 22.5°), h − 22.5°·floor(h / 22.5°)) of the reference hue h of each CES, the
-    hue bin (0-based, before clipping) and the position within it in degrees, as computed from
-    :func:`reference_hue`, bit for bit.
+def _bin_positions(Jab_ref: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(floor(h / 22.5°), h − 22.5°·floor(h / 22.5°), near) of the reference hue h of each CES:
+    the hue bin (0-based, before clipping) and the position within it in degrees, as computed
+    from :func:`reference_hue`, bit for bit, and where h is near an edge (every knife edge is
+    among these).
 
     numpy's arctan2 is not vectorised (25 ns a value on the project machine, its arctan 9 ns):
     h is taken as arctan(b′/a′) in degrees, plus 180° where a′ < 0 and 360° where it is still
@@ -416,7 +417,7 @@ def _bin_positions(Jab_ref: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         hq -= f
         hq *= BIN_WIDTH_DEG
         fl[near], h[near] = f, hq
-    return fl, h
+    return fl, h, near
 
 
 def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:
@@ -461,20 +462,34 @@ def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLER
     return tuple(out)
 
 
-def _edge_pairs(r: np.ndarray, own: np.ndarray, m: int, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[Any, ...]:
+def _edge_pairs(r: np.ndarray, own: np.ndarray, m: int, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG,
+                candidates: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[Any, ...]:
     """:func:`hue_edge_pairs` from the position within the bin ``r`` (degrees above the bin's
-    lower edge) and ``own`` = floor(h / 22.5°) of each (spectrum, CES), shape (m, 99)."""
-    near_low = r <= tolerance_deg
-    rows, cols = np.nonzero(near_low | (r >= BIN_WIDTH_DEG - tolerance_deg))
+    lower edge) and ``own`` = floor(h / 22.5°) of each (spectrum, CES), shape (m, 99).
+
+    ``candidates``: (rows, columns) in row-major order (``np.nonzero``'s) of the only
+    (spectrum, CES) that can lie on an edge (all when None)."""
+    if candidates is None:
+        rows, cols = np.nonzero((r <= tolerance_deg) | (r >= BIN_WIDTH_DEG - tolerance_deg))
+    else:
+        rows, cols = candidates
+        rc = r[rows, cols]
+        keep = (rc <= tolerance_deg) | (rc >= BIN_WIDTH_DEG - tolerance_deg)
+        rows, cols = rows[keep], cols[keep]
     out: list[tuple[tuple[int, int], ...]] = [()] * m
-    for i in np.unique(rows).tolist():
-        pairs: list[tuple[int, int]] = []
-        for k in cols[rows == i].tolist():
-            b0 = int(own[i, k]) % N_BINS
-            b1 = (b0 - 1) % N_BINS if near_low[i, k] else (b0 + 1) % N_BINS
-            a, b = sorted((b0 + 1, b1 + 1))
-            pairs += [(a, k + 1), (b, k + 1)]
-        out[i] = tuple(sorted(pairs, key=lambda t: (t[1], t[0])))
+    if not rows.size:
+        return tuple(out)
+    b0 = own[rows, cols].astype(np.int64) % N_BINS
+    b1 = np.where(r[rows, cols] <= tolerance_deg, b0 - 1, b0 + 1) % N_BINS  # just above an edge: the bin below
+    lo = (np.minimum(b0, b1) + 1).tolist()
+    hi = (np.maximum(b0, b1) + 1).tolist()
+    ces = (cols + 1).tolist()
+    # each row's CES in increasing order (row-major): pairs ordered by CES, then bin
+    cuts = [*(np.flatnonzero(rows[1:] != rows[:-1]) + 1).tolist(), len(ces)]
+    start = 0
+    for stop in cuts:
+        out[int(rows[start])] = tuple(p for j in range(start, stop) for p in ((lo[j], ces[j]), (hi[j], ces[j])))
+        start = stop
     return tuple(out)
 
 
@@ -577,9 +592,9 @@ def _tm30_core(
     jt = _jab(wl, S_ok, R, cmf10, kernel, with_hue=False)[0] if m else np.empty((0, 99, 3))
     d = jt - jr
     de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
-    fl, hq = _bin_positions(jr)
+    fl, hq, near = _bin_positions(jr)
     bins = np.clip(fl.astype(int), 0, N_BINS - 1)
-    edges = _edge_pairs(hq, fl, m)  # knife edges (see hue_edge_pairs)
+    edges = _edge_pairs(hq, fl, m, candidates=np.nonzero(near))  # knife edges (see hue_edge_pairs)
     # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
     flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
 

@@ -287,3 +287,27 @@ def test_rowwise_product_equals_the_matrix_product():
             got = mm(a, b)
         np.testing.assert_allclose(got, a @ b, rtol=1e-13, atol=1e-13)
         np.testing.assert_array_equal(mm(a, b), a @ b)  # outside the block: a @ b itself
+
+
+@pytest.mark.parametrize("b_shape", [(401, 297), (401, 3), (401,), (81, 42)])
+def test_rowwise_rows_are_the_same_bits_in_any_block(b_shape, monkeypatch):
+    """Within rowwise_products a row's product has the same bits whether computed alone, in full
+    blocks of lumeval.metrics._rowwise.ROW_BLOCK rows at any position, or in the padded last
+    block; and within 1e-13 of numpy's matmul (an independent implementation). The same holds
+    where the one-per-row fallback is taken (a library whose block positions differ)."""
+    from lumeval.metrics import _rowwise
+    from lumeval.metrics._rowwise import mm, rowwise_products
+
+    rng = np.random.default_rng(11)
+    a = rng.normal(size=(37, b_shape[0]))
+    b = rng.normal(size=b_shape)
+    for fallback in (False, True):
+        if fallback:
+            monkeypatch.setattr(_rowwise, "_blocks_agree", lambda b: False)
+        with rowwise_products():
+            together = mm(a, b)
+            alone = np.stack([mm(a[i : i + 1], b)[0] for i in range(37)])
+            shifted = mm(a[5:], b)
+        np.testing.assert_array_equal(together, alone)
+        np.testing.assert_array_equal(together[5:], shifted)
+        np.testing.assert_allclose(together, a @ b, rtol=1e-13, atol=1e-13)

@@ -10,8 +10,15 @@ process needed at that moment would depend on what that process had evaluated be
 
 Within :func:`rowwise_products`, :func:`mm` computes ``a @ b`` so that each row of the result
 depends on its own row of ``a`` only: an inner dimension of at most :data:`SMALL` by explicit
-products and sums, term by term (vectorised), a larger one by one BLAS call per row. Outside
-it, :func:`mm` is ``a @ b``.
+products and sums, term by term (vectorised), a larger one by BLAS products of a fixed number
+of rows (:data:`ROW_BLOCK`, the last block padded with zero rows). A product's rows never
+depend on the *values* of its other rows, only on how the library's code treats each row
+position; so a row's bits are the same in every block where every position is computed alike.
+That is checked once a process for each shape of ``b`` (:func:`_blocks_agree`: a block of
+random rows against the same rows rotated to other positions, and a row alone with zero rows
+under it); where it does not hold, each row is one BLAS call of its own (twice the time for the
+tables' 401 × 297 products, ten times for matrix-vector ones). Outside the block, :func:`mm`
+is ``a @ b``.
 """
 
 from __future__ import annotations
@@ -26,7 +33,12 @@ import numpy as np
 #: Largest inner dimension summed term by term (the 3 × 3 and 3 × 5 products of CIECAM02).
 SMALL = 8
 
+#: Rows of every BLAS product within :func:`rowwise_products` (an inner dimension above SMALL).
+ROW_BLOCK = 16
+
 _ROWWISE: ContextVar[bool] = ContextVar("lumeval_rowwise_products", default=False)
+#: (shape, strides, dtype) of ``b`` -> whether a row's bits are those of any position (see there).
+_AGREE: dict[tuple, bool] = {}
 
 
 @contextmanager
@@ -57,8 +69,37 @@ def mm(a: np.ndarray, b: np.ndarray) -> np.ndarray:
             for j in range(1, k):
                 out = out + a[..., j, None] * b[j]
         return cast("np.ndarray", out)
-    rows = a.reshape(-1, k)
-    out = np.empty((rows.shape[0],) + b.shape[1:])
-    for i in range(rows.shape[0]):
-        out[i] = rows[i] @ b
+    rows = np.ascontiguousarray(a.reshape(-1, k))
+    m = rows.shape[0]
+    out = np.empty((m,) + b.shape[1:])
+    if _blocks_agree(b):
+        full = m - m % ROW_BLOCK
+        for s in range(0, full, ROW_BLOCK):
+            out[s : s + ROW_BLOCK] = rows[s : s + ROW_BLOCK] @ b
+        if full < m:
+            pad = np.zeros((ROW_BLOCK, k))
+            pad[: m - full] = rows[full:]
+            out[full:] = (pad @ b)[: m - full]
+    else:
+        for i in range(m):
+            out[i] = rows[i] @ b
     return out.reshape(a.shape[:-1] + b.shape[1:])
+
+
+def _blocks_agree(b: np.ndarray) -> bool:
+    """Whether ``x @ b`` for ``x`` of :data:`ROW_BLOCK` rows gives each row the same bits at
+    every position of the block (once a process for each shape, strides and type of ``b``: the
+    library's code path depends on those, not on the values): a block of random rows against
+    the same block rotated by several offsets, and a row alone with zero rows under it against
+    the same row within the block."""
+    key = (b.shape, b.strides, b.dtype.str)
+    ok = _AGREE.get(key)
+    if ok is None:
+        x = np.random.default_rng(20261205).normal(size=(ROW_BLOCK, b.shape[0]))
+        y = x @ b
+        ok = all(np.array_equal(np.roll(x, r, axis=0) @ b, np.roll(y, r, axis=0)) for r in (1, 2, 3, 5, 8, 13))
+        alone = np.zeros_like(x)
+        alone[0] = x[ROW_BLOCK - 1]
+        ok = ok and bool(np.array_equal((alone @ b)[0], y[ROW_BLOCK - 1]))
+        _AGREE[key] = ok
+    return ok

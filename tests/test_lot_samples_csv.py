@@ -168,3 +168,27 @@ def test_a_killed_csv_worker_stops_the_writing_with_a_clear_error(tmp_path, monk
     with pytest.raises(WorkerError):
         samples_csv(run, io.StringIO(), processes=2)
     assert lot_report._FORKED_RUN is None
+
+
+@pytest.mark.parametrize("first", [False, True])
+def test_text_cells_of_a_block_equal_each_cell_made_alone(first):
+    """The per-sample CSV's name and source cells made a block at a time
+    (lumeval.render.lot_report._text_cells) equal each cell made alone by the CSV-injection
+    guard (safe.csv_first_cell / csv_text, then quoted as the csv module quotes): for plain
+    blocks (returned as they are) and blocks with one text that needs escaping or quoting."""
+    import csv
+    import io
+
+    from lumeval.render.lot_report import _quoted, _text_cells
+    from lumeval.render.safe import csv_first_cell, csv_text
+
+    cell = csv_first_cell if first else csv_text
+    plain = ["L000001", "lamp 2 (warm)", "a.csv#L3", "x'y", "µ-LED 4"]
+    odd = ["=1+1", "+x", "-0.5", "@a", "#note", "a,b", 'say "hi"', "tab\there", "line\nbreak", "nul\x00", "\u202eevil", ""]
+    for extra in [None, *odd]:
+        values = plain if extra is None else [*plain[:2], extra, *plain[2:]]
+        got = _text_cells(values, first=first)
+        assert got == [_quoted(cell(v)) for v in values], extra
+        # and read back by the csv module as the guarded texts
+        row = next(csv.reader(io.StringIO(",".join(got))))
+        assert row == [cell(v) for v in values]

@@ -36,11 +36,12 @@ import csv
 import io
 import json
 import math
+from operator import methodcaller
 from typing import Any
 
 import numpy as np
 
-from .safe import clean, csv_first_cell, csv_text
+from .safe import FORMULA_START, clean, csv_first_cell, csv_text
 from .safe import text as _text
 from .tables import CAUTIONS, csv_notes
 
@@ -366,6 +367,21 @@ def lot_check_notes(run) -> tuple[str, ...]:
     return tuple(dict.fromkeys([*map(str, getattr(check, "notes", ()) or ()), *map(str, unc.get("notes") or ())]))
 
 
+def _text_cells(values, first: bool = False) -> list[str]:
+    """``_quoted(csv_text(v))`` of each text (``csv_first_cell`` when ``first``), with the
+    texts returned as they are when none needs anything: all printable, none starting a
+    formula (or ``#`` for a first cell), no comma or quote anywhere (checked on all of them at
+    once: sample names and sources are usually plain)."""
+    values = [v if isinstance(v, str) else ("" if v is None else str(v)) for v in values]
+    joined = "".join(values)
+    starts = FORMULA_START + ("#",) if first else FORMULA_START
+    if joined.isprintable() and "," not in joined and '"' not in joined and not any(
+            map(methodcaller("startswith", starts), values)):
+        return values
+    cell = csv_first_cell if first else csv_text
+    return [_quoted(cell(v)) for v in values]
+
+
 def _block_text(run, i: int, j: int) -> str:
     """The CSV rows of samples ``i:j`` (each ending with a line break)."""
     t = csv_text
@@ -397,12 +413,13 @@ def _block_text(run, i: int, j: int) -> str:
             cell = cells[key] = _quoted(t(" | ".join(key)))
         return cell
 
+    name_cells, source_cells = _text_cells(names, first=True), _text_cells(sources)
     reasons = [joined(r) for r in st.outlier_reasons[i:j]]
     warns = [joined(w) for w in run.warnings[i:j]]
     lines = []
     for k in range(j - i):
         s = i + k
-        row = [_quoted(csv_first_cell(names[k])), _quoted(t(sources[k]))]
+        row = [name_cells[k], source_cells[k]]
         row += [m[k] for m in meta]
         row += [verdicts[s] if verdicts is not None else "", "yes" if outlier[k] else "no",
                 reasons[k], stats_txt[k], figs_txt[k]]

@@ -372,3 +372,30 @@ def test_html_statistics_table_has_the_count_column(lot_dir, tmp_path, capsys):
     code, _, err = run_cli_in_process(["lot", str(lot_dir), "--quiet", "--html", str(html)], capsys)
     assert code == 0, err
     assert "<th" in (text := html.read_text(encoding="utf-8")) and ">not valid<" in text
+
+
+def test_yield_says_how_many_failing_samples_are_not_valid(lot_dir, tmp_path, capsys, monkeypatch):
+    """A per-sample Ra clause: the far sample (|Duv| > 0.05, shown beyond 0.05 by an independent
+    library above) is judged not valid, which the yield counts as failing (docs/criteria.md); the
+    terminal yield line, the JSON yield and the HTML report say how many of the failing samples
+    are not valid."""
+    import jsonschema
+
+    from lumeval import schemas
+
+    from .conftest import run_cli_in_process
+
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nfigure = "Ra"\nmin = 1\n', encoding="utf-8")
+    out, html = tmp_path / "lot.json", tmp_path / "lot.html"
+    monkeypatch.setenv("COLUMNS", "200")
+    code, text, err = run_cli_in_process(["lot", str(lot_dir), "--criteria", str(crit), "--json", str(out),
+                                          "--html", str(html), "--quiet"], capsys)
+    assert code == 1, text + err
+    assert ("Yield: 8 of 9 samples pass every per-sample requirement (88.9 %); 1 fail (of which 1 not valid: a judged "
+            "figure computed outside its validity range), 0 not judged, 0 indeterminate.") in " ".join(text.split())
+    doc = json.loads(out.read_text(encoding="utf-8"))
+    assert not list(jsonschema.Draft202012Validator(schemas.schema("lot")).iter_errors(doc))
+    y = doc["verdict"]["yield"]
+    assert (y["total"], y["passed"], y["failed"], y["not_valid"]) == (9, 8, 1, 1)
+    assert "1 failed (of which 1 not valid" in html.read_text(encoding="utf-8")

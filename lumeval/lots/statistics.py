@@ -132,7 +132,7 @@ class LotYield:
     """Yield of a lot against a criteria file.
 
     ``percent = 100 · passed / total``; ``not_judged`` and ``indeterminate`` count as not
-    passing.
+    passing; ``failed`` includes the ``not_valid`` samples (a figure judged outside its validity range).
     """
 
     total: int
@@ -141,6 +141,7 @@ class LotYield:
     not_judged: int
     indeterminate: int
     percent: float
+    not_valid: int = 0
 
 
 @dataclass(frozen=True)
@@ -598,7 +599,7 @@ def lot_yield(verdicts: Sequence[str]) -> LotYield:
     nj = sum(1 for o in v if o == "not judged")
     ind = sum(1 for o in v if o == "indeterminate")
     pct = 100.0 * passed / total if total else float("nan")
-    return LotYield(total, passed, failed, nj, ind, pct)
+    return LotYield(total, passed, failed, nj, ind, pct, sum(1 for o in v if o == "not valid"))
 
 
 def nearest_standard_ellipse(centre_upvp):

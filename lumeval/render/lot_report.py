@@ -202,6 +202,7 @@ def lot_document(run) -> dict:
                 "failed": y.failed,
                 "not_judged": y.not_judged,
                 "indeterminate": y.indeterminate,
+                "not_valid": y.not_valid,
                 "percent": _num(y.percent),
             },
         },
@@ -504,6 +505,12 @@ def _lot_head(run) -> list:
     return out
 
 
+def _not_valid_part(y) -> str:
+    """How many of a yield's failed samples are not valid (counted as failing), or nothing."""
+    nv = getattr(y, "not_valid", 0)
+    return f" (of which {nv} not valid: a judged figure computed outside its validity range)" if nv else ""
+
+
 def _lot_requirements(run) -> list:
     """Each requirement with its result over the lot, the yield and the decision rule."""
     from rich import box
@@ -552,7 +559,7 @@ def _lot_requirements(run) -> list:
             out.append(
                 Text(
                     f"Yield: {y.passed} of {y.total} samples pass every per-sample requirement ({_fmt(y.percent, '.1f')} %); "
-                    f"{y.failed} fail, {y.not_judged} not judged, {y.indeterminate} indeterminate."
+                    f"{y.failed} fail{_not_valid_part(y)}, {y.not_judged} not judged, {y.indeterminate} indeterminate."
                 )
             )
         if run.check is not None and not run.has_yield_clause:

@@ -180,3 +180,20 @@ def test_html_report_shows_u_p_and_rule(tmp_path, capsys):
     assert code == 1
     text = html.read_text(encoding="utf-8")
     assert "guarded acceptance" in text and "p_c" in text and "± " in text and "INDETERMINATE" in text
+
+
+def test_lot_under_a_guarded_rule_says_its_margins_are_to_the_limit(tmp_path, capsys, monkeypatch):
+    """Under guarded acceptance (ISO 14253-1 / JCGM 106 §8.3.2) a sample with a positive margin
+    can fail to pass (candidate A: Ra ≈ 91.61 against 91.55 is indeterminate): the lot's
+    requirement line gives the worst margin "to the limit", and the rule's note says the guard
+    band is not subtracted; under simple acceptance neither is said."""
+    monkeypatch.setenv("COLUMNS", "200")
+    inst = write(tmp_path, "i.toml", INST)
+    for rule, said in (("guarded-acceptance", True), ("simple", False)):
+        crit = write(tmp_path, f"{rule}.toml", CRIT.format(rule=rule, ra_min=91.55))
+        code, out, err = run(["lot", A, B, "--criteria", crit, "--instrument", inst, "--draws", "100", "--quiet"], capsys)
+        text = " ".join(out.split())
+        assert code == 1, out + err
+        line = next(t for t in out.splitlines() if "worst margin" in t and "Ra" in t)
+        assert ("to the limit" in line) is said, line
+        assert ("the guard band w is not subtracted: a pass needs a margin of at least w" in text) is said

@@ -521,6 +521,9 @@ def _lot_requirements(run) -> list:
 
     st = run.stats
     out: list[Any] = []
+    unc = getattr(run.check, "uncertainty", None) if run.check is not None else None
+    # under a guarded rule a margin is to the limit: a sample may fail with a positive one
+    guarded = str((unc or {}).get("decision_rule") or "").startswith("guarded")
     if run.check is not None or run.lot_results:
         t = Table(title="Requirements", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False)
         t.add_column("requirement", ratio=1)
@@ -541,7 +544,8 @@ def _lot_requirements(run) -> list:
                 if nj:
                     res += f", {nj} not judged"
                 unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
-                res += f" (worst margin {_fmt(worst, '.4g')}{unit}" + (" of the samples judged)" if nv or nj else ")")
+                res += (f" (worst margin {_fmt(worst, '.4g')}{unit}" + (" to the limit" if guarded else "")
+                        + (" of the samples judged)" if nv or nj else ")"))
                 t.add_row(_text(r.label), _result_text(res, fails == 0 and nj == 0 and ni == 0 and nv == 0))
         for r in run.lot_results:
             unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
@@ -564,13 +568,15 @@ def _lot_requirements(run) -> list:
             )
         if run.check is not None and not run.has_yield_clause:
             out.append(Text("No lot_yield clause: every sample must pass for the lot to pass.", style="dim"))
-        unc = getattr(run.check, "uncertainty", None) if run.check is not None else None
         if unc:
+            from .verdicts import margin_meaning
+
             mc = unc.get("monte_carlo", {})
+            meaning = margin_meaning(unc.get("decision_rule"))
             out.append(_text(
                 f"{unc.get('rule_text', '')} Per-sample clauses judged with {mc.get('draws', '?')} Monte Carlo draws per "
                 f"sample (JCGM 101:2008, seed {mc.get('seed', '?')}), instrument model: {unc.get('instrument', {}).get('source', '')}; "
-                "lot clauses use the measured values.", style="dim"))
+                f"lot clauses use the measured values. {meaning[0].upper()}{meaning[1:]}", style="dim"))
             for n in unc.get("notes") or ():  # e.g. fewer than 2000 draws per sample
                 out.append(_text(f"note: {n}", style="dim"))
     return out

@@ -248,7 +248,32 @@ def _load_criteria(path, command: str):
 
     crit = load_criteria(path)
     crit.require_clauses_for(command, ("sample", "range"))
+    _refuse_uncertainty_tables(crit, path, command)
     return crit
+
+
+def _refuse_uncertainty_tables(crit, path, command: str) -> None:
+    """A criteria file asking for a judgement under measurement uncertainty (an ``[instrument]``
+    or ``[monte_carlo]`` table, a guarded ``[decision]`` rule), refused naming the table's line:
+    mix and series judge the computed values (simple acceptance), and ignored the tables
+    silently (found by a review)."""
+    unc = crit.uncertainty or {}
+    asks = [t for t in ("instrument", "monte_carlo") if unc.get(t) is not None]
+    if getattr(unc.get("decision"), "guarded", False):
+        asks.append("decision")
+    if not asks:
+        return
+    from .._toml import read_text
+    from ..criteria.loader import locate_lines
+
+    lines = locate_lines(read_text(path, what="criteria", option="--criteria"))
+    found = [lines[(t,)] for t in asks if (t,) in lines]
+    tables = " and ".join(f"[{t}]" for t in asks)
+    raise InputError(f"its {tables} table{'s' if len(asks) > 1 else ''} ask{'' if len(asks) > 1 else 's'} for a judgement "
+                     f"under measurement uncertainty, which `lumeval {command}` does not make (it judges the computed "
+                     "values: simple acceptance)", file=str(path), line=min(found) if found else None,
+                     fix=f"judge under uncertainty with `lumeval check` or `lumeval lot`, or give `lumeval {command}` "
+                     "a criteria file without those tables")
 
 
 def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -> tuple[float, str, str]:

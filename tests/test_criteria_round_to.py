@@ -437,3 +437,53 @@ def test_a_lot_clause_refusal_does_not_list_over(tmp_path, capsys):
     crit = write(tmp_path, "c.toml", '[[clause]]\nkind = "lot_yield"\nmin_percent = 90\nround_to = 0\n')
     code, _, err = run(["check", DOWNLIGHT, "--criteria", crit], capsys)
     assert_clean_error(code, err, "c.toml:4", "a 'lot_yield' clause takes kind, id, label, note, min_percent —")
+
+
+def _two(lo: str, hi: str) -> str:
+    return (f'lumeval_criteria = 1\n[[clause]]\nid = "lo"\nfigure = "Ra"\n{lo}\n'
+            f'[[clause]]\nid = "hi"\nfigure = "Ra"\n{hi}\n')
+
+
+@pytest.mark.parametrize("lo,hi,contradict", [
+    # unrounded: as before, a lower limit above the upper one contradicts it
+    ("min = 80", "max = 79.6", True),
+    ("min = 80", "max = 80", False),
+    # rounded to whole units (ASTM E29 rounding method): min = 80 admits 79.5 (a tie rounds to
+    # even: 79.5 -> 80) and up, so max = 79.6 leaves [79.5, 79.6]; max = 79.4 leaves nothing
+    ("min = 80\nround_to = 0", "max = 79.6", False),
+    ("min = 80\nround_to = 0", "max = 79.4", True),
+    # both rounded: min 80 admits 79.5 and up, max 79 admits up to 79.5; at 79.5 itself (a tie)
+    # the value rounds to 80 (even), over max 79: no value meets both
+    ("min = 80\nround_to = 0", "max = 79\nround_to = 0", True),
+    # min 81 admits 80.5 and up, max 80 up to 80.5, where the tie rounds to 80 (even): under 81
+    ("min = 81\nround_to = 0", "max = 80\nround_to = 0", True),
+    # the admitted values touch at a tie that meets both: 79.5 rounds to 80, and is <= 79.5
+    ("min = 80\nround_to = 0", "max = 79.5", False),
+    ("min = 80.5", "max = 80\nround_to = 0", False),
+    ("min = 80.6", "max = 80\nround_to = 0", True),
+])
+def test_contradiction_check_compares_what_rounded_clauses_admit(lo, hi, contradict):
+    """Two clauses on one figure contradict each other when no value meets both as each clause
+    compares it: a clause with round_to compares the value rounded (ties to even, checked here
+    against Python's decimal module), so it admits values up to half a step beyond its limit. A
+    review found the check compared the limits only, refusing a file that rounding makes
+    satisfiable."""
+    from lumeval.criteria import parse_criteria
+    from lumeval.errors import CriteriaError
+
+    text = _two(lo, hi)
+    # the expected answer by brute force over a fine grid of values, rounding with decimal
+    def rounded(x: float, spec: str) -> float:
+        if "round_to" not in spec:
+            return x
+        return float(Decimal(x).quantize(Decimal(1), rounding=ROUND_HALF_EVEN))
+
+    lo_v, hi_v = float(lo.split("=")[1].split()[0]), float(hi.split("=")[1].split()[0])
+    grid = np.round(np.arange(7800, 8200) * 0.01, 2)
+    both = [x for x in grid.tolist() if rounded(x, lo) >= lo_v and rounded(x, hi) <= hi_v]
+    assert (not both) is contradict, both
+    if contradict:
+        with pytest.raises(CriteriaError, match="contradict each other"):
+            parse_criteria(text, "c.toml")
+    else:
+        parse_criteria(text, "c.toml")

@@ -260,11 +260,15 @@ def _contradictions(clauses, file: str) -> tuple[str, ...]:
         for lo_c, lo_over in (x for x in cs if x[0].lower is not None):
             for hi_c, hi_over in (x for x in cs if x[0].upper is not None):
                 a, b = max(lo_over[0], hi_over[0]), min(lo_over[1], hi_over[1])  # the settings both apply at
-                if a <= b and lo_c.lower > hi_c.upper:
+                # a rounded clause admits values half a rounding step beyond its limit (79.6 meets
+                # min = 80 with round_to = 0): compared as the unrounded values each admits
+                if a <= b and rounding.disjoint(lo_c, hi_c):
                     first, second = sorted((lo_c, hi_c), key=lambda c: c.line or 0)
+                    lo_r, hi_r = (f", rounded to {rounding.places_words(c.round_to)}" if getattr(c, "round_to", None) is not None
+                                  else "" for c in (lo_c, hi_c))
                     raise CriteriaError(
-                        f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}) and {hi_c.clause_id!r} ({fig} ≤ "
-                        f"{hi_c.upper:g}) contradict each other: no value meets both"
+                        f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}{lo_r}) and {hi_c.clause_id!r} ({fig} ≤ "
+                        f"{hi_c.upper:g}{hi_r}) contradict each other: no value meets both"
                         + ("" if math.isinf(a) and math.isinf(b) else f" at the settings {a:g}-{b:g}")
                         + (f" (lines {first.line} and {second.line})" if first.line and second.line else ""),
                         file=file, line=second.line, fix="correct or remove one of them")

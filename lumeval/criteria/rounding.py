@@ -216,6 +216,37 @@ def refuse_empty(clauses, file: str) -> None:
                 fix="widen the range to include a rounded value, or round to more decimal places")
 
 
+def admitted(f, side: str) -> float:
+    """The farthest unrounded value that figure clause ``f`` admits on ``side`` ("lower" or
+    "upper"): its limit, or with ``round_to`` the limit as it acts (:func:`_acts_as`) widened by
+    half a rounding step (79.5 is the lowest value ``min = 80, round_to = 0`` admits; the tie
+    itself rounds to even)."""
+    limit = f.lower if side == "lower" else f.upper
+    if getattr(f, "round_to", None) is None:
+        return float(limit)
+    acts = _acts_as(limit, f.round_to, ROUND_CEILING if side == "lower" else ROUND_FLOOR)
+    half = _quantum(f.round_to) / 2
+    return float(acts - half if side == "lower" else acts + half)
+
+
+def meets(f, side: str, x: float) -> bool:
+    """Whether the value ``x`` meets figure clause ``f``'s limit on ``side`` ("lower" or
+    "upper"), rounded first when the clause gives ``round_to`` (ties to even)."""
+    v = exact(x, f.round_to) if getattr(f, "round_to", None) is not None else x
+    return bool(v >= f.lower) if side == "lower" else bool(v <= f.upper)
+
+
+def disjoint(lo_clause, hi_clause) -> bool:
+    """Whether no value meets both ``lo_clause``'s lower limit and ``hi_clause``'s upper limit,
+    each as the clause compares (:func:`admitted`; where the two admitted values coincide, the
+    value there and its float neighbours decide)."""
+    lo, hi = admitted(lo_clause, "lower"), admitted(hi_clause, "upper")
+    if lo != hi:
+        return lo > hi
+    return not any(meets(lo_clause, "lower", x) and meets(hi_clause, "upper", x)
+                   for x in (np.nextafter(lo, -np.inf), lo, np.nextafter(lo, np.inf)))
+
+
 def any_rounded(clauses) -> bool:
     """Whether any figure clause of ``clauses`` (one judged over settings included) gives ``round_to``."""
     return next(_figure_clauses(clauses, scopes=("sample", "range", "lot")), None) is not None

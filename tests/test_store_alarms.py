@@ -368,3 +368,32 @@ def test_s_and_moving_range_signals_are_not_named_after_a_zone_rule():
     assert tr.chart == "individuals"
     assert ("moving_range", "limits") in [(s.chart, s.rule) for s in tr.signals_for(10)]
     assert all(s.rule != "WE1" for s in tr.signals if s.chart in ("s", "moving_range"))
+
+
+def test_cli_trend_as_judged_draws_the_alarms_charts(tmp_path):
+    """`history trend --as-judged N` draws the charts the alarm judged lot N with: the lots up
+    to N, less those the default Phase I baseline left out (lot 3 beyond its trial limits, lot
+    6 failed), with the alarm's centre line (x̿ of the kept lots, computed here with numpy);
+    without it, `history trend` keeps its own default (the first 20 lots as recorded). With
+    --product it is refused (the lot's own product is charted), and a lot not in the store is
+    a clean error."""
+    store = str(tmp_path / "h.db")
+    rng = np.random.default_rng(7)
+    groups = [50.0 + rng.normal(0.0, 1.0, 5) for _ in range(9)]
+    groups[2] = groups[2] + 25.0  # an assignable cause
+    groups[5] = groups[5] - 30.0
+    for k, g in enumerate(groups):
+        record_lot(store, dataclasses.replace(make_record(g, key=f"p{k}"), verdict="fail" if k == 5 else "pass"))
+    r = lumeval("history", "trend", "--store", store, "--figure", "R9", "--as-judged", "8", "--format", "json")
+    assert r.returncode == 0, r.stderr
+    doc = json.loads(r.stdout)
+    assert [p["lot"] for p in doc["points"]] == [1, 2, 4, 5, 7, 8]  # lot 9 was recorded after lot 8
+    assert doc["baseline"]["lots"] == [1, 2, 4, 5, 7]
+    kept = [groups[k] for k in (0, 1, 3, 4, 6)]
+    assert_allclose(doc["centre_line"], np.mean([g.mean() for g in kept]), rtol=1e-12)
+    plain = json.loads(lumeval("history", "trend", "--store", store, "--figure", "R9", "--format", "json").stdout)
+    assert [p["lot"] for p in plain["points"]] == list(range(1, 10)) and plain["baseline"]["lots"] == list(range(1, 10))
+    for extra, needle in ((["--product", "AD"], "--as-judged"), ([], "lot 99 is not in the store")):
+        r = lumeval("history", "trend", "--store", store, "--figure", "R9", "--as-judged", "99" if not extra else "8",
+                    *extra)
+        assert r.returncode == 2 and "Traceback" not in r.stderr and needle in r.stderr, r.stderr

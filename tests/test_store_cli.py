@@ -70,6 +70,10 @@ def test_alarm_and_fail_on_signal(store_url, tmp_path):
     r = lot(tmp_path, "--store", store_url, "--product", "AD", "--trend-figures", "R9")
     assert r.returncode == 0, r.stderr
     assert "lumeval: signal: lot 6" in r.stderr and "R9 X̄ chart WE1" in r.stderr
+    assert "the R9 charts that gave it: lumeval history trend --store STORE --figure R9 --as-judged 6" in r.stderr
+    judged = json.loads(lumeval("history", "trend", "--store", store_url, "--figure", "R9", "--as-judged", "6",
+                                "--format", "json").stdout)
+    assert [s["lot"] for s in judged["signals"] if s["rule"] == "WE1"] == [6]  # the signal, on those charts
     for f in ("s.csv", "lot.json"):
         (tmp_path / f).unlink()
     r = lot(tmp_path, "--store", store_url, "--product", "AD", "--lot-id", "x", "--trend-figures", "R9",

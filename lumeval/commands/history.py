@@ -154,9 +154,13 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
             print(f"lumeval: note: {fig} alarm leaves out of its baseline and charts {shown}{more}", file=sys.stderr)
         from ..render.trend_report import signal_lines
 
-        for line in signal_lines(tr, res.lot_id):
+        lines = signal_lines(tr, res.lot_id)
+        for line in lines:
             n_signals += 1
             print(f"lumeval: signal: {line}", file=sys.stderr)
+        if lines:
+            print(f"lumeval: note: the {fig} charts that gave it: lumeval history trend --store STORE --figure {fig} "
+                  f"--as-judged {plain(res.lot_id)} --html FILE", file=sys.stderr)
     if charted and not n_signals:
         print(f"lumeval: no control-chart signal for lot {plain(res.lot_id)} ({', '.join(charted)})", file=sys.stderr)
     if n_signals and fail_on_signal:
@@ -229,6 +233,9 @@ def register(app: typer.Typer) -> None:
         html: Path = typer.Option(None, "--html", help="Also write a self-contained HTML trend report to this file.",
                                   show_default=False),
         fail_on_signal: bool = typer.Option(False, "--fail-on-signal", help="Exit 1 when any lot gives a signal."),
+        as_judged: int = typer.Option(None, "--as-judged", help="The charts the alarm of `lot --trend-figures` judged "
+                                      "recorded lot N with: the lots up to N and the alarm's default baseline (or "
+                                      "--baseline / --baseline-count as given to it).", show_default=False, min=1),
     ) -> None:
         """Control charts of a figure over the recorded lots, with Western Electric signals."""
         _utf8_label("--product", product)
@@ -238,7 +245,21 @@ def register(app: typer.Typer) -> None:
 
         su = parse_store_url(store)
         check_targets(files={"--html": html}, inputs=[su.sqlite_path] if su.sqlite_path else [])
-        tr = trend(su, figure, product=product, baseline=baseline, baseline_count=baseline_count, chart=chart.value)
+        if as_judged is not None and product is not None:
+            from ..errors import UsageError
+
+            raise UsageError("--as-judged charts the product the lot was recorded with: give it without --product",
+                             field="--product", fix="drop --product")
+
+        def charts(f: str, kind: str, of_product: str | None, exact: bool):
+            if as_judged is not None:  # the alarm's own charts of that lot
+                from ..store.alarm import alarm_trend
+
+                return alarm_trend(su, f, as_judged, baseline=baseline, baseline_count=baseline_count, chart=kind)
+            return trend(su, f, product=of_product, baseline=baseline, baseline_count=baseline_count, chart=kind,
+                         exact_product=exact)
+
+        tr = charts(figure, chart.value, product, False)
         from ..render import trend_report
 
         if html is not None:
@@ -246,8 +267,7 @@ def register(app: typer.Typer) -> None:
             if tr.figure not in CHROMATICITY_FIGURES:
                 for f in CHROMATICITY_FIGURES:
                     try:
-                        extra.append(trend(su, f, product=tr.product, baseline=baseline, baseline_count=baseline_count,
-                                           exact_product=True))
+                        extra.append(charts(f, "auto", tr.product, True))
                     except StoreError:
                         pass  # no category recorded with these lots
             trend_report.write_trend_html(html, tr, chromaticity=extra, command=command_line())

@@ -38,7 +38,7 @@ ROW_BLOCK = 16
 
 _ROWWISE: ContextVar[bool] = ContextVar("lumeval_rowwise_products", default=False)
 #: (shape, strides, dtype) of ``b`` -> whether a row's bits are those of any position (see there).
-_AGREE: dict[tuple, bool] = {}
+_AGREE: dict[tuple[object, ...], bool] = {}
 
 
 @contextmanager

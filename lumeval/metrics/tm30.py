@@ -594,7 +594,8 @@ def _tm30_core(
     de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
     fl, hq, near = _bin_positions(jr)
     bins = np.clip(fl.astype(int), 0, N_BINS - 1)
-    edges = _edge_pairs(hq, fl, m, candidates=np.nonzero(near))  # knife edges (see hue_edge_pairs)
+    rows, cols = np.nonzero(near)
+    edges = _edge_pairs(hq, fl, m, candidates=(rows, cols))  # knife edges (see hue_edge_pairs)
     # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
     flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
 

@@ -393,7 +393,9 @@ def test_cli_trend_as_judged_draws_the_alarms_charts(tmp_path):
     assert_allclose(doc["centre_line"], np.mean([g.mean() for g in kept]), rtol=1e-12)
     plain = json.loads(lumeval("history", "trend", "--store", store, "--figure", "R9", "--format", "json").stdout)
     assert [p["lot"] for p in plain["points"]] == list(range(1, 10)) and plain["baseline"]["lots"] == list(range(1, 10))
-    for extra, needle in ((["--product", "AD"], "--as-judged"), ([], "lot 99 is not in the store")):
-        r = lumeval("history", "trend", "--store", store, "--figure", "R9", "--as-judged", "99" if not extra else "8",
-                    *extra)
-        assert r.returncode == 2 and "Traceback" not in r.stderr and needle in r.stderr, r.stderr
+    for lot, extra, needle in (("8", ["--product", "AD"], "without --product"), ("8", ["--chart", "individuals"],
+                               "without --chart"), ("99", [], "lot 99 is not in the store"),
+                               ("99999999999999999999", [], "--as-judged")):
+        r = lumeval("history", "trend", "--store", store, "--figure", "R9", "--as-judged", lot, *extra)
+        assert r.returncode == 2 and "Traceback" not in r.stderr and "internal error" not in r.stderr, r.stderr
+        assert needle in r.stderr, r.stderr

@@ -77,9 +77,10 @@ def test_alarm_and_fail_on_signal(store_url, tmp_path):
     for f in ("s.csv", "lot.json"):
         (tmp_path / f).unlink()
     r = lot(tmp_path, "--store", store_url, "--product", "AD", "--lot-id", "x", "--trend-figures", "R9",
-            "--fail-on-signal")
+            "--fail-on-signal", "--baseline-count", "5")
     assert r.returncode == 1, r.stderr  # same content: already recorded, still signals
     assert "already recorded as lot 6" in r.stderr and "signal: lot 6" in r.stderr
+    assert "--as-judged 6 --baseline-count 5 --html FILE" in r.stderr  # the charts that gave it, as given
     assert (tmp_path / "s.csv").exists() and (tmp_path / "lot.json").exists()
     t = lumeval("history", "trend", "--store", store_url, "--product", "AD", "--figure", "R9", "--fail-on-signal")
     assert t.returncode == 1 and "WE1" in t.stdout

@@ -249,14 +249,16 @@ def test_mix_csv_weight_heading_of_a_formula_like_name_is_the_name(tmp_path, cap
 
 @pytest.mark.parametrize("tables,line", [
     ('[instrument]\nnoise_relative = 0.01\n', 6),
-    ('[monte_carlo]\ndraws = 500\n', 6),
+    ('[monte_carlo]\ndraws = 500\n[instrument]\nnoise_relative = 0.01\n', 8),
     ('[decision]\nrule = "guarded-acceptance"\n', 6),
 ])
 def test_mix_and_series_refuse_criteria_asking_for_uncertainty(tmp_path, capsys, chans, tables, line):
     """mix and series judge the computed values (simple acceptance): a criteria file whose
     [instrument] or [monte_carlo] table or guarded [decision] rule asks for a judgement under
     measurement uncertainty was judged without it, silently; now exit 2 naming the file and the
-    table's line, and no output is written. A [decision] table with the simple rule is accepted."""
+    table's line, and no output is written. A [decision] table with the simple rule, or a
+    [monte_carlo] table alone (which asks for nothing: check is then the plain check), is
+    accepted."""
     body = 'lumeval_criteria = 1\n[[clause]]\nid = "ra"\nfigure = "Ra"\nmin = 10\n'
     crit = tmp_path / "unc.toml"
     crit.write_text(body + tables, encoding="utf-8")
@@ -269,7 +271,8 @@ def test_mix_and_series_refuse_criteria_asking_for_uncertainty(tmp_path, capsys,
         code, stdout, err = run([*argv, "--criteria", crit, "--html", out], capsys)
         assert_clean_error(code, err, f"unc.toml:{line}", f"`lumeval {command}` does not make")
         assert not out.exists()
-    simple = tmp_path / "simple.toml"
-    simple.write_text(body + '[decision]\nrule = "simple"\n', encoding="utf-8")
-    code, stdout, err = run(["series", *files, "--criteria", simple], capsys)
-    assert code in (0, 1) and "Traceback" not in err, err
+    for plain in ('[decision]\nrule = "simple"\n', '[monte_carlo]\ndraws = 500\n'):
+        simple = tmp_path / "simple.toml"
+        simple.write_text(body + plain, encoding="utf-8")
+        code, stdout, err = run(["series", *files, "--criteria", simple], capsys)
+        assert code in (0, 1) and "Traceback" not in err and "error" not in err, err

@@ -159,8 +159,10 @@ def record_after_lot(run, criteria, *, store, lot_id=None, product=None, trend_f
             n_signals += 1
             print(f"lumeval: signal: {line}", file=sys.stderr)
         if lines:
+            given = (f" --baseline {plain(baseline)}" if baseline is not None
+                     else f" --baseline-count {baseline_count}" if baseline_count is not None else "")
             print(f"lumeval: note: the {fig} charts that gave it: lumeval history trend --store STORE --figure {fig} "
-                  f"--as-judged {plain(res.lot_id)} --html FILE", file=sys.stderr)
+                  f"--as-judged {plain(res.lot_id)}{given} --html FILE", file=sys.stderr)
     if charted and not n_signals:
         print(f"lumeval: no control-chart signal for lot {plain(res.lot_id)} ({', '.join(charted)})", file=sys.stderr)
     if n_signals and fail_on_signal:
@@ -235,7 +237,8 @@ def register(app: typer.Typer) -> None:
         fail_on_signal: bool = typer.Option(False, "--fail-on-signal", help="Exit 1 when any lot gives a signal."),
         as_judged: int = typer.Option(None, "--as-judged", help="The charts the alarm of `lot --trend-figures` judged "
                                       "recorded lot N with: the lots up to N and the alarm's default baseline (or "
-                                      "--baseline / --baseline-count as given to it).", show_default=False, min=1),
+                                      "--baseline / --baseline-count as given to it; --chart auto, as the alarm).",
+                                      show_default=False, min=1, max=2**63 - 1),
     ) -> None:
         """Control charts of a figure over the recorded lots, with Western Electric signals."""
         _utf8_label("--product", product)
@@ -245,11 +248,12 @@ def register(app: typer.Typer) -> None:
 
         su = parse_store_url(store)
         check_targets(files={"--html": html}, inputs=[su.sqlite_path] if su.sqlite_path else [])
-        if as_judged is not None and product is not None:
+        if as_judged is not None and (product is not None or chart is not ChartKind.auto):
             from ..errors import UsageError
 
-            raise UsageError("--as-judged charts the product the lot was recorded with: give it without --product",
-                             field="--product", fix="drop --product")
+            opt = "--product" if product is not None else "--chart"
+            raise UsageError(f"--as-judged draws the alarm's own charts (the product the lot was recorded with, chart "
+                             f"auto): give it without {opt}", field=opt, fix=f"drop {opt}")
 
         def charts(f: str, kind: str, of_product: str | None, exact: bool):
             if as_judged is not None:  # the alarm's own charts of that lot

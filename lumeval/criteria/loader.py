@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 import re
 
+from .. import figures
 from .._toml import loads as toml_loads
 from .._toml import read_text
 from ..errors import CriteriaError, quote, shown
@@ -264,8 +265,8 @@ def _contradictions(clauses, file: str) -> tuple[str, ...]:
                 # min = 80 with round_to = 0): compared as the unrounded values each admits
                 if a <= b and rounding.disjoint(lo_c, hi_c):
                     first, second = sorted((lo_c, hi_c), key=lambda c: c.line or 0)
-                    lo_r, hi_r = (f", rounded to {rounding.places_words(c.round_to)}" if getattr(c, "round_to", None) is not None
-                                  else "" for c in (lo_c, hi_c))
+                    lo_r, hi_r = (f", rounded to {rounding.places_words(c.round_to, figures.unit(fig))}"
+                                  if getattr(c, "round_to", None) is not None else "" for c in (lo_c, hi_c))
                     raise CriteriaError(
                         f"clauses {lo_c.clause_id!r} ({fig} ≥ {lo_c.lower:g}{lo_r}) and {hi_c.clause_id!r} ({fig} ≤ "
                         f"{hi_c.upper:g}{hi_r}) contradict each other: no value meets both"

@@ -117,7 +117,8 @@ class TM30Result:
     Rg : ndarray (N,)
         Gamut index Rg = 100 · A_test / A_ref (TM-30-18).
     Rf_ces : ndarray (N, 99)
-        Special fidelity index of each colour evaluation sample, Rf,CESi.
+        Special fidelity index of each colour evaluation sample, Rf,CESi ((N, 0) when not
+        computed: ``tm30(..., per_ces=False)``, the engine's ``keep_details=False``).
     delta_E_ces : ndarray (N, 99)
         ΔE′ (CAM02-UCS) of each CES between test and reference.
     Rf_h : ndarray (N, 16)
@@ -400,7 +401,7 @@ def _bin_positions(Jab_ref: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndar
     tolerance plus :data:`_HUE_EXACT_MARGIN_DEG` from an edge; the others (and a′ = b′ = 0,
     where the ratio is undefined) are computed from :func:`reference_hue`, as before."""
     a, b = Jab_ref[..., 1], Jab_ref[..., 2]
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # ±∞ ratios: ±90°, near an edge
         h = np.arctan(b / a)
     h *= 180.0 / np.pi
     np.add(h, 180.0, out=h, where=a < 0.0)

@@ -254,15 +254,17 @@ def _load_criteria(path, command: str):
 
 def _refuse_uncertainty_tables(crit, path, command: str) -> None:
     """A criteria file asking for a judgement under measurement uncertainty (an ``[instrument]``
-    or ``[monte_carlo]`` table, a guarded ``[decision]`` rule), refused naming the table's line:
-    mix and series judge the computed values (simple acceptance), and ignored the tables
-    silently (found by a review)."""
+    table or a guarded ``[decision]`` rule: what makes ``lumeval check`` decide under it,
+    docs/uncertainty.md), refused naming the table's line: mix and series judge the computed
+    values (simple acceptance), and ignored the tables silently (found by a review). A
+    ``[monte_carlo]`` table alone asks for nothing (``check`` is then the plain check too)."""
     unc = crit.uncertainty or {}
-    asks = [t for t in ("instrument", "monte_carlo") if unc.get(t) is not None]
+    asks = ["instrument"] if unc.get("instrument") is not None else []
     if getattr(unc.get("decision"), "guarded", False):
         asks.append("decision")
     if not asks:
         return
+    from .._paths import display_path
     from .._toml import read_text
     from ..criteria.loader import locate_lines
 
@@ -271,9 +273,9 @@ def _refuse_uncertainty_tables(crit, path, command: str) -> None:
     tables = " and ".join(f"[{t}]" for t in asks)
     raise InputError(f"its {tables} table{'s' if len(asks) > 1 else ''} ask{'' if len(asks) > 1 else 's'} for a judgement "
                      f"under measurement uncertainty, which `lumeval {command}` does not make (it judges the computed "
-                     "values: simple acceptance)", file=str(path), line=min(found) if found else None,
-                     fix=f"judge under uncertainty with `lumeval check` or `lumeval lot`, or give `lumeval {command}` "
-                     "a criteria file without those tables")
+                     "values: simple acceptance)", file=display_path(path), line=min(found) if found else None,
+                     field=asks[0], fix=f"judge under uncertainty with `lumeval check` or `lumeval lot`, or give "
+                     f"`lumeval {command}` a criteria file without those tables")
 
 
 def _setting(path: Path, s, i: int, how: str, key: str, table: dict, manifest) -> tuple[float, str, str]:

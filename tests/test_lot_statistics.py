@@ -16,6 +16,7 @@ import pytest
 from scipy import stats
 from scipy.spatial.distance import pdist
 
+from lumeval.lots import pairwise
 from lumeval.lots import statistics as lot
 
 RNG = np.random.default_rng(4)
@@ -123,13 +124,13 @@ def test_max_pairwise_distance_large_sets_against_scipy_hull(shape, monkeypatch)
     elif shape == "disc":
         r, t = np.sqrt(rng.uniform(0, 1, n)), rng.uniform(0, 2 * np.pi, n)
         P = np.column_stack([0.2 + 0.01 * r * np.cos(t), 0.45 + 0.01 * r * np.sin(t)])
-        assert lot._outside_octagon(P).size > lot.BRUTE_FORCE_POINTS  # the case the finer filters are for
+        assert pairwise._outside_octagon(P).size > pairwise.BRUTE_FORCE_POINTS  # the case the finer filters are for
     else:
         P = np.vstack([rng.normal(size=(n // 2, 2)) * 1e-4 + [0.2, 0.5], rng.normal(size=(n // 2, 2)) * 1e-4 + [0.25, 0.45]])
     P = P[rng.permutation(P.shape[0])]
     hull, calipers = [], []
-    monkeypatch.setattr(lot, "_hull_vertices", lambda Q, real=lot._hull_vertices: hull.append(1) or real(Q))
-    monkeypatch.setattr(lot, "_calipers", lambda H, real=lot._calipers: calipers.append(1) or real(H))
+    monkeypatch.setattr(pairwise, "_hull_vertices", lambda Q, real=pairwise._hull_vertices: hull.append(1) or real(Q))
+    monkeypatch.setattr(pairwise, "_calipers", lambda H, real=pairwise._calipers: calipers.append(1) or real(H))
     d, i, j = lot.max_pairwise_distance(P)
     ref = _diameter_scipy(P)
     assert d == pytest.approx(ref, rel=1e-12)
@@ -155,7 +156,7 @@ def test_calipers_farthest_pair_of_convex_polygons(seed):
     else:
         P = rng.normal(size=(n, 2))
     H = P[ConvexHull(P).vertices]
-    a, b = lot._calipers(H)
+    a, b = pairwise._calipers(H)
     assert np.linalg.norm(H[a] - H[b]) == pytest.approx(pdist(H).max(), rel=1e-12)
 
 
@@ -189,8 +190,8 @@ def test_filter_polygons_in_small_blocks_give_the_same_diameter(shape, monkeypat
     t = rng.uniform(0, 2 * np.pi, n)
     r = np.sqrt(rng.uniform(0, 1, n)) if shape == "disc" else np.ones(n)
     P = np.column_stack([0.2 + 0.01 * r * np.cos(t), 0.45 + 0.01 * r * np.sin(t)])
-    monkeypatch.setattr(lot, "_TEMP_ELEMENTS", 700)  # 21 points per projection block, 1 edge per test
-    monkeypatch.setattr(lot, "BRUTE_FORCE_POINTS", 300)
+    monkeypatch.setattr(pairwise, "_TEMP_ELEMENTS", 700)  # 21 points per projection block, 1 edge per test
+    monkeypatch.setattr(pairwise, "BRUTE_FORCE_POINTS", 300)
     d, i, j = lot.max_pairwise_distance(P)
     ref = _diameter_scipy(P)
     assert d == pytest.approx(ref, rel=1e-12)

@@ -17,12 +17,13 @@ measurement uncertainty).
 
 from __future__ import annotations
 
-# Lot clause kinds (SCOPE = "lot") are registered with the package, so that every reader of a
-# criteria file — `check`, `lot`, `criteria explain` — knows the same kinds.
-from . import (
-    lot_clauses,  # noqa: F401
-    range_clauses,  # noqa: F401  (series_shift, track_locus: judged over settings)
-)
+# The clause kinds beyond `figure` are registered with the package, so that every reader of a
+# criteria file — `check`, `lot`, `criteria explain` — knows the same kinds, in this order.
+# isort: off
+from . import standard_clauses  # noqa: F401  (ansi_quadrangle, sdcm, tm30_design_intent)
+from . import lot_clauses  # noqa: F401  (SCOPE = "lot")
+from . import range_clauses  # noqa: F401  (series_shift, track_locus: judged over settings)
+# isort: on
 from .claims import Claims, ClaimsCheck, load_claims, parse_claims
 from .loader import load_criteria, parse_criteria
 from .model import CLAUSE_KINDS, ClauseKind, Criteria, register_clause_kind

@@ -88,6 +88,19 @@ def test_cli_alarm_baseline_leaves_out_failed_lots(tmp_path, demo):
     assert "R9 alarm leaves out of its baseline and charts lot 2 (its verdict failed); lot 4 (its verdict failed)" in r.stderr
 
 
+def _phase_one_store(tmp_path, lots: int):
+    """A store of ``lots`` lots of 5 samples (R9 near 50, invented): lot 3 passed its criteria
+    but lies 25 above the others (an assignable cause), lot 6 failed them 30 below."""
+    store = str(tmp_path / "h.db")
+    rng = np.random.default_rng(7)
+    groups = [50.0 + rng.normal(0.0, 1.0, 5) for _ in range(lots)]
+    groups[2] = groups[2] + 25.0
+    groups[5] = groups[5] - 30.0
+    for k, g in enumerate(groups):
+        record_lot(store, dataclasses.replace(make_record(g, key=f"p{k}"), verdict="fail" if k == 5 else "pass"))
+    return store, groups
+
+
 def test_alarm_baseline_phase_one_revision_against_textbook(tmp_path):
     """Lot 3 passed its criteria but lies far beyond the trial limits: it is left out and the
     limits computed again (Phase I). Centre line and X̄ limits of the alarm checked against
@@ -95,13 +108,7 @@ def test_alarm_baseline_phase_one_revision_against_textbook(tmp_path):
     eqs. 6.27-6.29, memory); rtol 1e-12 (the same arithmetic in another order)."""
     from lumeval.store.alarm import alarm_trend
 
-    store = str(tmp_path / "h.db")
-    rng = np.random.default_rng(7)
-    groups = [50.0 + rng.normal(0.0, 1.0, 5) for _ in range(8)]
-    groups[2] = groups[2] + 25.0  # an assignable cause
-    groups[5] = groups[5] - 30.0
-    for k, g in enumerate(groups):
-        record_lot(store, dataclasses.replace(make_record(g, key=f"p{k}"), verdict="fail" if k == 5 else "pass"))
+    store, groups = _phase_one_store(tmp_path, 8)
     tr = alarm_trend(store, "R9", 8)
     assert tr.extra["left_out"] == [(3, "beyond its trial limits on the X̄ chart"), (6, "its verdict failed")]
     kept = [g for k, g in enumerate(groups[:7]) if k not in (2, 5)]
@@ -377,13 +384,7 @@ def test_cli_trend_as_judged_draws_the_alarms_charts(tmp_path):
     without it, `history trend` keeps its own default (the first 20 lots as recorded). With
     --product it is refused (the lot's own product is charted), and a lot not in the store is
     a clean error."""
-    store = str(tmp_path / "h.db")
-    rng = np.random.default_rng(7)
-    groups = [50.0 + rng.normal(0.0, 1.0, 5) for _ in range(9)]
-    groups[2] = groups[2] + 25.0  # an assignable cause
-    groups[5] = groups[5] - 30.0
-    for k, g in enumerate(groups):
-        record_lot(store, dataclasses.replace(make_record(g, key=f"p{k}"), verdict="fail" if k == 5 else "pass"))
+    store, groups = _phase_one_store(tmp_path, 9)
     r = lumeval("history", "trend", "--store", store, "--figure", "R9", "--as-judged", "8", "--format", "json")
     assert r.returncode == 0, r.stderr
     doc = json.loads(r.stdout)

@@ -224,15 +224,22 @@ def test_mix_and_series_refuse_criteria_they_judge_no_clause_of(tmp_path, capsys
     crit = tmp_path / "lot_only.toml"
     crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "spread"\nkind = "lot_max_pairwise"\n'
                     'max_delta_upvp = 0.004\n', encoding="utf-8")
+    _refused_by_mix_and_series(tmp_path, capsys, chans, crit, "lot_only.toml", "`lumeval {command}`")
+
+
+def _refused_by_mix_and_series(tmp_path, capsys, chans, crit, *needles) -> list:
+    """Run mix and series (two dimming levels) with ``crit``: each exits 2 with one clean line
+    holding every needle (``{command}`` filled in) and writes no HTML. Returns the series files."""
     d = tmp_path / "s"
-    d.mkdir()
+    d.mkdir(exist_ok=True)
     files = [write_wide(d / f"dim_{lv:03d}pct.csv", {f"dim_{lv:03d}pct": w * WARM + (1 - w) * COOL})
              for lv, w in ((100, 1.0), (10, 0.5))]
     for argv, command in ((["mix", chans, "--cct", "3000"], "mix"), (["series", *files], "series")):
         out = tmp_path / f"{command}.html"
         code, stdout, err = run([*argv, "--criteria", crit, "--html", out], capsys)
-        assert_clean_error(code, err, "lot_only.toml", f"`lumeval {command}`")
+        assert_clean_error(code, err, *(n.format(command=command) for n in needles))
         assert not out.exists()
+    return files
 
 
 def test_mix_csv_weight_heading_of_a_formula_like_name_is_the_name(tmp_path, capsys):
@@ -262,15 +269,7 @@ def test_mix_and_series_refuse_criteria_asking_for_uncertainty(tmp_path, capsys,
     body = 'lumeval_criteria = 1\n[[clause]]\nid = "ra"\nfigure = "Ra"\nmin = 10\n'
     crit = tmp_path / "unc.toml"
     crit.write_text(body + tables, encoding="utf-8")
-    d = tmp_path / "s"
-    d.mkdir()
-    files = [write_wide(d / f"dim_{lv:03d}pct.csv", {f"dim_{lv:03d}pct": w * WARM + (1 - w) * COOL})
-             for lv, w in ((100, 1.0), (10, 0.5))]
-    for argv, command in ((["mix", chans, "--cct", "3000"], "mix"), (["series", *files], "series")):
-        out = tmp_path / f"{command}.html"
-        code, stdout, err = run([*argv, "--criteria", crit, "--html", out], capsys)
-        assert_clean_error(code, err, f"unc.toml:{line}", f"`lumeval {command}` does not make")
-        assert not out.exists()
+    files = _refused_by_mix_and_series(tmp_path, capsys, chans, crit, f"unc.toml:{line}", "`lumeval {command}` does not make")
     for plain in ('[decision]\nrule = "simple"\n', '[monte_carlo]\ndraws = 500\n'):
         simple = tmp_path / "simple.toml"
         simple.write_text(body + plain, encoding="utf-8")

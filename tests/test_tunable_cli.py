@@ -275,3 +275,23 @@ def test_mix_and_series_refuse_criteria_asking_for_uncertainty(tmp_path, capsys,
         simple.write_text(body + plain, encoding="utf-8")
         code, stdout, err = run(["series", *files, "--criteria", simple], capsys)
         assert code in (0, 1) and "Traceback" not in err and "error" not in err, err
+
+
+def test_mix_refuses_a_series_shift_reference_that_is_no_target(tmp_path, capsys, chans):
+    """A series_shift clause whose reference (3500 K) is none of mix's target CCTs was reported
+    'not judged' (exit 1), where series refuses such a reference; now mix refuses it too, naming
+    the clause's line and the targets, before any work (exit 2, no output). A reference among
+    the targets is judged."""
+    crit = tmp_path / "ref.toml"
+    body = ('lumeval_criteria = 1\n[[clause]]\nid = "shift"\nkind = "series_shift"\nmax_delta_upvp = 0.05\n'
+            "reference = {ref}\n")
+    crit.write_text(body.format(ref=3500), encoding="utf-8")
+    out = tmp_path / "mix.html"
+    code, stdout, err = run(["mix", chans, "--cct", "3000,4000", "--criteria", crit, "--html", out], capsys)
+    assert_clean_error(code, err, "ref.toml:2", "'shift'", "3500", "3000 K, 4000 K")
+    assert not out.exists()
+    crit.write_text(body.format(ref=3000), encoding="utf-8")
+    code, stdout, err = run(["mix", chans, "--cct", "3000,4000", "--criteria", crit, "--format", "json"], capsys)
+    assert code in (0, 1) and "error" not in err, err
+    doc = json.loads(stdout)
+    assert doc["criteria"]["clauses"][0]["range_outcome"] in ("pass", "fail")  # judged

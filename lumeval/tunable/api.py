@@ -138,6 +138,8 @@ def mix_files(channels, cct, *, duv=0.0, maximise: str = "Rf", criteria=None, pr
     paths = [channels] if isinstance(channels, (str, Path)) else list(channels)
     crit = _load_criteria(criteria, "mix")
     targets = parse_setpoints(cct) if isinstance(cct, str) else np.atleast_1d(np.asarray(cct, dtype=float))
+    if crit is not None:  # a series_shift reference that is no target: refused before any work, as for series
+        _refuse_unknown_references(crit, np.sort(targets), "K")
     chans, notes = read_channels(paths)
     res = mix(chans, targets, duv=duv, maximise=maximise, notes=notes, progress=progress)
     check = None
@@ -350,10 +352,10 @@ def _refuse_negative_settings(values: list, unit: str, sources: list, written_at
 
 
 def _refuse_unknown_references(crit, settings: np.ndarray, unit: str) -> None:
-    """A series_shift clause whose reference is no setting of the series (or ``"locus"`` when the
-    settings are not CCTs): refused as ``--reference`` is, naming the clause and the settings,
-    rather than reported *not judged* (found by a review: exit 1 from the file, 2 from the
-    command line)."""
+    """A series_shift clause whose reference is no setting of the series, or no target CCT of a
+    mix (or ``"locus"`` when the settings are not CCTs): refused as ``--reference`` is, naming
+    the clause and the settings, rather than reported *not judged* (found by a review: exit 1
+    from the file, 2 from the command line)."""
     from ..criteria.range_clauses import SeriesShiftClause, reference_points
     from .series import setting_label
 

@@ -376,26 +376,23 @@ def tm30_reference_jab(step: int, cct_K: ArrayLike, blend_observer: str = OBSERV
 def _tm30_sides(step: int, T: np.ndarray, observers: tuple[str, ...]) -> list[np.ndarray]:
     """:func:`tm30_reference_jab` for several blend observers at once (one blend lookup)."""
     tab = _tm30_tables(step)
-    outs = [np.full((T.size, 297), np.nan) for _ in observers]
+    first = np.full((T.size, 297), np.nan)
     ok = np.isfinite(T) & (T > 0)
     inside = ok & (T >= T_TABLE_LO_K) & (T <= T_TABLE_HI_K)
     pl = inside & (T < _BLEND_LO)
     bl = inside & (T >= _BLEND_LO) & (T <= _BLEND_HI)
     dl = inside & (T > _BLEND_HI)
-    same = ~bl  # Planckian, daylight and undefined rows: the same for every blend observer
     if pl.any():
-        outs[0][pl] = tab.planck(T[pl])
+        first[pl] = tab.planck(T[pl])
     if dl.any():
-        outs[0][dl] = tab.daylight(T[dl])
+        first[dl] = tab.daylight(T[dl])
     direct = ok & ~inside
-    if direct.any():
+    if direct.any():  # outside the tables (and the blend): the same reference for every observer
         from .tm30 import reference_spd
 
-        for o, out in zip(observers, outs):
-            out[direct] = _jab_flat(tab.wl, reference_spd(tab.wl, T[direct], blend_observer=o)[0])
-        same &= ~direct
-    for out in outs[1:]:
-        out[same] = outs[0][same]
+        first[direct] = _jab_flat(tab.wl, reference_spd(tab.wl, T[direct], blend_observer=observers[0])[0])
+    # every row but the blend's is the same for every blend observer: one copy each
+    outs = [first] + [first.copy() for _ in observers[1:]]
     if bl.any():
         Tb = T[bl]
         r1, r2 = daylight_m(Tb)

@@ -320,7 +320,7 @@ def _evaluate_chunk(wl: np.ndarray, values: np.ndarray, details: bool = True) ->
     # TM-30 and CIE 224 (lumeval.metrics.reference_table; within 1e-7 of the direct computation)
     side = reference_side(wl, ref_T)
     cri = cie133_cri(wl, values, ref_T, reference=side.cri)
-    fid = tm30(wl, values, ref_T, reference=side.tm30_jab, per_ces=details)
+    fid = tm30(wl, values, ref_T, reference=side.tm30_jab, details=details)
     rf2017 = cie2017_rf(wl, values, ref_T, tm30_result=fid, reference=side.cie224_jab)
     phot = photometry(wl, values)
     return _Chunk(XYZ=XYZ, xy=xy, uv=uv, upvp=upvp, cct=cct, cri=cri, tm30=fid, photometry=phot, cie2017_Rf=rf2017)

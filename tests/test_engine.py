@@ -196,5 +196,10 @@ def test_per_ces_fidelity_only_with_details(cie_sources, ev):
     de = full.tm30.delta_E_ces
     assert full.tm30.Rf_ces.shape == de.shape == (len(cie_sources), 99)
     np.testing.assert_allclose(full.tm30.Rf_ces, 10.0 * np.log(np.exp((100.0 - 6.73 * de) / 10.0) + 1.0), rtol=1e-12)
-    assert lean.tm30.Rf_ces.shape == (len(cie_sources), 0)
-    np.testing.assert_allclose(lean.tm30.Rf, full.tm30.Rf, rtol=1e-12)
+    n = len(cie_sources)
+    for name in ("Rf_ces", "delta_E_ces", "hue_bin", "Jab_ref", "Jab_test"):
+        assert getattr(lean.tm30, name).shape == (n, 0), name
+    assert full.tm30.hue_bin.shape == (n, 99) and full.tm30.Jab_ref.shape == (n, 99, 3)
+    for name in ("Rf", "Rg", "Rf_h", "Rcs_h"):
+        np.testing.assert_allclose(getattr(lean.tm30, name), getattr(full.tm30, name), rtol=1e-12, err_msg=name)
+    np.testing.assert_allclose(lean.figure("cie2017_Rf"), full.figure("cie2017_Rf"), rtol=1e-12)

@@ -118,7 +118,7 @@ class TM30Result:
         Gamut index Rg = 100 · A_test / A_ref (TM-30-18).
     Rf_ces : ndarray (N, 99)
         Special fidelity index of each colour evaluation sample, Rf,CESi ((N, 0) when not
-        computed: ``tm30(..., per_ces=False)``, the engine's ``keep_details=False``).
+        computed: ``tm30(..., details=False)``, the engine's ``keep_details=False``).
     delta_E_ces : ndarray (N, 99)
         ΔE′ (CAM02-UCS) of each CES between test and reference.
     Rf_h : ndarray (N, 16)
@@ -552,7 +552,7 @@ def reference_jab(wavelengths_nm: ArrayLike, reference_values: ArrayLike) -> np.
 
 def _tm30_core(
     wl: np.ndarray, S_t: np.ndarray, jab_ref: np.ndarray, step: float, cct_K: ArrayLike | None, reference_kind: Any,
-    daylight_fraction: Any, blend_observer: str, per_ces: bool = True,
+    daylight_fraction: Any, blend_observer: str, details: bool = True,
 ) -> TM30Result:
     """TM-30-18 figures of test spectra ``S_t`` (N, W) on the cropped grid ``wl`` against the
     reference side ``jab_ref`` (N, 99, 3): the CES's J′a′b′ under each spectrum's reference
@@ -617,13 +617,15 @@ def _tm30_core(
         Rhs_h = place((-da * sin + db * cos) / rr)
         Rg = place(100.0 * _polygon_area(at) / _polygon_area(ar))
     Rf = place(_Rf_scale(de.mean(axis=1)))
-    Rf_ces = place(_Rf_scale(de)) if per_ces else np.empty((n, 0))
-    dE = place(de)
     Rf_h = place(_Rf_scale(de_bin))
     avg_t, avg_r = place(at), place(ar)
     counts = place(cnt.astype(int), 0)
-    hue_bin = place(bins, -1)
-    Jab_t, Jab_r = place(jt), place(jr)
+    Jab_t = place(jt)  # (kept without details: CIE 224's Rf of a blend reuses it)
+    if details:
+        Rf_ces, dE, hue_bin, Jab_r = place(_Rf_scale(de)), place(de), place(bins, -1), place(jr)
+    else:  # the per-CES detail arrays, empty (n, 0): a lot keeps none of them
+        Rf_ces = dE = Jab_r = np.empty((n, 0))
+        hue_bin = np.empty((n, 0), dtype=int)
     for i in idx[np.any(cnt == 0, axis=1)]:
         reasons[i] = "a hue bin holds no sample: Rg and bin values are undefined"
 
@@ -646,7 +648,7 @@ def _placed(per_row: tuple[Any, ...], idx: np.ndarray, n: int) -> tuple[Any, ...
 
 def tm30(
     wavelengths_nm: ArrayLike, values: ArrayLike, cct_K: ArrayLike, *, blend_observer: str = BLEND_OBSERVER_DEFAULT,
-    reference: np.ndarray | None = None, per_ces: bool = True,
+    reference: np.ndarray | None = None, details: bool = True,
 ) -> TM30Result:
     """CIE 224:2017 Rf and ANSI/IES TM-30-18/-20 Rf, Rg and hue-bin figures, vectorised.
 
@@ -668,9 +670,10 @@ def tm30(
         The reference side already computed: the CES's CAM02-UCS J′a′b′ under each spectrum's
         reference at ``cct_K`` (the engine passes the tabulated one,
         :func:`lumeval.metrics.reference_table.reference_side`); computed directly when None.
-    per_ces : bool
-        Compute Rf,CESi (``Rf_ces``); when False it is an empty (N, 0) array (a lot that keeps
-        no per-CES values saves its 99 logarithms and exponentials a spectrum).
+    details : bool
+        Compute the per-CES detail arrays (``Rf_ces``, ``delta_E_ces``, ``hue_bin``,
+        ``Jab_ref``); when False they are empty (N, 0) arrays (a lot keeps none of them: Rf,CESi
+        alone is 99 logarithms and exponentials a spectrum). ``Jab_test`` is kept either way.
 
     Returns
     -------
@@ -706,7 +709,7 @@ def tm30(
         if jab_r.shape != (n, 99, 3):
             raise InputError(f"reference side of shape {jab_r.shape} for {n} spectra",
                              fix="pass the CES J'a'b' under each spectrum's reference, shape (N, 99, 3)")
-    return _tm30_core(wl_c, S_t, jab_r, step, cct, kinds, frac, blend_observer, per_ces)
+    return _tm30_core(wl_c, S_t, jab_r, step, cct, kinds, frac, blend_observer, details)
 
 
 def cie2017_rf(

@@ -94,6 +94,12 @@ def test_descending_wide_file_keeps_columns_together():
         # one column states its own unit: that column only
         (["A", "B (relative)", "C"], ["Units: W/nm"], [("absolute", "W/nm"), ("relative", "B (relative)"), ("absolute", "W/nm")]),
         (["A", "B", "C mW/nm"], [], [("unknown", None), ("unknown", None), ("absolute", "C mW/nm")]),
+        # letters of lm, cd, lux inside a name state no unit (they read as lm or lux until
+        # 2026-12-05: a relative file's "Film lamp" column became "absolute")
+        (["Film lamp", "Realm 2", "Deluxe flux"], ["Units: relative"], [("relative", "relative")] * 3),
+        # the same units as words of their own still do, prefixed or not
+        (["A (mcd/nm)", "B [klx]", "C lm/nm"], [], [("absolute", "A (mcd/nm)"), ("absolute", "B [klx]"),
+                                                    ("absolute", "C lm/nm")]),
         # names that hold letters of units inside words without stating one
         (["raw 1", "sample B", "cdx"], ["Units: W/nm"], [("absolute", "W/nm")] * 3),
         (["raw 1", "sample B", "2 W"], [], [("unknown", None), ("unknown", None), ("absolute", "2 W")]),

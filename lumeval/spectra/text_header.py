@@ -40,8 +40,12 @@ _UNIT_CELL = re.compile(
     re.I,
 )
 _WL_BAD_UNITS = re.compile(r"cm\s*[-−⁻]\s*1|cm\^-1|wavenumber|thz|\bhz\b|\bev\b|electron.?volt", re.I)
+#: A stated absolute unit: watts (W/m², mW/nm, µW/(cm² nm) ...), or lumens, candelas and lux
+#: (lm, mcd, klx, lux) as words of their own: not the letters inside a name ("Film", "Realm",
+#: "Deluxe", "Flux" read as stating lm or lux until 2026-12-05).
 _ABSOLUTE = re.compile(
-    r"(?<![a-z])[mµμun]?w\s*(/|·|\*|\s|per|m)|watt|(?<![a-z])[mµμu]?w\b|lm\b|cd\b|lux|lx\b", re.I
+    r"(?<![a-z])[mµμun]?w\s*(/|·|\*|\s|per|m)|watt|(?<![a-z])[mµμu]?w\b|(?<![a-z])[mkµμu]?(?:lm|cd|lx)\b"
+    r"|(?<![a-z])[mk]?lux\b", re.I
 )
 _RELATIVE = re.compile(r"relative|\brel\b|a\.\s*u\.|\bau\b|arb|normali[sz]ed|%|percent|counts", re.I)
 

@@ -87,8 +87,6 @@ def needs(criteria) -> _Needs:
     kinds = {getattr(c, "KIND", "") for c in criteria.clauses}
     figs = _figures_judged(criteria)
     groups = {figures.FIGURES[f].group for f in figs if f in figures.FIGURES}
-    unc = getattr(criteria, "uncertainty", None) or {}
-    rule = unc.get("decision")
     return _Needs(
         chromaticity=bool(kinds & _CHROMATICITY_KINDS) or "chromaticity" in groups,
         cri="colour rendering" in groups,
@@ -98,7 +96,7 @@ def needs(criteria) -> _Needs:
         radiance=bool(figs & _RADIANCE),
         lot=any(getattr(c, "SCOPE", "sample") == "lot" or getattr(c, "KIND", "").startswith("lot_")
                 for c in criteria.clauses),
-        uncertainty=unc.get("instrument") is not None or bool(getattr(rule, "guarded", False)),
+        uncertainty=bool(getattr(criteria, "uncertainty_tables", ())),
         settings=bool(kinds & {"series_shift", "track_locus"}) or any(getattr(c, "over", None) for c in criteria.clauses),
     )
 

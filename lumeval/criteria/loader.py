@@ -218,8 +218,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
     labelled = frozenset(c.clause_id for c, t in zip(clauses, clauses_raw) if t.get("label"))
     out = Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings,
                    labelled=labelled)
-    unc = out.uncertainty
-    if unc.get("instrument") is not None or getattr(unc.get("decision"), "guarded", False):
+    if out.uncertainty_tables:
         rounding.refuse_under_uncertainty(out, "its [instrument] table or guarded [decision] rule",
                                           {c.clause_id: where.line(("clause", i), "round_to") for i, c in enumerate(clauses)})
     return out

@@ -423,6 +423,15 @@ class Criteria:
     labelled: frozenset = frozenset()  #: ids of the clauses whose ``label`` the file gives
 
     @property
+    def uncertainty_tables(self) -> tuple[str, ...]:
+        """The tables that ask for a judgement under measurement uncertainty: ``"instrument"``
+        for an ``[instrument]`` table, ``"decision"`` for a guarded ``[decision]`` rule
+        (docs/uncertainty.md; a ``[monte_carlo]`` table alone asks for nothing)."""
+        unc = self.uncertainty or {}
+        return tuple(t for t, asks in (("instrument", unc.get("instrument") is not None),
+                                       ("decision", bool(getattr(unc.get("decision"), "guarded", False)))) if asks)
+
+    @property
     def warning_notes(self) -> tuple[str, ...]:
         """:attr:`warnings` as every judgement's notes carry them (check, lot, mix, series)."""
         return tuple(f"WARNING: {w}" for w in self.warnings)

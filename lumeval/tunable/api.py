@@ -260,10 +260,7 @@ def _refuse_uncertainty_tables(crit, path, command: str) -> None:
     docs/uncertainty.md), refused naming the table's line: mix and series judge the computed
     values (simple acceptance), and ignored the tables silently (found by a review). A
     ``[monte_carlo]`` table alone asks for nothing (``check`` is then the plain check too)."""
-    unc = crit.uncertainty or {}
-    asks = ["instrument"] if unc.get("instrument") is not None else []
-    if getattr(unc.get("decision"), "guarded", False):
-        asks.append("decision")
+    asks = crit.uncertainty_tables
     if not asks:
         return
     from .._paths import display_path

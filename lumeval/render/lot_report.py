@@ -505,12 +505,6 @@ def _lot_head(run) -> list:
     return out
 
 
-def _not_valid_part(y) -> str:
-    """How many of a yield's failed samples are not valid (counted as failing), or nothing."""
-    nv = getattr(y, "not_valid", 0)
-    return f" (of which {nv} not valid: a judged figure computed outside its validity range)" if nv else ""
-
-
 def _lot_requirements(run) -> list:
     """Each requirement with its result over the lot, the yield and the decision rule."""
     from rich import box
@@ -518,6 +512,7 @@ def _lot_requirements(run) -> list:
     from rich.text import Text
 
     from ..criteria.verdicts import worst_judged_margin
+    from .verdicts import not_valid_part
 
     st = run.stats
     out: list[Any] = []
@@ -563,7 +558,7 @@ def _lot_requirements(run) -> list:
             out.append(
                 Text(
                     f"Yield: {y.passed} of {y.total} samples pass every per-sample requirement ({_fmt(y.percent, '.1f')} %); "
-                    f"{y.failed} fail{_not_valid_part(y)}, {y.not_judged} not judged, {y.indeterminate} indeterminate."
+                    f"{y.failed} fail{not_valid_part(y)}, {y.not_judged} not judged, {y.indeterminate} indeterminate."
                 )
             )
         if run.check is not None and not run.has_yield_clause:

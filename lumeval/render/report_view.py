@@ -488,10 +488,10 @@ def _statistics_notes(lot, names) -> list[str]:
         notes.append(f"Largest Δu′v′ between two samples: {mp:.4f}.")
     y = getattr(lot, "yield_", None)
     if y is not None:
-        nv = getattr(y, "not_valid", 0)
-        notes.append(f"Yield: {y.passed} of {y.total} passed ({y.percent:.1f} %); {y.failed} failed"
-                     + (f" (of which {nv} not valid: a judged figure computed outside its validity range)" if nv else "")
-                     + f", {y.indeterminate} indeterminate, {y.not_judged} not judged.")
+        from .verdicts import not_valid_part
+
+        notes.append(f"Yield: {y.passed} of {y.total} passed ({y.percent:.1f} %); {y.failed} failed{not_valid_part(y)}, "
+                     f"{y.indeterminate} indeterminate, {y.not_judged} not judged.")
     out = getattr(lot, "outlier", None)
     if out is not None and np.any(out):
         k = int(np.sum(out))

@@ -617,6 +617,13 @@ ROUNDING_NOTE = ("A requirement marked \"value rounded\" compares the measured v
                  "those of the rounded value.")
 
 
+def not_valid_part(y) -> str:
+    """How many of a lot yield's failed samples are not valid (counted as failing), for the
+    yield line of the terminal and HTML reports, or nothing."""
+    nv = getattr(y, "not_valid", 0)
+    return f" (of which {nv} not valid: a judged figure computed outside its validity range)" if nv else ""
+
+
 def margin_meaning(rule: str | None = None) -> str:
     """What a printed margin is measured to, under decision rule ``rule`` (None or "simple": no
     guard band): the clause footer of the terminal report and the rule text of the HTML one."""

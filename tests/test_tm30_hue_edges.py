@@ -220,8 +220,8 @@ def test_bin_positions_equal_those_of_the_reference_hue():
         got_fl, got_pos, near_edge = T._bin_positions(jr)
         np.testing.assert_array_equal(got_fl, fl)
         want = T.hue_edge_pairs(T.reference_hue(jr))  # the public function's own computation
-        assert T._edge_pairs(got_pos, got_fl, m, candidates=np.nonzero(near_edge)) == want
-        assert T._edge_pairs(pos, fl, m) == want
+        assert T._edge_pairs(got_pos, got_fl, m, np.nonzero(near_edge)) == want
+        assert T._edge_pairs(pos, fl, m, np.nonzero(np.ones(pos.shape, dtype=bool))) == want  # every CES a candidate
         tol = T.HUE_EDGE_TOLERANCE_DEG
         near = (pos <= tol) | (pos >= T.BIN_WIDTH_DEG - tol)  # positions that make knife edges: the same bits
         np.testing.assert_array_equal(got_pos[near], pos[near])

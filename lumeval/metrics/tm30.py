@@ -406,19 +406,23 @@ def _bin_positions(Jab_ref: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndar
     h *= 180.0 / np.pi
     np.add(h, 180.0, out=h, where=a < 0.0)
     np.add(h, 360.0, out=h, where=h < 0.0)
+    fl = _split_bins(h)
+    lo = HUE_EDGE_TOLERANCE_DEG + _HUE_EXACT_MARGIN_DEG
+    near = ~((h > lo) & (h < BIN_WIDTH_DEG - lo))  # NaN: near
+    if near.any():
+        hq = reference_hue(Jab_ref[near])
+        fl[near], h[near] = _split_bins(hq), hq
+    return fl, h, near
+
+
+def _split_bins(h: np.ndarray) -> np.ndarray:
+    """floor(h / 22.5°) of hues ``h`` (degrees), which are made in place the position within
+    that bin: (h / 22.5° − floor) · 22.5°."""
     h /= BIN_WIDTH_DEG
     fl = np.floor(h)
     h -= fl
     h *= BIN_WIDTH_DEG
-    lo = HUE_EDGE_TOLERANCE_DEG + _HUE_EXACT_MARGIN_DEG
-    near = ~((h > lo) & (h < BIN_WIDTH_DEG - lo))  # NaN: near
-    if near.any():
-        hq = reference_hue(Jab_ref[near]) / BIN_WIDTH_DEG
-        f = np.floor(hq)
-        hq -= f
-        hq *= BIN_WIDTH_DEG
-        fl[near], h[near] = f, hq
-    return fl, h, near
+    return cast("np.ndarray", fl)
 
 
 def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[tuple[tuple[int, int], ...], ...]:
@@ -463,20 +467,17 @@ def hue_edge_pairs(hue_ref_deg: ArrayLike, tolerance_deg: float = HUE_EDGE_TOLER
     return tuple(out)
 
 
-def _edge_pairs(r: np.ndarray, own: np.ndarray, m: int, tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG,
-                candidates: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[Any, ...]:
+def _edge_pairs(r: np.ndarray, own: np.ndarray, m: int, candidates: tuple[np.ndarray, np.ndarray],
+                tolerance_deg: float = HUE_EDGE_TOLERANCE_DEG) -> tuple[Any, ...]:
     """:func:`hue_edge_pairs` from the position within the bin ``r`` (degrees above the bin's
     lower edge) and ``own`` = floor(h / 22.5°) of each (spectrum, CES), shape (m, 99).
 
     ``candidates``: (rows, columns) in row-major order (``np.nonzero``'s) of the only
-    (spectrum, CES) that can lie on an edge (all when None)."""
-    if candidates is None:
-        rows, cols = np.nonzero((r <= tolerance_deg) | (r >= BIN_WIDTH_DEG - tolerance_deg))
-    else:
-        rows, cols = candidates
-        rc = r[rows, cols]
-        keep = (rc <= tolerance_deg) | (rc >= BIN_WIDTH_DEG - tolerance_deg)
-        rows, cols = rows[keep], cols[keep]
+    (spectrum, CES) that can lie on an edge (:func:`_bin_positions`' ``near``)."""
+    rows, cols = candidates
+    rc = r[rows, cols]
+    keep = (rc <= tolerance_deg) | (rc >= BIN_WIDTH_DEG - tolerance_deg)
+    rows, cols = rows[keep], cols[keep]
     out: list[tuple[tuple[int, int], ...]] = [()] * m
     if not rows.size:
         return tuple(out)
@@ -596,7 +597,7 @@ def _tm30_core(
     fl, hq, near = _bin_positions(jr)
     bins = np.clip(fl.astype(int), 0, N_BINS - 1)
     rows, cols = np.nonzero(near)
-    edges = _edge_pairs(hq, fl, m, candidates=(rows, cols))  # knife edges (see hue_edge_pairs)
+    edges = _edge_pairs(hq, fl, m, (rows, cols))  # knife edges (see hue_edge_pairs)
     # Per-(spectrum, bin) sums as one weighted bincount over flat indices m·16 + bin.
     flat = (np.arange(m)[:, None] * N_BINS + bins).ravel()
 

@@ -339,8 +339,9 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     dc = np.asarray(cri.dc, dtype=float)
     # per-spectrum values as Python lists once (indexing numpy arrays element by element in the
     # loop below cost more than the messages themselves)
-    outside = np.asarray(cct.outside_validity, dtype=bool).tolist()
-    dc_bad = (np.isfinite(dc) & ~np.asarray(cri.within_dc_limit, dtype=bool)).tolist()
+    outside_a = np.asarray(cct.outside_validity, dtype=bool)
+    dc_bad_a = np.isfinite(dc) & ~np.asarray(cri.within_dc_limit, dtype=bool)
+    outside, dc_bad = outside_a.tolist(), dc_bad_a.tolist()
     dc_list = dc.tolist()
     ref_T = np.asarray(cct.reference_cct_K, dtype=float)
     ref_ok = np.isfinite(ref_T).tolist()
@@ -353,14 +354,14 @@ def _warnings_for(spectra: SpectrumSet | PreparedSpectra, cct: Any, cri: Any, fi
     notes = spectra.notes
     # most spectra have nothing to say: their notes as they are; the others are found at C speed
     # (a true value in any of the per-spectrum lists) and get their messages below
-    flagged = [np.fromiter(map(bool, flags), dtype=bool, count=n)
-               for flags in (dc_bad, outside, cct_reason, fid_reason, phot_reason, edges)]
-    others = np.logical_or.reduce(flagged[1:])
+    others = outside_a.copy()
+    for flags in (cct_reason, fid_reason, phot_reason, edges):
+        others |= np.fromiter(map(bool, flags), dtype=bool, count=n)
     out = list(map(tuple, notes))  # (tuple() of a tuple is that tuple: no copy)
     # the commonest case alone (a DC at or over the limit and nothing else to say: most spectra
     # of a lot far from the locus), its message from one format string
     dc_text = _DC_WARNING.format(DC_LIMIT)  # the limit put in once: "DC = %.4f is not below 0.0054 ..."
-    dc_only = np.flatnonzero(flagged[0] & ~others)
+    dc_only = np.flatnonzero(dc_bad_a & ~others)
     for i, x in zip(dc_only.tolist(), dc[dc_only].tolist()):
         out[i] = (*notes[i], dc_text % x)
     for i in np.flatnonzero(others).tolist():

@@ -200,6 +200,28 @@ def test_ler_range_dependence_example(luxpy):
         assert round(ours, 1) == expected
 
 
+def test_ler_of_a_short_spectrum_counts_its_extension(colour, luxpy):
+    # docs/metrics.md: a spectrum covering less than 380-780 nm is extended by repeating its end
+    # values, and that extension counts in ∫S dλ. A 3000 K Planckian radiator (colour-science's
+    # Planck's law) sampled at 400-700 nm, through the engine (which prepares it): luxpy's
+    # spd_to_ler of the same spectrum extended by hand gives lumeval's figure; over the 400-700 nm
+    # data alone luxpy gives another (the docs' 167.7 and 254.3 lm/W, to 0.1 lm/W).
+    from lumeval.engine import evaluate
+    from lumeval.spectra.model import SpectrumSet
+
+    wl = np.arange(400.0, 701.0)
+    s = colour.colorimetry.planck_law(wl * 1e-9, 3000.0)
+    ev = evaluate(SpectrumSet(wl, s[None], ("bb",), ("bb.csv",)))
+    assert any(w.startswith("EXTRAPOLATED") for w in ev.warnings[0])
+    ours = ev.figure("ler_lm_per_W")[0]
+    wl_x = np.arange(380.0, 781.0)
+    s_x = np.concatenate([np.full(20, s[0]), s, np.full(80, s[-1])])
+    extended = float(np.ravel(luxpy.spd_to_ler(np.vstack([wl_x, s_x]), K=KM_LM_PER_W))[0])
+    measured = float(np.ravel(luxpy.spd_to_ler(np.vstack([wl, s]), K=KM_LM_PER_W))[0])
+    assert ours == pytest.approx(extended, rel=1e-9)
+    assert (round(ours, 1), round(measured, 1)) == (167.7, 254.3)
+
+
 def test_ler_against_colour_luminous_efficacy(colour):
     # colour.luminous_efficacy integrates with the trapezoid rule; on a spectrum that vanishes at
     # both ends of the grid the trapezoid and the plain sum coincide, so the values must agree.

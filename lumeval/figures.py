@@ -109,7 +109,7 @@ class Figure:
 
     def format_margin(self, margin: Any, *, unit: bool = False) -> str:
         """A margin (positive inside the acceptance zone) with this figure's precision and a sign;
-        extra decimals (at most 6) so that a non-zero margin never prints as zero."""
+        extra decimals so that a non-zero margin never prints as zero (:func:`margin_extra_decimals`)."""
         return self.format(margin, margin_extra_decimals(margin, self.decimals), unit=unit, sign=True)
 
     def value(self, ev: Evaluation) -> np.ndarray:
@@ -142,9 +142,16 @@ def format_number(value: Any, spec: str, *, missing: str = "n/a") -> str:
     return text
 
 
-def margin_extra_decimals(margin: Any, decimals: int, *, limit: int = 6) -> int:
+#: Most extra decimals a margin gets: enough for the last bit of any figure lumeval reports
+#: (a margin of one unit in the last place of a value near 100 is 1.4e-14; of a Duv, 4e-19).
+MARGIN_EXTRA_MAX = 20
+
+
+def margin_extra_decimals(margin: Any, decimals: int, *, limit: int = MARGIN_EXTRA_MAX) -> int:
     """Decimals beyond ``decimals`` needed so that a non-zero ``margin`` does not print as zero
-    (at most ``limit``): -7.03 % against a limit of -7 % must not read "margin 0"."""
+    (at most ``limit``): -7.03 % against a limit of -7 % must not read "margin 0", and a value
+    3.4e-13 above a limit written to 14 digits must not read "0.000000 ✘ FAIL" (found by a
+    review)."""
     if margin is None:
         return 0
     f = float(margin)

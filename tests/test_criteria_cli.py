@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from numpy.testing import assert_allclose
 
 from lumeval.metrics.planck import planck_exitance
 from lumeval.render.tables import read_csv_report
@@ -523,19 +524,59 @@ def test_claims_on_figures_outside_their_validity_range_are_not_checkable(tmp_pa
         assert "outside the validity range" in rows[fig]["reason"]
 
 
-def test_a_clause_on_the_ansi_category_says_when_it_is_only_the_nearest(tmp_path, spectra_dir):
+def test_a_clause_on_the_ansi_category_fails_light_in_no_category(tmp_path, spectra_dir, capsys):
     """The ANSI category figure is the quadrangle containing the chromaticity or the nearest
-    (docs/metrics.md); a clause on it passes a point outside every quadrangle. The reason says
-    so, with the distance (the ansi_distance_upvp figure), for such points only (found by a
-    review). A 3000 K Planckian lies inside the 3000 K quadrangle (ANSI C78.377: the categories
-    straddle the locus)."""
+    (docs/metrics.md); a clause on it requires a category, so a point outside every quadrangle
+    fails it, whatever its nearest category (found by reviews: a green line 0.16 off the locus
+    passed as "5000 K", a 1500 K Planckian as "2200 K"), with no margin in kelvin and a reason
+    giving the distance (the ansi_distance_upvp figure). A 3000 K Planckian lies inside the
+    3000 K quadrangle (ANSI C78.377: the categories straddle the locus) and passes; a 1500 K
+    Planckian lies beyond the warm end of every category (the lowest is 2200 K) and fails."""
     import lumeval
 
     wl = np.arange(380.0, 781.0, 1.0)
     v = np.exp(-0.5 * ((wl - 530.0) / 15.0) ** 2)
     green = write(tmp_path, "wl,green\n" + "".join(f"{a:g},{b:.6f}\n" for a, b in zip(wl, v)), "green.csv")
-    crit = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nfigure = "ansi_category_K"\nrange = [2700, 6500]\n')
-    res = lumeval.check([green, spectra_dir / "planck3000.csv"], crit)
+    b = planck_exitance(wl, 1500.0)
+    warm = write(tmp_path, "wl,bb1500\n" + "".join(f"{a:g},{x / b.max():.8f}\n" for a, x in zip(wl, b)), "bb1500.csv")
+    crit = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nfigure = "ansi_category_K"\nrange = [2200, 6500]\n')
+    res = lumeval.check([green, spectra_dir / "planck3000.csv", warm], crit)
     (r,) = res.results
-    assert "outside every ANSI C78.377 quadrangle" in r.reason[0] and 'kind = "ansi_quadrangle"' in r.reason[0]
-    assert "outside every" not in (r.reason[1] or "")
+    assert r.outcome == ("fail", "pass", "fail")
+    assert np.isnan(r.margin[0]) and np.isnan(r.margin[2]) and r.margin[1] > 0
+    d = lumeval.inspect([green, spectra_dir / "planck3000.csv", warm]).figure("ansi_distance_upvp")
+    for i, nearest in ((0, 5000), (2, 2200)):
+        assert r.measured[i] == nearest
+        assert r.reason[i].startswith(f"in no ANSI C78.377 category: the chromaticity lies outside every quadrangle "
+                                      f"(Δu′v′ = {d[i]:.4f} outside the nearest, {nearest} K)")
+        assert 'kind = "ansi_quadrangle"' in r.reason[i]
+    assert not r.reason[1]
+    code, out, err = run(["check", green, "--criteria", crit], capsys)
+    assert code == 1 and "FAIL" in out and "in no ANSI C78.377" in out, out + err
+
+
+def test_a_margin_of_a_few_units_in_the_last_place_never_prints_as_zero(tmp_path, spectra_dir, capsys):
+    """docs/criteria.md: "a margin that would round to zero is printed with more decimals ...
+    never 0.0". A limit written to the last digit of a measured Ra, three units in the last
+    place below it (numpy.nextafter), fails it by about 4e-14: the terminal and the CSV report
+    prints a margin with a non-zero digit (it printed "0.000000 ✘ FAIL"; found by a review), and
+    the CSV report carries the margin itself."""
+    import re
+
+    import lumeval
+
+    f = spectra_dir / "planck3000.csv"
+    ra = float(lumeval.inspect([f]).figure("Ra")[0])
+    limit = ra
+    for _ in range(3):
+        limit = float(np.nextafter(limit, -np.inf))
+    crit = write(tmp_path, f'lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmax = {limit!r}\n')
+    code, out, err = run(["check", f, "--criteria", crit], capsys)
+    assert code == 1 and "FAIL" in out, out + err
+    margins = re.findall(r"-0\.0*([1-9])", out)
+    assert margins, out  # e.g. "-0.00000000000004"
+    code, out, err = run(["check", f, "--criteria", crit, "--format", "csv"], capsys)
+    assert code == 1
+    (row,) = read_csv_report(out)
+    assert row["clause_id"] == "Ra" and row["outcome"] == "fail"
+    assert_allclose(float(row["margin"]), limit - ra, rtol=1e-12)  # the value as computed, not rounded

@@ -38,16 +38,27 @@ def with_hue_edge_warnings(ev, figure: str, reason: tuple[str, ...]) -> tuple[st
 
 def nearest_category_notes(ev, r):
     """The ANSI category figure names the quadrangle containing the chromaticity *or the nearest
-    one*: a clause on it passes a point outside every quadrangle (a green line 0.16 off the
-    locus was "5000 K, pass"; found by a review). Each such spectrum's reason says so and how
-    far out it lies; membership is what an `ansi_quadrangle` clause judges."""
+    one*. A clause on it requires a category, so a point outside every quadrangle fails it
+    whatever the nearest category is (a green line 0.16 off the locus was "5000 K, pass", a
+    1500 K Planckian "2200 K, pass": found by reviews), with no margin in kelvin (NaN: the
+    distance is the reason's Δu′v′) and a conformance probability of 0 under a decision rule.
+    Spectra not judged (no chromaticity) stay so. Membership of one quadrangle is what an
+    `ansi_quadrangle` clause judges."""
+    from .verdicts import FAIL, NOT_JUDGED
+
     d = np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
-    out = np.flatnonzero(np.isfinite(d) & (d > 0))
-    if not out.size:
+    out = [i for i in np.flatnonzero(np.isfinite(d) & (d > 0)).tolist() if r.outcome[i] != NOT_JUDGED]
+    if not out:
         return r
     reasons = list(r.reason) if r.reason else [""] * d.size
+    outcome, margin = list(r.outcome), np.array(r.margin, dtype=float)
+    p = None if r.p_conformance is None else np.array(r.p_conformance, dtype=float)
     for i in out:
-        note = (f"the nearest category: the chromaticity lies outside every ANSI C78.377 quadrangle "
-                f"(Δu′v′ = {d[i]:.4f} out); to require it inside, use kind = \"ansi_quadrangle\"")
+        nearest = figures.get("ansi_category_K").format(r.measured[i]) if np.isfinite(r.measured[i]) else "n/a"
+        note = (f"in no ANSI C78.377 category: the chromaticity lies outside every quadrangle (Δu′v′ = {d[i]:.4f} "
+                f"outside the nearest, {nearest} K); to require one quadrangle, use kind = \"ansi_quadrangle\"")
         reasons[i] = f"{reasons[i]}; {note}" if reasons[i] else note
-    return replace(r, reason=tuple(reasons))
+        outcome[i], margin[i] = FAIL, np.nan
+        if p is not None:
+            p[i] = 0.0
+    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin, p_conformance=p)

@@ -75,7 +75,7 @@ def _num(v):
 
 def _extra_decimals(margin: float, spec: str) -> int:
     """Extra decimals needed so that a non-zero margin does not print at the decimals of the
-    fixed-point ``spec`` (like "+.1f") as zero, at most 6: the figure registry's rule
+    fixed-point ``spec`` (like "+.1f") as zero: the figure registry's rule
     (:func:`lumeval.figures.margin_extra_decimals`)."""
     from ..figures import margin_extra_decimals
 

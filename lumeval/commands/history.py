@@ -284,11 +284,14 @@ def register(app: typer.Typer) -> None:
     @history.command("migrate")
     def migrate_cmd(store: str = store_opt) -> None:
         """Migrate a store written by an older lumeval to this lumeval's schema (back it up first)."""
-        from ..store.db import SCHEMA_VERSION, migrate, parse_store_url
+        from ..store.db import SCHEMA_VERSION, migrate_report, parse_store_url
 
         su = parse_store_url(store)
-        before, after = migrate(su)
-        if before == after:
+        before, after, added = migrate_report(su)
+        indexes = f"; added the index {', '.join(added)}" if added else ""
+        if before == after and not added:
             print(f"{su.shown}: already at schema version {SCHEMA_VERSION}; nothing to do")
+        elif before == after:
+            print(f"{su.shown}: at schema version {SCHEMA_VERSION}{indexes}")
         else:
-            print(f"{su.shown}: migrated from schema version {before} to {after}")
+            print(f"{su.shown}: migrated from schema version {before} to {after}{indexes}")

@@ -18,7 +18,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .db import SQLITE_BUSY_TIMEOUT_S, StoreError, StoreURL, connect, ensure_schema, parse_store_url
+from .db import (
+    SQLITE_BUSY_TIMEOUT_S,
+    StoreError,
+    StoreURL,
+    connect,
+    ensure_schema,
+    missing_indexes,
+    parse_store_url,
+)
 
 #: Samples written per INSERT batch.
 INSERT_BATCH = 1000
@@ -88,12 +96,15 @@ class RecordResult:
     #: in each lot. ``n_inputs``: this lot's input files.
     overlaps: tuple[tuple[int, int], ...] = ()
     n_inputs: int = 0
+    #: Indexes of :data:`lumeval.store.db.EXTRA_INDEXES` the store lacks (created by an earlier
+    #: lumeval): recording works, but slows down as the store grows.
+    missing_indexes: tuple[str, ...] = ()
 
     @property
     def message(self) -> str:
         what = f"lot {self.lot_id}" + (f" ({self.label})" if self.label else "")
         if self.created:
-            return f"recorded as {what} in {self.store}" + self.overlap_note
+            return f"recorded as {what} in {self.store}" + self.overlap_note + self.index_note
         return f"already recorded as {what} in {self.store} (same input files and criteria): not recorded again"
 
     @property
@@ -114,6 +125,15 @@ class RecordResult:
             parts.append(f"{what} already in {_lots_text(ids)}")
         return ("; note: " + "; ".join(parts) + " (the same bytes, recorded under other criteria or in another lot of "
                 "this product): a trend of the product counts those samples in each of these lots")
+
+
+    @property
+    def index_note(self) -> str:
+        """"; note: …" when the store lacks an index this lumeval creates ("" otherwise)."""
+        if not self.missing_indexes:
+            return ""
+        return (f"; note: the store lacks the index {', '.join(self.missing_indexes)} (created by an earlier lumeval): "
+                f"recording slows down as the store grows; `lumeval history migrate --store {self.store}` adds it")
 
 
 def _lots_text(ids: list[int]) -> str:
@@ -311,10 +331,15 @@ def record_lot(store: str | StoreURL, rec: LotRecord, *, _after_batch=None) -> R
         pause = min(pause * 2, 0.5)
 
 
-def _overlapping_lots(conn, t, rec: LotRecord) -> tuple[tuple[int, int], ...]:
+def _overlapping_lots(conn, t, rec: LotRecord, file_index: bool = True) -> tuple[tuple[int, int], ...]:
     """(lot id, how many of ``rec``'s input files it holds) of the lots of ``rec``'s product
     already in the store that hold any of its input files (the same SHA-256; two identical
-    files of ``rec`` count as two), most shared first, then by id."""
+    files of ``rec`` count as two), most shared first, then by id.
+
+    ``file_index``: the store has the index on lot_inputs.sha256 (``ix_lot_inputs_sha256``):
+    the lots holding any of the files are found by it, then those of the product are kept.
+    Without it (a store created by an earlier lumeval) one query joins the two tables, which
+    the product's index drives: it reads every input row of the product's lots, and no other."""
     from sqlalchemy import select
 
     per_sha: dict[str, int] = {}
@@ -327,10 +352,17 @@ def _overlapping_lots(conn, t, rec: LotRecord) -> tuple[tuple[int, int], ...]:
     same_product = lots.c.product.is_(None) if rec.product is None else lots.c.product == rec.product
     found: dict[int, set[str]] = {}
     for k in range(0, len(shas), 900):  # IN lists within SQLite's oldest limit of 999 parameters
-        q = (select(li.c.lot_id, li.c.sha256).distinct().join(lots, lots.c.id == li.c.lot_id)
-             .where(li.c.sha256.in_(shas[k:k + 900]), same_product))
+        q = select(li.c.lot_id, li.c.sha256).distinct().where(li.c.sha256.in_(shas[k:k + 900]))
+        if not file_index:
+            q = q.join(lots, lots.c.id == li.c.lot_id).where(same_product)
         for lot_id, sha in conn.execute(q):
             found.setdefault(int(lot_id), set()).add(sha)
+    if file_index:  # the lots found, of the product only
+        ids = sorted(found)
+        ours: set[int] = set()
+        for k in range(0, len(ids), 900):
+            ours.update(map(int, conn.execute(select(lots.c.id).where(lots.c.id.in_(ids[k:k + 900]), same_product)).scalars()))
+        found = {lot_id: got for lot_id, got in found.items() if lot_id in ours}
     shared = {lot_id: sum(per_sha[s] for s in got) for lot_id, got in found.items()}
     return tuple(sorted(shared.items(), key=lambda kv: (-kv[1], kv[0])))
 
@@ -345,7 +377,8 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
             row = existing(conn)
             if row is not None:
                 return RecordResult(int(row[0]), False, su.shown, rec.product, row[1])
-            overlaps = _overlapping_lots(conn, t, rec)
+            lacking = missing_indexes(conn)
+            overlaps = _overlapping_lots(conn, t, rec, "ix_lot_inputs_sha256" not in lacking)
             reg = rec.region
             lot_id = conn.execute(insert(t["lots"]).values(
                 lot_key=key, label=rec.label, product=rec.product, recorded_at=_now(),
@@ -382,7 +415,8 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
                 conn.execute(insert(t["samples"]), batch)
                 if _after_batch is not None:
                     _after_batch(k + 1)
-            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label, overlaps, len(rec.inputs))
+            return RecordResult(int(lot_id), True, su.shown, rec.product, rec.label, overlaps, len(rec.inputs),
+                                lacking)
     except IntegrityError:
         pass  # the same lot, recorded by another process at the same moment: report that record
     with connect(su, write=False, action="read the store") as conn:

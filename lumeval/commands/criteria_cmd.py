@@ -273,22 +273,26 @@ _CLAIM_OUTCOME = {"supported": "pass", "contradicted": "fail", "not checkable": 
 
 def claims_verdict_rows(result) -> list[dict]:
     """The claims judged, as verdict rows for the HTML report (supported: pass; contradicted:
-    fail, the margin being by how much, negative as every margin outside its limit is; not
-    checkable: not judged, with the reason).
+    fail; not checkable: not judged, with the reason), in the terminal's words
+    (:func:`lumeval.render.claims_report.claim_texts`): the measured value, the accepted bounds
+    with how the claim was read, and by how much a contradicted claim misses (measured − stated
+    bound, signed as in the terminal, JSON and CSV reports: the HTML gave its opposite under
+    "margin" and the reading instead of the bounds; found by a review)."""
+    from ..render.claims_report import claim_texts
 
-    (The report's margins are + inside the limits, − outside; a claim's excess is measured −
-    stated bound, positive for a maximum exceeded, which the report showed as "+5" for Ra 85
-    against "<= 80".)"""
     rows = []
     for r in result.results:
         c = r.claim
         for i, name in enumerate(result.names):
-            ex = float(r.excess[i])
+            measured, accepted, by = claim_texts(r, i)
+            contradicted = r.outcome[i] == "contradicted"
             rows.append({
                 "sample": name, "clause": f"{c.key} = {c.text}", "figure": c.figure or c.key,
-                "measured": float(r.measured[i]), "unit": r.unit, "limit": c.tolerance_note or c.text,
+                "measured": float(r.measured[i]), "unit": r.unit,
+                "limit": f"{accepted} ({c.tolerance_note})" if c.tolerance_note and accepted != "—" else accepted,
                 "lower": c.lower, "upper": c.upper,
-                "margin": -abs(ex) if r.outcome[i] == "contradicted" else None,
+                "margin": float(r.excess[i]) if contradicted else None,
+                "measured_text": measured, "margin_text": by,
                 "outcome": _CLAIM_OUTCOME.get(r.outcome[i], "not judged"), "reason": r.reason[i],
             })
     return rows

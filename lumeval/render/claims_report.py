@@ -57,14 +57,9 @@ def claims_renderables(check) -> list:
         for r in check.results:
             o = r.outcome[i]
             c = r.claim
-            spec = _spec(c.figure) if c.figure else ".3g"
-            accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
-            spec = _bounds_spec(c, spec)  # the measured value as precise as the accepted bounds
-            mspec = _more(spec, _claim_decimals(c, r.measured[i], r.excess[i], spec)) if o == "contradicted" else spec
-            by = _f(r.excess[i], "+" + mspec, r.unit) if o == "contradicted" else ""
-            t.add_row(">>" if o == "contradicted" else "", _text(c.key), _text(c.text),
-                      _text(_f(r.measured[i], mspec, r.unit) if not c.not_checkable else "—"), _text(accepted), _text(by),
-                      Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
+            measured, accepted, by = claim_texts(r, i)
+            t.add_row(">>" if o == "contradicted" else "", _text(c.key), _text(c.text), _text(measured), _text(accepted),
+                      _text(by), Text(_CLAIM_WORD[o], style=_CLAIM_STYLE[o]), style="bold red" if o == "contradicted" else None)
             if r.reason[i]:
                 notes.append(f"{c.key}: {r.reason[i]}")
         out.append(t)
@@ -85,6 +80,20 @@ def claims_renderables(check) -> list:
     out.append(overall)
     out.append(_cautions_text())
     return out
+
+
+def claim_texts(r, i: int) -> tuple[str, str, str]:
+    """(measured, accepted as, by how much) of claim result ``r`` for spectrum ``i`` as every
+    report prints them (terminal and HTML): the measured value as precise as the accepted
+    bounds, with more decimals where a contradicted claim would read as inside; "by how much"
+    (measured − stated bound, signed) only for a contradicted claim; "—" where not checkable."""
+    c, o = r.claim, r.outcome[i]
+    spec = _spec(c.figure) if c.figure else ".3g"
+    accepted = "—" if c.not_checkable else _accepted(c, r.unit, spec)
+    spec = _bounds_spec(c, spec)  # the measured value as precise as the accepted bounds
+    mspec = _more(spec, _claim_decimals(c, r.measured[i], r.excess[i], spec)) if o == "contradicted" else spec
+    by = _f(r.excess[i], "+" + mspec, r.unit) if o == "contradicted" else ""
+    return (_f(r.measured[i], mspec, r.unit) if not c.not_checkable else "—"), accepted, by
 
 
 def _claim_decimals(c, measured: float, excess: float, spec: str) -> int:

@@ -40,6 +40,12 @@ class Wording:
     summary: Mapping[str, str]
     #: the heading of the column naming what was checked
     noun: str
+    #: the heading of the limit column, the word before a margin in a grid cell, the heading of
+    #: the margin column, and the note under the grid saying what the margin is
+    limit_heading: str = "Limit"
+    margin_word: str = "margin"
+    margin_heading: str = "Margin (+ inside)"
+    grid_note: str = "Each cell: verdict, measured value, margin to the nearest limit (+ inside the limits, − outside)."
 
 
 CRITERIA_WORDING = Wording(OUTCOME_TEXT, {
@@ -63,7 +69,9 @@ CLAIMS_WORDING = Wording({
     "not judged": "No claim is contradicted, but at least one could not be checked from the spectrum.",
     "not valid": "At least one claim rests on a figure outside its validity range "
                  "(CRI/TM-30 with |Duv| > 0.05).",
-}, "Claim")
+}, "Claim", limit_heading="Accepted as", margin_word="by how much", margin_heading="By how much",
+    grid_note="Each cell: verdict, measured value and, for a contradicted claim, by how much it misses: measured − "
+              "stated bound (+ above a maximum, − below a minimum), as the terminal, JSON and CSV reports give it.")
 
 
 def worst(outcomes) -> str:
@@ -218,6 +226,8 @@ def _one_row(row) -> VerdictRow:
         outcome=_outcome_of(row),
         reason=str(_get(row, "reason", "note", default="") or ""),
         kind=str(_get(row, "kind", default="") or ""),
+        measured_text=_get(row, "measured_text"),
+        margin_text=_get(row, "margin_text"),
     )
 
 

@@ -202,17 +202,17 @@ def _clause_keys(rows: list[VerdictRow]) -> list[tuple]:
     return keys
 
 
-def _check_cell(r: VerdictRow) -> Cell:
+def _check_cell(r: VerdictRow, margin_word: str = "margin") -> Cell:
     c = check_line(r)
-    return Cell("", outcome=r.outcome, lines=(c.measured,),
-                notes=(f"margin {c.margin_with_uncertainty}",) + ((r.reason,) if r.reason else ()))
+    margin = (f"{margin_word} {c.margin_with_uncertainty}",) if c.margin_with_uncertainty else ()
+    return Cell("", outcome=r.outcome, lines=(c.measured,), notes=margin + ((r.reason,) if r.reason else ()))
 
 
 def _verdict_cell(r: VerdictRow) -> Cell:
     return Cell("", outcome=r.outcome, notes=(r.reason,) if r.reason else ())
 
 
-def sample_checks_table(rows: list[VerdictRow], noun: str = "Criterion") -> Table | None:
+def sample_checks_table(rows: list[VerdictRow], wording: Wording = CRITERIA_WORDING) -> Table | None:
     """One spectrum's checks (its section in a report with too many spectra for the grid)."""
     if not rows:
         return None
@@ -221,11 +221,11 @@ def sample_checks_table(rows: list[VerdictRow], noun: str = "Criterion") -> Tabl
         c = check_line(r)
         body.append(Row((_clause_cell(r),) + cells(c.measured, r.limit, c.margin_with_uncertainty) + (_verdict_cell(r),),
                         r.outcome == "fail"))
-    return Table((noun, "Measured", "Limit", "Margin (+ inside)", "Verdict"), tuple(body),
+    return Table((wording.noun, "Measured", wording.limit_heading, wording.margin_heading, "Verdict"), tuple(body),
                  (False, True, False, True, False))
 
 
-def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: str = "Criterion") -> ChecksView:
+def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, wording: Wording = CRITERIA_WORDING) -> ChecksView:
     """A criterion × sample grid for a few samples, else a list of the checks that did not pass
     (the passes are counted, not listed)."""
     samples = list(dict.fromkeys(r.sample or "lot" for r in rows))
@@ -239,10 +239,9 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: st
         for key, head in first.items():
             found = [grid.get((key, s)) for s in samples]
             body.append(Row((_clause_cell(head), Cell(head.limit))
-                            + tuple(Cell() if r is None else _check_cell(r) for r in found)))
-        return ChecksView("Checks", ("Each cell: verdict, measured value, margin to the nearest limit "
-                                     "(+ inside the limits, − outside).",),
-                          Table((noun, "Limit", *samples), tuple(body), css="grid"))
+                            + tuple(Cell() if r is None else _check_cell(r, wording.margin_word) for r in found)))
+        return ChecksView("Checks", (wording.grid_note,),
+                          Table((wording.noun, wording.limit_heading, *samples), tuple(body), css="grid"))
     not_passed = [r for r in rows if r.outcome != "pass"]
     shown = sorted(not_passed, key=lambda r: r.outcome != "fail")[:MAX_TABLE_ROWS]
     title = f"Checks that did not pass ({len(not_passed)} of {len(rows)})"
@@ -256,7 +255,8 @@ def checks_view(rows: list[VerdictRow], grid_max: int = CHECK_GRID_MAX, noun: st
         body.append(Row((Cell(r.sample or "lot"), _clause_cell(r)) + cells(c.measured, r.limit, c.margin_with_uncertainty)
                         + (_verdict_cell(r),),
                         r.outcome == "fail"))
-    return ChecksView(title, notes, Table(("Sample", noun, "Measured", "Limit", "Margin (+ inside)", "Verdict"),
+    return ChecksView(title, notes, Table(("Sample", wording.noun, "Measured", wording.limit_heading, wording.margin_heading,
+                                           "Verdict"),
                                           tuple(body), (False, False, True, False, True, False)))
 
 
@@ -405,7 +405,7 @@ def verdict_view(rows: list[VerdictRow], verdicts, *, lot, n: int, overall: str 
         identification=tuple((str(k), str(v)) for k, v in dict(ident or {}).items()),
         overall=overall, summary=summary, counts=_counts_text(rows, wording),
         lot_criteria=lot_table, sample_criteria=sample_table, samples_intro=intro, samples=table, samples_footnote=foot,
-        uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max, wording.noun),
+        uncertainty=_uncertainty_text(verdicts), checks=checks_view(rows, grid_max, wording),
         not_judged_summary=not_judged_text(skipped, command) + ":" if skipped else "",
         not_judged=tuple(c.note for c in skipped), criteria_notes=notes)
 
@@ -690,7 +690,7 @@ def build_report_view(
     samples = []
     for num, fl in sorted(per_sample_figs.items()):
         i = int(num) - 1
-        checks = sample_checks_table([r for r in rows if r.sample == names[i]], wording.noun) if grid_too_wide else None
+        checks = sample_checks_table([r for r in rows if r.sample == names[i]], wording) if grid_too_wide else None
         samples.append(sample_view(ev, i, num, fl, checks))
     note_rows, more = notes_by_message(ev, MAX_TABLE_ROWS)
     return ReportView(

@@ -95,11 +95,9 @@ def test_alarm_and_fail_on_signal(store_url, tmp_path):
 
 
 @pytest.mark.parametrize("url, expect", [
-    ("mysql://u@localhost/db", "unsupported store type"),
     ("postgresql://nobody@127.0.0.1:1/nothing", "cannot record the lot"),
     ("{tmp}/missing-folder/history.db", "folder"),
     ("{tmp}", "is a folder"),
-    ("sqlite://", "needs a database file"),
 ])
 def test_bad_store_exit_2_outputs_written(tmp_path, url, expect):
     url = url.format(tmp=tmp_path)
@@ -150,6 +148,30 @@ def _role_exists(srv, role):
 
     with psycopg.connect(host=str(srv.sock), port=srv.port, user=srv.user, dbname="postgres") as c:
         return c.execute("SELECT 1 FROM pg_roles WHERE rolname = %s", (role,)).fetchone() is not None
+
+
+@pytest.mark.parametrize("url, expect", [
+    ("mysql://u@localhost/db", "unsupported store type"),
+    ("sqlite://", "needs a database file"),
+    ("sqlite:///{db}?mode=rwc", "unsupported SQLite URL options"),
+    ("", "the store URL is empty"),
+])
+def test_a_store_url_of_a_wrong_form_is_refused_before_any_work(tmp_path, url, expect):
+    """A store URL that cannot be used is bad input: exit 2, one line, nothing written. It was
+    reported only when the lot was recorded, after the outputs, and the store file it named was
+    then missing from the outputs-vs-inputs check: `--json history.db` with the store as
+    `sqlite:///history.db?mode=rwc` replaced every recorded lot with the lot's JSON (found by a
+    review)."""
+    db = tmp_path / "history.db"
+    record_lot(str(db), make_record([1.0], key="a"))
+    before = db.read_bytes()
+    r = lumeval("lot", *LOT_FILES, "--criteria", CRITERIA, "--quiet", "--store", url.format(db=db),
+                "--json", db, "--samples-csv", tmp_path / "s.csv")
+    assert r.returncode == 2, (r.returncode, r.stderr)
+    line = one_error_line(r)
+    assert expect in line and "not recorded" not in line
+    assert db.read_bytes() == before and not (tmp_path / "s.csv").exists()
+    assert r.stdout == ""
 
 
 def test_store_options_checked_before_any_work(tmp_path):

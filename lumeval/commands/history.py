@@ -82,6 +82,12 @@ def check_store_options(store, lot_id, product, trend_figures, fail_on_signal, b
         if given:
             raise UsageError(f"{given[0]} needs --store", field=given[0], fix="add --store PATH_OR_URL")
         return []
+    from ..store.db import parse_store_url
+
+    # the URL's form before any work: a URL that cannot be used left the store file out of the
+    # outputs-vs-inputs check, and `--json history.db` then replaced every recorded lot before the
+    # store error came (found by a review)
+    parse_store_url(store)
     figures = parse_trend_figures(trend_figures)
     if baseline is not None or baseline_count is not None:
         from ..store.trend import baseline_mask

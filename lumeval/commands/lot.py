@@ -21,7 +21,6 @@ unread samples cannot be declared to pass).
 
 from __future__ import annotations
 
-import contextlib
 import sys
 from collections.abc import Callable
 from enum import Enum
@@ -205,13 +204,12 @@ def register(app: typer.Typer) -> None:
         # Dask run, which expands its own archives)
         expanded = expand_inputs(paths) if scheduler is None and workers is None else None
         # the history store is an input too: an output naming it would replace every recorded lot
-        # (a store URL that cannot be used is reported when the lot is recorded, after its outputs)
+        # (its URL's form was checked above, with the other store options)
         store_file = None
         if store is not None:
-            from ..store.db import StoreError, parse_store_url
+            from ..store.db import parse_store_url
 
-            with contextlib.suppress(StoreError):
-                store_file = parse_store_url(store).sqlite_path
+            store_file = parse_store_url(store).sqlite_path
         found = None
         if any(v is not None for v in (*outputs.values(), plots)):
             found = expanded if expanded is not None else expand_inputs(paths)

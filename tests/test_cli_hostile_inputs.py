@@ -621,3 +621,23 @@ def test_lot_unreadable_and_skipped_names_are_never_markup(tmp_path, capsys):
     flat = "".join(out.split())
     assert "'gone[/]x'" in flat and "[bold]e.csv" in flat
     assert "\x1b" not in out and "\\x1b[2J" in flat
+
+
+@pytest.mark.parametrize("argv", [
+    ["criteria", "new", "c.toml", "--project", "Caf\udce9"],
+    ["criteria", "new", "c.toml", "--force", "--project", "Caf\udce9"],
+    ["series", "s_2700.csv", "s_3500.csv", "--unit", "K\udce9", "--html", "s.html"],
+    ["series", "s_2700.csv", "s_3500.csv", "--setting-key", "k\udce9", "--setting-from", "metadata"],
+])
+def test_text_options_that_are_not_utf8_are_refused(tmp_path, argv):
+    """A text option written into the outputs (a project name, a unit, a metadata field) that is
+    not UTF-8 (undecodable bytes from the command line, here b'\\xe9' as Python receives it) is
+    refused before any work: one line, exit 2, nothing written. It was an internal error, exit
+    3: 'criteria new' could not encode the file, 'series --html' crashed in the plot's text
+    layout (found by a review)."""
+    write_spd(tmp_path / "s_2700.csv")
+    write_spd(tmp_path / "s_3500.csv", shift=5.0)
+    code, out, err = run_sub(argv, tmp_path, timeout=120)
+    option = argv[argv.index(next(a for a in argv if "\udce9" in a)) - 1]
+    one_error_line(code, err, "is not UTF-8 text", option)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["s_2700.csv", "s_3500.csv"]

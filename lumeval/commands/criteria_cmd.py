@@ -327,6 +327,9 @@ def register(app: typer.Typer) -> None:
         force: bool = typer.Option(False, "--force", help="Overwrite an existing file."),
     ) -> None:
         """Write a commented starting criteria file that a specifier edits."""
+        from ._text import require_utf8
+
+        require_utf8("--project", project, "project name")
         text = new_criteria_text(nominal_cct, level.value, project)
         from .._io import refuse_existing
         from ._targets import check_targets

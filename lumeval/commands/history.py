@@ -18,6 +18,7 @@ from pathlib import Path
 import typer
 
 from .._paths import command_line
+from ._text import require_utf8
 
 
 class ListFormat(str, Enum):
@@ -49,23 +50,6 @@ def parse_trend_figures(text: str | None) -> list[str]:
     return out
 
 
-def _utf8_label(option: str, value: str | None) -> None:
-    """Refuse a label that is not UTF-8 text (undecodable bytes from the command line, e.g. a
-    shell variable made from a file name): labels are stored and compared as given, so they are
-    not silently changed to a printable form."""
-    from ..errors import UsageError
-
-    if value is None:
-        return
-    try:
-        value.encode("utf-8")
-    except UnicodeEncodeError:
-        from .._paths import display_path
-
-        raise UsageError(f"{option} {display_path(value)!r} is not UTF-8 text", field=option,
-                         fix="give the label as UTF-8 text") from None
-
-
 def check_store_options(store, lot_id, product, trend_figures, fail_on_signal, baseline=None,
                         baseline_count=None) -> list[str]:
     """Validate ``lot``'s store options before any work: the store URL's form, the trend
@@ -74,7 +58,7 @@ def check_store_options(store, lot_id, product, trend_figures, fail_on_signal, b
     from ..errors import UsageError
 
     for opt, v in (("--lot-id", lot_id), ("--product", product)):
-        _utf8_label(opt, v)
+        require_utf8(opt, v)
     if store is None:
         given = [o for o, v in (("--lot-id", lot_id), ("--product", product), ("--trend-figures", trend_figures),
                                 ("--fail-on-signal", fail_on_signal or None), ("--baseline", baseline),
@@ -208,7 +192,7 @@ def register(app: typer.Typer) -> None:
         output_format: ListFormat = typer.Option(ListFormat.terminal, "--format", "-f", help="terminal or json."),
     ) -> None:
         """List the recorded lots: number, label, product, time, samples, yield, lot verdict."""
-        _utf8_label("--product", product)
+        require_utf8("--product", product)
         from ..store.db import parse_store_url
         from ..store.query import list_lots
 
@@ -247,7 +231,7 @@ def register(app: typer.Typer) -> None:
                                       show_default=False, min=1, max=2**63 - 1),
     ) -> None:
         """Control charts of a figure over the recorded lots, with Western Electric signals."""
-        _utf8_label("--product", product)
+        require_utf8("--product", product)
         from ..store.db import StoreError, parse_store_url
         from ..store.trend import CHROMATICITY_FIGURES, trend
         from ._targets import check_targets

@@ -43,7 +43,10 @@ def register(app: typer.Typer) -> None:
         """Judge a measured series of one product over its settings. Exit 0: every clause met
         over its range; 1: a clause failed or could not be judged; 2: bad input."""
         from ._targets import check_targets
+        from ._text import require_utf8
 
+        require_utf8("--unit", unit, "unit")
+        require_utf8("--setting-key", setting_key, "metadata field")
         check_targets(files={"--html": html},
                       inputs=[*files, *([criteria] if criteria else []), *([manifest] if manifest else [])])
         from ..tunable.api import series_files

@@ -841,10 +841,14 @@ def test_an_output_path_ending_in_a_separator_is_refused(tmp_path):
 
 @pytest.mark.parametrize("argv", [["inspect", "{spd}", "-o", "{tmp}/out.txt/"], ["inspect", "{spd}", "--html={tmp}/r.html/"],
                                   ["lot", "{spd}", "-q", "--json", "{tmp}/lot.json/"],
-                                  ["lot", "{spd}", "-q", "--samples-csv", "{tmp}/s.csv/"]])
+                                  ["lot", "{spd}", "-q", "--samples-csv", "{tmp}/s.csv/"],
+                                  ["convert", "{spd}", "{tmp}/out.csv/"], ["criteria", "new", "{tmp}/c.toml/"],
+                                  ["criteria", "new", "{tmp}/c.toml/", "--force"]])
 def test_a_file_output_ending_in_a_separator_is_refused_by_the_cli(work, capsys, argv):
     """The argument parser drops a trailing separator (pathlib), so `-o out.txt/` wrote a file
-    out.txt (found by exploratory testing); the raw arguments are checked before parsing."""
+    out.txt (found by exploratory testing); the raw arguments are checked before parsing, and
+    the positional outputs (convert's OUT, criteria new's FILE) are taken as typed (they wrote
+    out.csv and c.toml; found by a review)."""
     tmp, spd, _ = work
     before = sorted(p.name for p in tmp.iterdir())
     code, out, err = run([a.format(spd=spd, tmp=tmp) for a in argv], capsys)

@@ -210,8 +210,9 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
             raise UsageError("the output would be a file of the input archive folder: it would replace one of its "
                              "files or join the archive read next time", file=str(dst),
                              fix="write the output outside the input folder")
-    # a folder, a device, a missing folder, an input file: before reading
-    check_targets(files={"OUT": dst_p}, inputs=[src_p] if src_is_folder else [])
+    # a folder (a path ending in a separator too: given as written, which Path() would drop), a
+    # device, a missing folder, an input file: before reading
+    check_targets(files={"OUT": dst if isinstance(dst, str) else dst_p}, inputs=[src_p] if src_is_folder else [])
     refuse_existing(dst_p, "OUT", force=force)
     spectra = read_spectra(src_p)
     if column is not None:

@@ -39,7 +39,7 @@ def __getattr__(name: str):
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
-def emit(text: str, output: Path | None, option: str = "--output", what: str = "report") -> None:
+def emit(text: str, output: str | Path | None, option: str = "--output", what: str = "report") -> None:
     """Print ``text`` (``output`` None or ``-``) or write it atomically to ``output`` (and say
     so on stderr unless --quiet)."""
     from .._io import is_stdout, write_text

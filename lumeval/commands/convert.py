@@ -22,8 +22,10 @@ def register(app: typer.Typer) -> None:
     def convert_cmd(
         src: Path = typer.Argument(..., metavar="IN", show_default=False,
                                    help="Input spectrum file (CSV/text, IES TM-27 XML, lumeval JSON) or Parquet archive (file or folder)."),
-        dst: Path = typer.Argument(..., metavar="OUT", show_default=False,
-                                   help="Output file: .csv, .xml (IES TM-27-14), .json (lumeval JSON) or .parquet (archive)."),
+        # OUT as typed (not a Path, which drops a trailing separator: "out.csv/" names a folder
+        # and is refused by the output policy, as every file-output option is)
+        dst: str = typer.Argument(..., metavar="OUT", show_default=False,
+                                  help="Output file: .csv, .xml (IES TM-27-14), .json (lumeval JSON) or .parquet (archive)."),
         column: str = typer.Option(None, "--column", help="Convert only the spectrum with this name."),
         force: bool = typer.Option(False, "--force", help="Replace the output file if it exists."),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="Do not say which file was written."),

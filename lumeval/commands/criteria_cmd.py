@@ -320,7 +320,8 @@ def register(app: typer.Typer) -> None:
 
     @crit.command("new")
     def new_cmd(
-        output: Path = typer.Argument(None, help="File to write (default or -: print to the screen).", show_default=False),
+        # as typed (not a Path, which drops a trailing separator: "c.toml/" names a folder)
+        output: str = typer.Argument(None, help="File to write (default or -: print to the screen).", show_default=False),
         nominal_cct: int = typer.Option(3000, "--nominal-cct", help="Nominal CCT category of ANSI C78.377-2017 (2200 ... 6500)."),
         level: Level = typer.Option(Level.good, "--level", help="Starting quality level: basic, good or high."),
         project: str = typer.Option("", "--project", help="Project name for the identification block."),

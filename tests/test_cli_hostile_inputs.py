@@ -323,6 +323,30 @@ def test_unknown_wavelength_unit_is_refused_with_the_unit_named(tmp_path, capsys
     one_error_line(code, err, "u.csv", repr(unit), "unit")
 
 
+@pytest.mark.parametrize("label", ["pixel", "Pixels", "px", "channel", "Channel no.", "ch", "index", "bin",
+                                   "Pixel number", "data points", '"pixel"'])
+def test_a_wavelength_column_labelled_as_another_axis_is_refused(tmp_path, capsys, label):
+    """docs/input-files.md: axis labels that are not wavelengths (pixel, channel, index) are
+    refused, never read as nm. A header 'pixel' alone (no bracket, slash or "in") was read as
+    nanometres: a detector's pixel numbers 0-1023 became a 0-1023 nm spectrum (found by a
+    review); with a bracketed unit it was already refused (test above)."""
+    f = tmp_path / "p.csv"
+    f.write_text(f"{label},counts\n" + "\n".join(_rows()) + "\n", encoding="utf-8")
+    code, _out, err = run(["inspect", f], capsys)
+    shown = " ".join(label.strip('"').split())
+    one_error_line(code, err, "p.csv", repr(shown), "an axis that is not a wavelength")
+
+
+@pytest.mark.parametrize("label", ["wavelength", "Wavelength (nm)", "lambda", "nm", "WL", "points of light (nm)"])
+def test_wavelength_headers_are_not_taken_for_other_axes(tmp_path, label):
+    from lumeval.spectra.read import read_spectra
+
+    f = tmp_path / "p.csv"
+    f.write_text(f"{label},counts\n" + "\n".join(_rows()) + "\n", encoding="utf-8")
+    s = read_spectra(f)
+    assert s.wavelengths_nm[0] == 380.0 and s.wavelengths_nm[-1] == 780.0
+
+
 @pytest.mark.parametrize("header", ["wavelength (km) S0", "wavelength [km]   S0", "Wavelength (furlong) Irradiance (W/m2/nm)"])
 def test_unknown_unit_in_a_white_space_header_is_refused(tmp_path, capsys, header):
     """White-space delimited files: a bracketed unit belongs to the header word before it, so the

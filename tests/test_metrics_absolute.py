@@ -16,6 +16,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from lumeval.errors import InputError
 from lumeval.metrics.absolute import absolute_photometry
 from lumeval.spectra.units import (
     IRRADIANCE,
@@ -156,6 +157,40 @@ def test_photometric_scale_uncertainty_reaches_illuminance_only():
     rel = res.u[0] / res.measured[0]
     np.testing.assert_allclose(rel[:2], 0.05, rtol=0.15)
     assert rel[2] < 1e-9
+
+
+@pytest.mark.parametrize("header, unit_line", [("wl,relative intensity (a.u.)", ""), ("wl,lamp", "# unit: %\n"),
+                                               ("wl,counts", "")])
+def test_a_declared_scale_that_contradicts_the_stated_one_is_refused(tmp_path, header, unit_line):
+    """A `# lumeval.scale: absolute` comment (what lumeval's own CSV writer writes to keep a
+    scale through a conversion) made a column headed "relative intensity (a.u.)" absolute, and
+    the reports then gave illuminance and melanopic EDI for it (found by a review). A declared
+    scale that contradicts the header or a unit line is refused naming both; one the file does
+    not contradict is kept (the round trip, test below)."""
+    from lumeval.spectra.read import read_spectra
+
+    f = tmp_path / "c.csv"
+    f.write_text("# lumeval.scale: absolute\n# lumeval.value_unit: W/(m2 nm)\n" + unit_line + header + "\n"
+                 + "".join(f"{w},{1.0 + w / 1000:.4f}\n" for w in range(380, 781, 5)), encoding="utf-8")
+    with pytest.raises(InputError, match=r"'lumeval.scale: absolute' line contradicts the relative scale"):
+        read_spectra(f)
+
+
+def test_a_declared_scale_survives_a_conversion_to_csv(tmp_path):
+    """The other side: an absolute spectrum written to CSV by lumeval (its `# lumeval.scale`
+    line, a header of names) reads back absolute with the same illuminance."""
+    import lumeval
+
+    wl = np.arange(380.0, 781.0, 5.0)
+    v = 1e-3 * np.exp(-0.5 * ((wl - 560.0) / 60.0) ** 2)
+    src = tmp_path / "abs.csv"
+    src.write_text("wl,lamp W/(m2 nm)\n" + "".join(f"{a:g},{b:.6e}\n" for a, b in zip(wl, v)), encoding="utf-8")
+    out = tmp_path / "round.csv"
+    lumeval.convert(src, out)
+    assert "# lumeval.scale: absolute" in out.read_text(encoding="utf-8")
+    a, b = (lumeval.inspect([p]).figure("illuminance_lx")[0] for p in (src, out))
+    assert np.isfinite(a)
+    np.testing.assert_allclose(b, a, rtol=1e-12)  # the same values (the writer keeps every digit read)
 
 
 def test_a_declared_absolute_scale_keeps_the_unit_of_an_ordinary_unit_line(tmp_path):

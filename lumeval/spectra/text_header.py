@@ -71,6 +71,15 @@ _LENGTH_OR_AXIS = re.compile(
 )
 
 
+#: A wavelength column header that is itself an axis label of another kind (a detector's pixel
+#: or channel number, a row index), with or without a "number" word: refused, never read as nm.
+_AXIS_LABEL = re.compile(
+    r"^(?:pixels?|px|channels?|ch|index|indices|bins?|points?|samples?|data\s+points?)"
+    r"(?:\s*(?:no\.?|nr\.?|number|num|#|idx|index))?$",
+    re.I,
+)
+
+
 def _unit_words(text: str, whole: bool) -> list[str]:
     """Candidate unit words in a header cell (``whole=False``) or a unit-only value (``True``)."""
     if whole:
@@ -108,7 +117,17 @@ def _wavelength_unit(header_cell: str | None, meta: dict, file: str, line: int |
         for rx, name, factor in _WL_UNITS:
             if rx.search(t):
                 return name, factor
-    # no unit lumeval reads: a stated unit of any other kind is refused, never taken as nm
+    # no unit lumeval reads: a stated unit of any other kind is refused, never taken as nm, and so
+    # is a header that names another axis ("pixel", "channel no."; found by a review)
+    label = " ".join(header_cell.strip().strip('"').split()) if header_cell else ""
+    if _AXIS_LABEL.match(label):
+        raise InputError(
+            f"the wavelength column is labelled {label[:30]!r}, an axis that is not a wavelength",
+            file=file,
+            line=line,
+            fix="export the spectrum against wavelength in nm (or µm, Å), stated in the column header, e.g. "
+                "'wavelength (nm)'",
+        )
     for t, w in zip(texts, whole):
         for word in _unit_words(t, w):
             if word and (w or _LENGTH_OR_AXIS.match(word)):
@@ -137,7 +156,13 @@ def _states_no_unit(text: str) -> bool:
     return not (_RELATIVE.search(text) or _ABSOLUTE.search(text))
 
 
-def _scale(header_cell: str | None, meta: dict) -> tuple[str, str | None]:
+def _scale(header_cell: str | None, meta: dict, file: str = "") -> tuple[str, str | None]:
+    """(scale, unit text) of a value column: from its header and the file's unit lines, or the
+    scale lumeval's own writer declared (``# lumeval.scale: ...``, kept through a conversion).
+
+    A declared scale that contradicts what the header or a unit line states is refused: it
+    would make a column headed "relative intensity (a.u.)" absolute (illuminance, irradiance...)
+    because of a comment line (found by a review; the TM-27 reader refuses such comments)."""
     texts = []
     if header_cell:
         texts.append(header_cell)
@@ -146,20 +171,30 @@ def _scale(header_cell: str | None, meta: dict) -> tuple[str, str | None]:
         if kl in {"unit", "units", "y unit", "y-unit", "yunit", "y units", "scale", "spectral quantity",
                   "spectralquantity", "quantity", "value unit", "values"}:
             texts.append(v)
+    stated: tuple[str, str | None] = ("unknown", None)
+    for t in texts:
+        if _RELATIVE.search(t):
+            stated = ("relative", t)
+            break
+        if _ABSOLUTE.search(t):
+            stated = ("absolute", t)
+            break
     declared = meta.get("lumeval.scale")
     if declared in {"absolute", "relative", "unknown"}:
+        if declared != "unknown" and stated[0] not in ("unknown", declared):
+            from ..errors import InputError
+
+            raise InputError(
+                f"a 'lumeval.scale: {declared}' line contradicts the {stated[0]} scale its data are stated in "
+                f"({str(stated[1])[:40]!r})", file=file,
+                fix="remove the lumeval.scale line (the header and unit lines state the scale)")
         # a declared scale with its unit on an ordinary line ("unit: mW/(m2 nm)"): that unit
         # (it was dropped, and with it every absolute figure; found by a review)
         unit = meta.get("lumeval.value_unit")
         if unit is None and declared == "absolute":
             unit = next((t for t in texts if _ABSOLUTE.search(t)), None)
         return declared, unit
-    for t in texts:
-        if _RELATIVE.search(t):
-            return "relative", t
-        if _ABSOLUTE.search(t):
-            return "absolute", t
-    return "unknown", None
+    return stated
 
 _GENERIC_WORDS = {
     "value", "values", "intensity", "irradiance", "radiance", "power", "flux", "spd", "spectrum", "spectral",
@@ -380,7 +415,7 @@ def name_spectra(wl: np.ndarray, data: np.ndarray, h: Header, meta: dict, d: Dia
     # nor a word character, like the ends of a string), so no match there means none in any.
     common = None
     if not header or _states_no_unit("\n".join(header[first_column + 1 : first_column + n + 1])):
-        common = _scale(None, meta)
+        common = _scale(None, meta, file)
     for j in range(first_column, first_column + n):
         col_name = header[j + 1] if header else ""
         col_label = col_name  # with its unit, for the scale
@@ -393,7 +428,7 @@ def name_spectra(wl: np.ndarray, data: np.ndarray, h: Header, meta: dict, d: Dia
             name = col_name or f"{stem}#{j + 1}"
             src = f"{file}#{col_name}" if col_name else f"{file}#{j + 1}"
         m = dict(meta)
-        scale, unit = common if common is not None else _scale(col_label or None, meta)
+        scale, unit = common if common is not None else _scale(col_label or None, meta, file)
         m["lumeval.scale"] = scale
         if unit:
             m["lumeval.value_unit"] = unit

@@ -665,3 +665,30 @@ def test_text_options_that_are_not_utf8_are_refused(tmp_path, argv):
     option = argv[argv.index(next(a for a in argv if "\udce9" in a)) - 1]
     one_error_line(code, err, "is not UTF-8 text", option)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["s_2700.csv", "s_3500.csv"]
+
+
+def test_a_very_long_spectrum_name_is_shortened_in_figures_only(tmp_path):
+    """A 20,000-character column header (a spectrum name; text from a file) took 11 s of text
+    layout per report and squeezed the plot axes to nothing, with matplotlib's warnings on
+    standard error (200,000 characters: 84 s and 1 GB; found by a review). Figures now show at
+    most PLOT_TEXT_MAX characters of it, ending in "…"; the report's tables and the JSON keep
+    it whole; nothing is printed on standard error but the written files."""
+    from lumeval.render.plots import PLOT_TEXT_MAX
+
+    name = "N" * 20000
+    write_spd(tmp_path / "long.csv")
+    text = (tmp_path / "long.csv").read_text(encoding="utf-8").splitlines()
+    (tmp_path / "long.csv").write_text("\n".join([f"wavelength (nm),{name}", *text[1:]]) + "\n", encoding="utf-8")
+    code, out, err = run_sub(["inspect", "long.csv", "--html", "r.html", "--plots", "p", "-f", "json", "--quiet"],
+                             tmp_path, timeout=300)
+    assert code == 0, err
+    assert err == "", err
+    assert json.loads(out)["spectra"][0]["name"] == name
+    assert name in (tmp_path / "r.html").read_text(encoding="utf-8")  # the tables: whole
+    svgs = list((tmp_path / "p").glob("*.svg"))
+    assert svgs
+    short = "N" * (PLOT_TEXT_MAX - 1) + "…"
+    for svg in svgs:
+        body = svg.read_text(encoding="utf-8")
+        assert "N" * PLOT_TEXT_MAX not in body, svg.name
+    assert any(short in s.read_text(encoding="utf-8") for s in svgs)

@@ -137,14 +137,23 @@ def figure_png(fig, dpi: int = 150) -> bytes:
     return buf.getvalue()
 
 
+#: Characters of a text from a file shown in a figure at most (a longer one ends in "…").
+PLOT_TEXT_MAX = 40
+
+
 def _lit(value) -> str:
     """Text from a file (a spectrum name, a criteria label) as literal figure text: control
     characters escaped (:func:`lumeval.render.safe.clean`), ``$`` escaped so that matplotlib never
-    parses it as mathtext (``$\\foo$`` in a name used to abort the report), and a leading ``_``
-    kept visible (matplotlib hides legend labels that start with one)."""
+    parses it as mathtext (``$\\foo$`` in a name used to abort the report), a leading ``_``
+    kept visible (matplotlib hides legend labels that start with one), and at most
+    :data:`PLOT_TEXT_MAX` characters (a 20,000-character name took 11 s of text layout a report
+    and squeezed the axes to nothing; found by a review): the tables beside give it whole."""
     from .safe import clean
 
-    s = clean(value).replace("$", r"\$")
+    s = clean(value)
+    if len(s) > PLOT_TEXT_MAX:
+        s = s[: PLOT_TEXT_MAX - 1] + "…"
+    s = s.replace("$", r"\$")
     return "\u2009" + s if s.startswith("_") else s
 
 
@@ -689,7 +698,7 @@ def cri_figure(R, Ra=None, *, limits: Mapping | None = None, title: str | None =
         note += " · hatched: outside its limit · black tick: limit"
         ax.text(0.0, 1.01, note, transform=ax.transAxes, fontsize=6.5, va="bottom", color="#444444")
         if title:
-            ax.set_title(title, loc="left", pad=12)
+            ax.set_title(_lit(title), loc="left", pad=12)
     return fig
 
 
@@ -782,5 +791,5 @@ def distribution_figure(
             head = (labels or {}).get(name) or (f"{name}" + (f" ({unit})" if unit else ""))
             ax.set_title(f"{head} · n = {int(fin.sum())}", loc="left", fontsize=8.5)
         if title:
-            fig.suptitle(title, x=0.01, ha="left", fontsize=10)
+            fig.suptitle(_lit(title), x=0.01, ha="left", fontsize=10)
     return fig

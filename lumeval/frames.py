@@ -237,6 +237,9 @@ def joined_runs(pa, strings, offsets: np.ndarray, sep: bytes):
     return pc.binary_join(lists, arrow_strings(pa, sep, np.array([0, len(sep)]))[0])
 
 
+#: Schema metadata key of the cautions in a ``--samples-parquet`` table (a JSON list of strings).
+CAUTIONS_KEY = b"lumeval.cautions"
+
 #: Rows converted to Arrow at a time when writing a lot's samples.
 SAMPLES_SLICE = 16384
 
@@ -244,12 +247,18 @@ SAMPLES_SLICE = 16384
 def write_samples_parquet(run, path, *, option: str | None = "--samples-parquet") -> None:
     """Write a lot's per-sample table (:func:`lot_samples_table`) as Parquet, slice by slice,
     atomically (:func:`lumeval.spectra.archive.write_tables`)."""
+    import json
+
     from .lots.own_reports import PARQUET_KEY
+    from .render.tables import CAUTIONS
     from .spectra.archive import write_tables
 
     first = lot_samples_table(run, 0, min(SAMPLES_SLICE, len(run)))
-    # marked as lumeval's, so that a later lot over the folder it is written in skips it
-    first = first.replace_schema_metadata({**(first.schema.metadata or {}), PARQUET_KEY: b"lumeval.lot-samples"})
+    # marked as lumeval's, so that a later lot over the folder it is written in skips it; the
+    # cautions every report carries (docs/cautions.md) as a JSON list of strings: a table of
+    # verdicts went without them (found by a review)
+    first = first.replace_schema_metadata({**(first.schema.metadata or {}), PARQUET_KEY: b"lumeval.lot-samples",
+                                           CAUTIONS_KEY: json.dumps(list(CAUTIONS)).encode("utf-8")})
 
     def slices():
         yield first

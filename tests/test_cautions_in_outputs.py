@@ -4,6 +4,7 @@
   starting with ``# caution:``; the header stays the first row; a data row never starts with
   ``#`` (a name that does gets a leading quote).
 - JSON: the ``cautions`` list; nothing on stderr.
+- Parquet (``lot --samples-parquet``): the schema metadata key ``lumeval.cautions``.
 - terminal: printed once at the end of the report.
 Behaviour through the real CLI (in-process); no numeric check here.
 """
@@ -95,6 +96,21 @@ def test_lot_samples_csv_file_carries_the_cautions(work, capsys):
     code, _, err = run(["lot", spd, "--samples-csv", target, "-q"], capsys)
     assert code == 0, err
     assert_csv_with_cautions(target.read_text(encoding="utf-8"), "name")
+
+
+def test_lot_samples_parquet_carries_the_cautions(work, capsys):
+    """A --samples-parquet table of verdicts carries the cautions in its schema metadata
+    (``lumeval.cautions``, a JSON list), as every CSV form of the same table carries them as its
+    last rows (it carried none; found by a review)."""
+    import pyarrow.parquet as pq  # a test dependency (pyproject [test]): fail, never skip
+
+    tmp, spd = work
+    target = tmp / "samples.parquet"
+    code, _, err = run(["lot", spd, "--samples-parquet", target, "-q"], capsys)
+    assert code == 0, err
+    meta = pq.read_schema(target).metadata
+    assert json.loads(meta[b"lumeval.cautions"].decode("utf-8")) == list(CAUTIONS)
+    assert meta[b"lumeval.report"] == b"lumeval.lot-samples"
 
 
 def test_a_name_starting_with_hash_is_not_a_note_row(work, capsys):

@@ -256,3 +256,39 @@ def test_per_sample_check_ignores_lot_clauses():
     from lumeval.criteria.lot_clauses import has_sample_clauses, lot_clauses
 
     assert has_sample_clauses(crit) and len(lot_clauses(crit)) == 1
+
+
+def test_lot_json_gives_each_samples_clause_outcomes_and_a_summary(lot_dir, tmp_path):
+    """Without measurement uncertainty too, each sample of the lot JSON says how it fared on
+    every per-sample clause (outcome and margin: why it failed, as the per-sample CSV's clause
+    columns do), and ``verdict.sample_clauses`` counts the outcomes per clause with the worst
+    margin, as the terminal's Requirements table (the JSON gave clauses only under uncertainty;
+    found by a review). CIE 15:2004 Table T.8.1 gives FL1 Ra 76 and FL3 Ra 57 (secondary,
+    shared/reference-values.md): a clause Ra >= 70 passes the first and fails the second; the
+    document is valid against lumeval/schemas/lot.schema.json (the jsonschema library)."""
+    import jsonschema
+
+    from lumeval.schemas import schema
+
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "Ra"\nfigure = "Ra"\nmin = 70\n'
+                    '[[clause]]\nid = "R9"\nfigure = "R9"\nmin = -500\n', encoding="utf-8")
+    out = tmp_path / "lot.json"
+    r = run_cli("lot", lot_dir, "--criteria", crit, "--json", out, "--samples-csv", tmp_path / "s.csv", "--quiet")
+    assert r.returncode == 2, r.stderr  # (the folder holds unreadable files)
+    doc = json.loads(out.read_text(encoding="utf-8"))
+    jsonschema.validate(doc, schema("lot"))
+    by_name = {s["name"]: s for s in doc["samples"]}
+    assert by_name["FL1"]["clauses"]["Ra"]["outcome"] == "pass" and by_name["FL3"]["clauses"]["Ra"]["outcome"] == "fail"
+    for s in doc["samples"]:
+        c = s["clauses"]["Ra"]
+        np.testing.assert_allclose(c["margin"], s["Ra"] - 70.0, rtol=1e-12, atol=1e-12)
+        assert set(s["clauses"]) == {"Ra", "R9"} and "p_conformance" not in c
+    rows = {row["name"]: row for row in read_csv_report((tmp_path / "s.csv").read_text(encoding="utf-8"))}
+    assert {n: s["clauses"]["Ra"]["outcome"] for n, s in by_name.items()} == {n: row["clause:Ra"] for n, row in rows.items()}
+    summary = {c["id"]: c for c in doc["verdict"]["sample_clauses"]}
+    ra = [s["Ra"] for s in doc["samples"]]
+    assert summary["Ra"]["counts"]["fail"] == sum(v < 70 for v in ra)
+    assert summary["Ra"]["counts"]["pass"] == sum(v >= 70 for v in ra)
+    np.testing.assert_allclose(summary["Ra"]["worst_margin"], min(ra) - 70.0, rtol=1e-12)
+    assert summary["R9"]["counts"]["fail"] == 0 and summary["Ra"]["line"] == 2

@@ -14,7 +14,9 @@ Lot JSON (``schema_version`` 1; names never change meaning, new names may be add
     counts {samples, files, unreadable, passed, failed, not_judged, indeterminate, outliers,
             outside_validity},
     criteria {file, identification} | null,
-    verdict {exit_code, failed, lot_clauses [{id, label, kind, figure, unit, measured, limit,
+    verdict {exit_code, failed, sample_clauses [{id, label, kind, figure, unit, limit, lower,
+             upper, counts {outcome: n}, worst_margin, source, line, decision_rule}],
+             lot_clauses [{id, label, kind, figure, unit, measured, limit,
              margin, outcome, reason, source, line}], yield {total, passed, failed,
              not_judged, indeterminate, percent} | null},
     statistics {ddof, percentile_method, figures {name: {count, undefined, mean, std, min,
@@ -26,7 +28,8 @@ Lot JSON (``schema_version`` 1; names never change meaning, new names may be add
     samples [{name, source, metadata {column: value} (Parquet archives only), verdict, outlier,
               outlier_reasons, delta_upvp_centroid,
               steps_centroid, delta_upvp_nominal, steps_nominal, x, y, cct_K, duv, Ra, R9,
-              Rf, Rg, warnings}],
+              Rf, Rg, clauses {id: {outcome, margin[, uncertainty, p_conformance]}} (with
+              criteria), warnings}],
     cautions
 """
 
@@ -124,6 +127,20 @@ def _arr(a, i):
     return None if a is None else _num(a[i])
 
 
+def _sample_clause_summary(r) -> dict:
+    """A per-sample clause over the lot, as the terminal's "Requirements" table gives it: how
+    many samples had each outcome and the worst margin among those judged."""
+    from ..criteria.verdicts import OUTCOMES, worst_judged_margin
+
+    return {
+        "id": r.clause_id, "label": r.label, "kind": r.kind, "figure": r.figure, "unit": r.unit,
+        "limit": r.limit_text, "lower": r.lower, "upper": r.upper,
+        "counts": {o: sum(x == o for x in r.outcome) for o in OUTCOMES},
+        "worst_margin": _num(worst_judged_margin(r.margin, r.outcome)),
+        "source": r.source, "line": r.line, "decision_rule": r.decision_rule,
+    }
+
+
 def lot_document(run) -> dict:
     """The lot JSON document (see the module docstring)."""
     from ..schemas import header
@@ -136,6 +153,12 @@ def lot_document(run) -> dict:
     from ..spectra.archive import json_safe
 
     figs = {k: run.figures[k] for k in JSON_SAMPLE_FIGURES}  # each column read once (a lot may keep them on disk)
+    # each sample's outcome and margin of every per-sample clause (and, under measurement
+    # uncertainty, u and p_c): why a sample failed, as the CSV's clause columns say it (the JSON
+    # gave them only under uncertainty; found by a review)
+    results = run.check.results if run.check is not None else ()
+    under_u = run.check is not None and bool(getattr(run.check, "uncertainty", None))
+    margins = [np.asarray(r.margin, dtype=float).tolist() for r in results]
     for i in range(len(run)):
         rec = {
             "name": run.names[i],
@@ -154,14 +177,13 @@ def lot_document(run) -> dict:
         }
         for k in JSON_SAMPLE_FIGURES:
             rec[k] = _num(figs[k][i])
-        if run.check is not None and getattr(run.check, "uncertainty", None):
+        if results:
             rec["clauses"] = {
-                r.clause_id: {
-                    "outcome": r.outcome[i],
+                r.clause_id: {"outcome": r.outcome[i], "margin": _num(mg[i])} | ({
                     "uncertainty": _num(r.uncertainty[i]) if r.uncertainty is not None else None,
                     "p_conformance": _num(r.p_conformance[i]) if r.p_conformance is not None else None,
-                }
-                for r in run.check.results
+                } if under_u else {})
+                for r, mg in zip(results, margins)
             }
         rec["warnings"] = list(run.warnings[i])
         samples.append(rec)
@@ -174,6 +196,7 @@ def lot_document(run) -> dict:
         "verdict": {
             "exit_code": run.exit_code,
             "failed": run.failed,
+            "sample_clauses": [_sample_clause_summary(r) for r in results],
             "lot_clauses": [
                 {
                     "id": r.clause_id,

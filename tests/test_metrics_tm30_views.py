@@ -99,3 +99,19 @@ def test_a_level_needs_the_levels_below_it():
     di = design_intents([96, 96, 96], [100, 100, 100], [0, 0, 0], [80, 87, 91])
     assert di.fidelity == ("", "F3", "F1")
     assert di.met["F1"].tolist() == [False, False, True]
+
+
+def test_the_reports_design_intent_note_prints_no_signed_zero(monkeypatch):
+    """The HTML report's design-intent note gives each value in the figure registry's format: an
+    Rcs,h1 of -0.3 % printed "Rcs,h1 −0 %" (found by a review); it prints "0 %", and -2.6 %
+    prints "−3 %" (rounded, as the note says the unrounded values are compared)."""
+    import numpy as np
+
+    from lumeval.render import report_figures
+    from lumeval.render.report_view import _design_intents
+
+    for rcs, text in ((-0.3, "Rcs,h1 0 %"), (-2.6, "Rcs,h1 −3 %"), (4.6, "Rcs,h1 +5 %")):
+        vals = {"Rf": 91.2, "Rg": 101.0, "Rcs_h1": rcs, "Rf_h1": 93.4}
+        monkeypatch.setattr(report_figures, "_fig", lambda ev, k, vals=vals: np.array([vals[k]]))
+        _table, note = _design_intents(None, 0)
+        assert f"With Rf 91, Rg 101, {text}, Rf,h1 93 " in note, note

@@ -586,8 +586,13 @@ def _design_intents(ev, i: int) -> tuple[TitledTable | None, str]:
         row = [Cell(intent.capitalize()), Cell(best, strong=True) if best else Cell("none")]
         row += [Cell(f'{"✓" if di.met[lv][0] else "✗"} {lv}', notes=(needs(lv),)) for lv in levels]
         rows.append(Row(tuple(row)))
-    note = (f'With Rf {vals["Rf"]:.0f}, Rg {vals["Rg"]:.0f}, Rcs,h1 {plain_number(vals["Rcs_h1"], "+.0f")} %, '
-            f'Rf,h1 {vals["Rf_h1"]:.0f} (unrounded values compared). A level counts only when the levels below it '
+    from .. import figures
+
+    # each value in its registry format (no sign on a value that rounds to zero: "Rcs,h1 −0 %"
+    # was printed for −0.3 %; found by a review)
+    shown = {k: figures.get(k).format(v).replace("-", "−") for k, v in vals.items()}
+    note = (f'With Rf {shown["Rf"]}, Rg {shown["Rg"]}, Rcs,h1 {shown["Rcs_h1"]} %, '
+            f'Rf,h1 {shown["Rf_h1"]} (unrounded values compared). A level counts only when the levels below it '
             f"are met too. {ANNEX_E_SOURCE}. Informative guidance, not a verdict: to judge it, write clauses on Rf, "
             "Rg, Rcs_h1 and Rf_h1 in the criteria file.")
     return TitledTable("Design intents (ANSI/IES TM-30-20 Annex E)",

@@ -277,7 +277,8 @@ class Claims:
         """Judge every claim for every spectrum of ``ev`` (an Evaluation)."""
         n = len(np.asarray(ev.x))
         out = []
-        reasons_cct = getattr(ev, "cct_reason", None)
+        from .undefined import undefined_reasons
+
         for c in self.claims:
             unit = figure_unit(c.figure) if c.figure else ""
             if c.not_checkable:
@@ -290,10 +291,13 @@ class Claims:
             # locus) confirms and contradicts nothing: `check` calls it "not valid"
             flag = getattr(ev, "outside_validity_of", None)
             outside = np.asarray(flag(c.figure), dtype=bool) if flag is not None else np.zeros(n, dtype=bool)
+            # why a figure is undefined, in the words `check` gives (an absolute figure: the
+            # spectrum's scale and unit; others: the CCT's reason)
+            why = undefined_reasons(ev, c.figure, m) if not np.isfinite(m).all() else None
             for i in range(n):
                 if not np.isfinite(m[i]):
                     outcome.append(NOT_CHECKABLE)
-                    r = reasons_cct[i] if reasons_cct is not None and reasons_cct[i] else ""
+                    r = why[i] if why is not None and why[i] else ""
                     reason.append(f"{c.figure} is undefined for this spectrum" + (f" ({r})" if r else ""))
                     excess[i] = np.nan
                 elif outside[i]:

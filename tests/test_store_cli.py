@@ -298,3 +298,15 @@ def test_a_fifo_as_store_is_refused_not_waited_on(tmp_path):
         assert r.returncode == 2, (r.returncode, r.stderr)
         assert "FIFO" in one_error_line(r)
     assert (tmp_path / "s.csv").stat().st_size > 0
+
+
+def test_migrate_leaves_a_file_that_holds_no_store_untouched(tmp_path):
+    """`history migrate` on an existing empty file refuses it (exit 2, one line) and leaves it as
+    it was: the write connection it opened first switched the file to SQLite's WAL mode, making
+    it a 4 kB database (found by a review; inputs are never modified)."""
+    empty = tmp_path / "empty.db"
+    empty.write_bytes(b"")
+    r = lumeval("history", "migrate", "--store", empty)
+    assert r.returncode == 2 and "holds no lumeval store" in one_error_line(r)
+    assert empty.read_bytes() == b""
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["empty.db"]

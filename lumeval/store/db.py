@@ -531,6 +531,12 @@ def migrate(su: StoreURL) -> tuple[int, int]:
 
 def migrate_report(su: StoreURL) -> tuple[int, int, tuple[str, ...]]:
     """:func:`migrate`, returning (version before, version after, names of the indexes added)."""
+    # read first: a file that holds no store is refused untouched (a write connection switches
+    # an SQLite file to WAL mode, which turned an empty file into a 4 kB database; found by a
+    # review)
+    with connect(su, write=False, action="read the store") as conn:
+        if stored_version(conn) is None:
+            raise StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)", fix="check the URL")
     with connect(su, write=True, action="migrate the store") as conn:
         if su.backend == "postgresql":
             conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")

@@ -293,11 +293,11 @@ class Claims:
             outside = np.asarray(flag(c.figure), dtype=bool) if flag is not None else np.zeros(n, dtype=bool)
             # why a figure is undefined, in the words `check` gives (an absolute figure: the
             # spectrum's scale and unit; others: the CCT's reason)
-            why = undefined_reasons(ev, c.figure, m) if not np.isfinite(m).all() else None
+            undefined_why = undefined_reasons(ev, c.figure, m) if not np.isfinite(m).all() else None
             for i in range(n):
                 if not np.isfinite(m[i]):
                     outcome.append(NOT_CHECKABLE)
-                    r = why[i] if why is not None and why[i] else ""
+                    r = undefined_why[i] if undefined_why is not None and undefined_why[i] else ""
                     reason.append(f"{c.figure} is undefined for this spectrum" + (f" ({r})" if r else ""))
                     excess[i] = np.nan
                 elif outside[i]:

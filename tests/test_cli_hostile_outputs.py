@@ -535,8 +535,10 @@ def test_terminal_reports_print_untrusted_text_literally(tmp_path, force_colour)
             assert "[bold green]PASS[/]" in out or "PASS[/]" in out, (key, out[:3000])
         if key == "check":
             assert "[green]fine[/green]" in out, (key, out[:3000])  # a criteria label
-        if key in ("check", "explain"):
+        if key == "check":
             assert "[bold]P[/bold]" in out, (key, out[:3000])  # the project named in the criteria file
+        if key == "explain":  # Markdown: its markup characters escaped, so that it reads as written
+            assert r"\[bold\]P\[/bold\]" in out and r"\<i\>x\</i\>" in out, (key, out[:3000])
 
 
 def test_error_lines_escape_control_characters(tmp_path, capsys):
@@ -854,3 +856,23 @@ def test_a_file_output_ending_in_a_separator_is_refused_by_the_cli(work, capsys,
     code, out, err = run([a.format(spd=spd, tmp=tmp) for a in argv], capsys)
     one_error_line(code, err, "names a folder")
     assert sorted(p.name for p in tmp.iterdir()) == before
+
+
+def test_criteria_explain_escapes_markdown_in_text_from_the_file(tmp_path, capsys):
+    """`criteria explain` writes Markdown: a project name, an identification field, a clause id,
+    label or note holding raw HTML, a link or emphasis passed through and a Markdown viewer
+    rendered them (found by a review). They are backslash-escaped (CommonMark shows an escaped
+    punctuation character literally); lumeval's own markup (bold requirement names, the
+    [SPECIFY: ...] placeholders) is kept."""
+    crit = tmp_path / "c.toml"
+    crit.write_text(
+        'lumeval_criteria = 1\n[identification]\nproject = "<script>alert(1)</script>"\n'
+        'reference = "[spec](http://evil.example/)"\n[[clause]]\nid = "Ra_*main*"\nfigure = "Ra"\nmin = 80\n'
+        'note = "see ![img](http://evil.example/x.png) | a&b"\n', encoding="utf-8")
+    code, out, err = run(["criteria", "explain", crit], capsys)
+    assert code == 0, err
+    assert r"\<script\>alert(1)\</script\>" in out and "<script>" not in out
+    assert r"\[spec\](http://evil.example/)" in out and "[spec](" not in out
+    assert r"**Ra\_\*main\*** —" in out
+    assert r"\!\[img\](http://evil.example/x.png) \| a\&b" in out
+    assert "**[SPECIFY:" in out  # lumeval's own placeholders stay markup

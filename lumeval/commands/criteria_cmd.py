@@ -185,16 +185,18 @@ def explain_markdown(criteria) -> str:
     from ..criteria.explain import measurement_requirements, tender_words
     from ..engine import METHOD_LABELS, METHODS
     from ..render.safe import clean
+    from ..render.safe import markdown_text as md
     from ..render.tables import CAUTIONS
 
+    # text from the criteria file (identification, ids, labels, notes) as md(): shown as written
     L: list[str] = []
     a = L.append
     ident = criteria.identification
-    a(f"# Colour-quality acceptance criteria{': ' + clean(ident['project']) if ident.get('project') else ''}")
+    a(f"# Colour-quality acceptance criteria{': ' + md(ident['project']) if ident.get('project') else ''}")
     a("")
     for k in ("product", "lot", "reference", "issued_by", "date", "notes"):
         if ident.get(k):
-            a(f"- **{k.replace('_', ' ').capitalize()}:** {clean(ident[k])}")
+            a(f"- **{k.replace('_', ' ').capitalize()}:** {md(ident[k])}")
     if any(ident.get(k) for k in ("product", "lot", "reference", "issued_by", "date", "notes")):
         a("")
     a("## Requirements")
@@ -212,7 +214,7 @@ def explain_markdown(criteria) -> str:
         text = tender_words(c.tender_text())
         # the requirement's name: its id, and the file's own label for it when it gives one
         name = f"{c.clause_id}: {c.label}" if c.clause_id in labelled and c.label != c.clause_id else c.clause_id
-        a(f"{n}. **{clean(name)}** — {clean(text)}" + (f" *{clean(c.note)}*" if c.note else ""))
+        a(f"{n}. **{md(name)}** — {clean(text)}" + (f" *{md(c.note)}*" if c.note else ""))
         for s in map(tender_words, c.sources()):
             if s and s not in sources:
                 sources.append(s)

@@ -16,6 +16,7 @@ people made. Every renderer passes them through this module:
   ``=``, ``+``, ``-``, ``@``, tab or CR gets a leading single quote, as the OWASP "CSV
   injection" guidance recommends); it is applied to text columns only, so numbers such as
   ``-0.5`` are never altered;
+- :func:`markdown_text` escapes Markdown markup characters (``criteria explain``'s document);
 - :func:`console` makes the rich consoles of the reports: a closed pipe raises
   ``BrokenPipeError`` to the CLI (exit code 2, one line) instead of rich's silent exit 1, and a
   table wider than the console is split, never cut (:mod:`lumeval.render.fit`).
@@ -91,6 +92,20 @@ def csv_text(value) -> str:
     if s.startswith(FORMULA_START):  # tab and CR checked before they are escaped
         return "'" + clean(s)
     return clean(s)
+
+
+#: Characters that start Markdown markup inside a line (CommonMark: emphasis, code spans,
+#: links and images, raw HTML and entities, tables, escapes): backslash-escaped in text from
+#: files, which CommonMark then shows literally.
+_MARKDOWN_SPECIAL = frozenset("\\`*_[]<>|&!{}#~")
+
+
+def markdown_text(value) -> str:
+    """Text from a file for a Markdown document (``criteria explain``): :func:`clean`, then every
+    markup character backslash-escaped, so that ``<script>``, ``[a](http://x)``, ``**`` or a
+    ``|`` in a project name or a clause note is shown as written, never as HTML, a link or
+    formatting (found by a review)."""
+    return "".join("\\" + ch if ch in _MARKDOWN_SPECIAL else ch for ch in clean(value))
 
 
 def csv_first_cell(value) -> str:

@@ -692,3 +692,30 @@ def test_a_very_long_spectrum_name_is_shortened_in_figures_only(tmp_path):
         body = svg.read_text(encoding="utf-8")
         assert "N" * PLOT_TEXT_MAX not in body, svg.name
     assert any(short in s.read_text(encoding="utf-8") for s in svgs)
+
+
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+def test_undecodable_name_bytes_show_as_the_replacement_character_everywhere(tmp_path):
+    """Undecodable bytes of a file name (or of a text option) show as U+FFFD in every message,
+    as docs/input-files.md says: the store's name in 'recorded as lot 1 in …', series' "no number
+    in the file name" and convert's "no spectrum named" printed '\\udcff' (found by a review)."""
+    write_spd(tmp_path / "a.csv")
+    os.link(tmp_path / "a.csv", os.path.join(os.fsencode(tmp_path), b"s_\xff.csv"))
+    odd = os.fsdecode(b"s_\xff.csv")
+    code, _, err = run_sub(["series", odd, "a.csv"], tmp_path, timeout=120)
+    line = one_error_line(code, err, "s_\ufffd.csv", "'s_\ufffd'")
+    assert "\\udc" not in line
+    code, _, err = run_sub(["convert", "a.csv", "out.csv", "--column", os.fsdecode(b"x\xff")], tmp_path, timeout=120)
+    line = one_error_line(code, err, "no spectrum named 'x\ufffd'")
+    assert "\\udc" not in line
+    code, _, err = run_sub(["lot", "a.csv", "--store", os.fsdecode(b"u\xe9.db")], tmp_path, timeout=120)
+    assert code == 0, err
+    assert "recorded as lot 1 in u\ufffd.db" in err and "\\udc" not in err
+
+
+def test_clean_shows_lone_surrogates_as_the_replacement_character():
+    from lumeval.render.safe import clean, csv_text, html_value
+
+    assert clean("bad\udcff name\x1b") == "bad\ufffd name\\x1b"
+    assert csv_text("=x\ud800") == "'=x\ufffd"
+    assert "\ufffd" in str(html_value("a\udcffb"))

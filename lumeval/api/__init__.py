@@ -218,8 +218,10 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
     if column is not None:
         matches = [i for i, n in enumerate(spectra.names) if n == column]
         if not matches:
+            from .._paths import display_path
+
             raise UsageError(
-                f"no spectrum named {column!r} (there are: {', '.join(spectra.names)[:200]})",
+                f"no spectrum named {display_path(column)!r} (there are: {', '.join(spectra.names)[:200]})",
                 file=str(src),
                 fix="give one of these names to --column",
             )

@@ -43,7 +43,11 @@ def _escape(cp: int) -> str:
     return f"\\x{cp:02x}" if cp < 0x100 else f"\\u{cp:04x}"
 
 
-_TABLE = {cp: _escape(cp) for cp in [*range(0x20), *range(0x7F, 0xA0), *_FORMAT_CONTROLS]}
+_TABLE: dict[int, str] = {cp: _escape(cp) for cp in [*range(0x20), *range(0x7F, 0xA0), *_FORMAT_CONTROLS]}
+#: Lone surrogates (undecodable bytes of a file name kept by Python, PEP 383; "\ud800" escapes
+#: in JSON) as U+FFFD, the form every path lumeval shows has (lumeval._paths.display_path): an
+#: error line printed "s_\udcff.csv" (found by a review), and no writer can encode them.
+_TABLE.update(dict.fromkeys(range(0xD800, 0xE000), "\ufffd"))
 
 #: The same escapes for HTML, where tab and line breaks are plain white space.
 _HTML_TABLE = {cp: v for cp, v in _TABLE.items() if cp not in (0x09, 0x0A, 0x0D)}

@@ -115,19 +115,22 @@ def parse_store_url(text: str) -> StoreURL:
     from sqlalchemy.engine import make_url
     from sqlalchemy.exc import ArgumentError
 
+    from .._paths import display_path
+
     raw = str(text).strip()
     if not raw:
         raise StoreError("the store URL is empty", fix="give a path (history.db), sqlite:///history.db or postgresql://user@host/db")
     if "://" not in raw:
         path = os.path.abspath(raw)
-        return StoreURL("sqlite:///" + path, "sqlite", raw, path)
+        # shown with undecodable bytes of the file name as U+FFFD, as every path lumeval shows
+        return StoreURL("sqlite:///" + path, "sqlite", display_path(raw), path)
     try:
         u = make_url(raw)
     except ArgumentError:
         raise StoreError(f"{_redact(raw)}: not a store URL",
                          fix="give a path, sqlite:///history.db or postgresql://user@host:port/db") from None
     backend = u.get_backend_name()
-    shown = u.render_as_string(hide_password=True)
+    shown = display_path(u.render_as_string(hide_password=True))
     if backend == "sqlite":
         db = u.database or ""
         if not db or db == ":memory:" or db.startswith("file:"):

@@ -58,7 +58,9 @@ def setting_from_text(text: str, *, what: str, file: str | None, fix: str, signe
     elif not with_unit and len(nums) == 1:
         hit = nums[0]
     elif not nums:
-        raise InputError(f"no number in the {what} {text!r} to take the setting from", file=file, fix=fix)
+        from .._paths import display_path
+
+        raise InputError(f"no number in the {what} {display_path(text)!r} to take the setting from", file=file, fix=fix)
     else:
         found = ", ".join(f"{w}{u}" for w, u, _ in (with_unit or nums))
         raise InputError(f"the {what} {text!r} holds several numbers ({found}): which is the setting is ambiguous",

@@ -136,6 +136,24 @@ def test_lot_refuses_unclean_big_file_naming_the_line(tmp_path, monkeypatch):
     assert len(run.unreadable) == 1 and ":22:" in run.unreadable[0].message and "column blocks" in run.unreadable[0].message
 
 
+@pytest.mark.parametrize("rows", [0, 1, 3])
+def test_a_big_file_of_a_few_lines_is_refused_in_plain_words(tmp_path, monkeypatch, rows):
+    """A file over the single-file limit with only a few lines (one very long header and a row
+    or two; limits lowered for the test) is refused saying so, not with the reader's own plan
+    ("the file is short: read it whole"; found by a review)."""
+    head = "wavelength," + ",".join(f"s{j}" for j in range(200))
+    body = "".join(f"{380 + k}," + ",".join("1.0" for _ in range(200)) + "\n" for k in range(rows))
+    p = tmp_path / "few.csv"
+    p.write_text(head + "\n" + body, encoding="utf-8")
+    monkeypatch.setattr(reading, "STREAM_BYTES", 100)
+    monkeypatch.setattr(T, "MAX_TEXT_BYTES", 200)
+    run = run_lot([p])
+    (u,) = run.unreadable
+    assert "cannot be read in column blocks: it has only a few lines, where a text spectrum file has one line per " \
+           "wavelength" in u.message, u.message
+    assert "read it whole" not in u.message
+
+
 def test_streaming_memory_is_bounded(tmp_path):
     """Memory probe: the numbers of a wide file (here 401 x 3,000 = 9.6 MB of float64) are
     never all in memory when read in blocks of 8 columns without keeping them."""

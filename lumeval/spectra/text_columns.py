@@ -40,6 +40,12 @@ BLOCK_COLUMNS = 2048
 KEEP_VALUES = 32 * 1024 * 1024
 
 
+#: Why a large file of only a few lines is not read in column blocks (shown to the user when the
+#: file is over the single-file limit: "the file is short: read it whole" spoke of the reader's
+#: own plan; found by a review).
+_FEW_LINES = "it has only a few lines, where a text spectrum file has one line per wavelength"
+
+
 class NotStreamable(Exception):
     """The file cannot be read in column blocks (``reason``; ``line``: the line at fault)."""
 
@@ -160,7 +166,7 @@ def _plan(fh, file: str, block_cols: int, keep_values: int) -> ColumnPlan:
         if i0 is not None and n_nc >= i0 + HEAD_ROWS:
             break
     else:
-        raise NotStreamable("the file is short: read it whole")
+        raise NotStreamable(_FEW_LINES)
     head_text = _decode_lines(p.head, file)
     head_nc = [t for t in head_text if not t[1].startswith(_COMMENT_PREFIXES)]
     ht = head_tail(head_nc + [(0, "")] * TAIL_LINES)  # the head that reading the whole file samples
@@ -229,7 +235,7 @@ def _finish(p: _Pass, it, file, head_text, head_nc, delim, start, ncols, head_ro
             if keep:
                 rows.append(row0)
     if len(rows_ln) == len(head_rows):  # no line between the head and the last lines
-        raise NotStreamable("the file has few lines: read it whole")
+        raise NotStreamable(_FEW_LINES)
     # decoded together, as the whole file would be (its rows are ASCII)
     all_text = _decode_lines(p.head + p.comments + [(ln, s) for ln, s, _, _ in tail], file)
     if all_text[: len(head_text)] != head_text:

@@ -580,3 +580,37 @@ def test_a_margin_of_a_few_units_in_the_last_place_never_prints_as_zero(tmp_path
     (row,) = read_csv_report(out)
     assert row["clause_id"] == "Ra" and row["outcome"] == "fail"
     assert_allclose(float(row["margin"]), limit - ra, rtol=1e-12)  # the value as computed, not rounded
+
+
+def test_light_in_no_ansi_category_fails_under_a_decision_rule_in_claims_and_in_a_lot(tmp_path, spectra_dir, capsys):
+    """The category failure of light outside every quadrangle holds everywhere (found by a
+    review of the first fix): under a guarded decision rule (which decided again from the
+    measured nearest category and passed it, p_c > 0.999), as a contradicted datasheet claim of
+    that category, and in a lot, whose worst margin was then the passing samples' (+800 K while
+    a sample failed): n/a."""
+    import json
+
+    import lumeval
+
+    wl = np.arange(380.0, 781.0, 1.0)
+    v = np.exp(-0.5 * ((wl - 530.0) / 15.0) ** 2)
+    green = write(tmp_path, "wl,green\n" + "".join(f"{a:g},{b:.6f}\n" for a, b in zip(wl, v)), "green.csv")
+    planck = spectra_dir / "planck3000.csv"
+    rule = write(tmp_path, 'lumeval_criteria = 1\n[decision]\nrule = "guarded-acceptance"\n[[clause]]\nid = "cat"\n'
+                 'figure = "ansi_category_K"\nrange = [2200, 6500]\n', "rule.toml")
+    code, out, err = run(["check", green, planck, "--criteria", rule, "--draws", "200", "--seed", "1", "-f", "json"],
+                         capsys)
+    assert code == 1, err
+    rows = {s["name"]: s["clauses"][0] for s in json.loads(out)["spectra"]}
+    assert rows["green"]["outcome"] == "fail" and rows["green"]["p_conformance"] == 0.0
+    assert "in no ANSI C78.377 category" in rows["green"]["reason"]
+    assert rows["planck3000"]["outcome"] == "pass"
+    claims = write(tmp_path, 'lumeval_claims = 1\n[claims]\nansi_category_K = "5000"\n', "claims.toml")
+    (r,) = lumeval.claims([green], claims).results
+    assert r.outcome == ("contradicted",) and "in no ANSI C78.377 category" in r.reason[0] and np.isnan(r.excess[0])
+    plain = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nid = "cat"\nfigure = "ansi_category_K"\n'
+                  'range = [2200, 6500]\n', "plain.toml")
+    code, out, err = run(["lot", green, planck, "--criteria", plain, "-f", "json"], capsys)
+    assert code == 1, err
+    (summary,) = json.loads(out)["verdict"]["sample_clauses"]
+    assert summary["counts"]["fail"] == 1 and summary["counts"]["pass"] == 1 and summary["worst_margin"] is None

@@ -294,6 +294,10 @@ class Claims:
             # why a figure is undefined, in the words `check` gives (an absolute figure: the
             # spectrum's scale and unit; others: the CCT's reason)
             undefined_why = undefined_reasons(ev, c.figure, m) if not np.isfinite(m).all() else None
+            # a claimed ANSI category is contradicted by light in no category, whatever the
+            # nearest one is (as a criteria clause on it fails; found by a review)
+            no_category = (np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
+                           if figures.lookup(c.figure) == "ansi_category_K" else np.zeros(n))
             for i in range(n):
                 if not np.isfinite(m[i]):
                     outcome.append(NOT_CHECKABLE)
@@ -304,6 +308,12 @@ class Claims:
                     outcome.append(NOT_CHECKABLE)
                     why = ev.validity_reason(i) if hasattr(ev, "validity_reason") else "outside the validity range"
                     reason.append(f"{c.figure} was computed {why}")
+                    excess[i] = np.nan
+                elif no_category[i] > 0:
+                    from .figure_notes import no_category_note
+
+                    outcome.append(CONTRADICTED)
+                    reason.append(no_category_note(float(no_category[i]), float(m[i])))
                     excess[i] = np.nan
                 elif c.lower is not None and m[i] < c.lower:
                     outcome.append(CONTRADICTED)

@@ -48,17 +48,35 @@ def nearest_category_notes(ev, r):
 
     d = np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
     out = [i for i in np.flatnonzero(np.isfinite(d) & (d > 0)).tolist() if r.outcome[i] != NOT_JUDGED]
-    if not out:
-        return r
+    if not out:  # (the key present in every result of such a clause: a lot joins its batches' details)
+        return replace(r, details={**r.details, FAILS_REGARDLESS: np.zeros(d.size, dtype=bool)})
     reasons = list(r.reason) if r.reason else [""] * d.size
     outcome, margin = list(r.outcome), np.array(r.margin, dtype=float)
     p = None if r.p_conformance is None else np.array(r.p_conformance, dtype=float)
+    regardless = np.zeros(d.size, dtype=bool)
     for i in out:
-        nearest = figures.get("ansi_category_K").format(r.measured[i]) if np.isfinite(r.measured[i]) else "n/a"
-        note = (f"in no ANSI C78.377 category: the chromaticity lies outside every quadrangle (Δu′v′ = {d[i]:.4f} "
-                f"outside the nearest, {nearest} K); to require one quadrangle, use kind = \"ansi_quadrangle\"")
-        reasons[i] = f"{reasons[i]}; {note}" if reasons[i] else note
+        reasons[i] = f"{reasons[i]}; {no_category_note(d[i], r.measured[i])}" if reasons[i] else \
+            no_category_note(d[i], r.measured[i])
         outcome[i], margin[i] = FAIL, np.nan
+        regardless[i] = True
         if p is not None:
             p[i] = 0.0
-    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin, p_conformance=p)
+    # a decision rule under measurement uncertainty (lumeval.uncertainty.judge) keeps these
+    # failures: the measured value and its uncertainty do not decide them (found by a review)
+    details = {**r.details, FAILS_REGARDLESS: regardless}
+    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin, p_conformance=p, details=details)
+
+
+#: Key of ``ClauseResult.details``: a bool array, True where the clause fails the spectrum
+#: whatever its measured value and that value's uncertainty (light in no ANSI category for a
+#: clause on the category): a decision rule keeps the failure, with p_c = 0.
+FAILS_REGARDLESS = "fails_regardless"
+
+
+def no_category_note(distance_upvp: float, nearest_K: float) -> str:
+    """The reason a chromaticity ``distance_upvp`` outside every ANSI quadrangle meets no
+    requirement on the ANSI category (criteria clauses and datasheet claims)."""
+    nearest = figures.get("ansi_category_K").format(nearest_K) if np.isfinite(nearest_K) else "n/a"
+    return (f"in no ANSI C78.377 category: the chromaticity lies outside every quadrangle (Δu′v′ = "
+            f"{distance_upvp:.4f} outside the nearest, {nearest} K); to require one quadrangle, use kind = "
+            f"\"ansi_quadrangle\"")

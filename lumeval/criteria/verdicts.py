@@ -284,7 +284,13 @@ JUDGED_OUTCOMES = ("pass", "fail", "indeterminate")
 
 def worst_judged_margin(margins, outcomes) -> float:
     """The smallest finite margin among the samples whose outcome is in :data:`JUDGED_OUTCOMES`
-    (NaN when none)."""
+    (NaN when none), or NaN when a failed sample has no margin (light in no ANSI category for
+    a clause on the category: the worst margin of the others would read as the lot's, positive
+    while samples fail; found by a review)."""
     mg = np.asarray(margins, dtype=float)
-    keep = np.fromiter((o in JUDGED_OUTCOMES for o in outcomes), dtype=bool, count=mg.size) & np.isfinite(mg)
+    judged = np.fromiter((o in JUDGED_OUTCOMES for o in outcomes), dtype=bool, count=mg.size)
+    failed = np.fromiter((o == FAIL for o in outcomes), dtype=bool, count=mg.size)
+    if (failed & ~np.isfinite(mg)).any():
+        return float("nan")
+    keep = judged & np.isfinite(mg)
     return float(mg[keep].min()) if keep.any() else float("nan")

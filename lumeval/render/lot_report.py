@@ -562,7 +562,8 @@ def _lot_requirements(run) -> list:
                 if nj:
                     res += f", {nj} not judged"
                 unit = f" {r.unit}" if r.unit and r.unit != "%" else r.unit
-                res += (f" (worst margin {_fmt(worst, '.4g')}{unit}" + (" to the limit" if guarded else "")
+                res += (f" (worst margin {_fmt(worst, '.4g')}{unit if np.isfinite(worst) else ''}"
+                        + (" to the limit" if guarded else "")
                         + (" of the samples judged)" if nv or nj else ")"))
                 t.add_row(_text(r.label), _result_text(res, fails == 0 and nj == 0 and ni == 0 and nv == 0))
         for r in run.lot_results:

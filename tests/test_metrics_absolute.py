@@ -176,18 +176,28 @@ def test_a_declared_scale_that_contradicts_the_stated_one_is_refused(tmp_path, h
         read_spectra(f)
 
 
-def test_a_declared_scale_survives_a_conversion_to_csv(tmp_path):
+@pytest.mark.parametrize("name", ["lamp", "lamp at 50% dimming", "Harbour lamp", "rel. lamp", "counts lamp"])
+def test_a_declared_scale_survives_a_conversion_to_csv(tmp_path, name):
     """The other side: an absolute spectrum written to CSV by lumeval (its `# lumeval.scale`
-    line, a header of names) reads back absolute with the same illuminance."""
+    line, a header of names) reads back absolute with the same illuminance, whatever words its
+    name holds ("%", "rel", "arb" in "Harbour": the first conflict check read them as a
+    relative unit and refused lumeval's own file; found by a review)."""
+    import json
+
     import lumeval
 
     wl = np.arange(380.0, 781.0, 5.0)
     v = 1e-3 * np.exp(-0.5 * ((wl - 560.0) / 60.0) ** 2)
     src = tmp_path / "abs.csv"
     src.write_text("wl,lamp W/(m2 nm)\n" + "".join(f"{a:g},{b:.6e}\n" for a, b in zip(wl, v)), encoding="utf-8")
+    js = tmp_path / "abs.json"
+    lumeval.convert(src, js)  # renamed there (a JSON spectrum keeps any name)
+    doc = json.loads(js.read_text(encoding="utf-8"))
+    doc["spectra"][0]["name"] = name
+    js.write_text(json.dumps(doc), encoding="utf-8")
     out = tmp_path / "round.csv"
-    lumeval.convert(src, out)
-    assert "# lumeval.scale: absolute" in out.read_text(encoding="utf-8")
+    lumeval.convert(js, out)
+    assert "# lumeval.scale: absolute" in out.read_text(encoding="utf-8") and name in out.read_text(encoding="utf-8")
     a, b = (lumeval.inspect([p]).figure("illuminance_lx")[0] for p in (src, out))
     assert np.isfinite(a)
     np.testing.assert_allclose(b, a, rtol=1e-12)  # the same values (the writer keeps every digit read)

@@ -156,37 +156,46 @@ def _states_no_unit(text: str) -> bool:
     return not (_RELATIVE.search(text) or _ABSOLUTE.search(text))
 
 
+def _stated_scale(texts: list[str]) -> tuple[str, str | None]:
+    """(scale, the text stating it) of the first of ``texts`` that states a relative or an
+    absolute scale, or ("unknown", None)."""
+    for t in texts:
+        if _RELATIVE.search(t):
+            return "relative", t
+        if _ABSOLUTE.search(t):
+            return "absolute", t
+    return "unknown", None
+
+
 def _scale(header_cell: str | None, meta: dict, file: str = "") -> tuple[str, str | None]:
     """(scale, unit text) of a value column: from its header and the file's unit lines, or the
     scale lumeval's own writer declared (``# lumeval.scale: ...``, kept through a conversion).
 
-    A declared scale that contradicts what the header or a unit line states is refused: it
-    would make a column headed "relative intensity (a.u.)" absolute (illuminance, irradiance...)
-    because of a comment line (found by a review; the TM-27 reader refuses such comments)."""
-    texts = []
-    if header_cell:
-        texts.append(header_cell)
-    for k, v in meta.items():
-        kl = k.lower()
-        if kl in {"unit", "units", "y unit", "y-unit", "yunit", "y units", "scale", "spectral quantity",
-                  "spectralquantity", "quantity", "value unit", "values"}:
-            texts.append(v)
-    stated: tuple[str, str | None] = ("unknown", None)
-    for t in texts:
-        if _RELATIVE.search(t):
-            stated = ("relative", t)
-            break
-        if _ABSOLUTE.search(t):
-            stated = ("absolute", t)
-            break
+    A declared scale that contradicts a unit the file states explicitly (a unit line, a unit in
+    the header's brackets or after a slash, or a header that is only a quantity label) is
+    refused: it would make a column headed
+    "relative intensity (a.u.)" absolute (illuminance, irradiance...) because of a comment line
+    (found by a review; the TM-27 reader refuses such comments)."""
+    lines = [v for k, v in meta.items() if k.lower() in {
+        "unit", "units", "y unit", "y-unit", "yunit", "y units", "scale", "spectral quantity", "spectralquantity",
+        "quantity", "value unit", "values"}]
+    texts = ([header_cell] if header_cell else []) + lines
+    stated = _stated_scale(texts)
     declared = meta.get("lumeval.scale")
     if declared in {"absolute", "relative", "unknown"}:
-        if declared != "unknown" and stated[0] not in ("unknown", declared):
+        # against what the file states explicitly: a unit line, a unit written in the header's
+        # brackets or after a slash ("(a.u.)", "/ %"), or a header that is a quantity label and
+        # no name ("counts", "relative intensity"); not words of a name ("lamp at 50% dimming",
+        # "Harbour lamp"), which lumeval's own writer puts in the header
+        head = ([header_cell] if _generic_value_name(header_cell) else _unit_words(header_cell, False)) \
+            if header_cell else []
+        explicit = _stated_scale([*head, *lines])
+        if declared != "unknown" and explicit[0] not in ("unknown", declared):
             from ..errors import InputError
 
             raise InputError(
-                f"a 'lumeval.scale: {declared}' line contradicts the {stated[0]} scale its data are stated in "
-                f"({str(stated[1])[:40]!r})", file=file,
+                f"a 'lumeval.scale: {declared}' line contradicts the {explicit[0]} scale its data are stated in "
+                f"({str(explicit[1])[:40]!r})", file=file,
                 fix="remove the lumeval.scale line (the header and unit lines state the scale)")
         # a declared scale with its unit on an ordinary line ("unit: mW/(m2 nm)"): that unit
         # (it was dropped, and with it every absolute figure; found by a review)

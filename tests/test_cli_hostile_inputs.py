@@ -713,6 +713,30 @@ def test_undecodable_name_bytes_show_as_the_replacement_character_everywhere(tmp
     assert "recorded as lot 1 in u\ufffd.db" in err and "\\udc" not in err
 
 
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+def test_more_messages_and_store_urls_with_undecodable_bytes(tmp_path):
+    """The messages a review found still printing '\\udcff' (series' "holds several numbers",
+    `history trend --figure`, `history list --since`), and a store URL with undecodable bytes,
+    which was an internal error (exit 3) in the URL parser: one clean line each, U+FFFD, no
+    password shown."""
+    write_spd(tmp_path / "a.csv")
+    os.link(tmp_path / "a.csv", os.path.join(os.fsencode(tmp_path), b"lamp\xff_3000K_50pct.csv"))
+    odd = os.fsdecode(b"lamp\xff_3000K_50pct.csv")
+    code, _, err = run_sub(["series", odd, "a.csv"], tmp_path, timeout=120)
+    line = one_error_line(code, err, "'lamp\ufffd_3000K_50pct' holds several numbers")
+    assert "\\udc" not in line
+    record = run_sub(["lot", "a.csv", "--store", "h.db", "-q"], tmp_path, timeout=120)
+    assert record[0] == 0, record[2]
+    for argv, needle in ((["history", "trend", "--store", "h.db", "--figure", os.fsdecode(b"R\xff9")], "'R\ufffd9'"),
+                         (["history", "list", "--store", "h.db", "--since", os.fsdecode(b"2020\xff")], "'2020\ufffd'"),
+                         (["lot", "a.csv", "--store", os.fsdecode(b"sqlite:///u\xff.db")], "the store URL is not UTF-8"),
+                         (["history", "list", "--store", os.fsdecode(b"postgresql://u:secret\xff@h/db")], "u:***@h/db")):
+        code, _, err = run_sub(argv, tmp_path, timeout=120)
+        line = one_error_line(code, err, needle)
+        assert "\\udc" not in line and "secret" not in line
+    assert not any(p.name.startswith("u") for p in tmp_path.iterdir())  # the refused store was not created
+
+
 def test_clean_shows_lone_surrogates_as_the_replacement_character():
     from lumeval.render.safe import clean, csv_text, html_value
 

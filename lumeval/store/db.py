@@ -125,6 +125,11 @@ def parse_store_url(text: str) -> StoreURL:
         # shown with undecodable bytes of the file name as U+FFFD, as every path lumeval shows
         return StoreURL("sqlite:///" + path, "sqlite", display_path(raw), path)
     try:
+        raw.encode("utf-8")
+    except UnicodeEncodeError:  # undecodable bytes in a URL (a path is fine: it opens as given)
+        raise StoreError(f"{_redact(display_path(raw))}: the store URL is not UTF-8 text",
+                         fix="give the URL as UTF-8 text, or the SQLite file as a plain path") from None
+    try:
         u = make_url(raw)
     except ArgumentError:
         raise StoreError(f"{_redact(raw)}: not a store URL",

@@ -33,7 +33,9 @@ def parse_since(text: str) -> str:
     try:
         d = _dt.datetime.fromisoformat(t.replace("Z", "+00:00"))
     except ValueError:
-        raise StoreError(f"--since {t!r}: not a date", field="--since",
+        from .._paths import display_path
+
+        raise StoreError(f"--since {display_path(t)!r}: not a date", field="--since",
                          fix="give an ISO date such as 2026-11-30 or 2026-11-30T08:00") from None
     if d.tzinfo is not None:
         d = d.astimezone(_dt.UTC).replace(tzinfo=None)

@@ -128,7 +128,9 @@ def resolve_figure(name: str) -> tuple[str, str, str]:
         return k, *CHROMATICITY_FIGURES[k]
     found = registry.lookup(raw)
     if found is None:
-        raise StoreError(f"unknown figure {raw!r}", field="--figure",
+        from .._paths import display_path
+
+        raise StoreError(f"unknown figure {display_path(raw)!r}", field="--figure",
                          fix="use a lumeval figure name (duv, CCT, Ra, R9, Rf, Rg, ...; `lumeval criteria explain` "
                              "lists them) or " + ", ".join(CHROMATICITY_FIGURES))
     return found, registry.label(found), registry.unit(found)

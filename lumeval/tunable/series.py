@@ -63,7 +63,10 @@ def setting_from_text(text: str, *, what: str, file: str | None, fix: str, signe
         raise InputError(f"no number in the {what} {display_path(text)!r} to take the setting from", file=file, fix=fix)
     else:
         found = ", ".join(f"{w}{u}" for w, u, _ in (with_unit or nums))
-        raise InputError(f"the {what} {text!r} holds several numbers ({found}): which is the setting is ambiguous",
+        from .._paths import display_path
+
+        raise InputError(f"the {what} {display_path(text)!r} holds several numbers ({found}): which is the setting is "
+                         "ambiguous",
                          file=file, fix=fix)
     written, unit, start = hit
     if "," in written:

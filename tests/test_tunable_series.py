@@ -174,3 +174,27 @@ def test_numbers_in_takes_the_digits_0_9_only():
     scripts' digits were read: 'dim_٥٠pct' gave 50 %)."""
     assert numbers_in("dim_\u0665\u0660pct") == [] and numbers_in("dim_\uff15\uff10pct") == []
     assert numbers_in("dim_50pct") == [(50.0, "%")]
+
+
+def test_a_series_margin_that_would_print_as_zero_gets_more_decimals(tmp_path):
+    """The series report printed "worst value 91.8, margin 0.0" for an R9 of 91.812 against
+    "R9 ≤ 91.8" (found by a review): the value and the margin get the decimals that show the
+    margin is not zero, as the check reports do (docs/criteria.md: "never 0.0")."""
+    import lumeval
+    from lumeval.render.tunable import _margin, _value
+
+    demo = Path(__file__).resolve().parents[1] / "spectra_demo" / "tunable"
+    files = [demo / "tw2_setpoint_2700K.csv", demo / "tw2_setpoint_3500K.csv"]
+    r9 = lumeval.inspect(files).figure("R9")
+    limit = float(np.floor(r9.max() * 10.0) / 10.0)  # the largest R9 rounded down to 0.1: exceeded by < 0.1
+    assert 0.0 < r9.max() - limit < 0.1
+    crit = tmp_path / "c.toml"
+    crit.write_text(f'lumeval_criteria = 1\n[[clause]]\nid = "R9"\nfigure = "R9"\nmax = {limit!r}\n', encoding="utf-8")
+    report = series_files(files, criteria=crit)
+    (rr,) = [r for r in report.check.results if r.result.clause_id == "R9"]
+    res, i = rr.result, rr.worst
+    assert rr.range_outcome == "fail" and res.measured[i] == pytest.approx(r9.max(), rel=1e-9)
+    margin = _margin(res, i)
+    assert float(margin) < 0 and float(margin) != 0.0, margin
+    assert_allclose(float(margin), limit - r9.max(), atol=0.6 * 10 ** -(len(margin.split(".")[1])))
+    assert len(_value(res, i).split(".")[1]) == len(margin.split(".")[1])  # value and margin alike

@@ -310,7 +310,18 @@ def _value(res, i: int) -> str:
         from .verdicts import measured_text
 
         return measured_text(res, i)
-    return _f(res.measured[i], _spec_of(res)) + (f" {res.unit}" if res.unit and res.unit not in ("%",) and math.isfinite(float(res.measured[i])) else "")
+    return _f(res.measured[i], _spec_at(res, i)) + (f" {res.unit}" if res.unit and res.unit not in ("%",) and math.isfinite(float(res.measured[i])) else "")
+
+
+def _spec_at(res, i: int) -> str:
+    """The format of clause result ``res`` at setting ``i``: more decimals where its non-zero
+    margin would print as zero, for the value and the margin alike (R9 91.812 against "R9 ≤
+    91.8" printed "worst value 91.8, margin 0.0"; found by a review), as the check reports do
+    (:func:`lumeval.figures.margin_extra_decimals`)."""
+    from .verdicts import _extra_decimals, _more
+
+    spec = _spec_of(res)
+    return _more(spec, _extra_decimals(res.margin[i], spec))
 
 
 def _margin(res, i: int) -> str:
@@ -318,7 +329,7 @@ def _margin(res, i: int) -> str:
         from .verdicts import margin_text
 
         return margin_text(res, i)
-    return _f(res.margin[i], "+" + _spec_of(res))
+    return _f(res.margin[i], "+" + _spec_at(res, i))
 
 
 def _rounding_fields(res, i: int | None) -> dict:

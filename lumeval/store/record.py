@@ -133,7 +133,7 @@ class RecordResult:
         if not self.missing_indexes:
             return ""
         return (f"; note: the store lacks the index {', '.join(self.missing_indexes)} (created by an earlier lumeval): "
-                f"recording slows down as the store grows; `lumeval history migrate --store {self.store}` adds it")
+                "recording slows down as the store grows; `lumeval history migrate` with this --store adds it")
 
 
 def _lots_text(ids: list[int]) -> str:
@@ -348,13 +348,11 @@ def _overlapping_lots(conn, t, rec: LotRecord, file_index: bool = True) -> tuple
     shas = sorted(per_sha)
     if not shas:
         return ()
-    li, lots = t["inputs"], t["lots"]
+    lots = t["lots"]
     same_product = lots.c.product.is_(None) if rec.product is None else lots.c.product == rec.product
     found: dict[int, set[str]] = {}
     for k in range(0, len(shas), 900):  # IN lists within SQLite's oldest limit of 999 parameters
-        q = select(li.c.lot_id, li.c.sha256).distinct().where(li.c.sha256.in_(shas[k:k + 900]))
-        if not file_index:
-            q = q.join(lots, lots.c.id == li.c.lot_id).where(same_product)
+        q = _files_query(t, shas[k:k + 900], None if file_index else same_product)
         for lot_id, sha in conn.execute(q):
             found.setdefault(int(lot_id), set()).add(sha)
     if file_index:  # the lots found, of the product only
@@ -365,6 +363,16 @@ def _overlapping_lots(conn, t, rec: LotRecord, file_index: bool = True) -> tuple
         found = {lot_id: got for lot_id, got in found.items() if lot_id in ours}
     shared = {lot_id: sum(per_sha[s] for s in got) for lot_id, got in found.items()}
     return tuple(sorted(shared.items(), key=lambda kv: (-kv[1], kv[0])))
+
+
+def _files_query(t, shas: list[str], same_product=None):
+    """The (lot id, SHA-256) pairs of the stored input files among ``shas``; with
+    ``same_product`` (a condition on the lots table), of that product's lots only, joined."""
+    from sqlalchemy import select
+
+    li, lots = t["inputs"], t["lots"]
+    q = select(li.c.lot_id, li.c.sha256).distinct().where(li.c.sha256.in_(shas))
+    return q if same_product is None else q.join(lots, lots.c.id == li.c.lot_id).where(same_product)
 
 
 def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_batch) -> RecordResult:

@@ -671,8 +671,8 @@ def test_a_very_long_spectrum_name_is_shortened_in_figures_only(tmp_path):
     """A 20,000-character column header (a spectrum name; text from a file) took 11 s of text
     layout per report and squeezed the plot axes to nothing, with matplotlib's warnings on
     standard error (200,000 characters: 84 s and 1 GB; found by a review). Figures now show at
-    most PLOT_TEXT_MAX characters of it, ending in "…"; the report's tables and the JSON keep
-    it whole; nothing is printed on standard error but the written files."""
+    most PLOT_TEXT_MAX characters of it, its middle left out ("…"); the report's tables and the
+    JSON keep it whole; nothing is printed on standard error but the written files."""
     from lumeval.render.plots import PLOT_TEXT_MAX
 
     name = "N" * 20000
@@ -687,7 +687,7 @@ def test_a_very_long_spectrum_name_is_shortened_in_figures_only(tmp_path):
     assert name in (tmp_path / "r.html").read_text(encoding="utf-8")  # the tables: whole
     svgs = list((tmp_path / "p").glob("*.svg"))
     assert svgs
-    short = "N" * (PLOT_TEXT_MAX - 1) + "…"
+    short = "N" * (PLOT_TEXT_MAX // 2) + "…" + "N" * ((PLOT_TEXT_MAX - 1) // 2)
     for svg in svgs:
         body = svg.read_text(encoding="utf-8")
         assert "N" * PLOT_TEXT_MAX not in body, svg.name
@@ -743,3 +743,14 @@ def test_clean_shows_lone_surrogates_as_the_replacement_character():
     assert clean("bad\udcff name\x1b") == "bad\ufffd name\\x1b"
     assert csv_text("=x\ud800") == "'=x\ufffd"
     assert "\ufffd" in str(html_value("a\udcffb"))
+
+
+def test_figure_text_keeps_the_ends_that_tell_names_apart():
+    """Long names cut in figures keep their beginning and end: names of a lot's samples usually
+    differ at the end ("..._lamp_0001", "..._lamp_0002"), which a cut at the end made identical
+    (found by a review)."""
+    from lumeval.render.plots import PLOT_TEXT_MAX, _lit
+
+    a, b = (_lit(f"production_line_7_station_B_sample_lamp_{k:04d}") for k in (1, 2))
+    assert a != b and len(a) == len(b) == PLOT_TEXT_MAX and a.endswith("0001") and a.startswith("production_")
+    assert _lit("short name") == "short name"

@@ -136,8 +136,11 @@ def test_lot_refuses_unclean_big_file_naming_the_line(tmp_path, monkeypatch):
     assert len(run.unreadable) == 1 and ":22:" in run.unreadable[0].message and "column blocks" in run.unreadable[0].message
 
 
-@pytest.mark.parametrize("rows", [0, 1, 3])
-def test_a_big_file_of_a_few_lines_is_refused_in_plain_words(tmp_path, monkeypatch, rows):
+@pytest.mark.parametrize("rows, words", [
+    (0, "no line of it looks like a row of numbers"),
+    (1, "it has only a few lines, where a text spectrum file has one line per wavelength"),
+    (3, "it has only a few lines, where a text spectrum file has one line per wavelength")])
+def test_a_big_file_of_a_few_lines_is_refused_in_plain_words(tmp_path, monkeypatch, rows, words):
     """A file over the single-file limit with only a few lines (one very long header and a row
     or two; limits lowered for the test) is refused saying so, not with the reader's own plan
     ("the file is short: read it whole"; found by a review)."""
@@ -149,9 +152,20 @@ def test_a_big_file_of_a_few_lines_is_refused_in_plain_words(tmp_path, monkeypat
     monkeypatch.setattr(T, "MAX_TEXT_BYTES", 200)
     run = run_lot([p])
     (u,) = run.unreadable
-    assert "cannot be read in column blocks: it has only a few lines, where a text spectrum file has one line per " \
-           "wavelength" in u.message, u.message
+    assert f"cannot be read in column blocks: {words}" in u.message, u.message
     assert "read it whole" not in u.message
+
+
+def test_a_big_file_without_numbers_is_not_said_to_be_short(tmp_path, monkeypatch):
+    """A file over the single-file limit of many lines none of which is a row of numbers is
+    refused as such, not as "only a few lines" (the same end of the reader's scan; found by a
+    review)."""
+    p = tmp_path / "prose.csv"
+    p.write_text("".join(f"line {k} of a report about lamps, not a spectrum\n" for k in range(500)), encoding="utf-8")
+    monkeypatch.setattr(reading, "STREAM_BYTES", 100)
+    monkeypatch.setattr(T, "MAX_TEXT_BYTES", 200)
+    (u,) = run_lot([p]).unreadable
+    assert "cannot be read in column blocks: no line of it looks like a row of numbers" in u.message, u.message
 
 
 def test_streaming_memory_is_bounded(tmp_path):

@@ -146,13 +146,15 @@ def _lit(value) -> str:
     characters escaped (:func:`lumeval.render.safe.clean`), ``$`` escaped so that matplotlib never
     parses it as mathtext (``$\\foo$`` in a name used to abort the report), a leading ``_``
     kept visible (matplotlib hides legend labels that start with one), and at most
-    :data:`PLOT_TEXT_MAX` characters (a 20,000-character name took 11 s of text layout a report
-    and squeezed the axes to nothing; found by a review): the tables beside give it whole."""
+    :data:`PLOT_TEXT_MAX` characters, the middle of a longer one left out ("…"): a
+    20,000-character name took 11 s of text layout a report and squeezed the axes to nothing
+    (found by a review); the tables beside give it whole."""
     from .safe import clean
 
     s = clean(value)
-    if len(s) > PLOT_TEXT_MAX:
-        s = s[: PLOT_TEXT_MAX - 1] + "…"
+    if len(s) > PLOT_TEXT_MAX:  # the middle left out: names that differ only at the end stay apart
+        keep = PLOT_TEXT_MAX - 1
+        s = s[: (keep + 1) // 2] + "…" + s[len(s) - keep // 2:]
     s = s.replace("$", r"\$")
     return "\u2009" + s if s.startswith("_") else s
 

@@ -165,8 +165,8 @@ def _plan(fh, file: str, block_cols: int, keep_values: int) -> ColumnPlan:
         n_nc += 1
         if i0 is not None and n_nc >= i0 + HEAD_ROWS:
             break
-    else:
-        raise NotStreamable(_FEW_LINES)
+    else:  # the end came first: too few lines, or none that looks like a row of numbers
+        raise NotStreamable(_FEW_LINES if i0 is not None else "no line of it looks like a row of numbers")
     head_text = _decode_lines(p.head, file)
     head_nc = [t for t in head_text if not t[1].startswith(_COMMENT_PREFIXES)]
     ht = head_tail(head_nc + [(0, "")] * TAIL_LINES)  # the head that reading the whole file samples

@@ -158,10 +158,12 @@ def check_output_file(path: str | os.PathLike, option: str | None = None) -> Non
         raise UsageError("the path is empty", field=option, fix="give a file name")
     p = Path(text)
     shown = _shown(p)
-    if isinstance(text, str) and text.endswith((os.sep, os.altsep) if os.altsep else os.sep):
-        # a path ending in a separator names a folder; Path() drops the separator, so the run would
-        # have written a file of that name
-        raise UsageError(f"cannot write {_shown(text)}: a path ending in {os.sep!r} names a folder",
+    if isinstance(text, str) and (text.endswith((os.sep, os.altsep) if os.altsep else os.sep)
+                                  or os.path.basename(text) in (".", "..")):
+        # a path ending in a separator (or in "/." or "/..") names a folder; Path() drops the
+        # separator (and a final "."), so the run would have written a file of that name
+        raise UsageError(f"cannot write {_shown(text)}: a path ending in {os.sep!r}, '{os.sep}.' or '{os.sep}..' names a "
+                         "folder",
                          field=option, fix="give a file name (without the trailing separator)")
     try:
         st = os.lstat(p)

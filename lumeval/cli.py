@@ -323,7 +323,7 @@ def _refuse_folder_like_outputs(args: list[str]) -> None:
             opt, v = a, args[i + 1]
         else:
             continue
-        if v != "-" and v.endswith(seps):
+        if v != "-" and (v.endswith(seps) or os.path.basename(v) in (".", "..")):
             check_output_file(v, opt)
 
 

@@ -845,7 +845,9 @@ def test_an_output_path_ending_in_a_separator_is_refused(tmp_path):
                                   ["lot", "{spd}", "-q", "--json", "{tmp}/lot.json/"],
                                   ["lot", "{spd}", "-q", "--samples-csv", "{tmp}/s.csv/"],
                                   ["convert", "{spd}", "{tmp}/out.csv/"], ["criteria", "new", "{tmp}/c.toml/"],
-                                  ["criteria", "new", "{tmp}/c.toml/", "--force"]])
+                                  ["criteria", "new", "{tmp}/c.toml/", "--force"],
+                                  ["convert", "{spd}", "{tmp}/out.csv/.", "--force"], ["inspect", "{spd}", "-o", "{tmp}/n.json/."],
+                                  ["inspect", "{spd}", "--html={tmp}/r.html/.."]])
 def test_a_file_output_ending_in_a_separator_is_refused_by_the_cli(work, capsys, argv):
     """The argument parser drops a trailing separator (pathlib), so `-o out.txt/` wrote a file
     out.txt (found by exploratory testing); the raw arguments are checked before parsing, and

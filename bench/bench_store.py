@@ -97,14 +97,20 @@ def many_file_lots(url: str, n_lots: int = 100, n_files: int = 2000) -> dict:
     for k in range(n_lots):
         record_lot(url, files_lot(f"filler{k:03d}"))
     su = parse_store_url(url)
+
+    def use_index(label: str) -> bool:
+        """The store with the file index (label "with ...") or without it; True with it."""
+        with connect(su, write=True, action="bench") as conn:
+            if label == "without it":
+                conn.exec_driver_sql("DROP INDEX ix_lot_inputs_sha256")
+            else:
+                add_missing_indexes(conn)
+        return label != "without it"
+
     times: dict[str, list[float]] = {"with the file index": [], "without it": []}
     for rep in range(3):
         for label in times:
-            with connect(su, write=True, action="bench") as conn:
-                if label == "without it":
-                    conn.exec_driver_sql("DROP INDEX ix_lot_inputs_sha256")
-                else:
-                    add_missing_indexes(conn)
+            use_index(label)
             rec = files_lot(f"timed-{'indexed' if label.startswith('with ') else 'plain'}-{rep}")
             t = time.perf_counter()
             got = record_lot(url, rec)
@@ -118,18 +124,13 @@ def many_file_lots(url: str, n_lots: int = 100, n_files: int = 2000) -> dict:
     look: dict[str, list[float]] = {"with the file index": [], "without it": []}
     for _rep in range(3):
         for label in look:
-            with connect(su, write=True, action="bench") as conn:
-                if label == "without it":
-                    conn.exec_driver_sql("DROP INDEX ix_lot_inputs_sha256")
-                else:
-                    add_missing_indexes(conn)
+            indexed = use_index(label)
             with connect(su, write=False, action="bench") as conn:
                 t = time.perf_counter()
-                got = _overlapping_lots(conn, _tables()[1], probe, label.startswith("with "))
+                got = _overlapping_lots(conn, _tables()[1], probe, indexed)
                 look[label].append(time.perf_counter() - t)
             assert got[0][1] == n_files
-    with connect(su, write=True, action="bench") as conn:
-        add_missing_indexes(conn)
+    use_index("with the file index")
     rows = (n_lots + 6) * n_files
     out = {f"record 2,000-file lot into ~{rows:,} input rows, {k}": float(np.median(v)) for k, v in times.items()}
     out.update({f"  of which the shared-file lookup, {k}": float(np.median(v)) for k, v in look.items()})

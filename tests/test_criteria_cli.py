@@ -614,3 +614,6 @@ def test_light_in_no_ansi_category_fails_under_a_decision_rule_in_claims_and_in_
     assert code == 1, err
     (summary,) = json.loads(out)["verdict"]["sample_clauses"]
     assert summary["counts"]["fail"] == 1 and summary["counts"]["pass"] == 1 and summary["worst_margin"] is None
+    code, out, err = run(["criteria", "explain", plain], capsys)  # the tender wording says so too
+    assert code == 0 and "A chromaticity outside every quadrangle of the edition is in no category and does not " \
+                         "meet it." in out, out + err

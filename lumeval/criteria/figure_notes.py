@@ -52,19 +52,17 @@ def nearest_category_notes(ev, r):
         return replace(r, details={**r.details, FAILS_REGARDLESS: np.zeros(d.size, dtype=bool)})
     reasons = list(r.reason) if r.reason else [""] * d.size
     outcome, margin = list(r.outcome), np.array(r.margin, dtype=float)
-    p = None if r.p_conformance is None else np.array(r.p_conformance, dtype=float)
     regardless = np.zeros(d.size, dtype=bool)
     for i in out:
         reasons[i] = f"{reasons[i]}; {no_category_note(d[i], r.measured[i])}" if reasons[i] else \
             no_category_note(d[i], r.measured[i])
         outcome[i], margin[i] = FAIL, np.nan
         regardless[i] = True
-        if p is not None:
-            p[i] = 0.0
     # a decision rule under measurement uncertainty (lumeval.uncertainty.judge) keeps these
-    # failures: the measured value and its uncertainty do not decide them (found by a review)
+    # failures with p_c = 0: the measured value and its uncertainty do not decide them (found
+    # by a review)
     details = {**r.details, FAILS_REGARDLESS: regardless}
-    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin, p_conformance=p, details=details)
+    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin, details=details)
 
 
 #: Key of ``ClauseResult.details``: a bool array, True where the clause fails the spectrum

@@ -380,7 +380,10 @@ class FigureClause(ClauseKind):
             req = f"shall be at least {limit_number(self.lower, unit)}"
         else:
             req = f"shall not exceed {limit_number(self.upper, unit)}"
-        return f"The {desc} (`{self.figure}`, {std}) {req}{rounding.tender_words(self.round_to, unit)}."
+        tail = ""
+        if figures.get(self.figure).name == "ansi_category_K":  # (figure_notes.nearest_category_notes)
+            tail = " A chromaticity outside every quadrangle of the edition is in no category and does not meet it."
+        return f"The {desc} (`{self.figure}`, {std}) {req}{rounding.tender_words(self.round_to, unit)}.{tail}"
 
     def sources(self) -> tuple[str, ...]:
         return (describe(self.figure)[1],)

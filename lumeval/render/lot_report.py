@@ -130,12 +130,15 @@ def _arr(a, i):
 def _sample_clause_summary(r) -> dict:
     """A per-sample clause over the lot, as the terminal's "Requirements" table gives it: how
     many samples had each outcome and the worst margin among those judged."""
+    from collections import Counter
+
     from ..criteria.verdicts import OUTCOMES, worst_judged_margin
 
+    n = Counter(r.outcome)
     return {
         "id": r.clause_id, "label": r.label, "kind": r.kind, "figure": r.figure, "unit": r.unit,
         "limit": r.limit_text, "lower": r.lower, "upper": r.upper,
-        "counts": {o: sum(x == o for x in r.outcome) for o in OUTCOMES},
+        "counts": {o: n.get(o, 0) for o in OUTCOMES},
         "worst_margin": _num(worst_judged_margin(r.margin, r.outcome)),
         "source": r.source, "line": r.line, "decision_rule": r.decision_rule,
     }

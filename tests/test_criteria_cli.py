@@ -582,12 +582,15 @@ def test_a_margin_of_a_few_units_in_the_last_place_never_prints_as_zero(tmp_path
     assert_allclose(float(row["margin"]), limit - ra, rtol=1e-12)  # the value as computed, not rounded
 
 
-def test_light_in_no_ansi_category_fails_under_a_decision_rule_in_claims_and_in_a_lot(tmp_path, spectra_dir, capsys):
-    """The category failure of light outside every quadrangle holds everywhere (found by a
-    review of the first fix): under a guarded decision rule (which decided again from the
-    measured nearest category and passed it, p_c > 0.999), as a contradicted datasheet claim of
-    that category, and in a lot, whose worst margin was then the passing samples' (+800 K while
-    a sample failed): n/a."""
+def test_light_in_no_ansi_category_fails_in_claims_and_in_a_lot_and_is_refused_under_a_rule(tmp_path, spectra_dir,
+                                                                                          capsys):
+    """The category failure of light outside every quadrangle holds everywhere (found by reviews
+    of the first fix): as a contradicted datasheet claim of that category, and in a lot, whose
+    worst margin was then the passing samples' (+800 K while a sample failed): n/a. Under a
+    guarded decision rule a clause on the category is refused (exit 2, naming the clause's
+    line): the category is a label without a spread in kelvin, and the rule decided again from
+    the nearest category (a pass, p_c > 0.999, for light in no category); the quadrangle clause
+    takes the guard band on its Δu′v′ margin."""
     import json
 
     import lumeval
@@ -598,13 +601,15 @@ def test_light_in_no_ansi_category_fails_under_a_decision_rule_in_claims_and_in_
     planck = spectra_dir / "planck3000.csv"
     rule = write(tmp_path, 'lumeval_criteria = 1\n[decision]\nrule = "guarded-acceptance"\n[[clause]]\nid = "cat"\n'
                  'figure = "ansi_category_K"\nrange = [2200, 6500]\n', "rule.toml")
-    code, out, err = run(["check", green, planck, "--criteria", rule, "--draws", "200", "--seed", "1", "-f", "json"],
-                         capsys)
-    assert code == 1, err
-    rows = {s["name"]: s["clauses"][0] for s in json.loads(out)["spectra"]}
-    assert rows["green"]["outcome"] == "fail" and rows["green"]["p_conformance"] == 0.0
-    assert "in no ANSI C78.377 category" in rows["green"]["reason"]
-    assert rows["planck3000"]["outcome"] == "pass"
+    code, out, err = run(["check", green, planck, "--criteria", rule], capsys)
+    assert code == 2 and out == "", err
+    assert err.startswith(f"lumeval: error: {rule}:4 field 'figure': clause 'cat' judges the ANSI category") and \
+        'kind = "ansi_quadrangle"' in err, err
+    plain_rule = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nid = "cat"\nfigure = "ansi_category_K"\n'
+                       'range = [2200, 6500]\n', "plain_rule.toml")
+    instrument = Path(__file__).resolve().parents[1] / "docs" / "examples" / "instrument_portable.toml"
+    code, out, err = run(["check", green, "--criteria", plain_rule, "--instrument", instrument], capsys)
+    assert code == 2 and out == "" and "the check with --instrument decides under measurement uncertainty" in err, err
     claims = write(tmp_path, 'lumeval_claims = 1\n[claims]\nansi_category_K = "5000"\n', "claims.toml")
     (r,) = lumeval.claims([green], claims).results
     assert r.outcome == ("contradicted",) and "in no ANSI C78.377 category" in r.reason[0] and np.isnan(r.excess[0])
@@ -617,3 +622,12 @@ def test_light_in_no_ansi_category_fails_under_a_decision_rule_in_claims_and_in_
     code, out, err = run(["criteria", "explain", plain], capsys)  # the tender wording says so too
     assert code == 0 and "A chromaticity outside every quadrangle of the edition is in no category and does not " \
                          "meet it." in out, out + err
+
+
+def test_the_no_category_note_never_prints_a_zero_distance():
+    """A chromaticity a hair outside every quadrangle (4.3e-6 in u′v′) read "Δu′v′ = 0.0000
+    outside" (found by a review): two significant digits below 5e-5, four decimals above."""
+    from lumeval.criteria.figure_notes import no_category_note
+
+    assert "(Δu′v′ = 0.0000043 outside the nearest, 3500 K)" in no_category_note(4.3e-6, 3500.0)
+    assert "(Δu′v′ = 0.1674 outside the nearest, 5000 K)" in no_category_note(0.16741, 5000.0)

@@ -41,40 +41,30 @@ def nearest_category_notes(ev, r):
     one*. A clause on it requires a category, so a point outside every quadrangle fails it
     whatever the nearest category is (a green line 0.16 off the locus was "5000 K, pass", a
     1500 K Planckian "2200 K, pass": found by reviews), with no margin in kelvin (NaN: the
-    distance is the reason's Δu′v′) and a conformance probability of 0 under a decision rule.
+    distance is the reason's Δu′v′). Such a clause is refused under a decision rule with
+    measurement uncertainty (:func:`lumeval.criteria.rounding.refuse_under_uncertainty`).
     Spectra not judged (no chromaticity) stay so. Membership of one quadrangle is what an
     `ansi_quadrangle` clause judges."""
     from .verdicts import FAIL, NOT_JUDGED
 
     d = np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
     out = [i for i in np.flatnonzero(np.isfinite(d) & (d > 0)).tolist() if r.outcome[i] != NOT_JUDGED]
-    if not out:  # (the key present in every result of such a clause: a lot joins its batches' details)
-        return replace(r, details={**r.details, FAILS_REGARDLESS: np.zeros(d.size, dtype=bool)})
+    if not out:
+        return r
     reasons = list(r.reason) if r.reason else [""] * d.size
     outcome, margin = list(r.outcome), np.array(r.margin, dtype=float)
-    regardless = np.zeros(d.size, dtype=bool)
     for i in out:
         reasons[i] = f"{reasons[i]}; {no_category_note(d[i], r.measured[i])}" if reasons[i] else \
             no_category_note(d[i], r.measured[i])
         outcome[i], margin[i] = FAIL, np.nan
-        regardless[i] = True
-    # a decision rule under measurement uncertainty (lumeval.uncertainty.judge) keeps these
-    # failures with p_c = 0: the measured value and its uncertainty do not decide them (found
-    # by a review)
-    details = {**r.details, FAILS_REGARDLESS: regardless}
-    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin, details=details)
-
-
-#: Key of ``ClauseResult.details``: a bool array, True where the clause fails the spectrum
-#: whatever its measured value and that value's uncertainty (light in no ANSI category for a
-#: clause on the category): a decision rule keeps the failure, with p_c = 0.
-FAILS_REGARDLESS = "fails_regardless"
+    return replace(r, reason=tuple(reasons), outcome=tuple(outcome), margin=margin)
 
 
 def no_category_note(distance_upvp: float, nearest_K: float) -> str:
     """The reason a chromaticity ``distance_upvp`` outside every ANSI quadrangle meets no
     requirement on the ANSI category (criteria clauses and datasheet claims)."""
     nearest = figures.get("ansi_category_K").format(nearest_K) if np.isfinite(nearest_K) else "n/a"
+    # 4 decimals, or two significant digits for a distance that would print as 0.0000
+    dist = f"{distance_upvp:.4f}" if distance_upvp >= 5e-5 else figures.format_significant(distance_upvp, 2)
     return (f"in no ANSI C78.377 category: the chromaticity lies outside every quadrangle (Δu′v′ = "
-            f"{distance_upvp:.4f} outside the nearest, {nearest} K); to require one quadrangle, use kind = "
-            f"\"ansi_quadrangle\"")
+            f"{dist} outside the nearest, {nearest} K); to require one quadrangle, use kind = \"ansi_quadrangle\"")

@@ -176,11 +176,27 @@ def limit_warnings(clauses, file: str) -> tuple[str, ...]:
 
 
 def refuse_under_uncertainty(criteria, why: str, lines: dict | None = None) -> None:
-    """Refuse (:class:`CriteriaError`, exit code 2) a per-sample figure clause with ``round_to``
-    in a check decided under measurement uncertainty (``why`` says what asks for it): guard bands
-    and probabilities of conformance are about the unrounded value, and lumeval does not define
-    how a rounded comparison and a guard band combine. ``lines``: clause id -> line of its
-    ``round_to`` key (the loader knows it; otherwise the clause's line is named)."""
+    """Refuse (:class:`CriteriaError`, exit code 2) the clauses a check decided under measurement
+    uncertainty (``why`` says what asks for it) cannot judge:
+
+    - a per-sample figure clause with ``round_to``: guard bands and probabilities of conformance
+      are about the unrounded value, and lumeval does not define how a rounded comparison and a
+      guard band combine. ``lines``: clause id -> line of its ``round_to`` key (the loader knows
+      it; otherwise the clause's line is named);
+    - a clause on the ANSI category (``ansi_category_K``): the category is a label, whose
+      uncertainty is not a spread in kelvin; whether a chromaticity is in a quadrangle, and how
+      sure, is the ``ansi_quadrangle`` clause's margin in Δu′v′ (a guard band on the nearest
+      category passed light in no category, and failed light a hair outside one that half the
+      draws put inside; found by reviews)."""
+    for c in getattr(criteria, "clauses", ()):
+        inner = getattr(c, "inner", c)
+        if getattr(inner, "KIND", "") == "figure" and figures.lookup(getattr(inner, "figure", "")) == "ansi_category_K":
+            raise CriteriaError(
+                f"clause {quote(inner.clause_id)} judges the ANSI category, a label, and {why} decides under "
+                "measurement uncertainty, which needs a quantity with a spread",
+                file=getattr(criteria, "file", "<criteria>"), line=inner.line, field="figure",
+                fix='judge the quadrangle instead (kind = "ansi_quadrangle", nominal_cct = ...: its margin in '
+                    "Δu′v′ takes the guard band), or judge without an instrument model and a guarded decision rule")
     for _c, f in _figure_clauses(getattr(criteria, "clauses", ()), scopes=("sample",)):
         raise CriteriaError(
             f"clause {quote(f.clause_id)} compares its value rounded (round_to = {f.round_to}), and {why} decides "

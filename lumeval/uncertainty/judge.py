@@ -175,7 +175,6 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
                 ok &= m >= r.lower
             if r.upper is not None:
                 ok &= m <= r.upper
-            ok &= ~_fails_regardless(r, m.size)  # e.g. a draw in no ANSI category
             out[_conform_key(r)] = ok.astype(float)
         return out
 
@@ -193,7 +192,6 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
         # where draws left the quantity's domain the normal p_c (which sees only the defined
         # draws' u) overstates conformance: p_c is then the fraction of all draws inside the limits
         p_c = np.where(frac > 0, p_mc, d.p_conformance)
-        p_c = np.where(_fails_regardless(r, p_c.size), 0.0, p_c)
         outcome, notes = _rule_outcomes(r, d, u, frac, unc.draws, setup)
         reason = list(r.reason) if r.reason else [""] * len(outcome)
         for i, note in enumerate(notes):
@@ -219,15 +217,6 @@ def judge_with_uncertainty(evaluation, criteria, setup: UncertaintySetup, *, pla
     if any(f.name == "uncertainty" for f in dataclasses.fields(check)):
         check = dataclasses.replace(check, uncertainty=info)
     return check, unc
-
-
-def _fails_regardless(r, n: int) -> np.ndarray:
-    """Where clause result ``r`` fails a spectrum whatever its measured value and uncertainty
-    (:data:`lumeval.criteria.figure_notes.FAILS_REGARDLESS`): a bool array of length ``n``."""
-    from ..criteria.figure_notes import FAILS_REGARDLESS
-
-    got = (getattr(r, "details", None) or {}).get(FAILS_REGARDLESS)
-    return np.zeros(n, dtype=bool) if got is None else np.asarray(got, dtype=bool)
 
 
 def undefined_limit(setup: UncertaintySetup) -> float:
@@ -259,9 +248,8 @@ def _rule_outcomes(r, d, u, frac, draws, setup: UncertaintySetup) -> tuple[tuple
     res = guard_band_resolution(u, n_def, rule)
     unit = f" {r.unit}" if r.unit and r.unit != "%" else (r.unit or "")
     outcome, notes = [], []
-    regardless = _fails_regardless(r, len(d.outcome))
     for i, o in enumerate(d.outcome):
-        if not np.isfinite(r.measured[i]) or r.outcome[i] == NOT_VALID or regardless[i]:
+        if not np.isfinite(r.measured[i]) or r.outcome[i] == NOT_VALID:
             outcome.append(r.outcome[i])
             notes.append("")
             continue

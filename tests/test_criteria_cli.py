@@ -631,3 +631,19 @@ def test_the_no_category_note_never_prints_a_zero_distance():
 
     assert "(Δu′v′ = 0.0000043 outside the nearest, 3500 K)" in no_category_note(4.3e-6, 3500.0)
     assert "(Δu′v′ = 0.1674 outside the nearest, 5000 K)" in no_category_note(0.16741, 5000.0)
+
+
+def test_the_many_spectra_summary_names_a_failure_without_margin_as_the_worst(tmp_path, spectra_dir, capsys):
+    """With more spectra than the per-spectrum tables show, the clause-by-clause summary gave
+    a passing spectrum's margin as the worst ("worst margin +800 K, worst spectrum p1") while
+    light in no ANSI category failed without a margin (found by a review): the failed spectrum
+    is named, margin n/a."""
+    wl = np.arange(380.0, 781.0, 1.0)
+    v = np.exp(-0.5 * ((wl - 530.0) / 15.0) ** 2)
+    green = write(tmp_path, "wl,green\n" + "".join(f"{a:g},{b:.6f}\n" for a, b in zip(wl, v)), "green.csv")
+    crit = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nid = "cat"\nfigure = "ansi_category_K"\n'
+                 'range = [2200, 6500]\n')
+    code, out, err = run(["check", *([spectra_dir / "planck3000.csv"] * 13), green, "--criteria", crit], capsys)
+    assert code == 1, err
+    row = next(ln for ln in out.splitlines() if ln.lstrip(">").split()[:1] == ["cat"])
+    assert "✘ 1" in row and row.rstrip().endswith("n/a   green"), row

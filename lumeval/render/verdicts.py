@@ -542,8 +542,15 @@ def _summary_renderables(result) -> list:
         npass, nfail = oc.count("pass"), oc.count("fail")
         nopen = n - npass - nfail
         mg = np.asarray(r.margin, dtype=float)
-        if np.isfinite(mg).any():
-            k = int(np.nanargmin(np.where(np.isfinite(mg), mg, np.nan)))
+        # the worst judged margin (pass, fail, indeterminate); a failed spectrum without one (light
+        # in no ANSI category) is the worst itself, margin n/a (a passing spectrum's margin was
+        # shown as the worst; found by a review)
+        judged = np.array([o in ("pass", "fail", "indeterminate") for o in oc]) & np.isfinite(mg)
+        failed_bare = [i for i, o in enumerate(oc) if o == "fail" and not np.isfinite(mg[i])]
+        if failed_bare:
+            worst, who = "n/a", result.names[failed_bare[0]]
+        elif judged.any():
+            k = int(np.flatnonzero(judged)[np.argmin(mg[judged])])
             worst, who = margin_text(r, k), result.names[k]
         else:
             worst, who = "n/a", ""

@@ -176,7 +176,8 @@ def test_a_declared_scale_that_contradicts_the_stated_one_is_refused(tmp_path, h
         read_spectra(f)
 
 
-@pytest.mark.parametrize("name", ["lamp", "lamp at 50% dimming", "Harbour lamp", "rel. lamp", "counts lamp"])
+@pytest.mark.parametrize("name", ["lamp", "lamp at 50% dimming", "Harbour lamp", "rel. lamp", "counts lamp",
+                                  "lamp (50% dimming)", "lamp 3000K/50%", "lamp [rel. position 2]", "LED module (1 W)"])
 def test_a_declared_scale_survives_a_conversion_to_csv(tmp_path, name):
     """The other side: an absolute spectrum written to CSV by lumeval (its `# lumeval.scale`
     line, a header of names) reads back absolute with the same illuminance, whatever words its
@@ -221,3 +222,27 @@ def test_a_declared_absolute_scale_keeps_the_unit_of_an_ordinary_unit_line(tmp_p
     a, b = (lumeval.inspect([p]).figure("illuminance_lx")[0] for p in (declared, plain))
     assert np.isfinite(a)
     np.testing.assert_allclose(a, b, rtol=1e-12)
+
+
+@pytest.mark.parametrize("name", ["LED module (1 W)", "lamp 350mA/1W"])
+def test_a_declared_relative_scale_survives_a_conversion_whatever_the_name(tmp_path, name):
+    """The relative side of the round trip: a spectrum read as relative, renamed with words of
+    an absolute unit, written to CSV by lumeval and read back, stays relative (it was refused:
+    the name was read as a statement of scale; found by a review)."""
+    import json
+
+    import lumeval
+    from lumeval.spectra.read import read_spectra
+
+    src = tmp_path / "rel.csv"
+    src.write_text("wl,relative intensity (a.u.)\n" + "".join(f"{w},{1.0 + w / 1000:.4f}\n" for w in range(380, 781, 5)),
+                   encoding="utf-8")
+    js = tmp_path / "rel.json"
+    lumeval.convert(src, js)
+    doc = json.loads(js.read_text(encoding="utf-8"))
+    doc["spectra"][0]["name"] = name
+    js.write_text(json.dumps(doc), encoding="utf-8")
+    out = tmp_path / "round.csv"
+    lumeval.convert(js, out)
+    assert "# lumeval.scale: relative" in out.read_text(encoding="utf-8")
+    assert read_spectra(out).metadata[0]["lumeval.scale"] == "relative"

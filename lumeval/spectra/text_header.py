@@ -171,9 +171,8 @@ def _scale(header_cell: str | None, meta: dict, file: str = "") -> tuple[str, st
     """(scale, unit text) of a value column: from its header and the file's unit lines, or the
     scale lumeval's own writer declared (``# lumeval.scale: ...``, kept through a conversion).
 
-    A declared scale that contradicts a unit the file states explicitly (a unit line, a unit in
-    the header's brackets or after a slash, or a header that is only a quantity label) is
-    refused: it would make a column headed
+    A declared scale that contradicts a unit the file states explicitly (a unit line, or a header
+    that is only a quantity label) is refused: it would make a column headed
     "relative intensity (a.u.)" absolute (illuminance, irradiance...) because of a comment line
     (found by a review; the TM-27 reader refuses such comments)."""
     lines = [v for k, v in meta.items() if k.lower() in {
@@ -183,12 +182,11 @@ def _scale(header_cell: str | None, meta: dict, file: str = "") -> tuple[str, st
     stated = _stated_scale(texts)
     declared = meta.get("lumeval.scale")
     if declared in {"absolute", "relative", "unknown"}:
-        # against what the file states explicitly: a unit line, a unit written in the header's
-        # brackets or after a slash ("(a.u.)", "/ %"), or a header that is a quantity label and
-        # no name ("counts", "relative intensity"); not words of a name ("lamp at 50% dimming",
-        # "Harbour lamp"), which lumeval's own writer puts in the header
-        head = ([header_cell] if _generic_value_name(header_cell) else _unit_words(header_cell, False)) \
-            if header_cell else []
+        # against what the file states explicitly: a unit line, or a header that is a quantity
+        # label and no name ("relative intensity (a.u.)", "counts"); never words or brackets of
+        # a spectrum's name ("lamp (50% dimming)", "Harbour lamp", "LED module (1 W)"), which
+        # lumeval's own writer puts in the header (found by reviews)
+        head = [header_cell] if header_cell and _generic_value_name(header_cell) else []
         explicit = _stated_scale([*head, *lines])
         if declared != "unknown" and explicit[0] not in ("unknown", declared):
             from ..errors import InputError

@@ -198,3 +198,25 @@ def test_a_series_margin_that_would_print_as_zero_gets_more_decimals(tmp_path):
     assert float(margin) < 0 and float(margin) != 0.0, margin
     assert_allclose(float(margin), limit - r9.max(), atol=0.6 * 10 ** -(len(margin.split(".")[1])))
     assert len(_value(res, i).split(".")[1]) == len(margin.split(".")[1])  # value and margin alike
+
+
+def test_a_series_says_why_light_in_no_ansi_category_failed(tmp_path):
+    """A setting in no ANSI category fails a clause on the category without a margin; the range
+    report gave "margin n/a, FAIL" and no reason anywhere but the per-setting JSON (found by a
+    review): the range reason says it, as "failed over the range"."""
+    from lumeval.render.tunable import range_reason_text
+
+    demo = Path(__file__).resolve().parents[1] / "spectra_demo"
+    wl = np.arange(380.0, 781.0, 1.0)
+    green = tmp_path / "lamp_100pct.csv"
+    green.write_text("wl,green\n" + "".join(f"{a:g},{np.exp(-0.5 * ((a - 530.0) / 15.0) ** 2):.6f}\n" for a in wl),
+                     encoding="utf-8")
+    warm = tmp_path / "lamp_10pct.csv"
+    warm.write_bytes((demo / "downlights" / "candidate_A_aurora_3000K.csv").read_bytes())
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "cat"\nfigure = "ansi_category_K"\nrange = [2200, 6500]\n',
+                    encoding="utf-8")
+    report = series_files([warm, green], criteria=crit)
+    (rr,) = report.check.results
+    assert rr.range_outcome == "fail" and rr.range_reason.startswith("in no ANSI C78.377 category")
+    assert range_reason_text(rr).startswith("cat: failed over the range: in no ANSI C78.377 category")

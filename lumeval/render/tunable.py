@@ -268,7 +268,7 @@ def _check_tables(check) -> list:
     out: list[Any] = [t]
     for rr in check.results:
         if rr.range_reason:
-            out.append(_text(f"{rr.result.clause_id}: not judged over the range: {rr.range_reason}", "yellow"))
+            out.append(_text(range_reason_text(rr), "bold red" if rr.range_outcome == "fail" else "yellow"))
     n_fail = sum(rr.range_outcome in ("fail", "not valid") for rr in check.results)
     n_open = sum(rr.range_outcome not in ("pass", "fail", "not valid") for rr in check.results)
     if n_fail:
@@ -288,6 +288,13 @@ def _failed_at(check, rr, most: int = 4) -> str:
     if not bad:
         return ""
     return ", ".join(bad[:most]) + (f" +{len(bad) - most} more" if len(bad) > most else "")
+
+
+def range_reason_text(rr) -> str:
+    """Why a clause was not judged over the range, or why it failed where no margin says it
+    (light in no ANSI category), for the terminal and the HTML report."""
+    how = "failed over the range" if rr.range_outcome == "fail" else "not judged over the range"
+    return f"{rr.result.clause_id}: {how}: {rr.range_reason}"
 
 
 def _spec_of(res) -> str:

@@ -34,6 +34,7 @@ from .tunable import (
     _value,
     ansi_category,
     headline,
+    range_reason_text,
 )
 from .view import Cell, Row, Table, cells, plain_number
 
@@ -304,7 +305,7 @@ def tunable_view(report, *, command: str | None = None, generated_at=None) -> Tu
         summary="" if check is None else _RANGE_WORDS.get(check.overall, check.overall),
         clauses=None if check is None else _clauses_table(check),
         range_notes=() if check is None else tuple(
-            [f"{rr.result.clause_id}: not judged over the range: {rr.range_reason}" for rr in check.results if rr.range_reason]
+            [range_reason_text(rr) for rr in check.results if rr.range_reason]
             + [str(x) for x in check.notes]),
         settings=_settings_table(report, labels, avail),
         settings_note="Ra, R9: CIE 13.3-1995. Rf, Rg: CIE 224:2017 / ANSI/IES TM-30. Duv: ANSI C78.377 sign, computed by "

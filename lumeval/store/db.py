@@ -121,6 +121,10 @@ def parse_store_url(text: str) -> StoreURL:
     if not raw:
         raise StoreError("the store URL is empty", fix="give a path (history.db), sqlite:///history.db or postgresql://user@host/db")
     if "://" not in raw:
+        if raw.endswith((os.sep, os.altsep) if os.altsep else os.sep) or os.path.basename(raw) in (".", ".."):
+            # a folder: abspath would drop the ending and a store file of that name be made
+            raise StoreError(f"{display_path(raw)}: a path ending in {os.sep!r}, '{os.sep}.' or '{os.sep}..' names a "
+                             "folder", fix="give the store's file, e.g. history.db")
         path = os.path.abspath(raw)
         # shown with undecodable bytes of the file name as U+FFFD, as every path lumeval shows
         return StoreURL("sqlite:///" + path, "sqlite", display_path(raw), path)

@@ -275,6 +275,9 @@ def _usage_line(exc) -> str:
     # quote at most QUOTE_MAX characters of a value the user typed
     text = re.sub(rf"'([^']{{{QUOTE_MAX + 1},}})'", lambda m: f"'{m.group(1)[:QUOTE_MAX]}…'", text)
     text = text.rstrip(".")
+    # undecodable bytes of an argument (lone surrogates) as U+FFFD, as every other message shows
+    # them: the parser quotes values with repr, which spelt them '\udcff' (found by a review)
+    text = re.sub(r"\\udc[89a-f][0-9a-f]", "\ufffd", text)
     return f"lumeval: error: {where + ': ' if where else ''}{text} — see '{path} --help'"
 
 

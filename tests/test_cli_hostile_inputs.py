@@ -754,3 +754,19 @@ def test_figure_text_keeps_the_ends_that_tell_names_apart():
     a, b = (_lit(f"production_line_7_station_B_sample_lamp_{k:04d}") for k in (1, 2))
     assert a != b and len(a) == len(b) == PLOT_TEXT_MAX and a.endswith("0001") and a.startswith("production_")
     assert _lit("short name") == "short name"
+
+
+@pytest.mark.skipif(sys.platform == "darwin" or os.name == "nt", reason="needs a file system that takes any bytes in names")
+def test_parser_messages_show_undecodable_bytes_as_the_replacement_character(tmp_path):
+    """The argument parser's own messages (an unknown command, a value not among the choices)
+    quoted undecodable bytes as '\\udcff' (found by a review); `lot --trend-figures` with an
+    unknown figure named '--figure' as the field."""
+    write_spd(tmp_path / "a.csv")
+    for argv, needle in (([os.fsdecode(b"hist\xff")], "No such command 'hist\ufffd'"),
+                         (["inspect", "a.csv", "-f", os.fsdecode(b"js\xff")], "'js\ufffd' is not one of"),
+                         (["lot", "a.csv", "--store", "h.db", "--trend-figures", os.fsdecode(b"R\xff9")],
+                          "field '--trend-figures': unknown figure 'R\ufffd9'")):
+        code, _, err = run_sub(argv, tmp_path, timeout=120)
+        line = one_error_line(code, err, needle)
+        assert "\\udc" not in line
+    assert not (tmp_path / "h.db").exists()

@@ -39,12 +39,16 @@ def parse_trend_figures(text: str | None) -> list[str]:
     """``--trend-figures duv,R9`` -> resolved figure names (unknown names: exit 2 before any work)."""
     if text is None:
         return []
+    from ..store.db import StoreError
     from ..store.trend import resolve_figure
 
     out = []
     for part in str(text).split(","):
         if part.strip():
-            name = resolve_figure(part.strip())[0]
+            try:
+                name = resolve_figure(part.strip())[0]
+            except StoreError as exc:  # named as the option the user gave (it said '--figure')
+                raise StoreError(exc.problem, field="--trend-figures", fix=exc.fix) from None
             if name not in out:
                 out.append(name)
     return out

@@ -271,13 +271,14 @@ def _usage_line(exc) -> str:
     path = ctx.command_path if ctx is not None else "lumeval"
     where = path.partition(" ")[2]
     text = " ".join(str(exc.format_message()).split())
+    # undecodable bytes of an argument (lone surrogates) as U+FFFD, as every other message shows
+    # them: the parser quotes values with repr, which spells them '\udcff' (found by a review);
+    # before the quotes are shortened, and not after an escaped backslash (typed text)
+    text = re.sub(r"(?<!\\)\\udc[89a-f][0-9a-f]", "\ufffd", text)
     text = text.replace("Value error, ", "")
     # quote at most QUOTE_MAX characters of a value the user typed
     text = re.sub(rf"'([^']{{{QUOTE_MAX + 1},}})'", lambda m: f"'{m.group(1)[:QUOTE_MAX]}…'", text)
     text = text.rstrip(".")
-    # undecodable bytes of an argument (lone surrogates) as U+FFFD, as every other message shows
-    # them: the parser quotes values with repr, which spelt them '\udcff' (found by a review)
-    text = re.sub(r"\\udc[89a-f][0-9a-f]", "\ufffd", text)
     return f"lumeval: error: {where + ': ' if where else ''}{text} — see '{path} --help'"
 
 

@@ -770,3 +770,10 @@ def test_parser_messages_show_undecodable_bytes_as_the_replacement_character(tmp
         line = one_error_line(code, err, needle)
         assert "\\udc" not in line
     assert not (tmp_path / "h.db").exists()
+    # the byte at the cut of a long value: replaced before the quote is shortened (it left '\\u…')
+    code, _, err = run_sub(["inspect", "a.csv", "-f", "a" * 78 + os.fsdecode(b"\xff")], tmp_path, timeout=120)
+    line = one_error_line(code, err, "a" * 78 + "\ufffd")
+    assert "\\u" not in line
+    # text typed as a backslash and "udcff" is shown as typed (repr doubles the backslash)
+    code, _, err = run_sub(["inspect", "a.csv", "-f", "x\\udcff"], tmp_path, timeout=120)
+    one_error_line(code, err, "'x\\\\udcff' is not one of")

@@ -603,7 +603,7 @@ def test_light_in_no_ansi_category_fails_in_claims_and_in_a_lot_and_is_refused_u
                  'figure = "ansi_category_K"\nrange = [2200, 6500]\n', "rule.toml")
     code, out, err = run(["check", green, planck, "--criteria", rule], capsys)
     assert code == 2 and out == "", err
-    assert err.startswith(f"lumeval: error: {rule}:4 field 'figure': clause 'cat' judges the ANSI category") and \
+    assert err.startswith(f"lumeval: error: {rule}:4: clause 'cat' judges the ANSI category") and \
         'kind = "ansi_quadrangle"' in err, err
     plain_rule = write(tmp_path, 'lumeval_criteria = 1\n[[clause]]\nid = "cat"\nfigure = "ansi_category_K"\n'
                        'range = [2200, 6500]\n', "plain_rule.toml")

@@ -313,10 +313,12 @@ def test_migrate_leaves_a_file_that_holds_no_store_untouched(tmp_path):
 
 
 @pytest.mark.parametrize("ending", ["/", "/.", "/.."])
-def test_a_store_path_naming_a_folder_is_refused(tmp_path, ending):
-    """`--store st/a.db/` (or `/.`) named a folder, and abspath dropped the ending: a store file
-    a.db was made (found by a review). Refused before any work, nothing created."""
+@pytest.mark.parametrize("form", ["{p}", "sqlite:///{p}"])
+def test_a_store_path_naming_a_folder_is_refused(tmp_path, ending, form):
+    """`--store st/a.db/` (or `/.`), as a path or an sqlite:/// URL, named a folder, and abspath
+    dropped the ending: a store file a.db was made (found by reviews). Refused before any work,
+    nothing created."""
     (tmp_path / "st").mkdir()
-    r = lumeval("lot", *LOT_FILES[:1], "--store", f"{tmp_path}/st/a.db{ending}", "-q")
+    r = lumeval("lot", *LOT_FILES[:1], "--store", form.format(p=f"{tmp_path}/st/a.db{ending}"), "-q")
     assert r.returncode == 2 and "names a folder" in one_error_line(r)
     assert list((tmp_path / "st").iterdir()) == [] and not (tmp_path / "a.db").exists()

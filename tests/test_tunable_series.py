@@ -220,3 +220,10 @@ def test_a_series_says_why_light_in_no_ansi_category_failed(tmp_path):
     (rr,) = report.check.results
     assert rr.range_outcome == "fail" and rr.range_reason.startswith("in no ANSI C78.377 category")
     assert range_reason_text(rr).startswith("cat: failed over the range: in no ANSI C78.377 category")
+    # another setting failing with a margin (3000 K against 3500-6500 K) is the worst; the reason
+    # of the one in no category is still given (it was left out; found by a review)
+    crit.write_text('lumeval_criteria = 1\n[[clause]]\nid = "cat"\nfigure = "ansi_category_K"\n'
+                    'range = [3500, 6500]\n', encoding="utf-8")
+    (rr,) = series_files([warm, green], criteria=crit).check.results
+    assert rr.range_outcome == "fail" and np.isfinite(rr.result.margin[rr.worst])
+    assert rr.range_reason.startswith("in no ANSI C78.377 category")

@@ -368,9 +368,11 @@ def summarise(result: ClauseResult, applies: np.ndarray, over, unavailable: np.n
         reasons = list(dict.fromkeys(why[i] for i in idx if out[i] == NOT_JUDGED and why[i]))
         range_reason = "; ".join(reasons[:3]) + (f"; and {len(reasons) - 3} other reason(s)" if len(reasons) > 3 else "")
         range_reason = range_reason or why[worst]
-    elif overall == FAIL and out[worst] == FAIL and not np.isfinite(margin[worst]):
-        # a failure without a margin (light in no ANSI category): its reason says why
-        range_reason = why[worst]
+    elif overall == FAIL:
+        # failures without a margin (light in no ANSI category): their reasons say why, even
+        # when the worst setting is another failure with a margin (found by reviews)
+        bare = list(dict.fromkeys(why[i] for i in idx if out[i] == FAIL and not np.isfinite(margin[i]) and why[i]))
+        range_reason = "; ".join(bare[:3]) + (f"; and {len(bare) - 3} other reason(s)" if len(bare) > 3 else "")
     return RangeClauseResult(result, over, applies, tuple(out), tuple(why), overall, worst, range_reason)
 
 

@@ -194,7 +194,7 @@ def refuse_under_uncertainty(criteria, why: str, lines: dict | None = None) -> N
             raise CriteriaError(
                 f"clause {quote(inner.clause_id)} judges the ANSI category, a label, and {why} decides under "
                 "measurement uncertainty, which needs a quantity with a spread",
-                file=getattr(criteria, "file", "<criteria>"), line=inner.line, field="figure",
+                file=getattr(criteria, "file", "<criteria>"), line=inner.line,
                 fix='judge the quadrangle instead (kind = "ansi_quadrangle", nominal_cct = ...: its margin in '
                     "Δu′v′ takes the guard band), or judge without an instrument model and a guarded decision rule")
     for _c, f in _figure_clauses(getattr(criteria, "clauses", ()), scopes=("sample",)):

@@ -121,10 +121,7 @@ def parse_store_url(text: str) -> StoreURL:
     if not raw:
         raise StoreError("the store URL is empty", fix="give a path (history.db), sqlite:///history.db or postgresql://user@host/db")
     if "://" not in raw:
-        if raw.endswith((os.sep, os.altsep) if os.altsep else os.sep) or os.path.basename(raw) in (".", ".."):
-            # a folder: abspath would drop the ending and a store file of that name be made
-            raise StoreError(f"{display_path(raw)}: a path ending in {os.sep!r}, '{os.sep}.' or '{os.sep}..' names a "
-                             "folder", fix="give the store's file, e.g. history.db")
+        _refuse_folder_path(raw, display_path(raw))
         path = os.path.abspath(raw)
         # shown with undecodable bytes of the file name as U+FFFD, as every path lumeval shows
         return StoreURL("sqlite:///" + path, "sqlite", display_path(raw), path)
@@ -145,6 +142,7 @@ def parse_store_url(text: str) -> StoreURL:
         if not db or db == ":memory:" or db.startswith("file:"):
             raise StoreError(f"{shown}: a store needs a database file",
                              fix="give sqlite:///path/to/history.db (three slashes, then the path)")
+        _refuse_folder_path(db, shown)
         path = os.path.abspath(db)
         mode = u.query.get("mode")
         if mode == "ro":  # a read-only view of a store (viewers of a shared file)
@@ -157,6 +155,14 @@ def parse_store_url(text: str) -> StoreURL:
         return StoreURL(u.render_as_string(hide_password=False), "postgresql", shown)
     raise StoreError(f"{shown}: unsupported store type {backend!r}",
                      fix="use SQLite (a path or sqlite:///history.db) or PostgreSQL (postgresql://user@host:port/db)")
+
+
+def _refuse_folder_path(path: str, shown: str) -> None:
+    """Refuse a store path ending in a separator, '/.' or '/..' (a folder): abspath would drop
+    the ending and a store file of that name be made (found by reviews)."""
+    if path.endswith((os.sep, os.altsep) if os.altsep else os.sep) or os.path.basename(path) in (".", ".."):
+        raise StoreError(f"{shown}: a path ending in {os.sep!r}, '{os.sep}.' or '{os.sep}..' names a folder",
+                         fix="give the store's file, e.g. history.db")
 
 
 def _redact(raw: str) -> str:

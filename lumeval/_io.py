@@ -147,6 +147,12 @@ def _in_system_dir(folder: Path) -> bool:
     return any(real == d or real.startswith(d + "/") for d in _SYSTEM_DIRS)
 
 
+def names_folder(text: str) -> bool:
+    """True for a path written to end in a separator, ``/.`` or ``/..``: it names a folder, and
+    pathlib and abspath drop that ending (a file of the name before it would be written)."""
+    return text.endswith((os.sep, os.altsep) if os.altsep else os.sep) or os.path.basename(text) in (".", "..")
+
+
 def check_output_file(path: str | os.PathLike, option: str | None = None) -> None:
     """Refuse a file target that lumeval must not write (before any work).
 
@@ -158,8 +164,7 @@ def check_output_file(path: str | os.PathLike, option: str | None = None) -> Non
         raise UsageError("the path is empty", field=option, fix="give a file name")
     p = Path(text)
     shown = _shown(p)
-    if isinstance(text, str) and (text.endswith((os.sep, os.altsep) if os.altsep else os.sep)
-                                  or os.path.basename(text) in (".", "..")):
+    if isinstance(text, str) and names_folder(text):
         # a path ending in a separator (or in "/." or "/..") names a folder; Path() drops the
         # separator (and a final "."), so the run would have written a file of that name
         raise UsageError(f"cannot write {_shown(text)}: a path ending in {os.sep!r}, '{os.sep}.' or '{os.sep}..' names a "

@@ -314,9 +314,8 @@ def _refuse_folder_like_outputs(args: list[str]) -> None:
     policy's own check (:func:`lumeval._io.check_output_file`). The argument parser turns the
     value into a ``pathlib.Path``, which drops the separator, so ``-o out.txt/`` wrote a file
     ``out.txt`` (found by exploratory testing); only the raw arguments still show it."""
-    from ._io import check_output_file
+    from ._io import check_output_file, names_folder
 
-    seps = tuple(x for x in (os.sep, os.altsep) if x)
     for i, a in enumerate(args):
         if a == "--":
             break
@@ -327,7 +326,7 @@ def _refuse_folder_like_outputs(args: list[str]) -> None:
             opt, v = a, args[i + 1]
         else:
             continue
-        if v != "-" and (v.endswith(seps) or os.path.basename(v) in (".", "..")):
+        if v != "-" and names_folder(v):
             check_output_file(v, opt)
 
 

@@ -160,7 +160,9 @@ def parse_store_url(text: str) -> StoreURL:
 def _refuse_folder_path(path: str, shown: str) -> None:
     """Refuse a store path ending in a separator, '/.' or '/..' (a folder): abspath would drop
     the ending and a store file of that name be made (found by reviews)."""
-    if path.endswith((os.sep, os.altsep) if os.altsep else os.sep) or os.path.basename(path) in (".", ".."):
+    from .._io import names_folder
+
+    if names_folder(path):
         raise StoreError(f"{shown}: a path ending in {os.sep!r}, '{os.sep}.' or '{os.sep}..' names a folder",
                          fix="give the store's file, e.g. history.db")
 

@@ -507,7 +507,7 @@ def ensure_schema(conn, su: StoreURL, *, create: bool) -> None:
     """
     v = stored_version(conn)
     if v is None and su.backend == "postgresql" and create:
-        conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+        _schema_lock(conn, su)
         v = stored_version(conn)
     if v is None:
         if not create:
@@ -539,6 +539,17 @@ def check_version(v: int, su: StoreURL) -> None:
                 "writes to it then needs this lumeval or newer)")
 
 
+def _schema_lock(conn, su: StoreURL) -> None:
+    """On PostgreSQL, take the advisory lock that serialises creating and migrating the schema
+    (held to the end of the transaction); nothing on SQLite, whose writers queue anyway."""
+    if su.backend == "postgresql":
+        conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+
+
+def _no_store(su: StoreURL) -> StoreError:
+    return StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)", fix="check the URL")
+
+
 def migrate(su: StoreURL) -> tuple[int, int]:
     """Migrate the store to :data:`SCHEMA_VERSION`, one transaction per step, then add the
     :data:`EXTRA_INDEXES` it lacks (:func:`migrate_report`).
@@ -556,20 +567,18 @@ def migrate_report(su: StoreURL) -> tuple[int, int, tuple[str, ...]]:
     # review)
     with connect(su, write=False, action="read the store") as conn:
         if stored_version(conn) is None:
-            raise StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)", fix="check the URL")
+            raise _no_store(su)
     with connect(su, write=True, action="migrate the store") as conn:
-        if su.backend == "postgresql":
-            conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+        _schema_lock(conn, su)
         before = stored_version(conn)
         if before is None:
-            raise StoreError(f"{su.shown}: holds no lumeval store (no lumeval_schema table)", fix="check the URL")
+            raise _no_store(su)
         if before > SCHEMA_VERSION:
             check_version(before, su)
     v = before
     while v < SCHEMA_VERSION:
         with connect(su, write=True, action=f"migrate the store from schema {v} to {v + 1}") as conn:
-            if su.backend == "postgresql":
-                conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+            _schema_lock(conn, su)
             now = stored_version(conn) or v
             if now != v:  # another process migrated meanwhile
                 v = now
@@ -578,7 +587,6 @@ def migrate_report(su: StoreURL) -> tuple[int, int, tuple[str, ...]]:
             _stamp(conn, v + 1)
         v += 1
     with connect(su, write=True, action="add the store's missing indexes") as conn:
-        if su.backend == "postgresql":
-            conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_PG_SCHEMA_LOCK})")
+        _schema_lock(conn, su)
         added = add_missing_indexes(conn)
     return before, v, added

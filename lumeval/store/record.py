@@ -126,7 +126,6 @@ class RecordResult:
         return ("; note: " + "; ".join(parts) + " (the same bytes, recorded under other criteria or in another lot of "
                 "this product): a trend of the product counts those samples in each of these lots")
 
-
     @property
     def index_note(self) -> str:
         """"; note: …" when the store lacks an index this lumeval creates ("" otherwise)."""
@@ -351,18 +350,27 @@ def _overlapping_lots(conn, t, rec: LotRecord, file_index: bool = True) -> tuple
     lots = t["lots"]
     same_product = lots.c.product.is_(None) if rec.product is None else lots.c.product == rec.product
     found: dict[int, set[str]] = {}
-    for k in range(0, len(shas), 900):  # IN lists within SQLite's oldest limit of 999 parameters
-        q = _files_query(t, shas[k:k + 900], None if file_index else same_product)
+    for part in _in_lists(shas):
+        q = _files_query(t, part, None if file_index else same_product)
         for lot_id, sha in conn.execute(q):
             found.setdefault(int(lot_id), set()).add(sha)
     if file_index:  # the lots found, of the product only
         ids = sorted(found)
         ours: set[int] = set()
-        for k in range(0, len(ids), 900):
-            ours.update(map(int, conn.execute(select(lots.c.id).where(lots.c.id.in_(ids[k:k + 900]), same_product)).scalars()))
+        for part in _in_lists(ids):
+            ours.update(map(int, conn.execute(select(lots.c.id).where(lots.c.id.in_(part), same_product)).scalars()))
         found = {lot_id: got for lot_id, got in found.items() if lot_id in ours}
     shared = {lot_id: sum(per_sha[s] for s in got) for lot_id, got in found.items()}
     return tuple(sorted(shared.items(), key=lambda kv: (-kv[1], kv[0])))
+
+
+#: Values of one SQL ``IN`` list at most (SQLite's oldest limit is 999 parameters a statement).
+IN_LIST_MAX = 900
+
+
+def _in_lists(values: list) -> list[list]:
+    """``values`` in consecutive parts of at most :data:`IN_LIST_MAX`, one ``IN`` list each."""
+    return [values[k:k + IN_LIST_MAX] for k in range(0, len(values), IN_LIST_MAX)]
 
 
 def _files_query(t, shas: list[str], same_product=None):

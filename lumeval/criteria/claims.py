@@ -277,6 +277,7 @@ class Claims:
         """Judge every claim for every spectrum of ``ev`` (an Evaluation)."""
         n = len(np.asarray(ev.x))
         out = []
+        from .figure_notes import judges_category, no_category_note
         from .undefined import undefined_reasons
 
         for c in self.claims:
@@ -297,7 +298,7 @@ class Claims:
             # a claimed ANSI category is contradicted by light in no category, whatever the
             # nearest one is (as a criteria clause on it fails; found by a review)
             no_category = (np.asarray(ev.figure("ansi_distance_upvp"), dtype=float)
-                           if figures.lookup(c.figure) == "ansi_category_K" else np.zeros(n))
+                           if judges_category(c.figure) else np.zeros(n))
             for i in range(n):
                 if not np.isfinite(m[i]):
                     outcome.append(NOT_CHECKABLE)
@@ -310,8 +311,6 @@ class Claims:
                     reason.append(f"{c.figure} was computed {why}")
                     excess[i] = np.nan
                 elif no_category[i] > 0:
-                    from .figure_notes import no_category_note
-
                     outcome.append(CONTRADICTED)
                     reason.append(no_category_note(float(no_category[i]), float(m[i])))
                     excess[i] = np.nan

@@ -36,6 +36,16 @@ def with_hue_edge_warnings(ev, figure: str, reason: tuple[str, ...]) -> tuple[st
     return tuple(out)
 
 
+#: The figure naming the ANSI C78.377 category (containing or nearest): a clause or claim on it
+#: requires a category, so light in none fails it (:func:`nearest_category_notes`).
+CATEGORY_FIGURE = "ansi_category_K"
+
+
+def judges_category(figure: str | None) -> bool:
+    """True when ``figure`` (a name or alias) is :data:`CATEGORY_FIGURE`."""
+    return figure is not None and figures.lookup(figure) == CATEGORY_FIGURE
+
+
 def nearest_category_notes(ev, r):
     """The ANSI category figure names the quadrangle containing the chromaticity *or the nearest
     one*. A clause on it requires a category, so a point outside every quadrangle fails it
@@ -63,7 +73,7 @@ def nearest_category_notes(ev, r):
 def no_category_note(distance_upvp: float, nearest_K: float) -> str:
     """The reason a chromaticity ``distance_upvp`` outside every ANSI quadrangle meets no
     requirement on the ANSI category (criteria clauses and datasheet claims)."""
-    nearest = figures.get("ansi_category_K").format(nearest_K) if np.isfinite(nearest_K) else "n/a"
+    nearest = figures.get(CATEGORY_FIGURE).format(nearest_K) if np.isfinite(nearest_K) else "n/a"
     # 4 decimals, or two significant digits for a distance that would print as 0.0000
     dist = f"{distance_upvp:.4f}" if distance_upvp >= 5e-5 else figures.format_significant(distance_upvp, 2)
     return (f"in no ANSI C78.377 category: the chromaticity lies outside every quadrangle (Δu′v′ = "

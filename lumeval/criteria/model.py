@@ -25,6 +25,7 @@ import numpy as np
 from .. import figures
 from ..errors import FINITE_FIX, finite_float, shown
 from . import plausible, rounding
+from .figure_notes import judges_category as _judges_category
 from .figure_notes import nearest_category_notes as _nearest_category_notes
 from .figure_notes import with_hue_edge_warnings as _with_hue_edge_warnings
 from .undefined import undefined_reasons
@@ -367,7 +368,7 @@ class FigureClause(ClauseKind):
         r = figure_result(ev, clause_id=self.clause_id, label=self.label, kind=self.KIND, figure=self.figure,
                           lower=self.lower, upper=self.upper, source=std, group=self.clause_id, line=self.line,
                           accept_outside_validity=self.accept_outside_validity, round_to=self.round_to)
-        if figures.get(self.figure).name == "ansi_category_K":
+        if _judges_category(self.figure):
             r = _nearest_category_notes(ev, r)
         return (r,)
 
@@ -381,7 +382,7 @@ class FigureClause(ClauseKind):
         else:
             req = f"shall not exceed {limit_number(self.upper, unit)}"
         tail = ""
-        if figures.get(self.figure).name == "ansi_category_K":  # (figure_notes.nearest_category_notes)
+        if _judges_category(self.figure):  # (figure_notes.nearest_category_notes)
             tail = " A chromaticity outside every quadrangle of the edition is in no category and does not meet it."
         return f"The {desc} (`{self.figure}`, {std}) {req}{rounding.tender_words(self.round_to, unit)}.{tail}"
 

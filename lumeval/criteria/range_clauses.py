@@ -333,6 +333,13 @@ class RangeClauseResult:
         return self.result.label
 
 
+def _distinct_reasons(reasons, most: int = 3) -> str:
+    """The distinct non-empty ``reasons``, in order, joined; at most ``most`` of them, then how
+    many others."""
+    got = list(dict.fromkeys(r for r in reasons if r))
+    return "; ".join(got[:most]) + (f"; and {len(got) - most} other reason(s)" if len(got) > most else "")
+
+
 def summarise(result: ClauseResult, applies: np.ndarray, over, unavailable: np.ndarray, unavailable_reason) -> RangeClauseResult:
     """Per-setting outcomes restricted to ``applies``, with the range verdict and worst setting."""
     n = len(result.outcome)
@@ -365,14 +372,11 @@ def summarise(result: ClauseResult, applies: np.ndarray, over, unavailable: np.n
         # every distinct reason, in setting order: the first setting's alone named the wrong cause
         # when settings were not judged for different reasons (one not reachable, the others
         # lacking a reference setting; found by a review)
-        reasons = list(dict.fromkeys(why[i] for i in idx if out[i] == NOT_JUDGED and why[i]))
-        range_reason = "; ".join(reasons[:3]) + (f"; and {len(reasons) - 3} other reason(s)" if len(reasons) > 3 else "")
-        range_reason = range_reason or why[worst]
+        range_reason = _distinct_reasons(why[i] for i in idx if out[i] == NOT_JUDGED) or why[worst]
     elif overall == FAIL:
         # failures without a margin (light in no ANSI category): their reasons say why, even
         # when the worst setting is another failure with a margin (found by reviews)
-        bare = list(dict.fromkeys(why[i] for i in idx if out[i] == FAIL and not np.isfinite(margin[i]) and why[i]))
-        range_reason = "; ".join(bare[:3]) + (f"; and {len(bare) - 3} other reason(s)" if len(bare) > 3 else "")
+        range_reason = _distinct_reasons(why[i] for i in idx if out[i] == FAIL and not np.isfinite(margin[i]))
     return RangeClauseResult(result, over, applies, tuple(out), tuple(why), overall, worst, range_reason)
 
 

@@ -188,9 +188,11 @@ def refuse_under_uncertainty(criteria, why: str, lines: dict | None = None) -> N
       sure, is the ``ansi_quadrangle`` clause's margin in Δu′v′ (a guard band on the nearest
       category passed light in no category, and failed light a hair outside one that half the
       draws put inside; found by reviews)."""
+    from .figure_notes import judges_category
+
     for c in getattr(criteria, "clauses", ()):
         inner = getattr(c, "inner", c)
-        if getattr(inner, "KIND", "") == "figure" and figures.lookup(getattr(inner, "figure", "")) == "ansi_category_K":
+        if getattr(inner, "KIND", "") == "figure" and judges_category(getattr(inner, "figure", None)):
             raise CriteriaError(
                 f"clause {quote(inner.clause_id)} judges the ANSI category, a label, and {why} decides under "
                 "measurement uncertainty, which needs a quantity with a spread",

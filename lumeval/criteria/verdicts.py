@@ -282,15 +282,21 @@ class CheckResult:
 JUDGED_OUTCOMES = ("pass", "fail", "indeterminate")
 
 
-def worst_judged_margin(margins, outcomes) -> float:
-    """The smallest finite margin among the samples whose outcome is in :data:`JUDGED_OUTCOMES`
-    (NaN when none), or NaN when a failed sample has no margin (light in no ANSI category for
-    a clause on the category: the worst margin of the others would read as the lot's, positive
-    while samples fail; found by a review)."""
+def worst_judged(margins, outcomes) -> int | None:
+    """The index of the worst judged sample: the first failed sample without a margin (light in
+    no ANSI category for a clause on the category: the worst margin of the others would read as
+    the worst, positive while samples fail; found by a review), else the smallest finite margin
+    among the samples whose outcome is in :data:`JUDGED_OUTCOMES`; None when there is none."""
     mg = np.asarray(margins, dtype=float)
-    judged = np.fromiter((o in JUDGED_OUTCOMES for o in outcomes), dtype=bool, count=mg.size)
-    failed = np.fromiter((o == FAIL for o in outcomes), dtype=bool, count=mg.size)
-    if (failed & ~np.isfinite(mg)).any():
-        return float("nan")
-    keep = judged & np.isfinite(mg)
-    return float(mg[keep].min()) if keep.any() else float("nan")
+    bare = np.flatnonzero(np.fromiter((o == FAIL for o in outcomes), dtype=bool, count=mg.size) & ~np.isfinite(mg))
+    if bare.size:
+        return int(bare[0])
+    keep = np.flatnonzero(np.fromiter((o in JUDGED_OUTCOMES for o in outcomes), dtype=bool, count=mg.size)
+                          & np.isfinite(mg))
+    return int(keep[np.argmin(mg[keep])]) if keep.size else None
+
+
+def worst_judged_margin(margins, outcomes) -> float:
+    """The margin of :func:`worst_judged`'s sample (NaN when none, or when that sample has none)."""
+    k = worst_judged(margins, outcomes)
+    return float("nan") if k is None else float(np.asarray(margins, dtype=float)[k])

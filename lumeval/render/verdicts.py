@@ -531,6 +531,8 @@ def _summary_renderables(result) -> list:
     from rich.table import Table
     from rich.text import Text
 
+    from ..criteria.verdicts import worst_judged
+
     n = len(result.names)
     t = Table(title=f"{n} spectra, clause by clause", title_justify="left", box=box.SIMPLE_HEAVY, pad_edge=False, show_edge=False)
     for col, kw in (("", {"no_wrap": True}), ("id", {"no_wrap": True}), ("requirement", {}), ("passed", {"justify": "right"}),
@@ -541,19 +543,14 @@ def _summary_renderables(result) -> list:
         oc = list(r.outcome)
         npass, nfail = oc.count("pass"), oc.count("fail")
         nopen = n - npass - nfail
-        mg = np.asarray(r.margin, dtype=float)
-        # the worst judged margin (pass, fail, indeterminate); a failed spectrum without one (light
-        # in no ANSI category) is the worst itself, margin n/a (a passing spectrum's margin was
-        # shown as the worst; found by a review)
-        judged = np.array([o in ("pass", "fail", "indeterminate") for o in oc]) & np.isfinite(mg)
-        failed_bare = [i for i, o in enumerate(oc) if o == "fail" and not np.isfinite(mg[i])]
-        if failed_bare:
-            worst, who = "n/a", result.names[failed_bare[0]]
-        elif judged.any():
-            k = int(np.flatnonzero(judged)[np.argmin(mg[judged])])
-            worst, who = margin_text(r, k), result.names[k]
-        else:
+        # the worst judged spectrum (a failed one without a margin first: margin n/a; a passing
+        # spectrum's margin was shown as the worst; found by a review)
+        k = worst_judged(r.margin, oc)
+        if k is None:
             worst, who = "n/a", ""
+        else:
+            worst = margin_text(r, k) if np.isfinite(float(r.margin[k])) else "n/a"
+            who = result.names[k]
         style = "bold red" if nfail else ("yellow" if nopen else None)
         t.add_row(">>" if nfail or nopen else "", _text(r.clause_id), _text(r.label), str(npass), f"✘ {nfail}" if nfail else "0",
                   str(nopen), _text(worst), _text(who), style=style)

@@ -179,7 +179,6 @@ def _scale(header_cell: str | None, meta: dict, file: str = "") -> tuple[str, st
         "unit", "units", "y unit", "y-unit", "yunit", "y units", "scale", "spectral quantity", "spectralquantity",
         "quantity", "value unit", "values"}]
     texts = ([header_cell] if header_cell else []) + lines
-    stated = _stated_scale(texts)
     declared = meta.get("lumeval.scale")
     if declared in {"absolute", "relative", "unknown"}:
         # against what the file states explicitly: a unit line, or a header that is a quantity
@@ -201,7 +200,7 @@ def _scale(header_cell: str | None, meta: dict, file: str = "") -> tuple[str, st
         if unit is None and declared == "absolute":
             unit = next((t for t in texts if _ABSOLUTE.search(t)), None)
         return declared, unit
-    return stated
+    return _stated_scale(texts)
 
 _GENERIC_WORDS = {
     "value", "values", "intensity", "irradiance", "radiance", "power", "flux", "spd", "spectrum", "spectral",

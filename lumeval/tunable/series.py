@@ -18,6 +18,7 @@ from typing import Any
 
 import numpy as np
 
+from .._paths import display_path
 from ..errors import InputError, quote
 
 #: Units recognised after a number in a name or a metadata value (case-sensitive for K/A so
@@ -58,13 +59,9 @@ def setting_from_text(text: str, *, what: str, file: str | None, fix: str, signe
     elif not with_unit and len(nums) == 1:
         hit = nums[0]
     elif not nums:
-        from .._paths import display_path
-
         raise InputError(f"no number in the {what} {display_path(text)!r} to take the setting from", file=file, fix=fix)
     else:
         found = ", ".join(f"{w}{u}" for w, u, _ in (with_unit or nums))
-        from .._paths import display_path
-
         raise InputError(f"the {what} {display_path(text)!r} holds several numbers ({found}): which is the setting is "
                          "ambiguous",
                          file=file, fix=fix)

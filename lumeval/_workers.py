@@ -65,8 +65,16 @@ class WorkerPool:
                                        initializer=worker_init)
 
     def submit(self, fn, *args):
-        """Run ``fn(*args)`` in a worker; returns a future for :meth:`result`."""
-        return self._ex.submit(fn, *args)
+        """Run ``fn(*args)`` in a worker; returns a future for :meth:`result`. A pool already
+        broken by a worker that died (noticed by the executor before this call) gives
+        :class:`WorkerError`, as :meth:`result` does."""
+        from concurrent.futures.process import BrokenProcessPool
+
+        try:
+            return self._ex.submit(fn, *args)
+        except BrokenProcessPool:
+            self.terminate()
+            raise _worker_error() from None
 
     def result(self, future):
         """The call's return value (its exception is raised here); :class:`WorkerError` when

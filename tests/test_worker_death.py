@@ -120,3 +120,25 @@ def test_a_vanished_worker_stops_the_pool(monkeypatch):
     with pytest.raises(WorkerError):
         pool.result(Future())
     assert stops == [True]
+
+
+def _exit_at_once():
+    import os
+
+    os._exit(1)
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="forked workers: Linux")
+def test_submitting_to_a_pool_a_dead_worker_broke_raises_worker_error():
+    # Seen as a flaky test: a CSV worker killed while more blocks were still being handed out;
+    # the executor had already marked its pool broken, and the next submit raised the
+    # executor's own BrokenProcessPool (an internal error) instead of WorkerError
+    pool = _workers.worker_pool(1)
+    try:
+        first = pool.submit(_exit_at_once)
+        with pytest.raises(WorkerError):
+            pool.result(first)
+        with pytest.raises(WorkerError):
+            pool.submit(_exit_at_once)
+    finally:
+        pool.terminate()

@@ -73,6 +73,22 @@ def test_without_arrow_or_when_its_text_differs_repr_is_used(monkeypatch):
     # a pyarrow whose text differs from repr on the probe (here: a trailing 0) is not used
     monkeypatch.setattr(number_text, "_arrow_ok", None)
     monkeypatch.setattr(number_text, "_arrow_texts",
-                        lambda pa, pc, v: pa.array([repr(float(x)) + "0" for x in v], pa.string()))
+                        lambda pa, v: pa.array([repr(float(x)) + "0" for x in v], pa.string()))
     assert number_text._arrow_usable() is False
     assert number_rows(block) == _expected(block)
+
+
+def test_formatting_does_not_import_pyarrow_compute():
+    # Arrow's functions are called through the extension module: importing pyarrow.compute
+    # (a Python wrapper written for every function) cost each forked CSV worker ~0.1 s
+    import subprocess
+    import sys
+
+    code = ("import sys, numpy as np; from lumeval.render.number_text import number_rows; "
+            "b = np.random.default_rng(3).normal(75.0, 5.0, (2000, 40)); b[0, 0] = np.nan; b[1, 1] = 600.0; "
+            "rows = number_rows(b); "
+            "assert rows[2] == ','.join(map(repr, b[2].tolist())), rows[2]; "
+            "assert rows[0].startswith(','); "
+            "print('pyarrow.compute' in sys.modules, 'pyarrow' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
+    assert out == ["False", "True"]

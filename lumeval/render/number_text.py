@@ -59,10 +59,10 @@ def _plain(v: np.ndarray) -> np.ndarray:
         return (a >= LOW) & (a < HIGH) & (v != np.floor(v))
 
 
-def _arrow_texts(pa, pc, v: np.ndarray):
-    from ..frames import float_array
+def _arrow_texts(pa, v: np.ndarray):
+    from ..frames import cast_to_string, float_array
 
-    return pc.cast(float_array(pa, v), pa.string())
+    return cast_to_string(pa, float_array(pa, v))
 
 
 def _arrow_usable() -> bool:
@@ -71,7 +71,6 @@ def _arrow_usable() -> bool:
     if _arrow_ok is None:
         try:
             import pyarrow as pa
-            import pyarrow.compute as pc
         except ImportError:
             _arrow_ok = False
             return False
@@ -79,7 +78,7 @@ def _arrow_usable() -> bool:
         probe = np.concatenate([10.0 ** rng.uniform(-4.0, 10.0, 4000) * np.where(rng.random(4000) < 0.5, -1.0, 1.0),
                                 [1.0001e-4, 0.1, 0.3, 2.675, 1 / 3, 9999999999.5, 123456.789, 6.02214076e9]])
         probe = probe[_plain(probe)]
-        _arrow_ok = _arrow_texts(pa, pc, probe).to_pylist() == list(map(repr, probe.tolist()))
+        _arrow_ok = _arrow_texts(pa, probe).to_pylist() == list(map(repr, probe.tolist()))
     return _arrow_ok
 
 
@@ -115,9 +114,8 @@ def number_rows(block: np.ndarray) -> list[str]:
     if ncols == 0 or rows * ncols < ARROW_CELLS or not _arrow_usable():
         return _python_cells(block)
     import pyarrow as pa
-    import pyarrow.compute as pc
 
-    from ..frames import bool_array, joined_runs
+    from ..frames import arrow_call, bool_array, joined_runs
 
     step = max(1, ARROW_CALL_CELLS // ncols)
     out: list[str] = []
@@ -128,8 +126,8 @@ def number_rows(block: np.ndarray) -> list[str]:
         if not plain.any():
             texts = _repr_texts(pa, flat, np.arange(flat.shape[0]))
         else:
-            texts = _arrow_texts(pa, pc, flat)
+            texts = _arrow_texts(pa, flat)
             if not plain.all():
-                texts = pc.if_else(bool_array(pa, plain), texts, _repr_texts(pa, flat, np.flatnonzero(~plain)))
+                texts = arrow_call("if_else", bool_array(pa, plain), texts, _repr_texts(pa, flat, np.flatnonzero(~plain)))
         out += joined_runs(pa, texts, np.arange(0, n * ncols + 1, ncols), b",").to_pylist()
     return out

@@ -99,3 +99,24 @@ def test_expand_inputs(tmp_path):
     assert names == ["a.csv", "b.txt", "c.csv"]  # folder first (not recursive), duplicates once
     assert len(problems) == 2
     assert "no such file" in problems[0].message and "matches no files" in problems[1].message
+
+
+def test_a_lot_of_one_sample_is_zero_steps_from_its_centroid_and_has_no_pairwise_distance(tmp_path):
+    """A lot of one: the centroid is the sample itself, so its steps from the centroid are 0
+    (a point's distance to itself; with or without a named ellipse) rather than the rounding
+    of the centroid's (x, y) taken back from (u', v') (4e-14 steps were printed); there is no
+    pair, so the largest pairwise Δu'v' is not judged and shows no number (it showed 0)."""
+    if not DEMO.is_dir():
+        pytest.skip("demo lot not generated (python spectra_demo/generate_lot.py)")
+    one = sorted(DEMO.glob("*.csv"))[0]
+    crit = tmp_path / "c.toml"
+    crit.write_text('[[clause]]\nid = "own"\nkind = "lot_centroid_steps"\nmax_steps = 3\n\n'
+                    '[[clause]]\nid = "named"\nkind = "lot_centroid_steps"\nmax_steps = 3\nellipse = "F3000"\n\n'
+                    '[[clause]]\nid = "pair"\nkind = "lot_max_pairwise"\nmax_delta_upvp = 0.004\n', encoding="utf-8")
+    run = run_lot([one], _criteria(crit))
+    assert len(run) == 1
+    assert run.stats.steps_centroid.tolist() == [0.0]
+    by_id = {r.clause_id: r for r in run.lot_results}
+    for cid in ("own", "named"):
+        assert by_id[cid].measured == 0.0 and by_id[cid].outcome == "pass"
+    assert np.isnan(by_id["pair"].measured) and by_id["pair"].outcome == "not judged"

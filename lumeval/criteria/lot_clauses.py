@@ -21,7 +21,7 @@ All use simple acceptance: the measured value decides, with no guard band.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import ClassVar
 
 import numpy as np
@@ -142,8 +142,10 @@ class LotCentroidStepsClause(LotClause):
         """Steps of each sample (N,) from the centroid, and the ellipse's name and source."""
         if self.ellipse is None:
             return stats.steps_centroid, stats.ellipse_name, stats.ellipse_source
+        from ..lots.statistics import steps_from_centroid
+
         e = regions.iec60081_ellipse(self.ellipse)
-        return replace(e, centre_xy=stats.centroid_xy).steps(xy), e.name, e.source
+        return steps_from_centroid(e, stats.centroid_xy, xy, stats.d_upvp_centroid), e.name, e.source
 
     def evaluate_lot(self, stats, sample_verdicts, xy=None) -> LotClauseResult:
         st, name, source = self.steps(stats, xy)
@@ -217,7 +219,7 @@ class LotMaxPairwiseClause(LotClause):
             kind=self.KIND,
             figure="largest pairwise Δu'v'",
             unit="",
-            measured=d,
+            measured=d if enough else float("nan"),  # no pair: no largest distance (not 0)
             lower=None,
             upper=self.max_delta_upvp,
             limit_text=f"≤ {limit_number(self.max_delta_upvp)}",

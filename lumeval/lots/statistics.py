@@ -307,6 +307,17 @@ def delta_upvp(upvp, centre) -> np.ndarray:
     return np.hypot(p[:, 0] - c[0], p[:, 1] - c[1])
 
 
+def steps_from_centroid(ellipse, centroid_xy, xy, d_upvp_centroid) -> np.ndarray:
+    """Ellipse steps (N,) of the samples ``xy`` from the lot centroid: ``ellipse``'s
+    coefficients centred on ``centroid_xy``; 0 for a sample at the centroid itself
+    (``d_upvp_centroid`` = 0: its u'v' equal the centroid's to the last bit, as in a lot of one
+    sample), whose steps would otherwise be the rounding of the centroid's (x, y), taken back
+    from (u', v'), against its own (4e-14 steps were printed for a lot of one)."""
+    st = replace(ellipse, centre_xy=centroid_xy).steps(xy)
+    st[np.asarray(d_upvp_centroid) == 0.0] = 0.0
+    return st
+
+
 def robust_z(values) -> np.ndarray:
     """Modified z-score M_i = 0.6745 (x_i − median) / MAD (Iglewicz & Hoaglin 1993), shape (N,).
 
@@ -541,7 +552,7 @@ def lot_statistics(
         )
     if ellipse is not None:
         ell_name, ell_source = ellipse.name, ellipse.source
-        steps_c = replace(ellipse, centre_xy=centroid_xy).steps(xy) if np.all(np.isfinite(centroid)) else np.full(n, np.nan)
+        steps_c = steps_from_centroid(ellipse, centroid_xy, xy, d_c) if np.all(np.isfinite(centroid)) else np.full(n, np.nan)
     else:
         ell_name, ell_source = "", ""
         steps_c = np.full(n, np.nan)

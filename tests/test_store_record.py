@@ -354,6 +354,12 @@ def test_new_store_has_the_file_index_and_migrate_adds_it_to_one_without(store_u
     assert res.output.strip() == f"{su.shown}: at schema version {SCHEMA_VERSION}; added the index ix_lot_inputs_sha256"
     with connect(su, write=False, action="read") as conn:
         assert missing_indexes(conn) == ()
+        # the table analysed with it, so that the planner uses the index at once (PostgreSQL's
+        # reltuples is -1 for a table never analysed; SQLite keeps its figures in sqlite_stat1)
+        if su.backend == "postgresql":
+            assert conn.exec_driver_sql("SELECT reltuples FROM pg_class WHERE relname = 'lot_inputs'").scalar() >= 0
+        else:
+            assert conn.exec_driver_sql("SELECT count(*) FROM sqlite_stat1 WHERE tbl = 'lot_inputs'").scalar() > 0
     assert count_rows(store_url) == before
     assert migrate_report(su) == (SCHEMA_VERSION, SCHEMA_VERSION, ())
     res = CliRunner().invoke(app, ["history", "migrate", "--store", store_url])

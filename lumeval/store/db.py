@@ -334,11 +334,21 @@ def missing_indexes(conn) -> tuple[str, ...]:
 
 
 def add_missing_indexes(conn) -> tuple[str, ...]:
-    """Create the :data:`EXTRA_INDEXES` the store lacks; returns their names."""
+    """Create the :data:`EXTRA_INDEXES` the store lacks; returns their names.
+
+    Each indexed table is then analysed (``ANALYZE``, on SQLite and PostgreSQL alike), so that
+    the query planner knows the table's size and uses the new index at once: PostgreSQL's
+    planner otherwise may keep reading the whole table of a store filled before the index
+    until its background analysis comes round."""
     missing = missing_indexes(conn)
+    analysed: list[str] = []
     for name, table, cols in EXTRA_INDEXES:
         if name in missing:
             conn.exec_driver_sql(f"CREATE INDEX {name} ON {table} ({', '.join(cols)})")
+            if table not in analysed:
+                analysed.append(table)
+    for table in analysed:
+        conn.exec_driver_sql(f"ANALYZE {table}")
     return missing
 
 

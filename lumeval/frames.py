@@ -224,28 +224,28 @@ def _joined_array(pa, column, start: int, stop: int):
     return arr if arr is not None else string_array(pa, [" | ".join(r) for r in rows])
 
 
-def arrow_call(name: str, *args, options=None):
-    """Arrow's compute function ``name`` on ``args`` (``pyarrow.compute.call_function``).
-
-    Taken from the extension module that ``pyarrow.compute`` wraps, so that a process that only
-    formats numbers does not import ``pyarrow.compute`` itself: that import writes a Python
-    wrapper for each of Arrow's functions (measured 0.04 s in a warm process, 0.1 s in each
-    forked worker formatting a lot's CSV, against 0.004 s for the extension module); the public
-    module's function where the extension module's layout differs (another pyarrow version)."""
+def _compute_functions():
+    """The module with Arrow's ``call_function`` and ``CastOptions``: the extension module that
+    ``pyarrow.compute`` wraps, so that a process that only formats numbers does not import
+    ``pyarrow.compute`` itself (that import writes a Python wrapper for each of Arrow's
+    functions: measured 0.04 s in a warm process, 0.1 s in each forked worker formatting a
+    lot's CSV, against 0.004 s for the extension module); the public module where the
+    extension module's layout differs (another pyarrow version)."""
     try:
-        from pyarrow._compute import call_function
+        import pyarrow._compute as functions
     except ImportError:  # pragma: no cover - another pyarrow layout
-        from pyarrow.compute import call_function
-    return call_function(name, list(args), options)
+        import pyarrow.compute as functions
+    return functions
+
+
+def arrow_call(name: str, *args, options=None):
+    """Arrow's compute function ``name`` on ``args`` (``pyarrow.compute.call_function``)."""
+    return _compute_functions().call_function(name, list(args), options)
 
 
 def cast_to_string(pa, arr):
     """``pyarrow.compute.cast(arr, pa.string())`` (a safe cast) through :func:`arrow_call`."""
-    try:
-        from pyarrow._compute import CastOptions
-    except ImportError:  # pragma: no cover - another pyarrow layout
-        from pyarrow.compute import CastOptions
-    return arrow_call("cast", arr, options=CastOptions.safe(pa.string()))
+    return arrow_call("cast", arr, options=_compute_functions().CastOptions.safe(pa.string()))
 
 
 def joined_runs(pa, strings, offsets: np.ndarray, sep: bytes):

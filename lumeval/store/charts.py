@@ -138,7 +138,8 @@ class XbarSChart:
     s_bar : float
         s̄: the mean of the baseline s (equal sizes) or the pooled s (sizes differ; eq. 6.31).
     sigma : float
-        σ̂ = s̄ / c4(n̄), the within-lot process standard deviation.
+        σ̂, the within-lot process standard deviation: s̄ / c4(n) for lots of one size n;
+        s̄ / c4(ν + 1) with ν = Σ (nᵢ − 1) for the pooled s̄ of lots of different sizes.
     xbar_ucl, xbar_lcl, s_centre, s_ucl, s_lcl : ndarray (m,)
         Limits of every lot (they differ only where n differs).
     equal_n : bool
@@ -268,12 +269,15 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
     if equal:
         grand = float(np.mean(mean[use]))
         s_bar = float(np.mean(s[use]))
-        n_typ = float(nb[0])
+        n_c4 = float(nb[0])
     else:
         grand = float(np.sum(nb * mean[use]) / np.sum(nb))
         s_bar = float(np.sqrt(np.sum((nb - 1.0) * s[use] ** 2) / np.sum(nb - 1.0)))
-        n_typ = float(np.mean(nb))
-    sigma = s_bar / float(c4(n_typ))
+        # the pooled s has ν = Σ (nᵢ − 1) degrees of freedom: for normal data s̄² = σ² χ²_ν / ν,
+        # so E[s̄] = c4(ν + 1) σ (c4's definition with ν + 1 observations); c4 of the mean size
+        # (used before) made σ̂ several per cent too large for lots of a few samples
+        n_c4 = float(np.sum(nb - 1.0)) + 1.0
+    sigma = s_bar / float(c4(n_c4))
     with np.errstate(invalid="ignore"):
         nn = np.where(n >= 2, n, np.nan)
         if equal:

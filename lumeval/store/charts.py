@@ -45,14 +45,25 @@ EWMA_L = 3.0
 def c4(n) -> np.ndarray:
     """c4(n) = sqrt(2/(n-1)) · Γ(n/2) / Γ((n-1)/2): E[s] = c4 σ for n normal observations.
 
-    Montgomery, Appendix VI and §6.3.1 (the definition); computed with log-gamma so that it
-    holds for n in the thousands. NaN for n < 2.
+    Montgomery, Appendix VI and §6.3.1 (the definition); computed with log-gamma, and from
+    :data:`C4_SERIES_N` on by its asymptotic series c4 = 1 − 1/(4n) − 7/(32n²) − 19/(128n³)
+    + O(n⁻⁴) (the expansion given with the definition in the literature on unbiased estimation
+    of σ; quoted from memory, checked against the log-gamma form where both are accurate):
+    the difference of two large log-gammas loses digits (B4 − 1 was 5e-4 off at n = 10⁶, and
+    c4 came out above 1 at n = 10⁹), where the series' next term is below 1e-14. NaN for n < 2.
     """
     n = np.asarray(n, dtype=float)
     lg = np.vectorize(lambda a: math.lgamma(a) if a > 0 else math.nan, otypes=[float])  # no scipy import
-    with np.errstate(invalid="ignore", divide="ignore"):
-        out = np.sqrt(2.0 / (n - 1.0)) * np.exp(lg(n / 2.0) - lg((n - 1.0) / 2.0))
-    return np.where(n >= 2, out, np.nan)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        small = np.where(n < C4_SERIES_N, n, np.nan)
+        out = np.sqrt(2.0 / (small - 1.0)) * np.exp(lg(small / 2.0) - lg((small - 1.0) / 2.0))
+        inv = 1.0 / n
+        series = 1.0 - inv * (0.25 + inv * (7.0 / 32.0 + inv * (19.0 / 128.0)))
+    return np.where(n >= C4_SERIES_N, series, np.where(n >= 2, out, np.nan))
+
+
+#: Sizes from which :func:`c4` takes its asymptotic series.
+C4_SERIES_N = 2000
 
 
 def a3(n) -> np.ndarray:
@@ -240,15 +251,14 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
     """X̄ and s charts with limits estimated from the baseline lots.
 
     Equal sizes (Montgomery §6.3.1): x̿ = mean of the x̄_i, s̄ = mean of the s_i,
-    X̄ limits x̿ ± A3 s̄, s limits B3 s̄ and B4 s̄.
+    σ̂ = s̄ / c4(n); the limits are X̄ x̿ ± A3 s̄, s B3 s̄ and B4 s̄.
     Sizes that differ (Montgomery §6.3.2, eqs. 6.31-6.32): x̿ = Σ n_i x̄_i / Σ n_i,
-    s̄ = √(Σ (n_i − 1) s_i² / Σ (n_i − 1)), and each lot i gets its own limits
-    x̿ ± A3(n_i) s̄, B3(n_i) s̄, B4(n_i) s̄, with s̄ as the s chart's centre line for every
-    lot, as the book draws it (the baseline lots differ in size).
+    s̄ = √(Σ (n_i − 1) s_i² / Σ (n_i − 1)) (pooled, ν = Σ (n_i − 1) degrees of freedom),
+    σ̂ = s̄ / c4(ν + 1).
 
-    Baseline lots of one size n_b and a charted lot of another size n: that lot's limits come
-    from σ̂ = s̄/c4(n_b) with its own n, x̿ ± 3σ̂/√n, s chart centre c4(n) σ̂ and limits
-    B5(n) σ̂, B6(n) σ̂ (for n = n_b these are the A3, B3, B4 limits exactly).
+    Every lot i gets limits from σ̂ with its own n_i: x̿ ± 3σ̂/√n_i, s chart centre c4(n_i) σ̂
+    and limits B5(n_i) σ̂, B6(n_i) σ̂ (for one size everywhere, exactly the A3, B3, B4 limits;
+    the book's A3(n_i) s̄ etc. with the pooled s̄ are 1/c4(n_i) too wide: see the code).
 
     Lots with n < 2 have no s: they are excluded from the estimate and get NaN limits on the
     s chart; a lot of one sample gets the X̄ limits x̿ ± 3σ̂ (no A3 exists for n = 1). NaN
@@ -279,26 +289,21 @@ def xbar_s_chart(mean, s, n, baseline) -> XbarSChart:
         n_c4 = float(np.sum(nb - 1.0)) + 1.0
     sigma = s_bar / float(c4(n_c4))
     with np.errstate(invalid="ignore"):
+        # every lot's limits come from σ̂ with the lot's own n (Montgomery §6.3.1, the limits
+        # with σ given: μ ± 3σ/√n, s chart centre c4 σ, limits B5 σ and B6 σ; memory), σ̂
+        # estimated from the baseline as above. With one size everywhere these are exactly
+        # x̿ ± A3 s̄, s̄, B3 s̄ and B4 s̄; a lot of another size gets its own (A3(2) s̄ would be
+        # 24 % too wide beside lots of 30), as its EWMA point σ̂/√n has. For sizes that differ,
+        # §6.3.2 prints A3(nᵢ) s̄, B3(nᵢ) s̄, B4(nᵢ) s̄ with the pooled s̄, which estimates σ
+        # itself: those divide by c4(nᵢ) a second time (limits 25 % too wide at nᵢ = 2, 6 % at
+        # 5), so they are not used. A lot of one sample has no s chart limits (c4(1) is
+        # undefined) but has its X̄ limits x̿ ± 3σ̂.
         nn = np.where(n >= 2, n, np.nan)
-        if equal:
-            # one baseline size: s̄ estimates c4(n_b) σ, so every lot's limits come from
-            # σ̂ = s̄/c4(n_b) with the lot's own n (Montgomery §6.3.1, the limits with σ given:
-            # μ ± 3σ/√n, s chart centre c4 σ, limits B5 σ and B6 σ; memory). For n = n_b these
-            # are exactly x̿ ± A3 s̄, s̄, B3 s̄ and B4 s̄; a lot of another size gets its own
-            # (A3(2) s̄ would be 24 % too wide beside lots of 30), as its EWMA point σ̂/√n has.
-            c = c4(nn)
-            half = L_SHEWHART * sigma / np.sqrt(np.where(n >= 1, n, np.nan))
-            s_centre = c * sigma
-            s_ucl = (c + L_SHEWHART * np.sqrt(1.0 - c * c)) * sigma
-            s_lcl = np.maximum(0.0, c - L_SHEWHART * np.sqrt(1.0 - c * c)) * sigma
-        else:
-            # a lot of one sample has no s (and A3(1) is undefined), but its value still has X̄
-            # limits x̿ ± 3σ̂/√1 with σ̂ from the baseline (Montgomery §6.3: the limits μ ± 3σ/√n
-            # with σ estimated)
-            half = np.where(n == 1, L_SHEWHART * sigma, a3(nn) * s_bar)
-            s_ucl = b4(nn) * s_bar
-            s_lcl = b3(nn) * s_bar
-            s_centre = np.where(np.isfinite(nn), s_bar, np.nan)
+        c = c4(nn)
+        half = L_SHEWHART * sigma / np.sqrt(np.where(n >= 1, n, np.nan))
+        s_centre = c * sigma
+        s_ucl = (c + L_SHEWHART * np.sqrt(1.0 - c * c)) * sigma
+        s_lcl = np.maximum(0.0, c - L_SHEWHART * np.sqrt(1.0 - c * c)) * sigma
         ucl = grand + half
         lcl = grand - half
     return XbarSChart(mean, s, n, b, grand, s_bar, sigma, ucl, lcl, s_centre, s_ucl, s_lcl, equal)

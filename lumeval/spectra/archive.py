@@ -402,7 +402,12 @@ def nested_text(value) -> str:
 
 
 def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_metadata: bool) -> ArchiveBatch:
+    from .archive_values import check_batch
+
     pa, _ = _pa()
+    # text that is not UTF-8, dates beyond the year 9999: refused here, before any output
+    check_batch(batch, [*([layout.name_column] if layout.name_column else []), *layout.metadata_columns],
+                file, first_row)
     values = _values(batch, layout)
     names = _names(batch, layout, file, first_row)
     sources = [f"{file}#row {first_row + k + 1}" for k in range(batch.num_rows)]

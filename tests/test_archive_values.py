@@ -1,0 +1,81 @@
+"""Hostile values in a Parquet archive's columns (lumeval.spectra.archive_values and the
+archive's metadata in every output), found by a review of the archive path: each case is a
+file written with pyarrow and run through the command line, the expected behaviour being the
+project's promise for bad input (exit 2, one line naming the file, column and row, no output
+file) or the documented form of each metadata value."""
+
+from __future__ import annotations
+
+import csv
+import decimal
+import io
+import json
+
+import numpy as np
+import pytest
+
+from tests.conftest import assert_clean_error
+from tests.conftest import run_cli_in_process as run
+
+pa = pytest.importorskip("pyarrow")
+pq = pytest.importorskip("pyarrow.parquet")
+
+WL = np.arange(380, 781, 5)
+
+
+def _archive(path, n=2, names=None, **meta):
+    v = np.exp(-(((WL - 600) / 120.0) ** 2)) + 0.5 * np.exp(-(((WL - 450) / 15.0) ** 2))
+    cols = {"name": names if names is not None else [f"s{i}" for i in range(n)], **meta}
+    cols.update({str(w): [float(x) * (1 + 0.01 * i) for i in range(n)] for w, x in zip(WL, v)})
+    pq.write_table(pa.table(cols), path)
+    return path
+
+
+def _not_utf8(values):
+    """A string array whose bytes are given as they are (not UTF-8 where they say so)."""
+    b = pa.array(values, pa.binary())
+    return pa.Array.from_buffers(pa.string(), len(b), b.buffers())
+
+
+@pytest.mark.parametrize("case, needles", [
+    ("name", ["'name' column", "row 2", "not valid UTF-8"]),
+    ("meta", ["'station' column", "row 2", "not valid UTF-8"]),
+    ("nested", ["'tags' column", "not valid UTF-8"]),
+    ("timestamp", ["'measured_at' column", "row 2", "year 1 to 9999"]),
+    ("duration", ["'dur' column", "row 2", "999,999,999 days"]),
+])
+@pytest.mark.parametrize("command", ["lot", "inspect", "convert"])
+def test_values_no_output_can_show_are_refused_with_the_column_and_row(tmp_path, capsys, case, needles, command):
+    # before: exit 3 (internal error: UnicodeDecodeError / OverflowError) from inspect, check,
+    # convert and the lot's CSV and JSON, and exit 0 with an invalid --samples-parquet table
+    kw = {"name": {"names": _not_utf8([b"ok", b"bad\xff"])},
+          "meta": {"station": _not_utf8([b"A", b"B\xff"])},
+          "nested": {"tags": pa.ListArray.from_arrays(pa.array([0, 1, 2], pa.int32()), _not_utf8([b"x", b"y\xfe"]))},
+          "timestamp": {"measured_at": pa.array([0, 253402300800], pa.timestamp("s"))},
+          "duration": {"dur": pa.array([0, 2**62], pa.duration("s"))}}[case]
+    f = _archive(tmp_path / "a.parquet", **kw)
+    out = tmp_path / "out.csv"
+    argv = {"lot": ["lot", f, "--quiet", "--processes", "1", "--samples-csv", out, "--samples-parquet",
+                    tmp_path / "s.parquet"],
+            "inspect": ["inspect", f, "--validate-only"],
+            "convert": ["convert", f, out]}[command]
+    code, stdout, err = run(argv, capsys)
+    if command == "inspect":  # the report lists the refused entry, then one error line
+        assert code == 2 and "internal error" not in err, err
+        assert all(n in stdout + err for n in needles), stdout + err
+    else:
+        assert_clean_error(code, err, "a.parquet", *needles)
+    if command == "lot":  # a lot lists an unreadable input and judges the rest (here: none)
+        assert "s1" not in (out.read_text(encoding="utf-8") if out.exists() else "")
+        if (tmp_path / "s.parquet").exists():
+            pq.read_table(tmp_path / "s.parquet").validate(full=True)  # was: invalid UTF-8 written
+    else:
+        assert not out.exists()
+
+
+def test_dates_near_the_limits_are_read(tmp_path, capsys):
+    f = _archive(tmp_path / "a.parquet", measured_at=pa.array([-62135596800, 253402300799], pa.timestamp("s")))
+    code, _, err = run(["lot", f, "--quiet", "--processes", "1", "--json", tmp_path / "l.json"], capsys)
+    assert code == 0, err
+    got = [s["metadata"]["measured_at"] for s in json.loads((tmp_path / "l.json").read_text())["samples"]]
+    assert got == ["0001-01-01T00:00:00", "9999-12-31T23:59:59"]

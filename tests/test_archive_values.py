@@ -79,3 +79,24 @@ def test_dates_near_the_limits_are_read(tmp_path, capsys):
     assert code == 0, err
     got = [s["metadata"]["measured_at"] for s in json.loads((tmp_path / "l.json").read_text())["samples"]]
     assert got == ["0001-01-01T00:00:00", "9999-12-31T23:59:59"]
+
+
+def test_metadata_cells_of_the_lot_csv_are_written_as_the_json_shows_them(tmp_path, capsys):
+    # binary and nested values were Python reprs (b'ok', {'a': 1}) and a negative decimal was
+    # neutralised as text ('-2.50); the JSON output is the reference for the form
+    f = _archive(tmp_path / "a.parquet",
+                 bin=pa.array([b"\xff\xfe", b"ok"]), nested=pa.array([{"a": 1}, {"a": 2}]),
+                 tags=pa.array([["x", "=y"], []]), offset=pa.array([decimal.Decimal("-2.50"), decimal.Decimal("1.00")],
+                                                                    pa.decimal128(5, 2)))
+    code, _, err = run(["lot", f, "--quiet", "--processes", "1", "--samples-csv", tmp_path / "s.csv",
+                        "--json", tmp_path / "l.json"], capsys)
+    assert code == 0, err
+    rows = [r for r in csv.DictReader(io.StringIO((tmp_path / "s.csv").read_text(encoding="utf-8")))
+            if r["name"] in ("s0", "s1")]
+    assert [r["bin"] for r in rows] == ["0xfffe", "ok"]
+    assert [r["nested"] for r in rows] == ['{"a": 1}', '{"a": 2}']
+    assert [r["offset"] for r in rows] == ["-2.50", "1.00"]
+    assert rows[0]["tags"] == '["x", "=y"]' and rows[1]["tags"] == "[]"
+    meta = [s["metadata"] for s in json.loads((tmp_path / "l.json").read_text())["samples"]]
+    assert [m["bin"] for m in meta] == [r["bin"] for r in rows]
+    assert [m["nested"] for m in meta] == [r["nested"] for r in rows]

@@ -305,8 +305,16 @@ def metadata_headers(run) -> list[str]:
 
 
 def _csv_value(v) -> str:
-    """A metadata cell: numbers as their shortest repr, text neutralised for spreadsheets
-    (:func:`lumeval.render.safe.csv_text`: metadata are untrusted)."""
+    """A metadata cell: numbers as numbers (the shortest repr; a decimal as written, ``-2.50``),
+    dates and times in ISO 8601, and everything else as the JSON output shows it
+    (:func:`lumeval.spectra.archive.json_safe`: binary as its UTF-8 text or ``0x`` and hex
+    digits, lists, structs and maps as JSON-like text), as text neutralised for spreadsheets
+    (:func:`lumeval.render.safe.csv_text`: metadata are untrusted). Binary and nested values
+    were written as Python's reprs (``b'ok'``, ``{'a': 1}``), and a negative decimal as text
+    (``'-2.50``); found by a review."""
+    from decimal import Decimal
+
+    from ..spectra.archive import json_safe
     from .safe import csv_text
 
     if v is None:
@@ -315,11 +323,11 @@ def _csv_value(v) -> str:
         return "true" if v else "false"
     if isinstance(v, (int, float)):
         return repr(v) if math.isfinite(v) else ""
+    if isinstance(v, Decimal):
+        return str(v) if v.is_finite() else ""
     if hasattr(v, "isoformat"):
         return v.isoformat()
-    if isinstance(v, int):  # numbers stay numbers (a negative one too); text is neutralised
-        return str(v)
-    return csv_text(v)
+    return csv_text(json_safe(v))
 
 
 def csv_columns(run) -> list[str]:

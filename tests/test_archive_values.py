@@ -100,3 +100,37 @@ def test_metadata_cells_of_the_lot_csv_are_written_as_the_json_shows_them(tmp_pa
     meta = [s["metadata"] for s in json.loads((tmp_path / "l.json").read_text())["samples"]]
     assert [m["bin"] for m in meta] == [r["bin"] for r in rows]
     assert [m["nested"] for m in meta] == [r["nested"] for r in rows]
+
+
+def test_a_column_of_text_in_one_file_and_binary_in_another_is_carried_as_text(tmp_path, capsys):
+    # Arrow's permissive promotion made the text binary: b's' in the CSV, binary in Parquet
+    d = tmp_path / "arch"
+    d.mkdir()
+    _archive(d / "1.parquet", lens=pa.array([b"\xff", b"=z"]))
+    _archive(d / "2.parquet", names=["t0", "t1"], lens=pa.array(["s", "t"]))
+    code, out, err = run(["lot", d, "--processes", "1", "--samples-csv", tmp_path / "s.csv",
+                          "--samples-parquet", tmp_path / "s.parquet"], capsys)
+    assert code == 0, err
+    rows = {r["name"]: r["lens"] for r in csv.DictReader(io.StringIO((tmp_path / "s.csv").read_text(encoding="utf-8")))
+            if r["name"] in ("s0", "s1", "t0", "t1")}
+    assert rows == {"s0": "0xff", "s1": "'=z", "t0": "s", "t1": "t"}
+    col = pq.read_table(tmp_path / "s.parquet").column("lens")
+    assert pa.types.is_string(col.type) and col.to_pylist()[2:] == ["s", "t"]
+    assert "'lens' is carried as text" in " ".join(out.split())
+
+
+def test_only_the_column_whose_values_do_not_fit_is_carried_as_text(tmp_path, capsys):
+    # uint64 2**64 − 1 beside int64 cannot be joined as numbers; float32 beside float64 can:
+    # the note named both as "cannot be unified" and made both text
+    d = tmp_path / "arch"
+    d.mkdir()
+    _archive(d / "1.parquet", serial=pa.array([2**64 - 1, 5], pa.uint64()), f32=pa.array([0.5, 1.5], pa.float32()))
+    _archive(d / "2.parquet", names=["t0", "t1"], serial=pa.array([-1, 5], pa.int64()), f32=pa.array([2.5, 3.5], pa.float64()))
+    code, out, err = run(["lot", d, "--processes", "1", "--samples-parquet", tmp_path / "s.parquet"], capsys)
+    assert code == 0, err
+    tbl = pq.read_table(tmp_path / "s.parquet")
+    assert pa.types.is_floating(tbl.column("f32").type) and tbl.column("f32").to_pylist() == [0.5, 1.5, 2.5, 3.5]
+    assert pa.types.is_string(tbl.column("serial").type)
+    assert tbl.column("serial").to_pylist() == ["18446744073709551615", "5", "-1", "5"]
+    text = " ".join(out.split())
+    assert "'serial' is carried as text" in text and "values do not fit one type" in text and "'f32'" not in text

@@ -338,10 +338,6 @@ def _join_metadata(parts: list) -> tuple[Any, tuple[str, ...]]:
     """
     import pyarrow as pa
 
-    try:
-        return pa.concat_tables(parts, promote_options="permissive"), ()
-    except (pa.ArrowException, TypeError):
-        pass
     types: dict[str, list] = {}
     for p in parts:
         for field in p.schema:
@@ -349,24 +345,49 @@ def _join_metadata(parts: list) -> tuple[Any, tuple[str, ...]]:
             if field.type not in seen:
                 seen.append(field.type)
     clashing = {c: ts for c, ts in types.items() if len(ts) > 1}
-    text = {c for c, ts in clashing.items() if _unified(ts) is None}
-    for attempt in (text, set(clashing)):  # the second: should a cast fail although the types unify
+    # text in one file and binary in another: Arrow's promotion makes the text binary (b'…' in
+    # the outputs, found by a review); such a column is carried as text instead
+    text = {c for c, ts in clashing.items() if _text_and_binary(ts) or _unified(ts) is None}
+    if not text:
         try:
-            joined = pa.concat_tables([_with_types(p, clashing, attempt) for p in parts],
-                                      promote_options="permissive")
+            return pa.concat_tables(parts, promote_options="permissive"), ()
         except (pa.ArrowException, TypeError):
-            continue
-        return joined, tuple(_text_note(c, clashing[c]) for c in types if c in attempt)
-    # not reached with Arrow's types (every column in question is now text); kept as a guard
-    raise RuntimeError("metadata columns could not be joined")  # pragma: no cover
+            pass
+    # types that unify but values that do not fit the unified type (uint64 2**64 − 1 beside
+    # int64), found column by column, so that the note names only those (it named every
+    # clashing column, float32 beside float64 too)
+    unfit = {c for c in clashing if c not in text and not _joins(pa, [p.select([c]) for p in parts if c in p.column_names])}
+    try:
+        joined = pa.concat_tables([_with_types(p, clashing, text | unfit) for p in parts], promote_options="permissive")
+    except (pa.ArrowException, TypeError):  # pragma: no cover - every column in question is text now
+        raise RuntimeError("metadata columns could not be joined") from None
+    return joined, tuple(_text_note(c, clashing[c], c in unfit) for c in types if c in text | unfit)
 
 
-def _text_note(column: str, types: list) -> str:
+def _joins(pa, parts) -> bool:
+    try:
+        pa.concat_tables([_with_types(p, {p.column_names[0]: ()}, set()) for p in parts], promote_options="permissive")
+    except (pa.ArrowException, TypeError):
+        return False
+    return True
+
+
+def _text_and_binary(types: list) -> bool:
+    import pyarrow as pa
+
+    plain = [_plain(t) for t in types]
+    text = any(pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t) for t in plain)
+    binary = any(pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t)
+                 or pa.types.is_binary_view(t) for t in plain)
+    return text and binary
+
+
+def _text_note(column: str, types: list, unfit: bool = False) -> str:
     from ..errors import quote
 
     shown = ", ".join(str(t) for t in types if not _is_null(t))
-    return (f"metadata column {quote(column)} is carried as text in every output: the files of the "
-            f"archive give it types that cannot be unified ({shown})")
+    why = ("give it types whose values do not fit one type" if unfit else "give it types that cannot be unified")
+    return f"metadata column {quote(column)} is carried as text in every output: the files of the archive {why} ({shown})"
 
 
 def _is_null(t) -> bool:

@@ -17,8 +17,7 @@ from __future__ import annotations
 import numpy as np
 
 #: Metadata keys that describe how a file was read (not data about the sample).
-_READ_KEYS = ("lumeval.wavelength_unit", "lumeval.delimiter", "lumeval.column", "lumeval.format",
-              "lumeval.tm27_version", "lumeval.tm27_namespace")
+from .spectra.model import DERIVED_KEYS as _READ_KEYS
 
 
 def _pa():

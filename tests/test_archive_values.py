@@ -134,3 +134,46 @@ def test_only_the_column_whose_values_do_not_fit_is_carried_as_text(tmp_path, ca
     assert tbl.column("serial").to_pylist() == ["18446744073709551615", "5", "-1", "5"]
     text = " ".join(out.split())
     assert "'serial' is carried as text" in text and "values do not fit one type" in text and "'f32'" not in text
+
+
+@pytest.mark.parametrize("odd", ["link", "folder"])
+@pytest.mark.parametrize("command", ["inspect", "convert", "check"])
+def test_a_folder_archive_with_an_entry_that_is_not_a_file_is_refused(tmp_path, capsys, odd, command):
+    # inspect, check and convert left a dangling link (or a folder named like a Parquet file)
+    # out without a word and exited 0; a lot lists it as unreadable
+    import os
+
+    d = tmp_path / "arch"
+    d.mkdir()
+    _archive(d / "1.parquet")
+    if odd == "link":
+        os.symlink(tmp_path / "gone.parquet", d / "2.parquet")
+    else:
+        (d / "2.parquet").mkdir()
+    crit = tmp_path / "c.toml"
+    crit.write_text('[[clause]]\nfigure = "Ra"\nmin = 80\n', encoding="utf-8")
+    out = tmp_path / "x.parquet"
+    argv = {"inspect": ["inspect", d, "--validate-only"], "convert": ["convert", d, out],
+            "check": ["check", d, "-c", crit]}[command]
+    code, stdout, err = run(argv, capsys)
+    assert code == 2 and "internal error" not in err, err
+    assert "2.parquet" in stdout + err
+    assert ("dangling symbolic link" if odd == "link" else "not a regular file") in stdout + err
+    assert not out.exists()
+
+
+def test_archive_columns_named_like_lumevals_own_read_keys_are_kept_apart(tmp_path, capsys):
+    # a column 'lumeval.format' replaced lumeval's own key (inspect showed "mine" as the file's
+    # format) and convert dropped it with 'lumeval.column'; they are kept as meta:KEY, while
+    # lumeval.scale keeps carrying a spectrum's scale (lumeval's own archives write it)
+    f = _archive(tmp_path / "a.parquet", **{"lumeval.format": ["mine"] * 2, "lumeval.column": ["c"] * 2,
+                                             "lumeval.scale": ["relative"] * 2})
+    code, out, err = run(["inspect", f, "--validate-only"], capsys)
+    assert code == 0, err
+    assert "Parquet archive" in out and "mine" not in out and "scale relative" in out
+    code, _, err = run(["convert", f, tmp_path / "a.json"], capsys)
+    assert code == 0, err
+    spec = json.loads((tmp_path / "a.json").read_text())["spectra"][0]
+    meta = spec["metadata"]
+    assert meta["meta:lumeval.format"] == "mine" and meta["meta:lumeval.column"] == "c"
+    assert "relative" in json.dumps({k: v for k, v in spec.items() if k != "values"})

@@ -89,6 +89,27 @@ def _parquet_files_in(folder: Path) -> list[Path]:
     )
 
 
+def _refuse_odd_entries(folder: Path, files: list[Path]) -> None:
+    """Refuse a folder archive holding a Parquet-named entry that is not a regular file (a link
+    to a missing file, a folder, a pipe): reading the others would leave it out without a word
+    (``inspect``, ``check`` and ``convert`` did; a lot lists it as unreadable)."""
+    from .._paths import display_path
+
+    try:
+        entries = list(os.scandir(folder))
+    except OSError:
+        return
+    kept = {f.name for f in files}
+    for e in sorted(entries, key=lambda e: e.name):
+        if e.name.startswith(".") or not e.name.lower().endswith(PARQUET_SUFFIXES) or e.name in kept:
+            continue
+        if e.is_symlink() and not os.path.exists(e.path):
+            raise InputError("is a dangling symbolic link in the archive's folder (its target does not exist)",
+                             file=display_path(e.path), fix="fix or remove the link")
+        raise InputError("is in the archive's folder but is not a regular file", file=display_path(e.path),
+                         fix="remove it from the archive's folder")
+
+
 def has_archive_suffix(path: str | os.PathLike) -> bool:
     """True when the name of ``path`` ends with a Parquet extension (no file system access: what
     :func:`is_archive` decides without ``sniff`` for a path known to be a regular file)."""
@@ -117,6 +138,7 @@ def archive_files(path: str | os.PathLike) -> list[str]:
     p = Path(path)
     if p.is_dir():
         files = _parquet_files_in(p)
+        _refuse_odd_entries(p, files)
         if not files:
             raise InputError("the folder holds no Parquet files (.parquet, .parq, .pq)", file=str(p),
                              fix="give the archive's folder or one of its files")
@@ -417,12 +439,22 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
         meta_tbl = pa.Table.from_batches([batch.select(idx)])
     if row_metadata:
         rows = meta_tbl.to_pylist() if meta_tbl is not None else [{} for _ in names]
-        metas = tuple({"lumeval.format": "Parquet archive", **{k: json_safe(v) for k, v in r.items() if v is not None}}
+        keys = {k: _own_metadata_key(k) for k in (layout.metadata_columns if meta_tbl is not None else ())}
+        metas = tuple({"lumeval.format": "Parquet archive", **{keys[k]: json_safe(v) for k, v in r.items() if v is not None}}
                       for r in rows)
     else:
         metas = ()
     s = SpectrumSet(layout.wavelengths_nm, values, tuple(names), tuple(sources), (), metas)
     return ArchiveBatch(s, meta_tbl, first_row)
+
+
+def _own_metadata_key(column: str) -> str:
+    """The metadata key of an archive column: the column's name, or ``meta:NAME`` for one of the
+    keys by which lumeval says how a file was read (``lumeval.format``, ``lumeval.column``…):
+    such a column replaced lumeval's own (``lumeval.format = mine`` shown as the file's format)
+    and ``convert`` dropped it. ``lumeval.scale`` and ``lumeval.value_unit`` are kept: they
+    carry a spectrum's scale through lumeval's own archives."""
+    return f"meta:{column}" if column in _DERIVED else column
 
 
 def iter_batches(

@@ -177,3 +177,11 @@ def test_archive_columns_named_like_lumevals_own_read_keys_are_kept_apart(tmp_pa
     meta = spec["metadata"]
     assert meta["meta:lumeval.format"] == "mine" and meta["meta:lumeval.column"] == "c"
     assert "relative" in json.dumps({k: v for k, v in spec.items() if k != "values"})
+
+
+def test_an_archive_with_one_wavelength_column_is_refused_in_the_readers_words(tmp_path, capsys):
+    # it said "the wavelengths are missing or not finite numbers" for row 1
+    f = tmp_path / "a.parquet"
+    pq.write_table(pa.table({"name": ["a"], "555": [1.0]}), f)
+    code, out, err = run(["convert", f, tmp_path / "a.json"], capsys)
+    assert_clean_error(code, err, "a.parquet", "'555'", "at least two wavelengths")

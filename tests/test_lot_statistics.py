@@ -341,3 +341,13 @@ def test_max_pairwise_matches_all_pairs_on_degenerate_sets(P):
     ref = pdist(P).max() if P.shape[0] > 1 else 0.0
     assert d == pytest.approx(ref, rel=1e-12, abs=1e-15)
     assert np.linalg.norm(P[i] - P[j]) == pytest.approx(ref, rel=1e-12, abs=1e-15)
+
+
+def test_largest_pairwise_pair_of_identical_points_names_two_samples():
+    # every point the same: the pair named one sample twice ("s0 – s0"; found by a review);
+    # any two distinct samples attain the distance 0 (a point's distance to itself)
+    from lumeval.lots.pairwise import max_pairwise_distance
+
+    P = np.array([[np.nan, np.nan], [0.2, 0.5], [0.2, 0.5], [0.2, 0.5]])
+    d, i, j = max_pairwise_distance(P)
+    assert d == 0.0 and (i, j) == (1, 2)

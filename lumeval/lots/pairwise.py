@@ -62,6 +62,8 @@ def max_pairwise_distance(points) -> tuple[float, int, int]:
     d2 = ((C[:, None, :] - C[None, :, :]) ** 2).sum(-1)
     a, b = np.unravel_index(int(np.argmax(d2)), d2.shape)
     i, j = sorted((int(idx[cand[a]]), int(idx[cand[b]])))
+    if i == j:  # every defined point the same: any two of them attain 0 (one was named twice)
+        i, j = int(idx[0]), int(idx[1])
     return float(np.sqrt(d2[a, b])), i, j
 
 

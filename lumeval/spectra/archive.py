@@ -233,6 +233,10 @@ def layout_of(schema, file: str) -> Layout:
                          + (", ".join(repr(m) for m in [*([name_col] if name_col else []), *meta][:8]) or "no columns"),
                          file=file,
                          fix="give one column per wavelength, named by the wavelength in nm ('380', '385', …)")
+    if len(wl_cols) == 1:  # as the other readers say it (it was "the wavelengths are missing")
+        raise InputError(f"only one column is named by a wavelength ({quote(wl_cols[0][1])}): a spectrum needs at "
+                         "least two wavelengths", file=file, field=wl_cols[0][1],
+                         fix="give one column per wavelength, named by the wavelength in nm ('380', '385', …)")
     wl_cols.sort()
     return Layout(np.array([w for w, _ in wl_cols]), tuple(c for _, c in wl_cols), name_col, tuple(meta))
 

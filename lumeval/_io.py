@@ -381,6 +381,8 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
             if pats and _same_file(parent, d) and any(fnmatch.fnmatchcase(p.name, pat) for pat in pats):
                 raise UsageError(f"{opt} {_shown(p)} is a file that {opt2} writes too", field=opt,
                                  fix=f"give {opt} a file outside {_shown(d)} or another name")
+    inputs = list(inputs)
+    _refuse_into_archive_folder(given, inputs)
     names = list(given.items())
     for i, (opt, p) in enumerate(names):
         for opt2, q in names[i + 1:]:
@@ -399,6 +401,27 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
                 if _same_ref(ref, src_ref):
                     raise UsageError(f"{_shown(p)} is one of the input files: writing it would destroy the input",
                                      field=opt, fix="choose another output file name")
+
+
+def _refuse_into_archive_folder(given: dict, inputs: list) -> None:
+    """Refuse a file target with a Parquet name inside an input that is a Parquet archive's
+    folder: it would replace one of the archive's files or join the archive read next time
+    (``inspect ARCHIVE -o ARCHIVE/report.parquet`` wrote its text there, and every later read
+    of the archive failed; found by a review)."""
+    from .spectra.archive import PARQUET_SUFFIXES
+
+    parquet = [(opt, p) for opt, p in given.items() if p.suffix.lower() in PARQUET_SUFFIXES]
+    if not parquet:
+        return
+    for src in inputs:
+        if not isinstance(src, str | os.PathLike) or not os.path.isdir(src):
+            continue
+        for opt, p in parquet:
+            parent = p.parent if str(p.parent) else Path(".")
+            if _same_file(parent, Path(os.fspath(src))):
+                raise UsageError("the output would be a file of the input archive folder: it would replace one of "
+                                 "its files or join the archive read next time", file=str(p), field=opt,
+                                 fix="write the output outside the input folder")
 
 
 def _dir_files_present(given_dirs: dict, dir_files: Mapping) -> list[tuple[str, Path, tuple]]:

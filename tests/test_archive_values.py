@@ -185,3 +185,20 @@ def test_an_archive_with_one_wavelength_column_is_refused_in_the_readers_words(t
     pq.write_table(pa.table({"name": ["a"], "555": [1.0]}), f)
     code, out, err = run(["convert", f, tmp_path / "a.json"], capsys)
     assert_clean_error(code, err, "a.parquet", "'555'", "at least two wavelengths")
+
+
+@pytest.mark.parametrize("command", ["inspect", "check"])
+def test_a_parquet_output_into_the_input_archive_folder_is_refused(tmp_path, capsys, command):
+    # `inspect ARCHIVE -o ARCHIVE/new.parquet` wrote its text report into the archive's folder,
+    # and every later read of the archive failed; convert refused it already (a lot's own
+    # per-sample table there is set aside by the next lot, lumeval.lots.own_reports)
+    d = tmp_path / "arch"
+    d.mkdir()
+    _archive(d / "1.parquet")
+    crit = tmp_path / "c.toml"
+    crit.write_text('[[clause]]\nfigure = "Ra"\nmin = 80\n', encoding="utf-8")
+    target = d / "new.parquet"
+    argv = {"inspect": ["inspect", d, "-o", target], "check": ["check", d, "-c", crit, "-o", target]}[command]
+    code, _, err = run(argv, capsys)
+    assert_clean_error(code, err, "new.parquet", "input archive folder")
+    assert sorted(p.name for p in d.iterdir()) == ["1.parquet"]

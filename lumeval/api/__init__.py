@@ -198,20 +198,9 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
     from .._io import check_targets, refuse_existing
 
     src_is_folder = src_p.is_dir()
-    if src_is_folder:  # an archive folder: its members are inputs, and a new .parquet there would join it
-        from ..spectra.archive import PARQUET_SUFFIXES
-
-        parent = dst_p.parent if str(dst_p.parent) else Path(".")
-        try:
-            inside = parent.exists() and os.path.samefile(parent, src_p)
-        except OSError:
-            inside = False
-        if inside and dst_p.suffix.lower() in PARQUET_SUFFIXES:
-            raise UsageError("the output would be a file of the input archive folder: it would replace one of its "
-                             "files or join the archive read next time", file=str(dst),
-                             fix="write the output outside the input folder")
     # a folder (a path ending in a separator too: given as written, which Path() would drop), a
-    # device, a missing folder, an input file: before reading
+    # device, a missing folder, an input file, a Parquet file in an input archive folder (a new
+    # .parquet there would join it): before reading
     check_targets(files={"OUT": dst if isinstance(dst, str) else dst_p}, inputs=[src_p] if src_is_folder else [])
     refuse_existing(dst_p, "OUT", force=force)
     spectra = read_spectra(src_p)

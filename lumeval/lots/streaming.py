@@ -373,13 +373,10 @@ def _joins(pa, parts) -> bool:
 
 
 def _text_and_binary(types: list) -> bool:
-    import pyarrow as pa
+    from ..spectra.archive_values import is_binary_type, is_text_type
 
     plain = [_plain(t) for t in types]
-    text = any(pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t) for t in plain)
-    binary = any(pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t)
-                 or pa.types.is_binary_view(t) for t in plain)
-    return text and binary
+    return any(map(is_text_type, plain)) and any(map(is_binary_type, plain))
 
 
 def _text_note(column: str, types: list, unfit: bool = False) -> str:
@@ -450,16 +447,16 @@ def _as_text(col):
 
     from ..spectra.archive import bytes_text as _bytes_text
     from ..spectra.archive import nested_text as _json_text
+    from ..spectra.archive_values import is_binary_type, is_text_type
 
     t = col.type
     if pa.types.is_dictionary(t):
         return _as_text(col.cast(t.value_type))
     if pa.types.is_null(t):
         return pa.chunked_array([pa.nulls(len(col), pa.string())])
-    if pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t):
+    if is_text_type(t):
         return col.cast(pa.string())
-    if pa.types.is_binary(t) or pa.types.is_large_binary(t) or pa.types.is_fixed_size_binary(t) \
-            or pa.types.is_binary_view(t):
+    if is_binary_type(t):
         enc = pc.dictionary_encode(col.cast(pa.binary()) if not pa.types.is_binary(t) else col).combine_chunks()
         words = pa.array([_bytes_text(b) for b in enc.dictionary.to_pylist()], pa.string())
         return pa.chunked_array([pc.take(words, enc.indices)])

@@ -44,6 +44,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError, UsageError, quote
+from .archive_values import check_batch, is_text_type
 from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
 
@@ -77,31 +78,28 @@ def _pa():
 # --------------------------------------------------------------------------- recognising
 
 
-def _parquet_files_in(folder: Path) -> list[Path]:
+def _parquet_entries(folder: Path) -> list:
+    """The folder's entries named like Parquet files (not hidden), by name."""
     try:
         entries = list(os.scandir(folder))
     except OSError:
         return []
-    return sorted(
-        (Path(e.path) for e in entries
-         if not e.name.startswith(".") and e.name.lower().endswith(PARQUET_SUFFIXES) and e.is_file()),
-        key=lambda p: p.name,
-    )
+    return sorted((e for e in entries if not e.name.startswith(".") and e.name.lower().endswith(PARQUET_SUFFIXES)),
+                  key=lambda e: e.name)
 
 
-def _refuse_odd_entries(folder: Path, files: list[Path]) -> None:
+def _parquet_files_in(folder: Path) -> list[Path]:
+    return [Path(e.path) for e in _parquet_entries(folder) if e.is_file()]
+
+
+def _refuse_odd_entries(folder: Path) -> None:
     """Refuse a folder archive holding a Parquet-named entry that is not a regular file (a link
     to a missing file, a folder, a pipe): reading the others would leave it out without a word
     (``inspect``, ``check`` and ``convert`` did; a lot lists it as unreadable)."""
     from .._paths import display_path
 
-    try:
-        entries = list(os.scandir(folder))
-    except OSError:
-        return
-    kept = {f.name for f in files}
-    for e in sorted(entries, key=lambda e: e.name):
-        if e.name.startswith(".") or not e.name.lower().endswith(PARQUET_SUFFIXES) or e.name in kept:
+    for e in _parquet_entries(folder):
+        if e.is_file():
             continue
         if e.is_symlink() and not os.path.exists(e.path):
             raise InputError("is a dangling symbolic link in the archive's folder (its target does not exist)",
@@ -137,8 +135,8 @@ def archive_files(path: str | os.PathLike) -> list[str]:
     """The Parquet files of an archive: the file itself, or a folder's Parquet files by name."""
     p = Path(path)
     if p.is_dir():
+        _refuse_odd_entries(p)
         files = _parquet_files_in(p)
-        _refuse_odd_entries(p, files)
         if not files:
             raise InputError("the folder holds no Parquet files (.parquet, .parq, .pq)", file=str(p),
                              fix="give the archive's folder or one of its files")
@@ -209,7 +207,7 @@ def layout_of(schema, file: str) -> Layout:
                 t = fld.type
                 if pa.types.is_dictionary(t):
                     t = t.value_type
-                if not (pa.types.is_string(t) or pa.types.is_large_string(t) or _is_string_view(pa, t)):
+                if not is_text_type(t):
                     raise InputError(f"the {NAME_COLUMN!r} column holds {t}, not text", file=file, field=col,
                                      fix="store the spectrum names as strings, or rename the column to keep it as metadata")
                 name_col = col
@@ -239,11 +237,6 @@ def layout_of(schema, file: str) -> Layout:
                          fix="give one column per wavelength, named by the wavelength in nm ('380', '385', …)")
     wl_cols.sort()
     return Layout(np.array([w for w, _ in wl_cols]), tuple(c for _, c in wl_cols), name_col, tuple(meta))
-
-
-def _is_string_view(pa, t) -> bool:
-    f = getattr(pa.types, "is_string_view", None)
-    return bool(f(t)) if f is not None else False
 
 
 def open_file(file: str):
@@ -428,8 +421,6 @@ def nested_text(value) -> str:
 
 
 def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_metadata: bool) -> ArchiveBatch:
-    from .archive_values import check_batch
-
     pa, _ = _pa()
     # text that is not UTF-8, dates beyond the year 9999: refused here, before any output
     check_batch(batch, [*([layout.name_column] if layout.name_column else []), *layout.metadata_columns],

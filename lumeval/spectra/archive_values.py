@@ -69,7 +69,7 @@ def _problem(arr) -> tuple[str, int | None] | None:
             if found is not None:
                 return found[0], None
         return None
-    if types.is_string(t) or types.is_large_string(t) or _is(types, "is_string_view", t):
+    if is_text_type(t):
         try:
             arr.validate(full=True)
         except pa.ArrowInvalid:
@@ -92,6 +92,23 @@ def _problem(arr) -> tuple[str, int | None] | None:
 def _is(types, name: str, t) -> bool:
     f = getattr(types, name, None)  # types that older pyarrow versions lack
     return bool(f(t)) if f is not None else False
+
+
+def is_text_type(t) -> bool:
+    """An Arrow text type (string, large string, string view)."""
+    import pyarrow as pa
+
+    types = pa.types
+    return bool(types.is_string(t) or types.is_large_string(t) or _is(types, "is_string_view", t))
+
+
+def is_binary_type(t) -> bool:
+    """An Arrow binary type (binary, large, fixed-size, view)."""
+    import pyarrow as pa
+
+    types = pa.types
+    return bool(types.is_binary(t) or types.is_large_binary(t) or types.is_fixed_size_binary(t)
+                or _is(types, "is_binary_view", t))
 
 
 def _bad_text_row(arr) -> int | None:

@@ -305,13 +305,9 @@ def metadata_headers(run) -> list[str]:
 
 
 def _csv_value(v) -> str:
-    """A metadata cell: numbers as numbers (the shortest repr; a decimal as written, ``-2.50``),
-    dates and times in ISO 8601, and everything else as the JSON output shows it
-    (:func:`lumeval.spectra.archive.json_safe`: binary as its UTF-8 text or ``0x`` and hex
-    digits, lists, structs and maps as JSON-like text), as text neutralised for spreadsheets
-    (:func:`lumeval.render.safe.csv_text`: metadata are untrusted). Binary and nested values
-    were written as Python's reprs (``b'ok'``, ``{'a': 1}``), and a negative decimal as text
-    (``'-2.50``); found by a review."""
+    """A metadata cell: numbers as numbers (a decimal as written, ``-2.50``), dates in ISO 8601,
+    anything else as the JSON shows it (:func:`lumeval.spectra.archive.json_safe`: not Python's
+    reprs such as ``b'ok'``), as text neutralised for spreadsheets (metadata are untrusted)."""
     from decimal import Decimal
 
     from ..spectra.archive import json_safe

@@ -110,7 +110,7 @@ def sweep_stale_temporaries(target: str | os.PathLike) -> list[Path]:
     """Remove temporary files of ``target`` left by lumeval processes of this machine that no
     longer run (killed with SIGKILL, power loss). Returns the paths removed; never raises."""
     p = Path(target)
-    folder = p.parent if str(p.parent) else Path(".")
+    folder = p.parent
     head = f".{_short_name(p.name)}{TMP_MARKER}{_node()}-"
     pattern = re.compile(r"(\d+)-[0-9a-f]{6}" + re.escape(TMP_SUFFIX))
     removed: list[Path] = []
@@ -194,7 +194,7 @@ def check_output_file(path: str | os.PathLike, option: str | None = None) -> Non
         if kind is not None:
             raise UsageError(f"cannot write {shown}: it is {kind}{via}, and lumeval writes regular files only",
                              field=option, fix="give a file name" + _stdout_hint(option))
-    parent = p.parent if str(p.parent) else Path(".")
+    parent = p.parent
     if _in_system_dir(parent):
         raise UsageError(f"cannot write {shown}: {_shown(parent)} is a system folder of devices", field=option,
                          fix="give a file in an ordinary folder" + _stdout_hint(option))
@@ -221,7 +221,7 @@ def check_output_dir(path: str | os.PathLike, option: str | None = None,
     d = Path(text)
     if d.exists() and not d.is_dir():
         raise UsageError(f"cannot write into {_shown(d)}: it is a file", field=option, fix="give a folder")
-    parent = d if d.exists() else (d.parent if str(d.parent) else Path("."))
+    parent = d if d.exists() else d.parent
     if _in_system_dir(d if d.exists() else parent):
         raise UsageError(f"cannot write into {_shown(d)}: it is a system folder of devices", field=option,
                          fix="give an ordinary folder")
@@ -377,8 +377,7 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
                 raise UsageError(f"{opt} and {opt2} both name {_shown(p)}", field=opt,
                                  fix="give the file and the folder different names")
             pats = tuple(dir_files.get(opt2, ()))
-            parent = p.parent if str(p.parent) else Path(".")
-            if pats and _same_file(parent, d) and any(fnmatch.fnmatchcase(p.name, pat) for pat in pats):
+            if pats and _same_file(p.parent, d) and any(fnmatch.fnmatchcase(p.name, pat) for pat in pats):
                 raise UsageError(f"{opt} {_shown(p)} is a file that {opt2} writes too", field=opt,
                                  fix=f"give {opt} a file outside {_shown(d)} or another name")
     inputs = list(inputs)
@@ -404,10 +403,10 @@ def _check_collisions(given: dict, given_dirs: dict, inputs: Iterable, dir_files
 
 
 def _refuse_into_archive_folder(given: dict, inputs: list) -> None:
-    """Refuse a file target with a Parquet name inside an input that is a Parquet archive's
-    folder: it would replace one of the archive's files or join the archive read next time
-    (``inspect ARCHIVE -o ARCHIVE/report.parquet`` wrote its text there, and every later read
-    of the archive failed; found by a review)."""
+    """Refuse a file target with a Parquet name inside an input folder: it would replace one of
+    an archive's files or join the archive read next time (a folder holding Parquet files is
+    read as an archive; ``inspect ARCHIVE -o ARCHIVE/report.parquet`` wrote its text there, and
+    every later read of the archive failed; found by a review)."""
     from .spectra.archive import PARQUET_SUFFIXES
 
     parquet = [(opt, p) for opt, p in given.items() if p.suffix.lower() in PARQUET_SUFFIXES]
@@ -417,8 +416,7 @@ def _refuse_into_archive_folder(given: dict, inputs: list) -> None:
         if not isinstance(src, str | os.PathLike) or not os.path.isdir(src):
             continue
         for opt, p in parquet:
-            parent = p.parent if str(p.parent) else Path(".")
-            if _same_file(parent, Path(os.fspath(src))):
+            if _same_file(p.parent, Path(os.fspath(src))):
                 raise UsageError("the output would be a file of the input archive folder: it would replace one of "
                                  "its files or join the archive read next time", file=str(p), field=opt,
                                  fix="write the output outside the input folder")
@@ -509,7 +507,7 @@ def atomic_output(
     Temporary files of earlier runs on the same target whose process is gone are removed first.
     """
     target = Path(os.fspath(path))
-    folder = target.parent if str(target.parent) else Path(".")
+    folder = target.parent
     sweep_stale_temporaries(target)
     flags = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0) | getattr(os, "O_NOFOLLOW", 0)
     tmp = None

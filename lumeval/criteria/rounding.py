@@ -132,12 +132,13 @@ def tender_words(places: int | None, unit: str = "") -> str:
     return f", the value being rounded to {places_words(places, unit)} (ties to even) before comparison"
 
 
-def _figure_clauses(clauses, scopes=("sample", "range")):
-    """(clause, its figure clause) for every figure clause with ``round_to`` (one judged over
-    settings wraps its figure clause in ``inner``) whose scope is among ``scopes``."""
+def _figure_clauses(clauses, scopes=("sample", "range"), rounded: bool = True):
+    """(clause, its figure clause) for every figure clause (one judged over settings wraps its
+    figure clause in ``inner``) whose scope is among ``scopes``; only those with ``round_to``
+    when ``rounded``."""
     for c in clauses:
         inner = getattr(c, "inner", c)
-        if (getattr(inner, "KIND", "") == "figure" and getattr(inner, "round_to", None) is not None
+        if (getattr(inner, "KIND", "") == "figure" and (not rounded or getattr(inner, "round_to", None) is not None)
                 and getattr(c, "SCOPE", "sample") in scopes):
             yield c, inner
 
@@ -190,9 +191,8 @@ def refuse_under_uncertainty(criteria, why: str, lines: dict | None = None) -> N
       draws put inside; found by reviews)."""
     from .figure_notes import judges_category
 
-    for c in getattr(criteria, "clauses", ()):
-        inner = getattr(c, "inner", c)
-        if getattr(inner, "KIND", "") == "figure" and judges_category(getattr(inner, "figure", None)):
+    for _c, inner in _figure_clauses(getattr(criteria, "clauses", ()), rounded=False):
+        if judges_category(getattr(inner, "figure", None)):
             raise CriteriaError(
                 f"clause {quote(inner.clause_id)} judges the ANSI category, a label, and {why} decides under "
                 "measurement uncertainty, which needs a quantity with a spread",

@@ -40,12 +40,14 @@ from ..errors import LumevalError
 
 #: The schema this lumeval reads and writes.
 SCHEMA_VERSION = 2
+#: The index on the input files' SHA-256: recording a lot looks up which earlier lots of its
+#: product hold the same input files; without it every recording read every input row of the
+#: product's lots (SQLite, a 2,000-file lot into a store of 212,000 input rows: lookup 0.31 s
+#: without, 0.017 s with it, growing linearly without; bench/bench_store.py item 4).
+FILE_INDEX = "ix_lot_inputs_sha256"
 #: Indexes beyond those of the schema's version, as (name, table, columns): they change no row a
-#: reader sees. ix_lot_inputs_sha256: recording a lot looks up which earlier lots of its product
-#: hold the same input files (by SHA-256); without it every recording read every input row of
-#: the product's lots (SQLite, a 2,000-file lot into a store of 212,000 input rows: lookup
-#: 0.31 s without, 0.017 s with it, growing linearly without; bench/bench_store.py item 4).
-EXTRA_INDEXES: tuple[tuple[str, str, tuple[str, ...]], ...] = (("ix_lot_inputs_sha256", "lot_inputs", ("sha256",)),)
+#: reader sees.
+EXTRA_INDEXES: tuple[tuple[str, str, tuple[str, ...]], ...] = ((FILE_INDEX, "lot_inputs", ("sha256",)),)
 #: Seconds a writer waits for another writer's lock (SQLite busy timeout).
 SQLITE_BUSY_TIMEOUT_S = 60
 #: Seconds to wait for a PostgreSQL server to answer a connection.

@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .db import (
+    FILE_INDEX,
     SQLITE_BUSY_TIMEOUT_S,
     StoreError,
     StoreURL,
@@ -394,7 +395,7 @@ def _record_once(su: StoreURL, rec: LotRecord, t, key: str, existing, _after_bat
             if row is not None:
                 return RecordResult(int(row[0]), False, su.shown, rec.product, row[1])
             lacking = missing_indexes(conn)
-            overlaps = _overlapping_lots(conn, t, rec, "ix_lot_inputs_sha256" not in lacking)
+            overlaps = _overlapping_lots(conn, t, rec, FILE_INDEX not in lacking)
             reg = rec.region
             lot_id = conn.execute(insert(t["lots"]).values(
                 lot_key=key, label=rec.label, product=rec.product, recorded_at=_now(),

@@ -44,10 +44,10 @@ def in_worker() -> bool:
     return bool(mp.current_process().daemon)
 
 
-def worker_pool(processes: int) -> WorkerPool:
+def worker_pool(processes: int, warm_up=None) -> WorkerPool:
     """A pool of ``processes`` workers (forked on Linux, see the module docstring), each with
-    :func:`worker_init` run first."""
-    return WorkerPool(processes)
+    :func:`worker_init` run first, then ``warm_up()`` when given (:class:`WorkerPool`)."""
+    return WorkerPool(processes, warm_up)
 
 
 class WorkerPool:
@@ -57,12 +57,18 @@ class WorkerPool:
     :class:`lumeval.errors.WorkerError`). The workers are started at the first :meth:`submit`
     (forked then: they see this process's data as it is at that moment)."""
 
-    def __init__(self, processes: int) -> None:
+    def __init__(self, processes: int, warm_up=None) -> None:
         import multiprocessing as mp
         from concurrent.futures import ProcessPoolExecutor
 
+        init = worker_init if warm_up is None else functools.partial(_init_and_warm_up, warm_up)
         self._ex = ProcessPoolExecutor(max(1, int(processes)), mp_context=mp.get_context("fork" if _FORK else "spawn"),
-                                       initializer=worker_init)
+                                       initializer=init)
+
+    def start(self) -> None:
+        """Start the workers now rather than at the first :meth:`submit` (each runs its
+        initializer, and its warm-up, at once; nothing is awaited)."""
+        self.submit(_nothing)
 
     def submit(self, fn, *args):
         """Run ``fn(*args)`` in a worker; returns a future for :meth:`result`. A pool already
@@ -165,6 +171,21 @@ POLL_S = 0.5
 #: unless a process forked later still holds the result pipe; :func:`lumeval._stop.settle` then
 #: keeps the command's exit from waiting for it).
 THREAD_GRACE = 2.0
+
+
+def _nothing() -> None:
+    """A call that does nothing (:meth:`WorkerPool.start`)."""
+
+
+def _init_and_warm_up(warm_up) -> None:
+    """:func:`worker_init`, then ``warm_up()``: a worker's first-use costs paid before its first
+    call. A warm-up that fails changes nothing (the call that needs what it prepares then meets
+    the failure itself, and reports it)."""
+    worker_init()
+    try:
+        warm_up()
+    except Exception:
+        pass
 
 
 def worker_init() -> None:

@@ -204,6 +204,29 @@ def test_a_bad_criteria_file_is_refused_before_the_inputs_are_listed(tmp_path, m
     assert listed == [] and not out.exists()
 
 
+def _wide_file(path: Path, n: int = 300) -> Path:
+    """A wide CSV of ``n`` rippled Planckian spectra from about 2,000 K to 20,000 K at 1 nm."""
+    from lumeval.metrics.reference import planckian_spd
+
+    rng = np.random.default_rng(8)
+    wl = np.arange(380, 781)
+    T = np.geomspace(2000.0, 20000.0, n)[rng.permutation(n)]
+    vals = planckian_spd(wl.astype(float), T) * (1.0 + 0.03 * np.sin(wl / rng.uniform(20, 40, (n, 1))))
+    body = "".join(f"{w}," + ",".join(f"{v:.6g}" for v in vals[:, i]) + "\n" for i, w in enumerate(wl))
+    path.write_text("wavelength," + ",".join(f"S{k}" for k in range(n)) + "\n" + body, encoding="utf-8")
+    return path
+
+
+def _samples_csv_text(run) -> str:
+    import io
+
+    from lumeval.render.lot_report import samples_csv
+
+    buf = io.StringIO()
+    samples_csv(run, buf, processes=1)
+    return buf.getvalue()
+
+
 @pytest.mark.skipif(not reading._FORK, reason="evaluating workers are forked on Linux")
 def test_a_wide_file_gives_the_same_bytes_with_and_without_workers(tmp_path):
     """A wide CSV (a column per spectrum: each batch is a strided view of the file's block) of
@@ -211,22 +234,62 @@ def test_a_wide_file_gives_the_same_bytes_with_and_without_workers(tmp_path):
     per-sample CSV is the same bytes (the claim, so compared exactly). Before the engine took
     C-ordered chunks, one BLAS thread per batch everywhere and row-independent table fills, 17,937 of
     20,000 rows of the benchmark's wide CSV differed in their last digits."""
-    import io
-
-    from lumeval.metrics.reference import planckian_spd
-    from lumeval.render.lot_report import samples_csv
-
-    rng = np.random.default_rng(8)
-    wl = np.arange(380, 781)
-    T = np.geomspace(2000.0, 20000.0, 300)[rng.permutation(300)]
-    vals = planckian_spd(wl.astype(float), T) * (1.0 + 0.03 * np.sin(wl / rng.uniform(20, 40, (300, 1))))
-    f = tmp_path / "wide.csv"
-    body = "".join(f"{w}," + ",".join(f"{v:.6g}" for v in vals[:, i]) + "\n" for i, w in enumerate(wl))
-    f.write_text("wavelength," + ",".join(f"S{k}" for k in range(300)) + "\n" + body, encoding="utf-8")
+    f = _wide_file(tmp_path / "wide.csv")
     texts = []
     for p in (1, 2):
         run = run_lot([str(f)], batch_spectra=32, evaluate_processes=p)
-        buf = io.StringIO()
-        samples_csv(run, buf, processes=1)
-        texts.append(buf.getvalue())
+        texts.append(_samples_csv_text(run))
     assert len(run) == 300 and texts[0] == texts[1]
+
+
+@pytest.mark.skipif(not reading._FORK, reason="evaluating workers are forked on Linux")
+@pytest.mark.parametrize("warm_up_fails", [False, True])
+def test_workers_started_before_reading_warm_up_and_change_nothing(tmp_path, monkeypatch, warm_up_fails):
+    """A lot known to need several batches (here: a text file over the size limit, lowered to
+    one byte) starts its evaluating workers before it is read; each warms up (imports, one
+    evaluation) while this process reads, and every batch goes to them (none is evaluated here).
+    The per-sample CSV is the same bytes as the serial run's (compared exactly, the claim),
+    also when the warm-up fails (it is an optimisation: the failure changes nothing)."""
+    from lumeval.lots import evaluating
+    from lumeval.lots import run as run_module
+
+    f = _wide_file(tmp_path / "wide.csv")
+    serial = _samples_csv_text(run_lot([str(f)], batch_spectra=32, evaluate_processes=1))
+
+    marks = tmp_path / "warm"
+    marks.mkdir()
+    real_warm_up = evaluating._warm_up
+
+    def warm_up(sample_criteria):  # runs in each worker (forked: it sees this replacement)
+        import os
+
+        (marks / str(os.getpid())).write_text("", encoding="utf-8")
+        if warm_up_fails:
+            raise RuntimeError("warm-up failed")
+        real_warm_up(sample_criteria)
+
+    started, here = [], []
+    real_start, real_here = evaluating.BatchEvaluator.start, evaluating.BatchEvaluator._here
+    monkeypatch.setattr(evaluating, "_warm_up", warm_up)
+    monkeypatch.setattr(evaluating.BatchEvaluator, "start", lambda self: started.append(1) or real_start(self))
+    monkeypatch.setattr(evaluating.BatchEvaluator, "_here", lambda self, job: here.append(1) or real_here(self, job))
+    monkeypatch.setattr(run_module, "SEVERAL_BATCHES_BYTES", 1)
+    run = run_lot([str(f)], batch_spectra=32, evaluate_processes=2)
+    assert started == [1] and here == []
+    assert len(list(marks.iterdir())) == 2  # each of the two workers warmed up
+    assert len(run) == 300 and _samples_csv_text(run) == serial
+
+
+@pytest.mark.skipif(not reading._FORK, reason="evaluating workers are forked on Linux")
+def test_a_lot_of_one_batch_starts_no_workers_before_reading(tmp_path, monkeypatch):
+    """A small text file whose spectra fit one batch: no workers are started before the
+    reading (the pool costs ~0.2 s a lot of one batch never repays), and its one batch is
+    evaluated here."""
+    from lumeval.lots import evaluating
+
+    f = _wide_file(tmp_path / "wide.csv", n=20)
+    started = []
+    real_start = evaluating.BatchEvaluator.start
+    monkeypatch.setattr(evaluating.BatchEvaluator, "start", lambda self: started.append(1) or real_start(self))
+    run = run_lot([str(f)], batch_spectra=32, evaluate_processes=2)
+    assert len(run) == 20 and started == []

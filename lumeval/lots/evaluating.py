@@ -11,9 +11,13 @@ on the same spectra, so the per-sample figures, verdicts and warnings are those 
 bit for bit (one BLAS thread per batch, C-ordered chunks and row-independent reference-table fills: see
 docs/lots.md).
 
-The pool is started only when a second batch comes (a lot of one batch never pays for it; the
-first batch is then evaluated here before the workers fork, so that they start with the
-reference tables it filled), and at most :data:`IN_FLIGHT_PER_PROCESS` batches per worker wait
+A lot known before it is read to need several batches (an archive of more rows than a batch,
+a large text file: :func:`lumeval.lots.run.run_lot`) starts the pool at once
+(:meth:`BatchEvaluator.start`): each worker imports the engine, builds the CCT search's table
+and evaluates one spectrum (:func:`_warm_up`, ~0.2 s) while this process reads, and every batch
+goes to the workers. Otherwise the pool is started only when a second batch comes (a lot of one
+batch never pays for it; the first batch is then evaluated here before the workers fork, so
+that they start with the reference tables it filled). At most :data:`IN_FLIGHT_PER_PROCESS` batches per worker wait
 for their results, so memory stays bounded: a few batches of spectra, whatever the lot's size.
 Runs that keep every evaluation for a report (``keep_evaluation``) or decide under measurement
 uncertainty (whose Monte Carlo draws follow the sample index through the batches) are
@@ -35,6 +39,24 @@ def _evaluate(args: tuple) -> Any:
 
     spectra, sample_criteria, offset, metadata = args
     return evaluate_batch(spectra, sample_criteria, None, offset=offset, metadata=metadata)
+
+
+def _warm_up(sample_criteria) -> None:
+    """A worker's first-use costs, paid while the lot is still being read: the engine's and
+    the criteria's modules imported, and one Planckian spectrum at 4000 K on 380-780 nm at 1 nm
+    evaluated and judged (the CCT search's table, the colour-science data, the reference
+    tables of that grid set up). Nothing of it reaches a result: table entries are the same
+    bits whoever filled them first (:mod:`lumeval.metrics.reference_table`)."""
+    import numpy as np
+
+    from ..metrics.reference import planckian_spd
+    from ..spectra.model import SpectrumSet
+    from ..spectra.prepare import prepare
+    from .streaming import evaluate_batch
+
+    wl = np.arange(380.0, 781.0)
+    one = prepare(SpectrumSet(wl, planckian_spd(wl, 4000.0)[None, :], names=("warm-up",), sources=("warm-up",)))
+    evaluate_batch(one, sample_criteria, None)
 
 
 class BatchEvaluator:
@@ -66,6 +88,19 @@ class BatchEvaluator:
         self._pool: Any = None
         self._waiting: deque = deque()
         self._submitted = 0  # samples submitted so far (the offset of the next batch)
+
+    def start(self) -> None:
+        """Start the workers now, before the lot is read, each warming up
+        (:func:`_warm_up`) while this process reads; every batch then goes to them (none is
+        held back for this process). For lots known to need several batches."""
+        if self.processes <= 1 or self._pool is not None:
+            return
+        from functools import partial
+
+        from .._workers import worker_pool
+
+        self._pool = worker_pool(self.processes, partial(_warm_up, self.sample_criteria))
+        self._pool.start()
 
     def submit(self, spectra, metadata=None) -> None:
         """Evaluate one batch (prepared spectra: a set or a list of sets)."""

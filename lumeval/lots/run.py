@@ -297,6 +297,8 @@ def run_lot(
     evaluator = BatchEvaluator(evaluate_processes, sample_criteria, uncertainty, keep_evaluation, on_result,
                                lambda start: offset(progress, start, max(expected, done)))
 
+    if _several_batches(files, archives, streamed, expected, batch_spectra):
+        evaluator.start()  # the workers warm up while this process reads
     consume = evaluator.submit
     def flush() -> None:
         nonlocal pending, pending_n
@@ -391,6 +393,30 @@ def _batches(pending: list, batch_spectra: int):
             n += len(piece)
     if part:
         yield part
+
+
+#: A text file of at least this many bytes is taken to hold more than one batch of spectra
+#: (2,048 spectra of 401 values at 1 nm, of ~8 characters each, are ~6.6 MB).
+SEVERAL_BATCHES_BYTES = 8 * 2**20
+
+
+def _several_batches(files: list[str], archives: list[bool], streamed: list[bool], expected: int,
+                     batch_spectra: int) -> bool:
+    """Whether the lot surely needs more than one batch, known before it is read: its archives
+    hold more rows than a batch (from their footers), or it has a text file read in column
+    blocks or of :data:`SEVERAL_BATCHES_BYTES` or more. The evaluating workers are then
+    started before the reading (:meth:`BatchEvaluator.start`); a lot of one batch never starts
+    them."""
+    if expected > batch_spectra or any(streamed):
+        return True
+    for f, is_arch in zip(files, archives):
+        if not is_arch:
+            try:
+                if os.stat(f).st_size >= SEVERAL_BATCHES_BYTES:
+                    return True
+            except OSError:
+                pass
+    return False
 
 
 def _expected_samples(files: list[str], archives: list[bool]) -> int:

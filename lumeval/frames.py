@@ -270,15 +270,14 @@ def write_samples_parquet(run, path, *, option: str | None = "--samples-parquet"
     atomically (:func:`lumeval.spectra.archive.write_tables`)."""
     import json
 
-    from .lots.own_reports import PARQUET_KEY
     from .render.tables import CAUTIONS
-    from .spectra.archive import write_tables
+    from .spectra.archive import REPORT_KEY, write_tables
 
     first = lot_samples_table(run, 0, min(SAMPLES_SLICE, len(run)))
     # marked as lumeval's, so that a later lot over the folder it is written in skips it; the
     # cautions every report carries (docs/cautions.md) as a JSON list of strings: a table of
     # verdicts went without them (found by a review)
-    first = first.replace_schema_metadata({**(first.schema.metadata or {}), PARQUET_KEY: b"lumeval.lot-samples",
+    first = first.replace_schema_metadata({**(first.schema.metadata or {}), REPORT_KEY: b"lumeval.lot-samples",
                                            CAUTIONS_KEY: json.dumps(list(CAUTIONS)).encode("utf-8")})
 
     def slices():

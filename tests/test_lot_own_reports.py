@@ -180,3 +180,50 @@ def test_no_sample_read_says_the_report_was_not_drawn(tmp_path, run):
     assert "lumeval: note: no sample could be read, so nothing was drawn: --html and --plots not written" in err
     assert not (tmp_path / "r.html").exists() and not (tmp_path / "P").exists()
     assert len(_doc(tmp_path / "lot.json")["unreadable"]) == 2
+
+
+def test_an_archive_folder_holding_a_lots_per_sample_table_is_read_without_it(tmp_path, run):
+    """``lumeval lot ARCHIVE --samples-parquet ARCHIVE/samples.parquet`` writes the per-sample
+    table (figures, marked as lumeval's report in its schema) into the archive's folder. The lot
+    sets it aside on the next run; ``inspect``, ``check`` and ``convert`` of the folder failed on
+    it ("no column is named by a wavelength", exit 2). Now they read the archive's spectra
+    without it and say so once (a note on the first spectrum); a folder holding nothing but such
+    tables is refused with a message saying what they are."""
+    from lumeval.spectra.archive import read_archive
+
+    arch = tmp_path / "archive"
+    arch.mkdir()
+    code, _, err = run("convert", DOWNLIGHTS[0], arch / "a.parquet")
+    assert code == 0, err
+    code, _, err = run("convert", DOWNLIGHTS[1], arch / "b.parquet")
+    assert code == 0, err
+    before = read_archive(arch)
+    code, _, err = run("lot", arch, "-q", "--samples-parquet", arch / "samples.parquet")
+    assert code == 0, err
+    assert report_kind(arch / "samples.parquet") == "Parquet table (lumeval.lot-samples)"
+
+    after = read_archive(arch)
+    assert after.names == before.names and (after.values == before.values).all()
+    note = (f"left out of the archive folder: {arch / 'samples.parquet'} is a lumeval Parquet table "
+            "(lumeval.lot-samples) of figures, not spectra")
+    assert after.notes[0] == (*before.notes[0], note) and after.notes[1:] == before.notes[1:]
+    code, out, err = run("inspect", arch)
+    assert code == 0, err
+    assert "left out of the archive folder" in " ".join(out.split())
+    crit = tmp_path / "c.toml"
+    crit.write_text('lumeval_criteria = 1\n\n[[clause]]\nid = "ra"\nfigure = "Ra"\nmin = 0\n', encoding="utf-8")
+    code, _, err = run("check", arch, "-c", crit)
+    assert code == 0, err
+    code, _, err = run("convert", arch, tmp_path / "out.parquet")
+    assert code == 0, err
+    assert pq.read_table(tmp_path / "out.parquet").num_rows == len(before)
+
+    only = tmp_path / "only"
+    only.mkdir()
+    shutil.copy(arch / "samples.parquet", only / "samples.parquet")
+    code, _, err = run("inspect", only)
+    assert code == 2 and "Traceback" not in err
+    assert "holds no spectra" in err and "samples.parquet is a lumeval Parquet table (lumeval.lot-samples)" in err
+    # named as the archive itself, the table is read as given, and refused as before
+    code, _, err = run("inspect", only / "samples.parquet")
+    assert code == 2 and "no column is named by a wavelength" in err

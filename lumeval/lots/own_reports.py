@@ -11,7 +11,8 @@ longer pass ("unreadable input"), nor write the same output again (it "is one of
   writes starts so; ``lumeval.spectra``, the spectra document, is an input and not a report);
 * a CSV report: it ends with the caution rows lumeval writes under every CSV report
   (:func:`lumeval.render.tables.csv_notes`), exactly;
-* a Parquet per-sample table: its schema carries the key :data:`PARQUET_KEY`.
+* a Parquet per-sample table: its schema carries the key
+  :data:`lumeval.spectra.archive.REPORT_KEY` (an archive folder read whole leaves it out too).
 
 Such a file found in a folder or by a pattern is listed as skipped with the reason, not read; a
 report named explicitly as an input is still an error (it was asked for), with a message saying
@@ -24,8 +25,6 @@ from __future__ import annotations
 import os
 import re
 
-#: Schema metadata key of the Parquet tables lumeval writes (its value: the table's kind).
-PARQUET_KEY = b"lumeval.report"
 _JSON = re.compile(rb'\A(?:\xef\xbb\xbf)?\s*\{\s*"format"\s*:\s*"(lumeval\.[A-Za-z0-9_.-]{1,40})"')
 _HEAD = 256
 
@@ -65,12 +64,13 @@ def _parquet_kind(path) -> str | None:
         import pyarrow.parquet as pq
     except ImportError:
         return None
+    from ..spectra.archive import report_table_kind
+
     try:
-        meta = pq.read_schema(pa.OSFile(os.fsencode(os.fspath(path)))).metadata or {}
+        kind = report_table_kind(pq.read_schema(pa.OSFile(os.fsencode(os.fspath(path)))))
     except (OSError, pa.ArrowException):
         return None
-    kind = meta.get(PARQUET_KEY)
-    return None if kind is None else f"Parquet table ({kind.decode('utf-8', 'replace')})"
+    return None if kind is None else f"Parquet table ({kind})"
 
 
 def set_aside(unreadable, inputs) -> tuple[list, tuple]:

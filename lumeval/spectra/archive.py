@@ -37,7 +37,7 @@ import math
 import os
 import re
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -239,8 +239,28 @@ def layout_of(schema, file: str) -> Layout:
     return Layout(np.array([w for w, _ in wl_cols]), tuple(c for _, c in wl_cols), name_col, tuple(meta))
 
 
+#: Schema metadata key of the Parquet tables lumeval writes as reports (its value: the table's
+#: kind, e.g. ``lumeval.lot-samples``): such a table holds figures, not spectra.
+REPORT_KEY = b"lumeval.report"
+
+
+def report_table_kind(schema) -> str | None:
+    """The kind of lumeval report a Parquet file of this Arrow schema is (the value of
+    :data:`REPORT_KEY` in its metadata), or None for any other file."""
+    kind = (schema.metadata or {}).get(REPORT_KEY)
+    return None if kind is None else kind.decode("utf-8", "replace")
+
+
 def open_file(file: str):
     """(pyarrow.parquet.ParquetFile, Layout) of one archive file, errors as :class:`InputError`."""
+    from .._paths import display_path
+
+    pf = _open_parquet(file)
+    return pf, layout_of(pf.schema_arrow, display_path(file))
+
+
+def _open_parquet(file: str):
+    """pyarrow.parquet.ParquetFile of ``file`` (its footer read), errors as :class:`InputError`."""
     from .._paths import display_path
 
     pa, pq = _pa()
@@ -259,7 +279,7 @@ def open_file(file: str):
     except (pa.ArrowException, OSError, ValueError) as exc:
         raise InputError(f"not a readable Parquet file ({_short(exc)})", file=file,
                          fix="check the file was written completely, or give a CSV, TM-27 or JSON file") from None
-    return pf, layout_of(pf.schema_arrow, file)
+    return pf
 
 
 def _short(exc: BaseException) -> str:
@@ -531,20 +551,41 @@ def read_archive(path: str | os.PathLike) -> SpectrumSet:
     streams instead. Each spectrum's ``metadata`` holds its row's metadata columns (as Python
     values; timestamps as ISO 8601 text). Every file of a folder must give the same
     wavelengths.
+
+    A folder's Parquet tables that lumeval wrote as reports (``lot --samples-parquet`` written
+    into the archive's folder: :data:`REPORT_KEY`) hold figures, not spectra: they are left out,
+    and the first spectrum's notes name them (a lot lists them as skipped). A file named as the
+    archive itself is read as given (and refused: it has no wavelength columns).
     """
+    from .._paths import display_path
+
     files = archive_files(path)
+    folder = Path(path).is_dir()
     sets: list[SpectrumSet] = []
+    left_out: list[str] = []
     wl = None
     for f in files:
-        opened = open_file(f)
+        pf = _open_parquet(f)
+        kind = report_table_kind(pf.schema_arrow) if folder else None
+        if kind is not None:
+            left_out.append(f"{display_path(f)} is a lumeval Parquet table ({kind}) of figures, not spectra")
+            continue
+        opened = (pf, layout_of(pf.schema_arrow, display_path(f)))
         if wl is not None and not np.array_equal(opened[1].wavelengths_nm, wl):
             raise InputError("its wavelength columns differ from those of " + files[0], file=f,
                              fix="keep one wavelength grid per archive folder, or read the files one by one")
         wl = opened[1].wavelengths_nm
         sets.extend(b.spectra for b in iter_batches(f, batch_rows=65536, row_metadata=True, opened=opened))
+    if left_out and wl is None:
+        raise InputError("holds no spectra: " + "; ".join(left_out), file=display_path(path),
+                         fix="give the archive's folder of spectra, or a CSV, TM-27 or JSON file")
     if not sets:
         raise no_rows_error(path)
-    return sets[0] if len(sets) == 1 else SpectrumSet.concatenate(sets)
+    out = sets[0] if len(sets) == 1 else SpectrumSet.concatenate(sets)
+    if left_out:  # one note, on the first spectrum (not one per spectrum of a large archive)
+        note = "left out of the archive folder: " + "; ".join(left_out)
+        out = replace(out, notes=((*out.notes[0], note), *out.notes[1:]))
+    return out
 
 
 def no_rows_error(path: str | os.PathLike) -> InputError:

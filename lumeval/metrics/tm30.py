@@ -593,7 +593,10 @@ def _tm30_core(
     S_ok, jr = (S_t, jab_ref) if m == n else (S_t[idx], jab_ref[idx])
     jt = _jab(wl, S_ok, R, cmf10, kernel, with_hue=False)[0] if m else np.empty((0, 99, 3))
     d = jt - jr
-    de = np.sqrt(d[..., 0] ** 2 + d[..., 1] ** 2 + d[..., 2] ** 2)  # ΔE′, (m, 99)
+    d *= d  # squared in place: ΔE′ = √(ΔJ′² + Δa′² + Δb′²), summed in that order, (m, 99)
+    de = d[..., 0] + d[..., 1]
+    de += d[..., 2]
+    np.sqrt(de, out=de)
     fl, hq, near = _bin_positions(jr)
     bins = np.clip(fl.astype(int), 0, N_BINS - 1)
     rows, cols = np.nonzero(near)

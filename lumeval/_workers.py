@@ -73,7 +73,9 @@ class WorkerPool:
     def submit(self, fn, *args):
         """Run ``fn(*args)`` in a worker; returns a future for :meth:`result`. A pool already
         broken by a worker that died (noticed by the executor before this call) gives
-        :class:`WorkerError`, as :meth:`result` does."""
+        :class:`WorkerError`, as :meth:`result` does, and so does a first call whose workers
+        cannot be forked (the system out of processes or memory: those already forked are
+        stopped)."""
         from concurrent.futures.process import BrokenProcessPool
 
         try:
@@ -81,6 +83,9 @@ class WorkerPool:
         except BrokenProcessPool:
             self.terminate()
             raise _worker_error() from None
+        except OSError as exc:  # the first submit forks the workers: out of processes or memory
+            self.terminate()  # the workers already forked, if any, are stopped
+            raise _start_error(exc) from None
 
     def result(self, future):
         """The call's return value (its exception is raised here); :class:`WorkerError` when
@@ -152,6 +157,13 @@ def _exists(pid) -> bool:
     except OSError:  # no such process, or another user's (the pid was reused)
         return False
     return True
+
+
+def _start_error(exc: OSError):
+    from .errors import WorkerError
+
+    return WorkerError(f"worker processes could not be started ({exc.strerror or exc}); nothing was written",
+                       fix="run again with --processes 1, or free some memory or processes")
 
 
 def _worker_error():

@@ -91,7 +91,8 @@ class OutputError(LumevalError):
 
 class WorkerError(LumevalError):
     """A worker process on this machine ended before finishing its work (killed by a signal,
-    by the system when memory ran out...): the run stops instead of waiting for it forever."""
+    by the system when memory ran out...), or could not be started: the run stops instead of
+    waiting for it forever."""
 
 
 #: Longest piece of a user's data quoted in a message (an offending cell, name or value).

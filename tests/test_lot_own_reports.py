@@ -227,3 +227,23 @@ def test_an_archive_folder_holding_a_lots_per_sample_table_is_read_without_it(tm
     # named as the archive itself, the table is read as given, and refused as before
     code, _, err = run("inspect", only / "samples.parquet")
     assert code == 2 and "no column is named by a wavelength" in err
+
+
+def test_a_grid_mismatch_names_the_archive_file_read_first_not_a_left_out_table(tmp_path, run):
+    """The files of an archive folder must share one wavelength grid; the message names the
+    file whose grid was taken, never a lot's per-sample table that was left out (it named the
+    folder's first file by name, whatever it was)."""
+    import pyarrow as pa
+
+    arch = tmp_path / "archive"
+    arch.mkdir()
+    code, _, err = run("convert", DOWNLIGHTS[0], arch / "b.parquet")
+    assert code == 0, err
+    code, _, err = run("lot", arch / "b.parquet", "-q", "--samples-parquet", arch / "a_lot.parquet")
+    assert code == 0, err
+    wl = range(380, 781, 10)  # another grid
+    pq.write_table(pa.table({"name": ["c1"], **{str(w): [1.0] for w in wl}}), arch / "c.parquet")
+    code, _, err = run("inspect", arch)
+    assert code == 2 and "Traceback" not in err
+    assert f"{arch / 'c.parquet'}: its wavelength columns differ from those of {arch / 'b.parquet'}" in err
+    assert "a_lot.parquet" not in err

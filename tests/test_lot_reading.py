@@ -112,6 +112,7 @@ def test_a_large_file_read_here_is_converted_by_forked_processes_unless_one_is_a
     f = tmp_path / "wide.csv"
     f.write_text("wavelength," + ",".join(f"M{k}" for k in range(30)) + "\n" + rows, encoding="utf-8")
     monkeypatch.setattr(text_fast, "PARALLEL_BYTES", 1024)
+    monkeypatch.setattr(text_fast, "_other_threads", lambda: False)  # (threads other tests left behind)
     calls = []
     real = text_fast._forked_loadtxt
     monkeypatch.setattr(text_fast, "_forked_loadtxt", lambda *a: calls.append(a[-1]) or real(*a))
@@ -293,3 +294,93 @@ def test_a_lot_of_one_batch_starts_no_workers_before_reading(tmp_path, monkeypat
     monkeypatch.setattr(evaluating.BatchEvaluator, "start", lambda self: started.append(1) or real_start(self))
     run = run_lot([str(f)], batch_spectra=32, evaluate_processes=2)
     assert len(run) == 20 and started == []
+
+
+@pytest.mark.skipif(not reading._FORK, reason="large blocks are converted by forked processes on Linux only")
+def test_a_large_block_is_converted_here_while_other_threads_run(monkeypatch):
+    """Forking while another thread runs (a worker pool's threads, started before the reading)
+    can leave a lock held in the child for good: the numpy path then converts a large block in
+    this process (the same numbers: one numpy call either way)."""
+    import threading
+
+    from lumeval.spectra import text_fast
+
+    if reading.default_read_processes() < 2:
+        pytest.skip("one core: blocks are always converted here")
+    big = text_fast.PARALLEL_BYTES + 1
+    stop = threading.Event()
+    t = threading.Thread(target=stop.wait)
+    t.start()
+    try:
+        assert text_fast._other_threads()
+        assert text_fast._parse_processes(big, 100) == 1
+    finally:
+        stop.set()
+        t.join()
+    monkeypatch.setattr(text_fast, "_other_threads", lambda: False)  # (threads other tests left behind)
+    assert text_fast._parse_processes(big, 100) >= 2
+
+
+def test_the_warm_up_evaluates_without_error():
+    """The workers' warm-up, called here: a failure inside a worker is swallowed (it is an
+    optimisation), so it is checked directly that it runs, with and without criteria, and sets
+    up what it is for (the reference tables of the 1 nm grid)."""
+    from lumeval.criteria.loader import parse_criteria
+    from lumeval.lots import evaluating
+    from lumeval.metrics import reference_table
+
+    reference_table._tm30_tables.cache_clear()
+    evaluating._warm_up(None)
+    assert reference_table._tm30_tables.cache_info().currsize == 1
+    crit = parse_criteria('lumeval_criteria = 1\n\n[[clause]]\nid = "ra"\nfigure = "Ra"\nmin = 80\n')
+    evaluating._warm_up(crit)
+
+
+@pytest.mark.skipif(not reading._FORK, reason="evaluating workers are forked on Linux")
+def test_workers_that_cannot_be_forked_stop_the_run_with_a_clear_error(tmp_path, monkeypatch):
+    """The system refuses to fork the second of three workers started before the reading
+    (out of processes): WorkerError (a clean message, exit 2 from the command) and the worker
+    already forked is stopped. Before, the OSError escaped as an internal error and the forked
+    worker kept the interpreter from exiting."""
+    import multiprocessing as mp
+    import os
+
+    from lumeval.errors import WorkerError
+    from lumeval.lots import run as run_module
+
+    f = _wide_file(tmp_path / "wide.csv", n=40)
+    real_fork, forks = os.fork, []
+
+    def fork():
+        forks.append(1)
+        if len(forks) == 2:
+            raise BlockingIOError(11, "Resource temporarily unavailable")
+        return real_fork()
+
+    monkeypatch.setattr(run_module, "SEVERAL_BATCHES_BYTES", 1)
+    monkeypatch.setattr(os, "fork", fork)
+    with pytest.raises(WorkerError) as exc:
+        run_lot([str(f)], batch_spectra=8, evaluate_processes=3)
+    monkeypatch.setattr(os, "fork", real_fork)
+    assert len(forks) == 2 and "could not be started (Resource temporarily unavailable)" in exc.value.message
+    assert "--processes 1" in exc.value.message
+    assert mp.active_children() == []  # the worker forked first was stopped and reaped
+
+
+def test_without_pyarrow_text_files_start_no_workers_before_reading(tmp_path, monkeypatch):
+    """Without pyarrow a large text block is converted by forked processes, which must not be
+    forked beside a pool's threads: the workers are then started as before (at a second batch),
+    not before the reading."""
+    import importlib.util
+
+    from lumeval.lots import run as run_module
+
+    f = _wide_file(tmp_path / "wide.csv", n=20)
+    real = importlib.util.find_spec
+    monkeypatch.setattr(importlib.util, "find_spec", lambda name, *a: None if name == "pyarrow" else real(name, *a))
+    assert not run_module._several_batches([str(f)], [False], [False], 1, 8)
+    monkeypatch.setattr(run_module, "SEVERAL_BATCHES_BYTES", 1)
+    assert not run_module._several_batches([str(f)], [False], [False], 1, 8)
+    assert run_module._several_batches([str(f)], [False], [False], 9, 8)  # rows known (archives): yes
+    monkeypatch.setattr(importlib.util, "find_spec", real)
+    assert run_module._several_batches([str(f)], [False], [False], 1, 8)

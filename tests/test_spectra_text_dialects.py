@@ -218,10 +218,13 @@ _FORKS = pytest.mark.skipif(not __import__("lumeval._workers", fromlist=["x"]).f
 
 @pytest.fixture
 def forked(monkeypatch):
-    """Every block over 64 bytes converted by three processes; the calls counted."""
+    """Every block over 64 bytes converted by three processes; the calls counted. (A thread
+    that an earlier test left running, e.g. Dask's idle offload thread, would make the reader
+    convert here: these tests are about the forked conversion itself.)"""
     calls = []
     real = F._forked_loadtxt
     monkeypatch.setattr(F, "PARALLEL_BYTES", 64)
+    monkeypatch.setattr(F, "_other_threads", lambda: False)
     monkeypatch.setattr(F, "_forked_loadtxt", lambda *a: calls.append(a[-1]) or real(*a))
     with F.parse_processes(3):
         yield calls

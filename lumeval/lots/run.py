@@ -297,8 +297,6 @@ def run_lot(
     evaluator = BatchEvaluator(evaluate_processes, sample_criteria, uncertainty, keep_evaluation, on_result,
                                lambda start: offset(progress, start, max(expected, done)))
 
-    if _several_batches(files, archives, streamed, expected, batch_spectra):
-        evaluator.start()  # the workers warm up while this process reads
     consume = evaluator.submit
     def flush() -> None:
         nonlocal pending, pending_n
@@ -310,6 +308,8 @@ def run_lot(
     # files other than archives are read in input order, in worker processes when there are many
     reads = ordered_reads(whole, read_processes)
     try:
+        if _several_batches(files, archives, streamed, expected, batch_spectra):
+            evaluator.start()  # the workers warm up while this process reads
         for k, path in enumerate(files):
             if archives[k]:  # a Parquet archive streams in batches (lumeval.spectra.archive)
                 from ..errors import LumevalError
@@ -402,12 +402,21 @@ SEVERAL_BATCHES_BYTES = 8 * 2**20
 
 def _several_batches(files: list[str], archives: list[bool], streamed: list[bool], expected: int,
                      batch_spectra: int) -> bool:
-    """Whether the lot surely needs more than one batch, known before it is read: its archives
-    hold more rows than a batch (from their footers), or it has a text file read in column
-    blocks or of :data:`SEVERAL_BATCHES_BYTES` or more. The evaluating workers are then
-    started before the reading (:meth:`BatchEvaluator.start`); a lot of one batch never starts
-    them."""
-    if expected > batch_spectra or any(streamed):
+    """Whether the lot is expected, before it is read, to need more than one batch: its
+    archives hold more rows than a batch (from their footers), or, where pyarrow converts large
+    text blocks (on threads, without forking: :mod:`lumeval.spectra.text_fast`), it has a text
+    file read in column blocks or of :data:`SEVERAL_BATCHES_BYTES` or more. The evaluating
+    workers are then started before the reading (:meth:`BatchEvaluator.start`). The size rule
+    can be wrong (a file of one very finely sampled spectrum, say): the one batch then goes to
+    a worker, and the workers' warm-up (~0.2 s of CPU each, beside the reading) was spent for
+    nothing; the results are the same."""
+    if expected > batch_spectra:
+        return True
+    from importlib.util import find_spec
+
+    if find_spec("pyarrow") is None:  # large blocks are converted by forked processes instead
+        return False
+    if any(streamed):
         return True
     for f, is_arch in zip(files, archives):
         if not is_arch:

@@ -563,7 +563,7 @@ def read_archive(path: str | os.PathLike) -> SpectrumSet:
     folder = Path(path).is_dir()
     sets: list[SpectrumSet] = []
     left_out: list[str] = []
-    wl = None
+    wl, first = None, ""
     for f in files:
         pf = _open_parquet(f)
         kind = report_table_kind(pf.schema_arrow) if folder else None
@@ -572,9 +572,10 @@ def read_archive(path: str | os.PathLike) -> SpectrumSet:
             continue
         opened = (pf, layout_of(pf.schema_arrow, display_path(f)))
         if wl is not None and not np.array_equal(opened[1].wavelengths_nm, wl):
-            raise InputError("its wavelength columns differ from those of " + files[0], file=f,
+            raise InputError("its wavelength columns differ from those of " + first, file=display_path(f),
                              fix="keep one wavelength grid per archive folder, or read the files one by one")
-        wl = opened[1].wavelengths_nm
+        if wl is None:
+            wl, first = opened[1].wavelengths_nm, display_path(f)
         sets.extend(b.spectra for b in iter_batches(f, batch_rows=65536, row_metadata=True, opened=opened))
     if left_out and wl is None:
         raise InputError("holds no spectra: " + "; ".join(left_out), file=display_path(path),

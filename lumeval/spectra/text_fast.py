@@ -323,12 +323,24 @@ def parse_processes(n: int | None) -> Iterator[None]:
         _PROCESSES.reset(token)
 
 
+def _other_threads() -> bool:
+    """True while this process runs a thread besides the calling one."""
+    import threading
+
+    return threading.active_count() > 1
+
+
 def _parse_processes(nbytes: int, nrows: int) -> int:
+    """Processes converting a block of ``nbytes`` and ``nrows`` rows: 1 (this process) for a
+    small block, outside Linux, in a worker, or while this process runs other threads (the
+    threads of a worker pool started before the reading: a child forked while another thread
+    holds a lock would find it held for good); else one per core, or as
+    :func:`parse_processes` set."""
     if nbytes <= PARALLEL_BYTES or nrows < 2:
         return 1
     from .._workers import default_processes, fork_available, in_worker
 
-    if not fork_available() or in_worker():
+    if not fork_available() or in_worker() or _other_threads():
         return 1
     n = _PROCESSES.get()
     return max(1, min(default_processes() if n is None else n, nrows))

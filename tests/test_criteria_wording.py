@@ -228,3 +228,27 @@ def test_rf_maximum_above_the_bound_does_not_warn(tmp_path, capsys):
     crit = _crit(tmp_path, "[[clause]]\nfigure='Rf'\nmax=100.0005\n[[clause]]\nfigure='Ra'\nmax=100\n")
     code, _, err = run(["criteria", "explain", crit], capsys)
     assert code == 0 and "warning" not in err, err
+
+
+@pytest.mark.parametrize("body, fix", [
+    ("figure='Rcs_h1'\nrange=[-0.01, 0.15]\n", "range = [-1, 15]"),
+    ("figure='Rcs_h16'\nmax=0.05\n", "max = 5"),
+    ("figure='Rcs_h3'\nmin=-0.12\n", "min = -12"),
+    ("figure='Rcs_h1'\nmin=0\nmax=0.19\nover=[2700, 6500]\n", "range = [0, 19]"),
+])
+def test_chroma_shift_limits_that_look_like_fractions_warn(tmp_path, capsys, body, fix):
+    """Rcs,hj is stated in percent (docs/criteria.md's figure table): limits under 1 in
+    magnitude read as a fraction of a per cent, a window no real source stays in, so the file
+    is read with a warning that names the limits as read and the fix if they were fractions."""
+    crit = _crit(tmp_path, "[[clause]]\n" + body)
+    code, _, err = run(["criteria", "explain", crit], capsys)
+    assert code == 0, err
+    assert "warning" in err and "is in percent in lumeval" in err and f"write {fix}" in err, err
+
+
+@pytest.mark.parametrize("body", ["figure='Rcs_h1'\nrange=[-1, 15]\n", "figure='Rcs_h1'\nmin=0\n",
+                                  "figure='Rhs_h1'\nrange=[-0.05, 0.05]\n", "figure='duv'\nmax=0.006\n"])
+def test_chroma_shift_limits_in_percent_and_other_figures_do_not_warn(tmp_path, capsys, body):
+    crit = _crit(tmp_path, "[[clause]]\n" + body)
+    code, _, err = run(["criteria", "explain", crit], capsys)
+    assert code == 0 and "is in percent" not in err and "warning" not in err, err

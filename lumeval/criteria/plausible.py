@@ -26,7 +26,8 @@ limit that is unusual but possible (Ra ≥ 100, Rf ≥ 100, R9 ≥ −250, Rg �
 
 A maximum above such a bound is always met but not wrong (a clause may state the obvious), and
 Rg, the chroma and hue shifts and the other figures have no published bound: they are not
-checked. The same rule applies wherever a figure clause sits, including a clause judged over a
+checked (limits on a chroma shift Rcs,hj that look like fractions of a figure lumeval states in
+percent get a warning, :func:`percent_as_fraction`). The same rule applies wherever a figure clause sits, including a clause judged over a
 range of settings (``over``) and ``track_locus``'s ``max_abs_duv``; ``over`` itself is in the
 settings' own unit (K, %, mA) and is not checked here.
 
@@ -170,6 +171,27 @@ def fidelity_ceiling(figure: str, lower: float | None, upper: float | None) -> s
     fix = "max = 100.0005" if lower is None else f"range = [{_number(lower)}, 100.0005]"
     return (f"the maximum {label} ≤ {_number(upper)} fails a source identical to its reference, whose {label} is "
             f"10 ln(e¹⁰ + 1) ≈ {RF_MAX:.5f} by the CIE 224:2017 scaling — write {fix}, or no maximum")
+
+
+def percent_as_fraction(figure: str, lower: float | None, upper: float | None) -> str | None:
+    """A warning when the limits on a chroma shift Rcs,hj, which lumeval states in percent, look
+    like fractions: every limit given is under 1 in magnitude and one is not zero (``range =
+    [-0.01, 0.15]`` reads as −0.01 % … 0.15 %, a window no real source stays in, where −1 % …
+    15 % was probably meant: the chroma shift is ΔC/C, which tables may print as a fraction).
+    A warning, not a refusal: such limits are possible, only probably not meant; ``min = 0``
+    alone is a plain limit and is not questioned."""
+    if figures.family(figure) != "Rcs_h":
+        return None
+    given = [v for v in (lower, upper) if v is not None]
+    if not given or not all(abs(v) < 1.0 for v in given) or not any(given):
+        return None
+    label = figures.label(figure)
+    now = " … ".join(f"{_number(v)} %" for v in given)
+    meant = [_times(v, 2) for v in given]
+    fix = (f"range = [{_number(meant[0])}, {_number(meant[1])}]" if len(given) == 2
+           else f"{'min' if lower is not None else 'max'} = {_number(meant[0])}")
+    return (f"{label} is in percent in lumeval, so these limits read as {now}; if they are fractions "
+            f"(-0.01 = -1 %), write {fix}")
 
 
 def kelvin_fix(key: str, value, ok) -> str:

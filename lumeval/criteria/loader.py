@@ -214,8 +214,7 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
         except ParseError as exc:
             raise where.error(path, exc.key, exc.problem, exc.fix) from None
     rounding.refuse_empty(clauses, file)
-    warnings = (_contradictions(clauses, file) + _fidelity_ceilings(clauses, file) + _percent_slips(clauses, file)
-                + rounding.limit_warnings(clauses, file))
+    warnings = _contradictions(clauses, file) + _unlikely_limits(clauses, file) + rounding.limit_warnings(clauses, file)
     labelled = frozenset(c.clause_id for c, t in zip(clauses, clauses_raw) if t.get("label"))
     out = Criteria(tuple(clauses), ident, file, _uncertainty_tables(data, text, file), warnings=warnings,
                    labelled=labelled)
@@ -225,33 +224,22 @@ def parse_criteria(text: str, file: str = "<criteria>") -> Criteria:
     return out
 
 
-def _fidelity_ceilings(clauses, file: str) -> tuple[str, ...]:
-    """A warning per figure clause whose maximum on Rf or Rf,hj a source identical to its
-    reference fails (:func:`lumeval.criteria.plausible.fidelity_ceiling`)."""
+def _unlikely_limits(clauses, file: str) -> tuple[str, ...]:
+    """A warning per figure clause whose limits are possible but probably not meant: a maximum
+    on Rf or Rf,hj that a source identical to its reference fails
+    (:func:`lumeval.criteria.plausible.fidelity_ceiling`), limits on a chroma shift Rcs,hj that
+    look like fractions of a figure lumeval states in percent
+    (:func:`lumeval.criteria.plausible.percent_as_fraction`)."""
     out = []
     for c in clauses:
         inner = getattr(c, "inner", c)
         if getattr(inner, "KIND", "") != "figure":
             continue
-        why = plausible.fidelity_ceiling(inner.figure, inner.lower, inner.upper)
-        if why:
-            where = f"{file}:{inner.line}: " if inner.line else f"{file}: "
-            out.append(f"{where}clause {quote(inner.clause_id)}: {why}")
-    return tuple(out)
-
-
-def _percent_slips(clauses, file: str) -> tuple[str, ...]:
-    """A warning per figure clause on a chroma shift Rcs,hj whose limits look like fractions of
-    a figure lumeval states in percent (:func:`lumeval.criteria.plausible.percent_as_fraction`)."""
-    out = []
-    for c in clauses:
-        inner = getattr(c, "inner", c)
-        if getattr(inner, "KIND", "") != "figure":
-            continue
-        why = plausible.percent_as_fraction(inner.figure, inner.lower, inner.upper)
-        if why:
-            where = f"{file}:{inner.line}: " if inner.line else f"{file}: "
-            out.append(f"{where}clause {quote(inner.clause_id)}: {why}")
+        for check in (plausible.fidelity_ceiling, plausible.percent_as_fraction):
+            why = check(inner.figure, inner.lower, inner.upper)
+            if why:
+                where = f"{file}:{inner.line}: " if inner.line else f"{file}: "
+                out.append(f"{where}clause {quote(inner.clause_id)}: {why}")
     return tuple(out)
 
 

@@ -158,6 +158,25 @@ def lot(paths: Sequence[PathLike], criteria: Criteria | PathLike | None = None, 
     return run_lot(paths, crit, uncertainty=setup, keep_evaluation=keep_evaluation, progress=progress, **options)
 
 
+def _refuse_non_finite(spectra) -> None:
+    """Refuse spectra holding a missing or infinite value (a Parquet archive's null, NaN or inf:
+    the text readers refuse such cells when they read): no output format would hold a number
+    every lumeval reader takes (JSON has none for them; CSV and TM-27 would write "nan")."""
+    import numpy as np
+
+    from ..errors import InputError
+
+    bad = ~np.isfinite(np.asarray(spectra.values, dtype=float))
+    if not bad.any():
+        return
+    i, j = (int(x) for x in np.argwhere(bad)[0])
+    v = float(spectra.values[i, j])
+    what = "missing (null or NaN)" if v != v else f"infinite ({v})"
+    raise InputError(f"the value at {spectra.wavelengths_nm[j]:g} nm is {what}; {int(bad.any(axis=1).sum())} "
+                     "spectrum(s) hold such values", file=spectra.sources[i],
+                     fix="fill or drop those values (or those spectra) before converting")
+
+
 def convert(src: str | Path, dst: str | Path, *, column: str | None = None, force: bool = False,
             notes: list[str] | None = None) -> int:
     """The ``lumeval convert`` command as a function: read ``src`` and write it to ``dst``.
@@ -215,6 +234,7 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
                 fix="give one of these names to --column",
             )
         spectra = spectra.subset(matches[:1])
+    _refuse_non_finite(spectra)
     data = serialise(spectra, kind)
     write_bytes(dst_p, data, option="OUT")
     if notes is not None:

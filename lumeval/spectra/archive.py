@@ -60,6 +60,9 @@ PARTITION_ROWS = 16384
 ROW_GROUP_ROWS = 16384
 #: The column that names the spectra.
 NAME_COLUMN = "name"
+#: Largest wavelength (nm) an archive column may name (common practice, no source: far beyond
+#: any spectroradiometer; a larger number is a slip).
+MAX_WAVELENGTH_NM = 100000.0
 
 _NUMBER = re.compile(r"^\s*[+]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
 _FIX_INSTALL = "install the archive extra: pip install 'lumeval[archive]'"
@@ -214,7 +217,7 @@ def layout_of(schema, file: str) -> Layout:
             else:
                 meta.append(col)
             continue
-        if not math.isfinite(w) or w <= 0 or w > 100000:
+        if not math.isfinite(w) or w <= 0 or w > MAX_WAVELENGTH_NM:
             raise InputError(f"column {quote(col)} names the wavelength {w:g} nm, which no spectrum has", file=file, field=col,
                              fix="name wavelength columns in nm, e.g. '380' or '380.5'")
         if w in seen:
@@ -631,8 +634,18 @@ def archive_table(spectra: SpectrumSet):
         cols[metadata_column_name(k, cols)] = string_array(pa, [None if m.get(k) is None else str(m[k])
                                                                 for m in spectra.metadata])
     for j, w in enumerate(spectra.wavelengths_nm):
+        if not (math.isfinite(w) and 0 < w <= MAX_WAVELENGTH_NM):
+            raise InputError(f"has a row at {w:g} nm, which a Parquet archive cannot name (its wavelength columns "
+                             f"lie above 0 and up to {MAX_WAVELENGTH_NM:g} nm; lumeval's reading drops such a row "
+                             "before the figures are computed)", file=_first_source(spectra),
+                             fix="delete that row, or convert to CSV or JSON, which keep it")
         cols[wavelength_column_name(w)] = float_array(pa, spectra.values[:, j])
     return pa.table(cols)
+
+
+def _first_source(spectra: SpectrumSet) -> str:
+    """The file the spectra were read from, for a message (their first source, without ``#...``)."""
+    return spectra.sources[0].split("#", 1)[0] if len(spectra) else "<spectra>"
 
 
 def metadata_column_name(key: str, taken) -> str:

@@ -80,9 +80,14 @@ def _problem(arr) -> tuple[str, int | None] | None:
         from ..frames import arrow_call
 
         try:
-            ends = arrow_call("min_max", arr)
-            ends["min"].as_py()
-            ends["max"].as_py()
+            if types.is_duration(t):  # no min_max kernel for durations: their counts of the unit
+                ends = arrow_call("min_max", arr.cast(pa.int64()))
+                for end in ("min", "max"):
+                    pa.scalar(ends[end].as_py(), type=t).as_py()
+            else:
+                ends = arrow_call("min_max", arr)
+                ends["min"].as_py()
+                ends["max"].as_py()
         except (OverflowError, ValueError, pa.ArrowException):
             return kind, _bad_temporal_row(arr)
         return None

@@ -451,7 +451,7 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     # reader must not trust to set them)
     extra = [(k, v) for k, v in extra if not _own_key(k)]
     if meta.get("lumeval.scale", "unknown") != implied:
-        own["scale"] = meta["lumeval.scale"]
+        own["scale"] = meta.get("lumeval.scale", "unknown")  # (an archive says nothing of it)
         if meta.get("lumeval.value_unit"):
             own["value_unit"] = meta["lumeval.value_unit"]
     elif meta.get("lumeval.value_unit", mapped["SpectralQuantity"]) != mapped["SpectralQuantity"]:

@@ -1,0 +1,78 @@
+"""`lumeval convert` on archives a review found it mishandled (each case fails on 8f73ab8).
+
+Before: a Parquet archive with a ``SpectralQuantity`` column stopped the conversion to TM-27
+with an internal error (exit 3); a null, NaN or infinite value went into CSV or TM-27 as "nan"
+(which no lumeval reader takes) and stopped JSON with an internal error; a text file's stray
+``0,0`` row became a Parquet column "0" that every archive reader then refused; and a
+``duration`` metadata column made every reader refuse the archive (Arrow has no min/max kernel
+for durations, and its absence was taken for an out-of-range value). Behaviour checks: exit
+codes, messages, the files written or not, and the values read back.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from lumeval.spectra.read import read_spectra
+
+from .conftest import assert_clean_error, run_cli_in_process
+
+WL = np.arange(380.0, 781.0, 5.0)
+
+
+def _archive(path, n=2, **extra):
+    v = np.exp(-(((WL - 600) / 120.0) ** 2)) + 0.5 * np.exp(-(((WL - 450) / 15.0) ** 2))
+    cols = {"name": [f"s{i}" for i in range(n)], **extra}
+    cols.update({str(int(w)): [float(x) * (1 + 0.01 * i) for i in range(n)] for w, x in zip(WL, v)})
+    pq.write_table(pa.table(cols), path)
+    return path
+
+
+def test_an_archive_with_a_spectral_quantity_column_converts_to_tm27(tmp_path, capsys):
+    src = _archive(tmp_path / "a.parquet", n=1, SpectralQuantity=["relative"])
+    out = tmp_path / "a.xml"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    back = read_spectra(out)
+    np.testing.assert_array_equal(back.values, read_spectra(src).values)  # written exactly
+
+
+@pytest.mark.parametrize("bad, words", [(None, "missing (null or NaN)"), (float("nan"), "missing (null or NaN)"),
+                                        (float("inf"), "infinite (inf)")])
+@pytest.mark.parametrize("suffix", [".json", ".csv", ".xml", ".parquet"])
+def test_a_missing_or_infinite_value_is_refused_naming_the_row_and_wavelength(tmp_path, capsys, bad, words, suffix):
+    src = _archive(tmp_path / "a.parquet", n=2)
+    t = pq.read_table(src)
+    col = t.column("395").to_pylist()
+    col[1] = bad
+    pq.write_table(t.set_column(t.schema.get_field_index("395"), "395", pa.array(col, pa.float64())), src)
+    out = tmp_path / ("out" + suffix)
+    code, _, err = run_cli_in_process(["convert", src, out, *(["--column", "s1"] if suffix == ".xml" else [])], capsys)
+    assert_clean_error(code, err, "a.parquet#row 2", f"the value at 395 nm is {words}")
+    assert not out.exists()
+
+
+def test_a_row_at_0_nm_is_refused_for_an_archive_and_kept_in_csv(tmp_path, capsys):
+    src = tmp_path / "stray.csv"
+    src.write_text("wavelength (nm),lamp\n0,0\n" + "".join(f"{w:g},{0.5 + w / 1e4:.4f}\n" for w in WL), encoding="utf-8")
+    out = tmp_path / "stray.parquet"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert_clean_error(code, err, "stray.csv", "row at 0 nm", "convert to CSV or JSON")
+    assert not out.exists()
+    code, _, err = run_cli_in_process(["convert", src, tmp_path / "copy.csv"], capsys)
+    assert code == 0, err
+    assert read_spectra(tmp_path / "copy.csv").wavelengths_nm[0] == 0.0
+
+
+def test_a_duration_metadata_column_is_read(tmp_path, capsys):
+    src = _archive(tmp_path / "d.parquet", n=2, exposure=pa.array([1500, 2000], pa.duration("ms")))
+    code, out, err = run_cli_in_process(["convert", src, tmp_path / "d.json"], capsys)
+    assert code == 0, err
+    assert [m["exposure"] for m in read_spectra(tmp_path / "d.json").metadata] == ["0:00:01.500000", "0:00:02"]
+    # a duration beyond what Python holds (10^15 s > 999,999,999 days) is still refused, naming its row
+    big = _archive(tmp_path / "big.parquet", n=2, exposure=pa.array([5, 10**15], pa.duration("s")))
+    code, _, err = run_cli_in_process(["inspect", big], capsys)
+    assert_clean_error(code, err, "row 2", "'exposure' column holds a duration that cannot be shown")

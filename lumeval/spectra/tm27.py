@@ -55,6 +55,7 @@ HEADER_FIELDS = (
 )
 SD_FIELDS = ("SpectralQuantity", "ReflectionGeometry", "TransmissionGeometry", "BandwidthFWHM", "BandwidthCorrected")
 _ABSOLUTE_QUANTITIES = {"flux", "intensity", "irradiance", "radiance", "exitance"}
+_FIELD_KEYS = frozenset(f.lower() for f in (*HEADER_FIELDS, *SD_FIELDS))
 _KV_LINE = re.compile(r"^([^:\n]{1,80}?):\s?(.*)$")
 #: Namespace of the attributes in which lumeval's own writer records its fields (the spectrum's
 #: name, its scale and value unit) on a ``SpectralDistribution``. Only these attributes set
@@ -62,6 +63,14 @@ _KV_LINE = re.compile(r"^([^:\n]{1,80}?):\s?(.*)$")
 #: lumeval's fields.
 LUMEVAL_NS = "urn:lumeval:tm27"
 _OWN_FIELDS = ("name", "scale", "value_unit")
+
+
+def _field_key(key: str) -> bool:
+    """True for a key that names a TM-27 field (a header or spectral-distribution element, any
+    case, any spacing): a ``Comments`` line so keyed stays text of the comments, and never sets
+    or joins the field itself (``Description: …`` renamed the spectrum, ``SpectralQuantity: …``
+    set its scale; found by a review)."""
+    return "".join(key.split()).lower() in _FIELD_KEYS
 
 
 def _own_key(key: str) -> bool:
@@ -204,7 +213,7 @@ def _header_metadata(root, meta: dict[str, str]) -> None:
                 for ln in text.splitlines():
                     kv = _KV_LINE.match(ln)
                     if (kv and kv.group(1).strip() and not kv.group(1).strip().startswith(("http", "//"))
-                            and not _own_key(kv.group(1))):
+                            and not _own_key(kv.group(1)) and not _field_key(kv.group(1))):
                         _add(meta, kv.group(1).strip(), kv.group(2).strip())
                     else:
                         rest.append(ln)

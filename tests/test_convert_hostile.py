@@ -98,3 +98,16 @@ def test_csv_header_lines_carry_no_spreadsheet_formula(tmp_path, capsys):
         for cell in cells[1:]:
             assert not cell.lstrip(" ").startswith(FORMULA_START) or cell.strip() in ("-5", "+2.5e3"), (cells, cell)
     assert "# offsets: 1,-5,+2.5e3" in header  # numbers are no formulas: kept as they were
+
+
+def test_a_float_metadata_value_that_is_not_finite_is_no_value(tmp_path, capsys):
+    """A metadata column's NaN or inf (which no text or JSON number holds) is read as no value,
+    like a null: it was written as the text "None" into CSV, TM-27 and JSON, so Parquet -> JSON
+    -> Parquet turned a missing value into the text "None"."""
+    src = _archive(tmp_path / "f.parquet", n=3, temperature_C=[25.0, float("nan"), float("inf")])
+    code, _, err = run_cli_in_process(["convert", src, tmp_path / "f.json"], capsys)
+    assert code == 0, err
+    assert [m.get("temperature_C") for m in read_spectra(tmp_path / "f.json").metadata] == ["25.0", None, None]
+    code, _, err = run_cli_in_process(["convert", tmp_path / "f.json", tmp_path / "back.parquet"], capsys)
+    assert code == 0, err
+    assert pq.read_table(tmp_path / "back.parquet").column("temperature_C").to_pylist() == ["25.0", None, None]

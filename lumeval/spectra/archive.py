@@ -458,7 +458,10 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
     if row_metadata:
         rows = meta_tbl.to_pylist() if meta_tbl is not None else [{} for _ in names]
         keys = {k: _own_metadata_key(k) for k in (layout.metadata_columns if meta_tbl is not None else ())}
-        metas = tuple({"lumeval.format": "Parquet archive", **{keys[k]: json_safe(v) for k, v in r.items() if v is not None}}
+        # a null, and a float that is not finite (no text or JSON number holds it), is no value:
+        # the key is absent, as it is for a null (the text "None" was written for NaN)
+        metas = tuple({"lumeval.format": "Parquet archive",
+                       **{keys[k]: x for k, v in r.items() if (x := json_safe(v)) is not None}}
                       for r in rows)
     else:
         metas = ()

@@ -111,3 +111,20 @@ def test_a_float_metadata_value_that_is_not_finite_is_no_value(tmp_path, capsys)
     code, _, err = run_cli_in_process(["convert", tmp_path / "f.json", tmp_path / "back.parquet"], capsys)
     assert code == 0, err
     assert pq.read_table(tmp_path / "back.parquet").column("temperature_C").to_pylist() == ["25.0", None, None]
+
+
+def test_column_chooses_among_repeated_names_as_inspect_shows_them(tmp_path, capsys):
+    """Spectra named x, x, "x (2)": every command shows them as x, "x (2)", "x (2) (2)";
+    ``--column`` takes those names, so each spectrum can be chosen (it took the first of the two
+    x and could not reach the second; "x (2)" gave the third)."""
+    src = _archive(tmp_path / "d.parquet", n=3)
+    t = pq.read_table(src)
+    pq.write_table(t.set_column(0, "name", pa.array(["x", "x", "x (2)"])), src)
+    whole = read_spectra(src)
+    for k, shown in enumerate(["x", "x (2)", "x (2) (2)"]):
+        out = tmp_path / f"{k}.json"
+        code, _, err = run_cli_in_process(["convert", src, out, "--column", shown], capsys)
+        assert code == 0, err
+        one = read_spectra(out)
+        assert one.names == (shown,)
+        np.testing.assert_array_equal(one.values[0], whole.values[k])

@@ -224,6 +224,12 @@ def convert(src: str | Path, dst: str | Path, *, column: str | None = None, forc
     refuse_existing(dst_p, "OUT", force=force)
     spectra = read_spectra(src_p)
     if column is not None:
+        # the names as every other command shows them: a repeated name suffixed (" (2)"...), so
+        # that each spectrum can be chosen (the first of two spectra named alike was taken, the
+        # second could not be)
+        from ..spectra.read import unique_names
+
+        spectra = unique_names(spectra, {})
         matches = [i for i, n in enumerate(spectra.names) if n == column]
         if not matches:
             from .._paths import display_path

@@ -93,7 +93,7 @@ def test_csv_header_lines_carry_no_spreadsheet_formula(tmp_path, capsys):
     assert code == 0, err
     assert "with a ' before a piece after a comma that a spreadsheet would run as a formula" in " ".join(err.split())
     header = [line for line in out.read_text(encoding="utf-8").splitlines() if line.startswith("#")]
-    assert len(header) == 5
+    assert len(header) == 6 and header[0] == "# lumeval.scale: unknown"
     for cells in csv.reader(header):
         for cell in cells[1:]:
             assert not cell.lstrip(" ").startswith(FORMULA_START) or cell.strip() in ("-5", "+2.5e3"), (cells, cell)
@@ -128,3 +128,21 @@ def test_column_chooses_among_repeated_names_as_inspect_shows_them(tmp_path, cap
         one = read_spectra(out)
         assert one.names == (shown,)
         np.testing.assert_array_equal(one.values[0], whole.values[k])
+
+
+def test_an_archives_scale_stays_unknown_through_a_text_format(tmp_path, capsys):
+    """An archive without a lumeval.scale column is of unknown scale; a metadata column named
+    ``unit`` is the file's text. Converted to CSV, its "# unit: W/(m² nm)" line made the copy
+    absolute (illuminance reported in lux); JSON kept it unknown. Now the scale is written as it
+    was read, and JSON -> Parquet adds no scale column for an unknown scale."""
+    src = _archive(tmp_path / "u.parquet", n=1, unit=["W/(m² nm)"])
+    assert read_spectra(src).metadata[0]["lumeval.scale"] == "unknown"
+    for suffix in (".csv", ".json"):
+        out = tmp_path / ("u" + suffix)
+        code, _, err = run_cli_in_process(["convert", src, out], capsys)
+        assert code == 0, err
+        back = read_spectra(out)
+        assert back.metadata[0]["lumeval.scale"] == "unknown" and back.metadata[0]["unit"] == "W/(m² nm)"
+    code, _, err = run_cli_in_process(["convert", tmp_path / "u.json", tmp_path / "back.parquet"], capsys)
+    assert code == 0, err
+    assert pq.read_table(tmp_path / "back.parquet").schema.names[:2] == ["name", "unit"]

@@ -460,7 +460,10 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
         keys = {k: _own_metadata_key(k) for k in (layout.metadata_columns if meta_tbl is not None else ())}
         # a null, and a float that is not finite (no text or JSON number holds it), is no value:
         # the key is absent, as it is for a null (the text "None" was written for NaN)
-        metas = tuple({"lumeval.format": "Parquet archive",
+        # the scale is unknown unless a lumeval.scale column states it (as in a JSON document
+        # without one): said, so that a text output does not let a metadata line such as
+        # "unit: W/(m² nm)" decide it when read back (found by a review)
+        metas = tuple({"lumeval.format": "Parquet archive", "lumeval.scale": "unknown",
                        **{keys[k]: x for k, v in r.items() if (x := json_safe(v)) is not None}}
                       for r in rows)
     else:
@@ -630,6 +633,8 @@ def archive_table(spectra: SpectrumSet):
         for k in m:
             if k not in _DERIVED and k not in keys:
                 keys.append(k)
+    if all(m.get("lumeval.scale", "unknown") == "unknown" for m in spectra.metadata) and "lumeval.scale" in keys:
+        keys.remove("lumeval.scale")  # an archive's scale is unknown unless a column states it
     from ..frames import float_array, string_array  # from buffers: pa.array would import pandas
 
     cols = {NAME_COLUMN: string_array(pa, spectra.names)}

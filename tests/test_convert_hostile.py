@@ -146,3 +146,19 @@ def test_an_archives_scale_stays_unknown_through_a_text_format(tmp_path, capsys)
     code, _, err = run_cli_in_process(["convert", tmp_path / "u.json", tmp_path / "back.parquet"], capsys)
     assert code == 0, err
     assert pq.read_table(tmp_path / "back.parquet").schema.names[:2] == ["name", "unit"]
+
+
+def test_json_output_leaves_out_how_the_input_was_read(tmp_path, capsys):
+    """A CSV with wavelengths in µm is read in nm; its JSON copy kept "lumeval.wavelength_unit":
+    "µm" beside wavelengths in nm (every other writer leaves the keys describing how a file was
+    read out). Read back, the copy's wavelengths and unit are nm."""
+    wl = np.arange(380, 781, 5)
+    src = tmp_path / "um.csv"
+    src.write_text("wavelength (um),lamp\n" + "".join(f"{int(w) / 1000!r},{0.5 + int(w) / 1e4!r}\n" for w in wl), encoding="utf-8")
+    out = tmp_path / "um.json"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    assert "µm" not in out.read_text(encoding="utf-8") and "wavelength_unit" not in out.read_text(encoding="utf-8")
+    back = read_spectra(out)
+    np.testing.assert_allclose(back.wavelengths_nm, wl, rtol=0, atol=1e-9)  # µm -> nm by a float product
+    assert back.metadata[0]["lumeval.wavelength_unit"] == "nm"

@@ -30,7 +30,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from .model import SpectrumSet
+from .model import DERIVED_KEYS, SpectrumSet
 
 FORMAT = "lumeval.spectra"
 VERSION = 1
@@ -196,8 +196,6 @@ def read_json(path: str | Path) -> SpectrumSet:
     return parse_json(_read_bytes(path, MAX_JSON_BYTES), str(path))
 
 
-_DERIVED = ("lumeval.format", "lumeval.delimiter", "lumeval.column", "lumeval.tm27_version",
-            "lumeval.tm27_namespace")
 
 
 def to_json_bytes(spectra: SpectrumSet) -> bytes:
@@ -207,7 +205,9 @@ def to_json_bytes(spectra: SpectrumSet) -> bytes:
 
     items = []
     for i in range(len(spectra)):
-        meta = {str(k): str(v) for k, v in spectra.metadata[i].items() if k not in _DERIVED}
+        # keys describing how a file was read left out, as every writer does (the wavelength
+        # unit among them: the wavelengths written are in nm, and a stale "µm" stayed)
+        meta = {str(k): str(v) for k, v in spectra.metadata[i].items() if k not in DERIVED_KEYS}
         items.append(
             "  {" + f'"name": {dump(spectra.names[i])},\n   "metadata": {dump(meta)},\n'
             f'   "values": {dump([float(v) for v in spectra.values[i]])}' + "}"

@@ -27,9 +27,10 @@ limit that is unusual but possible (Ra ≥ 100, Rf ≥ 100, R9 ≥ −250, Rg �
 A maximum above such a bound is always met but not wrong (a clause may state the obvious), and
 Rg, the chroma and hue shifts and the other figures have no published bound: they are not
 checked (limits on a chroma shift Rcs,hj that look like fractions of a figure lumeval states in
-percent get a warning, :func:`percent_as_fraction`). The same rule applies wherever a figure clause sits, including a clause judged over a
-range of settings (``over``) and ``track_locus``'s ``max_abs_duv``; ``over`` itself is in the
-settings' own unit (K, %, mA) and is not checked here.
+percent get a warning, :func:`percent_as_fraction`). The same rule applies wherever a figure
+clause sits, including a clause judged over a range of settings (``over``) and
+``track_locus``'s ``max_abs_duv``; ``over`` itself is in the settings' own unit (K, %, mA) and
+is not checked here.
 
 A nominal CCT category written in quotes (``nominal_cct = "4000"``) is refused with the plain fix
 "write it without quotes" (:func:`quoted_category`) rather than "not a category".

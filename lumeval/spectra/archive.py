@@ -458,11 +458,11 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
     if row_metadata:
         rows = meta_tbl.to_pylist() if meta_tbl is not None else [{} for _ in names]
         keys = {k: _own_metadata_key(k) for k in (layout.metadata_columns if meta_tbl is not None else ())}
-        # a null, and a float that is not finite (no text or JSON number holds it), is no value:
-        # the key is absent, as it is for a null (the text "None" was written for NaN)
-        # the scale is unknown unless a lumeval.scale column states it (as in a JSON document
-        # without one): said, so that a text output does not let a metadata line such as
-        # "unit: W/(m² nm)" decide it when read back (found by a review)
+        # a null, or a float that is not finite (no text or JSON number holds it), is no value:
+        # the key is absent (NaN was written as the text "None"). The scale is unknown unless a
+        # lumeval.scale column states it, as in a JSON document without one, and it is said, so
+        # that a text output does not let a metadata line such as "unit: W/(m² nm)" decide it
+        # when read back (both found by a review)
         metas = tuple({"lumeval.format": "Parquet archive", "lumeval.scale": "unknown",
                        **{keys[k]: x for k, v in r.items() if (x := json_safe(v)) is not None}}
                       for r in rows)

@@ -196,8 +196,6 @@ def read_json(path: str | Path) -> SpectrumSet:
     return parse_json(_read_bytes(path, MAX_JSON_BYTES), str(path))
 
 
-
-
 def to_json_bytes(spectra: SpectrumSet) -> bytes:
     """Serialise ``spectra`` in lumeval's JSON format (exact round trip)."""
     def dump(x) -> str:

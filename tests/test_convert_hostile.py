@@ -162,3 +162,19 @@ def test_json_output_leaves_out_how_the_input_was_read(tmp_path, capsys):
     back = read_spectra(out)
     np.testing.assert_allclose(back.wavelengths_nm, wl, rtol=0, atol=1e-9)  # µm -> nm by a float product
     assert back.metadata[0]["lumeval.wavelength_unit"] == "nm"
+
+
+def test_the_formula_note_is_not_given_for_line_breaks_alone(tmp_path, capsys):
+    """A metadata key holding a line break (written as a space) is said to be written without
+    control characters, and nothing is said of formulas: the formula note counted it (its check
+    compared the guarded key with the value lines kept apart, found by re-reading the change)."""
+    import json
+
+    src = tmp_path / "k.json"
+    src.write_text(json.dumps({"format": "lumeval.spectra", "schema_version": 1, "wavelengths_nm": WL.tolist(),
+                               "spectra": [{"name": "a", "metadata": {"two\nline key": "v", "k": "line1\nline2"},
+                                            "values": (1.0 + WL / 1000).tolist()}]}), encoding="utf-8")
+    code, _, err = run_cli_in_process(["convert", src, tmp_path / "k.csv"], capsys)
+    assert code == 0, err
+    said = " ".join(err.split())
+    assert "1 metadata value(s) written without control characters" in said and "run as a formula" not in said

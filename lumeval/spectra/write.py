@@ -37,7 +37,7 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
     shared, _ = _csv_metadata(spectra)
     for k, v in shared.items():
         for vl in str(v).split("\n"):
-            lines.append(f"# {_csv_text(k)}: {_csv_text(vl)}")
+            lines.append(f"# {_formula_guard(_clean(k))}: {_formula_guard(_clean(vl))}")
     header = ["wavelength (nm)"] + [_quote(n) for n in spectra.names]
     lines.append(",".join(header))
     vals = np.asarray(spectra.values, dtype=float)
@@ -68,24 +68,24 @@ def _csv_metadata(spectra: SpectrumSet) -> tuple[dict, list[str]]:
 
 def _csv_value(s: str) -> str:
     """A metadata value as CSV's header lines hold it and a reader joins it back: each line of
-    it as :func:`_csv_text` writes it, the lines kept (one ``# key: line`` each)."""
-    return "\n".join(_csv_text(line) for line in str(s).split("\n"))
+    it cleaned (:func:`_clean`), the lines kept (one ``# key: line`` each); before a
+    spreadsheet's formula, :func:`_formula_guard` adds its ``'`` to each line."""
+    return "\n".join(_clean(line) for line in str(s).split("\n"))
 
 
 #: A piece of a line between commas that is a plain number (``-5``, ``+1.5e3``): no formula.
 _PLAIN_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
 
 
-def _csv_text(s: str) -> str:
-    """A metadata key or value line as a ``# key: value`` header line holds it: cleaned
-    (:func:`_clean`), and a ``'`` before each piece after a comma that a spreadsheet, which
-    splits the line into cells at its commas, would run as a formula (OWASP CSV injection: a
-    cell starting with = + - @, also after spaces or an opening quote); a plain number such as
-    ``-5`` is left as it is. The piece before the first comma is not at a cell's start (the line
-    starts with ``#``)."""
+def _formula_guard(line: str) -> str:
+    """A cleaned metadata key or value line (:func:`_clean`) as a ``# key: value`` header line
+    holds it: a ``'`` before each piece after a comma that a spreadsheet, which splits the line
+    into cells at its commas, would run as a formula (OWASP CSV injection: a cell starting with
+    = + - @, also after spaces or an opening quote); a plain number such as ``-5`` is left as it
+    is. The piece before the first comma is not at a cell's start (the line starts with ``#``)."""
     from ..render.safe import FORMULA_START
 
-    parts = _clean(s).split(",")
+    parts = line.split(",")
     for k in range(1, len(parts)):
         bare = parts[k].lstrip(' "')
         if bare.startswith(FORMULA_START) and not _PLAIN_NUMBER.fullmatch(parts[k].strip()):
@@ -168,7 +168,7 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
     text_as: Callable[[str], str] = _xml_text
     written = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
     if kind == "csv":
-        name_as, key_as, text_as = _csv_name, _csv_text, _csv_value
+        name_as, key_as, text_as = _csv_name, _clean, _csv_value
         shared, dropped = _csv_metadata(spectra)
         written = [shared]  # the one header block
     notes = []
@@ -177,16 +177,14 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
         old, new = changed[0]
         notes.append(f'{len(changed)} spectrum name(s) written as the format can hold them: "{clean(old)}" as '
                      f'"{clean(new)}"' + (" and others" if len(changed) > 1 else ""))
-    if kind == "xml":
-        altered = sum(1 for m in written for k, v in m.items() if key_as(str(k)) != str(k) or text_as(str(v)) != str(v))
-        guarded = 0
-    else:  # control characters left out (_clean), and formula-like pieces guarded (_csv_text)
-        def plain(x: str) -> str:
-            return "\n".join(_clean(line) for line in x.split("\n"))
+    altered = sum(1 for m in written for k, v in m.items() if key_as(str(k)) != str(k) or text_as(str(v)) != str(v))
+    guarded = 0
+    if kind == "csv":  # the formula guard on the cleaned lines (to_csv_bytes)
+        def guard(x: str) -> str:
+            return "\n".join(_formula_guard(line) for line in x.split("\n"))
 
-        altered = sum(1 for m in written for k, v in m.items() if plain(str(k)) != str(k) or plain(str(v)) != str(v))
         guarded = sum(1 for m in written for k, v in m.items()
-                      if key_as(str(k)) != plain(str(k)) or text_as(str(v)) != plain(str(v)))
+                      if guard(key_as(str(k))) != key_as(str(k)) or guard(text_as(str(v))) != text_as(str(v)))
     if altered:
         notes.append(f"{altered} metadata value(s) written " + ("without the characters XML cannot hold (control "
                      "characters)" if kind == "xml" else "without control characters"))

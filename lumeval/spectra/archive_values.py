@@ -76,20 +76,16 @@ def _problem(arr) -> tuple[str, int | None] | None:
             return "text", _bad_text_row(arr)
         return None
     if types.is_timestamp(t) or types.is_date(t) or types.is_duration(t):
-        kind = "duration" if types.is_duration(t) else "date"
+        duration = types.is_duration(t)
         from ..frames import arrow_call
 
         try:
-            if types.is_duration(t):  # no min_max kernel for durations: their counts of the unit
-                ends = arrow_call("min_max", arr.cast(pa.int64()))
-                for end in ("min", "max"):
-                    pa.scalar(ends[end].as_py(), type=t).as_py()
-            else:
-                ends = arrow_call("min_max", arr)
-                ends["min"].as_py()
-                ends["max"].as_py()
+            # (Arrow has no min_max kernel for durations: theirs over the counts of the unit)
+            ends = arrow_call("min_max", arr.cast(pa.int64()) if duration else arr)
+            for end in ("min", "max"):
+                (pa.scalar(ends[end].as_py(), type=t) if duration else ends[end]).as_py()
         except (OverflowError, ValueError, pa.ArrowException):
-            return kind, _bad_temporal_row(arr)
+            return "duration" if duration else "date", _bad_temporal_row(arr)
         return None
     return None
 

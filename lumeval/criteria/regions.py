@@ -531,11 +531,14 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
     terms = _polygon_terms(V)
     step = max(1, 1_000_000 // max(1, V.shape[1]))  # pairs at a time: (pairs, K) ≤ 1e6 elements
 
+    # the six terms of the polygons stacked (6, Q, K): one gather a step, not six, and each
+    # term of the gathered pairs contiguous (strided views took twice the time)
+    packed = np.ascontiguousarray(np.stack(np.broadcast_arrays(*terms)))
+
     def fill(pi: np.ndarray, qi: np.ndarray) -> None:  # the distances of the pairs (pi[j], qi[j])
         for s in range(0, pi.size, step):
             p, q = pi[s: s + step], qi[s: s + step]
-            ax, ay, ex, ey, L, sign = (t[q] for t in terms)
-            m[p, q] = _distances(ax, ay, ex, ey, L, sign, P[p, 0, None], P[p, 1, None])
+            m[p, q] = _distances(*np.take(packed, q, axis=1), P[p, 0, None], P[p, 1, None])
 
     first = np.flatnonzero(ok)
     fill(first, np.argmax(bound, axis=1)[first])
@@ -562,14 +565,29 @@ def _distances(ax, ay, ex, ey, L, sign, px, py) -> np.ndarray:
     arrays, broadcast together with the corners on the last axis (reduced): positive inside
     (the smallest distance to an edge line), negative outside (minus the distance to the
     nearest edge segment), zero on the boundary. Only elementwise operations and a min/all
-    over the corners: a (point, polygon) pair gives the same bits whatever is computed with it."""
+    over the corners: a (point, polygon) pair gives the same bits whatever is computed with it.
+    The reductions over the few corners are running minimums and conjunctions (numpy's
+    reductions along a short last axis cost ~30 ns a row: 2.3 of 2.9 ms for the ANSI category
+    of 2,048 samples, 2026-12-05); the distance to a segment is the square root of the sum of
+    squares (distances of order 0.01-1: no overflow; np.hypot, not vectorised, took 20 ns a
+    value)."""
     rx, ry = px - ax, py - ay
     cross = ex * ry - ey * rx
     line_d = sign * cross / L  # positive on the inner side of each edge
-    inside = np.all(line_d >= 0.0, axis=-1)
+    inside = _running(np.logical_and, line_d >= 0.0)
     t = np.clip((rx * ex + ry * ey) / (L**2), 0.0, 1.0)
-    seg_d = np.hypot(px - (ax + t * ex), py - (ay + t * ey)).min(axis=-1)
-    return np.where(inside, line_d.min(axis=-1), -seg_d)
+    dx, dy = px - (ax + t * ex), py - (ay + t * ey)
+    seg_d = _running(np.minimum, np.sqrt(dx * dx + dy * dy))
+    return np.where(inside, _running(np.minimum, line_d), -seg_d)
+
+
+def _running(op: np.ufunc, a: np.ndarray) -> np.ndarray:
+    """``op`` folded over the last axis of ``a`` (``np.minimum``: the same values as
+    ``a.min(axis=-1)``, NaN kept; ``np.logical_and``: ``np.all``), one vectorised pass a corner."""
+    out = np.array(a[..., 0])
+    for j in range(1, a.shape[-1]):
+        op(out, a[..., j], out=out)
+    return out
 
 
 # --------------------------------------------------------------------------- SDCM ellipses

@@ -538,7 +538,8 @@ def largest_signed_distance(vertices, points) -> tuple[np.ndarray, np.ndarray]:
     def fill(pi: np.ndarray, qi: np.ndarray) -> None:  # the distances of the pairs (pi[j], qi[j])
         for s in range(0, pi.size, step):
             p, q = pi[s: s + step], qi[s: s + step]
-            m[p, q] = _distances(*np.take(packed, q, axis=1), P[p, 0, None], P[p, 1, None])
+            ax, ay, ex, ey, L, sign = np.take(packed, q, axis=1)
+            m[p, q] = _distances(ax, ay, ex, ey, L, sign, P[p, 0, None], P[p, 1, None])
 
     first = np.flatnonzero(ok)
     fill(first, np.argmax(bound, axis=1)[first])

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import csv
 import io
+import sys
 import tracemalloc
 
 import numpy as np
@@ -81,6 +82,26 @@ def test_packed_text_equals_the_tuples_it_packs(monkeypatch):
                     assert packed[a:b:step] == plain[a:b:step], (a, b, step)
     ascii_names = TextColumn(["L1", "L22", "", "L333", "L4", "L55"])
     assert ascii_names[1:6] == ["L22", "", "L333", "L4", "L55"]  # the ASCII decoding of a range
+
+
+def test_packed_text_blocks_by_zlib_or_zstd_read_back_alike(monkeypatch):
+    """Full blocks are compressed by zstd through pyarrow when a run has imported it, else by
+    zlib (columns._pack); a column whose first blocks were packed before pyarrow was imported
+    and the others after reads back the strings it was given, either way."""
+    import pyarrow  # noqa: F401  (what an archive lot has imported)
+
+    names = [f"unit-{i:05d} é" if i % 3 else f"warning {i}" for i in range(40)]
+    monkeypatch.setattr(columns, "TEXT_BLOCK", 8)
+    with monkeypatch.context() as m:
+        m.delitem(sys.modules, "pyarrow")
+        t = TextColumn(names[:20])  # two full blocks by zlib
+    t.extend(names[20:])  # the others by zstd
+    kinds = [size < 0 for size, _ in t._blocks]
+    assert kinds == [True, True, False, False, False]
+    assert t == names and t[3:37] == names[3:37] and t[-1] == names[-1]
+    assert all(len(b) < 8 * 12 for _, b in t._blocks)  # compressed: smaller than the strings
+    w = TextTuples([(n,) for n in names])
+    assert w == [(n,) for n in names] and all(size >= 0 for size, _ in w._texts._blocks)
 
 
 def test_packed_text_goes_to_arrow_as_the_strings_it_packs(monkeypatch):

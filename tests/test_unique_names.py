@@ -34,3 +34,24 @@ def test_repeated_names_get_suffixes_and_notes_in_input_order():
     # the next set of the same run continues the count
     again = unique_names(_set(["a", "new"]), seen)
     assert again.names == ("a (4)", "new")
+
+
+def test_seen_names_gives_the_renaming_of_the_dict():
+    """A lot keeps its names in a SeenNames (a set, and suffix numbers only of repeated names):
+    batch after batch, the same names and notes as the dict, whether a batch is all new (the
+    fast path), repeats a name within itself (nothing of it may be kept by the fast path), or
+    meets names given before, including names that look like suffixed ones."""
+    from lumeval.spectra.read import SeenNames
+
+    rng = np.random.default_rng(3)
+    pool = [f"n{i}" for i in range(40)] + ["n1 (2)", "n2 (3)", "x", "x (2)"]
+    d: dict[str, int] = {}
+    s = SeenNames()
+    batches = [[f"fresh{i}" for i in range(30)], ["n1", "n1", "n2"], ["n1 (2)", "q"], ["x (2)", "x", "x"]]
+    batches += [list(rng.choice(pool, size=int(rng.integers(1, 25)))) for _ in range(60)]
+    for names in batches:
+        a = unique_names(_set(names), d)
+        b = unique_names(_set(names), s)
+        assert a.names == b.names and a.notes == b.notes, names
+        assert len(s) == len(d) and all(k in s and s[k] == v for k, v in d.items())
+    assert "never given" not in s

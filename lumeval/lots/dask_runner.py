@@ -169,11 +169,12 @@ def _short(exc: BaseException) -> str:
     return " ".join(str(exc).split())[:160] or type(exc).__name__
 
 
-def _unique_names(r, note_counts, seen: dict[str, int]):
+def _unique_names(r, note_counts, seen):
     """``r`` (a BatchResult) with the names made unique across the run, as a local run makes
     them (:func:`lumeval.spectra.read.unique_names` in input order): the renamed sample's note
     goes after its reading notes and before the computation's warnings, where a local run has
-    it (the local run renames before evaluating)."""
+    it (the local run renames before evaluating). ``seen``: the run's
+    :class:`lumeval.spectra.read.SeenNames`."""
     from ..spectra.read import renamed_names
 
     renamed = renamed_names(r.names, seen)
@@ -417,6 +418,7 @@ def _run_tasks(client, tasks, files, sample_criteria, batch, acc, bad_by_file, e
     from distributed import as_completed
 
     from ..errors import LumevalError
+    from ..spectra.read import SeenNames
 
     futures = {}
     for k, f, j, first_row, groups in tasks:
@@ -431,7 +433,7 @@ def _run_tasks(client, tasks, files, sample_criteria, batch, acc, bad_by_file, e
     done: dict[tuple[int, int], tuple] = {}
     used: set[int] = set()
     stopped: set[int] = set()
-    seen: dict[str, int] = {}
+    seen = SeenNames()
     for fut in as_completed(list(futures), loop=client.loop):
         k, j, first_row = futures[fut]
         if k in stopped:  # a later partition of a file that ended part-way: dropped, as locally

@@ -264,7 +264,7 @@ def run_lot(
                             nominal_xy=nominal_xy, batch_spectra=batch_spectra, progress=progress,
                             uncertainty=uncertainty)
     from ..spectra.archive import has_archive_suffix, no_rows_error
-    from ..spectra.read import unique_names
+    from ..spectra.read import SeenNames, unique_names
     from .streaming import LotAccumulator, archive_batches
 
     found = paths if isinstance(paths, LotInputs) else expand_inputs(paths)
@@ -276,7 +276,7 @@ def run_lot(
 
     expected = _expected_samples(files, archives)
     acc = LotAccumulator(expected, keep_evaluation=keep_evaluation)
-    seen_names: dict[str, int] = {}
+    seen_names = SeenNames()
     pending: list = []
     pending_n = 0
     done = 0

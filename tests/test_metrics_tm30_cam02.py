@@ -141,7 +141,7 @@ def test_powers_and_the_rf_scale_agree_with_numpys_direct_functions():
 
 
 def test_ces_table_is_sprague_interpolation_of_its_5nm_values():
-    """The CES 1 nm table as ``N @ A`` (lumeval.metrics.tm30.ces_interpolation), which the 1 nm
+    """The CES 1 nm table as ``N @ A`` (lumeval.metrics.ces.ces_interpolation), which the 1 nm
     TM-30 product uses to regroup its sum (``_ces_xyz``).
 
     Outside references: the table itself (colour-science 0.4.7's copy of the CIE 224:2017 1 nm

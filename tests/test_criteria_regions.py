@@ -407,6 +407,22 @@ def test_polygon_signed_distance_square():
     assert R.polygon_signed_distance(sq[::-1], pts)[:5] == pytest.approx(d[:5])
 
 
+def test_polygon_signed_distance_far_outside_stays_finite():
+    """Points so far away that the squares of their offsets overflow a float (beyond ~1e154):
+    the distance to the square is still that of the nearest corner or edge, by plain geometry
+    (the point (1e155, 0.5) is 1e155 − 1 from the edge x = 1; (2e154, 2e154) is √2·(2e154 − 1)
+    from the corner (1, 1), computed here by math.hypot)."""
+    import math
+
+    sq = np.array([[0, 0], [1, 0], [1, 1], [0, 1]], dtype=float)
+    pts = np.array([[1e155, 0.5], [2e154, 2e154], [0.5, 0.25]])
+    d = R.polygon_signed_distance(sq, pts)
+    assert np.all(np.isfinite(d))
+    np.testing.assert_allclose(d, [-(1e155 - 1.0), -math.hypot(2e154 - 1.0, 2e154 - 1.0), 0.25], rtol=1e-15)
+    k, best = R.largest_signed_distance(sq[None], pts)
+    np.testing.assert_allclose(best, d, rtol=1e-15)
+
+
 def test_ansi_category_margins_match_a_dense_trace_of_every_quadrangle():
     """ansi_category (all quadrangles in one vectorised pass) against plain geometry computed
     another way: the distance to 20,000 points traced along each quadrangle's boundary (the

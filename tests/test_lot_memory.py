@@ -88,7 +88,7 @@ def test_packed_text_blocks_by_zlib_or_zstd_read_back_alike(monkeypatch):
     """Full blocks are compressed by zstd through pyarrow when a run has imported it, else by
     zlib (columns._pack); a column whose first blocks were packed before pyarrow was imported
     and the others after reads back the strings it was given, either way."""
-    import pyarrow  # noqa: F401  (what an archive lot has imported)
+    import pyarrow  # what an archive lot has imported
 
     names = [f"unit-{i:05d} é" if i % 3 else f"warning {i}" for i in range(40)]
     monkeypatch.setattr(columns, "TEXT_BLOCK", 8)
@@ -102,6 +102,15 @@ def test_packed_text_blocks_by_zlib_or_zstd_read_back_alike(monkeypatch):
     assert all(len(b) < 8 * 12 for _, b in t._blocks)  # compressed: smaller than the strings
     w = TextTuples([(n,) for n in names])
     assert w == [(n,) for n in names] and all(size >= 0 for size, _ in w._texts._blocks)
+    # a pyarrow built without zstd: zlib
+    class NoZstd:
+        @staticmethod
+        def is_available(name):
+            return False
+
+    monkeypatch.setattr(pyarrow, "Codec", NoZstd)
+    z = TextColumn(names)
+    assert z == names and all(size < 0 for size, _ in z._blocks)
 
 
 def test_packed_text_goes_to_arrow_as_the_strings_it_packs(monkeypatch):

@@ -191,6 +191,9 @@ def test_ces_xyz_regrouped_equals_the_kernel_product(shift):
     wide = np.zeros((S.shape[0], 471))
     wide[:, 20:421] = S
     assert (np.abs(T._ces_xyz(wl, wide[:, 20:421], kernel) - got) / scale).max() <= 1e-15
+    # a kernel of other samples than the 99 CES is used as it is, on any grid
+    few = kernel[:, :30]
+    np.testing.assert_array_equal(T._ces_xyz(wl, S, few), (S @ few).reshape(S.shape[0], 10, 3))
     # the 5 nm grid keeps the kernel product itself
     wl5 = wl[::5]
     k5 = T._cfi_tables(wl5)[2]

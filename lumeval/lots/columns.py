@@ -98,7 +98,7 @@ def _pack(data: bytes | bytearray) -> tuple[int, bytes]:
     zlib, 0.24 ms by zstd, 41 and 54 times smaller; sources 0.41 and 0.12 ms (19 and 71 times);
     decompression 0.73 and 0.10 ms. pyarrow is not imported for this alone (0.1-0.2 s)."""
     pa = sys.modules.get("pyarrow")
-    if pa is not None and hasattr(pa, "Codec"):
+    if pa is not None and hasattr(pa, "Codec") and pa.Codec.is_available("zstd"):
         return len(data), pa.Codec("zstd", compression_level=1).compress(data, asbytes=True)
     return -1, zlib.compress(data, 1)
 

@@ -133,7 +133,7 @@ def _ces_xyz(wl: np.ndarray, S: np.ndarray, kernel: np.ndarray) -> np.ndarray:
     kernel: the same sum in another order (within a few units in the last place of the direct
     product; tests/test_metrics_tm30_cam02.py). Elsewhere (5 nm) the kernel product itself."""
     banded = _ces_banded_cached(np.ascontiguousarray(wl, dtype=float).tobytes())
-    if banded is None:
+    if banded is None or kernel.shape[1] != 3 * banded[1].shape[1]:  # (a kernel of other samples: itself)
         return mm(S, kernel).reshape(S.shape[0], -1, 3)  # (M, 99, 3)
     blocks, NT = banded
     n = S.shape[0]

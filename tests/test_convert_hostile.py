@@ -178,3 +178,36 @@ def test_the_formula_note_is_not_given_for_line_breaks_alone(tmp_path, capsys):
     assert code == 0, err
     said = " ".join(err.split())
     assert "1 metadata value(s) written without control characters" in said and "run as a formula" not in said
+
+
+def test_a_tsv_output_is_tab_separated_and_reads_back_exactly(tmp_path, capsys):
+    """``convert`` to a ``.tsv`` file writes tabs between the cells (it wrote commas: a
+    spreadsheet or any TSV reader saw one cell a line). Checked with Python's csv module (an
+    outside reader) in its tab dialect: every data row splits into the wavelength and one cell
+    per spectrum, names holding a comma or a quote come back whole, and lumeval reads the
+    file back to the same bits. A piece of a metadata line after a tab that a spreadsheet would
+    run as a formula gets its ' (the cells of a TSV line end at tabs, not commas)."""
+    import csv
+
+    src = tmp_path / "in.csv"
+    src.write_text('# operator: Jane\t=HYPERLINK("x")\n# site: a, =b\nwavelength (nm),"warm, 1","say ""hi""",cool\n'
+                   + "".join(f"{w:g},{0.5 + w / 1e4!r},{0.25},{1 + w / 1e3!r}\n" for w in WL.tolist()), encoding="utf-8")
+    out = tmp_path / "out.tsv"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    text = out.read_text(encoding="utf-8")
+    rows = [r for r in csv.reader(text.splitlines(), delimiter="\t") if r and not r[0].startswith("#")]
+    assert rows[0] == ["wavelength (nm)", "warm, 1", 'say "hi"', "cool"]
+    assert all(len(r) == 4 for r in rows[1:]) and len(rows) == 1 + WL.size
+    data = [line for line in text.splitlines() if line[:1].isdigit()]
+    assert len(data) == WL.size and not any("," in line for line in data)  # data rows: tabs only
+    assert "# operator: Jane\t'=HYPERLINK(\"x\")" in text and "# site: a, =b" in text  # commas split no cell here
+    assert "after a tab" in err
+    back, orig = read_spectra(out), read_spectra(src)
+    assert back.names == orig.names
+    np.testing.assert_array_equal(back.values, orig.values)
+    np.testing.assert_array_equal(back.wavelengths_nm, orig.wavelengths_nm)
+    # and a .csv output keeps its commas
+    code, _, err = run_cli_in_process(["convert", out, tmp_path / "again.csv"], capsys)
+    assert code == 0, err
+    assert (tmp_path / "again.csv").read_text(encoding="utf-8").splitlines()[-1].count(",") == 3

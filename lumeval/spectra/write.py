@@ -1,6 +1,7 @@
 """Write spectra as CSV, IES TM-27 XML or lumeval JSON, atomically.
 
-The output kind follows the file extension: ``.csv``/``.txt`` → CSV, ``.xml``/``.spdx`` →
+The output kind follows the file extension: ``.csv``/``.txt`` → CSV, ``.tsv`` → the same
+with tabs between the cells (kind ``"tsv"``), ``.xml``/``.spdx`` →
 IES TM-27-14 XML (one spectrum per file), ``.json`` → lumeval JSON, ``.parquet`` → a Parquet
 archive (:mod:`lumeval.spectra.archive`). Files are written by the one atomic writer,
 :func:`lumeval._io.atomic_output`: a reader never sees half a file and a failure leaves the old
@@ -19,15 +20,20 @@ from ..errors import UsageError
 from .model import DERIVED_KEYS as _DERIVED
 from .model import SpectrumSet
 
-CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
+CSV_SUFFIXES = {".csv", ".txt"}
+TSV_SUFFIXES = {".tsv"}
 XML_SUFFIXES = {".xml", ".spdx"}
 JSON_SUFFIXES = {".json"}
 PARQUET_SUFFIXES = {".parquet", ".parq", ".pq"}
 
+#: The cell separator of each delimited text kind (a ``.tsv`` file was written with commas).
+SEPARATORS = {"csv": ",", "tsv": "\t"}
 
 
-def to_csv_bytes(spectra: SpectrumSet) -> bytes:
+
+def to_csv_bytes(spectra: SpectrumSet, sep: str = ",") -> bytes:
     """Serialise as CSV: ``# key: value`` metadata lines, a header row, one row per wavelength.
+    ``sep``: the cell separator (``"\t"`` for a ``.tsv`` file).
 
     Numbers use Python's shortest round-trip repr, so reading the file back is exact.
     Metadata shared by every spectrum is written once; per-spectrum keys are written as
@@ -37,9 +43,9 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
     shared, _ = _csv_metadata(spectra)
     for k, v in shared.items():
         for vl in str(v).split("\n"):
-            lines.append(f"# {_formula_guard(_clean(k))}: {_formula_guard(_clean(vl))}")
-    header = ["wavelength (nm)"] + [_quote(n) for n in spectra.names]
-    lines.append(",".join(header))
+            lines.append(f"# {_formula_guard(_clean(k), sep)}: {_formula_guard(_clean(vl), sep)}")
+    header = ["wavelength (nm)"] + [_quote(n, sep) for n in spectra.names]
+    lines.append(sep.join(header))
     vals = np.asarray(spectra.values, dtype=float)
     wls = np.asarray(spectra.wavelengths_nm, dtype=float)
     if vals.size and np.isfinite(vals).all() and np.isfinite(wls).all():
@@ -47,10 +53,11 @@ def to_csv_bytes(spectra: SpectrumSet) -> bytes:
         # 1 nm, 8 million numbers, 3.6 -> 1.0 s)
         from ..render.number_text import number_rows
 
-        lines += number_rows(np.column_stack([wls, vals.T]))
+        rows = number_rows(np.column_stack([wls, vals.T]))  # (numbers hold no comma or tab)
+        lines += rows if sep == "," else [r.replace(",", sep) for r in rows]
     else:  # (a value that is not finite is written as repr writes it, e.g. "nan")
         for j, wl in enumerate(wls.tolist()):
-            lines.append(",".join([repr(wl)] + [repr(float(v)) for v in vals[:, j]]))
+            lines.append(sep.join([repr(wl)] + [repr(float(v)) for v in vals[:, j]]))
     return ("\n".join(lines) + "\n").encode("utf-8", errors="replace")
 
 
@@ -77,20 +84,21 @@ def _csv_value(s: str) -> str:
 _PLAIN_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
 
 
-def _formula_guard(line: str) -> str:
+def _formula_guard(line: str, sep: str = ",") -> str:
     """A cleaned metadata key or value line (:func:`_clean`) as a ``# key: value`` header line
-    holds it: a ``'`` before each piece after a comma that a spreadsheet, which splits the line
-    into cells at its commas, would run as a formula (OWASP CSV injection: a cell starting with
-    = + - @, also after spaces or an opening quote); a plain number such as ``-5`` is left as it
-    is. The piece before the first comma is not at a cell's start (the line starts with ``#``)."""
+    holds it: a ``'`` before each piece after a separator (``sep``: a comma, a tab in a TSV
+    file) that a spreadsheet, which splits the line into cells there, would run as a formula
+    (OWASP CSV injection: a cell starting with = + - @, also after spaces or an opening quote);
+    a plain number such as ``-5`` is left as it is. The piece before the first separator is not
+    at a cell's start (the line starts with ``#``)."""
     from ..render.safe import FORMULA_START
 
-    parts = line.split(",")
+    parts = line.split(sep)
     for k in range(1, len(parts)):
         bare = parts[k].lstrip(' "')
         if bare.startswith(FORMULA_START) and not _PLAIN_NUMBER.fullmatch(parts[k].strip()):
             parts[k] = "'" + parts[k]
-    return ",".join(parts)
+    return sep.join(parts)
 
 
 def _clean(s: str) -> str:
@@ -109,18 +117,20 @@ def _csv_name(name: str) -> str:
     return "'" + name if name.startswith(FORMULA_START) else name
 
 
-def _quote(name: str) -> str:
+def _quote(name: str, sep: str = ",") -> str:
     name = _csv_name(name)
-    if any(c in name for c in ',"') or name != name.strip():
+    if any(c in name for c in sep + '"') or name != name.strip():
         return '"' + name.replace('"', '""') + '"'
     return name
 
 
 def kind_for(path: str | Path) -> str:
-    """The output kind ('csv', 'xml', 'json', 'parquet') for ``path``'s extension."""
+    """The output kind ('csv', 'tsv', 'xml', 'json', 'parquet') for ``path``'s extension."""
     suffix = Path(path).suffix.lower()
     if suffix in CSV_SUFFIXES:
         return "csv"
+    if suffix in TSV_SUFFIXES:
+        return "tsv"
     if suffix in XML_SUFFIXES:
         return "xml"
     if suffix in JSON_SUFFIXES:
@@ -130,7 +140,7 @@ def kind_for(path: str | Path) -> str:
     raise UsageError(
         f"cannot tell the output format from the extension {suffix or '(none)'!r}",
         file=str(path),
-        fix="name the output .csv, .xml (IES TM-27), .json (lumeval JSON) or .parquet (archive)",
+        fix="name the output .csv (.tsv: tab-separated), .xml (IES TM-27), .json (lumeval JSON) or .parquet (archive)",
     )
 
 
@@ -160,14 +170,15 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
         return [f"{len(renamed)} metadata key(s) written under another column name, since a column so named would "
                 f'be read back as the names or as a wavelength: "{clean(renamed[0][0])}" as "{clean(renamed[0][1])}"'
                 + (" and others" if len(renamed) > 1 else "")]
-    if kind not in ("csv", "xml"):
+    if kind not in ("csv", "tsv", "xml"):
         return []
+    sep = SEPARATORS.get(kind, ",")
     dropped: list[str] = []
     name_as: Callable[[str], str] = _xml_text
     key_as: Callable[[str], str] = _xml_text
     text_as: Callable[[str], str] = _xml_text
     written = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
-    if kind == "csv":
+    if kind in SEPARATORS:
         name_as, key_as, text_as = _csv_name, _clean, _csv_value
         shared, dropped = _csv_metadata(spectra)
         written = [shared]  # the one header block
@@ -179,9 +190,9 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
                      f'"{clean(new)}"' + (" and others" if len(changed) > 1 else ""))
     altered = sum(1 for m in written for k, v in m.items() if key_as(str(k)) != str(k) or text_as(str(v)) != str(v))
     guarded = 0
-    if kind == "csv":  # the formula guard on the cleaned lines (to_csv_bytes)
+    if kind in SEPARATORS:  # the formula guard on the cleaned lines (to_csv_bytes)
         def guard(x: str) -> str:
-            return "\n".join(_formula_guard(line) for line in x.split("\n"))
+            return "\n".join(_formula_guard(line, sep) for line in x.split("\n"))
 
         guarded = sum(1 for m in written for k, v in m.items()
                       if guard(key_as(str(k))) != key_as(str(k)) or guard(text_as(str(v))) != text_as(str(v)))
@@ -189,16 +200,17 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
         notes.append(f"{altered} metadata value(s) written " + ("without the characters XML cannot hold (control "
                      "characters)" if kind == "xml" else "without control characters"))
     if guarded:
-        notes.append(f"{guarded} metadata value(s) written with a ' before a piece after a comma that a spreadsheet "
-                     "would run as a formula (it splits the header lines into cells at the commas)")
+        mark = "comma" if sep == "," else "tab"
+        notes.append(f"{guarded} metadata value(s) written with a ' before a piece after a {mark} that a spreadsheet "
+                     f"would run as a formula (it splits the header lines into cells at the {mark}s)")
     if dropped:
         shown = ", ".join(f'"{clean(k)}"' for k in dropped[:5]) + (" …" if len(dropped) > 5 else "")
-        notes.append(f"metadata that differs between the spectra is not kept in CSV (one header block): {shown} "
+        notes.append(f"metadata that differs between the spectra is not kept in {kind.upper()} (one header block): {shown} "
                      "— convert to .json or .parquet to keep it")
     # what the text formats' "key: value" lines read back otherwise (found by a review; the
     # values themselves stay exact): a key holding ": " or " = " splits there, and the spaces
     # around a key or a value are not kept
-    marks = (": ", " = ") if kind == "csv" else (": ",)  # TM-27's comment lines split at ": " only
+    marks = (": ", " = ") if kind in SEPARATORS else (": ",)  # TM-27's comment lines split at ": " only
     resplit = sorted({str(k) for m in written for k, v in m.items()
                       if any(x in str(k) for x in marks) or str(k) != str(k).strip() or str(v) != str(v).strip()})
     if resplit:
@@ -206,7 +218,7 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
                      f"{' or '.join(repr(x) for x in marks)} splits there; spaces around keys and values are not kept): "
                      f'"{clean(resplit[0])}"'
                      + (" and others" if len(resplit) > 1 else "") + " — convert to .json or .parquet to keep them")
-    if kind == "csv" and len(spectra) == 1:
+    if kind in SEPARATORS and len(spectra) == 1:
         from .text_header import _generic_value_name
 
         if _generic_value_name(name_as(spectra.names[0])):  # a heading such as "380" or "value" names no spectrum
@@ -216,9 +228,9 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
 
 
 def serialise(spectra: SpectrumSet, kind: str) -> bytes:
-    """Serialise ``spectra`` as ``kind`` ('csv', 'xml' or 'json')."""
-    if kind == "csv":
-        return to_csv_bytes(spectra)
+    """Serialise ``spectra`` as ``kind`` ('csv', 'tsv', 'xml', 'json' or 'parquet')."""
+    if kind in SEPARATORS:
+        return to_csv_bytes(spectra, SEPARATORS[kind])
     if kind == "json":
         from .jsonio import to_json_bytes
 

@@ -211,3 +211,21 @@ def test_a_tsv_output_is_tab_separated_and_reads_back_exactly(tmp_path, capsys):
     code, _, err = run_cli_in_process(["convert", out, tmp_path / "again.csv"], capsys)
     assert code == 0, err
     assert (tmp_path / "again.csv").read_text(encoding="utf-8").splitlines()[-1].count(",") == 3
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".xml"])
+def test_a_name_with_spaces_at_its_ends_is_noted_where_it_reads_back_without_them(tmp_path, capsys, suffix):
+    """A name such as " lamp A " (a Parquet archive or JSON keeps it) is written whole to CSV,
+    TSV and TM-27, whose readers strip a cell or an element: the name reads back as "lamp A",
+    and convert now says so (it said nothing). JSON keeps it and says nothing."""
+    src = _archive(tmp_path / "a.parquet", n=1)
+    t = pq.read_table(src)
+    pq.write_table(t.set_column(t.schema.get_field_index("name"), "name", pa.array([" lamp A "])), src)
+    out = tmp_path / ("out" + suffix)
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    assert read_spectra(out).names == ("lamp A",)
+    assert 'read back without the spaces at their ends: " lamp A "' in err
+    code, _, err = run_cli_in_process(["convert", src, tmp_path / "out.json"], capsys)
+    assert code == 0 and "note" not in err
+    assert read_spectra(tmp_path / "out.json").names == (" lamp A ",)

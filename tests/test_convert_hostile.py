@@ -229,3 +229,15 @@ def test_a_name_with_spaces_at_its_ends_is_noted_where_it_reads_back_without_the
     code, _, err = run_cli_in_process(["convert", src, tmp_path / "out.json"], capsys)
     assert code == 0 and "note" not in err
     assert read_spectra(tmp_path / "out.json").names == (" lamp A ",)
+
+
+def test_a_metadata_value_with_a_unicode_line_separator_survives_tm27(tmp_path, capsys):
+    """TM-27's Comments lines are cut at line ends only: a value holding U+2028 (LINE
+    SEPARATOR) or U+0085 (NEXT LINE), which XML 1.0 allows in text, was cut there by the
+    reader (str.splitlines), its tail read as a key of its own ("b: c" set b = c)."""
+    src = _archive(tmp_path / "a.parquet", n=1, note=["a\u2028b: c\u0085d"])
+    out = tmp_path / "a.xml"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    meta = read_spectra(out).metadata[0]
+    assert meta["note"] == "a\u2028b: c\u0085d" and "b" not in meta

@@ -210,7 +210,9 @@ def _header_metadata(root, meta: dict[str, str]) -> None:
                 continue
             if name == "Comments":
                 rest = []
-                for ln in text.splitlines():
+                # lines at "\n" only (the XML parser makes every line end one): splitlines also
+                # cut at U+2028, U+0085..., characters a value may hold (a review's find)
+                for ln in text.split("\n"):
                     kv = _KV_LINE.match(ln)
                     if (kv and kv.group(1).strip() and not kv.group(1).strip().startswith(("http", "//"))
                             and not _own_key(kv.group(1)) and not _field_key(kv.group(1))):

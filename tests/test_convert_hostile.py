@@ -241,3 +241,20 @@ def test_a_metadata_value_with_a_unicode_line_separator_survives_tm27(tmp_path, 
     assert code == 0, err
     meta = read_spectra(out).metadata[0]
     assert meta["note"] == "a\u2028b: c\u0085d" and "b" not in meta
+
+
+def test_a_time_of_day_in_nanoseconds_keeps_its_nanoseconds(tmp_path, capsys):
+    """A metadata column of Arrow type time64[ns] (a station's clock) read as a spectrum's
+    metadata: Python's datetime.time holds microseconds, and 12:34:56.123456789 was shown
+    and converted as 12:34:56.123456; now its text to the nanosecond (Arrow's own cast), the
+    same in JSON and CSV outputs, while a microsecond time keeps Python's form."""
+    ns = 45296123456789  # 12:34:56.123456789 in nanoseconds after midnight
+    src = _archive(tmp_path / "a.parquet", n=1, clock=pa.array([ns], pa.time64("ns")),
+                   clock_us=pa.array([ns // 1000], pa.time64("us")))
+    meta = read_spectra(src).metadata[0]
+    assert meta["clock"] == "12:34:56.123456789" and meta["clock_us"] == "12:34:56.123456"
+    for suffix in (".json", ".csv"):
+        out = tmp_path / ("out" + suffix)
+        code, _, err = run_cli_in_process(["convert", src, out], capsys)
+        assert code == 0, err
+        assert read_spectra(out).metadata[0]["clock"] == "12:34:56.123456789"

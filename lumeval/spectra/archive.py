@@ -39,7 +39,7 @@ import re
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -456,7 +456,7 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
         idx = [batch.schema.names.index(c) for c in layout.metadata_columns]
         meta_tbl = pa.Table.from_batches([batch.select(idx)])
     if row_metadata:
-        rows = meta_tbl.to_pylist() if meta_tbl is not None else [{} for _ in names]
+        rows = _python_rows(pa, meta_tbl) if meta_tbl is not None else [{} for _ in names]
         keys = {k: _own_metadata_key(k) for k in (layout.metadata_columns if meta_tbl is not None else ())}
         # a null, or a float that is not finite (no text or JSON number holds it), is no value:
         # the key is absent (NaN was written as the text "None"). The scale is unknown unless a
@@ -470,6 +470,16 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
         metas = ()
     s = SpectrumSet(layout.wavelengths_nm, values, tuple(names), tuple(sources), (), metas)
     return ArchiveBatch(s, meta_tbl, first_row)
+
+
+def _python_rows(pa, tbl) -> list[dict]:
+    """The rows of the metadata table ``tbl`` as Python dicts (``Table.to_pylist``), a time of
+    day in nanoseconds as its text to the nanosecond (``"12:34:56.123456789"``, Arrow's cast):
+    Python's ``datetime.time`` holds microseconds and dropped the rest (found by a review)."""
+    for j, f in enumerate(tbl.schema):
+        if pa.types.is_time64(f.type) and f.type.unit == "ns":
+            tbl = tbl.set_column(j, f.name, tbl.column(j).cast(pa.string()))
+    return cast(list, tbl.to_pylist())
 
 
 def _own_metadata_key(column: str) -> str:

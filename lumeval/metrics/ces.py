@@ -42,7 +42,6 @@ def ces_reflectances(wavelengths_nm: ArrayLike) -> np.ndarray:
     return R[:, idx]
 
 
-
 def _ces_cmf_kernel(R: np.ndarray, cmf10: np.ndarray) -> np.ndarray:
     """(W, 99·3) kernel K[w, 3i + c] = R_i(w) · cmf_c(w): XYZ of the 99 CES in one product."""
     return cast("np.ndarray", (R.T[:, :, None] * cmf10[:, None, :]).reshape(R.shape[1], -1))
@@ -82,9 +81,9 @@ def ces_interpolation() -> tuple[np.ndarray, np.ndarray] | None:
     The 1 nm CES of CIE 224:2017 (colour-science's copy) are a linear interpolation of the
     values every 5 nm: the table has rank 81 (the 82nd singular value is 2·10⁻¹⁶ of the first),
     and each 1 nm value is a fixed combination of at most six neighbouring 5 nm values with
-    coefficients that are multiples of 1/625, inside the range those of Sprague's formula as
-    given by CIE 167:2005 (0.0128, −0.0976, 0.9344, 0.1744, −0.0256, 0.0016 one fifth of the
-    way; tests/test_metrics_tm30_cam02.py). A is found from the table itself (least squares,
+    coefficients that are multiples of 1/625: between 390 and 770 nm those of Sprague's formula
+    as CIE 167:2005 gives it (0.0128, −0.0976, 0.9344, 0.1744, −0.0256, 0.0016 one fifth of the
+    way), in the first and last two intervals another end rule (tests/test_metrics_tm30_cam02.py). A is found from the table itself (least squares,
     then each coefficient rounded to its multiple of 1/625) and checked against the table: no
     coefficient is typed in here.
     """

@@ -258,3 +258,69 @@ def test_a_time_of_day_in_nanoseconds_keeps_its_nanoseconds(tmp_path, capsys):
         code, _, err = run_cli_in_process(["convert", src, out], capsys)
         assert code == 0, err
         assert read_spectra(out).metadata[0]["clock"] == "12:34:56.123456789"
+
+
+@pytest.mark.parametrize("suffix, value", [(".tsv", 'a\t"b'), (".csv", 'a,"b'), (".csv", 'a, "b')])
+def test_a_quote_after_a_separator_in_a_metadata_line_does_not_swallow_the_file(tmp_path, capsys, suffix, value):
+    """A metadata value whose piece after a separator starts with a quote: Python's csv module
+    (an outside reader, on the file object) took it for a quoted cell and read on to the end of
+    the file, two rows in all. Now such a piece gets a ' as a formula start does, with the
+    note, and the reader sees the metadata lines, the header and one row per wavelength."""
+    import csv
+
+    src = _archive(tmp_path / "a.parquet", n=2, note=[value, value])
+    out = tmp_path / ("out" + suffix)
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    with open(out, newline="", encoding="utf-8") as f:
+        rows = list(csv.reader(f, delimiter="\t" if suffix == ".tsv" else ","))
+    assert len(rows) == sum(1 for r in rows if r and r[0].startswith("#")) + 1 + WL.size
+    assert rows[-1][0] == "780.0" and len(rows[-1]) == 3
+    assert "quoted cell" in err
+    np.testing.assert_array_equal(read_spectra(out).values, read_spectra(src).values)
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".xml"])
+def test_spaces_at_the_ends_of_a_line_of_a_metadata_value_are_noted(tmp_path, capsys, suffix):
+    """A value of several lines, one of which starts with a space ("a\\n b"): the readers strip
+    each line, so it reads back "a\\nb"; the note on spaces now looks at every line (it looked
+    at the whole value only, and said nothing)."""
+    src = _archive(tmp_path / "a.parquet", n=1, note=["a\n b"])
+    out = tmp_path / ("out" + suffix)
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    assert read_spectra(out).metadata[0]["note"] == "a\nb"
+    assert 'read back otherwise' in err and '"note"' in err
+
+
+def test_tm27_metadata_with_carriage_returns_and_broken_keys_reads_back_as_noted(tmp_path, capsys):
+    """TM-27 Comments lines: a lone carriage return in a value ("a\\rb: c") was written as it
+    was, and the XML parser ended a line there: "b" became a key of its own; a key holding a
+    line break ("x\\ny") was read back as a comment and a key "y". Now the CR is written as a
+    line break (the value reads back "a\\nb: c") and the key's break as a space ("x y"), with
+    the note saying so."""
+    src = _archive(tmp_path / "a.parquet", n=1, note=["a\rb: c"], **{"x\ny": ["v"]})
+    out = tmp_path / "a.xml"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    meta = read_spectra(out).metadata[0]
+    assert meta["note"] == "a\nb: c" and "b" not in meta
+    assert meta["x y"] == "v" and "y" not in meta
+    assert "a line break in a key as a space, a carriage return as a line break" in err
+
+
+def test_times_in_nanoseconds_read_alike_in_lists_and_in_lot_outputs(tmp_path, capsys):
+    """time64[ns] inside a list keeps its nanoseconds as a top-level one does; a lot's
+    per-sample CSV and JSON show the same text as inspect and convert (they showed
+    12:34:56.123456)."""
+    ns = 45296123456789
+    src = _archive(tmp_path / "a.parquet", n=2, clock=pa.array([ns, ns], pa.time64("ns")),
+                   clocks=pa.array([[ns, None], None], pa.list_(pa.time64("ns"))))
+    meta = read_spectra(src).metadata[0]
+    assert meta["clock"] == "12:34:56.123456789" and "12:34:56.123456789" in meta["clocks"]
+    code, _, err = run_cli_in_process(["lot", src, "--samples-csv", tmp_path / "s.csv", "--json", tmp_path / "l.json",
+                                       "--quiet"], capsys)
+    assert code == 0, err
+    for f in ("s.csv", "l.json"):
+        text = (tmp_path / f).read_text(encoding="utf-8")
+        assert text.count("12:34:56.123456789") >= 2 and "12:34:56.123456," not in text and '12:34:56.123456"' not in text

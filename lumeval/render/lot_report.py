@@ -291,6 +291,9 @@ def _metadata_values(run, start: int = 0, length: int | None = None) -> list[tup
         return []
     if start or length is not None:
         tbl = tbl.slice(start, length)
+    from ..spectra.archive import nanosecond_times_as_text
+
+    tbl = nanosecond_times_as_text(tbl)  # the text inspect and convert show
     return [(name, tbl.column(name).to_pylist()) for name in tbl.column_names]
 
 

@@ -473,13 +473,39 @@ def _batch_from_record(batch, layout: Layout, file: str, first_row: int, row_met
 
 
 def _python_rows(pa, tbl) -> list[dict]:
-    """The rows of the metadata table ``tbl`` as Python dicts (``Table.to_pylist``), a time of
-    day in nanoseconds as its text to the nanosecond (``"12:34:56.123456789"``, Arrow's cast):
-    Python's ``datetime.time`` holds microseconds and dropped the rest (found by a review)."""
+    """The rows of the metadata table ``tbl`` as Python dicts (``Table.to_pylist``), through
+    :func:`nanosecond_times_as_text`."""
+    return cast(list, nanosecond_times_as_text(tbl).to_pylist())
+
+
+def nanosecond_times_as_text(tbl):
+    """``tbl`` (an Arrow table) with every time of day in nanoseconds (time64[ns], also inside
+    lists and structs) as its text to the nanosecond (``"12:34:56.123456789"``, Arrow's cast):
+    Python's ``datetime.time``, which ``to_pylist`` gives, holds microseconds and dropped the
+    rest (found by a review). Every reader of archive metadata as Python values goes through
+    this, so that inspect, convert and a lot's outputs show the same text."""
+    pa, _ = _pa()
+
+    def texts(t):
+        if pa.types.is_time64(t) and t.unit == "ns":
+            return pa.string()
+        if pa.types.is_list(t) or pa.types.is_large_list(t) or pa.types.is_fixed_size_list(t):
+            v = texts(t.value_type)
+            if v == t.value_type:
+                return t
+            return (pa.large_list(v) if pa.types.is_large_list(t) else pa.list_(v, t.list_size)
+                    if pa.types.is_fixed_size_list(t) else pa.list_(v))
+        if pa.types.is_struct(t):
+            fields = [t.field(i) for i in range(t.num_fields)]
+            new = [f.with_type(texts(f.type)) for f in fields]
+            return t if all(a.type == b.type for a, b in zip(fields, new)) else pa.struct(new)
+        return t
+
     for j, f in enumerate(tbl.schema):
-        if pa.types.is_time64(f.type) and f.type.unit == "ns":
-            tbl = tbl.set_column(j, f.name, tbl.column(j).cast(pa.string()))
-    return cast(list, tbl.to_pylist())
+        t = texts(f.type)
+        if t != f.type:
+            tbl = tbl.set_column(j, f.name, tbl.column(j).cast(t))
+    return tbl
 
 
 def _own_metadata_key(column: str) -> str:

@@ -423,6 +423,19 @@ def _xml_text(s: str) -> str:
     return _XML_INVALID.sub("", str(s))
 
 
+def _xml_key(s: str) -> str:
+    """A metadata key as a ``Comments`` line holds it: :func:`_xml_text`, a line break as a
+    space (a key "x\ny" was written across two lines, read back as a comment and a key "y")."""
+    return re.sub(r"\r\n|\r|\n", " ", _xml_text(s))
+
+
+def _xml_value(s: str) -> str:
+    """A metadata value as ``Comments`` lines hold it: :func:`_xml_text`, a carriage return
+    (alone or before a line feed) as a line feed; the XML parser ends a line there anyway, and
+    a lone CR written as it was let the text after it be read as a key of its own."""
+    return re.sub(r"\r\n|\r", "\n", _xml_text(s))
+
+
 def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     """Serialise spectrum ``index`` of ``spectra`` as an IES TM-27-14 XML document.
 
@@ -433,7 +446,7 @@ def to_tm27_bytes(spectra: SpectrumSet, index: int = 0) -> bytes:
     """
     import xml.etree.ElementTree as ET
 
-    meta = {_xml_text(k): _xml_text(v) for k, v in spectra.metadata[index].items()}
+    meta = {_xml_key(k): _xml_value(v) for k, v in spectra.metadata[index].items()}
     mapped: dict[str, str] = {}
     extra: list[tuple[str, str]] = []
     for k, v in meta.items():

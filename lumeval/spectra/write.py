@@ -80,6 +80,9 @@ def _csv_value(s: str) -> str:
     return "\n".join(_clean(line) for line in str(s).split("\n"))
 
 
+#: A line break as the text readers take one (CR LF, CR or LF).
+_LINE_BREAK = re.compile(r"\r\n|\r|\n")
+
 #: A piece of a line between commas that is a plain number (``-5``, ``+1.5e3``): no formula.
 _PLAIN_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
 
@@ -88,15 +91,18 @@ def _formula_guard(line: str, sep: str = ",") -> str:
     """A cleaned metadata key or value line (:func:`_clean`) as a ``# key: value`` header line
     holds it: a ``'`` before each piece after a separator (``sep``: a comma, a tab in a TSV
     file) that a spreadsheet, which splits the line into cells there, would run as a formula
-    (OWASP CSV injection: a cell starting with = + - @, also after spaces or an opening quote);
-    a plain number such as ``-5`` is left as it is. The piece before the first separator is not
-    at a cell's start (the line starts with ``#``)."""
+    (OWASP CSV injection: a cell starting with = + - @, also after spaces or an opening quote),
+    or that starts with a quote (a CSV reader takes it for a quoted cell and reads on to the
+    next quote, the rest of the file: found by a review); a plain number such as ``-5`` is left
+    as it is. The piece before the first separator is not at a cell's start (the line starts
+    with ``#``)."""
     from ..render.safe import FORMULA_START
 
     parts = line.split(sep)
     for k in range(1, len(parts)):
         bare = parts[k].lstrip(' "')
-        if bare.startswith(FORMULA_START) and not _PLAIN_NUMBER.fullmatch(parts[k].strip()):
+        quoted = parts[k].lstrip(" ").startswith('"')
+        if quoted or (bare.startswith(FORMULA_START) and not _PLAIN_NUMBER.fullmatch(parts[k].strip())):
             parts[k] = "'" + parts[k]
     return sep.join(parts)
 
@@ -152,7 +158,7 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
     metadata key that would be read back as the names or a wavelength (written as ``meta:KEY``).
     JSON keeps every name and metadata value."""
     from ..render.safe import clean
-    from .tm27 import _xml_text
+    from .tm27 import _xml_key, _xml_text, _xml_value
 
     if kind == "parquet":
         from .archive import NAME_COLUMN, metadata_column_name
@@ -175,8 +181,8 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
     sep = SEPARATORS.get(kind, ",")
     dropped: list[str] = []
     name_as: Callable[[str], str] = _xml_text
-    key_as: Callable[[str], str] = _xml_text
-    text_as: Callable[[str], str] = _xml_text
+    key_as: Callable[[str], str] = _xml_key
+    text_as: Callable[[str], str] = _xml_value
     written = [{k: v for k, v in m.items() if k not in _DERIVED} for m in spectra.metadata]
     if kind in SEPARATORS:
         name_as, key_as, text_as = _csv_name, _clean, _csv_value
@@ -204,11 +210,13 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
                       if guard(key_as(str(k))) != key_as(str(k)) or guard(text_as(str(v))) != text_as(str(v)))
     if altered:
         notes.append(f"{altered} metadata value(s) written " + ("without the characters XML cannot hold (control "
-                     "characters)" if kind == "xml" else "without control characters"))
+                     "characters; a line break in a key as a space, a carriage return as a line break)"
+                     if kind == "xml" else "without control characters"))
     if guarded:
         mark = "comma" if sep == "," else "tab"
         notes.append(f"{guarded} metadata value(s) written with a ' before a piece after a {mark} that a spreadsheet "
-                     f"would run as a formula (it splits the header lines into cells at the {mark}s)")
+                     f"would run as a formula or a CSV reader take for a quoted cell (they split the header lines into "
+                     f"cells at the {mark}s)")
     if dropped:
         shown = ", ".join(f'"{clean(k)}"' for k in dropped[:5]) + (" …" if len(dropped) > 5 else "")
         notes.append(f"metadata that differs between the spectra is not kept in {kind.upper()} (one header block): {shown} "
@@ -218,10 +226,12 @@ def conversion_notes(spectra: SpectrumSet, kind: str) -> list[str]:
     # around a key or a value are not kept
     marks = (": ", " = ") if kind in SEPARATORS else (": ",)  # TM-27's comment lines split at ": " only
     resplit = sorted({str(k) for m in written for k, v in m.items()
-                      if any(x in str(k) for x in marks) or str(k) != str(k).strip() or str(v) != str(v).strip()})
+                      if any(x in str(k) for x in marks) or str(k) != str(k).strip()
+                      or any(line != line.strip() for line in _LINE_BREAK.split(str(v)))})  # each line's ends
     if resplit:
         notes.append(f"{len(resplit)} metadata key(s) read back otherwise (a key holding "
-                     f"{' or '.join(repr(x) for x in marks)} splits there; spaces around keys and values are not kept): "
+                     f"{' or '.join(repr(x) for x in marks)} splits there; spaces around keys and around each line of a "
+                     "value are not kept): "
                      f'"{clean(resplit[0])}"'
                      + (" and others" if len(resplit) > 1 else "") + " — convert to .json or .parquet to keep them")
     if kind in SEPARATORS and len(spectra) == 1:

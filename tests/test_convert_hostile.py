@@ -324,3 +324,18 @@ def test_times_in_nanoseconds_read_alike_in_lists_and_in_lot_outputs(tmp_path, c
     for f in ("s.csv", "l.json"):
         text = (tmp_path / f).read_text(encoding="utf-8")
         assert text.count("12:34:56.123456789") >= 2 and "12:34:56.123456," not in text and '12:34:56.123456"' not in text
+
+
+def test_a_long_name_beside_another_description_survives_tm27(tmp_path, capsys):
+    """A spectrum whose Description metadata differs from its name has its name written as
+    lumeval's own attribute; the reader cut that attribute at 200 characters (a 300-character
+    name came back cut, with no note). The Description element was never cut, nor is the name now."""
+    name = "lamp " + "x" * 295
+    src = _archive(tmp_path / "a.parquet", n=1, Description=["a bench lamp"])
+    t = pq.read_table(src)
+    pq.write_table(t.set_column(t.schema.get_field_index("name"), "name", pa.array([name])), src)
+    out = tmp_path / "a.xml"
+    code, _, err = run_cli_in_process(["convert", src, out], capsys)
+    assert code == 0, err
+    back = read_spectra(out)
+    assert back.names == (name,) and back.metadata[0]["Description"] == "a bench lamp"

@@ -257,7 +257,9 @@ def _distribution(
             if field == "scale" and v not in {"absolute", "relative", "unknown"}:
                 raise InputError(f"lumeval scale attribute {v[:30]!r} is not absolute, relative or unknown",
                                  file=file, line=lines.get(id(sd)), fix="remove the attribute or correct it")
-            m[f"lumeval.{field}"] = v.strip()[:200]
+            # the name whole, as the Description element gives it (cut at 200 characters, a
+            # long name written here came back cut, without a word: found by a review)
+            m[f"lumeval.{field}"] = v.strip() if field == "name" else v.strip()[:200]
     if len(wls) < 2:
         raise InputError(
             f"the SpectralDistribution holds {len(wls)} SpectralData element(s)",

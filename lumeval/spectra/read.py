@@ -146,7 +146,8 @@ class SeenNames:
     (``name -> the last suffix number given``): a set of the names, and the suffix numbers only
     of names given more than once. A lot of 10^6 samples checks each batch of new names at C
     speed (:meth:`add_if_new`): measured 134 against about 400 ns a name with the dict
-    (2026-12-05), whose 10^6 entries also held 40 MB more."""
+    (2026-12-05); the memory is about the same (the set of 10^6 names 34 MB, the dict 31 MB,
+    the names themselves apart)."""
 
     __slots__ = ("_last", "_names")
 

@@ -30,3 +30,19 @@ def command_line() -> str:
     import sys
 
     return " ".join(["lumeval", *map(display_path, sys.argv[1:])])
+
+
+def source_file(source: str) -> str:
+    """The file a spectrum's source names. A source is ``FILE`` or ``FILE#LOCATOR`` (a column's
+    name or number, ``row N``), and a file name may itself hold ``#`` (``lot#3.csv#2``): the
+    longest part before a ``#`` that is an existing file, the whole source if it is one, else
+    the part before the first ``#`` (the file no longer there or never one: messages only).
+    Splitting at the first ``#`` named ``lot`` for ``lot#3.csv`` (found by a review)."""
+    text = str(source)
+    if "#" not in text or os.path.isfile(text):
+        return text
+    cut = len(text)
+    while (cut := text.rfind("#", 0, cut)) > 0:
+        if os.path.isfile(text[:cut]):
+            return text[:cut]
+    return text.partition("#")[0]

@@ -78,10 +78,13 @@ def package_versions() -> tuple[tuple[str, str], ...]:
 
 
 def input_paths_from_sources(sources) -> list[str]:
-    """Unique file paths from SpectrumSet ``sources`` (``file`` or ``file#column``), in order."""
+    """Unique file paths from SpectrumSet ``sources`` (``file`` or ``file#column``; a file name
+    may hold ``#``: :func:`lumeval._paths.source_file`), in order."""
+    from .._paths import source_file
+
     seen: dict[str, None] = {}
     for s in sources:
-        p = str(s).split("#", 1)[0]
+        p = source_file(s)
         if p and p not in seen:
             seen[p] = None
     return list(seen)

@@ -190,7 +190,10 @@ def _short(source: str) -> str:
     """A spectrum's source without its folders (``dir/a.csv#col`` -> ``a.csv#col``)."""
     import os
 
-    return os.path.basename(str(source).partition("#")[0]) + ("#" + str(source).partition("#")[2] if "#" in str(source) else "")
+    from .._paths import source_file
+
+    file = source_file(source)  # (a file or folder name may hold "#")
+    return os.path.basename(file) + str(source)[len(file):]
 
 
 def _notes(report) -> list[str]:

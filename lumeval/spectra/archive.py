@@ -689,7 +689,9 @@ def archive_table(spectra: SpectrumSet):
 
 def _first_source(spectra: SpectrumSet) -> str:
     """The file the spectra were read from, for a message (their first source, without ``#...``)."""
-    return spectra.sources[0].split("#", 1)[0] if len(spectra) else "<spectra>"
+    from .._paths import source_file
+
+    return source_file(spectra.sources[0]) if len(spectra) else "<spectra>"
 
 
 def metadata_column_name(key: str, taken) -> str:

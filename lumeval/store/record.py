@@ -223,12 +223,12 @@ def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | 
     ident_s = {str(k): (v if isinstance(v, (str, int, float, bool)) or v is None else str(v)) for k, v in ident.items()}
     import os
 
-    from .._paths import display_path
+    from .._paths import display_path, source_file
 
     if input_files is None:
         # the opened paths, not the samples' sources: a source is the printable name (a file
         # name's undecodable bytes shown as U+FFFD) and may hold "#" (FILE#column)
-        input_files = list(getattr(run, "read_paths", ()) or ()) or sorted({src.split("#", 1)[0] for src in run.sources})
+        input_files = list(getattr(run, "read_paths", ()) or ()) or sorted({source_file(src) for src in run.sources})
     inputs = []
     for p in sorted(set(input_files), key=display_path):
         inputs.append((display_path(p), sha256_of(p), os.path.getsize(p)))

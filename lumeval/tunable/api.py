@@ -24,6 +24,7 @@ from typing import Any
 
 import numpy as np
 
+from .._paths import source_file
 from ..errors import FINITE_FIX, InputError, UsageError, finite_float, quote, shown
 
 #: Where a series takes its settings from.
@@ -323,7 +324,7 @@ def _refuse_other_written_unit(unit: str, units: list, sources: list, how: str, 
         if u and _unit_word(u) != _unit_word(unit):
             where = {"name": "file (or column) name", "metadata": f"metadata field {key!r}"}.get(how, "entry")
             raise InputError(f"the {where} writes the setting in {quote(u)} but --unit gives {quote(unit)}",
-                             file=str(src).partition("#")[0] or None,
+                             file=source_file(src) or None,
                              fix="drop --unit, or give the unit written with the settings")
 
 
@@ -342,7 +343,7 @@ def _refuse_negative_settings(values: list, unit: str, sources: list, written_at
     for v, src, at in zip(values, sources, written_at):
         if v < 0:
             what = {"K": "a CCT", "%": "a dimming level", "mA": "a drive current", "A": "a drive current"}[u]
-            file, line = at if at is not None else (str(src).partition("#")[0] or None, None)
+            file, line = at if at is not None else (source_file(src) or None, None)
             raise InputError(f"the setting of {quote(src)} is {v:g} {u}, but {what} cannot be negative",
                              file=str(file) if file is not None else None, line=line,
                              fix="write the setting as measured (0 or more)")

@@ -57,6 +57,7 @@ from typing import Any
 
 import numpy as np
 
+from .._paths import source_file
 from ..errors import InputError, UsageError, plain_number, quote
 from ..spectra.model import SpectrumSet
 
@@ -265,13 +266,13 @@ def check_channels(channels: SpectrumSet) -> None:
     """Refuse fewer than two channels, more than :data:`MAX_CHANNELS`, two channels with one
     name, and a channel proportional to another (:data:`PROPORTIONAL_TOL`)."""
     if len(channels) < 2:
-        src = channels.sources[0].partition("#")[0] if len(channels) else None
+        src = source_file(channels.sources[0]) if len(channels) else None
         raise InputError(
             f"a mix needs at least two channels, found {len(channels)}",
             file=src,
             fix="give one wide file with a column per channel (at full drive), or several files",
         )
-    files = [s.partition("#")[0] for s in channels.sources]
+    files = [source_file(s) for s in channels.sources]
     if len(channels) > MAX_CHANNELS:
         raise InputError(
             f"{len(channels)} channels, more than the {MAX_CHANNELS} a mix accepts (the search over their "

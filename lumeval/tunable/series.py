@@ -18,7 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from .._paths import display_path
+from .._paths import display_path, source_file
 from ..errors import InputError, quote
 
 #: Units recognised after a number in a name or a metadata value (case-sensitive for K/A so
@@ -148,7 +148,7 @@ def setting_order(settings, sources) -> np.ndarray:
     if dup.size:
         a, b = order[dup[0]], order[dup[0] + 1]
         raise InputError(f"two spectra have the same setting {ss[dup[0]]:g}: {sources[a]} and {sources[b]}",
-                         file=str(sources[a]).partition("#")[0] or None, fix="give each spectrum of a series its own setting")
+                         file=source_file(sources[a]) or None, fix="give each spectrum of a series its own setting")
     return order
 
 

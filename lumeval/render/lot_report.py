@@ -286,15 +286,9 @@ def lot_json(run, out=None) -> str | None:
 def _metadata_values(run, start: int = 0, length: int | None = None) -> list[tuple[str, list]]:
     """(column, Python values) of the archive metadata carried by ``run`` (empty without), for
     ``length`` samples from ``start`` (default: all)."""
-    tbl = getattr(run, "metadata", None)
-    if tbl is None:
-        return []
-    if start or length is not None:
-        tbl = tbl.slice(start, length)
-    from ..spectra.archive import nanosecond_times_as_text
+    from ..spectra.archive import metadata_values
 
-    tbl = nanosecond_times_as_text(tbl)  # the text inspect and convert show
-    return [(name, tbl.column(name).to_pylist()) for name in tbl.column_names]
+    return metadata_values(getattr(run, "metadata", None), start, length)
 
 
 def metadata_headers(run) -> list[str]:

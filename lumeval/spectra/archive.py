@@ -478,6 +478,17 @@ def _python_rows(pa, tbl) -> list[dict]:
     return cast(list, nanosecond_times_as_text(tbl).to_pylist())
 
 
+def metadata_values(tbl, start: int = 0, length: int | None = None) -> list[tuple[str, list]]:
+    """(column, Python values) of the metadata table ``tbl`` (None: none), ``length`` rows from
+    ``start`` (default: all), through :func:`nanosecond_times_as_text`."""
+    if tbl is None:
+        return []
+    if start or length is not None:
+        tbl = tbl.slice(start, length)
+    tbl = nanosecond_times_as_text(tbl)
+    return [(name, tbl.column(name).to_pylist()) for name in tbl.column_names]
+
+
 def nanosecond_times_as_text(tbl):
     """``tbl`` (an Arrow table) with every time of day in nanoseconds (time64[ns], also inside
     lists and structs) as its text to the nanosecond (``"12:34:56.123456789"``, Arrow's cast):

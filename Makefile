@@ -4,7 +4,7 @@ VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test test-numeric lint venv clean bench bench-lots bench-lots-quick bench-lot-stages fuzz browser-deps postgres-deps
+.PHONY: demo test test-numeric lint venv clean bench bench-lots bench-lots-quick bench-lot-stages bench-engine-baseline fuzz browser-deps postgres-deps
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -97,6 +97,11 @@ bench-lots: $(STAMP)
 
 bench-lots-quick: $(STAMP)
 	OPENBLAS_NUM_THREADS=1 $(PY) bench/run_all.py --quick
+
+# The engine against the build before issue 14's engine work, alternated in one run (a ratio
+# the machine's phase does not move).
+bench-engine-baseline: $(STAMP)
+	OPENBLAS_NUM_THREADS=1 $(PY) bench/bench_engine_baseline.py
 
 # Where a one-process Parquet lot's CPU time goes, stage by stage (200,000 spectra by default).
 bench-lot-stages: $(STAMP)

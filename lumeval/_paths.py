@@ -32,17 +32,27 @@ def command_line() -> str:
     return " ".join(["lumeval", *map(display_path, sys.argv[1:])])
 
 
-def source_file(source: str) -> str:
+def source_file(source: str, known: dict[str, bool] | None = None) -> str:
     """The file a spectrum's source names. A source is ``FILE`` or ``FILE#LOCATOR`` (a column's
     name or number, ``row N``), and a file name may itself hold ``#`` (``lot#3.csv#2``): the
-    longest part before a ``#`` that is an existing file, the whole source if it is one, else
-    the part before the first ``#`` (the file no longer there or never one: messages only).
-    Splitting at the first ``#`` named ``lot`` for ``lot#3.csv`` (found by a review)."""
+    longest part before a ``#`` that is an existing file, else the whole source if it is one,
+    else the part before the first ``#`` (the file no longer there or never one: messages
+    only). Splitting at the first ``#`` named ``lot`` for ``lot#3.csv`` (found by a review).
+    ``known``: a dict kept across calls of what is a file, so that a million sources of a few
+    files cost a few file-system lookups."""
     text = str(source)
-    if "#" not in text or os.path.isfile(text):
+    if "#" not in text:
         return text
+    known = {} if known is None else known
+
+    def is_file(p: str) -> bool:
+        hit = known.get(p)
+        if hit is None:
+            hit = known[p] = os.path.isfile(p)
+        return hit
+
     cut = len(text)
     while (cut := text.rfind("#", 0, cut)) > 0:
-        if os.path.isfile(text[:cut]):
+        if is_file(text[:cut]):
             return text[:cut]
-    return text.partition("#")[0]
+    return text if os.path.isfile(text) else text.partition("#")[0]

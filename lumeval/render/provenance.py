@@ -83,8 +83,9 @@ def input_paths_from_sources(sources) -> list[str]:
     from .._paths import source_file
 
     seen: dict[str, None] = {}
+    known: dict[str, bool] = {}
     for s in sources:
-        p = source_file(s)
+        p = source_file(s, known)
         if p and p not in seen:
             seen[p] = None
     return list(seen)

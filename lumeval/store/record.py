@@ -228,7 +228,8 @@ def lot_record(run, *, criteria=None, lot_id: str | None = None, product: str | 
     if input_files is None:
         # the opened paths, not the samples' sources: a source is the printable name (a file
         # name's undecodable bytes shown as U+FFFD) and may hold "#" (FILE#column)
-        input_files = list(getattr(run, "read_paths", ()) or ()) or sorted({source_file(src) for src in run.sources})
+        known: dict[str, bool] = {}  # (a million sources of a few files: a few lookups)
+        input_files = list(getattr(run, "read_paths", ()) or ()) or sorted({source_file(src, known) for src in run.sources})
     inputs = []
     for p in sorted(set(input_files), key=display_path):
         inputs.append((display_path(p), sha256_of(p), os.path.getsize(p)))

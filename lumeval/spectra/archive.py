@@ -64,6 +64,12 @@ NAME_COLUMN = "name"
 #: any spectroradiometer; a larger number is a slip).
 MAX_WAVELENGTH_NM = 100000.0
 
+
+def _nameable(w: float) -> bool:
+    """Whether a wavelength column may name ``w`` nm (finite, above 0, at most
+    :data:`MAX_WAVELENGTH_NM`): the one rule of the reader and the writer."""
+    return math.isfinite(w) and 0 < w <= MAX_WAVELENGTH_NM
+
 _NUMBER = re.compile(r"^\s*[+]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?\s*$")
 _FIX_INSTALL = "install the archive extra: pip install 'lumeval[archive]'"
 
@@ -217,7 +223,7 @@ def layout_of(schema, file: str) -> Layout:
             else:
                 meta.append(col)
             continue
-        if not math.isfinite(w) or w <= 0 or w > MAX_WAVELENGTH_NM:
+        if not _nameable(w):
             raise InputError(f"column {quote(col)} names the wavelength {w:g} nm, which no spectrum has", file=file, field=col,
                              fix="name wavelength columns in nm, e.g. '380' or '380.5'")
         if w in seen:
@@ -689,7 +695,7 @@ def archive_table(spectra: SpectrumSet):
         cols[metadata_column_name(k, cols)] = string_array(pa, [None if m.get(k) is None else str(m[k])
                                                                 for m in spectra.metadata])
     for j, w in enumerate(spectra.wavelengths_nm):
-        if not (math.isfinite(w) and 0 < w <= MAX_WAVELENGTH_NM):
+        if not _nameable(w):
             raise InputError(f"has a row at {w:g} nm, which a Parquet archive cannot name (its wavelength columns "
                              f"lie above 0 and up to {MAX_WAVELENGTH_NM:g} nm; lumeval's reading drops such a row "
                              "before the figures are computed)", file=_first_source(spectra),

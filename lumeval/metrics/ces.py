@@ -107,7 +107,7 @@ def _ces_banded_cached(key: bytes) -> tuple[tuple[tuple[int, int, int, int, np.n
     if f is None or wl.size != 401 or not np.array_equal(wl, np.arange(380.0, 781.0)):
         return None
     N, A = f
-    cmf10 = cmfs_at(wl, OBSERVER_10)
+    cmf10 = _cfi_tables_cached(key)[0]  # the grid's CMFs, as the direct kernel has them
     blocks = []
     for k0 in range(0, N.shape[1], _CES_NODES_PER_BLOCK):
         ks = np.arange(k0, min(N.shape[1], k0 + _CES_NODES_PER_BLOCK))
